@@ -1,0 +1,308 @@
+"""Linear-elastic analysis of straight prismatic beams under uniform line loads.
+
+A direct stiffness solver (Euler-Bernoulli elements, two degrees of freedom per node) for a
+simple span, a span with overhangs, or a beam continuous over up to six supports. The beam is
+solved once for a unit uniform load on each element; any load case (a line load per element, so
+pattern loading too) is then a weighted sum of those unit responses, which keeps a recheck fast.
+
+Units: lengths mm, loads N/mm (1 N/mm = 1 kN/m), moments N*mm, forces N. Sign convention:
+sagging moment positive, loads positive downward, deflection reported positive downward.
+Pure Python: the tablet carries no numpy or scipy.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+SAMPLES_PER_ELEMENT = 24
+
+
+@dataclass(frozen=True)
+class Element:
+    """One element: a span between supports or an overhang (cantilever) with a free end."""
+
+    name: str
+    kind: str  # "span" or "overhang"
+    x0_mm: float
+    length_mm: float
+
+    @property
+    def x1_mm(self) -> float:
+        """Right end position, mm."""
+        return self.x0_mm + self.length_mm
+
+
+@dataclass(frozen=True)
+class Region:
+    """A stretch between consecutive points of zero moment, with one moment sign."""
+
+    x0_mm: float
+    x1_mm: float
+    sign: str  # "positive" or "negative"
+    m_max_nmm: float  # largest |M| in the region, N*mm
+    elements: tuple[int, ...]  # indices of the elements the region overlaps
+
+    @property
+    def length_mm(self) -> float:
+        """Length of the region (between points of zero moment), mm."""
+        return self.x1_mm - self.x0_mm
+
+
+@dataclass(frozen=True)
+class CaseResult:
+    """Response to one load case: end shear and moment per element and support reactions."""
+
+    w_n_mm: tuple[float, ...]
+    v0_n: tuple[float, ...]  # internal shear at each element's left end, N (up on left face +)
+    m0_nmm: tuple[float, ...]  # internal moment at each element's left end, N*mm (sagging +)
+    reactions_n: tuple[float, ...]  # one per support, upward positive
+
+    def moment_nmm(self, element: int, x_mm: float) -> float:
+        """Bending moment at local position x within an element, N*mm."""
+        return self.m0_nmm[element] + self.v0_n[element] * x_mm - 0.5 * self.w_n_mm[element] * x_mm * x_mm
+
+    def max_abs_shear_n(self, lengths: tuple[float, ...]) -> float:
+        """Largest |V| anywhere on the beam (it occurs at an element end), N."""
+        out = 0.0
+        for i, length in enumerate(lengths):
+            v1 = self.v0_n[i] - self.w_n_mm[i] * length
+            out = max(out, abs(self.v0_n[i]), abs(v1))
+        return out
+
+
+def _solve(matrix: list[list[float]], rhs: list[list[float]]) -> list[list[float]]:
+    """Gaussian elimination with partial pivoting for several right-hand sides (columns)."""
+    n = len(matrix)
+    aug = [matrix[i][:] + rhs[i][:] for i in range(n)]
+    m = len(rhs[0]) if rhs else 0
+    for col in range(n):
+        pivot = max(range(col, n), key=lambda r: abs(aug[r][col]))
+        if abs(aug[pivot][col]) < 1e-300:
+            raise ValueError("beam is a mechanism: check supports and overhangs")
+        aug[col], aug[pivot] = aug[pivot], aug[col]
+        piv = aug[col][col]
+        for r in range(col + 1, n):
+            f = aug[r][col] / piv
+            if f != 0.0:
+                row_r, row_c = aug[r], aug[col]
+                for k in range(col, n + m):
+                    row_r[k] -= f * row_c[k]
+    out = [[0.0] * m for _ in range(n)]
+    for col in range(n - 1, -1, -1):
+        for j in range(m):
+            s = aug[col][n + j]
+            for k in range(col + 1, n):
+                s -= aug[col][k] * out[k][j]
+            out[col][j] = s / aug[col][col]
+    return out
+
+
+class BeamModel:
+    """A beam's geometry solved for unit loads; evaluate any load case by superposition."""
+
+    def __init__(self, spans_mm: list[float], overhang_left_mm: float = 0.0, overhang_right_mm: float = 0.0):
+        """Build elements and supports, then solve for a unit UDL on each element (EI = 1)."""
+        if not spans_mm:
+            raise ValueError("spans_mm must hold at least one span")
+        elements: list[Element] = []
+        x = 0.0
+        if overhang_left_mm > 0:
+            elements.append(Element("overhang left", "overhang", x, overhang_left_mm))
+            x += overhang_left_mm
+        for i, span in enumerate(spans_mm):
+            elements.append(Element(f"span {i + 1}", "span", x, span))
+            x += span
+        if overhang_right_mm > 0:
+            elements.append(Element("overhang right", "overhang", x, overhang_right_mm))
+            x += overhang_right_mm
+        self.elements = tuple(elements)
+        self.lengths = tuple(e.length_mm for e in elements)
+        self.total_length_mm = x
+        first_support = 1 if overhang_left_mm > 0 else 0
+        self.support_nodes = tuple(range(first_support, first_support + len(spans_mm) + 1))
+        self.support_x_mm = tuple(self._node_x(n) for n in self.support_nodes)
+        self._solve_unit_cases()
+
+    def _node_x(self, node: int) -> float:
+        return sum(self.lengths[:node])
+
+    def _solve_unit_cases(self) -> None:
+        n_el = len(self.elements)
+        n_dof = 2 * (n_el + 1)
+        restrained = {2 * n for n in self.support_nodes}
+        free = [d for d in range(n_dof) if d not in restrained]
+        index = {d: i for i, d in enumerate(free)}
+        k_global = [[0.0] * len(free) for _ in free]
+        loads = [[0.0] * n_el for _ in free]
+        self._k_el = []
+        for e, length in enumerate(self.lengths):
+            k = _element_stiffness(length)
+            self._k_el.append(k)
+            dofs = (2 * e, 2 * e + 1, 2 * e + 2, 2 * e + 3)
+            fe = _fixed_end_udl(length)
+            for a, da in enumerate(dofs):
+                if da not in index:
+                    continue
+                ia = index[da]
+                loads[ia][e] += fe[a]
+                for b, db in enumerate(dofs):
+                    if db in index:
+                        k_global[ia][index[db]] += k[a][b]
+        disp_free = _solve(k_global, loads)
+        # displacement of every dof for unit case c
+        self._disp: list[list[float]] = []
+        for c in range(n_el):
+            d = [0.0] * n_dof
+            for dof, i in index.items():
+                d[dof] = disp_free[i][c]
+            self._disp.append(d)
+        # element end forces per unit case: f = k d - fe (fe only on the loaded element)
+        self._v0 = [[0.0] * n_el for _ in range(n_el)]  # [case][element]
+        self._m0 = [[0.0] * n_el for _ in range(n_el)]
+        self._vend = [[0.0] * n_el for _ in range(n_el)]
+        for c in range(n_el):
+            d = self._disp[c]
+            for e, length in enumerate(self.lengths):
+                de = d[2 * e : 2 * e + 4]
+                k = self._k_el[e]
+                f = [sum(k[a][b] * de[b] for b in range(4)) for a in range(4)]
+                if e == c:
+                    fe = _fixed_end_udl(length)
+                    f = [f[a] - fe[a] for a in range(4)]
+                self._v0[c][e] = f[0]
+                self._m0[c][e] = -f[1]
+                self._vend[c][e] = f[2]
+
+    def case(self, w_n_mm: tuple[float, ...]) -> CaseResult:
+        """Solve a load case given the line load on each element (N/mm, downward positive)."""
+        n_el = len(self.elements)
+        if len(w_n_mm) != n_el:
+            raise ValueError(f"w_n_mm has {len(w_n_mm)} entries; the beam has {n_el} elements")
+        v0 = [0.0] * n_el
+        m0 = [0.0] * n_el
+        vend = [0.0] * n_el
+        for c, w in enumerate(w_n_mm):
+            if w == 0.0:
+                continue
+            vc, mc, ec = self._v0[c], self._m0[c], self._vend[c]
+            for e in range(n_el):
+                v0[e] += w * vc[e]
+                m0[e] += w * mc[e]
+                vend[e] += w * ec[e]
+        reactions = []
+        for node in self.support_nodes:
+            r = 0.0
+            if node > 0:
+                r += vend[node - 1]
+            if node < n_el:
+                r += v0[node]
+            reactions.append(r)
+        return CaseResult(tuple(w_n_mm), tuple(v0), tuple(m0), tuple(reactions))
+
+    def deflections_mm(self, w_n_mm: tuple[float, ...], ei_nmm2: float) -> list[tuple[float, float]]:
+        """Downward deflection at sample points of each element: (max, at) per element, mm."""
+        n_el = len(self.elements)
+        d = [0.0] * (2 * (n_el + 1))
+        for c, w in enumerate(w_n_mm):
+            if w:
+                dc = self._disp[c]
+                for i in range(len(d)):
+                    d[i] += w * dc[i]
+        out = []
+        for e, length in enumerate(self.lengths):
+            v1, t1, v2, t2 = d[2 * e : 2 * e + 4]
+            best, at = 0.0, 0.0
+            for s in range(SAMPLES_PER_ELEMENT + 1):
+                x = length * s / SAMPLES_PER_ELEMENT
+                xi = x / length
+                n1 = 1 - 3 * xi**2 + 2 * xi**3
+                n2 = length * (xi - 2 * xi**2 + xi**3)
+                n3 = 3 * xi**2 - 2 * xi**3
+                n4 = length * (-(xi**2) + xi**3)
+                up = n1 * v1 + n2 * t1 + n3 * v2 + n4 * t2 - w_n_mm[e] * x * x * (length - x) ** 2 / 24.0
+                down = -up / ei_nmm2
+                if abs(down) > abs(best):
+                    best, at = down, self.elements[e].x0_mm + x
+            out.append((best, at))
+        return out
+
+    def regions(self, result: CaseResult) -> list[Region]:
+        """Split the beam at points of zero moment into regions of one sign."""
+        pieces: list[tuple[float, float, int]] = []  # (x0, x1, element) in global x
+        for e, el in enumerate(self.elements):
+            cuts = [0.0, el.length_mm]
+            w, v0 = result.w_n_mm[e], result.v0_n[e]
+            m0 = result.m0_nmm[e]
+            for root in _quadratic_roots(-0.5 * w, v0, m0):
+                if 1e-6 * el.length_mm < root < el.length_mm * (1 - 1e-6):
+                    cuts.append(root)
+            cuts.sort()
+            for a, b in zip(cuts, cuts[1:], strict=False):
+                pieces.append((el.x0_mm + a, el.x0_mm + b, e))
+        scale = max((self._piece_max(result, p)[0] for p in pieces), default=0.0)
+        regions: list[Region] = []
+        for p in pieces:
+            mid = 0.5 * (p[0] + p[1]) - self.elements[p[2]].x0_mm
+            m_mid = result.moment_nmm(p[2], mid)
+            peak, _ = self._piece_max(result, p)
+            if scale == 0.0 or peak <= 1e-9 * scale:
+                sign = regions[-1].sign if regions else "positive"
+            else:
+                sign = "positive" if m_mid > 0 else "negative"
+            if regions and regions[-1].sign == sign:
+                last = regions[-1]
+                elements = last.elements if p[2] in last.elements else (*last.elements, p[2])
+                regions[-1] = Region(last.x0_mm, p[1], sign, max(last.m_max_nmm, peak), elements)
+            else:
+                regions.append(Region(p[0], p[1], sign, peak, (p[2],)))
+        return regions
+
+    def _piece_max(self, result: CaseResult, piece: tuple[float, float, int]) -> tuple[float, float]:
+        e = piece[2]
+        x0 = piece[0] - self.elements[e].x0_mm
+        x1 = piece[1] - self.elements[e].x0_mm
+        candidates = [x0, x1]
+        w = result.w_n_mm[e]
+        if w != 0.0:
+            xv = result.v0_n[e] / w
+            if x0 < xv < x1:
+                candidates.append(xv)
+        best = max(candidates, key=lambda x: abs(result.moment_nmm(e, x)))
+        return abs(result.moment_nmm(e, best)), best + self.elements[e].x0_mm
+
+
+def _element_stiffness(length: float) -> list[list[float]]:
+    """Euler-Bernoulli beam element stiffness with EI = 1 (dofs v1, t1, v2, t2)."""
+    L = length
+    c = 1.0 / L**3
+    return [
+        [12 * c, 6 * L * c, -12 * c, 6 * L * c],
+        [6 * L * c, 4 * L * L * c, -6 * L * c, 2 * L * L * c],
+        [-12 * c, -6 * L * c, 12 * c, -6 * L * c],
+        [6 * L * c, 2 * L * L * c, -6 * L * c, 4 * L * L * c],
+    ]
+
+
+def _fixed_end_udl(length: float) -> tuple[float, float, float, float]:
+    """Equivalent nodal loads of a unit downward UDL (up and counter-clockwise positive)."""
+    L = length
+    return (-L / 2, -L * L / 12, -L / 2, L * L / 12)
+
+
+def _quadratic_roots(a: float, b: float, c: float) -> list[float]:
+    """Real roots of a x^2 + b x + c = 0 (a may be zero)."""
+    if a == 0.0:
+        return [] if b == 0.0 else [-c / b]
+    disc = b * b - 4 * a * c
+    if disc < 0:
+        return []
+    sq = math.sqrt(disc)
+    q = -0.5 * (b + math.copysign(sq, b))
+    roots = []
+    if q != 0.0:
+        roots.append(q / a)
+        roots.append(c / q)
+    else:
+        roots.append(0.0)
+    return roots

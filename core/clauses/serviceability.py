@@ -1,0 +1,18 @@
+"""Deflection limits (CSA O86-19 cl. 5.4.2 and NBC Part 9 Table 9.4.3.1)."""
+
+from __future__ import annotations
+
+
+def deflection_limit_mm(span_mm: float, ratio: float) -> float:
+    """CSA O86-19 cl. 5.4.2 / NBC Table 9.4.3.1: deflection limit = span / ratio, mm.
+
+    span_mm: span, mm (for a cantilever, twice its length: common practice); ratio: e.g. 360.
+    """
+    if ratio <= 0:
+        raise ValueError(f"ratio = {ratio} must be > 0")
+    return span_mm / ratio
+
+
+def modulus_for_deflection_es(e_mpa: float, kse: float, kt_e: float) -> float:
+    """CSA O86-19 cl. 5.4.1 (memory): ES = E (KSE KT), MPa; mean E, no KD."""
+    return e_mpa * kse * kt_e

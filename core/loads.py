@@ -1,0 +1,74 @@
+"""NBC ultimate limit states load combinations and their load-duration factor (KD, CSA O86-19 5.3.2).
+
+Combinations follow NBC Table 4.1.3.2.-A for gravity loads (dead D, live L, snow S); wind and
+earthquake are outside the recheck. Companion factor 0.5 on L and S (reference Q5: the edition's
+companion values are memory).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+from core.clauses.factors import KD_PERMANENT, load_duration_kd_standard
+
+
+@dataclass(frozen=True)
+class Combination:
+    """One ULS combination: factors on D, L and S and its duration class."""
+
+    name: str
+    alpha_d: float
+    alpha_l: float
+    alpha_s: float
+    permanent: bool  # 1.4D alone: KD for permanent loads
+    ps_l: float  # share of specified L counted as standard-term load PS
+    ps_s: float  # share of specified S counted as standard-term load PS
+
+
+def gravity_combinations(counteracting_dead: bool) -> list[Combination]:
+    """NBC Table 4.1.3.2.-A cases 1-3 for D, L, S; with 0.9D variants when dead load may relieve.
+
+    counteracting_dead: True for beams with more than one element (continuous or overhanging),
+    where 0.9D on the whole beam can govern a region (NBC note: 0.9D where D counteracts).
+    """
+    out = [
+        Combination("1.4D", 1.4, 0.0, 0.0, True, 0.0, 0.0),
+        Combination("1.25D + 1.5L", 1.25, 1.5, 0.0, False, 1.0, 0.0),
+        Combination("1.25D + 1.5L + 0.5S", 1.25, 1.5, 0.5, False, 1.0, 0.5),
+        Combination("1.25D + 1.5S", 1.25, 0.0, 1.5, False, 0.0, 1.0),
+        Combination("1.25D + 1.5S + 0.5L", 1.25, 0.5, 1.5, False, 0.5, 1.0),
+    ]
+    if counteracting_dead:
+        out += [
+            Combination(c.name.replace("1.25D", "0.9D"), 0.9, c.alpha_l, c.alpha_s, False, c.ps_l, c.ps_s)
+            for c in out[1:]
+        ]
+    return out
+
+
+def combination_kd(combo: Combination, dead_n_mm: float, live_n_mm: float, snow_n_mm: float) -> tuple[float, str]:
+    """CSA O86-19 5.3.2 (memory): KD for a combination, with a note of how it was chosen.
+
+    dead_n_mm: specified dead load including self-weight, N/mm; live, snow: specified, N/mm.
+    1.4D takes the permanent KD 0.65; other gravity combinations are standard term, with
+    KD = 1 - 0.5 log10(PL/PS) >= 0.65 where PL > PS (PS = principal + 0.5 companion, specified).
+    """
+    if combo.permanent:
+        return KD_PERMANENT, "permanent load (1.4D): KD = 0.65, O86-19 Table 5.1"
+    ps = combo.ps_l * live_n_mm + combo.ps_s * snow_n_mm
+    kd = load_duration_kd_standard(dead_n_mm, ps)
+    if kd == 1.0:
+        return kd, f"standard term, PL = {dead_n_mm:.2f} <= PS = {ps:.2f} kN/m: KD = 1.0, O86-19 5.3.2.2"
+    return kd, f"standard term, PL = {dead_n_mm:.2f} > PS = {ps:.2f} kN/m: KD = 1 - 0.5 log(PL/PS), O86-19 5.3.2.3"
+
+
+def applicable(combo: Combination, live_n_mm: float, snow_n_mm: float) -> bool:
+    """A combination applies when its principal variable load is present (1.4D always applies)."""
+    if combo.permanent:
+        return True
+    principal_present = live_n_mm > 0 if combo.alpha_l == 1.5 else snow_n_mm > 0
+    companion_l = combo.alpha_l == 0.5
+    companion_s = combo.alpha_s == 0.5
+    if companion_l and live_n_mm == 0 or companion_s and snow_n_mm == 0:
+        return False  # the same as the combination without the companion
+    return principal_present

@@ -1,0 +1,264 @@
+"""Domain models for a logged beam (contract 1 input), pydantic v2, frozen, units in field names.
+
+Bad input raises ``pydantic.ValidationError`` (a ``ValueError``) whose text names the field,
+the value and what is allowed.
+"""
+
+from __future__ import annotations
+
+from enum import StrEnum
+from typing import Annotated, Any
+
+from pydantic import BaseModel, ConfigDict, Field, field_validator, model_validator
+
+from core import tables
+
+MAX_SPAN_MM = 60_000.0
+MAX_SPANS = 5
+
+
+class Record(BaseModel):
+    """Shared base: frozen, unknown keys refused."""
+
+    model_config = ConfigDict(frozen=True, extra="forbid")
+
+
+PositiveMm = Annotated[float, Field(gt=0, le=MAX_SPAN_MM, allow_inf_nan=False)]
+WidthMm = Annotated[float, Field(gt=0, le=1_000, allow_inf_nan=False)]
+DepthMm = Annotated[float, Field(gt=0, le=2_500, allow_inf_nan=False)]
+OverhangMm = Annotated[float, Field(ge=0, le=20_000, allow_inf_nan=False)]
+BearingLengthMm = Annotated[float, Field(gt=0, le=2_000, allow_inf_nan=False)]
+LineLoadKnM = Annotated[float, Field(ge=0, le=500, allow_inf_nan=False)]
+
+
+class Material(StrEnum):
+    """Member material."""
+
+    glulam = "glulam"
+    sawn = "sawn"
+
+
+class Restraint(StrEnum):
+    """Restraint state at a bearing as seen on site."""
+
+    yes = "yes"
+    no = "no"
+    not_visible = "not_visible"
+
+
+class TopBracing(StrEnum):
+    """What holds the top edge."""
+
+    none = "none"
+    purlins = "purlins"
+    decking = "decking"
+
+
+class BottomBracing(StrEnum):
+    """What holds the bottom edge."""
+
+    none = "none"
+    braces = "braces"
+
+
+class Service(StrEnum):
+    """Service condition (wet: equilibrium moisture above 15 % glulam / 19 % lumber)."""
+
+    dry = "dry"
+    wet = "wet"
+
+
+class Treatment(StrEnum):
+    """Preservative treatment."""
+
+    none = "none"
+    incised = "incised"
+
+
+class TopStamp(StrEnum):
+    """Orientation of the TOP stamp of an unbalanced glulam layup."""
+
+    up = "up"
+    down = "down"
+    not_visible = "not_visible"
+
+
+class Use(StrEnum):
+    """What the member supports; picks the deflection limit."""
+
+    floor = "floor"
+    roof_plaster = "roof_plaster"
+    roof_other = "roof_other"
+    roof_no_ceiling = "roof_no_ceiling"
+
+
+class SystemCase(StrEnum):
+    """Load-sharing system for sawn lumber (KH, O86-19 Table 6.12)."""
+
+    single = "single"
+    shared = "shared"
+    light_frame = "light_frame"
+    built_up = "built_up"
+
+
+def _restraint(value: Any) -> Any:
+    if value is True:
+        return Restraint.yes
+    if value is False:
+        return Restraint.no
+    return value
+
+
+class Bearing(Record):
+    """One support: restraint against lateral displacement and rotation, and bearing length."""
+
+    lateral: Restraint
+    rotation: Restraint
+    length_mm: BearingLengthMm
+
+    @field_validator("lateral", "rotation", mode="before")
+    @classmethod
+    def _bool_to_restraint(cls, value: Any) -> Any:
+        return _restraint(value)
+
+    @property
+    def restrained(self) -> bool:
+        """True when both restraints were seen in place."""
+        return self.lateral is Restraint.yes and self.rotation is Restraint.yes
+
+
+class TopEdge(Record):
+    """Bracing of the top edge (purlins at a spacing, or decking) and whether it is fastened."""
+
+    braced_by: TopBracing = TopBracing.none
+    spacing_mm: PositiveMm | None = None
+    fastened: bool = True
+
+    @model_validator(mode="after")
+    def _spacing_rule(self) -> TopEdge:
+        if self.braced_by is TopBracing.purlins and self.spacing_mm is None:
+            raise ValueError("top_edge.spacing_mm is required when top_edge.braced_by is 'purlins'")
+        return self
+
+
+class BottomEdge(Record):
+    """Bracing of the bottom edge (knee braces, blocking or struts at a spacing)."""
+
+    braced_by: BottomBracing = BottomBracing.none
+    spacing_mm: PositiveMm | None = None
+
+    @model_validator(mode="after")
+    def _spacing_rule(self) -> BottomEdge:
+        if self.braced_by is BottomBracing.braces and self.spacing_mm is None:
+            raise ValueError("bottom_edge.spacing_mm is required when bottom_edge.braced_by is 'braces'")
+        return self
+
+
+class Loads(Record):
+    """Specified (unfactored) uniform line loads, kN/m (= N/mm), excluding self-weight."""
+
+    dead_kn_m: LineLoadKnM = 0.0
+    live_kn_m: LineLoadKnM = 0.0
+    snow_kn_m: LineLoadKnM = 0.0
+
+
+class Specified(Record):
+    """The member shown on the design drawings."""
+
+    b_mm: WidthMm
+    d_mm: DepthMm
+    species: str
+    grade: str
+
+
+def species_allowed(material: Material) -> list[str]:
+    """Species names the tables hold for a material."""
+    name = "glulam_grades" if material is Material.glulam else "sawn_grades"
+    return sorted(set(tables.column(name, "species")))
+
+
+def grades_allowed(material: Material, species: str) -> list[str]:
+    """Grades the tables hold for a material and species."""
+    name = "glulam_grades" if material is Material.glulam else "sawn_grades"
+    return [r["grade"] for r in tables.load(name).rows if r["species"] == species]
+
+
+def le_cases_allowed() -> list[str]:
+    """Rows of the effective-length table (O86-19 Table 7.4)."""
+    return tables.column("effective_length", "le_case")
+
+
+class Beam(Record):
+    """One installed beam as logged on site (contract 1)."""
+
+    mark: str = Field(min_length=1, max_length=40)
+    material: Material
+    species: str
+    grade: str
+    b_mm: WidthMm
+    d_mm: DepthMm
+    spans_mm: list[PositiveMm] = Field(min_length=1, max_length=MAX_SPANS)
+    bearings: list[Bearing]
+    top_edge: TopEdge = TopEdge()
+    loads: Loads
+    overhang_left_mm: OverhangMm = 0.0
+    overhang_right_mm: OverhangMm = 0.0
+    bottom_edge: BottomEdge = BottomEdge()
+    le_case: str = "any"
+    service: Service = Service.dry
+    treatment: Treatment = Treatment.none
+    top_stamp: TopStamp = TopStamp.up
+    self_weight: bool = True
+    use: Use = Use.roof_no_ceiling
+    specified: Specified | None = None
+    system: SystemCase = SystemCase.single
+    bridging_spacing_mm: PositiveMm | None = None
+    size_tolerance_mm: float = Field(default=2.0, ge=0, le=25, allow_inf_nan=False)
+
+    @model_validator(mode="after")
+    def _cross_field_rules(self) -> Beam:
+        _check_species_grade("species", "grade", self.material, self.species, self.grade)
+        if self.specified is not None:
+            _check_species_grade(
+                "specified.species", "specified.grade", self.material, self.specified.species,
+                self.specified.grade,
+            )
+        supports = len(self.spans_mm) + 1
+        if len(self.bearings) != supports:
+            raise ValueError(
+                f"bearings: {len(self.bearings)} given; {len(self.spans_mm)} span(s) need "
+                f"{supports} (one per support, left to right)"
+            )
+        longest = max(self.spans_mm)
+        for edge in ("top_edge", "bottom_edge"):
+            spacing = getattr(self, edge).spacing_mm
+            if spacing is not None and spacing > longest:
+                raise ValueError(
+                    f"{edge}.spacing_mm = {spacing:g} is larger than the longest span {longest:g} mm; "
+                    "allowed: 0 < spacing <= longest span"
+                )
+        if self.le_case not in le_cases_allowed():
+            raise ValueError(f"le_case = {self.le_case!r}; allowed: {le_cases_allowed()}")
+        if self.material is Material.sawn:
+            if self.b_mm > 102:
+                raise ValueError(
+                    f"b_mm = {self.b_mm:g} for sawn lumber; allowed: 0 < b_mm <= 102 (dimension lumber; "
+                    "timbers >= 114 mm thick are not supported: their strengths are not in the tables)"
+                )
+            if self.d_mm > 400:
+                raise ValueError(f"d_mm = {self.d_mm:g} for sawn lumber; allowed: 0 < d_mm <= 400")
+        if self.material is Material.glulam and self.system is not SystemCase.single:
+            raise ValueError("system: glulam beams take KH = 1.0; allowed for glulam: 'single'")
+        total = sum(self.spans_mm) + self.overhang_left_mm + self.overhang_right_mm
+        if total > MAX_SPAN_MM * 2:
+            raise ValueError(f"total length {total:g} mm; allowed: <= {MAX_SPAN_MM * 2:g} mm")
+        return self
+
+
+def _check_species_grade(f_species: str, f_grade: str, material: Material, species: str, grade: str) -> None:
+    allowed = species_allowed(material)
+    if species not in allowed:
+        raise ValueError(f"{f_species} = {species!r} is not a {material.value} species; allowed: {allowed}")
+    grades = grades_allowed(material, species)
+    if grade not in grades:
+        raise ValueError(f"{f_grade} = {grade!r} does not exist for {material.value} {species}; allowed: {grades}")

@@ -1,0 +1,460 @@
+"""Member recheck: picks the clauses for a logged beam and records every factor it used.
+
+This layer takes the pydantic ``Beam``, runs the analysis for every NBC combination and live/snow
+pattern, finds each region's compression edge and unsupported length, and applies the clause
+functions. It does no engineering arithmetic of its own beyond choosing inputs and maxima.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from itertools import product
+from typing import Any
+
+from core import tables
+from core.analysis import BeamModel, CaseResult, Region
+from core.clauses.bearing import bearing_qr, sawn_bearing_kzcp
+from core.clauses.bending import glulam_bending_strength_for_face, glulam_mr, sawn_mr, size_factor_kzbg
+from core.clauses.factors import factored_bending_strength_fb, factored_strength
+from core.clauses.outcomes import NotPermitted
+from core.clauses.serviceability import deflection_limit_mm, modulus_for_deflection_es
+from core.clauses.shear import (
+    GLULAM_SIMPLE_SHEAR_MAX_VOLUME_M3,
+    glulam_volume_m3,
+    glulam_vr,
+    glulam_wr,
+    sawn_vr,
+)
+from core.clauses.stability import (
+    bearing_restraint_required,
+    critical_slenderness_ck,
+    glulam_db_waives_stability,
+    lateral_stability_kl,
+    lumber_db_limit,
+    slenderness_cb,
+)
+from core.findings import build_findings, overall_status
+from core.loads import Combination, applicable, combination_kd, gravity_combinations
+from core.member import Member, member_properties
+from core.models import Beam, BottomBracing, Material, TopBracing
+from core.results import (
+    BearingCheck,
+    BendingRegion,
+    DeflectionCheck,
+    FactorTrace,
+    Recheck,
+    ShearCheck,
+)
+
+CV_SIMPLE_UDL = 3.69
+KN = 1e-3
+KNM = 1e-6
+
+
+@dataclass(frozen=True)
+class LoadCase:
+    """One combination with one live/snow pattern, solved."""
+
+    combo: Combination
+    kd: float
+    kd_note: str
+    pattern: str
+    result: CaseResult
+    total_factored_n: float
+
+
+@dataclass(frozen=True)
+class EdgeSupport:
+    """How a region's compression edge is held."""
+
+    edge: str  # "top" or "bottom"
+    continuous: bool
+    lu_mm: float
+    description: str
+    status: str
+    purlins_in_line: bool
+    held_directly: bool
+    bridging: bool
+    both_edges: bool
+    unbraced: bool  # no bracing at all between supports / zero-moment points
+
+
+def _patterns(n_el: int) -> list[tuple[bool, ...]]:
+    """Live and snow patterns: every non-empty subset of elements (all elements for one element)."""
+    if n_el == 1:
+        return [(True,)]
+    return [p for p in product((True, False), repeat=n_el) if any(p)]
+
+
+def _pattern_name(model: BeamModel, pattern: tuple[bool, ...]) -> str:
+    if all(pattern):
+        return "all spans"
+    return ", ".join(el.name for el, on in zip(model.elements, pattern, strict=True) if on)
+
+
+def load_cases(beam: Beam, member: Member, model: BeamModel) -> list[LoadCase]:
+    """Every applicable NBC gravity combination with every live/snow pattern, solved."""
+    dead = beam.loads.dead_kn_m + member.self_weight_n_mm
+    live, snow = beam.loads.live_kn_m, beam.loads.snow_kn_m
+    n_el = len(model.elements)
+    cases = []
+    for combo in gravity_combinations(counteracting_dead=n_el > 1):
+        if not applicable(combo, live, snow):
+            continue
+        kd, note = combination_kd(combo, dead, live, snow)
+        variable = combo.alpha_l * live + combo.alpha_s * snow
+        patterns = [(True,) * n_el] if combo.permanent or variable == 0 else _patterns(n_el)
+        for pattern in patterns:
+            w = tuple(combo.alpha_d * dead + (variable if on else 0.0) for on in pattern)
+            total = sum(wi * li for wi, li in zip(w, model.lengths, strict=True))
+            name = "" if combo.permanent else _pattern_name(model, pattern)
+            cases.append(LoadCase(combo, kd, note, name, model.case(w), total))
+    return cases
+
+
+def region_name(model: BeamModel, region: Region) -> str:
+    """A stable name for a region: 'span 2', 'support 2', 'supports 2-3', 'overhang left'."""
+    if region.sign == "positive":
+        mid = 0.5 * (region.x0_mm + region.x1_mm)
+        for el in model.elements:
+            if el.x0_mm <= mid <= el.x1_mm:
+                return el.name
+    overhangs = [model.elements[e].name for e in region.elements if model.elements[e].kind == "overhang"]
+    if overhangs:
+        return " + ".join(overhangs)
+    inside = [i + 1 for i, x in enumerate(model.support_x_mm) if region.x0_mm < x < region.x1_mm]
+    if len(inside) == 1:
+        return f"support {inside[0]}"
+    if inside:
+        return f"supports {inside[0]}-{inside[-1]}"
+    return f"{model.elements[region.elements[0]].name} (hogging)"
+
+
+def compression_edge(beam: Beam, model: BeamModel, region: Region) -> EdgeSupport:
+    """The compression edge of a region and its unsupported length Lu (mm), with how it was found."""
+    top, bottom = beam.top_edge, beam.bottom_edge
+    top_direct = top.fastened and (
+        top.braced_by is TopBracing.decking
+        or (top.braced_by is TopBracing.purlins and top.spacing_mm is not None and top.spacing_mm <= 610)
+    )
+    bottom_braced = bottom.braced_by is BottomBracing.braces and bottom.spacing_mm is not None
+    both = top_direct and bottom_braced
+    bridging = beam.bridging_spacing_mm is not None and beam.bridging_spacing_mm <= 8 * beam.d_mm
+    if region.sign == "positive":
+        el = max(region.elements, key=lambda e: model.lengths[e])
+        between = model.lengths[el]
+        if top.braced_by is TopBracing.decking and top.fastened:
+            return EdgeSupport("top", True, 0.0, "top edge held continuously by fastened decking", "memory",
+                               True, True, bridging, both, False)
+        if top.braced_by is TopBracing.purlins and top.fastened and top.spacing_mm is not None:
+            lu = min(top.spacing_mm, between)
+            return EdgeSupport("top", False, lu, f"top edge braced by fastened purlins at {top.spacing_mm:g} mm",
+                               "memory", True, top_direct, bridging, both, False)
+        why = "" if top.braced_by is TopBracing.none else f" ({top.braced_by.value} not fastened)"
+        return EdgeSupport("top", False, between, f"top edge unbraced between supports{why}", "memory",
+                           False, False, False, False, True)
+    overhang = sum(model.lengths[e] for e in region.elements if model.elements[e].kind == "overhang")
+    if overhang > 0:
+        back = max(region.length_mm - overhang, 0.0)
+        zone = max(overhang, back)
+        how = (f"cantilever {overhang:.0f} mm from its support; back-span hogging {back:.0f} mm "
+               "(the longer governs)")
+    else:
+        zone = region.length_mm
+        how = f"hogging zone {zone:.0f} mm between points of zero moment (common practice)"
+    if bottom_braced and bottom.spacing_mm is not None:
+        lu = min(bottom.spacing_mm, zone)
+        return EdgeSupport("bottom", False, lu, f"bottom edge braced at {bottom.spacing_mm:g} mm; {how}",
+                           "memory", True, bottom.spacing_mm <= 610, bridging, both, False)
+    return EdgeSupport("bottom", False, zone, f"bottom edge unbraced; {how}", "memory",
+                       False, False, False, False, True)
+
+
+def unrestrained_elements(beam: Beam, model: BeamModel) -> set[int]:
+    """Elements next to a bearing whose required restraint is missing or not visible."""
+    if not bearing_restraint_required(beam.d_mm, beam.b_mm):
+        return set()
+    out: set[int] = set()
+    for j, bearing in enumerate(beam.bearings):
+        if not bearing.restrained:
+            node = model.support_nodes[j]
+            out.update(e for e in (node - 1, node) if 0 <= e < len(model.elements))
+    return out
+
+
+def _le_row(beam: Beam) -> dict[str, str]:
+    return tables.find("effective_length", le_case=beam.le_case)
+
+
+def bending_check(
+    beam: Beam, member: Member, model: BeamModel, region: Region, case: LoadCase, edge: EdgeSupport,
+    not_established: bool, trace: list[FactorTrace] | None,
+) -> dict[str, Any]:
+    """Mr and utilisation of one region under one load case (numbers; trace appended if given)."""
+    sawn = beam.material is Material.sawn
+    if sawn:
+        fb_spec, face = member.fb_pos_mpa, "fb"
+    else:
+        fb_spec, face = glulam_bending_strength_for_face(
+            member.fb_pos_mpa, member.fb_neg_mpa, region.sign, beam.top_stamp.value)
+    fb = factored_bending_strength_fb(fb_spec, case.kd, member.kh, member.ksb, member.kt)
+    out: dict[str, Any] = {
+        "lu_mm": None if edge.continuous else edge.lu_mm, "le_mm": None, "le_factor": None, "cb": None,
+        "ck": None, "kl": None, "kzbg": None, "kzb": member.kzb, "fb_mpa": fb, "kd": case.kd,
+        "mr_knm": None, "mf_knm": region.m_max_nmm * KNM, "utilisation": None,
+    }
+    if trace is not None:
+        trace.append(FactorTrace(symbol="KD", value=case.kd, clause="CSA O86-19 5.3.2", source=case.kd_note,
+                                 status="memory"))
+        trace.append(FactorTrace(symbol=f"{face} ({region.sign} moment)", value=fb_spec, unit="MPa",
+                                 clause="CSA O86-19 Table 7.3 note" if not sawn else "CSA O86-19 Table 6.3.1A",
+                                 source=f"top stamp {beam.top_stamp.value}", status="memory"))
+        trace.append(FactorTrace(symbol="Fb", value=round(fb, 3), unit="MPa", clause="CSA O86-19 7.5.6.5.1",
+                                 source="Fb = fb (KD KH KSb KT)"))
+        trace.append(FactorTrace(symbol="Lu", value=out["lu_mm"], unit="mm", source=edge.description,
+                                 status=edge.status))
+    if not sawn:
+        kzbg = size_factor_kzbg(beam.b_mm, beam.d_mm, region.length_mm)
+        out["kzbg"] = kzbg
+        if trace is not None:
+            trace.append(FactorTrace(symbol="KZbg", value=round(kzbg, 4), clause="CSA O86-19 7.5.6.5.1",
+                                     source=f"L = {region.length_mm:.0f} mm between points of zero moment; cap 1.3",
+                                     status="confirmed"))
+    if not_established:
+        out["outcome"] = "not_established"
+        return out
+    kl = _stability_kl(beam, member, edge, fb, out, trace)
+    if isinstance(kl, NotPermitted):
+        out["outcome"] = "not_permitted"
+        return out
+    out["kl"] = kl
+    if sawn:
+        mr = sawn_mr(fb, member.s_mm3, member.kzb or 1.0, kl)
+        clause = "CSA O86-19 6.5.3.1 (memory)"
+    else:
+        mr = glulam_mr(fb, member.s_mm3, 1.0, out["kzbg"], kl)
+        clause = "CSA O86-19 7.5.6.5.1"
+    out["mr_knm"] = mr * KNM
+    out["utilisation"] = region.m_max_nmm / mr if mr > 0 else float("inf")
+    out["outcome"] = "overstress" if out["utilisation"] > 1.0 else "ok"
+    if trace is not None:
+        trace.append(FactorTrace(symbol="Mr", value=round(mr * KNM, 2), unit="kN*m", clause=clause,
+                                 source="lesser of phi Fb S KX KZbg and phi Fb S KX KL, phi = 0.9, KX = 1"
+                                 if not sawn else "phi Fb S KZb KL, phi = 0.9"))
+    return out
+
+
+def _stability_kl(
+    beam: Beam, member: Member, edge: EdgeSupport, fb: float, out: dict[str, Any],
+    trace: list[FactorTrace] | None,
+) -> float | NotPermitted:
+    db = beam.d_mm / beam.b_mm
+    if beam.material is Material.glulam:
+        if glulam_db_waives_stability(beam.d_mm, beam.b_mm):
+            _note(trace, "KL", 1.0, "CSA O86-19 7.5.6.3.2", f"d/b = {db:.2f} <= 2.5", "memory")
+            return 1.0
+        e = member.e_mpa
+    else:
+        limit, need = lumber_db_limit(edge.purlins_in_line, edge.held_directly, edge.bridging, edge.both_edges)
+        if db <= limit:
+            _note(trace, "KL", 1.0, "CSA O86-19 6.5.3.2.1", f"d/b = {db:.2f} <= {limit:g} ({need})", "memory")
+            return 1.0
+        e = member.e05_mpa
+        _note(trace, "E05", e, "CSA O86-19 6.5.3.2 (reference Q2)",
+              f"d/b = {db:.2f} > {limit:g}: glulam KL method with E05 (conservative choice)", "memory")
+    if edge.continuous:
+        _note(trace, "KL", 1.0, "CSA O86-19 7.5.6.3", edge.description, "memory")
+        return 1.0
+    row = _le_row(beam)
+    factor = float(row["factor"])
+    le = factor * edge.lu_mm
+    cb = slenderness_cb(le, beam.d_mm, beam.b_mm)
+    ck = critical_slenderness_ck(e, member.kse, member.kt, fb)
+    out.update(le_mm=le, le_factor=factor, cb=cb, ck=ck)
+    _note(trace, "Le", round(le, 1), "CSA O86-19 7.5.6.4.2 / Table 7.4",
+          f"effective_length: {row['le_case']} ({row['description']}): {factor:g} x Lu", row["status"], "mm")
+    _note(trace, "CB", round(cb, 3), "CSA O86-19 7.5.6.4.3", "CB = sqrt(Le d / b^2)", "confirmed")
+    _note(trace, "CK", round(ck, 3), "CSA O86-19 7.5.6.4.4", "CK = sqrt(0.97 E KSE KT / (Fb KX))", "confirmed")
+    kl = lateral_stability_kl(cb, ck, e, member.kse, member.kt, fb)
+    if isinstance(kl, NotPermitted):
+        _note(trace, "KL", None, kl.clause, str(kl), "confirmed")
+        return kl
+    regime = "(a) CB <= 10" if cb <= 10 else ("(b) 10 < CB <= CK" if cb <= ck else "(c) CK < CB <= 50")
+    _note(trace, "KL", round(kl, 4), "CSA O86-19 7.5.6.4.4", f"regime {regime}", "confirmed")
+    return kl
+
+
+def _note(trace: list[FactorTrace] | None, symbol: str, value: float | None, clause: str, source: str,
+          status: str, unit: str = "") -> None:
+    if trace is not None:
+        trace.append(FactorTrace(symbol=symbol, value=value, unit=unit, clause=clause, source=source,
+                                 status=status))
+
+
+_OUTCOME_RANK = {"not_established": 3, "not_permitted": 2, "overstress": 1, "ok": 0}
+
+
+def _rank(numbers: dict[str, Any]) -> tuple[int, float]:
+    util = numbers["utilisation"]
+    return (_OUTCOME_RANK[numbers["outcome"]], numbers["mf_knm"] if util is None else util)
+
+
+def bending_regions(beam: Beam, member: Member, model: BeamModel, cases: list[LoadCase]) -> list[BendingRegion]:
+    """Governing bending check for every named region over all cases."""
+    blocked = unrestrained_elements(beam, model)
+    best: dict[str, tuple[tuple[int, float], Region, LoadCase, EdgeSupport, bool]] = {}
+    for case in cases:
+        for region in model.regions(case.result):
+            name = f"{region_name(model, region)}|{region.sign}"
+            edge = compression_edge(beam, model, region)
+            ne = bool(blocked.intersection(region.elements))
+            rank = _rank(bending_check(beam, member, model, region, case, edge, ne, None))
+            if name not in best or rank > best[name][0]:
+                best[name] = (rank, region, case, edge, ne)
+    out = []
+    for name, (_, region, case, edge, ne) in sorted(best.items(), key=lambda kv: kv[1][1].x0_mm):
+        trace: list[FactorTrace] = []
+        numbers = bending_check(beam, member, model, region, case, edge, ne, trace)
+        clause = "CSA O86-19 7.5.6.5.1, 7.5.6.4" if beam.material is Material.glulam else "CSA O86-19 6.5.3"
+        out.append(BendingRegion(
+            region=name.split("|")[0], sign=region.sign, x_start_mm=region.x0_mm, x_end_mm=region.x1_mm,
+            combination=_case_label(case), clause=clause, compression_edge=edge.description,
+            trace=list(member.trace) + trace, **numbers,
+        ))
+    return out
+
+
+def _case_label(case: LoadCase) -> str:
+    return case.combo.name if not case.pattern or case.pattern == "all spans" else (
+        f"{case.combo.name} (L/S on {case.pattern})")
+
+
+def shear_check(beam: Beam, member: Member, model: BeamModel, cases: list[LoadCase]) -> ShearCheck:
+    """Governing shear check (O86-19 7.5.7 glulam, 6.5.4 lumber)."""
+    volume = glulam_volume_m3(beam.b_mm, beam.d_mm, model.total_length_mm)
+    volume_method = beam.material is Material.glulam and volume >= GLULAM_SIMPLE_SHEAR_MAX_VOLUME_M3
+    best: tuple[float, float, float, LoadCase] | None = None
+    for case in cases:
+        fv = factored_strength(member.fv_mpa, case.kd, member.kh, member.ksv, member.kt)
+        if volume_method:
+            resist, demand = glulam_wr(fv, member.area_mm2, CV_SIMPLE_UDL, volume), case.total_factored_n
+        elif beam.material is Material.glulam:
+            resist, demand = glulam_vr(fv, member.area_mm2), case.result.max_abs_shear_n(model.lengths)
+        else:
+            resist = sawn_vr(fv, member.area_mm2, member.kzb or 1.0)
+            demand = case.result.max_abs_shear_n(model.lengths)
+        util = demand / resist
+        if best is None or util > best[0]:
+            best = (util, resist, demand, case)
+    assert best is not None
+    util, resist, demand, case = best
+    if volume_method:
+        cv_status = "confirmed" if len(model.elements) == 1 else "memory"
+        method = "volume: Wr vs total factored load W (Z >= 2.0 m3)"
+        clause = "CSA O86-19 7.5.7.3(a)"
+        extra = FactorTrace(symbol="CV", value=CV_SIMPLE_UDL, clause="CSA O86-19 Table 7.5",
+                            source="simple span, uniform load" + ("" if cv_status == "confirmed" else
+                                   "; applied to a continuous or overhanging beam: verify"), status=cv_status)
+    else:
+        method = "2A/3" if beam.material is Material.glulam else "2An/3 KZv"
+        clause = "CSA O86-19 7.5.7.2" if beam.material is Material.glulam else "CSA O86-19 6.5.4.1 (memory)"
+        extra = FactorTrace(symbol="Z", value=round(volume, 3), unit="m3", clause="CSA O86-19 7.5.7",
+                            source="volume below 2.0 m3: simple method permitted" if beam.material is
+                            Material.glulam else "sawn lumber")
+    trace = [FactorTrace(symbol="KD", value=case.kd, clause="CSA O86-19 5.3.2", source=case.kd_note,
+                         status="memory"), extra]
+    return ShearCheck(vr_kn=resist * KN, vf_kn=demand * KN, utilisation=util, method=method,
+                      combination=_case_label(case), kd=case.kd, clause=clause, trace=trace)
+
+
+def bearing_checks(beam: Beam, member: Member, model: BeamModel, cases: list[LoadCase]) -> list[BearingCheck]:
+    """Bearing at each support (O86-19 6.5.6 lumber, 7.5.9 glulam; KB = 1.0)."""
+    kzcp = sawn_bearing_kzcp(beam.b_mm, beam.d_mm) if beam.material is Material.sawn else 1.0
+    out = []
+    for j, bearing in enumerate(beam.bearings):
+        area = beam.b_mm * bearing.length_mm
+        best: tuple[float, float, float, LoadCase] | None = None
+        for case in cases:
+            fcp = factored_strength(member.fcp_mpa, case.kd, member.kscp, member.kt)
+            qr = bearing_qr(fcp, area, 1.0, kzcp)
+            qf = max(case.result.reactions_n[j], 0.0)
+            util = qf / qr
+            if best is None or util > best[0]:
+                best = (util, qr, qf, case)
+        assert best is not None
+        util, qr, qf, case = best
+        clause = "CSA O86-19 7.5.9 (memory)" if beam.material is Material.glulam else "CSA O86-19 6.5.6 (memory)"
+        trace = [FactorTrace(symbol="Ab", value=area, unit="mm2", source=f"b x bearing length {bearing.length_mm:g} mm",
+                             status="input"),
+                 FactorTrace(symbol="KB", value=1.0, clause=clause, source="end bearing / conservative",
+                             status="memory"),
+                 FactorTrace(symbol="KZcp", value=kzcp, clause=clause, status="memory"),
+                 FactorTrace(symbol="KD", value=case.kd, clause="CSA O86-19 5.3.2", source=case.kd_note,
+                             status="memory")]
+        out.append(BearingCheck(support=j + 1, qr_kn=qr * KN, qf_kn=qf * KN, utilisation=util,
+                                length_mm=bearing.length_mm, combination=_case_label(case), clause=clause,
+                                trace=trace))
+    return out
+
+
+def _deflection_patterns(n_el: int) -> list[tuple[bool, ...]]:
+    """All loaded, each checkerboard, each element alone (common practice for maximum deflection)."""
+    pats = {(True,) * n_el}
+    if n_el > 1:
+        pats.add(tuple(i % 2 == 0 for i in range(n_el)))
+        pats.add(tuple(i % 2 == 1 for i in range(n_el)))
+        pats.update(tuple(i == k for i in range(n_el)) for k in range(n_el))
+    return sorted(pats, reverse=True)
+
+
+def deflection_check(beam: Beam, member: Member, model: BeamModel) -> DeflectionCheck:
+    """Specified-load deflection: L + S against the use limit, and D + L + S against L/180."""
+    es = modulus_for_deflection_es(member.e_mpa, member.kse, member.kt_e)
+    ei = es * member.inertia_mm4
+    dead = beam.loads.dead_kn_m + member.self_weight_n_mm
+    variable = beam.loads.live_kn_m + beam.loads.snow_kn_m
+    use_row = tables.find("deflection_limits", use=beam.use.value)
+    total_row = tables.find("deflection_limits", use="total_specified")
+    best: tuple[float, float, float, str, str, dict[str, str]] | None = None
+    n_el = len(model.elements)
+    for pattern in _deflection_patterns(n_el):
+        for label, row, base in (("L + S", use_row, 0.0), ("D + L + S", total_row, dead)):
+            w = tuple(base + (variable if on else 0.0) for on in pattern)
+            if not any(w):
+                continue
+            for e, (delta, _) in enumerate(model.deflections_mm(w, ei)):
+                el = model.elements[e]
+                span = 2 * el.length_mm if el.kind == "overhang" else el.length_mm
+                limit = deflection_limit_mm(span, float(row["ratio"]))
+                util = abs(delta) / limit
+                if best is None or util > best[0]:
+                    best = (util, abs(delta), limit, label, el.name, row)
+    if best is None:
+        return DeflectionCheck(delta_mm=0.0, limit_mm=0.0, utilisation=0.0, case="no load", element="-",
+                               clause="CSA O86-19 5.4.2", trace=[])
+    util, delta, limit, label, element, row = best
+    trace = [FactorTrace(symbol="ES", value=es, unit="MPa", clause="CSA O86-19 5.4.1",
+                         source="E KSE KT (mean E)", status="memory"),
+             FactorTrace(symbol="limit", value=f"L/{row['ratio']}", clause="NBC Table 9.4.3.1 / CSA O86-19 5.4.2",
+                         source=row["description"], status=row["status"])]
+    return DeflectionCheck(delta_mm=delta, limit_mm=limit, utilisation=util, case=label, element=element,
+                           clause="CSA O86-19 5.4.2; NBC 9.4.3.1", trace=trace)
+
+
+def recheck(beam: Beam) -> Recheck:
+    """Recheck one logged beam: bending per region, shear, bearing, deflection and findings."""
+    member = member_properties(beam)
+    model = BeamModel(list(beam.spans_mm), beam.overhang_left_mm, beam.overhang_right_mm)
+    cases = load_cases(beam, member, model)  # 1.4D always applies, so never empty
+    bending = bending_regions(beam, member, model, cases)
+    shear = shear_check(beam, member, model, cases)
+    bearing = bearing_checks(beam, member, model, cases)
+    deflection = deflection_check(beam, member, model)
+    findings = build_findings(beam, member, bending, shear, bearing, deflection)
+    utils = [r.utilisation for r in bending if r.utilisation is not None]
+    utils += [shear.utilisation, deflection.utilisation] + [b.utilisation for b in bearing]
+    return Recheck(
+        mark=beam.mark, status=overall_status(bending, findings), bending=bending, shear=shear,
+        bearing=bearing, deflection=deflection, findings=findings,
+        governing_utilisation=max(utils) if utils else None, material=beam.material.value,
+    )

@@ -1,0 +1,68 @@
+"""Data tables of the standard, loaded once from ``core/data/*.csv``.
+
+Each CSV starts with ``#`` lines naming the standard, edition, table and the meaning of the
+``status`` column (``verified``, ``published`` or ``memory``). Rows are looked up by name,
+never by position. Reading the package's own read-only data is the only file access in ``core``.
+"""
+
+from __future__ import annotations
+
+import csv
+from dataclasses import dataclass
+from functools import cache
+from importlib import resources
+
+
+@dataclass(frozen=True)
+class Table:
+    """One data table: its provenance header lines and its rows as dicts of strings."""
+
+    name: str
+    header: tuple[str, ...]
+    rows: tuple[dict[str, str], ...]
+
+    @property
+    def source(self) -> str:
+        """The table's provenance (standard and table lines of the header)."""
+        keep = [h for h in self.header if h.startswith(("standard:", "table:", "source:", "clause:"))]
+        return "; ".join(h.split(":", 1)[1].strip() for h in keep)
+
+
+@cache
+def load(name: str) -> Table:
+    """Load the table ``core/data/<name>.csv`` (cached; the files are read-only package data)."""
+    text = resources.files("core").joinpath("data", f"{name}.csv").read_text(encoding="utf-8")
+    header = tuple(line[1:].strip() for line in text.splitlines() if line.startswith("#"))
+    body = [line for line in text.splitlines() if line and not line.startswith("#")]
+    rows = tuple(dict(r) for r in csv.DictReader(body))
+    return Table(name=name, header=header, rows=rows)
+
+
+def find(name: str, **keys: str) -> dict[str, str]:
+    """Return the single row of table ``name`` whose columns equal ``keys``.
+
+    Raises ``KeyError`` naming the table and the keys when no row matches.
+    """
+    for row in load(name).rows:
+        if all(row[k] == v for k, v in keys.items()):
+            return row
+    raise KeyError(f"no row in table {name!r} for {keys}")
+
+
+def column(name: str, col: str) -> list[str]:
+    """Return every value of column ``col`` in table ``name``, in file order."""
+    return [row[col] for row in load(name).rows]
+
+
+TABLE_NAMES = (
+    "glulam_grades",
+    "sawn_grades",
+    "kzb",
+    "service_factors",
+    "treatment_factors",
+    "effective_length",
+    "glulam_sizes",
+    "lumber_sizes",
+    "deflection_limits",
+    "densities",
+)

@@ -1,0 +1,1 @@
+"""Built-in demo site (invented project, firm and people)."""

@@ -1,0 +1,62 @@
+"""The ``bracewalk`` command line through a subprocess, as a user or tool would run it (contract 1)."""
+
+import json
+import subprocess
+import sys
+from pathlib import Path
+
+ROOT = Path(__file__).resolve().parents[2]
+EXAMPLE = ROOT / "examples" / "beam_r2_b4.json"
+
+
+def run(*args, stdin=None):
+    return subprocess.run([sys.executable, "-m", "mobile.cli", *args], capture_output=True, text=True,
+                          input=stdin, cwd=ROOT, timeout=120)
+
+
+def test_check_valid_beam_prints_contract_json():
+    proc = run("check", str(EXAMPLE))
+    assert proc.returncode == 0, proc.stderr
+    data = json.loads(proc.stdout)
+    assert set(data) >= {"mark", "status", "bending", "shear", "bearing", "deflection", "findings"}
+    assert data["mark"] == "R2-B4"
+
+
+def test_check_bad_input_exit_2_names_field(tmp_path):
+    bad = json.loads(EXAMPLE.read_text())
+    bad["d_mm"] = -456
+    path = tmp_path / "bad.json"
+    path.write_text(json.dumps(bad))
+    proc = run("check", str(path))
+    assert proc.returncode == 2
+    assert "d_mm" in proc.stderr and "-456" in proc.stderr
+    assert "Traceback" not in proc.stderr
+
+
+def test_check_not_json_exit_2():
+    proc = run("check", "-", stdin="{not json")
+    assert proc.returncode == 2 and "not valid JSON" in proc.stderr
+
+
+def test_check_missing_file_exit_2():
+    proc = run("check", "/nonexistent/beam.json")
+    assert proc.returncode == 2 and "cannot read" in proc.stderr
+
+
+def test_check_text_summary():
+    proc = run("check", str(EXAMPLE), "--text")
+    assert proc.returncode == 0 and "R2-B4: OK" in proc.stdout and "engineer of record" in proc.stdout
+
+
+def test_schema_is_json_schema():
+    proc = run("schema")
+    assert proc.returncode == 0
+    schema = json.loads(proc.stdout)
+    assert "spans_mm" in schema["properties"]
+
+
+def test_check_does_not_import_kivy():
+    code = (f"import sys, mobile.cli as c; c.main(['check', {str(EXAMPLE)!r}]); "
+            "print('KIVY' if 'kivy' in sys.modules else 'NOKIVY')")
+    proc = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, cwd=ROOT, timeout=120)
+    assert proc.stdout.strip().endswith("NOKIVY")
