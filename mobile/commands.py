@@ -1,9 +1,13 @@
-"""Subcommands beyond check/schema: registered here so cli.py stays small."""
+"""Subcommands beyond check/schema: app, demo, report, sync (registered here so cli.py stays small)."""
 
 from __future__ import annotations
 
 import argparse
+import sys
+from pathlib import Path
 from typing import Any
+
+from mobile.cli import EXIT_FAILURE, EXIT_OK, UserError
 
 
 def cmd_app(args: argparse.Namespace) -> int:
@@ -13,8 +17,108 @@ def cmd_app(args: argparse.Namespace) -> int:
     return run_app(getattr(args, "db", None))
 
 
+def _open_store(db: str, must_exist: bool = True) -> Any:
+    from storage import Store
+
+    if must_exist and not Path(db).exists():
+        raise UserError(f"no database at {db}")
+    return Store(db)
+
+
+def cmd_sync_export(args: argparse.Namespace) -> int:
+    """Write a bundle of the changes a peer has not seen (all changes without --peer)."""
+    from storage.bundle import export_bundle
+
+    store = _open_store(args.db)
+    manifest = export_bundle(store, args.out, peer=args.peer)
+    print(f"exported {manifest['op_count']} ops and {len(manifest['blobs'])} blobs to {args.out}")
+    return EXIT_OK
+
+
+def cmd_sync_import(args: argparse.Namespace) -> int:
+    """Verify and merge a bundle (creates the database if it does not exist)."""
+    from storage.bundle import import_bundle
+
+    if not Path(args.file).exists():
+        raise UserError(f"no bundle at {args.file}")
+    store = _open_store(args.db, must_exist=False)
+    report = import_bundle(store, args.file)
+    if report.outcome == "refused":
+        print(f"bracewalk sync import: bundle refused, nothing changed: {report.reason}", file=sys.stderr)
+        return EXIT_FAILURE
+    if report.outcome == "held":
+        print(f"bundle held, not applied: {report.reason}")
+        return EXIT_OK
+    print(f"merged {report.ops_new} new ops of {report.ops_total} ({report.ops_total - report.ops_new} already held), "
+          f"{report.blobs_new} blobs; {report.conflicts_new} new conflicts to review")
+    for c in store.conflicts():
+        print(f"  conflict {c['id']}: {c['entity']} {c['record_id'][:8]} {c['field']}: kept {c['winner_value']}, "
+              f"other value {c['loser_value']}")
+    return EXIT_OK
+
+
+def cmd_sync_digest(args: argparse.Namespace) -> int:
+    """Print one line: a hash over the synced content."""
+    print(_open_store(args.db).digest())
+    return EXIT_OK
+
+
+def cmd_demo(args: argparse.Namespace) -> int:
+    """Run the whole job on the demo site, headless."""
+    from mobile.demo.run import run_demo
+
+    return run_demo(Path(args.out))
+
+
+def cmd_report(args: argparse.Namespace) -> int:
+    """Issue a notice for a site's open deficiencies, or verify a PDF against the issued notices."""
+    from mobile.issue import issue_notice_for_site, verify_pdf
+
+    store = _open_store(args.db)
+    if args.verify:
+        found = verify_pdf(store, Path(args.verify))
+        if found is None:
+            print(f"{args.verify}: NOT an issued notice of this database (or it was changed)")
+            return EXIT_FAILURE
+        print(f"{args.verify}: exactly issued notice {found.number} rev {found.revision}, {found.issued_at}")
+        return EXIT_OK
+    if not args.site or not args.out:
+        raise UserError("report needs --site and --out (or --verify FILE)")
+    try:
+        site = store.find_site(args.site)
+    except KeyError as exc:
+        raise UserError(str(exc)) from exc
+    notice, path = issue_notice_for_site(store, site.id, Path(args.out), issued_by=args.by)
+    print(f"issued notice {notice.number} ({len(notice.deficiency_ids)} items) to {path}; sha256 {notice.pdf_sha256}")
+    return EXIT_OK
+
+
 def register(sub: Any) -> None:
-    """Add the demo, report, sync and app subcommands."""
+    """Add the app, demo, report and sync subcommands."""
     p = sub.add_parser("app", help="open the tablet app")
     p.add_argument("--db", help="database file (default: the per-user database)")
     p.set_defaults(func=cmd_app)
+    p = sub.add_parser("demo", help="run the whole job headless on the built-in demo site")
+    p.add_argument("--out", required=True, help="folder to create for the database, notice PDF and bundle")
+    p.set_defaults(func=cmd_demo)
+    p = sub.add_parser("report", help="issue a deficiency notice PDF, or verify one")
+    p.add_argument("--db", required=True)
+    p.add_argument("--site", help="site name or id")
+    p.add_argument("--out", help="PDF file to write")
+    p.add_argument("--by", default="Reviewer", help="name of the issuing reviewer")
+    p.add_argument("--verify", metavar="FILE.pdf", help="say whether FILE.pdf is exactly an issued notice")
+    p.set_defaults(func=cmd_report)
+    sync = sub.add_parser("sync", help="carry changes between devices by file").add_subparsers(dest="sync_command",
+                                                                                               required=True)
+    p = sync.add_parser("export", help="write a bundle of changes")
+    p.add_argument("--db", required=True)
+    p.add_argument("--out", required=True)
+    p.add_argument("--peer", help="only changes this peer has not seen")
+    p.set_defaults(func=cmd_sync_export)
+    p = sync.add_parser("import", help="verify and merge a bundle")
+    p.add_argument("--db", required=True)
+    p.add_argument("file")
+    p.set_defaults(func=cmd_sync_import)
+    p = sync.add_parser("digest", help="print a hash over the synced content")
+    p.add_argument("--db", required=True)
+    p.set_defaults(func=cmd_sync_digest)

@@ -1,0 +1,99 @@
+"""Records a reviewer keeps besides the beam itself: site, visit, deficiency, notice (pydantic v2)."""
+
+from __future__ import annotations
+
+from enum import IntEnum
+
+from pydantic import Field
+
+from core.models import Record, Use
+
+
+class Stage(IntEnum):
+    """Deficiency lifecycle stage within one cycle; status only moves forward (reference field-practice 2a)."""
+
+    open = 0
+    corrected = 1
+    verified = 2
+
+
+class DesignBasis(Record):
+    """Specified area loads from the drawings, kPa, and the deflection use."""
+
+    dead_kpa: float = Field(default=1.0, ge=0, le=50, allow_inf_nan=False)
+    live_kpa: float = Field(default=0.0, ge=0, le=50, allow_inf_nan=False)
+    snow_kpa: float = Field(default=0.0, ge=0, le=50, allow_inf_nan=False)
+    use: Use = Use.roof_no_ceiling
+    drawings: str = ""
+
+
+class Site(Record):
+    """A project site under review."""
+
+    id: str
+    name: str = Field(min_length=1, max_length=200)
+    address: str = ""
+    permit_number: str = ""
+    project_number: str = ""
+    owner: str = ""
+    contractor: str = ""
+    firm: str = ""
+    design_basis: DesignBasis = DesignBasis()
+
+
+class Visit(Record):
+    """One site visit."""
+
+    id: str
+    site_id: str
+    started_at: str
+    reviewer: str
+    weather: str = ""
+    scope_reviewed: str = ""
+    scope_not_reviewed: str = ""
+
+
+class Deficiency(Record):
+    """A confirmed deficiency with a persistent number that carries across visits."""
+
+    id: str
+    site_id: str
+    beam_id: str | None = None
+    number: str
+    code: str
+    priority: str
+    location: str
+    description: str
+    reference: str
+    action: str
+    due: str = ""
+    cycle: int = 0
+    stage: Stage = Stage.open
+
+
+class StatusEvent(Record):
+    """One status move of a deficiency (history)."""
+
+    deficiency_id: str
+    cycle: int
+    stage: Stage
+    actor: str
+    role: str
+    at: str
+    note: str = ""
+    evidence_sha256: str = ""
+
+
+class IssuedNotice(Record):
+    """An issued notice: immutable, holds the SHA-256 of its PDF."""
+
+    id: str
+    site_id: str
+    number: str
+    revision: int
+    issued_at: str
+    issued_by: str
+    deficiency_ids: list[str]
+    pdf_sha256: str
+    supersedes: str | None = None
+    change_note: str = ""

@@ -1,0 +1,412 @@
+"""The storage API the app and the reports use. Every change goes through ``Store.save``."""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import os
+import time
+from pathlib import Path
+from typing import Any
+
+from core.models import Beam
+from core.records import Deficiency, IssuedNotice, Site, Stage, StatusEvent, Visit
+from core.results import PRIORITY_ORDER
+from storage.clock import hlc_receive, hlc_tick, uuid7
+from storage.db import PROJECTIONS, SCHEMA_VERSION, SET_ENTITIES, connect, transaction
+from storage.oplog import IntegrityError, Op, all_ops, apply_op, canonical, insert_op
+
+BEAM_FIELDS = tuple(Beam.model_fields)
+DEMO_FIRM_KEY = "bracewalk-demo-firm-key-not-for-production"
+
+
+class LifecycleError(ValueError):
+    """A status move the deficiency lifecycle does not allow."""
+
+
+class Store:
+    """A bracewalk database on one device."""
+
+    def __init__(self, path: str | Path, firm_key: str | None = None, wall_clock_ms: Any = None):
+        """Open or create the database at ``path`` (``:memory:`` for tests)."""
+        self.path = str(path)
+        self.db = connect(self.path)
+        self._wall = wall_clock_ms or (lambda: int(time.time() * 1000))
+        meta = self._meta()
+        if "device_id" not in meta:
+            device = uuid7()
+            key = firm_key or os.environ.get("BRACEWALK_FIRM_KEY") or DEMO_FIRM_KEY
+            with transaction(self.db):
+                for k, v in {"device_id": device, "device_code": device[-4:].upper(), "hlc": "0", "seq": "0",
+                             "firm_key": key, "counter_deficiency": "0", "counter_notice": "0"}.items():
+                    self.db.execute("INSERT INTO meta VALUES (?, ?)", [k, v])
+        elif firm_key is not None:
+            with transaction(self.db):
+                self.db.execute("UPDATE meta SET value=? WHERE key='firm_key'", [firm_key])
+        meta = self._meta()
+        self.device_id = meta["device_id"]
+        self.device_code = meta["device_code"]
+
+    # -- bookkeeping -------------------------------------------------------------------------
+    def _meta(self) -> dict[str, str]:
+        return dict(self.db.execute("SELECT key, value FROM meta").fetchall())
+
+    def _set_meta(self, key: str, value: str) -> None:
+        self.db.execute("INSERT OR REPLACE INTO meta VALUES (?, ?)", [key, value])
+
+    @property
+    def firm_key(self) -> bytes:
+        """The firm's bundle key (HMAC)."""
+        return self._meta()["firm_key"].encode()
+
+    @property
+    def blob_dir(self) -> Path:
+        """Folder beside the database where blobs live, named by SHA-256."""
+        base = Path(self.path).parent if self.path != ":memory:" else Path(os.environ.get("TMPDIR", "/tmp"))
+        return base / (Path(self.path).stem + "-blobs")
+
+    def _next_hlc(self) -> int:
+        meta = self._meta()
+        hlc = hlc_tick(int(meta["hlc"]), self._wall())
+        self._set_meta("hlc", str(hlc))
+        return hlc
+
+    def observe_hlc(self, remote: int) -> None:
+        """Fold a received stamp into the local clock (inside the import transaction)."""
+        meta = self._meta()
+        self._set_meta("hlc", str(hlc_receive(int(meta["hlc"]), remote, self._wall())))
+
+    def stamp(self, entity: str, record_id: str, field: str) -> list[Any] | None:
+        """The (hlc, origin) stamp of a field's current value: what a user 'saw'."""
+        row = self.db.execute("SELECT hlc, origin FROM field_stamp WHERE entity=? AND record_id=? AND field=?",
+                              [entity, record_id, field]).fetchone()
+        return [row[0], row[1]] if row else None
+
+    # -- the one save path -------------------------------------------------------------------
+    def save(self, entity: str, record_id: str, fields: dict[str, Any], kind: str = "set",
+             base: dict[str, Any] | None = None) -> Op:
+        """Write a change and its op in one transaction. ``base``: stamps the user saw (default: current)."""
+        with transaction(self.db):
+            return self._save_in_tx(entity, record_id, fields, kind, base)
+
+    def _save_in_tx(self, entity: str, record_id: str, fields: dict[str, Any], kind: str,
+                    base: dict[str, Any] | None) -> Op:
+        if kind == "set" and base is None:
+            base = {f: self.stamp(entity, record_id, f) for f in fields}
+        seq = int(self._meta()["seq"]) + 1
+        self._set_meta("seq", str(seq))
+        op = Op(origin=self.device_id, seq=seq, hlc=self._next_hlc(), entity=entity, record_id=record_id,
+                kind=kind, payload=json.loads(canonical(fields)), base={k: v for k, v in (base or {}).items() if v},
+                schema_version=SCHEMA_VERSION, wall_ms=self._wall())
+        op.validate()
+        insert_op(self.db, op)
+        apply_op(self.db, op)
+        return op
+
+    def _counter(self, name: str) -> int:
+        value = int(self._meta()[f"counter_{name}"]) + 1
+        self._set_meta(f"counter_{name}", str(value))
+        return value
+
+    # -- reading -----------------------------------------------------------------------------
+    def _get(self, table: str, record_id: str) -> dict[str, Any] | None:
+        row = self.db.execute(f"SELECT data FROM {table} WHERE id=?", [record_id]).fetchone()
+        return json.loads(row[0]) if row else None
+
+    def _by_site(self, table: str, site_id: str) -> list[tuple[str, dict[str, Any]]]:
+        rows = self.db.execute(f"SELECT id, data FROM {table} WHERE site_id=? ORDER BY id", [site_id]).fetchall()
+        return [(r[0], json.loads(r[1])) for r in rows]
+
+    # -- sites and visits --------------------------------------------------------------------
+    def create_site(self, **fields: Any) -> Site:
+        """Create a site (fields of ``core.records.Site`` except id)."""
+        site = Site(id=uuid7(), **fields)
+        data = site.model_dump(mode="json", exclude={"id"})
+        self.save("site", site.id, dict(data, site_id=site.id))
+        return site
+
+    def update_site(self, site_id: str, fields: dict[str, Any], base: dict[str, Any] | None = None) -> Site:
+        """Change site fields; validated as a whole before saving."""
+        current = self.site(site_id).model_dump(mode="json")
+        Site(**dict(current, **fields))
+        self.save("site", site_id, fields, base=base)
+        return self.site(site_id)
+
+    def site(self, site_id: str) -> Site:
+        """One site."""
+        data = self._get("site", site_id)
+        if data is None:
+            raise KeyError(f"no site {site_id}")
+        return Site(id=site_id, **{k: v for k, v in data.items() if k != "site_id"})
+
+    def sites(self) -> list[Site]:
+        """Every site, by name."""
+        rows = self.db.execute("SELECT id FROM site").fetchall()
+        return sorted((self.site(r[0]) for r in rows), key=lambda s: s.name)
+
+    def find_site(self, name_or_id: str) -> Site:
+        """A site by id, exact name, or unique name prefix."""
+        for s in self.sites():
+            if name_or_id in (s.id, s.name):
+                return s
+        matches = [s for s in self.sites() if s.name.lower().startswith(name_or_id.lower())]
+        if len(matches) == 1:
+            return matches[0]
+        raise KeyError(f"no single site matches {name_or_id!r}")
+
+    def start_visit(self, site_id: str, reviewer: str, started_at: str, **fields: Any) -> Visit:
+        """Record a visit."""
+        visit = Visit(id=uuid7(), site_id=site_id, reviewer=reviewer, started_at=started_at, **fields)
+        self.save("visit", visit.id, visit.model_dump(mode="json", exclude={"id"}))
+        return visit
+
+    def visits(self, site_id: str) -> list[Visit]:
+        """A site's visits, oldest first."""
+        return sorted((Visit(id=i, **d) for i, d in self._by_site("visit", site_id)), key=lambda v: v.started_at)
+
+    # -- beams -------------------------------------------------------------------------------
+    def save_beam(self, site_id: str, beam: Beam, location: dict[str, Any] | None = None,
+                  beam_id: str | None = None) -> str:
+        """Log (or re-save) a beam: contract-1 fields plus location fields (level, gridline, notes...)."""
+        beam_id = beam_id or uuid7()
+        fields = beam.model_dump(mode="json")
+        fields.update(location or {})
+        fields["site_id"] = site_id
+        self.save("beam", beam_id, fields)
+        return beam_id
+
+    def update_beam(self, beam_id: str, fields: dict[str, Any], base: dict[str, Any] | None = None) -> Op:
+        """Change some fields of a logged beam (per-field merge)."""
+        return self.save("beam", beam_id, fields, base=base)
+
+    def beam_record(self, beam_id: str) -> dict[str, Any]:
+        """Every stored field of a beam (beam fields, location and drafts)."""
+        data = self._get("beam", beam_id)
+        if data is None:
+            raise KeyError(f"no beam {beam_id}")
+        return data
+
+    def beam(self, beam_id: str) -> Beam:
+        """A logged beam as the core model (raises ValueError if its stored fields are incomplete)."""
+        data = self.beam_record(beam_id)
+        return Beam.model_validate({k: v for k, v in data.items() if k in BEAM_FIELDS})
+
+    def beams(self, site_id: str) -> list[tuple[str, dict[str, Any]]]:
+        """A site's beams (id, record) ordered by level, gridline and mark; archived ones left out."""
+        rows = [(i, d) for i, d in self._by_site("beam", site_id) if not d.get("archived")]
+        return sorted(rows, key=lambda r: (str(r[1].get("level", "")), str(r[1].get("gridline", "")),
+                                           str(r[1].get("mark", ""))))
+
+    def add_measurement(self, beam_id: str, site_id: str, **fields: Any) -> str:
+        """An insert-only raw measurement (where and how it was taken)."""
+        mid = uuid7()
+        self.save("measurement", mid, dict(fields, beam_id=beam_id, site_id=site_id), kind="insert")
+        return mid
+
+    def measurements(self, beam_id: str) -> list[dict[str, Any]]:
+        """Raw measurements of a beam, oldest first."""
+        rows = self.db.execute("SELECT id, data FROM measurement").fetchall()
+        return [dict(json.loads(d), id=i) for i, d in sorted(rows) if json.loads(d).get("beam_id") == beam_id]
+
+    # -- blobs and photos ----------------------------------------------------------------------
+    def put_blob(self, content: bytes, mime: str) -> str:
+        """Write a blob file named by its SHA-256 and fsync it; the index row commits after."""
+        sha = hashlib.sha256(content).hexdigest()
+        path = self.blob_path(sha)
+        if not path.exists():
+            path.parent.mkdir(parents=True, exist_ok=True)
+            tmp = path.with_suffix(".part")
+            with open(tmp, "wb") as fh:
+                fh.write(content)
+                fh.flush()
+                os.fsync(fh.fileno())
+            os.replace(tmp, path)
+            dir_fd = os.open(path.parent, os.O_RDONLY)
+            try:
+                os.fsync(dir_fd)
+            finally:
+                os.close(dir_fd)
+        with transaction(self.db):
+            self.db.execute("INSERT OR REPLACE INTO blob VALUES (?, ?, ?, 1)", [sha, len(content), mime])
+        return sha
+
+    def blob_path(self, sha: str) -> Path:
+        """Where a blob's bytes live."""
+        return self.blob_dir / sha[:2] / sha
+
+    def blob(self, sha: str) -> bytes | None:
+        """A blob's bytes, or None while it is pending (not yet received)."""
+        path = self.blob_path(sha)
+        return path.read_bytes() if path.exists() else None
+
+    def add_photo(self, site_id: str, content: bytes, mime: str = "image/jpeg", beam_id: str | None = None,
+                  deficiency_id: str | None = None, caption: str = "") -> str:
+        """Store a photo's bytes as a blob, then its insert-only record."""
+        sha = self.put_blob(content, mime)
+        pid = uuid7()
+        self.save("photo", pid, {"site_id": site_id, "sha256": sha, "mime": mime, "beam_id": beam_id,
+                                 "deficiency_id": deficiency_id, "caption": caption}, kind="insert")
+        return pid
+
+    def photos(self, site_id: str) -> list[dict[str, Any]]:
+        """Photo records of a site, each with ``pending`` True if its bytes have not arrived."""
+        return [dict(d, id=i, pending=not self.blob_path(d["sha256"]).exists())
+                for i, d in self._by_site("photo", site_id)]
+
+    # -- deficiencies --------------------------------------------------------------------------
+    def raise_deficiency(self, site_id: str, beam_id: str | None, code: str, priority: str, location: str,
+                         description: str, reference: str, action: str, due: str = "") -> Deficiency:
+        """Confirm a finding (or a reviewer's own observation) as a numbered deficiency."""
+        if priority not in PRIORITY_ORDER:
+            raise ValueError(f"priority {priority!r}; allowed: {list(PRIORITY_ORDER)}")
+        with transaction(self.db):
+            number = f"D-{self.device_code}-{self._counter('deficiency'):03d}"
+            did = uuid7()
+            d = Deficiency(id=did, site_id=site_id, beam_id=beam_id, number=number, code=code, priority=priority,
+                           location=location, description=description, reference=reference, action=action, due=due)
+            self._save_in_tx("deficiency", did, d.model_dump(mode="json", exclude={"id", "cycle", "stage"}),
+                             "set", None)
+        return self.deficiency(did)
+
+    def deficiency(self, deficiency_id: str) -> Deficiency:
+        """One deficiency with its current (cycle, stage)."""
+        data = self._get("deficiency", deficiency_id)
+        if data is None or "number" not in data:
+            raise KeyError(f"no deficiency {deficiency_id}")
+        return Deficiency(id=deficiency_id, **data)
+
+    def deficiencies(self, site_id: str, open_only: bool = False) -> list[Deficiency]:
+        """A site's deficiencies, most urgent first, then by number."""
+        items = [Deficiency(id=i, **d) for i, d in self._by_site("deficiency", site_id) if "number" in d]
+        if open_only:
+            items = [d for d in items if d.stage is not Stage.verified]
+        return sorted(items, key=lambda d: (PRIORITY_ORDER[d.priority], d.number))
+
+    def move_status(self, deficiency_id: str, stage: Stage | str, actor: str, role: str, note: str = "",
+                    evidence_sha256: str = "", at: str | None = None) -> Deficiency:
+        """Move a deficiency forward: open -> corrected -> verified; 'reopen' starts a new cycle.
+
+        Only a reviewer sets verified. Any other move raises LifecycleError.
+        """
+        d = self.deficiency(deficiency_id)
+        if role not in ("reviewer", "contractor", "office"):
+            raise LifecycleError(f"role {role!r}; allowed: reviewer, contractor, office")
+        if stage == "reopen":
+            if d.stage is Stage.open:
+                raise LifecycleError(f"{d.number} is already open")
+            cycle, target = d.cycle + 1, Stage.open
+        else:
+            target = Stage[stage] if isinstance(stage, str) else stage
+            cycle = d.cycle
+            if target <= d.stage:
+                raise LifecycleError(f"{d.number}: status only moves forward ({d.stage.name} -> {target.name} "
+                                     "refused; use 'reopen' to start a new cycle)")
+            if target is Stage.verified and role != "reviewer":
+                raise LifecycleError(f"{d.number}: only a reviewer sets verified (role {role!r})")
+        when = at or time.strftime("%Y-%m-%dT%H:%M:%SZ", time.gmtime(self._wall() / 1000))
+        self.save("deficiency", deficiency_id, {"cycle": cycle, "stage": int(target), "actor": actor, "role": role,
+                                                "at": when, "note": note, "evidence_sha256": evidence_sha256,
+                                                "site_id": d.site_id}, kind="status")
+        return self.deficiency(deficiency_id)
+
+    def history(self, deficiency_id: str) -> list[StatusEvent]:
+        """Status moves of a deficiency, in clock order."""
+        rows = self.db.execute("SELECT data FROM deficiency_event").fetchall()
+        events = [json.loads(r[0]) for r in rows]
+        mine = sorted((e for e in events if e["deficiency_id"] == deficiency_id), key=lambda e: (e["hlc"], e["origin"]))
+        return [StatusEvent(deficiency_id=deficiency_id, cycle=e["cycle"], stage=Stage(e["stage"]), actor=e["actor"],
+                            role=e["role"], at=e["at"], note=e.get("note", ""),
+                            evidence_sha256=e.get("evidence_sha256", "")) for e in mine]
+
+    # -- notices --------------------------------------------------------------------------------
+    def next_notice_number(self, site: Site) -> str:
+        """A notice number unique across devices offline: <project>-FR-<device code>-<n>."""
+        n = int(self._meta()["counter_notice"]) + 1
+        return f"{site.project_number or 'P'}-FR-{self.device_code}-{n:03d}"
+
+    def issue_notice(self, site_id: str, number: str, pdf: bytes, deficiency_ids: list[str], issued_by: str,
+                     issued_at: str, revision: int = 0, supersedes: str | None = None,
+                     change_note: str = "") -> IssuedNotice:
+        """Store an issued notice: the PDF blob first (fsynced), then the immutable record."""
+        sha = self.put_blob(pdf, "application/pdf")
+        nid = uuid7()
+        notice = IssuedNotice(id=nid, site_id=site_id, number=number, revision=revision, issued_at=issued_at,
+                              issued_by=issued_by, deficiency_ids=deficiency_ids, pdf_sha256=sha,
+                              supersedes=supersedes, change_note=change_note)
+        with transaction(self.db):
+            if revision == 0:
+                self._counter("notice")
+            self._save_in_tx("issued_notice", nid, notice.model_dump(mode="json", exclude={"id"}), "insert", None)
+        return notice
+
+    def notices(self, site_id: str) -> list[IssuedNotice]:
+        """Issued notices of a site, by number and revision."""
+        items = [IssuedNotice(id=i, **d) for i, d in self._by_site("issued_notice", site_id)]
+        return sorted(items, key=lambda n: (n.number, n.revision))
+
+    def find_issued_by_hash(self, sha: str) -> IssuedNotice | None:
+        """The issued notice whose PDF has this SHA-256, if any."""
+        for row in self.db.execute("SELECT id, data FROM issued_notice").fetchall():
+            data = json.loads(row[1])
+            if data["pdf_sha256"] == sha:
+                return IssuedNotice(id=row[0], **data)
+        return None
+
+    # -- sync bookkeeping ---------------------------------------------------------------------
+    def pending_sync_count(self, peer: str = "office") -> int:
+        """Ops of this device not yet sent to ``peer``."""
+        row = self.db.execute("SELECT seq FROM peer_cursor WHERE peer=? AND origin=?",
+                              [peer, self.device_id]).fetchone()
+        sent = row[0] if row else 0
+        return int(self._meta()["seq"]) - sent
+
+    def last_sync(self) -> str | None:
+        """When the last bundle was exported or imported successfully."""
+        row = self.db.execute("SELECT max(at) FROM bundle_log WHERE outcome IN ('applied', 'exported')").fetchone()
+        return row[0] if row else None
+
+    def conflicts(self, unresolved_only: bool = True) -> list[dict[str, Any]]:
+        """Concurrent edits of one field, for a person to review."""
+        sql = "SELECT * FROM conflict" + (" WHERE resolved_by IS NULL" if unresolved_only else "") + " ORDER BY id"
+        cur = self.db.execute(sql)
+        cols = [c[0] for c in cur.description]
+        return [dict(zip(cols, r, strict=True)) for r in cur.fetchall()]
+
+    def resolve_conflict(self, conflict_id: int, keep: str, actor: str) -> None:
+        """Resolve a conflict: keep 'winner' as is, or re-save the 'loser' value as a new edit."""
+        c = next((c for c in self.conflicts(False) if c["id"] == conflict_id), None)
+        if c is None:
+            raise KeyError(f"no conflict {conflict_id}")
+        if keep not in ("winner", "loser"):
+            raise ValueError("keep must be 'winner' or 'loser'")
+        if keep == "loser":
+            self.save(c["entity"], c["record_id"], {c["field"]: json.loads(c["loser_value"])})
+        with transaction(self.db):
+            self.db.execute("UPDATE conflict SET resolved_by=? WHERE id=?", [actor, conflict_id])
+
+    def digest(self) -> str:
+        """SHA-256 over the synced content (projections), excluding device identity and bookkeeping."""
+        h = hashlib.sha256()
+        for table in PROJECTIONS:
+            for rid, data in self.db.execute(f"SELECT id, data FROM {table} ORDER BY id").fetchall():
+                h.update(f"{table}\x1f{rid}\x1f{data}\x1e".encode())
+        return h.hexdigest()
+
+    def rebuild_projections(self) -> dict[str, list[tuple[str, str]]]:
+        """Replay the op log into fresh in-memory projections and return them (for the I13 check)."""
+        scratch = connect(":memory:")
+        with transaction(scratch):
+            for op in all_ops(self.db):
+                apply_op(scratch, op, record_conflicts=False)
+        return {t: scratch.execute(f"SELECT id, data FROM {t} ORDER BY id").fetchall() for t in PROJECTIONS}
+
+    def projections(self) -> dict[str, list[tuple[str, str]]]:
+        """The live projections, in the same form as ``rebuild_projections``."""
+        return {t: self.db.execute(f"SELECT id, data FROM {t} ORDER BY id").fetchall() for t in PROJECTIONS}
+
+    def close(self) -> None:
+        """Close the connection."""
+        self.db.conn.close()
+
+
+__all__ = ["BEAM_FIELDS", "SET_ENTITIES", "IntegrityError", "LifecycleError", "Store"]

@@ -1,0 +1,34 @@
+"""Record ids (UUIDv7) and the hybrid logical clock (48-bit ms, 16-bit counter)."""
+
+from __future__ import annotations
+
+import os
+import time
+import uuid
+
+
+def uuid7(now_ms: int | None = None) -> str:
+    """A UUIDv7 (RFC 9562): 48-bit Unix ms, version 7, variant 10, random bits; as text."""
+    ms = int(time.time() * 1000) if now_ms is None else now_ms
+    rand = int.from_bytes(os.urandom(10), "big")
+    value = (ms & 0xFFFF_FFFF_FFFF) << 80 | 0x7 << 76 | ((rand >> 68) & 0xFFF) << 64 | 0b10 << 62 | (
+        rand & 0x3FFF_FFFF_FFFF_FFFF)
+    return str(uuid.UUID(int=value))
+
+
+MAX_DRIFT_MS = 10 * 60 * 1000
+
+
+def hlc_tick(last: int, wall_ms: int) -> int:
+    """HLC for a local event: max(last, wall) with the counter reset when the wall clock moved ahead."""
+    physical = last >> 16
+    if wall_ms > physical:
+        return wall_ms << 16
+    return last + 1
+
+
+def hlc_receive(last: int, remote: int, wall_ms: int) -> int:
+    """HLC after receiving a remote stamp; never moves more than MAX_DRIFT_MS past the wall clock."""
+    cap = (wall_ms + MAX_DRIFT_MS) << 16 | 0xFFFF
+    merged = max(last, min(remote, cap))
+    return hlc_tick(merged, wall_ms)

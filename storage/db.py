@@ -1,0 +1,88 @@
+"""Open a bracewalk database: pragmas, numbered migrations that can run twice safely."""
+
+from __future__ import annotations
+
+import sqlite3
+from collections.abc import Iterator
+from contextlib import contextmanager
+from pathlib import Path
+
+import sqlite_utils
+
+SCHEMA_VERSION = 1
+
+SET_ENTITIES = ("site", "visit", "beam", "deficiency")
+INSERT_ENTITIES = ("measurement", "photo", "issued_notice")
+PROJECTIONS = (*SET_ENTITIES, *INSERT_ENTITIES, "deficiency_event")
+
+MIGRATIONS: dict[int, list[str]] = {
+    1: [
+        "CREATE TABLE IF NOT EXISTS meta (key TEXT PRIMARY KEY, value TEXT NOT NULL)",
+        """CREATE TABLE IF NOT EXISTS op (
+            origin TEXT NOT NULL, seq INTEGER NOT NULL, hlc INTEGER NOT NULL, entity TEXT NOT NULL,
+            record_id TEXT NOT NULL, kind TEXT NOT NULL, payload TEXT NOT NULL, base TEXT NOT NULL,
+            schema_version INTEGER NOT NULL, wall_ms INTEGER NOT NULL, PRIMARY KEY (origin, seq)
+        ) WITHOUT ROWID""",
+        """CREATE TABLE IF NOT EXISTS field_stamp (
+            entity TEXT NOT NULL, record_id TEXT NOT NULL, field TEXT NOT NULL, hlc INTEGER NOT NULL,
+            origin TEXT NOT NULL, PRIMARY KEY (entity, record_id, field)
+        ) WITHOUT ROWID""",
+        "CREATE TABLE IF NOT EXISTS seen (origin TEXT PRIMARY KEY, seq INTEGER NOT NULL)",
+        "CREATE TABLE IF NOT EXISTS peer_cursor (peer TEXT, origin TEXT, seq INTEGER, PRIMARY KEY (peer, origin))",
+        """CREATE TABLE IF NOT EXISTS conflict (
+            id INTEGER PRIMARY KEY AUTOINCREMENT, entity TEXT, record_id TEXT, field TEXT,
+            winner_origin TEXT, winner_seq INTEGER, winner_value TEXT, loser_origin TEXT, loser_seq INTEGER,
+            loser_value TEXT, detected_at TEXT, resolved_by TEXT
+        )""",
+        """CREATE TABLE IF NOT EXISTS bundle_log (
+            id INTEGER PRIMARY KEY AUTOINCREMENT, at TEXT, file TEXT, bundle_sha256 TEXT, outcome TEXT,
+            reason TEXT, ops INTEGER, applied INTEGER
+        )""",
+        "CREATE TABLE IF NOT EXISTS held_bundle (bundle_sha256 TEXT PRIMARY KEY, schema_version INTEGER, path TEXT)",
+        "CREATE TABLE IF NOT EXISTS blob (sha256 TEXT PRIMARY KEY, size INTEGER, mime TEXT, present INTEGER)",
+        *[
+            f"""CREATE TABLE IF NOT EXISTS {name} (
+                id TEXT PRIMARY KEY, site_id TEXT, data TEXT NOT NULL, content_hash TEXT
+            )"""
+            for name in PROJECTIONS
+        ],
+        *[f"CREATE INDEX IF NOT EXISTS {name}_site ON {name}(site_id)" for name in PROJECTIONS],
+        "CREATE INDEX IF NOT EXISTS op_hlc ON op(hlc)",
+    ],
+}
+
+
+def connect(path: str | Path) -> sqlite_utils.Database:
+    """Open (creating if needed) a database in WAL mode with synchronous=FULL and migrate it."""
+    conn = sqlite3.connect(str(path), isolation_level=None, check_same_thread=False)
+    conn.execute("PRAGMA journal_mode=WAL")
+    conn.execute("PRAGMA synchronous=FULL")
+    conn.execute("PRAGMA foreign_keys=ON")
+    db = sqlite_utils.Database(conn)
+    migrate(db)
+    return db
+
+
+def migrate(db: sqlite_utils.Database) -> int:
+    """Apply every migration above the stored user_version; each statement is idempotent."""
+    current = db.execute("PRAGMA user_version").fetchone()[0]
+    for number in sorted(MIGRATIONS):
+        if number <= current:
+            continue
+        with transaction(db):
+            for statement in MIGRATIONS[number]:
+                db.execute(statement)
+            db.execute(f"PRAGMA user_version = {number}")
+    return max(current, max(MIGRATIONS))
+
+
+@contextmanager
+def transaction(db: sqlite_utils.Database) -> Iterator[sqlite_utils.Database]:
+    """One write transaction (BEGIN IMMEDIATE ... COMMIT); rolled back on any exception."""
+    db.execute("BEGIN IMMEDIATE")
+    try:
+        yield db
+    except BaseException:
+        db.execute("ROLLBACK")
+        raise
+    db.execute("COMMIT")

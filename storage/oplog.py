@@ -1,0 +1,201 @@
+"""The op log and the one merge function used for local saves, imports and rebuilds.
+
+Rules (ARCHITECTURE "Storage and sync"): per-field last-writer-wins by (hlc, origin) for editable
+records, with concurrent edits recorded as conflicts; deficiency status as a forward-only
+(cycle, stage) pair merged by maximum; insert-only records compared by content hash.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+from dataclasses import dataclass
+from datetime import UTC, datetime
+from typing import Any
+
+import sqlite_utils
+
+from storage.db import INSERT_ENTITIES, SCHEMA_VERSION, SET_ENTITIES
+
+OP_KEYS = ("origin", "seq", "hlc", "entity", "record_id", "kind", "payload", "base", "schema_version", "wall_ms")
+
+
+class IntegrityError(Exception):
+    """Same id, different content for an insert-only record, or an op that contradicts the log."""
+
+
+def canonical(value: Any) -> str:
+    """Canonical JSON (sorted keys, no spaces) used for hashes and stored values."""
+    return json.dumps(value, sort_keys=True, separators=(",", ":"), ensure_ascii=False)
+
+
+def content_hash(payload: dict[str, Any]) -> str:
+    """SHA-256 of an insert-only record's canonical content."""
+    return hashlib.sha256(canonical(payload).encode()).hexdigest()
+
+
+@dataclass(frozen=True)
+class Op:
+    """One saved change, as stored and as carried in bundles."""
+
+    origin: str
+    seq: int
+    hlc: int
+    entity: str
+    record_id: str
+    kind: str  # "set", "insert" or "status"
+    payload: dict[str, Any]
+    base: dict[str, Any]
+    schema_version: int
+    wall_ms: int
+
+    def row(self) -> dict[str, Any]:
+        """The op as a row of the ``op`` table."""
+        return {"origin": self.origin, "seq": self.seq, "hlc": self.hlc, "entity": self.entity,
+                "record_id": self.record_id, "kind": self.kind, "payload": canonical(self.payload),
+                "base": canonical(self.base), "schema_version": self.schema_version, "wall_ms": self.wall_ms}
+
+    @classmethod
+    def from_row(cls, row: dict[str, Any]) -> Op:
+        """Rebuild an op from a stored row or a bundle line (keys must match exactly)."""
+        if set(row) != set(OP_KEYS):
+            raise ValueError(f"op keys {sorted(row)} differ from {sorted(OP_KEYS)}")
+        payload = row["payload"] if isinstance(row["payload"], dict) else json.loads(row["payload"])
+        base = row["base"] if isinstance(row["base"], dict) else json.loads(row["base"])
+        op = cls(origin=str(row["origin"]), seq=int(row["seq"]), hlc=int(row["hlc"]), entity=str(row["entity"]),
+                 record_id=str(row["record_id"]), kind=str(row["kind"]), payload=payload, base=base,
+                 schema_version=int(row["schema_version"]), wall_ms=int(row["wall_ms"]))
+        op.validate()
+        return op
+
+    def validate(self) -> None:
+        """Refuse ops whose entity and kind do not go together."""
+        if self.kind == "set" and self.entity not in SET_ENTITIES:
+            raise ValueError(f"op kind 'set' on unknown entity {self.entity!r}")
+        if self.kind == "insert" and self.entity not in INSERT_ENTITIES:
+            raise ValueError(f"op kind 'insert' on unknown entity {self.entity!r}")
+        if self.kind == "status" and self.entity != "deficiency":
+            raise ValueError("op kind 'status' applies only to 'deficiency'")
+        if self.kind not in ("set", "insert", "status"):
+            raise ValueError(f"unknown op kind {self.kind!r}")
+        if self.seq < 1:
+            raise ValueError(f"op seq {self.seq} must be >= 1")
+
+
+def _now() -> str:
+    return datetime.now(UTC).isoformat(timespec="seconds")
+
+
+def _load(db: sqlite_utils.Database, table: str, record_id: str) -> tuple[dict[str, Any] | None, str | None]:
+    row = db.execute(f"SELECT data, content_hash FROM {table} WHERE id = ?", [record_id]).fetchone()
+    return (json.loads(row[0]), row[1]) if row else (None, None)
+
+
+def _store(db: sqlite_utils.Database, table: str, record_id: str, data: dict[str, Any], chash: str | None) -> None:
+    db.execute(
+        f"INSERT INTO {table} (id, site_id, data, content_hash) VALUES (?, ?, ?, ?) "
+        "ON CONFLICT(id) DO UPDATE SET site_id = excluded.site_id, data = excluded.data",
+        [record_id, data.get("site_id"), canonical(data), chash],
+    )
+
+
+def apply_op(db: sqlite_utils.Database, op: Op, record_conflicts: bool = True) -> None:
+    """Merge one op into the projections (inside the caller's transaction)."""
+    if op.kind == "set":
+        _apply_set(db, op, record_conflicts)
+    elif op.kind == "insert":
+        _apply_insert(db, op)
+    else:
+        _apply_status(db, op)
+
+
+def _apply_set(db: sqlite_utils.Database, op: Op, record_conflicts: bool) -> None:
+    data, _ = _load(db, op.entity, op.record_id)
+    data = data or {}
+    new = (op.hlc, op.origin)
+    changed = False
+    for field, value in op.payload.items():
+        row = db.execute("SELECT hlc, origin FROM field_stamp WHERE entity=? AND record_id=? AND field=?",
+                         [op.entity, op.record_id, field]).fetchone()
+        current = (row[0], row[1]) if row else None
+        base = op.base.get(field)
+        base_t = (base[0], base[1]) if base else None
+        if record_conflicts and current is not None and base_t != current and current != new:
+            _record_conflict(db, op, field, value, current, data.get(field), new > current)
+        if current is None or new > current:
+            data[field] = value
+            changed = True
+            db.execute("INSERT OR REPLACE INTO field_stamp VALUES (?, ?, ?, ?, ?)",
+                       [op.entity, op.record_id, field, op.hlc, op.origin])
+    if changed:
+        _store(db, op.entity, op.record_id, data, None)
+
+
+def _record_conflict(db: sqlite_utils.Database, op: Op, field: str, value: Any, current: tuple[int, str],
+                     current_value: Any, incoming_wins: bool) -> None:
+    cur_seq = db.execute("SELECT seq FROM op WHERE origin=? AND hlc=? AND entity=? AND record_id=?",
+                         [current[1], current[0], op.entity, op.record_id]).fetchone()
+    cur = (current[1], cur_seq[0] if cur_seq else None, canonical(current_value))
+    inc = (op.origin, op.seq, canonical(value))
+    winner, loser = (inc, cur) if incoming_wins else (cur, inc)
+    db.execute(
+        "INSERT INTO conflict (entity, record_id, field, winner_origin, winner_seq, winner_value, loser_origin, "
+        "loser_seq, loser_value, detected_at, resolved_by) VALUES (?,?,?,?,?,?,?,?,?,?,NULL)",
+        [op.entity, op.record_id, field, *winner, *loser, _now()])
+
+
+def _apply_insert(db: sqlite_utils.Database, op: Op) -> None:
+    chash = content_hash(op.payload)
+    existing, stored_hash = _load(db, op.entity, op.record_id)
+    if existing is not None:
+        if stored_hash != chash:
+            raise IntegrityError(f"{op.entity} {op.record_id}: same id, different content")
+        return
+    _store(db, op.entity, op.record_id, dict(op.payload), chash)
+
+
+def _apply_status(db: sqlite_utils.Database, op: Op) -> None:
+    cycle, stage = int(op.payload["cycle"]), int(op.payload["stage"])
+    event_id = f"{op.origin}:{op.seq}"
+    event = dict(op.payload, deficiency_id=op.record_id, hlc=op.hlc, origin=op.origin)
+    _, ev_hash = _load(db, "deficiency_event", event_id)
+    if ev_hash is None:
+        event_site = op.payload.get("site_id")
+        _store(db, "deficiency_event", event_id, dict(event, site_id=event_site), content_hash(event))
+    data, _ = _load(db, "deficiency", op.record_id)
+    data = data or {}
+    if (cycle, stage) > (int(data.get("cycle", 0)), int(data.get("stage", 0))):
+        data["cycle"], data["stage"] = cycle, stage
+        _store(db, "deficiency", op.record_id, data, None)
+
+
+def insert_op(db: sqlite_utils.Database, op: Op) -> bool:
+    """Append an op to the log; False if it is already held (same content), error if it differs."""
+    row = db.execute("SELECT hlc, entity, record_id, kind, payload, base FROM op WHERE origin=? AND seq=?",
+                     [op.origin, op.seq]).fetchone()
+    if row is not None:
+        mine = (op.hlc, op.entity, op.record_id, op.kind, canonical(op.payload), canonical(op.base))
+        if tuple(row) != mine:
+            raise IntegrityError(f"op {op.origin}:{op.seq} already held with different content")
+        return False
+    r = op.row()
+    db.execute(f"INSERT INTO op ({', '.join(OP_KEYS)}) VALUES ({', '.join('?' * len(OP_KEYS))})",
+               [r[k] for k in OP_KEYS])
+    seen = db.execute("SELECT seq FROM seen WHERE origin=?", [op.origin]).fetchone()
+    have = seen[0] if seen else 0
+    if op.seq == have + 1:
+        # advance the contiguous high-water mark over any ops already held beyond it
+        nxt = op.seq
+        while db.execute("SELECT 1 FROM op WHERE origin=? AND seq=?", [op.origin, nxt + 1]).fetchone():
+            nxt += 1
+        db.execute("INSERT OR REPLACE INTO seen VALUES (?, ?)", [op.origin, nxt])
+    return True
+
+
+def all_ops(db: sqlite_utils.Database) -> list[Op]:
+    """Every op in the log, ordered by origin and seq."""
+    cur = db.execute(f"SELECT {', '.join(OP_KEYS)} FROM op ORDER BY origin, seq")
+    return [Op.from_row(dict(zip(OP_KEYS, r, strict=True))) for r in cur.fetchall()]
+
+
+__all__ = ["SCHEMA_VERSION", "IntegrityError", "Op", "all_ops", "apply_op", "canonical", "insert_op"]
