@@ -1,0 +1,110 @@
+"""The demo site: logged through the storage API like a user's input, then the whole job headless."""
+
+from __future__ import annotations
+
+import io
+import json
+import time
+from importlib import resources
+from pathlib import Path
+from typing import Any
+
+from core.models import Beam
+from core.recheck import recheck
+from storage import Store
+from storage.bundle import export_bundle
+
+CAUTION = ("Results support, and never replace, the judgement of the engineer of record; local codes and "
+           "licensed practice govern.")
+
+
+def demo_data() -> dict[str, Any]:
+    """The bundled demo scenario (invented site, firm and people)."""
+    return json.loads(resources.files("mobile.demo").joinpath("site.json").read_text(encoding="utf-8"))
+
+
+def demo_photo(label: str) -> bytes:
+    """A small generated stand-in photo (the demo has no camera): a drawn beam end and a label."""
+    from PIL import Image, ImageDraw
+
+    img = Image.new("RGB", (640, 480), (188, 176, 160))
+    draw = ImageDraw.Draw(img)
+    draw.rectangle([80, 140, 560, 260], fill=(205, 160, 105), outline=(60, 40, 20), width=4)
+    draw.rectangle([470, 260, 560, 440], fill=(150, 150, 150), outline=(40, 40, 40), width=3)
+    draw.text((90, 60), f"demo photo: {label}", fill=(0, 0, 0))
+    out = io.BytesIO()
+    img.save(out, "JPEG", quality=80)
+    return out.getvalue()
+
+
+def line_loads(basis: dict[str, float], tributary_m: float) -> dict[str, float]:
+    """Specified line loads (kN/m) = area loads (kPa) x tributary width (m)."""
+    return {"dead_kn_m": round(basis["dead_kpa"] * tributary_m, 3),
+            "live_kn_m": round(basis["live_kpa"] * tributary_m, 3),
+            "snow_kn_m": round(basis["snow_kpa"] * tributary_m, 3)}
+
+
+def load_demo(store: Store) -> str:
+    """Log the demo site, its visits and beams through the storage API; return the site id."""
+    data = demo_data()
+    site = store.create_site(**data["site"])
+    bases = {"roof": data["site"]["design_basis"], "floor": data["floor_basis"]}
+    for v in data["visits"]:
+        store.start_visit(site.id, **{k: v[k] for k in v if k != "key"})
+    for entry in data["beams"]:
+        beam = Beam.model_validate(dict(entry["beam"], loads=line_loads(bases[entry["basis"]], entry["tributary_m"])))
+        beam_id = store.save_beam(site.id, beam, {"level": entry["level"], "gridline": entry["gridline"],
+                                                  "tributary_m": entry["tributary_m"], "notes": entry["why"],
+                                                  "visit": entry["visit"]})
+        if entry["beam"]["mark"] in ("RB-5", "RB-8"):
+            store.add_photo(site.id, demo_photo(entry["beam"]["mark"]), beam_id=beam_id,
+                            caption=f"{entry['beam']['mark']} at {entry['gridline']}")
+    return site.id
+
+
+def raise_all(store: Store, site_id: str) -> list[tuple[str, Any]]:
+    """Recheck every beam and raise a deficiency for each finding a reviewer acts on."""
+    rows = []
+    for beam_id, record in store.beams(site_id):
+        result = recheck(store.beam(beam_id))
+        rows.append((record, result))
+        for f in result.findings:
+            if f.priority.value == "observation":
+                continue
+            where = f"{record['level']}, grid {record['gridline']}, {record['mark']}" + (
+                f", {f.region}" if f.region else "")
+            store.raise_deficiency(site_id, beam_id, f.code, f.priority.value, where, f.message,
+                                   f"S-201 rev 2; {f.clause}", f.action)
+    return rows
+
+
+def run_demo(out: Path) -> int:
+    """``bracewalk demo --out DIR``: the whole job on the demo site; print a table and the paths."""
+    from mobile.issue import issue_notice_for_site
+
+    start = time.perf_counter()
+    out.mkdir(parents=True, exist_ok=True)
+    db_path = out / "cedar-hollow.db"
+    for suffix in ("", "-wal", "-shm"):
+        Path(str(db_path) + suffix).unlink(missing_ok=True)
+    store = Store(db_path)
+    site_id = load_demo(store)
+    rows = raise_all(store, site_id)
+    notice, pdf_path = issue_notice_for_site(store, site_id, out / "notice.pdf", issued_by="Priya Okonkwo-Lind, P.Eng.",
+                                             issued_on="2026-11-30")
+    bundle = out / "cedar-hollow.bwsync"
+    export_bundle(store, bundle)
+    print(f"{'mark':<6} {'status':<16} {'util':>6}  findings")
+    for record, result in rows:
+        util = "-" if result.governing_utilisation is None else f"{result.governing_utilisation:.2f}"
+        codes = ", ".join(f"{f.code} ({f.priority.value})" for f in result.findings) or "-"
+        print(f"{record['mark']:<6} {result.status.value:<16} {util:>6}  {codes}")
+    print()
+    print(f"deficiencies raised: {len(store.deficiencies(site_id))}; notice {notice.number} "
+          f"({len(notice.deficiency_ids)} items)")
+    print(f"database: {db_path}")
+    print(f"notice:   {pdf_path}")
+    print(f"bundle:   {bundle}")
+    print(f"({time.perf_counter() - start:.1f} s) {CAUTION}")
+    store.close()
+    return 0

@@ -1,0 +1,177 @@
+"""Plain content for a notice and a recheck sheet, built from core results and records."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field, replace
+
+from core.models import Beam, BottomBracing, Restraint, TopBracing
+from core.records import Deficiency, Site, Visit
+from core.results import Recheck
+
+CAUTIONS = (
+    "bracewalk is a recording and recheck aid for a qualified reviewer. Its results are advisory: they "
+    "support, and never replace, the judgement of the engineer of record.",
+    "The engineer of record decides repairs, substitutions and any acceptance of the as-built condition.",
+    "Local codes, the authority having jurisdiction and licensed practice govern.",
+    "The contractor is responsible for means, methods, sequencing, site safety and temporary bracing.",
+    "Observations are limited to work visible and accessible on the visit date; work listed as not "
+    "reviewed is outside this notice.",
+    "IMMEDIATE items: make the area safe now (keep loads off, shore or brace) and tell the contractor on "
+    "site before this written notice arrives.",
+)
+
+
+@dataclass(frozen=True)
+class Sketch:
+    """What the beam sketch draws, in mm along the beam."""
+
+    elements: list[tuple[str, float, float]]  # (kind, x0, length)
+    supports_x: list[float]
+    restrained: list[str]  # per support: "restrained", "NOT restrained", "not visible"
+    braces_top_x: list[float]
+    braces_bottom_x: list[float]
+    negative: list[tuple[float, float]]
+    decking: bool
+
+
+@dataclass(frozen=True)
+class Item:
+    """One numbered deficiency item."""
+
+    number: str
+    location: str
+    observed: str
+    finding: str
+    reference: str
+    action: str
+    priority: str
+    due: str
+    key_numbers: list[tuple[str, str]]
+    photos: list[bytes] = field(default_factory=list)
+    sketch: Sketch | None = None
+
+
+@dataclass(frozen=True)
+class Carried:
+    """An item carried forward from an earlier notice."""
+
+    number: str
+    location: str
+    description: str
+    status: str
+
+
+@dataclass(frozen=True)
+class Notice:
+    """Everything a deficiency notice prints."""
+
+    site_name: str
+    address: str
+    permit_number: str
+    project_number: str
+    notice_number: str
+    revision: int
+    visit_at: str
+    issued_on: str
+    reviewer: str
+    firm: str
+    addressed_to: str
+    distribution: list[str]
+    weather: str
+    scope_reviewed: str
+    scope_not_reviewed: str
+    items: list[Item]
+    carried: list[Carried] = field(default_factory=list)
+    change_note: str = ""
+    cautions: tuple[str, ...] = CAUTIONS
+
+
+def sketch_for(beam: Beam) -> Sketch:
+    """Geometry for the beam sketch: spans, supports, restraint, braces and negative regions."""
+    elements = []
+    x = 0.0
+    if beam.overhang_left_mm:
+        elements.append(("overhang", x, beam.overhang_left_mm))
+        x += beam.overhang_left_mm
+    supports = [x]
+    for span in beam.spans_mm:
+        elements.append(("span", x, span))
+        x += span
+        supports.append(x)
+    if beam.overhang_right_mm:
+        elements.append(("overhang", x, beam.overhang_right_mm))
+    labels = []
+    for b in beam.bearings:
+        states = {b.lateral, b.rotation}
+        labels.append("NOT restrained" if Restraint.no in states else
+                      "not visible" if Restraint.not_visible in states else "restrained")
+    top: list[float] = []
+    if beam.top_edge.braced_by is TopBracing.purlins and beam.top_edge.fastened and beam.top_edge.spacing_mm:
+        for kind, x0, length in elements:
+            if kind == "span":
+                n = int(length // beam.top_edge.spacing_mm)
+                step = beam.top_edge.spacing_mm
+                top += [x0 + step * k for k in range(1, n + 1) if step * k < length]
+    bottom: list[float] = []
+    if beam.bottom_edge.braced_by is BottomBracing.braces and beam.bottom_edge.spacing_mm:
+        total = x + beam.overhang_right_mm if beam.overhang_right_mm else x
+        bottom = [s for s in _range(0.0, total, beam.bottom_edge.spacing_mm)]
+    return Sketch(elements=elements, supports_x=supports, restrained=labels, braces_top_x=top,
+                  braces_bottom_x=bottom, negative=[], decking=beam.top_edge.braced_by is TopBracing.decking
+                  and beam.top_edge.fastened)
+
+
+def _range(start: float, stop: float, step: float) -> list[float]:
+    out, x = [], start + step
+    while x < stop:
+        out.append(x)
+        x += step
+    return out
+
+
+def key_numbers(result: Recheck) -> list[tuple[str, str]]:
+    """The recheck numbers an item prints (KL, CB, Mr vs Mf per region; shear; deflection)."""
+    out = [("status", result.status.value.replace("_", " "))]
+    for r in result.bending:
+        kl = "not established" if r.outcome == "not_established" else (
+            "not permitted" if r.outcome == "not_permitted" else f"{r.kl:.3f}")
+        cb = "-" if r.cb is None else f"{r.cb:.2f}"
+        mr = "-" if r.mr_knm is None else f"{r.mr_knm:.1f}"
+        util = "-" if r.utilisation is None else f"{r.utilisation:.2f}"
+        out.append((f"{r.region} ({r.sign})",
+                    f"KL {kl}, CB {cb}, Mr {mr} kN·m vs Mf {r.mf_knm:.1f} kN·m, utilisation {util}"))
+    out.append(("shear", f"Vr {result.shear.vr_kn:.1f} kN vs Vf {result.shear.vf_kn:.1f} kN "
+                         f"({result.shear.utilisation:.2f})"))
+    d = result.deflection
+    out.append(("deflection", f"{d.delta_mm:.1f} mm vs limit {d.limit_mm:.1f} mm ({d.case})"))
+    return out
+
+
+def item_for(deficiency: Deficiency, beam: Beam | None, result: Recheck | None, observed: str,
+             photos: list[bytes] | None = None) -> Item:
+    """Build a notice item from a deficiency and (when it concerns a beam) its recheck."""
+    return Item(number=deficiency.number, location=deficiency.location, observed=observed,
+                finding=deficiency.description, reference=deficiency.reference, action=deficiency.action,
+                priority=deficiency.priority, due=deficiency.due,
+                key_numbers=key_numbers(result) if result is not None else [],
+                photos=photos or [], sketch=_sketch_with_regions(beam, result) if beam is not None else None)
+
+
+def _sketch_with_regions(beam: Beam, result: Recheck | None) -> Sketch:
+    sk = sketch_for(beam)
+    if result is None:
+        return sk
+    negative = [(r.x_start_mm, r.x_end_mm) for r in result.bending if r.sign == "negative"]
+    return replace(sk, negative=negative)
+
+
+def header_from(site: Site, visit: Visit | None, number: str, revision: int, issued_on: str,
+                distribution: list[str]) -> dict[str, object]:
+    """Header fields of a notice from the site and the visit records."""
+    return {"site_name": site.name, "address": site.address, "permit_number": site.permit_number,
+            "project_number": site.project_number, "notice_number": number, "revision": revision,
+            "visit_at": visit.started_at if visit else "", "issued_on": issued_on,
+            "reviewer": visit.reviewer if visit else "", "firm": site.firm, "addressed_to": site.contractor,
+            "distribution": distribution, "weather": visit.weather if visit else "",
+            "scope_reviewed": visit.scope_reviewed if visit else "",
+            "scope_not_reviewed": visit.scope_not_reviewed if visit else ""}

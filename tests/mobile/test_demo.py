@@ -1,0 +1,75 @@
+"""The demo site gives the statuses and findings its scenario was written to show."""
+
+import subprocess
+import sys
+from pathlib import Path
+
+from core import recheck
+from mobile.demo.run import load_demo
+from storage import Store
+
+ROOT = Path(__file__).resolve().parents[2]
+
+EXPECTED = {
+    # mark: (status, finding codes, why)
+    "RB-1": ("ok", set(), "purlins at 1.2 m as drawn"),
+    "RB-2": ("ok", set(), "purlins at 2.4 m: KL regime (b), still adequate"),
+    "RB-3": ("deficient", {"bending_overstress"}, "80 x 608 unbraced over 6 m: CB 33 in regime (c)"),
+    "RB-4": ("not_permitted", {"slenderness_exceeds_limit"}, "80 x 912 unbraced over 12 m: CB 57 > 50"),
+    "RB-5": ("not_established", {"bearing_restraint_missing"}, "d/b 4.1 > 2.5 and no rotation restraint at support 2"),
+    "RB-6": ("ok", {"compression_edge_unbraced"}, "hogging zone bottom edge unbraced: stability governs (observation)"),
+    "RB-7": ("deficient", {"substitution"}, "130 x 456 where 130 x 494 is drawn: one lamination short"),
+    "RB-8": ("deficient", {"layup_inverted"}, "unbalanced 20f-E with the TOP stamp down"),
+    "CB-1": ("ok", set(), "wet service factors applied, adequate"),
+    "FJ-1": ("deficient", {"bending_overstress", "compression_edge_unbraced"}, "subfloor not fastened"),
+    "FJ-2": ("ok", set(), "subfloor fastened: d/b 6.2 <= 6.5"),
+    "FB-1": ("ok", set(), "floor girder adequate"),
+    "RP-1": ("ok", set(), "sawn purlin adequate"),
+}
+
+
+def test_demo_statuses_and_findings(tmp_path):
+    store = Store(tmp_path / "demo.db")
+    site_id = load_demo(store)
+    got = {}
+    for beam_id, record in store.beams(site_id):
+        r = recheck(store.beam(beam_id))
+        got[record["mark"]] = (r.status.value, {f.code for f in r.findings})
+    assert set(got) == set(EXPECTED)
+    for mark, (status, codes, why) in EXPECTED.items():
+        assert got[mark] == (status, codes), f"{mark}: {why}"
+
+
+def test_demo_command_writes_db_pdf_bundle(tmp_path):
+    out = tmp_path / "demo-out"
+    proc = subprocess.run([sys.executable, "-m", "mobile.cli", "demo", "--out", str(out)], capture_output=True,
+                          text=True, cwd=ROOT, timeout=300)
+    assert proc.returncode == 0, proc.stderr
+    assert (out / "notice.pdf").stat().st_size > 10_000
+    assert (out / "cedar-hollow.bwsync").exists() and (out / "cedar-hollow.db").exists()
+    assert "RB-5" in proc.stdout and "not_established" in proc.stdout
+
+
+def test_sync_cli_round_trip_same_digest(tmp_path):
+    out = tmp_path / "d"
+    subprocess.run([sys.executable, "-m", "mobile.cli", "demo", "--out", str(out)], check=True, cwd=ROOT,
+                   capture_output=True, timeout=300)
+    other = tmp_path / "office.db"
+    imp = subprocess.run([sys.executable, "-m", "mobile.cli", "sync", "import", "--db", str(other),
+                          str(out / "cedar-hollow.bwsync")], capture_output=True, text=True, cwd=ROOT, timeout=300)
+    assert imp.returncode == 0 and "merged" in imp.stdout
+    d1 = subprocess.run([sys.executable, "-m", "mobile.cli", "sync", "digest", "--db", str(out / "cedar-hollow.db")],
+                        capture_output=True, text=True, cwd=ROOT).stdout.strip()
+    d2 = subprocess.run([sys.executable, "-m", "mobile.cli", "sync", "digest", "--db", str(other)],
+                        capture_output=True, text=True, cwd=ROOT).stdout.strip()
+    assert d1 == d2 and len(d1) == 64
+    verify = subprocess.run([sys.executable, "-m", "mobile.cli", "report", "--verify", str(out / "notice.pdf"),
+                             "--db", str(other)], capture_output=True, text=True, cwd=ROOT)
+    assert verify.returncode == 0 and "exactly issued notice" in verify.stdout
+    bad = tmp_path / "bad.bwsync"
+    raw = bytearray((out / "cedar-hollow.bwsync").read_bytes())
+    raw[40] ^= 0xFF
+    bad.write_bytes(bytes(raw))
+    refused = subprocess.run([sys.executable, "-m", "mobile.cli", "sync", "import", "--db", str(other), str(bad)],
+                             capture_output=True, text=True, cwd=ROOT)
+    assert refused.returncode == 1 and "refused" in refused.stderr

@@ -1,0 +1,161 @@
+"""The deficiency notice PDF parsed back with pypdf, and issuing/verification through storage."""
+
+import hashlib
+import io
+import shutil
+import subprocess
+from pathlib import Path
+
+import pytest
+from PIL import Image
+from pypdf import PdfReader
+
+from core import recheck
+from core.records import Deficiency
+from mobile.demo.run import load_demo, raise_all
+from mobile.issue import issue_notice_for_site, verify_pdf
+from reports.content import Notice, item_for
+from reports.photos import prepare_photo
+from reports.render import render_notice, render_recheck_sheet
+from storage import Store
+from tests.core.beams import glulam
+
+ARTEFACTS = Path(__file__).resolve().parents[2] / "test-artefacts"
+
+
+def text_of(pdf):
+    return "\n".join(p.extract_text() for p in PdfReader(io.BytesIO(pdf)).pages)
+
+
+def save_pngs(pdf, name):
+    """Render pages to PNG (pdftoppm) as artefacts a person looks at."""
+    ARTEFACTS.mkdir(exist_ok=True)
+    path = ARTEFACTS / f"{name}.pdf"
+    path.write_bytes(pdf)
+    if shutil.which("pdftoppm"):
+        subprocess.run(["pdftoppm", "-r", "70", "-png", str(path), str(ARTEFACTS / name)], check=True)
+
+
+def _notice(items, **over):
+    data = dict(site_name="Cedar Hollow Community Hall", address="48 Larchmont Road", permit_number="BP-2026-0417",
+                project_number="TSR-2611", notice_number="TSR-2611-FR-AB12-001", revision=0,
+                visit_at="2026-11-30 09:15", issued_on="2026-11-30", reviewer="Priya Okonkwo-Lind", firm="Tamarack",
+                addressed_to="Northbeam Builders", distribution=["Owner", "File"], weather="snow",
+                scope_reviewed="Roof", scope_not_reviewed="Mezzanine", items=items)
+    data.update(over)
+    return Notice(**data)
+
+
+def _item(text="RB-5 at support 2", n=1, photos=None):
+    beam = glulam(bearings=[{"lateral": True, "rotation": True, "length_mm": 140},
+                            {"lateral": True, "rotation": False, "length_mm": 140}])
+    r = recheck(beam)
+    f = r.findings[0]
+    d = Deficiency(id=f"d{n}", site_id="s", number=f"D-AB12-{n:03d}", code=f.code, priority=f.priority.value,
+                   location=f"Roof, grid E / 3-4, {text}", description=f.message, reference="S-201; " + f.clause,
+                   action=f.action)
+    return item_for(d, beam, r, "measured 130 x 456 mm", photos), r
+
+
+def test_header_items_cautions_and_page_numbers():
+    item, _ = _item()
+    pdf = render_notice(_notice([item]))
+    text = text_of(pdf)
+    for value in ("Cedar Hollow Community Hall", "48 Larchmont Road", "BP-2026-0417", "TSR-2611-FR-AB12-001",
+                  "2026-11-30 09:15", "Priya Okonkwo-Lind", "Tamarack", "Northbeam Builders", "Mezzanine",
+                  "D-AB12-001", "Roof, grid E / 3-4", "IMMEDIATE"):
+        assert value in text, value
+    assert "Make safe now" in text
+    for caution in ("engineer of record", "Local codes", "means, methods", "recording and recheck aid"):
+        assert caution in text.replace("\n", " ")
+    n = len(PdfReader(io.BytesIO(pdf)).pages)
+    assert f"page 1 of {n}" in text and f"page {n} of {n}" in text
+    save_pngs(pdf, "notice-one-item")
+
+
+def test_not_established_recheck_numbers_printed():
+    item, r = _item()
+    text = text_of(render_notice(_notice([item]))).replace("\n", " ")
+    assert "KL not established" in text
+    assert f"Mf {r.bending[0].mf_knm:.1f}" in text
+
+
+def test_kl_cb_mr_values_match_recheck():
+    beam = glulam()
+    r = recheck(beam)
+    d = Deficiency(id="d", site_id="s", number="D-1", code="x", priority="observation", location="L",
+                   description="d", reference="r", action="a")
+    text = text_of(render_notice(_notice([item_for(d, beam, r, "obs")]))).replace("\n", " ")
+    b = r.bending[0]
+    assert f"KL {b.kl:.3f}, CB {b.cb:.2f}, Mr {b.mr_knm:.1f}" in text
+
+
+@pytest.mark.parametrize("user_text", ["<b>bold</b> & <font size=40>big</font>", "Déjà vu — φ ≤ 2.5 × 3",
+                                       "Kanji 木材 and Cyrillic брус", "X" * 300])
+def test_user_text_appears_as_typed(user_text):
+    item, _ = _item(text=user_text)
+    text = text_of(render_notice(_notice([item])))
+    flat = text.replace("\n", "")
+    if user_text.startswith("Kanji"):
+        assert "Cyrillic брус" in flat  # DejaVu Sans has no CJK glyphs; the rest renders
+    else:
+        assert user_text in flat
+
+
+def test_same_content_same_bytes():
+    item, _ = _item()
+    assert render_notice(_notice([item])) == render_notice(_notice([item]))
+
+
+def _big_photo():
+    img = Image.new("RGB", (4000, 3000), (120, 90, 60))
+    out = io.BytesIO()
+    exif = Image.Exif()
+    exif[0x0112] = 6  # rotate 90 degrees
+    img.save(out, "JPEG", quality=95, exif=exif)
+    return out.getvalue()
+
+
+def test_photo_downscaled_and_upright():
+    jpeg, w, h = prepare_photo(_big_photo())
+    assert (w, h) == (675, 900)  # EXIF orientation 6: portrait after transpose, long edge 900 px
+    assert len(jpeg) < 200_000
+
+
+def test_hundred_items_with_photos_keep_each_item_whole():
+    photo = _big_photo()
+    items = [_item(text=f"ITEM-{i:03d}-LOC", n=i, photos=[photo])[0] for i in range(100)]
+    pdf = render_notice(_notice(items))
+    assert len(pdf) < 15_000_000
+    reader = PdfReader(io.BytesIO(pdf))
+    for i in range(100):
+        pages = [p for p, page in enumerate(reader.pages) if f"ITEM-{i:03d}-LOC" in page.extract_text()]
+        assert len(pages) == 1, (i, pages)  # an item (with its photo) never splits across pages
+    images = sum(len(p.images) for p in reader.pages)
+    assert images == 100
+
+
+def test_recheck_sheet_lists_every_factor_with_status():
+    beam = glulam()
+    r = recheck(beam)
+    pdf = render_recheck_sheet("T-1", beam.model_dump(mode="json"), r)
+    text = text_of(pdf)
+    for symbol in ("KD", "KZbg", "CB", "CK", "KL", "Mr", "Le", "memory", "7.5.6.4.4"):
+        assert symbol in text
+    save_pngs(pdf, "recheck-sheet")
+
+
+def test_issue_store_hash_and_verify(tmp_path):
+    store = Store(tmp_path / "d.db")
+    site_id = load_demo(store)
+    raise_all(store, site_id)
+    notice, path = issue_notice_for_site(store, site_id, tmp_path / "n.pdf", issued_by="P. O.", issued_on="2026-11-30")
+    pdf = path.read_bytes()
+    assert hashlib.sha256(pdf).hexdigest() == notice.pdf_sha256
+    assert store.blob(notice.pdf_sha256) == pdf
+    assert verify_pdf(store, path).number == notice.number
+    changed = bytearray(pdf)
+    changed[len(changed) // 2] ^= 0x01
+    (tmp_path / "x.pdf").write_bytes(bytes(changed))
+    assert verify_pdf(store, tmp_path / "x.pdf") is None
+    save_pngs(pdf, "demo-notice")
