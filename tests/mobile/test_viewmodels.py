@@ -1,0 +1,65 @@
+"""View models without Kivy: entering values updates the recheck, bad input stays at the field."""
+
+import pytest
+
+from mobile.demo.run import load_demo
+from mobile.units import parse_length_mm
+from mobile.viewmodels import BeamFormViewModel, SiteViewModel
+from storage import Store
+
+
+@pytest.mark.parametrize("text,mm", [("3600", 3600), ("3600 mm", 3600), ("3.6 m", 3600),
+                                     ("11' 9 3/4\"", (11 * 12 + 9.75) * 25.4), ("9 3/4\"", 9.75 * 25.4),
+                                     ("12'", 144 * 25.4)])
+def test_tape_measure_input(text, mm):
+    # 1 inch = 25.4 mm exactly (international inch, a fact of the trade)
+    assert parse_length_mm(text) == pytest.approx(mm)
+
+
+def test_bad_length_message():
+    with pytest.raises(ValueError, match="feet-inches"):
+        parse_length_mm("twelve")
+
+
+@pytest.fixture
+def form(tmp_path):
+    store = Store(tmp_path / "vm.db")
+    site_id = load_demo(store)
+    beam_id = next(i for i, r in store.beams(site_id) if r["mark"] == "RB-1")
+    return BeamFormViewModel(store, site_id, beam_id)
+
+
+def test_purlin_spacing_change_updates_recheck_and_autosaves(form):
+    before = form.refresh().bending[0].kl
+    assert form.set_field("purlin_spacing_mm", "2.4 m")
+    assert form.store.beam_record(form.beam_id)["top_edge"]["spacing_mm"] == 2400
+    assert form.result.bending[0].kl < before
+
+
+def test_invalid_input_message_at_field_and_nothing_saved(form):
+    before = form.record()
+    assert not form.set_field("d_mm", "-5")
+    assert "d_mm" in form.errors and form.record() == before
+    assert not form.set_field("span_mm", "banana")
+    assert "span_mm" in form.errors
+
+
+def test_bearing_toggle_shows_immediate_and_raise(form):
+    assert form.set_field("bearing2.rotation", "no")
+    assert form.result.status.value == "not_established"
+    assert form.immediate_findings()
+    number = form.raise_deficiency(0)
+    assert number.startswith("D-")
+    assert any(number in line for line in SiteViewModel(form.store, form.site_id).open_deficiencies())
+
+
+def test_undo_last_change(form):
+    form.set_field("b_mm", "175")
+    assert form.undo()
+    assert form.store.beam(form.beam_id).b_mm == 130
+
+
+def test_site_groups_show_status_words(form):
+    groups = dict(SiteViewModel(form.store, form.site_id).groups())
+    labels = [label for rows in groups.values() for _, _, label in rows]
+    assert any("NOT ESTABLISHED" in x for x in labels) and any("OK" in x for x in labels)
