@@ -212,18 +212,12 @@ class BeamModel:
         out = []
         for e, length in enumerate(self.lengths):
             v1, t1, v2, t2 = d[2 * e : 2 * e + 4]
+            lt1, lt2, wl4 = length * t1, length * t2, w_n_mm[e] * length**4
             best, at = 0.0, 0.0
-            for s in range(SAMPLES_PER_ELEMENT + 1):
-                x = length * s / SAMPLES_PER_ELEMENT
-                xi = x / length
-                n1 = 1 - 3 * xi**2 + 2 * xi**3
-                n2 = length * (xi - 2 * xi**2 + xi**3)
-                n3 = 3 * xi**2 - 2 * xi**3
-                n4 = length * (-(xi**2) + xi**3)
-                up = n1 * v1 + n2 * t1 + n3 * v2 + n4 * t2 - w_n_mm[e] * x * x * (length - x) ** 2 / 24.0
-                down = -up / ei_nmm2
+            for xi, n1, a2, n3, a4, bubble in _SAMPLES:
+                down = -(n1 * v1 + a2 * lt1 + n3 * v2 + a4 * lt2 - wl4 * bubble) / ei_nmm2
                 if abs(down) > abs(best):
-                    best, at = down, self.elements[e].x0_mm + x
+                    best, at = down, self.elements[e].x0_mm + xi * length
             out.append((best, at))
         return out
 
@@ -240,12 +234,12 @@ class BeamModel:
             cuts.sort()
             for a, b in zip(cuts, cuts[1:], strict=False):
                 pieces.append((el.x0_mm + a, el.x0_mm + b, e))
-        scale = max((self._piece_max(result, p)[0] for p in pieces), default=0.0)
+        peaks = [self._piece_max(result, p)[0] for p in pieces]
+        scale = max(peaks, default=0.0)
         regions: list[Region] = []
-        for p in pieces:
+        for p, peak in zip(pieces, peaks, strict=True):
             mid = 0.5 * (p[0] + p[1]) - self.elements[p[2]].x0_mm
             m_mid = result.moment_nmm(p[2], mid)
-            peak, _ = self._piece_max(result, p)
             if scale == 0.0 or peak <= 1e-9 * scale:
                 sign = regions[-1].sign if regions else "positive"
             else:
@@ -270,6 +264,23 @@ class BeamModel:
                 candidates.append(xv)
         best = max(candidates, key=lambda x: abs(result.moment_nmm(e, x)))
         return abs(result.moment_nmm(e, best)), best + self.elements[e].x0_mm
+
+
+def _deflection_samples() -> tuple[tuple[float, float, float, float, float, float], ...]:
+    """Hermite shape functions and the unit-UDL bubble term at the sample points, per unit length.
+
+    At xi = x / L the deflection (EI = 1) is N1 v1 + L a2 t1 + N3 v2 + L a4 t2 - w L^4 c, with
+    c = xi^2 (1 - xi)^2 / 24, so one table of (xi, N1, a2, N3, a4, c) serves every element.
+    """
+    out = []
+    for s in range(SAMPLES_PER_ELEMENT + 1):
+        xi = s / SAMPLES_PER_ELEMENT
+        out.append((xi, 1 - 3 * xi**2 + 2 * xi**3, xi - 2 * xi**2 + xi**3, 3 * xi**2 - 2 * xi**3,
+                    -(xi**2) + xi**3, xi * xi * (1 - xi) ** 2 / 24.0))
+    return tuple(out)
+
+
+_SAMPLES = _deflection_samples()
 
 
 def _element_stiffness(length: float) -> list[list[float]]:

@@ -41,12 +41,21 @@ def load(name: str) -> Table:
 def find(name: str, **keys: str) -> dict[str, str]:
     """Return the single row of table ``name`` whose columns equal ``keys``.
 
-    Raises ``KeyError`` naming the table and the keys when no row matches.
+    Raises ``KeyError`` naming the table and the keys when no row matches. Hits are memoised
+    (the tables are read-only), which keeps repeated rechecks from rescanning them.
     """
+    memo_key = (name, tuple(sorted(keys.items())))
+    hit = _FOUND.get(memo_key)
+    if hit is not None:
+        return hit
     for row in load(name).rows:
         if all(row[k] == v for k, v in keys.items()):
+            _FOUND[memo_key] = row
             return row
     raise KeyError(f"no row in table {name!r} for {keys}")
+
+
+_FOUND: dict[tuple[str, tuple[tuple[str, str], ...]], dict[str, str]] = {}
 
 
 def column(name: str, col: str) -> list[str]:
