@@ -208,11 +208,14 @@ def import_bundle(store: Store, path: str | Path) -> ImportReport:
     new = 0
     try:
         with transaction(store.db):
+            newest = 0
             for op in v.ops:
                 if insert_op(store.db, op):
                     apply_op(store.db, op)
-                    store.observe_hlc(op.hlc)
+                    newest = max(newest, op.hlc)
                     new += 1
+            if new:
+                store.observe_hlc(newest)  # the clock passes every stamp received (once, not per op)
             peer = v.manifest["origin"]
             for origin, seq in v.manifest["vector"].items():
                 store.db.execute("INSERT OR REPLACE INTO peer_cursor VALUES (?, ?, ?)", [peer, origin, seq])

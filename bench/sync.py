@@ -1,0 +1,120 @@
+"""Sync throughput: export + import of 10k and 100k ops between two tablets' databases.
+
+Setup (untimed): a source database on disk with N ops of the shape a day in the field makes
+(a site, then beams logged with their contract-1 fields, then one-field edits: spans, sizes,
+purlin spacing, notes), written through the storage save path in one transaction.
+
+Measured: `export_bundle` from the source to a bundle file plus `import_bundle` of that file into
+a fresh database (verify the MAC, hashes and ranges, then merge every op in one transaction).
+
+Baseline, same run: a raw SQLite copy of the same rows, `INSERT INTO op SELECT * FROM src.op`
+with the source attached, into a fresh database of the same schema, in one transaction. The
+ratio is raw time / sync time (1.0 would mean syncing costs no more than a bare row copy).
+"""
+
+from __future__ import annotations
+
+import random
+import shutil
+import sqlite3
+import tempfile
+from pathlib import Path
+
+from bench.common import Row, Sample, fmt_time, measure
+from storage.api import Store
+from storage.bundle import export_bundle, import_bundle
+from storage.db import transaction
+
+BEAM = {
+    "material": "glulam", "species": "D.Fir-L", "grade": "24f-E", "b_mm": 130, "d_mm": 456,
+    "spans_mm": [7200], "bearings": [{"lateral": True, "rotation": True, "length_mm": 140}] * 2,
+    "top_edge": {"braced_by": "purlins", "spacing_mm": 2400, "fastened": True},
+    "loads": {"dead_kn_m": 2.0, "live_kn_m": 0.0, "snow_kn_m": 5.0},
+}
+
+
+def make_source(path: Path, n_ops: int, seed: int = 11) -> Store:
+    """A database holding exactly n_ops ops: one site, beams, then single-field edits."""
+    rng = random.Random(seed)
+    store = Store(path)
+    with transaction(store.db):
+        site = "site-bench"
+        store._save_in_tx("site", site, {"name": "Bench Site", "address": "1 Test Lane"}, "set", None)
+        beams = [f"beam-{i:06d}" for i in range(max(1, n_ops // 10))]
+        made = 1
+        for b in beams:
+            if made >= n_ops:
+                break
+            store._save_in_tx("beam", b, dict(BEAM, mark=b, site_id=site, level="Roof"), "set", None)
+            made += 1
+        while made < n_ops:
+            b = rng.choice(beams)
+            field, value = rng.choice((
+                ("spans_mm", [rng.randrange(4000, 12000, 100)]),
+                ("d_mm", 38 * rng.randint(8, 24)),
+                ("top_edge", {"braced_by": "purlins", "spacing_mm": rng.choice((1200, 2400)), "fastened": True}),
+                ("notes", f"checked at gridline {rng.randint(1, 30)}"),
+            ))
+            store._save_in_tx("beam", b, {field: value}, "set", None)
+            made += 1
+    return store
+
+
+def _raw_copy(src: Path, dst: Path) -> None:
+    con = sqlite3.connect(dst)
+    con.execute("PRAGMA journal_mode=WAL")
+    con.execute("PRAGMA synchronous=FULL")
+    con.execute(f"ATTACH DATABASE '{src}' AS src")
+    con.execute("BEGIN IMMEDIATE")
+    con.execute("INSERT INTO op SELECT * FROM src.op")
+    con.execute("COMMIT")
+    con.close()
+
+
+def run(quick: bool = False) -> list[Row]:
+    """Measure 10k and 100k ops (quick: 2k and 10k); return the table rows."""
+    rows = []
+    sizes = (2_000, 10_000) if quick else (10_000, 100_000)
+    for n in sizes:
+        work = Path(tempfile.mkdtemp(prefix="bracewalk-bench-sync-"))
+        try:
+            src_path = work / "source.db"
+            src = make_source(src_path, n)
+            state = {"i": 0}
+
+            def fresh(state: dict[str, int] = state, work: Path = work) -> None:
+                state["i"] += 1  # empty databases of the same schema for both sides, untimed
+                Store(work / f"dst{state['i']}.db").close()
+                Store(work / f"raw{state['i']}.db").close()
+
+            def sync(state: dict[str, int] = state, work: Path = work, src: Store = src, n: int = n) -> None:
+                bundle = work / f"b{state['i']}.bwsync"
+                export_bundle(src, bundle)
+                dst = Store(work / f"dst{state['i']}.db")
+                report = import_bundle(dst, bundle)
+                if report.outcome != "applied" or report.ops_new != n:
+                    raise RuntimeError(f"sync bench: import {report.outcome}, {report.ops_new} of {n} ops")
+                dst.close()
+
+            def raw(state: dict[str, int] = state, work: Path = work, src_path: Path = src_path) -> None:
+                _raw_copy(src_path, work / f"raw{state['i']}.db")
+
+            repeats = 3 if n >= 100_000 else 5
+            s: Sample = measure(sync, repeats, setup=fresh)
+            r: Sample = measure(raw, repeats, setup=fresh)
+            src.close()
+            ratio = r.median_s / s.median_s
+            aim, met = ">= 0.25x raw", ratio >= 0.25
+            if n == 10_000:
+                aim, met = "< 1 s, >= 0.25x raw", s.median_s < 1.0 and ratio >= 0.25
+            rows.append(Row(f"sync export+import, {n:,} ops", fmt_time(s.median_s), fmt_time(r.median_s),
+                            f"{ratio:.2f}x", aim, met, f"{s.spread_pct:.0f}%"))
+        finally:
+            shutil.rmtree(work, ignore_errors=True)
+    return rows
+
+
+if __name__ == "__main__":
+    from bench.common import print_table
+
+    print_table(run())
