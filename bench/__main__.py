@@ -1,0 +1,44 @@
+"""Run every benchmark and print one table: `python -m bench [--quick] [--only NAME ...]`.
+
+Benchmarks: recheck, sync, report (modules of this package) and app (the tablet app under Xvfb,
+run in a child process). Each uses its own temporary files and removes them. Figures are medians
+over repeats with their spread; baselines are measured in the same run. Nothing here is a test.
+"""
+
+from __future__ import annotations
+
+import argparse
+import importlib
+import sys
+import time
+
+from bench.common import Row, print_table
+
+NAMES = ("recheck", "sync", "report", "app")
+
+
+def main(argv: list[str] | None = None) -> int:
+    """Parse arguments, run the chosen benchmarks, print the table; exit 1 if one crashed."""
+    ap = argparse.ArgumentParser(prog="python -m bench", description=__doc__)
+    ap.add_argument("--quick", action="store_true", help="smaller sizes and fewer repeats (a smoke run)")
+    ap.add_argument("--only", nargs="+", choices=NAMES, help="run only these benchmarks")
+    args = ap.parse_args(argv)
+    rows: list[Row] = []
+    failed = False
+    t0 = time.perf_counter()
+    for name in args.only or NAMES:
+        print(f"running {name} ...", file=sys.stderr, flush=True)
+        try:
+            module = importlib.import_module(f"bench.{name}")
+            rows += module.run(quick=args.quick)
+        except Exception as exc:  # report the crash in the table and go on with the others
+            failed = True
+            rows.append(Row(name, "FAILED", "", "", f"{type(exc).__name__}: {exc}"[:80], False))
+    print_table(rows)
+    print(f"\n({time.perf_counter() - t0:.0f} s; figures are medians, spread = (max - min) / median; "
+          "ratios use baselines measured in this run)")
+    return 1 if failed else 0
+
+
+if __name__ == "__main__":
+    raise SystemExit(main())
