@@ -33,12 +33,14 @@ def observed_text(record: dict[str, object]) -> str:
 
 
 def build_notice(store: Store, site_id: str, number: str, revision: int = 0, change_note: str = "",
-                 issued_on: str | None = None) -> tuple[Notice, list[str]]:
-    """The notice content for a site's open deficiencies (and earlier items carried forward)."""
+                 issued_on: str | None = None, only: list[str] | None = None) -> tuple[Notice, list[str]]:
+    """The notice content for a site's open deficiencies (or the ``only`` ones chosen), earlier items carried."""
     site = store.site(site_id)
     visits = store.visits(site_id)
     visit = visits[-1] if visits else None
     open_items = store.deficiencies(site_id, open_only=True)
+    if only is not None:
+        open_items = [d for d in open_items if d.id in set(only)]
     photos_by_def: dict[str, list[bytes]] = {}
     photos_by_beam: dict[str, list[bytes]] = {}
     for p in store.photos(site_id):
@@ -74,11 +76,11 @@ def _status_words(stage: Stage, cycle: int) -> str:
 
 
 def issue_notice_for_site(store: Store, site_id: str, out: Path, issued_by: str = "Reviewer",
-                          issued_on: str | None = None) -> tuple[IssuedNotice, Path]:
+                          issued_on: str | None = None, only: list[str] | None = None) -> tuple[IssuedNotice, Path]:
     """Render, store (PDF blob + immutable record) and write the notice PDF to ``out``."""
     site = store.site(site_id)
     number = store.next_notice_number(site)
-    notice, ids = build_notice(store, site_id, number, issued_on=issued_on)
+    notice, ids = build_notice(store, site_id, number, issued_on=issued_on, only=only)
     pdf = render_notice(notice)
     issued = store.issue_notice(site_id, number, pdf, ids, issued_by, issued_on or time.strftime("%Y-%m-%d"))
     out.parent.mkdir(parents=True, exist_ok=True)

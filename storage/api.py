@@ -353,12 +353,16 @@ class Store:
         return None
 
     # -- sync bookkeeping ---------------------------------------------------------------------
-    def pending_sync_count(self, peer: str = "office") -> int:
-        """Ops of this device not yet sent to ``peer``."""
+    def pending_sync_count(self, peer: str = "office", site_id: str | None = None) -> int:
+        """Ops of this device not yet sent to ``peer`` (only those about one site when ``site_id`` is given)."""
         row = self.db.execute("SELECT seq FROM peer_cursor WHERE peer=? AND origin=?",
                               [peer, self.device_id]).fetchone()
         sent = row[0] if row else 0
-        return int(self._meta()["seq"]) - sent
+        if site_id is None:
+            return int(self._meta()["seq"]) - sent
+        ids = " UNION ".join(f"SELECT id FROM {t} WHERE site_id = :site" for t in PROJECTIONS)
+        sql = f"SELECT count(*) FROM op WHERE origin = :me AND seq > :sent AND record_id IN ({ids})"
+        return int(self.db.execute(sql, {"me": self.device_id, "sent": sent, "site": site_id}).fetchone()[0])
 
     def last_sync(self) -> str | None:
         """When the last bundle was exported or imported successfully."""

@@ -14,6 +14,7 @@ import json
 import os
 import time
 import zipfile
+from collections.abc import Callable
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -28,6 +29,14 @@ MAX_BUNDLE_BYTES = 512 * 1024 * 1024
 MAX_ENTRY_BYTES = 256 * 1024 * 1024
 MANIFEST_KEYS = {"format", "format_version", "schema_version", "origin", "created_ms", "ranges", "op_count",
                  "ops_sha256", "blobs", "vector"}
+
+
+Progress = Callable[[float, str], None]
+PROGRESS_EVERY = 250
+
+
+def _silent(fraction: float, what: str) -> None:
+    """No progress display."""
 
 
 class BundleRefused(Exception):
@@ -51,8 +60,14 @@ def _now() -> str:
     return time.strftime("%Y-%m-%dT%H:%M:%SZ", time.gmtime())
 
 
-def export_bundle(store: Store, out: str | Path, peer: str | None = None) -> dict[str, Any]:
-    """Write the ops ``peer`` has not seen (all ops when peer is None) and their blobs to ``out``."""
+def export_bundle(store: Store, out: str | Path, peer: str | None = None,
+                  progress: Progress | None = None) -> dict[str, Any]:
+    """Write the ops ``peer`` has not seen (all ops when peer is None) and their blobs to ``out``.
+
+    ``progress(fraction, what)`` is called as the work goes (for a progress bar).
+    """
+    tell = progress or _silent
+    tell(0.0, "reading changes")
     cursor: dict[str, int] = {}
     if peer:
         cursor = dict(store.db.execute("SELECT origin, seq FROM peer_cursor WHERE peer=?", [peer]).fetchall())
@@ -62,7 +77,9 @@ def export_bundle(store: Store, out: str | Path, peer: str | None = None) -> dic
     lines = []
     ranges: dict[str, list[int]] = {}
     shas: set[str] = set()
-    for o in ops:
+    for n, o in enumerate(ops):
+        if n % PROGRESS_EVERY == 0:
+            tell(0.8 * n / len(ops), f"packing change {n:,} of {len(ops):,}")
         o["payload"], o["base"] = json.loads(o["payload"]), json.loads(o["base"])
         lines.append(canonical(o))
         r = ranges.setdefault(o["origin"], [o["seq"], o["seq"]])
@@ -81,6 +98,7 @@ def export_bundle(store: Store, out: str | Path, peer: str | None = None) -> dic
     mbytes = canonical(manifest).encode()
     mac = hmac.new(store.firm_key, mbytes, hashlib.sha256).hexdigest()
     out = Path(out)
+    tell(0.8, f"writing {out.name}")
     tmp = out.with_name(out.name + ".part")
     with zipfile.ZipFile(tmp, "w", compression=zipfile.ZIP_DEFLATED) as z:
         z.writestr("manifest.json", mbytes)
@@ -98,6 +116,7 @@ def export_bundle(store: Store, out: str | Path, peer: str | None = None) -> dic
         if peer:
             for origin, (_, last) in ranges.items():
                 store.db.execute("INSERT OR REPLACE INTO peer_cursor VALUES (?, ?, ?)", [peer, origin, last])
+    tell(1.0, f"wrote {len(lines):,} changes")
     return manifest
 
 
@@ -183,14 +202,20 @@ def _check_ranges(store: Store, manifest: dict[str, Any], ops: list[Op]) -> None
                                 f"at {seqs[0]}; import the earlier bundle first")
 
 
-def import_bundle(store: Store, path: str | Path) -> ImportReport:
-    """Verify then apply a bundle in one transaction; log the attempt whatever its outcome."""
+def import_bundle(store: Store, path: str | Path, progress: Progress | None = None) -> ImportReport:
+    """Verify then apply a bundle in one transaction; log the attempt whatever its outcome.
+
+    ``progress(fraction, what)`` is called as the work goes (for a progress bar).
+    """
+    tell = progress or _silent
+    tell(0.0, "verifying")
     data = Path(path).read_bytes()
     try:
         v = verify_bundle(store, data)
     except BundleRefused as exc:
         _log(store, path, hashlib.sha256(data).hexdigest(), "refused", str(exc), 0, 0)
         return ImportReport("refused", reason=str(exc))
+    tell(0.2, f"verified {len(v.ops):,} changes and {len(v.blobs)} files")
     if v.manifest["schema_version"] > SCHEMA_VERSION:
         held = store.blob_dir / "held" / f"{v.sha}.zip"
         held.parent.mkdir(parents=True, exist_ok=True)
@@ -209,7 +234,10 @@ def import_bundle(store: Store, path: str | Path) -> ImportReport:
     try:
         with transaction(store.db):
             newest = 0
-            for op in v.ops:
+            total = len(v.ops)
+            for n, op in enumerate(v.ops):
+                if n % PROGRESS_EVERY == 0:
+                    tell(0.2 + 0.8 * n / max(total, 1), f"merging change {n:,} of {total:,}")
                 if insert_op(store.db, op):
                     apply_op(store.db, op)
                     newest = max(newest, op.hlc)
@@ -224,6 +252,7 @@ def import_bundle(store: Store, path: str | Path) -> ImportReport:
         return ImportReport("refused", ops_total=len(v.ops), reason=f"integrity: {exc}")
     conflicts = store.db.execute("SELECT count(*) FROM conflict").fetchone()[0] - before
     _log(store, path, v.sha, "applied", "", len(v.ops), new)
+    tell(1.0, f"merged {new:,} new changes")
     return ImportReport("applied", ops_total=len(v.ops), ops_new=new, blobs_new=len(v.blobs),
                         conflicts_new=conflicts, origins=v.manifest["ranges"])
 

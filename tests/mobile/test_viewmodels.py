@@ -36,12 +36,15 @@ def test_purlin_spacing_change_updates_recheck_and_autosaves(form):
     assert form.result.bending[0].kl < before
 
 
-def test_invalid_input_message_at_field_and_nothing_saved(form):
-    before = form.record()
+def test_invalid_input_message_at_field_kept_as_draft_beam_unchanged(form):
+    before = form.store.beam(form.beam_id)
     assert not form.set_field("d_mm", "-5")
-    assert "d_mm" in form.errors and form.record() == before
-    assert not form.set_field("span_mm", "banana")
-    assert "span_mm" in form.errors
+    assert "d_mm" in form.errors and form.store.beam(form.beam_id) == before
+    assert form.form()["d_mm"] == "-5"  # what was typed is kept and shown back
+    assert not form.set_field("spans", "banana")
+    assert "spans" in form.errors
+    assert form.set_field("d_mm", "494")  # a valid entry clears the draft
+    assert form.form()["d_mm"] == "494" and "d_mm" not in form.errors
 
 
 def test_bearing_toggle_shows_immediate_and_raise(form):

@@ -1,0 +1,30 @@
+"""Words and shapes shared by the screens: status is never shown by colour alone."""
+
+from __future__ import annotations
+
+from pydantic import ValidationError
+
+from core.records import DesignBasis
+
+STATUS_WORDS = {"ok": ("OK", "●"), "deficient": ("DEFICIENT", "▲"), "not_permitted": ("NOT PERMITTED", "■"),
+                "not_established": ("NOT ESTABLISHED", "✖"), "unchecked": ("NOT YET CHECKED", "○")}
+PRIORITY_LABELS = {"immediate": "▲ IMMEDIATE: make safe now", "before_loading": "● Before loading or concealment",
+                   "before_next_review": "○ Before next review", "observation": "· Observation"}
+STAGE_WORDS = {0: "open", 1: "corrected (contractor reports done)", 2: "verified by reviewer"}
+
+
+def status_label(status: str) -> str:
+    """Status by word and shape, never by colour alone."""
+    word, shape = STATUS_WORDS[status]
+    return f"{shape} {word}"
+
+
+def validation_message(exc: ValidationError) -> str:
+    """One line per pydantic error: 'field.path: message'."""
+    return "; ".join(f"{'.'.join(map(str, e['loc'])) or 'value'}: {e['msg']}" for e in exc.errors())
+
+
+def line_loads_kn_m(basis: DesignBasis, tributary_m: float) -> dict[str, float]:
+    """Specified line loads, kN/m = design-basis area loads, kPa x tributary width, m (common practice)."""
+    return {"dead_kn_m": round(basis.dead_kpa * tributary_m, 3), "live_kn_m": round(basis.live_kpa * tributary_m, 3),
+            "snow_kn_m": round(basis.snow_kpa * tributary_m, 3)}

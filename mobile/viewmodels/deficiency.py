@@ -1,0 +1,98 @@
+"""One deficiency: its details, edits, status moves with evidence, and its history."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from pathlib import Path
+
+from core.records import Deficiency, Stage
+from core.results import PRIORITY_ORDER
+from mobile.viewmodels.common import PRIORITY_LABELS, STAGE_WORDS
+from storage import Store
+from storage.api import LifecycleError
+
+EDITABLE = ("location", "description", "reference", "action", "priority", "due")
+ROLES = ("reviewer", "contractor", "office")
+
+
+@dataclass
+class DeficiencyViewModel:
+    """The deficiency screen."""
+
+    store: Store
+    deficiency_id: str
+    message: str = ""
+    errors: dict[str, str] = field(default_factory=dict)
+
+    def deficiency(self) -> Deficiency:
+        """The current record."""
+        return self.store.deficiency(self.deficiency_id)
+
+    def title(self) -> str:
+        """'D-AB12-003  ·  ▲ IMMEDIATE  ·  open'."""
+        d = self.deficiency()
+        cycle = f", cycle {d.cycle + 1}" if d.cycle else ""
+        return f"{d.number}  ·  {PRIORITY_LABELS[d.priority]}  ·  {STAGE_WORDS[int(d.stage)]}{cycle}"
+
+    def fields(self) -> dict[str, str]:
+        """Editable text of the deficiency."""
+        d = self.deficiency()
+        return {k: str(getattr(d, k)) for k in EDITABLE}
+
+    def edit(self, name: str, text: str) -> bool:
+        """Save one edited field (per-field merge like every record); False with a message if refused."""
+        if name not in EDITABLE:
+            self.errors[name] = f"{name}: not editable; allowed: {', '.join(EDITABLE)}"
+            return False
+        text = text.strip()
+        if name == "priority" and text not in PRIORITY_ORDER:
+            self.errors[name] = f"priority {text!r}; allowed: {', '.join(PRIORITY_ORDER)}"
+            return False
+        if name in ("location", "description", "action") and not text:
+            self.errors[name] = f"{name}: required on a deficiency"
+            return False
+        self.errors.pop(name, None)
+        d = self.deficiency()
+        if getattr(d, name) != text:
+            self.store.save("deficiency", self.deficiency_id, {name: text})
+        return True
+
+    def moves(self, role: str) -> list[str]:
+        """Status moves allowed from the current stage for a role (open -> corrected -> verified; reopen)."""
+        stage = self.deficiency().stage
+        out = []
+        if stage is Stage.open:
+            out.append("corrected")
+        if stage is not Stage.verified and role == "reviewer":
+            out.append("verified")
+        if stage is not Stage.open:
+            out.append("reopen")
+        return out
+
+    def move(self, stage: str, actor: str, role: str, note: str = "", evidence: str | Path | None = None) -> bool:
+        """Move the status with a note and an optional evidence photo; False with ``message`` if refused."""
+        if not actor.strip():
+            self.message = "Enter who is making this change"
+            return False
+        sha = ""
+        try:
+            if evidence:
+                content = Path(evidence).read_bytes()
+                d = self.deficiency()
+                self.store.add_photo(d.site_id, content, deficiency_id=d.id, caption=f"evidence: {stage} {note}"[:200])
+                sha = self.store.put_blob(content, "image/jpeg")
+            self.store.move_status(self.deficiency_id, stage, actor.strip(), role, note.strip(), sha)
+        except LifecycleError as exc:
+            self.message = str(exc)
+            return False
+        self.message = f"Moved to {stage} by {actor.strip()} ({role})"
+        return True
+
+    def history_lines(self) -> list[str]:
+        """Every status move, oldest first, with who, when, the note and whether evidence is attached."""
+        out = []
+        for e in self.store.history(self.deficiency_id):
+            word = "opened" if e.stage is Stage.open and e.cycle else STAGE_WORDS[int(e.stage)]
+            out.append(f"{e.at}  {word} (cycle {e.cycle + 1}) by {e.actor} [{e.role}]"
+                       + (f": {e.note}" if e.note else "") + ("  · photo evidence" if e.evidence_sha256 else ""))
+        return out or ["raised; no status moves yet"]

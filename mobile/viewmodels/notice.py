@@ -1,0 +1,97 @@
+"""Notices: choose the open items, preview the PDF pages, issue (then read-only), export the file."""
+
+from __future__ import annotations
+
+import hashlib
+import io
+import time
+from dataclasses import dataclass, field
+from pathlib import Path
+
+from mobile.issue import build_notice, issue_notice_for_site
+from mobile.viewmodels.common import PRIORITY_LABELS
+from reports.render import render_notice
+from storage import Store
+
+PREVIEW_SCALE = 1.0  # 72 dpi: a US letter page is 612 x 792 px
+
+
+@dataclass
+class NoticeViewModel:
+    """The notice screen of a site."""
+
+    store: Store
+    site_id: str
+    chosen: set[str] = field(default_factory=set)
+    message: str = ""
+
+    def __post_init__(self) -> None:
+        """Every open item is chosen to begin with."""
+        self.chosen = {d.id for d in self.store.deficiencies(self.site_id, open_only=True)}
+
+    def candidates(self) -> list[tuple[str, str, bool]]:
+        """[(deficiency id, line, chosen)] for every open item, most urgent first."""
+        return [(d.id, f"{d.number}  {PRIORITY_LABELS[d.priority]}  {d.location}", d.id in self.chosen)
+                for d in self.store.deficiencies(self.site_id, open_only=True)]
+
+    def toggle(self, deficiency_id: str) -> None:
+        """Choose or leave out one item."""
+        self.chosen ^= {deficiency_id}
+
+    def draft_pdf(self) -> bytes:
+        """The notice as it would be issued now (marked with the next number), not stored."""
+        number = self.store.next_notice_number(self.store.site(self.site_id))
+        notice, _ = build_notice(self.store, self.site_id, number, only=sorted(self.chosen))
+        return render_notice(notice)
+
+    def preview_pages(self, out_dir: Path, pdf: bytes | None = None) -> list[Path]:
+        """Render the draft (or the given PDF) to one PNG per page in out_dir, with pypdfium2."""
+        import pypdfium2
+
+        out_dir.mkdir(parents=True, exist_ok=True)
+        data = pdf if pdf is not None else self.draft_pdf()
+        doc = pypdfium2.PdfDocument(io.BytesIO(data))
+        paths = []
+        try:
+            tag = hashlib.sha256(data).hexdigest()[:10]
+            for i in range(len(doc)):
+                path = out_dir / f"preview-{tag}-{i + 1}.png"
+                doc[i].render(scale=PREVIEW_SCALE).to_pil().save(path)
+                paths.append(path)
+        finally:
+            doc.close()
+        return paths
+
+    def issue(self, issued_by: str, out_dir: Path) -> Path | None:
+        """Issue the chosen items: PDF stored with its SHA-256 (read-only from then on) and written to out_dir."""
+        if not self.chosen:
+            self.message = "Choose at least one item to issue"
+            return None
+        if not issued_by.strip():
+            self.message = "Enter the reviewer issuing the notice"
+            return None
+        out = out_dir / f"notice-{time.strftime('%Y%m%d-%H%M%S')}.pdf"
+        issued, path = issue_notice_for_site(self.store, self.site_id, out, issued_by.strip(),
+                                             only=sorted(self.chosen))
+        self.message = f"Issued {issued.number} rev {issued.revision} ({len(issued.deficiency_ids)} items)"
+        return path
+
+    def issued(self) -> list[tuple[str, str]]:
+        """[(notice id, 'number rev n · date · by · items')] of issued notices, read-only."""
+        return [(n.id, f"{n.number} rev {n.revision}  ·  {n.issued_at}  ·  {n.issued_by}  ·  "
+                       f"{len(n.deficiency_ids)} items  ·  SHA-256 {n.pdf_sha256[:12]}")
+                for n in self.store.notices(self.site_id)]
+
+    def export(self, notice_id: str, folder: Path) -> Path:
+        """Write an issued notice's stored PDF into folder (to share); the bytes are checked against the hash."""
+        n = next(x for x in self.store.notices(self.site_id) if x.id == notice_id)
+        pdf = self.store.blob(n.pdf_sha256)
+        if pdf is None:
+            raise FileNotFoundError(f"the PDF of {n.number} has not arrived on this tablet yet (pending sync)")
+        if hashlib.sha256(pdf).hexdigest() != n.pdf_sha256:
+            raise ValueError(f"the stored PDF of {n.number} does not match its recorded SHA-256")
+        folder.mkdir(parents=True, exist_ok=True)
+        path = folder / f"{n.number}-rev{n.revision}.pdf"
+        path.write_bytes(pdf)
+        self.message = f"Exported {path}"
+        return path

@@ -1,0 +1,118 @@
+"""A site: its beams grouped by level and gridline with status; open deficiencies by priority; visits."""
+
+from __future__ import annotations
+
+import time
+from dataclasses import dataclass, field
+from typing import Any
+
+from core.recheck import recheck
+from core.results import PRIORITY_ORDER
+from mobile.viewmodels.common import PRIORITY_LABELS, STAGE_WORDS, line_loads_kn_m, status_label
+from storage import Store
+from storage.clock import uuid7
+
+NEW_BEAM_DEFAULTS: dict[str, Any] = {
+    "material": "glulam", "species": "D.Fir-L", "grade": "24f-E", "b_mm": 130, "d_mm": 456, "spans_mm": [6000],
+    "bearings": [{"lateral": "not_visible", "rotation": "not_visible", "length_mm": 140}] * 2,
+    "top_edge": {"braced_by": "none", "spacing_mm": None, "fastened": True},
+}
+COPIED_FROM_LAST = ("material", "species", "grade", "b_mm", "d_mm", "service", "use", "top_stamp", "level")
+
+
+@dataclass
+class SiteViewModel:
+    """What the site screen shows and the actions it offers."""
+
+    store: Store
+    site_id: str
+    errors: dict[str, str] = field(default_factory=dict)
+
+    def status_of(self, beam_id: str) -> str:
+        """Recheck status (ok, deficient, not_permitted, not_established), or 'unchecked' if incomplete."""
+        try:
+            return recheck(self.store.beam(beam_id)).status.value
+        except ValueError:
+            return "unchecked"
+
+    def groups(self) -> list[tuple[str, list[tuple[str, str, str]]]]:
+        """[(level, [(beam_id, 'mark  gridline', status label)])] ordered by level, gridline, mark."""
+        out: dict[str, list[tuple[str, str, str]]] = {}
+        for beam_id, record in self.store.beams(self.site_id):
+            out.setdefault(str(record.get("level") or "level not recorded"), []).append(
+                (beam_id, f"{record.get('mark')}  ·  grid {record.get('gridline') or '?'}",
+                 status_label(self.status_of(beam_id))))
+        return list(out.items())
+
+    def deficiency_groups(self) -> list[tuple[str, list[tuple[str, str]]]]:
+        """Open deficiencies by priority, most urgent first: [(priority label, [(id, line)])]."""
+        out: dict[str, list[tuple[str, str]]] = {}
+        for d in self.store.deficiencies(self.site_id, open_only=True):
+            out.setdefault(d.priority, []).append(
+                (d.id, f"{d.number}  {d.location}  ·  {STAGE_WORDS[int(d.stage)]}"))
+        return [(PRIORITY_LABELS[p], out[p]) for p in sorted(out, key=PRIORITY_ORDER.__getitem__)]
+
+    def open_deficiencies(self) -> list[str]:
+        """One line per open deficiency, most urgent first."""
+        return [f"{d.number} [{d.priority}] {d.location}" for d in self.store.deficiencies(self.site_id, True)]
+
+    def visit_line(self) -> str:
+        """The current (latest) visit, or a prompt to start one."""
+        visits = self.store.visits(self.site_id)
+        if not visits:
+            return "No visit started: start one before logging"
+        v = visits[-1]
+        return f"Visit {v.started_at} · {v.reviewer}" + (f" · {v.weather}" if v.weather else "")
+
+    def start_visit(self, reviewer: str, weather: str = "", scope_reviewed: str = "",
+                    scope_not_reviewed: str = "") -> str | None:
+        """Start a visit now; returns its id, or None with a message when the reviewer is missing."""
+        self.errors = {}
+        if not reviewer.strip():
+            self.errors["reviewer"] = "reviewer: enter the name of the person doing the review"
+            return None
+        visit = self.store.start_visit(self.site_id, reviewer.strip(), time.strftime("%Y-%m-%d %H:%M"),
+                                       weather=weather.strip(), scope_reviewed=scope_reviewed.strip(),
+                                       scope_not_reviewed=scope_not_reviewed.strip())
+        return visit.id
+
+    def new_beam(self) -> str:
+        """Log a new beam: member data copied from the last beam on the site, restraints 'not visible'.
+
+        The bearings start as 'not visible' so that nothing is assumed restrained until it is seen.
+        """
+        beams = self.store.beams(self.site_id)
+        fields = {k: (list(v) if isinstance(v, list) else dict(v) if isinstance(v, dict) else v)
+                  for k, v in NEW_BEAM_DEFAULTS.items()}
+        if beams:
+            last = max(beams, key=lambda b: b[0])[1]  # uuid7 ids sort by creation time
+            fields.update({k: last[k] for k in COPIED_FROM_LAST if k in last})
+            if "loads" in last:
+                fields["loads"] = last["loads"]
+            if "tributary_m" in last:
+                fields["tributary_m"] = last["tributary_m"]
+        fields.setdefault("loads", line_loads_kn_m(self.store.site(self.site_id).design_basis, 1.0))
+        fields["mark"] = f"NEW-{len(beams) + 1}"
+        fields["site_id"] = self.site_id
+        visits = self.store.visits(self.site_id)
+        if visits:
+            fields["visit_id"] = visits[-1].id
+        beam_id = uuid7()
+        self.store.save("beam", beam_id, fields)
+        return beam_id
+
+    def raise_by_hand(self, location: str, description: str, action: str, priority: str,
+                      beam_id: str | None = None, reference: str = "") -> str | None:
+        """A reviewer's own observation as a numbered deficiency; returns its number or None with messages."""
+        self.errors = {}
+        for name, value in (("location", location), ("description", description), ("action", action)):
+            if not value.strip():
+                self.errors[name] = f"{name}: required on a deficiency"
+        if priority not in PRIORITY_ORDER:
+            self.errors["priority"] = f"priority {priority!r}; allowed: {', '.join(PRIORITY_ORDER)}"
+        if self.errors:
+            return None
+        d = self.store.raise_deficiency(self.site_id, beam_id, "reviewer_observation", priority, location.strip(),
+                                        description.strip(), reference.strip() or "reviewer's observation",
+                                        action.strip())
+        return d.number

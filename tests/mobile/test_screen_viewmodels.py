@@ -1,0 +1,200 @@
+"""View models of every screen, without Kivy: sites, site, beam form, deficiency, notice, sync."""
+
+import hashlib
+import io
+
+import pytest
+from PIL import Image
+from pypdf import PdfReader
+
+from mobile.demo.run import load_demo, raise_all
+from mobile.viewmodels import (
+    BeamFormViewModel,
+    DeficiencyViewModel,
+    NoticeViewModel,
+    SitesViewModel,
+    SiteViewModel,
+    SyncViewModel,
+)
+from storage import Store
+
+
+@pytest.fixture
+def demo(tmp_path):
+    store = Store(tmp_path / "a.db")
+    site_id = load_demo(store)
+    return store, site_id
+
+
+def _form(store, site_id, mark):
+    return BeamFormViewModel(store, site_id, next(i for i, r in store.beams(site_id) if r["mark"] == mark))
+
+
+def test_create_site_and_refuse_bad_basis(tmp_path):
+    vm = SitesViewModel(Store(tmp_path / "s.db"))
+    assert vm.create({"name": "", "dead_kpa": "1"}) is None and "name" in vm.errors
+    assert vm.create({"name": "Hall", "dead_kpa": "heavy"}) is None and "dead_kpa" in vm.errors
+    assert vm.create({"name": "Hall", "snow_kpa": "70"}) is None and "snow_kpa" in vm.errors  # allowed 0..50
+    site = vm.create({"name": "Willow Yard Pavilion", "dead_kpa": "1.1", "snow_kpa": "2.2", "permit_number": "BP-9"})
+    assert site is not None and site.design_basis.snow_kpa == 2.2
+    (row,) = vm.rows()
+    assert "Willow Yard Pavilion" in row[1] and "not yet synced" in row[1]
+
+
+def test_pending_changes_are_counted_per_site(demo, tmp_path):
+    store, site_id = demo
+    other = store.create_site(name="Other site")
+    assert store.pending_sync_count(site_id=other.id) == 1
+    assert store.pending_sync_count(site_id=site_id) > 13  # site, visits, 13 beams, photos
+    SyncViewModel(store).export(tmp_path / "out")
+    assert store.pending_sync_count(site_id=site_id) == 0
+
+
+def test_site_groups_deficiencies_by_priority_and_visit(demo):
+    store, site_id = demo
+    raise_all(store, site_id)
+    vm = SiteViewModel(store, site_id)
+    levels = [level for level, _ in vm.groups()]
+    assert levels == sorted(levels)
+    priorities = [label for label, _ in vm.deficiency_groups()]
+    assert priorities[0].startswith("▲ IMMEDIATE")
+    assert vm.start_visit("  ") is None and "reviewer" in vm.errors
+    assert vm.start_visit("R. Vantongeren", "dry, 5 °C") is not None
+    assert "R. Vantongeren" in vm.visit_line()
+
+
+def test_new_beam_assumes_no_restraint_until_seen(demo):
+    store, site_id = demo
+    vm = SiteViewModel(store, site_id)
+    beam_id = vm.new_beam()
+    form = BeamFormViewModel(store, site_id, beam_id)
+    r = form.refresh()
+    # d/b = 456/130 = 3.5 > 2.5 and restraint 'not visible': stability not established (O86-19 7.5.6.3.1)
+    assert r.status.value == "not_established"
+    assert {f.code for f in r.findings} >= {"bearing_restraint_missing"}
+    assert form.set_field("bearing2.rotation", "no")
+    assert form.immediate_findings()  # seen missing: immediate
+    for i in (1, 2):
+        form.set_field(f"bearing{i}.lateral", "yes")
+        form.set_field(f"bearing{i}.rotation", "yes")
+    assert form.refresh().status.value != "not_established"
+
+
+def test_spans_entry_adds_supports_and_tributary_uses_design_basis(demo):
+    store, site_id = demo
+    form = _form(store, site_id, "RB-1")
+    assert form.set_field("spans", "7.2 m, 23' 7 1/2\"")
+    rec = form.record()
+    assert rec["spans_mm"] == [7200, pytest.approx((23 * 12 + 7.5) * 25.4)]  # 1 in = 25.4 mm (common practice)
+    assert len(rec["bearings"]) == 3 and rec["bearings"][2]["rotation"] == "not_visible"
+    assert form.support_count() == 3
+    assert form.set_field("tributary_m", "2.0")
+    basis = store.site(site_id).design_basis
+    # specified line load = area load x tributary width (common practice)
+    assert form.record()["loads"]["snow_kn_m"] == pytest.approx(basis.snow_kpa * 2.0)
+    assert form.set_field("dead_kn_m", "3.5")
+    assert form.record()["tributary_m"] is None and form.record()["loads"]["dead_kn_m"] == 3.5
+
+
+def test_pickers_keep_species_and_grade_consistent(demo):
+    store, site_id = demo
+    form = _form(store, site_id, "RB-1")
+    assert "24f-E" in form.options("grade")
+    assert not form.set_field("material", "sawn")  # 130 mm is too wide for dimension lumber: refused at the field
+    assert "b_mm" in form.errors["material"]
+    assert form.set_field("b_mm", "38") and form.set_field("d_mm", "235")
+    assert form.set_field("material", "sawn")
+    rec = form.record()
+    assert rec["species"] in form.options("species") and rec["grade"] in form.options("grade")
+    assert "38" in form.quick_sizes("b_mm") and "235" in form.quick_sizes("d_mm")
+
+
+def test_purlins_picker_waits_for_spacing(demo):
+    store, site_id = demo
+    form = _form(store, site_id, "RB-3")  # no bracing
+    assert not form.set_field("top_braced_by", "purlins")  # O86 needs the spacing a of lateral supports
+    assert form.form()["top_braced_by"] == "purlins"
+    assert form.set_field("purlin_spacing_mm", "1200")
+    assert "top_braced_by" not in form.errors and form.record()["top_edge"]["braced_by"] == "purlins"
+    assert "drafts" not in form.record() or "top_braced_by" not in form.record()["drafts"]
+
+
+def test_trace_names_clause_row_and_status(demo):
+    store, site_id = demo
+    form = _form(store, site_id, "RB-2")
+    keys = [key for _, _, key in form.panel_lines() if key]
+    lines = form.trace_lines(keys[0])
+    text = "\n".join(lines)
+    assert "7.5.6.4.4" in text and "KL" in text  # O86-19 KL clause
+    assert "[memory]" in text or "[confirmed]" in text or "[verified]" in text
+    assert form.trace_lines("shear") and form.trace_lines("deflection")
+
+
+def test_photo_attached_to_beam(demo, tmp_path):
+    store, site_id = demo
+    form = _form(store, site_id, "RB-1")
+    path = tmp_path / "p.jpg"
+    Image.new("RGB", (64, 48), (120, 90, 60)).save(path)
+    form.add_photo(path)
+    assert form.photo_count() == 1
+
+
+def test_deficiency_lifecycle_with_evidence_and_history(demo, tmp_path):
+    store, site_id = demo
+    raise_all(store, site_id)
+    d = store.deficiencies(site_id, open_only=True)[0]
+    vm = DeficiencyViewModel(store, d.id)
+    assert vm.moves("contractor") == ["corrected"]
+    assert "verified" in vm.moves("reviewer")
+    photo = tmp_path / "fix.jpg"
+    Image.new("RGB", (32, 32), (10, 200, 10)).save(photo)
+    assert vm.move("corrected", "D. Abernathy", "contractor", "blocking added", photo)
+    assert not vm.move("verified", "D. Abernathy", "contractor")  # only a reviewer verifies
+    assert "only a reviewer" in vm.message
+    assert vm.move("verified", "P. Okonkwo-Lind", "reviewer", "seen in place")
+    assert vm.moves("reviewer") == ["reopen"]
+    hist = vm.history_lines()
+    assert len(hist) == 2 and "photo evidence" in hist[0] and "blocking added" in hist[0]
+    assert vm.edit("action", "Add blocking both sides") and vm.fields()["action"] == "Add blocking both sides"
+    assert not vm.edit("priority", "whenever")
+
+
+def test_notice_choose_preview_issue_export(demo, tmp_path):
+    store, site_id = demo
+    raise_all(store, site_id)
+    vm = NoticeViewModel(store, site_id)
+    first, *rest = [i for i, _, _ in vm.candidates()]
+    for i in rest:
+        vm.toggle(i)
+    pdf = vm.draft_pdf()
+    pages = vm.preview_pages(tmp_path / "prev", pdf)
+    assert len(pages) == len(PdfReader(io.BytesIO(pdf)).pages) and pages[0].stat().st_size > 0
+    assert store.notices(site_id) == []  # a preview issues nothing
+    path = vm.issue("P. Okonkwo-Lind", tmp_path / "issued")
+    (notice,) = store.notices(site_id)
+    assert notice.deficiency_ids == [first]
+    assert hashlib.sha256(path.read_bytes()).hexdigest() == notice.pdf_sha256
+    exported = vm.export(notice.id, tmp_path / "share")
+    assert exported.read_bytes() == path.read_bytes()
+
+
+def test_sync_export_import_progress_and_conflict_resolution(tmp_path):
+    a, b = Store(tmp_path / "a.db"), Store(tmp_path / "b.db")
+    site_id = load_demo(a)
+    seen = []
+    summary = SyncViewModel(a).export(tmp_path / "x", progress=lambda f, w: seen.append(f))
+    assert "Wrote" in summary and seen[-1] == 1.0 and seen == sorted(seen)
+    bundle = next((tmp_path / "x").glob("*.bwsync"))
+    assert "Merged" in SyncViewModel(b).import_file(bundle)
+    beam_id = next(i for i, r in a.beams(site_id) if r["mark"] == "RB-1")
+    a.update_beam(beam_id, {"notes": "from A"})
+    b.update_beam(beam_id, {"notes": "from B"})
+    SyncViewModel(a).export(tmp_path / "y")
+    text = SyncViewModel(b).import_file(next((tmp_path / "y").glob("*.bwsync")))
+    assert "1 conflicts to review" in text
+    vm = SyncViewModel(b)
+    ((cid, line),) = vm.conflicts()
+    assert "RB-1" in line and "notes" in line
+    kept = b.beam_record(beam_id)["notes"]
+    vm.resolve(cid, "loser", "P. Okonkwo-Lind")
+    assert b.beam_record(beam_id)["notes"] != kept and vm.conflicts() == []
