@@ -93,7 +93,8 @@ def member_properties(beam: Beam) -> Member:
     row, table = _grade_row(beam)
     trace = [FactorTrace(symbol="grade", value=f"{beam.species} {beam.grade}",
                          clause="CSA O86-19 Table 7.3" if table == "glulam_grades" else "CSA O86-19 Table 6.3.1A",
-                         source=f"{table}: {row}", status=row["status"])]
+                         source=f"{table} row " + ", ".join(f"{k} {v}" for k, v in row.items() if k != "status"),
+                         status=row["status"])]
     ks, ks_trace = service_factors(beam)
     kt, kt_e, kt_trace = treatment_factors(beam)
     trace += [ks_trace, kt_trace]

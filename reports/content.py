@@ -84,6 +84,7 @@ class Notice:
     carried: list[Carried] = field(default_factory=list)
     change_note: str = ""
     cautions: tuple[str, ...] = CAUTIONS
+    draft: bool = False  # a preview: marked on every page as not issued
 
 
 def sketch_for(beam: Beam) -> Sketch:

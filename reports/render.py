@@ -57,6 +57,7 @@ class NumberedCanvas(rl_canvas.Canvas):
     """Canvas that prints 'page X of Y' and the notice number on every page."""
 
     footer_left = ""
+    draft = False
 
     def __init__(self, *args: Any, **kwargs: Any):
         kwargs.setdefault("invariant", 1)
@@ -76,6 +77,11 @@ class NumberedCanvas(rl_canvas.Canvas):
             self.setFont(FONT, 7.5)
             self.drawString(18 * mm, 10 * mm, self.footer_left)
             self.drawRightString(LETTER[0] - 18 * mm, 10 * mm, f"page {self._pageNumber} of {total}")
+            if self.draft:
+                self.setFont(FONT_BOLD, 11)
+                self.setFillColor(colors.red)
+                self.drawCentredString(LETTER[0] / 2, LETTER[1] - 9 * mm, "DRAFT PREVIEW: NOT ISSUED, NOT FOR USE")
+                self.setFillColor(colors.black)
             super().showPage()
         super().save()
 
@@ -197,6 +203,7 @@ def render_notice(n: Notice) -> bytes:
 
     class _Canvas(NumberedCanvas):
         footer_left = footer
+        draft = n.draft
 
     doc.build(story, canvasmaker=_Canvas)
     return buf.getvalue()

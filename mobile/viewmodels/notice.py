@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import dataclasses
 import hashlib
 import io
 import time
@@ -13,7 +14,7 @@ from mobile.viewmodels.common import PRIORITY_LABELS
 from reports.render import render_notice
 from storage import Store
 
-PREVIEW_SCALE = 1.0  # 72 dpi: a US letter page is 612 x 792 px
+PREVIEW_SCALE = 2.0  # 144 dpi: a US letter page is 1224 x 1584 px, legible on a tablet
 
 
 @dataclass
@@ -42,7 +43,7 @@ class NoticeViewModel:
         """The notice as it would be issued now (marked with the next number), not stored."""
         number = self.store.next_notice_number(self.store.site(self.site_id))
         notice, _ = build_notice(self.store, self.site_id, number, only=sorted(self.chosen))
-        return render_notice(notice)
+        return render_notice(dataclasses.replace(notice, draft=True))
 
     def preview_pages(self, out_dir: Path, pdf: bytes | None = None) -> list[Path]:
         """Render the draft (or the given PDF) to one PNG per page in out_dir, with pypdfium2."""

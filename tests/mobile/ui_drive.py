@@ -1,5 +1,12 @@
-"""Drive the real app under Xvfb through widget ids and save screenshots (run by test_ui.py)."""
+"""Drive the real app under Xvfb through widget ids and save screenshots (run by test_ui.py).
 
+usage: ui_drive.py DB OUT_DIR [flow]; flows: "main" (the whole job), "type-then-kill" (type a
+note, wait for the autosave, then SIGKILL this process), "relaunch" (print what the note field shows).
+Prints UI-OK (or UI-FAIL at <step>) and flushes, then stops the app.
+"""
+
+import os
+import signal
 import sys
 from pathlib import Path
 
@@ -7,14 +14,18 @@ from kivy.clock import Clock
 
 from mobile.app import BracewalkApp
 
-OUT = Path(sys.argv[2])
+DB, OUT = sys.argv[1], Path(sys.argv[2])
+FLOW = sys.argv[3] if len(sys.argv) > 3 else "main"
 OUT.mkdir(parents=True, exist_ok=True)
-app = BracewalkApp(sys.argv[1])
+app = BracewalkApp(DB)
 steps = []
+state = {"i": 0}
+KILL_NOTE = "bearing plate at S2 bent; photo 14"
 
 
 def shot(name):
-    app.root_window.screenshot(str(OUT / f"{name}.png"))
+    written = app.root_window.screenshot(str(OUT / f"{name}.png"))  # Kivy appends a counter to the name
+    Path(written).replace(OUT / f"{name}.png")
 
 
 def step(fn):
@@ -22,87 +33,276 @@ def step(fn):
     return fn
 
 
-@step
-def sites():
-    shot("01-sites")
-    app.root.get_screen("sites").ids.site_list.children[-1].trigger_action(0)
+def screen(name=None):
+    return app.root.get_screen(name or app.root.current)
 
 
-@step
-def site():
-    shot("02-site")
-    beam_id = next(i for i, r in app.store.beams(app.site_id) if r["mark"] == "RB-1")
-    app.open_beam(beam_id)
+def field(name):
+    return screen("beam").fields[name].ids.input
 
 
-@step
-def beam_purlins():
-    screen = app.root.get_screen("beam")
-    before = screen.vm.result.bending[0].kl
-    screen.ids.purlin_spacing_mm.text = "2.4 m"
-    screen.field("purlin_spacing_mm", screen.ids.purlin_spacing_mm.text)
-    assert screen.vm.result.bending[0].kl < before, "live recheck did not change"
+def type_into(name, text):
+    w = field(name)
+    w.focus = True
+    w.text = text
+    w.focus = False  # leaving the field saves it at once
 
 
-@step
-def beam_shot():
-    shot("03-beam")
+def pick(name, value):
+    assert value in screen("beam").fields[name].values, (name, screen("beam").fields[name].values)
+    screen("beam").fields[name].ids.input.text = value
 
 
-@step
-def toggle_restraint():
-    screen = app.root.get_screen("beam")
-    screen.ids.bearing2_rotation.trigger_action(0)
-    assert "IMMEDIATE" in screen.immediate_text
+def demo_beam(mark):
+    return next(i for i, r in app.store.beams(app.site_id) if r["mark"] == mark)
 
 
-@step
-def raise_it():
-    screen = app.root.get_screen("beam")
-    shot("04-immediate")
-    screen.ids.raise_button.trigger_action(0)
-    assert "Raised D-" in screen.error_text
+if FLOW == "main":
+    @step
+    def first_frame():
+        pass  # let the first frames draw
 
+    @step
+    def sites():
+        shot("01-sites")
+        screen().ids.site_list.children[-1].trigger_action(0)
 
-@step
-def issue():
-    app.go("site")
+    @step
+    def site():
+        assert app.root.current == "site"
+        shot("02-site")
+        screen().ids.visit_reviewer.text = "Priya Okonkwo-Lind"
+        screen().ids.visit_weather.text = "clear, -4 °C"
+        screen().ids.start_visit.trigger_action(0)
+        assert "Priya" in screen().visit_text
 
+    @step
+    def new_beam():
+        screen("site").ids.new_beam.trigger_action(0)
+        assert app.root.current == "beam"
 
-@step
-def issue2():
-    screen = app.root.get_screen("site")
-    screen.ids.issue.trigger_action(0)
-    assert "Issued" in screen.issued_text
+    @step
+    def log_new_beam():
+        type_into("mark", "RB-9")
+        type_into("level", "Roof")
+        type_into("gridline", "G / 2-3")
+        pick("material", "glulam")
+        pick("species", "D.Fir-L")
+        pick("grade", "24f-E")
+        type_into("b_mm", "130")
+        type_into("d_mm", "456")
+        type_into("spans", "7.2 m")
+        type_into("tributary_m", "3.0")
+        pick("top_braced_by", "purlins")
+        type_into("purlin_spacing_mm", "1200")
+        for i in (1, 2):
+            for key in ("lateral", "rotation"):
+                while app.store.beam_record(app.beam_id)["bearings"][i - 1][key] != "yes":
+                    getattr(screen("beam"), f"bearing{i}_{key}").trigger_action(0)
+        rec = app.store.beam_record(app.beam_id)
+        assert rec["mark"] == "RB-9" and rec["spans_mm"] == [7200], rec
+        assert screen("beam").vm.result.status.value == "ok", screen("beam").vm.result.status
 
+    @step
+    def bearings_view():
+        shot("03-beam-new")
+        screen("beam").ids.form_scroll.scroll_y = 0.42
 
-@step
-def export():
-    shot("05-issued")
-    from storage.bundle import export_bundle
+    @step
+    def purlins_wider():
+        shot("03b-beam-bearings")
+        screen("beam").ids.form_scroll.scroll_y = 1
+        s = screen("beam")
+        before = s.vm.result.bending[0].kl
+        type_into("purlin_spacing_mm", "2400")
+        after = s.vm.result.bending[0].kl
+        assert after < before, f"KL did not drop: {before} -> {after}"
+        print(f"KL {before:.3f} -> {after:.3f}; panel refresh {s.refresh_ms:.1f} ms", flush=True)
 
-    export_bundle(app.store, OUT / "ui.bwsync")
+    @step
+    def trace_popup():
+        s = screen("beam")
+        rows = s.ids.panel.children[::-1]
+        rows[1].children[-1].trigger_action(0)  # the first bending line
+
+    @step
+    def trace_shot():
+        shot("04-trace")
+        app.root_window.children[0].dismiss()
+
+    @step
+    def restraint_off():
+        s = screen("beam")
+        s.bearing2_rotation.trigger_action(0)  # yes -> no
+        assert "IMMEDIATE" in s.immediate_text, s.immediate_text
+
+    @step
+    def raise_it():
+        shot("05-beam-immediate")
+        s = screen("beam")
+        raise_buttons = [w for w in s.ids.panel.children if getattr(w, "text", "").startswith("Raise deficiency")]
+        raise_buttons[-1].trigger_action(0)  # the first finding (children are in reverse order)
+        assert "Raised D-" in s.raised_text
+
+    @step
+    def back_to_site():
+        screen("beam").ids.back.trigger_action(0)
+        assert app.root.current == "site"
+
+    @step
+    def open_deficiency():
+        shot("06-site-after")
+        d = app.store.deficiencies(app.site_id, open_only=True)[0]
+        app.open_deficiency(d.id)
+
+    @step
+    def move_status():
+        s = screen("deficiency")
+        s.ids.actor.text = "D. Abernathy"
+        s.ids.role.text = "contractor"
+        s.ids.note.text = "blocking installed both sides"
+
+    @step
+    def move_status2():
+        s = screen("deficiency")
+        buttons = {b.text: b for b in s.ids.moves.children}
+        assert "Verify (reviewer)" not in buttons, buttons  # a contractor cannot verify
+        buttons["Mark corrected"].trigger_action(0)
+        assert "corrected" in s.history_text, s.history_text
+
+    @step
+    def deficiency_shot():
+        shot("07-deficiency")
+        screen("deficiency").ids.back.trigger_action(0)
+        screen("site").ids.notice.trigger_action(0)
+        assert app.root.current == "notice"
+
+    @step
+    def preview():
+        screen("notice").ids.preview.trigger_action(0)
+        assert screen("notice").pages
+
+    @step
+    def issue():
+        shot("08-notice-preview")
+        s = screen("notice")
+        s.ids.issued_by.text = "Priya Okonkwo-Lind, P.Eng."
+        s.ids.issue.trigger_action(0)
+        assert "Issued" in s.message, s.message
+        assert app.store.notices(app.site_id)
+
+    @step
+    def export_notice():
+        s = screen("notice")
+        s.ids.export_dir.text = str(OUT / "exported")
+        s.ids.issued.children[-1].trigger_action(0)
+        assert list((OUT / "exported").glob("*.pdf")), s.message
+        shot("09-notice-issued")
+
+    @step
+    def to_sync():
+        screen("notice").ids.back.trigger_action(0)
+        screen("site").ids.sync.trigger_action(0)
+        s = screen("sync")
+        s.ids.export_dir.text = str(OUT / "sync")
+        s.ids.export.trigger_action(0)
+
+    @step
+    def sync_wait():
+        s = screen("sync")
+        if s.busy:
+            raise TimeoutError("export still running")  # the runner retries a few times
+        assert "Wrote" in s.summary, s.summary
+        assert list((OUT / "sync").glob("*.bwsync"))
+        shot("10-sync")
+
+    @step
+    def dim_theme():
+        screen("sync").ids.back.trigger_action(0)
+        app.go("sites")
+        screen("sites").ids.theme_toggle.trigger_action(0)
+
+    @step
+    def dim_shot():
+        shot("11-sites-dim")
+        app.open_site(app.site_id)
+        app.open_beam(demo_beam("RB-5"))
+
+    @step
+    def dim_beam():
+        shot("12-beam-dim")
+
+    @step
+    def touch_targets():
+        # field use: every control at least 15 mm tall (Kivy's mm unit follows the screen's dpi)
+        from kivy.metrics import mm
+        from kivy.uix.button import Button
+        from kivy.uix.textinput import TextInput
+
+        small = []
+        for name in ("sites", "site", "beam", "deficiency", "notice", "sync"):
+            for w in app.root.get_screen(name).walk(restrict=True):
+                if isinstance(w, Button | TextInput) and not w.disabled and w.opacity > 0 and w.height < mm(15) - 1:
+                    small.append(f"{name}: {type(w).__name__} {getattr(w, 'text', '')[:30]!r} {w.height:.0f}px")
+        assert not small, small
+
+elif FLOW == "type-then-kill":
+    @step
+    def open_beam():
+        app.open_site(app.store.sites()[0].id)
+        app.open_beam(demo_beam("RB-1"))
+
+    @step
+    def type_note():
+        field("notes").text = KILL_NOTE  # typed, not entered: the pause autosave must catch it
+
+    @step
+    def pause():
+        pass  # the autosave runs TYPING_PAUSE_S after the last keystroke
+
+    @step
+    def kill():
+        print("KILLING", flush=True)
+        os.kill(os.getpid(), signal.SIGKILL)
+
+elif FLOW == "relaunch":
+    @step
+    def open_beam():
+        app.open_site(app.store.sites()[0].id)
+        app.open_beam(demo_beam("RB-1"))
+
+    @step
+    def show():
+        print(f"NOTES={field('notes').text}", flush=True)
 
 
 @step
 def done():
-    print("UI-OK")
+    print("UI-OK", flush=True)
     app.stop()
 
 
-def run_next(_dt, i=None):
-    if i is None:
-        i = [0]
+def run_next(_dt):
+    fn = steps[state["i"]]
     try:
-        steps[i[0]]()
-    except Exception as exc:  # report, then stop the app so the test sees the failure
-        print(f"UI-FAIL at {steps[i[0]].__name__}: {exc!r}")
+        fn()
+    except TimeoutError:
+        state.setdefault("retries", 0)
+        state["retries"] += 1
+        if state["retries"] < 40:
+            Clock.schedule_once(run_next, 0.25)
+            return
+        print(f"UI-FAIL at {fn.__name__}: timed out", flush=True)
         app.stop()
         return
-    i[0] += 1
-    if i[0] < len(steps):
-        Clock.schedule_once(run_next, 0.6)
+    except Exception as exc:  # report, then stop the app so the test sees the failure
+        print(f"UI-FAIL at {fn.__name__}: {exc!r}", flush=True)
+        app.stop()
+        return
+    state["i"] += 1
+    if state["i"] < len(steps):
+        Clock.schedule_once(run_next, 0.5)
 
 
-Clock.schedule_once(run_next, 1.5)
+Clock.schedule_once(run_next, 1.0)
 app.run()
