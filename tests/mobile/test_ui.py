@@ -22,12 +22,13 @@ pytestmark = [pytest.mark.ui, pytest.mark.skipif(shutil.which("xvfb-run") is Non
                                                  reason="xvfb-run not installed (scripts/setup.sh installs it)")]
 
 
-def run_app(db, shots, flow, home, timeout=150):
+def run_app(db, shots, flow, home, timeout=150, size=(1280, 800)):
     """Run the driver under its own Xvfb in a new process group; on timeout kill the whole group."""
     home.mkdir(parents=True, exist_ok=True)
     env = {"PATH": "/usr/bin:/bin", "HOME": str(home), "KIVY_NO_ARGS": "1", "KIVY_NO_CONSOLELOG": "1",
-           "PYTHONPATH": str(ROOT)}
-    proc = subprocess.Popen(["xvfb-run", "-a", "-s", "-screen 0 1280x800x24", sys.executable, str(DRIVER), str(db),
+           "PYTHONPATH": str(ROOT), "BRACEWALK_WIDTH": str(size[0]), "BRACEWALK_HEIGHT": str(size[1])}
+    screen = f"-screen 0 {size[0]}x{size[1]}x24"
+    proc = subprocess.Popen(["xvfb-run", "-a", "-s", screen, sys.executable, str(DRIVER), str(db),
                              str(shots), flow], stdout=subprocess.PIPE, stderr=subprocess.STDOUT, text=True, cwd=ROOT,
                             env=env, start_new_session=True)
     try:
@@ -46,6 +47,11 @@ def test_app_end_to_end_under_xvfb(tmp_path):
     assert "UI-OK" in out, out[-3000:]
     assert len(list(shots.glob("*.png"))) >= 12
     assert list((shots / "sync").glob("*.bwsync")) and list((shots / "exported").glob("*.pdf"))
+
+
+def test_portrait_layout(tmp_path):
+    out = run_app(tmp_path / "p.db", ROOT / "test-artefacts" / "ui", "portrait", tmp_path / "home", size=(800, 1280))
+    assert "UI-OK" in out, out[-3000:]
 
 
 def test_kill_after_typing_loses_nothing(tmp_path):

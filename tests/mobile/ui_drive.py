@@ -246,6 +246,21 @@ if FLOW == "main":
                     small.append(f"{name}: {type(w).__name__} {getattr(w, 'text', '')[:30]!r} {w.height:.0f}px")
         assert not small, small
 
+elif FLOW == "portrait":
+    @step
+    def first_frame():
+        app.open_site(app.store.sites()[0].id)
+
+    @step
+    def site_portrait():
+        shot("13-site-portrait")
+        app.open_beam(demo_beam("RB-5"))
+
+    @step
+    def beam_portrait():
+        assert app.root_window.height > app.root_window.width
+        shot("14-beam-portrait")
+
 elif FLOW == "type-then-kill":
     @step
     def open_beam():
