@@ -297,6 +297,8 @@ class BeamScreen(Screen):
         """Load the beam into the form."""
         app = App.get_running_app()
         self.vm = BeamFormViewModel(app.store, app.site_id, app.beam_id)
+        self._panel_shape = self._bearing_shape = None  # a new beam or theme: build the widgets afresh
+        self.raised_text = ""
         self.load_form()
         self.render()
 
@@ -319,6 +321,11 @@ class BeamScreen(Screen):
 
     def build_bearings(self, values: dict[str, str]) -> None:
         """One row per support: lateral and rotation as large three-state toggles, and bearing length."""
+        shape = (sorted((k, v) for k, v in values.items() if k.startswith("bearing")),
+                 sorted((k, v) for k, v in self.vm.errors.items() if k.startswith("bearing")))
+        if shape == getattr(self, "_bearing_shape", None):
+            return
+        self._bearing_shape = shape
         box = self.ids.bearings
         box.clear_widgets()
         for i in range(1, self.vm.support_count() + 1):
@@ -415,40 +422,63 @@ class BeamScreen(Screen):
 
     # -- the live recheck --------------------------------------------------------------------------
     def render(self) -> None:
-        """Redraw the immediate banner, the recheck lines with utilisation bars, and the findings."""
+        """Redraw the immediate banner, the recheck lines with utilisation bars, and the findings.
+
+        When the panel has the same lines as before (the usual case while typing) the widgets are
+        updated in place; rebuilding them on every entry made garbage-collection pauses visible.
+        """
         t0 = time.perf_counter()
-        app = App.get_running_app()
-        self.vm.refresh()
+        if self.vm.result is None and not self.vm.recheck_error:
+            self.vm.refresh()
         self.immediate_text = "\n".join("▲ IMMEDIATE: " + x for x in self.vm.immediate_findings())
+        lines, findings = self.vm.panel_lines(), self.vm.findings()
+        shape = ([(key, util is None) for _, util, key in lines], len(findings), getattr(self, "raised_text", ""))
+        if shape != getattr(self, "_panel_shape", None):
+            self._build_panel(lines, findings)
+            self._panel_shape = shape
+        status, *rows = lines
+        self._status.text = status[0]
+        self._status.background_color = status_colour(status[0].split(": ", 1)[1])
+        for (text, util, _key), (line, bar) in zip(rows, self._rows, strict=True):
+            line.text = text
+            if bar is not None and util is not None:
+                bar.show(util)
+        for (_i, text), label in zip(findings, self._finding_labels, strict=True):
+            label.text = text
+        self.refresh_ms = (time.perf_counter() - t0) * 1000
+
+    def _build_panel(self, lines: list[tuple[str, float | None, str]], findings: list[tuple[int, str]]) -> None:
+        app = App.get_running_app()
         panel = self.ids.panel
         panel.clear_widgets()
-        for n, (text, util, key) in enumerate(self.vm.panel_lines()):
-            if n == 0:  # the status: large, on its colour, in words and shape
-                panel.add_widget(big_button(text, lambda *_: None, bg=status_colour(text.split(": ", 1)[1]),
-                                            font_size="22sp", halign="center", bold=True))
-                continue
+        self._status = big_button("", lambda *_: None, font_size="22sp", halign="center", bold=True)
+        panel.add_widget(self._status)
+        self._rows: list[tuple[Button, UtilBar | None]] = []
+        for _text, util, key in lines[1:]:
             row = BoxLayout(orientation="vertical", size_hint_y=None, height="21mm" if util is not None else "15mm")
-            line = Button(text=text, font_size="16sp", color=app.theme_fg, background_normal="",
-                          background_color=(0, 0, 0, 0), halign="left", valign="middle")
+            line = Button(font_size="16sp", color=app.theme_fg, background_normal="", background_color=(0, 0, 0, 0),
+                          halign="left", valign="middle")
             line.bind(size=lambda w, s: setattr(w, "text_size", s))
             if key:
-                line.bind(on_release=lambda _b, k=key, t=text: info_popup(t, self.vm.trace_lines(k)))
+                line.bind(on_release=lambda b, k=key: info_popup(b.text, self.vm.trace_lines(k)))
             row.add_widget(line)
-            if util is not None:
-                row.add_widget(_util_bar(util))
+            bar = UtilBar() if util is not None else None
+            if bar is not None:
+                row.add_widget(bar)
             panel.add_widget(row)
-        for index, text in self.vm.findings():
-            label = Label(text=text, font_size="16sp", color=app.theme_fg, size_hint_y=None, halign="left",
-                          valign="top")
+            self._rows.append((line, bar))
+        self._finding_labels: list[Label] = []
+        for index, _text in findings:
+            label = Label(font_size="16sp", color=app.theme_fg, size_hint_y=None, halign="left", valign="top")
             label.bind(width=lambda w, v: setattr(w, "text_size", (v, None)),
                        texture_size=lambda w, ts: setattr(w, "height", ts[1] + dp(8)))
             panel.add_widget(label)
+            self._finding_labels.append(label)
             panel.add_widget(big_button(f"Raise deficiency from finding {index + 1}",
                                         lambda _b, i=index: self.raise_finding(i), halign="center"))
         if getattr(self, "raised_text", ""):
             panel.add_widget(Label(text=self.raised_text, font_size="18sp", bold=True, color=app.theme_fg,
                                    size_hint_y=None, height=dp(40)))
-        self.refresh_ms = (time.perf_counter() - t0) * 1000
 
 
 STATUS_COLOURS = {"OK": (0.1, 0.4, 0.18, 1), "DEFICIENT": (0.62, 0.3, 0.0, 1), "NOT PERMITTED": (0.45, 0.05, 0.3, 1),
@@ -465,28 +495,34 @@ def _restraint_colour(state: str) -> tuple[float, float, float, float]:
     return {"yes": (0.55, 0.85, 0.55, 1), "no": (0.75, 0.05, 0.05, 1), "not_visible": (1, 0.8, 0.3, 1)}[state]
 
 
-def _util_bar(util: float) -> BoxLayout:
-    """A utilisation bar with its number; 'OVER' in words as well as colour."""
-    from kivy.graphics import Color, Line, Rectangle
+class UtilBar(BoxLayout):
+    """A utilisation bar with its number; 'OVER' in words as well as colour. ``show(util)`` updates it."""
 
-    holder = BoxLayout(size_hint_y=None, height="6mm")
-    bar = Label(text=f"{util:.2f}" + ("  OVER" if util > 1 else ""), font_size="15sp", bold=True, color=(0, 0, 0, 1),
-                size_hint_x=max(min(util, 1.0), 0.1))
-    with bar.canvas.before:
-        Color(*((0.95, 0.35, 0.25, 1) if util > 1 else (0.6, 0.82, 0.6, 1)))
-        rect = Rectangle(pos=bar.pos, size=bar.size)
-        Color(0, 0, 0, 1)
-        outline = Line(rectangle=(*bar.pos, *bar.size), width=1)
+    def __init__(self, **kwargs: Any):
+        from kivy.graphics import Color, Line, Rectangle
 
-    def place(w: Any, _v: Any) -> None:
-        rect.pos, rect.size = w.pos, w.size
-        outline.rectangle = (*w.pos, *w.size)
+        super().__init__(size_hint_y=None, height="6mm", **kwargs)
+        self.bar = Label(font_size="15sp", bold=True, color=(0, 0, 0, 1))
+        self.rest = Label()
+        with self.bar.canvas.before:
+            self.fill = Color(0.6, 0.82, 0.6, 1)
+            self.rect = Rectangle()
+            Color(0, 0, 0, 1)
+            self.outline = Line(width=1)
+        self.bar.bind(pos=self._place, size=self._place)
+        self.add_widget(self.bar)
+        self.add_widget(self.rest)
 
-    bar.bind(pos=place, size=place)
-    holder.add_widget(bar)
-    if util < 1.0:
-        holder.add_widget(Label(size_hint_x=1.0 - max(util, 0.1)))
-    return holder
+    def _place(self, w: Any, _v: Any) -> None:
+        self.rect.pos, self.rect.size = w.pos, w.size
+        self.outline.rectangle = (*w.pos, *w.size)
+
+    def show(self, util: float) -> None:
+        """Set the value: bar length min(util, 1) (at least a tenth, to hold the number)."""
+        self.bar.text = f"{util:.2f}" + ("  OVER" if util > 1 else "")
+        self.bar.size_hint_x = max(min(util, 1.0), 0.1)
+        self.rest.size_hint_x = max(1.0 - max(util, 0.1), 0.0)
+        self.fill.rgba = (0.95, 0.35, 0.25, 1) if util > 1 else (0.6, 0.82, 0.6, 1)
 
 
 class DeficiencyScreen(Screen):

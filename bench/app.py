@@ -1,0 +1,108 @@
+"""The tablet app under Xvfb: cold start to the first drawn screen, and field change to refreshed panel.
+
+Cold start: wall time from launching `python -m bench.app_probe` (interpreter, imports, opening
+the database, building six screens) to the first frame flipped on screen, on a database that
+already holds the demo site (first-run loading is not part of a start). Baseline, same run: a
+one-label Kivy app started the same way. Refresh: from a purlin-spacing entry on the beam form
+(autosave with fsync, recheck, panel rebuilt) to the next frame flipped; baseline: the bare
+`core.recheck` of the same beam, measured in the same process.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import shutil
+import signal
+import statistics
+import subprocess
+import sys
+import tempfile
+import time
+from pathlib import Path
+
+from bench.common import Row, fmt_time
+
+ROOT = Path(__file__).resolve().parents[1]
+
+
+def _display() -> tuple[subprocess.Popen[bytes] | None, str]:
+    """Use $DISPLAY if set, else start a private Xvfb."""
+    if os.environ.get("DISPLAY"):
+        return None, os.environ["DISPLAY"]
+    if shutil.which("Xvfb") is None:
+        raise RuntimeError("no display and no Xvfb (scripts/setup.sh installs it)")
+    for n in range(90, 110):
+        if not Path(f"/tmp/.X11-unix/X{n}").exists() and not Path(f"/tmp/.X{n}-lock").exists():
+            proc = subprocess.Popen(["Xvfb", f":{n}", "-screen", "0", "1280x800x24", "-nolisten", "tcp"],
+                                    stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL, start_new_session=True)
+            for _ in range(50):
+                if Path(f"/tmp/.X11-unix/X{n}").exists():
+                    return proc, f":{n}"
+                time.sleep(0.1)
+            proc.kill()
+    raise RuntimeError("could not start Xvfb")
+
+
+def _probe(mode: str, db: Path, display: str, home: Path) -> tuple[float, dict[str, object]]:
+    env = dict(os.environ, DISPLAY=display, HOME=str(home), KIVY_NO_ARGS="1", KIVY_NO_CONSOLELOG="1",
+               PYTHONPATH=str(ROOT))
+    t0 = time.time()
+    proc = subprocess.Popen([sys.executable, "-m", "bench.app_probe", mode, str(db)], stdout=subprocess.PIPE,
+                            stderr=subprocess.STDOUT, text=True, env=env, cwd=ROOT, start_new_session=True)
+    try:
+        out, _ = proc.communicate(timeout=120)
+    except subprocess.TimeoutExpired:
+        os.killpg(proc.pid, signal.SIGKILL)
+        raise RuntimeError(f"app probe ({mode}) did not finish in 120 s") from None
+    line = next((x for x in out.splitlines() if x.startswith("BENCH ")), None)
+    if line is None:
+        raise RuntimeError(f"app probe ({mode}) printed no result:\n{out[-2000:]}")
+    data = json.loads(line[6:])
+    return float(data["first_frame_wall"]) - t0, data
+
+
+def run(quick: bool = False) -> list[Row]:
+    """Measure cold start (app vs bare Kivy) and refresh (panel vs bare recheck)."""
+    work = Path(tempfile.mkdtemp(prefix="bracewalk-bench-app-"))
+    xvfb, display = _display()
+    try:
+        from mobile.demo.run import load_demo, raise_all
+        from storage import Store
+
+        db = work / "bench.db"
+        store = Store(db)
+        raise_all(store, load_demo(store))
+        store.close()
+        home = work / "home"
+        (home / ".kivy").mkdir(parents=True)
+        repeats = 2 if quick else 5
+        _probe("bare", db, display, home)  # warm the OS file cache for both
+        bare = [_probe("bare", db, display, home)[0] for _ in range(repeats)]
+        starts, refresh, rechecks = [], [], []
+        for _ in range(repeats):
+            start, data = _probe("app", db, display, home)
+            starts.append(start)
+            refresh += list(data["refresh_ms"])  # type: ignore[arg-type]
+            rechecks += list(data["recheck_ms"])  # type: ignore[arg-type]
+        s, b = statistics.median(starts), statistics.median(bare)
+        r, c = statistics.median(refresh), statistics.median(rechecks)
+        spread_s = 100 * (max(starts) - min(starts)) / s
+        spread_r = 100 * (max(refresh) - min(refresh)) / r
+        return [
+            Row("app cold start to first frame", fmt_time(s), fmt_time(b) + " (bare Kivy)", f"{s / b:.1f}x", "< 2 s",
+                s < 2.0, f"{spread_s:.0f}%"),
+            Row("field change to refreshed panel", f"{r:.1f} ms", f"{c:.2f} ms (recheck)", f"{r / c:.0f}x",
+                "< 16 ms", r < 16.0, f"{spread_r:.0f}%"),
+        ]
+    finally:
+        if xvfb is not None:
+            os.killpg(xvfb.pid, signal.SIGTERM)
+            xvfb.wait()
+        shutil.rmtree(work, ignore_errors=True)
+
+
+if __name__ == "__main__":
+    from bench.common import print_table
+
+    print_table(run())

@@ -1,0 +1,94 @@
+"""Child process of bench/app.py: start an app under the bench's X display and report timings as JSON.
+
+usage: python -m bench.app_probe bare|app DB
+bare: a one-label Kivy app (the baseline); app: bracewalk on DB, then field changes on a beam form.
+Prints one line: BENCH {"first_frame_wall": ..., "refresh_ms": [...], "recheck_ms": [...]}.
+"""
+
+from __future__ import annotations
+
+import json
+import sys
+import time
+
+MODE, DB = sys.argv[1], sys.argv[2]
+out: dict[str, object] = {}
+
+
+def finish(app: object) -> None:
+    print("BENCH " + json.dumps(out), flush=True)
+    app.stop()  # type: ignore[attr-defined]
+
+
+def on_first_frame(app: object, then: object) -> None:
+    from kivy.core.window import Window
+
+    def flipped(*_: object) -> None:
+        Window.unbind(on_flip=flipped)
+        out["first_frame_wall"] = time.time()
+        from kivy.clock import Clock
+
+        Clock.schedule_once(lambda _dt: then(), 0.2)  # type: ignore[operator]
+
+    Window.bind(on_flip=flipped)
+
+
+if MODE == "bare":
+    from kivy.app import App
+    from kivy.uix.label import Label
+
+    class Bare(App):
+        """The baseline: a one-label Kivy app."""
+
+        def build(self) -> Label:
+            """One label."""
+            return Label(text="baseline")
+
+        def on_start(self) -> None:
+            """Report the first frame, then stop."""
+            on_first_frame(self, lambda: finish(self))
+
+    Bare().run()
+else:
+    from kivy.clock import Clock
+    from kivy.core.window import Window
+
+    from core.recheck import recheck
+    from mobile.app import BracewalkApp
+
+    app = BracewalkApp(DB)
+    spacings = ["1200", "1800", "2400", "3000", "1500", "2100", "2700", "1300"] * 3
+    samples: list[float] = []
+    rechecks: list[float] = []
+    sync_ms: list[float] = []
+    render_ms: list[float] = []
+
+    def change(i: int) -> None:
+        screen = app.root.get_screen("beam")
+        t0 = time.perf_counter()
+
+        def flipped(*_: object) -> None:
+            Window.unbind(on_flip=flipped)
+            samples.append((time.perf_counter() - t0) * 1000)
+            t1 = time.perf_counter()
+            recheck(app.store.beam(app.beam_id))
+            rechecks.append((time.perf_counter() - t1) * 1000)
+            if i + 1 < len(spacings):
+                Clock.schedule_once(lambda _dt: change(i + 1), 0.05)
+            else:
+                out["refresh_ms"], out["recheck_ms"] = samples, rechecks
+                out["sync_ms"], out["render_ms"] = sync_ms, render_ms
+                finish(app)
+
+        Window.bind(on_flip=flipped)
+        screen.set_now("purlin_spacing_mm", spacings[i])  # save, recheck, redraw the panel; then the frame
+        sync_ms.append((time.perf_counter() - t0) * 1000)
+        render_ms.append(screen.refresh_ms)
+
+    def open_beam() -> None:
+        app.open_site(app.store.sites()[0].id)
+        app.open_beam(next(i for i, r in app.store.beams(app.site_id) if r["mark"] == "RB-2"))
+        Clock.schedule_once(lambda _dt: change(0), 0.3)
+
+    app.bind(on_start=lambda *_: on_first_frame(app, open_beam))
+    app.run()
