@@ -21,7 +21,7 @@ from typing import Any
 
 from storage.api import Store
 from storage.db import SCHEMA_VERSION, transaction
-from storage.oplog import OP_KEYS, IntegrityError, Op, apply_op, canonical, insert_op
+from storage.oplog import OP_KEYS, IntegrityError, Op, ProjectionBatch, apply_op, canonical, insert_op
 
 FORMAT = "bracewalk-bundle"
 FORMAT_VERSION = 1
@@ -235,13 +235,15 @@ def import_bundle(store: Store, path: str | Path, progress: Progress | None = No
         with transaction(store.db):
             newest = 0
             total = len(v.ops)
+            batch = ProjectionBatch(store.db)
             for n, op in enumerate(v.ops):
                 if n % PROGRESS_EVERY == 0:
                     tell(0.2 + 0.8 * n / max(total, 1), f"merging change {n:,} of {total:,}")
-                if insert_op(store.db, op):
-                    apply_op(store.db, op)
+                if insert_op(store.db, op, batch):
+                    apply_op(store.db, op, batch=batch)
                     newest = max(newest, op.hlc)
                     new += 1
+            batch.flush()
             if new:
                 store.observe_hlc(newest)  # the clock passes every stamp received (once, not per op)
             peer = v.manifest["origin"]

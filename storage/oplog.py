@@ -99,18 +99,87 @@ def _store(db: sqlite_utils.Database, table: str, record_id: str, data: dict[str
     )
 
 
-def apply_op(db: sqlite_utils.Database, op: Op, record_conflicts: bool = True) -> None:
-    """Merge one op into the projections (inside the caller's transaction)."""
+class ProjectionBatch:
+    """Projection rows held in memory across the ops of one transaction, written once at the end.
+
+    An import merges thousands of ops that touch the same few records; reading and re-writing a
+    record's JSON per op was most of the import's time. Use inside the caller's transaction and
+    call ``flush()`` before it commits. Local saves do not use it.
+    """
+
+    def __init__(self, db: sqlite_utils.Database):
+        """Hold rows of ``db``'s projection tables."""
+        self.db = db
+        self.rows: dict[tuple[str, str], tuple[dict[str, Any] | None, str | None]] = {}
+        self.dirty: set[tuple[str, str]] = set()
+        self.seen: dict[str, int] = {}  # origin -> contiguous high-water mark, as the batch sees it
+        self.held_max: dict[str, int] = {}  # origin -> largest seq held before the batch began
+
+    def advance_seen(self, origin: str, seq: int) -> None:
+        """An op of ``origin`` was inserted: move the contiguous high-water mark if it closes the run."""
+        if origin not in self.seen:
+            row = self.db.execute("SELECT seq FROM seen WHERE origin=?", [origin]).fetchone()
+            self.seen[origin] = row[0] if row else 0
+            top = self.db.execute("SELECT max(seq) FROM op WHERE origin=? AND seq <> ?", [origin, seq]).fetchone()
+            self.held_max[origin] = top[0] or 0
+        if seq == self.seen[origin] + 1:
+            # ops held beyond it (from an earlier bundle or earlier in this one) can close a longer run
+            self.seen[origin] = _contiguous_from(self.db, origin, seq) if seq < self.held_max[origin] else seq
+        else:
+            self.held_max[origin] = max(self.held_max[origin], seq)
+
+    def load(self, table: str, record_id: str) -> tuple[dict[str, Any] | None, str | None]:
+        """The row (data, content hash) as the batch sees it."""
+        key = (table, record_id)
+        if key not in self.rows:
+            self.rows[key] = _load(self.db, table, record_id)
+        return self.rows[key]
+
+    def store(self, table: str, record_id: str, data: dict[str, Any], chash: str | None) -> None:
+        """Change a row in the batch (a None hash keeps the stored one, as ``_store`` does)."""
+        key = (table, record_id)
+        old_hash = self.rows.get(key, (None, None))[1]
+        self.rows[key] = (data, chash if chash is not None else old_hash)
+        self.dirty.add(key)
+
+    def flush(self) -> None:
+        """Write every changed row and the high-water marks."""
+        for table, record_id in sorted(self.dirty):
+            data, chash = self.rows[(table, record_id)]
+            assert data is not None
+            _store(self.db, table, record_id, data, chash)
+        self.dirty.clear()
+        for origin, seq in self.seen.items():
+            self.db.execute("INSERT OR REPLACE INTO seen VALUES (?, ?)", [origin, seq])
+
+
+def apply_op(db: sqlite_utils.Database, op: Op, record_conflicts: bool = True,
+             batch: ProjectionBatch | None = None) -> None:
+    """Merge one op into the projections (inside the caller's transaction; ``batch`` defers the writes)."""
+    rows = batch or _Direct(db)
     if op.kind == "set":
-        _apply_set(db, op, record_conflicts)
+        _apply_set(db, op, record_conflicts, rows)
     elif op.kind == "insert":
-        _apply_insert(db, op)
+        _apply_insert(op, rows)
     else:
-        _apply_status(db, op)
+        _apply_status(op, rows)
 
 
-def _apply_set(db: sqlite_utils.Database, op: Op, record_conflicts: bool) -> None:
-    data, _ = _load(db, op.entity, op.record_id)
+class _Direct:
+    """Projection rows read and written straight away (the local save path)."""
+
+    def __init__(self, db: sqlite_utils.Database):
+        self.db = db
+
+    def load(self, table: str, record_id: str) -> tuple[dict[str, Any] | None, str | None]:
+        return _load(self.db, table, record_id)
+
+    def store(self, table: str, record_id: str, data: dict[str, Any], chash: str | None) -> None:
+        _store(self.db, table, record_id, data, chash)
+
+
+def _apply_set(db: sqlite_utils.Database, op: Op, record_conflicts: bool, rows: ProjectionBatch | _Direct) -> None:
+    data, _ = rows.load(op.entity, op.record_id)
     data = data or {}
     new = (op.hlc, op.origin)
     changed = False
@@ -128,7 +197,7 @@ def _apply_set(db: sqlite_utils.Database, op: Op, record_conflicts: bool) -> Non
             db.execute("INSERT OR REPLACE INTO field_stamp VALUES (?, ?, ?, ?, ?)",
                        [op.entity, op.record_id, field, op.hlc, op.origin])
     if changed:
-        _store(db, op.entity, op.record_id, data, None)
+        rows.store(op.entity, op.record_id, data, None)
 
 
 def _record_conflict(db: sqlite_utils.Database, op: Op, field: str, value: Any, current: tuple[int, str],
@@ -144,33 +213,37 @@ def _record_conflict(db: sqlite_utils.Database, op: Op, field: str, value: Any, 
         [op.entity, op.record_id, field, *winner, *loser, _now()])
 
 
-def _apply_insert(db: sqlite_utils.Database, op: Op) -> None:
+def _apply_insert(op: Op, rows: ProjectionBatch | _Direct) -> None:
     chash = content_hash(op.payload)
-    existing, stored_hash = _load(db, op.entity, op.record_id)
+    existing, stored_hash = rows.load(op.entity, op.record_id)
     if existing is not None:
         if stored_hash != chash:
             raise IntegrityError(f"{op.entity} {op.record_id}: same id, different content")
         return
-    _store(db, op.entity, op.record_id, dict(op.payload), chash)
+    rows.store(op.entity, op.record_id, dict(op.payload), chash)
 
 
-def _apply_status(db: sqlite_utils.Database, op: Op) -> None:
+def _apply_status(op: Op, rows: ProjectionBatch | _Direct) -> None:
     cycle, stage = int(op.payload["cycle"]), int(op.payload["stage"])
     event_id = f"{op.origin}:{op.seq}"
     event = dict(op.payload, deficiency_id=op.record_id, hlc=op.hlc, origin=op.origin)
-    _, ev_hash = _load(db, "deficiency_event", event_id)
+    _, ev_hash = rows.load("deficiency_event", event_id)
     if ev_hash is None:
         event_site = op.payload.get("site_id")
-        _store(db, "deficiency_event", event_id, dict(event, site_id=event_site), content_hash(event))
-    data, _ = _load(db, "deficiency", op.record_id)
+        rows.store("deficiency_event", event_id, dict(event, site_id=event_site), content_hash(event))
+    data, _ = rows.load("deficiency", op.record_id)
     data = data or {}
     if (cycle, stage) > (int(data.get("cycle", 0)), int(data.get("stage", 0))):
         data["cycle"], data["stage"] = cycle, stage
-        _store(db, "deficiency", op.record_id, data, None)
+        rows.store("deficiency", op.record_id, data, None)
 
 
-def insert_op(db: sqlite_utils.Database, op: Op) -> bool:
-    """Append an op to the log; False if it is already held (same content), error if it differs."""
+def insert_op(db: sqlite_utils.Database, op: Op, batch: ProjectionBatch | None = None) -> bool:
+    """Append an op to the log; False if it is already held (same content), error if it differs.
+
+    With a ``batch`` the contiguous high-water mark (table ``seen``) is kept in memory and written
+    by ``batch.flush()``.
+    """
     row = db.execute("SELECT hlc, entity, record_id, kind, payload, base FROM op WHERE origin=? AND seq=?",
                      [op.origin, op.seq]).fetchone()
     if row is not None:
@@ -181,15 +254,22 @@ def insert_op(db: sqlite_utils.Database, op: Op) -> bool:
     r = op.row()
     db.execute(f"INSERT INTO op ({', '.join(OP_KEYS)}) VALUES ({', '.join('?' * len(OP_KEYS))})",
                [r[k] for k in OP_KEYS])
+    if batch is not None:
+        batch.advance_seen(op.origin, op.seq)
+        return True
     seen = db.execute("SELECT seq FROM seen WHERE origin=?", [op.origin]).fetchone()
     have = seen[0] if seen else 0
     if op.seq == have + 1:
-        # advance the contiguous high-water mark over any ops already held beyond it
-        nxt = op.seq
-        while db.execute("SELECT 1 FROM op WHERE origin=? AND seq=?", [op.origin, nxt + 1]).fetchone():
-            nxt += 1
-        db.execute("INSERT OR REPLACE INTO seen VALUES (?, ?)", [op.origin, nxt])
+        db.execute("INSERT OR REPLACE INTO seen VALUES (?, ?)", [op.origin, _contiguous_from(db, op.origin, op.seq)])
     return True
+
+
+def _contiguous_from(db: sqlite_utils.Database, origin: str, seq: int) -> int:
+    """The last seq of the unbroken run of held ops of ``origin`` that starts at ``seq``."""
+    nxt = seq
+    while db.execute("SELECT 1 FROM op WHERE origin=? AND seq=?", [origin, nxt + 1]).fetchone():
+        nxt += 1
+    return nxt
 
 
 def all_ops(db: sqlite_utils.Database) -> list[Op]:
@@ -198,4 +278,4 @@ def all_ops(db: sqlite_utils.Database) -> list[Op]:
     return [Op.from_row(dict(zip(OP_KEYS, r, strict=True))) for r in cur.fetchall()]
 
 
-__all__ = ["SCHEMA_VERSION", "IntegrityError", "Op", "all_ops", "apply_op", "canonical", "insert_op"]
+__all__ = ["SCHEMA_VERSION", "IntegrityError", "Op", "ProjectionBatch", "all_ops", "apply_op", "canonical", "insert_op"]
