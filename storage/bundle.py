@@ -14,6 +14,7 @@ import json
 import os
 import time
 import zipfile
+import zlib
 from collections.abc import Callable
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -32,6 +33,10 @@ MANIFEST_KEYS = {"format", "format_version", "schema_version", "origin", "create
 
 
 Progress = Callable[[float, str], None]
+# What zipfile and zlib raise on damaged input: a flipped flag bit reads as "encrypted"
+# (RuntimeError) or an unknown method or version (NotImplementedError); found by flipping every byte.
+ZIP_ERRORS = (zipfile.BadZipFile, zipfile.LargeZipFile, OSError, EOFError, ValueError, KeyError, NotImplementedError,
+              RuntimeError, zlib.error)
 PROGRESS_EVERY = 250
 
 
@@ -135,7 +140,7 @@ def verify_bundle(store: Store, data: bytes) -> _Verified:
     try:
         z = zipfile.ZipFile(io.BytesIO(data))
         infos = z.infolist()
-    except (zipfile.BadZipFile, ValueError, OSError) as exc:
+    except ZIP_ERRORS as exc:
         raise BundleRefused(f"not a readable bundle: {exc}") from exc
     names = [i.filename for i in infos]
     if len(names) != len(set(names)):
@@ -149,7 +154,7 @@ def verify_bundle(store: Store, data: bytes) -> _Verified:
     try:
         mbytes = z.read("manifest.json")
         mac = z.read("manifest.mac").decode("ascii").strip()
-    except (zipfile.BadZipFile, UnicodeDecodeError, OSError, EOFError) as exc:
+    except ZIP_ERRORS as exc:
         raise BundleRefused(f"unreadable manifest: {exc}") from exc
     expected = hmac.new(store.firm_key, mbytes, hashlib.sha256).hexdigest()
     if not hmac.compare_digest(mac, expected):
@@ -168,7 +173,7 @@ def verify_bundle(store: Store, data: bytes) -> _Verified:
     try:
         body = z.read("ops.jsonl")
         blobs = {b["sha256"]: z.read(f"blobs/{b['sha256']}") for b in manifest["blobs"]}
-    except (zipfile.BadZipFile, OSError, EOFError, KeyError) as exc:
+    except ZIP_ERRORS as exc:
         raise BundleRefused(f"unreadable entry: {exc}") from exc
     if hashlib.sha256(body).hexdigest() != manifest["ops_sha256"]:
         raise BundleRefused("ops hash does not match the manifest")
