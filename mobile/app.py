@@ -9,6 +9,7 @@ database connection; the recheck (a few milliseconds) runs on the UI thread afte
 from __future__ import annotations
 
 import os
+import sqlite3
 import tempfile
 import threading
 import time
@@ -710,7 +711,7 @@ class SyncScreen(Screen):
         def worker() -> None:
             try:
                 text = work(progress)
-            except (OSError, ValueError) as exc:
+            except (OSError, ValueError, sqlite3.Error) as exc:  # shown to the reviewer; nothing was half-applied
                 text = f"Failed: {exc}"
             Clock.schedule_once(lambda _dt: self._done(text))
 

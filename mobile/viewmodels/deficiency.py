@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import hashlib
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -80,7 +81,7 @@ class DeficiencyViewModel:
                 content = Path(evidence).read_bytes()
                 d = self.deficiency()
                 self.store.add_photo(d.site_id, content, deficiency_id=d.id, caption=f"evidence: {stage} {note}"[:200])
-                sha = self.store.put_blob(content, "image/jpeg")
+                sha = hashlib.sha256(content).hexdigest()  # the blob add_photo stored
             self.store.move_status(self.deficiency_id, stage, actor.strip(), role, note.strip(), sha)
         except LifecycleError as exc:
             self.message = str(exc)
