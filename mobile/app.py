@@ -257,7 +257,8 @@ class SiteScreen(Screen):
 
     def start_visit(self) -> None:
         """Start a visit now."""
-        if self.vm.start_visit(self.ids.visit_reviewer.text, self.ids.visit_weather.text) is None:
+        if self.vm.start_visit(self.ids.visit_reviewer.text, self.ids.visit_weather.text, self.ids.visit_scope.text,
+                               self.ids.visit_not_scope.text) is None:
             self.message = "\n".join(self.vm.errors.values())
             return
         self.message = ""

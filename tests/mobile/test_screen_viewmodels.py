@@ -167,6 +167,7 @@ def test_notice_choose_preview_issue_export(demo, tmp_path):
     for i in rest:
         vm.toggle(i)
     pdf = vm.draft_pdf()
+    assert "DRAFT PREVIEW" in PdfReader(io.BytesIO(pdf)).pages[0].extract_text()
     pages = vm.preview_pages(tmp_path / "prev", pdf)
     assert len(pages) == len(PdfReader(io.BytesIO(pdf)).pages) and pages[0].stat().st_size > 0
     assert store.notices(site_id) == []  # a preview issues nothing
@@ -174,6 +175,7 @@ def test_notice_choose_preview_issue_export(demo, tmp_path):
     (notice,) = store.notices(site_id)
     assert notice.deficiency_ids == [first]
     assert hashlib.sha256(path.read_bytes()).hexdigest() == notice.pdf_sha256
+    assert "DRAFT" not in "".join(p.extract_text() for p in PdfReader(path).pages)
     exported = vm.export(notice.id, tmp_path / "share")
     assert exported.read_bytes() == path.read_bytes()
 

@@ -73,6 +73,8 @@ if FLOW == "main":
         shot("02-site")
         screen().ids.visit_reviewer.text = "Priya Okonkwo-Lind"
         screen().ids.visit_weather.text = "clear, -4 °C"
+        screen().ids.visit_scope.text = "Roof grid G; revisit of RB-5"
+        screen().ids.visit_not_scope.text = "Level 1 walls"
         screen().ids.start_visit.trigger_action(0)
         assert "Priya" in screen().visit_text
 
