@@ -1,0 +1,26 @@
+"""The bench runner still runs (python -m bench --quick): it prints one row per measurement.
+
+No timing is judged here (machines are noisy); only that every benchmark completes and reports.
+"""
+
+import os
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+
+ROOT = Path(__file__).resolve().parents[1]
+
+
+@pytest.mark.slow
+def test_bench_quick_prints_every_row():
+    env = dict(os.environ, PYTHONPATH=str(ROOT))
+    env.pop("DISPLAY", None)  # the app bench starts its own Xvfb
+    proc = subprocess.run([sys.executable, "-m", "bench", "--quick"], cwd=ROOT, env=env, capture_output=True,
+                          text=True, timeout=900)
+    assert proc.returncode == 0, proc.stdout[-3000:] + proc.stderr[-3000:]
+    for what in ("recheck, simple span", "recheck, 3-span continuous", "sync export+import", "notice, 10 items",
+                 "app cold start", "field change to refreshed panel"):
+        assert what in proc.stdout, proc.stdout
+    assert "FAILED" not in proc.stdout
