@@ -150,6 +150,8 @@ class BeamFormViewModel:
         if name in LOAD_FIELDS:
             return {"loads": dict(rec.get("loads") or {}, **{name: _number(name, text)}), "tributary_m": None}
         if name == "tributary_m":
+            if not text:
+                return {"tributary_m": None}  # cleared: the line loads stay as they are
             width = _number(name, text)
             return {"tributary_m": width, "loads": line_loads_kn_m(self.store.site(self.site_id).design_basis, width)}
         if name == "material":

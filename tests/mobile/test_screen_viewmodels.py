@@ -92,6 +92,8 @@ def test_spans_entry_adds_supports_and_tributary_uses_design_basis(demo):
     basis = store.site(site_id).design_basis
     # specified line load = area load x tributary width (common practice)
     assert form.record()["loads"]["snow_kn_m"] == pytest.approx(basis.snow_kpa * 2.0)
+    loads = form.record()["loads"]
+    assert form.set_field("tributary_m", "") and form.record()["loads"] == loads  # clearing keeps the loads
     assert form.set_field("dead_kn_m", "3.5")
     assert form.record()["tributary_m"] is None and form.record()["loads"]["dead_kn_m"] == 3.5
 
