@@ -235,6 +235,20 @@ if FLOW == "main":
         shot("12-beam-dim")
 
     @step
+    def create_site():
+        app.go("sites")
+        s = screen("sites")
+        s.ids.new_name.text = "Willow Yard Pavilion"
+        s.ids.new_address.text = "7 Quarry Lane"
+        s.ids.new_dead_kpa.text = "1.0"
+        s.ids.new_snow_kpa.text = "heavy"  # refused at the field: not a number
+        s.ids.create_site.trigger_action(0)
+        assert app.root.current == "sites" and "snow_kpa" in s.error_text, s.error_text
+        s.ids.new_snow_kpa.text = "2.4"
+        s.ids.create_site.trigger_action(0)
+        assert app.root.current == "site" and "Willow Yard" in screen("site").title
+
+    @step
     def touch_targets():
         # field use: every control at least 15 mm tall (Kivy's mm unit follows the screen's dpi)
         from kivy.metrics import mm
