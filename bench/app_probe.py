@@ -20,7 +20,7 @@ def finish(app: object) -> None:
     app.stop()  # type: ignore[attr-defined]
 
 
-def on_first_frame(app: object, then: object) -> None:
+def on_first_frame(then: object) -> None:
     from kivy.core.window import Window
 
     def flipped(*_: object) -> None:
@@ -46,7 +46,7 @@ if MODE == "bare":
 
         def on_start(self) -> None:
             """Report the first frame, then stop."""
-            on_first_frame(self, lambda: finish(self))
+            on_first_frame(lambda: finish(self))
 
     Bare().run()
 else:
@@ -90,5 +90,5 @@ else:
         app.open_beam(next(i for i, r in app.store.beams(app.site_id) if r["mark"] == "RB-2"))
         Clock.schedule_once(lambda _dt: change(0), 0.3)
 
-    app.bind(on_start=lambda *_: on_first_frame(app, open_beam))
+    app.bind(on_start=lambda *_: on_first_frame(open_beam))
     app.run()

@@ -64,6 +64,7 @@ THEMES = {
                 button_fg=(0.9, 0.88, 0.82, 1), input=(0.14, 0.14, 0.15, 1), alert=(1, 0.55, 0.45, 1),
                 band=(0.2, 0.17, 0.1, 1)),
 }
+PREVIEW_DIR = Path(tempfile.gettempdir()) / "bracewalk-preview"  # page images of the notice being previewed
 TYPING_PAUSE_S = 0.35  # save this long after the last keystroke (and at once on Enter or leaving the field)
 KEYPAD_KEYS = ("7", "8", "9", "⌫", "4", "5", "6", "'", "1", "2", "3", '"', "0", ".", "/", "␣", "m", "mm", ",", "OK")
 
@@ -88,7 +89,6 @@ def big_button(text: str, on_release: Any, **kw: Any) -> Button:
 
 def info_popup(title: str, lines: list[str]) -> Popup:
     """A readable popup with a Close button (used for recheck traces)."""
-    app = App.get_running_app()
     body = BoxLayout(orientation="vertical", spacing=dp(8), padding=dp(8))
     scroll = ScrollView(do_scroll_x=False)
     text = Label(text="\n".join(lines), font_size="17sp", color=(1, 1, 1, 1), halign="left", valign="top",
@@ -98,7 +98,7 @@ def info_popup(title: str, lines: list[str]) -> Popup:
     scroll.add_widget(text)
     body.add_widget(scroll)
     popup = Popup(title=title, content=body, size_hint=(0.9, 0.85), title_size="20sp")
-    body.add_widget(big_button("Close", lambda *_: popup.dismiss(), halign="center", bg=app.theme_button))
+    body.add_widget(big_button("Close", lambda *_: popup.dismiss(), halign="center"))
     popup.open()
     return popup
 
@@ -307,8 +307,7 @@ class BeamScreen(Screen):
     def load_form(self) -> None:
         """Put every stored value (or kept draft) into its widget."""
         values = self.vm.form()
-        rec = self.vm.record()
-        self.title = f"{rec.get('mark')}  ·  {rec.get('level') or ''}  ·  grid {rec.get('gridline') or ''}"
+        self.show_title()
         for name, w in self.fields.items():
             w.loading = True
             if isinstance(w, PickField):
@@ -320,6 +319,11 @@ class BeamScreen(Screen):
             w.loading = False
         self.build_bearings(values)
         self.photo_text = f"Photos: {self.vm.photo_count()}"
+
+    def show_title(self) -> None:
+        """'RB-5  ·  Roof  ·  grid E / 3-4'."""
+        rec = self.vm.record()
+        self.title = f"{rec.get('mark')}  ·  {rec.get('level') or ''}  ·  grid {rec.get('gridline') or ''}"
 
     def build_bearings(self, values: dict[str, str]) -> None:
         """One row per support: lateral and rotation as large three-state toggles, and bearing length."""
@@ -392,8 +396,7 @@ class BeamScreen(Screen):
             self.build_bearings(values)
         for name, w in self.fields.items():
             w.error = self.vm.errors.get(name, "")
-        rec = self.vm.record()
-        self.title = f"{rec.get('mark')}  ·  {rec.get('level') or ''}  ·  grid {rec.get('gridline') or ''}"
+        self.show_title()
         self.render()
 
     def undo(self) -> None:
@@ -623,8 +626,7 @@ class NoticeScreen(Screen):
 
     def preview(self) -> None:
         """Render the draft notice and show its first page."""
-        out = Path(tempfile.gettempdir()) / "bracewalk-preview"
-        self.pages = self.vm.preview_pages(out)
+        self.pages = self.vm.preview_pages(PREVIEW_DIR)
         self.page = 0
         self.show_page()
 
@@ -645,7 +647,7 @@ class NoticeScreen(Screen):
         path = self.vm.issue(self.ids.issued_by.text, out_dir)
         self.message = self.vm.message
         if path is not None:
-            self.pages = self.vm.preview_pages(Path(tempfile.gettempdir()) / "bracewalk-preview", path.read_bytes())
+            self.pages = self.vm.preview_pages(PREVIEW_DIR, path.read_bytes())
             self.page = 0
             self.show_page()
             self.page_text = f"ISSUED page 1 of {len(self.pages)}"

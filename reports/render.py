@@ -37,6 +37,12 @@ rl_config.useA85 = 0
 FONT_BOLD = "BWSans-Bold"
 PRIORITY_WORDS = {"immediate": "IMMEDIATE: make safe now", "before_loading": "Before loading or concealment",
                   "before_next_review": "Before next review", "observation": "Observation"}
+PRIORITY_MARKERS = {"immediate": "▲", "before_loading": "●", "before_next_review": "○", "observation": "○"}
+
+
+def priority_label(priority: str) -> str:
+    """Priority by shape and words ('▲ IMMEDIATE: make safe now'), the same on the notice and in the app."""
+    return f"{PRIORITY_MARKERS.get(priority, '○')} {PRIORITY_WORDS.get(priority, priority)}"
 
 
 def _register_fonts() -> None:
@@ -143,14 +149,13 @@ def _header(n: Notice, st: dict[str, ParagraphStyle]) -> list[Any]:
 
 def _item(item: Item, st: dict[str, ParagraphStyle]) -> KeepTogether:
     p = st["base"]
-    marker = "▲ " if item.priority == "immediate" else ("● " if item.priority == "before_loading" else "○ ")
     rows = [
         [Paragraph("Location", st["bold"]), Paragraph(esc(item.location), p)],
         [Paragraph("Observed", st["bold"]), Paragraph(esc(item.observed), p)],
         [Paragraph("Finding", st["bold"]), Paragraph(esc(item.finding), p)],
         [Paragraph("Reference", st["bold"]), Paragraph(esc(item.reference), p)],
         [Paragraph("Required action", st["bold"]), Paragraph(esc(item.action), p)],
-        [Paragraph("Priority", st["bold"]), Paragraph(marker + esc(PRIORITY_WORDS.get(item.priority, item.priority)),
+        [Paragraph("Priority", st["bold"]), Paragraph(esc(priority_label(item.priority)),
                                                        st["bold"])],
         [Paragraph("Due", st["bold"]), Paragraph(esc(item.due or PRIORITY_WORDS.get(item.priority, "")), p)],
     ]

@@ -5,11 +5,11 @@ from __future__ import annotations
 from pydantic import ValidationError
 
 from core.records import DesignBasis
+from reports.render import PRIORITY_WORDS, priority_label
 
 STATUS_WORDS = {"ok": ("OK", "●"), "deficient": ("DEFICIENT", "▲"), "not_permitted": ("NOT PERMITTED", "■"),
                 "not_established": ("NOT ESTABLISHED", "✖"), "unchecked": ("NOT YET CHECKED", "○")}
-PRIORITY_LABELS = {"immediate": "▲ IMMEDIATE: make safe now", "before_loading": "● Before loading or concealment",
-                   "before_next_review": "○ Before next review", "observation": "· Observation"}
+PRIORITY_LABELS = {p: priority_label(p) for p in PRIORITY_WORDS}  # the notice's words and shapes
 STAGE_WORDS = {0: "open", 1: "corrected (contractor reports done)", 2: "verified by reviewer"}
 
 

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import copy
 import time
 from dataclasses import dataclass, field
 from typing import Any
@@ -82,8 +83,7 @@ class SiteViewModel:
         The bearings start as 'not visible' so that nothing is assumed restrained until it is seen.
         """
         beams = self.store.beams(self.site_id)
-        fields = {k: (list(v) if isinstance(v, list) else dict(v) if isinstance(v, dict) else v)
-                  for k, v in NEW_BEAM_DEFAULTS.items()}
+        fields = copy.deepcopy(NEW_BEAM_DEFAULTS)
         if beams:
             last = max(beams, key=lambda b: b[0])[1]  # uuid7 ids sort by creation time
             fields.update({k: last[k] for k in COPIED_FROM_LAST if k in last})
