@@ -35,8 +35,10 @@ def main(argv: list[str] | None = None) -> int:
             failed = True
             rows.append(Row(name, "FAILED", "", "", f"{type(exc).__name__}: {exc}"[:80], False))
     print_table(rows)
-    print(f"\n({time.perf_counter() - t0:.0f} s; figures are medians, spread = (max - min) / median; "
-          "ratios use baselines measured in this run)")
+    print(
+        f"\n({time.perf_counter() - t0:.0f} s; figures are medians, spread = (max - min) / median; "
+        "ratios use baselines measured in this run)"
+    )
     return 1 if failed else 0
 
 

@@ -34,8 +34,12 @@ def _display() -> tuple[subprocess.Popen[bytes] | None, str]:
         raise RuntimeError("no display and no Xvfb (scripts/setup.sh installs it)")
     for n in range(90, 110):
         if not Path(f"/tmp/.X11-unix/X{n}").exists() and not Path(f"/tmp/.X{n}-lock").exists():
-            proc = subprocess.Popen(["Xvfb", f":{n}", "-screen", "0", "1280x800x24", "-nolisten", "tcp"],
-                                    stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL, start_new_session=True)
+            proc = subprocess.Popen(
+                ["Xvfb", f":{n}", "-screen", "0", "1280x800x24", "-nolisten", "tcp"],
+                stdout=subprocess.DEVNULL,
+                stderr=subprocess.DEVNULL,
+                start_new_session=True,
+            )
             for _ in range(50):
                 if Path(f"/tmp/.X11-unix/X{n}").exists():
                     return proc, f":{n}"
@@ -45,11 +49,19 @@ def _display() -> tuple[subprocess.Popen[bytes] | None, str]:
 
 
 def _probe(mode: str, db: Path, display: str, home: Path) -> tuple[float, dict[str, object]]:
-    env = dict(os.environ, DISPLAY=display, HOME=str(home), KIVY_NO_ARGS="1", KIVY_NO_CONSOLELOG="1",
-               PYTHONPATH=str(ROOT))
+    env = dict(
+        os.environ, DISPLAY=display, HOME=str(home), KIVY_NO_ARGS="1", KIVY_NO_CONSOLELOG="1", PYTHONPATH=str(ROOT)
+    )
     t0 = time.time()
-    proc = subprocess.Popen([sys.executable, "-m", "bench.app_probe", mode, str(db)], stdout=subprocess.PIPE,
-                            stderr=subprocess.STDOUT, text=True, env=env, cwd=ROOT, start_new_session=True)
+    proc = subprocess.Popen(
+        [sys.executable, "-m", "bench.app_probe", mode, str(db)],
+        stdout=subprocess.PIPE,
+        stderr=subprocess.STDOUT,
+        text=True,
+        env=env,
+        cwd=ROOT,
+        start_new_session=True,
+    )
     try:
         out, _ = proc.communicate(timeout=120)
     except subprocess.TimeoutExpired:
@@ -91,10 +103,24 @@ def run(quick: bool = False) -> list[Row]:
         spread_s = 100 * (max(starts) - min(starts)) / s
         spread_r = 100 * (max(refresh) - min(refresh)) / r
         return [
-            Row("app cold start to first frame", fmt_time(s), fmt_time(b) + " (bare Kivy)", f"{s / b:.1f}x", "< 2 s",
-                s < 2.0, f"{spread_s:.0f}%"),
-            Row("field change to refreshed panel", f"{r:.1f} ms (p95 {p95:.0f} ms)", f"{c:.2f} ms (recheck)",
-                f"{r / c:.0f}x", "< 16 ms", r < 16.0, f"{spread_r:.0f}%"),
+            Row(
+                "app cold start to first frame",
+                fmt_time(s),
+                fmt_time(b) + " (bare Kivy)",
+                f"{s / b:.1f}x",
+                "< 2 s",
+                s < 2.0,
+                f"{spread_s:.0f}%",
+            ),
+            Row(
+                "field change to refreshed panel",
+                f"{r:.1f} ms (p95 {p95:.0f} ms)",
+                f"{c:.2f} ms (recheck)",
+                f"{r / c:.0f}x",
+                "< 16 ms",
+                r < 16.0,
+                f"{spread_r:.0f}%",
+            ),
         ]
     finally:
         if xvfb is not None:

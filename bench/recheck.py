@@ -32,13 +32,20 @@ def beams(n_spans: int, count: int, seed: int = 7) -> list[Beam]:
         span = rng.choice(range(4000, 12001, 100))
         spacing = rng.choice((600, 1200, 1800, 2400, 3000))
         data = {
-            "mark": f"B-{i}", "material": "glulam", "species": "D.Fir-L", "grade": "24f-E",
-            "b_mm": rng.choice((80, 130, 175, 215)), "d_mm": 38 * rng.randint(8, 24),
+            "mark": f"B-{i}",
+            "material": "glulam",
+            "species": "D.Fir-L",
+            "grade": "24f-E",
+            "b_mm": rng.choice((80, 130, 175, 215)),
+            "d_mm": 38 * rng.randint(8, 24),
             "spans_mm": [span] * n_spans,
             "bearings": [{"lateral": True, "rotation": True, "length_mm": 140}] * (n_spans + 1),
             "top_edge": {"braced_by": "purlins", "spacing_mm": min(spacing, span), "fastened": True},
-            "loads": {"dead_kn_m": round(rng.uniform(1, 4), 2), "live_kn_m": 0.0,
-                      "snow_kn_m": round(rng.uniform(2, 8), 2)},
+            "loads": {
+                "dead_kn_m": round(rng.uniform(1, 4), 2),
+                "live_kn_m": 0.0,
+                "snow_kn_m": round(rng.uniform(2, 8), 2),
+            },
         }
         out.append(Beam.model_validate(data))
     return out
@@ -111,8 +118,13 @@ def bare_three_span(b: Beam) -> float:
             mr_neg = 0.9 * fb * s_mod * min(kzbg_neg, _kl(0.4 * span, bw, dd, fb))
             vr = 0.9 * FV * kd * 2 * area / 3
             qr = 0.9 * FCP * kd * bw * 140
-            worst = max(worst, m_pos / mr_pos if mr_pos else math.inf, m_neg / mr_neg if mr_neg else math.inf,
-                        v / vr, 2 * v / qr)
+            worst = max(
+                worst,
+                m_pos / mr_pos if mr_pos else math.inf,
+                m_neg / mr_neg if mr_neg else math.inf,
+                v / vr,
+                2 * v / qr,
+            )
     ei = E * bw * dd**3 / 12.0
     for w, ratio in ((snow, 240.0), (dead + snow, 180.0)):
         worst = max(worst, 0.0069 * w * span**4 / ei / (span / ratio))
@@ -141,8 +153,17 @@ def run(quick: bool = False) -> list[Row]:
         met_rate = rate >= aim_rate
         aim = f">= {aim_rate:,}/s" + (", <= 5x" if n_spans == 1 else "")
         met = met_rate and (ratio <= 5.0 if n_spans == 1 else True)
-        rows.append(Row(label, fmt_rate(rate, "beams"), fmt_rate(base_rate, "beams"), f"{ratio:.1f}x", aim, met,
-                        f"{lib.spread_pct:.0f}%"))
+        rows.append(
+            Row(
+                label,
+                fmt_rate(rate, "beams"),
+                fmt_rate(base_rate, "beams"),
+                f"{ratio:.1f}x",
+                aim,
+                met,
+                f"{lib.spread_pct:.0f}%",
+            )
+        )
     return rows
 
 

@@ -45,29 +45,62 @@ def photo(i: int) -> bytes:
 
 def items(count: int) -> list[Item]:
     """Items from a real recheck of a beam with an unrestrained bearing (the demo's kind of finding)."""
-    beam = Beam.model_validate({
-        "mark": "B", "material": "glulam", "species": "D.Fir-L", "grade": "24f-E", "b_mm": 130, "d_mm": 456,
-        "spans_mm": [7200], "bearings": [{"lateral": True, "rotation": True, "length_mm": 140},
-                                         {"lateral": True, "rotation": False, "length_mm": 140}],
-        "top_edge": {"braced_by": "purlins", "spacing_mm": 2400, "fastened": True},
-        "loads": {"dead_kn_m": 2.0, "live_kn_m": 0.0, "snow_kn_m": 5.0}})
+    beam = Beam.model_validate(
+        {
+            "mark": "B",
+            "material": "glulam",
+            "species": "D.Fir-L",
+            "grade": "24f-E",
+            "b_mm": 130,
+            "d_mm": 456,
+            "spans_mm": [7200],
+            "bearings": [
+                {"lateral": True, "rotation": True, "length_mm": 140},
+                {"lateral": True, "rotation": False, "length_mm": 140},
+            ],
+            "top_edge": {"braced_by": "purlins", "spacing_mm": 2400, "fastened": True},
+            "loads": {"dead_kn_m": 2.0, "live_kn_m": 0.0, "snow_kn_m": 5.0},
+        }
+    )
     result = recheck(beam)
     finding = result.findings[0]
     out = []
     for n in range(1, count + 1):
-        d = Deficiency(id=f"d{n}", site_id="s", number=f"D-BNCH-{n:03d}", code=finding.code,
-                       priority=finding.priority.value, location=f"Roof, grid {n % 9 + 1} / C-D, beam RB-{n}",
-                       description=finding.message, reference="S-201; " + finding.clause, action=finding.action)
+        d = Deficiency(
+            id=f"d{n}",
+            site_id="s",
+            number=f"D-BNCH-{n:03d}",
+            code=finding.code,
+            priority=finding.priority.value,
+            location=f"Roof, grid {n % 9 + 1} / C-D, beam RB-{n}",
+            description=finding.message,
+            reference="S-201; " + finding.clause,
+            action=finding.action,
+        )
         out.append(item_for(d, beam, result, "measured 130 x 456 mm; drawn 130 x 456 mm", [photo(n)]))
     return out
 
 
 def notice(its: list[Item]) -> Notice:
     """An invented bench notice around the items."""
-    return Notice(site_name="Bench Hall", address="1 Test Lane", permit_number="BP-0000", project_number="P-0",
-                  notice_number="BENCH-001", revision=0, visit_at="2026-12-01 09:00", issued_on="2026-12-01",
-                  reviewer="Bench Reviewer", firm="Bench Firm", addressed_to="Bench Builder", distribution=["File"],
-                  weather="dry", scope_reviewed="Roof", scope_not_reviewed="-", items=its)
+    return Notice(
+        site_name="Bench Hall",
+        address="1 Test Lane",
+        permit_number="BP-0000",
+        project_number="P-0",
+        notice_number="BENCH-001",
+        revision=0,
+        visit_at="2026-12-01 09:00",
+        issued_on="2026-12-01",
+        reviewer="Bench Reviewer",
+        firm="Bench Firm",
+        addressed_to="Bench Builder",
+        distribution=["File"],
+        weather="dry",
+        scope_reviewed="Roof",
+        scope_not_reviewed="-",
+        items=its,
+    )
 
 
 def bare(n: Notice) -> bytes:
@@ -77,8 +110,17 @@ def bare(n: Notice) -> bytes:
     doc = SimpleDocTemplate(buf, pagesize=LETTER, invariant=1)
     story: list[object] = [Paragraph(esc(f"{n.site_name} {n.address} {n.notice_number}"), st)]
     for it in n.items:
-        for text in (it.number, it.location, it.observed, it.finding, it.reference, it.action, it.priority,
-                     it.due, *(f"{k}: {v}" for k, v in it.key_numbers)):
+        for text in (
+            it.number,
+            it.location,
+            it.observed,
+            it.finding,
+            it.reference,
+            it.action,
+            it.priority,
+            it.due,
+            *(f"{k}: {v}" for k, v in it.key_numbers),
+        ):
             story.append(Paragraph(esc(text), st))
         for content in it.photos:
             story.append(RLImage(io.BytesIO(content), width=55 * mm, height=41 * mm))
@@ -102,8 +144,17 @@ def run(quick: bool = False) -> list[Row]:
         aim, met = "<= 1.5x", ratio <= 1.5
         if count == 100:
             aim, met = "< 5 s, <= 1.5x", lib.median_s < 5.0 and ratio <= 1.5
-        rows.append(Row(f"notice, {count} items with photos", fmt_time(lib.median_s), fmt_time(base.median_s),
-                        f"{ratio:.1f}x", aim, met, f"{lib.spread_pct:.0f}%"))
+        rows.append(
+            Row(
+                f"notice, {count} items with photos",
+                fmt_time(lib.median_s),
+                fmt_time(base.median_s),
+                f"{ratio:.1f}x",
+                aim,
+                met,
+                f"{lib.spread_pct:.0f}%",
+            )
+        )
     return rows
 
 

@@ -21,13 +21,18 @@ import tempfile
 from pathlib import Path
 
 from bench.common import Row, Sample, fmt_time, measure
-from storage.api import Store
 from storage.bundle import export_bundle, import_bundle
 from storage.db import transaction
+from storage.store import Store
 
 BEAM = {
-    "material": "glulam", "species": "D.Fir-L", "grade": "24f-E", "b_mm": 130, "d_mm": 456,
-    "spans_mm": [7200], "bearings": [{"lateral": True, "rotation": True, "length_mm": 140}] * 2,
+    "material": "glulam",
+    "species": "D.Fir-L",
+    "grade": "24f-E",
+    "b_mm": 130,
+    "d_mm": 456,
+    "spans_mm": [7200],
+    "bearings": [{"lateral": True, "rotation": True, "length_mm": 140}] * 2,
     "top_edge": {"braced_by": "purlins", "spacing_mm": 2400, "fastened": True},
     "loads": {"dead_kn_m": 2.0, "live_kn_m": 0.0, "snow_kn_m": 5.0},
 }
@@ -49,12 +54,14 @@ def make_source(path: Path, n_ops: int, seed: int = 11) -> Store:
             made += 1
         while made < n_ops:
             b = rng.choice(beams)
-            field, value = rng.choice((
-                ("spans_mm", [rng.randrange(4000, 12000, 100)]),
-                ("d_mm", 38 * rng.randint(8, 24)),
-                ("top_edge", {"braced_by": "purlins", "spacing_mm": rng.choice((1200, 2400)), "fastened": True}),
-                ("notes", f"checked at gridline {rng.randint(1, 30)}"),
-            ))
+            field, value = rng.choice(
+                (
+                    ("spans_mm", [rng.randrange(4000, 12000, 100)]),
+                    ("d_mm", 38 * rng.randint(8, 24)),
+                    ("top_edge", {"braced_by": "purlins", "spacing_mm": rng.choice((1200, 2400)), "fastened": True}),
+                    ("notes", f"checked at gridline {rng.randint(1, 30)}"),
+                )
+            )
             store._save_in_tx("beam", b, {field: value}, "set", None)
             made += 1
     return store
@@ -107,8 +114,17 @@ def run(quick: bool = False) -> list[Row]:
             aim, met = ">= 0.25x raw", ratio >= 0.25
             if n == 10_000:
                 aim, met = "< 1 s, >= 0.25x raw", s.median_s < 1.0 and ratio >= 0.25
-            rows.append(Row(f"sync export+import, {n:,} ops", fmt_time(s.median_s), fmt_time(r.median_s),
-                            f"{ratio:.2f}x", aim, met, f"{s.spread_pct:.0f}%"))
+            rows.append(
+                Row(
+                    f"sync export+import, {n:,} ops",
+                    fmt_time(s.median_s),
+                    fmt_time(r.median_s),
+                    f"{ratio:.2f}x",
+                    aim,
+                    met,
+                    f"{s.spread_pct:.0f}%",
+                )
+            )
         finally:
             shutil.rmtree(work, ignore_errors=True)
     return rows

@@ -275,8 +275,16 @@ def _deflection_samples() -> tuple[tuple[float, float, float, float, float, floa
     out = []
     for s in range(SAMPLES_PER_ELEMENT + 1):
         xi = s / SAMPLES_PER_ELEMENT
-        out.append((xi, 1 - 3 * xi**2 + 2 * xi**3, xi - 2 * xi**2 + xi**3, 3 * xi**2 - 2 * xi**3,
-                    -(xi**2) + xi**3, xi * xi * (1 - xi) ** 2 / 24.0))
+        out.append(
+            (
+                xi,
+                1 - 3 * xi**2 + 2 * xi**3,
+                xi - 2 * xi**2 + xi**3,
+                3 * xi**2 - 2 * xi**3,
+                -(xi**2) + xi**3,
+                xi * xi * (1 - xi) ** 2 / 24.0,
+            )
+        )
     return tuple(out)
 
 

@@ -54,20 +54,34 @@ def restraint_findings(beam: Beam) -> list[Finding]:
         words = {"lateral": "lateral displacement", "rotation": "rotation (rolling over)"}
         if missing:
             what = " and ".join(words[k] for k in missing)
-            message = (f"{beam.mark} at {where}: no restraint against {what}. d/b = {beam.d_mm / beam.b_mm:.1f} "
-                       "> 2.5, so the standard requires it; the beam's bending capacity cannot be established.")
+            message = (
+                f"{beam.mark} at {where}: no restraint against {what}. d/b = {beam.d_mm / beam.b_mm:.1f} "
+                "> 2.5, so the standard requires it; the beam's bending capacity cannot be established."
+            )
             priority = Priority.immediate
-            action = ("Make safe now: keep loads off this beam and tell the site superintendent today. "
-                      "Install the bearing restraint shown on the drawings (blocking, side plates or strap) "
-                      "before any further loading; ask the engineer of record if none is detailed.")
+            action = (
+                "Make safe now: keep loads off this beam and tell the site superintendent today. "
+                "Install the bearing restraint shown on the drawings (blocking, side plates or strap) "
+                "before any further loading; ask the engineer of record if none is detailed."
+            )
         else:
             what = " and ".join(words[k] for k in unseen)
-            message = (f"{beam.mark} at {where}: restraint against {what} could not be seen. The bending "
-                       "capacity is not established until it is confirmed.")
+            message = (
+                f"{beam.mark} at {where}: restraint against {what} could not be seen. The bending "
+                "capacity is not established until it is confirmed."
+            )
             priority = Priority.before_loading
             action = "Expose or confirm the bearing restraint (photo or site review) before loading."
-        out.append(Finding(code="bearing_restraint_missing", priority=priority, message=message, action=action,
-                           clause="CSA O86-19 7.5.6.3.1", region=where))
+        out.append(
+            Finding(
+                code="bearing_restraint_missing",
+                priority=priority,
+                message=message,
+                action=action,
+                clause="CSA O86-19 7.5.6.3.1",
+                region=where,
+            )
+        )
     return out
 
 
@@ -76,36 +90,66 @@ def bending_findings(beam: Beam, bending: list[BendingRegion]) -> list[Finding]:
     out = []
     for r in bending:
         if r.outcome == "not_permitted":
-            out.append(Finding(
-                code="slenderness_exceeds_limit", priority=Priority.immediate, region=r.region,
-                message=(f"{beam.mark}, {r.region}: slenderness CB = {r.cb:.1f} exceeds 50 with the "
-                         f"{r.compression_edge}; the standard does not permit this member as installed."),
-                action=("Make safe now: keep loads off and have lateral bracing added to the compression edge "
-                        "as directed by the engineer of record."),
-                clause="CSA O86-19 7.5.6.4.4"))
+            out.append(
+                Finding(
+                    code="slenderness_exceeds_limit",
+                    priority=Priority.immediate,
+                    region=r.region,
+                    message=(
+                        f"{beam.mark}, {r.region}: slenderness CB = {r.cb:.1f} exceeds 50 with the "
+                        f"{r.compression_edge}; the standard does not permit this member as installed."
+                    ),
+                    action=(
+                        "Make safe now: keep loads off and have lateral bracing added to the compression edge "
+                        "as directed by the engineer of record."
+                    ),
+                    clause="CSA O86-19 7.5.6.4.4",
+                )
+            )
         elif r.outcome == "overstress" and r.utilisation is not None and r.mr_knm is not None:
             dead_only = r.combination.startswith("1.4D")
-            out.append(Finding(
-                code="bending_overstress", priority=Priority.immediate if dead_only else Priority.before_loading,
-                region=r.region,
-                message=(f"{beam.mark}, {r.region}: factored moment {r.mf_knm:.1f} kN*m exceeds the "
-                         f"resistance {r.mr_knm:.1f} kN*m (utilisation {r.utilisation:.2f}, {r.combination})."),
-                action=("Do not load beyond its present load; refer to the engineer of record for a repair, "
-                        "added bracing or a replacement member."),
-                clause=r.clause))
-        stability_governs = r.kl is not None and r.kzbg is not None and r.kl < r.kzbg or (
-            r.kl is not None and r.kzbg is None and r.kl < 1.0)
+            out.append(
+                Finding(
+                    code="bending_overstress",
+                    priority=Priority.immediate if dead_only else Priority.before_loading,
+                    region=r.region,
+                    message=(
+                        f"{beam.mark}, {r.region}: factored moment {r.mf_knm:.1f} kN*m exceeds the "
+                        f"resistance {r.mr_knm:.1f} kN*m (utilisation {r.utilisation:.2f}, {r.combination})."
+                    ),
+                    action=(
+                        "Do not load beyond its present load; refer to the engineer of record for a repair, "
+                        "added bracing or a replacement member."
+                    ),
+                    clause=r.clause,
+                )
+            )
+        stability_governs = (
+            r.kl is not None
+            and r.kzbg is not None
+            and r.kl < r.kzbg
+            or (r.kl is not None and r.kzbg is None and r.kl < 1.0)
+        )
         if r.sign == "negative" and "unbraced" in r.compression_edge and stability_governs:
             over = r.utilisation is not None and r.utilisation > 1.0
-            out.append(Finding(
-                code="compression_edge_unbraced", region=r.region,
-                priority=Priority.before_loading if over else Priority.observation,
-                message=(f"{beam.mark}, {r.region}: the bottom edge is in compression here and is not braced "
-                         f"(KL = {r.kl:.3f}); lateral stability governs this region."),
-                action=("Add bottom-edge bracing (knee braces or blocking to the bottom edge) as directed by "
-                        "the engineer of record." if over else
-                        "Record; bottom-edge bracing would raise the capacity of this region."),
-                clause="CSA O86-19 7.5.6.4"))
+            out.append(
+                Finding(
+                    code="compression_edge_unbraced",
+                    region=r.region,
+                    priority=Priority.before_loading if over else Priority.observation,
+                    message=(
+                        f"{beam.mark}, {r.region}: the bottom edge is in compression here and is not braced "
+                        f"(KL = {r.kl:.3f}); lateral stability governs this region."
+                    ),
+                    action=(
+                        "Add bottom-edge bracing (knee braces or blocking to the bottom edge) as directed by "
+                        "the engineer of record."
+                        if over
+                        else "Record; bottom-edge bracing would raise the capacity of this region."
+                    ),
+                    clause="CSA O86-19 7.5.6.4",
+                )
+            )
     return out
 
 
@@ -114,12 +158,19 @@ def top_edge_findings(beam: Beam) -> list[Finding]:
     top = beam.top_edge
     if top.braced_by is TopBracing.none or top.fastened:
         return []
-    return [Finding(
-        code="compression_edge_unbraced", priority=Priority.before_loading, region="top edge",
-        message=(f"{beam.mark}: the {top.braced_by.value} on the top edge are not fastened, so they do not brace "
-                 "the compression edge; the recheck treats the top edge as unbraced between supports."),
-        action="Fasten the purlins or decking as detailed before any roofing material or snow load is placed.",
-        clause="CSA O86-19 7.5.6.4.2")]
+    return [
+        Finding(
+            code="compression_edge_unbraced",
+            priority=Priority.before_loading,
+            region="top edge",
+            message=(
+                f"{beam.mark}: the {top.braced_by.value} on the top edge are not fastened, so they do not brace "
+                "the compression edge; the recheck treats the top edge as unbraced between supports."
+            ),
+            action="Fasten the purlins or decking as detailed before any roofing material or snow load is placed.",
+            clause="CSA O86-19 7.5.6.4.2",
+        )
+    ]
 
 
 def layup_findings(beam: Beam, member: Member) -> list[Finding]:
@@ -127,44 +178,79 @@ def layup_findings(beam: Beam, member: Member) -> list[Finding]:
     if beam.material is not Material.glulam or member.balanced or beam.top_stamp is TopStamp.up:
         return []
     if beam.top_stamp is TopStamp.down:
-        return [Finding(
-            code="layup_inverted", priority=Priority.before_loading,
-            message=(f"{beam.mark}: unbalanced layup {beam.grade} installed with its TOP stamp down; the weaker "
-                     f"face is in tension (fb {member.fb_neg_mpa:g} MPa instead of {member.fb_pos_mpa:g})."),
-            action="Refer to the engineer of record: turn or replace the beam, or accept it by analysis.",
-            clause="CSA O86-19 Table 7.3 note")]
-    return [Finding(
-        code="layup_inverted", priority=Priority.before_next_review,
-        message=(f"{beam.mark}: TOP stamp of the unbalanced layup {beam.grade} not visible; the recheck assumed "
-                 "the weaker face in tension."),
-        action="Confirm the TOP stamp orientation (photo) at the next review.",
-        clause="CSA O86-19 Table 7.3 note")]
+        return [
+            Finding(
+                code="layup_inverted",
+                priority=Priority.before_loading,
+                message=(
+                    f"{beam.mark}: unbalanced layup {beam.grade} installed with its TOP stamp down; the weaker "
+                    f"face is in tension (fb {member.fb_neg_mpa:g} MPa instead of {member.fb_pos_mpa:g})."
+                ),
+                action="Refer to the engineer of record: turn or replace the beam, or accept it by analysis.",
+                clause="CSA O86-19 Table 7.3 note",
+            )
+        ]
+    return [
+        Finding(
+            code="layup_inverted",
+            priority=Priority.before_next_review,
+            message=(
+                f"{beam.mark}: TOP stamp of the unbalanced layup {beam.grade} not visible; the recheck assumed "
+                "the weaker face in tension."
+            ),
+            action="Confirm the TOP stamp orientation (photo) at the next review.",
+            clause="CSA O86-19 Table 7.3 note",
+        )
+    ]
 
 
-def check_findings(beam: Beam, shear: ShearCheck, bearing: list[BearingCheck],
-                   deflection: DeflectionCheck) -> list[Finding]:
+def check_findings(
+    beam: Beam, shear: ShearCheck, bearing: list[BearingCheck], deflection: DeflectionCheck
+) -> list[Finding]:
     """Shear, bearing and deflection over their limits."""
     out = []
     if shear.utilisation > 1.0:
-        out.append(Finding(
-            code="shear_overstress", priority=Priority.before_loading,
-            message=(f"{beam.mark}: factored shear {shear.vf_kn:.1f} kN exceeds the resistance {shear.vr_kn:.1f} kN "
-                     f"(utilisation {shear.utilisation:.2f}, {shear.combination})."),
-            action="Refer to the engineer of record before further loading.", clause=shear.clause))
+        out.append(
+            Finding(
+                code="shear_overstress",
+                priority=Priority.before_loading,
+                message=(
+                    f"{beam.mark}: factored shear {shear.vf_kn:.1f} kN exceeds the resistance {shear.vr_kn:.1f} kN "
+                    f"(utilisation {shear.utilisation:.2f}, {shear.combination})."
+                ),
+                action="Refer to the engineer of record before further loading.",
+                clause=shear.clause,
+            )
+        )
     for b in bearing:
         if b.utilisation > 1.0:
-            out.append(Finding(
-                code="bearing_overstress", priority=Priority.before_loading, region=f"support {b.support}",
-                message=(f"{beam.mark} at support {b.support}: factored reaction {b.qf_kn:.1f} kN exceeds the bearing "
-                         f"resistance {b.qr_kn:.1f} kN over {b.length_mm:g} mm (utilisation {b.utilisation:.2f})."),
-                action="Lengthen the bearing or add a bearing plate as directed by the engineer of record.",
-                clause=b.clause))
+            out.append(
+                Finding(
+                    code="bearing_overstress",
+                    priority=Priority.before_loading,
+                    region=f"support {b.support}",
+                    message=(
+                        f"{beam.mark} at support {b.support}: factored reaction {b.qf_kn:.1f} kN exceeds the bearing "
+                        f"resistance {b.qr_kn:.1f} kN over {b.length_mm:g} mm (utilisation {b.utilisation:.2f})."
+                    ),
+                    action="Lengthen the bearing or add a bearing plate as directed by the engineer of record.",
+                    clause=b.clause,
+                )
+            )
     if deflection.utilisation > 1.0:
-        out.append(Finding(
-            code="deflection_exceeds_limit", priority=Priority.before_next_review, region=deflection.element,
-            message=(f"{beam.mark}, {deflection.element}: deflection under {deflection.case} "
-                     f"{deflection.delta_mm:.1f} mm exceeds the limit {deflection.limit_mm:.1f} mm."),
-            action="Refer to the engineer of record (serviceability).", clause=deflection.clause))
+        out.append(
+            Finding(
+                code="deflection_exceeds_limit",
+                priority=Priority.before_next_review,
+                region=deflection.element,
+                message=(
+                    f"{beam.mark}, {deflection.element}: deflection under {deflection.case} "
+                    f"{deflection.delta_mm:.1f} mm exceeds the limit {deflection.limit_mm:.1f} mm."
+                ),
+                action="Refer to the engineer of record (serviceability).",
+                clause=deflection.clause,
+            )
+        )
     return out
 
 
@@ -175,41 +261,70 @@ def size_findings(beam: Beam) -> list[Finding]:
         return []
     out = []
     if (spec.species, spec.grade) != (beam.species, beam.grade):
-        out.append(Finding(
-            code="substitution", priority=Priority.before_next_review,
-            message=(f"{beam.mark}: drawings specify {spec.species} {spec.grade}; installed {beam.species} "
-                     f"{beam.grade}. The recheck uses the installed grade."),
-            action="Submit the substitution to the engineer of record for acceptance, or replace the member.",
-            clause="CSA O86-19 Table 7.3 / 6.3.1A"))
+        out.append(
+            Finding(
+                code="substitution",
+                priority=Priority.before_next_review,
+                message=(
+                    f"{beam.mark}: drawings specify {spec.species} {spec.grade}; installed {beam.species} "
+                    f"{beam.grade}. The recheck uses the installed grade."
+                ),
+                action="Submit the substitution to the engineer of record for acceptance, or replace the member.",
+                clause="CSA O86-19 Table 7.3 / 6.3.1A",
+            )
+        )
     short_b, short_d = spec.b_mm - beam.b_mm, spec.d_mm - beam.d_mm
     if beam.material is Material.glulam:
         widths = [float(w) for w in tables.column("glulam_sizes", "width_mm")]
         smaller_width = any(abs(beam.b_mm - w) <= beam.size_tolerance_mm for w in widths if w < spec.b_mm - 1)
         lam_short = short_d >= 38 - beam.size_tolerance_mm
         if smaller_width or lam_short:
-            out.append(Finding(
-                code="substitution", priority=Priority.before_next_review,
-                message=(f"{beam.mark}: measured {beam.b_mm:g} x {beam.d_mm:g} mm against {spec.b_mm:g} x "
-                         f"{spec.d_mm:g} mm specified: a smaller standard glulam size was installed."),
-                action="Submit to the engineer of record for acceptance of the as-built member, or replace it.",
-                clause="CWC glulam sizes; CSA O86-19 7.5.6.5"))
+            out.append(
+                Finding(
+                    code="substitution",
+                    priority=Priority.before_next_review,
+                    message=(
+                        f"{beam.mark}: measured {beam.b_mm:g} x {beam.d_mm:g} mm against {spec.b_mm:g} x "
+                        f"{spec.d_mm:g} mm specified: a smaller standard glulam size was installed."
+                    ),
+                    action="Submit to the engineer of record for acceptance of the as-built member, or replace it.",
+                    clause="CWC glulam sizes; CSA O86-19 7.5.6.5",
+                )
+            )
             return out
     if short_b > beam.size_tolerance_mm or short_d > beam.size_tolerance_mm:
-        out.append(Finding(
-            code="undersize", priority=Priority.before_next_review,
-            message=(f"{beam.mark}: measured {beam.b_mm:g} x {beam.d_mm:g} mm against {spec.b_mm:g} x {spec.d_mm:g} mm "
-                     f"specified (tolerance {beam.size_tolerance_mm:g} mm). The recheck uses the measured size."),
-            action="Refer the as-built size to the engineer of record.",
-            clause="project setting (CSA O122 tolerances not yet checked)"))
+        out.append(
+            Finding(
+                code="undersize",
+                priority=Priority.before_next_review,
+                message=(
+                    f"{beam.mark}: measured {beam.b_mm:g} x {beam.d_mm:g} mm against {spec.b_mm:g} x {spec.d_mm:g} mm "
+                    f"specified (tolerance {beam.size_tolerance_mm:g} mm). The recheck uses the measured size."
+                ),
+                action="Refer the as-built size to the engineer of record.",
+                clause="project setting (CSA O122 tolerances not yet checked)",
+            )
+        )
     return out
 
 
-def build_findings(beam: Beam, member: Member, bending: list[BendingRegion], shear: ShearCheck,
-                   bearing: list[BearingCheck], deflection: DeflectionCheck) -> list[Finding]:
+def build_findings(
+    beam: Beam,
+    member: Member,
+    bending: list[BendingRegion],
+    shear: ShearCheck,
+    bearing: list[BearingCheck],
+    deflection: DeflectionCheck,
+) -> list[Finding]:
     """Every finding of a recheck, most urgent first."""
-    found = (restraint_findings(beam) + bending_findings(beam, bending) + top_edge_findings(beam)
-             + layup_findings(beam, member) + check_findings(beam, shear, bearing, deflection)
-             + size_findings(beam))
+    found = (
+        restraint_findings(beam)
+        + bending_findings(beam, bending)
+        + top_edge_findings(beam)
+        + layup_findings(beam, member)
+        + check_findings(beam, shear, bearing, deflection)
+        + size_findings(beam)
+    )
     return sorted(found, key=lambda f: PRIORITY_ORDER[f.priority.value])
 
 

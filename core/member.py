@@ -49,8 +49,13 @@ def service_factors(beam: Beam) -> tuple[dict[str, float], FactorTrace]:
     """KSb, KSv, KScp, KSE for the service condition (1.0 dry; wet per O86-19 Tables 6.10 / 7.2)."""
     if beam.service is Service.dry:
         ones = {"ksb": 1.0, "ksv": 1.0, "kscp": 1.0, "kse": 1.0}
-        return ones, FactorTrace(symbol="KS", value=1.0, clause="CSA O86-19 5.4.2 / 6.4.2 / 7.4.2",
-                                 source="dry service: all KS = 1.0", status="memory")
+        return ones, FactorTrace(
+            symbol="KS",
+            value=1.0,
+            clause="CSA O86-19 5.4.2 / 6.4.2 / 7.4.2",
+            source="dry service: all KS = 1.0",
+            status="memory",
+        )
     if beam.material is Material.glulam:
         rule, table = "any", "Table 7.2"
     else:
@@ -58,21 +63,34 @@ def service_factors(beam: Beam) -> tuple[dict[str, float], FactorTrace]:
     row = tables.find("service_factors", material=beam.material.value, smaller_dim_rule=rule)
     values = {k: float(row[k]) for k in ("ksb", "ksv", "kscp", "kse")}
     text = ", ".join(f"{k.upper()} {v:g}" for k, v in values.items())
-    return values, FactorTrace(symbol="KS (wet)", value=values["ksb"], clause=f"CSA O86-19 {table}",
-                               source=f"service_factors: {beam.material.value} {rule}: {text}",
-                               status=row["status"])
+    return values, FactorTrace(
+        symbol="KS (wet)",
+        value=values["ksb"],
+        clause=f"CSA O86-19 {table}",
+        source=f"service_factors: {beam.material.value} {rule}: {text}",
+        status=row["status"],
+    )
 
 
 def treatment_factors(beam: Beam) -> tuple[float, float, FactorTrace]:
     """KT for strength and for E (O86-19 6.4.3, memory)."""
     if beam.material is Material.glulam and beam.treatment is Treatment.incised:
         raise ValueError("treatment = 'incised' applies to sawn lumber; allowed for glulam: 'none'")
-    row = tables.find("treatment_factors", material=beam.material.value, treatment=beam.treatment.value,
-                      service=beam.service.value)
+    row = tables.find(
+        "treatment_factors", material=beam.material.value, treatment=beam.treatment.value, service=beam.service.value
+    )
     kt, kt_e = float(row["kt_strength"]), float(row["kt_e"])
-    return kt, kt_e, FactorTrace(symbol="KT", value=kt, clause="CSA O86-19 6.4.3 / Table 6.11",
-                                 source=f"treatment_factors: {beam.treatment.value}, {beam.service.value}; "
-                                        f"KT(E) {kt_e:g}", status=row["status"])
+    return (
+        kt,
+        kt_e,
+        FactorTrace(
+            symbol="KT",
+            value=kt,
+            clause="CSA O86-19 6.4.3 / Table 6.11",
+            source=f"treatment_factors: {beam.treatment.value}, {beam.service.value}; KT(E) {kt_e:g}",
+            status=row["status"],
+        ),
+    )
 
 
 def size_factor_kzb(b_mm: float, d_mm: float) -> tuple[float, FactorTrace]:
@@ -83,18 +101,27 @@ def size_factor_kzb(b_mm: float, d_mm: float) -> tuple[float, FactorTrace]:
         if large <= float(row["larger_dim_max_mm"]):
             value = float(row[column])
             return value, FactorTrace(
-                symbol="KZb", value=value, clause="CSA O86-19 Table 6.13",
-                source=f"kzb: larger dim <= {row['larger_dim_max_mm']} mm, {column}", status=row["status"])
+                symbol="KZb",
+                value=value,
+                clause="CSA O86-19 Table 6.13",
+                source=f"kzb: larger dim <= {row['larger_dim_max_mm']} mm, {column}",
+                status=row["status"],
+            )
     raise ValueError(f"d_mm = {large:g} is outside the KZb table")
 
 
 def member_properties(beam: Beam) -> Member:
     """Look up strengths and factors for a beam and compute its section properties."""
     row, table = _grade_row(beam)
-    trace = [FactorTrace(symbol="grade", value=f"{beam.species} {beam.grade}",
-                         clause="CSA O86-19 Table 7.3" if table == "glulam_grades" else "CSA O86-19 Table 6.3.1A",
-                         source=f"{table} row " + ", ".join(f"{k} {v}" for k, v in row.items() if k != "status"),
-                         status=row["status"])]
+    trace = [
+        FactorTrace(
+            symbol="grade",
+            value=f"{beam.species} {beam.grade}",
+            clause="CSA O86-19 Table 7.3" if table == "glulam_grades" else "CSA O86-19 Table 6.3.1A",
+            source=f"{table} row " + ", ".join(f"{k} {v}" for k, v in row.items() if k != "status"),
+            status=row["status"],
+        )
+    ]
     ks, ks_trace = service_factors(beam)
     kt, kt_e, kt_trace = treatment_factors(beam)
     trace += [ks_trace, kt_trace]
@@ -104,27 +131,58 @@ def member_properties(beam: Beam) -> Member:
         e = float(row["e_mpa"])
         e05 = GLULAM_E05_RATIO * e
         kh, kzb = 1.0, None
-        trace.append(FactorTrace(symbol="KH", value=1.0, clause="CSA O86-19 7.4", source="glulam: no system factor",
-                                 status="memory"))
+        trace.append(
+            FactorTrace(
+                symbol="KH", value=1.0, clause="CSA O86-19 7.4", source="glulam: no system factor", status="memory"
+            )
+        )
     else:
         fb_pos = fb_neg = float(row["fb_mpa"])
         balanced = True
         e, e05 = float(row["e_mpa"]), float(row["e05_mpa"])
         kh = system_factor_kh(beam.system.value)
         kzb, kzb_trace = size_factor_kzb(beam.b_mm, beam.d_mm)
-        trace.append(FactorTrace(symbol="KH", value=kh, clause="CSA O86-19 Table 6.12",
-                                 source=f"system case {beam.system.value}", status="memory"))
+        trace.append(
+            FactorTrace(
+                symbol="KH",
+                value=kh,
+                clause="CSA O86-19 Table 6.12",
+                source=f"system case {beam.system.value}",
+                status="memory",
+            )
+        )
         trace.append(kzb_trace)
     density = tables.find("densities", material=beam.material.value, species=beam.species)
     gamma = float(density["unit_weight_kn_m3"])
     sw = gamma * beam.b_mm * beam.d_mm * 1e-6 if beam.self_weight else 0.0
-    trace.append(FactorTrace(symbol="self-weight", value=round(sw, 4), unit="kN/m", source=(
-        f"densities: {gamma:g} kN/m3 x b x d" if beam.self_weight else "switched off by the reviewer"),
-        status=density["status"] if beam.self_weight else "input"))
+    trace.append(
+        FactorTrace(
+            symbol="self-weight",
+            value=round(sw, 4),
+            unit="kN/m",
+            source=(f"densities: {gamma:g} kN/m3 x b x d" if beam.self_weight else "switched off by the reviewer"),
+            status=density["status"] if beam.self_weight else "input",
+        )
+    )
     return Member(
-        fb_pos_mpa=fb_pos, fb_neg_mpa=fb_neg, balanced=balanced, fv_mpa=float(row["fv_mpa"]),
-        fcp_mpa=float(row["fcp_mpa"]), e_mpa=e, e05_mpa=e05, ksb=ks["ksb"], ksv=ks["ksv"],
-        kscp=ks["kscp"], kse=ks["kse"], kt=kt, kt_e=kt_e, kh=kh, kzb=kzb,
-        s_mm3=section_modulus_s(beam.b_mm, beam.d_mm), area_mm2=beam.b_mm * beam.d_mm,
-        inertia_mm4=beam.b_mm * beam.d_mm**3 / 12.0, self_weight_n_mm=sw, trace=tuple(trace),
+        fb_pos_mpa=fb_pos,
+        fb_neg_mpa=fb_neg,
+        balanced=balanced,
+        fv_mpa=float(row["fv_mpa"]),
+        fcp_mpa=float(row["fcp_mpa"]),
+        e_mpa=e,
+        e05_mpa=e05,
+        ksb=ks["ksb"],
+        ksv=ks["ksv"],
+        kscp=ks["kscp"],
+        kse=ks["kse"],
+        kt=kt,
+        kt_e=kt_e,
+        kh=kh,
+        kzb=kzb,
+        s_mm3=section_modulus_s(beam.b_mm, beam.d_mm),
+        area_mm2=beam.b_mm * beam.d_mm,
+        inertia_mm4=beam.b_mm * beam.d_mm**3 / 12.0,
+        self_weight_n_mm=sw,
+        trace=tuple(trace),
     )

@@ -220,7 +220,10 @@ class Beam(Record):
         _check_species_grade("species", "grade", self.material, self.species, self.grade)
         if self.specified is not None:
             _check_species_grade(
-                "specified.species", "specified.grade", self.material, self.specified.species,
+                "specified.species",
+                "specified.grade",
+                self.material,
+                self.specified.species,
                 self.specified.grade,
             )
         supports = len(self.spans_mm) + 1

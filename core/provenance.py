@@ -11,8 +11,10 @@ def provenance_rows() -> list[str]:
     for name in sorted(tables.TABLE_NAMES):
         t = tables.load(name)
         statuses = [r["status"] for r in t.rows]
-        out.append(f"| {name} | {t.source} | {len(statuses)} | {statuses.count('verified')} | "
-                   f"{statuses.count('confirmed')} | {statuses.count('memory')} |")
+        out.append(
+            f"| {name} | {t.source} | {len(statuses)} | {statuses.count('verified')} | "
+            f"{statuses.count('confirmed')} | {statuses.count('memory')} |"
+        )
     return out
 
 

@@ -144,30 +144,70 @@ def compression_edge(beam: Beam, model: BeamModel, region: Region) -> EdgeSuppor
         el = max(region.elements, key=lambda e: model.lengths[e])
         between = model.lengths[el]
         if top.braced_by is TopBracing.decking and top.fastened:
-            return EdgeSupport("top", True, 0.0, "top edge held continuously by fastened decking", "memory",
-                               True, True, bridging, both, False)
+            return EdgeSupport(
+                "top",
+                True,
+                0.0,
+                "top edge held continuously by fastened decking",
+                "memory",
+                True,
+                True,
+                bridging,
+                both,
+                False,
+            )
         if top.braced_by is TopBracing.purlins and top.fastened and top.spacing_mm is not None:
             lu = min(top.spacing_mm, between)
-            return EdgeSupport("top", False, lu, f"top edge braced by fastened purlins at {top.spacing_mm:g} mm",
-                               "memory", True, top_direct, bridging, both, False)
+            return EdgeSupport(
+                "top",
+                False,
+                lu,
+                f"top edge braced by fastened purlins at {top.spacing_mm:g} mm",
+                "memory",
+                True,
+                top_direct,
+                bridging,
+                both,
+                False,
+            )
         why = "" if top.braced_by is TopBracing.none else f" ({top.braced_by.value} not fastened)"
-        return EdgeSupport("top", False, between, f"top edge unbraced between supports{why}", "memory",
-                           False, False, False, False, True)
+        return EdgeSupport(
+            "top",
+            False,
+            between,
+            f"top edge unbraced between supports{why}",
+            "memory",
+            False,
+            False,
+            False,
+            False,
+            True,
+        )
     overhang = sum(model.lengths[e] for e in region.elements if model.elements[e].kind == "overhang")
     if overhang > 0:
         back = max(region.length_mm - overhang, 0.0)
         zone = max(overhang, back)
-        how = (f"cantilever {overhang:.0f} mm from its support; back-span hogging {back:.0f} mm "
-               "(the longer governs)")
+        how = f"cantilever {overhang:.0f} mm from its support; back-span hogging {back:.0f} mm (the longer governs)"
     else:
         zone = region.length_mm
         how = f"hogging zone {zone:.0f} mm between points of zero moment (common practice)"
     if bottom_braced and bottom.spacing_mm is not None:
         lu = min(bottom.spacing_mm, zone)
-        return EdgeSupport("bottom", False, lu, f"bottom edge braced at {bottom.spacing_mm:g} mm; {how}",
-                           "memory", True, bottom.spacing_mm <= 610, bridging, both, False)
-    return EdgeSupport("bottom", False, zone, f"bottom edge unbraced; {how}", "memory",
-                       False, False, False, False, True)
+        return EdgeSupport(
+            "bottom",
+            False,
+            lu,
+            f"bottom edge braced at {bottom.spacing_mm:g} mm; {how}",
+            "memory",
+            True,
+            bottom.spacing_mm <= 610,
+            bridging,
+            both,
+            False,
+        )
+    return EdgeSupport(
+        "bottom", False, zone, f"bottom edge unbraced; {how}", "memory", False, False, False, False, True
+    )
 
 
 def unrestrained_elements(beam: Beam, model: BeamModel) -> set[int]:
@@ -187,8 +227,14 @@ def _le_row(beam: Beam) -> dict[str, str]:
 
 
 def bending_check(
-    beam: Beam, member: Member, model: BeamModel, region: Region, case: LoadCase, edge: EdgeSupport,
-    not_established: bool, trace: list[FactorTrace] | None,
+    beam: Beam,
+    member: Member,
+    model: BeamModel,
+    region: Region,
+    case: LoadCase,
+    edge: EdgeSupport,
+    not_established: bool,
+    trace: list[FactorTrace] | None,
 ) -> dict[str, Any]:
     """Mr and utilisation of one region under one load case (numbers; trace appended if given)."""
     sawn = beam.material is Material.sawn
@@ -196,30 +242,63 @@ def bending_check(
         fb_spec, face = member.fb_pos_mpa, "fb"
     else:
         fb_spec, face = glulam_bending_strength_for_face(
-            member.fb_pos_mpa, member.fb_neg_mpa, region.sign, beam.top_stamp.value)
+            member.fb_pos_mpa, member.fb_neg_mpa, region.sign, beam.top_stamp.value
+        )
     fb = factored_bending_strength_fb(fb_spec, case.kd, member.kh, member.ksb, member.kt)
     out: dict[str, Any] = {
-        "lu_mm": None if edge.continuous else edge.lu_mm, "le_mm": None, "le_factor": None, "cb": None,
-        "ck": None, "kl": None, "kzbg": None, "kzb": member.kzb, "fb_mpa": fb, "kd": case.kd,
-        "mr_knm": None, "mf_knm": region.m_max_nmm * KNM, "utilisation": None,
+        "lu_mm": None if edge.continuous else edge.lu_mm,
+        "le_mm": None,
+        "le_factor": None,
+        "cb": None,
+        "ck": None,
+        "kl": None,
+        "kzbg": None,
+        "kzb": member.kzb,
+        "fb_mpa": fb,
+        "kd": case.kd,
+        "mr_knm": None,
+        "mf_knm": region.m_max_nmm * KNM,
+        "utilisation": None,
     }
     if trace is not None:
-        trace.append(FactorTrace(symbol="KD", value=case.kd, clause="CSA O86-19 5.3.2", source=case.kd_note,
-                                 status="memory"))
-        trace.append(FactorTrace(symbol=f"{face} ({region.sign} moment)", value=fb_spec, unit="MPa",
-                                 clause="CSA O86-19 Table 7.3 note" if not sawn else "CSA O86-19 Table 6.3.1A",
-                                 source=f"top stamp {beam.top_stamp.value}", status="memory"))
-        trace.append(FactorTrace(symbol="Fb", value=round(fb, 3), unit="MPa", clause="CSA O86-19 7.5.6.5.1",
-                                 source="Fb = fb (KD KH KSb KT)"))
-        trace.append(FactorTrace(symbol="Lu", value=out["lu_mm"], unit="mm", source=edge.description,
-                                 status=edge.status))
+        trace.append(
+            FactorTrace(symbol="KD", value=case.kd, clause="CSA O86-19 5.3.2", source=case.kd_note, status="memory")
+        )
+        trace.append(
+            FactorTrace(
+                symbol=f"{face} ({region.sign} moment)",
+                value=fb_spec,
+                unit="MPa",
+                clause="CSA O86-19 Table 7.3 note" if not sawn else "CSA O86-19 Table 6.3.1A",
+                source=f"top stamp {beam.top_stamp.value}",
+                status="memory",
+            )
+        )
+        trace.append(
+            FactorTrace(
+                symbol="Fb",
+                value=round(fb, 3),
+                unit="MPa",
+                clause="CSA O86-19 7.5.6.5.1",
+                source="Fb = fb (KD KH KSb KT)",
+            )
+        )
+        trace.append(
+            FactorTrace(symbol="Lu", value=out["lu_mm"], unit="mm", source=edge.description, status=edge.status)
+        )
     if not sawn:
         kzbg = size_factor_kzbg(beam.b_mm, beam.d_mm, region.length_mm)
         out["kzbg"] = kzbg
         if trace is not None:
-            trace.append(FactorTrace(symbol="KZbg", value=round(kzbg, 4), clause="CSA O86-19 7.5.6.5.1",
-                                     source=f"L = {region.length_mm:.0f} mm between points of zero moment; cap 1.3",
-                                     status="confirmed"))
+            trace.append(
+                FactorTrace(
+                    symbol="KZbg",
+                    value=round(kzbg, 4),
+                    clause="CSA O86-19 7.5.6.5.1",
+                    source=f"L = {region.length_mm:.0f} mm between points of zero moment; cap 1.3",
+                    status="confirmed",
+                )
+            )
     if not_established:
         out["outcome"] = "not_established"
         return out
@@ -238,14 +317,26 @@ def bending_check(
     out["utilisation"] = region.m_max_nmm / mr if mr > 0 else float("inf")
     out["outcome"] = "overstress" if out["utilisation"] > 1.0 else "ok"
     if trace is not None:
-        trace.append(FactorTrace(symbol="Mr", value=round(mr * KNM, 2), unit="kN*m", clause=clause,
-                                 source="lesser of phi Fb S KX KZbg and phi Fb S KX KL, phi = 0.9, KX = 1"
-                                 if not sawn else "phi Fb S KZb KL, phi = 0.9"))
+        trace.append(
+            FactorTrace(
+                symbol="Mr",
+                value=round(mr * KNM, 2),
+                unit="kN*m",
+                clause=clause,
+                source="lesser of phi Fb S KX KZbg and phi Fb S KX KL, phi = 0.9, KX = 1"
+                if not sawn
+                else "phi Fb S KZb KL, phi = 0.9",
+            )
+        )
     return out
 
 
 def _stability_kl(
-    beam: Beam, member: Member, edge: EdgeSupport, fb: float, out: dict[str, Any],
+    beam: Beam,
+    member: Member,
+    edge: EdgeSupport,
+    fb: float,
+    out: dict[str, Any],
     trace: list[FactorTrace] | None,
 ) -> float | NotPermitted:
     db = beam.d_mm / beam.b_mm
@@ -260,8 +351,14 @@ def _stability_kl(
             _note(trace, "KL", 1.0, "CSA O86-19 6.5.3.2.1", f"d/b = {db:.2f} <= {limit:g} ({need})", "memory")
             return 1.0
         e = member.e05_mpa
-        _note(trace, "E05", e, "CSA O86-19 6.5.3.2 (reference Q2)",
-              f"d/b = {db:.2f} > {limit:g}: glulam KL method with E05 (conservative choice)", "memory")
+        _note(
+            trace,
+            "E05",
+            e,
+            "CSA O86-19 6.5.3.2 (reference Q2)",
+            f"d/b = {db:.2f} > {limit:g}: glulam KL method with E05 (conservative choice)",
+            "memory",
+        )
     if edge.continuous:
         _note(trace, "KL", 1.0, "CSA O86-19 7.5.6.3", edge.description, "memory")
         return 1.0
@@ -271,8 +368,15 @@ def _stability_kl(
     cb = slenderness_cb(le, beam.d_mm, beam.b_mm)
     ck = critical_slenderness_ck(e, member.kse, member.kt, fb)
     out.update(le_mm=le, le_factor=factor, cb=cb, ck=ck)
-    _note(trace, "Le", round(le, 1), "CSA O86-19 7.5.6.4.2 / Table 7.4",
-          f"effective_length: {row['le_case']} ({row['description']}): {factor:g} x Lu", row["status"], "mm")
+    _note(
+        trace,
+        "Le",
+        round(le, 1),
+        "CSA O86-19 7.5.6.4.2 / Table 7.4",
+        f"effective_length: {row['le_case']} ({row['description']}): {factor:g} x Lu",
+        row["status"],
+        "mm",
+    )
     _note(trace, "CB", round(cb, 3), "CSA O86-19 7.5.6.4.3", "CB = sqrt(Le d / b^2)", "confirmed")
     _note(trace, "CK", round(ck, 3), "CSA O86-19 7.5.6.4.4", "CK = sqrt(0.97 E KSE KT / (Fb KX))", "confirmed")
     kl = lateral_stability_kl(cb, ck, e, member.kse, member.kt, fb)
@@ -284,11 +388,17 @@ def _stability_kl(
     return kl
 
 
-def _note(trace: list[FactorTrace] | None, symbol: str, value: float | None, clause: str, source: str,
-          status: str, unit: str = "") -> None:
+def _note(
+    trace: list[FactorTrace] | None,
+    symbol: str,
+    value: float | None,
+    clause: str,
+    source: str,
+    status: str,
+    unit: str = "",
+) -> None:
     if trace is not None:
-        trace.append(FactorTrace(symbol=symbol, value=value, unit=unit, clause=clause, source=source,
-                                 status=status))
+        trace.append(FactorTrace(symbol=symbol, value=value, unit=unit, clause=clause, source=source, status=status))
 
 
 _OUTCOME_RANK = {"not_established": 3, "not_permitted": 2, "overstress": 1, "ok": 0}
@@ -316,17 +426,28 @@ def bending_regions(beam: Beam, member: Member, model: BeamModel, cases: list[Lo
         trace: list[FactorTrace] = []
         numbers = bending_check(beam, member, model, region, case, edge, ne, trace)
         clause = "CSA O86-19 7.5.6.5.1, 7.5.6.4" if beam.material is Material.glulam else "CSA O86-19 6.5.3"
-        out.append(BendingRegion(
-            region=name.split("|")[0], sign=region.sign, x_start_mm=region.x0_mm, x_end_mm=region.x1_mm,
-            combination=_case_label(case), clause=clause, compression_edge=edge.description,
-            trace=list(member.trace) + trace, **numbers,
-        ))
+        out.append(
+            BendingRegion(
+                region=name.split("|")[0],
+                sign=region.sign,
+                x_start_mm=region.x0_mm,
+                x_end_mm=region.x1_mm,
+                combination=_case_label(case),
+                clause=clause,
+                compression_edge=edge.description,
+                trace=list(member.trace) + trace,
+                **numbers,
+            )
+        )
     return out
 
 
 def _case_label(case: LoadCase) -> str:
-    return case.combo.name if not case.pattern or case.pattern == "all spans" else (
-        f"{case.combo.name} (L/S on {case.pattern})")
+    return (
+        case.combo.name
+        if not case.pattern or case.pattern == "all spans"
+        else (f"{case.combo.name} (L/S on {case.pattern})")
+    )
 
 
 def shear_check(beam: Beam, member: Member, model: BeamModel, cases: list[LoadCase]) -> ShearCheck:
@@ -352,19 +473,40 @@ def shear_check(beam: Beam, member: Member, model: BeamModel, cases: list[LoadCa
         cv_status = "confirmed" if len(model.elements) == 1 else "memory"
         method = "volume: Wr vs total factored load W (Z >= 2.0 m3)"
         clause = "CSA O86-19 7.5.7.3(a)"
-        extra = FactorTrace(symbol="CV", value=CV_SIMPLE_UDL, clause="CSA O86-19 Table 7.5",
-                            source="simple span, uniform load" + ("" if cv_status == "confirmed" else
-                                   "; applied to a continuous or overhanging beam: verify"), status=cv_status)
+        extra = FactorTrace(
+            symbol="CV",
+            value=CV_SIMPLE_UDL,
+            clause="CSA O86-19 Table 7.5",
+            source="simple span, uniform load"
+            + ("" if cv_status == "confirmed" else "; applied to a continuous or overhanging beam: verify"),
+            status=cv_status,
+        )
     else:
         method = "2A/3" if beam.material is Material.glulam else "2An/3 KZv"
         clause = "CSA O86-19 7.5.7.2" if beam.material is Material.glulam else "CSA O86-19 6.5.4.1 (memory)"
-        extra = FactorTrace(symbol="Z", value=round(volume, 3), unit="m3", clause="CSA O86-19 7.5.7",
-                            source="volume below 2.0 m3: simple method permitted" if beam.material is
-                            Material.glulam else "sawn lumber")
-    trace = [FactorTrace(symbol="KD", value=case.kd, clause="CSA O86-19 5.3.2", source=case.kd_note,
-                         status="memory"), extra]
-    return ShearCheck(vr_kn=resist * KN, vf_kn=demand * KN, utilisation=util, method=method,
-                      combination=_case_label(case), kd=case.kd, clause=clause, trace=trace)
+        extra = FactorTrace(
+            symbol="Z",
+            value=round(volume, 3),
+            unit="m3",
+            clause="CSA O86-19 7.5.7",
+            source="volume below 2.0 m3: simple method permitted"
+            if beam.material is Material.glulam
+            else "sawn lumber",
+        )
+    trace = [
+        FactorTrace(symbol="KD", value=case.kd, clause="CSA O86-19 5.3.2", source=case.kd_note, status="memory"),
+        extra,
+    ]
+    return ShearCheck(
+        vr_kn=resist * KN,
+        vf_kn=demand * KN,
+        utilisation=util,
+        method=method,
+        combination=_case_label(case),
+        kd=case.kd,
+        clause=clause,
+        trace=trace,
+    )
 
 
 def bearing_checks(beam: Beam, member: Member, model: BeamModel, cases: list[LoadCase]) -> list[BearingCheck]:
@@ -384,16 +526,30 @@ def bearing_checks(beam: Beam, member: Member, model: BeamModel, cases: list[Loa
         assert best is not None
         util, qr, qf, case = best
         clause = "CSA O86-19 7.5.9 (memory)" if beam.material is Material.glulam else "CSA O86-19 6.5.6 (memory)"
-        trace = [FactorTrace(symbol="Ab", value=area, unit="mm2", source=f"b x bearing length {bearing.length_mm:g} mm",
-                             status="input"),
-                 FactorTrace(symbol="KB", value=1.0, clause=clause, source="end bearing / conservative",
-                             status="memory"),
-                 FactorTrace(symbol="KZcp", value=kzcp, clause=clause, status="memory"),
-                 FactorTrace(symbol="KD", value=case.kd, clause="CSA O86-19 5.3.2", source=case.kd_note,
-                             status="memory")]
-        out.append(BearingCheck(support=j + 1, qr_kn=qr * KN, qf_kn=qf * KN, utilisation=util,
-                                length_mm=bearing.length_mm, combination=_case_label(case), clause=clause,
-                                trace=trace))
+        trace = [
+            FactorTrace(
+                symbol="Ab",
+                value=area,
+                unit="mm2",
+                source=f"b x bearing length {bearing.length_mm:g} mm",
+                status="input",
+            ),
+            FactorTrace(symbol="KB", value=1.0, clause=clause, source="end bearing / conservative", status="memory"),
+            FactorTrace(symbol="KZcp", value=kzcp, clause=clause, status="memory"),
+            FactorTrace(symbol="KD", value=case.kd, clause="CSA O86-19 5.3.2", source=case.kd_note, status="memory"),
+        ]
+        out.append(
+            BearingCheck(
+                support=j + 1,
+                qr_kn=qr * KN,
+                qf_kn=qf * KN,
+                utilisation=util,
+                length_mm=bearing.length_mm,
+                combination=_case_label(case),
+                clause=clause,
+                trace=trace,
+            )
+        )
     return out
 
 
@@ -430,15 +586,37 @@ def deflection_check(beam: Beam, member: Member, model: BeamModel) -> Deflection
                 if best is None or util > best[0]:
                     best = (util, abs(delta), limit, label, el.name, row)
     if best is None:
-        return DeflectionCheck(delta_mm=0.0, limit_mm=0.0, utilisation=0.0, case="no load", element="-",
-                               clause="CSA O86-19 5.4.2", trace=[])
+        return DeflectionCheck(
+            delta_mm=0.0,
+            limit_mm=0.0,
+            utilisation=0.0,
+            case="no load",
+            element="-",
+            clause="CSA O86-19 5.4.2",
+            trace=[],
+        )
     util, delta, limit, label, element, row = best
-    trace = [FactorTrace(symbol="ES", value=es, unit="MPa", clause="CSA O86-19 5.4.1",
-                         source="E KSE KT (mean E)", status="memory"),
-             FactorTrace(symbol="limit", value=f"L/{row['ratio']}", clause="NBC Table 9.4.3.1 / CSA O86-19 5.4.2",
-                         source=row["description"], status=row["status"])]
-    return DeflectionCheck(delta_mm=delta, limit_mm=limit, utilisation=util, case=label, element=element,
-                           clause="CSA O86-19 5.4.2; NBC 9.4.3.1", trace=trace)
+    trace = [
+        FactorTrace(
+            symbol="ES", value=es, unit="MPa", clause="CSA O86-19 5.4.1", source="E KSE KT (mean E)", status="memory"
+        ),
+        FactorTrace(
+            symbol="limit",
+            value=f"L/{row['ratio']}",
+            clause="NBC Table 9.4.3.1 / CSA O86-19 5.4.2",
+            source=row["description"],
+            status=row["status"],
+        ),
+    ]
+    return DeflectionCheck(
+        delta_mm=delta,
+        limit_mm=limit,
+        utilisation=util,
+        case=label,
+        element=element,
+        clause="CSA O86-19 5.4.2; NBC 9.4.3.1",
+        trace=trace,
+    )
 
 
 def recheck(beam: Beam) -> Recheck:
@@ -454,7 +632,13 @@ def recheck(beam: Beam) -> Recheck:
     utils = [r.utilisation for r in bending if r.utilisation is not None]
     utils += [shear.utilisation, deflection.utilisation] + [b.utilisation for b in bearing]
     return Recheck(
-        mark=beam.mark, status=overall_status(bending, findings), bending=bending, shear=shear,
-        bearing=bearing, deflection=deflection, findings=findings,
-        governing_utilisation=max(utils) if utils else None, material=beam.material.value,
+        mark=beam.mark,
+        status=overall_status(bending, findings),
+        bending=bending,
+        shear=shear,
+        bearing=bearing,
+        deflection=deflection,
+        findings=findings,
+        governing_utilisation=max(utils) if utils else None,
+        material=beam.material.value,
     )

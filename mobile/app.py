@@ -58,11 +58,24 @@ _FONTS = Path(__file__).resolve().parents[1] / "reports" / "fonts"
 LabelBase.register(DEFAULT_FONT, str(_FONTS / "DejaVuSans.ttf"), fn_bold=str(_FONTS / "DejaVuSans-Bold.ttf"))
 # background, text, button, button text, input, alert text, caution band
 THEMES = {
-    "sun": dict(bg=(1, 1, 1, 1), fg=(0, 0, 0, 1), button=(0.13, 0.2, 0.35, 1), button_fg=(1, 1, 1, 1),
-                input=(1, 1, 0.94, 1), alert=(0.7, 0, 0, 1), band=(1, 0.93, 0.7, 1)),
-    "dim": dict(bg=(0.07, 0.07, 0.08, 1), fg=(0.86, 0.84, 0.78, 1), button=(0.2, 0.22, 0.26, 1),
-                button_fg=(0.9, 0.88, 0.82, 1), input=(0.14, 0.14, 0.15, 1), alert=(1, 0.55, 0.45, 1),
-                band=(0.2, 0.17, 0.1, 1)),
+    "sun": dict(
+        bg=(1, 1, 1, 1),
+        fg=(0, 0, 0, 1),
+        button=(0.13, 0.2, 0.35, 1),
+        button_fg=(1, 1, 1, 1),
+        input=(1, 1, 0.94, 1),
+        alert=(0.7, 0, 0, 1),
+        band=(1, 0.93, 0.7, 1),
+    ),
+    "dim": dict(
+        bg=(0.07, 0.07, 0.08, 1),
+        fg=(0.86, 0.84, 0.78, 1),
+        button=(0.2, 0.22, 0.26, 1),
+        button_fg=(0.9, 0.88, 0.82, 1),
+        input=(0.14, 0.14, 0.15, 1),
+        alert=(1, 0.55, 0.45, 1),
+        band=(0.2, 0.17, 0.1, 1),
+    ),
 }
 PREVIEW_DIR = Path(tempfile.gettempdir()) / "bracewalk-preview"  # page images of the notice being previewed
 TYPING_PAUSE_S = 0.35  # save this long after the last keystroke (and at once on Enter or leaving the field)
@@ -79,9 +92,18 @@ def default_db() -> Path:
 def big_button(text: str, on_release: Any, **kw: Any) -> Button:
     """A 15 mm button in the theme's colours (for rows built in Python)."""
     app = App.get_running_app()
-    b = Button(text=text, font_size=kw.pop("font_size", "19sp"), size_hint_y=None, height=kw.pop("height", "15mm"),
-               background_normal="", background_color=kw.pop("bg", app.theme_button), color=app.theme_button_fg,
-               halign=kw.pop("halign", "left"), valign="middle", **kw)
+    b = Button(
+        text=text,
+        font_size=kw.pop("font_size", "19sp"),
+        size_hint_y=None,
+        height=kw.pop("height", "15mm"),
+        background_normal="",
+        background_color=kw.pop("bg", app.theme_button),
+        color=app.theme_button_fg,
+        halign=kw.pop("halign", "left"),
+        valign="middle",
+        **kw,
+    )
     b.bind(size=lambda w, s: setattr(w, "text_size", (s[0] - dp(16), None)))
     b.bind(on_release=on_release)
     return b
@@ -91,10 +113,12 @@ def info_popup(title: str, lines: list[str]) -> Popup:
     """A readable popup with a Close button (used for recheck traces)."""
     body = BoxLayout(orientation="vertical", spacing=dp(8), padding=dp(8))
     scroll = ScrollView(do_scroll_x=False)
-    text = Label(text="\n".join(lines), font_size="17sp", color=(1, 1, 1, 1), halign="left", valign="top",
-                 size_hint_y=None)
-    text.bind(width=lambda w, v: setattr(w, "text_size", (v, None)),
-              texture_size=lambda w, s: setattr(w, "height", s[1]))
+    text = Label(
+        text="\n".join(lines), font_size="17sp", color=(1, 1, 1, 1), halign="left", valign="top", size_hint_y=None
+    )
+    text.bind(
+        width=lambda w, v: setattr(w, "text_size", (v, None)), texture_size=lambda w, s: setattr(w, "height", s[1])
+    )
     scroll.add_widget(text)
     body.add_widget(scroll)
     popup = Popup(title=title, content=body, size_hint=(0.9, 0.85), title_size="20sp")
@@ -207,8 +231,20 @@ class SitesScreen(Screen):
 
     def create(self) -> None:
         """Create the site from the form and open it."""
-        form = {k: self.ids[f"new_{k}"].text for k in ("name", "address", "permit_number", "project_number",
-                                                           "firm", "dead_kpa", "live_kpa", "snow_kpa", "use")}
+        form = {
+            k: self.ids[f"new_{k}"].text
+            for k in (
+                "name",
+                "address",
+                "permit_number",
+                "project_number",
+                "firm",
+                "dead_kpa",
+                "live_kpa",
+                "snow_kpa",
+                "use",
+            )
+        }
         site = self.vm.create(form)
         self.error_text = "\n".join(self.vm.errors.values())
         if site is not None:
@@ -235,19 +271,33 @@ class SiteScreen(Screen):
         box = self.ids.beam_list
         box.clear_widgets()
         for level, rows in self.vm.groups():
-            box.add_widget(Label(text=f"Level: {level}", font_size="20sp", bold=True, color=app.theme_fg,
-                                 size_hint_y=None, height=dp(40), halign="left", text_size=(None, None)))
+            box.add_widget(
+                Label(
+                    text=f"Level: {level}",
+                    font_size="20sp",
+                    bold=True,
+                    color=app.theme_fg,
+                    size_hint_y=None,
+                    height=dp(40),
+                    halign="left",
+                    text_size=(None, None),
+                )
+            )
             for beam_id, name, status in rows:
-                box.add_widget(big_button(f"{status}      {name}", lambda _b, bid=beam_id: app.open_beam(bid),
-                                          bg=status_colour(status)))
+                box.add_widget(
+                    big_button(
+                        f"{status}      {name}", lambda _b, bid=beam_id: app.open_beam(bid), bg=status_colour(status)
+                    )
+                )
         dbox = self.ids.deficiency_list
         dbox.clear_widgets()
         groups = self.vm.deficiency_groups()
         if not groups:
             dbox.add_widget(Label(text="None open.", color=app.theme_fg, size_hint_y=None, height=dp(40)))
         for label, rows in groups:
-            dbox.add_widget(Label(text=label, font_size="18sp", bold=True, color=app.theme_fg, size_hint_y=None,
-                                  height=dp(34)))
+            dbox.add_widget(
+                Label(text=label, font_size="18sp", bold=True, color=app.theme_fg, size_hint_y=None, height=dp(34))
+            )
             for did, line in rows:
                 dbox.add_widget(big_button(line, lambda _b, d=did: app.open_deficiency(d), font_size="16sp"))
 
@@ -257,8 +307,15 @@ class SiteScreen(Screen):
 
     def start_visit(self) -> None:
         """Start a visit now."""
-        if self.vm.start_visit(self.ids.visit_reviewer.text, self.ids.visit_weather.text, self.ids.visit_scope.text,
-                               self.ids.visit_not_scope.text) is None:
+        if (
+            self.vm.start_visit(
+                self.ids.visit_reviewer.text,
+                self.ids.visit_weather.text,
+                self.ids.visit_scope.text,
+                self.ids.visit_not_scope.text,
+            )
+            is None
+        ):
             self.message = "\n".join(self.vm.errors.values())
             return
         self.message = ""
@@ -266,8 +323,12 @@ class SiteScreen(Screen):
 
     def raise_by_hand(self) -> None:
         """Raise the reviewer's own observation as a numbered deficiency."""
-        number = self.vm.raise_by_hand(self.ids.hand_location.text, self.ids.hand_description.text,
-                                       self.ids.hand_action.text, self.ids.hand_priority.text)
+        number = self.vm.raise_by_hand(
+            self.ids.hand_location.text,
+            self.ids.hand_description.text,
+            self.ids.hand_action.text,
+            self.ids.hand_priority.text,
+        )
         if number is None:
             self.message = "\n".join(self.vm.errors.values())
             return
@@ -327,8 +388,10 @@ class BeamScreen(Screen):
 
     def build_bearings(self, values: dict[str, str]) -> None:
         """One row per support: lateral and rotation as large three-state toggles, and bearing length."""
-        shape = (sorted((k, v) for k, v in values.items() if k.startswith("bearing")),
-                 sorted((k, v) for k, v in self.vm.errors.items() if k.startswith("bearing")))
+        shape = (
+            sorted((k, v) for k, v in values.items() if k.startswith("bearing")),
+            sorted((k, v) for k, v in self.vm.errors.items() if k.startswith("bearing")),
+        )
         if shape == getattr(self, "_bearing_shape", None):
             return
         self._bearing_shape = shape
@@ -336,19 +399,34 @@ class BeamScreen(Screen):
         box.clear_widgets()
         for i in range(1, self.vm.support_count() + 1):
             row = BoxLayout(size_hint_y=None, height="15mm", spacing=dp(6))
-            row.add_widget(Label(text=f"S{i}", font_size="19sp", bold=True, color=App.get_running_app().theme_fg,
-                                 size_hint_x=None, width="12mm"))
+            row.add_widget(
+                Label(
+                    text=f"S{i}",
+                    font_size="19sp",
+                    bold=True,
+                    color=App.get_running_app().theme_fg,
+                    size_hint_x=None,
+                    width="12mm",
+                )
+            )
             for key, word in (("lateral", "lateral"), ("rotation", "rotation")):
                 state = values.get(f"bearing{i}.{key}", "not_visible")
-                b = big_button(f"{word}: {RESTRAINT_WORDS[state]}", lambda _b, n=i, k=key: self.cycle(n, k),
-                               bg=_restraint_colour(state), halign="center", font_size="17sp")
+                b = big_button(
+                    f"{word}: {RESTRAINT_WORDS[state]}",
+                    lambda _b, n=i, k=key: self.cycle(n, k),
+                    bg=_restraint_colour(state),
+                    halign="center",
+                    font_size="17sp",
+                )
                 b.color = (0, 0, 0, 1) if state != "no" else (1, 1, 1, 1)
                 setattr(self, f"bearing{i}_{key}", b)
                 row.add_widget(b)
             length = Factory.BigInput(hint_text="length", size_hint_x=0.3)
             length.text = values.get(f"bearing{i}.length_mm", "")
-            length.bind(text=lambda w, t, n=f"bearing{i}.length_mm": self.typed(n, t),
-                        focus=lambda w, f, n=f"bearing{i}.length_mm": None if f else self.commit(n))
+            length.bind(
+                text=lambda w, t, n=f"bearing{i}.length_mm": self.typed(n, t),
+                focus=lambda w, f, n=f"bearing{i}.length_mm": None if f else self.commit(n),
+            )
             row.add_widget(length)
             box.add_widget(row)
         problems = [f"{k}: {v}" for k, v in self.vm.errors.items() if k.startswith("bearing")]
@@ -408,6 +486,7 @@ class BeamScreen(Screen):
 
     def add_photo(self) -> None:
         """Attach a photo (file chooser on a desktop)."""
+
         def chosen(path: str) -> None:
             self.vm.add_photo(path)
             self.photo_text = f"Photos: {self.vm.photo_count()}"
@@ -461,8 +540,14 @@ class BeamScreen(Screen):
         self._rows: list[tuple[Button, UtilBar | None]] = []
         for _text, util, key in lines[1:]:
             row = BoxLayout(orientation="vertical", size_hint_y=None, height="21mm" if util is not None else "15mm")
-            line = Button(font_size="16sp", color=app.theme_fg, background_normal="", background_color=(0, 0, 0, 0),
-                          halign="left", valign="middle")
+            line = Button(
+                font_size="16sp",
+                color=app.theme_fg,
+                background_normal="",
+                background_color=(0, 0, 0, 0),
+                halign="left",
+                valign="middle",
+            )
             line.bind(size=lambda w, s: setattr(w, "text_size", s))
             if key:
                 line.bind(on_release=lambda b, k=key: info_popup(b.text, self.vm.trace_lines(k)))
@@ -475,25 +560,47 @@ class BeamScreen(Screen):
         self._finding_labels: list[Label] = []
         for index, _text in findings:
             label = Label(font_size="16sp", color=app.theme_fg, size_hint_y=None, halign="left", valign="top")
-            label.bind(width=lambda w, v: setattr(w, "text_size", (v, None)),
-                       texture_size=lambda w, ts: setattr(w, "height", ts[1] + dp(8)))
+            label.bind(
+                width=lambda w, v: setattr(w, "text_size", (v, None)),
+                texture_size=lambda w, ts: setattr(w, "height", ts[1] + dp(8)),
+            )
             panel.add_widget(label)
             self._finding_labels.append(label)
-            panel.add_widget(big_button(f"Raise deficiency from finding {index + 1}",
-                                        lambda _b, i=index: self.raise_finding(i), halign="center"))
+            panel.add_widget(
+                big_button(
+                    f"Raise deficiency from finding {index + 1}",
+                    lambda _b, i=index: self.raise_finding(i),
+                    halign="center",
+                )
+            )
         if getattr(self, "raised_text", ""):
-            panel.add_widget(Label(text=self.raised_text, font_size="18sp", bold=True, color=app.theme_fg,
-                                   size_hint_y=None, height=dp(40)))
+            panel.add_widget(
+                Label(
+                    text=self.raised_text,
+                    font_size="18sp",
+                    bold=True,
+                    color=app.theme_fg,
+                    size_hint_y=None,
+                    height=dp(40),
+                )
+            )
 
 
-STATUS_COLOURS = {"OK": (0.1, 0.4, 0.18, 1), "DEFICIENT": (0.62, 0.3, 0.0, 1), "NOT PERMITTED": (0.45, 0.05, 0.3, 1),
-                  "NOT ESTABLISHED": (0.7, 0.0, 0.0, 1), "NOT YET CHECKED": (0.35, 0.35, 0.38, 1)}
+STATUS_COLOURS = {
+    "OK": (0.1, 0.4, 0.18, 1),
+    "DEFICIENT": (0.62, 0.3, 0.0, 1),
+    "NOT PERMITTED": (0.45, 0.05, 0.3, 1),
+    "NOT ESTABLISHED": (0.7, 0.0, 0.0, 1),
+    "NOT YET CHECKED": (0.35, 0.35, 0.38, 1),
+}
 
 
 def status_colour(label: str) -> tuple[float, float, float, float]:
     """Background for a status label (the label's word and shape carry the meaning; colour only helps)."""
-    return next((c for word, c in STATUS_COLOURS.items() if label.split(" ", 1)[1].startswith(word)),
-                STATUS_COLOURS["NOT YET CHECKED"])
+    return next(
+        (c for word, c in STATUS_COLOURS.items() if label.split(" ", 1)[1].startswith(word)),
+        STATUS_COLOURS["NOT YET CHECKED"],
+    )
 
 
 def _restraint_colour(state: str) -> tuple[float, float, float, float]:
@@ -562,6 +669,7 @@ class DeficiencyScreen(Screen):
 
     def choose_evidence(self) -> None:
         """Pick a photo to attach to the next status move."""
+
         def chosen(path: str) -> None:
             self.evidence = path
             self.evidence_text = f"Photo: {Path(path).name}"
@@ -688,15 +796,33 @@ class SyncScreen(Screen):
         box.clear_widgets()
         conflicts = self.vm.conflicts()
         if not conflicts:
-            box.add_widget(Label(text="No conflicts to review.", font_size="17sp",
-                                 color=App.get_running_app().theme_fg, size_hint_y=None, height=dp(40)))
+            box.add_widget(
+                Label(
+                    text="No conflicts to review.",
+                    font_size="17sp",
+                    color=App.get_running_app().theme_fg,
+                    size_hint_y=None,
+                    height=dp(40),
+                )
+            )
         for cid, line in conflicts:
-            box.add_widget(Label(text=line, font_size="16sp", color=App.get_running_app().theme_fg, size_hint_y=None,
-                                 height=dp(60), halign="left", valign="middle", text_size=(dp(560), None)))
+            box.add_widget(
+                Label(
+                    text=line,
+                    font_size="16sp",
+                    color=App.get_running_app().theme_fg,
+                    size_hint_y=None,
+                    height=dp(60),
+                    halign="left",
+                    valign="middle",
+                    text_size=(dp(560), None),
+                )
+            )
             row = BoxLayout(size_hint_y=None, height="15mm", spacing=dp(6))
             row.add_widget(big_button("Keep as is", lambda _b, c=cid: self.resolve(c, "winner"), halign="center"))
-            row.add_widget(big_button("Use the other value", lambda _b, c=cid: self.resolve(c, "loser"),
-                                      halign="center"))
+            row.add_widget(
+                big_button("Use the other value", lambda _b, c=cid: self.resolve(c, "loser"), halign="center")
+            )
             box.add_widget(row)
 
     def resolve(self, conflict_id: int, keep: str) -> None:
@@ -778,8 +904,14 @@ class BracewalkApp(App):
         for name in SCREENS:
             Builder.load_file(str(KV / f"{name}.kv"))
         sm = ScreenManager(transition=NoTransition())
-        for cls, name in ((SitesScreen, "sites"), (SiteScreen, "site"), (BeamScreen, "beam"),
-                          (DeficiencyScreen, "deficiency"), (NoticeScreen, "notice"), (SyncScreen, "sync")):
+        for cls, name in (
+            (SitesScreen, "sites"),
+            (SiteScreen, "site"),
+            (BeamScreen, "beam"),
+            (DeficiencyScreen, "deficiency"),
+            (NoticeScreen, "notice"),
+            (SyncScreen, "sync"),
+        ):
             sm.add_widget(cls(name=name))
         return sm
 

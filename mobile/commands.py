@@ -49,11 +49,15 @@ def cmd_sync_import(args: argparse.Namespace) -> int:
     if report.outcome == "held":
         print(f"bundle held, not applied: {report.reason}")
         return EXIT_OK
-    print(f"merged {report.ops_new} new ops of {report.ops_total} ({report.ops_total - report.ops_new} already held), "
-          f"{report.blobs_new} blobs; {report.conflicts_new} new conflicts to review")
+    print(
+        f"merged {report.ops_new} new ops of {report.ops_total} ({report.ops_total - report.ops_new} already held), "
+        f"{report.blobs_new} blobs; {report.conflicts_new} new conflicts to review"
+    )
     for c in store.conflicts():
-        print(f"  conflict {c['id']}: {c['entity']} {c['record_id'][:8]} {c['field']}: kept {c['winner_value']}, "
-              f"other value {c['loser_value']}")
+        print(
+            f"  conflict {c['id']}: {c['entity']} {c['record_id'][:8]} {c['field']}: kept {c['winner_value']}, "
+            f"other value {c['loser_value']}"
+        )
     return EXIT_OK
 
 
@@ -108,8 +112,9 @@ def register(sub: Any) -> None:
     p.add_argument("--by", default="Reviewer", help="name of the issuing reviewer")
     p.add_argument("--verify", metavar="FILE.pdf", help="say whether FILE.pdf is exactly an issued notice")
     p.set_defaults(func=cmd_report)
-    sync = sub.add_parser("sync", help="carry changes between devices by file").add_subparsers(dest="sync_command",
-                                                                                               required=True)
+    sync = sub.add_parser("sync", help="carry changes between devices by file").add_subparsers(
+        dest="sync_command", required=True
+    )
     p = sync.add_parser("export", help="write a bundle of changes")
     p.add_argument("--db", required=True)
     p.add_argument("--out", required=True)

@@ -17,8 +17,10 @@ DISTRIBUTION = ["Owner", "General contractor", "Architect (coordinating professi
 
 def observed_text(record: dict[str, object]) -> str:
     """'measured 130 x 456 mm; specified 130 x 494 mm D.Fir-L 24f-E' from a stored beam record."""
-    text = f"{record.get('material')} {record.get('species')} {record.get('grade')}, measured " \
-           f"{record.get('b_mm'):g} x {record.get('d_mm'):g} mm"  # type: ignore[str-format]
+    text = (
+        f"{record.get('material')} {record.get('species')} {record.get('grade')}, measured "
+        f"{record.get('b_mm'):g} x {record.get('d_mm'):g} mm"
+    )  # type: ignore[str-format]
     spec = record.get("specified")
     if isinstance(spec, dict):
         text += f"; drawings: {spec['b_mm']:g} x {spec['d_mm']:g} mm {spec['species']} {spec['grade']}"
@@ -32,8 +34,15 @@ def observed_text(record: dict[str, object]) -> str:
     return text
 
 
-def build_notice(store: Store, site_id: str, number: str, revision: int = 0, change_note: str = "",
-                 issued_on: str | None = None, only: list[str] | None = None) -> tuple[Notice, list[str]]:
+def build_notice(
+    store: Store,
+    site_id: str,
+    number: str,
+    revision: int = 0,
+    change_note: str = "",
+    issued_on: str | None = None,
+    only: list[str] | None = None,
+) -> tuple[Notice, list[str]]:
     """The notice content for a site's open deficiencies (or the ``only`` ones chosen), earlier items carried."""
     site = store.site(site_id)
     visits = store.visits(site_id)
@@ -75,8 +84,14 @@ def _status_words(stage: Stage, cycle: int) -> str:
     return words[stage] + (f", cycle {cycle + 1}" if cycle else "")
 
 
-def issue_notice_for_site(store: Store, site_id: str, out: Path, issued_by: str = "Reviewer",
-                          issued_on: str | None = None, only: list[str] | None = None) -> tuple[IssuedNotice, Path]:
+def issue_notice_for_site(
+    store: Store,
+    site_id: str,
+    out: Path,
+    issued_by: str = "Reviewer",
+    issued_on: str | None = None,
+    only: list[str] | None = None,
+) -> tuple[IssuedNotice, Path]:
     """Render, store (PDF blob + immutable record) and write the notice PDF to ``out``."""
     site = store.site(site_id)
     number = store.next_notice_number(site)
@@ -92,8 +107,17 @@ def reissue(store: Store, previous: IssuedNotice, out: Path, change_note: str, i
     """A new revision of an issued notice that says what changed; the original stays on file."""
     notice, ids = build_notice(store, previous.site_id, previous.number, previous.revision + 1, change_note)
     pdf = render_notice(notice)
-    issued = store.issue_notice(previous.site_id, previous.number, pdf, ids, issued_by, time.strftime("%Y-%m-%d"),
-                                revision=previous.revision + 1, supersedes=previous.id, change_note=change_note)
+    issued = store.issue_notice(
+        previous.site_id,
+        previous.number,
+        pdf,
+        ids,
+        issued_by,
+        time.strftime("%Y-%m-%d"),
+        revision=previous.revision + 1,
+        supersedes=previous.id,
+        change_note=change_note,
+    )
     out.write_bytes(pdf)
     return issued
 

@@ -17,15 +17,20 @@ def recheck_text(r: Recheck) -> str:
         lines.append(
             f"  bending {b.region} ({b.sign}): Lu {_num(b.lu_mm, '.0f')} mm, CB {_num(b.cb, '.2f')}, "
             f"KL {_num(b.kl)}, {size}, Mr {_num(b.mr_knm, '.1f')} kN*m vs Mf {b.mf_knm:.1f} kN*m, "
-            f"utilisation {_num(b.utilisation, '.2f')} [{b.combination}] {b.outcome}")
+            f"utilisation {_num(b.utilisation, '.2f')} [{b.combination}] {b.outcome}"
+        )
     s = r.shear
     lines.append(f"  shear: Vr {s.vr_kn:.1f} kN vs Vf {s.vf_kn:.1f} kN, utilisation {s.utilisation:.2f} ({s.method})")
     for q in r.bearing:
-        lines.append(f"  bearing support {q.support}: Qr {q.qr_kn:.1f} kN vs Qf {q.qf_kn:.1f} kN, "
-                     f"utilisation {q.utilisation:.2f}")
+        lines.append(
+            f"  bearing support {q.support}: Qr {q.qr_kn:.1f} kN vs Qf {q.qf_kn:.1f} kN, "
+            f"utilisation {q.utilisation:.2f}"
+        )
     d = r.deflection
-    lines.append(f"  deflection ({d.case}, {d.element}): {d.delta_mm:.1f} mm vs limit {d.limit_mm:.1f} mm, "
-                 f"utilisation {d.utilisation:.2f}")
+    lines.append(
+        f"  deflection ({d.case}, {d.element}): {d.delta_mm:.1f} mm vs limit {d.limit_mm:.1f} mm, "
+        f"utilisation {d.utilisation:.2f}"
+    )
     for f in r.findings:
         lines.append(f"  [{f.priority.value.upper()}] {f.code}: {f.message}")
         lines.append(f"      action: {f.action} ({f.clause})")

@@ -6,8 +6,10 @@ import re
 from fractions import Fraction
 
 MM_PER_INCH = 25.4
-_FT_IN = re.compile(r"""^\s*(?:(?P<ft>\d+(?:\.\d+)?)\s*(?:'|ft))?\s*(?:(?P<in>\d+(?:\.\d+)?)?\s*"""
-                    r"""(?P<frac>\d+\s*/\s*\d+)?\s*(?:"|in)?)?\s*$""")
+_FT_IN = re.compile(
+    r"""^\s*(?:(?P<ft>\d+(?:\.\d+)?)\s*(?:'|ft))?\s*(?:(?P<in>\d+(?:\.\d+)?)?\s*"""
+    r"""(?P<frac>\d+\s*/\s*\d+)?\s*(?:"|in)?)?\s*$"""
+)
 
 
 def parse_length_mm(text: str) -> float:

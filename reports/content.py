@@ -104,8 +104,13 @@ def sketch_for(beam: Beam) -> Sketch:
     labels = []
     for b in beam.bearings:
         states = {b.lateral, b.rotation}
-        labels.append("NOT restrained" if Restraint.no in states else
-                      "not visible" if Restraint.not_visible in states else "restrained")
+        labels.append(
+            "NOT restrained"
+            if Restraint.no in states
+            else "not visible"
+            if Restraint.not_visible in states
+            else "restrained"
+        )
     top: list[float] = []
     if beam.top_edge.braced_by is TopBracing.purlins and beam.top_edge.fastened and beam.top_edge.spacing_mm:
         for kind, x0, length in elements:
@@ -117,9 +122,15 @@ def sketch_for(beam: Beam) -> Sketch:
     if beam.bottom_edge.braced_by is BottomBracing.braces and beam.bottom_edge.spacing_mm:
         total = x + beam.overhang_right_mm if beam.overhang_right_mm else x
         bottom = [s for s in _range(0.0, total, beam.bottom_edge.spacing_mm)]
-    return Sketch(elements=elements, supports_x=supports, restrained=labels, braces_top_x=top,
-                  braces_bottom_x=bottom, negative=[], decking=beam.top_edge.braced_by is TopBracing.decking
-                  and beam.top_edge.fastened)
+    return Sketch(
+        elements=elements,
+        supports_x=supports,
+        restrained=labels,
+        braces_top_x=top,
+        braces_bottom_x=bottom,
+        negative=[],
+        decking=beam.top_edge.braced_by is TopBracing.decking and beam.top_edge.fastened,
+    )
 
 
 def _range(start: float, stop: float, step: float) -> list[float]:
@@ -134,28 +145,42 @@ def key_numbers(result: Recheck) -> list[tuple[str, str]]:
     """The recheck numbers an item prints (KL, CB, Mr vs Mf per region; shear; deflection)."""
     out = [("status", result.status.value.replace("_", " "))]
     for r in result.bending:
-        kl = "not established" if r.outcome == "not_established" else (
-            "not permitted" if r.outcome == "not_permitted" else f"{r.kl:.3f}")
+        kl = (
+            "not established"
+            if r.outcome == "not_established"
+            else ("not permitted" if r.outcome == "not_permitted" else f"{r.kl:.3f}")
+        )
         cb = "-" if r.cb is None else f"{r.cb:.2f}"
         mr = "-" if r.mr_knm is None else f"{r.mr_knm:.1f}"
         util = "-" if r.utilisation is None else f"{r.utilisation:.2f}"
-        out.append((f"{r.region} ({r.sign})",
-                    f"KL {kl}, CB {cb}, Mr {mr} kN·m vs Mf {r.mf_knm:.1f} kN·m, utilisation {util}"))
-    out.append(("shear", f"Vr {result.shear.vr_kn:.1f} kN vs Vf {result.shear.vf_kn:.1f} kN "
-                         f"({result.shear.utilisation:.2f})"))
+        out.append(
+            (f"{r.region} ({r.sign})", f"KL {kl}, CB {cb}, Mr {mr} kN·m vs Mf {r.mf_knm:.1f} kN·m, utilisation {util}")
+        )
+    out.append(
+        ("shear", f"Vr {result.shear.vr_kn:.1f} kN vs Vf {result.shear.vf_kn:.1f} kN ({result.shear.utilisation:.2f})")
+    )
     d = result.deflection
     out.append(("deflection", f"{d.delta_mm:.1f} mm vs limit {d.limit_mm:.1f} mm ({d.case})"))
     return out
 
 
-def item_for(deficiency: Deficiency, beam: Beam | None, result: Recheck | None, observed: str,
-             photos: list[bytes] | None = None) -> Item:
+def item_for(
+    deficiency: Deficiency, beam: Beam | None, result: Recheck | None, observed: str, photos: list[bytes] | None = None
+) -> Item:
     """Build a notice item from a deficiency and (when it concerns a beam) its recheck."""
-    return Item(number=deficiency.number, location=deficiency.location, observed=observed,
-                finding=deficiency.description, reference=deficiency.reference, action=deficiency.action,
-                priority=deficiency.priority, due=deficiency.due,
-                key_numbers=key_numbers(result) if result is not None else [],
-                photos=photos or [], sketch=_sketch_with_regions(beam, result) if beam is not None else None)
+    return Item(
+        number=deficiency.number,
+        location=deficiency.location,
+        observed=observed,
+        finding=deficiency.description,
+        reference=deficiency.reference,
+        action=deficiency.action,
+        priority=deficiency.priority,
+        due=deficiency.due,
+        key_numbers=key_numbers(result) if result is not None else [],
+        photos=photos or [],
+        sketch=_sketch_with_regions(beam, result) if beam is not None else None,
+    )
 
 
 def _sketch_with_regions(beam: Beam, result: Recheck | None) -> Sketch:
@@ -166,13 +191,24 @@ def _sketch_with_regions(beam: Beam, result: Recheck | None) -> Sketch:
     return replace(sk, negative=negative)
 
 
-def header_from(site: Site, visit: Visit | None, number: str, revision: int, issued_on: str,
-                distribution: list[str]) -> dict[str, object]:
+def header_from(
+    site: Site, visit: Visit | None, number: str, revision: int, issued_on: str, distribution: list[str]
+) -> dict[str, object]:
     """Header fields of a notice from the site and the visit records."""
-    return {"site_name": site.name, "address": site.address, "permit_number": site.permit_number,
-            "project_number": site.project_number, "notice_number": number, "revision": revision,
-            "visit_at": visit.started_at if visit else "", "issued_on": issued_on,
-            "reviewer": visit.reviewer if visit else "", "firm": site.firm, "addressed_to": site.contractor,
-            "distribution": distribution, "weather": visit.weather if visit else "",
-            "scope_reviewed": visit.scope_reviewed if visit else "",
-            "scope_not_reviewed": visit.scope_not_reviewed if visit else ""}
+    return {
+        "site_name": site.name,
+        "address": site.address,
+        "permit_number": site.permit_number,
+        "project_number": site.project_number,
+        "notice_number": number,
+        "revision": revision,
+        "visit_at": visit.started_at if visit else "",
+        "issued_on": issued_on,
+        "reviewer": visit.reviewer if visit else "",
+        "firm": site.firm,
+        "addressed_to": site.contractor,
+        "distribution": distribution,
+        "weather": visit.weather if visit else "",
+        "scope_reviewed": visit.scope_reviewed if visit else "",
+        "scope_not_reviewed": visit.scope_not_reviewed if visit else "",
+    }

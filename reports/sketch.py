@@ -27,8 +27,16 @@ def beam_sketch(sk: Sketch, width_pt: float = 460, height_pt: float = 92) -> Dra
         return margin + mm * scale
 
     for x0, x1 in sk.negative:
-        d.add(Rect(x_of(x0), y - 2, (x1 - x0) * scale, depth + 4, fillColor=colors.Color(0.85, 0.85, 0.85),
-                   strokeColor=None))
+        d.add(
+            Rect(
+                x_of(x0),
+                y - 2,
+                (x1 - x0) * scale,
+                depth + 4,
+                fillColor=colors.Color(0.85, 0.85, 0.85),
+                strokeColor=None,
+            )
+        )
     d.add(Rect(x_of(0), y, total * scale, depth, fillColor=None, strokeColor=colors.black, strokeWidth=1.2))
     if sk.decking:
         d.add(Line(x_of(0), y + depth + 3, x_of(total), y + depth + 3, strokeColor=colors.black, strokeWidth=2))
@@ -53,8 +61,16 @@ def beam_sketch(sk: Sketch, width_pt: float = 460, height_pt: float = 92) -> Dra
         d.add(String(px, y - 26, label, fontName=FONT, fontSize=7, textAnchor="middle"))
     for kind, x0, length in sk.elements:
         mid = x_of(x0 + length / 2)
-        d.add(String(mid, y - 38, f"{'overhang' if kind == 'overhang' else 'span'} {length / 1000:.2f} m",
-                     fontName=FONT, fontSize=7, textAnchor="middle"))
+        d.add(
+            String(
+                mid,
+                y - 38,
+                f"{'overhang' if kind == 'overhang' else 'span'} {length / 1000:.2f} m",
+                fontName=FONT,
+                fontSize=7,
+                textAnchor="middle",
+            )
+        )
     legend = "R = restrained at bearing; NOT R = restraint missing; grey = negative moment (bottom edge in compression)"
     d.add(String(width_pt - margin, height_pt - 7, legend, fontName=FONT, fontSize=6, textAnchor="end"))
     return d

@@ -1,5 +1,5 @@
 """bracewalk storage: SQLite through sqlite-utils, an append-only op log, and bundle sync."""
 
-from storage.api import Store
+from storage.store import Store
 
 __all__ = ["Store"]

@@ -20,23 +20,42 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
-from storage.api import Store
 from storage.db import SCHEMA_VERSION, transaction
 from storage.oplog import OP_KEYS, IntegrityError, Op, ProjectionBatch, apply_op, canonical, insert_op
+from storage.store import Store
 
 FORMAT = "bracewalk-bundle"
 FORMAT_VERSION = 1
 MAX_BUNDLE_BYTES = 512 * 1024 * 1024
 MAX_ENTRY_BYTES = 256 * 1024 * 1024
-MANIFEST_KEYS = {"format", "format_version", "schema_version", "origin", "created_ms", "ranges", "op_count",
-                 "ops_sha256", "blobs", "vector"}
+MANIFEST_KEYS = {
+    "format",
+    "format_version",
+    "schema_version",
+    "origin",
+    "created_ms",
+    "ranges",
+    "op_count",
+    "ops_sha256",
+    "blobs",
+    "vector",
+}
 
 
 Progress = Callable[[float, str], None]
 # What zipfile and zlib raise on damaged input: a flipped flag bit reads as "encrypted"
 # (RuntimeError) or an unknown method or version (NotImplementedError); found by flipping every byte.
-ZIP_ERRORS = (zipfile.BadZipFile, zipfile.LargeZipFile, OSError, EOFError, ValueError, KeyError, NotImplementedError,
-              RuntimeError, zlib.error)
+ZIP_ERRORS = (
+    zipfile.BadZipFile,
+    zipfile.LargeZipFile,
+    OSError,
+    EOFError,
+    ValueError,
+    KeyError,
+    NotImplementedError,
+    RuntimeError,
+    zlib.error,
+)
 PROGRESS_EVERY = 250
 
 
@@ -65,8 +84,9 @@ def _now() -> str:
     return time.strftime("%Y-%m-%dT%H:%M:%SZ", time.gmtime())
 
 
-def export_bundle(store: Store, out: str | Path, peer: str | None = None,
-                  progress: Progress | None = None) -> dict[str, Any]:
+def export_bundle(
+    store: Store, out: str | Path, peer: str | None = None, progress: Progress | None = None
+) -> dict[str, Any]:
     """Write the ops ``peer`` has not seen (all ops when peer is None) and their blobs to ``out``.
 
     ``progress(fraction, what)`` is called as the work goes (for a progress bar).
@@ -96,10 +116,18 @@ def export_bundle(store: Store, out: str | Path, peer: str | None = None,
     body = ("\n".join(lines) + ("\n" if lines else "")).encode()
     blobs: list[dict[str, Any]] = [{"sha256": s, "size": store.blob_path(s).stat().st_size} for s in sorted(shas)]
     vector = dict(store.db.execute("SELECT origin, seq FROM seen").fetchall())
-    manifest = {"format": FORMAT, "format_version": FORMAT_VERSION, "schema_version": SCHEMA_VERSION,
-                "origin": store.device_id, "created_ms": int(time.time() * 1000), "ranges": ranges,
-                "op_count": len(lines), "ops_sha256": hashlib.sha256(body).hexdigest(), "blobs": blobs,
-                "vector": vector}
+    manifest = {
+        "format": FORMAT,
+        "format_version": FORMAT_VERSION,
+        "schema_version": SCHEMA_VERSION,
+        "origin": store.device_id,
+        "created_ms": int(time.time() * 1000),
+        "ranges": ranges,
+        "op_count": len(lines),
+        "ops_sha256": hashlib.sha256(body).hexdigest(),
+        "blobs": blobs,
+        "vector": vector,
+    }
     mbytes = canonical(manifest).encode()
     mac = hmac.new(store.firm_key, mbytes, hashlib.sha256).hexdigest()
     out = Path(out)
@@ -115,9 +143,11 @@ def export_bundle(store: Store, out: str | Path, peer: str | None = None,
         os.fsync(fh.fileno())
     os.replace(tmp, out)
     with transaction(store.db):
-        store.db.execute("INSERT INTO bundle_log (at, file, bundle_sha256, outcome, reason, ops, applied) "
-                         "VALUES (?, ?, ?, 'exported', '', ?, 0)",
-                         [_now(), str(out), hashlib.sha256(out.read_bytes()).hexdigest(), len(lines)])
+        store.db.execute(
+            "INSERT INTO bundle_log (at, file, bundle_sha256, outcome, reason, ops, applied) "
+            "VALUES (?, ?, ?, 'exported', '', ?, 0)",
+            [_now(), str(out), hashlib.sha256(out.read_bytes()).hexdigest(), len(lines)],
+        )
         if peer:
             for origin, (_, last) in ranges.items():
                 store.db.execute("INSERT OR REPLACE INTO peer_cursor VALUES (?, ?, ?)", [peer, origin, last])
@@ -203,8 +233,10 @@ def _check_ranges(store: Store, manifest: dict[str, Any], ops: list[Op]) -> None
         if seqs != list(range(seqs[0], seqs[-1] + 1)):
             raise BundleRefused(f"ops of {origin[:8]} are not contiguous")
         if seqs[0] > seen.get(origin, 0) + 1:
-            raise BundleRefused(f"gap: this database holds {origin[:8]} up to {seen.get(origin, 0)}, bundle starts "
-                                f"at {seqs[0]}; import the earlier bundle first")
+            raise BundleRefused(
+                f"gap: this database holds {origin[:8]} up to {seen.get(origin, 0)}, bundle starts "
+                f"at {seqs[0]}; import the earlier bundle first"
+            )
 
 
 def import_bundle(store: Store, path: str | Path, progress: Progress | None = None) -> ImportReport:
@@ -226,8 +258,9 @@ def import_bundle(store: Store, path: str | Path, progress: Progress | None = No
         held.parent.mkdir(parents=True, exist_ok=True)
         held.write_bytes(data)
         with transaction(store.db):
-            store.db.execute("INSERT OR REPLACE INTO held_bundle VALUES (?, ?, ?)",
-                             [v.sha, v.manifest["schema_version"], str(held)])
+            store.db.execute(
+                "INSERT OR REPLACE INTO held_bundle VALUES (?, ?, ?)", [v.sha, v.manifest["schema_version"], str(held)]
+            )
         reason = f"written by schema {v.manifest['schema_version']}; this app knows {SCHEMA_VERSION}: held"
         _log(store, path, v.sha, "held", reason, len(v.ops), 0)
         return ImportReport("held", ops_total=len(v.ops), reason=reason)
@@ -260,11 +293,20 @@ def import_bundle(store: Store, path: str | Path, progress: Progress | None = No
     conflicts = store.db.execute("SELECT count(*) FROM conflict").fetchone()[0] - before
     _log(store, path, v.sha, "applied", "", len(v.ops), new)
     tell(1.0, f"merged {new:,} new changes")
-    return ImportReport("applied", ops_total=len(v.ops), ops_new=new, blobs_new=len(v.blobs),
-                        conflicts_new=conflicts, origins=v.manifest["ranges"])
+    return ImportReport(
+        "applied",
+        ops_total=len(v.ops),
+        ops_new=new,
+        blobs_new=len(v.blobs),
+        conflicts_new=conflicts,
+        origins=v.manifest["ranges"],
+    )
 
 
 def _log(store: Store, path: str | Path, sha: str, outcome: str, reason: str, ops: int, applied: int) -> None:
     with transaction(store.db):
-        store.db.execute("INSERT INTO bundle_log (at, file, bundle_sha256, outcome, reason, ops, applied) "
-                         "VALUES (?, ?, ?, ?, ?, ?, ?)", [_now(), str(path), sha, outcome, reason, ops, applied])
+        store.db.execute(
+            "INSERT INTO bundle_log (at, file, bundle_sha256, outcome, reason, ops, applied) "
+            "VALUES (?, ?, ?, ?, ?, ?, ?)",
+            [_now(), str(path), sha, outcome, reason, ops, applied],
+        )

@@ -11,8 +11,13 @@ def uuid7(now_ms: int | None = None) -> str:
     """A UUIDv7 (RFC 9562): 48-bit Unix ms, version 7, variant 10, random bits; as text."""
     ms = int(time.time() * 1000) if now_ms is None else now_ms
     rand = int.from_bytes(os.urandom(10), "big")
-    value = (ms & 0xFFFF_FFFF_FFFF) << 80 | 0x7 << 76 | ((rand >> 68) & 0xFFF) << 64 | 0b10 << 62 | (
-        rand & 0x3FFF_FFFF_FFFF_FFFF)
+    value = (
+        (ms & 0xFFFF_FFFF_FFFF) << 80
+        | 0x7 << 76
+        | ((rand >> 68) & 0xFFF) << 64
+        | 0b10 << 62
+        | (rand & 0x3FFF_FFFF_FFFF_FFFF)
+    )
     return str(uuid.UUID(int=value))
 
 

@@ -51,9 +51,18 @@ class Op:
 
     def row(self) -> dict[str, Any]:
         """The op as a row of the ``op`` table."""
-        return {"origin": self.origin, "seq": self.seq, "hlc": self.hlc, "entity": self.entity,
-                "record_id": self.record_id, "kind": self.kind, "payload": canonical(self.payload),
-                "base": canonical(self.base), "schema_version": self.schema_version, "wall_ms": self.wall_ms}
+        return {
+            "origin": self.origin,
+            "seq": self.seq,
+            "hlc": self.hlc,
+            "entity": self.entity,
+            "record_id": self.record_id,
+            "kind": self.kind,
+            "payload": canonical(self.payload),
+            "base": canonical(self.base),
+            "schema_version": self.schema_version,
+            "wall_ms": self.wall_ms,
+        }
 
     @classmethod
     def from_row(cls, row: dict[str, Any]) -> Op:
@@ -62,9 +71,18 @@ class Op:
             raise ValueError(f"op keys {sorted(row)} differ from {sorted(OP_KEYS)}")
         payload = row["payload"] if isinstance(row["payload"], dict) else json.loads(row["payload"])
         base = row["base"] if isinstance(row["base"], dict) else json.loads(row["base"])
-        op = cls(origin=str(row["origin"]), seq=int(row["seq"]), hlc=int(row["hlc"]), entity=str(row["entity"]),
-                 record_id=str(row["record_id"]), kind=str(row["kind"]), payload=payload, base=base,
-                 schema_version=int(row["schema_version"]), wall_ms=int(row["wall_ms"]))
+        op = cls(
+            origin=str(row["origin"]),
+            seq=int(row["seq"]),
+            hlc=int(row["hlc"]),
+            entity=str(row["entity"]),
+            record_id=str(row["record_id"]),
+            kind=str(row["kind"]),
+            payload=payload,
+            base=base,
+            schema_version=int(row["schema_version"]),
+            wall_ms=int(row["wall_ms"]),
+        )
         op.validate()
         return op
 
@@ -153,8 +171,9 @@ class ProjectionBatch:
             self.db.execute("INSERT OR REPLACE INTO seen VALUES (?, ?)", [origin, seq])
 
 
-def apply_op(db: sqlite_utils.Database, op: Op, record_conflicts: bool = True,
-             batch: ProjectionBatch | None = None) -> None:
+def apply_op(
+    db: sqlite_utils.Database, op: Op, record_conflicts: bool = True, batch: ProjectionBatch | None = None
+) -> None:
     """Merge one op into the projections (inside the caller's transaction; ``batch`` defers the writes)."""
     rows = batch or _Direct(db)
     if op.kind == "set":
@@ -184,8 +203,10 @@ def _apply_set(db: sqlite_utils.Database, op: Op, record_conflicts: bool, rows: 
     new = (op.hlc, op.origin)
     changed = False
     for field, value in op.payload.items():
-        row = db.execute("SELECT hlc, origin FROM field_stamp WHERE entity=? AND record_id=? AND field=?",
-                         [op.entity, op.record_id, field]).fetchone()
+        row = db.execute(
+            "SELECT hlc, origin FROM field_stamp WHERE entity=? AND record_id=? AND field=?",
+            [op.entity, op.record_id, field],
+        ).fetchone()
         current = (row[0], row[1]) if row else None
         base = op.base.get(field)
         base_t = (base[0], base[1]) if base else None
@@ -194,23 +215,35 @@ def _apply_set(db: sqlite_utils.Database, op: Op, record_conflicts: bool, rows: 
         if current is None or new > current:
             data[field] = value
             changed = True
-            db.execute("INSERT OR REPLACE INTO field_stamp VALUES (?, ?, ?, ?, ?)",
-                       [op.entity, op.record_id, field, op.hlc, op.origin])
+            db.execute(
+                "INSERT OR REPLACE INTO field_stamp VALUES (?, ?, ?, ?, ?)",
+                [op.entity, op.record_id, field, op.hlc, op.origin],
+            )
     if changed:
         rows.store(op.entity, op.record_id, data, None)
 
 
-def _record_conflict(db: sqlite_utils.Database, op: Op, field: str, value: Any, current: tuple[int, str],
-                     current_value: Any, incoming_wins: bool) -> None:
-    cur_seq = db.execute("SELECT seq FROM op WHERE origin=? AND hlc=? AND entity=? AND record_id=?",
-                         [current[1], current[0], op.entity, op.record_id]).fetchone()
+def _record_conflict(
+    db: sqlite_utils.Database,
+    op: Op,
+    field: str,
+    value: Any,
+    current: tuple[int, str],
+    current_value: Any,
+    incoming_wins: bool,
+) -> None:
+    cur_seq = db.execute(
+        "SELECT seq FROM op WHERE origin=? AND hlc=? AND entity=? AND record_id=?",
+        [current[1], current[0], op.entity, op.record_id],
+    ).fetchone()
     cur = (current[1], cur_seq[0] if cur_seq else None, canonical(current_value))
     inc = (op.origin, op.seq, canonical(value))
     winner, loser = (inc, cur) if incoming_wins else (cur, inc)
     db.execute(
         "INSERT INTO conflict (entity, record_id, field, winner_origin, winner_seq, winner_value, loser_origin, "
         "loser_seq, loser_value, detected_at, resolved_by) VALUES (?,?,?,?,?,?,?,?,?,?,NULL)",
-        [op.entity, op.record_id, field, *winner, *loser, _now()])
+        [op.entity, op.record_id, field, *winner, *loser, _now()],
+    )
 
 
 def _apply_insert(op: Op, rows: ProjectionBatch | _Direct) -> None:
@@ -244,16 +277,18 @@ def insert_op(db: sqlite_utils.Database, op: Op, batch: ProjectionBatch | None =
     With a ``batch`` the contiguous high-water mark (table ``seen``) is kept in memory and written
     by ``batch.flush()``.
     """
-    row = db.execute("SELECT hlc, entity, record_id, kind, payload, base FROM op WHERE origin=? AND seq=?",
-                     [op.origin, op.seq]).fetchone()
+    row = db.execute(
+        "SELECT hlc, entity, record_id, kind, payload, base FROM op WHERE origin=? AND seq=?", [op.origin, op.seq]
+    ).fetchone()
     if row is not None:
         mine = (op.hlc, op.entity, op.record_id, op.kind, canonical(op.payload), canonical(op.base))
         if tuple(row) != mine:
             raise IntegrityError(f"op {op.origin}:{op.seq} already held with different content")
         return False
     r = op.row()
-    db.execute(f"INSERT INTO op ({', '.join(OP_KEYS)}) VALUES ({', '.join('?' * len(OP_KEYS))})",
-               [r[k] for k in OP_KEYS])
+    db.execute(
+        f"INSERT INTO op ({', '.join(OP_KEYS)}) VALUES ({', '.join('?' * len(OP_KEYS))})", [r[k] for k in OP_KEYS]
+    )
     if batch is not None:
         batch.advance_seen(op.origin, op.seq)
         return True

@@ -17,10 +17,17 @@ ROOT = Path(__file__).resolve().parents[1]
 def test_bench_quick_prints_every_row():
     env = dict(os.environ, PYTHONPATH=str(ROOT))
     env.pop("DISPLAY", None)  # the app bench starts its own Xvfb
-    proc = subprocess.run([sys.executable, "-m", "bench", "--quick"], cwd=ROOT, env=env, capture_output=True,
-                          text=True, timeout=900)
+    proc = subprocess.run(
+        [sys.executable, "-m", "bench", "--quick"], cwd=ROOT, env=env, capture_output=True, text=True, timeout=900
+    )
     assert proc.returncode == 0, proc.stdout[-3000:] + proc.stderr[-3000:]
-    for what in ("recheck, simple span", "recheck, 3-span continuous", "sync export+import", "notice, 10 items",
-                 "app cold start", "field change to refreshed panel"):
+    for what in (
+        "recheck, simple span",
+        "recheck, 3-span continuous",
+        "sync export+import",
+        "notice, 10 items",
+        "app cold start",
+        "field change to refreshed panel",
+    ):
         assert what in proc.stdout, proc.stdout
     assert "FAILED" not in proc.stdout

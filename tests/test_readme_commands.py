@@ -24,8 +24,13 @@ def readme_commands() -> list[str]:
 
 def fresh_copy(dest: Path) -> Path:
     """The project's files as a clean checkout would have them (tracked and new, not ignored; no .venv)."""
-    files = subprocess.run(["git", "ls-files", "-co", "--exclude-standard", "-z"], cwd=ROOT, check=True,
-                           capture_output=True).stdout.decode().split("\0")
+    files = (
+        subprocess.run(
+            ["git", "ls-files", "-co", "--exclude-standard", "-z"], cwd=ROOT, check=True, capture_output=True
+        )
+        .stdout.decode()
+        .split("\0")
+    )
     for name in filter(None, files):
         src = ROOT / name
         if src.is_file():
@@ -44,14 +49,12 @@ def test_readme_commands_work_literally_in_a_fresh_venv(tmp_path):
     assert not (project / ".venv").exists()
     env = dict(os.environ, **{NESTED: "1"})
     env.pop("VIRTUAL_ENV", None)
-    demo = subprocess.run(["bash", "-c", demo_cmd], cwd=project, env=env, capture_output=True, text=True,
-                          timeout=1800)
+    demo = subprocess.run(["bash", "-c", demo_cmd], cwd=project, env=env, capture_output=True, text=True, timeout=1800)
     assert demo.returncode == 0, demo.stdout[-3000:] + demo.stderr[-3000:]
     assert (project / ".venv" / "bin" / "bracewalk").exists()
     out = project / "demo-out"
     assert list(out.glob("*.pdf")) and list(out.glob("*.bwsync")) and list(out.glob("*.db"))
     assert "RB-5" in demo.stdout  # the demo table lists every beam
-    tests = subprocess.run(["bash", "-c", test_cmd], cwd=project, env=env, capture_output=True, text=True,
-                           timeout=3600)
+    tests = subprocess.run(["bash", "-c", test_cmd], cwd=project, env=env, capture_output=True, text=True, timeout=3600)
     assert tests.returncode == 0, tests.stdout[-5000:] + tests.stderr[-3000:]
     assert re.search(r"\d+ passed", tests.stdout), tests.stdout[-2000:]

@@ -14,8 +14,10 @@ from core.recheck import recheck
 from storage import Store
 from storage.bundle import export_bundle
 
-CAUTION = ("Results support, and never replace, the judgement of the engineer of record; local codes and "
-           "licensed practice govern.")
+CAUTION = (
+    "Results support, and never replace, the judgement of the engineer of record; local codes and "
+    "licensed practice govern."
+)
 
 
 def demo_data() -> dict[str, Any]:
@@ -39,9 +41,11 @@ def demo_photo(label: str) -> bytes:
 
 def line_loads(basis: dict[str, float], tributary_m: float) -> dict[str, float]:
     """Specified line loads (kN/m) = area loads (kPa) x tributary width (m)."""
-    return {"dead_kn_m": round(basis["dead_kpa"] * tributary_m, 3),
-            "live_kn_m": round(basis["live_kpa"] * tributary_m, 3),
-            "snow_kn_m": round(basis["snow_kpa"] * tributary_m, 3)}
+    return {
+        "dead_kn_m": round(basis["dead_kpa"] * tributary_m, 3),
+        "live_kn_m": round(basis["live_kpa"] * tributary_m, 3),
+        "snow_kn_m": round(basis["snow_kpa"] * tributary_m, 3),
+    }
 
 
 def load_demo(store: Store) -> str:
@@ -53,12 +57,24 @@ def load_demo(store: Store) -> str:
         store.start_visit(site.id, **{k: v[k] for k in v if k != "key"})
     for entry in data["beams"]:
         beam = Beam.model_validate(dict(entry["beam"], loads=line_loads(bases[entry["basis"]], entry["tributary_m"])))
-        beam_id = store.save_beam(site.id, beam, {"level": entry["level"], "gridline": entry["gridline"],
-                                                  "tributary_m": entry["tributary_m"], "notes": entry["why"],
-                                                  "visit": entry["visit"]})
+        beam_id = store.save_beam(
+            site.id,
+            beam,
+            {
+                "level": entry["level"],
+                "gridline": entry["gridline"],
+                "tributary_m": entry["tributary_m"],
+                "notes": entry["why"],
+                "visit": entry["visit"],
+            },
+        )
         if entry["beam"]["mark"] in ("RB-5", "RB-8"):
-            store.add_photo(site.id, demo_photo(entry["beam"]["mark"]), beam_id=beam_id,
-                            caption=f"{entry['beam']['mark']} at {entry['gridline']}")
+            store.add_photo(
+                site.id,
+                demo_photo(entry["beam"]["mark"]),
+                beam_id=beam_id,
+                caption=f"{entry['beam']['mark']} at {entry['gridline']}",
+            )
     return site.id
 
 
@@ -72,9 +88,11 @@ def raise_all(store: Store, site_id: str) -> list[tuple[str, Any]]:
             if f.priority.value == "observation":
                 continue
             where = f"{record['level']}, grid {record['gridline']}, {record['mark']}" + (
-                f", {f.region}" if f.region else "")
-            store.raise_deficiency(site_id, beam_id, f.code, f.priority.value, where, f.message,
-                                   f"S-201 rev 2; {f.clause}", f.action)
+                f", {f.region}" if f.region else ""
+            )
+            store.raise_deficiency(
+                site_id, beam_id, f.code, f.priority.value, where, f.message, f"S-201 rev 2; {f.clause}", f.action
+            )
     return rows
 
 
@@ -90,8 +108,9 @@ def run_demo(out: Path) -> int:
     store = Store(db_path)
     site_id = load_demo(store)
     rows = raise_all(store, site_id)
-    notice, pdf_path = issue_notice_for_site(store, site_id, out / "notice.pdf", issued_by="Priya Okonkwo-Lind, P.Eng.",
-                                             issued_on="2026-11-30")
+    notice, pdf_path = issue_notice_for_site(
+        store, site_id, out / "notice.pdf", issued_by="Priya Okonkwo-Lind, P.Eng.", issued_on="2026-11-30"
+    )
     bundle = out / "cedar-hollow.bwsync"
     export_bundle(store, bundle)
     print(f"{'mark':<6} {'status':<16} {'util':>6}  findings")
@@ -100,8 +119,10 @@ def run_demo(out: Path) -> int:
         codes = ", ".join(f"{f.code} ({f.priority.value})" for f in result.findings) or "-"
         print(f"{record['mark']:<6} {result.status.value:<16} {util:>6}  {codes}")
     print()
-    print(f"deficiencies raised: {len(store.deficiencies(site_id))}; notice {notice.number} "
-          f"({len(notice.deficiency_ids)} items)")
+    print(
+        f"deficiencies raised: {len(store.deficiencies(site_id))}; notice {notice.number} "
+        f"({len(notice.deficiency_ids)} items)"
+    )
     print(f"database: {db_path}")
     print(f"notice:   {pdf_path}")
     print(f"bundle:   {bundle}")

@@ -12,5 +12,13 @@ from mobile.viewmodels.site import SiteViewModel
 from mobile.viewmodels.sites import SitesViewModel
 from mobile.viewmodels.sync import SyncViewModel
 
-__all__ = ["STATUS_WORDS", "BeamFormViewModel", "DeficiencyViewModel", "NoticeViewModel", "SiteViewModel",
-           "SitesViewModel", "SyncViewModel", "status_label"]
+__all__ = [
+    "STATUS_WORDS",
+    "BeamFormViewModel",
+    "DeficiencyViewModel",
+    "NoticeViewModel",
+    "SiteViewModel",
+    "SitesViewModel",
+    "SyncViewModel",
+    "status_label",
+]

@@ -31,9 +31,13 @@ LENGTH_FIELDS = {"b_mm", "d_mm", "overhang_left_mm", "overhang_right_mm", "purli
 LOAD_FIELDS = ("dead_kn_m", "live_kn_m", "snow_kn_m")
 TEXT_ONLY = ("level", "gridline", "notes")
 PICKERS: dict[str, tuple[str, ...]] = {
-    "material": ("glulam", "sawn"), "top_braced_by": ("none", "purlins", "decking"), "top_fastened": ("yes", "no"),
-    "bottom_braced_by": ("none", "braces"), "service": ("dry", "wet"),
-    "use": ("roof_no_ceiling", "roof_other", "roof_plaster", "floor"), "top_stamp": ("up", "down", "not_visible"),
+    "material": ("glulam", "sawn"),
+    "top_braced_by": ("none", "purlins", "decking"),
+    "top_fastened": ("yes", "no"),
+    "bottom_braced_by": ("none", "braces"),
+    "service": ("dry", "wet"),
+    "use": ("roof_no_ceiling", "roof_other", "roof_plaster", "floor"),
+    "top_stamp": ("up", "down", "not_visible"),
     "restraint": ("yes", "no", "not_visible"),
 }
 RESTRAINT_WORDS = {"yes": "YES, restrained", "no": "NO restraint", "not_visible": "NOT VISIBLE"}
@@ -69,19 +73,27 @@ class BeamFormViewModel:
         top, bottom = rec.get("top_edge") or {}, rec.get("bottom_edge") or {}
         spec = rec.get("specified")
         out = {
-            "mark": _fmt(rec.get("mark")), "level": _fmt(rec.get("level")), "gridline": _fmt(rec.get("gridline")),
-            "notes": _fmt(rec.get("notes")), "material": _fmt(rec.get("material")),
-            "species": _fmt(rec.get("species")), "grade": _fmt(rec.get("grade")),
-            "b_mm": _fmt(rec.get("b_mm")), "d_mm": _fmt(rec.get("d_mm")),
+            "mark": _fmt(rec.get("mark")),
+            "level": _fmt(rec.get("level")),
+            "gridline": _fmt(rec.get("gridline")),
+            "notes": _fmt(rec.get("notes")),
+            "material": _fmt(rec.get("material")),
+            "species": _fmt(rec.get("species")),
+            "grade": _fmt(rec.get("grade")),
+            "b_mm": _fmt(rec.get("b_mm")),
+            "d_mm": _fmt(rec.get("d_mm")),
             "spans": ", ".join(_fmt(s) for s in rec.get("spans_mm", [])),
             "overhang_left_mm": _fmt(rec.get("overhang_left_mm", 0)),
             "overhang_right_mm": _fmt(rec.get("overhang_right_mm", 0)),
-            "top_braced_by": _fmt(top.get("braced_by", "none")), "purlin_spacing_mm": _fmt(top.get("spacing_mm")),
+            "top_braced_by": _fmt(top.get("braced_by", "none")),
+            "purlin_spacing_mm": _fmt(top.get("spacing_mm")),
             "top_fastened": "yes" if top.get("fastened", True) else "no",
             "bottom_braced_by": _fmt(bottom.get("braced_by", "none")),
             "bottom_spacing_mm": _fmt(bottom.get("spacing_mm")),
-            "tributary_m": _fmt(rec.get("tributary_m")), "service": _fmt(rec.get("service", "dry")),
-            "use": _fmt(rec.get("use", "roof_no_ceiling")), "top_stamp": _fmt(rec.get("top_stamp", "up")),
+            "tributary_m": _fmt(rec.get("tributary_m")),
+            "service": _fmt(rec.get("service", "dry")),
+            "use": _fmt(rec.get("use", "roof_no_ceiling")),
+            "top_stamp": _fmt(rec.get("top_stamp", "up")),
             "specified_size": f"{spec['b_mm']:g} x {spec['d_mm']:g}" if isinstance(spec, dict) else "",
         }
         loads = rec.get("loads") or {}
@@ -137,11 +149,16 @@ class BeamFormViewModel:
                 raise ValueError("spans: enter one length per span, separated by commas (7200, 7200)")
             bearings = [dict(b) for b in rec.get("bearings", [])]
             while len(bearings) < len(spans) + 1:
-                bearings.append({"lateral": "not_visible", "rotation": "not_visible",
-                                 "length_mm": bearings[-1]["length_mm"] if bearings else 140})
+                bearings.append(
+                    {
+                        "lateral": "not_visible",
+                        "rotation": "not_visible",
+                        "length_mm": bearings[-1]["length_mm"] if bearings else 140,
+                    }
+                )
             return {"spans_mm": spans, "bearings": bearings[: len(spans) + 1]}
         if name.startswith("bearing"):
-            idx, key = name[len("bearing"):].split(".")
+            idx, key = name[len("bearing") :].split(".")
             bearings = [dict(b) for b in rec["bearings"]]
             if not 1 <= int(idx) <= len(bearings):
                 raise ValueError(f"support {idx}: the beam has supports 1 to {len(bearings)}")
@@ -156,15 +173,21 @@ class BeamFormViewModel:
             return {"tributary_m": width, "loads": line_loads_kn_m(self.store.site(self.site_id).design_basis, width)}
         if name == "material":
             material = Material(text)
-            species = rec.get("species") if rec.get("species") in species_allowed(material) else \
-                species_allowed(material)[0]
+            species = (
+                rec.get("species") if rec.get("species") in species_allowed(material) else species_allowed(material)[0]
+            )
             grades = grades_allowed(material, str(species))
-            return {"material": text, "species": species, "grade": rec.get("grade") if rec.get("grade") in grades
-                    else grades[0]}
+            return {
+                "material": text,
+                "species": species,
+                "grade": rec.get("grade") if rec.get("grade") in grades else grades[0],
+            }
         if name == "species":
             grades = grades_allowed(Material(rec.get("material", "glulam")), text)
-            return {"species": text, "grade": rec.get("grade") if rec.get("grade") in grades else
-                    (grades[0] if grades else "")}
+            return {
+                "species": text,
+                "grade": rec.get("grade") if rec.get("grade") in grades else (grades[0] if grades else ""),
+            }
         if name == "top_braced_by":
             top = dict(rec.get("top_edge") or {}, braced_by=text)
             if text != "purlins":
@@ -183,8 +206,14 @@ class BeamFormViewModel:
             m = _SIZE.match(text)
             if not m:
                 raise ValueError("specified_size: enter the drawn size as b x d (130 x 494)")
-            return {"specified": {"b_mm": parse_length_mm(m.group(1)), "d_mm": parse_length_mm(m.group(2)),
-                                  "species": rec.get("species"), "grade": rec.get("grade")}}
+            return {
+                "specified": {
+                    "b_mm": parse_length_mm(m.group(1)),
+                    "d_mm": parse_length_mm(m.group(2)),
+                    "species": rec.get("species"),
+                    "grade": rec.get("grade"),
+                }
+            }
         if name in ("grade", "service", "use", "top_stamp"):
             return {name: text}
         raise ValueError(f"unknown field {name!r}")
@@ -204,8 +233,11 @@ class BeamFormViewModel:
         else:
             self.errors.pop(name, None)
             # the entry that made the beam valid also settles a picker refused for want of it
-            for settled in {name, "top_braced_by" if name == "purlin_spacing_mm" else "",
-                            "bottom_braced_by" if name == "bottom_spacing_mm" else ""} - {""}:
+            for settled in {
+                name,
+                "top_braced_by" if name == "purlin_spacing_mm" else "",
+                "bottom_braced_by" if name == "bottom_spacing_mm" else "",
+            } - {""}:
                 if drafts.pop(settled, None) is not None:
                     self.errors.pop(settled, None)
             changes = {k: v for k, v in changes.items() if rec.get(k) != v}
@@ -274,14 +306,25 @@ class BeamFormViewModel:
             kl = "n/a" if b.kl is None else f"{b.kl:.3f}"
             cb = "n/a" if b.cb is None else f"{b.cb:.1f}"
             mr = "not established" if b.mr_knm is None else f"{b.mr_knm:.1f}"
-            lines.append((f"{b.region} ({b.sign}): KL {kl}  CB {cb}  Mr {mr} vs Mf {b.mf_knm:.1f} kN·m",
-                          b.utilisation, f"bending{i}"))
+            lines.append(
+                (
+                    f"{b.region} ({b.sign}): KL {kl}  CB {cb}  Mr {mr} vs Mf {b.mf_knm:.1f} kN·m",
+                    b.utilisation,
+                    f"bending{i}",
+                )
+            )
         lines.append((f"Shear: Vr {r.shear.vr_kn:.1f} vs Vf {r.shear.vf_kn:.1f} kN", r.shear.utilisation, "shear"))
         for j, q in enumerate(r.bearing):
-            lines.append((f"Bearing S{q.support}: Qr {q.qr_kn:.1f} vs Qf {q.qf_kn:.1f} kN", q.utilisation,
-                          f"bearing{j}"))
-        lines.append((f"Deflection: {r.deflection.delta_mm:.1f} vs {r.deflection.limit_mm:.1f} mm "
-                      f"({r.deflection.case})", r.deflection.utilisation, "deflection"))
+            lines.append(
+                (f"Bearing S{q.support}: Qr {q.qr_kn:.1f} vs Qf {q.qf_kn:.1f} kN", q.utilisation, f"bearing{j}")
+            )
+        lines.append(
+            (
+                f"Deflection: {r.deflection.delta_mm:.1f} vs {r.deflection.limit_mm:.1f} mm ({r.deflection.case})",
+                r.deflection.utilisation,
+                "deflection",
+            )
+        )
         return lines
 
     def trace_lines(self, key: str) -> list[str]:
@@ -291,10 +334,10 @@ class BeamFormViewModel:
             return []
         trace: list[FactorTrace]
         if key.startswith("bending"):
-            check: Any = r.bending[int(key[len("bending"):])]
+            check: Any = r.bending[int(key[len("bending") :])]
             head = f"{check.region}, {check.sign} moment, {check.combination}; {check.clause}"
         elif key.startswith("bearing"):
-            check = r.bearing[int(key[len("bearing"):])]
+            check = r.bearing[int(key[len("bearing") :])]
             head = f"Bearing at support {check.support}, {check.combination}; {check.clause}"
         elif key == "shear":
             check = r.shear
@@ -306,8 +349,12 @@ class BeamFormViewModel:
         out = [head]
         for t in trace:
             value = _fmt(t.value) if not isinstance(t.value, float) else f"{t.value:.4g}"
-            out.append(f"{t.symbol} = {value} {t.unit}".rstrip() + f"   [{t.status}]"
-                       + (f"   {t.clause}" if t.clause else "") + (f"   ({t.source})" if t.source else ""))
+            out.append(
+                f"{t.symbol} = {value} {t.unit}".rstrip()
+                + f"   [{t.status}]"
+                + (f"   {t.clause}" if t.clause else "")
+                + (f"   ({t.source})" if t.source else "")
+            )
         return out
 
     def location_text(self) -> str:
@@ -322,8 +369,9 @@ class BeamFormViewModel:
             raise ValueError("no such finding to raise: the recheck has none at that position")
         f = r.findings[index]
         where = self.location_text() + (f", {f.region}" if f.region else "")
-        d = self.store.raise_deficiency(self.site_id, self.beam_id, f.code, f.priority.value, where, f.message,
-                                        f.clause, f.action)
+        d = self.store.raise_deficiency(
+            self.site_id, self.beam_id, f.code, f.priority.value, where, f.message, f.clause, f.action
+        )
         return d.number
 
 

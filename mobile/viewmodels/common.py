@@ -7,8 +7,13 @@ from pydantic import ValidationError
 from core.records import DesignBasis
 from reports.render import PRIORITY_WORDS, priority_label
 
-STATUS_WORDS = {"ok": ("OK", "●"), "deficient": ("DEFICIENT", "▲"), "not_permitted": ("NOT PERMITTED", "■"),
-                "not_established": ("NOT ESTABLISHED", "✖"), "unchecked": ("NOT YET CHECKED", "○")}
+STATUS_WORDS = {
+    "ok": ("OK", "●"),
+    "deficient": ("DEFICIENT", "▲"),
+    "not_permitted": ("NOT PERMITTED", "■"),
+    "not_established": ("NOT ESTABLISHED", "✖"),
+    "unchecked": ("NOT YET CHECKED", "○"),
+}
 PRIORITY_LABELS = {p: priority_label(p) for p in PRIORITY_WORDS}  # the notice's words and shapes
 STAGE_WORDS = {0: "open", 1: "corrected (contractor reports done)", 2: "verified by reviewer"}
 
@@ -26,5 +31,8 @@ def validation_message(exc: ValidationError) -> str:
 
 def line_loads_kn_m(basis: DesignBasis, tributary_m: float) -> dict[str, float]:
     """Specified line loads, kN/m = design-basis area loads, kPa x tributary width, m (common practice)."""
-    return {"dead_kn_m": round(basis.dead_kpa * tributary_m, 3), "live_kn_m": round(basis.live_kpa * tributary_m, 3),
-            "snow_kn_m": round(basis.snow_kpa * tributary_m, 3)}
+    return {
+        "dead_kn_m": round(basis.dead_kpa * tributary_m, 3),
+        "live_kn_m": round(basis.live_kpa * tributary_m, 3),
+        "snow_kn_m": round(basis.snow_kpa * tributary_m, 3),
+    }

@@ -10,7 +10,7 @@ from core.records import Deficiency, Stage
 from core.results import PRIORITY_ORDER
 from mobile.viewmodels.common import PRIORITY_LABELS, STAGE_WORDS
 from storage import Store
-from storage.api import LifecycleError
+from storage.store import LifecycleError
 
 EDITABLE = ("location", "description", "reference", "action", "priority", "due")
 ROLES = ("reviewer", "contractor", "office")
@@ -94,6 +94,9 @@ class DeficiencyViewModel:
         out = []
         for e in self.store.history(self.deficiency_id):
             word = "opened" if e.stage is Stage.open and e.cycle else STAGE_WORDS[int(e.stage)]
-            out.append(f"{e.at}  {word} (cycle {e.cycle + 1}) by {e.actor} [{e.role}]"
-                       + (f": {e.note}" if e.note else "") + ("  · photo evidence" if e.evidence_sha256 else ""))
+            out.append(
+                f"{e.at}  {word} (cycle {e.cycle + 1}) by {e.actor} [{e.role}]"
+                + (f": {e.note}" if e.note else "")
+                + ("  · photo evidence" if e.evidence_sha256 else "")
+            )
         return out or ["raised; no status moves yet"]

@@ -32,8 +32,10 @@ class NoticeViewModel:
 
     def candidates(self) -> list[tuple[str, str, bool]]:
         """[(deficiency id, line, chosen)] for every open item, most urgent first."""
-        return [(d.id, f"{d.number}  {PRIORITY_LABELS[d.priority]}  {d.location}", d.id in self.chosen)
-                for d in self.store.deficiencies(self.site_id, open_only=True)]
+        return [
+            (d.id, f"{d.number}  {PRIORITY_LABELS[d.priority]}  {d.location}", d.id in self.chosen)
+            for d in self.store.deficiencies(self.site_id, open_only=True)
+        ]
 
     def toggle(self, deficiency_id: str) -> None:
         """Choose or leave out one item."""
@@ -72,16 +74,20 @@ class NoticeViewModel:
             self.message = "Enter the reviewer issuing the notice"
             return None
         out = out_dir / f"notice-{time.strftime('%Y%m%d-%H%M%S')}.pdf"
-        issued, path = issue_notice_for_site(self.store, self.site_id, out, issued_by.strip(),
-                                             only=sorted(self.chosen))
+        issued, path = issue_notice_for_site(self.store, self.site_id, out, issued_by.strip(), only=sorted(self.chosen))
         self.message = f"Issued {issued.number} rev {issued.revision} ({len(issued.deficiency_ids)} items)"
         return path
 
     def issued(self) -> list[tuple[str, str]]:
         """[(notice id, 'number rev n · date · by · items')] of issued notices, read-only."""
-        return [(n.id, f"{n.number} rev {n.revision}  ·  {n.issued_at}  ·  {n.issued_by}  ·  "
-                       f"{len(n.deficiency_ids)} items  ·  SHA-256 {n.pdf_sha256[:12]}")
-                for n in self.store.notices(self.site_id)]
+        return [
+            (
+                n.id,
+                f"{n.number} rev {n.revision}  ·  {n.issued_at}  ·  {n.issued_by}  ·  "
+                f"{len(n.deficiency_ids)} items  ·  SHA-256 {n.pdf_sha256[:12]}",
+            )
+            for n in self.store.notices(self.site_id)
+        ]
 
     def export(self, notice_id: str, folder: Path) -> Path:
         """Write an issued notice's stored PDF into folder (to share); the bytes are checked against the hash."""

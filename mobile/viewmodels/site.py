@@ -14,7 +14,12 @@ from storage import Store
 from storage.clock import uuid7
 
 NEW_BEAM_DEFAULTS: dict[str, Any] = {
-    "material": "glulam", "species": "D.Fir-L", "grade": "24f-E", "b_mm": 130, "d_mm": 456, "spans_mm": [6000],
+    "material": "glulam",
+    "species": "D.Fir-L",
+    "grade": "24f-E",
+    "b_mm": 130,
+    "d_mm": 456,
+    "spans_mm": [6000],
     "bearings": [{"lateral": "not_visible", "rotation": "not_visible", "length_mm": 140}] * 2,
     "top_edge": {"braced_by": "none", "spacing_mm": None, "fastened": True},
 }
@@ -41,16 +46,19 @@ class SiteViewModel:
         out: dict[str, list[tuple[str, str, str]]] = {}
         for beam_id, record in self.store.beams(self.site_id):
             out.setdefault(str(record.get("level") or "level not recorded"), []).append(
-                (beam_id, f"{record.get('mark')}  ·  grid {record.get('gridline') or '?'}",
-                 status_label(self.status_of(beam_id))))
+                (
+                    beam_id,
+                    f"{record.get('mark')}  ·  grid {record.get('gridline') or '?'}",
+                    status_label(self.status_of(beam_id)),
+                )
+            )
         return list(out.items())
 
     def deficiency_groups(self) -> list[tuple[str, list[tuple[str, str]]]]:
         """Open deficiencies by priority, most urgent first: [(priority label, [(id, line)])]."""
         out: dict[str, list[tuple[str, str]]] = {}
         for d in self.store.deficiencies(self.site_id, open_only=True):
-            out.setdefault(d.priority, []).append(
-                (d.id, f"{d.number}  {d.location}  ·  {STAGE_WORDS[int(d.stage)]}"))
+            out.setdefault(d.priority, []).append((d.id, f"{d.number}  {d.location}  ·  {STAGE_WORDS[int(d.stage)]}"))
         return [(PRIORITY_LABELS[p], out[p]) for p in sorted(out, key=PRIORITY_ORDER.__getitem__)]
 
     def open_deficiencies(self) -> list[str]:
@@ -65,16 +73,22 @@ class SiteViewModel:
         v = visits[-1]
         return f"Visit {v.started_at} · {v.reviewer}" + (f" · {v.weather}" if v.weather else "")
 
-    def start_visit(self, reviewer: str, weather: str = "", scope_reviewed: str = "",
-                    scope_not_reviewed: str = "") -> str | None:
+    def start_visit(
+        self, reviewer: str, weather: str = "", scope_reviewed: str = "", scope_not_reviewed: str = ""
+    ) -> str | None:
         """Start a visit now; returns its id, or None with a message when the reviewer is missing."""
         self.errors = {}
         if not reviewer.strip():
             self.errors["reviewer"] = "reviewer: enter the name of the person doing the review"
             return None
-        visit = self.store.start_visit(self.site_id, reviewer.strip(), time.strftime("%Y-%m-%d %H:%M"),
-                                       weather=weather.strip(), scope_reviewed=scope_reviewed.strip(),
-                                       scope_not_reviewed=scope_not_reviewed.strip())
+        visit = self.store.start_visit(
+            self.site_id,
+            reviewer.strip(),
+            time.strftime("%Y-%m-%d %H:%M"),
+            weather=weather.strip(),
+            scope_reviewed=scope_reviewed.strip(),
+            scope_not_reviewed=scope_not_reviewed.strip(),
+        )
         return visit.id
 
     def new_beam(self) -> str:
@@ -101,8 +115,15 @@ class SiteViewModel:
         self.store.save("beam", beam_id, fields)
         return beam_id
 
-    def raise_by_hand(self, location: str, description: str, action: str, priority: str,
-                      beam_id: str | None = None, reference: str = "") -> str | None:
+    def raise_by_hand(
+        self,
+        location: str,
+        description: str,
+        action: str,
+        priority: str,
+        beam_id: str | None = None,
+        reference: str = "",
+    ) -> str | None:
         """A reviewer's own observation as a numbered deficiency; returns its number or None with messages."""
         self.errors = {}
         for name, value in (("location", location), ("description", description), ("action", action)):
@@ -112,7 +133,14 @@ class SiteViewModel:
             self.errors["priority"] = f"priority {priority!r}; allowed: {', '.join(PRIORITY_ORDER)}"
         if self.errors:
             return None
-        d = self.store.raise_deficiency(self.site_id, beam_id, "reviewer_observation", priority, location.strip(),
-                                        description.strip(), reference.strip() or "reviewer's observation",
-                                        action.strip())
+        d = self.store.raise_deficiency(
+            self.site_id,
+            beam_id,
+            "reviewer_observation",
+            priority,
+            location.strip(),
+            description.strip(),
+            reference.strip() or "reviewer's observation",
+            action.strip(),
+        )
         return d.number

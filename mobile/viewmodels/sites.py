@@ -34,8 +34,10 @@ class SitesViewModel:
     def create(self, form: dict[str, str]) -> Site | None:
         """Create a site from the form's text; None with messages in ``errors`` when refused."""
         self.errors = {}
-        basis: dict[str, object] = {"use": form.get("use") or "roof_no_ceiling",
-                                    "drawings": form.get("drawings", "").strip()}
+        basis: dict[str, object] = {
+            "use": form.get("use") or "roof_no_ceiling",
+            "drawings": form.get("drawings", "").strip(),
+        }
         for name in BASIS_FIELDS:
             text = form.get(name, "").strip() or "0"
             try:

@@ -24,8 +24,9 @@ class SyncViewModel:
     def status(self) -> str:
         """'12 changes not yet sent to the office · last sync ...' ."""
         pending = self.store.pending_sync_count(self.peer)
-        return (f"{pending} changes not yet sent to the {self.peer}" if pending else "Everything sent") + \
-            f"  ·  last sync: {self.store.last_sync() or 'never'}  ·  {len(self.store.conflicts())} conflicts to review"
+        return (
+            f"{pending} changes not yet sent to the {self.peer}" if pending else "Everything sent"
+        ) + f"  ·  last sync: {self.store.last_sync() or 'never'}  ·  {len(self.store.conflicts())} conflicts to review"
 
     def export(self, folder: Path, progress: Progress | None = None) -> str:
         """Write a bundle of the changes the peer has not seen into folder; return a summary."""
@@ -46,8 +47,10 @@ class SyncViewModel:
         finally:
             worker.close()
         if report.outcome == "applied":
-            return (f"Merged {report.ops_new} new changes of {report.ops_total}; {report.blobs_new} files; "
-                    f"{report.conflicts_new} conflicts to review")
+            return (
+                f"Merged {report.ops_new} new changes of {report.ops_total}; {report.blobs_new} files; "
+                f"{report.conflicts_new} conflicts to review"
+            )
         if report.outcome == "held":
             return f"Held, not applied: {report.reason}. Update the app, then import again."
         return f"Refused, nothing changed: {report.reason}"
@@ -56,9 +59,14 @@ class SyncViewModel:
         """[(conflict id, 'beam RB-2 · spans_mm: kept [7200] (device A) · other [7000] (device B)')]."""
         out = []
         for c in self.store.conflicts():
-            out.append((int(c["id"]), f"{c['entity']} {self._name(c['entity'], c['record_id'])} · {c['field']}: "
-                        f"kept {_short(c['winner_value'])} (device {str(c['winner_origin'])[-4:].upper()})  ·  "
-                        f"other {_short(c['loser_value'])} (device {str(c['loser_origin'])[-4:].upper()})"))
+            out.append(
+                (
+                    int(c["id"]),
+                    f"{c['entity']} {self._name(c['entity'], c['record_id'])} · {c['field']}: "
+                    f"kept {_short(c['winner_value'])} (device {str(c['winner_origin'])[-4:].upper()})  ·  "
+                    f"other {_short(c['loser_value'])} (device {str(c['loser_origin'])[-4:].upper()})",
+                )
+            )
         return out
 
     def resolve(self, conflict_id: int, keep: str, actor: str) -> None:

@@ -6,23 +6,26 @@ from pydantic import ValidationError
 from tests.core.beams import glulam, sawn
 
 
-@pytest.mark.parametrize("over,field", [
-    ({"b_mm": 0}, "b_mm"),
-    ({"b_mm": -130}, "b_mm"),
-    ({"d_mm": float("nan")}, "d_mm"),
-    ({"spans_mm": [60_001]}, "spans_mm"),
-    ({"spans_mm": []}, "spans_mm"),
-    ({"spans_mm": [7200, 7200]}, "bearings"),
-    ({"grade": "30f-E"}, "grade"),
-    ({"species": "Spruce-Pine"}, "grade"),  # 24f-E does not exist for Spruce-Pine (memory)
-    ({"species": "Oak"}, "species"),
-    ({"top_edge": {"braced_by": "purlins", "spacing_mm": 8000}}, "top_edge.spacing_mm"),
-    ({"top_edge": {"braced_by": "purlins"}}, "top_edge.spacing_mm"),
-    ({"le_case": "magic"}, "le_case"),
-    ({"loads": {"dead_kn_m": -1}}, "dead_kn_m"),
-    ({"overhang_left_mm": -5}, "overhang_left_mm"),
-    ({"colour": "red"}, "colour"),
-])
+@pytest.mark.parametrize(
+    "over,field",
+    [
+        ({"b_mm": 0}, "b_mm"),
+        ({"b_mm": -130}, "b_mm"),
+        ({"d_mm": float("nan")}, "d_mm"),
+        ({"spans_mm": [60_001]}, "spans_mm"),
+        ({"spans_mm": []}, "spans_mm"),
+        ({"spans_mm": [7200, 7200]}, "bearings"),
+        ({"grade": "30f-E"}, "grade"),
+        ({"species": "Spruce-Pine"}, "grade"),  # 24f-E does not exist for Spruce-Pine (memory)
+        ({"species": "Oak"}, "species"),
+        ({"top_edge": {"braced_by": "purlins", "spacing_mm": 8000}}, "top_edge.spacing_mm"),
+        ({"top_edge": {"braced_by": "purlins"}}, "top_edge.spacing_mm"),
+        ({"le_case": "magic"}, "le_case"),
+        ({"loads": {"dead_kn_m": -1}}, "dead_kn_m"),
+        ({"overhang_left_mm": -5}, "overhang_left_mm"),
+        ({"colour": "red"}, "colour"),
+    ],
+)
 def test_invalid_glulam_names_the_field(over, field):
     with pytest.raises(ValueError, match=field.replace(".", r"\.")):
         glulam(**over)
@@ -39,8 +42,12 @@ def test_sawn_timbers_are_out_of_scope():
 
 
 def test_booleans_and_not_visible_accepted_for_restraint():
-    beam = glulam(bearings=[{"lateral": True, "rotation": "not_visible", "length_mm": 140},
-                            {"lateral": False, "rotation": True, "length_mm": 140}])
+    beam = glulam(
+        bearings=[
+            {"lateral": True, "rotation": "not_visible", "length_mm": 140},
+            {"lateral": False, "rotation": True, "length_mm": 140},
+        ]
+    )
     assert beam.bearings[0].rotation.value == "not_visible"
     assert beam.bearings[1].lateral.value == "no"
 

@@ -13,8 +13,14 @@ from core.clauses.stability import critical_slenderness_ck, lateral_stability_kl
 
 
 @settings(max_examples=300, deadline=None)
-@given(le1=st.floats(100, 60_000), grow=st.floats(0, 30_000), b=st.floats(80, 365), d=st.floats(114, 2000),
-       fb=st.floats(8, 40), e=st.floats(6000, 14000))
+@given(
+    le1=st.floats(100, 60_000),
+    grow=st.floats(0, 30_000),
+    b=st.floats(80, 365),
+    d=st.floats(114, 2000),
+    fb=st.floats(8, 40),
+    e=st.floats(6000, 14000),
+)
 def test_kl_in_unit_interval_and_never_increasing_with_le(le1, grow, b, d, fb, e):
     ck = critical_slenderness_ck(e, 1, 1, fb)
     k1 = lateral_stability_kl(slenderness_cb(le1, d, b), ck, e, 1, 1, fb)
@@ -30,8 +36,13 @@ def test_kl_in_unit_interval_and_never_increasing_with_le(le1, grow, b, d, fb, e
 
 
 @settings(max_examples=300, deadline=None)
-@given(b=st.floats(80, 365), d=st.floats(114, 2000), length=st.floats(500, 40_000), kl=st.floats(0.01, 1),
-       fb=st.floats(8, 40))
+@given(
+    b=st.floats(80, 365),
+    d=st.floats(114, 2000),
+    length=st.floats(500, 40_000),
+    kl=st.floats(0.01, 1),
+    fb=st.floats(8, 40),
+)
 def test_mr_never_above_phi_fb_s_max_kzbg_1(b, d, length, kl, fb):
     s = b * d * d / 6
     kzbg = size_factor_kzbg(b, d, length)
@@ -60,10 +71,17 @@ def beams(draw):
     if top == "purlins":
         top_edge["spacing_mm"] = draw(st.floats(300, min(spans) if len(spans) else 1000))
     data = {
-        "mark": "P", "material": material, "species": species, "grade": grade, "b_mm": b, "d_mm": d,
+        "mark": "P",
+        "material": material,
+        "species": species,
+        "grade": grade,
+        "b_mm": b,
+        "d_mm": d,
         "spans_mm": spans,
-        "bearings": [{"lateral": draw(restraint), "rotation": draw(restraint), "length_mm": draw(st.floats(38, 300))}
-                     for _ in range(len(spans) + 1)],
+        "bearings": [
+            {"lateral": draw(restraint), "rotation": draw(restraint), "length_mm": draw(st.floats(38, 300))}
+            for _ in range(len(spans) + 1)
+        ],
         "top_edge": top_edge,
         "loads": {k: draw(st.floats(0, 30)) for k in ("dead_kn_m", "live_kn_m", "snow_kn_m")},
         "overhang_left_mm": draw(st.sampled_from([0, 0, 900, 2400])),
@@ -90,8 +108,11 @@ def test_every_valid_beam_gives_a_result_or_typed_outcome(data):
 
 
 @settings(max_examples=200, deadline=None)
-@given(data=beams(), field=st.sampled_from(["b_mm", "d_mm", "spans_mm", "bearings", "grade", "loads"]),
-       bad=st.sampled_from([-1, 0, float("nan"), "x", None, 1e9]))
+@given(
+    data=beams(),
+    field=st.sampled_from(["b_mm", "d_mm", "spans_mm", "bearings", "grade", "loads"]),
+    bad=st.sampled_from([-1, 0, float("nan"), "x", None, 1e9]),
+)
 def test_every_invalid_beam_gives_value_error_naming_a_field(data, field, bad):
     data = dict(data)
     data[field] = bad

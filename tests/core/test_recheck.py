@@ -24,8 +24,14 @@ def test_simple_span_mf_is_wl2_over_8_and_kl_matches_limitstates():
 
 def test_missing_rotation_restraint_is_not_established_and_immediate():
     # ARCHITECTURE: capacity "not established", never computed as if restrained (O86-19 7.5.6.3.1)
-    r = recheck(glulam(bearings=[{"lateral": True, "rotation": True, "length_mm": 140},
-                                 {"lateral": True, "rotation": False, "length_mm": 140}]))
+    r = recheck(
+        glulam(
+            bearings=[
+                {"lateral": True, "rotation": True, "length_mm": 140},
+                {"lateral": True, "rotation": False, "length_mm": 140},
+            ]
+        )
+    )
     assert r.status.value == "not_established"
     assert r.bending[0].kl is None and r.bending[0].mr_knm is None
     f = r.findings[0]
@@ -48,8 +54,7 @@ def test_slenderness_over_50_not_permitted():
 
 def test_two_span_hogging_zone_uses_bottom_edge_and_negative_strength():
     # reference 1.1 / 1.4: negative moment -> bottom edge in compression, fb negative (23.0 for 24f-E)
-    r = recheck(glulam(spans_mm=[7200, 7200], bearings=[{"lateral": True, "rotation": True,
-                                                          "length_mm": 140}] * 3))
+    r = recheck(glulam(spans_mm=[7200, 7200], bearings=[{"lateral": True, "rotation": True, "length_mm": 140}] * 3))
     neg = [b for b in r.bending if b.sign == "negative"]
     assert neg and neg[0].region == "support 2"
     assert "bottom edge" in neg[0].compression_edge
@@ -99,8 +104,7 @@ def test_overhang_region_named_and_negative():
 
 def test_substitution_of_smaller_standard_glulam():
     # CWC standard widths: 80 is the next width down from 130 (field practice 4b: a substitution)
-    r = recheck(glulam(b_mm=80, d_mm=456, specified={"b_mm": 130, "d_mm": 456, "species": "D.Fir-L",
-                                                    "grade": "24f-E"}))
+    r = recheck(glulam(b_mm=80, d_mm=456, specified={"b_mm": 130, "d_mm": 456, "species": "D.Fir-L", "grade": "24f-E"}))
     assert "substitution" in [f.code for f in r.findings]
 
 
@@ -112,6 +116,7 @@ def test_undersize_beyond_tolerance():
 def test_kd_standard_term_formula_with_heavy_dead_load():
     # O86-19 5.3.2.3 (memory): KD = 1 - 0.5 log10(PL/PS) when PL > PS
     import math
+
     r = recheck(glulam(loads={"dead_kn_m": 8.0, "live_kn_m": 0.0, "snow_kn_m": 2.0}, self_weight=False))
     gov = r.bending[0]
     assert gov.combination == "1.25D + 1.5S"  # 13.0/0.699 = 18.6 beats 1.4D: 11.2/0.65 = 17.2
@@ -122,8 +127,24 @@ def test_every_contract_key_present():
     data = recheck(glulam()).to_json_dict()
     for key in ("mark", "status", "bending", "shear", "bearing", "deflection", "findings"):
         assert key in data
-    for key in ("region", "sign", "lu_mm", "le_mm", "le_factor", "cb", "ck", "kl", "kzbg", "fb_mpa", "kd",
-                "mr_knm", "mf_knm", "utilisation", "combination", "clause"):
+    for key in (
+        "region",
+        "sign",
+        "lu_mm",
+        "le_mm",
+        "le_factor",
+        "cb",
+        "ck",
+        "kl",
+        "kzbg",
+        "fb_mpa",
+        "kd",
+        "mr_knm",
+        "mf_knm",
+        "utilisation",
+        "combination",
+        "clause",
+    ):
         assert key in data["bending"][0]
     assert set(data["shear"]) >= {"vr_kn", "vf_kn", "utilisation"}
     assert set(data["bearing"][0]) >= {"support", "qr_kn", "qf_kn", "utilisation"}

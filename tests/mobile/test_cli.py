@@ -10,8 +10,9 @@ EXAMPLE = ROOT / "examples" / "beam_r2_b4.json"
 
 
 def run(*args, stdin=None):
-    return subprocess.run([sys.executable, "-m", "mobile.cli", *args], capture_output=True, text=True,
-                          input=stdin, cwd=ROOT, timeout=120)
+    return subprocess.run(
+        [sys.executable, "-m", "mobile.cli", *args], capture_output=True, text=True, input=stdin, cwd=ROOT, timeout=120
+    )
 
 
 def test_check_valid_beam_prints_contract_json():
@@ -56,7 +57,9 @@ def test_schema_is_json_schema():
 
 
 def test_check_does_not_import_kivy():
-    code = (f"import sys, mobile.cli as c; c.main(['check', {str(EXAMPLE)!r}]); "
-            "print('KIVY' if 'kivy' in sys.modules else 'NOKIVY')")
+    code = (
+        f"import sys, mobile.cli as c; c.main(['check', {str(EXAMPLE)!r}]); "
+        "print('KIVY' if 'kivy' in sys.modules else 'NOKIVY')"
+    )
     proc = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, cwd=ROOT, timeout=120)
     assert proc.stdout.strip().endswith("NOKIVY")

@@ -42,8 +42,13 @@ def test_demo_statuses_and_findings(tmp_path):
 
 def test_demo_command_writes_db_pdf_bundle(tmp_path):
     out = tmp_path / "demo-out"
-    proc = subprocess.run([sys.executable, "-m", "mobile.cli", "demo", "--out", str(out)], capture_output=True,
-                          text=True, cwd=ROOT, timeout=300)
+    proc = subprocess.run(
+        [sys.executable, "-m", "mobile.cli", "demo", "--out", str(out)],
+        capture_output=True,
+        text=True,
+        cwd=ROOT,
+        timeout=300,
+    )
     assert proc.returncode == 0, proc.stderr
     assert (out / "notice.pdf").stat().st_size > 10_000
     assert (out / "cedar-hollow.bwsync").exists() and (out / "cedar-hollow.db").exists()
@@ -52,24 +57,50 @@ def test_demo_command_writes_db_pdf_bundle(tmp_path):
 
 def test_sync_cli_round_trip_same_digest(tmp_path):
     out = tmp_path / "d"
-    subprocess.run([sys.executable, "-m", "mobile.cli", "demo", "--out", str(out)], check=True, cwd=ROOT,
-                   capture_output=True, timeout=300)
+    subprocess.run(
+        [sys.executable, "-m", "mobile.cli", "demo", "--out", str(out)],
+        check=True,
+        cwd=ROOT,
+        capture_output=True,
+        timeout=300,
+    )
     other = tmp_path / "office.db"
-    imp = subprocess.run([sys.executable, "-m", "mobile.cli", "sync", "import", "--db", str(other),
-                          str(out / "cedar-hollow.bwsync")], capture_output=True, text=True, cwd=ROOT, timeout=300)
+    imp = subprocess.run(
+        [sys.executable, "-m", "mobile.cli", "sync", "import", "--db", str(other), str(out / "cedar-hollow.bwsync")],
+        capture_output=True,
+        text=True,
+        cwd=ROOT,
+        timeout=300,
+    )
     assert imp.returncode == 0 and "merged" in imp.stdout
-    d1 = subprocess.run([sys.executable, "-m", "mobile.cli", "sync", "digest", "--db", str(out / "cedar-hollow.db")],
-                        capture_output=True, text=True, cwd=ROOT).stdout.strip()
-    d2 = subprocess.run([sys.executable, "-m", "mobile.cli", "sync", "digest", "--db", str(other)],
-                        capture_output=True, text=True, cwd=ROOT).stdout.strip()
+    d1 = subprocess.run(
+        [sys.executable, "-m", "mobile.cli", "sync", "digest", "--db", str(out / "cedar-hollow.db")],
+        capture_output=True,
+        text=True,
+        cwd=ROOT,
+    ).stdout.strip()
+    d2 = subprocess.run(
+        [sys.executable, "-m", "mobile.cli", "sync", "digest", "--db", str(other)],
+        capture_output=True,
+        text=True,
+        cwd=ROOT,
+    ).stdout.strip()
     assert d1 == d2 and len(d1) == 64
-    verify = subprocess.run([sys.executable, "-m", "mobile.cli", "report", "--verify", str(out / "notice.pdf"),
-                             "--db", str(other)], capture_output=True, text=True, cwd=ROOT)
+    verify = subprocess.run(
+        [sys.executable, "-m", "mobile.cli", "report", "--verify", str(out / "notice.pdf"), "--db", str(other)],
+        capture_output=True,
+        text=True,
+        cwd=ROOT,
+    )
     assert verify.returncode == 0 and "exactly issued notice" in verify.stdout
     bad = tmp_path / "bad.bwsync"
     raw = bytearray((out / "cedar-hollow.bwsync").read_bytes())
     raw[40] ^= 0xFF
     bad.write_bytes(bytes(raw))
-    refused = subprocess.run([sys.executable, "-m", "mobile.cli", "sync", "import", "--db", str(other), str(bad)],
-                             capture_output=True, text=True, cwd=ROOT)
+    refused = subprocess.run(
+        [sys.executable, "-m", "mobile.cli", "sync", "import", "--db", str(other), str(bad)],
+        capture_output=True,
+        text=True,
+        cwd=ROOT,
+    )
     assert refused.returncode == 1 and "refused" in refused.stderr

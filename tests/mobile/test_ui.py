@@ -18,19 +18,36 @@ import pytest
 
 ROOT = Path(__file__).resolve().parents[2]
 DRIVER = ROOT / "tests" / "mobile" / "ui_drive.py"
-pytestmark = [pytest.mark.ui, pytest.mark.skipif(shutil.which("xvfb-run") is None,
-                                                 reason="xvfb-run not installed (scripts/setup.sh installs it)")]
+pytestmark = [
+    pytest.mark.ui,
+    pytest.mark.skipif(
+        shutil.which("xvfb-run") is None, reason="xvfb-run not installed (scripts/setup.sh installs it)"
+    ),
+]
 
 
 def run_app(db, shots, flow, home, timeout=150, size=(1280, 800)):
     """Run the driver under its own Xvfb in a new process group; on timeout kill the whole group."""
     home.mkdir(parents=True, exist_ok=True)
-    env = {"PATH": "/usr/bin:/bin", "HOME": str(home), "KIVY_NO_ARGS": "1", "KIVY_NO_CONSOLELOG": "1",
-           "PYTHONPATH": str(ROOT), "BRACEWALK_WIDTH": str(size[0]), "BRACEWALK_HEIGHT": str(size[1])}
+    env = {
+        "PATH": "/usr/bin:/bin",
+        "HOME": str(home),
+        "KIVY_NO_ARGS": "1",
+        "KIVY_NO_CONSOLELOG": "1",
+        "PYTHONPATH": str(ROOT),
+        "BRACEWALK_WIDTH": str(size[0]),
+        "BRACEWALK_HEIGHT": str(size[1]),
+    }
     screen = f"-screen 0 {size[0]}x{size[1]}x24"
-    proc = subprocess.Popen(["xvfb-run", "-a", "-s", screen, sys.executable, str(DRIVER), str(db),
-                             str(shots), flow], stdout=subprocess.PIPE, stderr=subprocess.STDOUT, text=True, cwd=ROOT,
-                            env=env, start_new_session=True)
+    proc = subprocess.Popen(
+        ["xvfb-run", "-a", "-s", screen, sys.executable, str(DRIVER), str(db), str(shots), flow],
+        stdout=subprocess.PIPE,
+        stderr=subprocess.STDOUT,
+        text=True,
+        cwd=ROOT,
+        env=env,
+        start_new_session=True,
+    )
     try:
         out, _ = proc.communicate(timeout=timeout)
     except subprocess.TimeoutExpired:

@@ -8,9 +8,17 @@ from mobile.viewmodels import BeamFormViewModel, SiteViewModel
 from storage import Store
 
 
-@pytest.mark.parametrize("text,mm", [("3600", 3600), ("3600 mm", 3600), ("3.6 m", 3600),
-                                     ("11' 9 3/4\"", (11 * 12 + 9.75) * 25.4), ("9 3/4\"", 9.75 * 25.4),
-                                     ("12'", 144 * 25.4)])
+@pytest.mark.parametrize(
+    "text,mm",
+    [
+        ("3600", 3600),
+        ("3600 mm", 3600),
+        ("3.6 m", 3600),
+        ("11' 9 3/4\"", (11 * 12 + 9.75) * 25.4),
+        ('9 3/4"', 9.75 * 25.4),
+        ("12'", 144 * 25.4),
+    ],
+)
 def test_tape_measure_input(text, mm):
     # 1 inch = 25.4 mm exactly (international inch, a fact of the trade)
     assert parse_length_mm(text) == pytest.approx(mm)

@@ -58,6 +58,7 @@ def demo_beam(mark):
 
 
 if FLOW == "main":
+
     @step
     def first_frame():
         pass  # let the first frames draw
@@ -263,6 +264,7 @@ if FLOW == "main":
         assert not small, small
 
 elif FLOW == "portrait":
+
     @step
     def first_frame():
         app.open_site(app.store.sites()[0].id)
@@ -278,6 +280,7 @@ elif FLOW == "portrait":
         shot("14-beam-portrait")
 
 elif FLOW == "type-then-kill":
+
     @step
     def open_beam():
         app.open_site(app.store.sites()[0].id)
@@ -297,6 +300,7 @@ elif FLOW == "type-then-kill":
         os.kill(os.getpid(), signal.SIGKILL)
 
 elif FLOW == "relaunch":
+
     @step
     def open_beam():
         app.open_site(app.store.sites()[0].id)

@@ -37,23 +37,48 @@ def save_pngs(pdf, name):
 
 
 def _notice(items, **over):
-    data = dict(site_name="Cedar Hollow Community Hall", address="48 Larchmont Road", permit_number="BP-2026-0417",
-                project_number="TSR-2611", notice_number="TSR-2611-FR-AB12-001", revision=0,
-                visit_at="2026-11-30 09:15", issued_on="2026-11-30", reviewer="Priya Okonkwo-Lind", firm="Tamarack",
-                addressed_to="Northbeam Builders", distribution=["Owner", "File"], weather="snow",
-                scope_reviewed="Roof", scope_not_reviewed="Mezzanine", items=items)
+    data = dict(
+        site_name="Cedar Hollow Community Hall",
+        address="48 Larchmont Road",
+        permit_number="BP-2026-0417",
+        project_number="TSR-2611",
+        notice_number="TSR-2611-FR-AB12-001",
+        revision=0,
+        visit_at="2026-11-30 09:15",
+        issued_on="2026-11-30",
+        reviewer="Priya Okonkwo-Lind",
+        firm="Tamarack",
+        addressed_to="Northbeam Builders",
+        distribution=["Owner", "File"],
+        weather="snow",
+        scope_reviewed="Roof",
+        scope_not_reviewed="Mezzanine",
+        items=items,
+    )
     data.update(over)
     return Notice(**data)
 
 
 def _item(text="RB-5 at support 2", n=1, photos=None):
-    beam = glulam(bearings=[{"lateral": True, "rotation": True, "length_mm": 140},
-                            {"lateral": True, "rotation": False, "length_mm": 140}])
+    beam = glulam(
+        bearings=[
+            {"lateral": True, "rotation": True, "length_mm": 140},
+            {"lateral": True, "rotation": False, "length_mm": 140},
+        ]
+    )
     r = recheck(beam)
     f = r.findings[0]
-    d = Deficiency(id=f"d{n}", site_id="s", number=f"D-AB12-{n:03d}", code=f.code, priority=f.priority.value,
-                   location=f"Roof, grid E / 3-4, {text}", description=f.message, reference="S-201; " + f.clause,
-                   action=f.action)
+    d = Deficiency(
+        id=f"d{n}",
+        site_id="s",
+        number=f"D-AB12-{n:03d}",
+        code=f.code,
+        priority=f.priority.value,
+        location=f"Roof, grid E / 3-4, {text}",
+        description=f.message,
+        reference="S-201; " + f.clause,
+        action=f.action,
+    )
     return item_for(d, beam, r, "measured 130 x 456 mm", photos), r
 
 
@@ -61,9 +86,20 @@ def test_header_items_cautions_and_page_numbers():
     item, _ = _item()
     pdf = render_notice(_notice([item]))
     text = text_of(pdf)
-    for value in ("Cedar Hollow Community Hall", "48 Larchmont Road", "BP-2026-0417", "TSR-2611-FR-AB12-001",
-                  "2026-11-30 09:15", "Priya Okonkwo-Lind", "Tamarack", "Northbeam Builders", "Mezzanine",
-                  "D-AB12-001", "Roof, grid E / 3-4", "IMMEDIATE"):
+    for value in (
+        "Cedar Hollow Community Hall",
+        "48 Larchmont Road",
+        "BP-2026-0417",
+        "TSR-2611-FR-AB12-001",
+        "2026-11-30 09:15",
+        "Priya Okonkwo-Lind",
+        "Tamarack",
+        "Northbeam Builders",
+        "Mezzanine",
+        "D-AB12-001",
+        "Roof, grid E / 3-4",
+        "IMMEDIATE",
+    ):
         assert value in text, value
     assert "Make safe now" in text
     for caution in ("engineer of record", "Local codes", "means, methods", "recording and recheck aid"):
@@ -83,15 +119,26 @@ def test_not_established_recheck_numbers_printed():
 def test_kl_cb_mr_values_match_recheck():
     beam = glulam()
     r = recheck(beam)
-    d = Deficiency(id="d", site_id="s", number="D-1", code="x", priority="observation", location="L",
-                   description="d", reference="r", action="a")
+    d = Deficiency(
+        id="d",
+        site_id="s",
+        number="D-1",
+        code="x",
+        priority="observation",
+        location="L",
+        description="d",
+        reference="r",
+        action="a",
+    )
     text = text_of(render_notice(_notice([item_for(d, beam, r, "obs")]))).replace("\n", " ")
     b = r.bending[0]
     assert f"KL {b.kl:.3f}, CB {b.cb:.2f}, Mr {b.mr_knm:.1f}" in text
 
 
-@pytest.mark.parametrize("user_text", ["<b>bold</b> & <font size=40>big</font>", "Déjà vu — φ ≤ 2.5 × 3",
-                                       "Kanji 木材 and Cyrillic брус", "X" * 300])
+@pytest.mark.parametrize(
+    "user_text",
+    ["<b>bold</b> & <font size=40>big</font>", "Déjà vu — φ ≤ 2.5 × 3", "Kanji 木材 and Cyrillic брус", "X" * 300],
+)
 def test_user_text_appears_as_typed(user_text):
     item, _ = _item(text=user_text)
     text = text_of(render_notice(_notice([item])))

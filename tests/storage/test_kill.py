@@ -21,8 +21,10 @@ from storage.bundle import export_bundle
 from tests.core.beams import glulam
 
 ROOT = Path(__file__).resolve().parents[2]
-IMPORT = "import sys; from storage import Store; from storage.bundle import import_bundle; " \
-         "import_bundle(Store(sys.argv[1]), sys.argv[2])"
+IMPORT = (
+    "import sys; from storage import Store; from storage.bundle import import_bundle; "
+    "import_bundle(Store(sys.argv[1]), sys.argv[2])"
+)
 
 
 @pytest.fixture(scope="module")
@@ -39,6 +41,7 @@ def big(tmp_path_factory):
     base.close()
     full = Store(tmp / "full.db")
     from storage.bundle import import_bundle
+
     import_bundle(full, tmp / "big.zip")
     full_digest = full.digest()
     full.close()
@@ -59,8 +62,12 @@ def test_killed_import_is_all_or_nothing(big):
     for run in range(50):
         db = tmp / f"run{run}.db"
         shutil.copy(tmp / "base.db", db)
-        proc = subprocess.Popen([sys.executable, "-c", IMPORT, str(db), str(tmp / "big.zip")], cwd=ROOT,
-                                stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
+        proc = subprocess.Popen(
+            [sys.executable, "-c", IMPORT, str(db), str(tmp / "big.zip")],
+            cwd=ROOT,
+            stdout=subprocess.DEVNULL,
+            stderr=subprocess.DEVNULL,
+        )
         time.sleep(rng.uniform(0.05, 1.5))
         proc.send_signal(signal.SIGKILL)
         proc.wait()
@@ -74,8 +81,10 @@ def test_killed_import_is_all_or_nothing(big):
     assert sum(outcomes.values()) == 50
 
 
-SAVE = ("import sys; from storage import Store; s = Store(sys.argv[1]); sid = s.create_site(name='k').id\n"
-        "for i in range(100000): s.update_site(sid, {'address': str(i)})")
+SAVE = (
+    "import sys; from storage import Store; s = Store(sys.argv[1]); sid = s.create_site(name='k').id\n"
+    "for i in range(100000): s.update_site(sid, {'address': str(i)})"
+)
 
 
 def test_killed_saves_leave_consistent_database(tmp_path):

@@ -4,8 +4,8 @@ import pytest
 
 from core.records import Stage
 from storage import Store
-from storage.api import LifecycleError
 from storage.oplog import IntegrityError, Op, apply_op
+from storage.store import LifecycleError
 from tests.core.beams import glulam
 
 
@@ -49,8 +49,18 @@ def test_status_only_moves_forward_and_only_reviewer_verifies(store):
 
 def test_insert_only_same_id_different_content_is_integrity_error(store):
     mid = store.add_measurement("b1", "s1", b_mm=130)
-    forged = Op(origin="other", seq=1, hlc=1, entity="measurement", record_id=mid, kind="insert",
-                payload={"b_mm": 99, "beam_id": "b1", "site_id": "s1"}, base={}, schema_version=1, wall_ms=0)
+    forged = Op(
+        origin="other",
+        seq=1,
+        hlc=1,
+        entity="measurement",
+        record_id=mid,
+        kind="insert",
+        payload={"b_mm": 99, "beam_id": "b1", "site_id": "s1"},
+        base={},
+        schema_version=1,
+        wall_ms=0,
+    )
     with pytest.raises(IntegrityError):
         apply_op(store.db, forged)
 

@@ -17,8 +17,10 @@ from tests.core.beams import glulam
 
 def _db_bytes(store):
     store.db.execute("PRAGMA wal_checkpoint(TRUNCATE)")
-    return {t: store.db.execute(f"SELECT * FROM {t} ORDER BY 1").fetchall()
-            for t in ("op", "field_stamp", "seen", "beam", "site", "deficiency", "conflict")}
+    return {
+        t: store.db.execute(f"SELECT * FROM {t} ORDER BY 1").fetchall()
+        for t in ("op", "field_stamp", "seen", "beam", "site", "deficiency", "conflict")
+    }
 
 
 @pytest.fixture
@@ -70,7 +72,7 @@ def test_tampered_bundle_refused_whole(pair, mutation):
     rng = random.Random(MUTATIONS.index(mutation))
     if mutation == "flip":
         i = rng.randrange(len(raw))
-        raw = raw[:i] + bytes([raw[i] ^ 0x01]) + raw[i + 1:]
+        raw = raw[:i] + bytes([raw[i] ^ 0x01]) + raw[i + 1 :]
     elif mutation == "truncate":
         raw = raw[: len(raw) // 2]
     elif mutation == "insert":
@@ -81,6 +83,7 @@ def test_tampered_bundle_refused_whole(pair, mutation):
         buf = io.BytesIO()
         with zipfile.ZipFile(buf, "w") as z:
             import warnings
+
             with warnings.catch_warnings():
                 warnings.simplefilter("ignore")
                 for info in src.infolist():
@@ -118,6 +121,7 @@ def test_bundle_with_gap_refused(pair):
 def test_newer_schema_bundle_held(pair, monkeypatch):
     a, b, _, beam, tmp = pair
     import storage.bundle as bundle_mod
+
     monkeypatch.setattr(bundle_mod, "SCHEMA_VERSION", 99)
     a.update_beam(beam, {"b_mm": 80})
     export_bundle(a, tmp / "new.zip")
@@ -150,6 +154,7 @@ class Replicas(RuleBasedStateMachine):
     def __init__(self):
         super().__init__()
         import tempfile
+
         self.dir = tempfile.mkdtemp()
         self.n = 0
         self.stores = []
@@ -247,7 +252,7 @@ def test_every_single_byte_flip_is_refused_cleanly(pair):
     odd = []
     for i in range(len(raw)):
         for bit in (0x01, 0x80):
-            damaged = raw[:i] + bytes([raw[i] ^ bit]) + raw[i + 1:]
+            damaged = raw[:i] + bytes([raw[i] ^ bit]) + raw[i + 1 :]
             try:
                 verify_bundle(b, damaged)
             except BundleRefused:

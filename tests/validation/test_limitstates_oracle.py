@@ -36,8 +36,11 @@ def test_kzbg_matches_limitstates_checkKzbg(b, d, length):
 
 
 @settings(max_examples=300, deadline=None)
-@given(cb=st.floats(min_value=0.5, max_value=49.5), e=st.sampled_from([10300.0, 12400.0, 12800.0]),
-       fb=st.floats(min_value=10.0, max_value=35.0))
+@given(
+    cb=st.floats(min_value=0.5, max_value=49.5),
+    e=st.sampled_from([10300.0, 12400.0, 12800.0]),
+    fb=st.floats(min_value=10.0, max_value=35.0),
+)
 def test_kl_matches_limitstates_away_from_boundaries(cb, e, fb):
     # source: limitstates checkKL (O86-19 7.5.6.4.4); it returns -1 at CB = 10, CK, 50 exactly (fault L1)
     ck = critical_slenderness_ck(e, 1.0, 1.0, fb)
@@ -48,8 +51,9 @@ def test_kl_matches_limitstates_away_from_boundaries(cb, e, fb):
     assert lateral_stability_kl(cb, ck, e, 1.0, 1.0, fb) == pytest.approx(expected, rel=1e-12)
 
 
-@pytest.mark.parametrize("b,d,fb,kzbg,kl", [(130, 456, 30.6, 1.05, 0.97), (365, 836, 25.6, 0.91, 1.0),
-                                            (175, 608, 25.6, 1.1, 0.6)])
+@pytest.mark.parametrize(
+    "b,d,fb,kzbg,kl", [(130, 456, 30.6, 1.05, 0.97), (365, 836, 25.6, 0.91, 1.0), (175, 608, 25.6, 1.1, 0.6)]
+)
 def test_glulam_mr_lesser_of_matches_checkGlulamMr(b, d, fb, kzbg, kl):
     # source: limitstates checkGlulamMr returns min(Mr0*kzbg*kx, Mr0*kL*kx) in N*m (O86-19 7.5.6.5.1)
     s = b * d * d / 6

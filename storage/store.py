@@ -37,8 +37,15 @@ class Store:
             device = uuid7()
             key = firm_key or os.environ.get("BRACEWALK_FIRM_KEY") or DEMO_FIRM_KEY
             with transaction(self.db):
-                for k, v in {"device_id": device, "device_code": device[-4:].upper(), "hlc": "0", "seq": "0",
-                             "firm_key": key, "counter_deficiency": "0", "counter_notice": "0"}.items():
+                for k, v in {
+                    "device_id": device,
+                    "device_code": device[-4:].upper(),
+                    "hlc": "0",
+                    "seq": "0",
+                    "firm_key": key,
+                    "counter_deficiency": "0",
+                    "counter_notice": "0",
+                }.items():
                     self.db.execute("INSERT INTO meta VALUES (?, ?)", [k, v])
         elif firm_key is not None:
             with transaction(self.db):
@@ -78,26 +85,38 @@ class Store:
 
     def stamp(self, entity: str, record_id: str, field: str) -> list[Any] | None:
         """The (hlc, origin) stamp of a field's current value: what a user 'saw'."""
-        row = self.db.execute("SELECT hlc, origin FROM field_stamp WHERE entity=? AND record_id=? AND field=?",
-                              [entity, record_id, field]).fetchone()
+        row = self.db.execute(
+            "SELECT hlc, origin FROM field_stamp WHERE entity=? AND record_id=? AND field=?", [entity, record_id, field]
+        ).fetchone()
         return [row[0], row[1]] if row else None
 
     # -- the one save path -------------------------------------------------------------------
-    def save(self, entity: str, record_id: str, fields: dict[str, Any], kind: str = "set",
-             base: dict[str, Any] | None = None) -> Op:
+    def save(
+        self, entity: str, record_id: str, fields: dict[str, Any], kind: str = "set", base: dict[str, Any] | None = None
+    ) -> Op:
         """Write a change and its op in one transaction. ``base``: stamps the user saw (default: current)."""
         with transaction(self.db):
             return self._save_in_tx(entity, record_id, fields, kind, base)
 
-    def _save_in_tx(self, entity: str, record_id: str, fields: dict[str, Any], kind: str,
-                    base: dict[str, Any] | None) -> Op:
+    def _save_in_tx(
+        self, entity: str, record_id: str, fields: dict[str, Any], kind: str, base: dict[str, Any] | None
+    ) -> Op:
         if kind == "set" and base is None:
             base = {f: self.stamp(entity, record_id, f) for f in fields}
         seq = int(self._meta()["seq"]) + 1
         self._set_meta("seq", str(seq))
-        op = Op(origin=self.device_id, seq=seq, hlc=self._next_hlc(), entity=entity, record_id=record_id,
-                kind=kind, payload=json.loads(canonical(fields)), base={k: v for k, v in (base or {}).items() if v},
-                schema_version=SCHEMA_VERSION, wall_ms=self._wall())
+        op = Op(
+            origin=self.device_id,
+            seq=seq,
+            hlc=self._next_hlc(),
+            entity=entity,
+            record_id=record_id,
+            kind=kind,
+            payload=json.loads(canonical(fields)),
+            base={k: v for k, v in (base or {}).items() if v},
+            schema_version=SCHEMA_VERSION,
+            wall_ms=self._wall(),
+        )
         op.validate()
         insert_op(self.db, op)
         apply_op(self.db, op)
@@ -165,8 +184,9 @@ class Store:
         return sorted((Visit(id=i, **d) for i, d in self._by_site("visit", site_id)), key=lambda v: v.started_at)
 
     # -- beams -------------------------------------------------------------------------------
-    def save_beam(self, site_id: str, beam: Beam, location: dict[str, Any] | None = None,
-                  beam_id: str | None = None) -> str:
+    def save_beam(
+        self, site_id: str, beam: Beam, location: dict[str, Any] | None = None, beam_id: str | None = None
+    ) -> str:
         """Log (or re-save) a beam: contract-1 fields plus location fields (level, gridline, notes...)."""
         beam_id = beam_id or uuid7()
         fields = beam.model_dump(mode="json")
@@ -194,8 +214,9 @@ class Store:
     def beams(self, site_id: str) -> list[tuple[str, dict[str, Any]]]:
         """A site's beams (id, record) ordered by level, gridline and mark; archived ones left out."""
         rows = [(i, d) for i, d in self._by_site("beam", site_id) if not d.get("archived")]
-        return sorted(rows, key=lambda r: (str(r[1].get("level", "")), str(r[1].get("gridline", "")),
-                                           str(r[1].get("mark", ""))))
+        return sorted(
+            rows, key=lambda r: (str(r[1].get("level", "")), str(r[1].get("gridline", "")), str(r[1].get("mark", "")))
+        )
 
     def add_measurement(self, beam_id: str, site_id: str, **fields: Any) -> str:
         """An insert-only raw measurement (where and how it was taken)."""
@@ -239,33 +260,74 @@ class Store:
         path = self.blob_path(sha)
         return path.read_bytes() if path.exists() else None
 
-    def add_photo(self, site_id: str, content: bytes, mime: str = "image/jpeg", beam_id: str | None = None,
-                  deficiency_id: str | None = None, caption: str = "") -> str:
+    def add_photo(
+        self,
+        site_id: str,
+        content: bytes,
+        mime: str = "image/jpeg",
+        beam_id: str | None = None,
+        deficiency_id: str | None = None,
+        caption: str = "",
+    ) -> str:
         """Store a photo's bytes as a blob, then its insert-only record."""
         sha = self.put_blob(content, mime)
         pid = uuid7()
-        self.save("photo", pid, {"site_id": site_id, "sha256": sha, "mime": mime, "beam_id": beam_id,
-                                 "deficiency_id": deficiency_id, "caption": caption}, kind="insert")
+        self.save(
+            "photo",
+            pid,
+            {
+                "site_id": site_id,
+                "sha256": sha,
+                "mime": mime,
+                "beam_id": beam_id,
+                "deficiency_id": deficiency_id,
+                "caption": caption,
+            },
+            kind="insert",
+        )
         return pid
 
     def photos(self, site_id: str) -> list[dict[str, Any]]:
         """Photo records of a site, each with ``pending`` True if its bytes have not arrived."""
-        return [dict(d, id=i, pending=not self.blob_path(d["sha256"]).exists())
-                for i, d in self._by_site("photo", site_id)]
+        return [
+            dict(d, id=i, pending=not self.blob_path(d["sha256"]).exists()) for i, d in self._by_site("photo", site_id)
+        ]
 
     # -- deficiencies --------------------------------------------------------------------------
-    def raise_deficiency(self, site_id: str, beam_id: str | None, code: str, priority: str, location: str,
-                         description: str, reference: str, action: str, due: str = "") -> Deficiency:
+    def raise_deficiency(
+        self,
+        site_id: str,
+        beam_id: str | None,
+        code: str,
+        priority: str,
+        location: str,
+        description: str,
+        reference: str,
+        action: str,
+        due: str = "",
+    ) -> Deficiency:
         """Confirm a finding (or a reviewer's own observation) as a numbered deficiency."""
         if priority not in PRIORITY_ORDER:
             raise ValueError(f"priority {priority!r}; allowed: {list(PRIORITY_ORDER)}")
         with transaction(self.db):
             number = f"D-{self.device_code}-{self._counter('deficiency'):03d}"
             did = uuid7()
-            d = Deficiency(id=did, site_id=site_id, beam_id=beam_id, number=number, code=code, priority=priority,
-                           location=location, description=description, reference=reference, action=action, due=due)
-            self._save_in_tx("deficiency", did, d.model_dump(mode="json", exclude={"id", "cycle", "stage"}),
-                             "set", None)
+            d = Deficiency(
+                id=did,
+                site_id=site_id,
+                beam_id=beam_id,
+                number=number,
+                code=code,
+                priority=priority,
+                location=location,
+                description=description,
+                reference=reference,
+                action=action,
+                due=due,
+            )
+            self._save_in_tx(
+                "deficiency", did, d.model_dump(mode="json", exclude={"id", "cycle", "stage"}), "set", None
+            )
         return self.deficiency(did)
 
     def deficiency(self, deficiency_id: str) -> Deficiency:
@@ -282,8 +344,16 @@ class Store:
             items = [d for d in items if d.stage is not Stage.verified]
         return sorted(items, key=lambda d: (PRIORITY_ORDER[d.priority], d.number))
 
-    def move_status(self, deficiency_id: str, stage: Stage | str, actor: str, role: str, note: str = "",
-                    evidence_sha256: str = "", at: str | None = None) -> Deficiency:
+    def move_status(
+        self,
+        deficiency_id: str,
+        stage: Stage | str,
+        actor: str,
+        role: str,
+        note: str = "",
+        evidence_sha256: str = "",
+        at: str | None = None,
+    ) -> Deficiency:
         """Move a deficiency forward: open -> corrected -> verified; 'reopen' starts a new cycle.
 
         Only a reviewer sets verified. Any other move raises LifecycleError.
@@ -299,14 +369,28 @@ class Store:
             target = Stage[stage] if isinstance(stage, str) else stage
             cycle = d.cycle
             if target <= d.stage:
-                raise LifecycleError(f"{d.number}: status only moves forward ({d.stage.name} -> {target.name} "
-                                     "refused; use 'reopen' to start a new cycle)")
+                raise LifecycleError(
+                    f"{d.number}: status only moves forward ({d.stage.name} -> {target.name} "
+                    "refused; use 'reopen' to start a new cycle)"
+                )
             if target is Stage.verified and role != "reviewer":
                 raise LifecycleError(f"{d.number}: only a reviewer sets verified (role {role!r})")
         when = at or time.strftime("%Y-%m-%dT%H:%M:%SZ", time.gmtime(self._wall() / 1000))
-        self.save("deficiency", deficiency_id, {"cycle": cycle, "stage": int(target), "actor": actor, "role": role,
-                                                "at": when, "note": note, "evidence_sha256": evidence_sha256,
-                                                "site_id": d.site_id}, kind="status")
+        self.save(
+            "deficiency",
+            deficiency_id,
+            {
+                "cycle": cycle,
+                "stage": int(target),
+                "actor": actor,
+                "role": role,
+                "at": when,
+                "note": note,
+                "evidence_sha256": evidence_sha256,
+                "site_id": d.site_id,
+            },
+            kind="status",
+        )
         return self.deficiency(deficiency_id)
 
     def history(self, deficiency_id: str) -> list[StatusEvent]:
@@ -314,9 +398,19 @@ class Store:
         rows = self.db.execute("SELECT data FROM deficiency_event").fetchall()
         events = [json.loads(r[0]) for r in rows]
         mine = sorted((e for e in events if e["deficiency_id"] == deficiency_id), key=lambda e: (e["hlc"], e["origin"]))
-        return [StatusEvent(deficiency_id=deficiency_id, cycle=e["cycle"], stage=Stage(e["stage"]), actor=e["actor"],
-                            role=e["role"], at=e["at"], note=e.get("note", ""),
-                            evidence_sha256=e.get("evidence_sha256", "")) for e in mine]
+        return [
+            StatusEvent(
+                deficiency_id=deficiency_id,
+                cycle=e["cycle"],
+                stage=Stage(e["stage"]),
+                actor=e["actor"],
+                role=e["role"],
+                at=e["at"],
+                note=e.get("note", ""),
+                evidence_sha256=e.get("evidence_sha256", ""),
+            )
+            for e in mine
+        ]
 
     # -- notices --------------------------------------------------------------------------------
     def next_notice_number(self, site: Site) -> str:
@@ -324,15 +418,33 @@ class Store:
         n = int(self._meta()["counter_notice"]) + 1
         return f"{site.project_number or 'P'}-FR-{self.device_code}-{n:03d}"
 
-    def issue_notice(self, site_id: str, number: str, pdf: bytes, deficiency_ids: list[str], issued_by: str,
-                     issued_at: str, revision: int = 0, supersedes: str | None = None,
-                     change_note: str = "") -> IssuedNotice:
+    def issue_notice(
+        self,
+        site_id: str,
+        number: str,
+        pdf: bytes,
+        deficiency_ids: list[str],
+        issued_by: str,
+        issued_at: str,
+        revision: int = 0,
+        supersedes: str | None = None,
+        change_note: str = "",
+    ) -> IssuedNotice:
         """Store an issued notice: the PDF blob first (fsynced), then the immutable record."""
         sha = self.put_blob(pdf, "application/pdf")
         nid = uuid7()
-        notice = IssuedNotice(id=nid, site_id=site_id, number=number, revision=revision, issued_at=issued_at,
-                              issued_by=issued_by, deficiency_ids=deficiency_ids, pdf_sha256=sha,
-                              supersedes=supersedes, change_note=change_note)
+        notice = IssuedNotice(
+            id=nid,
+            site_id=site_id,
+            number=number,
+            revision=revision,
+            issued_at=issued_at,
+            issued_by=issued_by,
+            deficiency_ids=deficiency_ids,
+            pdf_sha256=sha,
+            supersedes=supersedes,
+            change_note=change_note,
+        )
         with transaction(self.db):
             if revision == 0:
                 self._counter("notice")
@@ -355,8 +467,9 @@ class Store:
     # -- sync bookkeeping ---------------------------------------------------------------------
     def pending_sync_count(self, peer: str = "office", site_id: str | None = None) -> int:
         """Ops of this device not yet sent to ``peer`` (only those about one site when ``site_id`` is given)."""
-        row = self.db.execute("SELECT seq FROM peer_cursor WHERE peer=? AND origin=?",
-                              [peer, self.device_id]).fetchone()
+        row = self.db.execute(
+            "SELECT seq FROM peer_cursor WHERE peer=? AND origin=?", [peer, self.device_id]
+        ).fetchone()
         sent = row[0] if row else 0
         if site_id is None:
             return int(self._meta()["seq"]) - sent
