@@ -5,7 +5,7 @@ from __future__ import annotations
 from core import tables
 from core.clauses.stability import bearing_restraint_required
 from core.member import Member
-from core.models import Beam, Material, Restraint, TopBracing, TopStamp
+from core.models import Beam, DeadLoadPattern, Material, NegativeLu, Restraint, TopBracing, TopStamp
 from core.results import (
     PRIORITY_ORDER,
     BearingCheck,
@@ -28,6 +28,9 @@ FINDING_CODES = (
     "substitution",
     "compression_edge_unbraced",
     "layup_inverted",
+    "uplift_at_support",
+    "input_assumed",
+    "modelling_option",
 )
 
 
@@ -124,6 +127,30 @@ def bending_findings(beam: Beam, bending: list[BendingRegion]) -> list[Finding]:
                     clause=r.clause,
                 )
             )
+        upper = r.utilisation_if_restrained
+        if r.outcome == "not_established" and upper is not None and upper > 1.0:
+            bound = (
+                f"even if its bearings were restrained the resistance would be only {r.mr_if_restrained_knm:.1f} kN*m "
+                f"against a factored moment of {r.mf_knm:.1f} kN*m (utilisation {upper:.2f}, {r.combination})"
+                if r.mr_if_restrained_knm is not None
+                else "even if its bearings were restrained the slenderness would exceed the limit"
+            )
+            out.append(
+                Finding(
+                    code="bending_overstress",
+                    priority=Priority.immediate,
+                    region=r.region,
+                    message=(
+                        f"{beam.mark}, {r.region}: {bound}. The real capacity is lower still, because the bearing "
+                        "restraint is missing."
+                    ),
+                    action=(
+                        "Make safe now: keep loads off this beam and tell the site superintendent today; refer to the "
+                        "engineer of record for bearing restraint and a repair or replacement member."
+                    ),
+                    clause=r.clause,
+                )
+            )
         stability_governs = (
             r.kl is not None
             and r.kzbg is not None
@@ -153,10 +180,103 @@ def bending_findings(beam: Beam, bending: list[BendingRegion]) -> list[Finding]:
     return out
 
 
+def assumed_findings(beam: Beam) -> list[Finding]:
+    """Inputs that change the answer and were not recorded: the unfavourable case was taken (say so)."""
+    out = []
+    if beam.top_edge.fastened_assumed:
+        out.append(
+            Finding(
+                code="input_assumed",
+                priority=Priority.observation,
+                region="top edge",
+                message=(
+                    f"{beam.mark}: whether the {beam.top_edge.braced_by.value} are fastened to the top edge was not "
+                    "recorded; the recheck assumed they are not (top edge unbraced between bearings)."
+                ),
+                action="Record whether the purlins or decking are fastened; the recheck may then improve.",
+                clause="CSA O86-19 7.5.6.4.1",
+            )
+        )
+    if beam.use is None:
+        out.append(
+            Finding(
+                code="input_assumed",
+                priority=Priority.observation,
+                message=(
+                    f"{beam.mark}: what the member supports (use) was not recorded; the recheck held the deflection "
+                    "to the strictest limit of the table (L/360)."
+                ),
+                action="Record the use (floor, roof with plaster ceiling, other ceiling, no ceiling).",
+                clause="NBC Table 9.4.3.1",
+            )
+        )
+    return out
+
+
+def uplift_findings(beam: Beam, bearing: list[BearingCheck]) -> list[Finding]:
+    """Negative factored reactions (NBC 0.9D where dead load counteracts): a hold-down is needed."""
+    out = []
+    for b in bearing:
+        if b.uplift_kn is None:
+            continue
+        now = " The specified dead load alone already lifts it off this bearing." if b.lifts_now else ""
+        out.append(
+            Finding(
+                code="uplift_at_support",
+                priority=Priority.immediate if b.lifts_now else Priority.before_loading,
+                region=f"support {b.support}",
+                message=(
+                    f"{beam.mark} at support {b.support}: factored uplift {b.uplift_kn:.1f} kN "
+                    f"({b.uplift_combination}); the bearing must hold the member down.{now}"
+                ),
+                action=(
+                    "Make safe now: prop or hold the member down and tell the site superintendent today; "
+                    "refer the hold-down to the engineer of record."
+                    if b.lifts_now
+                    else "Confirm a hold-down for the uplift before loading; refer to the engineer of record."
+                ),
+                clause="NBC 4.1.3.2 (0.9D where dead load counteracts)",
+            )
+        )
+    return out
+
+
+def option_findings(beam: Beam) -> list[Finding]:
+    """Modelling options the reviewer chose instead of the conservative default (named on the notice)."""
+    out = []
+    if beam.negative_lu is NegativeLu.zero_moment_point:
+        out.append(
+            Finding(
+                code="modelling_option",
+                priority=Priority.observation,
+                message=(
+                    f"{beam.mark}: the reviewer took points of zero moment as braces of the bottom edge "
+                    "(not the default: a point of zero moment is not a lateral support)."
+                ),
+                action="The engineer of record accepts or rejects this option.",
+                clause="CSA O86-19 7.5.6.4; reference o86.md 13",
+            )
+        )
+    if beam.dead_load_pattern is DeadLoadPattern.uniform:
+        out.append(
+            Finding(
+                code="modelling_option",
+                priority=Priority.observation,
+                message=(
+                    f"{beam.mark}: the reviewer applied one dead-load factor to the whole beam (not the default: "
+                    "0.9D on the parts that relieve the effect and 1.25D on the rest)."
+                ),
+                action="The engineer of record accepts or rejects this option.",
+                clause="NBC 4.1.3.2; reference o86.md 13",
+            )
+        )
+    return out
+
+
 def top_edge_findings(beam: Beam) -> list[Finding]:
     """Purlins or decking logged but not yet fastened: the top edge is treated as unbraced."""
     top = beam.top_edge
-    if top.braced_by is TopBracing.none or top.fastened:
+    if top.braced_by is TopBracing.none or top.fastened is not False:
         return []
     return [
         Finding(
@@ -195,8 +315,8 @@ def layup_findings(beam: Beam, member: Member) -> list[Finding]:
             code="layup_inverted",
             priority=Priority.before_next_review,
             message=(
-                f"{beam.mark}: TOP stamp of the unbalanced layup {beam.grade} not visible; the recheck assumed "
-                "the weaker face in tension."
+                f"{beam.mark}: TOP stamp of the unbalanced layup {beam.grade} not seen or not recorded; the "
+                "recheck assumed the weaker face in tension."
             ),
             action="Confirm the TOP stamp orientation (photo) at the next review.",
             clause="CSA O86-19 Table 7.3 note",
@@ -323,7 +443,10 @@ def build_findings(
         + top_edge_findings(beam)
         + layup_findings(beam, member)
         + check_findings(beam, shear, bearing, deflection)
+        + uplift_findings(beam, bearing)
         + size_findings(beam)
+        + assumed_findings(beam)
+        + option_findings(beam)
     )
     return sorted(found, key=lambda f: PRIORITY_ORDER[f.priority.value])
 

@@ -11,7 +11,7 @@ from typing import Annotated, Any
 
 from pydantic import BaseModel, ConfigDict, Field, field_validator, model_validator
 
-from core import tables
+from core import effective_length, tables
 
 MAX_SPAN_MM = 60_000.0
 MAX_SPANS = 5
@@ -92,6 +92,20 @@ class Use(StrEnum):
     roof_no_ceiling = "roof_no_ceiling"
 
 
+class NegativeLu(StrEnum):
+    """How Lu is taken where the bottom edge is in compression (reference o86.md section 13, Q3)."""
+
+    between_restraints = "between_restraints"  # default: distance between real bottom-edge restraints
+    zero_moment_point = "zero_moment_point"  # option, flagged: a point of zero moment taken as a brace
+
+
+class DeadLoadPattern(StrEnum):
+    """How 0.9D is applied where dead load counteracts (NBC 4.1.3.2; reference o86.md section 13)."""
+
+    per_part = "per_part"  # default: 0.9D on the parts that relieve, 1.25D on the rest, plus the uniform cases
+    uniform = "uniform"  # option, flagged: one dead-load factor on the whole beam
+
+
 class SystemCase(StrEnum):
     """Load-sharing system for sawn lumber (KH, O86-19 Table 6.12)."""
 
@@ -132,7 +146,12 @@ class TopEdge(Record):
 
     braced_by: TopBracing = TopBracing.none
     spacing_mm: PositiveMm | None = None
-    fastened: bool = True
+    fastened: bool | None = None  # None: not recorded; the recheck assumes not fastened and says so
+
+    @property
+    def fastened_assumed(self) -> bool:
+        """True when fastening was not recorded for purlins or decking (the unfavourable case is taken)."""
+        return self.braced_by is not TopBracing.none and self.fastened is None
 
     @model_validator(mode="after")
     def _spacing_rule(self) -> TopEdge:
@@ -184,8 +203,8 @@ def grades_allowed(material: Material, species: str) -> list[str]:
 
 
 def le_cases_allowed() -> list[str]:
-    """Rows of the effective-length table (O86-19 Table 7.4)."""
-    return tables.column("effective_length", "le_case")
+    """``auto`` (each region picks its row) or a row of the effective-length table (O86-19 Table 7.4)."""
+    return [effective_length.AUTO, *tables.column("effective_length", "le_case")]
 
 
 class Beam(Record):
@@ -204,12 +223,14 @@ class Beam(Record):
     overhang_left_mm: OverhangMm = 0.0
     overhang_right_mm: OverhangMm = 0.0
     bottom_edge: BottomEdge = BottomEdge()
-    le_case: str = "any"
+    le_case: str = effective_length.AUTO
     service: Service = Service.dry
     treatment: Treatment = Treatment.none
-    top_stamp: TopStamp = TopStamp.up
+    top_stamp: TopStamp = TopStamp.not_visible
     self_weight: bool = True
-    use: Use = Use.roof_no_ceiling
+    use: Use | None = None  # None: not recorded; the strictest deflection limit is taken and said so
+    negative_lu: NegativeLu = NegativeLu.between_restraints
+    dead_load_pattern: DeadLoadPattern = DeadLoadPattern.per_part
     specified: Specified | None = None
     system: SystemCase = SystemCase.single
     bridging_spacing_mm: PositiveMm | None = None
@@ -242,6 +263,17 @@ class Beam(Record):
                 )
         if self.le_case not in le_cases_allowed():
             raise ValueError(f"le_case = {self.le_case!r}; allowed: {le_cases_allowed()}")
+        kinds = effective_length.beam_kinds(
+            len(self.spans_mm),
+            self.overhang_left_mm > 0 or self.overhang_right_mm > 0,
+            self.top_edge.braced_by is TopBracing.purlins and self.top_edge.fastened is True,
+            self.bottom_edge.braced_by is BottomBracing.braces,
+        )
+        misfit = effective_length.beam_fit_error(self.le_case, kinds)
+        if misfit is not None:
+            raise ValueError(
+                f"le_case = {self.le_case!r} does not fit this beam: {misfit}; allowed: a row that fits, or 'auto'"
+            )
         if self.material is Material.sawn:
             if self.b_mm > 102:
                 raise ValueError(

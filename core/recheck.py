@@ -17,7 +17,12 @@ from core.clauses.bearing import bearing_qr, sawn_bearing_kzcp
 from core.clauses.bending import glulam_bending_strength_for_face, glulam_mr, sawn_mr, size_factor_kzbg
 from core.clauses.factors import factored_bending_strength_fb, factored_strength
 from core.clauses.outcomes import NotPermitted
-from core.clauses.serviceability import deflection_limit_mm, modulus_for_deflection_es
+from core.clauses.serviceability import (
+    EDITION,
+    deflection_limit_mm,
+    long_term_deformation_rule,
+    modulus_for_deflection_es,
+)
 from core.clauses.shear import (
     GLULAM_SIMPLE_SHEAR_MAX_VOLUME_M3,
     glulam_volume_m3,
@@ -26,17 +31,18 @@ from core.clauses.shear import (
     sawn_vr,
 )
 from core.clauses.stability import (
-    bearing_restraint_required,
     critical_slenderness_ck,
     glulam_db_waives_stability,
     lateral_stability_kl,
     lumber_db_limit,
     slenderness_cb,
 )
+from core.edges import EdgeSupport, compression_edge, unrestrained_elements
+from core.effective_length import chosen_row
 from core.findings import build_findings, overall_status
 from core.loads import Combination, applicable, combination_kd, gravity_combinations
 from core.member import Member, member_properties
-from core.models import Beam, BottomBracing, Material, TopBracing
+from core.models import Beam, DeadLoadPattern, Material, Use
 from core.results import (
     BearingCheck,
     BendingRegion,
@@ -47,6 +53,8 @@ from core.results import (
 )
 
 CV_SIMPLE_UDL = 3.69
+SPLIT_HIGH_D = 1.25  # NBC Table 4.1.3.2.-A: dead-load factor where it adds to the effect
+SPLIT_LOW_D = 0.9  # and where it counteracts
 KN = 1e-3
 KNM = 1e-6
 
@@ -63,22 +71,6 @@ class LoadCase:
     total_factored_n: float
 
 
-@dataclass(frozen=True)
-class EdgeSupport:
-    """How a region's compression edge is held."""
-
-    edge: str  # "top" or "bottom"
-    continuous: bool
-    lu_mm: float
-    description: str
-    status: str
-    purlins_in_line: bool
-    held_directly: bool
-    bridging: bool
-    both_edges: bool
-    unbraced: bool  # no bracing at all between supports / zero-moment points
-
-
 def _patterns(n_el: int) -> list[tuple[bool, ...]]:
     """Live and snow patterns: every non-empty subset of elements (all elements for one element)."""
     if n_el == 1:
@@ -93,10 +85,18 @@ def _pattern_name(model: BeamModel, pattern: tuple[bool, ...]) -> str:
 
 
 def load_cases(beam: Beam, member: Member, model: BeamModel) -> list[LoadCase]:
-    """Every applicable NBC gravity combination with every live/snow pattern, solved."""
+    """Every applicable NBC gravity combination with every live/snow pattern, solved.
+
+    Where dead load counteracts (more than one element), the envelope also holds the split patterns of
+    reference o86.md section 13 (NBC 4.1.3.2, 0.9D where dead load counteracts): for each live/snow
+    pattern, 1.25D on the loaded parts and 0.9D on the rest. With uniform loads per element these give
+    the exact extreme of every reaction and moment. ``dead_load_pattern = "uniform"`` (a flagged option)
+    keeps one dead-load factor on the whole beam.
+    """
     dead = beam.loads.dead_kn_m + member.self_weight_n_mm
     live, snow = beam.loads.live_kn_m, beam.loads.snow_kn_m
     n_el = len(model.elements)
+    split = n_el > 1 and beam.dead_load_pattern is DeadLoadPattern.per_part
     cases = []
     for combo in gravity_combinations(counteracting_dead=n_el > 1):
         if not applicable(combo, live, snow):
@@ -106,10 +106,18 @@ def load_cases(beam: Beam, member: Member, model: BeamModel) -> list[LoadCase]:
         patterns = [(True,) * n_el] if combo.permanent or variable == 0 else _patterns(n_el)
         for pattern in patterns:
             w = tuple(combo.alpha_d * dead + (variable if on else 0.0) for on in pattern)
-            total = sum(wi * li for wi, li in zip(w, model.lengths, strict=True))
             name = "" if combo.permanent else _pattern_name(model, pattern)
-            cases.append(LoadCase(combo, kd, note, name, model.case(w), total))
+            cases.append(LoadCase(combo, kd, note, name, model.case(w), _total(w, model)))
+            if split and combo.alpha_d == SPLIT_HIGH_D and not all(pattern):
+                w = tuple((SPLIT_HIGH_D * dead + variable) if on else SPLIT_LOW_D * dead for on in pattern)
+                relieving = ", ".join(el.name for el, on in zip(model.elements, pattern, strict=True) if not on)
+                label = f"{name}; 0.9D on {relieving}"
+                cases.append(LoadCase(combo, kd, note, label, model.case(w), _total(w, model)))
     return cases
+
+
+def _total(w: tuple[float, ...], model: BeamModel) -> float:
+    return sum(wi * li for wi, li in zip(w, model.lengths, strict=True))
 
 
 def region_name(model: BeamModel, region: Region) -> str:
@@ -128,102 +136,6 @@ def region_name(model: BeamModel, region: Region) -> str:
     if inside:
         return f"supports {inside[0]}-{inside[-1]}"
     return f"{model.elements[region.elements[0]].name} (hogging)"
-
-
-def compression_edge(beam: Beam, model: BeamModel, region: Region) -> EdgeSupport:
-    """The compression edge of a region and its unsupported length Lu (mm), with how it was found."""
-    top, bottom = beam.top_edge, beam.bottom_edge
-    top_direct = top.fastened and (
-        top.braced_by is TopBracing.decking
-        or (top.braced_by is TopBracing.purlins and top.spacing_mm is not None and top.spacing_mm <= 610)
-    )
-    bottom_braced = bottom.braced_by is BottomBracing.braces and bottom.spacing_mm is not None
-    both = top_direct and bottom_braced
-    bridging = beam.bridging_spacing_mm is not None and beam.bridging_spacing_mm <= 8 * beam.d_mm
-    if region.sign == "positive":
-        el = max(region.elements, key=lambda e: model.lengths[e])
-        between = model.lengths[el]
-        if top.braced_by is TopBracing.decking and top.fastened:
-            return EdgeSupport(
-                "top",
-                True,
-                0.0,
-                "top edge held continuously by fastened decking",
-                "memory",
-                True,
-                True,
-                bridging,
-                both,
-                False,
-            )
-        if top.braced_by is TopBracing.purlins and top.fastened and top.spacing_mm is not None:
-            lu = min(top.spacing_mm, between)
-            return EdgeSupport(
-                "top",
-                False,
-                lu,
-                f"top edge braced by fastened purlins at {top.spacing_mm:g} mm",
-                "memory",
-                True,
-                top_direct,
-                bridging,
-                both,
-                False,
-            )
-        why = "" if top.braced_by is TopBracing.none else f" ({top.braced_by.value} not fastened)"
-        return EdgeSupport(
-            "top",
-            False,
-            between,
-            f"top edge unbraced between supports{why}",
-            "memory",
-            False,
-            False,
-            False,
-            False,
-            True,
-        )
-    overhang = sum(model.lengths[e] for e in region.elements if model.elements[e].kind == "overhang")
-    if overhang > 0:
-        back = max(region.length_mm - overhang, 0.0)
-        zone = max(overhang, back)
-        how = f"cantilever {overhang:.0f} mm from its support; back-span hogging {back:.0f} mm (the longer governs)"
-    else:
-        zone = region.length_mm
-        how = f"hogging zone {zone:.0f} mm between points of zero moment (common practice)"
-    if bottom_braced and bottom.spacing_mm is not None:
-        lu = min(bottom.spacing_mm, zone)
-        return EdgeSupport(
-            "bottom",
-            False,
-            lu,
-            f"bottom edge braced at {bottom.spacing_mm:g} mm; {how}",
-            "memory",
-            True,
-            bottom.spacing_mm <= 610,
-            bridging,
-            both,
-            False,
-        )
-    return EdgeSupport(
-        "bottom", False, zone, f"bottom edge unbraced; {how}", "memory", False, False, False, False, True
-    )
-
-
-def unrestrained_elements(beam: Beam, model: BeamModel) -> set[int]:
-    """Elements next to a bearing whose required restraint is missing or not visible."""
-    if not bearing_restraint_required(beam.d_mm, beam.b_mm):
-        return set()
-    out: set[int] = set()
-    for j, bearing in enumerate(beam.bearings):
-        if not bearing.restrained:
-            node = model.support_nodes[j]
-            out.update(e for e in (node - 1, node) if 0 <= e < len(model.elements))
-    return out
-
-
-def _le_row(beam: Beam) -> dict[str, str]:
-    return tables.find("effective_length", le_case=beam.le_case)
 
 
 def bending_check(
@@ -279,13 +191,24 @@ def bending_check(
                 symbol="Fb",
                 value=round(fb, 3),
                 unit="MPa",
-                clause="CSA O86-19 7.5.6.5.1",
+                clause="CSA O86-19 6.5.3.1 (memory)" if sawn else "CSA O86-19 7.5.6.5.1",
                 source="Fb = fb (KD KH KSb KT)",
             )
         )
-        trace.append(
-            FactorTrace(symbol="Lu", value=out["lu_mm"], unit="mm", source=edge.description, status=edge.status)
-        )
+        if edge.continuous:
+            trace.append(
+                FactorTrace(symbol="Lu", value="held continuously", source=edge.description, status=edge.status)
+            )
+        else:
+            trace.append(
+                FactorTrace(
+                    symbol="Lu", value=round(edge.lu_mm), unit="mm", source=edge.description, status=edge.status
+                )
+            )
+        if edge.option:
+            trace.append(
+                FactorTrace(symbol="option", value=edge.option, source="chosen by the reviewer", status="input")
+            )
     if not sawn:
         kzbg = size_factor_kzbg(beam.b_mm, beam.d_mm, region.length_mm)
         out["kzbg"] = kzbg
@@ -301,6 +224,7 @@ def bending_check(
             )
     if not_established:
         out["outcome"] = "not_established"
+        _upper_bound(beam, member, model, region, edge, fb, out, trace)
         return out
     kl = _stability_kl(beam, member, edge, fb, out, trace)
     if isinstance(kl, NotPermitted):
@@ -331,6 +255,47 @@ def bending_check(
     return out
 
 
+def _upper_bound(
+    beam: Beam,
+    member: Member,
+    model: BeamModel,
+    region: Region,
+    edge: EdgeSupport,
+    fb: float,
+    out: dict[str, Any],
+    trace: list[FactorTrace] | None,
+) -> None:
+    """What a not-established region would give if its bearings were restrained (an upper bound).
+
+    KL from the recorded bracing of the compression edge, with the unrestrained bearings counted as
+    restraints (CSA O86-19 7.5.6.3.1 is not met, so the real capacity is lower than this).
+    """
+    restrained_edge = compression_edge(beam, model, region, assume_restrained=True)
+    scratch: dict[str, Any] = dict(out)
+    kl = _stability_kl(beam, member, restrained_edge, fb, scratch, None)
+    if isinstance(kl, NotPermitted):
+        out["utilisation_if_restrained"] = float("inf")
+        _note(trace, "Mr (if restrained)", None, kl.clause, f"not permitted even if restrained: {kl}", "formula")
+        return
+    if beam.material is Material.sawn:
+        mr = sawn_mr(fb, member.s_mm3, member.kzb or 1.0, kl)
+    else:
+        mr = glulam_mr(fb, member.s_mm3, 1.0, out["kzbg"], kl)
+    out["kl_if_restrained"] = kl
+    out["mr_if_restrained_knm"] = mr * KNM
+    out["utilisation_if_restrained"] = region.m_max_nmm / mr
+    _note(
+        trace,
+        "Mr (if restrained)",
+        round(mr * KNM, 2),
+        "CSA O86-19 7.5.6.3.1, 7.5.6.4",
+        f"upper bound: KL = {kl:.4f} with Lu = {scratch['lu_mm'] or 0:.0f} mm as if every bearing were restrained; "
+        "the real capacity is lower",
+        "formula",
+        "kN*m",
+    )
+
+
 def _stability_kl(
     beam: Beam,
     member: Member,
@@ -359,12 +324,32 @@ def _stability_kl(
             f"d/b = {db:.2f} > {limit:g}: glulam KL method with E05 (conservative choice)",
             "memory",
         )
+        # reference o86.md section 13: past its tier, Lu is the spacing of the points that restrain
+        # rotation as well as displacement (bridging, blocking, bearings), never zero for a held edge.
+        lu = edge.lu_rotation_mm
+        out["lu_mm"] = lu
+        _note(trace, "Lu", round(lu), "CSA O86-19 6.5.3.2; reference o86.md 13", edge.rotation_how, "memory", "mm")
+        return _kl_from_lu(beam, member, edge, fb, e, lu, out, trace)
     if edge.continuous:
         _note(trace, "KL", 1.0, "CSA O86-19 7.5.6.3", edge.description, "memory")
         return 1.0
-    row = _le_row(beam)
+    return _kl_from_lu(beam, member, edge, fb, e, edge.lu_mm, out, trace)
+
+
+def _kl_from_lu(
+    beam: Beam,
+    member: Member,
+    edge: EdgeSupport,
+    fb: float,
+    e: float,
+    lu_mm: float,
+    out: dict[str, Any],
+    trace: list[FactorTrace] | None,
+) -> float | NotPermitted:
+    """KL by CSA O86-19 7.5.6.4 from an unsupported length (mm) and the modulus used (MPa)."""
+    row, why = chosen_row(beam.le_case, edge.kind)
     factor = float(row["factor"])
-    le = factor * edge.lu_mm
+    le = factor * lu_mm
     cb = slenderness_cb(le, beam.d_mm, beam.b_mm)
     ck = critical_slenderness_ck(e, member.kse, member.kt, fb)
     out.update(le_mm=le, le_factor=factor, cb=cb, ck=ck)
@@ -373,7 +358,7 @@ def _stability_kl(
         "Le",
         round(le, 1),
         "CSA O86-19 7.5.6.4.2 / Table 7.4",
-        f"effective_length: {row['le_case']} ({row['description']}): {factor:g} x Lu",
+        f"effective_length row {row['le_case']} ({row['description']}): {factor:g} x Lu; {why}",
         row["status"],
         "mm",
     )
@@ -406,7 +391,9 @@ _OUTCOME_RANK = {"not_established": 3, "not_permitted": 2, "overstress": 1, "ok"
 
 def _rank(numbers: dict[str, Any]) -> tuple[int, float]:
     util = numbers["utilisation"]
-    return (_OUTCOME_RANK[numbers["outcome"]], numbers["mf_knm"] if util is None else util)
+    if util is None:
+        util = numbers.get("utilisation_if_restrained", numbers["mf_knm"])
+    return (_OUTCOME_RANK[numbers["outcome"]], util)
 
 
 def bending_regions(beam: Beam, member: Member, model: BeamModel, cases: list[LoadCase]) -> list[BendingRegion]:
@@ -443,11 +430,12 @@ def bending_regions(beam: Beam, member: Member, model: BeamModel, cases: list[Lo
 
 
 def _case_label(case: LoadCase) -> str:
-    return (
-        case.combo.name
-        if not case.pattern or case.pattern == "all spans"
-        else (f"{case.combo.name} (L/S on {case.pattern})")
-    )
+    if not case.pattern or case.pattern == "all spans":
+        return case.combo.name
+    if "; 0.9D on " in case.pattern:
+        loaded, relieving = case.pattern.split("; 0.9D on ")
+        return f"{case.combo.name} (1.25D and L/S on {loaded}; 0.9D on {relieving})"
+    return f"{case.combo.name} (L/S on {case.pattern})"
 
 
 def shear_check(beam: Beam, member: Member, model: BeamModel, cases: list[LoadCase]) -> ShearCheck:
@@ -512,19 +500,26 @@ def shear_check(beam: Beam, member: Member, model: BeamModel, cases: list[LoadCa
 def bearing_checks(beam: Beam, member: Member, model: BeamModel, cases: list[LoadCase]) -> list[BearingCheck]:
     """Bearing at each support (O86-19 6.5.6 lumber, 7.5.9 glulam; KB = 1.0)."""
     kzcp = sawn_bearing_kzcp(beam.b_mm, beam.d_mm) if beam.material is Material.sawn else 1.0
+    dead = beam.loads.dead_kn_m + member.self_weight_n_mm
+    now = model.case((dead,) * len(model.elements)).reactions_n  # specified dead load as it stands
     out = []
     for j, bearing in enumerate(beam.bearings):
         area = beam.b_mm * bearing.length_mm
         best: tuple[float, float, float, LoadCase] | None = None
+        lowest: tuple[float, LoadCase] | None = None
         for case in cases:
             fcp = factored_strength(member.fcp_mpa, case.kd, member.kscp, member.kt)
             qr = bearing_qr(fcp, area, 1.0, kzcp)
-            qf = max(case.result.reactions_n[j], 0.0)
+            reaction = case.result.reactions_n[j]
+            qf = max(reaction, 0.0)  # a downward reaction loads the bearing; uplift is reported below
             util = qf / qr
             if best is None or util > best[0]:
                 best = (util, qr, qf, case)
-        assert best is not None
+            if lowest is None or reaction < lowest[0]:
+                lowest = (reaction, case)
+        assert best is not None and lowest is not None
         util, qr, qf, case = best
+        uplift = -lowest[0] if lowest[0] < 0 else None
         clause = "CSA O86-19 7.5.9 (memory)" if beam.material is Material.glulam else "CSA O86-19 6.5.6 (memory)"
         trace = [
             FactorTrace(
@@ -548,6 +543,9 @@ def bearing_checks(beam: Beam, member: Member, model: BeamModel, cases: list[Loa
                 combination=_case_label(case),
                 clause=clause,
                 trace=trace,
+                uplift_kn=None if uplift is None else uplift * KN,
+                uplift_combination=None if uplift is None else _case_label(lowest[1]),
+                lifts_now=now[j] < 0,
             )
         )
     return out
@@ -563,19 +561,41 @@ def _deflection_patterns(n_el: int) -> list[tuple[bool, ...]]:
     return sorted(pats, reverse=True)
 
 
+_LIMIT_CLAUSE = {"total_specified": "CSA O86-19 5.4.2", "long_term": "CSA O86-19 5.4.3"}
+
+
+def _use_row(beam: Beam) -> dict[str, str]:
+    """The deflection-limit row for the recorded use; when not recorded, the strictest (largest ratio)."""
+    if beam.use is not None:
+        return tables.find("deflection_limits", use=beam.use.value)
+    rows = [r for r in tables.load("deflection_limits").rows if r["use"] in {u.value for u in Use}]
+    return max(rows, key=lambda r: float(r["ratio"]))
+
+
 def deflection_check(beam: Beam, member: Member, model: BeamModel) -> DeflectionCheck:
-    """Specified-load deflection: L + S against the use limit, and D + L + S against L/180."""
+    """Specified-load deflection (CSA O86-19 5.4.2, 5.4.3; NBC Table 9.4.3.1), mm.
+
+    L + S against the use limit, D + L + S against L/180, and for O86-19 the long-term (dead) load
+    against L/360 (reference o86.md sections 12 and 13).
+    """
     es = modulus_for_deflection_es(member.e_mpa, member.kse, member.kt_e)
     ei = es * member.inertia_mm4
     dead = beam.loads.dead_kn_m + member.self_weight_n_mm
     variable = beam.loads.live_kn_m + beam.loads.snow_kn_m
-    use_row = tables.find("deflection_limits", use=beam.use.value)
+    use_row = _use_row(beam)
     total_row = tables.find("deflection_limits", use="total_specified")
+    checks: list[tuple[str, dict[str, str], float, float]] = [
+        ("L + S", use_row, 0.0, 1.0),
+        ("D + L + S", total_row, dead, 1.0),
+    ]
+    long_term = long_term_deformation_rule(EDITION)
+    if long_term is not None:
+        checks.append(("D (long-term, O86-19 5.4.3)", tables.find("deflection_limits", use=long_term), dead, 0.0))
     best: tuple[float, float, float, str, str, dict[str, str]] | None = None
     n_el = len(model.elements)
     for pattern in _deflection_patterns(n_el):
-        for label, row, base in (("L + S", use_row, 0.0), ("D + L + S", total_row, dead)):
-            w = tuple(base + (variable if on else 0.0) for on in pattern)
+        for label, row, base, share in checks:
+            w = tuple(base + (share * variable if on else 0.0) for on in pattern)
             if not any(w):
                 continue
             for e, (delta, _) in enumerate(model.deflections_mm(w, ei)):
@@ -603,11 +623,31 @@ def deflection_check(beam: Beam, member: Member, model: BeamModel) -> Deflection
         FactorTrace(
             symbol="limit",
             value=f"L/{row['ratio']}",
-            clause="NBC Table 9.4.3.1 / CSA O86-19 5.4.2",
+            clause=_LIMIT_CLAUSE.get(row["use"], "NBC Table 9.4.3.1"),
             source=row["description"],
             status=row["status"],
         ),
     ]
+    if beam.use is None:
+        trace.append(
+            FactorTrace(
+                symbol="use",
+                value=use_row["use"],
+                source="not recorded: the strictest deflection limit of the table is taken",
+                status="input",
+            )
+        )
+    trace.append(
+        FactorTrace(
+            symbol="edition",
+            value=EDITION,
+            clause="CSA O86-19 5.4.3",
+            source="long-term deformation checked (O86-24 deletes 5.4.3 and folds creep into 5.4.2)"
+            if long_term
+            else "no separate long-term check in this edition",
+            status="confirmed",
+        )
+    )
     return DeflectionCheck(
         delta_mm=delta,
         limit_mm=limit,

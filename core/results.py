@@ -78,6 +78,11 @@ class BendingRegion(Out):
     outcome: str  # "ok", "overstress", "not_permitted", "not_established"
     compression_edge: str
     trace: list[FactorTrace]
+    # not established only: what the member would give if its bearings were restrained (an upper bound;
+    # the real capacity is lower). utilisation_if_restrained is inf when even that is not permitted.
+    kl_if_restrained: float | None = None
+    mr_if_restrained_knm: float | None = None
+    utilisation_if_restrained: float | None = None
 
 
 class ShearCheck(Out):
@@ -104,6 +109,9 @@ class BearingCheck(Out):
     combination: str
     clause: str
     trace: list[FactorTrace]
+    uplift_kn: float | None = None  # largest factored uplift (negative reaction), kN; None when none
+    uplift_combination: str | None = None
+    lifts_now: bool = False  # the specified dead load alone already lifts the member off this bearing
 
 
 class DeflectionCheck(Out):

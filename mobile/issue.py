@@ -30,7 +30,8 @@ def observed_text(record: dict[str, object]) -> str:
     top = record.get("top_edge")
     if isinstance(top, dict) and top.get("braced_by") != "none":
         text += f"; top edge {top['braced_by']}" + (f" at {top['spacing_mm']:g} mm" if top.get("spacing_mm") else "")
-        text += "" if top.get("fastened", True) else " (not fastened)"
+        fastened = top.get("fastened")
+        text += "" if fastened is True else (" (not fastened)" if fastened is False else " (fastening not recorded)")
     return text
 
 

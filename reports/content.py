@@ -112,7 +112,7 @@ def sketch_for(beam: Beam) -> Sketch:
             else "restrained"
         )
     top: list[float] = []
-    if beam.top_edge.braced_by is TopBracing.purlins and beam.top_edge.fastened and beam.top_edge.spacing_mm:
+    if beam.top_edge.braced_by is TopBracing.purlins and beam.top_edge.fastened is True and beam.top_edge.spacing_mm:
         for kind, x0, length in elements:
             if kind == "span":
                 n = int(length // beam.top_edge.spacing_mm)
@@ -129,7 +129,7 @@ def sketch_for(beam: Beam) -> Sketch:
         braces_top_x=top,
         braces_bottom_x=bottom,
         negative=[],
-        decking=beam.top_edge.braced_by is TopBracing.decking and beam.top_edge.fastened,
+        decking=beam.top_edge.braced_by is TopBracing.decking and beam.top_edge.fastened is True,
     )
 
 

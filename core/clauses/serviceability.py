@@ -16,3 +16,19 @@ def deflection_limit_mm(span_mm: float, ratio: float) -> float:
 def modulus_for_deflection_es(e_mpa: float, kse: float, kt_e: float) -> float:
     """CSA O86-19 cl. 5.4.1 (memory): ES = E (KSE KT), MPa; mean E, no KD."""
     return e_mpa * kse * kt_e
+
+
+EDITION = "O86-19"  # the edition the recheck applies; rules that changed in O86-24 are keyed by it
+
+
+def long_term_deformation_rule(edition: str) -> str | None:
+    """CSA O86-19 cl. 5.4.3: the deflection-limit row for long-term (permanent) load, or None.
+
+    O86-19 limits deformation under long-term load (L/360, reference o86.md sections 12 and 13);
+    O86-24 deleted 5.4.3 and folded creep into 5.4.2. Returns the ``deflection_limits`` row name.
+    """
+    if edition == "O86-19":
+        return "long_term"
+    if edition == "O86-24":
+        return None
+    raise ValueError(f"edition = {edition!r}; allowed: 'O86-19', 'O86-24'")

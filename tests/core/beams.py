@@ -15,6 +15,8 @@ def glulam(**over):
         "bearings": [{"lateral": True, "rotation": True, "length_mm": 140}] * 2,
         "top_edge": {"braced_by": "purlins", "spacing_mm": 2400, "fastened": True},
         "loads": {"dead_kn_m": 2.0, "live_kn_m": 0.0, "snow_kn_m": 5.0},
+        "top_stamp": "up",
+        "use": "roof_no_ceiling",
     }
     data.update(over)
     return Beam.model_validate(data)

@@ -8,6 +8,7 @@ import pytest
 from limitstates.design.csa.o86.c19 import glulam as ls
 
 from core import recheck
+from core.models import Beam
 from tests.core.beams import glulam, sawn
 
 
@@ -59,8 +60,8 @@ def test_two_span_hogging_zone_uses_bottom_edge_and_negative_strength():
     assert neg and neg[0].region == "support 2"
     assert "bottom edge" in neg[0].compression_edge
     assert neg[0].fb_mpa == pytest.approx(23.0 * neg[0].kd)
-    # all spans loaded: hogging zone 0.25 L each side (handbook) -> Lu = 0.5 L (common practice)
-    assert neg[0].lu_mm == pytest.approx(0.5 * 7200, rel=0.25)
+    # reference o86.md 13: nothing braces the bottom edge, so Lu runs support to support
+    assert neg[0].lu_mm == pytest.approx(7200)
 
 
 def test_layup_inverted_uses_weaker_face_and_flags():
@@ -149,3 +150,37 @@ def test_every_contract_key_present():
     assert set(data["shear"]) >= {"vr_kn", "vf_kn", "utilisation"}
     assert set(data["bearing"][0]) >= {"support", "qr_kn", "qf_kn", "utilisation"}
     assert set(data["deflection"]) >= {"delta_mm", "limit_mm", "utilisation"}
+
+
+def _without(builder, *keys, **over):
+    data = builder(**over).model_dump(mode="json", exclude_none=True)
+    for key in keys:
+        parts = key.split(".")
+        holder = data
+        for part in parts[:-1]:
+            holder = holder[part]
+        holder.pop(parts[-1], None)
+    return Beam.model_validate(data)
+
+
+def test_unrecorded_top_stamp_takes_the_weaker_face():
+    # reference 1.1 / Table 7.3 note: an unbalanced layup with the TOP stamp not seen takes fb negative
+    r = recheck(_without(glulam, "top_stamp"))
+    assert r.bending[0].fb_mpa == pytest.approx(23.0)  # 24f-E fb negative (memory table), KD = 1
+    assert any(f.code == "layup_inverted" for f in r.findings)
+
+
+def test_unrecorded_fastening_treats_the_top_edge_as_unbraced():
+    r = recheck(_without(glulam, "top_edge.fastened"))
+    assert r.bending[0].lu_mm == pytest.approx(7200)
+    assert any(f.code == "input_assumed" and "fastened" in f.message for f in r.findings)
+    braced = recheck(glulam())
+    assert braced.bending[0].lu_mm == pytest.approx(2400)
+
+
+def test_sawn_fb_trace_cites_the_sawn_clause_and_decked_lu_is_named():
+    region = recheck(sawn()).bending[0]
+    fb = next(t for t in region.trace if t.symbol == "Fb")
+    assert fb.clause.startswith("CSA O86-19 6.5.3")
+    lu = next(t for t in region.trace if t.symbol == "Lu")
+    assert lu.value == "held continuously"

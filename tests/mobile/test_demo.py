@@ -17,7 +17,11 @@ EXPECTED = {
     "RB-3": ("deficient", {"bending_overstress"}, "80 x 608 unbraced over 6 m: CB 33 in regime (c)"),
     "RB-4": ("not_permitted", {"slenderness_exceeds_limit"}, "80 x 912 unbraced over 12 m: CB 57 > 50"),
     "RB-5": ("not_established", {"bearing_restraint_missing"}, "d/b 4.1 > 2.5 and no rotation restraint at support 2"),
-    "RB-6": ("ok", {"compression_edge_unbraced"}, "hogging zone bottom edge unbraced: stability governs (observation)"),
+    "RB-6": (
+        "deficient",
+        {"bending_overstress", "compression_edge_unbraced"},
+        "hogging zone: Lu runs between real bottom-edge restraints (support to support), not to zero moment",
+    ),
     "RB-7": ("deficient", {"substitution"}, "130 x 456 where 130 x 494 is drawn: one lamination short"),
     "RB-8": ("deficient", {"layup_inverted"}, "unbalanced 20f-E with the TOP stamp down"),
     "CB-1": ("ok", set(), "wet service factors applied, adequate"),

@@ -63,3 +63,58 @@ def test_cantilever_root_moment():
     model = BeamModel([L], 0, 2000)
     case = model.case((0.0, W))
     assert case.m0_nmm[1] == pytest.approx(-W * 2000**2 / 2)
+
+
+def _glulam(**over):
+    from core.models import Beam
+
+    return Beam.model_validate(_glulam_data(**over))
+
+
+def _glulam_data(**over):
+    data = {
+        "mark": "H-1",
+        "material": "glulam",
+        "species": "D.Fir-L",
+        "grade": "24f-E",
+        "b_mm": 130,
+        "d_mm": 456,
+        "spans_mm": [6000],
+        "bearings": [{"lateral": True, "rotation": True, "length_mm": 140}] * 2,
+        "top_edge": {"braced_by": "purlins", "spacing_mm": 1200, "fastened": True},
+        "loads": {"dead_kn_m": 10.0, "live_kn_m": 0.0, "snow_kn_m": 1.0},
+        "self_weight": False,
+        "top_stamp": "up",
+        "use": "roof_no_ceiling",
+    }
+    data.update(over)
+    return data
+
+
+def test_long_term_deformation_o86_19_is_dead_load_deflection_against_l_over_360():
+    # CSA O86-19 5.4.3 (reference o86.md 12 and 13: L/360 under long-term load). Handbook simple span:
+    # delta = 5 w L^4 / (384 E I) with w = D = 10 kN/m, E = 12800 MPa (24f-E), I = 130 x 456^3 / 12.
+    from core.recheck import recheck
+
+    d = recheck(_glulam()).deflection
+    inertia = 130 * 456**3 / 12
+    assert d.case.startswith("D (long-term")
+    assert d.limit_mm == pytest.approx(6000 / 360)
+    assert d.delta_mm == pytest.approx(5 * 10.0 * 6000**4 / (384 * 12800 * inertia), rel=1e-3)
+
+
+def test_floor_beam_logged_without_use_is_held_to_l_over_360():
+    # NBC Table 9.4.3.1 (memory): floors L/360. A beam logged without "use" takes the strictest limit,
+    # 6000 / 360 = 16.7 mm, not the roof-without-ceiling L/180 = 33.3 mm.
+    from core.recheck import recheck
+
+    data = {"loads": {"dead_kn_m": 1.0, "live_kn_m": 4.0, "snow_kn_m": 0.0}}
+    from core.models import Beam
+
+    free = recheck(_glulam(**data)).deflection
+    no_use = _glulam_data(**data)
+    del no_use["use"]
+    r = recheck(Beam.model_validate(no_use))
+    assert free.limit_mm == pytest.approx(6000 / 180)  # explicit roof_no_ceiling, L + S
+    assert r.deflection.limit_mm == pytest.approx(6000 / 360)
+    assert any(f.code == "input_assumed" and "use" in f.message for f in r.findings)

@@ -1,0 +1,163 @@
+"""The compression edge of a bending region and its unsupported length Lu (CSA O86-19 7.5.6.4.1, 6.5.3.2).
+
+A region in positive moment has its top edge in compression; a region in negative moment (over an
+interior support, at a cantilever root) has its bottom edge in compression. Lu is the distance
+between real supports of *that* edge. Defaults follow reference o86.md section 13:
+
+- negative moment: Lu is the distance between actual restraints of the bottom edge (support to
+  support when nothing braces it; a bearing logged without restraint does not count). Taking a
+  point of zero moment as a brace is an option the reviewer must choose (``negative_lu``), flagged.
+- "both edges held in line" (lumber 9:1 tier) needs the bottom edge braced at <= 610 mm.
+- sawn lumber past its d/b tier: the glulam method with Lu = spacing of the points that restrain
+  rotation as well as displacement (bridging or blocking, bearings), never zero.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, replace
+
+from core.analysis import BeamModel, Region
+from core.clauses.stability import bearing_restraint_required
+from core.effective_length import RegionKind
+from core.models import Beam, BottomBracing, NegativeLu, TopBracing
+
+BOTH_EDGES_MAX_SPACING_MM = 610.0  # reference o86.md section 13 (judgement; no Canadian spacing found)
+DIRECT_JOIST_MAX_SPACING_MM = 610.0  # O86-19 6.5.3.2 tier 6.5 (memory, reference 2.2)
+
+
+@dataclass(frozen=True)
+class EdgeSupport:
+    """How a region's compression edge is held."""
+
+    edge: str  # "top" or "bottom"
+    continuous: bool
+    lu_mm: float
+    description: str
+    status: str
+    purlins_in_line: bool
+    held_directly: bool
+    bridging: bool
+    both_edges: bool
+    unbraced: bool  # no bracing at all between supports / zero-moment points
+    lu_rotation_mm: float  # spacing of points restraining rotation too (bridging, bearings), mm
+    rotation_how: str
+    option: str = ""  # a non-default modelling option the reviewer chose, named in the trace
+    kind: RegionKind = RegionKind(False, False, False)  # what the region is, for the Table 7.4 row
+
+
+def restraint_points_mm(beam: Beam, model: BeamModel, assume_restrained: bool) -> list[float]:
+    """Positions (mm from the left end) of the bearings that hold the member against displacement and rotation.
+
+    A bearing counts when both restraints were seen, when the d/b rule does not require them
+    (CSA O86-19 7.5.6.3.1), or when ``assume_restrained`` (the upper bound of a not-established region).
+    """
+    required = bearing_restraint_required(beam.d_mm, beam.b_mm)
+    return [
+        x
+        for x, bearing in zip(model.support_x_mm, beam.bearings, strict=True)
+        if assume_restrained or not required or bearing.restrained
+    ]
+
+
+def _longest_interval_mm(points: list[float], total_mm: float, x0: float, x1: float) -> float:
+    """Longest stretch between consecutive points (or a free end) that overlaps (x0, x1), mm."""
+    cuts = sorted({0.0, total_mm, *points})
+    tol = 1e-6 * total_mm
+    return max((b - a for a, b in zip(cuts, cuts[1:], strict=False) if a < x1 - tol and b > x0 + tol), default=0.0)
+
+
+def _bracing(beam: Beam) -> tuple[bool, bool, bool, bool, float | None]:
+    top, bottom = beam.top_edge, beam.bottom_edge
+    top_direct = top.fastened is True and (
+        top.braced_by is TopBracing.decking
+        or (
+            top.braced_by is TopBracing.purlins
+            and top.spacing_mm is not None
+            and top.spacing_mm <= DIRECT_JOIST_MAX_SPACING_MM
+        )
+    )
+    bottom_spacing = bottom.spacing_mm if bottom.braced_by is BottomBracing.braces else None
+    bottom_close = bottom_spacing is not None and bottom_spacing <= BOTH_EDGES_MAX_SPACING_MM
+    bridging = beam.bridging_spacing_mm is not None and beam.bridging_spacing_mm <= 8 * beam.d_mm
+    return top_direct, bottom_close, top_direct and bottom_close, bridging, bottom_spacing
+
+
+def _rotation_lu(beam: Beam, between_mm: float) -> tuple[float, str]:
+    """Lu between points restraining rotation: bridging or blocking if recorded, else the bearings."""
+    bridging = beam.bridging_spacing_mm
+    if bridging is not None and bridging < between_mm:
+        return bridging, f"bridging or blocking at {bridging:g} mm"
+    return between_mm, f"bearings {between_mm:.0f} mm apart (no bridging recorded)"
+
+
+def compression_edge(beam: Beam, model: BeamModel, region: Region, assume_restrained: bool = False) -> EdgeSupport:
+    """The compression edge of a region and its unsupported length Lu (mm), with how it was found."""
+    edge = _compression_edge(beam, model, region, assume_restrained)
+    kind = RegionKind(
+        simple_span=len(model.elements) == 1,
+        cantilever=any(model.elements[e].kind == "overhang" for e in region.elements),
+        braced_between=not edge.continuous and not edge.unbraced,
+    )
+    return replace(edge, kind=kind)
+
+
+def _compression_edge(beam: Beam, model: BeamModel, region: Region, assume_restrained: bool) -> EdgeSupport:
+    top = beam.top_edge
+    top_direct, bottom_close, both, bridging, bottom_spacing = _bracing(beam)
+    points = restraint_points_mm(beam, model, assume_restrained)
+    between = _longest_interval_mm(points, model.total_length_mm, region.x0_mm, region.x1_mm)
+    lu_rot, rot_how = _rotation_lu(beam, between)
+    if region.sign == "positive":
+        fastened = top.fastened is True
+        if top.braced_by is TopBracing.decking and fastened:
+            return EdgeSupport(
+                "top", True, 0.0, "top edge held continuously by fastened decking", "memory",
+                True, True, bridging, both, False, lu_rot, rot_how,
+            )  # fmt: skip
+        if top.braced_by is TopBracing.purlins and fastened and top.spacing_mm is not None:
+            return EdgeSupport(
+                "top", False, min(top.spacing_mm, between),
+                f"top edge braced by fastened purlins at {top.spacing_mm:g} mm", "memory",
+                True, top_direct, bridging, both, False, lu_rot, rot_how,
+            )  # fmt: skip
+        if top.braced_by is TopBracing.none:
+            why = ""
+        elif top.fastened is None:
+            why = f" ({top.braced_by.value} fastening not recorded: assumed not fastened)"
+        else:
+            why = f" ({top.braced_by.value} not fastened)"
+        return EdgeSupport(
+            "top", False, between, f"top edge unbraced between bearings{why}", "memory",
+            False, False, False, False, True, lu_rot, rot_how,
+        )  # fmt: skip
+    option = ""
+    if beam.negative_lu is NegativeLu.zero_moment_point:
+        inside = [x for x in points if region.x0_mm < x < region.x1_mm]
+        cuts = sorted({region.x0_mm, region.x1_mm, *inside})
+        zone = max(b - a for a, b in zip(cuts, cuts[1:], strict=False))
+        option = "zero-moment point as brace (reviewer's option, not the default; reference o86.md 13)"
+        how = f"{zone:.0f} mm from a restrained bearing to the point of zero moment; {option}"
+    else:
+        zone = between
+        how = f"{zone:.0f} mm between real restraints of the bottom edge (a point of zero moment is not a brace)"
+    if bottom_spacing is not None:
+        return EdgeSupport(
+            "bottom", False, min(bottom_spacing, zone), f"bottom edge braced at {bottom_spacing:g} mm; {how}",
+            "memory", True, bottom_close, bridging, both, False, min(lu_rot, zone), rot_how, option,
+        )  # fmt: skip
+    return EdgeSupport(
+        "bottom", False, zone, f"bottom edge unbraced; {how}", "memory",
+        False, False, False, False, True, lu_rot, rot_how, option,
+    )  # fmt: skip
+
+
+def unrestrained_elements(beam: Beam, model: BeamModel) -> set[int]:
+    """Elements next to a bearing whose required restraint is missing or not visible."""
+    if not bearing_restraint_required(beam.d_mm, beam.b_mm):
+        return set()
+    out: set[int] = set()
+    for j, bearing in enumerate(beam.bearings):
+        if not bearing.restrained:
+            node = model.support_nodes[j]
+            out.update(e for e in (node - 1, node) if 0 <= e < len(model.elements))
+    return out
