@@ -390,7 +390,7 @@ def size_findings(beam: Beam) -> list[Finding]:
                     f"{beam.grade}. The recheck uses the installed grade."
                 ),
                 action="Submit the substitution to the engineer of record for acceptance, or replace the member.",
-                clause="CSA O86-19 Table 7.3 / 6.3.1A",
+                clause="CSA O86-19 Table 7.3 / 6.4",
             )
         )
     short_b, short_d = spec.b_mm - beam.b_mm, spec.d_mm - beam.d_mm

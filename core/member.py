@@ -37,6 +37,7 @@ class Member:
     inertia_mm4: float
     self_weight_n_mm: float
     trace: tuple[FactorTrace, ...]
+    grade_status: str = "memory"  # status of the grade row the strengths came from
 
 
 def _grade_row(beam: Beam) -> tuple[dict[str, str], str]:
@@ -117,7 +118,7 @@ def member_properties(beam: Beam) -> Member:
         FactorTrace(
             symbol="grade",
             value=f"{beam.species} {beam.grade}",
-            clause="CSA O86-19 Table 7.3" if table == "glulam_grades" else "CSA O86-19 Table 6.3.1A",
+            clause="CSA O86-19 Table 7.3" if table == "glulam_grades" else "CSA O86-19 Table 6.4",
             source=f"{table} row " + ", ".join(f"{k} {v}" for k, v in row.items() if k != "status"),
             status=row["status"],
         )
@@ -185,4 +186,5 @@ def member_properties(beam: Beam) -> Member:
         inertia_mm4=beam.b_mm * beam.d_mm**3 / 12.0,
         self_weight_n_mm=sw,
         trace=tuple(trace),
+        grade_status=row["status"],
     )

@@ -6,16 +6,28 @@ from core import tables
 
 
 def provenance_rows() -> list[str]:
-    """One markdown row per table: name, source, row count, and counts per status."""
-    out = ["| table | source | rows | verified | confirmed | memory |", "| --- | --- | --- | --- | --- | --- |"]
+    """One markdown row per table: name, source, row count, counts per status, and who confirmed rows."""
+    out = [
+        "| table | source | rows | verified | confirmed | memory | confirmed by |",
+        "| --- | --- | --- | --- | --- | --- | --- |",
+    ]
     for name in sorted(tables.TABLE_NAMES):
         t = tables.load(name)
         statuses = [r["status"] for r in t.rows]
         out.append(
             f"| {name} | {t.source} | {len(statuses)} | {statuses.count('verified')} | "
-            f"{statuses.count('confirmed')} | {statuses.count('memory')} |"
+            f"{statuses.count('confirmed')} | {statuses.count('memory')} | {_confirmers(t)} |"
         )
     return out
+
+
+def _confirmers(table: tables.Table) -> str:
+    names: list[str] = []
+    for row in table.rows:
+        for name in row.get("confirmed_by", "").split("; "):
+            if name and name not in names:
+                names.append(name)
+    return "; ".join(names) or "-"
 
 
 if __name__ == "__main__":

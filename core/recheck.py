@@ -181,9 +181,9 @@ def bending_check(
                 symbol=f"{face} ({region.sign} moment)",
                 value=fb_spec,
                 unit="MPa",
-                clause="CSA O86-19 Table 7.3 note" if not sawn else "CSA O86-19 Table 6.3.1A",
-                source=f"top stamp {beam.top_stamp.value}",
-                status="memory",
+                clause="CSA O86-19 Table 7.3 note" if not sawn else "CSA O86-19 Table 6.4",
+                source=f"top stamp {beam.top_stamp.value}" if not sawn else f"{beam.species} {beam.grade}",
+                status=member.grade_status,
             )
         )
         trace.append(
@@ -274,7 +274,6 @@ def _upper_bound(
     scratch: dict[str, Any] = dict(out)
     kl = _stability_kl(beam, member, restrained_edge, fb, scratch, None)
     if isinstance(kl, NotPermitted):
-        out["utilisation_if_restrained"] = float("inf")
         _note(trace, "Mr (if restrained)", None, kl.clause, f"not permitted even if restrained: {kl}", "formula")
         return
     if beam.material is Material.sawn:
@@ -392,7 +391,8 @@ _OUTCOME_RANK = {"not_established": 3, "not_permitted": 2, "overstress": 1, "ok"
 def _rank(numbers: dict[str, Any]) -> tuple[int, float]:
     util = numbers["utilisation"]
     if util is None:
-        util = numbers.get("utilisation_if_restrained", numbers["mf_knm"])
+        upper = numbers.get("utilisation_if_restrained")
+        util = numbers["mf_knm"] if upper is None else upper
     return (_OUTCOME_RANK[numbers["outcome"]], util)
 
 

@@ -79,7 +79,7 @@ class BendingRegion(Out):
     compression_edge: str
     trace: list[FactorTrace]
     # not established only: what the member would give if its bearings were restrained (an upper bound;
-    # the real capacity is lower). utilisation_if_restrained is inf when even that is not permitted.
+    # the real capacity is lower). None when even that is not permitted (CB > 50; said in the trace).
     kl_if_restrained: float | None = None
     mr_if_restrained_knm: float | None = None
     utilisation_if_restrained: float | None = None

@@ -1,7 +1,8 @@
 """Data tables of the standard, loaded once from ``core/data/*.csv``.
 
 Each CSV starts with ``#`` lines naming the standard, edition, table and the meaning of the
-``status`` column (``verified``, ``published`` or ``memory``). Rows are looked up by name,
+``status`` column (``verified``, ``confirmed`` or ``memory``; a confirmed row names its source in
+``confirmed_by``). Rows are looked up by name,
 never by position. Reading the package's own read-only data is the only file access in ``core``.
 """
 
@@ -71,6 +72,7 @@ TABLE_NAMES = (
     "treatment_factors",
     "effective_length",
     "glulam_sizes",
+    "glulam_depths",
     "lumber_sizes",
     "deflection_limits",
     "densities",

@@ -48,6 +48,7 @@ def load_beam(path: str) -> Any:
 def cmd_check(args: argparse.Namespace) -> int:
     """Recheck one beam and print contract-1 JSON (or a readable summary with --text)."""
     from core.recheck import recheck
+    from core.remedies import remedies
     from mobile.text import recheck_text
 
     beam = load_beam(args.beam)
@@ -55,7 +56,9 @@ def cmd_check(args: argparse.Namespace) -> int:
     if args.text:
         print(recheck_text(result))
     else:
-        print(json.dumps(result.to_json_dict(), indent=2))
+        data = result.to_json_dict()
+        data["remedies"] = [r.model_dump(mode="json", exclude_none=True) for r in remedies(beam, result)]
+        print(json.dumps(data, indent=2))
     return EXIT_OK
 
 

@@ -6,6 +6,7 @@ from dataclasses import dataclass, field, replace
 
 from core.models import Beam, BottomBracing, Restraint, TopBracing
 from core.records import Deficiency, Site, Visit
+from core.remedies import remedies
 from core.results import Recheck
 
 CAUTIONS = (
@@ -164,6 +165,16 @@ def key_numbers(result: Recheck) -> list[tuple[str, str]]:
     return out
 
 
+def remedy_numbers(beam: Beam | None, result: Recheck) -> list[tuple[str, str]]:
+    """Options for the engineer of record: what would make each failing check pass (never a design)."""
+    if beam is None or result.status.value == "ok":
+        return []
+    found = remedies(beam, result)
+    if not found:
+        return []
+    return [("options for the engineer of record (not a design)", "; ".join(r.message for r in found))]
+
+
 def item_for(
     deficiency: Deficiency, beam: Beam | None, result: Recheck | None, observed: str, photos: list[bytes] | None = None
 ) -> Item:
@@ -177,7 +188,7 @@ def item_for(
         action=deficiency.action,
         priority=deficiency.priority,
         due=deficiency.due,
-        key_numbers=key_numbers(result) if result is not None else [],
+        key_numbers=(key_numbers(result) + remedy_numbers(beam, result)) if result is not None else [],
         photos=photos or [],
         sketch=_sketch_with_regions(beam, result) if beam is not None else None,
     )

@@ -22,6 +22,7 @@ from pydantic import ValidationError
 from core import tables
 from core.models import Beam, Material, grades_allowed, species_allowed
 from core.recheck import recheck
+from core.remedies import remedies
 from core.results import FactorTrace, Recheck
 from mobile.units import parse_length_mm
 from mobile.viewmodels.common import line_loads_kn_m, status_label, validation_message
@@ -325,7 +326,16 @@ class BeamFormViewModel:
                 "deflection",
             )
         )
+        lines += [(text, None, "") for text in self.remedy_lines()]
         return lines
+
+    def remedy_lines(self) -> list[str]:
+        """Options for the engineer of record (what would make each failing check pass; never a design)."""
+        r = self.result or self.refresh()
+        if r is None or r.status.value == "ok":
+            return []
+        found = remedies(self.store.beam(self.beam_id), r)
+        return [f"Option for the engineer of record: {x.message}" for x in found]
 
     def trace_lines(self, key: str) -> list[str]:
         """Where a panel value came from: every factor with clause, table row and verified / memory."""

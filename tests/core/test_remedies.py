@@ -1,0 +1,113 @@
+"""Remedies: each change, applied to the input JSON by this test and rechecked, passes the check it solves.
+
+The test applies every change itself (its own dotted-path setter) and reruns ``recheck``; no expected
+number is computed here: the recheck of the changed beam is the judge.
+"""
+
+import json
+
+import pytest
+
+from core.models import Beam
+from core.recheck import recheck
+from core.remedies import remedies
+
+R = {"lateral": True, "rotation": True, "length_mm": 140}
+
+FAILING = {
+    "unbraced deep narrow, one bearing unrestrained": {
+        "material": "glulam", "species": "Spruce-Pine", "grade": "20f-EX", "b_mm": 80, "d_mm": 608,
+        "spans_mm": [6000], "bearings": [R, dict(R, rotation=False)], "top_edge": {"braced_by": "none"},
+        "loads": {"dead_kn_m": 3.0, "live_kn_m": 0.0, "snow_kn_m": 9.0},
+    },
+    "two spans, hogging zone unbraced": {
+        "material": "glulam", "species": "D.Fir-L", "grade": "24f-E", "b_mm": 130, "d_mm": 456,
+        "spans_mm": [7000, 7000], "bearings": [dict(R, length_mm=300)] * 3,
+        "top_edge": {"braced_by": "purlins", "spacing_mm": 1200, "fastened": True},
+        "loads": {"dead_kn_m": 3.0, "live_kn_m": 0.0, "snow_kn_m": 8.0},
+    },
+    "floor joist too long": {
+        "material": "sawn", "species": "S-P-F", "grade": "No.1/No.2", "b_mm": 38, "d_mm": 184,
+        "spans_mm": [4800], "bearings": [dict(R, length_mm=38)] * 2,
+        "top_edge": {"braced_by": "decking", "fastened": True},
+        "loads": {"dead_kn_m": 0.5, "live_kn_m": 1.9, "snow_kn_m": 0.0},
+    },
+    "short bearings on a heavy girder": {
+        "material": "glulam", "species": "D.Fir-L", "grade": "24f-EX", "b_mm": 130, "d_mm": 912,
+        "spans_mm": [8000], "bearings": [dict(R, length_mm=40)] * 2,
+        "top_edge": {"braced_by": "decking", "fastened": True},
+        "loads": {"dead_kn_m": 12.0, "live_kn_m": 20.0, "snow_kn_m": 0.0},
+    },
+}  # fmt: skip
+
+
+def _beam_data(name):
+    return dict(FAILING[name], mark="X-1", top_stamp="up", use="floor" if "floor" in name else "roof_no_ceiling")
+
+
+def _set(data, path, value):
+    data = json.loads(json.dumps(data))
+    keys = path.split(".")
+    holder = data
+    for k in keys[:-1]:
+        holder = holder[int(k)] if isinstance(holder, list) else holder.setdefault(k, {})
+    if isinstance(holder, list):
+        holder[int(keys[-1])] = value
+    else:
+        holder[keys[-1]] = value
+    return data
+
+
+def _passes(solves, change, r):
+    if solves.startswith("bending ("):
+        sign = solves.split("(")[1].split(" ")[0]
+        return all(b.outcome == "ok" for b in r.bending if b.sign == sign)
+    if solves == "bearing_restraint_missing":
+        return not any(f.code == solves for f in r.findings)
+    if solves == "shear_overstress":
+        return r.shear.utilisation <= 1.0
+    if solves == "deflection_exceeds_limit":
+        return r.deflection.utilisation <= 1.0
+    if solves == "bearing_overstress":
+        j = int(next(k for k in change if k.endswith("length_mm")).split(".")[1])
+        return r.bearing[j].utilisation <= 1.0
+    raise AssertionError(f"unknown check {solves}")
+
+
+def _failing_checks(r):
+    out = {f"bending ({b.sign} moment)" for b in r.bending if b.outcome != "ok"}
+    out |= {
+        f.code for f in r.findings if f.code in ("shear_overstress", "bearing_overstress", "deflection_exceeds_limit")
+    }
+    if any(b.outcome == "not_established" for b in r.bending):
+        out.add("bearing_restraint_missing")
+    return out
+
+
+@pytest.mark.parametrize("name", sorted(FAILING))
+def test_every_remedy_applied_to_the_input_passes_its_check(name):
+    data = _beam_data(name)
+    before = recheck(Beam.model_validate(data))
+    assert before.status.value != "ok", "the case must fail to test its remedies"
+    found = remedies(Beam.model_validate(data), before)
+    assert found
+    for remedy in found:
+        changed = data
+        for path, value in remedy.change.items():
+            changed = _set(changed, path, value)
+        after = recheck(Beam.model_validate(changed))
+        assert _passes(remedy.solves, remedy.change, after), remedy.message
+    # every failing check has at least one option
+    assert _failing_checks(before) <= {r.solves for r in found}
+
+
+def test_check_command_prints_remedies(tmp_path, capsys):
+    from mobile.cli import main
+
+    path = tmp_path / "beam.json"
+    path.write_text(json.dumps(_beam_data("short bearings on a heavy girder")))
+    assert main(["check", str(path)]) == 0
+    out = json.loads(capsys.readouterr().out)
+    assert out["remedies"]
+    assert set(out["remedies"][0]) >= {"solves", "change", "utilisation_after", "message"}
+    assert {"mark", "status", "bending", "shear", "bearing", "deflection", "findings"} <= set(out)
