@@ -42,7 +42,7 @@ from core.effective_length import chosen_row
 from core.findings import build_findings, overall_status
 from core.loads import Combination, applicable, combination_kd, gravity_combinations
 from core.member import Member, member_properties
-from core.models import Beam, DeadLoadPattern, Material, Use
+from core.models import Beam, DeadLoadPattern, Material, NegativeLu, Use
 from core.results import (
     BearingCheck,
     BendingRegion,
@@ -400,10 +400,16 @@ def bending_regions(beam: Beam, member: Member, model: BeamModel, cases: list[Lo
     """Governing bending check for every named region over all cases."""
     blocked = unrestrained_elements(beam, model)
     best: dict[str, tuple[tuple[int, float], Region, LoadCase, EdgeSupport, bool]] = {}
+    edges: dict[tuple[Any, ...], EdgeSupport] = {}
+    exact = beam.negative_lu is NegativeLu.zero_moment_point
     for case in cases:
         for region in model.regions(case.result):
             name = f"{region_name(model, region)}|{region.sign}"
-            edge = compression_edge(beam, model, region)
+            # the edge depends on the elements a region spans (and, for the zero-moment option, on its ends)
+            key = (region.sign, region.elements, *((region.x0_mm, region.x1_mm) if exact else ()))
+            edge = edges.get(key)
+            if edge is None:
+                edge = edges[key] = compression_edge(beam, model, region)
             ne = bool(blocked.intersection(region.elements))
             rank = _rank(bending_check(beam, member, model, region, case, edge, ne, None))
             if name not in best or rank > best[name][0]:

@@ -168,7 +168,7 @@ def _size_remedy(beam: Beam, data: dict[str, Any], base: Change, solves: str, ch
         what = f"a {beam.b_mm:g} x {change['d_mm']:g} mm glulam (same width, the smallest standard depth that passes)"
     else:
         what = f"a {change['b_mm']:g} x {change['d_mm']:g} mm dressed lumber size (the smallest that passes)"
-    return [Remedy(solves=solves, change=change, utilisation_after=util, message=f"{what}: {solves} {util:.2f}")]
+    return [Remedy(solves=solves, change=change, utilisation_after=util, message=f"{what}: {solves} {util:.3f}")]
 
 
 def _load_remedies(beam: Beam, data: dict[str, Any], base: Change, solves: str, check: Check) -> list[Remedy]:
@@ -187,7 +187,7 @@ def _load_remedies(beam: Beam, data: dict[str, Any], base: Change, solves: str, 
         word = "snow" if name == "snow_kn_m" else "live"
         message = (
             f"as built it carries at most {change[f'loads.{name}']:g} kN/m specified {word} load "
-            f"(logged {value:g}): {solves} {util:.2f}"
+            f"(logged {value:g}): {solves} {util:.3f}"
         )
         out.append(Remedy(solves=solves, change=change, utilisation_after=util, message=message))
     return out
@@ -203,7 +203,7 @@ def _restraint_remedy(beam: Beam, data: dict[str, Any], result: Recheck) -> tupl
     util = _try(data, base, _bending(None))
     if util is None:
         return base, []
-    message = f"restrain the bearing(s) against lateral displacement and rotation; bending utilisation then {util:.2f}"
+    message = f"restrain the bearing(s) against lateral displacement and rotation; bending utilisation then {util:.3f}"
     return base, [
         Remedy(solves="bearing_restraint_missing", change=dict(base), utilisation_after=util, message=message)
     ]
@@ -223,7 +223,7 @@ def _brace_remedy(beam: Beam, data: dict[str, Any], base: Change, sign: str) -> 
     change, util = found
     edge = "top edge (fastened purlins or blocking)" if sign == "positive" else "bottom edge (knee braces or blocking)"
     spacing = change["top_edge.spacing_mm" if sign == "positive" else "bottom_edge.spacing_mm"]
-    message = f"brace the {edge} at {spacing:g} mm or closer: {solves} {util:.2f}"
+    message = f"brace the {edge} at {spacing:g} mm or closer: {solves} {util:.3f}"
     return [Remedy(solves=solves, change=change, utilisation_after=util, message=message)]
 
 
@@ -234,7 +234,7 @@ def _bearing_remedy(beam: Beam, data: dict[str, Any], result: Recheck, j: int) -
         change = {f"bearings.{j}.length_mm": length}
         util = _try(data, change, _bearing(j))
         if util is not None and util <= 1.0:
-            message = f"lengthen the bearing at support {check.support} to {length:g} mm: bearing {util:.2f}"
+            message = f"lengthen the bearing at support {check.support} to {length:g} mm: bearing {util:.3f}"
             return [Remedy(solves="bearing_overstress", change=change, utilisation_after=util, message=message)]
     return []
 

@@ -31,13 +31,15 @@ from storage import Store
 LENGTH_FIELDS = {"b_mm", "d_mm", "overhang_left_mm", "overhang_right_mm", "purlin_spacing_mm", "bottom_spacing_mm"}
 LOAD_FIELDS = ("dead_kn_m", "live_kn_m", "snow_kn_m")
 TEXT_ONLY = ("level", "gridline", "notes")
+REMEDIES_KEY = "remedies"
+NOT_RECORDED = "not recorded"  # core takes the unfavourable case and says so in a finding
 PICKERS: dict[str, tuple[str, ...]] = {
     "material": ("glulam", "sawn"),
     "top_braced_by": ("none", "purlins", "decking"),
-    "top_fastened": ("yes", "no"),
+    "top_fastened": ("yes", "no", NOT_RECORDED),
     "bottom_braced_by": ("none", "braces"),
     "service": ("dry", "wet"),
-    "use": ("roof_no_ceiling", "roof_other", "roof_plaster", "floor"),
+    "use": ("roof_no_ceiling", "roof_other", "roof_plaster", "floor", NOT_RECORDED),
     "top_stamp": ("up", "down", "not_visible"),
     "restraint": ("yes", "no", "not_visible"),
 }
@@ -88,13 +90,13 @@ class BeamFormViewModel:
             "overhang_right_mm": _fmt(rec.get("overhang_right_mm", 0)),
             "top_braced_by": _fmt(top.get("braced_by", "none")),
             "purlin_spacing_mm": _fmt(top.get("spacing_mm")),
-            "top_fastened": "yes" if top.get("fastened", True) else "no",
+            "top_fastened": {True: "yes", False: "no"}.get(top.get("fastened"), NOT_RECORDED),
             "bottom_braced_by": _fmt(bottom.get("braced_by", "none")),
             "bottom_spacing_mm": _fmt(bottom.get("spacing_mm")),
             "tributary_m": _fmt(rec.get("tributary_m")),
             "service": _fmt(rec.get("service", "dry")),
-            "use": _fmt(rec.get("use", "roof_no_ceiling")),
-            "top_stamp": _fmt(rec.get("top_stamp", "up")),
+            "use": _fmt(rec.get("use") or NOT_RECORDED),
+            "top_stamp": _fmt(rec.get("top_stamp", "not_visible")),
             "specified_size": f"{spec['b_mm']:g} x {spec['d_mm']:g}" if isinstance(spec, dict) else "",
         }
         loads = rec.get("loads") or {}
@@ -195,7 +197,8 @@ class BeamFormViewModel:
                 top["spacing_mm"] = None
             return {"top_edge": top}
         if name == "top_fastened":
-            return {"top_edge": dict(rec.get("top_edge") or {}, fastened=text == "yes")}
+            fastened = None if text == NOT_RECORDED else text == "yes"
+            return {"top_edge": dict(rec.get("top_edge") or {}, fastened=fastened)}
         if name == "bottom_braced_by":
             bottom = dict(rec.get("bottom_edge") or {}, braced_by=text)
             if text != "braces":
@@ -215,6 +218,8 @@ class BeamFormViewModel:
                     "grade": rec.get("grade"),
                 }
             }
+        if name == "use" and text == NOT_RECORDED:
+            return {"use": None}
         if name in ("grade", "service", "use", "top_stamp"):
             return {name: text}
         raise ValueError(f"unknown field {name!r}")
@@ -326,7 +331,8 @@ class BeamFormViewModel:
                 "deflection",
             )
         )
-        lines += [(text, None, "") for text in self.remedy_lines()]
+        if r.status.value != "ok":  # computed on tap (trace_lines): each option costs several rechecks
+            lines.append(("Options for the engineer of record (tap; never a design)", None, REMEDIES_KEY))
         return lines
 
     def remedy_lines(self) -> list[str]:
@@ -335,13 +341,15 @@ class BeamFormViewModel:
         if r is None or r.status.value == "ok":
             return []
         found = remedies(self.store.beam(self.beam_id), r)
-        return [f"Option for the engineer of record: {x.message}" for x in found]
+        return [f"{x.solves}: {x.message}" for x in found] or ["none found by changing one input"]
 
     def trace_lines(self, key: str) -> list[str]:
         """Where a panel value came from: every factor with clause, table row and verified / memory."""
         r = self.result or self.refresh()
         if r is None or not key:
             return []
+        if key == REMEDIES_KEY:
+            return ["Options for the engineer of record; each passes its check when rechecked:", *self.remedy_lines()]
         trace: list[FactorTrace]
         if key.startswith("bending"):
             check: Any = r.bending[int(key[len("bending") :])]

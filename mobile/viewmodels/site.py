@@ -21,7 +21,7 @@ NEW_BEAM_DEFAULTS: dict[str, Any] = {
     "d_mm": 456,
     "spans_mm": [6000],
     "bearings": [{"lateral": "not_visible", "rotation": "not_visible", "length_mm": 140}] * 2,
-    "top_edge": {"braced_by": "none", "spacing_mm": None, "fastened": True},
+    "top_edge": {"braced_by": "none", "spacing_mm": None, "fastened": None},
 }
 COPIED_FROM_LAST = ("material", "species", "grade", "b_mm", "d_mm", "service", "use", "top_stamp", "level")
 

@@ -56,3 +56,32 @@ def test_beam_is_frozen():
     beam = glulam()
     with pytest.raises(ValidationError):
         beam.b_mm = 10
+
+
+def test_schema_names_the_unfavourable_defaults_and_the_flagged_options():
+    from core.models import Beam
+
+    schema = Beam.model_json_schema()
+    props = schema["properties"]
+    assert props["top_stamp"]["default"] == "not_visible"
+    assert props["use"]["default"] is None
+    assert props["negative_lu"]["default"] == "between_restraints"
+    assert props["dead_load_pattern"]["default"] == "per_part"
+    assert props["le_case"]["default"] == "auto"
+    assert schema["$defs"]["TopEdge"]["properties"]["fastened"]["default"] is None
+
+
+def test_readme_contract_defaults_name_real_fields():
+    from pathlib import Path
+
+    from core.models import Beam
+
+    readme = (Path(__file__).resolve().parents[2] / "README.md").read_text()
+    block = readme.split("<!-- contract1:start -->")[1].split("<!-- contract1:end -->")[0]
+    fields = [line.split("`")[1] for line in block.splitlines() if line.startswith("| `")]
+    schema = Beam.model_json_schema()
+    assert fields
+    for path in fields:
+        head, _, tail = path.partition(".")
+        props = schema["properties"] if not tail else schema["$defs"]["TopEdge"]["properties"]
+        assert (tail or head) in props, path

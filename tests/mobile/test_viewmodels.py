@@ -74,3 +74,21 @@ def test_site_groups_show_status_words(form):
     groups = dict(SiteViewModel(form.store, form.site_id).groups())
     labels = [label for rows in groups.values() for _, _, label in rows]
     assert any("NOT ESTABLISHED" in x for x in labels) and any("OK" in x for x in labels)
+
+
+def test_failing_beam_offers_options_for_the_engineer_of_record(form):
+    assert not any(key == "remedies" for _t, _u, key in form.panel_lines())  # RB-1 passes
+    assert form.set_field("d_mm", "304")
+    assert form.refresh().status.value != "ok"
+    line = [text for text, _u, key in form.panel_lines() if key == "remedies"]
+    assert line and "engineer of record" in line[0]
+    options = form.trace_lines("remedies")
+    assert len(options) > 1 and "engineer of record" in options[0]
+
+
+def test_unrecorded_fastening_and_use_are_shown_as_not_recorded(form):
+    assert form.set_field("top_fastened", "not recorded")
+    assert form.set_field("use", "not recorded")
+    fields = form.form()
+    assert fields["top_fastened"] == "not recorded" and fields["use"] == "not recorded"
+    assert any(f.code == "input_assumed" for f in form.refresh().findings)

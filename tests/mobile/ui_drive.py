@@ -98,6 +98,8 @@ if FLOW == "main":
         type_into("tributary_m", "3.0")
         pick("top_braced_by", "purlins")
         type_into("purlin_spacing_mm", "1200")
+        pick("top_fastened", "yes")  # not recorded would be taken as not fastened (issue 16)
+        pick("top_stamp", "up")
         for i in (1, 2):
             for key in ("lateral", "rotation"):
                 while app.store.beam_record(app.beam_id)["bearings"][i - 1][key] != "yes":
