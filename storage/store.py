@@ -20,6 +20,15 @@ BEAM_FIELDS = tuple(Beam.model_fields)
 DEMO_FIRM_KEY = "bracewalk-demo-firm-key-not-for-production"
 
 
+def projection_digest(db: Any) -> str:
+    """SHA-256 over the projections of a database (tablet or office hub): equal content, equal digest."""
+    h = hashlib.sha256()
+    for table in PROJECTIONS:
+        for rid, data in db.execute(f"SELECT id, data FROM {table} ORDER BY id").fetchall():
+            h.update(f"{table}\x1f{rid}\x1f{data}\x1e".encode())
+    return h.hexdigest()
+
+
 class LifecycleError(ValueError):
     """A status move the deficiency lifecycle does not allow."""
 
@@ -503,11 +512,7 @@ class Store:
 
     def digest(self) -> str:
         """SHA-256 over the synced content (projections), excluding device identity and bookkeeping."""
-        h = hashlib.sha256()
-        for table in PROJECTIONS:
-            for rid, data in self.db.execute(f"SELECT id, data FROM {table} ORDER BY id").fetchall():
-                h.update(f"{table}\x1f{rid}\x1f{data}\x1e".encode())
-        return h.hexdigest()
+        return projection_digest(self.db)
 
     def rebuild_projections(self) -> dict[str, list[tuple[str, str]]]:
         """Replay the op log into fresh in-memory projections and return them (for the I13 check)."""
