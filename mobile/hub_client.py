@@ -18,7 +18,7 @@ from typing import Any
 
 from storage import Store
 from storage.clock import uuid7
-from storage.hubsync import adopt_enrolment, apply_page, hub_cursor, log_sync, outgoing, record_push_answer
+from storage.hubsync import PageRefused, adopt_enrolment, apply_page, hub_cursor, log_sync, outgoing, record_push_answer
 from storage.identity import Enrolment, b64, enrolment, new_private_key, public_text, sign_request
 
 TIMEOUT_S = 20.0
@@ -150,7 +150,10 @@ def _sync(store: Store, auth: Enrolment, result: SyncResult, tell: Progress, clo
         cursor = hub_cursor(store)
         tell(0.5, f"receiving changes after {cursor}")
         page = json.loads(request(auth.hub_url, "GET", f"/v1/pull?cursor={cursor}&limit={PULL_LIMIT}", auth=auth))
-        result.pulled_new += apply_page(store, page)
+        try:
+            result.pulled_new += apply_page(store, page)
+        except PageRefused as exc:
+            raise HubError(str(exc), 409) from exc
         _fetch_blobs(store, auth, page["ops"])
         more = bool(page["more"])
     tell(1.0, "in step with the office")

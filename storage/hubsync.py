@@ -14,7 +14,7 @@ from typing import Any
 
 from storage.db import transaction
 from storage.identity import Enrolment, SignatureError, ensure_tables, op_signatures, save_enrolment, store_signatures
-from storage.oplog import OP_KEYS, Op, ProjectionBatch, apply_op, canonical, insert_op
+from storage.oplog import OP_KEYS, IntegrityError, Op, ProjectionBatch, apply_op, canonical, insert_op
 from storage.store import Store
 
 HUB_PEER = "hub"
@@ -102,6 +102,13 @@ def apply_page(store: Store, page: dict[str, Any]) -> int:
     body = canonical([o["op"] for o in page["ops"]]).encode()
     if hashlib.sha256(body).hexdigest() != page["ops_sha256"]:
         raise PageRefused("pulled page does not match its checksum; nothing applied")
+    try:
+        return _apply_checked(store, ops, page)
+    except IntegrityError as exc:
+        raise PageRefused(f"a change from the office contradicts a record held here, nothing applied: {exc}") from exc
+
+
+def _apply_checked(store: Store, ops: list[Op], page: dict[str, Any]) -> int:
     new = 0
     with transaction(store.db):
         batch = ProjectionBatch(store.db)

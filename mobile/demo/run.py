@@ -13,6 +13,7 @@ from core.models import Beam
 from core.recheck import recheck
 from storage import Store
 from storage.bundle import export_bundle
+from storage.store import DEMO_FIRM_KEY
 
 CAUTION = (
     "Results support, and never replace, the judgement of the engineer of record; local codes and "
@@ -105,7 +106,7 @@ def run_demo(out: Path) -> int:
     db_path = out / "cedar-hollow.db"
     for suffix in ("", "-wal", "-shm"):
         Path(str(db_path) + suffix).unlink(missing_ok=True)
-    store = Store(db_path)
+    store = Store(db_path, firm_key=DEMO_FIRM_KEY)  # the demo's marked key, so its bundle opens anywhere in a demo
     site_id = load_demo(store)
     rows = raise_all(store, site_id)
     notice, pdf_path = issue_notice_for_site(

@@ -10,8 +10,12 @@ from pathlib import Path
 
 from storage import Store
 from storage.bundle import export_bundle, import_bundle
+from storage.hubsync import last_sync as last_hub_sync
+from storage.hubsync import rejection_words
+from storage.identity import enrolment
 
 Progress = Callable[[float, str], None]
+SKEW_WARN_MS = 2 * 60 * 1000  # sync.md 3.3: warn when the tablet's clock is this far from the hub's
 
 
 @dataclass
@@ -54,6 +58,56 @@ class SyncViewModel:
         if report.outcome == "held":
             return f"Held, not applied: {report.reason}. Update the app, then import again."
         return f"Refused, nothing changed: {report.reason}"
+
+    # -- the office hub ------------------------------------------------------------------------
+    def hub_status(self) -> str:
+        """'Office hub http://...: in step at 2026-12-02 10:14 UTC' or why not, in words."""
+        auth = enrolment(self.store.db)
+        if auth is None:
+            return "Not enrolled at an office hub: enter its address and the code the office gave you"
+        last = last_hub_sync(self.store)
+        if last is None:
+            return f"Office hub {auth.hub_url}: enrolled, not synced yet"
+        when = time.strftime("%Y-%m-%d %H:%M UTC", time.gmtime(last["at_ms"] / 1000))
+        words = {"in_step": "in step", "refused": "some changes held back", "unreachable": "could not be reached"}
+        return f"Office hub {auth.hub_url}: {words.get(last['outcome'], last['outcome'])} at {when} ({last['detail']})"
+
+    def enroll(self, url: str, code: str) -> str:
+        """Enrol this tablet with the office's one-time code; a summary or why not."""
+        from mobile.hub_client import HubError, enroll
+
+        if not url.startswith(("http://", "https://")):
+            return f"The hub address must start with http:// or https:// (got {url!r})"
+        worker = Store(self.store.path)
+        try:
+            answer = enroll(worker, url, code.strip())
+        except HubError as exc:
+            return f"Not enrolled: {exc.reason}"
+        finally:
+            worker.close()
+        return f"Enrolled as {answer['name']} for {answer['person']} ({answer['role']})"
+
+    def sync_now(self, progress: Progress | None = None) -> str:
+        """Sync with the office hub (in a worker thread: it opens its own Store); a summary in words."""
+        from mobile.hub_client import HubError, sync
+
+        worker = Store(self.store.path)
+        try:
+            result = sync(worker, progress)
+        except HubError as exc:
+            return f"Not synced, your work is safe on this tablet: {exc.reason}"
+        finally:
+            worker.close()
+        text = f"Sent {result.pushed} changes, received {result.pulled_new}"
+        if abs(result.skew_ms) > SKEW_WARN_MS:
+            text += f"; this tablet's clock is {abs(result.skew_ms) // 60000} min off the office clock"
+        if result.rejected:
+            text += f"; the office held back {len(result.rejected)}: see below"
+        return text
+
+    def held_back(self) -> list[str]:
+        """Changes the office hub refused, each in words: what it was and why."""
+        return rejection_words(self.store)
 
     def conflicts(self) -> list[tuple[int, str]]:
         """[(conflict id, 'beam RB-2 · spans_mm: kept [7200] (device A) · other [7000] (device B)')]."""

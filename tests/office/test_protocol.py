@@ -104,3 +104,18 @@ def test_missing_blobs_and_upload(served, tmp_path):
     request(served.url, "PUT", f"/v1/blobs/{sha}", data, auth)
     assert json.loads(request(served.url, "POST", "/v1/blobs/missing", ask, auth))["sha256"] == []
     assert request(served.url, "GET", f"/v1/blobs/{sha}", auth=auth) == data
+
+
+def test_fresh_install_makes_its_own_bundle_key_and_enrolment_gives_the_firms(served, tmp_path, monkeypatch):
+    from storage import Store
+    from storage.store import DEMO_FIRM_KEY
+
+    monkeypatch.delenv("BRACEWALK_FIRM_KEY")
+    a, b = Store(tmp_path / "fa.db"), Store(tmp_path / "fb.db")
+    assert a.firm_key != b.firm_key  # no key shared by every install
+    assert DEMO_FIRM_KEY.encode() not in (a.firm_key, b.firm_key)
+    for store, name in ((a, "A"), (b, "B")):
+        from mobile.hub_client import enroll
+
+        enroll(store, served.url, served.hub.new_code(name, "P", "reviewer"))
+    assert a.firm_key == b.firm_key == served.hub.bundle_key.encode()  # file bundles work between enrolled devices
