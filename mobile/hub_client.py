@@ -89,6 +89,8 @@ def request(
             reason = json.loads(exc.read()).get("detail", exc.reason)
         except ValueError:
             reason = exc.reason
+        finally:
+            exc.close()
         raise HubError(f"the office hub refused: {reason}", exc.code) from exc
     except (urllib.error.URLError, OSError) as exc:
         raise HubError(f"cannot reach the office hub at {url}: {getattr(exc, 'reason', exc)}") from exc
