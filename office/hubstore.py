@@ -27,7 +27,7 @@ from office import rules
 from storage.clock import uuid7
 from storage.db import PROJECTIONS, SCHEMA_VERSION, connect, transaction
 from storage.identity import SignatureError, load_public, verify_op
-from storage.oplog import OP_KEYS, Op, ProjectionBatch, apply_op, canonical, insert_op
+from storage.oplog import OP_KEYS, Op, ProjectionBatch, all_ops, apply_op, canonical, insert_op
 from storage.store import projection_digest
 
 ROLES = ("reviewer", "technician", "office")
@@ -443,6 +443,19 @@ class HubStore:
                 "field_stamps": [list(r) for r in self.db.execute("SELECT * FROM field_stamp ORDER BY 1, 2, 3")],
                 "digest": projection_digest(self.db),
             }
+
+    def projections(self) -> dict[str, list[tuple[str, str]]]:
+        """The live projections (id, data) per table."""
+        with self.lock:
+            return {t: self.db.execute(f"SELECT id, data FROM {t} ORDER BY id").fetchall() for t in PROJECTIONS}
+
+    def rebuild_projections(self) -> dict[str, list[tuple[str, str]]]:
+        """Replay the hub's op log into fresh projections (invariant I13: they equal the live ones)."""
+        scratch = connect(":memory:")
+        with self.lock, transaction(scratch):
+            for op in all_ops(self.db):
+                apply_op(scratch, op, record_conflicts=False)
+        return {t: scratch.execute(f"SELECT id, data FROM {t} ORDER BY id").fetchall() for t in PROJECTIONS}
 
     def close(self) -> None:
         """Close the connection."""
