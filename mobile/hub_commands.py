@@ -27,9 +27,12 @@ def default_hub_db() -> Path:
 def _hub(db: str | None) -> Any:
     from office.hubstore import HubStore
 
-    if db and "://" in db:
-        raise UserError(f"--db {db}: only an SQLite file path is supported in this version (PostgreSQL is not yet)")
-    return HubStore(db or default_hub_db())
+    if db and "://" in db and not db.startswith(("postgresql://", "postgres://")):
+        raise UserError(f"--db {db}: give an SQLite file path or a postgresql:// URL")
+    try:
+        return HubStore(db or default_hub_db())
+    except OSError as exc:
+        raise UserError(f"cannot open the hub database {db}: {exc}") from exc
 
 
 def cmd_hub_serve(args: argparse.Namespace) -> int:
@@ -61,6 +64,8 @@ def cmd_hub_enroll(args: argparse.Namespace) -> int:
         code = hub.new_code(args.name, args.person, args.role)
     except ValueError as exc:
         raise UserError(str(exc)) from exc
+    finally:
+        hub.close()
     print(f"enrolment code for {args.name} ({args.person}, {args.role}); use once, within 24 hours:")
     print(code)
     return EXIT_OK
@@ -73,13 +78,19 @@ def cmd_hub_revoke(args: argparse.Namespace) -> int:
         dev = hub.revoke(args.device)
     except KeyError as exc:
         raise UserError(f"no enrolled device {args.device}") from exc
+    finally:
+        hub.close()
     print(f"revoked {dev.name} ({dev.person}, {dev.role}); what it sent before stays in the log")
     return EXIT_OK
 
 
 def cmd_hub_digest(args: argparse.Namespace) -> int:
     """Print the hub's content digest (equal to a tablet's ``sync digest`` when they hold the same records)."""
-    print(_hub(args.db).digest())
+    hub = _hub(args.db)
+    try:
+        print(hub.digest())
+    finally:
+        hub.close()
     return EXIT_OK
 
 

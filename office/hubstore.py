@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import hashlib
 import json
+import os
 import secrets
 import threading
 import time
@@ -106,13 +107,28 @@ def _now_ms() -> int:
 class HubStore:
     """The office hub's database on embedded SQLite."""
 
-    def __init__(self, path: str | Path, clock_ms: Callable[[], int] | None = None):
-        """Open or create the hub database at ``path`` and bring it to the current schema."""
+    def __init__(self, path: str | Path, clock_ms: Callable[[], int] | None = None, blob_dir: str | Path | None = None):
+        """Open or create the hub database (an SQLite file, or a ``postgresql://`` URL) at the current schema.
+
+        Blobs live in ``blob_dir`` (default: beside an SQLite file; for PostgreSQL, a folder named for
+        the database in the user's data folder).
+        """
         self.path = str(path)
-        self.db: sqlite_utils.Database = connect(self.path)
         self.lock = threading.RLock()
         self.clock_ms = clock_ms or _now_ms
-        self._migrate()
+        self.db: Any
+        if is_postgres_url(self.path):
+            from office import pgdb
+
+            self.backend = "postgresql"
+            self.db = pgdb.PgDatabase(self.path)
+            pgdb.migrate(self.db)
+            self._blob_dir = Path(blob_dir) if blob_dir else _default_pg_blobs(self.path)
+        else:
+            self.backend = "sqlite"
+            self.db = connect(self.path)
+            self._migrate()
+            self._blob_dir = Path(blob_dir) if blob_dir else Path(self.path).parent / (Path(self.path).stem + "-blobs")
         with self.tx():
             if self._meta("hub_id") is None:
                 self._set_meta("hub_id", uuid7())
@@ -162,8 +178,8 @@ class HubStore:
 
     @property
     def blob_dir(self) -> Path:
-        """Folder beside the database where blobs live, named by SHA-256."""
-        return Path(self.path).parent / (Path(self.path).stem + "-blobs")
+        """Folder where the hub's blobs live, named by SHA-256."""
+        return self._blob_dir
 
     def hub_seq(self) -> int:
         """The last hub_seq handed out (0 when the log is empty)."""
@@ -467,6 +483,17 @@ def _same_op(db: sqlite_utils.Database, op: Op) -> bool:
         "SELECT hlc, entity, record_id, kind, payload, base FROM op WHERE origin=? AND seq=?", [op.origin, op.seq]
     ).fetchone()
     return tuple(row) == (op.hlc, op.entity, op.record_id, op.kind, canonical(op.payload), canonical(op.base))
+
+
+def is_postgres_url(text: str) -> bool:
+    """True for a ``postgresql://`` (or ``postgres://``) URL."""
+    return text.startswith(("postgresql://", "postgres://"))
+
+
+def _default_pg_blobs(url: str) -> Path:
+    base = Path(os.environ.get("BRACEWALK_HOME", Path.home() / ".bracewalk"))
+    where = url.rsplit("@", 1)[-1]  # host, port and database name; never the password
+    return base / "hub-blobs" / hashlib.sha256(where.encode()).hexdigest()[:16]
 
 
 def _code_hash(code: str) -> str:

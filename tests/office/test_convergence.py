@@ -7,14 +7,14 @@ Checks (sync.md 3.11): equal digests on every replica and the hub once all have 
 import tempfile
 from pathlib import Path
 
+import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from mobile.hub_client import sync
-from office.hubstore import HubStore
 from storage.store import LifecycleError
 from tests.core.beams import glulam
-from tests.office.conftest import RunningHub
+from tests.office.conftest import RunningHub, make_hub
 
 FIELDS = {"b_mm": [130, 175, 215], "d_mm": [456, 494, 532], "notes": ["a", "b", "c"]}
 
@@ -36,11 +36,16 @@ def _ops(db):
     return set(db.execute("SELECT origin, seq, hlc FROM op").fetchall())
 
 
-@settings(max_examples=12, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@pytest.mark.parametrize("backend", ["sqlite", "postgresql"])
+@settings(
+    max_examples=10,
+    deadline=None,
+    suppress_health_check=[HealthCheck.too_slow, HealthCheck.function_scoped_fixture],  # each example makes its own
+)
 @given(n=st.integers(3, 5), steps=actions, final_order=st.randoms(use_true_random=False))
-def test_tablets_and_hub_converge(n, steps, final_order):
+def test_tablets_and_hub_converge(request, backend, n, steps, final_order):
     with tempfile.TemporaryDirectory() as tmp:
-        hub = HubStore(Path(tmp) / "hub.db")
+        hub = make_hub(request, backend, Path(tmp) / "hub")
         running = RunningHub(hub).start()
         try:
             tablets = [running.tablet(Path(tmp) / f"t{i}.db", f"T{i}") for i in range(n)]
