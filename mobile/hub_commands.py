@@ -94,6 +94,29 @@ def cmd_hub_digest(args: argparse.Namespace) -> int:
     return EXIT_OK
 
 
+def cmd_hub_user_add(args: argparse.Namespace) -> int:
+    """Add an office user for the register pages; the password is asked for, or read from stdin."""
+    import getpass
+
+    from office import registry
+
+    if sys.stdin.isatty():
+        password = getpass.getpass(f"password for {args.name}: ")
+        if getpass.getpass("again: ") != password:
+            raise UserError("the two passwords differ")
+    else:
+        password = sys.stdin.readline().rstrip("\n")
+    hub = _hub(args.db)
+    try:
+        registry.add_user(hub, args.name, password)
+    except ValueError as exc:
+        raise UserError(str(exc)) from exc
+    finally:
+        hub.close()
+    print(f"office user {args.name} can now log in to the register")
+    return EXIT_OK
+
+
 def _tablet(db: str) -> Any:
     from storage import Store
 
@@ -162,6 +185,13 @@ def register(sub: Any) -> None:
     p = hub.add_parser("digest", help="print a hash over the hub's records")
     p.add_argument("--db")
     p.set_defaults(func=cmd_hub_digest)
+    users = hub.add_parser("user", help="office users of the register pages").add_subparsers(
+        dest="user_command", required=True
+    )
+    p = users.add_parser("add", help="add an office user (password asked for, or read from stdin)")
+    p.add_argument("--db")
+    p.add_argument("--name", required=True)
+    p.set_defaults(func=cmd_hub_user_add)
     sync = _subcommands(sub.choices["sync"])
     p = sync.add_parser("enroll", help="enrol this tablet at an office hub with a one-time code")
     p.add_argument("--db", required=True)

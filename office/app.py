@@ -122,6 +122,9 @@ def create_app(hub: HubStore) -> FastAPI:
     app.include_router(_hub_router())
     app.include_router(_blob_router())
     app.include_router(_sync_router())
+    from office import pages
+
+    pages.install(app)
     return app
 
 

@@ -63,6 +63,10 @@ HUB_MIGRATIONS: dict[int, list[str]] = {
             detail TEXT NOT NULL
         )""",
     ],
+    2: [  # office users of the register pages (argon2 hashes) and their sessions (SHA-256 of the token)
+        "CREATE TABLE IF NOT EXISTS hub_user (name TEXT PRIMARY KEY, password_hash TEXT NOT NULL, created_ms INTEGER)",
+        "CREATE TABLE IF NOT EXISTS hub_session (token_sha256 TEXT PRIMARY KEY, name TEXT NOT NULL, expires_ms INT)",
+    ],
 }
 
 

@@ -37,6 +37,7 @@ TABLES: dict[str, tuple[tuple[str, ...], tuple[str, ...]]] = {
     "peer_cursor": (("peer", "origin"), ("peer", "origin", "seq")),
     "blob": (("sha256",), ("sha256", "size", "mime", "present")),
     "hub_meta": (("key",), ("key", "value")),
+    "hub_user": (("name",), ("name", "password_hash", "created_ms")),
     "hub_quarantine": (
         ("origin", "seq"),
         ("origin", "seq", "op", "sig", "reason", "pushed_by", "at_ms"),
@@ -97,6 +98,10 @@ PG_MIGRATIONS: dict[int, list[str]] = {
         """CREATE TABLE IF NOT EXISTS hub_audit (
             id BIGSERIAL PRIMARY KEY, at_ms BIGINT NOT NULL, device_id TEXT, event TEXT NOT NULL,
             detail TEXT NOT NULL)""",
+    ],
+    2: [
+        "CREATE TABLE IF NOT EXISTS hub_user (name TEXT PRIMARY KEY, password_hash TEXT NOT NULL, created_ms BIGINT)",
+        "CREATE TABLE IF NOT EXISTS hub_session (token_sha256 TEXT PRIMARY KEY, name TEXT NOT NULL, expires_ms BIGINT)",
     ],
 }
 
