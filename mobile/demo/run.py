@@ -97,7 +97,7 @@ def raise_all(store: Store, site_id: str) -> list[tuple[str, Any]]:
     return rows
 
 
-def run_demo(out: Path) -> int:
+def run_demo(out: Path, serve: bool = False) -> int:
     """``bracewalk demo --out DIR``: the whole job on the demo site; print a table and the paths."""
     from mobile.issue import issue_notice_for_site
 
@@ -127,6 +127,9 @@ def run_demo(out: Path) -> int:
     print(f"database: {db_path}")
     print(f"notice:   {pdf_path}")
     print(f"bundle:   {bundle}")
+    from mobile.demo.office import office_demo
+
+    print(office_demo(store, out, serve=serve))
     print(f"({time.perf_counter() - start:.1f} s) {CAUTION}")
     store.close()
     return 0
