@@ -139,3 +139,44 @@ class SyncViewModel:
 def _short(value: str) -> str:
     text = json.dumps(json.loads(value), ensure_ascii=False) if value else "-"
     return text if len(text) <= 60 else text[:57] + "..."
+
+
+@dataclass
+class AutoSync:
+    """When to sync with the office hub on its own: soon after the network returns, then with backoff.
+
+    The screen calls ``tick(now_s)`` from a timer and runs the sync in a worker thread; nothing here
+    blocks the form. After a failure the wait doubles (``base_s`` up to ``max_s``); success or a
+    refusal (the hub answered) resets it; ``network_back`` makes the next tick sync at once.
+    """
+
+    view: SyncViewModel
+    base_s: float = 30.0
+    max_s: float = 1800.0
+    next_at_s: float = 0.0
+    wait_s: float = 30.0
+
+    def due(self, now_s: float) -> bool:
+        """True when a sync should start now."""
+        return enrolment(self.view.store.db) is not None and now_s >= self.next_at_s
+
+    def network_back(self, now_s: float) -> None:
+        """The network has returned: sync at the next tick."""
+        self.next_at_s = now_s
+        self.wait_s = self.base_s
+
+    def tick(self, now_s: float, progress: Progress | None = None) -> str | None:
+        """Sync if due; the summary in words, or None when nothing was due."""
+        if not self.due(now_s):
+            return None
+        text = self.view.sync_now(progress)
+        last = last_hub_sync(self.view.store)
+        reached = last is not None and last["outcome"] in ("in_step", "refused")
+        self.wait_s = self.base_s if reached else min(self.wait_s * 2, self.max_s)
+        self.next_at_s = now_s + self.wait_s
+        return text
+
+    def waiting(self) -> str:
+        """What waits to be sent, in words."""
+        n = self.view.store.pending_sync_count("hub")
+        return f"{n} changes waiting for the office" if n else "nothing waiting for the office"
