@@ -61,8 +61,11 @@ def _silent(fraction: float, what: str) -> None:
     """No progress display."""
 
 
-def _context(url: str) -> ssl.SSLContext | None:
-    return ssl.create_default_context() if url.startswith("https://") else None
+def _context(url: str, ca_pem: str = "") -> ssl.SSLContext | None:
+    """TLS for https: the system's trust store, or only the office's own certificate when one was given."""
+    if not url.startswith("https://"):
+        return None
+    return ssl.create_default_context(cadata=ca_pem) if ca_pem else ssl.create_default_context()
 
 
 def request(
@@ -72,6 +75,7 @@ def request(
     body: bytes = b"",
     auth: Enrolment | None = None,
     extra: dict[str, str] | None = None,
+    ca_pem: str = "",
 ) -> bytes:
     """One HTTP call; raises HubError with the hub's reason on a refusal or a network failure."""
     headers = {"Content-Type": "application/json"} | (extra or {})
@@ -81,7 +85,9 @@ def request(
         url.rstrip("/") + path, data=body if method != "GET" else None, method=method, headers=headers
     )
     try:
-        with urllib.request.urlopen(req, timeout=TIMEOUT_S, context=_context(url)) as resp:
+        with urllib.request.urlopen(
+            req, timeout=TIMEOUT_S, context=_context(url, ca_pem or (auth.ca_pem if auth else ""))
+        ) as resp:
             data: bytes = resp.read()
             return data
     except urllib.error.HTTPError as exc:
@@ -96,13 +102,16 @@ def request(
         raise HubError(f"cannot reach the office hub at {url}: {getattr(exc, 'reason', exc)}") from exc
 
 
-def enroll(store: Store, url: str, code: str) -> dict[str, Any]:
-    """Make this tablet's key pair, enrol it with a one-time code, keep the enrolment and the firm's bundle key."""
+def enroll(store: Store, url: str, code: str, ca_pem: str = "") -> dict[str, Any]:
+    """Make this tablet's key pair, enrol it with a one-time code, keep the enrolment and the firm's bundle key.
+
+    ``ca_pem``: the office's self-signed certificate, trusted for this hub only.
+    """
     key = new_private_key()
     proof = b64(key.sign(f"enroll\n{code}\n{store.device_id}".encode()))
     body = json.dumps({"code": code, "device_id": store.device_id, "public_key": public_text(key), "proof": proof})
-    answer: dict[str, Any] = json.loads(request(url, "POST", "/v1/enroll", body.encode()))
-    adopt_enrolment(store, url.rstrip("/"), answer["device_id"], key, answer["bundle_key"])
+    answer: dict[str, Any] = json.loads(request(url, "POST", "/v1/enroll", body.encode(), ca_pem=ca_pem))
+    adopt_enrolment(store, url.rstrip("/"), answer["device_id"], key, answer["bundle_key"], ca_pem)
     return answer
 
 
@@ -128,7 +137,7 @@ def sync(store: Store, progress: Progress | None = None, now_ms: Callable[[], in
 
 def _sync(store: Store, auth: Enrolment, result: SyncResult, tell: Progress, clock: Callable[[], int]) -> None:
     tell(0.0, "contacting the office")
-    hello = json.loads(request(auth.hub_url, "GET", "/v1/hub"))
+    hello = json.loads(request(auth.hub_url, "GET", "/v1/hub", ca_pem=auth.ca_pem))
     result.skew_ms = int(hello["server_time_ms"]) - clock()
     seen: set[tuple[str, int]] = set()
     while True:

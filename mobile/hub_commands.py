@@ -84,6 +84,19 @@ def cmd_hub_revoke(args: argparse.Namespace) -> int:
     return EXIT_OK
 
 
+def cmd_hub_cert(args: argparse.Namespace) -> int:
+    """Make a self-signed certificate and key for the hub (a small office without its own)."""
+    from office.tls import make_self_signed
+
+    try:
+        crt, key = make_self_signed(Path(args.out), args.name)
+    except ValueError as exc:
+        raise UserError(str(exc)) from exc
+    print(f"certificate {crt} and key {key}; serve with --cert {crt} --key {key},")
+    print(f"and give {crt} to each tablet: bracewalk sync enroll --ca {crt.name} ...")
+    return EXIT_OK
+
+
 def cmd_hub_digest(args: argparse.Namespace) -> int:
     """Print the hub's content digest (equal to a tablet's ``sync digest`` when they hold the same records)."""
     hub = _hub(args.db)
@@ -130,8 +143,14 @@ def cmd_sync_enroll(args: argparse.Namespace) -> int:
     from mobile.hub_client import HubError, enroll
 
     store = _tablet(args.db)
+    ca_pem = ""
+    if args.ca:
+        try:
+            ca_pem = Path(args.ca).read_text(encoding="ascii")
+        except (OSError, UnicodeDecodeError) as exc:
+            raise UserError(f"cannot read the office certificate {args.ca}: {exc}") from exc
     try:
-        answer = enroll(store, args.url, args.code)
+        answer = enroll(store, args.url, args.code, ca_pem)
     except HubError as exc:
         print(f"bracewalk sync enroll: {exc.reason}", file=sys.stderr)
         return EXIT_FAILURE
@@ -182,6 +201,10 @@ def register(sub: Any) -> None:
     p.add_argument("--db")
     p.add_argument("device", help="device id")
     p.set_defaults(func=cmd_hub_revoke)
+    p = hub.add_parser("cert", help="make a self-signed TLS certificate and key for the hub")
+    p.add_argument("--out", required=True, help="folder for hub.crt and hub.key")
+    p.add_argument("--name", action="append", default=[], help="host name or IP the tablets use (repeatable)")
+    p.set_defaults(func=cmd_hub_cert)
     p = hub.add_parser("digest", help="print a hash over the hub's records")
     p.add_argument("--db")
     p.set_defaults(func=cmd_hub_digest)
@@ -197,6 +220,7 @@ def register(sub: Any) -> None:
     p.add_argument("--db", required=True)
     p.add_argument("url", help="the hub's address, e.g. http://office.local:8470")
     p.add_argument("code", help="the one-time code from 'bracewalk hub enroll'")
+    p.add_argument("--ca", help="the office's self-signed certificate (hub.crt from 'bracewalk hub cert') to trust")
     p.set_defaults(func=cmd_sync_enroll)
     p = sync.add_parser("hub", help="sync with the office hub: push, then pull until up to date")
     p.add_argument("--db", required=True)

@@ -81,9 +81,9 @@ def record_push_answer(store: Store, answer: dict[str, Any], pushed: list[tuple[
             )
 
 
-def adopt_enrolment(store: Store, hub_url: str, device_id: str, key: Any, bundle_key: str) -> None:
+def adopt_enrolment(store: Store, hub_url: str, device_id: str, key: Any, bundle_key: str, ca_pem: str = "") -> None:
     """Keep the enrolment and switch file bundles to the firm's key the hub handed over."""
-    save_enrolment(store.db, hub_url, device_id, key)
+    save_enrolment(store.db, hub_url, device_id, key, ca_pem)
     with transaction(store.db):
         store.db.execute("UPDATE meta SET value=? WHERE key='firm_key'", [bundle_key])
 

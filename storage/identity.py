@@ -124,6 +124,7 @@ class Enrolment:
     hub_url: str
     device_id: str
     key: Ed25519PrivateKey
+    ca_pem: str = ""  # the office's own certificate, trusted for this hub only (self-signed TLS)
 
 
 def ensure_tables(db: sqlite_utils.Database) -> None:
@@ -143,17 +144,20 @@ def enrolment(db: sqlite_utils.Database) -> Enrolment | None:
     url, device, raw = _get(db, "hub_url"), _get(db, "hub_device_id"), _get(db, "private_key")
     if not (url and device and raw):
         return None
-    return Enrolment(url, device, Ed25519PrivateKey.from_private_bytes(unb64(raw)))
+    return Enrolment(url, device, Ed25519PrivateKey.from_private_bytes(unb64(raw)), _get(db, "hub_ca") or "")
 
 
-def save_enrolment(db: sqlite_utils.Database, hub_url: str, device_id: str, key: Ed25519PrivateKey) -> None:
-    """Keep the enrolment (in one transaction)."""
+def save_enrolment(
+    db: sqlite_utils.Database, hub_url: str, device_id: str, key: Ed25519PrivateKey, ca_pem: str = ""
+) -> None:
+    """Keep the enrolment (in one transaction); ``ca_pem``: the office certificate to trust, if self-signed."""
     ensure_tables(db)
     with transaction(db):
         for name, value in {
             "hub_url": hub_url,
             "hub_device_id": device_id,
             "private_key": b64(private_bytes(key)),
+            "hub_ca": ca_pem,
         }.items():
             db.execute("INSERT OR REPLACE INTO device_key VALUES (?, ?)", [name, value])
 
