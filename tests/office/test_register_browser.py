@@ -37,6 +37,14 @@ def browser(tmp_path):
     driver.quit()
 
 
+def _wait_for(driver, text):
+    """Wait (bounded, 15 s) until the page that a click opened shows ``text``."""
+    from selenium.webdriver.support.ui import WebDriverWait
+
+    WebDriverWait(driver, 15).until(lambda d: text in d.page_source)
+    return True
+
+
 def _shot(driver, name):
     ARTEFACTS.mkdir(parents=True, exist_ok=True)
     driver.save_screenshot(str(ARTEFACTS / f"{name}.png"))
@@ -54,16 +62,16 @@ def test_log_in_open_a_site_and_an_item_download_a_notice(office, browser):  # n
     browser.find_element(By.NAME, "name").send_keys("office")
     browser.find_element(By.NAME, "password").send_keys("correct horse battery")
     browser.find_element(By.ID, "login").click()
-    assert "Maple Street Hall" in browser.page_source
+    assert _wait_for(browser, "Maple Street Hall")
     _shot(browser, "2-sites")
     browser.find_element(By.LINK_TEXT, "Maple Street Hall").click()
-    assert d.number in browser.page_source
+    assert _wait_for(browser, d.number)
     _shot(browser, "3-site")
     browser.find_element(By.LINK_TEXT, d.number).click()
-    assert "blocking installed" in browser.page_source
+    assert _wait_for(browser, "blocking installed")
     _shot(browser, "4-item")
     browser.find_element(By.LINK_TEXT, "Notices").click()
-    assert "matches its recorded SHA-256" in browser.page_source
+    assert _wait_for(browser, "matches its recorded SHA-256")
     _shot(browser, "5-notices")
     browser.find_element(By.LINK_TEXT, "Download PDF").click()
     pdfs = []
@@ -75,5 +83,5 @@ def test_log_in_open_a_site_and_an_item_download_a_notice(office, browser):  # n
     assert len(pdfs) == 1
     assert hashlib.sha256(pdfs[0].read_bytes()).hexdigest() == notice.pdf_sha256
     browser.find_element(By.LINK_TEXT, "Devices").click()
-    assert "Tablet 3" in browser.page_source
+    assert _wait_for(browser, "Tablet 3")
     _shot(browser, "6-devices")
