@@ -344,16 +344,16 @@ class HubStore:
                 raise HubRefused(403, f"{exc}: refused whole, nothing changed") from exc
         return origins
 
-    def _context(self, op: Op, origin: Device) -> rules.Context:
+    def _context(self, op: Op, origin: Device, batch: ProjectionBatch) -> rules.Context:
+        """What the rules need, read through the push's batch (rows merged earlier in this push count)."""
         stored_hash = None
         current = (0, 0)
         last = None
         if op.kind == "insert":
-            row = self.db.execute(f"SELECT content_hash FROM {op.entity} WHERE id=?", [op.record_id]).fetchone()
-            stored_hash = row[0] if row else None
+            stored_hash = batch.load(op.entity, op.record_id)[1]
         if op.kind == "status":
-            row = self.db.execute("SELECT data FROM deficiency WHERE id=?", [op.record_id]).fetchone()
-            data = json.loads(row[0]) if row else {}
+            batch.flush()  # the status history below is read from the table
+            data = batch.load("deficiency", op.record_id)[0] or {}
             current = (int(data.get("cycle", 0)), int(data.get("stage", 0)))
             events = self.db.execute("SELECT data FROM deficiency_event WHERE id LIKE ?", [f"{op.origin}:%"]).fetchall()
             mine = [json.loads(e[0]) for e in events]
@@ -381,8 +381,7 @@ class HubStore:
                         None if _same_op(self.db, op) else "integrity: this change number is held with other content"
                     )
                 else:
-                    batch.flush()  # rules read the projections as they stand
-                    reason = rules.judge(op, self._context(op, origins[op.origin]))
+                    reason = rules.judge(op, self._context(op, origins[op.origin], batch))
                 if reason:
                     self._quarantine(op, sig, reason, device_id)
                     answer.rejected.append({"origin": op.origin, "seq": op.seq, "reason": reason})
