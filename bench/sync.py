@@ -37,11 +37,13 @@ BEAM = {
     "loads": {"dead_kn_m": 2.0, "live_kn_m": 0.0, "snow_kn_m": 5.0},
 }
 
+BENCH_KEY = "bench-only-firm-key"  # one key for the benchmark's own databases
+
 
 def make_source(path: Path, n_ops: int, seed: int = 11) -> Store:
     """A database holding exactly n_ops ops: one site, beams, then single-field edits."""
     rng = random.Random(seed)
-    store = Store(path)
+    store = Store(path, firm_key=BENCH_KEY)
     with transaction(store.db):
         site = "site-bench"
         store._save_in_tx("site", site, {"name": "Bench Site", "address": "1 Test Lane"}, "set", None)
@@ -91,13 +93,13 @@ def run(quick: bool = False) -> list[Row]:
 
             def fresh(state: dict[str, int] = state, work: Path = work) -> None:
                 state["i"] += 1  # empty databases of the same schema for both sides, untimed
-                Store(work / f"dst{state['i']}.db").close()
-                Store(work / f"raw{state['i']}.db").close()
+                Store(work / f"dst{state['i']}.db", firm_key=BENCH_KEY).close()
+                Store(work / f"raw{state['i']}.db", firm_key=BENCH_KEY).close()
 
             def sync(state: dict[str, int] = state, work: Path = work, src: Store = src, n: int = n) -> None:
                 bundle = work / f"b{state['i']}.bwsync"
                 export_bundle(src, bundle)
-                dst = Store(work / f"dst{state['i']}.db")
+                dst = Store(work / f"dst{state['i']}.db", firm_key=BENCH_KEY)
                 report = import_bundle(dst, bundle)
                 if report.outcome != "applied" or report.ops_new != n:
                     raise RuntimeError(f"sync bench: import {report.outcome}, {report.ops_new} of {n} ops")

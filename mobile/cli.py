@@ -91,9 +91,10 @@ def build_parser() -> argparse.ArgumentParser:
 
 def _add_more(sub: Any) -> None:
     """Commands that live in their own modules (demo, report, sync, app)."""
-    from mobile import commands
+    from mobile import commands, hub_commands
 
     commands.register(sub)
+    hub_commands.register(sub)
 
 
 def main(argv: list[str] | None = None) -> int:

@@ -71,7 +71,7 @@ def cmd_demo(args: argparse.Namespace) -> int:
     """Run the whole job on the demo site, headless."""
     from mobile.demo.run import run_demo
 
-    return run_demo(Path(args.out))
+    return run_demo(Path(args.out), serve=args.serve)
 
 
 def cmd_report(args: argparse.Namespace) -> int:
@@ -104,6 +104,7 @@ def register(sub: Any) -> None:
     p.set_defaults(func=cmd_app)
     p = sub.add_parser("demo", help="run the whole job headless on the built-in demo site")
     p.add_argument("--out", required=True, help="folder to create for the database, notice PDF and bundle")
+    p.add_argument("--serve", action="store_true", help="keep the demo office hub running and print its address")
     p.set_defaults(func=cmd_demo)
     p = sub.add_parser("report", help="issue a deficiency notice PDF, or verify one")
     p.add_argument("--db", required=True)

@@ -5,6 +5,7 @@ from __future__ import annotations
 import hashlib
 import json
 import os
+import secrets
 import time
 from pathlib import Path
 from typing import Any
@@ -17,7 +18,16 @@ from storage.db import PROJECTIONS, SCHEMA_VERSION, SET_ENTITIES, connect, trans
 from storage.oplog import IntegrityError, Op, all_ops, apply_op, canonical, insert_op
 
 BEAM_FIELDS = tuple(Beam.model_fields)
-DEMO_FIRM_KEY = "bracewalk-demo-firm-key-not-for-production"
+DEMO_FIRM_KEY = "bracewalk-demo-firm-key-not-for-production"  # DEMO ONLY: the demo database, never a firm's
+
+
+def projection_digest(db: Any) -> str:
+    """SHA-256 over the projections of a database (tablet or office hub): equal content, equal digest."""
+    h = hashlib.sha256()
+    for table in PROJECTIONS:
+        for rid, data in db.execute(f"SELECT id, data FROM {table} ORDER BY id").fetchall():
+            h.update(f"{table}\x1f{rid}\x1f{data}\x1e".encode())
+    return h.hexdigest()
 
 
 class LifecycleError(ValueError):
@@ -35,7 +45,9 @@ class Store:
         meta = self._meta()
         if "device_id" not in meta:
             device = uuid7()
-            key = firm_key or os.environ.get("BRACEWALK_FIRM_KEY") or DEMO_FIRM_KEY
+            # A fresh install makes its own random bundle key; enrolment at the office hub replaces it with
+            # the firm's key (storage/hubsync.py). No key in the source is shared by every install.
+            key = firm_key or os.environ.get("BRACEWALK_FIRM_KEY") or secrets.token_hex(32)
             with transaction(self.db):
                 for k, v in {
                     "device_id": device,
@@ -503,11 +515,7 @@ class Store:
 
     def digest(self) -> str:
         """SHA-256 over the synced content (projections), excluding device identity and bookkeeping."""
-        h = hashlib.sha256()
-        for table in PROJECTIONS:
-            for rid, data in self.db.execute(f"SELECT id, data FROM {table} ORDER BY id").fetchall():
-                h.update(f"{table}\x1f{rid}\x1f{data}\x1e".encode())
-        return h.hexdigest()
+        return projection_digest(self.db)
 
     def rebuild_projections(self) -> dict[str, list[tuple[str, str]]]:
         """Replay the op log into fresh in-memory projections and return them (for the I13 check)."""

@@ -13,6 +13,7 @@ from core.models import Beam
 from core.recheck import recheck
 from storage import Store
 from storage.bundle import export_bundle
+from storage.store import DEMO_FIRM_KEY
 
 CAUTION = (
     "Results support, and never replace, the judgement of the engineer of record; local codes and "
@@ -96,7 +97,7 @@ def raise_all(store: Store, site_id: str) -> list[tuple[str, Any]]:
     return rows
 
 
-def run_demo(out: Path) -> int:
+def run_demo(out: Path, serve: bool = False) -> int:
     """``bracewalk demo --out DIR``: the whole job on the demo site; print a table and the paths."""
     from mobile.issue import issue_notice_for_site
 
@@ -105,7 +106,7 @@ def run_demo(out: Path) -> int:
     db_path = out / "cedar-hollow.db"
     for suffix in ("", "-wal", "-shm"):
         Path(str(db_path) + suffix).unlink(missing_ok=True)
-    store = Store(db_path)
+    store = Store(db_path, firm_key=DEMO_FIRM_KEY)  # the demo's marked key, so its bundle opens anywhere in a demo
     site_id = load_demo(store)
     rows = raise_all(store, site_id)
     notice, pdf_path = issue_notice_for_site(
@@ -126,6 +127,9 @@ def run_demo(out: Path) -> int:
     print(f"database: {db_path}")
     print(f"notice:   {pdf_path}")
     print(f"bundle:   {bundle}")
+    from mobile.demo.office import office_demo
+
+    print(office_demo(store, out, serve=serve))
     print(f"({time.perf_counter() - start:.1f} s) {CAUTION}")
     store.close()
     return 0

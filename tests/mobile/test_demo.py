@@ -1,5 +1,6 @@
 """The demo site gives the statuses and findings its scenario was written to show."""
 
+import os
 import subprocess
 import sys
 from pathlib import Path
@@ -7,6 +8,7 @@ from pathlib import Path
 from core import recheck
 from mobile.demo.run import load_demo
 from storage import Store
+from storage.store import DEMO_FIRM_KEY
 
 ROOT = Path(__file__).resolve().parents[2]
 
@@ -75,6 +77,7 @@ def test_sync_cli_round_trip_same_digest(tmp_path):
         text=True,
         cwd=ROOT,
         timeout=300,
+        env=dict(os.environ, BRACEWALK_FIRM_KEY=DEMO_FIRM_KEY),  # the demo's bundle opens under the demo's key only
     )
     assert imp.returncode == 0 and "merged" in imp.stdout
     d1 = subprocess.run(

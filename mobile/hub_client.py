@@ -1,0 +1,203 @@
+"""The tablet's HTTP client for the office hub (sync.md 3.9), on the standard library only.
+
+Session order: hello -> blobs/missing -> blob PUTs -> push -> pull until ``more`` is false. Push
+before pull, so the pulled pages already hold the hub's view of our own ops.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import ssl
+import time
+import urllib.error
+import urllib.request
+from collections.abc import Callable
+from dataclasses import dataclass, field
+from typing import Any
+
+from storage import Store
+from storage.clock import uuid7
+from storage.hubsync import PageRefused, adopt_enrolment, apply_page, hub_cursor, log_sync, outgoing, record_push_answer
+from storage.identity import Enrolment, b64, enrolment, new_private_key, public_text, sign_request
+
+TIMEOUT_S = 20.0
+PUSH_BATCH = 2000
+PULL_LIMIT = 2000
+SKEW_WARN_MS = 2 * 60 * 1000
+BLOB_KEYS = ("sha256", "pdf_sha256", "evidence_sha256")
+
+Progress = Callable[[float, str], None]
+
+
+class HubError(Exception):
+    """The hub refused a request or could not be reached; ``reason`` is for a person."""
+
+    def __init__(self, reason: str, status: int | None = None):
+        """Keep the reason and the HTTP status (None when the hub was not reached)."""
+        super().__init__(reason)
+        self.reason = reason
+        self.status = status
+
+
+@dataclass
+class SyncResult:
+    """What one sync did."""
+
+    pushed: int = 0
+    pulled_new: int = 0
+    blobs_sent: int = 0
+    rejected: list[dict[str, Any]] = field(default_factory=list)
+    unsigned_relays: int = 0
+    skew_ms: int = 0
+
+    @property
+    def in_step(self) -> bool:
+        """True when the hub took everything and nothing waits."""
+        return not self.rejected
+
+
+def _silent(fraction: float, what: str) -> None:
+    """No progress display."""
+
+
+def _context(url: str, ca_pem: str = "") -> ssl.SSLContext | None:
+    """TLS for https: the system's trust store, or only the office's own certificate when one was given."""
+    if not url.startswith("https://"):
+        return None
+    return ssl.create_default_context(cadata=ca_pem) if ca_pem else ssl.create_default_context()
+
+
+def request(
+    url: str,
+    method: str,
+    path: str,
+    body: bytes = b"",
+    auth: Enrolment | None = None,
+    extra: dict[str, str] | None = None,
+    ca_pem: str = "",
+) -> bytes:
+    """One HTTP call; raises HubError with the hub's reason on a refusal or a network failure."""
+    headers = {"Content-Type": "application/json"} | (extra or {})
+    if auth is not None:
+        headers |= sign_request(auth.key, auth.device_id, method, path, body)
+    req = urllib.request.Request(
+        url.rstrip("/") + path, data=body if method != "GET" else None, method=method, headers=headers
+    )
+    try:
+        with urllib.request.urlopen(
+            req, timeout=TIMEOUT_S, context=_context(url, ca_pem or (auth.ca_pem if auth else ""))
+        ) as resp:
+            data: bytes = resp.read()
+            return data
+    except urllib.error.HTTPError as exc:
+        try:
+            reason = json.loads(exc.read()).get("detail", exc.reason)
+        except ValueError:
+            reason = exc.reason
+        finally:
+            exc.close()
+        raise HubError(f"the office hub refused: {reason}", exc.code) from exc
+    except (urllib.error.URLError, OSError) as exc:
+        raise HubError(f"cannot reach the office hub at {url}: {getattr(exc, 'reason', exc)}") from exc
+
+
+def enroll(store: Store, url: str, code: str, ca_pem: str = "") -> dict[str, Any]:
+    """Make this tablet's key pair, enrol it with a one-time code, keep the enrolment and the firm's bundle key.
+
+    ``ca_pem``: the office's self-signed certificate, trusted for this hub only.
+    """
+    key = new_private_key()
+    proof = b64(key.sign(f"enroll\n{code}\n{store.device_id}".encode()))
+    body = json.dumps({"code": code, "device_id": store.device_id, "public_key": public_text(key), "proof": proof})
+    answer: dict[str, Any] = json.loads(request(url, "POST", "/v1/enroll", body.encode(), ca_pem=ca_pem))
+    adopt_enrolment(store, url.rstrip("/"), answer["device_id"], key, answer["bundle_key"], ca_pem)
+    return answer
+
+
+def sync(store: Store, progress: Progress | None = None, now_ms: Callable[[], int] | None = None) -> SyncResult:
+    """Push what the hub lacks, then pull until up to date. Raises HubError when refused or unreachable."""
+    tell = progress or _silent
+    clock = now_ms or (lambda: int(time.time() * 1000))
+    auth = enrolment(store.db)
+    if auth is None:
+        raise HubError("this tablet is not enrolled at an office hub (enter the hub address and a code)")
+    result = SyncResult()
+    try:
+        _sync(store, auth, result, tell, clock)
+    except HubError as exc:
+        log_sync(store, "unreachable" if exc.status is None else "refused", exc.reason, clock())
+        raise
+    if result.rejected:
+        log_sync(store, "refused", f"{len(result.rejected)} changes held at the office", clock())
+    else:
+        log_sync(store, "in_step", f"sent {result.pushed}, received {result.pulled_new}", clock())
+    return result
+
+
+def _sync(store: Store, auth: Enrolment, result: SyncResult, tell: Progress, clock: Callable[[], int]) -> None:
+    tell(0.0, "contacting the office")
+    hello = json.loads(request(auth.hub_url, "GET", "/v1/hub", ca_pem=auth.ca_pem))
+    result.skew_ms = int(hello["server_time_ms"]) - clock()
+    seen: set[tuple[str, int]] = set()
+    while True:
+        out = outgoing(store, auth, PUSH_BATCH, frozenset(seen))
+        result.unsigned_relays = out.unsigned_relays
+        batch = out.ops
+        if not batch:
+            break
+        tell(0.1, f"sending {len(batch)} changes")
+        result.blobs_sent += _send_blobs(store, auth, [op for op, _ in batch])
+        body = json.dumps(
+            {"bundle_id": uuid7(), "ops": [{"op": _op_json(op), "sig": sig} for op, sig in batch]}
+        ).encode()
+        answer = json.loads(request(auth.hub_url, "POST", "/v1/push", body, auth))
+        record_push_answer(store, answer, batch, clock())
+        result.pushed += len(batch)
+        result.rejected.extend(answer["rejected"])
+        seen.update((op.origin, op.seq) for op, _ in batch)
+    more = True
+    while more:
+        cursor = hub_cursor(store)
+        tell(0.5, f"receiving changes after {cursor}")
+        page = json.loads(request(auth.hub_url, "GET", f"/v1/pull?cursor={cursor}&limit={PULL_LIMIT}", auth=auth))
+        try:
+            result.pulled_new += apply_page(store, page)
+        except PageRefused as exc:
+            raise HubError(str(exc), 409) from exc
+        _fetch_blobs(store, auth, page["ops"])
+        more = bool(page["more"])
+    tell(1.0, "in step with the office")
+
+
+def _op_json(op: Any) -> dict[str, Any]:
+    row: dict[str, Any] = op.row()
+    row["payload"], row["base"] = op.payload, op.base
+    return row
+
+
+def _send_blobs(store: Store, auth: Enrolment, ops: list[Any]) -> int:
+    shas = sorted({op.payload[k] for op in ops for k in BLOB_KEYS if op.payload.get(k)})
+    shas = [s for s in shas if store.blob_path(s).exists()]
+    if not shas:
+        return 0
+    body = json.dumps({"sha256": shas}).encode()
+    missing = json.loads(request(auth.hub_url, "POST", "/v1/blobs/missing", body, auth))["sha256"]
+    for sha in missing:
+        request(auth.hub_url, "PUT", f"/v1/blobs/{sha}", store.blob_path(sha).read_bytes(), auth)
+    return len(missing)
+
+
+def _fetch_blobs(store: Store, auth: Enrolment, ops: list[dict[str, Any]]) -> None:
+    for item in ops:
+        for k in BLOB_KEYS:
+            sha = item["op"]["payload"].get(k)
+            if sha and not store.blob_path(sha).exists():
+                try:
+                    data = request(auth.hub_url, "GET", f"/v1/blobs/{sha}", auth=auth)
+                except HubError as exc:
+                    if exc.status == 404:  # not at the hub yet: the record shows "pending" until it arrives
+                        continue
+                    raise
+                if hashlib.sha256(data).hexdigest() == sha:
+                    store.put_blob(data, "application/octet-stream")

@@ -1,0 +1,174 @@
+"""The hub on PostgreSQL (psycopg 3): the same tables as SQLite, numbered migrations, one adapter.
+
+The adapter is a connection that speaks the few SQLite forms the shared merge (``storage.oplog``)
+and the hub store write.
+
+One merge implementation serves the tablet and both hub backends: this module gives it the small
+database-access interface it uses (``execute(sql, params)`` returning a cursor with ``fetchone``,
+``fetchall`` and ``description``), translating exactly these forms:
+
+- ``?`` placeholders become ``%s``;
+- ``INSERT OR REPLACE INTO t ...`` becomes ``INSERT ... ON CONFLICT (primary key) DO UPDATE``;
+- ``INSERT OR IGNORE INTO t ...`` becomes ``INSERT ... ON CONFLICT DO NOTHING``;
+- ``BEGIN IMMEDIATE`` becomes ``BEGIN`` plus a transaction-scoped advisory lock, so ingest
+  transactions run one at a time and hub_seq is handed out in commit order (no cursor holes,
+  sync.md 4, even with several hub workers on one database).
+"""
+
+from __future__ import annotations
+
+import re
+from functools import lru_cache
+from typing import Any
+
+import psycopg
+
+INGEST_LOCK = 8470_0001
+
+# table -> (primary key columns, all columns in order); what INSERT OR REPLACE needs to know
+TABLES: dict[str, tuple[tuple[str, ...], tuple[str, ...]]] = {
+    "meta": (("key",), ("key", "value")),
+    "op": (
+        ("origin", "seq"),
+        ("origin", "seq", "hlc", "entity", "record_id", "kind", "payload", "base", "schema_version", "wall_ms"),
+    ),
+    "field_stamp": (("entity", "record_id", "field"), ("entity", "record_id", "field", "hlc", "origin")),
+    "seen": (("origin",), ("origin", "seq")),
+    "peer_cursor": (("peer", "origin"), ("peer", "origin", "seq")),
+    "blob": (("sha256",), ("sha256", "size", "mime", "present")),
+    "hub_meta": (("key",), ("key", "value")),
+    "hub_user": (("name",), ("name", "password_hash", "created_ms")),
+    "hub_quarantine": (
+        ("origin", "seq"),
+        ("origin", "seq", "op", "sig", "reason", "pushed_by", "at_ms"),
+    ),
+}
+
+PROJECTION_NAMES = (
+    "site",
+    "visit",
+    "beam",
+    "deficiency",
+    "measurement",
+    "photo",
+    "issued_notice",
+    "deficiency_event",
+)
+
+PG_MIGRATIONS: dict[int, list[str]] = {
+    1: [
+        "CREATE TABLE IF NOT EXISTS meta (key TEXT PRIMARY KEY, value TEXT NOT NULL)",
+        """CREATE TABLE IF NOT EXISTS op (
+            origin TEXT NOT NULL, seq BIGINT NOT NULL, hlc BIGINT NOT NULL, entity TEXT NOT NULL,
+            record_id TEXT NOT NULL, kind TEXT NOT NULL, payload TEXT NOT NULL, base TEXT NOT NULL,
+            schema_version INTEGER NOT NULL, wall_ms BIGINT NOT NULL, PRIMARY KEY (origin, seq))""",
+        """CREATE TABLE IF NOT EXISTS field_stamp (
+            entity TEXT NOT NULL, record_id TEXT NOT NULL, field TEXT NOT NULL, hlc BIGINT NOT NULL,
+            origin TEXT NOT NULL, PRIMARY KEY (entity, record_id, field))""",
+        "CREATE TABLE IF NOT EXISTS seen (origin TEXT PRIMARY KEY, seq BIGINT NOT NULL)",
+        "CREATE TABLE IF NOT EXISTS peer_cursor (peer TEXT, origin TEXT, seq BIGINT, PRIMARY KEY (peer, origin))",
+        """CREATE TABLE IF NOT EXISTS conflict (
+            id BIGSERIAL PRIMARY KEY, entity TEXT, record_id TEXT, field TEXT, winner_origin TEXT,
+            winner_seq BIGINT, winner_value TEXT, loser_origin TEXT, loser_seq BIGINT, loser_value TEXT,
+            detected_at TEXT, resolved_by TEXT)""",
+        "CREATE TABLE IF NOT EXISTS blob (sha256 TEXT PRIMARY KEY, size BIGINT, mime TEXT, present INTEGER)",
+        *[
+            f"CREATE TABLE IF NOT EXISTS {name} (id TEXT PRIMARY KEY, site_id TEXT, data TEXT NOT NULL, "
+            "content_hash TEXT)"
+            for name in PROJECTION_NAMES
+        ],
+        *[f"CREATE INDEX IF NOT EXISTS {name}_site ON {name}(site_id)" for name in PROJECTION_NAMES],
+        "CREATE INDEX IF NOT EXISTS op_hlc ON op(hlc)",
+        "CREATE TABLE IF NOT EXISTS hub_meta (key TEXT PRIMARY KEY, value TEXT NOT NULL)",
+        """CREATE TABLE IF NOT EXISTS hub_device (
+            device_id TEXT PRIMARY KEY, name TEXT NOT NULL, person TEXT NOT NULL, role TEXT NOT NULL,
+            public_key TEXT NOT NULL, enrolled_ms BIGINT NOT NULL, revoked_ms BIGINT, last_sync_ms BIGINT)""",
+        """CREATE TABLE IF NOT EXISTS hub_code (
+            code_sha256 TEXT PRIMARY KEY, name TEXT NOT NULL, person TEXT NOT NULL, role TEXT NOT NULL,
+            created_ms BIGINT NOT NULL, used_by TEXT)""",
+        """CREATE TABLE IF NOT EXISTS hub_log (
+            hub_seq BIGSERIAL PRIMARY KEY, origin TEXT NOT NULL, seq BIGINT NOT NULL, sig TEXT NOT NULL,
+            UNIQUE (origin, seq))""",
+        """CREATE TABLE IF NOT EXISTS hub_push (
+            bundle_id TEXT PRIMARY KEY, device_id TEXT NOT NULL, body_sha256 TEXT NOT NULL, answer TEXT NOT NULL,
+            at_ms BIGINT NOT NULL)""",
+        """CREATE TABLE IF NOT EXISTS hub_quarantine (
+            origin TEXT NOT NULL, seq BIGINT NOT NULL, op TEXT NOT NULL, sig TEXT NOT NULL, reason TEXT NOT NULL,
+            pushed_by TEXT NOT NULL, at_ms BIGINT NOT NULL, PRIMARY KEY (origin, seq))""",
+        """CREATE TABLE IF NOT EXISTS hub_audit (
+            id BIGSERIAL PRIMARY KEY, at_ms BIGINT NOT NULL, device_id TEXT, event TEXT NOT NULL,
+            detail TEXT NOT NULL)""",
+    ],
+    2: [
+        "CREATE TABLE IF NOT EXISTS hub_user (name TEXT PRIMARY KEY, password_hash TEXT NOT NULL, created_ms BIGINT)",
+        "CREATE TABLE IF NOT EXISTS hub_session (token_sha256 TEXT PRIMARY KEY, name TEXT NOT NULL, expires_ms BIGINT)",
+    ],
+}
+
+_REPLACE = re.compile(r"^\s*INSERT OR REPLACE INTO (\w+)\s*(\(([^)]*)\))?\s*VALUES", re.IGNORECASE | re.DOTALL)
+_IGNORE = re.compile(r"^\s*INSERT OR IGNORE INTO", re.IGNORECASE)
+
+
+@lru_cache(maxsize=512)
+def translate(sql: str) -> str:
+    """The PostgreSQL form of one statement the shared code writes for SQLite."""
+    out = sql.replace("%", "%%").replace("?", "%s")
+    m = _REPLACE.match(out)
+    if m:
+        table = m.group(1)
+        if table not in TABLES:
+            raise ValueError(f"INSERT OR REPLACE on {table!r}: its primary key is not listed in office/pgdb.py")
+        pk, cols = TABLES[table]
+        named = tuple(c.strip() for c in m.group(3).split(",")) if m.group(3) else cols
+        head = f"INSERT INTO {table} ({', '.join(named)}) VALUES"
+        updates = ", ".join(f"{c} = excluded.{c}" for c in named if c not in pk)
+        action = f"DO UPDATE SET {updates}" if updates else "DO NOTHING"
+        return head + out[m.end() :] + f" ON CONFLICT ({', '.join(pk)}) {action}"
+    if _IGNORE.match(out):
+        return _IGNORE.sub("INSERT INTO", out, count=1) + " ON CONFLICT DO NOTHING"
+    return out
+
+
+class PgDatabase:
+    """A psycopg connection with the ``execute`` the shared storage code calls."""
+
+    def __init__(self, url: str):
+        """Connect (autocommit: transactions are opened explicitly by ``storage.db.transaction``)."""
+        self.url = url
+        self.conn = psycopg.connect(url, autocommit=True)
+
+    def execute(self, sql: str, params: Any = None) -> Any:
+        """Run one statement (translated) and return the cursor."""
+        if sql.strip().upper() == "BEGIN IMMEDIATE":
+            cur = self.conn.execute("BEGIN")
+            self.conn.execute("SELECT pg_advisory_xact_lock(%s)", [INGEST_LOCK])
+            return cur
+        return self.conn.execute(translate(sql), params)
+
+
+def migrate(db: PgDatabase) -> int:
+    """Apply the numbered PostgreSQL migrations above the stored one, each in one transaction."""
+    with db.conn.transaction():
+        db.conn.execute("SELECT pg_advisory_xact_lock(%s)", [INGEST_LOCK])
+        db.conn.execute("CREATE TABLE IF NOT EXISTS hub_meta (key TEXT PRIMARY KEY, value TEXT NOT NULL)")
+        row = db.conn.execute("SELECT value FROM hub_meta WHERE key='hub_schema'").fetchone()
+        current = int(row[0]) if row else 0
+        for number in sorted(PG_MIGRATIONS):
+            if number <= current:
+                continue
+            for statement in PG_MIGRATIONS[number]:
+                db.conn.execute(statement)
+            db.conn.execute(
+                "INSERT INTO hub_meta VALUES ('hub_schema', %s) ON CONFLICT (key) DO UPDATE SET value = excluded.value",
+                [str(number)],
+            )
+    return max(PG_MIGRATIONS)
+
+
+def _binary_collation() -> None:
+    """Text sorts by code point, as in SQLite, so ``ORDER BY id`` and the digest agree across backends."""
+    for number, statements in PG_MIGRATIONS.items():
+        PG_MIGRATIONS[number] = [s.replace("TEXT", 'TEXT COLLATE "C"') for s in statements]
+
+
+_binary_collation()

@@ -1,0 +1,224 @@
+"""What the office register shows, read from the hub's projections; office users and their sessions.
+
+Passwords are kept only as argon2 hashes; a session is a random token whose SHA-256 the hub keeps.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import secrets
+import time
+from dataclasses import dataclass
+from typing import Any
+
+from argon2 import PasswordHasher
+from argon2.exceptions import InvalidHashError, VerificationError
+
+from core.results import PRIORITY_ORDER
+from office.hubstore import HubStore
+
+SESSION_MS = 12 * 3600 * 1000
+STAGES = ("open", "corrected", "verified")
+_hasher = PasswordHasher()
+
+
+def add_user(hub: HubStore, name: str, password: str) -> None:
+    """Add (or re-set the password of) an office user."""
+    if not name.strip():
+        raise ValueError("user name must not be empty")
+    if len(password) < 8:
+        raise ValueError(f"password is {len(password)} characters; at least 8 allowed")
+    with hub.tx():
+        hub.db.execute(
+            "INSERT OR REPLACE INTO hub_user VALUES (?, ?, ?)", [name.strip(), _hasher.hash(password), hub.clock_ms()]
+        )
+
+
+def login(hub: HubStore, name: str, password: str) -> str | None:
+    """A new session token if the password is right, else None."""
+    with hub.lock:
+        row = hub.db.execute("SELECT password_hash FROM hub_user WHERE name=?", [name]).fetchone()
+    if row is None:
+        _hasher.hash(password)  # the same work whether or not the user exists
+        return None
+    try:
+        _hasher.verify(row[0], password)
+    except (VerificationError, InvalidHashError):
+        return None
+    token = secrets.token_urlsafe(32)
+    with hub.tx():
+        hub.db.execute("INSERT INTO hub_session VALUES (?, ?, ?)", [_sha(token), name, hub.clock_ms() + SESSION_MS])
+    return token
+
+
+def session_user(hub: HubStore, token: str) -> str | None:
+    """The user a live session token belongs to."""
+    if not token:
+        return None
+    with hub.lock:
+        row = hub.db.execute("SELECT name, expires_ms FROM hub_session WHERE token_sha256=?", [_sha(token)]).fetchone()
+    return str(row[0]) if row and int(row[1]) > hub.clock_ms() else None
+
+
+def logout(hub: HubStore, token: str) -> None:
+    """End a session."""
+    with hub.tx():
+        hub.db.execute("DELETE FROM hub_session WHERE token_sha256=?", [_sha(token)])
+
+
+def _sha(text: str) -> str:
+    return hashlib.sha256(text.encode()).hexdigest()
+
+
+# -- what the pages show ---------------------------------------------------------------------------
+@dataclass
+class Item:
+    """One deficiency as the register lists it."""
+
+    id: str
+    site_id: str
+    number: str
+    priority: str
+    stage: str
+    cycle: int
+    location: str
+    description: str
+    reference: str
+    action: str
+    due: str
+    raised_ms: int
+    overdue: bool
+    beam_id: str | None
+
+    @property
+    def age_days(self) -> int:
+        """Whole days since it was raised."""
+        return max(0, int((time.time() * 1000 - self.raised_ms) // 86_400_000))
+
+
+def _rows(
+    hub: HubStore, table: str, where: str = "", params: list[Any] | None = None
+) -> list[tuple[str, dict[str, Any]]]:
+    with hub.lock:
+        rows = hub.db.execute(f"SELECT id, data FROM {table} {where} ORDER BY id", params or []).fetchall()
+    return [(str(r[0]), json.loads(r[1])) for r in rows]
+
+
+def _raised(hub: HubStore) -> dict[str, int]:
+    with hub.lock:
+        rows = hub.db.execute("SELECT record_id, min(hlc) FROM op WHERE entity='deficiency' GROUP BY record_id")
+        return {str(r[0]): int(r[1]) >> 16 for r in rows.fetchall()}
+
+
+def items(hub: HubStore, site_id: str | None = None, open_only: bool = True) -> list[Item]:
+    """Deficiencies, overdue first, then by priority, then oldest first."""
+    raised = _raised(hub)
+    today = time.strftime("%Y-%m-%d", time.gmtime(hub.clock_ms() / 1000))
+    where, params = ("WHERE site_id=?", [site_id]) if site_id else ("", [])
+    out = []
+    for did, d in _rows(hub, "deficiency", where, params):
+        if "number" not in d:
+            continue
+        stage = STAGES[int(d.get("stage", 0))]
+        if open_only and stage == "verified":
+            continue
+        due = str(d.get("due") or "")
+        out.append(
+            Item(
+                id=did,
+                site_id=str(d.get("site_id")),
+                number=str(d["number"]),
+                priority=str(d.get("priority", "observation")),
+                stage=stage,
+                cycle=int(d.get("cycle", 0)),
+                location=str(d.get("location", "")),
+                description=str(d.get("description", "")),
+                reference=str(d.get("reference", "")),
+                action=str(d.get("action", "")),
+                due=due,
+                raised_ms=raised.get(did, 0),
+                overdue=bool(due) and due < today and stage != "verified",
+                beam_id=d.get("beam_id"),
+            )
+        )
+    return sorted(out, key=lambda i: (not i.overdue, PRIORITY_ORDER.get(i.priority, 99), i.raised_ms, i.number))
+
+
+def sites(hub: HubStore) -> list[dict[str, Any]]:
+    """Every site with its open deficiencies counted by priority; sites with overdue items first."""
+    open_items = items(hub)
+    out = []
+    for sid, s in _rows(hub, "site"):
+        mine = [i for i in open_items if i.site_id == sid]
+        out.append(
+            {
+                "id": sid,
+                "name": s.get("name", sid),
+                "address": s.get("address", ""),
+                "open": len(mine),
+                "overdue": sum(i.overdue for i in mine),
+                "by_priority": {p: sum(i.priority == p for i in mine) for p in PRIORITY_ORDER},
+                "oldest_days": max((i.age_days for i in mine), default=0),
+            }
+        )
+    return sorted(out, key=lambda s: (-s["overdue"], -s["open"], s["name"]))
+
+
+def site(hub: HubStore, site_id: str) -> dict[str, Any] | None:
+    """One site's record."""
+    found = _rows(hub, "site", "WHERE id=?", [site_id])
+    return dict(found[0][1], id=site_id) if found else None
+
+
+def deficiency(hub: HubStore, deficiency_id: str) -> dict[str, Any] | None:
+    """One deficiency with its history, photos, beam record and the notices that carry it."""
+    found = [i for i in items(hub, open_only=False) if i.id == deficiency_id]
+    if not found:
+        return None
+    item = found[0]
+    history = sorted(
+        (d for _, d in _rows(hub, "deficiency_event") if d.get("deficiency_id") == deficiency_id),
+        key=lambda e: (e["hlc"], e["origin"]),
+    )
+    photos = [
+        dict(p, id=pid)
+        for pid, p in _rows(hub, "photo", "WHERE site_id=?", [item.site_id])
+        if p.get("deficiency_id") == deficiency_id or (item.beam_id and p.get("beam_id") == item.beam_id)
+    ]
+    beam = _rows(hub, "beam", "WHERE id=?", [item.beam_id]) if item.beam_id else []
+    carried = [
+        dict(n, id=nid) for nid, n in _rows(hub, "issued_notice") if deficiency_id in n.get("deficiency_ids", [])
+    ]
+    for p in photos:
+        p["present"] = hub.blob_path(p["sha256"]).exists()
+    return {
+        "item": item,
+        "history": [dict(e, stage_name=STAGES[int(e["stage"])]) for e in history],
+        "photos": photos,
+        "beam": beam[0][1] if beam else None,
+        "notices": carried,
+    }
+
+
+def notices(hub: HubStore) -> list[dict[str, Any]]:
+    """Issued notices, each with whether the hub holds its PDF and whether the bytes match the recorded SHA-256."""
+    out = []
+    for nid, n in _rows(hub, "issued_notice"):
+        path = hub.blob_path(n["pdf_sha256"])
+        if not path.exists():
+            check = "PDF not yet received"
+        elif hashlib.sha256(path.read_bytes()).hexdigest() == n["pdf_sha256"]:
+            check = "matches its recorded SHA-256"
+        else:
+            check = "DOES NOT match its recorded SHA-256"
+        out.append(dict(n, id=nid, check=check, present=path.exists()))
+    return sorted(out, key=lambda n: (n["number"], n.get("revision", 0)))
+
+
+def notice_pdf(hub: HubStore, notice_id: str) -> tuple[str, bytes] | None:
+    """(file name, bytes) of an issued notice's PDF, only when the bytes match the recorded hash."""
+    for n in notices(hub):
+        if n["id"] == notice_id and n["check"].startswith("matches"):
+            return f"{n['number']}-rev{n.get('revision', 0)}.pdf", hub.blob_path(n["pdf_sha256"]).read_bytes()
+    return None

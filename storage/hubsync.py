@@ -1,0 +1,179 @@
+"""The tablet's side of syncing with the office hub, without the HTTP.
+
+What to push, what the hub answered, and applying a pulled page with its cursor in one transaction.
+
+The merge is the one in ``storage.oplog``, the same the hub runs.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+from dataclasses import dataclass
+from typing import Any
+
+from storage.db import transaction
+from storage.identity import Enrolment, SignatureError, ensure_tables, op_signatures, save_enrolment, store_signatures
+from storage.oplog import OP_KEYS, IntegrityError, Op, ProjectionBatch, apply_op, canonical, insert_op
+from storage.store import Store
+
+HUB_PEER = "hub"
+HUB_TABLES = (
+    "CREATE TABLE IF NOT EXISTS hub_rejection (origin TEXT NOT NULL, seq INTEGER NOT NULL, reason TEXT NOT NULL, "
+    "at_ms INTEGER NOT NULL, PRIMARY KEY (origin, seq))",
+    "CREATE TABLE IF NOT EXISTS hub_sync_log (id INTEGER PRIMARY KEY AUTOINCREMENT, at_ms INTEGER NOT NULL, "
+    "outcome TEXT NOT NULL, detail TEXT NOT NULL)",
+)
+
+
+class PageRefused(ValueError):
+    """A pulled page that does not check out (hash mismatch); nothing was applied."""
+
+
+def _ensure(store: Store) -> None:
+    ensure_tables(store.db)
+    for statement in HUB_TABLES:
+        store.db.execute(statement)
+
+
+@dataclass
+class Outgoing:
+    """Ops to push with their signatures, and how many colleagues' ops could not be relayed."""
+
+    ops: list[tuple[Op, str]]
+    unsigned_relays: int
+
+
+def outgoing(
+    store: Store, enrolment: Enrolment, limit: int = 5000, skip: frozenset[tuple[str, int]] = frozenset()
+) -> Outgoing:
+    """Ops the hub has not acknowledged (this device's and relayed ones), oldest first, at most ``limit``.
+
+    ``skip``: ops already pushed in this session (the hub refused them; they are not sent twice).
+    """
+    _ensure(store)
+    cursor = dict(store.db.execute("SELECT origin, seq FROM peer_cursor WHERE peer=?", [HUB_PEER]).fetchall())
+    rows = store.db.execute(f"SELECT {', '.join(OP_KEYS)} FROM op ORDER BY origin, seq").fetchall()
+    ops = [Op.from_row(dict(zip(OP_KEYS, r, strict=True))) for r in rows]
+    ops = [o for o in ops if o.seq > cursor.get(o.origin, 0) and (o.origin, o.seq) not in skip]
+    signed = set((str(r[0]), int(r[1])) for r in store.db.execute("SELECT origin, seq FROM op_sig").fetchall())
+    mine_or_signed = [o for o in ops if o.origin == store.device_id or (o.origin, o.seq) in signed]
+    chosen = mine_or_signed[:limit]
+    try:
+        sigs = op_signatures(store.db, chosen, enrolment.key, store.device_id)
+    except SignatureError as exc:  # cannot happen for the filtered list; said plainly if it ever does
+        raise RuntimeError(f"signing outgoing ops: {exc}") from exc
+    return Outgoing(list(zip(chosen, sigs, strict=True)), len(ops) - len(mine_or_signed))
+
+
+def record_push_answer(store: Store, answer: dict[str, Any], pushed: list[tuple[Op, str]], now_ms: int) -> None:
+    """Move the hub cursor to what the hub holds and keep its refusals for the Sync screen."""
+    _ensure(store)
+    with transaction(store.db):
+        for origin, seq in answer["seen"].items():
+            store.db.execute("INSERT OR REPLACE INTO peer_cursor VALUES (?, ?, ?)", [HUB_PEER, origin, int(seq)])
+        for op, _ in pushed:
+            store.db.execute("DELETE FROM hub_rejection WHERE origin=? AND seq=?", [op.origin, op.seq])
+        for r in answer["rejected"]:
+            store.db.execute(
+                "INSERT OR REPLACE INTO hub_rejection VALUES (?, ?, ?, ?)",
+                [r["origin"], int(r["seq"]), r["reason"], now_ms],
+            )
+
+
+def adopt_enrolment(store: Store, hub_url: str, device_id: str, key: Any, bundle_key: str, ca_pem: str = "") -> None:
+    """Keep the enrolment and switch file bundles to the firm's key the hub handed over."""
+    save_enrolment(store.db, hub_url, device_id, key, ca_pem)
+    with transaction(store.db):
+        store.db.execute("UPDATE meta SET value=? WHERE key='firm_key'", [bundle_key])
+
+
+def hub_cursor(store: Store) -> int:
+    """The last hub_seq this tablet has applied."""
+    _ensure(store)
+    row = store.db.execute("SELECT value FROM device_key WHERE key='hub_cursor'").fetchone()
+    return int(row[0]) if row else 0
+
+
+def apply_page(store: Store, page: dict[str, Any]) -> int:
+    """Check and apply one pulled page and store its cursor, in one transaction; the number of new ops."""
+    _ensure(store)
+    ops = [Op.from_row(o["op"]) for o in page["ops"]]
+    body = canonical([o["op"] for o in page["ops"]]).encode()
+    if hashlib.sha256(body).hexdigest() != page["ops_sha256"]:
+        raise PageRefused("pulled page does not match its checksum; nothing applied")
+    try:
+        return _apply_checked(store, ops, page)
+    except IntegrityError as exc:
+        raise PageRefused(f"a change from the office contradicts a record held here, nothing applied: {exc}") from exc
+
+
+def _apply_checked(store: Store, ops: list[Op], page: dict[str, Any]) -> int:
+    new = 0
+    with transaction(store.db):
+        batch = ProjectionBatch(store.db)
+        newest = 0
+        for op in ops:
+            if insert_op(store.db, op, batch):
+                apply_op(store.db, op, batch=batch)
+                newest = max(newest, op.hlc)
+                new += 1
+        batch.flush()
+        if new:
+            store.observe_hlc(newest)
+        store_signatures(
+            store.db,
+            [{"origin": o.origin, "seq": o.seq, "sig": s["sig"]} for o, s in zip(ops, page["ops"], strict=True)],
+        )
+        store.db.execute("INSERT OR REPLACE INTO device_key VALUES ('hub_cursor', ?)", [str(int(page["next_cursor"]))])
+        for origin, seq in page["seen"].items():  # what the hub holds need not be sent back to it
+            store.db.execute(
+                "INSERT INTO peer_cursor VALUES (?, ?, ?) ON CONFLICT (peer, origin) DO UPDATE SET seq = "
+                "max(seq, excluded.seq)",
+                [HUB_PEER, origin, int(seq)],
+            )
+    return new
+
+
+def log_sync(store: Store, outcome: str, detail: str, now_ms: int) -> None:
+    """Remember a sync attempt (the Sync screen shows the last one)."""
+    _ensure(store)
+    with transaction(store.db):
+        store.db.execute(
+            "INSERT INTO hub_sync_log (at_ms, outcome, detail) VALUES (?, ?, ?)", [now_ms, outcome, detail]
+        )
+
+
+def last_sync(store: Store) -> dict[str, Any] | None:
+    """The last sync attempt with the hub: at_ms, outcome ('in_step', 'refused', 'unreachable'), detail."""
+    _ensure(store)
+    row = store.db.execute("SELECT at_ms, outcome, detail FROM hub_sync_log ORDER BY id DESC LIMIT 1").fetchone()
+    return {"at_ms": row[0], "outcome": row[1], "detail": row[2]} if row else None
+
+
+def rejections(store: Store) -> list[dict[str, Any]]:
+    """Changes the hub refused and holds in quarantine, with its reason, and what they were."""
+    _ensure(store)
+    rows = store.db.execute(
+        "SELECT r.origin, r.seq, r.reason, r.at_ms, o.entity, o.record_id, o.kind, o.payload FROM hub_rejection r "
+        "LEFT JOIN op o ON o.origin = r.origin AND o.seq = r.seq ORDER BY r.at_ms, r.seq"
+    ).fetchall()
+    keys = ("origin", "seq", "reason", "at_ms", "entity", "record_id", "kind", "payload")
+    out = []
+    for r in rows:
+        item = dict(zip(keys, r, strict=True))
+        item["payload"] = json.loads(item["payload"]) if item["payload"] else {}
+        out.append(item)
+    return out
+
+
+def rejection_words(store: Store) -> list[str]:
+    """Each change the hub holds back, in words: what it was and why."""
+    out = []
+    for r in rejections(store):
+        what = f"{r['entity'] or 'change'} {str(r['record_id'] or '')[-6:]}"
+        if r["kind"] == "status":
+            what = f"status move of deficiency {str(r['record_id'])[-6:]} to stage {r['payload'].get('stage')}"
+        why = r["reason"].split(": ", 1)[1] if ": " in r["reason"] else r["reason"]
+        out.append(f"{what} (change {r['seq']}): {why}")
+    return out

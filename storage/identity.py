@@ -1,0 +1,189 @@
+"""Device identity: an Ed25519 key pair per device, op signatures, signed HTTP requests.
+
+Each tablet makes its own key pair when it enrols at the office hub; the private key never leaves
+the device database. Every op a device saves is signed by its origin device (``sign_op``) over the
+op's canonical JSON, so the hub, and anyone holding the origin's public key, can check that an op
+relayed by another device is exactly what its origin wrote (``verify_op``).
+"""
+
+from __future__ import annotations
+
+import base64
+import hashlib
+import time
+from dataclasses import dataclass
+from typing import Any
+
+import sqlite_utils
+from cryptography.exceptions import InvalidSignature
+from cryptography.hazmat.primitives import serialization
+from cryptography.hazmat.primitives.asymmetric.ed25519 import Ed25519PrivateKey, Ed25519PublicKey
+
+from storage.db import transaction
+from storage.oplog import Op, canonical
+
+# How far a signed request's time may be from the hub's clock (milliseconds).
+REQUEST_WINDOW_MS = 10 * 60 * 1000
+
+IDENTITY_TABLES = (
+    "CREATE TABLE IF NOT EXISTS op_sig (origin TEXT NOT NULL, seq INTEGER NOT NULL, sig TEXT NOT NULL, "
+    "PRIMARY KEY (origin, seq)) WITHOUT ROWID",
+    "CREATE TABLE IF NOT EXISTS device_key (key TEXT PRIMARY KEY, value TEXT NOT NULL)",
+)
+
+
+class SignatureError(ValueError):
+    """A signature that does not verify, or a key that cannot be read."""
+
+
+def b64(data: bytes) -> str:
+    """URL-safe base64 without padding."""
+    return base64.urlsafe_b64encode(data).decode().rstrip("=")
+
+
+def unb64(text: str) -> bytes:
+    """Inverse of ``b64``; raises SignatureError on text that is not base64."""
+    try:
+        return base64.urlsafe_b64decode(text + "=" * (-len(text) % 4))
+    except (ValueError, TypeError) as exc:
+        raise SignatureError(f"not base64: {text[:20]!r}") from exc
+
+
+def new_private_key() -> Ed25519PrivateKey:
+    """A fresh random Ed25519 private key."""
+    return Ed25519PrivateKey.generate()
+
+
+def private_bytes(key: Ed25519PrivateKey) -> bytes:
+    """The 32 raw bytes of a private key."""
+    return key.private_bytes(serialization.Encoding.Raw, serialization.PrivateFormat.Raw, serialization.NoEncryption())
+
+
+def public_text(key: Ed25519PrivateKey | Ed25519PublicKey) -> str:
+    """The public key as base64 text (32 raw bytes)."""
+    pub = key.public_key() if isinstance(key, Ed25519PrivateKey) else key
+    return b64(pub.public_bytes(serialization.Encoding.Raw, serialization.PublicFormat.Raw))
+
+
+def load_public(text: str) -> Ed25519PublicKey:
+    """Read a public key written by ``public_text``."""
+    raw = unb64(text)
+    if len(raw) != 32:
+        raise SignatureError(f"public key is {len(raw)} bytes; Ed25519 keys are 32")
+    return Ed25519PublicKey.from_public_bytes(raw)
+
+
+def op_message(op: Op) -> bytes:
+    """The bytes an op signature covers: the op's canonical JSON (payload and base as objects)."""
+    row = op.row()
+    row["payload"], row["base"] = op.payload, op.base
+    return b"bracewalk-op/1\n" + canonical(row).encode()
+
+
+def sign_op(key: Ed25519PrivateKey, op: Op) -> str:
+    """Signature of an op by its origin device."""
+    return b64(key.sign(op_message(op)))
+
+
+def verify_op(public: Ed25519PublicKey, op: Op, sig: str) -> None:
+    """Raise SignatureError unless ``sig`` is the origin's signature of exactly this op."""
+    try:
+        public.verify(unb64(sig), op_message(op))
+    except InvalidSignature as exc:
+        raise SignatureError(f"op {op.origin[:8]}:{op.seq} signature does not verify") from exc
+
+
+def request_message(method: str, path: str, timestamp_ms: int, body: bytes) -> bytes:
+    """What a signed HTTP request covers: method, path with query, time and the body's SHA-256."""
+    return f"bracewalk-request/1\n{method.upper()}\n{path}\n{timestamp_ms}\n{hashlib.sha256(body).hexdigest()}".encode()
+
+
+def sign_request(key: Ed25519PrivateKey, device_id: str, method: str, path: str, body: bytes) -> dict[str, str]:
+    """Headers that authenticate one request by a device."""
+    now = int(time.time() * 1000)
+    sig = b64(key.sign(request_message(method, path, now, body)))
+    return {"X-Bracewalk-Device": device_id, "X-Bracewalk-Time": str(now), "X-Bracewalk-Signature": sig}
+
+
+def verify_request(
+    public: Ed25519PublicKey, method: str, path: str, timestamp_ms: int, body: bytes, sig: str, now_ms: int
+) -> None:
+    """Raise SignatureError unless the request is signed by this key and made within the window."""
+    if abs(now_ms - timestamp_ms) > REQUEST_WINDOW_MS:
+        raise SignatureError(f"request time {timestamp_ms} is more than 10 minutes from the hub's clock {now_ms}")
+    try:
+        public.verify(unb64(sig), request_message(method, path, timestamp_ms, body))
+    except InvalidSignature as exc:
+        raise SignatureError("request signature does not verify") from exc
+
+
+@dataclass(frozen=True)
+class Enrolment:
+    """What a tablet holds once enrolled: the hub's address, its device id at the hub, and its key."""
+
+    hub_url: str
+    device_id: str
+    key: Ed25519PrivateKey
+    ca_pem: str = ""  # the office's own certificate, trusted for this hub only (self-signed TLS)
+
+
+def ensure_tables(db: sqlite_utils.Database) -> None:
+    """Create the identity tables on a device database (idempotent)."""
+    for statement in IDENTITY_TABLES:
+        db.execute(statement)
+
+
+def _get(db: sqlite_utils.Database, name: str) -> str | None:
+    row = db.execute("SELECT value FROM device_key WHERE key=?", [name]).fetchone()
+    return str(row[0]) if row else None
+
+
+def enrolment(db: sqlite_utils.Database) -> Enrolment | None:
+    """The enrolment of this device, or None if it has not enrolled at a hub."""
+    ensure_tables(db)
+    url, device, raw = _get(db, "hub_url"), _get(db, "hub_device_id"), _get(db, "private_key")
+    if not (url and device and raw):
+        return None
+    return Enrolment(url, device, Ed25519PrivateKey.from_private_bytes(unb64(raw)), _get(db, "hub_ca") or "")
+
+
+def save_enrolment(
+    db: sqlite_utils.Database, hub_url: str, device_id: str, key: Ed25519PrivateKey, ca_pem: str = ""
+) -> None:
+    """Keep the enrolment (in one transaction); ``ca_pem``: the office certificate to trust, if self-signed."""
+    ensure_tables(db)
+    with transaction(db):
+        for name, value in {
+            "hub_url": hub_url,
+            "hub_device_id": device_id,
+            "private_key": b64(private_bytes(key)),
+            "hub_ca": ca_pem,
+        }.items():
+            db.execute("INSERT OR REPLACE INTO device_key VALUES (?, ?)", [name, value])
+
+
+def op_signatures(db: sqlite_utils.Database, ops: list[Op], key: Ed25519PrivateKey, self_origin: str) -> list[str]:
+    """Signatures of ``ops``: stored ones, or signed now (and stored) for this device's own ops.
+
+    Ops of other origins must carry the signature their origin made (relayed as received).
+    """
+    ensure_tables(db)
+    out = []
+    with transaction(db):
+        for op in ops:
+            row = db.execute("SELECT sig FROM op_sig WHERE origin=? AND seq=?", [op.origin, op.seq]).fetchone()
+            if row:
+                out.append(str(row[0]))
+                continue
+            if op.origin != self_origin:
+                raise SignatureError(f"op {op.origin[:8]}:{op.seq} of another device has no signature to relay")
+            sig = sign_op(key, op)
+            db.execute("INSERT INTO op_sig VALUES (?, ?, ?)", [op.origin, op.seq, sig])
+            out.append(sig)
+    return out
+
+
+def store_signatures(db: sqlite_utils.Database, sigs: list[dict[str, Any]]) -> None:
+    """Keep signatures of ops received from the hub, so they can be relayed (inside the caller's transaction)."""
+    for s in sigs:
+        db.execute("INSERT OR IGNORE INTO op_sig VALUES (?, ?, ?)", [s["origin"], int(s["seq"]), s["sig"]])
