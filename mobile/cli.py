@@ -10,11 +10,9 @@ from typing import Any
 
 from pydantic import ValidationError
 
-EXIT_OK, EXIT_FAILURE, EXIT_BAD_INPUT = 0, 1, 2
+from mobile.errors import EXIT_BAD_INPUT, EXIT_FAILURE, EXIT_OK, UserError
 
-
-class UserError(Exception):
-    """A mistake in the user's input: reported on stderr with exit status 2, never a traceback."""
+__all__ = ["EXIT_BAD_INPUT", "EXIT_FAILURE", "EXIT_OK", "UserError", "main"]
 
 
 def _format_validation(err: ValidationError) -> str:
