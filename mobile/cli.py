@@ -28,6 +28,7 @@ def _format_validation(err: ValidationError) -> str:
 def load_beam(path: str) -> Any:
     """Read and validate a beam JSON file; raise UserError naming the field on bad input."""
     from core.models import Beam
+    from mobile.units import check_beam_json
 
     try:
         text = sys.stdin.read() if path == "-" else Path(path).read_text(encoding="utf-8")
@@ -37,6 +38,10 @@ def load_beam(path: str) -> Any:
         data = json.loads(text)
     except json.JSONDecodeError as exc:
         raise UserError(f"{path} is not valid JSON: {exc.msg} at line {exc.lineno}") from exc
+    try:
+        check_beam_json(data)  # plausible ranges, the same as the tablet's form (mobile/units.py)
+    except ValueError as exc:
+        raise UserError(f"invalid beam: {exc}") from exc
     try:
         return Beam.model_validate(data)
     except ValidationError as exc:

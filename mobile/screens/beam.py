@@ -47,6 +47,7 @@ class BeamScreen(Screen):
                 w.screen = self
                 self.fields[w.name] = w
         self._pending: dict[str, str] = {}
+        self._echoed: set[str] = set()  # fields accepted since the last redraw: show them back with their unit
         self._event: Any = None
 
     def on_pre_enter(self, *args: Any) -> None:
@@ -69,7 +70,7 @@ class BeamScreen(Screen):
             if isinstance(w, TextField) and w.quick:
                 w.quick_values = self.vm.quick_sizes(name)
             w.ids.input.text = values.get(name, "")
-            w.error = self.vm.errors.get(name, "")
+            self._show_messages(name, w)
             w.loading = False
         self.build_bearings(values)
         self.photo_text = f"Photos: {self.vm.photo_count()}"
@@ -143,7 +144,8 @@ class BeamScreen(Screen):
         """Save every pending entry, then redraw the recheck."""
         pending, self._pending = self._pending, {}
         for name, text in pending.items():
-            self.vm.set_field(name, text)
+            if self.vm.set_field(name, text) and name in self.fields:
+                self._echoed.add(name)
         if pending:
             self.after_change(reload="spans" in pending or "material" in pending or "species" in pending)
 
@@ -158,6 +160,13 @@ class BeamScreen(Screen):
         current = self.vm.form().get(f"bearing{support}.{key}", "not_visible")
         self.set_now(f"bearing{support}.{key}", NEXT_RESTRAINT[current])
 
+    def _show_messages(self, name: str, w: Any) -> None:
+        """The field's message, the offered reading and the echo of the value in force."""
+        w.error = self.vm.errors.get(name, "")
+        if isinstance(w, TextField):
+            w.suggestion = self.vm.suggestions.get(name, "") if w.error else ""
+            w.echo = "" if w.error else self.vm.echo(name)
+
     def after_change(self, reload: bool = False) -> None:
         """Show messages at the fields and refresh the recheck panel (and dependent pickers)."""
         if reload:
@@ -166,7 +175,12 @@ class BeamScreen(Screen):
             values = self.vm.form()
             self.build_bearings(values)
         for name, w in self.fields.items():
-            w.error = self.vm.errors.get(name, "")
+            self._show_messages(name, w)
+            if isinstance(w, TextField) and name in self._echoed and not w.ids.input.focus:
+                w.loading = True
+                w.ids.input.text = self.vm.form().get(name, "")  # the value in force, with its unit
+                w.loading = False
+        self._echoed.clear()
         self.show_title()
         self.render()
 

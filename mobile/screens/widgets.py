@@ -85,6 +85,8 @@ class TextField(BoxLayout):
     label = StringProperty("")
     hint = StringProperty("")
     error = StringProperty("")
+    echo = StringProperty("")  # what the stored value was understood as ('= 7200 mm = 23' 7 7/16"')
+    suggestion = StringProperty("")  # a value to offer when the entry was refused ('3.9 m')
     quick = BooleanProperty(False)
     keypad = BooleanProperty(False)
     quick_values = ListProperty([])
@@ -100,6 +102,12 @@ class TextField(BoxLayout):
         """Enter or leaving the field: save now."""
         if self.screen is not None and not self.loading:
             self.screen.commit(self.name)
+
+    def accept_suggestion(self) -> None:
+        """The reviewer took the offered reading ('3.9 m'): enter it as if typed."""
+        if self.suggestion and not self.loading:
+            self.ids.input.text = self.suggestion
+            self.commit()
 
     def pick_quick(self, text: str) -> None:
         """A standard size was picked."""

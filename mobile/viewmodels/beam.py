@@ -23,11 +23,18 @@ from core import tables
 from core.models import Beam, Material, grades_allowed, species_allowed
 from core.recheck import recheck
 from core.results import FactorTrace, Recheck
-from mobile.units import parse_length_mm
+from mobile.units import LengthRefused, echo_length, read_length, split_spans
 from mobile.viewmodels.common import line_loads_kn_m, status_label, validation_message
 from storage import Store
 
-LENGTH_FIELDS = {"b_mm", "d_mm", "overhang_left_mm", "overhang_right_mm", "purlin_spacing_mm", "bottom_spacing_mm"}
+LENGTH_FIELDS = {  # form field -> its plausible range (core.plausible)
+    "b_mm": "b_mm",
+    "d_mm": "d_mm",
+    "overhang_left_mm": "overhang_mm",
+    "overhang_right_mm": "overhang_mm",
+    "purlin_spacing_mm": "spacing_mm",
+    "bottom_spacing_mm": "spacing_mm",
+}
 LOAD_FIELDS = ("dead_kn_m", "live_kn_m", "snow_kn_m")
 TEXT_ONLY = ("level", "gridline", "notes")
 PICKERS: dict[str, tuple[str, ...]] = {
@@ -42,12 +49,16 @@ PICKERS: dict[str, tuple[str, ...]] = {
 }
 RESTRAINT_WORDS = {"yes": "YES, restrained", "no": "NO restraint", "not_visible": "NOT VISIBLE"}
 NEXT_RESTRAINT = {"yes": "no", "no": "not_visible", "not_visible": "yes"}
-_SPLIT = re.compile(r"\s*[,;+]\s*")
 _SIZE = re.compile(r"^\s*(.+?)\s*[x×*]\s*(.+?)\s*$", re.IGNORECASE)
 
 
 def _fmt(value: Any) -> str:
     return "" if value is None else f"{value:g}" if isinstance(value, float | int) else str(value)
+
+
+def _mm(value: Any) -> str:
+    """A stored length shown with its unit ('7200 mm'); blank when not entered."""
+    return "" if value is None else f"{value:g} mm"
 
 
 @dataclass
@@ -58,6 +69,7 @@ class BeamFormViewModel:
     site_id: str
     beam_id: str
     errors: dict[str, str] = field(default_factory=dict)
+    suggestions: dict[str, str] = field(default_factory=dict)  # field -> text to offer ("3.9 m")
     result: Recheck | None = None
     recheck_error: str = ""
     _undo: list[dict[str, Any]] = field(default_factory=list)
@@ -80,16 +92,16 @@ class BeamFormViewModel:
             "material": _fmt(rec.get("material")),
             "species": _fmt(rec.get("species")),
             "grade": _fmt(rec.get("grade")),
-            "b_mm": _fmt(rec.get("b_mm")),
-            "d_mm": _fmt(rec.get("d_mm")),
-            "spans": ", ".join(_fmt(s) for s in rec.get("spans_mm", [])),
-            "overhang_left_mm": _fmt(rec.get("overhang_left_mm", 0)),
-            "overhang_right_mm": _fmt(rec.get("overhang_right_mm", 0)),
+            "b_mm": _mm(rec.get("b_mm")),
+            "d_mm": _mm(rec.get("d_mm")),
+            "spans": "; ".join(_mm(s) for s in rec.get("spans_mm", [])),
+            "overhang_left_mm": _mm(rec.get("overhang_left_mm", 0)),
+            "overhang_right_mm": _mm(rec.get("overhang_right_mm", 0)),
             "top_braced_by": _fmt(top.get("braced_by", "none")),
-            "purlin_spacing_mm": _fmt(top.get("spacing_mm")),
+            "purlin_spacing_mm": _mm(top.get("spacing_mm")),
             "top_fastened": "yes" if top.get("fastened", True) else "no",
             "bottom_braced_by": _fmt(bottom.get("braced_by", "none")),
-            "bottom_spacing_mm": _fmt(bottom.get("spacing_mm")),
+            "bottom_spacing_mm": _mm(bottom.get("spacing_mm")),
             "tributary_m": _fmt(rec.get("tributary_m")),
             "service": _fmt(rec.get("service", "dry")),
             "use": _fmt(rec.get("use", "roof_no_ceiling")),
@@ -101,9 +113,27 @@ class BeamFormViewModel:
         for i, b in enumerate(rec.get("bearings", []), start=1):
             out[f"bearing{i}.lateral"] = _fmt(b.get("lateral"))
             out[f"bearing{i}.rotation"] = _fmt(b.get("rotation"))
-            out[f"bearing{i}.length_mm"] = _fmt(b.get("length_mm"))
+            out[f"bearing{i}.length_mm"] = _mm(b.get("length_mm"))
         out.update(rec.get("drafts") or {})
         return out
+
+    def echo(self, name: str) -> str:
+        """What a stored length field was understood as, in mm and feet-inches ('= 7200 mm = 23' 7 7/16"')."""
+        rec = self.record()
+        top, bottom = rec.get("top_edge") or {}, rec.get("bottom_edge") or {}
+        values: list[Any]
+        if name == "spans":
+            values = list(rec.get("spans_mm") or [])
+        elif name == "purlin_spacing_mm":
+            values = [top.get("spacing_mm")]
+        elif name == "bottom_spacing_mm":
+            values = [bottom.get("spacing_mm")]
+        elif name in LENGTH_FIELDS:
+            values = [rec.get(name)]
+        else:
+            return ""
+        shown = [echo_length(v) for v in values if isinstance(v, int | float) and v]
+        return ("= " + ";  ".join(shown)) if shown else ""
 
     def support_count(self) -> int:
         """Number of supports (spans + 1)."""
@@ -137,16 +167,21 @@ class BeamFormViewModel:
         if name in TEXT_ONLY or name == "mark":
             return {name: text}
         if name in LENGTH_FIELDS:
-            value = parse_length_mm(text) if text or name.startswith(("purlin", "bottom")) else 0.0
+            longest = max(rec.get("spans_mm") or [0.0]) or None
+            kind = LENGTH_FIELDS[name]
+            if not text and name.startswith("overhang"):
+                value = 0.0
+            else:
+                value = read_length(kind, text, longest if kind == "spacing_mm" else None)
             if name == "purlin_spacing_mm":
                 return {"top_edge": dict(rec.get("top_edge") or {}, braced_by="purlins", spacing_mm=value)}
             if name == "bottom_spacing_mm":
                 return {"bottom_edge": {"braced_by": "braces", "spacing_mm": value}}
             return {name: value}
         if name == "spans":
-            spans = [parse_length_mm(t) for t in _SPLIT.split(text) if t]
+            spans = [read_length("span_mm", t) for t in split_spans(text)]
             if not spans:
-                raise ValueError("spans: enter one length per span, separated by commas (7200, 7200)")
+                raise ValueError("spans: enter one length per span, separated by ';' (7.2 m; 7.2 m)")
             bearings = [dict(b) for b in rec.get("bearings", [])]
             while len(bearings) < len(spans) + 1:
                 bearings.append(
@@ -162,7 +197,7 @@ class BeamFormViewModel:
             bearings = [dict(b) for b in rec["bearings"]]
             if not 1 <= int(idx) <= len(bearings):
                 raise ValueError(f"support {idx}: the beam has supports 1 to {len(bearings)}")
-            bearings[int(idx) - 1][key] = parse_length_mm(text) if key == "length_mm" else text
+            bearings[int(idx) - 1][key] = read_length("bearing_length_mm", text) if key == "length_mm" else text
             return {"bearings": bearings}
         if name in LOAD_FIELDS:
             return {"loads": dict(rec.get("loads") or {}, **{name: _number(name, text)}), "tributary_m": None}
@@ -208,8 +243,8 @@ class BeamFormViewModel:
                 raise ValueError("specified_size: enter the drawn size as b x d (130 x 494)")
             return {
                 "specified": {
-                    "b_mm": parse_length_mm(m.group(1)),
-                    "d_mm": parse_length_mm(m.group(2)),
+                    "b_mm": read_length("b_mm", m.group(1)),
+                    "d_mm": read_length("d_mm", m.group(2)),
                     "species": rec.get("species"),
                     "grade": rec.get("grade"),
                 }
@@ -228,10 +263,16 @@ class BeamFormViewModel:
             Beam.model_validate({k: v for k, v in candidate.items() if k in Beam.model_fields})
         except ValidationError as exc:
             self.errors[name] = validation_message(exc)
+            self.suggestions.pop(name, None)
         except ValueError as exc:
             self.errors[name] = str(exc)
+            suggestion = exc.suggestion if isinstance(exc, LengthRefused) else ""
+            if suggestion and len(split_spans(text)) > 1:
+                suggestion = ""  # one span of several: the reviewer retypes that one
+            self.suggestions[name] = suggestion
         else:
             self.errors.pop(name, None)
+            self.suggestions.pop(name, None)
             # the entry that made the beam valid also settles a picker refused for want of it
             for settled in {
                 name,

@@ -83,7 +83,7 @@ def test_new_beam_assumes_no_restraint_until_seen(demo):
 def test_spans_entry_adds_supports_and_tributary_uses_design_basis(demo):
     store, site_id = demo
     form = _form(store, site_id, "RB-1")
-    assert form.set_field("spans", "7.2 m, 23' 7 1/2\"")
+    assert form.set_field("spans", "7.2 m; 23' 7 1/2\"")
     rec = form.record()
     assert rec["spans_mm"] == [7200, pytest.approx((23 * 12 + 7.5) * 25.4)]  # 1 in = 25.4 mm (common practice)
     assert len(rec["bearings"]) == 3 and rec["bearings"][2]["rotation"] == "not_visible"
