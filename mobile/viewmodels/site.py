@@ -9,7 +9,7 @@ from typing import Any
 
 from core.recheck import recheck
 from core.results import PRIORITY_ORDER
-from mobile.viewmodels.common import PRIORITY_LABELS, STAGE_WORDS, line_loads_kn_m, status_label
+from mobile.viewmodels.common import PRIORITY_LABELS, STAGE_WORDS, STATUS_WORDS, line_loads_kn_m, status_label
 from storage import Store
 from storage.clock import uuid7
 
@@ -23,6 +23,7 @@ NEW_BEAM_DEFAULTS: dict[str, Any] = {
     "bearings": [{"lateral": "not_visible", "rotation": "not_visible", "length_mm": 140}] * 2,
     "top_edge": {"braced_by": "none", "spacing_mm": None, "fastened": True},
 }
+LEVEL_NOT_RECORDED = "level not recorded"
 COPIED_FROM_LAST = ("material", "species", "grade", "b_mm", "d_mm", "service", "use", "top_stamp", "level")
 
 
@@ -41,18 +42,47 @@ class SiteViewModel:
         except ValueError:
             return "unchecked"
 
-    def groups(self) -> list[tuple[str, list[tuple[str, str, str]]]]:
-        """[(level, [(beam_id, 'mark  gridline', status label)])] ordered by level, gridline, mark."""
+    def beam_rows(self) -> list[tuple[str, dict[str, Any], str]]:
+        """[(beam_id, record, status)] for the site's beams, rechecked once per call."""
+        return [(beam_id, rec, self.status_of(beam_id)) for beam_id, rec in self.store.beams(self.site_id)]
+
+    def groups(
+        self,
+        search: str = "",
+        level: str = "",
+        status: str = "",
+        rows: list[tuple[str, dict[str, Any], str]] | None = None,
+    ) -> list[tuple[str, list[tuple[str, str, str]]]]:
+        """[(level, [(beam_id, 'mark  gridline', status label)])] by level, filtered.
+
+        ``search`` matches the mark or the gridline (case-insensitive); ``level`` a level as shown;
+        ``status`` a status value (ok, deficient, ...). Empty means no filter.
+        """
         out: dict[str, list[tuple[str, str, str]]] = {}
-        for beam_id, record in self.store.beams(self.site_id):
-            out.setdefault(str(record.get("level") or "level not recorded"), []).append(
-                (
-                    beam_id,
-                    f"{record.get('mark')}  ·  grid {record.get('gridline') or '?'}",
-                    status_label(self.status_of(beam_id)),
-                )
-            )
+        needle = search.strip().lower()
+        for beam_id, record, st in self.beam_rows() if rows is None else rows:
+            where = str(record.get("level") or LEVEL_NOT_RECORDED)
+            text = f"{record.get('mark')}  ·  grid {record.get('gridline') or '?'}"
+            if needle and needle not in text.lower():
+                continue
+            if (level and where != level) or (status and st != status):
+                continue
+            out.setdefault(where, []).append((beam_id, text, status_label(st)))
         return list(out.items())
+
+    @staticmethod
+    def levels(rows: list[tuple[str, dict[str, Any], str]]) -> list[str]:
+        """The levels the site's beams are on, as shown."""
+        return sorted({str(r.get("level") or LEVEL_NOT_RECORDED) for _, r, _ in rows})
+
+    @staticmethod
+    def counts(rows: list[tuple[str, dict[str, Any], str]]) -> str:
+        """'12 beams:  ● 8 OK  ·  ▲ 3 DEFICIENT  ·  ✖ 1 NOT ESTABLISHED' (every status that occurs)."""
+        tally: dict[str, int] = {}
+        for _, _, st in rows:
+            tally[st] = tally.get(st, 0) + 1
+        parts = [f"{STATUS_WORDS[st][1]} {tally[st]} {STATUS_WORDS[st][0]}" for st in STATUS_WORDS if st in tally]
+        return f"{len(rows)} beams:  " + "  ·  ".join(parts) if rows else "No beams logged yet."
 
     def deficiency_groups(self) -> list[tuple[str, list[tuple[str, str]]]]:
         """Open deficiencies by priority, most urgent first: [(priority label, [(id, line)])]."""

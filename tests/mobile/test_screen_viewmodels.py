@@ -202,3 +202,20 @@ def test_sync_export_import_progress_and_conflict_resolution(tmp_path):
     kept = b.beam_record(beam_id)["notes"]
     vm.resolve(cid, "loser", "P. Okonkwo-Lind")
     assert b.beam_record(beam_id)["notes"] != kept and vm.conflicts() == []
+
+
+def test_site_search_filters_and_counts(demo):
+    store, site_id = demo
+    vm = SiteViewModel(store, site_id)
+    rows = vm.beam_rows()
+    found = [name for _, beams in vm.groups("rb-5", rows=rows) for _, name, _ in beams]
+    assert found and all("RB-5" in n for n in found)
+    roof = vm.groups(level="Roof", rows=rows)
+    assert [lvl for lvl, _ in roof] == ["Roof"]
+    deficient = [label for _, beams in vm.groups(status="deficient", rows=rows) for _, _, label in beams]
+    assert deficient and all("DEFICIENT" in x for x in deficient)
+    counts = vm.counts(rows)
+    assert counts.startswith(f"{len(rows)} beams:")
+    # the counts add up to the beams (each beam has one status)
+    assert sum(int(p.split()[1]) for p in counts.split(":", 1)[1].split("·")) == len(rows)
+    assert "Roof" in vm.levels(rows)

@@ -1,7 +1,9 @@
 """Drive the real app under Xvfb through widget ids and save screenshots (run by test_ui.py).
 
-usage: ui_drive.py DB OUT_DIR [flow]; flows: "main" (the whole job), "type-then-kill" (type a
-note, wait for the autosave, then SIGKILL this process), "relaunch" (print what the note field shows).
+usage: ui_drive.py DB OUT_DIR [flow]; flows: "main" (the whole job), "layout" (every screen held
+against the layout rules at the geometry the test set with KIVY_DPI / KIVY_METRICS_DENSITY and the
+window size), "type-then-kill" (type a note, wait for the autosave, then SIGKILL this process),
+"relaunch" (print what the note field shows).
 Prints UI-OK (or UI-FAIL at <step>) and flushes, then stops the app.
 """
 
@@ -26,6 +28,79 @@ KILL_NOTE = "bearing plate at S2 bent; photo 14"
 def shot(name):
     written = app.root_window.screenshot(str(OUT / f"{name}.png"))  # Kivy appends a counter to the name
     Path(written).replace(OUT / f"{name}.png")
+
+
+def _window_rect(w):
+    x, y = w.to_window(*w.pos)
+    return x, y, x + w.width, y + w.height
+
+
+def _clip(rect, box):
+    return max(rect[0], box[0]), max(rect[1], box[1]), min(rect[2], box[2]), min(rect[3], box[3])
+
+
+def _shown(w):
+    """The part of w on screen: clipped by every ScrollView around it and by the window (None if hidden)."""
+    from kivy.uix.scrollview import ScrollView
+
+    rect = _window_rect(w)
+    node = w
+    while node is not None and node is not node.parent:
+        if node.opacity == 0:
+            return None
+        parent = node.parent
+        if isinstance(parent, ScrollView):
+            rect = _clip(rect, _window_rect(parent))
+        node = parent
+        if node is app.root_window:
+            break
+    rect = _clip(rect, (0, 0, *app.root_window.size))
+    return rect if rect[2] - rect[0] > 1 and rect[3] - rect[1] > 1 else None
+
+
+def layout_problems(screen_name):
+    """Overlap, text spilling out of its box, a zero-size panel, off-screen controls, targets under 15 mm."""
+    from kivy.metrics import mm
+    from kivy.uix.button import Button
+    from kivy.uix.label import Label
+    from kivy.uix.scrollview import ScrollView
+    from kivy.uix.textinput import TextInput
+
+    problems, leaves = [], []
+    for w in screen(screen_name).walk(restrict=True):
+        if isinstance(w, ScrollView) and w.opacity > 0:
+            shown = _shown(w)
+            if shown is None or shown[3] - shown[1] < mm(15) - 1:
+                problems.append(f"panel {w.__class__.__name__} in {w.parent.__class__.__name__} has no height")
+        if not isinstance(w, Button | TextInput | Label):
+            continue
+        if isinstance(w, Label) and not isinstance(w, Button) and not w.text.strip():
+            continue
+        shown = _shown(w)
+        if shown is None:
+            continue
+        what = f"{type(w).__name__} {getattr(w, 'text', '')[:32]!r}"
+        full = _window_rect(w)
+        if full[0] < -1 or full[2] > app.root_window.width + 1:
+            problems.append(f"{what} off screen sideways")
+        if isinstance(w, Button | TextInput) and not w.disabled:
+            if w.height < mm(15) - 1 or w.width < mm(15) - 1:
+                problems.append(f"{what} target {w.width / mm(1):.0f} x {w.height / mm(1):.0f} mm < 15 mm")
+        if isinstance(w, Label) and w.text.strip() and not w.shorten:
+            tw, th = w.texture_size
+            if th > w.height + 2 or tw > w.width + 2:
+                problems.append(f"{what} text {tw:.0f}x{th:.0f}px spills out of {w.width:.0f}x{w.height:.0f}px")
+        leaves.append((what, shown))
+    for i, (a, ra) in enumerate(leaves):
+        for b, rb in leaves[i + 1 :]:
+            if min(ra[2], rb[2]) - max(ra[0], rb[0]) > 2 and min(ra[3], rb[3]) - max(ra[1], rb[1]) > 2:
+                problems.append(f"{a} overlaps {b}")
+    return [f"{screen_name}: {p}" for p in problems]
+
+
+def check_layout(screen_name):
+    problems = layout_problems(screen_name)
+    assert not problems, "\n".join(problems[:12])
 
 
 def step(fn):
@@ -72,11 +147,17 @@ if FLOW == "main":
     def site():
         assert app.root.current == "site"
         shot("02-site")
-        screen().ids.visit_reviewer.text = "Priya Okonkwo-Lind"
-        screen().ids.visit_weather.text = "clear, -4 °C"
-        screen().ids.visit_scope.text = "Roof grid G; revisit of RB-5"
-        screen().ids.visit_not_scope.text = "Level 1 walls"
-        screen().ids.start_visit.trigger_action(0)
+        screen().ids.visit.trigger_action(0)
+        form = screen().visit_form.ids
+        form.visit_reviewer.text = "Priya Okonkwo-Lind"
+        form.visit_weather.text = "clear, -4 °C"
+        form.visit_scope.text = "Roof grid G; revisit of RB-5"
+        form.visit_not_scope.text = "Level 1 walls"
+
+    @step
+    def visit_form_shot():
+        shot("02b-visit-form")
+        screen().visit_form.ids.start_visit.trigger_action(0)
         assert "Priya" in screen().visit_text
 
     @step
@@ -262,6 +343,69 @@ if FLOW == "main":
                 if isinstance(w, Button | TextInput) and not w.disabled and w.opacity > 0 and w.height < mm(15) - 1:
                     small.append(f"{name}: {type(w).__name__} {getattr(w, 'text', '')[:30]!r} {w.height:.0f}px")
         assert not small, small
+
+elif FLOW == "layout":
+    GEOM = os.environ.get("BRACEWALK_GEOMETRY", "default")
+    seen = []
+
+    def look(name):
+        shot(f"{GEOM}-{name}")
+        seen.extend(layout_problems(app.root.current))
+
+    @step
+    def first_frame():
+        pass  # let the first frames draw
+
+    @step
+    def sites_layout():
+        look("1-sites")
+        app.open_site(next(s.id for s in app.store.sites() if "Cedar" in s.name))
+
+    @step
+    def site_layout():
+        look("2-site")
+        from kivy.metrics import mm
+
+        s = screen("site")
+        box = s.ids.deficiency_list
+        view = _window_rect(box.parent)
+        if view[3] - view[1] < mm(30):
+            seen.append(f"site: open-deficiency list only {(view[3] - view[1]) / mm(1):.0f} mm tall")
+        immediate = [d for d in app.store.deficiencies(app.site_id, open_only=True) if d.priority == "immediate"]
+        rows = [w for w in box.walk(restrict=True) if any(d.number in getattr(w, "text", "") for d in immediate)]
+        assert len(rows) == len(immediate) > 0, (len(rows), len(immediate))
+        for w in rows:
+            r = _window_rect(w)
+            if r[1] < view[1] - 1 or r[3] > view[3] + 1:
+                seen.append(f"site: IMMEDIATE item not in view: {w.text[:40]}")
+        app.open_beam(demo_beam("RB-5"))
+
+    @step
+    def beam_layout():
+        look("3-beam")
+        screen("beam").ids.form_scroll.scroll_y = 0.5
+
+    @step
+    def beam_layout_lower():
+        look("3b-beam-lower")
+        screen("beam").leave()
+        app.open_deficiency(app.store.deficiencies(app.site_id, open_only=True)[0].id)
+
+    @step
+    def deficiency_layout():
+        look("4-deficiency")
+        app.go("notice")
+
+    @step
+    def notice_layout():
+        look("5-notice")
+        app.go("sync")
+
+    @step
+    def sync_layout():
+        look("6-sync")
+        print(f"WINDOW {app.root_window.size}", flush=True)
+        assert not seen, "\n".join(seen[:25]) + (f"\n... {len(seen)} in all" if len(seen) > 25 else "")
 
 elif FLOW == "portrait":
 
