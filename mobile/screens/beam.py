@@ -8,7 +8,7 @@ from typing import Any
 from kivy.app import App
 from kivy.clock import Clock
 from kivy.factory import Factory
-from kivy.metrics import dp
+from kivy.metrics import dp, mm
 from kivy.properties import NumericProperty, StringProperty
 from kivy.uix.boxlayout import BoxLayout
 from kivy.uix.button import Button
@@ -26,9 +26,12 @@ from mobile.screens.widgets import (
     status_colour,
 )
 from mobile.viewmodels import BeamFormViewModel
-from mobile.viewmodels.beam import NEXT_RESTRAINT, RESTRAINT_WORDS
+from mobile.viewmodels.beam import RESTRAINT_WORDS
 
 TYPING_PAUSE_S = 0.35  # save this long after the last keystroke (and at once on Enter or leaving the field)
+
+
+COPY_PROMPT = "Copy member, bracing, loads from…"
 
 
 class BeamScreen(Screen):
@@ -56,6 +59,7 @@ class BeamScreen(Screen):
         self.vm = BeamFormViewModel(app.store, app.site_id, app.beam_id)
         self._panel_shape = self._bearing_shape = None  # a new beam or theme: build the widgets afresh
         self.raised_text = ""
+        self.ids.form_scroll.scroll_y = 1  # another beam: start at the top of its form
         self.load_form()
         self.render()
 
@@ -73,15 +77,29 @@ class BeamScreen(Screen):
             self._show_messages(name, w)
             w.loading = False
         self.build_bearings(values)
+        self._copy_choices = self.vm.copy_choices()
+        self.ids.copy_from.values = [t for _, t in self._copy_choices]
         self.photo_text = f"Photos: {self.vm.photo_count()}"
+
+    def copy_picked(self, text: str) -> None:
+        """'copy from RB-1' picked: copy member, bracing and loads (never span or bearings), then reset."""
+        choice = next((bid for bid, t in getattr(self, "_copy_choices", []) if t == text), None)
+        if choice is None:
+            return
+        self.flush()
+        self.vm.copy_from(choice)
+        self.ids.copy_from.text = COPY_PROMPT
+        self.load_form()
+        self.render()
 
     def show_title(self) -> None:
         """'RB-5  ·  Roof  ·  grid E / 3-4'."""
         rec = self.vm.record()
-        self.title = f"{rec.get('mark')}  ·  {rec.get('level') or ''}  ·  grid {rec.get('gridline') or ''}"
+        grid = f"grid {rec['gridline']}" if rec.get("gridline") else ""
+        self.title = "  ·  ".join(str(x) for x in (rec.get("mark"), rec.get("level"), grid) if x)
 
     def build_bearings(self, values: dict[str, str]) -> None:
-        """One row per support: lateral and rotation as large three-state toggles, and bearing length."""
+        """Per support: bearing length, then lateral and rotation each chosen directly (three large buttons)."""
         shape = (
             sorted((k, v) for k, v in values.items() if k.startswith("bearing")),
             sorted((k, v) for k, v in self.vm.errors.items() if k.startswith("bearing")),
@@ -89,40 +107,41 @@ class BeamScreen(Screen):
         if shape == getattr(self, "_bearing_shape", None):
             return
         self._bearing_shape = shape
+        app = App.get_running_app()
         box = self.ids.bearings
         box.clear_widgets()
-        for i in range(1, self.vm.support_count() + 1):
+        self.restraint_buttons: dict[tuple[int, str, str], Any] = {}
+        self.length_inputs: dict[int, Any] = {}
+        for i in range(1, len(self.vm.record().get("bearings") or []) + 1):
             row = BoxLayout(size_hint_y=None, height="15mm", spacing=dp(6))
-            row.add_widget(
-                Label(
-                    text=f"S{i}",
-                    font_size="19sp",
-                    bold=True,
-                    color=App.get_running_app().theme_fg,
-                    size_hint_x=None,
-                    width="12mm",
-                )
-            )
-            for key, word in (("lateral", "lateral"), ("rotation", "rotation")):
-                state = values.get(f"bearing{i}.{key}", "not_visible")
-                b = big_button(
-                    f"{word}: {RESTRAINT_WORDS[state]}",
-                    lambda _b, n=i, k=key: self.cycle(n, k),
-                    bg=restraint_colour(state),
-                    halign="center",
-                    font_size="17sp",
-                )
-                b.color = (0, 0, 0, 1) if state != "no" else (1, 1, 1, 1)
-                setattr(self, f"bearing{i}_{key}", b)
-                row.add_widget(b)
-            length = Factory.BigInput(hint_text="length", size_hint_x=0.3)
+            row.add_widget(Factory.FieldLabel(text=f"S{i} length (mm)", bold=True))
+            length = Factory.BigInput(hint_text="not yet entered")
             length.text = values.get(f"bearing{i}.length_mm", "")
             length.bind(
                 text=lambda w, t, n=f"bearing{i}.length_mm": self.typed(n, t),
                 focus=lambda w, f, n=f"bearing{i}.length_mm": None if f else self.commit(n),
             )
             row.add_widget(length)
+            self.length_inputs[i] = length
             box.add_widget(row)
+            for key in ("lateral", "rotation"):
+                row = BoxLayout(size_hint_y=None, height="15mm", spacing=dp(6))
+                row.add_widget(Factory.FieldLabel(text=f"S{i} {key}"))
+                chosen = values.get(f"bearing{i}.{key}", "")
+                for state in ("yes", "no", "not_visible"):
+                    on = state == chosen
+                    b = big_button(
+                        ("✔ " if on else "") + RESTRAINT_WORDS[state].split(",")[0],
+                        lambda _b, n=i, k=key, st=state: self.set_now(f"bearing{n}.{k}", st),
+                        bg=restraint_colour(state) if on else app.theme_button,
+                        halign="center",
+                        font_size="17sp",
+                        bold=on,
+                    )
+                    b.color = (1, 1, 1, 1) if (state == "no" or not on) else (0, 0, 0, 1)
+                    self.restraint_buttons[(i, key, state)] = b
+                    row.add_widget(b)
+                box.add_widget(row)
         problems = [f"{k}: {v}" for k, v in self.vm.errors.items() if k.startswith("bearing")]
         if problems:
             box.add_widget(Factory.FieldError(text="\n".join(problems)))
@@ -154,11 +173,6 @@ class BeamScreen(Screen):
         self.flush()
         self.vm.set_field(name, text)
         self.after_change(reload=name in ("material", "species", "top_braced_by", "bottom_braced_by"))
-
-    def cycle(self, support: int, key: str) -> None:
-        """Large toggle: yes -> no -> not visible -> yes."""
-        current = self.vm.form().get(f"bearing{support}.{key}", "not_visible")
-        self.set_now(f"bearing{support}.{key}", NEXT_RESTRAINT[current])
 
     def _show_messages(self, name: str, w: Any) -> None:
         """The field's message, the offered reading and the echo of the value in force."""
@@ -243,6 +257,7 @@ class BeamScreen(Screen):
         panel = self.ids.panel
         panel.clear_widgets()
         self._status = big_button("", lambda *_: None, font_size="22sp", halign="center", bold=True)
+        self._status.bind(texture_size=lambda w, ts: setattr(w, "height", max(mm(15), ts[1] + dp(16))))
         panel.add_widget(self._status)
         self._rows: list[tuple[Button, UtilBar | None]] = []
         for _text, util, key in lines[1:]:

@@ -12,6 +12,7 @@ and shown back with its message; the last valid value stays in force for the rec
 
 from __future__ import annotations
 
+import copy
 import re
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -21,6 +22,7 @@ from pydantic import ValidationError
 
 from core import tables
 from core.models import Beam, Material, grades_allowed, species_allowed
+from core.plausible import PLAUSIBLE
 from core.recheck import recheck
 from core.results import FactorTrace, Recheck
 from mobile.units import LengthRefused, echo_length, read_length, split_spans
@@ -47,8 +49,23 @@ PICKERS: dict[str, tuple[str, ...]] = {
     "top_stamp": ("up", "down", "not_visible"),
     "restraint": ("yes", "no", "not_visible"),
 }
-RESTRAINT_WORDS = {"yes": "YES, restrained", "no": "NO restraint", "not_visible": "NOT VISIBLE"}
-NEXT_RESTRAINT = {"yes": "no", "no": "not_visible", "not_visible": "yes"}
+RESTRAINT_WORDS = {"yes": "Yes, restrained", "no": "No restraint", "not_visible": "Not visible", "": "not yet entered"}
+# copied by "copy from": member, bracing and loads; never the span, the bearings or the mark
+COPIED = (
+    "material",
+    "species",
+    "grade",
+    "b_mm",
+    "d_mm",
+    "top_stamp",
+    "service",
+    "use",
+    "top_edge",
+    "bottom_edge",
+    "loads",
+    "tributary_m",
+    "specified",
+)
 _SIZE = re.compile(r"^\s*(.+?)\s*[x×*]\s*(.+?)\s*$", re.IGNORECASE)
 
 
@@ -109,7 +126,7 @@ class BeamFormViewModel:
             "specified_size": f"{spec['b_mm']:g} x {spec['d_mm']:g}" if isinstance(spec, dict) else "",
         }
         loads = rec.get("loads") or {}
-        out.update({k: _fmt(loads.get(k, 0.0)) for k in LOAD_FIELDS})
+        out.update({k: _fmt(loads.get(k)) for k in LOAD_FIELDS})
         for i, b in enumerate(rec.get("bearings", []), start=1):
             out[f"bearing{i}.lateral"] = _fmt(b.get("lateral"))
             out[f"bearing{i}.rotation"] = _fmt(b.get("rotation"))
@@ -184,27 +201,22 @@ class BeamFormViewModel:
                 raise ValueError("spans: enter one length per span, separated by ';' (7.2 m; 7.2 m)")
             bearings = [dict(b) for b in rec.get("bearings", [])]
             while len(bearings) < len(spans) + 1:
-                bearings.append(
-                    {
-                        "lateral": "not_visible",
-                        "rotation": "not_visible",
-                        "length_mm": bearings[-1]["length_mm"] if bearings else 140,
-                    }
-                )
+                bearings.append({"lateral": None, "rotation": None, "length_mm": None})  # not yet entered
             return {"spans_mm": spans, "bearings": bearings[: len(spans) + 1]}
         if name.startswith("bearing"):
             idx, key = name[len("bearing") :].split(".")
-            bearings = [dict(b) for b in rec["bearings"]]
+            bearings = [dict(b) for b in rec.get("bearings") or []]
             if not 1 <= int(idx) <= len(bearings):
                 raise ValueError(f"support {idx}: the beam has supports 1 to {len(bearings)}")
             bearings[int(idx) - 1][key] = read_length("bearing_length_mm", text) if key == "length_mm" else text
             return {"bearings": bearings}
         if name in LOAD_FIELDS:
-            return {"loads": dict(rec.get("loads") or {}, **{name: _number(name, text)}), "tributary_m": None}
+            value = _number(name, text, "line_load_kn_m")
+            return {"loads": dict(rec.get("loads") or {}, **{name: value}), "tributary_m": None}
         if name == "tributary_m":
             if not text:
                 return {"tributary_m": None}  # cleared: the line loads stay as they are
-            width = _number(name, text)
+            width = _number(name, text, "tributary_m")
             return {"tributary_m": width, "loads": line_loads_kn_m(self.store.site(self.site_id).design_basis, width)}
         if name == "material":
             material = Material(text)
@@ -260,7 +272,8 @@ class BeamFormViewModel:
         try:
             changes = self._to_storage(name, text, rec)
             candidate = dict(rec, **changes)
-            Beam.model_validate({k: v for k, v in candidate.items() if k in Beam.model_fields})
+            if not missing_entries(candidate):  # until complete, each entry is checked on its own
+                Beam.model_validate({k: v for k, v in candidate.items() if k in Beam.model_fields})
         except ValidationError as exc:
             self.errors[name] = validation_message(exc)
             self.suggestions.pop(name, None)
@@ -314,8 +327,16 @@ class BeamFormViewModel:
         return sum(1 for p in self.store.photos(self.site_id) if p.get("beam_id") == self.beam_id)
 
     # -- the live recheck ------------------------------------------------------------------------
+    def missing(self) -> list[str]:
+        """The entries the recheck still needs, in the reviewer's words (empty when complete)."""
+        return missing_entries(self.record())
+
     def refresh(self) -> Recheck | None:
         """Recheck the stored beam (None, with ``recheck_error``, when the record cannot be rechecked)."""
+        needs = self.missing()
+        if needs:
+            self.result, self.recheck_error = None, "still needs " + ", ".join(needs)
+            return None
         try:
             self.result = recheck(self.store.beam(self.beam_id))
             self.recheck_error = ""
@@ -398,6 +419,21 @@ class BeamFormViewModel:
             )
         return out
 
+    def copy_choices(self) -> list[tuple[str, str]]:
+        """[(beam_id, 'copy from RB-1')] for the other beams on the site."""
+        return [(i, f"copy from {r.get('mark')}") for i, r in self.store.beams(self.site_id) if i != self.beam_id]
+
+    def copy_from(self, other_id: str) -> None:
+        """Copy another beam's member, bracing and loads (never its span, bearings or mark); undoable."""
+        other = self.store.beam_record(other_id)
+        rec = self.record()
+        changes = {k: copy.deepcopy(other[k]) for k in COPIED if k in other and other[k] != rec.get(k)}
+        if changes:
+            self._undo.append({k: rec.get(k) for k in changes})
+            self.store.update_beam(self.beam_id, changes)
+        self.errors.clear()
+        self.refresh()
+
     def location_text(self) -> str:
         """'Roof, grid E / 3-4, RB-5' for deficiencies and notices."""
         rec = self.record()
@@ -416,8 +452,33 @@ class BeamFormViewModel:
         return d.number
 
 
-def _number(name: str, text: str) -> float:
+def missing_entries(rec: dict[str, Any]) -> list[str]:
+    """What a beam record still lacks before it can be rechecked, in the reviewer's words."""
+    needs = []
+    if not rec.get("spans_mm"):
+        needs.append("span")
+    if not rec.get("b_mm"):
+        needs.append("width b")
+    if not rec.get("d_mm"):
+        needs.append("depth d")
+    if not rec.get("loads"):
+        needs.append("tributary width or line loads")
+    for i, b in enumerate(rec.get("bearings") or [], start=1):
+        for key in ("lateral", "rotation"):
+            if b.get(key) is None:
+                needs.append(f"S{i} {key} restraint")
+        if b.get("length_mm") is None:
+            needs.append(f"S{i} bearing length")
+    return needs
+
+
+def _number(name: str, text: str, kind: str) -> float:
+    """A typed number (decimal comma allowed) held against its plausible range (core.plausible)."""
     try:
-        return float(text.strip() or "0")
+        value = float(text.strip().replace(",", ".") or "0")
     except ValueError:
         raise ValueError(f"{name} = {text!r}: enter a number") from None
+    r = PLAUSIBLE[kind]
+    if not r.low <= value <= r.high:
+        raise ValueError(f"{name} = {value:g} {r.unit}: allowed {r.low:g} to {r.high:g} {r.unit} ({r.source})")
+    return value

@@ -9,18 +9,16 @@ from typing import Any
 
 from core.recheck import recheck
 from core.results import PRIORITY_ORDER
-from mobile.viewmodels.common import PRIORITY_LABELS, STAGE_WORDS, STATUS_WORDS, line_loads_kn_m, status_label
+from mobile.viewmodels.common import PRIORITY_LABELS, STAGE_WORDS, STATUS_WORDS, status_label
 from storage import Store
 from storage.clock import uuid7
 
+# A new beam holds nothing that looks measured: span, size, loads and bearings start "not yet
+# entered" and the recheck lists what it still needs. Pickers start on the most common member.
 NEW_BEAM_DEFAULTS: dict[str, Any] = {
     "material": "glulam",
     "species": "D.Fir-L",
     "grade": "24f-E",
-    "b_mm": 130,
-    "d_mm": 456,
-    "spans_mm": [6000],
-    "bearings": [{"lateral": "not_visible", "rotation": "not_visible", "length_mm": 140}] * 2,
     "top_edge": {"braced_by": "none", "spacing_mm": None, "fastened": True},
 }
 LEVEL_NOT_RECORDED = "level not recorded"
@@ -122,20 +120,13 @@ class SiteViewModel:
         return visit.id
 
     def new_beam(self) -> str:
-        """Log a new beam: member data copied from the last beam on the site, restraints 'not visible'.
+        """Log a new beam: nothing measured yet (span, size, loads, bearings "not yet entered").
 
-        The bearings start as 'not visible' so that nothing is assumed restrained until it is seen.
+        Copying another beam's member, bracing and loads is an explicit action on the form
+        (``BeamFormViewModel.copy_from``); nothing is carried over silently.
         """
         beams = self.store.beams(self.site_id)
         fields = copy.deepcopy(NEW_BEAM_DEFAULTS)
-        if beams:
-            last = max(beams, key=lambda b: b[0])[1]  # uuid7 ids sort by creation time
-            fields.update({k: last[k] for k in COPIED_FROM_LAST if k in last})
-            if "loads" in last:
-                fields["loads"] = last["loads"]
-            if "tributary_m" in last:
-                fields["tributary_m"] = last["tributary_m"]
-        fields.setdefault("loads", line_loads_kn_m(self.store.site(self.site_id).design_basis, 1.0))
         fields["mark"] = f"NEW-{len(beams) + 1}"
         fields["site_id"] = self.site_id
         visits = self.store.visits(self.site_id)

@@ -63,14 +63,25 @@ def test_site_groups_deficiencies_by_priority_and_visit(demo):
     assert "R. Vantongeren" in vm.visit_line()
 
 
-def test_new_beam_assumes_no_restraint_until_seen(demo):
+def test_new_beam_is_not_checked_until_entered(demo):
     store, site_id = demo
     vm = SiteViewModel(store, site_id)
     beam_id = vm.new_beam()
     form = BeamFormViewModel(store, site_id, beam_id)
+    assert form.refresh() is None  # no recheck on defaults: nothing looks measured
+    assert form.missing() == ["span", "width b", "depth d", "tributary width or line loads"]
+    assert "span" in form.recheck_error and form.form()["spans"] == "" and form.form()["b_mm"] == ""
+    for name, text in (("b_mm", "130"), ("d_mm", "456"), ("spans", "7.2 m"), ("tributary_m", "3")):
+        assert form.set_field(name, text), form.errors
+    # the bearings appear with the span, and are "not yet entered" (not assumed seen either way)
+    assert "S1 lateral restraint" in form.missing() and form.form()["bearing1.lateral"] == ""
+    for i in (1, 2):
+        assert form.set_field(f"bearing{i}.length_mm", "140")
+        assert form.set_field(f"bearing{i}.lateral", "not_visible")
+        assert form.set_field(f"bearing{i}.rotation", "not_visible")
     r = form.refresh()
     # d/b = 456/130 = 3.5 > 2.5 and restraint 'not visible': stability not established (O86-19 7.5.6.3.1)
-    assert r.status.value == "not_established"
+    assert r is not None and r.status.value == "not_established"
     assert {f.code for f in r.findings} >= {"bearing_restraint_missing"}
     assert form.set_field("bearing2.rotation", "no")
     assert form.immediate_findings()  # seen missing: immediate
@@ -80,13 +91,42 @@ def test_new_beam_assumes_no_restraint_until_seen(demo):
     assert form.refresh().status.value != "not_established"
 
 
+def test_copy_from_is_explicit_and_never_copies_span_or_bearings(demo):
+    store, site_id = demo
+    vm = SiteViewModel(store, site_id)
+    form = BeamFormViewModel(store, site_id, vm.new_beam())
+    rb1 = next(i for i, r in store.beams(site_id) if r["mark"] == "RB-1")
+    assert "copy from RB-1" in [t for _, t in form.copy_choices()]
+    form.copy_from(rb1)
+    rec, other = form.record(), store.beam_record(rb1)
+    assert (rec["b_mm"], rec["d_mm"], rec["loads"], rec["top_edge"]) == (
+        other["b_mm"],
+        other["d_mm"],
+        other["loads"],
+        other["top_edge"],
+    )
+    assert "spans_mm" not in rec and "bearings" not in rec and rec["mark"] != other["mark"]
+    assert form.missing() == ["span"]
+
+
+def test_out_of_range_load_refused_on_an_incomplete_beam(demo):
+    store, site_id = demo
+    form = BeamFormViewModel(store, site_id, SiteViewModel(store, site_id).new_beam())
+    assert not form.set_field("dead_kn_m", "-2")
+    assert "0 to 200 kN/m" in form.errors["dead_kn_m"]
+    assert form.set_field("dead_kn_m", "2,5") and form.record()["loads"]["dead_kn_m"] == 2.5
+
+
 def test_spans_entry_adds_supports_and_tributary_uses_design_basis(demo):
     store, site_id = demo
     form = _form(store, site_id, "RB-1")
     assert form.set_field("spans", "7.2 m; 23' 7 1/2\"")
     rec = form.record()
     assert rec["spans_mm"] == [7200, pytest.approx((23 * 12 + 7.5) * 25.4)]  # 1 in = 25.4 mm (common practice)
-    assert len(rec["bearings"]) == 3 and rec["bearings"][2]["rotation"] == "not_visible"
+    assert len(rec["bearings"]) == 3 and rec["bearings"][2] == {"lateral": None, "rotation": None, "length_mm": None}
+    assert form.refresh() is None and "S3 lateral restraint" in form.missing()  # the new support: not yet entered
+    for key, value in (("lateral", "yes"), ("rotation", "yes"), ("length_mm", "140")):
+        assert form.set_field(f"bearing3.{key}", value)
     assert form.support_count() == 3
     assert form.set_field("tributary_m", "2.0")
     basis = store.site(site_id).design_basis

@@ -179,11 +179,17 @@ if FLOW == "main":
         type_into("tributary_m", "3.0")
         pick("top_braced_by", "purlins")
         type_into("purlin_spacing_mm", "1200")
+        assert screen("beam").vm.result is None  # nothing rechecked on values not yet entered
+        assert "S1 lateral restraint" in screen("beam").vm.recheck_error, screen("beam").vm.recheck_error
         for i in (1, 2):
+            w = screen("beam").length_inputs[i]
+            w.focus = True
+            w.text = '5 1/2"'  # 139.7 mm
+            w.focus = False
             for key in ("lateral", "rotation"):
-                while app.store.beam_record(app.beam_id)["bearings"][i - 1][key] != "yes":
-                    getattr(screen("beam"), f"bearing{i}_{key}").trigger_action(0)
+                screen("beam").restraint_buttons[(i, key, "yes")].trigger_action(0)
         rec = app.store.beam_record(app.beam_id)
+        assert rec["bearings"][0]["length_mm"] == 139.7, rec["bearings"]
         assert rec["mark"] == "RB-9" and rec["spans_mm"] == [7200], rec
         assert screen("beam").vm.result.status.value == "ok", screen("beam").vm.result.status
 
@@ -217,7 +223,7 @@ if FLOW == "main":
     @step
     def restraint_off():
         s = screen("beam")
-        s.bearing2_rotation.trigger_action(0)  # yes -> no
+        s.restraint_buttons[(2, "rotation", "no")].trigger_action(0)  # chosen directly, not cycled
         assert "IMMEDIATE" in s.immediate_text, s.immediate_text
 
     @step
@@ -388,6 +394,13 @@ elif FLOW == "layout":
     @step
     def beam_layout_lower():
         look("3b-beam-lower")
+        screen("beam").leave()
+        screen("site").ids.new_beam.trigger_action(0)
+
+    @step
+    def new_beam_layout():
+        look("3c-beam-new")  # nothing entered yet: the panel lists what the recheck needs
+        assert screen("beam").vm.result is None and "span" in screen("beam").vm.recheck_error
         screen("beam").leave()
         app.open_deficiency(app.store.deficiencies(app.site_id, open_only=True)[0].id)
 
