@@ -26,7 +26,7 @@ from mobile.screens.widgets import (
     status_colour,
 )
 from mobile.viewmodels import BeamFormViewModel
-from mobile.viewmodels.beam import RESTRAINT_WORDS
+from mobile.viewmodels.beam import RESTRAINT_WORDS, words
 
 TYPING_PAUSE_S = 0.35  # save this long after the last keystroke (and at once on Enter or leaving the field)
 
@@ -50,7 +50,6 @@ class BeamScreen(Screen):
                 w.screen = self
                 self.fields[w.name] = w
         self._pending: dict[str, str] = {}
-        self._echoed: set[str] = set()  # fields accepted since the last redraw: show them back with their unit
         self._event: Any = None
 
     def on_pre_enter(self, *args: Any) -> None:
@@ -70,10 +69,10 @@ class BeamScreen(Screen):
         for name, w in self.fields.items():
             w.loading = True
             if isinstance(w, PickField):
-                w.values = self.vm.options(name)
+                w.values = [words(v) for v in self.vm.options(name)]
             if isinstance(w, TextField) and w.quick:
                 w.quick_values = self.vm.quick_sizes(name)
-            w.ids.input.text = values.get(name, "")
+            w.ids.input.text = self.shown(name, values)
             self._show_messages(name, w)
             w.loading = False
         self.build_bearings(values)
@@ -163,14 +162,20 @@ class BeamScreen(Screen):
         """Save every pending entry, then redraw the recheck."""
         pending, self._pending = self._pending, {}
         for name, text in pending.items():
-            if self.vm.set_field(name, text) and name in self.fields:
-                self._echoed.add(name)
+            self.vm.set_field(name, text)
         if pending:
             self.after_change(reload="spans" in pending or "material" in pending or "species" in pending)
 
+    def shown(self, name: str, values: dict[str, str]) -> str:
+        """A field's text on screen: pickers in the trade's words ('Roof, no ceiling'), text as stored."""
+        value = values.get(name, "")
+        return words(value) if self.vm.is_picker(name) and value else value
+
     def set_now(self, name: str, text: str) -> None:
-        """A picker or toggle: save at once."""
+        """A picker or toggle: save at once (a picker's words are mapped back to the stored choice)."""
         self.flush()
+        if self.vm.is_picker(name) and not name.startswith("bearing"):
+            text = next((v for v in self.vm.options(name) if words(v) == text), text)
         self.vm.set_field(name, text)
         self.after_change(reload=name in ("material", "species", "top_braced_by", "bottom_braced_by"))
 
@@ -182,19 +187,25 @@ class BeamScreen(Screen):
             w.echo = "" if w.error else self.vm.echo(name)
 
     def after_change(self, reload: bool = False) -> None:
-        """Show messages at the fields and refresh the recheck panel (and dependent pickers)."""
+        """Show every field as it now stands (derived values follow their source), messages, and the recheck.
+
+        No field keeps a stale value: after any entry each field not being typed in is set from the
+        stored record (a refused picker goes back to the value in force; typed text that was refused
+        is kept as its draft).
+        """
+        values = self.vm.form()
         if reload:
             self.load_form()
         else:
-            values = self.vm.form()
             self.build_bearings(values)
         for name, w in self.fields.items():
             self._show_messages(name, w)
-            if isinstance(w, TextField) and name in self._echoed and not w.ids.input.focus:
+            if name in self._pending or (isinstance(w, TextField) and w.ids.input.focus):
+                continue
+            if w.ids.input.text != values.get(name, ""):
                 w.loading = True
-                w.ids.input.text = self.vm.form().get(name, "")  # the value in force, with its unit
+                w.ids.input.text = self.shown(name, values)
                 w.loading = False
-        self._echoed.clear()
         self.show_title()
         self.render()
 

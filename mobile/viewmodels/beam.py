@@ -26,7 +26,7 @@ from core.plausible import PLAUSIBLE
 from core.recheck import recheck
 from core.results import FactorTrace, Recheck
 from mobile.units import LengthRefused, echo_length, read_length, split_spans
-from mobile.viewmodels.common import line_loads_kn_m, status_label, validation_message
+from mobile.viewmodels.common import line_loads_kn_m, status_label
 from storage import Store
 
 LENGTH_FIELDS = {  # form field -> its plausible range (core.plausible)
@@ -50,6 +50,25 @@ PICKERS: dict[str, tuple[str, ...]] = {
     "restraint": ("yes", "no", "not_visible"),
 }
 RESTRAINT_WORDS = {"yes": "Yes, restrained", "no": "No restraint", "not_visible": "Not visible", "": "not yet entered"}
+CHOICE_WORDS = {
+    "roof_no_ceiling": "Roof, no ceiling",
+    "roof_other": "Roof, other ceiling",
+    "roof_plaster": "Roof, plaster ceiling",
+    "floor": "Floor",
+    "not_visible": "Not visible",
+    "none": "None",
+    "purlins": "Purlins",
+    "decking": "Decking",
+    "braces": "Braces",
+    "dry": "Dry",
+    "wet": "Wet",
+    "up": "Up",
+    "down": "Down",
+    "yes": "Yes",
+    "no": "No",
+    "glulam": "Glulam",
+    "sawn": "Sawn lumber",
+}
 # copied by "copy from": member, bracing and loads; never the span, the bearings or the mark
 COPIED = (
     "material",
@@ -134,6 +153,11 @@ class BeamFormViewModel:
         out.update(rec.get("drafts") or {})
         return out
 
+    @staticmethod
+    def is_picker(name: str) -> bool:
+        """A field chosen from a list (a refused choice is not kept as a draft)."""
+        return name in PICKERS or name in ("species", "grade") or name.endswith((".lateral", ".rotation"))
+
     def echo(self, name: str) -> str:
         """What a stored length field was understood as, in mm and feet-inches ('= 7200 mm = 23' 7 7/16"')."""
         rec = self.record()
@@ -147,10 +171,25 @@ class BeamFormViewModel:
             values = [bottom.get("spacing_mm")]
         elif name in LENGTH_FIELDS:
             values = [rec.get(name)]
+        elif name in LOAD_FIELDS or name == "tributary_m":
+            return self._load_echo(name, rec)
         else:
             return ""
         shown = [echo_length(v) for v in values if isinstance(v, int | float) and v]
         return ("= " + ";  ".join(shown)) if shown else ""
+
+    def _load_echo(self, name: str, rec: dict[str, Any]) -> str:
+        """Where the checked line loads come from: derived from the tributary width, or typed directly."""
+        width, loads = rec.get("tributary_m"), rec.get("loads")
+        if not loads:
+            return ""
+        if width is None:
+            return "line loads typed directly" if name == "tributary_m" else "typed directly"
+        if name == "tributary_m":
+            return "line loads below are derived from this width x the site's design basis"
+        basis = self.store.site(self.site_id).design_basis
+        kpa = getattr(basis, name.replace("_kn_m", "_kpa"))
+        return f"derived: {width:g} m x {kpa:g} kPa = {loads.get(name, 0):g} kN/m"
 
     def support_count(self) -> int:
         """Number of supports (spans + 1)."""
@@ -272,10 +311,11 @@ class BeamFormViewModel:
         try:
             changes = self._to_storage(name, text, rec)
             candidate = dict(rec, **changes)
-            if not missing_entries(candidate):  # until complete, each entry is checked on its own
-                Beam.model_validate({k: v for k, v in candidate.items() if k in Beam.model_fields})
+            # an incomplete beam is checked with stand-ins for what is not yet entered, so that the
+            # entries made so far are held to every rule that involves them (sawn b, grade, spacing)
+            Beam.model_validate({k: v for k, v in _with_stand_ins(candidate).items() if k in Beam.model_fields})
         except ValidationError as exc:
-            self.errors[name] = validation_message(exc)
+            self.errors[name] = trade_message(exc)
             self.suggestions.pop(name, None)
         except ValueError as exc:
             self.errors[name] = str(exc)
@@ -292,8 +332,8 @@ class BeamFormViewModel:
                 "top_braced_by" if name == "purlin_spacing_mm" else "",
                 "bottom_braced_by" if name == "bottom_spacing_mm" else "",
             } - {""}:
-                if drafts.pop(settled, None) is not None:
-                    self.errors.pop(settled, None)
+                drafts.pop(settled, None)
+                self.errors.pop(settled, None)
             changes = {k: v for k, v in changes.items() if rec.get(k) != v}
             if drafts != (rec.get("drafts") or {}):
                 changes["drafts"] = drafts
@@ -302,6 +342,16 @@ class BeamFormViewModel:
                 self.store.update_beam(self.beam_id, changes)
             self.refresh()
             return True
+        if self.is_picker(name):  # a refused pick is not kept: the picker shows the value in force
+            kept = self.form().get(name, "")
+            reason = self.errors[name]
+            if name in ("top_braced_by", "bottom_braced_by") and text in ("purlins", "braces"):
+                where = "Purlins at" if text == "purlins" else "Bottom braces at"
+                reason = f"type their spacing in '{where}' (that also sets this choice)."
+            self.errors[name] = f"Not changed to {words(text)}: {reason} Stays {words(kept)}."
+            if drafts.pop(name, None) is not None:
+                self.store.update_beam(self.beam_id, {"drafts": drafts})
+            return False
         if drafts.get(name) != text:  # keep what was typed, even though it is refused
             drafts[name] = text
             self.store.update_beam(self.beam_id, {"drafts": drafts})
@@ -450,6 +500,47 @@ class BeamFormViewModel:
             self.site_id, self.beam_id, f.code, f.priority.value, where, f.message, f.clause, f.action
         )
         return d.number
+
+
+def words(value: str) -> str:
+    """A stored choice in the trade's words ('not_visible' -> 'not visible')."""
+    return CHOICE_WORDS.get(value, value.replace("_", " "))
+
+
+def trade_message(exc: ValidationError) -> str:
+    """A refused entry in words: the reason the model gives, without the validator's framing."""
+    out = []
+    for e in exc.errors():
+        msg = str(e["msg"]).removeprefix("Value error, ")
+        where = ".".join(map(str, e["loc"]))
+        out.append(msg if (not where or where in msg) else f"{where}: {msg}")
+    return "; ".join(out) + ("" if out and out[-1].endswith(".") else ".")
+
+
+def _with_stand_ins(rec: dict[str, Any]) -> dict[str, Any]:
+    """The record with valid stand-ins for entries not yet made (for validating the entries that were)."""
+    out = dict(rec)
+    glulam = out.get("material", "glulam") == "glulam"
+    if not out.get("b_mm"):
+        out["b_mm"] = min(
+            map(float, tables.column("glulam_sizes" if glulam else "lumber_sizes", "width_mm" if glulam else "b_mm"))
+        )
+    if not out.get("d_mm"):
+        out["d_mm"] = 38.0 * 4 if glulam else min(map(float, tables.column("lumber_sizes", "d_mm")))
+    if not out.get("spans_mm"):
+        out["spans_mm"] = [3000.0]
+    out["loads"] = out.get("loads") or {}
+    bearings = [dict(b) for b in out.get("bearings") or []]
+    bearings += [{}] * (len(out["spans_mm"]) + 1 - len(bearings))
+    out["bearings"] = [
+        {
+            "lateral": b.get("lateral") or "not_visible",
+            "rotation": b.get("rotation") or "not_visible",
+            "length_mm": b.get("length_mm") or 140.0,
+        }
+        for b in bearings
+    ]
+    return out
 
 
 def missing_entries(rec: dict[str, Any]) -> list[str]:

@@ -155,7 +155,8 @@ def test_purlins_picker_waits_for_spacing(demo):
     store, site_id = demo
     form = _form(store, site_id, "RB-3")  # no bracing
     assert not form.set_field("top_braced_by", "purlins")  # O86 needs the spacing a of lateral supports
-    assert form.form()["top_braced_by"] == "purlins"
+    assert form.form()["top_braced_by"] == "none"  # the picker shows the value in force
+    assert "Purlins at" in form.errors["top_braced_by"]
     assert form.set_field("purlin_spacing_mm", "1200")
     assert "top_braced_by" not in form.errors and form.record()["top_edge"]["braced_by"] == "purlins"
     assert "drafts" not in form.record() or "top_braced_by" not in form.record()["drafts"]
@@ -259,3 +260,24 @@ def test_site_search_filters_and_counts(demo):
     # the counts add up to the beams (each beam has one status)
     assert sum(int(p.split()[1]) for p in counts.split(":", 1)[1].split("·")) == len(rows)
     assert "Roof" in vm.levels(rows)
+
+
+def test_derived_loads_follow_their_source_and_say_so(demo):
+    store, site_id = demo
+    form = _form(store, site_id, "RB-1")
+    basis = store.site(site_id).design_basis
+    assert form.set_field("tributary_m", "2,5")  # decimal comma
+    # specified line load = area load x tributary width (common practice)
+    assert form.form()["dead_kn_m"] == f"{round(basis.dead_kpa * 2.5, 3):g}"
+    assert form.echo("dead_kn_m").startswith(f"derived: 2.5 m x {basis.dead_kpa:g} kPa")
+    assert form.set_field("live_kn_m", "1.5")
+    assert form.form()["tributary_m"] == "" and form.echo("live_kn_m") == "typed directly"
+
+
+def test_refused_pick_keeps_the_value_in_force_and_says_so_in_words(demo):
+    store, site_id = demo
+    form = _form(store, site_id, "RB-1")  # 130 mm wide glulam
+    assert not form.set_field("material", "sawn")
+    assert form.form()["material"] == "glulam" and form.record()["material"] == "glulam"
+    assert "Not changed to Sawn lumber" in form.errors["material"] and "Stays Glulam" in form.errors["material"]
+    assert "Value error" not in form.errors["material"]
