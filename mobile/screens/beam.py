@@ -248,7 +248,13 @@ class BeamScreen(Screen):
             self.vm.refresh()
         self.immediate_text = "\n".join("▲ IMMEDIATE: " + x for x in self.vm.immediate_findings())
         lines, findings = self.vm.panel_lines(), self.vm.findings()
-        shape = ([(key, util is None) for _, util, key in lines], len(findings), getattr(self, "raised_text", ""))
+        raised = tuple(self.vm.raised_number(i) for i, _ in findings)
+        shape = (
+            [(key, util is None) for _, util, key in lines],
+            len(findings),
+            getattr(self, "raised_text", ""),
+            raised,
+        )
         if shape != getattr(self, "_panel_shape", None):
             self._build_panel(lines, findings)
             self._panel_shape = shape
@@ -299,13 +305,14 @@ class BeamScreen(Screen):
             )
             panel.add_widget(label)
             self._finding_labels.append(label)
-            panel.add_widget(
-                big_button(
-                    f"Raise deficiency from finding {index + 1}",
-                    lambda _b, i=index: self.raise_finding(i),
-                    halign="center",
-                )
+            number = self.vm.raised_number(index)
+            button = big_button(
+                f"Finding {index + 1} raised as {number}" if number else f"Raise deficiency from finding {index + 1}",
+                lambda _b, i=index: self.raise_finding(i),
+                halign="center",
             )
+            button.disabled = bool(number)  # never raised twice
+            panel.add_widget(button)
         if getattr(self, "raised_text", ""):
             panel.add_widget(
                 Label(

@@ -6,7 +6,9 @@ from pathlib import Path
 from typing import Any
 
 from kivy.app import App
-from kivy.properties import StringProperty
+from kivy.factory import Factory
+from kivy.properties import BooleanProperty, StringProperty
+from kivy.uix.popup import Popup
 from kivy.uix.screenmanager import Screen
 
 from mobile.screens.widgets import (
@@ -24,6 +26,8 @@ class DeficiencyScreen(Screen):
     error_text = StringProperty("")
     history_text = StringProperty("")
     evidence_text = StringProperty("Evidence photo…")
+    who_text = StringProperty("")
+    has_beam = BooleanProperty(False)
 
     def on_pre_enter(self, *args: Any) -> None:
         """Load the deficiency."""
@@ -36,7 +40,35 @@ class DeficiencyScreen(Screen):
         self.evidence: str | None = None
         self.evidence_text = "Evidence photo…"
         self.message = ""
+        self.has_beam = self.vm.deficiency().beam_id is not None
         self.render()
+
+    def open_device_setup(self) -> None:
+        """Set up the person and role this device is used by (a device setting, not a per-screen choice)."""
+        form = Factory.DeviceForm()
+        name, role = self.vm.device_user()
+        form.ids.device_name.text, form.ids.device_role.text = name, role or "reviewer"
+        popup = Popup(title="Device user", content=form, size_hint=(0.9, 0.9), title_size="20sp", auto_dismiss=False)
+
+        def save(*_: Any) -> None:
+            try:
+                self.vm.store.set_device_user(form.ids.device_name.text, form.ids.device_role.text)
+            except ValueError as exc:
+                form.ids.device_message.text = str(exc)
+                return
+            popup.dismiss()
+            self.render()
+
+        form.ids.device_save.bind(on_release=save)
+        form.ids.cancel.bind(on_release=lambda *_: popup.dismiss())
+        self.device_popup = popup
+        popup.open()
+
+    def update_beam(self) -> None:
+        """Open the beam this deficiency is on, to record what is now installed."""
+        beam_id = self.vm.deficiency().beam_id
+        if beam_id:
+            App.get_running_app().open_beam(beam_id)
 
     def edit(self, name: str, text: str) -> None:
         """Save an edited field."""
@@ -57,7 +89,11 @@ class DeficiencyScreen(Screen):
 
     def move(self, stage: str) -> None:
         """Move the status."""
-        if self.vm.move(stage, self.ids.actor.text, self.ids.role.text, self.ids.note.text, self.evidence):
+        name, role = self.vm.device_user()
+        if not name:
+            self.message = "Set up this device's user first (Device user…): moves are recorded under that name."
+            return
+        if self.vm.move(stage, name, role, self.ids.note.text, self.evidence):
             self.ids.note.text = ""
             self.evidence, self.evidence_text = None, "Evidence photo…"
         self.message = self.vm.message
@@ -70,7 +106,9 @@ class DeficiencyScreen(Screen):
         self.title = self.vm.title()
         box = self.ids.moves
         box.clear_widgets()
-        words = {"corrected": "Mark corrected", "verified": "Verify (reviewer)", "reopen": "Reopen"}
-        for stage in self.vm.moves(self.ids.role.text):
+        words = {"corrected": "Mark corrected", "verified": "Verify the correction", "reopen": "Reopen"}
+        name, role = self.vm.device_user()
+        self.who_text = f"Recorded as {name} ({role})" if name else "This device has no user set up yet"
+        for stage in self.vm.moves(role):
             box.add_widget(big_button(words[stage], lambda _b, s=stage: self.move(s), halign="center"))
         self.history_text = "\n".join(self.vm.history_lines())

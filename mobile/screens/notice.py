@@ -13,7 +13,7 @@ from kivy.uix.screenmanager import Screen
 from mobile.screens.widgets import (
     big_button,
 )
-from mobile.viewmodels import NoticeViewModel
+from mobile.viewmodels import NoticeViewModel, SiteViewModel
 
 PREVIEW_DIR = Path(tempfile.gettempdir()) / "bracewalk-preview"  # page images of the notice being previewed
 
@@ -24,6 +24,7 @@ class NoticeScreen(Screen):
     message = StringProperty("")
     page_text = StringProperty("no preview yet")
     page_source = StringProperty("")
+    unraised_text = StringProperty("")
 
     def on_pre_enter(self, *args: Any) -> None:
         """Fill the item and issued lists."""
@@ -34,6 +35,7 @@ class NoticeScreen(Screen):
         self.page_source, self.page_text = "", "no preview yet"
         if not self.ids.export_dir.text:
             self.ids.export_dir.text = str(Path.home() / "bracewalk-exports")
+        self.unraised_text = SiteViewModel(app.store, app.site_id).unraised_warning()
         self.render()
 
     def render(self) -> None:

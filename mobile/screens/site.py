@@ -32,6 +32,7 @@ class SiteScreen(Screen):
     visit_text = StringProperty("")
     message = StringProperty("")
     counts_text = StringProperty("")
+    unraised_text = StringProperty("")
 
     def on_kv_post(self, base_widget: Any) -> None:
         """Build the visit and raise-by-hand forms once (opened over the screen when asked)."""
@@ -57,6 +58,7 @@ class SiteScreen(Screen):
         self.ids.status_filter.values = [ALL_STATUSES, *(status_label(s) for s in STATUS_WORDS)]
         self.show_beams()
         self.show_deficiencies()
+        self.unraised_text = self.vm.unraised_warning()
 
     def filter_changed(self) -> None:
         """Search text or a filter changed: redraw the beam list."""

@@ -24,9 +24,10 @@ from core import tables
 from core.models import Beam, Material, grades_allowed, species_allowed
 from core.plausible import PLAUSIBLE
 from core.recheck import recheck
+from core.records import Stage
 from core.results import FactorTrace, Recheck
 from mobile.units import LengthRefused, echo_length, read_length, split_spans
-from mobile.viewmodels.common import line_loads_kn_m, status_label
+from mobile.viewmodels.common import PRIORITY_LABELS, line_loads_kn_m, status_label
 from storage import Store
 
 LENGTH_FIELDS = {  # form field -> its plausible range (core.plausible)
@@ -406,7 +407,12 @@ class BeamFormViewModel:
         r = self.result or self.refresh()
         if r is None:
             return []
-        return [(i, f"[{f.priority.value}] {f.message} → {f.action}") for i, f in enumerate(r.findings)]
+        out = []
+        for i, f in enumerate(r.findings):
+            number = raised_number_for(self.store, self.site_id, self.beam_id, f)
+            state = f"  [raised as {number}]" if number else "  [not yet raised]"
+            out.append((i, f"{PRIORITY_LABELS[f.priority.value]}: {f.message} → {f.action}{state}"))
+        return out
 
     def panel_lines(self) -> list[tuple[str, float | None, str]]:
         """Live recheck lines: (text, utilisation for the bar or None, trace key for ``trace_lines``)."""
@@ -489,17 +495,36 @@ class BeamFormViewModel:
         rec = self.record()
         return f"{rec.get('level') or '?'}, grid {rec.get('gridline') or '?'}, {rec.get('mark')}"
 
+    def raised_number(self, index: int) -> str:
+        """The number of the unverified deficiency already raised from the finding at ``index`` ('' if none)."""
+        r = self.result or self.refresh()
+        if r is None or not 0 <= index < len(r.findings):
+            return ""
+        return raised_number_for(self.store, self.site_id, self.beam_id, r.findings[index])
+
     def raise_deficiency(self, index: int = 0) -> str:
-        """Confirm the finding at ``index`` as a numbered deficiency; return its number."""
+        """Confirm the finding at ``index`` as a numbered deficiency; return its number (never twice)."""
         r = self.result or self.refresh()
         if r is None or not 0 <= index < len(r.findings):
             raise ValueError("no such finding to raise: the recheck has none at that position")
+        already = self.raised_number(index)
+        if already:
+            raise ValueError(f"already raised as {already}; it is not raised twice")
         f = r.findings[index]
         where = self.location_text() + (f", {f.region}" if f.region else "")
         d = self.store.raise_deficiency(
             self.site_id, self.beam_id, f.code, f.priority.value, where, f.message, f.clause, f.action
         )
         return d.number
+
+
+def raised_number_for(store: Store, site_id: str, beam_id: str, finding: Any) -> str:
+    """The number of this beam's unverified deficiency raised from ``finding`` (same code and place), or ''."""
+    for d in store.deficiencies(site_id):
+        if d.beam_id == beam_id and d.stage is not Stage.verified and d.code == finding.code:
+            if not finding.region or d.location.endswith(finding.region):
+                return d.number
+    return ""
 
 
 def words(value: str) -> str:

@@ -9,6 +9,7 @@ from typing import Any
 
 from core.recheck import recheck
 from core.results import PRIORITY_ORDER
+from mobile.viewmodels.beam import raised_number_for
 from mobile.viewmodels.common import PRIORITY_LABELS, STAGE_WORDS, STATUS_WORDS, status_label
 from storage import Store
 from storage.clock import uuid7
@@ -81,6 +82,26 @@ class SiteViewModel:
             tally[st] = tally.get(st, 0) + 1
         parts = [f"{STATUS_WORDS[st][1]} {tally[st]} {STATUS_WORDS[st][0]}" for st in STATUS_WORDS if st in tally]
         return f"{len(rows)} beams:  " + "  ·  ".join(parts) if rows else "No beams logged yet."
+
+    def unraised(self) -> list[str]:
+        """'RB-7 (2 findings)' for each beam whose recheck has findings not yet raised as deficiencies."""
+        out = []
+        for beam_id, record in self.store.beams(self.site_id):
+            try:
+                result = recheck(self.store.beam(beam_id))
+            except ValueError:
+                continue  # not yet checked: nothing to raise
+            todo = [f for f in result.findings if not raised_number_for(self.store, self.site_id, beam_id, f)]
+            if todo and result.status.value != "ok":
+                out.append(f"{record.get('mark')} ({len(todo)} finding{'s' if len(todo) > 1 else ''})")
+        return out
+
+    def unraised_warning(self) -> str:
+        """The warning shown on the site and notice screens ('' when every finding is raised)."""
+        marks = self.unraised()
+        if not marks:
+            return ""
+        return "▲ Findings not yet raised (not on any notice): " + ", ".join(marks)
 
     def deficiency_groups(self) -> list[tuple[str, list[tuple[str, str]]]]:
         """Open deficiencies by priority, most urgent first: [(priority label, [(id, line)])]."""

@@ -184,8 +184,10 @@ def test_photo_attached_to_beam(demo, tmp_path):
 
 def test_deficiency_lifecycle_with_evidence_and_history(demo, tmp_path):
     store, site_id = demo
-    raise_all(store, site_id)
-    d = store.deficiencies(site_id, open_only=True)[0]
+    number = SiteViewModel(store, site_id).raise_by_hand(
+        "Roof, grid A / 1", "hanger nails missing", "Install the nails", "before_loading"
+    )
+    d = next(x for x in store.deficiencies(site_id) if x.number == number)  # not on a logged beam
     vm = DeficiencyViewModel(store, d.id)
     assert vm.moves("contractor") == ["corrected"]
     assert "verified" in vm.moves("reviewer")
@@ -281,3 +283,41 @@ def test_refused_pick_keeps_the_value_in_force_and_says_so_in_words(demo):
     assert form.form()["material"] == "glulam" and form.record()["material"] == "glulam"
     assert "Not changed to Sawn lumber" in form.errors["material"] and "Stays Glulam" in form.errors["material"]
     assert "Value error" not in form.errors["material"]
+
+
+def test_finding_raised_once_and_corrected_only_with_the_beam_updated(demo):
+    store, site_id = demo
+    form = _form(store, site_id, "RB-5")  # rotation restraint missing at support 2 (demo)
+    site = SiteViewModel(store, site_id)
+    assert "RB-5" in site.unraised_warning()
+    index = next(i for i, f in enumerate(form.refresh().findings) if f.code == "bearing_restraint_missing")
+    assert "[not yet raised]" in dict(form.findings())[index]
+    number = form.raise_deficiency(index)
+    assert form.raised_number(index) == number and f"[raised as {number}]" in dict(form.findings())[index]
+    with pytest.raises(ValueError, match="already raised"):
+        form.raise_deficiency(index)
+    d = next(x for x in store.deficiencies(site_id) if x.number == number)
+    vm = DeficiencyViewModel(store, d.id)
+    assert not vm.move("corrected", "D. Abernathy", "contractor", "blocking added")
+    assert "still shows this finding" in vm.message
+    # what is now installed: the restraint at support 2
+    for key in ("lateral", "rotation"):
+        assert form.set_field(f"bearing2.{key}", "yes")
+    assert vm.move("corrected", "D. Abernathy", "contractor", "blocking added")
+    assert "as now recorded: ● OK" in vm.history_lines()[-1]
+    assert vm.move("verified", "P. Okonkwo-Lind", "reviewer", "seen in place")
+    assert form.refresh().status.value == "ok"  # the beam shows its new status
+
+
+def test_verify_is_offered_by_the_device_users_role(demo):
+    store, site_id = demo
+    raise_all(store, site_id)
+    d = store.deficiencies(site_id, open_only=True)[0]
+    vm = DeficiencyViewModel(store, d.id)
+    assert vm.device_user() == ("", "")
+    with pytest.raises(ValueError, match="allowed: reviewer"):
+        store.set_device_user("R. Vantongeren", "superuser")
+    store.set_device_user("R. Vantongeren", "contractor")
+    assert "verified" not in vm.moves(vm.device_user()[1])
+    store.set_device_user("P. Okonkwo-Lind", "reviewer")
+    assert vm.device_user() == ("P. Okonkwo-Lind", "reviewer") and "verified" in vm.moves("reviewer")

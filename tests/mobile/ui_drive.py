@@ -243,6 +243,8 @@ if FLOW == "main":
         raise_buttons = [w for w in s.ids.panel.children if getattr(w, "text", "").startswith("Raise deficiency")]
         raise_buttons[-1].trigger_action(0)  # the first finding (children are in reverse order)
         assert "Raised D-" in s.raised_text
+        state["raised"] = s.raised_text.split()[-1]
+        assert any(b.text.endswith(f"raised as {state['raised']}") and b.disabled for b in s.ids.panel.children)
 
     @step
     def back_to_site():
@@ -252,23 +254,46 @@ if FLOW == "main":
     @step
     def open_deficiency():
         shot("06-site-after")
-        d = app.store.deficiencies(app.site_id, open_only=True)[0]
+        number = state["raised"]
+        d = next(d for d in app.store.deficiencies(app.site_id, open_only=True) if d.number == number)
         app.open_deficiency(d.id)
 
     @step
-    def move_status():
+    def device_user():
         s = screen("deficiency")
-        s.ids.actor.text = "D. Abernathy"
-        s.ids.role.text = "contractor"
+        assert not s.ids.moves.children or "no user" in s.who_text
+        s.ids.device_setup.trigger_action(0)
+        form = s.device_popup.content.ids
+        form.device_name.text = "Priya Okonkwo-Lind"
+        form.device_role.text = "reviewer"
+        form.device_save.trigger_action(0)
+        assert "Priya" in s.who_text, s.who_text
+
+    @step
+    def corrected_needs_the_beam_updated():
+        s = screen("deficiency")
         s.ids.note.text = "blocking installed both sides"
+        buttons = {b.text: b for b in s.ids.moves.children}
+        buttons["Mark corrected"].trigger_action(0)
+        assert "Not marked corrected" in s.message, s.message
+        s.ids.update_beam.trigger_action(0)
+        assert app.root.current == "beam"
+
+    @step
+    def record_installed():
+        screen("beam").restraint_buttons[(2, "rotation", "yes")].trigger_action(0)
+        assert screen("beam").vm.result.status.value == "ok"
+        screen("beam").ids.back.trigger_action(0)
+        app.open_deficiency(next(d.id for d in app.store.deficiencies(app.site_id) if d.number == state["raised"]))
 
     @step
     def move_status2():
         s = screen("deficiency")
+        s.ids.note.text = "blocking installed both sides"
         buttons = {b.text: b for b in s.ids.moves.children}
-        assert "Verify (reviewer)" not in buttons, buttons  # a contractor cannot verify
         buttons["Mark corrected"].trigger_action(0)
-        assert "corrected" in s.history_text, s.history_text
+        assert "corrected" in s.history_text and "as now recorded: ● OK" in s.history_text, s.history_text
+        assert "Verify the correction" in {b.text for b in s.ids.moves.children}  # the device's user is a reviewer
 
     @step
     def deficiency_shot():
