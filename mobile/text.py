@@ -16,7 +16,7 @@ def recheck_text(r: Recheck) -> str:
         size = f"KZbg {_num(b.kzbg)}" if b.kzbg is not None else f"KZb {_num(b.kzb, '.2f')}"
         lines.append(
             f"  bending {b.region} ({b.sign}): Lu {_num(b.lu_mm, '.0f')} mm, CB {_num(b.cb, '.2f')}, "
-            f"KL {_num(b.kl)}, {size}, Mr {_num(b.mr_knm, '.1f')} kN*m vs Mf {b.mf_knm:.1f} kN*m, "
+            f"KL {_num(b.kl)}, {size}, Mr {_num(b.mr_knm, '.1f')} kN·m vs Mf {b.mf_knm:.1f} kN·m, "
             f"utilisation {_num(b.utilisation, '.2f')} [{b.combination}] {b.outcome}"
         )
     s = r.shear

@@ -7,15 +7,17 @@ from typing import Any
 
 from kivy.app import App
 from kivy.factory import Factory
-from kivy.properties import BooleanProperty, StringProperty
+from kivy.properties import BooleanProperty, ListProperty, StringProperty
 from kivy.uix.popup import Popup
 from kivy.uix.screenmanager import Screen
 
+from core.results import PRIORITY_ORDER
 from mobile.screens.widgets import (
     big_button,
     choose_file,
 )
 from mobile.viewmodels import DeficiencyViewModel
+from mobile.viewmodels.common import PRIORITY_LABELS
 
 
 class DeficiencyScreen(Screen):
@@ -28,6 +30,12 @@ class DeficiencyScreen(Screen):
     evidence_text = StringProperty("Evidence photo…")
     who_text = StringProperty("")
     has_beam = BooleanProperty(False)
+    priority_words = ListProperty([PRIORITY_LABELS[p] for p in PRIORITY_ORDER])
+
+    @staticmethod
+    def priority_code(text: str) -> str:
+        """'▲ IMMEDIATE: make safe now' -> 'immediate' (the picker shows words, the record keeps the code)."""
+        return next((p for p, w in PRIORITY_LABELS.items() if w == text), text)
 
     def on_pre_enter(self, *args: Any) -> None:
         """Load the deficiency."""
@@ -35,7 +43,7 @@ class DeficiencyScreen(Screen):
         self.vm = DeficiencyViewModel(app.store, app.deficiency_id)
         self._loading = True
         for k, v in self.vm.fields().items():
-            self.ids[k].text = v
+            self.ids[k].text = PRIORITY_LABELS.get(v, v) if k == "priority" else v
         self._loading = False
         self.evidence: str | None = None
         self.evidence_text = "Evidence photo…"

@@ -12,6 +12,7 @@ from mobile.screens.widgets import (
     big_button,
 )
 from mobile.viewmodels import SitesViewModel
+from mobile.viewmodels.beam import CHOICE_WORDS
 
 
 class SitesScreen(Screen):
@@ -44,6 +45,7 @@ class SitesScreen(Screen):
                 "use",
             )
         }
+        form["use"] = next((c for c, w in CHOICE_WORDS.items() if w == form["use"]), form["use"])
         site = self.vm.create(form)
         self.error_text = "\n".join(self.vm.errors.values())
         if site is not None:

@@ -9,7 +9,7 @@ from pathlib import Path
 from core.recheck import recheck
 from core.records import Deficiency, Stage
 from core.results import PRIORITY_ORDER
-from mobile.viewmodels.common import PRIORITY_LABELS, STAGE_WORDS, status_label
+from mobile.viewmodels.common import PRIORITY_LABELS, STAGE_WORDS, local_time, status_label
 from storage import Store
 from storage.store import LifecycleError
 
@@ -126,7 +126,7 @@ class DeficiencyViewModel:
         for e in self.store.history(self.deficiency_id):
             word = "opened" if e.stage is Stage.open and e.cycle else STAGE_WORDS[int(e.stage)]
             out.append(
-                f"{e.at}  {word} (cycle {e.cycle + 1}) by {e.actor} [{e.role}]"
+                f"{local_time(e.at)}  {word} (cycle {e.cycle + 1}) by {e.actor} [{e.role}]"
                 + (f": {e.note}" if e.note else "")
                 + ("  · photo evidence" if e.evidence_sha256 else "")
             )

@@ -133,7 +133,7 @@ class SiteViewModel:
         visit = self.store.start_visit(
             self.site_id,
             reviewer.strip(),
-            time.strftime("%Y-%m-%d %H:%M"),
+            time.strftime("%Y-%m-%d %H:%M %Z"),  # local time with its zone
             weather=weather.strip(),
             scope_reviewed=scope_reviewed.strip(),
             scope_not_reviewed=scope_not_reviewed.strip(),

@@ -321,3 +321,18 @@ def test_verify_is_offered_by_the_device_users_role(demo):
     assert "verified" not in vm.moves(vm.device_user()[1])
     store.set_device_user("P. Okonkwo-Lind", "reviewer")
     assert vm.device_user() == ("P. Okonkwo-Lind", "reviewer") and "verified" in vm.moves("reviewer")
+
+
+def test_times_shown_in_local_time_with_zone(monkeypatch):
+    import time
+
+    from mobile.viewmodels.common import local_time
+
+    monkeypatch.setenv("TZ", "America/Vancouver")
+    time.tzset()
+    try:
+        # Pacific Standard Time is UTC-8 in December (tz database)
+        assert local_time("2026-12-02T04:56:06Z") == "2026-12-01 20:56 PST"
+    finally:
+        monkeypatch.delenv("TZ")
+        time.tzset()
