@@ -177,7 +177,7 @@ class BeamScreen(Screen):
         if self.vm.is_picker(name) and not name.startswith("bearing"):
             text = next((v for v in self.vm.options(name) if words(v) == text), text)
         self.vm.set_field(name, text)
-        self.after_change(reload=name in ("material", "species", "top_braced_by", "bottom_braced_by"))
+        self.after_change(reload=name in ("material", "species", "top_braced_by", "bottom_braced_by", "load_basis"))
 
     def _show_messages(self, name: str, w: Any) -> None:
         """The field's message, the offered reading and the echo of the value in force."""

@@ -50,7 +50,7 @@ class SiteScreen(Screen):
         app = App.get_running_app()
         self.vm = SiteViewModel(app.store, app.site_id)
         site = app.store.site(app.site_id)
-        self.title = f"{site.name}  ·  {site.address}"
+        self.title = ("DEMO  ·  " if site.demo else "") + f"{site.name}  ·  {site.address}"
         self.visit_text = self.vm.visit_line()
         self._rows = self.vm.beam_rows()
         self.counts_text = self.vm.counts(self._rows)
@@ -103,6 +103,12 @@ class SiteScreen(Screen):
             dbox.add_widget(Factory.Heading(text=label, font_size="18sp", height="9mm", shorten=True))
             for did, line in rows:
                 dbox.add_widget(big_button(line, lambda _b, d=did: app.open_deficiency(d), font_size="16sp"))
+
+    def edit_site(self) -> None:
+        """Edit this site and its design basis (on the sites screen's form)."""
+        app = App.get_running_app()
+        app.go("sites")
+        app.root.get_screen("sites").edit_site(app.site_id)
 
     def new_beam(self) -> None:
         """Log a new beam and open its form."""

@@ -14,11 +14,30 @@ from mobile.screens.widgets import (
 from mobile.viewmodels import SitesViewModel
 from mobile.viewmodels.beam import CHOICE_WORDS
 
+FORM_FIELDS = (
+    "name",
+    "address",
+    "permit_number",
+    "project_number",
+    "owner",
+    "contractor",
+    "contractor_contact",
+    "distribution",
+    "firm",
+    "dead_kpa",
+    "live_kpa",
+    "snow_kpa",
+    "load_bases",
+    "use",
+)
+
 
 class SitesScreen(Screen):
-    """Sites on this tablet with their sync state; create a site."""
+    """Sites on this tablet with their sync state; create a site, or edit one (``edit_site``)."""
 
     error_text = StringProperty("")
+    editing = StringProperty("")  # the id of the site being edited; '' when the form creates a new site
+    form_title = StringProperty("New site")
 
     def on_pre_enter(self, *args: Any) -> None:
         """Fill the site list."""
@@ -29,27 +48,23 @@ class SitesScreen(Screen):
         for site_id, text in self.vm.rows():
             box.add_widget(big_button(text, lambda _b, sid=site_id: app.open_site(sid), height="22mm"))
 
+    def edit_site(self, site_id: str) -> None:
+        """Put an existing site and its design basis into the form, to change them."""
+        self.vm = SitesViewModel(App.get_running_app().store)
+        values = self.vm.form_of(site_id)
+        for k in FORM_FIELDS:
+            self.ids[f"new_{k}"].text = CHOICE_WORDS.get(values[k], values[k]) if k == "use" else values[k]
+        self.editing, self.form_title, self.error_text = site_id, f"Edit site: {values['name']}", ""
+
     def create(self) -> None:
-        """Create the site from the form and open it."""
-        form = {
-            k: self.ids[f"new_{k}"].text
-            for k in (
-                "name",
-                "address",
-                "permit_number",
-                "project_number",
-                "firm",
-                "dead_kpa",
-                "live_kpa",
-                "snow_kpa",
-                "use",
-            )
-        }
+        """Create the site from the form (or save the site being edited) and open it."""
+        form = {k: self.ids[f"new_{k}"].text for k in FORM_FIELDS}
         form["use"] = next((c for c, w in CHOICE_WORDS.items() if w == form["use"]), form["use"])
-        site = self.vm.create(form)
+        site = self.vm.update(self.editing, form) if self.editing else self.vm.create(form)
         self.error_text = "\n".join(self.vm.errors.values())
         if site is not None:
             for k in form:
                 if k != "use":
                     self.ids[f"new_{k}"].text = ""
+            self.editing, self.form_title = "", "New site"
             App.get_running_app().open_site(site.id)

@@ -50,6 +50,7 @@ PICKERS: dict[str, tuple[str, ...]] = {
     "top_stamp": ("up", "down", "not_visible"),
     "restraint": ("yes", "no", "not_visible"),
 }
+MAIN_BASIS = "site design basis"  # the load basis picker's first choice; further bases are named on the site
 RESTRAINT_WORDS = {"yes": "Yes, restrained", "no": "No restraint", "not_visible": "Not visible", "": "not yet entered"}
 CHOICE_WORDS = {
     "roof_no_ceiling": "Roof, no ceiling",
@@ -84,6 +85,7 @@ COPIED = (
     "bottom_edge",
     "loads",
     "tributary_m",
+    "load_basis",
     "specified",
 )
 _SIZE = re.compile(r"^\s*(.+?)\s*[x×*]\s*(.+?)\s*$", re.IGNORECASE)
@@ -140,6 +142,7 @@ class BeamFormViewModel:
             "bottom_braced_by": _fmt(bottom.get("braced_by", "none")),
             "bottom_spacing_mm": _mm(bottom.get("spacing_mm")),
             "tributary_m": _fmt(rec.get("tributary_m")),
+            "load_basis": rec.get("load_basis") or MAIN_BASIS,
             "service": _fmt(rec.get("service", "dry")),
             "use": _fmt(rec.get("use", "roof_no_ceiling")),
             "top_stamp": _fmt(rec.get("top_stamp", "up")),
@@ -157,7 +160,13 @@ class BeamFormViewModel:
     @staticmethod
     def is_picker(name: str) -> bool:
         """A field chosen from a list (a refused choice is not kept as a draft)."""
-        return name in PICKERS or name in ("species", "grade") or name.endswith((".lateral", ".rotation"))
+        return name in PICKERS or name in ("species", "grade", "load_basis") or name.endswith((".lateral", ".rotation"))
+
+    def basis(self, rec: dict[str, Any]) -> Any:
+        """The design basis the beam's loads come from: the site's, or the named one chosen for this beam."""
+        site = self.store.site(self.site_id)
+        name = rec.get("load_basis")
+        return site.load_bases.get(name, site.design_basis) if name else site.design_basis
 
     def echo(self, name: str) -> str:
         """What a stored length field was understood as, in mm and feet-inches ('= 7200 mm = 23' 7 7/16"')."""
@@ -188,9 +197,9 @@ class BeamFormViewModel:
             return "line loads typed directly" if name == "tributary_m" else "typed directly"
         if name == "tributary_m":
             return "line loads below are derived from this width x the site's design basis"
-        basis = self.store.site(self.site_id).design_basis
-        kpa = getattr(basis, name.replace("_kn_m", "_kpa"))
-        return f"derived: {width:g} m x {kpa:g} kPa = {loads.get(name, 0):g} kN/m"
+        kpa = getattr(self.basis(rec), name.replace("_kn_m", "_kpa"))
+        where = rec.get("load_basis") or "site"
+        return f"derived: {width:g} m x {kpa:g} kPa ({where}) = {loads.get(name, 0):g} kN/m"
 
     def support_count(self) -> int:
         """Number of supports (spans + 1)."""
@@ -200,6 +209,8 @@ class BeamFormViewModel:
         """Choices for a picker field."""
         rec = self.record()
         material = Material(rec.get("material", "glulam"))
+        if name == "load_basis":
+            return [MAIN_BASIS, *self.store.site(self.site_id).load_bases]
         if name == "species":
             return species_allowed(material)
         if name == "grade":
@@ -257,7 +268,14 @@ class BeamFormViewModel:
             if not text:
                 return {"tributary_m": None}  # cleared: the line loads stay as they are
             width = _number(name, text, "tributary_m")
-            return {"tributary_m": width, "loads": line_loads_kn_m(self.store.site(self.site_id).design_basis, width)}
+            return {"tributary_m": width, "loads": line_loads_kn_m(self.basis(rec), width)}
+        if name == "load_basis":
+            if text not in self.options("load_basis"):
+                raise ValueError(f"load basis {text!r}; allowed: {', '.join(self.options('load_basis'))}")
+            changes: dict[str, Any] = {"load_basis": None if text == MAIN_BASIS else text}
+            if rec.get("tributary_m") is not None:  # derived loads follow the basis at once
+                changes["loads"] = line_loads_kn_m(self.basis(dict(rec, **changes)), rec["tributary_m"])
+            return changes
         if name == "material":
             material = Material(text)
             species = (

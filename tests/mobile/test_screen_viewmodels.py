@@ -336,3 +336,54 @@ def test_times_shown_in_local_time_with_zone(monkeypatch):
     finally:
         monkeypatch.delenv("TZ")
         time.tzset()
+
+
+def test_site_form_owner_contractor_distribution_bases_and_edit(tmp_path):
+    from mobile.issue import build_notice
+    from mobile.viewmodels import SitesViewModel
+
+    store = Store(tmp_path / "s.db")
+    vm = SitesViewModel(store)
+    form = {
+        "name": "Willow Yard Pavilion",
+        "address": "7 Quarry Lane",
+        "owner": "Willow Yard Trust",
+        "contractor": "Ashgrove Framing Inc.",
+        "contractor_contact": "M. Ferreira",
+        "distribution": "Owner; Architect; File",
+        "dead_kpa": "1,0",
+        "snow_kpa": "2.4",
+        "load_bases": "floor: 1.5/1.9/0; canopy: 0.8/0/2.1",
+        "use": "roof_no_ceiling",
+    }
+    site = vm.create(form)
+    assert site is not None, vm.errors
+    assert site.distribution == ["Owner", "Architect", "File"] and set(site.load_bases) == {"floor", "canopy"}
+    assert site.load_bases["floor"].live_kpa == 1.9 and site.load_bases["floor"].use.value == "floor"
+    notice, _ = build_notice(store, site.id, "N-1")
+    assert notice.addressed_to == "Ashgrove Framing Inc. (attention: M. Ferreira)"
+    assert notice.distribution == ["Owner", "Architect", "File"]
+    assert not vm.create(dict(form, load_bases="floor 1.5")) and "dead/live/snow" in vm.errors["load_bases"]
+    edited = vm.update(site.id, dict(vm.form_of(site.id), snow_kpa="3.1", contractor_contact="J. Osei"))
+    assert edited is not None and edited.design_basis.snow_kpa == 3.1 and edited.contractor_contact == "J. Osei"
+    assert edited.load_bases == site.load_bases  # unchanged fields survive the edit
+
+
+def test_beam_chooses_its_load_basis(demo):
+    store, site_id = demo
+    form = _form(store, site_id, "RB-1")
+    floor = store.site(site_id).load_bases["floor"]
+    assert form.options("load_basis")[1:] == ["floor"]
+    assert form.set_field("tributary_m", "0.4")
+    assert form.set_field("load_basis", "floor")
+    # specified line load = area load x tributary width (common practice)
+    assert form.record()["loads"]["live_kn_m"] == pytest.approx(floor.live_kpa * 0.4)
+    assert "(floor)" in form.echo("live_kn_m")
+
+
+def test_demo_site_is_marked(demo):
+    from mobile.viewmodels import SitesViewModel
+
+    store, site_id = demo
+    assert store.site(site_id).demo
+    assert any(text.startswith("DEMO · ") for _, text in SitesViewModel(store).rows())

@@ -363,6 +363,8 @@ if FLOW == "main":
         s = screen("sites")
         s.ids.new_name.text = "Willow Yard Pavilion"
         s.ids.new_address.text = "7 Quarry Lane"
+        s.ids.new_contractor.text = "Ashgrove Framing Inc."
+        s.ids.new_contractor_contact.text = "M. Ferreira"
         s.ids.new_dead_kpa.text = "1.0"
         s.ids.new_snow_kpa.text = "heavy"  # refused at the field: not a number
         s.ids.create_site.trigger_action(0)
@@ -370,6 +372,7 @@ if FLOW == "main":
         s.ids.new_snow_kpa.text = "2.4"
         s.ids.create_site.trigger_action(0)
         assert app.root.current == "site" and "Willow Yard" in screen("site").title
+        assert app.store.site(app.site_id).contractor_contact == "M. Ferreira"
 
     @step
     def touch_targets():
