@@ -31,6 +31,7 @@ from mobile.viewmodels.beam import RESTRAINT_WORDS, words
 TYPING_PAUSE_S = 0.35  # save this long after the last keystroke (and at once on Enter or leaving the field)
 
 
+ARCHIVE_PROMPT = "Archive this beam (logged by mistake)…"
 COPY_PROMPT = "Copy member, bracing, loads from…"
 
 
@@ -41,6 +42,7 @@ class BeamScreen(Screen):
     immediate_text = StringProperty("")
     photo_text = StringProperty("Photos: 0")
     refresh_ms = NumericProperty(0.0)
+    archive_text = StringProperty(ARCHIVE_PROMPT)
 
     def on_kv_post(self, base_widget: Any) -> None:
         """Index the form's fields by name."""
@@ -58,6 +60,7 @@ class BeamScreen(Screen):
         self.vm = BeamFormViewModel(app.store, app.site_id, app.beam_id)
         self._panel_shape = self._bearing_shape = None  # a new beam or theme: build the widgets afresh
         self.raised_text = ""
+        self.archive_text = ARCHIVE_PROMPT
         self.ids.form_scroll.scroll_y = 1  # another beam: start at the top of its form
         self.load_form()
         self.render()
@@ -230,6 +233,16 @@ class BeamScreen(Screen):
         number = self.vm.raise_deficiency(index)
         self.raised_text = f"Raised {number}"
         self.render()
+
+    def archive(self) -> None:
+        """Archive a beam logged by mistake: a second tap confirms; it leaves the lists, stays in the history."""
+        if self.archive_text == ARCHIVE_PROMPT:
+            self.archive_text = "Tap again to archive (it leaves the lists; its history is kept)"
+            return
+        self.flush()
+        self.vm.archive()
+        self.archive_text = ARCHIVE_PROMPT
+        App.get_running_app().go("site")
 
     def leave(self) -> None:
         """Back to the site (pending typing saved first)."""

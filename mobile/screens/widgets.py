@@ -2,22 +2,25 @@
 
 from __future__ import annotations
 
+import fnmatch
 from pathlib import Path
 from typing import Any
 
 from kivy.app import App
-from kivy.core.text import DEFAULT_FONT
+from kivy.clock import Clock
 from kivy.metrics import dp
 from kivy.properties import BooleanProperty, ListProperty, StringProperty
 from kivy.uix.boxlayout import BoxLayout
 from kivy.uix.button import Button
-from kivy.uix.filechooser import FileChooserListView
 from kivy.uix.gridlayout import GridLayout
 from kivy.uix.label import Label
 from kivy.uix.popup import Popup
 from kivy.uix.scrollview import ScrollView
 
-KEYPAD_KEYS = ("7", "8", "9", "⌫", "4", "5", "6", "'", "1", "2", "3", '"', "0", ".", "/", "␣", "m", "mm", ",", "OK")
+from mobile.units import parse_length_mm
+
+# ';' (next span) sits in the top row, far from OK; no ',' (the decimal point is '.'); C clears
+KEYPAD_KEYS = ("7", "8", "9", ";", "4", "5", "6", "C", "1", "2", "3", "'", "0", ".", "/", '"', "␣", "m", "mm", "⌫")
 
 
 def big_button(text: str, on_release: Any, **kw: Any) -> Button:
@@ -59,21 +62,40 @@ def info_popup(title: str, lines: list[str]) -> Popup:
 
 
 def choose_file(title: str, on_choice: Any, filters: list[str] | None = None) -> Popup:
-    """A file chooser (desktop) with large Choose / Cancel buttons; on_choice(path) when chosen."""
+    """Pick a file with gloves: 15 mm rows, a folder opens on one tap, a file is chosen on one tap."""
+    patterns = [f.lower() for f in (filters or ["*"])]
     body = BoxLayout(orientation="vertical", spacing=dp(8), padding=dp(8))
-    chooser = FileChooserListView(path=str(Path.home()), filters=filters or [], font_name=DEFAULT_FONT)
-    body.add_widget(chooser)
-    row = BoxLayout(size_hint_y=None, height="15mm", spacing=dp(8))
+    where = Label(font_size="17sp", size_hint_y=None, height="11mm", halign="left", valign="middle", shorten=True)
+    where.bind(size=lambda w, s: setattr(w, "text_size", s))
+    rows = BoxLayout(orientation="vertical", spacing=dp(6), size_hint_y=None)
+    rows.bind(minimum_height=rows.setter("height"))
+    scroll = ScrollView(do_scroll_x=False)
+    scroll.add_widget(rows)
+    body.add_widget(where)
+    body.add_widget(scroll)
     popup = Popup(title=title, content=body, size_hint=(0.92, 0.92), title_size="20sp")
 
-    def done(*_: Any) -> None:
-        if chooser.selection:
-            popup.dismiss()
-            on_choice(chooser.selection[0])
+    def show(folder: Path) -> None:
+        where.text = str(folder)
+        rows.clear_widgets()
+        if folder.parent != folder:
+            rows.add_widget(big_button("⬆  Up one folder", lambda *_: show(folder.parent)))
+        try:
+            entries = sorted(folder.iterdir(), key=lambda e: (not e.is_dir(), e.name.lower()))
+        except OSError as exc:
+            rows.add_widget(big_button(f"Cannot open this folder: {exc.strerror}", lambda *_: None))
+            return
+        for e in entries:
+            if e.name.startswith("."):
+                continue
+            if e.is_dir():
+                rows.add_widget(big_button(f"▸  {e.name}", lambda _b, d=e: show(d)))
+            elif any(fnmatch.fnmatch(e.name.lower(), pat) for pat in patterns):
+                rows.add_widget(big_button(e.name, lambda _b, f=e: (popup.dismiss(), on_choice(str(f)))))
+        scroll.scroll_y = 1
 
-    row.add_widget(big_button("Choose", done, halign="center"))
-    row.add_widget(big_button("Cancel", lambda *_: popup.dismiss(), halign="center"))
-    body.add_widget(row)
+    body.add_widget(big_button("Cancel", lambda *_: popup.dismiss(), halign="center"))
+    show(Path.home())
     popup.open()
     return popup
 
@@ -109,6 +131,19 @@ class TextField(BoxLayout):
             self.ids.input.text = self.suggestion
             self.commit()
 
+    def quick_opened(self, spinner: Any) -> None:
+        """The standard sizes opened: show the one nearest the field's value (not the top of a long list)."""
+        try:
+            current = parse_length_mm(self.ids.input.text)
+        except ValueError:
+            return
+        options = [w for w in spinner._dropdown.container.children if getattr(w, "text", "")]
+        if not options:
+            return
+        near = min(options, key=lambda w: abs(float(w.text) - current) if w.text.replace(".", "").isdigit() else 1e9)
+        self.quick_near = near.text
+        Clock.schedule_once(lambda _dt: spinner._dropdown.scroll_to(near, animate=False))
+
     def pick_quick(self, text: str) -> None:
         """A standard size was picked."""
         if text and text != "std ▾" and not self.loading:
@@ -116,26 +151,49 @@ class TextField(BoxLayout):
             self.commit()
             self.ids.quick.text = "std ▾"
 
-    def open_keypad(self) -> None:
-        """Large on-screen keypad for gloved hands (mm, m, feet-inches)."""
+    def open_keypad(self) -> Popup:
+        """Large on-screen keypad for gloved hands (mm, m, feet-inches).
+
+        It opens with the field's text and a clear key; OK enters it; dismissing it any other way
+        (Cancel keeps the field as it was, a tap outside keeps what was typed and enters it).
+        """
         grid = GridLayout(cols=4, spacing=dp(6), padding=dp(6))
         shown = Label(text=self.ids.input.text, font_size="28sp", size_hint_y=None, height="15mm")
         body = BoxLayout(orientation="vertical", spacing=dp(6))
         body.add_widget(shown)
         body.add_widget(grid)
         popup = Popup(title=self.label, content=body, size_hint=(0.6, 0.92), title_size="20sp")
+        state = {"done": False}
+
+        def enter(*_: Any) -> None:
+            if not state["done"]:
+                state["done"] = True
+                if shown.text != self.ids.input.text:
+                    self.ids.input.text = shown.text
+                self.commit()
 
         def press(key: str) -> None:
-            if key == "OK":
-                self.ids.input.text = shown.text
-                popup.dismiss()
-                self.commit()
-                return
-            shown.text = shown.text[:-1] if key == "⌫" else shown.text + (" " if key == "␣" else key)
+            if key == "C":
+                shown.text = ""
+            elif key == "⌫":
+                shown.text = shown.text[:-1]
+            else:
+                shown.text += " " if key == "␣" else key
+
+        def cancel(*_: Any) -> None:
+            state["done"] = True
+            popup.dismiss()
 
         for key in KEYPAD_KEYS:
             grid.add_widget(Button(text=key, font_size="26sp", on_release=lambda _b, k=key: press(k)))
+        row = BoxLayout(size_hint_y=None, height="15mm", spacing=dp(12))
+        row.add_widget(big_button("Cancel", cancel, halign="center", size_hint_x=0.4))
+        row.add_widget(big_button("OK", lambda *_: popup.dismiss(), halign="center"))
+        body.add_widget(row)
+        popup.bind(on_dismiss=enter)  # OK, or a tap outside: what was typed is kept and entered
+        self.keypad_popup, self.keypad_shown = popup, shown
         popup.open()
+        return popup
 
 
 class PickField(BoxLayout):

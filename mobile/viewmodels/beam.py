@@ -493,6 +493,10 @@ class BeamFormViewModel:
             )
         return out
 
+    def archive(self) -> None:
+        """Soft delete: the beam leaves the site's lists (a synced change); its record and history stay."""
+        self.store.update_beam(self.beam_id, {"archived": True})
+
     def copy_choices(self) -> list[tuple[str, str]]:
         """[(beam_id, 'copy from RB-1')] for the other beams on the site."""
         return [(i, f"copy from {r.get('mark')}") for i, r in self.store.beams(self.site_id) if i != self.beam_id]

@@ -204,6 +204,48 @@ if FLOW == "main":
         assert screen("beam").vm.result.status.value == "ok", screen("beam").vm.result.status
 
     @step
+    def gloves_keypad():
+        tf = screen("beam").fields["d_mm"]
+        popup = tf.open_keypad()
+        keys = [b.text for b in popup.content.children[1].children[::-1]]  # the grid, in reading order
+        assert "," not in keys and "C" in keys and keys.index(";") < 4  # ';' in the top row, far from OK
+        for k in ("C", "4", "9", "4"):
+            next(b for b in popup.content.children[1].children if b.text == k).trigger_action(0)
+        shot("03a-keypad")
+        popup.dismiss()  # a tap outside: what was typed is kept and entered
+        assert app.store.beam_record(app.beam_id)["d_mm"] == 494, app.store.beam_record(app.beam_id)["d_mm"]
+
+    @step
+    def gloves_depth_picks():
+        tf = screen("beam").fields["d_mm"]
+        tf.ids.quick.is_open = True  # the standard depths open at the current value, not at the top
+
+    @step
+    def gloves_depth_picks_shown():
+        tf = screen("beam").fields["d_mm"]
+        assert tf.quick_near == "494", tf.quick_near
+        shot("03c-depth-picks")
+        tf.ids.quick.is_open = False
+        folder = Path(os.environ["HOME"]) / "site photos"
+        folder.mkdir(parents=True, exist_ok=True)
+        from PIL import Image
+
+        Image.new("RGB", (40, 30), (90, 60, 30)).save(folder / "rb9-end.png")
+        screen("beam").ids.add_photo.trigger_action(0)
+
+    @step
+    def gloves_file_picker():
+        from kivy.metrics import mm
+
+        popup = app.root_window.children[0]
+        rows = [w for w in popup.walk() if getattr(w, "text", "").startswith("▸  site photos")]
+        assert rows and rows[0].height >= mm(15) - 1, rows
+        rows[0].trigger_action(0)  # one tap opens the folder
+        shot("03d-file-picker")
+        next(w for w in popup.walk() if getattr(w, "text", "") == "rb9-end.png").trigger_action(0)
+        assert screen("beam").vm.photo_count() == 1
+
+    @step
     def bearings_view():
         shot("03-beam-new")
         screen("beam").ids.form_scroll.scroll_y = 0.42
@@ -373,6 +415,17 @@ if FLOW == "main":
         s.ids.create_site.trigger_action(0)
         assert app.root.current == "site" and "Willow Yard" in screen("site").title
         assert app.store.site(app.site_id).contractor_contact == "M. Ferreira"
+
+    @step
+    def archive_by_mistake():
+        app.open_site(next(x.id for x in app.store.sites() if "Cedar" in x.name))
+        rb9 = demo_beam("RB-9")
+        app.open_beam(rb9)
+        screen("beam").ids.archive.trigger_action(0)
+        screen("beam").ids.archive.trigger_action(0)  # the second tap confirms
+        assert app.root.current == "site"
+        assert "RB-9" not in [r["mark"] for _, r in app.store.beams(app.site_id)]
+        assert app.store.beam_record(rb9)["mark"] == "RB-9"  # kept, with its history
 
     @step
     def touch_targets():
