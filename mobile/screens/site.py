@@ -20,6 +20,7 @@ from core.results import PRIORITY_ORDER
 from mobile.screens.widgets import big_button, status_colour
 from mobile.viewmodels import SiteViewModel
 from mobile.viewmodels.common import PRIORITY_LABELS, STATUS_WORDS, status_label
+from mobile.viewmodels.site import PINNED
 
 ALL_LEVELS, ALL_STATUSES = "all levels", "all statuses"
 SHOWN_AT_MOST = 60  # rows built at once; more asks the reviewer to narrow the search
@@ -74,18 +75,22 @@ class SiteScreen(Screen):
         box = self.ids.beam_list
         box.clear_widgets()
         shown = 0
-        total = sum(len(rows) for _, rows in groups)
+        total = sum(len(rows) for where, rows in groups if where != PINNED)
         for where, rows in groups:
             if shown >= SHOWN_AT_MOST:
                 break
-            box.add_widget(Factory.Heading(text=f"Level: {where}", font_size="19sp", height="11mm", shorten=True))
+            box.add_widget(
+                Factory.Heading(
+                    text=where if where == PINNED else f"Level: {where}", font_size="19sp", height="11mm", shorten=True
+                )
+            )
             for beam_id, name, label in rows[: SHOWN_AT_MOST - shown]:
                 box.add_widget(
                     big_button(
                         f"{label}      {name}", lambda _b, bid=beam_id: app.open_beam(bid), bg=status_colour(label)
                     )
                 )
-                shown += 1
+                shown += where != PINNED
         if total == 0:
             box.add_widget(Factory.Wrapped(text="No beam matches."))
         elif total > shown:

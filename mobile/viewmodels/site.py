@@ -23,6 +23,7 @@ NEW_BEAM_DEFAULTS: dict[str, Any] = {
     "top_edge": {"braced_by": "none", "spacing_mm": None, "fastened": True},
 }
 LEVEL_NOT_RECORDED = "level not recorded"
+PINNED = "▲ IMMEDIATE open: pinned"  # beams with an open IMMEDIATE deficiency, shown first (also under their level)
 COPIED_FROM_LAST = ("material", "species", "grade", "b_mm", "d_mm", "service", "use", "top_stamp", "level")
 
 
@@ -58,6 +59,10 @@ class SiteViewModel:
         ``status`` a status value (ok, deficient, ...). Empty means no filter.
         """
         out: dict[str, list[tuple[str, str, str]]] = {}
+        immediate = {
+            d.beam_id for d in self.store.deficiencies(self.site_id, open_only=True) if d.priority == "immediate"
+        }
+        pinned: list[tuple[str, str, str]] = []
         needle = search.strip().lower()
         for beam_id, record, st in self.beam_rows() if rows is None else rows:
             where = str(record.get("level") or LEVEL_NOT_RECORDED)
@@ -67,7 +72,9 @@ class SiteViewModel:
             if (level and where != level) or (status and st != status):
                 continue
             out.setdefault(where, []).append((beam_id, text, status_label(st)))
-        return list(out.items())
+            if beam_id in immediate:
+                pinned.append((beam_id, f"{text}  ·  {where}", status_label(st)))
+        return ([(PINNED, pinned)] if pinned else []) + list(out.items())
 
     @staticmethod
     def levels(rows: list[tuple[str, dict[str, Any], str]]) -> list[str]:

@@ -16,6 +16,7 @@ from mobile.viewmodels import (
     SiteViewModel,
     SyncViewModel,
 )
+from mobile.viewmodels.site import PINNED
 from storage import Store
 
 
@@ -54,7 +55,7 @@ def test_site_groups_deficiencies_by_priority_and_visit(demo):
     store, site_id = demo
     raise_all(store, site_id)
     vm = SiteViewModel(store, site_id)
-    levels = [level for level, _ in vm.groups()]
+    levels = [level for level, _ in vm.groups() if level != PINNED]
     assert levels == sorted(levels)
     priorities = [label for label, _ in vm.deficiency_groups()]
     assert priorities[0].startswith("▲ IMMEDIATE")
@@ -254,7 +255,11 @@ def test_site_search_filters_and_counts(demo):
     found = [name for _, beams in vm.groups("rb-5", rows=rows) for _, name, _ in beams]
     assert found and all("RB-5" in n for n in found)
     roof = vm.groups(level="Roof", rows=rows)
-    assert [lvl for lvl, _ in roof] == ["Roof"]
+    assert [lvl for lvl, _ in roof if lvl != PINNED] == ["Roof"]
+    raise_all(store, site_id)
+    pinned = dict(vm.groups(rows=rows)).get(PINNED, [])
+    immediate = {d.beam_id for d in store.deficiencies(site_id, open_only=True) if d.priority == "immediate"}
+    assert immediate and {b for b, _, _ in pinned} == immediate and vm.groups(rows=rows)[0][0] == PINNED
     deficient = [label for _, beams in vm.groups(status="deficient", rows=rows) for _, _, label in beams]
     assert deficient and all("DEFICIENT" in x for x in deficient)
     counts = vm.counts(rows)
