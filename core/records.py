@@ -39,6 +39,10 @@ class Site(Record):
     contractor: str = ""
     firm: str = ""
     design_basis: DesignBasis = DesignBasis()
+    contractor_contact: str = ""  # the person the notice is addressed to at the contractor
+    distribution: list[str] = Field(default_factory=list)  # the notice's copies ("Owner", "Architect", ...)
+    load_bases: dict[str, DesignBasis] = Field(default_factory=dict)  # further bases by name (floor, canopy)
+    demo: bool = False  # the built-in demo site: shown as such, left out of bundles unless asked
 
 
 class Visit(Record):

@@ -10,11 +10,9 @@ from typing import Any
 
 from pydantic import ValidationError
 
-EXIT_OK, EXIT_FAILURE, EXIT_BAD_INPUT = 0, 1, 2
+from mobile.errors import EXIT_BAD_INPUT, EXIT_FAILURE, EXIT_OK, UserError
 
-
-class UserError(Exception):
-    """A mistake in the user's input: reported on stderr with exit status 2, never a traceback."""
+__all__ = ["EXIT_BAD_INPUT", "EXIT_FAILURE", "EXIT_OK", "UserError", "main"]
 
 
 def _format_validation(err: ValidationError) -> str:
@@ -30,6 +28,7 @@ def _format_validation(err: ValidationError) -> str:
 def load_beam(path: str) -> Any:
     """Read and validate a beam JSON file; raise UserError naming the field on bad input."""
     from core.models import Beam
+    from mobile.units import check_beam_json
 
     try:
         text = sys.stdin.read() if path == "-" else Path(path).read_text(encoding="utf-8")
@@ -39,6 +38,10 @@ def load_beam(path: str) -> Any:
         data = json.loads(text)
     except json.JSONDecodeError as exc:
         raise UserError(f"{path} is not valid JSON: {exc.msg} at line {exc.lineno}") from exc
+    try:
+        check_beam_json(data)  # plausible ranges, the same as the tablet's form (mobile/units.py)
+    except ValueError as exc:
+        raise UserError(f"invalid beam: {exc}") from exc
     try:
         return Beam.model_validate(data)
     except ValidationError as exc:

@@ -7,7 +7,7 @@ import sys
 from pathlib import Path
 from typing import Any
 
-from mobile.cli import EXIT_FAILURE, EXIT_OK, UserError
+from mobile.errors import EXIT_FAILURE, EXIT_OK, UserError
 
 
 def cmd_app(args: argparse.Namespace) -> int:

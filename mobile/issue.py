@@ -75,7 +75,11 @@ def build_notice(
         items.append(item_for(d, beam, result, observed, photos))
         if d.id in earlier:
             carried.append(Carried(d.number, d.location, d.description, _status_words(d.stage, d.cycle)))
-    header = header_from(site, visit, number, revision, issued_on or time.strftime("%Y-%m-%d"), DISTRIBUTION)
+    header = header_from(
+        site, visit, number, revision, issued_on or time.strftime("%Y-%m-%d"), site.distribution or DISTRIBUTION
+    )
+    if site.contractor_contact:
+        header["addressed_to"] = f"{site.contractor} (attention: {site.contractor_contact})"
     notice = Notice(**header, items=items, carried=carried, change_note=change_note)  # type: ignore[arg-type]
     return notice, [d.id for d in open_items]
 

@@ -18,7 +18,7 @@ def recheck_text(r: Recheck) -> str:
             f"  bending {b.region} ({b.sign}): "
             + ("Lu held continuously" if b.lu_mm is None else f"Lu {b.lu_mm:.0f} mm")
             + f", CB {_num(b.cb, '.2f')}, "
-            f"KL {_num(b.kl)}, {size}, Mr {_num(b.mr_knm, '.1f')} kN*m vs Mf {b.mf_knm:.1f} kN*m, "
+            f"KL {_num(b.kl)}, {size}, Mr {_num(b.mr_knm, '.1f')} kN·m vs Mf {b.mf_knm:.1f} kN·m, "
             f"utilisation {_num(b.utilisation, '.2f')} [{b.combination}] {b.outcome}"
         )
     s = r.shear

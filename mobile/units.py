@@ -1,31 +1,176 @@
-"""Tape-measure input: mm, m, and feet-inches (11' 9 3/4"), converted once at entry to mm."""
+"""Lengths as a reviewer types them (mm, cm, m, feet-inches), converted once at entry to mm, and checked.
+
+One parser serves the beam form and the CLI's JSON input. A decimal comma is a decimal point
+(``3,9 m``); spans are separated by ``;`` (never by ``,``). Feet-inches accepts ``23' 7 1/2"``,
+``23'-7 1/2"``, ``7-1/2"``, ``7½"`` and ``23 ft 7.5 in``. A number typed without a unit is read
+in the field's unit (mm for lengths). Every value is then held against its plausible range
+(core.plausible); one outside it is refused with what was understood, what is allowed and, when
+the same number in metres would fit, the question "did you mean ... m?".
+"""
 
 from __future__ import annotations
 
 import re
 from fractions import Fraction
+from typing import Any
 
-MM_PER_INCH = 25.4
+from core.plausible import PLAUSIBLE, Range
+
+MM_PER_INCH = 25.4  # the international inch, exactly
+_VULGAR = {"½": " 1/2", "¼": " 1/4", "¾": " 3/4", "⅛": " 1/8", "⅜": " 3/8", "⅝": " 5/8", "⅞": " 7/8"}
+_NUM = r"\d+(?:\.\d+)?|\.\d+"
+_METRIC = re.compile(rf"^(?P<v>{_NUM})\s*(?P<u>mm|cm|m)?$")
 _FT_IN = re.compile(
-    r"""^\s*(?:(?P<ft>\d+(?:\.\d+)?)\s*(?:'|ft))?\s*(?:(?P<in>\d+(?:\.\d+)?)?\s*"""
-    r"""(?P<frac>\d+\s*/\s*\d+)?\s*(?:"|in)?)?\s*$"""
+    rf"^(?:(?P<ft>{_NUM})\s*')?\s*-?\s*"
+    rf"(?:(?P<inch>{_NUM})(?:(?:\s+|\s*-\s*)(?P<frac>\d+\s*/\s*\d+))?|(?P<frac_only>\d+\s*/\s*\d+))?"
+    r'\s*"?$'
 )
+FIELD_WORDS = {
+    "span_mm": "span",
+    "b_mm": "width b",
+    "d_mm": "depth d",
+    "spacing_mm": "spacing",
+    "overhang_mm": "overhang",
+    "bearing_length_mm": "bearing length",
+}
+
+
+class LengthRefused(ValueError):
+    """A length that could not be read or is implausible; ``suggestion`` is the text to offer instead."""
+
+    def __init__(self, message: str, suggestion: str = ""):
+        super().__init__(message)
+        self.suggestion = suggestion
+
+
+def _normalise(text: str) -> str:
+    s = text.strip().lower().replace(",", ".").replace("′", "'").replace("″", '"').replace("’", "'")
+    for glyph, words in _VULGAR.items():
+        s = s.replace(glyph, words)
+    s = re.sub(r"\s*(feet|foot|ft)\b\.?", "'", s)
+    s = re.sub(r"\s*(inches|inch|in)\b\.?", '"', s)
+    return s.replace("''", '"')
+
+
+def parse_length(text: str) -> tuple[float, bool]:
+    r"""Parse a length to (mm, unit_typed); ValueError says what is allowed.
+
+    ``'3600'`` -> (3600, False); ``'3.6 m'`` -> (3600, True); ``'11\' 9 3/4"'`` -> (3599.2, True).
+    """
+    s = _normalise(text)
+    if not s:
+        raise LengthRefused("empty: enter a length in mm, m or feet-inches (11' 9 3/4\")")
+    m = _METRIC.fullmatch(s)
+    if m:
+        value = float(m.group("v"))
+        return value * {"m": 1000.0, "cm": 10.0, "mm": 1.0, None: 1.0}[m.group("u")], m.group("u") is not None
+    if "'" in s or '"' in s:
+        f = _FT_IN.fullmatch(s)
+        if f and (f.group("ft") or f.group("inch") or f.group("frac") or f.group("frac_only")):
+            inches = Fraction(f.group("ft") or 0) * 12 + Fraction(f.group("inch") or 0)
+            frac = f.group("frac") or f.group("frac_only")
+            if frac:
+                num, den = (int(p) for p in frac.replace(" ", "").split("/"))
+                if den == 0:
+                    raise LengthRefused(f"{text!r}: a fraction of an inch cannot have 0 below the line")
+                inches += Fraction(num, den)
+            return float(inches) * MM_PER_INCH, True
+    raise LengthRefused(
+        f"{text!r} is not a length: enter mm (3600), m (3.6 m) or feet-inches (11' 9 3/4\", 11 ft 9.75 in)"
+    )
 
 
 def parse_length_mm(text: str) -> float:
-    r"""Parse '3600', '3600 mm', '3.6 m', '11\\' 9 3/4"' or '9 3/4"' to mm; ValueError names what is allowed."""
-    s = text.strip().lower()
-    if not s:
-        raise ValueError("empty: enter a length in mm, m or feet-inches (11' 9 3/4\")")
-    m = re.fullmatch(r"(\d+(?:\.\d+)?)\s*(mm|m)?", s)
-    if m:
-        value = float(m.group(1))
-        return value * 1000 if m.group(2) == "m" else value
-    if "'" in s or '"' in s or "ft" in s or "in" in s:
-        f = _FT_IN.match(s)
-        if f and (f.group("ft") or f.group("in") or f.group("frac")):
-            inches = Fraction(f.group("ft") or 0) * 12 + Fraction(f.group("in") or 0)
-            if f.group("frac"):
-                inches += Fraction(f.group("frac").replace(" ", ""))
-            return float(inches) * MM_PER_INCH
-    raise ValueError(f"{text!r} is not a length: enter mm (3600), m (3.6 m) or feet-inches (11' 9 3/4\")")
+    """Parse a length to mm (no range check); ValueError says what is allowed."""
+    return parse_length(text)[0]
+
+
+def _m(mm: float) -> str:
+    return f"{mm / 1000:g} m" if mm >= 1000 else f"{mm:g} mm"
+
+
+def allowed_text(kind: str, high_mm: float | None = None) -> str:
+    """'300 mm to 40 m (common practice)'."""
+    r = PLAUSIBLE[kind]
+    high = r.high if high_mm is None else min(r.high, high_mm)
+    return f"{_m(r.low)} to {_m(high)} ({r.source})"
+
+
+def check_length(kind: str, mm: float, high_mm: float | None = None, unit_typed: bool = True, typed: str = "") -> float:
+    """Hold a length in mm against its plausible range; LengthRefused names what was understood and allowed."""
+    r: Range = PLAUSIBLE[kind]
+    high = r.high if high_mm is None else min(r.high, high_mm)
+    if r.low <= mm <= high:
+        return mm
+    word = FIELD_WORDS.get(kind, kind)
+    understood = f"{mm:g} mm" + ("" if unit_typed else " (no unit typed)")
+    suggestion = ""
+    if not unit_typed and r.low <= mm * 1000 <= high:
+        suggestion = f"{mm:g} m"
+        ask = f" Did you mean {suggestion}?"
+    else:
+        ask = ""
+    shown = f"{typed} read as " if typed else ""
+    raise LengthRefused(f"{word}: {shown}{understood}; allowed {allowed_text(kind, high_mm)}.{ask}", suggestion)
+
+
+def read_length(kind: str, text: str, high_mm: float | None = None) -> float:
+    """Parse and check one typed length (the beam form's entry point)."""
+    mm, unit_typed = parse_length(text)
+    return check_length(kind, mm, high_mm, unit_typed, text.strip())
+
+
+def split_spans(text: str) -> list[str]:
+    """Spans typed in one field: separated by ';' (a comma is a decimal comma, never a separator)."""
+    return [t for t in (p.strip() for p in text.split(";")) if t]
+
+
+def feet_inches(mm: float) -> str:
+    """A length in feet and inches to the nearest 1/16 in: 7200 -> 23' 7 7/16"."""
+    sixteenths = round(mm / MM_PER_INCH * 16)
+    feet, rest = divmod(sixteenths, 12 * 16)
+    inches, frac = divmod(rest, 16)
+    part = f" {Fraction(frac, 16)}" if frac else ""
+    return f"{feet}' {inches}{part}\"" if feet else f'{inches}{part}"'
+
+
+def echo_length(mm: float) -> str:
+    """What a length was understood as, in both unit systems: 7200 -> 7200 mm = 23' 7 7/16"."""
+    return f"{mm:g} mm = {feet_inches(mm)}"
+
+
+def check_beam_json(data: Any) -> None:
+    """Hold the lengths of a contract-1 beam (a JSON object, in mm) against their plausible ranges.
+
+    Raises ValueError naming the field (``spans_mm[1]``), the value and the allowed range. Values that are
+    not numbers are left to the model's own validation.
+    """
+    if not isinstance(data, dict):
+        return
+
+    def num(v: Any) -> bool:
+        return isinstance(v, int | float) and not isinstance(v, bool)
+
+    spans = data.get("spans_mm") if isinstance(data.get("spans_mm"), list) else []
+    longest = max((s for s in spans if num(s)), default=None)
+    checks: list[tuple[str, str, Any, float | None]] = [
+        ("b_mm", "b_mm", data.get("b_mm"), None),
+        ("d_mm", "d_mm", data.get("d_mm"), None),
+        ("overhang_left_mm", "overhang_mm", data.get("overhang_left_mm"), None),
+        ("overhang_right_mm", "overhang_mm", data.get("overhang_right_mm"), None),
+    ]
+    checks += [(f"spans_mm[{i}]", "span_mm", s, None) for i, s in enumerate(spans)]
+    for edge in ("top_edge", "bottom_edge"):
+        if isinstance(data.get(edge), dict):
+            checks.append((f"{edge}.spacing_mm", "spacing_mm", data[edge].get("spacing_mm"), longest))
+    if isinstance(data.get("bearings"), list):
+        for i, b in enumerate(data["bearings"]):
+            if isinstance(b, dict):
+                checks.append((f"bearings[{i}].length_mm", "bearing_length_mm", b.get("length_mm"), None))
+    for where, kind, value, high in checks:
+        if not num(value):
+            continue
+        r = PLAUSIBLE[kind]
+        top = r.high if high is None else min(r.high, high)
+        if not r.low <= value <= top:
+            raise ValueError(f"{where} = {value:g} mm: outside the plausible range {allowed_text(kind, high)}")

@@ -73,6 +73,21 @@ class Store:
     def _set_meta(self, key: str, value: str) -> None:
         self.db.execute("INSERT OR REPLACE INTO meta VALUES (?, ?)", [key, value])
 
+    def device_user(self) -> tuple[str, str]:
+        """(name, role) of the person this device is set up for; ('', '') until set. Never synced."""
+        meta = self._meta()
+        return meta.get("device_user", ""), meta.get("device_role", "")
+
+    def set_device_user(self, name: str, role: str) -> None:
+        """Set up the device for one person and role (reviewer, contractor, office)."""
+        if not name.strip():
+            raise ValueError("device user: enter the name of the person this device is set up for")
+        if role not in ("reviewer", "contractor", "office"):
+            raise ValueError(f"device role {role!r}; allowed: reviewer, contractor, office")
+        with transaction(self.db):
+            self._set_meta("device_user", name.strip())
+            self._set_meta("device_role", role)
+
     @property
     def firm_key(self) -> bytes:
         """The firm's bundle key (HMAC)."""

@@ -52,7 +52,8 @@ def line_loads(basis: dict[str, float], tributary_m: float) -> dict[str, float]:
 def load_demo(store: Store) -> str:
     """Log the demo site, its visits and beams through the storage API; return the site id."""
     data = demo_data()
-    site = store.create_site(**data["site"])
+    floor = dict(data["floor_basis"], use="floor")
+    site = store.create_site(**data["site"], demo=True, load_bases={"floor": floor})
     bases = {"roof": data["site"]["design_basis"], "floor": data["floor_basis"]}
     for v in data["visits"]:
         store.start_visit(site.id, **{k: v[k] for k in v if k != "key"})

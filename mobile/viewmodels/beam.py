@@ -12,6 +12,7 @@ and shown back with its message; the last valid value stays in force for the rec
 
 from __future__ import annotations
 
+import copy
 import re
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -21,14 +22,23 @@ from pydantic import ValidationError
 
 from core import tables
 from core.models import Beam, Material, grades_allowed, species_allowed
+from core.plausible import PLAUSIBLE
 from core.recheck import recheck
+from core.records import Stage
 from core.remedies import remedies
 from core.results import FactorTrace, Recheck
-from mobile.units import parse_length_mm
-from mobile.viewmodels.common import line_loads_kn_m, status_label, validation_message
+from mobile.units import LengthRefused, echo_length, read_length, split_spans
+from mobile.viewmodels.common import PRIORITY_LABELS, line_loads_kn_m, status_label
 from storage import Store
 
-LENGTH_FIELDS = {"b_mm", "d_mm", "overhang_left_mm", "overhang_right_mm", "purlin_spacing_mm", "bottom_spacing_mm"}
+LENGTH_FIELDS = {  # form field -> its plausible range (core.plausible)
+    "b_mm": "b_mm",
+    "d_mm": "d_mm",
+    "overhang_left_mm": "overhang_mm",
+    "overhang_right_mm": "overhang_mm",
+    "purlin_spacing_mm": "spacing_mm",
+    "bottom_spacing_mm": "spacing_mm",
+}
 LOAD_FIELDS = ("dead_kn_m", "live_kn_m", "snow_kn_m")
 TEXT_ONLY = ("level", "gridline", "notes")
 REMEDIES_KEY = "remedies"
@@ -43,14 +53,54 @@ PICKERS: dict[str, tuple[str, ...]] = {
     "top_stamp": ("up", "down", "not_visible"),
     "restraint": ("yes", "no", "not_visible"),
 }
-RESTRAINT_WORDS = {"yes": "YES, restrained", "no": "NO restraint", "not_visible": "NOT VISIBLE"}
-NEXT_RESTRAINT = {"yes": "no", "no": "not_visible", "not_visible": "yes"}
-_SPLIT = re.compile(r"\s*[,;+]\s*")
+MAIN_BASIS = "site design basis"  # the load basis picker's first choice; further bases are named on the site
+RESTRAINT_WORDS = {"yes": "Yes, restrained", "no": "No restraint", "not_visible": "Not visible", "": "not yet entered"}
+CHOICE_WORDS = {
+    "roof_no_ceiling": "Roof, no ceiling",
+    "roof_other": "Roof, other ceiling",
+    "roof_plaster": "Roof, plaster ceiling",
+    "floor": "Floor",
+    "not_visible": "Not visible",
+    "none": "None",
+    "purlins": "Purlins",
+    "decking": "Decking",
+    "braces": "Braces",
+    "dry": "Dry",
+    "wet": "Wet",
+    "up": "Up",
+    "down": "Down",
+    "yes": "Yes",
+    "no": "No",
+    "glulam": "Glulam",
+    "sawn": "Sawn lumber",
+}
+# copied by "copy from": member, bracing and loads; never the span, the bearings or the mark
+COPIED = (
+    "material",
+    "species",
+    "grade",
+    "b_mm",
+    "d_mm",
+    "top_stamp",
+    "service",
+    "use",
+    "top_edge",
+    "bottom_edge",
+    "loads",
+    "tributary_m",
+    "load_basis",
+    "specified",
+)
 _SIZE = re.compile(r"^\s*(.+?)\s*[x×*]\s*(.+?)\s*$", re.IGNORECASE)
 
 
 def _fmt(value: Any) -> str:
     return "" if value is None else f"{value:g}" if isinstance(value, float | int) else str(value)
+
+
+def _mm(value: Any) -> str:
+    """A stored length shown with its unit ('7200 mm'); blank when not entered."""
+    return "" if value is None else f"{value:g} mm"
 
 
 @dataclass
@@ -61,6 +111,7 @@ class BeamFormViewModel:
     site_id: str
     beam_id: str
     errors: dict[str, str] = field(default_factory=dict)
+    suggestions: dict[str, str] = field(default_factory=dict)  # field -> text to offer ("3.9 m")
     result: Recheck | None = None
     recheck_error: str = ""
     _undo: list[dict[str, Any]] = field(default_factory=list)
@@ -83,30 +134,75 @@ class BeamFormViewModel:
             "material": _fmt(rec.get("material")),
             "species": _fmt(rec.get("species")),
             "grade": _fmt(rec.get("grade")),
-            "b_mm": _fmt(rec.get("b_mm")),
-            "d_mm": _fmt(rec.get("d_mm")),
-            "spans": ", ".join(_fmt(s) for s in rec.get("spans_mm", [])),
-            "overhang_left_mm": _fmt(rec.get("overhang_left_mm", 0)),
-            "overhang_right_mm": _fmt(rec.get("overhang_right_mm", 0)),
+            "b_mm": _mm(rec.get("b_mm")),
+            "d_mm": _mm(rec.get("d_mm")),
+            "spans": "; ".join(_mm(s) for s in rec.get("spans_mm", [])),
+            "overhang_left_mm": _mm(rec.get("overhang_left_mm", 0)),
+            "overhang_right_mm": _mm(rec.get("overhang_right_mm", 0)),
             "top_braced_by": _fmt(top.get("braced_by", "none")),
-            "purlin_spacing_mm": _fmt(top.get("spacing_mm")),
+            "purlin_spacing_mm": _mm(top.get("spacing_mm")),
             "top_fastened": {True: "yes", False: "no"}.get(top.get("fastened"), NOT_RECORDED),
             "bottom_braced_by": _fmt(bottom.get("braced_by", "none")),
-            "bottom_spacing_mm": _fmt(bottom.get("spacing_mm")),
+            "bottom_spacing_mm": _mm(bottom.get("spacing_mm")),
             "tributary_m": _fmt(rec.get("tributary_m")),
+            "load_basis": rec.get("load_basis") or MAIN_BASIS,
             "service": _fmt(rec.get("service", "dry")),
             "use": _fmt(rec.get("use") or NOT_RECORDED),
             "top_stamp": _fmt(rec.get("top_stamp", "not_visible")),
             "specified_size": f"{spec['b_mm']:g} x {spec['d_mm']:g}" if isinstance(spec, dict) else "",
         }
         loads = rec.get("loads") or {}
-        out.update({k: _fmt(loads.get(k, 0.0)) for k in LOAD_FIELDS})
+        out.update({k: _fmt(loads.get(k)) for k in LOAD_FIELDS})
         for i, b in enumerate(rec.get("bearings", []), start=1):
             out[f"bearing{i}.lateral"] = _fmt(b.get("lateral"))
             out[f"bearing{i}.rotation"] = _fmt(b.get("rotation"))
-            out[f"bearing{i}.length_mm"] = _fmt(b.get("length_mm"))
+            out[f"bearing{i}.length_mm"] = _mm(b.get("length_mm"))
         out.update(rec.get("drafts") or {})
         return out
+
+    @staticmethod
+    def is_picker(name: str) -> bool:
+        """A field chosen from a list (a refused choice is not kept as a draft)."""
+        return name in PICKERS or name in ("species", "grade", "load_basis") or name.endswith((".lateral", ".rotation"))
+
+    def basis(self, rec: dict[str, Any]) -> Any:
+        """The design basis the beam's loads come from: the site's, or the named one chosen for this beam."""
+        site = self.store.site(self.site_id)
+        name = rec.get("load_basis")
+        return site.load_bases.get(name, site.design_basis) if name else site.design_basis
+
+    def echo(self, name: str) -> str:
+        """What a stored length field was understood as, in mm and feet-inches ('= 7200 mm = 23' 7 7/16"')."""
+        rec = self.record()
+        top, bottom = rec.get("top_edge") or {}, rec.get("bottom_edge") or {}
+        values: list[Any]
+        if name == "spans":
+            values = list(rec.get("spans_mm") or [])
+        elif name == "purlin_spacing_mm":
+            values = [top.get("spacing_mm")]
+        elif name == "bottom_spacing_mm":
+            values = [bottom.get("spacing_mm")]
+        elif name in LENGTH_FIELDS:
+            values = [rec.get(name)]
+        elif name in LOAD_FIELDS or name == "tributary_m":
+            return self._load_echo(name, rec)
+        else:
+            return ""
+        shown = [echo_length(v) for v in values if isinstance(v, int | float) and v]
+        return ("= " + ";  ".join(shown)) if shown else ""
+
+    def _load_echo(self, name: str, rec: dict[str, Any]) -> str:
+        """Where the checked line loads come from: derived from the tributary width, or typed directly."""
+        width, loads = rec.get("tributary_m"), rec.get("loads")
+        if not loads:
+            return ""
+        if width is None:
+            return "line loads typed directly" if name == "tributary_m" else "typed directly"
+        if name == "tributary_m":
+            return "line loads below are derived from this width x the site's design basis"
+        kpa = getattr(self.basis(rec), name.replace("_kn_m", "_kpa"))
+        where = rec.get("load_basis") or "site"
+        return f"derived: {width:g} m x {kpa:g} kPa ({where}) = {loads.get(name, 0):g} kN/m"
 
     def support_count(self) -> int:
         """Number of supports (spans + 1)."""
@@ -116,6 +212,8 @@ class BeamFormViewModel:
         """Choices for a picker field."""
         rec = self.record()
         material = Material(rec.get("material", "glulam"))
+        if name == "load_basis":
+            return [MAIN_BASIS, *self.store.site(self.site_id).load_bases]
         if name == "species":
             return species_allowed(material)
         if name == "grade":
@@ -140,40 +238,47 @@ class BeamFormViewModel:
         if name in TEXT_ONLY or name == "mark":
             return {name: text}
         if name in LENGTH_FIELDS:
-            value = parse_length_mm(text) if text or name.startswith(("purlin", "bottom")) else 0.0
+            longest = max(rec.get("spans_mm") or [0.0]) or None
+            kind = LENGTH_FIELDS[name]
+            if not text and name.startswith("overhang"):
+                value = 0.0
+            else:
+                value = read_length(kind, text, longest if kind == "spacing_mm" else None)
             if name == "purlin_spacing_mm":
                 return {"top_edge": dict(rec.get("top_edge") or {}, braced_by="purlins", spacing_mm=value)}
             if name == "bottom_spacing_mm":
                 return {"bottom_edge": {"braced_by": "braces", "spacing_mm": value}}
             return {name: value}
         if name == "spans":
-            spans = [parse_length_mm(t) for t in _SPLIT.split(text) if t]
+            spans = [read_length("span_mm", t) for t in split_spans(text)]
             if not spans:
-                raise ValueError("spans: enter one length per span, separated by commas (7200, 7200)")
+                raise ValueError("spans: enter one length per span, separated by ';' (7.2 m; 7.2 m)")
             bearings = [dict(b) for b in rec.get("bearings", [])]
             while len(bearings) < len(spans) + 1:
-                bearings.append(
-                    {
-                        "lateral": "not_visible",
-                        "rotation": "not_visible",
-                        "length_mm": bearings[-1]["length_mm"] if bearings else 140,
-                    }
-                )
+                bearings.append({"lateral": None, "rotation": None, "length_mm": None})  # not yet entered
             return {"spans_mm": spans, "bearings": bearings[: len(spans) + 1]}
         if name.startswith("bearing"):
             idx, key = name[len("bearing") :].split(".")
-            bearings = [dict(b) for b in rec["bearings"]]
+            bearings = [dict(b) for b in rec.get("bearings") or []]
             if not 1 <= int(idx) <= len(bearings):
                 raise ValueError(f"support {idx}: the beam has supports 1 to {len(bearings)}")
-            bearings[int(idx) - 1][key] = parse_length_mm(text) if key == "length_mm" else text
+            bearings[int(idx) - 1][key] = read_length("bearing_length_mm", text) if key == "length_mm" else text
             return {"bearings": bearings}
         if name in LOAD_FIELDS:
-            return {"loads": dict(rec.get("loads") or {}, **{name: _number(name, text)}), "tributary_m": None}
+            value = _number(name, text, "line_load_kn_m")
+            return {"loads": dict(rec.get("loads") or {}, **{name: value}), "tributary_m": None}
         if name == "tributary_m":
             if not text:
                 return {"tributary_m": None}  # cleared: the line loads stay as they are
-            width = _number(name, text)
-            return {"tributary_m": width, "loads": line_loads_kn_m(self.store.site(self.site_id).design_basis, width)}
+            width = _number(name, text, "tributary_m")
+            return {"tributary_m": width, "loads": line_loads_kn_m(self.basis(rec), width)}
+        if name == "load_basis":
+            if text not in self.options("load_basis"):
+                raise ValueError(f"load basis {text!r}; allowed: {', '.join(self.options('load_basis'))}")
+            changes: dict[str, Any] = {"load_basis": None if text == MAIN_BASIS else text}
+            if rec.get("tributary_m") is not None:  # derived loads follow the basis at once
+                changes["loads"] = line_loads_kn_m(self.basis(dict(rec, **changes)), rec["tributary_m"])
+            return changes
         if name == "material":
             material = Material(text)
             species = (
@@ -212,8 +317,8 @@ class BeamFormViewModel:
                 raise ValueError("specified_size: enter the drawn size as b x d (130 x 494)")
             return {
                 "specified": {
-                    "b_mm": parse_length_mm(m.group(1)),
-                    "d_mm": parse_length_mm(m.group(2)),
+                    "b_mm": read_length("b_mm", m.group(1)),
+                    "d_mm": read_length("d_mm", m.group(2)),
                     "species": rec.get("species"),
                     "grade": rec.get("grade"),
                 }
@@ -231,21 +336,29 @@ class BeamFormViewModel:
         try:
             changes = self._to_storage(name, text, rec)
             candidate = dict(rec, **changes)
-            Beam.model_validate({k: v for k, v in candidate.items() if k in Beam.model_fields})
+            # an incomplete beam is checked with stand-ins for what is not yet entered, so that the
+            # entries made so far are held to every rule that involves them (sawn b, grade, spacing)
+            Beam.model_validate({k: v for k, v in _with_stand_ins(candidate).items() if k in Beam.model_fields})
         except ValidationError as exc:
-            self.errors[name] = validation_message(exc)
+            self.errors[name] = trade_message(exc)
+            self.suggestions.pop(name, None)
         except ValueError as exc:
             self.errors[name] = str(exc)
+            suggestion = exc.suggestion if isinstance(exc, LengthRefused) else ""
+            if suggestion and len(split_spans(text)) > 1:
+                suggestion = ""  # one span of several: the reviewer retypes that one
+            self.suggestions[name] = suggestion
         else:
             self.errors.pop(name, None)
+            self.suggestions.pop(name, None)
             # the entry that made the beam valid also settles a picker refused for want of it
             for settled in {
                 name,
                 "top_braced_by" if name == "purlin_spacing_mm" else "",
                 "bottom_braced_by" if name == "bottom_spacing_mm" else "",
             } - {""}:
-                if drafts.pop(settled, None) is not None:
-                    self.errors.pop(settled, None)
+                drafts.pop(settled, None)
+                self.errors.pop(settled, None)
             changes = {k: v for k, v in changes.items() if rec.get(k) != v}
             if drafts != (rec.get("drafts") or {}):
                 changes["drafts"] = drafts
@@ -254,6 +367,16 @@ class BeamFormViewModel:
                 self.store.update_beam(self.beam_id, changes)
             self.refresh()
             return True
+        if self.is_picker(name):  # a refused pick is not kept: the picker shows the value in force
+            kept = self.form().get(name, "")
+            reason = self.errors[name]
+            if name in ("top_braced_by", "bottom_braced_by") and text in ("purlins", "braces"):
+                where = "Purlins at" if text == "purlins" else "Bottom braces at"
+                reason = f"type their spacing in '{where}' (that also sets this choice)."
+            self.errors[name] = f"Not changed to {words(text)}: {reason} Stays {words(kept)}."
+            if drafts.pop(name, None) is not None:
+                self.store.update_beam(self.beam_id, {"drafts": drafts})
+            return False
         if drafts.get(name) != text:  # keep what was typed, even though it is refused
             drafts[name] = text
             self.store.update_beam(self.beam_id, {"drafts": drafts})
@@ -279,8 +402,16 @@ class BeamFormViewModel:
         return sum(1 for p in self.store.photos(self.site_id) if p.get("beam_id") == self.beam_id)
 
     # -- the live recheck ------------------------------------------------------------------------
+    def missing(self) -> list[str]:
+        """The entries the recheck still needs, in the reviewer's words (empty when complete)."""
+        return missing_entries(self.record())
+
     def refresh(self) -> Recheck | None:
         """Recheck the stored beam (None, with ``recheck_error``, when the record cannot be rechecked)."""
+        needs = self.missing()
+        if needs:
+            self.result, self.recheck_error = None, "still needs " + ", ".join(needs)
+            return None
         try:
             self.result = recheck(self.store.beam(self.beam_id))
             self.recheck_error = ""
@@ -300,7 +431,12 @@ class BeamFormViewModel:
         r = self.result or self.refresh()
         if r is None:
             return []
-        return [(i, f"[{f.priority.value}] {f.message} → {f.action}") for i, f in enumerate(r.findings)]
+        out = []
+        for i, f in enumerate(r.findings):
+            number = raised_number_for(self.store, self.site_id, self.beam_id, f)
+            state = f"  [raised as {number}]" if number else "  [not yet raised]"
+            out.append((i, f"{PRIORITY_LABELS[f.priority.value]}: {f.message} → {f.action}{state}"))
+        return out
 
     def panel_lines(self) -> list[tuple[str, float | None, str]]:
         """Live recheck lines: (text, utilisation for the bar or None, trace key for ``trace_lines``)."""
@@ -375,16 +511,45 @@ class BeamFormViewModel:
             )
         return out
 
+    def archive(self) -> None:
+        """Soft delete: the beam leaves the site's lists (a synced change); its record and history stay."""
+        self.store.update_beam(self.beam_id, {"archived": True})
+
+    def copy_choices(self) -> list[tuple[str, str]]:
+        """[(beam_id, 'copy from RB-1')] for the other beams on the site."""
+        return [(i, f"copy from {r.get('mark')}") for i, r in self.store.beams(self.site_id) if i != self.beam_id]
+
+    def copy_from(self, other_id: str) -> None:
+        """Copy another beam's member, bracing and loads (never its span, bearings or mark); undoable."""
+        other = self.store.beam_record(other_id)
+        rec = self.record()
+        changes = {k: copy.deepcopy(other[k]) for k in COPIED if k in other and other[k] != rec.get(k)}
+        if changes:
+            self._undo.append({k: rec.get(k) for k in changes})
+            self.store.update_beam(self.beam_id, changes)
+        self.errors.clear()
+        self.refresh()
+
     def location_text(self) -> str:
         """'Roof, grid E / 3-4, RB-5' for deficiencies and notices."""
         rec = self.record()
         return f"{rec.get('level') or '?'}, grid {rec.get('gridline') or '?'}, {rec.get('mark')}"
 
+    def raised_number(self, index: int) -> str:
+        """The number of the unverified deficiency already raised from the finding at ``index`` ('' if none)."""
+        r = self.result or self.refresh()
+        if r is None or not 0 <= index < len(r.findings):
+            return ""
+        return raised_number_for(self.store, self.site_id, self.beam_id, r.findings[index])
+
     def raise_deficiency(self, index: int = 0) -> str:
-        """Confirm the finding at ``index`` as a numbered deficiency; return its number."""
+        """Confirm the finding at ``index`` as a numbered deficiency; return its number (never twice)."""
         r = self.result or self.refresh()
         if r is None or not 0 <= index < len(r.findings):
             raise ValueError("no such finding to raise: the recheck has none at that position")
+        already = self.raised_number(index)
+        if already:
+            raise ValueError(f"already raised as {already}; it is not raised twice")
         f = r.findings[index]
         where = self.location_text() + (f", {f.region}" if f.region else "")
         d = self.store.raise_deficiency(
@@ -393,8 +558,83 @@ class BeamFormViewModel:
         return d.number
 
 
-def _number(name: str, text: str) -> float:
+def raised_number_for(store: Store, site_id: str, beam_id: str, finding: Any) -> str:
+    """The number of this beam's unverified deficiency raised from ``finding`` (same code and place), or ''."""
+    for d in store.deficiencies(site_id):
+        if d.beam_id == beam_id and d.stage is not Stage.verified and d.code == finding.code:
+            if not finding.region or d.location.endswith(finding.region):
+                return d.number
+    return ""
+
+
+def words(value: str) -> str:
+    """A stored choice in the trade's words ('not_visible' -> 'not visible')."""
+    return CHOICE_WORDS.get(value, value.replace("_", " "))
+
+
+def trade_message(exc: ValidationError) -> str:
+    """A refused entry in words: the reason the model gives, without the validator's framing."""
+    out = []
+    for e in exc.errors():
+        msg = str(e["msg"]).removeprefix("Value error, ")
+        where = ".".join(map(str, e["loc"]))
+        out.append(msg if (not where or where in msg) else f"{where}: {msg}")
+    return "; ".join(out) + ("" if out and out[-1].endswith(".") else ".")
+
+
+def _with_stand_ins(rec: dict[str, Any]) -> dict[str, Any]:
+    """The record with valid stand-ins for entries not yet made (for validating the entries that were)."""
+    out = dict(rec)
+    glulam = out.get("material", "glulam") == "glulam"
+    if not out.get("b_mm"):
+        out["b_mm"] = min(
+            map(float, tables.column("glulam_sizes" if glulam else "lumber_sizes", "width_mm" if glulam else "b_mm"))
+        )
+    if not out.get("d_mm"):
+        out["d_mm"] = 38.0 * 4 if glulam else min(map(float, tables.column("lumber_sizes", "d_mm")))
+    if not out.get("spans_mm"):
+        out["spans_mm"] = [3000.0]
+    out["loads"] = out.get("loads") or {}
+    bearings = [dict(b) for b in out.get("bearings") or []]
+    bearings += [{}] * (len(out["spans_mm"]) + 1 - len(bearings))
+    out["bearings"] = [
+        {
+            "lateral": b.get("lateral") or "not_visible",
+            "rotation": b.get("rotation") or "not_visible",
+            "length_mm": b.get("length_mm") or 140.0,
+        }
+        for b in bearings
+    ]
+    return out
+
+
+def missing_entries(rec: dict[str, Any]) -> list[str]:
+    """What a beam record still lacks before it can be rechecked, in the reviewer's words."""
+    needs = []
+    if not rec.get("spans_mm"):
+        needs.append("span")
+    if not rec.get("b_mm"):
+        needs.append("width b")
+    if not rec.get("d_mm"):
+        needs.append("depth d")
+    if not rec.get("loads"):
+        needs.append("tributary width or line loads")
+    for i, b in enumerate(rec.get("bearings") or [], start=1):
+        for key in ("lateral", "rotation"):
+            if b.get(key) is None:
+                needs.append(f"S{i} {key} restraint")
+        if b.get("length_mm") is None:
+            needs.append(f"S{i} bearing length")
+    return needs
+
+
+def _number(name: str, text: str, kind: str) -> float:
+    """A typed number (decimal comma allowed) held against its plausible range (core.plausible)."""
     try:
-        return float(text.strip() or "0")
+        value = float(text.strip().replace(",", ".") or "0")
     except ValueError:
         raise ValueError(f"{name} = {text!r}: enter a number") from None
+    r = PLAUSIBLE[kind]
+    if not r.low <= value <= r.high:
+        raise ValueError(f"{name} = {value:g} {r.unit}: allowed {r.low:g} to {r.high:g} {r.unit} ({r.source})")
+    return value

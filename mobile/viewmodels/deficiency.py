@@ -6,9 +6,10 @@ import hashlib
 from dataclasses import dataclass, field
 from pathlib import Path
 
+from core.recheck import recheck
 from core.records import Deficiency, Stage
 from core.results import PRIORITY_ORDER
-from mobile.viewmodels.common import PRIORITY_LABELS, STAGE_WORDS
+from mobile.viewmodels.common import PRIORITY_LABELS, STAGE_WORDS, local_time, status_label
 from storage import Store
 from storage.store import LifecycleError
 
@@ -70,11 +71,41 @@ class DeficiencyViewModel:
             out.append("reopen")
         return out
 
+    def device_user(self) -> tuple[str, str]:
+        """(name, role) this device is set up for (the role is a setting of the device's user)."""
+        return self.store.device_user()
+
+    def recheck_as_installed(self) -> tuple[bool, str]:
+        """(finding gone, 'RB-5 as now recorded: ● OK') for the beam this deficiency is on."""
+        d = self.deficiency()
+        if d.beam_id is None:
+            return True, ""
+        rec = self.store.beam_record(d.beam_id)
+        try:
+            result = recheck(self.store.beam(d.beam_id))
+        except ValueError as exc:
+            return False, f"{rec.get('mark')} cannot be rechecked as recorded ({exc})"
+        still = [f for f in result.findings if f.code == d.code and (not f.region or d.location.endswith(f.region))]
+        return not still, f"recheck of {rec.get('mark')} as now recorded: {status_label(result.status.value)}"
+
     def move(self, stage: str, actor: str, role: str, note: str = "", evidence: str | Path | None = None) -> bool:
-        """Move the status with a note and an optional evidence photo; False with ``message`` if refused."""
+        """Move the status with a note and an optional evidence photo; False with ``message`` if refused.
+
+        Marking corrected a deficiency on a logged beam needs the beam updated to what is now installed:
+        the recheck of the updated beam must no longer carry the finding, and its result goes into the note.
+        """
         if not actor.strip():
             self.message = "Enter who is making this change"
             return False
+        if stage == "corrected":
+            gone, summary = self.recheck_as_installed()
+            if not gone:
+                self.message = (
+                    "Not marked corrected: the beam as recorded still shows this finding. Update the beam to what "
+                    "is now installed (Update the beam…), then mark corrected. " + summary
+                )
+                return False
+            note = "; ".join(x for x in (note.strip(), summary) if x)
         sha = ""
         try:
             if evidence:
@@ -95,7 +126,7 @@ class DeficiencyViewModel:
         for e in self.store.history(self.deficiency_id):
             word = "opened" if e.stage is Stage.open and e.cycle else STAGE_WORDS[int(e.stage)]
             out.append(
-                f"{e.at}  {word} (cycle {e.cycle + 1}) by {e.actor} [{e.role}]"
+                f"{local_time(e.at)}  {word} (cycle {e.cycle + 1}) by {e.actor} [{e.role}]"
                 + (f": {e.note}" if e.note else "")
                 + ("  · photo evidence" if e.evidence_sha256 else "")
             )

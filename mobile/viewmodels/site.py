@@ -9,20 +9,21 @@ from typing import Any
 
 from core.recheck import recheck
 from core.results import PRIORITY_ORDER
-from mobile.viewmodels.common import PRIORITY_LABELS, STAGE_WORDS, line_loads_kn_m, status_label
+from mobile.viewmodels.beam import raised_number_for
+from mobile.viewmodels.common import PRIORITY_LABELS, STAGE_WORDS, STATUS_WORDS, status_label
 from storage import Store
 from storage.clock import uuid7
 
+# A new beam holds nothing that looks measured: span, size, loads and bearings start "not yet
+# entered" and the recheck lists what it still needs. Pickers start on the most common member.
 NEW_BEAM_DEFAULTS: dict[str, Any] = {
     "material": "glulam",
     "species": "D.Fir-L",
     "grade": "24f-E",
-    "b_mm": 130,
-    "d_mm": 456,
-    "spans_mm": [6000],
-    "bearings": [{"lateral": "not_visible", "rotation": "not_visible", "length_mm": 140}] * 2,
-    "top_edge": {"braced_by": "none", "spacing_mm": None, "fastened": None},
+    "top_edge": {"braced_by": "none", "spacing_mm": None, "fastened": None},  # not recorded: taken as not fastened
 }
+LEVEL_NOT_RECORDED = "level not recorded"
+PINNED = "▲ IMMEDIATE open: pinned"  # beams with an open IMMEDIATE deficiency, shown first (also under their level)
 COPIED_FROM_LAST = ("material", "species", "grade", "b_mm", "d_mm", "service", "use", "top_stamp", "level")
 
 
@@ -41,18 +42,73 @@ class SiteViewModel:
         except ValueError:
             return "unchecked"
 
-    def groups(self) -> list[tuple[str, list[tuple[str, str, str]]]]:
-        """[(level, [(beam_id, 'mark  gridline', status label)])] ordered by level, gridline, mark."""
+    def beam_rows(self) -> list[tuple[str, dict[str, Any], str]]:
+        """[(beam_id, record, status)] for the site's beams, rechecked once per call."""
+        return [(beam_id, rec, self.status_of(beam_id)) for beam_id, rec in self.store.beams(self.site_id)]
+
+    def groups(
+        self,
+        search: str = "",
+        level: str = "",
+        status: str = "",
+        rows: list[tuple[str, dict[str, Any], str]] | None = None,
+    ) -> list[tuple[str, list[tuple[str, str, str]]]]:
+        """[(level, [(beam_id, 'mark  gridline', status label)])] by level, filtered.
+
+        ``search`` matches the mark or the gridline (case-insensitive); ``level`` a level as shown;
+        ``status`` a status value (ok, deficient, ...). Empty means no filter.
+        """
         out: dict[str, list[tuple[str, str, str]]] = {}
+        immediate = {
+            d.beam_id for d in self.store.deficiencies(self.site_id, open_only=True) if d.priority == "immediate"
+        }
+        pinned: list[tuple[str, str, str]] = []
+        needle = search.strip().lower()
+        for beam_id, record, st in self.beam_rows() if rows is None else rows:
+            where = str(record.get("level") or LEVEL_NOT_RECORDED)
+            text = f"{record.get('mark')}  ·  grid {record.get('gridline') or '?'}"
+            if needle and needle not in text.lower():
+                continue
+            if (level and where != level) or (status and st != status):
+                continue
+            out.setdefault(where, []).append((beam_id, text, status_label(st)))
+            if beam_id in immediate:
+                pinned.append((beam_id, f"{text}  ·  {where}", status_label(st)))
+        return ([(PINNED, pinned)] if pinned else []) + list(out.items())
+
+    @staticmethod
+    def levels(rows: list[tuple[str, dict[str, Any], str]]) -> list[str]:
+        """The levels the site's beams are on, as shown."""
+        return sorted({str(r.get("level") or LEVEL_NOT_RECORDED) for _, r, _ in rows})
+
+    @staticmethod
+    def counts(rows: list[tuple[str, dict[str, Any], str]]) -> str:
+        """'12 beams:  ● 8 OK  ·  ▲ 3 DEFICIENT  ·  ✖ 1 NOT ESTABLISHED' (every status that occurs)."""
+        tally: dict[str, int] = {}
+        for _, _, st in rows:
+            tally[st] = tally.get(st, 0) + 1
+        parts = [f"{STATUS_WORDS[st][1]} {tally[st]} {STATUS_WORDS[st][0]}" for st in STATUS_WORDS if st in tally]
+        return f"{len(rows)} beams:  " + "  ·  ".join(parts) if rows else "No beams logged yet."
+
+    def unraised(self) -> list[str]:
+        """'RB-7 (2 findings)' for each beam whose recheck has findings not yet raised as deficiencies."""
+        out = []
         for beam_id, record in self.store.beams(self.site_id):
-            out.setdefault(str(record.get("level") or "level not recorded"), []).append(
-                (
-                    beam_id,
-                    f"{record.get('mark')}  ·  grid {record.get('gridline') or '?'}",
-                    status_label(self.status_of(beam_id)),
-                )
-            )
-        return list(out.items())
+            try:
+                result = recheck(self.store.beam(beam_id))
+            except ValueError:
+                continue  # not yet checked: nothing to raise
+            todo = [f for f in result.findings if not raised_number_for(self.store, self.site_id, beam_id, f)]
+            if todo and result.status.value != "ok":
+                out.append(f"{record.get('mark')} ({len(todo)} finding{'s' if len(todo) > 1 else ''})")
+        return out
+
+    def unraised_warning(self) -> str:
+        """The warning shown on the site and notice screens ('' when every finding is raised)."""
+        marks = self.unraised()
+        if not marks:
+            return ""
+        return "▲ Findings not yet raised (not on any notice): " + ", ".join(marks)
 
     def deficiency_groups(self) -> list[tuple[str, list[tuple[str, str]]]]:
         """Open deficiencies by priority, most urgent first: [(priority label, [(id, line)])]."""
@@ -84,7 +140,7 @@ class SiteViewModel:
         visit = self.store.start_visit(
             self.site_id,
             reviewer.strip(),
-            time.strftime("%Y-%m-%d %H:%M"),
+            time.strftime("%Y-%m-%d %H:%M %Z"),  # local time with its zone
             weather=weather.strip(),
             scope_reviewed=scope_reviewed.strip(),
             scope_not_reviewed=scope_not_reviewed.strip(),
@@ -92,20 +148,13 @@ class SiteViewModel:
         return visit.id
 
     def new_beam(self) -> str:
-        """Log a new beam: member data copied from the last beam on the site, restraints 'not visible'.
+        """Log a new beam: nothing measured yet (span, size, loads, bearings "not yet entered").
 
-        The bearings start as 'not visible' so that nothing is assumed restrained until it is seen.
+        Copying another beam's member, bracing and loads is an explicit action on the form
+        (``BeamFormViewModel.copy_from``); nothing is carried over silently.
         """
         beams = self.store.beams(self.site_id)
         fields = copy.deepcopy(NEW_BEAM_DEFAULTS)
-        if beams:
-            last = max(beams, key=lambda b: b[0])[1]  # uuid7 ids sort by creation time
-            fields.update({k: last[k] for k in COPIED_FROM_LAST if k in last})
-            if "loads" in last:
-                fields["loads"] = last["loads"]
-            if "tributary_m" in last:
-                fields["tributary_m"] = last["tributary_m"]
-        fields.setdefault("loads", line_loads_kn_m(self.store.site(self.site_id).design_basis, 1.0))
         fields["mark"] = f"NEW-{len(beams) + 1}"
         fields["site_id"] = self.site_id
         visits = self.store.visits(self.site_id)

@@ -16,6 +16,7 @@ from mobile.viewmodels import (
     SiteViewModel,
     SyncViewModel,
 )
+from mobile.viewmodels.site import PINNED
 from storage import Store
 
 
@@ -54,7 +55,7 @@ def test_site_groups_deficiencies_by_priority_and_visit(demo):
     store, site_id = demo
     raise_all(store, site_id)
     vm = SiteViewModel(store, site_id)
-    levels = [level for level, _ in vm.groups()]
+    levels = [level for level, _ in vm.groups() if level != PINNED]
     assert levels == sorted(levels)
     priorities = [label for label, _ in vm.deficiency_groups()]
     assert priorities[0].startswith("▲ IMMEDIATE")
@@ -63,14 +64,25 @@ def test_site_groups_deficiencies_by_priority_and_visit(demo):
     assert "R. Vantongeren" in vm.visit_line()
 
 
-def test_new_beam_assumes_no_restraint_until_seen(demo):
+def test_new_beam_is_not_checked_until_entered(demo):
     store, site_id = demo
     vm = SiteViewModel(store, site_id)
     beam_id = vm.new_beam()
     form = BeamFormViewModel(store, site_id, beam_id)
+    assert form.refresh() is None  # no recheck on defaults: nothing looks measured
+    assert form.missing() == ["span", "width b", "depth d", "tributary width or line loads"]
+    assert "span" in form.recheck_error and form.form()["spans"] == "" and form.form()["b_mm"] == ""
+    for name, text in (("b_mm", "130"), ("d_mm", "456"), ("spans", "7.2 m"), ("tributary_m", "3")):
+        assert form.set_field(name, text), form.errors
+    # the bearings appear with the span, and are "not yet entered" (not assumed seen either way)
+    assert "S1 lateral restraint" in form.missing() and form.form()["bearing1.lateral"] == ""
+    for i in (1, 2):
+        assert form.set_field(f"bearing{i}.length_mm", "140")
+        assert form.set_field(f"bearing{i}.lateral", "not_visible")
+        assert form.set_field(f"bearing{i}.rotation", "not_visible")
     r = form.refresh()
     # d/b = 456/130 = 3.5 > 2.5 and restraint 'not visible': stability not established (O86-19 7.5.6.3.1)
-    assert r.status.value == "not_established"
+    assert r is not None and r.status.value == "not_established"
     assert {f.code for f in r.findings} >= {"bearing_restraint_missing"}
     assert form.set_field("bearing2.rotation", "no")
     assert form.immediate_findings()  # seen missing: immediate
@@ -80,13 +92,42 @@ def test_new_beam_assumes_no_restraint_until_seen(demo):
     assert form.refresh().status.value != "not_established"
 
 
+def test_copy_from_is_explicit_and_never_copies_span_or_bearings(demo):
+    store, site_id = demo
+    vm = SiteViewModel(store, site_id)
+    form = BeamFormViewModel(store, site_id, vm.new_beam())
+    rb1 = next(i for i, r in store.beams(site_id) if r["mark"] == "RB-1")
+    assert "copy from RB-1" in [t for _, t in form.copy_choices()]
+    form.copy_from(rb1)
+    rec, other = form.record(), store.beam_record(rb1)
+    assert (rec["b_mm"], rec["d_mm"], rec["loads"], rec["top_edge"]) == (
+        other["b_mm"],
+        other["d_mm"],
+        other["loads"],
+        other["top_edge"],
+    )
+    assert "spans_mm" not in rec and "bearings" not in rec and rec["mark"] != other["mark"]
+    assert form.missing() == ["span"]
+
+
+def test_out_of_range_load_refused_on_an_incomplete_beam(demo):
+    store, site_id = demo
+    form = BeamFormViewModel(store, site_id, SiteViewModel(store, site_id).new_beam())
+    assert not form.set_field("dead_kn_m", "-2")
+    assert "0 to 200 kN/m" in form.errors["dead_kn_m"]
+    assert form.set_field("dead_kn_m", "2,5") and form.record()["loads"]["dead_kn_m"] == 2.5
+
+
 def test_spans_entry_adds_supports_and_tributary_uses_design_basis(demo):
     store, site_id = demo
     form = _form(store, site_id, "RB-1")
-    assert form.set_field("spans", "7.2 m, 23' 7 1/2\"")
+    assert form.set_field("spans", "7.2 m; 23' 7 1/2\"")
     rec = form.record()
     assert rec["spans_mm"] == [7200, pytest.approx((23 * 12 + 7.5) * 25.4)]  # 1 in = 25.4 mm (common practice)
-    assert len(rec["bearings"]) == 3 and rec["bearings"][2]["rotation"] == "not_visible"
+    assert len(rec["bearings"]) == 3 and rec["bearings"][2] == {"lateral": None, "rotation": None, "length_mm": None}
+    assert form.refresh() is None and "S3 lateral restraint" in form.missing()  # the new support: not yet entered
+    for key, value in (("lateral", "yes"), ("rotation", "yes"), ("length_mm", "140")):
+        assert form.set_field(f"bearing3.{key}", value)
     assert form.support_count() == 3
     assert form.set_field("tributary_m", "2.0")
     basis = store.site(site_id).design_basis
@@ -115,7 +156,8 @@ def test_purlins_picker_waits_for_spacing(demo):
     store, site_id = demo
     form = _form(store, site_id, "RB-3")  # no bracing
     assert not form.set_field("top_braced_by", "purlins")  # O86 needs the spacing a of lateral supports
-    assert form.form()["top_braced_by"] == "purlins"
+    assert form.form()["top_braced_by"] == "none"  # the picker shows the value in force
+    assert "Purlins at" in form.errors["top_braced_by"]
     assert form.set_field("purlin_spacing_mm", "1200")
     assert "top_braced_by" not in form.errors and form.record()["top_edge"]["braced_by"] == "purlins"
     assert "drafts" not in form.record() or "top_braced_by" not in form.record()["drafts"]
@@ -143,8 +185,10 @@ def test_photo_attached_to_beam(demo, tmp_path):
 
 def test_deficiency_lifecycle_with_evidence_and_history(demo, tmp_path):
     store, site_id = demo
-    raise_all(store, site_id)
-    d = store.deficiencies(site_id, open_only=True)[0]
+    number = SiteViewModel(store, site_id).raise_by_hand(
+        "Roof, grid A / 1", "hanger nails missing", "Install the nails", "before_loading"
+    )
+    d = next(x for x in store.deficiencies(site_id) if x.number == number)  # not on a logged beam
     vm = DeficiencyViewModel(store, d.id)
     assert vm.moves("contractor") == ["corrected"]
     assert "verified" in vm.moves("reviewer")
@@ -202,3 +246,149 @@ def test_sync_export_import_progress_and_conflict_resolution(tmp_path):
     kept = b.beam_record(beam_id)["notes"]
     vm.resolve(cid, "loser", "P. Okonkwo-Lind")
     assert b.beam_record(beam_id)["notes"] != kept and vm.conflicts() == []
+
+
+def test_site_search_filters_and_counts(demo):
+    store, site_id = demo
+    vm = SiteViewModel(store, site_id)
+    rows = vm.beam_rows()
+    found = [name for _, beams in vm.groups("rb-5", rows=rows) for _, name, _ in beams]
+    assert found and all("RB-5" in n for n in found)
+    roof = vm.groups(level="Roof", rows=rows)
+    assert [lvl for lvl, _ in roof if lvl != PINNED] == ["Roof"]
+    raise_all(store, site_id)
+    pinned = dict(vm.groups(rows=rows)).get(PINNED, [])
+    immediate = {d.beam_id for d in store.deficiencies(site_id, open_only=True) if d.priority == "immediate"}
+    assert immediate and {b for b, _, _ in pinned} == immediate and vm.groups(rows=rows)[0][0] == PINNED
+    deficient = [label for _, beams in vm.groups(status="deficient", rows=rows) for _, _, label in beams]
+    assert deficient and all("DEFICIENT" in x for x in deficient)
+    counts = vm.counts(rows)
+    assert counts.startswith(f"{len(rows)} beams:")
+    # the counts add up to the beams (each beam has one status)
+    assert sum(int(p.split()[1]) for p in counts.split(":", 1)[1].split("·")) == len(rows)
+    assert "Roof" in vm.levels(rows)
+
+
+def test_derived_loads_follow_their_source_and_say_so(demo):
+    store, site_id = demo
+    form = _form(store, site_id, "RB-1")
+    basis = store.site(site_id).design_basis
+    assert form.set_field("tributary_m", "2,5")  # decimal comma
+    # specified line load = area load x tributary width (common practice)
+    assert form.form()["dead_kn_m"] == f"{round(basis.dead_kpa * 2.5, 3):g}"
+    assert form.echo("dead_kn_m").startswith(f"derived: 2.5 m x {basis.dead_kpa:g} kPa")
+    assert form.set_field("live_kn_m", "1.5")
+    assert form.form()["tributary_m"] == "" and form.echo("live_kn_m") == "typed directly"
+
+
+def test_refused_pick_keeps_the_value_in_force_and_says_so_in_words(demo):
+    store, site_id = demo
+    form = _form(store, site_id, "RB-1")  # 130 mm wide glulam
+    assert not form.set_field("material", "sawn")
+    assert form.form()["material"] == "glulam" and form.record()["material"] == "glulam"
+    assert "Not changed to Sawn lumber" in form.errors["material"] and "Stays Glulam" in form.errors["material"]
+    assert "Value error" not in form.errors["material"]
+
+
+def test_finding_raised_once_and_corrected_only_with_the_beam_updated(demo):
+    store, site_id = demo
+    form = _form(store, site_id, "RB-5")  # rotation restraint missing at support 2 (demo)
+    site = SiteViewModel(store, site_id)
+    assert "RB-5" in site.unraised_warning()
+    index = next(i for i, f in enumerate(form.refresh().findings) if f.code == "bearing_restraint_missing")
+    assert "[not yet raised]" in dict(form.findings())[index]
+    number = form.raise_deficiency(index)
+    assert form.raised_number(index) == number and f"[raised as {number}]" in dict(form.findings())[index]
+    with pytest.raises(ValueError, match="already raised"):
+        form.raise_deficiency(index)
+    d = next(x for x in store.deficiencies(site_id) if x.number == number)
+    vm = DeficiencyViewModel(store, d.id)
+    assert not vm.move("corrected", "D. Abernathy", "contractor", "blocking added")
+    assert "still shows this finding" in vm.message
+    # what is now installed: the restraint at support 2
+    for key in ("lateral", "rotation"):
+        assert form.set_field(f"bearing2.{key}", "yes")
+    assert vm.move("corrected", "D. Abernathy", "contractor", "blocking added")
+    assert "as now recorded: ● OK" in vm.history_lines()[-1]
+    assert vm.move("verified", "P. Okonkwo-Lind", "reviewer", "seen in place")
+    assert form.refresh().status.value == "ok"  # the beam shows its new status
+
+
+def test_verify_is_offered_by_the_device_users_role(demo):
+    store, site_id = demo
+    raise_all(store, site_id)
+    d = store.deficiencies(site_id, open_only=True)[0]
+    vm = DeficiencyViewModel(store, d.id)
+    assert vm.device_user() == ("", "")
+    with pytest.raises(ValueError, match="allowed: reviewer"):
+        store.set_device_user("R. Vantongeren", "superuser")
+    store.set_device_user("R. Vantongeren", "contractor")
+    assert "verified" not in vm.moves(vm.device_user()[1])
+    store.set_device_user("P. Okonkwo-Lind", "reviewer")
+    assert vm.device_user() == ("P. Okonkwo-Lind", "reviewer") and "verified" in vm.moves("reviewer")
+
+
+def test_times_shown_in_local_time_with_zone(monkeypatch):
+    import time
+
+    from mobile.viewmodels.common import local_time
+
+    monkeypatch.setenv("TZ", "America/Vancouver")
+    time.tzset()
+    try:
+        # Pacific Standard Time is UTC-8 in December (tz database)
+        assert local_time("2026-12-02T04:56:06Z") == "2026-12-01 20:56 PST"
+    finally:
+        monkeypatch.delenv("TZ")
+        time.tzset()
+
+
+def test_site_form_owner_contractor_distribution_bases_and_edit(tmp_path):
+    from mobile.issue import build_notice
+    from mobile.viewmodels import SitesViewModel
+
+    store = Store(tmp_path / "s.db")
+    vm = SitesViewModel(store)
+    form = {
+        "name": "Willow Yard Pavilion",
+        "address": "7 Quarry Lane",
+        "owner": "Willow Yard Trust",
+        "contractor": "Ashgrove Framing Inc.",
+        "contractor_contact": "M. Ferreira",
+        "distribution": "Owner; Architect; File",
+        "dead_kpa": "1,0",
+        "snow_kpa": "2.4",
+        "load_bases": "floor: 1.5/1.9/0; canopy: 0.8/0/2.1",
+        "use": "roof_no_ceiling",
+    }
+    site = vm.create(form)
+    assert site is not None, vm.errors
+    assert site.distribution == ["Owner", "Architect", "File"] and set(site.load_bases) == {"floor", "canopy"}
+    assert site.load_bases["floor"].live_kpa == 1.9 and site.load_bases["floor"].use.value == "floor"
+    notice, _ = build_notice(store, site.id, "N-1")
+    assert notice.addressed_to == "Ashgrove Framing Inc. (attention: M. Ferreira)"
+    assert notice.distribution == ["Owner", "Architect", "File"]
+    assert not vm.create(dict(form, load_bases="floor 1.5")) and "dead/live/snow" in vm.errors["load_bases"]
+    edited = vm.update(site.id, dict(vm.form_of(site.id), snow_kpa="3.1", contractor_contact="J. Osei"))
+    assert edited is not None and edited.design_basis.snow_kpa == 3.1 and edited.contractor_contact == "J. Osei"
+    assert edited.load_bases == site.load_bases  # unchanged fields survive the edit
+
+
+def test_beam_chooses_its_load_basis(demo):
+    store, site_id = demo
+    form = _form(store, site_id, "RB-1")
+    floor = store.site(site_id).load_bases["floor"]
+    assert form.options("load_basis")[1:] == ["floor"]
+    assert form.set_field("tributary_m", "0.4")
+    assert form.set_field("load_basis", "floor")
+    # specified line load = area load x tributary width (common practice)
+    assert form.record()["loads"]["live_kn_m"] == pytest.approx(floor.live_kpa * 0.4)
+    assert "(floor)" in form.echo("live_kn_m")
+
+
+def test_demo_site_is_marked(demo):
+    from mobile.viewmodels import SitesViewModel
+
+    store, site_id = demo
+    assert store.site(site_id).demo
+    assert any(text.startswith("DEMO · ") for _, text in SitesViewModel(store).rows())

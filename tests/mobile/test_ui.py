@@ -26,7 +26,7 @@ pytestmark = [
 ]
 
 
-def run_app(db, shots, flow, home, timeout=150, size=(1280, 800)):
+def run_app(db, shots, flow, home, timeout=150, size=(1280, 800), dpi=None, density=None, geometry=""):
     """Run the driver under its own Xvfb in a new process group; on timeout kill the whole group."""
     home.mkdir(parents=True, exist_ok=True)
     env = {
@@ -37,7 +37,11 @@ def run_app(db, shots, flow, home, timeout=150, size=(1280, 800)):
         "PYTHONPATH": str(ROOT),
         "BRACEWALK_WIDTH": str(size[0]),
         "BRACEWALK_HEIGHT": str(size[1]),
+        "BRACEWALK_GEOMETRY": geometry,
     }
+    if dpi is not None:
+        env["KIVY_DPI"] = str(dpi)
+        env["KIVY_METRICS_DENSITY"] = str(density)
     screen = f"-screen 0 {size[0]}x{size[1]}x24"
     proc = subprocess.Popen(
         ["xvfb-run", "-a", "-s", screen, sys.executable, str(DRIVER), str(db), str(shots), flow],
@@ -64,6 +68,30 @@ def test_app_end_to_end_under_xvfb(tmp_path):
     assert "UI-OK" in out, out[-3000:]
     assert len(list(shots.glob("*.png"))) >= 12
     assert list((shots / "sync").glob("*.bwsync")) and list((shots / "exported").glob("*.pdf"))
+
+
+# Real tablets and a laptop: (width, height) px, dpi, and the density Kivy would use there. The density
+# follows Android's buckets (1.0 at ~160 dpi, 1.5 at ~240, 2.0 at ~320; common practice), so 149 dpi
+# screens run at 1.0, 224 dpi at 1.5, 300 dpi at 2.0; a 96 dpi laptop runs at 1.0.
+GEOMETRIES = {
+    "10in-1280x800-149dpi": ((1280, 800), 149, 1.0),
+    "10in-2560x1600-300dpi": ((2560, 1600), 300, 2.0),
+    "12in-1920x1200-224dpi": ((1920, 1200), 224, 1.5),
+    "10in-portrait-800x1280-149dpi": ((800, 1280), 149, 1.0),
+    "laptop-1366x768-96dpi": ((1366, 768), 96, 1.0),
+}
+
+
+@pytest.mark.parametrize("geometry", list(GEOMETRIES))
+def test_layout_holds_at_tablet_geometry(tmp_path, geometry):
+    """Every screen at the geometry: no overlap, no text spilling, no zero-size panel, targets >= 15 mm."""
+    size, dpi, density = GEOMETRIES[geometry]
+    shots = ROOT / "test-artefacts" / "ui-geometry"
+    out = run_app(
+        tmp_path / "g.db", shots, "layout", tmp_path / "home", size=size, dpi=dpi, density=density, geometry=geometry
+    )
+    assert "UI-OK" in out, out[-4000:]
+    assert f"WINDOW ({size[0]}, {size[1]})" in out, out[-2000:]  # the window really had that size
 
 
 def test_portrait_layout(tmp_path):

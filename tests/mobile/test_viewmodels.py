@@ -52,7 +52,7 @@ def test_invalid_input_message_at_field_kept_as_draft_beam_unchanged(form):
     assert not form.set_field("spans", "banana")
     assert "spans" in form.errors
     assert form.set_field("d_mm", "494")  # a valid entry clears the draft
-    assert form.form()["d_mm"] == "494" and "d_mm" not in form.errors
+    assert form.form()["d_mm"] == "494 mm" and "d_mm" not in form.errors
 
 
 def test_bearing_toggle_shows_immediate_and_raise(form):

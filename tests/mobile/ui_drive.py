@@ -1,7 +1,9 @@
 """Drive the real app under Xvfb through widget ids and save screenshots (run by test_ui.py).
 
-usage: ui_drive.py DB OUT_DIR [flow]; flows: "main" (the whole job), "type-then-kill" (type a
-note, wait for the autosave, then SIGKILL this process), "relaunch" (print what the note field shows).
+usage: ui_drive.py DB OUT_DIR [flow]; flows: "main" (the whole job), "layout" (every screen held
+against the layout rules at the geometry the test set with KIVY_DPI / KIVY_METRICS_DENSITY and the
+window size), "type-then-kill" (type a note, wait for the autosave, then SIGKILL this process),
+"relaunch" (print what the note field shows).
 Prints UI-OK (or UI-FAIL at <step>) and flushes, then stops the app.
 """
 
@@ -28,6 +30,79 @@ def shot(name):
     Path(written).replace(OUT / f"{name}.png")
 
 
+def _window_rect(w):
+    x, y = w.to_window(*w.pos)
+    return x, y, x + w.width, y + w.height
+
+
+def _clip(rect, box):
+    return max(rect[0], box[0]), max(rect[1], box[1]), min(rect[2], box[2]), min(rect[3], box[3])
+
+
+def _shown(w):
+    """The part of w on screen: clipped by every ScrollView around it and by the window (None if hidden)."""
+    from kivy.uix.scrollview import ScrollView
+
+    rect = _window_rect(w)
+    node = w
+    while node is not None and node is not node.parent:
+        if node.opacity == 0:
+            return None
+        parent = node.parent
+        if isinstance(parent, ScrollView):
+            rect = _clip(rect, _window_rect(parent))
+        node = parent
+        if node is app.root_window:
+            break
+    rect = _clip(rect, (0, 0, *app.root_window.size))
+    return rect if rect[2] - rect[0] > 1 and rect[3] - rect[1] > 1 else None
+
+
+def layout_problems(screen_name):
+    """Overlap, text spilling out of its box, a zero-size panel, off-screen controls, targets under 15 mm."""
+    from kivy.metrics import mm
+    from kivy.uix.button import Button
+    from kivy.uix.label import Label
+    from kivy.uix.scrollview import ScrollView
+    from kivy.uix.textinput import TextInput
+
+    problems, leaves = [], []
+    for w in screen(screen_name).walk(restrict=True):
+        if isinstance(w, ScrollView) and w.opacity > 0:
+            shown = _shown(w)
+            if shown is None or shown[3] - shown[1] < mm(15) - 1:
+                problems.append(f"panel {w.__class__.__name__} in {w.parent.__class__.__name__} has no height")
+        if not isinstance(w, Button | TextInput | Label):
+            continue
+        if isinstance(w, Label) and not isinstance(w, Button) and not w.text.strip():
+            continue
+        shown = _shown(w)
+        if shown is None:
+            continue
+        what = f"{type(w).__name__} {getattr(w, 'text', '')[:32]!r}"
+        full = _window_rect(w)
+        if full[0] < -1 or full[2] > app.root_window.width + 1:
+            problems.append(f"{what} off screen sideways")
+        if isinstance(w, Button | TextInput) and not w.disabled:
+            if w.height < mm(15) - 1 or w.width < mm(15) - 1:
+                problems.append(f"{what} target {w.width / mm(1):.0f} x {w.height / mm(1):.0f} mm < 15 mm")
+        if isinstance(w, Label) and w.text.strip() and not w.shorten:
+            tw, th = w.texture_size
+            if th > w.height + 2 or tw > w.width + 2:
+                problems.append(f"{what} text {tw:.0f}x{th:.0f}px spills out of {w.width:.0f}x{w.height:.0f}px")
+        leaves.append((what, shown))
+    for i, (a, ra) in enumerate(leaves):
+        for b, rb in leaves[i + 1 :]:
+            if min(ra[2], rb[2]) - max(ra[0], rb[0]) > 2 and min(ra[3], rb[3]) - max(ra[1], rb[1]) > 2:
+                problems.append(f"{a} overlaps {b}")
+    return [f"{screen_name}: {p}" for p in problems]
+
+
+def check_layout(screen_name):
+    problems = layout_problems(screen_name)
+    assert not problems, "\n".join(problems[:12])
+
+
 def step(fn):
     steps.append(fn)
     return fn
@@ -49,8 +124,11 @@ def type_into(name, text):
 
 
 def pick(name, value):
-    assert value in screen("beam").fields[name].values, (name, screen("beam").fields[name].values)
-    screen("beam").fields[name].ids.input.text = value
+    from mobile.viewmodels.beam import words
+
+    shown = words(value)  # pickers show the trade's words, not stored codes
+    assert shown in screen("beam").fields[name].values, (name, screen("beam").fields[name].values)
+    screen("beam").fields[name].ids.input.text = shown
 
 
 def demo_beam(mark):
@@ -72,11 +150,17 @@ if FLOW == "main":
     def site():
         assert app.root.current == "site"
         shot("02-site")
-        screen().ids.visit_reviewer.text = "Priya Okonkwo-Lind"
-        screen().ids.visit_weather.text = "clear, -4 °C"
-        screen().ids.visit_scope.text = "Roof grid G; revisit of RB-5"
-        screen().ids.visit_not_scope.text = "Level 1 walls"
-        screen().ids.start_visit.trigger_action(0)
+        screen().ids.visit.trigger_action(0)
+        form = screen().visit_form.ids
+        form.visit_reviewer.text = "Priya Okonkwo-Lind"
+        form.visit_weather.text = "clear, -4 °C"
+        form.visit_scope.text = "Roof grid G; revisit of RB-5"
+        form.visit_not_scope.text = "Level 1 walls"
+
+    @step
+    def visit_form_shot():
+        shot("02b-visit-form")
+        screen().visit_form.ids.start_visit.trigger_action(0)
         assert "Priya" in screen().visit_text
 
     @step
@@ -96,17 +180,72 @@ if FLOW == "main":
         type_into("d_mm", "456")
         type_into("spans", "7.2 m")
         type_into("tributary_m", "3.0")
+        basis = app.store.site(app.site_id).design_basis
+        # the line loads shown are the ones checked: derived from the width at once (tributary x kPa)
+        assert field("snow_kn_m").text == f"{round(basis.snow_kpa * 3.0, 3):g}", field("snow_kn_m").text
+        assert "derived" in screen("beam").fields["snow_kn_m"].echo
+        pick("material", "sawn")  # b = 130 mm is too wide for sawn lumber in the tables: refused
+        assert field("material").text == "Glulam", field("material").text  # the picker shows the value in force
+        assert "Stays Glulam" in screen("beam").fields["material"].error
         pick("top_braced_by", "purlins")
         type_into("purlin_spacing_mm", "1200")
         pick("top_fastened", "yes")  # not recorded would be taken as not fastened (issue 16)
         pick("top_stamp", "up")
+        assert screen("beam").vm.result is None  # nothing rechecked on values not yet entered
+        assert "S1 lateral restraint" in screen("beam").vm.recheck_error, screen("beam").vm.recheck_error
         for i in (1, 2):
+            w = screen("beam").length_inputs[i]
+            w.focus = True
+            w.text = '5 1/2"'  # 139.7 mm
+            w.focus = False
             for key in ("lateral", "rotation"):
-                while app.store.beam_record(app.beam_id)["bearings"][i - 1][key] != "yes":
-                    getattr(screen("beam"), f"bearing{i}_{key}").trigger_action(0)
+                screen("beam").restraint_buttons[(i, key, "yes")].trigger_action(0)
         rec = app.store.beam_record(app.beam_id)
+        assert rec["bearings"][0]["length_mm"] == 139.7, rec["bearings"]
         assert rec["mark"] == "RB-9" and rec["spans_mm"] == [7200], rec
         assert screen("beam").vm.result.status.value == "ok", screen("beam").vm.result.status
+
+    @step
+    def gloves_keypad():
+        tf = screen("beam").fields["d_mm"]
+        popup = tf.open_keypad()
+        keys = [b.text for b in popup.content.children[1].children[::-1]]  # the grid, in reading order
+        assert "," not in keys and "C" in keys and keys.index(";") < 4  # ';' in the top row, far from OK
+        for k in ("C", "4", "9", "4"):
+            next(b for b in popup.content.children[1].children if b.text == k).trigger_action(0)
+        shot("03a-keypad")
+        popup.dismiss()  # a tap outside: what was typed is kept and entered
+        assert app.store.beam_record(app.beam_id)["d_mm"] == 494, app.store.beam_record(app.beam_id)["d_mm"]
+
+    @step
+    def gloves_depth_picks():
+        tf = screen("beam").fields["d_mm"]
+        tf.ids.quick.is_open = True  # the standard depths open at the current value, not at the top
+
+    @step
+    def gloves_depth_picks_shown():
+        tf = screen("beam").fields["d_mm"]
+        assert tf.quick_near == "494", tf.quick_near
+        shot("03c-depth-picks")
+        tf.ids.quick.is_open = False
+        folder = Path(os.environ["HOME"]) / "site photos"
+        folder.mkdir(parents=True, exist_ok=True)
+        from PIL import Image
+
+        Image.new("RGB", (40, 30), (90, 60, 30)).save(folder / "rb9-end.png")
+        screen("beam").ids.add_photo.trigger_action(0)
+
+    @step
+    def gloves_file_picker():
+        from kivy.metrics import mm
+
+        popup = app.root_window.children[0]
+        rows = [w for w in popup.walk() if getattr(w, "text", "").startswith("▸  site photos")]
+        assert rows and rows[0].height >= mm(15) - 1, rows
+        rows[0].trigger_action(0)  # one tap opens the folder
+        shot("03d-file-picker")
+        next(w for w in popup.walk() if getattr(w, "text", "") == "rb9-end.png").trigger_action(0)
+        assert screen("beam").vm.photo_count() == 1
 
     @step
     def bearings_view():
@@ -138,7 +277,7 @@ if FLOW == "main":
     @step
     def restraint_off():
         s = screen("beam")
-        s.bearing2_rotation.trigger_action(0)  # yes -> no
+        s.restraint_buttons[(2, "rotation", "no")].trigger_action(0)  # chosen directly, not cycled
         assert "IMMEDIATE" in s.immediate_text, s.immediate_text
 
     @step
@@ -148,6 +287,8 @@ if FLOW == "main":
         raise_buttons = [w for w in s.ids.panel.children if getattr(w, "text", "").startswith("Raise deficiency")]
         raise_buttons[-1].trigger_action(0)  # the first finding (children are in reverse order)
         assert "Raised D-" in s.raised_text
+        state["raised"] = s.raised_text.split()[-1]
+        assert any(b.text.endswith(f"raised as {state['raised']}") and b.disabled for b in s.ids.panel.children)
 
     @step
     def back_to_site():
@@ -157,23 +298,46 @@ if FLOW == "main":
     @step
     def open_deficiency():
         shot("06-site-after")
-        d = app.store.deficiencies(app.site_id, open_only=True)[0]
+        number = state["raised"]
+        d = next(d for d in app.store.deficiencies(app.site_id, open_only=True) if d.number == number)
         app.open_deficiency(d.id)
 
     @step
-    def move_status():
+    def device_user():
         s = screen("deficiency")
-        s.ids.actor.text = "D. Abernathy"
-        s.ids.role.text = "contractor"
+        assert not s.ids.moves.children or "no user" in s.who_text
+        s.ids.device_setup.trigger_action(0)
+        form = s.device_popup.content.ids
+        form.device_name.text = "Priya Okonkwo-Lind"
+        form.device_role.text = "reviewer"
+        form.device_save.trigger_action(0)
+        assert "Priya" in s.who_text, s.who_text
+
+    @step
+    def corrected_needs_the_beam_updated():
+        s = screen("deficiency")
         s.ids.note.text = "blocking installed both sides"
+        buttons = {b.text: b for b in s.ids.moves.children}
+        buttons["Mark corrected"].trigger_action(0)
+        assert "Not marked corrected" in s.message, s.message
+        s.ids.update_beam.trigger_action(0)
+        assert app.root.current == "beam"
+
+    @step
+    def record_installed():
+        screen("beam").restraint_buttons[(2, "rotation", "yes")].trigger_action(0)
+        assert screen("beam").vm.result.status.value == "ok"
+        screen("beam").ids.back.trigger_action(0)
+        app.open_deficiency(next(d.id for d in app.store.deficiencies(app.site_id) if d.number == state["raised"]))
 
     @step
     def move_status2():
         s = screen("deficiency")
+        s.ids.note.text = "blocking installed both sides"
         buttons = {b.text: b for b in s.ids.moves.children}
-        assert "Verify (reviewer)" not in buttons, buttons  # a contractor cannot verify
         buttons["Mark corrected"].trigger_action(0)
-        assert "corrected" in s.history_text, s.history_text
+        assert "corrected" in s.history_text and "as now recorded: ● OK" in s.history_text, s.history_text
+        assert "Verify the correction" in {b.text for b in s.ids.moves.children}  # the device's user is a reviewer
 
     @step
     def deficiency_shot():
@@ -243,6 +407,8 @@ if FLOW == "main":
         s = screen("sites")
         s.ids.new_name.text = "Willow Yard Pavilion"
         s.ids.new_address.text = "7 Quarry Lane"
+        s.ids.new_contractor.text = "Ashgrove Framing Inc."
+        s.ids.new_contractor_contact.text = "M. Ferreira"
         s.ids.new_dead_kpa.text = "1.0"
         s.ids.new_snow_kpa.text = "heavy"  # refused at the field: not a number
         s.ids.create_site.trigger_action(0)
@@ -250,6 +416,18 @@ if FLOW == "main":
         s.ids.new_snow_kpa.text = "2.4"
         s.ids.create_site.trigger_action(0)
         assert app.root.current == "site" and "Willow Yard" in screen("site").title
+        assert app.store.site(app.site_id).contractor_contact == "M. Ferreira"
+
+    @step
+    def archive_by_mistake():
+        app.open_site(next(x.id for x in app.store.sites() if "Cedar" in x.name))
+        rb9 = demo_beam("RB-9")
+        app.open_beam(rb9)
+        screen("beam").ids.archive.trigger_action(0)
+        screen("beam").ids.archive.trigger_action(0)  # the second tap confirms
+        assert app.root.current == "site"
+        assert "RB-9" not in [r["mark"] for _, r in app.store.beams(app.site_id)]
+        assert app.store.beam_record(rb9)["mark"] == "RB-9"  # kept, with its history
 
     @step
     def touch_targets():
@@ -264,6 +442,76 @@ if FLOW == "main":
                 if isinstance(w, Button | TextInput) and not w.disabled and w.opacity > 0 and w.height < mm(15) - 1:
                     small.append(f"{name}: {type(w).__name__} {getattr(w, 'text', '')[:30]!r} {w.height:.0f}px")
         assert not small, small
+
+elif FLOW == "layout":
+    GEOM = os.environ.get("BRACEWALK_GEOMETRY", "default")
+    seen = []
+
+    def look(name):
+        shot(f"{GEOM}-{name}")
+        seen.extend(layout_problems(app.root.current))
+
+    @step
+    def first_frame():
+        pass  # let the first frames draw
+
+    @step
+    def sites_layout():
+        look("1-sites")
+        app.open_site(next(s.id for s in app.store.sites() if "Cedar" in s.name))
+
+    @step
+    def site_layout():
+        look("2-site")
+        from kivy.metrics import mm
+
+        s = screen("site")
+        box = s.ids.deficiency_list
+        view = _window_rect(box.parent)
+        if view[3] - view[1] < mm(30):
+            seen.append(f"site: open-deficiency list only {(view[3] - view[1]) / mm(1):.0f} mm tall")
+        immediate = [d for d in app.store.deficiencies(app.site_id, open_only=True) if d.priority == "immediate"]
+        rows = [w for w in box.walk(restrict=True) if any(d.number in getattr(w, "text", "") for d in immediate)]
+        assert len(rows) == len(immediate) > 0, (len(rows), len(immediate))
+        for w in rows:
+            r = _window_rect(w)
+            if r[1] < view[1] - 1 or r[3] > view[3] + 1:
+                seen.append(f"site: IMMEDIATE item not in view: {w.text[:40]}")
+        app.open_beam(demo_beam("RB-5"))
+
+    @step
+    def beam_layout():
+        look("3-beam")
+        screen("beam").ids.form_scroll.scroll_y = 0.5
+
+    @step
+    def beam_layout_lower():
+        look("3b-beam-lower")
+        screen("beam").leave()
+        screen("site").ids.new_beam.trigger_action(0)
+
+    @step
+    def new_beam_layout():
+        look("3c-beam-new")  # nothing entered yet: the panel lists what the recheck needs
+        assert screen("beam").vm.result is None and "span" in screen("beam").vm.recheck_error
+        screen("beam").leave()
+        app.open_deficiency(app.store.deficiencies(app.site_id, open_only=True)[0].id)
+
+    @step
+    def deficiency_layout():
+        look("4-deficiency")
+        app.go("notice")
+
+    @step
+    def notice_layout():
+        look("5-notice")
+        app.go("sync")
+
+    @step
+    def sync_layout():
+        look("6-sync")
+        print(f"WINDOW {app.root_window.size}", flush=True)
+        assert not seen, "\n".join(seen[:25]) + (f"\n... {len(seen)} in all" if len(seen) > 25 else "")
 
 elif FLOW == "portrait":
 

@@ -1,0 +1,95 @@
+"""The notice screen (notice.kv): choose items, preview the PDF pages, issue, export."""
+
+from __future__ import annotations
+
+import tempfile
+from pathlib import Path
+from typing import Any
+
+from kivy.app import App
+from kivy.properties import StringProperty
+from kivy.uix.screenmanager import Screen
+
+from mobile.screens.widgets import (
+    big_button,
+)
+from mobile.viewmodels import NoticeViewModel, SiteViewModel
+
+PREVIEW_DIR = Path(tempfile.gettempdir()) / "bracewalk-preview"  # page images of the notice being previewed
+
+
+class NoticeScreen(Screen):
+    """Choose the open items, preview the PDF pages, issue (then read-only), export."""
+
+    message = StringProperty("")
+    page_text = StringProperty("no preview yet")
+    page_source = StringProperty("")
+    unraised_text = StringProperty("")
+
+    def on_pre_enter(self, *args: Any) -> None:
+        """Fill the item and issued lists."""
+        app = App.get_running_app()
+        self.vm = NoticeViewModel(app.store, app.site_id)
+        self.pages: list[Path] = []
+        self.page = 0
+        self.page_source, self.page_text = "", "no preview yet"
+        if not self.ids.export_dir.text:
+            self.ids.export_dir.text = str(Path.home() / "bracewalk-exports")
+        self.unraised_text = SiteViewModel(app.store, app.site_id).unraised_warning()
+        self.render()
+
+    def render(self) -> None:
+        """Items with their chosen state; issued notices with an Export button each."""
+        box = self.ids.item_list
+        box.clear_widgets()
+        for did, line, chosen in self.vm.candidates():
+            mark = "☑ " if chosen else "☐ "
+            box.add_widget(big_button(mark + line, lambda _b, d=did: self.toggle(d), font_size="16sp"))
+        issued = self.ids.issued
+        issued.clear_widgets()
+        for nid, line in self.vm.issued():
+            issued.add_widget(big_button("Export  " + line, lambda _b, n=nid: self.export(n), font_size="15sp"))
+
+    def toggle(self, deficiency_id: str) -> None:
+        """Include or leave out one item."""
+        self.vm.toggle(deficiency_id)
+        self.render()
+
+    def preview(self) -> None:
+        """Render the draft notice and show its first page."""
+        self.pages = self.vm.preview_pages(PREVIEW_DIR)
+        self.page = 0
+        self.show_page()
+
+    def turn(self, step: int) -> None:
+        """Next / previous page (buttons, no swipe needed)."""
+        if self.pages:
+            self.page = max(0, min(len(self.pages) - 1, self.page + step))
+            self.show_page()
+
+    def show_page(self) -> None:
+        """Show the current page image."""
+        self.page_source = str(self.pages[self.page])
+        self.page_text = f"draft page {self.page + 1} of {len(self.pages)}"
+
+    def issue(self) -> None:
+        """Issue the chosen items."""
+        out_dir = Path(App.get_running_app().store.path).parent / "notices"
+        path = self.vm.issue(self.ids.issued_by.text, out_dir)
+        self.message = self.vm.message
+        if path is not None:
+            self.pages = self.vm.preview_pages(PREVIEW_DIR, path.read_bytes())
+            self.page = 0
+            self.show_page()
+            self.page_text = f"ISSUED page 1 of {len(self.pages)}"
+            self.vm = NoticeViewModel(App.get_running_app().store, App.get_running_app().site_id)
+        self.render()
+
+    def export(self, notice_id: str) -> None:
+        """Copy an issued notice's PDF into the export folder (to share)."""
+        try:
+            self.vm.export(notice_id, Path(self.ids.export_dir.text).expanduser())
+        except (OSError, ValueError) as exc:
+            self.message = f"Not exported: {exc}"
+            return
+        self.message = self.vm.message

@@ -1,0 +1,174 @@
+"""The site screen (site.kv): beams found by mark / level / status with counts, open deficiencies, the visit.
+
+The open-deficiency list keeps its own part of the screen at every size, most urgent first; the
+visit and the raise-by-hand forms open over the screen so they never squeeze it.
+"""
+
+from __future__ import annotations
+
+from typing import Any
+
+from kivy.app import App
+from kivy.factory import Factory
+from kivy.metrics import dp
+from kivy.properties import StringProperty
+from kivy.uix.label import Label
+from kivy.uix.popup import Popup
+from kivy.uix.screenmanager import Screen
+
+from core.results import PRIORITY_ORDER
+from mobile.screens.widgets import big_button, status_colour
+from mobile.viewmodels import SiteViewModel
+from mobile.viewmodels.common import PRIORITY_LABELS, STATUS_WORDS, status_label
+from mobile.viewmodels.site import PINNED
+
+ALL_LEVELS, ALL_STATUSES = "all levels", "all statuses"
+SHOWN_AT_MOST = 60  # rows built at once; more asks the reviewer to narrow the search
+
+
+class SiteScreen(Screen):
+    """A site: beams by level and gridline with status words and shapes; deficiencies by priority."""
+
+    title = StringProperty("")
+    visit_text = StringProperty("")
+    message = StringProperty("")
+    counts_text = StringProperty("")
+    unraised_text = StringProperty("")
+
+    def on_kv_post(self, base_widget: Any) -> None:
+        """Build the visit and raise-by-hand forms once (opened over the screen when asked)."""
+        self.visit_form = Factory.VisitForm()
+        self.hand_form = Factory.HandForm()
+        self.hand_form.ids.hand_priority.values = [PRIORITY_LABELS[p] for p in PRIORITY_ORDER]
+        self.hand_form.ids.hand_priority.text = PRIORITY_LABELS["before_loading"]
+        self.visit_form.ids.start_visit.bind(on_release=lambda *_: self.start_visit())
+        self.hand_form.ids.hand_raise.bind(on_release=lambda *_: self.raise_by_hand())
+        self._popup: Popup | None = None
+        self._rows: list[tuple[str, dict[str, Any], str]] = []
+
+    def on_pre_enter(self, *args: Any) -> None:
+        """Refresh from storage."""
+        app = App.get_running_app()
+        self.vm = SiteViewModel(app.store, app.site_id)
+        site = app.store.site(app.site_id)
+        self.title = ("DEMO  ·  " if site.demo else "") + f"{site.name}  ·  {site.address}"
+        self.visit_text = self.vm.visit_line()
+        self._rows = self.vm.beam_rows()
+        self.counts_text = self.vm.counts(self._rows)
+        self.ids.level_filter.values = [ALL_LEVELS, *self.vm.levels(self._rows)]
+        self.ids.status_filter.values = [ALL_STATUSES, *(status_label(s) for s in STATUS_WORDS)]
+        self.show_beams()
+        self.show_deficiencies()
+        self.unraised_text = self.vm.unraised_warning()
+
+    def filter_changed(self) -> None:
+        """Search text or a filter changed: redraw the beam list."""
+        if hasattr(self, "vm"):
+            self.show_beams()
+
+    def show_beams(self) -> None:
+        """The beams that match the search and filters, grouped by level (at most SHOWN_AT_MOST rows)."""
+        app = App.get_running_app()
+        level = "" if self.ids.level_filter.text == ALL_LEVELS else self.ids.level_filter.text
+        status = next((s for s in STATUS_WORDS if status_label(s) == self.ids.status_filter.text), "")
+        groups = self.vm.groups(self.ids.search.text, level, status, rows=self._rows)
+        box = self.ids.beam_list
+        box.clear_widgets()
+        shown = 0
+        total = sum(len(rows) for where, rows in groups if where != PINNED)
+        for where, rows in groups:
+            if shown >= SHOWN_AT_MOST:
+                break
+            box.add_widget(
+                Factory.Heading(
+                    text=where if where == PINNED else f"Level: {where}", font_size="19sp", height="11mm", shorten=True
+                )
+            )
+            for beam_id, name, label in rows[: SHOWN_AT_MOST - shown]:
+                box.add_widget(
+                    big_button(
+                        f"{label}      {name}", lambda _b, bid=beam_id: app.open_beam(bid), bg=status_colour(label)
+                    )
+                )
+                shown += where != PINNED
+        if total == 0:
+            box.add_widget(Factory.Wrapped(text="No beam matches."))
+        elif total > shown:
+            box.add_widget(Factory.Wrapped(text=f"{total - shown} more: narrow the search by mark, level or status."))
+
+    def show_deficiencies(self) -> None:
+        """Open deficiencies by priority, IMMEDIATE first (the list has its own part of the screen)."""
+        app = App.get_running_app()
+        dbox = self.ids.deficiency_list
+        dbox.clear_widgets()
+        groups = self.vm.deficiency_groups()
+        if not groups:
+            dbox.add_widget(Label(text="None open.", color=app.theme_fg, size_hint_y=None, height=dp(40)))
+        for label, rows in groups:
+            dbox.add_widget(Factory.Heading(text=label, font_size="18sp", height="9mm", shorten=True))
+            for did, line in rows:
+                dbox.add_widget(big_button(line, lambda _b, d=did: app.open_deficiency(d), font_size="16sp"))
+
+    def edit_site(self) -> None:
+        """Edit this site and its design basis (on the sites screen's form)."""
+        app = App.get_running_app()
+        app.go("sites")
+        app.root.get_screen("sites").edit_site(app.site_id)
+
+    def new_beam(self) -> None:
+        """Log a new beam and open its form."""
+        App.get_running_app().open_beam(self.vm.new_beam())
+
+    def _open(self, title: str, form: Any) -> None:
+        if form.parent is not None:
+            form.parent.remove_widget(form)
+        popup = Popup(title=title, content=form, size_hint=(0.94, 0.94), title_size="20sp", auto_dismiss=False)
+        form.ids.cancel.unbind(on_release=self._close)
+        form.ids.cancel.bind(on_release=self._close)
+        self._popup = popup
+        popup.open()
+
+    def _close(self, *_: Any) -> None:
+        if self._popup is not None:
+            self._popup.dismiss()
+            self._popup = None
+
+    def open_visit(self) -> None:
+        """Open the visit form (reviewer, weather, scope)."""
+        self._open("Start a visit", self.visit_form)
+
+    def open_hand(self) -> None:
+        """Open the form for the reviewer's own observation."""
+        self._open("Raise a deficiency by hand", self.hand_form)
+
+    def start_visit(self) -> None:
+        """Start a visit now."""
+        ids = self.visit_form.ids
+        if (
+            self.vm.start_visit(
+                ids.visit_reviewer.text, ids.visit_weather.text, ids.visit_scope.text, ids.visit_not_scope.text
+            )
+            is None
+        ):
+            ids.visit_message.text = "\n".join(self.vm.errors.values())
+            return
+        ids.visit_message.text = ""
+        self.visit_text = self.vm.visit_line()
+        self._close()
+
+    def raise_by_hand(self) -> None:
+        """Raise the reviewer's own observation as a numbered deficiency."""
+        ids = self.hand_form.ids
+        priority = next((p for p, w in PRIORITY_LABELS.items() if w == ids.hand_priority.text), ids.hand_priority.text)
+        number = self.vm.raise_by_hand(
+            ids.hand_location.text, ids.hand_description.text, ids.hand_action.text, priority
+        )
+        if number is None:
+            ids.hand_message.text = "\n".join(self.vm.errors.values())
+            return
+        ids.hand_message.text = ""
+        self.message = f"Raised {number}"
+        for k in ("hand_location", "hand_description", "hand_action"):
+            ids[k].text = ""
+        self._close()
+        self.on_pre_enter()

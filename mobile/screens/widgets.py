@@ -1,0 +1,264 @@
+"""Shared widgets of the tablet screens (their kv rules are in widgets.kv beside this module)."""
+
+from __future__ import annotations
+
+import fnmatch
+from pathlib import Path
+from typing import Any
+
+from kivy.app import App
+from kivy.clock import Clock
+from kivy.metrics import dp
+from kivy.properties import BooleanProperty, ListProperty, StringProperty
+from kivy.uix.boxlayout import BoxLayout
+from kivy.uix.button import Button
+from kivy.uix.gridlayout import GridLayout
+from kivy.uix.label import Label
+from kivy.uix.popup import Popup
+from kivy.uix.scrollview import ScrollView
+
+from mobile.units import parse_length_mm
+
+# ';' (next span) sits in the top row, far from OK; no ',' (the decimal point is '.'); C clears
+KEYPAD_KEYS = ("7", "8", "9", ";", "4", "5", "6", "C", "1", "2", "3", "'", "0", ".", "/", '"', "␣", "m", "mm", "⌫")
+
+
+def big_button(text: str, on_release: Any, **kw: Any) -> Button:
+    """A 15 mm button in the theme's colours (for rows built in Python)."""
+    app = App.get_running_app()
+    b = Button(
+        text=text,
+        font_size=kw.pop("font_size", "19sp"),
+        size_hint_y=None,
+        height=kw.pop("height", "15mm"),
+        background_normal="",
+        background_color=kw.pop("bg", app.theme_button),
+        color=app.theme_button_fg,
+        halign=kw.pop("halign", "left"),
+        valign="middle",
+        **kw,
+    )
+    b.bind(size=lambda w, s: setattr(w, "text_size", (s[0] - dp(16), None)))
+    b.bind(on_release=on_release)
+    return b
+
+
+def info_popup(title: str, lines: list[str]) -> Popup:
+    """A readable popup with a Close button (used for recheck traces)."""
+    body = BoxLayout(orientation="vertical", spacing=dp(8), padding=dp(8))
+    scroll = ScrollView(do_scroll_x=False)
+    text = Label(
+        text="\n".join(lines), font_size="17sp", color=(1, 1, 1, 1), halign="left", valign="top", size_hint_y=None
+    )
+    text.bind(
+        width=lambda w, v: setattr(w, "text_size", (v, None)), texture_size=lambda w, s: setattr(w, "height", s[1])
+    )
+    scroll.add_widget(text)
+    body.add_widget(scroll)
+    popup = Popup(title=title, content=body, size_hint=(0.9, 0.85), title_size="20sp")
+    body.add_widget(big_button("Close", lambda *_: popup.dismiss(), halign="center"))
+    popup.open()
+    return popup
+
+
+def choose_file(title: str, on_choice: Any, filters: list[str] | None = None) -> Popup:
+    """Pick a file with gloves: 15 mm rows, a folder opens on one tap, a file is chosen on one tap."""
+    patterns = [f.lower() for f in (filters or ["*"])]
+    body = BoxLayout(orientation="vertical", spacing=dp(8), padding=dp(8))
+    where = Label(font_size="17sp", size_hint_y=None, height="11mm", halign="left", valign="middle", shorten=True)
+    where.bind(size=lambda w, s: setattr(w, "text_size", s))
+    rows = BoxLayout(orientation="vertical", spacing=dp(6), size_hint_y=None)
+    rows.bind(minimum_height=rows.setter("height"))
+    scroll = ScrollView(do_scroll_x=False)
+    scroll.add_widget(rows)
+    body.add_widget(where)
+    body.add_widget(scroll)
+    popup = Popup(title=title, content=body, size_hint=(0.92, 0.92), title_size="20sp")
+
+    def show(folder: Path) -> None:
+        where.text = str(folder)
+        rows.clear_widgets()
+        if folder.parent != folder:
+            rows.add_widget(big_button("⬆  Up one folder", lambda *_: show(folder.parent)))
+        try:
+            entries = sorted(folder.iterdir(), key=lambda e: (not e.is_dir(), e.name.lower()))
+        except OSError as exc:
+            rows.add_widget(big_button(f"Cannot open this folder: {exc.strerror}", lambda *_: None))
+            return
+        for e in entries:
+            if e.name.startswith("."):
+                continue
+            if e.is_dir():
+                rows.add_widget(big_button(f"▸  {e.name}", lambda _b, d=e: show(d)))
+            elif any(fnmatch.fnmatch(e.name.lower(), pat) for pat in patterns):
+                rows.add_widget(big_button(e.name, lambda _b, f=e: (popup.dismiss(), on_choice(str(f)))))
+        scroll.scroll_y = 1
+
+    body.add_widget(big_button("Cancel", lambda *_: popup.dismiss(), halign="center"))
+    show(Path.home())
+    popup.open()
+    return popup
+
+
+class TextField(BoxLayout):
+    """Label, text input (with optional standard-size picks and keypad) and its message, bound to a name."""
+
+    name = StringProperty("")
+    label = StringProperty("")
+    hint = StringProperty("")
+    error = StringProperty("")
+    echo = StringProperty("")  # what the stored value was understood as ('= 7200 mm = 23' 7 7/16"')
+    suggestion = StringProperty("")  # a value to offer when the entry was refused ('3.9 m')
+    quick = BooleanProperty(False)
+    keypad = BooleanProperty(False)
+    quick_values = ListProperty([])
+    screen: Any = None
+    loading = False
+
+    def typed(self, text: str) -> None:
+        """Text changed: save after a short pause (the screen debounces)."""
+        if self.screen is not None and not self.loading:
+            self.screen.typed(self.name, text)
+
+    def commit(self) -> None:
+        """Enter or leaving the field: save now."""
+        if self.screen is not None and not self.loading:
+            self.screen.commit(self.name)
+
+    def accept_suggestion(self) -> None:
+        """The reviewer took the offered reading ('3.9 m'): enter it as if typed."""
+        if self.suggestion and not self.loading:
+            self.ids.input.text = self.suggestion
+            self.commit()
+
+    def quick_opened(self, spinner: Any) -> None:
+        """The standard sizes opened: show the one nearest the field's value (not the top of a long list)."""
+        try:
+            current = parse_length_mm(self.ids.input.text)
+        except ValueError:
+            return
+        options = [w for w in spinner._dropdown.container.children if getattr(w, "text", "")]
+        if not options:
+            return
+        near = min(options, key=lambda w: abs(float(w.text) - current) if w.text.replace(".", "").isdigit() else 1e9)
+        self.quick_near = near.text
+        Clock.schedule_once(lambda _dt: spinner._dropdown.scroll_to(near, animate=False))
+
+    def pick_quick(self, text: str) -> None:
+        """A standard size was picked."""
+        if text and text != "std ▾" and not self.loading:
+            self.ids.input.text = text
+            self.commit()
+            self.ids.quick.text = "std ▾"
+
+    def open_keypad(self) -> Popup:
+        """Large on-screen keypad for gloved hands (mm, m, feet-inches).
+
+        It opens with the field's text and a clear key; OK enters it; dismissing it any other way
+        (Cancel keeps the field as it was, a tap outside keeps what was typed and enters it).
+        """
+        grid = GridLayout(cols=4, spacing=dp(6), padding=dp(6))
+        shown = Label(text=self.ids.input.text, font_size="28sp", size_hint_y=None, height="15mm")
+        body = BoxLayout(orientation="vertical", spacing=dp(6))
+        body.add_widget(shown)
+        body.add_widget(grid)
+        popup = Popup(title=self.label, content=body, size_hint=(0.6, 0.92), title_size="20sp")
+        state = {"done": False}
+
+        def enter(*_: Any) -> None:
+            if not state["done"]:
+                state["done"] = True
+                if shown.text != self.ids.input.text:
+                    self.ids.input.text = shown.text
+                self.commit()
+
+        def press(key: str) -> None:
+            if key == "C":
+                shown.text = ""
+            elif key == "⌫":
+                shown.text = shown.text[:-1]
+            else:
+                shown.text += " " if key == "␣" else key
+
+        def cancel(*_: Any) -> None:
+            state["done"] = True
+            popup.dismiss()
+
+        for key in KEYPAD_KEYS:
+            grid.add_widget(Button(text=key, font_size="26sp", on_release=lambda _b, k=key: press(k)))
+        row = BoxLayout(size_hint_y=None, height="15mm", spacing=dp(12))
+        row.add_widget(big_button("Cancel", cancel, halign="center", size_hint_x=0.4))
+        row.add_widget(big_button("OK", lambda *_: popup.dismiss(), halign="center"))
+        body.add_widget(row)
+        popup.bind(on_dismiss=enter)  # OK, or a tap outside: what was typed is kept and entered
+        self.keypad_popup, self.keypad_shown = popup, shown
+        popup.open()
+        return popup
+
+
+class PickField(BoxLayout):
+    """Label and a picker (spinner: tap, then tap a choice), bound to a name."""
+
+    name = StringProperty("")
+    label = StringProperty("")
+    error = StringProperty("")
+    values = ListProperty([])
+    screen: Any = None
+    loading = False
+
+    def picked(self, text: str) -> None:
+        """A choice was made: save it now."""
+        if self.screen is not None and not self.loading:
+            self.screen.set_now(self.name, text)
+
+
+STATUS_COLOURS = {
+    "OK": (0.1, 0.4, 0.18, 1),
+    "DEFICIENT": (0.62, 0.3, 0.0, 1),
+    "NOT PERMITTED": (0.45, 0.05, 0.3, 1),
+    "NOT ESTABLISHED": (0.7, 0.0, 0.0, 1),
+    "NOT YET CHECKED": (0.35, 0.35, 0.38, 1),
+}
+
+
+def status_colour(label: str) -> tuple[float, float, float, float]:
+    """Background for a status label (the label's word and shape carry the meaning; colour only helps)."""
+    return next(
+        (c for word, c in STATUS_COLOURS.items() if label.split(" ", 1)[1].startswith(word)),
+        STATUS_COLOURS["NOT YET CHECKED"],
+    )
+
+
+def restraint_colour(state: str) -> tuple[float, float, float, float]:
+    """Background of a restraint button: yes / no / not visible (the button's words carry the meaning)."""
+    return {"yes": (0.55, 0.85, 0.55, 1), "no": (0.75, 0.05, 0.05, 1), "not_visible": (1, 0.8, 0.3, 1)}[state]
+
+
+class UtilBar(BoxLayout):
+    """A utilisation bar with its number; 'OVER' in words as well as colour. ``show(util)`` updates it."""
+
+    def __init__(self, **kwargs: Any):
+        from kivy.graphics import Color, Line, Rectangle
+
+        super().__init__(size_hint_y=None, height="6mm", **kwargs)
+        self.bar = Label(font_size="15sp", bold=True, color=(0, 0, 0, 1))
+        self.rest = Label()
+        with self.bar.canvas.before:
+            self.fill = Color(0.6, 0.82, 0.6, 1)
+            self.rect = Rectangle()
+            Color(0, 0, 0, 1)
+            self.outline = Line(width=1)
+        self.bar.bind(pos=self._place, size=self._place)
+        self.add_widget(self.bar)
+        self.add_widget(self.rest)
+
+    def _place(self, w: Any, _v: Any) -> None:
+        self.rect.pos, self.rect.size = w.pos, w.size
+        self.outline.rectangle = (*w.pos, *w.size)
+
+    def show(self, util: float) -> None:
+        """Set the value: bar length min(util, 1) (at least a tenth, to hold the number)."""
+        self.bar.text = f"{util:.2f}" + ("  OVER" if util > 1 else "")
+        self.bar.size_hint_x = max(min(util, 1.0), 0.1)
+        self.rest.size_hint_x = max(1.0 - max(util, 0.1), 0.0)
+        self.fill.rgba = (0.95, 0.35, 0.25, 1) if util > 1 else (0.6, 0.82, 0.6, 1)

@@ -1,0 +1,145 @@
+"""Lengths as typed on site: one parser, plausible ranges, nothing read in a unit the reviewer did not mean.
+
+Conversions are checked against the international inch, 1 in = 25.4 mm exactly (the 1959
+international yard and pound agreement); the feet-inches spellings are common practice on
+North American tape measures and drawings.
+"""
+
+import json
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+
+from mobile.demo.run import load_demo
+from mobile.units import LengthRefused, echo_length, feet_inches, parse_length, read_length, split_spans
+from mobile.viewmodels import BeamFormViewModel
+from storage import Store
+
+ROOT = Path(__file__).resolve().parents[2]
+INCH = 25.4  # mm, exact
+
+
+@pytest.mark.parametrize(
+    "text,mm",
+    [
+        ("23' 7 1/2\"", (23 * 12 + 7.5) * INCH),
+        ("23'-7 1/2\"", (23 * 12 + 7.5) * INCH),
+        ('7-1/2"', 7.5 * INCH),
+        ('7½"', 7.5 * INCH),
+        ("23 ft 7.5 in", (23 * 12 + 7.5) * INCH),
+        ("23′ 7″", (23 * 12 + 7) * INCH),
+        ('5 1/8"', 5.125 * INCH),
+        ("3,9 m", 3900.0),  # a decimal comma is a decimal point
+        ("3.9 m", 3900.0),
+        ("456 mm", 456.0),
+        ("45.6 cm", 456.0),
+    ],
+)
+def test_spellings_of_a_length(text, mm):
+    value, unit_typed = parse_length(text)
+    assert value == pytest.approx(mm) and unit_typed
+
+
+def test_a_bare_number_is_read_in_mm_and_says_no_unit_was_typed():
+    assert parse_length("7200") == (7200.0, False)
+
+
+@pytest.mark.parametrize(
+    "kind,text,suggestion",
+    [
+        ("span_mm", "3.9", "3.9 m"),  # the span typed in metres without a unit
+        ("span_mm", "3,9", "3.9 m"),
+        ("spacing_mm", "2.4", "2.4 m"),
+    ],
+)
+def test_a_metre_value_typed_without_unit_is_refused_with_a_question(kind, text, suggestion):
+    with pytest.raises(LengthRefused, match="Did you mean") as err:
+        read_length(kind, text)
+    assert err.value.suggestion == suggestion
+    assert "3.9 mm" in str(err.value) or "2.4 mm" in str(err.value)  # what was understood
+
+
+@pytest.mark.parametrize(
+    "kind,text,allowed",
+    [
+        ("b_mm", "400", "25 mm to 365 mm"),
+        ("d_mm", "3 m", "38 mm to 2.128 m"),
+        ("span_mm", "41 m", "300 mm to 40 m"),
+    ],
+)
+def test_outside_the_plausible_range_is_refused_naming_the_range(kind, text, allowed):
+    with pytest.raises(LengthRefused, match=allowed):
+        read_length(kind, text)
+
+
+def test_spacing_cannot_exceed_the_span():
+    with pytest.raises(LengthRefused, match="100 mm to 7.2 m"):
+        read_length("spacing_mm", "8 m", high_mm=7200)
+
+
+def test_spans_are_separated_by_semicolons_never_commas():
+    assert split_spans("7,2 m; 23' 7 1/2\"") == ["7,2 m", "23' 7 1/2\""]
+    assert split_spans("3,9") == ["3,9"]
+
+
+@pytest.mark.parametrize(
+    "mm,text",
+    [(7200.9, "23' 7 1/2\""), (190.5, '7 1/2"'), (3657.6, "12' 0\""), (130.175, '5 1/8"')],
+)
+def test_feet_inches_echo(mm, text):
+    assert feet_inches(mm) == text
+
+
+def test_echo_names_both_units():
+    assert echo_length(7200.9) == "7200.9 mm = 23' 7 1/2\""
+
+
+@pytest.fixture
+def form(tmp_path):
+    store = Store(tmp_path / "u.db")
+    site_id = load_demo(store)
+    beam_id = next(i for i, r in store.beams(site_id) if r["mark"] == "RB-1")
+    return BeamFormViewModel(store, site_id, beam_id)
+
+
+def test_form_never_rechecks_a_span_it_misunderstood(form):
+    before = form.record()["spans_mm"]
+    assert not form.set_field("spans", "3.9")
+    assert form.record()["spans_mm"] == before  # the value in force is unchanged
+    assert form.suggestions["spans"] == "3.9 m" and "Did you mean 3.9 m?" in form.errors["spans"]
+    assert form.set_field("spans", form.suggestions["spans"])
+    assert form.record()["spans_mm"] == [3900.0]
+    assert form.form()["spans"] == "3900 mm"
+    assert form.echo("spans") == "= 3900 mm = 12' 9 9/16\""  # 3900 / 25.4 = 153.54 in = 12 ft 9.54 in
+
+
+def test_form_purlins_in_metres_without_unit_are_refused(form):
+    kl = form.refresh().bending[0].kl
+    assert not form.set_field("purlin_spacing_mm", "2.4")
+    assert form.refresh().bending[0].kl == kl and "Did you mean 2.4 m?" in form.errors["purlin_spacing_mm"]
+
+
+def test_form_feet_inches_echoed_with_unit(form):
+    assert form.set_field("spans", "23' 7 1/2\"")
+    assert form.form()["spans"] == "7200.9 mm"
+    assert form.echo("spans") == "= 7200.9 mm = 23' 7 1/2\""
+
+
+def _check(tmp_path, **changes):
+    beam = json.loads((ROOT / "examples" / "beam_r2_b4.json").read_text())
+    beam.update(changes)
+    path = tmp_path / "b.json"
+    path.write_text(json.dumps(beam))
+    return subprocess.run(
+        [sys.executable, "-m", "mobile.cli", "check", str(path)], capture_output=True, text=True, cwd=ROOT, timeout=120
+    )
+
+
+def test_cli_json_uses_the_same_ranges(tmp_path):
+    proc = _check(tmp_path, spans_mm=[3.9])
+    assert proc.returncode == 2 and "spans_mm[0] = 3.9 mm" in proc.stderr and "300 mm to 40 m" in proc.stderr
+    top = json.loads((ROOT / "examples" / "beam_r2_b4.json").read_text())["top_edge"]
+    proc = _check(tmp_path, top_edge=dict(top, spacing_mm=2.4))
+    assert proc.returncode == 2 and "top_edge.spacing_mm = 2.4 mm" in proc.stderr
