@@ -83,6 +83,8 @@ def transaction(db: sqlite_utils.Database) -> Iterator[sqlite_utils.Database]:
     try:
         yield db
     except BaseException:
-        db.execute("ROLLBACK")
+        # SQLite has already rolled back after some errors (a full disk): keep the real error then
+        if db.conn.in_transaction:
+            db.execute("ROLLBACK")
         raise
     db.execute("COMMIT")
