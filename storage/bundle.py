@@ -153,17 +153,23 @@ def export_bundle(
     mbytes = canonical(manifest).encode()
     mac = hmac.new(store.firm_key, mbytes, hashlib.sha256).hexdigest()
     out = Path(out)
+    if not out.parent.is_dir():
+        raise FileNotFoundError(2, "the folder does not exist", str(out.parent))
     tell(0.8, f"writing {out.name}")
     tmp = out.with_name(out.name + ".part")
-    with zipfile.ZipFile(tmp, "w", compression=zipfile.ZIP_DEFLATED) as z:
-        z.writestr("manifest.json", mbytes)
-        z.writestr("manifest.mac", mac)
-        z.writestr("ops.jsonl", body)
-        for b in blobs:
-            z.write(store.blob_path(str(b["sha256"])), f"blobs/{b['sha256']}")
-    with open(tmp, "rb") as fh:
-        os.fsync(fh.fileno())
-    os.replace(tmp, out)
+    try:
+        with zipfile.ZipFile(tmp, "w", compression=zipfile.ZIP_DEFLATED) as z:
+            z.writestr("manifest.json", mbytes)
+            z.writestr("manifest.mac", mac)
+            z.writestr("ops.jsonl", body)
+            for b in blobs:
+                z.write(store.blob_path(str(b["sha256"])), f"blobs/{b['sha256']}")
+        with open(tmp, "rb") as fh:
+            os.fsync(fh.fileno())
+        os.replace(tmp, out)
+    except OSError:
+        tmp.unlink(missing_ok=True)  # a full disk leaves no partial bundle behind
+        raise
     store.record_sent(peer)
     with transaction(store.db):
         store.db.execute(
@@ -402,9 +408,39 @@ def import_bundle(store: Store, path: str | Path, progress: Progress | None = No
         _log(store, path, v.sha, "held", reason, len(v.ops), 0)
         return ImportReport("held", ops_total=len(v.ops), reason=reason)
     warning = _clock_warning(store, v.ops)
-    for content in v.blobs.values():
-        store.write_blob_file(content)
-    before = store.db.execute("SELECT count(*) FROM conflict").fetchone()[0]
+    created: list[Path] = []
+    committed: list[int] = []
+    try:
+        for sha, content in v.blobs.items():
+            if not store.blob_path(sha).exists():
+                store.write_blob_file(content)
+                created.append(store.blob_path(sha))
+        before = store.db.execute("SELECT count(*) FROM conflict").fetchone()[0]
+        new = _apply_batches(store, v, tell, committed)
+    except BaseException:
+        if not committed:  # nothing committed (a full disk, a kill signal): the blobs this import wrote go too
+            for path_created in created:
+                path_created.unlink(missing_ok=True)
+        raise
+    conflicts = store.db.execute("SELECT count(*) FROM conflict").fetchone()[0] - before
+    _log(store, path, v.sha, "applied", warning, len(v.ops), new)
+    tell(1.0, f"merged {new:,} new changes")
+    return ImportReport(
+        "applied",
+        ops_total=len(v.ops),
+        ops_new=new,
+        blobs_new=len(v.blobs),
+        conflicts_new=conflicts,
+        origins=v.manifest["ranges"],
+        warning=warning,
+    )
+
+
+def _apply_batches(store: Store, v: _Verified, tell: Progress, committed: list[int]) -> int:
+    """Merge the verified ops in transactions of at most BATCH_OPS ops; the number of new ops.
+
+    ``committed`` receives the start of each batch once it has committed.
+    """
     new = 0
     total = len(v.ops)
     own = [op.seq for op in v.ops if op.origin == store.device_id]
@@ -437,18 +473,8 @@ def import_bundle(store: Store, path: str | Path, progress: Progress | None = No
                     store.db.execute(
                         "INSERT OR REPLACE INTO peer_cursor VALUES (?, ?, ?)", [peer, origin, min(seq, top)]
                     )
-    conflicts = store.db.execute("SELECT count(*) FROM conflict").fetchone()[0] - before
-    _log(store, path, v.sha, "applied", warning, len(v.ops), new)
-    tell(1.0, f"merged {new:,} new changes")
-    return ImportReport(
-        "applied",
-        ops_total=len(v.ops),
-        ops_new=new,
-        blobs_new=len(v.blobs),
-        conflicts_new=conflicts,
-        origins=v.manifest["ranges"],
-        warning=warning,
-    )
+        committed.append(start)
+    return new
 
 
 def _clock_warning(store: Store, ops: list[Op]) -> str:

@@ -14,6 +14,7 @@ from core.records import Deficiency, IssuedNotice, Site, Stage, StatusEvent, Vis
 from core.results import PRIORITY_ORDER
 from storage.clock import hlc_receive, hlc_tick, uuid7
 from storage.db import PROJECTIONS, SCHEMA_VERSION, SET_ENTITIES, connect, transaction
+from storage.files import write_atomic
 from storage.oplog import IntegrityError, Op, all_ops, apply_op, canonical, insert_op
 
 BEAM_FIELDS = tuple(Beam.model_fields)
@@ -102,12 +103,7 @@ class Store:
             "hlc": max(int(meta["hlc"]), int(mark.get("hlc", 0))),
             "peers": peers,
         }
-        tmp = path.with_name(path.name + ".part")
-        with open(tmp, "w", encoding="utf-8") as fh:
-            fh.write(json.dumps(mark))
-            fh.flush()
-            os.fsync(fh.fileno())
-        os.replace(tmp, path)
+        write_atomic(path, json.dumps(mark).encode())
 
     def _read_mark(self) -> dict[str, Any]:
         path = self.sent_mark_path
@@ -578,11 +574,24 @@ class Store:
         return sorted(items, key=lambda n: (n.number, n.revision))
 
     def find_issued_by_hash(self, sha: str) -> IssuedNotice | None:
-        """The issued notice whose PDF has this SHA-256, if any."""
-        for row in self.db.execute("SELECT id, data FROM issued_notice").fetchall():
-            data = json.loads(row[1])
-            if data["pdf_sha256"] == sha:
-                return IssuedNotice(id=row[0], **data)
+        """The issued notice whose PDF has this SHA-256, if any, read from the op log (not the table).
+
+        The ``issued_notice`` table is a projection that anyone with the file can edit; the notice's
+        insert op is what was synced to the office, so it decides (and the table must agree with it).
+        """
+        rows = self.db.execute(
+            "SELECT record_id, payload FROM op WHERE entity='issued_notice' AND kind='insert' "
+            "AND json_extract(payload, '$.pdf_sha256') = ? ORDER BY origin, seq",
+            [sha],
+        ).fetchall()
+        for record_id, payload in rows:
+            data = json.loads(payload)
+            if self._get("issued_notice", record_id) != data:
+                raise IntegrityError(
+                    f"issued notice {data.get('number')} in this database differs from its logged record "
+                    "(the database was edited): the log is kept, the table is not trusted"
+                )
+            return IssuedNotice(id=record_id, **data)
         return None
 
     # -- sync bookkeeping ---------------------------------------------------------------------

@@ -256,3 +256,21 @@ def test_entry_larger_than_declared_refused(tmp_path):
     _write(a, tmp_path / "a.zip", manifest, z.read("ops.jsonl"), {f"blobs/{sha}": z.read(f"blobs/{sha}")})
     with pytest.raises(BundleRefused, match="limit 10"):
         verify_bundle(b, (tmp_path / "a.zip").read_bytes())
+
+
+# -- 6. verifying a notice against the log --------------------------------------------------------
+def test_verify_uses_the_log_not_the_edited_table(tmp_path):
+    import hashlib
+
+    from storage.oplog import IntegrityError
+
+    s = Store(tmp_path / "s.db")
+    site = s.create_site(name="Verify")
+    original, altered = b"%PDF-1.4 original notice", b"%PDF-1.4 altered notice"
+    notice = s.issue_notice(site.id, "P-FR-1", original, [], "R", "2026-01-01")
+    assert s.find_issued_by_hash(hashlib.sha256(original).hexdigest()).number == "P-FR-1"
+    fake = hashlib.sha256(altered).hexdigest()
+    s.db.execute("UPDATE issued_notice SET data = json_set(data, '$.pdf_sha256', ?) WHERE id = ?", [fake, notice.id])
+    assert s.find_issued_by_hash(fake) is None  # the altered PDF is not an issued notice
+    with pytest.raises(IntegrityError, match="differs from its logged record"):
+        s.find_issued_by_hash(hashlib.sha256(original).hexdigest())
