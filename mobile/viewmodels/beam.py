@@ -25,7 +25,7 @@ from core.recheck import recheck
 from core.results import FactorTrace, Recheck
 from mobile.units import parse_length_mm
 from mobile.viewmodels.common import line_loads_kn_m, status_label, validation_message
-from storage import Store
+from storage import StorageError, Store
 
 LENGTH_FIELDS = {"b_mm", "d_mm", "overhang_left_mm", "overhang_right_mm", "purlin_spacing_mm", "bottom_spacing_mm"}
 LOAD_FIELDS = ("dead_kn_m", "live_kn_m", "snow_kn_m")
@@ -244,14 +244,24 @@ class BeamFormViewModel:
             if drafts != (rec.get("drafts") or {}):
                 changes["drafts"] = drafts
             if changes:
+                if not self._save(name, changes):
+                    return False
                 self._undo.append({k: rec.get(k) for k in changes})
-                self.store.update_beam(self.beam_id, changes)
             self.refresh()
             return True
         if drafts.get(name) != text:  # keep what was typed, even though it is refused
             drafts[name] = text
-            self.store.update_beam(self.beam_id, {"drafts": drafts})
+            self._save(name, {"drafts": drafts})
         return False
+
+    def _save(self, name: str, changes: dict[str, Any]) -> bool:
+        """Save; if the database is busy (a sync) or cannot be written, say so at the field (the text stays)."""
+        try:
+            self.store.update_beam(self.beam_id, changes)
+        except StorageError as exc:
+            self.errors[name] = f"NOT SAVED: {exc}"
+            return False
+        return True
 
     def undo(self) -> bool:
         """Put back the values before the last accepted change (saved as a new edit)."""
