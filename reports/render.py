@@ -109,7 +109,8 @@ def _styles() -> dict[str, ParagraphStyle]:
 
 
 def _grid(rows: list[list[Any]], widths: list[float], shade_first_col: bool = True) -> Table:
-    t = Table(rows, colWidths=widths)
+    # splitInRow: a cell taller than a page (a long description) continues on the next page
+    t = Table(rows, colWidths=widths, splitInRow=1)
     style = [
         ("GRID", (0, 0), (-1, -1), 0.4, colors.grey),
         ("VALIGN", (0, 0), (-1, -1), "TOP"),
