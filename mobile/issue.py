@@ -32,6 +32,9 @@ def observed_text(record: dict[str, object]) -> str:
     if isinstance(top, dict) and top.get("braced_by") != "none":
         text += f"; top edge {top['braced_by']}" + (f" at {top['spacing_mm']:g} mm" if top.get("spacing_mm") else "")
         text += "" if top.get("fastened", True) else " (not fastened)"
+    notes = record.get("notes")
+    if isinstance(notes, str) and notes.strip():
+        text += f"; beam notes: {notes.strip()}"  # what the reviewer wrote at the beam reaches the notice
     return text
 
 
