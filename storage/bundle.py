@@ -120,7 +120,7 @@ def export_bundle(
         cursor = dict(store.db.execute("SELECT origin, seq FROM peer_cursor WHERE peer=?", [peer]).fetchall())
     rows = store.db.execute(f"SELECT {', '.join(OP_KEYS)} FROM op ORDER BY origin, seq").fetchall()
     ops = [dict(zip(OP_KEYS, r, strict=True)) for r in rows]
-    ops = [o for o in ops if o["seq"] > cursor.get(o["origin"], 0)]
+    ops = _contiguous([o for o in ops if o["seq"] > cursor.get(o["origin"], 0)])
     lines = []
     ranges: dict[str, list[int]] = {}
     shas: set[str] = set()
@@ -182,6 +182,24 @@ def export_bundle(
                 store.db.execute("INSERT OR REPLACE INTO peer_cursor VALUES (?, ?, ?)", [peer, origin, last])
     tell(1.0, f"wrote {len(lines):,} changes")
     return manifest
+
+
+def _contiguous(ops: list[dict[str, Any]]) -> list[dict[str, Any]]:
+    """Per origin, the unbroken run of ops from the first; a receiver refuses a bundle with a hole.
+
+    A device restored from a backup may hold its own ops with a hole (those sent before the restore
+    come back with the next import); the ops after the hole go in a later bundle.
+    """
+    out: list[dict[str, Any]] = []
+    last: dict[str, int] = {}
+    for o in ops:
+        prev = last.get(o["origin"])
+        if prev is None or o["seq"] == prev + 1:
+            out.append(o)
+            last[o["origin"]] = o["seq"]
+        else:
+            last[o["origin"]] = -1  # the run ended: nothing more of this origin in this bundle
+    return out
 
 
 @dataclass

@@ -274,3 +274,22 @@ def test_verify_uses_the_log_not_the_edited_table(tmp_path):
     assert s.find_issued_by_hash(fake) is None  # the altered PDF is not an issued notice
     with pytest.raises(IntegrityError, match="differs from its logged record"):
         s.find_issued_by_hash(hashlib.sha256(original).hexdigest())
+
+
+def test_full_export_of_a_restored_device_with_a_hole_is_accepted(tmp_path):
+    office, tablet = Store(tmp_path / "office.db"), Store(tmp_path / "tablet.db")
+    site = tablet.create_site(name="Hole")
+    beam = tablet.save_beam(site.id, glulam())
+    _sync(tablet, office, tmp_path / "0.zip", peer="office")
+    _backup(tablet, tmp_path / "backup.db")
+    tablet.update_beam(beam, {"b_mm": 175})
+    _sync(tablet, office, tmp_path / "1.zip", peer="office")
+    tablet = _restore(tablet, tmp_path / "backup.db")  # the mark moves its counter past seq 3
+    tablet.update_beam(beam, {"d_mm": 532})  # seq 4: the tablet holds 1, 2 and 4
+    fresh = Store(tmp_path / "fresh.db")
+    _sync(tablet, fresh, tmp_path / "2.zip")  # a full export sends 1-2 now, not a bundle with a hole
+    _sync(office, tablet, tmp_path / "3.zip")  # seq 3 comes back
+    _sync(tablet, fresh, tmp_path / "4.zip")
+    _sync(tablet, office, tmp_path / "5.zip", peer="office")
+    assert fresh.beam(beam).d_mm == 532 and fresh.beam(beam).b_mm == 175
+    assert office.digest() == tablet.digest() == fresh.digest()
