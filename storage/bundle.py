@@ -13,6 +13,7 @@ import io
 import json
 import os
 import re
+import shutil
 import time
 import zipfile
 import zlib
@@ -46,6 +47,7 @@ MAX_UNPACKED_BYTES = 1024 * 1024 * 1024  # all entries together, as declared and
 MAX_MANIFEST_BYTES = 4 * 1024 * 1024  # read (bounded) before the MAC is checked
 MAX_ENTRIES = 20_000  # blobs per bundle
 MAX_OPS = 2_000_000
+MIN_FREE_BYTES = 64 * 1024 * 1024  # left free after an import's files, for the database to grow
 BATCH_OPS = 2_000  # ops per import transaction: a save from another process waits at most one batch
 SHA256 = re.compile(r"^[0-9a-f]{64}$")
 DEVICE_ID = re.compile(r"^[0-9a-f]{8}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{12}$")
@@ -426,6 +428,13 @@ def import_bundle(store: Store, path: str | Path, progress: Progress | None = No
         _log(store, path, v.sha, "held", reason, len(v.ops), 0)
         return ImportReport("held", ops_total=len(v.ops), reason=reason)
     warning = _clock_warning(store, v.ops)
+    needed = sum(len(c) for sha, c in v.blobs.items() if not store.blob_path(sha).exists())
+    store.blob_dir.mkdir(parents=True, exist_ok=True)
+    free = shutil.disk_usage(store.blob_dir).free
+    if needed + MIN_FREE_BYTES > free:
+        reason = f"not enough free space: the bundle's files need {needed:,} bytes, {free:,} free; nothing written"
+        _log(store, path, v.sha, "refused", reason, len(v.ops), 0)
+        return ImportReport("refused", ops_total=len(v.ops), reason=reason)
     created: list[Path] = []
     committed: list[int] = []
     try:

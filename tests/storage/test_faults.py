@@ -293,3 +293,16 @@ def test_full_export_of_a_restored_device_with_a_hole_is_accepted(tmp_path):
     _sync(tablet, office, tmp_path / "5.zip", peer="office")
     assert fresh.beam(beam).d_mm == 532 and fresh.beam(beam).b_mm == 175
     assert office.digest() == tablet.digest() == fresh.digest()
+
+
+def test_bundle_larger_than_the_free_space_refused_before_writing(tmp_path, monkeypatch):
+    import storage.bundle as bundle_mod
+
+    a, b = Store(tmp_path / "a.db"), Store(tmp_path / "b.db")
+    site = a.create_site(name="Space")
+    a.add_photo(site.id, b"p" * 100_000)
+    export_bundle(a, tmp_path / "a.zip")
+    monkeypatch.setattr(bundle_mod, "MIN_FREE_BYTES", 10**15)  # as if the disk were nearly full
+    report = import_bundle(b, tmp_path / "a.zip")
+    assert report.outcome == "refused" and "free space" in report.reason
+    assert not [p for p in b.blob_dir.rglob("*") if p.is_file()] and b.projections() == Store(":memory:").projections()
