@@ -9,7 +9,7 @@ from __future__ import annotations
 from enum import StrEnum
 from typing import Annotated, Any
 
-from pydantic import BaseModel, ConfigDict, Field, field_validator, model_validator
+from pydantic import AfterValidator, BaseModel, ConfigDict, Field, field_validator, model_validator
 
 from core import tables
 
@@ -26,7 +26,8 @@ class Record(BaseModel):
 # -- plausible ranges of logged sizes (bounds against nonsense, not design minimums) ------------------
 # Lower bounds: a value below them is a typing error, and a value near zero divides by zero or
 # overflows. Common practice: the thinnest framing member is 19 mm (1x lumber), the shallowest 38 mm,
-# no beam spans less than 300 mm, no bearing is shorter than 10 mm. Shared by the app and `check`.
+# no beam spans less than 300 mm, no bearing is shorter than 10 mm, an overhang is none or at least
+# 10 mm. Shared by the app and `check`.
 MIN_WIDTH_MM = 19.0
 MIN_DEPTH_MM = 38.0
 MIN_SPAN_MM = 300.0
@@ -36,7 +37,16 @@ PositiveMm = Annotated[float, Field(ge=MIN_SPACING_MM, le=MAX_SPAN_MM, allow_inf
 SpanMm = Annotated[float, Field(ge=MIN_SPAN_MM, le=MAX_SPAN_MM, allow_inf_nan=False)]
 WidthMm = Annotated[float, Field(ge=MIN_WIDTH_MM, le=1_000, allow_inf_nan=False)]
 DepthMm = Annotated[float, Field(ge=MIN_DEPTH_MM, le=2_500, allow_inf_nan=False)]
-OverhangMm = Annotated[float, Field(ge=0, le=20_000, allow_inf_nan=False)]
+MIN_OVERHANG_MM = 10.0
+
+
+def _no_overhang_or_plausible(value: float) -> float:
+    if 0 < value < MIN_OVERHANG_MM:
+        raise ValueError(f"overhang {value:g} mm; allowed: 0 (none) or {MIN_OVERHANG_MM:g} to 20000 mm")
+    return value
+
+
+OverhangMm = Annotated[float, Field(ge=0, le=20_000, allow_inf_nan=False), AfterValidator(_no_overhang_or_plausible)]
 BearingLengthMm = Annotated[float, Field(ge=MIN_BEARING_MM, le=2_000, allow_inf_nan=False)]
 LineLoadKnM = Annotated[float, Field(ge=0, le=500, allow_inf_nan=False)]
 

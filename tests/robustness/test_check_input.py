@@ -76,3 +76,9 @@ def test_output_into_a_closed_pipe(tmp_path):
         timeout=60,
     )
     assert "Traceback" not in proc.stderr and "BrokenPipe" not in proc.stderr
+
+
+@pytest.mark.parametrize("field", ["overhang_left_mm", "overhang_right_mm"])
+def test_tiny_overhang_refused_not_divided_by(tmp_path, capsys, field):
+    code, _, err = check(tmp_path, capsys, with_(**{field: 1e-150}))
+    assert code == 2 and field in err
