@@ -47,6 +47,8 @@ MAX_UNPACKED_BYTES = 1024 * 1024 * 1024  # all entries together, as declared and
 MAX_MANIFEST_BYTES = 4 * 1024 * 1024  # read (bounded) before the MAC is checked
 MAX_ENTRIES = 20_000  # blobs per bundle
 MAX_OPS = 2_000_000
+YEAR_MS = 365 * 86_400_000
+MAX_AHEAD_MS = 100 * YEAR_MS  # stamps up to this far ahead are accepted (and flagged); the range lasts to 4199
 MIN_FREE_BYTES = 64 * 1024 * 1024  # left free after an import's files, for the database to grow
 BATCH_OPS = 2_000  # ops per import transaction: a save from another process waits at most one batch
 SHA256 = re.compile(r"^[0-9a-f]{64}$")
@@ -325,7 +327,12 @@ def verify_bundle(store: Store, data: bytes) -> _Verified:
         raise BundleRefused(f"bad op line {len(ops) + 1}: {str(exc)[:120]}") from exc
     if len(ops) != manifest["op_count"]:
         raise BundleRefused("op count differs from the manifest")
+    horizon = store.wall_ms() + MAX_AHEAD_MS
     for op in ops:
+        if op.hlc >> 16 > horizon:  # accepted far ahead is flagged; this far would exhaust the clock's range
+            raise BundleRefused(
+                f"op {op.origin[:8]}:{op.seq} hlc stamped more than {MAX_AHEAD_MS // YEAR_MS} years ahead of this clock"
+            )
         try:
             check_op_record(op)
         except RecordInvalid as exc:

@@ -306,3 +306,20 @@ def test_bundle_larger_than_the_free_space_refused_before_writing(tmp_path, monk
     report = import_bundle(b, tmp_path / "a.zip")
     assert report.outcome == "refused" and "free space" in report.reason
     assert not [p for p in b.blob_dir.rglob("*") if p.is_file()] and b.projections() == Store(":memory:").projections()
+
+
+def test_stamp_near_the_end_of_the_range_cannot_stop_local_saves(tmp_path):
+    from storage.clock import HLC_MAX
+
+    a, b = Store(tmp_path / "a.db"), Store(tmp_path / "b.db")
+    site = a.create_site(name="End of time")
+    export_bundle(a, tmp_path / "a.zip")
+
+    def edit(o):
+        o["hlc"] = HLC_MAX
+
+    _forge(a, tmp_path / "a.zip", edit)
+    report = import_bundle(b, tmp_path / "a.zip")
+    assert report.outcome == "refused" and "years ahead" in report.reason
+    b.create_site(name="Still saving")
+    del site
