@@ -410,12 +410,16 @@ def import_bundle(store: Store, path: str | Path, progress: Progress | None = No
     tell = progress or _silent
     tell(0.0, "verifying")
     path = Path(path)
-    if path.is_dir():
-        raise BundleRefused(f"{path} is a folder, not a bundle file")
-    if path.stat().st_size > MAX_BUNDLE_BYTES:
-        reason = f"bundle is {path.stat().st_size} bytes; limit {MAX_BUNDLE_BYTES}"
-        _log(store, path, "", "refused", reason, 0, 0)
-        return ImportReport("refused", reason=reason)
+    early = (
+        f"{path} is a folder, not a bundle file"
+        if path.is_dir()
+        else f"bundle is {path.stat().st_size} bytes; limit {MAX_BUNDLE_BYTES}"
+        if path.stat().st_size > MAX_BUNDLE_BYTES
+        else ""
+    )
+    if early:
+        _log(store, path, "", "refused", early, 0, 0)
+        return ImportReport("refused", reason=early)
     data = path.read_bytes()
     try:
         v = verify_bundle(store, data)
