@@ -59,6 +59,8 @@ def cmd_sync_import(args: argparse.Namespace) -> int:
         f"merged {report.ops_new} new ops of {report.ops_total} ({report.ops_total - report.ops_new} already held), "
         f"{report.blobs_new} blobs; {report.conflicts_new} new conflicts to review"
     )
+    if report.warning:
+        print(f"  warning: {report.warning}")
     for c in store.conflicts():
         print(
             f"  conflict {c['id']}: {c['entity']} {c['record_id'][:8]} {c['field']}: kept {c['winner_value']}, "
