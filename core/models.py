@@ -9,7 +9,7 @@ from __future__ import annotations
 from enum import StrEnum
 from typing import Annotated, Any
 
-from pydantic import BaseModel, ConfigDict, Field, field_validator, model_validator
+from pydantic import AfterValidator, BaseModel, ConfigDict, Field, field_validator, model_validator
 
 from core import effective_length, tables
 
@@ -23,11 +23,31 @@ class Record(BaseModel):
     model_config = ConfigDict(frozen=True, extra="forbid")
 
 
-PositiveMm = Annotated[float, Field(gt=0, le=MAX_SPAN_MM, allow_inf_nan=False)]
-WidthMm = Annotated[float, Field(gt=0, le=1_000, allow_inf_nan=False)]
-DepthMm = Annotated[float, Field(gt=0, le=2_500, allow_inf_nan=False)]
-OverhangMm = Annotated[float, Field(ge=0, le=20_000, allow_inf_nan=False)]
-BearingLengthMm = Annotated[float, Field(gt=0, le=2_000, allow_inf_nan=False)]
+# -- plausible ranges of logged sizes (bounds against nonsense, not design minimums) ------------------
+# Lower bounds: a value below them is a typing error, and a value near zero divides by zero or
+# overflows. Common practice: the thinnest framing member is 19 mm (1x lumber), the shallowest 38 mm,
+# no beam spans less than 300 mm, no bearing is shorter than 10 mm, an overhang is none or at least
+# 10 mm. Shared by the app and `check`.
+MIN_WIDTH_MM = 19.0
+MIN_DEPTH_MM = 38.0
+MIN_SPAN_MM = 300.0
+MIN_SPACING_MM = 1.0
+MIN_BEARING_MM = 10.0
+PositiveMm = Annotated[float, Field(ge=MIN_SPACING_MM, le=MAX_SPAN_MM, allow_inf_nan=False)]
+SpanMm = Annotated[float, Field(ge=MIN_SPAN_MM, le=MAX_SPAN_MM, allow_inf_nan=False)]
+WidthMm = Annotated[float, Field(ge=MIN_WIDTH_MM, le=1_000, allow_inf_nan=False)]
+DepthMm = Annotated[float, Field(ge=MIN_DEPTH_MM, le=2_500, allow_inf_nan=False)]
+MIN_OVERHANG_MM = 10.0
+
+
+def _no_overhang_or_plausible(value: float) -> float:
+    if 0 < value < MIN_OVERHANG_MM:
+        raise ValueError(f"overhang {value:g} mm; allowed: 0 (none) or {MIN_OVERHANG_MM:g} to 20000 mm")
+    return value
+
+
+OverhangMm = Annotated[float, Field(ge=0, le=20_000, allow_inf_nan=False), AfterValidator(_no_overhang_or_plausible)]
+BearingLengthMm = Annotated[float, Field(ge=MIN_BEARING_MM, le=2_000, allow_inf_nan=False)]
 LineLoadKnM = Annotated[float, Field(ge=0, le=500, allow_inf_nan=False)]
 
 
@@ -216,7 +236,7 @@ class Beam(Record):
     grade: str
     b_mm: WidthMm
     d_mm: DepthMm
-    spans_mm: list[PositiveMm] = Field(min_length=1, max_length=MAX_SPANS)
+    spans_mm: list[SpanMm] = Field(min_length=1, max_length=MAX_SPANS)
     bearings: list[Bearing]
     top_edge: TopEdge = TopEdge()
     loads: Loads
@@ -287,6 +307,12 @@ class Beam(Record):
         total = sum(self.spans_mm) + self.overhang_left_mm + self.overhang_right_mm
         if total > MAX_SPAN_MM * 2:
             raise ValueError(f"total length {total:g} mm; allowed: <= {MAX_SPAN_MM * 2:g} mm")
+        return self
+
+    @model_validator(mode="after")
+    def _treatment_fits_material(self) -> Beam:
+        if self.material is Material.glulam and self.treatment is Treatment.incised:
+            raise ValueError("treatment = 'incised' applies to sawn lumber; allowed for glulam: 'none'")
         return self
 
 

@@ -4,6 +4,8 @@ from __future__ import annotations
 
 import argparse
 import json
+import os
+import sqlite3
 import sys
 from pathlib import Path
 from typing import Any
@@ -25,19 +27,70 @@ def _format_validation(err: ValidationError) -> str:
     return "invalid beam: " + "; ".join(lines)
 
 
+MAX_INPUT_BYTES = 1_000_000  # a beam file is a few kB; anything near this is not a beam
+MAX_INT_DIGITS = 30  # no field of a beam needs more (Python refuses past 4,300 with a traceback)
+BOMS = (("utf-8-sig", b"\xef\xbb\xbf"), ("utf-32", b"\xff\xfe\x00\x00"), ("utf-32", b"\x00\x00\xfe\xff"))
+BOMS16 = (("utf-16", b"\xff\xfe"), ("utf-16", b"\xfe\xff"))
+
+
+def read_input(path: str) -> bytes:
+    """The bytes of a file (or standard input with "-"), refusing more than MAX_INPUT_BYTES."""
+    try:
+        if path == "-":
+            raw = sys.stdin.buffer.read(MAX_INPUT_BYTES + 1)
+        else:
+            if Path(path).is_dir():
+                raise UserError(f"{path} is a folder, not a beam file")
+            with open(path, "rb") as fh:
+                raw = fh.read(MAX_INPUT_BYTES + 1)
+    except OSError as exc:
+        raise UserError(f"cannot read {path}: {exc.strerror}") from exc
+    if len(raw) > MAX_INPUT_BYTES:
+        raise UserError(f"{path} is larger than {MAX_INPUT_BYTES:,} bytes; a beam file is a few kB")
+    return raw
+
+
+def decode_input(raw: bytes, path: str) -> str:
+    """Text of a beam file: UTF-8 (with or without a byte-order mark), UTF-16/32 with a mark, else Latin-1 (said)."""
+    for encoding, mark in (*BOMS, *BOMS16):
+        if raw.startswith(mark):
+            try:
+                return raw.decode(encoding)
+            except UnicodeDecodeError as exc:
+                raise UserError(f"{path}: starts with a {encoding} byte-order mark but is not {encoding}") from exc
+    try:
+        return raw.decode("utf-8")
+    except UnicodeDecodeError:
+        print(f"bracewalk: note: {path} is not UTF-8; read as Latin-1 (ISO 8859-1)", file=sys.stderr)
+        return raw.decode("latin-1")
+
+
+def _refuse_constant(name: str) -> Any:
+    raise UserError(f"{name} is not a number a beam can have (JSON allows only finite numbers)")
+
+
+def _bounded_int(text: str) -> int:
+    if len(text.lstrip("-")) > MAX_INT_DIGITS:
+        raise UserError(f"an integer of {len(text)} digits; no beam field needs more than {MAX_INT_DIGITS}")
+    return int(text)
+
+
+def parse_json(text: str, path: str) -> Any:
+    """JSON with NaN/Infinity, huge integers and runaway nesting refused as user errors."""
+    try:
+        return json.loads(text, parse_constant=_refuse_constant, parse_int=_bounded_int)
+    except json.JSONDecodeError as exc:
+        raise UserError(f"{path} is not valid JSON: {exc.msg} at line {exc.lineno}") from exc
+    except RecursionError as exc:
+        raise UserError(f"{path}: JSON nested too deeply to be a beam") from exc
+
+
 def load_beam(path: str) -> Any:
     """Read and validate a beam JSON file; raise UserError naming the field on bad input."""
     from core.models import Beam
     from mobile.units import check_beam_json
 
-    try:
-        text = sys.stdin.read() if path == "-" else Path(path).read_text(encoding="utf-8")
-    except OSError as exc:
-        raise UserError(f"cannot read {path}: {exc.strerror}") from exc
-    try:
-        data = json.loads(text)
-    except json.JSONDecodeError as exc:
-        raise UserError(f"{path} is not valid JSON: {exc.msg} at line {exc.lineno}") from exc
+    data = parse_json(decode_input(read_input(path), path), path)
     try:
         check_beam_json(data)  # plausible ranges, the same as the tablet's form (mobile/units.py)
     except ValueError as exc:
@@ -46,6 +99,8 @@ def load_beam(path: str) -> Any:
         return Beam.model_validate(data)
     except ValidationError as exc:
         raise UserError(_format_validation(exc)) from exc
+    except RecursionError as exc:
+        raise UserError(f"{path}: JSON nested too deeply to be a beam") from exc
 
 
 def cmd_check(args: argparse.Namespace) -> int:
@@ -58,10 +113,15 @@ def cmd_check(args: argparse.Namespace) -> int:
     result = recheck(beam)
     if args.text:
         print(recheck_text(result))
-    else:
-        data = result.to_json_dict()
-        data["remedies"] = [r.model_dump(mode="json", exclude_none=True) for r in remedies(beam, result)]
-        print(json.dumps(data, indent=2))
+        return EXIT_OK
+    data = result.to_json_dict()
+    data["remedies"] = [r.model_dump(mode="json", exclude_none=True) for r in remedies(beam, result)]
+    try:
+        text = json.dumps(data, indent=2, allow_nan=False)
+    except ValueError as exc:  # a result that is not finite is a defect of the recheck, never printed
+        print(f"bracewalk check: the recheck gave a value that is not finite ({exc}); nothing printed", file=sys.stderr)
+        return EXIT_FAILURE
+    print(text)
     return EXIT_OK
 
 
@@ -108,11 +168,30 @@ def main(argv: list[str] | None = None) -> int:
         from mobile.commands import cmd_app
 
         return cmd_app(args)
+    from storage import StorageError
+    from storage.db import storage_error
+
+    name = " ".join(["bracewalk", args.command, *([args.sync_command] if getattr(args, "sync_command", None) else [])])
     try:
         return int(args.func(args))
     except UserError as exc:
-        print(f"bracewalk {args.command}: {exc}", file=sys.stderr)
+        print(f"{name}: {exc}", file=sys.stderr)
         return EXIT_BAD_INPUT
+    except StorageError as exc:
+        print(f"{name}: {exc}", file=sys.stderr)
+        return EXIT_FAILURE
+    except sqlite3.Error as exc:  # a read from a damaged file (writes arrive as StorageError)
+        print(f"{name}: {storage_error(exc, getattr(args, 'db', None) or 'the database')}", file=sys.stderr)
+        return EXIT_FAILURE
+    except BrokenPipeError:
+        # the reader went away (output piped into head): stop quietly, as command-line tools do
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+        return EXIT_FAILURE
+    except OSError as exc:
+        where = f" {exc.filename}" if exc.filename else ""
+        print(f"{name}: cannot use{where}: {exc.strerror or exc}", file=sys.stderr)
+        return EXIT_FAILURE
 
 
 if __name__ == "__main__":

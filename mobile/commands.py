@@ -30,6 +30,10 @@ def cmd_sync_export(args: argparse.Namespace) -> int:
     from storage.bundle import export_bundle
 
     store = _open_store(args.db)
+    if not Path(args.out).parent.is_dir():
+        raise UserError(f"no folder {Path(args.out).parent} to write {Path(args.out).name} in")
+    if Path(args.out).is_dir():
+        raise UserError(f"{args.out} is a folder; give a file name for the bundle")
     manifest = export_bundle(store, args.out, peer=args.peer)
     print(f"exported {manifest['op_count']} ops and {len(manifest['blobs'])} blobs to {args.out}")
     return EXIT_OK
@@ -41,6 +45,8 @@ def cmd_sync_import(args: argparse.Namespace) -> int:
 
     if not Path(args.file).exists():
         raise UserError(f"no bundle at {args.file}")
+    if Path(args.file).is_dir():
+        raise UserError(f"{args.file} is a folder; give the bundle file")
     store = _open_store(args.db, must_exist=False)
     report = import_bundle(store, args.file)
     if report.outcome == "refused":
@@ -53,6 +59,8 @@ def cmd_sync_import(args: argparse.Namespace) -> int:
         f"merged {report.ops_new} new ops of {report.ops_total} ({report.ops_total - report.ops_new} already held), "
         f"{report.blobs_new} blobs; {report.conflicts_new} new conflicts to review"
     )
+    if report.warning:
+        print(f"  warning: {report.warning}")
     for c in store.conflicts():
         print(
             f"  conflict {c['id']}: {c['entity']} {c['record_id'][:8]} {c['field']}: kept {c['winner_value']}, "
@@ -77,10 +85,17 @@ def cmd_demo(args: argparse.Namespace) -> int:
 def cmd_report(args: argparse.Namespace) -> int:
     """Issue a notice for a site's open deficiencies, or verify a PDF against the issued notices."""
     from mobile.issue import issue_notice_for_site, verify_pdf
+    from storage.oplog import IntegrityError
 
     store = _open_store(args.db)
     if args.verify:
-        found = verify_pdf(store, Path(args.verify))
+        if not Path(args.verify).is_file():
+            raise UserError(f"no PDF file at {args.verify}")
+        try:
+            found = verify_pdf(store, Path(args.verify))
+        except IntegrityError as exc:
+            print(f"bracewalk report: {args.verify}: cannot be verified: {exc}", file=sys.stderr)
+            return EXIT_FAILURE
         if found is None:
             print(f"{args.verify}: NOT an issued notice of this database (or it was changed)")
             return EXIT_FAILURE
@@ -92,6 +107,8 @@ def cmd_report(args: argparse.Namespace) -> int:
         site = store.find_site(args.site)
     except KeyError as exc:
         raise UserError(str(exc)) from exc
+    if Path(args.out).is_dir():
+        raise UserError(f"{args.out} is a folder; give a file name for the PDF")
     notice, path = issue_notice_for_site(store, site.id, Path(args.out), issued_by=args.by)
     print(f"issued notice {notice.number} ({len(notice.deficiency_ids)} items) to {path}; sha256 {notice.pdf_sha256}")
     return EXIT_OK

@@ -11,6 +11,7 @@ from core.records import IssuedNotice, Stage
 from reports.content import Carried, Notice, header_from, item_for
 from reports.render import render_notice
 from storage import Store
+from storage.files import write_atomic
 
 DISTRIBUTION = ["Owner", "General contractor", "Architect (coordinating professional)", "File"]
 
@@ -32,6 +33,9 @@ def observed_text(record: dict[str, object]) -> str:
         text += f"; top edge {top['braced_by']}" + (f" at {top['spacing_mm']:g} mm" if top.get("spacing_mm") else "")
         fastened = top.get("fastened")
         text += "" if fastened is True else (" (not fastened)" if fastened is False else " (fastening not recorded)")
+    notes = record.get("notes")
+    if isinstance(notes, str) and notes.strip():
+        text += f"; beam notes: {notes.strip()}"  # what the reviewer wrote at the beam reaches the notice
     return text
 
 
@@ -102,9 +106,14 @@ def issue_notice_for_site(
     number = store.next_notice_number(site)
     notice, ids = build_notice(store, site_id, number, issued_on=issued_on, only=only)
     pdf = render_notice(notice)
-    issued = store.issue_notice(site_id, number, pdf, ids, issued_by, issued_on or time.strftime("%Y-%m-%d"))
+    # the number is spent only once the PDF is safely written; if recording fails, the file goes too
     out.parent.mkdir(parents=True, exist_ok=True)
-    out.write_bytes(pdf)
+    write_atomic(out, pdf)
+    try:
+        issued = store.issue_notice(site_id, number, pdf, ids, issued_by, issued_on or time.strftime("%Y-%m-%d"))
+    except BaseException:
+        out.unlink(missing_ok=True)
+        raise
     return issued, out
 
 

@@ -5,7 +5,6 @@ from __future__ import annotations
 import io
 from importlib import resources
 from typing import Any
-from xml.sax.saxutils import escape
 
 from reportlab import rl_config
 from reportlab.lib import colors
@@ -29,6 +28,7 @@ from core.results import Recheck
 from reports.content import Item, Notice
 from reports.photos import prepare_photo
 from reports.sketch import FONT, beam_sketch
+from reports.textrun import markup
 
 # Binary (Flate/DCT) streams instead of ASCII85: reportlab's pure-Python ASCII85 encoder was most of
 # the time of a notice with photos, and binary streams are a fifth smaller. Process-wide by design.
@@ -59,8 +59,9 @@ def _register_fonts() -> None:
 
 
 def esc(text: object) -> str:
-    """Escape user text for a Paragraph (markup characters appear as typed)."""
-    return escape(str(text)).replace("\n", "<br/>")
+    """Escape user text for a Paragraph: markup characters appear as typed, any script prints (textrun)."""
+    _register_fonts()
+    return markup(text, FONT)
 
 
 class NumberedCanvas(rl_canvas.Canvas):
@@ -109,7 +110,8 @@ def _styles() -> dict[str, ParagraphStyle]:
 
 
 def _grid(rows: list[list[Any]], widths: list[float], shade_first_col: bool = True) -> Table:
-    t = Table(rows, colWidths=widths)
+    # splitInRow: a cell taller than a page (a long description) continues on the next page
+    t = Table(rows, colWidths=widths, splitInRow=1)
     style = [
         ("GRID", (0, 0), (-1, -1), 0.4, colors.grey),
         ("VALIGN", (0, 0), (-1, -1), "TOP"),

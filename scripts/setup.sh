@@ -8,7 +8,7 @@ if command -v apt-get >/dev/null 2>&1 && [ "$(id -u)" = "0" ]; then
   apt-get update -qq
   apt-get install -y -qq --no-install-recommends \
     xvfb xauth libgl1 libgl1-mesa-dri libegl1 libmtdev1 libsdl2-2.0-0 poppler-utils postgresql \
-    chromium chromium-driver >/dev/null
+    chromium chromium-driver fonts-noto-core fonts-noto-color-emoji fonts-droid-fallback fonts-nanum >/dev/null
 fi
 VENV="${BRACEWALK_VENV:-.venv}"
 [ -x "$VENV/bin/python" ] || python3 -m venv "$VENV"

@@ -12,6 +12,8 @@ import hmac
 import io
 import json
 import os
+import re
+import shutil
 import time
 import zipfile
 import zlib
@@ -20,14 +22,37 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
+from storage.clock import far_ahead_ms
 from storage.db import SCHEMA_VERSION, transaction
-from storage.oplog import OP_KEYS, IntegrityError, Op, ProjectionBatch, apply_op, canonical, insert_op
+from storage.oplog import (
+    MAX_ID_CHARS,
+    OP_KEYS,
+    SEQ_MAX,
+    WALL_MS_MAX,
+    Op,
+    ProjectionBatch,
+    apply_op,
+    canonical,
+    content_hash,
+    insert_op,
+)
 from storage.store import Store
+from storage.validate import RecordInvalid, check_op_record
 
 FORMAT = "bracewalk-bundle"
 FORMAT_VERSION = 1
 MAX_BUNDLE_BYTES = 512 * 1024 * 1024
 MAX_ENTRY_BYTES = 256 * 1024 * 1024
+MAX_UNPACKED_BYTES = 1024 * 1024 * 1024  # all entries together, as declared and as read
+MAX_MANIFEST_BYTES = 4 * 1024 * 1024  # read (bounded) before the MAC is checked
+MAX_ENTRIES = 20_000  # blobs per bundle
+MAX_OPS = 2_000_000
+YEAR_MS = 365 * 86_400_000
+MAX_AHEAD_MS = 100 * YEAR_MS  # stamps up to this far ahead are accepted (and flagged); the range lasts to 4199
+MIN_FREE_BYTES = 64 * 1024 * 1024  # left free after an import's files, for the database to grow
+BATCH_OPS = 2_000  # ops per import transaction: a save from another process waits at most one batch
+SHA256 = re.compile(r"^[0-9a-f]{64}$")
+DEVICE_ID = re.compile(r"^[0-9a-f]{8}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{12}$")
 MANIFEST_KEYS = {
     "format",
     "format_version",
@@ -78,6 +103,7 @@ class ImportReport:
     conflicts_new: int = 0
     reason: str = ""
     origins: dict[str, list[int]] = field(default_factory=dict)
+    warning: str = ""  # accepted, but worth a look (stamps far ahead of this device's clock)
 
 
 def _now() -> str:
@@ -98,7 +124,7 @@ def export_bundle(
         cursor = dict(store.db.execute("SELECT origin, seq FROM peer_cursor WHERE peer=?", [peer]).fetchall())
     rows = store.db.execute(f"SELECT {', '.join(OP_KEYS)} FROM op ORDER BY origin, seq").fetchall()
     ops = [dict(zip(OP_KEYS, r, strict=True)) for r in rows]
-    ops = [o for o in ops if o["seq"] > cursor.get(o["origin"], 0)]
+    ops = _contiguous([o for o in ops if o["seq"] > cursor.get(o["origin"], 0)])
     lines = []
     ranges: dict[str, list[int]] = {}
     shas: set[str] = set()
@@ -131,17 +157,24 @@ def export_bundle(
     mbytes = canonical(manifest).encode()
     mac = hmac.new(store.firm_key, mbytes, hashlib.sha256).hexdigest()
     out = Path(out)
+    if not out.parent.is_dir():
+        raise FileNotFoundError(2, "the folder does not exist", str(out.parent))
     tell(0.8, f"writing {out.name}")
     tmp = out.with_name(out.name + ".part")
-    with zipfile.ZipFile(tmp, "w", compression=zipfile.ZIP_DEFLATED) as z:
-        z.writestr("manifest.json", mbytes)
-        z.writestr("manifest.mac", mac)
-        z.writestr("ops.jsonl", body)
-        for b in blobs:
-            z.write(store.blob_path(str(b["sha256"])), f"blobs/{b['sha256']}")
-    with open(tmp, "rb") as fh:
-        os.fsync(fh.fileno())
-    os.replace(tmp, out)
+    try:
+        with zipfile.ZipFile(tmp, "w", compression=zipfile.ZIP_DEFLATED) as z:
+            z.writestr("manifest.json", mbytes)
+            z.writestr("manifest.mac", mac)
+            z.writestr("ops.jsonl", body)
+            for b in blobs:
+                z.write(store.blob_path(str(b["sha256"])), f"blobs/{b['sha256']}")
+        with open(tmp, "rb") as fh:
+            os.fsync(fh.fileno())
+        os.replace(tmp, out)
+    except OSError:
+        tmp.unlink(missing_ok=True)  # a full disk leaves no partial bundle behind
+        raise
+    store.record_sent(peer)
     with transaction(store.db):
         store.db.execute(
             "INSERT INTO bundle_log (at, file, bundle_sha256, outcome, reason, ops, applied) "
@@ -155,16 +188,88 @@ def export_bundle(
     return manifest
 
 
+def _contiguous(ops: list[dict[str, Any]]) -> list[dict[str, Any]]:
+    """Per origin, the unbroken run of ops from the first; a receiver refuses a bundle with a hole.
+
+    A device restored from a backup may hold its own ops with a hole (those sent before the restore
+    come back with the next import); the ops after the hole go in a later bundle.
+    """
+    out: list[dict[str, Any]] = []
+    last: dict[str, int] = {}
+    for o in ops:
+        prev = last.get(o["origin"])
+        if prev is None or o["seq"] == prev + 1:
+            out.append(o)
+            last[o["origin"]] = o["seq"]
+        else:
+            last[o["origin"]] = -1  # the run ended: nothing more of this origin in this bundle
+    return out
+
+
 @dataclass
 class _Verified:
     manifest: dict[str, Any]
     ops: list[Op]
     blobs: dict[str, bytes]
     sha: str
+    rebase_from: int | None = None  # own ops from this seq on are renumbered (restored device)
+
+
+def _read_bounded(z: zipfile.ZipFile, info: zipfile.ZipInfo, limit: int) -> bytes:
+    """An entry's bytes, refusing more than ``limit`` (the declared size is not trusted)."""
+    if info.file_size > limit:
+        raise BundleRefused(f"entry {info.filename} is {info.file_size} bytes; limit {limit}")
+    try:
+        with z.open(info) as fh:
+            content = fh.read(limit + 1)
+    except ZIP_ERRORS as exc:
+        raise BundleRefused(f"unreadable entry {info.filename}: {exc}") from exc
+    if len(content) > limit:
+        raise BundleRefused(f"entry {info.filename} unpacks past {limit} bytes")
+    return content
+
+
+def _is_int(value: Any, low: int, high: int) -> bool:
+    return isinstance(value, int) and not isinstance(value, bool) and low <= value <= high
+
+
+def _check_manifest_fields(manifest: dict[str, Any]) -> None:
+    """Types and ranges of every manifest field (after its MAC verified)."""
+    if manifest["format"] != FORMAT or manifest["format_version"] != FORMAT_VERSION:
+        raise BundleRefused(f"unknown format {str(manifest['format'])[:40]!r} v{str(manifest['format_version'])[:10]}")
+    origin = manifest["origin"]
+    if not isinstance(origin, str) or not DEVICE_ID.match(origin):
+        # peer names such as "office" key the export cursors: a bundle may not claim one
+        raise BundleRefused(f"manifest origin {str(origin)[:40]!r} is not a device id")
+    if not _is_int(manifest["schema_version"], 1, 10_000) or not _is_int(manifest["created_ms"], 0, WALL_MS_MAX):
+        raise BundleRefused("manifest schema_version or created_ms out of range")
+    if not _is_int(manifest["op_count"], 0, MAX_OPS) or not isinstance(manifest["ops_sha256"], str):
+        raise BundleRefused(f"manifest op_count must be 0 to {MAX_OPS}")
+    for name in ("ranges", "vector"):
+        if not isinstance(manifest[name], dict):
+            raise BundleRefused(f"manifest {name} must be an object")
+    for origin_id, r in manifest["ranges"].items():
+        if not (isinstance(r, list) and len(r) == 2 and all(_is_int(x, 1, SEQ_MAX) for x in r)):
+            raise BundleRefused(f"manifest range of {str(origin_id)[:12]} is not [first, last]")
+    for origin_id, seq in manifest["vector"].items():
+        if not _is_int(seq, 0, SEQ_MAX) or len(origin_id) > MAX_ID_CHARS:
+            raise BundleRefused(f"manifest vector entry {str(origin_id)[:12]} out of range")
+    blobs = manifest["blobs"]
+    if not isinstance(blobs, list) or len(blobs) > MAX_ENTRIES:
+        raise BundleRefused(f"manifest blobs must be a list of at most {MAX_ENTRIES}")
+    for b in blobs:
+        ok = isinstance(b, dict) and set(b) == {"sha256", "size"} and isinstance(b["sha256"], str)
+        if not ok or not SHA256.match(b["sha256"]) or not _is_int(b["size"], 0, MAX_ENTRY_BYTES):
+            raise BundleRefused(f"manifest blob entry {str(b)[:60]} is not {{sha256, size}}")
 
 
 def verify_bundle(store: Store, data: bytes) -> _Verified:
-    """Check a bundle completely without writing; raise BundleRefused with the reason."""
+    """Check a bundle completely without writing; raise BundleRefused with the reason.
+
+    Order: sizes and entry count from the zip directory, then the MAC over a bounded manifest,
+    and only then the large entries (each read with a bound), hashes, op keys and ranges, and every
+    record against the models.
+    """
     if len(data) > MAX_BUNDLE_BYTES:
         raise BundleRefused(f"bundle is {len(data)} bytes; limit {MAX_BUNDLE_BYTES}")
     try:
@@ -172,39 +277,41 @@ def verify_bundle(store: Store, data: bytes) -> _Verified:
         infos = z.infolist()
     except ZIP_ERRORS as exc:
         raise BundleRefused(f"not a readable bundle: {exc}") from exc
+    if len(infos) > MAX_ENTRIES + 3:
+        raise BundleRefused(f"bundle has {len(infos)} entries; limit {MAX_ENTRIES + 3}")
     names = [i.filename for i in infos]
     if len(names) != len(set(names)):
         raise BundleRefused("duplicate entries in bundle")
-    for info in infos:
-        if info.file_size > MAX_ENTRY_BYTES:
-            raise BundleRefused(f"entry {info.filename} too large")
+    total = sum(i.file_size for i in infos)
+    if total > MAX_UNPACKED_BYTES:
+        raise BundleRefused(f"bundle unpacks to {total} bytes; limit {MAX_UNPACKED_BYTES}")
+    by_name = {i.filename: i for i in infos}
     for required in ("manifest.json", "manifest.mac", "ops.jsonl"):
-        if required not in names:
+        if required not in by_name:
             raise BundleRefused(f"missing entry {required}")
+    mbytes = _read_bounded(z, by_name["manifest.json"], MAX_MANIFEST_BYTES)
     try:
-        mbytes = z.read("manifest.json")
-        mac = z.read("manifest.mac").decode("ascii").strip()
-    except ZIP_ERRORS as exc:
-        raise BundleRefused(f"unreadable manifest: {exc}") from exc
+        mac = _read_bounded(z, by_name["manifest.mac"], 128).decode("ascii").strip()
+    except UnicodeDecodeError as exc:
+        raise BundleRefused("manifest MAC is not text") from exc
     expected = hmac.new(store.firm_key, mbytes, hashlib.sha256).hexdigest()
     if not hmac.compare_digest(mac, expected):
         raise BundleRefused("manifest MAC does not verify (tampered, or another firm's key)")
     try:
         manifest = json.loads(mbytes)
-    except ValueError as exc:
-        raise BundleRefused(f"manifest is not JSON: {exc}") from exc
+    except (ValueError, RecursionError) as exc:
+        raise BundleRefused(f"manifest is not JSON: {str(exc)[:80]}") from exc
     if not isinstance(manifest, dict) or set(manifest) != MANIFEST_KEYS:
         raise BundleRefused("manifest keys differ from the format")
-    if manifest["format"] != FORMAT or manifest["format_version"] != FORMAT_VERSION:
-        raise BundleRefused(f"unknown format {manifest['format']!r} v{manifest['format_version']}")
+    _check_manifest_fields(manifest)
     blob_names = {f"blobs/{b['sha256']}" for b in manifest["blobs"]}
     if set(names) != {"manifest.json", "manifest.mac", "ops.jsonl"} | blob_names:
         raise BundleRefused("bundle entries differ from the manifest")
-    try:
-        body = z.read("ops.jsonl")
-        blobs = {b["sha256"]: z.read(f"blobs/{b['sha256']}") for b in manifest["blobs"]}
-    except ZIP_ERRORS as exc:
-        raise BundleRefused(f"unreadable entry: {exc}") from exc
+    body = _read_bounded(z, by_name["ops.jsonl"], MAX_ENTRY_BYTES)
+    blobs = {
+        b["sha256"]: _read_bounded(z, by_name[f"blobs/{b['sha256']}"], min(b["size"], MAX_ENTRY_BYTES))
+        for b in manifest["blobs"]
+    }
     if hashlib.sha256(body).hexdigest() != manifest["ops_sha256"]:
         raise BundleRefused("ops hash does not match the manifest")
     for sha, content in blobs.items():
@@ -212,23 +319,75 @@ def verify_bundle(store: Store, data: bytes) -> _Verified:
             raise BundleRefused(f"blob {sha[:12]} does not match its hash")
     ops = []
     try:
-        for line in body.decode().splitlines():
+        for n, line in enumerate(body.decode().splitlines(), start=1):
+            if n > MAX_OPS:
+                raise BundleRefused(f"more than {MAX_OPS} ops")
             ops.append(Op.from_row(json.loads(line)))
-    except (ValueError, KeyError, TypeError) as exc:
-        raise BundleRefused(f"bad op line: {exc}") from exc
+    except (ValueError, KeyError, TypeError, AttributeError, RecursionError) as exc:
+        raise BundleRefused(f"bad op line {len(ops) + 1}: {str(exc)[:120]}") from exc
     if len(ops) != manifest["op_count"]:
         raise BundleRefused("op count differs from the manifest")
-    _check_ranges(store, manifest, ops)
-    return _Verified(manifest, ops, blobs, hashlib.sha256(data).hexdigest())
+    horizon = store.wall_ms() + MAX_AHEAD_MS
+    for op in ops:
+        if op.hlc >> 16 > horizon:  # accepted far ahead is flagged; this far would exhaust the clock's range
+            raise BundleRefused(
+                f"op {op.origin[:8]}:{op.seq} hlc stamped more than {MAX_AHEAD_MS // YEAR_MS} years ahead of this clock"
+            )
+        try:
+            check_op_record(op)
+        except RecordInvalid as exc:
+            raise BundleRefused(f"invalid record: {exc}") from exc
+    rebase_from = _check_integrity(store, ops, manifest["origin"])
+    _check_ranges(store, manifest, ops, rebase_from)
+    return _Verified(manifest, ops, blobs, hashlib.sha256(data).hexdigest(), rebase_from)
 
 
-def _check_ranges(store: Store, manifest: dict[str, Any], ops: list[Op]) -> None:
+def _check_integrity(store: Store, ops: list[Op], sender: str) -> int | None:
+    """Refuse, before any write, an op or insert-only record that contradicts what is held.
+
+    Checked here (read-only) so that applying in batches can never stop half-way on a conflict.
+    Returns the first seq at which this device's own ops, coming back from a peer, differ from the
+    ones it holds: it was restored from a backup and then saved; the import renumbers those saves.
+    """
+    mine: dict[tuple[str, str], str] = {}
+    rebase_from: int | None = None
+    for op in ops:
+        row = store.db.execute(
+            "SELECT hlc, entity, record_id, kind, payload, base FROM op WHERE origin=? AND seq=?", [op.origin, op.seq]
+        ).fetchone()
+        if row is not None:
+            held = (op.hlc, op.entity, op.record_id, op.kind, canonical(op.payload), canonical(op.base))
+            if tuple(row) != held:
+                if op.origin == store.device_id:
+                    rebase_from = op.seq if rebase_from is None else min(rebase_from, op.seq)
+                    continue
+                hint = (
+                    " (the sending device was restored from a backup: import a bundle from here on it, then send again)"
+                    if op.origin == sender
+                    else ""
+                )
+                raise BundleRefused(f"integrity: op {op.origin}:{op.seq} already held with different content{hint}")
+            continue
+        if op.kind != "insert":
+            continue
+        chash = content_hash(op.payload)
+        key = (op.entity, op.record_id)
+        stored = store.db.execute(f"SELECT content_hash FROM {op.entity} WHERE id=?", [op.record_id]).fetchone()
+        known = mine.setdefault(key, stored[0] if stored else chash)
+        if known != chash:
+            raise BundleRefused(f"integrity: {op.entity} {op.record_id}: same id, different content")
+    return rebase_from
+
+
+def _check_ranges(store: Store, manifest: dict[str, Any], ops: list[Op], rebase_from: int | None) -> None:
     by_origin: dict[str, list[int]] = {}
     for op in ops:
         by_origin.setdefault(op.origin, []).append(op.seq)
     if {k: [v[0], v[-1]] for k, v in by_origin.items()} != manifest["ranges"]:
         raise BundleRefused("op ranges differ from the manifest")
     seen = dict(store.db.execute("SELECT origin, seq FROM seen").fetchall())
+    if rebase_from is not None:
+        seen[store.device_id] = min(seen.get(store.device_id, 0), rebase_from - 1)
     for origin, seqs in by_origin.items():
         if seqs != list(range(seqs[0], seqs[-1] + 1)):
             raise BundleRefused(f"ops of {origin[:8]} are not contiguous")
@@ -240,13 +399,28 @@ def _check_ranges(store: Store, manifest: dict[str, Any], ops: list[Op]) -> None
 
 
 def import_bundle(store: Store, path: str | Path, progress: Progress | None = None) -> ImportReport:
-    """Verify then apply a bundle in one transaction; log the attempt whatever its outcome.
+    """Verify then apply a bundle in bounded batches; log the attempt whatever its outcome.
 
+    Nothing is written until the whole bundle verified (a refused bundle leaves no row or blob).
+    The ops are applied in transactions of at most ``BATCH_OPS`` ops, in log order, so a save from
+    another process waits at most one batch; each batch is a whole unit (a killed import leaves a
+    prefix of the log, and importing the same bundle again resumes it).
     ``progress(fraction, what)`` is called as the work goes (for a progress bar).
     """
     tell = progress or _silent
     tell(0.0, "verifying")
-    data = Path(path).read_bytes()
+    path = Path(path)
+    early = (
+        f"{path} is a folder, not a bundle file"
+        if path.is_dir()
+        else f"bundle is {path.stat().st_size} bytes; limit {MAX_BUNDLE_BYTES}"
+        if path.stat().st_size > MAX_BUNDLE_BYTES
+        else ""
+    )
+    if early:
+        _log(store, path, "", "refused", early, 0, 0)
+        return ImportReport("refused", reason=early)
+    data = path.read_bytes()
     try:
         v = verify_bundle(store, data)
     except BundleRefused as exc:
@@ -264,34 +438,30 @@ def import_bundle(store: Store, path: str | Path, progress: Progress | None = No
         reason = f"written by schema {v.manifest['schema_version']}; this app knows {SCHEMA_VERSION}: held"
         _log(store, path, v.sha, "held", reason, len(v.ops), 0)
         return ImportReport("held", ops_total=len(v.ops), reason=reason)
-    for sha, content in v.blobs.items():
-        if not store.blob_path(sha).exists():
-            store.put_blob(content, "application/octet-stream")
-    before = store.db.execute("SELECT count(*) FROM conflict").fetchone()[0]
-    new = 0
+    warning = _clock_warning(store, v.ops)
+    needed = sum(len(c) for sha, c in v.blobs.items() if not store.blob_path(sha).exists())
+    store.blob_dir.mkdir(parents=True, exist_ok=True)
+    free = shutil.disk_usage(store.blob_dir).free
+    if needed + MIN_FREE_BYTES > free:
+        reason = f"not enough free space: the bundle's files need {needed:,} bytes, {free:,} free; nothing written"
+        _log(store, path, v.sha, "refused", reason, len(v.ops), 0)
+        return ImportReport("refused", ops_total=len(v.ops), reason=reason)
+    created: list[Path] = []
+    committed: list[int] = []
     try:
-        with transaction(store.db):
-            newest = 0
-            total = len(v.ops)
-            batch = ProjectionBatch(store.db)
-            for n, op in enumerate(v.ops):
-                if n % PROGRESS_EVERY == 0:
-                    tell(0.2 + 0.8 * n / max(total, 1), f"merging change {n:,} of {total:,}")
-                if insert_op(store.db, op, batch):
-                    apply_op(store.db, op, batch=batch)
-                    newest = max(newest, op.hlc)
-                    new += 1
-            batch.flush()
-            if new:
-                store.observe_hlc(newest)  # the clock passes every stamp received (once, not per op)
-            peer = v.manifest["origin"]
-            for origin, seq in v.manifest["vector"].items():
-                store.db.execute("INSERT OR REPLACE INTO peer_cursor VALUES (?, ?, ?)", [peer, origin, seq])
-    except IntegrityError as exc:
-        _log(store, path, v.sha, "refused", f"integrity: {exc}", len(v.ops), 0)
-        return ImportReport("refused", ops_total=len(v.ops), reason=f"integrity: {exc}")
+        for sha, content in v.blobs.items():
+            if not store.blob_path(sha).exists():
+                store.write_blob_file(content)
+                created.append(store.blob_path(sha))
+        before = store.db.execute("SELECT count(*) FROM conflict").fetchone()[0]
+        new = _apply_batches(store, v, tell, committed)
+    except BaseException:
+        if not committed:  # nothing committed (a full disk, a kill signal): the blobs this import wrote go too
+            for path_created in created:
+                path_created.unlink(missing_ok=True)
+        raise
     conflicts = store.db.execute("SELECT count(*) FROM conflict").fetchone()[0] - before
-    _log(store, path, v.sha, "applied", "", len(v.ops), new)
+    _log(store, path, v.sha, "applied", warning, len(v.ops), new)
     tell(1.0, f"merged {new:,} new changes")
     return ImportReport(
         "applied",
@@ -300,6 +470,62 @@ def import_bundle(store: Store, path: str | Path, progress: Progress | None = No
         blobs_new=len(v.blobs),
         conflicts_new=conflicts,
         origins=v.manifest["ranges"],
+        warning=warning,
+    )
+
+
+def _apply_batches(store: Store, v: _Verified, tell: Progress, committed: list[int]) -> int:
+    """Merge the verified ops in transactions of at most BATCH_OPS ops; the number of new ops.
+
+    ``committed`` receives the start of each batch once it has committed.
+    """
+    new = 0
+    total = len(v.ops)
+    own = [op.seq for op in v.ops if op.origin == store.device_id]
+    for start in range(0, max(total, 1), BATCH_OPS):
+        with transaction(store.db):
+            if start == 0 and v.rebase_from is not None:
+                top = max(op.seq for op in v.ops if op.origin == store.device_id)
+                store.renumber_own_ops(v.rebase_from, top)
+            if start == 0:
+                for sha, content in v.blobs.items():
+                    store.index_blob(sha, len(content), "application/octet-stream")
+            newest = 0
+            batch = ProjectionBatch(store.db)
+            for n, op in enumerate(v.ops[start : start + BATCH_OPS], start=start):
+                if n % PROGRESS_EVERY == 0:
+                    tell(0.2 + 0.8 * n / max(total, 1), f"merging change {n:,} of {total:,}")
+                if insert_op(store.db, op, batch):
+                    apply_op(store.db, op, batch=batch)
+                    newest = max(newest, op.hlc)
+                    new += 1
+            batch.flush()
+            if newest:
+                store.observe_hlc(newest)  # the clock passes every stamp received (once a batch, not per op)
+            if own:
+                store.resume_seq(max(own))  # this device's own ops came back: it was restored from a backup
+            if start + BATCH_OPS >= total:
+                peer = v.manifest["origin"]
+                for origin, seq in v.manifest["vector"].items():
+                    top = store.held_seq(origin)  # a peer has not seen more of an origin than exists here
+                    store.db.execute(
+                        "INSERT OR REPLACE INTO peer_cursor VALUES (?, ?, ?)", [peer, origin, min(seq, top)]
+                    )
+        committed.append(start)
+    return new
+
+
+def _clock_warning(store: Store, ops: list[Op]) -> str:
+    """A flag for stamps far ahead of this device's wall clock (accepted: the device's clock follows)."""
+    wall = store.wall_ms()
+    ahead = [op for op in ops if far_ahead_ms(op.hlc, wall) > 0]
+    if not ahead:
+        return ""
+    worst = max(ahead, key=lambda op: op.hlc)
+    days = ((worst.hlc >> 16) - wall) / 86_400_000
+    return (
+        f"clock: {len(ahead)} changes stamped up to {days:,.1f} days ahead of this tablet's clock "
+        f"(from {worst.origin[:8]}); accepted, and this tablet's next edits still take effect"
     )
 
 

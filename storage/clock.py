@@ -22,6 +22,8 @@ def uuid7(now_ms: int | None = None) -> str:
 
 
 MAX_DRIFT_MS = 10 * 60 * 1000
+# Stamps are stored in SQLite's signed 64-bit integers: 46 bits of ms (to the year 4199) and the counter.
+HLC_MAX = (1 << 62) - 1
 
 
 def hlc_tick(last: int, wall_ms: int) -> int:
@@ -33,7 +35,14 @@ def hlc_tick(last: int, wall_ms: int) -> int:
 
 
 def hlc_receive(last: int, remote: int, wall_ms: int) -> int:
-    """HLC after receiving a remote stamp; never moves more than MAX_DRIFT_MS past the wall clock."""
-    cap = (wall_ms + MAX_DRIFT_MS) << 16 | 0xFFFF
-    merged = max(last, min(remote, cap))
-    return hlc_tick(merged, wall_ms)
+    """HLC after receiving a remote stamp: past everything seen, so the device's next edit wins.
+
+    A stamp far ahead of the wall clock is not capped (a cap would let every received stamp beat the
+    device's own later edits); the import flags it instead (``far_ahead_ms``).
+    """
+    return hlc_tick(max(last, remote), wall_ms)
+
+
+def far_ahead_ms(remote: int, wall_ms: int) -> int:
+    """How far (ms) a stamp's physical time is ahead of the wall clock beyond MAX_DRIFT_MS (0 if not)."""
+    return max(0, (remote >> 16) - wall_ms - MAX_DRIFT_MS)

@@ -10,6 +10,34 @@ from pathlib import Path
 import sqlite_utils
 
 SCHEMA_VERSION = 1
+BUSY_TIMEOUT_S = 10.0  # a save waits this long for a sync's batch (each takes well under a second)
+
+
+class StorageError(Exception):
+    """A fault of the database file or its disk, in one line a person can act on."""
+
+
+class StoreBusy(StorageError):
+    """Another process (a sync) holds the write lock longer than ``BUSY_TIMEOUT_S``; nothing was saved."""
+
+
+class StoreUnavailable(StorageError):
+    """The database cannot be opened or written: not a database, damaged, read-only, or the disk is full."""
+
+
+def storage_error(exc: sqlite3.Error, path: str) -> StorageError:
+    """The SQLite error as a StorageError naming the file and what to do."""
+    text = str(exc)
+    if "locked" in text or "busy" in text:
+        return StoreBusy(f"{path}: the database is busy (a sync is in progress); nothing was saved, try again")
+    if "full" in text or "disk I/O" in text:
+        return StoreUnavailable(f"{path}: the disk could not be written ({text}: full or failing); nothing was saved")
+    if "readonly" in text or "read-only" in text:
+        return StoreUnavailable(f"{path}: the database is read-only; nothing was saved")
+    if "not a database" in text or "malformed" in text:
+        return StoreUnavailable(f"{path}: not a bracewalk database, or it is damaged ({text})")
+    return StoreUnavailable(f"{path}: database error: {text}")
+
 
 SET_ENTITIES = ("site", "visit", "beam", "deficiency")
 INSERT_ENTITIES = ("measurement", "photo", "issued_notice")
@@ -53,13 +81,21 @@ MIGRATIONS: dict[int, list[str]] = {
 
 
 def connect(path: str | Path) -> sqlite_utils.Database:
-    """Open (creating if needed) a database in WAL mode with synchronous=FULL and migrate it."""
-    conn = sqlite3.connect(str(path), isolation_level=None, check_same_thread=False)
-    conn.execute("PRAGMA journal_mode=WAL")
-    conn.execute("PRAGMA synchronous=FULL")
-    conn.execute("PRAGMA foreign_keys=ON")
-    db = sqlite_utils.Database(conn)
-    migrate(db)
+    """Open (creating if needed) a database in WAL mode with synchronous=FULL and migrate it.
+
+    Raises StorageError (one line, naming the file) if it is not a database, damaged or read-only.
+    """
+    if str(path) != ":memory:" and Path(path).is_dir():
+        raise StoreUnavailable(f"{path} is a folder, not a database file")
+    try:
+        conn = sqlite3.connect(str(path), isolation_level=None, check_same_thread=False, timeout=BUSY_TIMEOUT_S)
+        conn.execute("PRAGMA journal_mode=WAL")
+        conn.execute("PRAGMA synchronous=FULL")
+        conn.execute("PRAGMA foreign_keys=ON")
+        db = sqlite_utils.Database(conn)
+        migrate(db)
+    except sqlite3.Error as exc:
+        raise storage_error(exc, str(path)) from exc
     return db
 
 
@@ -79,10 +115,25 @@ def migrate(db: sqlite_utils.Database) -> int:
 @contextmanager
 def transaction(db: sqlite_utils.Database) -> Iterator[sqlite_utils.Database]:
     """One write transaction (BEGIN IMMEDIATE ... COMMIT); rolled back on any exception."""
-    db.execute("BEGIN IMMEDIATE")
+    try:
+        db.execute("BEGIN IMMEDIATE")
+    except sqlite3.Error as exc:
+        raise storage_error(exc, _name(db)) from exc
     try:
         yield db
-    except BaseException:
-        db.execute("ROLLBACK")
+        db.execute("COMMIT")
+    except BaseException as exc:
+        # SQLite has already rolled back after some errors (a full disk): keep the real error then
+        if db.conn.in_transaction:
+            db.execute("ROLLBACK")
+        if isinstance(exc, sqlite3.Error):
+            raise storage_error(exc, _name(db)) from exc
         raise
-    db.execute("COMMIT")
+
+
+def _name(db: sqlite_utils.Database) -> str:
+    try:
+        row = db.conn.execute("PRAGMA database_list").fetchone()
+    except sqlite3.Error:
+        return "the database"
+    return str(row[2]) if row and row[2] else ":memory:"

@@ -15,9 +15,15 @@ from typing import Any
 
 import sqlite_utils
 
+from storage.clock import HLC_MAX
 from storage.db import INSERT_ENTITIES, SCHEMA_VERSION, SET_ENTITIES
 
 OP_KEYS = ("origin", "seq", "hlc", "entity", "record_id", "kind", "payload", "base", "schema_version", "wall_ms")
+# Allowed ranges of an op's integers (closed): all fit SQLite's signed 64-bit integers.
+SEQ_MAX = 2**53
+WALL_MS_MAX = 1 << 46  # the year 4199
+INT_RANGES = {"seq": (1, SEQ_MAX), "hlc": (0, HLC_MAX), "schema_version": (1, 10_000), "wall_ms": (0, WALL_MS_MAX)}
+MAX_ID_CHARS = 64
 
 
 class IntegrityError(Exception):
@@ -71,17 +77,25 @@ class Op:
             raise ValueError(f"op keys {sorted(row)} differ from {sorted(OP_KEYS)}")
         payload = row["payload"] if isinstance(row["payload"], dict) else json.loads(row["payload"])
         base = row["base"] if isinstance(row["base"], dict) else json.loads(row["base"])
+        for key in ("origin", "entity", "record_id", "kind"):
+            if not isinstance(row[key], str) or not 0 < len(row[key]) <= MAX_ID_CHARS:
+                raise ValueError(f"op {key} {str(row[key])[:40]!r} must be text of 1 to {MAX_ID_CHARS} characters")
+        for key in INT_RANGES:
+            if not isinstance(row[key], int) or isinstance(row[key], bool):
+                raise ValueError(f"op {key} {str(row[key])[:40]!r} must be an integer")
+        if not isinstance(payload, dict) or not isinstance(base, dict):
+            raise ValueError("op payload and base must be JSON objects")
         op = cls(
-            origin=str(row["origin"]),
-            seq=int(row["seq"]),
-            hlc=int(row["hlc"]),
-            entity=str(row["entity"]),
-            record_id=str(row["record_id"]),
-            kind=str(row["kind"]),
+            origin=row["origin"],
+            seq=row["seq"],
+            hlc=row["hlc"],
+            entity=row["entity"],
+            record_id=row["record_id"],
+            kind=row["kind"],
             payload=payload,
             base=base,
-            schema_version=int(row["schema_version"]),
-            wall_ms=int(row["wall_ms"]),
+            schema_version=row["schema_version"],
+            wall_ms=row["wall_ms"],
         )
         op.validate()
         return op
@@ -96,8 +110,10 @@ class Op:
             raise ValueError("op kind 'status' applies only to 'deficiency'")
         if self.kind not in ("set", "insert", "status"):
             raise ValueError(f"unknown op kind {self.kind!r}")
-        if self.seq < 1:
-            raise ValueError(f"op seq {self.seq} must be >= 1")
+        for key, (low, high) in INT_RANGES.items():
+            value = getattr(self, key)
+            if not low <= value <= high:
+                raise ValueError(f"op {key} {value} out of range; allowed {low} to {high}")
 
 
 def _now() -> str:

@@ -15,6 +15,7 @@ from core.records import Deficiency, IssuedNotice, Site, Stage, StatusEvent, Vis
 from core.results import PRIORITY_ORDER
 from storage.clock import hlc_receive, hlc_tick, uuid7
 from storage.db import PROJECTIONS, SCHEMA_VERSION, SET_ENTITIES, connect, transaction
+from storage.files import write_atomic
 from storage.oplog import IntegrityError, Op, all_ops, apply_op, canonical, insert_op
 
 BEAM_FIELDS = tuple(Beam.model_fields)
@@ -65,6 +66,7 @@ class Store:
         meta = self._meta()
         self.device_id = meta["device_id"]
         self.device_code = meta["device_code"]
+        self._resume_from_mark()
 
     # -- bookkeeping -------------------------------------------------------------------------
     def _meta(self) -> dict[str, str]:
@@ -99,6 +101,100 @@ class Store:
         base = Path(self.path).parent if self.path != ":memory:" else Path(os.environ.get("TMPDIR", "/tmp"))
         return base / (Path(self.path).stem + "-blobs")
 
+    def wall_ms(self) -> int:
+        """The wall clock of this device (ms since 1970)."""
+        return int(self._wall())
+
+    # -- restored from a backup ----------------------------------------------------------------
+    @property
+    def sent_mark_path(self) -> Path | None:
+        """A small file beside the database: the highest own seq and stamp that left this device.
+
+        A database copied back from a backup does not carry it back, so a restore is seen at once.
+        """
+        return None if self.path == ":memory:" else Path(self.path).with_name(Path(self.path).name + ".sent")
+
+    def record_sent(self, peer: str | None) -> None:
+        """Note (fsynced, atomically) that every own op up to the current seq has left this device."""
+        path = self.sent_mark_path
+        if path is None:
+            return
+        mark = self._read_mark()
+        meta = self._meta()
+        peers = dict(mark.get("peers", {}))
+        if peer:
+            peers[peer] = int(meta["seq"])
+        mark = {
+            "device_id": self.device_id,
+            "seq": max(int(meta["seq"]), int(mark.get("seq", 0))),
+            "hlc": max(int(meta["hlc"]), int(mark.get("hlc", 0))),
+            "peers": peers,
+        }
+        write_atomic(path, json.dumps(mark).encode())
+
+    def _read_mark(self) -> dict[str, Any]:
+        path = self.sent_mark_path
+        if path is None or not path.exists():
+            return {}
+        try:
+            mark = json.loads(path.read_text(encoding="utf-8"))
+        except (OSError, ValueError):
+            return {}  # a damaged mark only loses the early warning; imports still detect a restore
+        ok = isinstance(mark, dict) and mark.get("device_id") == self.device_id
+        return mark if ok else {}
+
+    def _resume_from_mark(self) -> None:
+        mark = self._read_mark()
+        if not mark or int(mark.get("seq", 0)) <= int(self._meta()["seq"]):
+            return
+        with transaction(self.db):
+            self.resume_seq(int(mark["seq"]))
+            self._set_meta("hlc", str(max(int(self._meta()["hlc"]), int(mark.get("hlc", 0)))))
+            for peer, seq in dict(mark.get("peers", {})).items():
+                row = self.db.execute(
+                    "SELECT seq FROM peer_cursor WHERE peer=? AND origin=?", [peer, self.device_id]
+                ).fetchone()
+                if row is None or row[0] < int(seq):
+                    self.db.execute("INSERT OR REPLACE INTO peer_cursor VALUES (?, ?, ?)", [peer, self.device_id, seq])
+
+    def resume_seq(self, seq: int) -> None:
+        """Continue this device's op counter past ``seq`` (inside the caller's transaction).
+
+        Used when the device's own ops come back beyond its counter: it was restored from a backup,
+        and a new op must never reuse a seq already sent.
+        """
+        if seq > int(self._meta()["seq"]):
+            self._set_meta("seq", str(seq))
+            self._set_meta("restored_at_seq", str(seq))
+
+    def renumber_own_ops(self, first: int, past: int) -> None:
+        """Move this device's ops from seq ``first`` on to just past ``past`` (inside the caller's transaction).
+
+        A device restored from a backup that saved before hearing back from its peers reused seqs it
+        had already sent with other content. Those new ops (never sent: a peer would have refused
+        them) keep their content and stamps and take fresh seqs, so both lines of work survive.
+        """
+        shift = past - first + 1
+        me = self.device_id
+        sql = "SELECT seq FROM op WHERE origin=? AND seq>=? ORDER BY seq DESC"
+        moved = self.db.execute(sql, [me, first]).fetchall()
+        for (seq,) in moved:
+            self.db.execute("UPDATE op SET seq=? WHERE origin=? AND seq=?", [seq + shift, me, seq])
+            old_event, new_event = f"{me}:{seq}", f"{me}:{seq + shift}"
+            self.db.execute("UPDATE deficiency_event SET id=? WHERE id=?", [new_event, old_event])
+            for col in ("winner", "loser"):
+                self.db.execute(
+                    f"UPDATE conflict SET {col}_seq=? WHERE {col}_origin=? AND {col}_seq=?", [seq + shift, me, seq]
+                )
+        self.db.execute("INSERT OR REPLACE INTO seen VALUES (?, ?)", [me, first - 1])
+        self._set_meta("seq", str(max(int(self._meta()["seq"]) + shift, past)))
+        self._set_meta("restored_at_seq", str(first - 1))
+
+    def held_seq(self, origin: str) -> int:
+        """The highest seq of ``origin`` in this database's log (0 if none)."""
+        row = self.db.execute("SELECT max(seq) FROM op WHERE origin=?", [origin]).fetchone()
+        return int(row[0] or 0)
+
     def _next_hlc(self) -> int:
         meta = self._meta()
         hlc = hlc_tick(int(meta["hlc"]), self._wall())
@@ -132,10 +228,17 @@ class Store:
             base = {f: self.stamp(entity, record_id, f) for f in fields}
         seq = int(self._meta()["seq"]) + 1
         self._set_meta("seq", str(seq))
+        hlc = self._next_hlc()
+        if kind == "set":
+            # the device's own edit always takes effect here: past every stamp of the fields it changes
+            top = max((s[0] for s in (self.stamp(entity, record_id, f) for f in fields) if s), default=-1)
+            if top >= hlc:
+                hlc = top + 1
+                self._set_meta("hlc", str(hlc))
         op = Op(
             origin=self.device_id,
             seq=seq,
-            hlc=self._next_hlc(),
+            hlc=hlc,
             entity=entity,
             record_id=record_id,
             kind=kind,
@@ -259,24 +362,38 @@ class Store:
     # -- blobs and photos ----------------------------------------------------------------------
     def put_blob(self, content: bytes, mime: str) -> str:
         """Write a blob file named by its SHA-256 and fsync it; the index row commits after."""
+        sha = self.write_blob_file(content)
+        with transaction(self.db):
+            self.index_blob(sha, len(content), mime)
+        return sha
+
+    def write_blob_file(self, content: bytes) -> str:
+        """Write (once) and fsync the file of a blob; on any failure (a full disk) no partial file is left."""
         sha = hashlib.sha256(content).hexdigest()
         path = self.blob_path(sha)
-        if not path.exists():
-            path.parent.mkdir(parents=True, exist_ok=True)
-            tmp = path.with_suffix(".part")
+        if path.exists():
+            return sha
+        path.parent.mkdir(parents=True, exist_ok=True)
+        tmp = path.with_suffix(".part")
+        try:
             with open(tmp, "wb") as fh:
                 fh.write(content)
                 fh.flush()
                 os.fsync(fh.fileno())
             os.replace(tmp, path)
-            dir_fd = os.open(path.parent, os.O_RDONLY)
-            try:
-                os.fsync(dir_fd)
-            finally:
-                os.close(dir_fd)
-        with transaction(self.db):
-            self.db.execute("INSERT OR REPLACE INTO blob VALUES (?, ?, ?, 1)", [sha, len(content), mime])
+        except OSError:
+            tmp.unlink(missing_ok=True)
+            raise
+        dir_fd = os.open(path.parent, os.O_RDONLY)
+        try:
+            os.fsync(dir_fd)
+        finally:
+            os.close(dir_fd)
         return sha
+
+    def index_blob(self, sha: str, size: int, mime: str) -> None:
+        """The blob's index row (inside the caller's transaction)."""
+        self.db.execute("INSERT OR REPLACE INTO blob VALUES (?, ?, ?, 1)", [sha, size, mime])
 
     def blob_path(self, sha: str) -> Path:
         """Where a blob's bytes live."""
@@ -484,11 +601,24 @@ class Store:
         return sorted(items, key=lambda n: (n.number, n.revision))
 
     def find_issued_by_hash(self, sha: str) -> IssuedNotice | None:
-        """The issued notice whose PDF has this SHA-256, if any."""
-        for row in self.db.execute("SELECT id, data FROM issued_notice").fetchall():
-            data = json.loads(row[1])
-            if data["pdf_sha256"] == sha:
-                return IssuedNotice(id=row[0], **data)
+        """The issued notice whose PDF has this SHA-256, if any, read from the op log (not the table).
+
+        The ``issued_notice`` table is a projection that anyone with the file can edit; the notice's
+        insert op is what was synced to the office, so it decides (and the table must agree with it).
+        """
+        rows = self.db.execute(
+            "SELECT record_id, payload FROM op WHERE entity='issued_notice' AND kind='insert' "
+            "AND json_extract(payload, '$.pdf_sha256') = ? ORDER BY origin, seq",
+            [sha],
+        ).fetchall()
+        for record_id, payload in rows:
+            data = json.loads(payload)
+            if self._get("issued_notice", record_id) != data:
+                raise IntegrityError(
+                    f"issued notice {data.get('number')} in this database differs from its logged record "
+                    "(the database was edited): the log is kept, the table is not trusted"
+                )
+            return IssuedNotice(id=record_id, **data)
         return None
 
     # -- sync bookkeeping ---------------------------------------------------------------------

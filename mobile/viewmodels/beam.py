@@ -29,7 +29,7 @@ from core.remedies import remedies
 from core.results import FactorTrace, Recheck
 from mobile.units import LengthRefused, echo_length, read_length, split_spans
 from mobile.viewmodels.common import PRIORITY_LABELS, line_loads_kn_m, status_label
-from storage import Store
+from storage import StorageError, Store
 
 LENGTH_FIELDS = {  # form field -> its plausible range (core.plausible)
     "b_mm": "b_mm",
@@ -363,8 +363,9 @@ class BeamFormViewModel:
             if drafts != (rec.get("drafts") or {}):
                 changes["drafts"] = drafts
             if changes:
+                if not self._save(name, changes):
+                    return False
                 self._undo.append({k: rec.get(k) for k in changes})
-                self.store.update_beam(self.beam_id, changes)
             self.refresh()
             return True
         if self.is_picker(name):  # a refused pick is not kept: the picker shows the value in force
@@ -379,8 +380,17 @@ class BeamFormViewModel:
             return False
         if drafts.get(name) != text:  # keep what was typed, even though it is refused
             drafts[name] = text
-            self.store.update_beam(self.beam_id, {"drafts": drafts})
+            self._save(name, {"drafts": drafts})
         return False
+
+    def _save(self, name: str, changes: dict[str, Any]) -> bool:
+        """Save; if the database is busy (a sync) or cannot be written, say so at the field (the text stays)."""
+        try:
+            self.store.update_beam(self.beam_id, changes)
+        except StorageError as exc:
+            self.errors[name] = f"NOT SAVED: {exc}"
+            return False
+        return True
 
     def undo(self) -> bool:
         """Put back the values before the last accepted change (saved as a new edit)."""

@@ -12,7 +12,7 @@ from pathlib import Path
 from mobile.issue import build_notice, issue_notice_for_site
 from mobile.viewmodels.common import PRIORITY_LABELS
 from reports.render import render_notice
-from storage import Store
+from storage import StorageError, Store
 
 PREVIEW_SCALE = 2.0  # 144 dpi: a US letter page is 1224 x 1584 px, legible on a tablet
 
@@ -74,7 +74,13 @@ class NoticeViewModel:
             self.message = "Enter the reviewer issuing the notice"
             return None
         out = out_dir / f"notice-{time.strftime('%Y%m%d-%H%M%S')}.pdf"
-        issued, path = issue_notice_for_site(self.store, self.site_id, out, issued_by.strip(), only=sorted(self.chosen))
+        try:
+            issued, path = issue_notice_for_site(
+                self.store, self.site_id, out, issued_by.strip(), only=sorted(self.chosen)
+            )
+        except (StorageError, OSError) as exc:  # nothing was issued: the number is not spent
+            self.message = f"Not issued: {exc}"
+            return None
         self.message = f"Issued {issued.number} rev {issued.revision} ({len(issued.deficiency_ids)} items)"
         return path
 

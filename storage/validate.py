@@ -1,0 +1,164 @@
+"""Imported records pass the same pydantic models as a local save, before the first write.
+
+A bundle op carries a partial record (``set``), a whole one (``insert``) or a status move. Each is
+checked here field by field against ``core``'s models; the first bad field refuses the bundle whole,
+naming the record and the field.
+"""
+
+from __future__ import annotations
+
+import re
+from functools import cache
+from typing import Annotated, Any
+
+from pydantic import BaseModel, TypeAdapter, ValidationError
+
+from core.models import Beam
+from core.records import Deficiency, IssuedNotice, Site, Stage, StatusEvent, Visit
+from core.results import PRIORITY_ORDER
+from storage.clock import HLC_MAX
+from storage.oplog import MAX_ID_CHARS, Op, canonical
+
+SHA256 = re.compile(r"^[0-9a-f]{64}$")
+MAX_VALUE_CHARS = 100_000  # one field's canonical JSON (a long description fits easily)
+MAX_CYCLE = 1_000
+
+MODELS: dict[str, type[BaseModel]] = {"site": Site, "visit": Visit, "beam": Beam, "deficiency": Deficiency}
+# fields a record holds besides its model's (location, drafts, bookkeeping); free JSON, size-bounded
+ALWAYS_TEXT_ID = ("site_id", "beam_id", "deficiency_id")
+
+
+class RecordInvalid(ValueError):
+    """An imported record that a local save would have refused."""
+
+
+def check_priority(priority: Any) -> None:
+    """The deficiency priorities the app offers (the same rule as ``Store.raise_deficiency``)."""
+    if priority not in PRIORITY_ORDER:
+        raise ValueError(f"priority {priority!r}; allowed: {list(PRIORITY_ORDER)}")
+
+
+@cache
+def _adapter(entity: str, field: str) -> TypeAdapter[Any] | None:
+    model = MODELS[entity]
+    info = model.model_fields.get(field)
+    if info is None:
+        return None
+    annotation: Any = info.annotation
+    if entity == "beam":  # an undo may put back a field that was never set
+        annotation = annotation | None
+    return TypeAdapter(Annotated[annotation, info])
+
+
+def _where(op: Op, field: str) -> str:
+    return f"{op.entity} {op.record_id} field {field!r} (op {op.origin[:8]}:{op.seq})"
+
+
+def _first_error(exc: ValidationError) -> str:
+    e = exc.errors()[0]
+    loc = ".".join(str(p) for p in e["loc"])
+    return f"{loc + ': ' if loc else ''}{e['msg']} (got {str(e.get('input'))[:60]!r})"
+
+
+def _check_size(op: Op, field: str, value: Any) -> None:
+    if len(canonical(value)) > MAX_VALUE_CHARS:
+        raise RecordInvalid(f"{_where(op, field)}: value longer than {MAX_VALUE_CHARS} characters")
+
+
+def _check_id(op: Op, field: str, value: Any, optional: bool) -> None:
+    if value is None and optional:
+        return
+    if not isinstance(value, str) or not 0 < len(value) <= MAX_ID_CHARS:
+        raise RecordInvalid(f"{_where(op, field)}: must be a record id (text of 1 to {MAX_ID_CHARS} characters)")
+
+
+def _check_set(op: Op) -> None:
+    for field, value in op.payload.items():
+        _check_size(op, field, value)
+        if field == "site_id":
+            _check_id(op, field, value, optional=False)
+            continue
+        if field in ALWAYS_TEXT_ID:
+            _check_id(op, field, value, optional=True)
+            continue
+        if op.entity != "beam" and field in ("id", "cycle", "stage"):
+            raise RecordInvalid(f"{_where(op, field)}: not set by an edit")
+        adapter = _adapter(op.entity, field)
+        if adapter is None:
+            if op.entity != "beam":  # beams carry location fields and drafts besides the model's
+                raise RecordInvalid(f"{_where(op, field)}: not a field of {op.entity}")
+            continue
+        try:
+            adapter.validate_python(value)
+            if op.entity == "deficiency" and field == "priority":
+                check_priority(value)
+        except (ValidationError, ValueError) as exc:
+            why = _first_error(exc) if isinstance(exc, ValidationError) else str(exc)
+            raise RecordInvalid(f"{_where(op, field)}: {why}") from exc
+    for field, stamp in op.base.items():
+        ok = (
+            isinstance(stamp, list)
+            and len(stamp) == 2
+            and isinstance(stamp[0], int)
+            and not isinstance(stamp[0], bool)
+            and 0 <= stamp[0] <= HLC_MAX
+            and isinstance(stamp[1], str)
+            and 0 < len(stamp[1]) <= MAX_ID_CHARS
+        )
+        if not ok:
+            raise RecordInvalid(f"{_where(op, field)}: base stamp {str(stamp)[:60]} is not [hlc, origin]")
+
+
+def _check_status(op: Op) -> None:
+    p = op.payload
+    try:
+        StatusEvent.model_validate(
+            {k: p.get(k) for k in StatusEvent.model_fields if k in p} | {"deficiency_id": op.record_id}
+        )
+    except ValidationError as exc:
+        field = str(exc.errors()[0]["loc"][0]) if exc.errors()[0]["loc"] else "(status)"
+        raise RecordInvalid(f"{_where(op, field)}: {_first_error(exc)}") from exc
+    if not isinstance(p["cycle"], int) or not 0 <= p["cycle"] <= MAX_CYCLE:
+        raise RecordInvalid(f"{_where(op, 'cycle')}: {p['cycle']!r} out of range 0 to {MAX_CYCLE}")
+    if p["stage"] not in tuple(int(s) for s in Stage) or isinstance(p["stage"], bool):
+        raise RecordInvalid(f"{_where(op, 'stage')}: {p['stage']!r}; allowed {[int(s) for s in Stage]}")
+    extra = set(p) - set(StatusEvent.model_fields) - {"site_id"}
+    if extra:
+        raise RecordInvalid(f"{_where(op, sorted(extra)[0])}: not a field of a status move")
+    _check_id(op, "site_id", p.get("site_id"), optional=True)
+    for field, value in p.items():
+        _check_size(op, field, value)
+
+
+def _check_insert(op: Op) -> None:
+    p = op.payload
+    for field, value in p.items():
+        _check_size(op, field, value)
+    if op.entity == "issued_notice":
+        try:
+            IssuedNotice.model_validate(dict(p, id=op.record_id))
+        except ValidationError as exc:
+            field = str(exc.errors()[0]["loc"][0]) if exc.errors()[0]["loc"] else "(notice)"
+            raise RecordInvalid(f"{_where(op, field)}: {_first_error(exc)}") from exc
+        if not SHA256.match(str(p["pdf_sha256"])):
+            raise RecordInvalid(f"{_where(op, 'pdf_sha256')}: not a SHA-256")
+        _check_id(op, "site_id", p["site_id"], optional=False)
+        return
+    _check_id(op, "site_id", p.get("site_id"), optional=False)
+    for field in ("beam_id", "deficiency_id"):
+        _check_id(op, field, p.get(field), optional=True)
+    if op.entity == "photo" and not SHA256.match(str(p.get("sha256"))):
+        raise RecordInvalid(f"{_where(op, 'sha256')}: not a SHA-256")
+
+
+def check_op_record(op: Op) -> None:
+    """Raise RecordInvalid (naming record and field) unless the op's content is what a local save writes."""
+    if op.kind == "set":
+        _check_set(op)
+    elif op.kind == "status":
+        _check_status(op)
+    else:
+        _check_insert(op)
+
+
+__all__ = ["RecordInvalid", "check_op_record", "check_priority"]
