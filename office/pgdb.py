@@ -137,6 +137,11 @@ class PgDatabase:
         self.url = url
         self.conn = psycopg.connect(url, autocommit=True)
 
+    @property
+    def in_transaction(self) -> bool:
+        """Whether a transaction is open on the connection (``storage.db.transaction`` asks on errors)."""
+        return self.conn.info.transaction_status != psycopg.pq.TransactionStatus.IDLE
+
     def execute(self, sql: str, params: Any = None) -> Any:
         """Run one statement (translated) and return the cursor."""
         if sql.strip().upper() == "BEGIN IMMEDIATE":

@@ -124,11 +124,17 @@ def transaction(db: sqlite_utils.Database) -> Iterator[sqlite_utils.Database]:
         db.execute("COMMIT")
     except BaseException as exc:
         # SQLite has already rolled back after some errors (a full disk): keep the real error then
-        if db.conn.in_transaction:
+        if _in_transaction(db):
             db.execute("ROLLBACK")
         if isinstance(exc, sqlite3.Error):
             raise storage_error(exc, _name(db)) from exc
         raise
+
+
+def _in_transaction(db: sqlite_utils.Database) -> bool:
+    """Whether a transaction is still open; the hub's PostgreSQL adapter answers for itself."""
+    own = getattr(db, "in_transaction", None)  # office.pgdb.PgDatabase
+    return bool(own) if own is not None else db.conn.in_transaction
 
 
 def _name(db: sqlite_utils.Database) -> str:
