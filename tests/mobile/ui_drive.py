@@ -191,6 +191,7 @@ if FLOW == "main":
         type_into("purlin_spacing_mm", "1200")
         pick("top_fastened", "yes")  # not recorded would be taken as not fastened (issue 16)
         pick("top_stamp", "up")
+        pick("use", "roof_no_ceiling")  # not recorded would be held to the strictest limit, L/360 (issue 16)
         assert screen("beam").vm.result is None  # nothing rechecked on values not yet entered
         assert "S1 lateral restraint" in screen("beam").vm.recheck_error, screen("beam").vm.recheck_error
         for i in (1, 2):
