@@ -67,6 +67,7 @@ def test_section_modulus_s_handbook(b, d, expected):
         (130, 456, 7200, (130 / 130 * 610 / 456 * 9100 / 7200) ** 0.1),  # = 1.05337 (below the cap)
         (80, 152, 1000, 1.3),  # (1.625 x 4.013 x 9.1)^0.1 = 1.504: capped at 1.3 (7.5.6.5.1)
         (130, 610 / 1.3**10, 9100, 1.3),  # exactly at the cap: (1.3^10)^0.1 = 1.3
+        (130, 610, 0.5, 1.3),  # a very short positive segment is accepted: (18 200)^0.1 = 2.67 -> cap 1.3
     ],
 )
 def test_size_factor_kzbg_o86_7_5_6_5_1(b, d, length, expected):
@@ -149,6 +150,7 @@ def test_glulam_bending_strength_for_face_refuses(sign, stamp, match):
     [
         # O86-19 5.3.2.3 (memory): KD = 1.0 - 0.50 log10(PL/PS) >= 0.65 when PL > PS, else 1.0
         (0.0, 5.0, 1.0),
+        (0.001, 5.0, 1.0),  # 1 - 0.5 log10(0.0002) = 2.85: KD never above 1.0
         (2.0, 5.0, 1.0),
         (5.0, 5.0, 1.0),  # boundary PL = PS
         (10.0, 5.0, 1.0 - 0.5 * 0.301029996),  # log10 2 = 0.30103 -> 0.849485
@@ -229,6 +231,8 @@ def test_factored_strength(f, factors, expected):
         (7200, 180, 40.0),  # O86-19 5.4.2: L/180
         (3600, 360, 10.0),
         (0, 360, 0.0),
+        (1000, 1, 1000.0),  # any positive ratio is accepted (the guard is ratio > 0)
+        (1000, 0.5, 2000.0),
     ],
 )
 def test_deflection_limit_mm(span, ratio, expected):
@@ -319,6 +323,7 @@ def test_sawn_vr_o86_6_5_4_1(fv, area, kzv, expected_n):
         (100, 100, 1.0),  # boundary r = 1
         (150, 100, 1.075),  # 1 + 0.15 x 0.5
         (120, 100, 1.03),  # 1 + 0.15 x 0.2
+        (199, 100, 1.1485),  # 1 + 0.15 x 0.99
         (200, 100, 1.15),  # boundary r = 2
         (300, 100, 1.15),
     ],
