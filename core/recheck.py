@@ -2,7 +2,10 @@
 
 This layer takes the pydantic ``Beam``, runs the analysis for every NBC combination and live/snow
 pattern, finds each region's compression edge and unsupported length, and applies the clause
-functions. It does no engineering arithmetic of its own beyond choosing inputs and maxima.
+functions. Besides choosing inputs and maxima it still does some arithmetic of its own, not yet
+moved into cited clause functions: Le = factor x Lu (Table 7.4 row), the deflection span 2L of a
+cantilever (common practice), the KL regime named in the trace, utilisations (demand / resistance)
+and the conversions to kN and kN*m.
 """
 
 from __future__ import annotations
