@@ -6,9 +6,12 @@ clause (the numbers in each row are worked by hand: arithmetic shown in the row'
 is the same recollection of the standard, said so in the row. Nothing here imports the project's
 constants (PHI_*, KD_*, LUMBER_DB_LIMITS ...): each is written out as a number with its clause.
 
-Mutants explained as equivalent (no input can tell them apart), found by ``python -m bench --only
-mutation``:
-- none in ``core.clauses`` at the time of writing.
+Mutation run (``python -m bench --only mutation``, mutmut 3.8.1): every mutant of ``core.clauses``
+is caught by these tables and the other core and validation tests (240 of 240). Three mutants that
+no input could tell apart were removed at the source rather than explained: ``r <= 1.0`` -> ``r < 1.0``
+and ``r <= 2.0`` -> ``r < 2.0`` in KZcp, and ``PL <= PS`` -> ``PL < PS`` in KD, were branch boundaries
+where both sides give the same number (the formulas are continuous there); KZcp and KD are now
+written as clamps of their formulas, with no such branches.
 """
 
 import math
