@@ -1,8 +1,10 @@
 """Run every benchmark and print one table: `python -m bench [--quick] [--only NAME ...]`.
 
 Benchmarks: recheck, sync, report (modules of this package) and app (the tablet app under Xvfb,
-run in a child process). Each uses its own temporary files and removes them. Figures are medians
-over repeats with their spread; baselines are measured in the same run. Nothing here is a test.
+run in a child process), and on request mutation (mutmut over core: not in the default run, it
+takes minutes to tens of minutes; see bench/mutation.py). Each uses its own temporary files and
+removes them. Figures are medians over repeats with their spread; baselines are measured in the same
+run. Nothing here is a test.
 """
 
 from __future__ import annotations
@@ -15,13 +17,14 @@ import time
 from bench.common import Row, print_table
 
 NAMES = ("recheck", "sync", "report", "app")
+ON_REQUEST = ("mutation",)  # too slow for the default run: only with --only
 
 
 def main(argv: list[str] | None = None) -> int:
     """Parse arguments, run the chosen benchmarks, print the table; exit 1 if one crashed."""
     ap = argparse.ArgumentParser(prog="python -m bench", description=__doc__)
     ap.add_argument("--quick", action="store_true", help="smaller sizes and fewer repeats (a smoke run)")
-    ap.add_argument("--only", nargs="+", choices=NAMES, help="run only these benchmarks")
+    ap.add_argument("--only", nargs="+", choices=NAMES + ON_REQUEST, help="run only these benchmarks")
     args = ap.parse_args(argv)
     rows: list[Row] = []
     failed = False

@@ -15,15 +15,17 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
+from core.kinds import ElementKind, MomentSign
+
 SAMPLES_PER_ELEMENT = 24
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, kw_only=True)
 class Element:
     """One element: a span between supports or an overhang (cantilever) with a free end."""
 
     name: str
-    kind: str  # "span" or "overhang"
+    kind: ElementKind
     x0_mm: float
     length_mm: float
 
@@ -33,13 +35,13 @@ class Element:
         return self.x0_mm + self.length_mm
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, kw_only=True)
 class Region:
     """A stretch between consecutive points of zero moment, with one moment sign."""
 
     x0_mm: float
     x1_mm: float
-    sign: str  # "positive" or "negative"
+    sign: MomentSign
     m_max_nmm: float  # largest |M| in the region, N*mm
     elements: tuple[int, ...]  # indices of the elements the region overlaps
 
@@ -49,7 +51,7 @@ class Region:
         return self.x1_mm - self.x0_mm
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, kw_only=True)
 class CaseResult:
     """Response to one load case: end shear and moment per element and support reactions."""
 
@@ -108,13 +110,17 @@ class BeamModel:
         elements: list[Element] = []
         x = 0.0
         if overhang_left_mm > 0:
-            elements.append(Element("overhang left", "overhang", x, overhang_left_mm))
+            elements.append(
+                Element(name="overhang left", kind=ElementKind.overhang, x0_mm=x, length_mm=overhang_left_mm)
+            )
             x += overhang_left_mm
         for i, span in enumerate(spans_mm):
-            elements.append(Element(f"span {i + 1}", "span", x, span))
+            elements.append(Element(name=f"span {i + 1}", kind=ElementKind.span, x0_mm=x, length_mm=span))
             x += span
         if overhang_right_mm > 0:
-            elements.append(Element("overhang right", "overhang", x, overhang_right_mm))
+            elements.append(
+                Element(name="overhang right", kind=ElementKind.overhang, x0_mm=x, length_mm=overhang_right_mm)
+            )
             x += overhang_right_mm
         self.elements = tuple(elements)
         self.lengths = tuple(e.length_mm for e in elements)
@@ -198,7 +204,7 @@ class BeamModel:
             if node < n_el:
                 r += v0[node]
             reactions.append(r)
-        return CaseResult(tuple(w_n_mm), tuple(v0), tuple(m0), tuple(reactions))
+        return CaseResult(w_n_mm=tuple(w_n_mm), v0_n=tuple(v0), m0_nmm=tuple(m0), reactions_n=tuple(reactions))
 
     def deflections_mm(self, w_n_mm: tuple[float, ...], ei_nmm2: float) -> list[tuple[float, float]]:
         """Downward deflection at sample points of each element: (max, at) per element, mm."""
@@ -241,15 +247,17 @@ class BeamModel:
             mid = 0.5 * (p[0] + p[1]) - self.elements[p[2]].x0_mm
             m_mid = result.moment_nmm(p[2], mid)
             if scale == 0.0 or peak <= 1e-9 * scale:
-                sign = regions[-1].sign if regions else "positive"
+                sign = regions[-1].sign if regions else MomentSign.positive
             else:
-                sign = "positive" if m_mid > 0 else "negative"
+                sign = MomentSign.positive if m_mid > 0 else MomentSign.negative
             if regions and regions[-1].sign == sign:
                 last = regions[-1]
                 elements = last.elements if p[2] in last.elements else (*last.elements, p[2])
-                regions[-1] = Region(last.x0_mm, p[1], sign, max(last.m_max_nmm, peak), elements)
+                regions[-1] = Region(
+                    x0_mm=last.x0_mm, x1_mm=p[1], sign=sign, m_max_nmm=max(last.m_max_nmm, peak), elements=elements
+                )
             else:
-                regions.append(Region(p[0], p[1], sign, peak, (p[2],)))
+                regions.append(Region(x0_mm=p[0], x1_mm=p[1], sign=sign, m_max_nmm=peak, elements=(p[2],)))
         return regions
 
     def _piece_max(self, result: CaseResult, piece: tuple[float, float, int]) -> tuple[float, float]:

@@ -19,21 +19,22 @@ from dataclasses import dataclass, replace
 from core.analysis import BeamModel, Region
 from core.clauses.stability import bearing_restraint_required
 from core.effective_length import RegionKind
+from core.kinds import Edge, ElementKind, MomentSign, TraceStatus
 from core.models import Beam, BottomBracing, NegativeLu, TopBracing
 
 BOTH_EDGES_MAX_SPACING_MM = 610.0  # reference o86.md section 13 (judgement; no Canadian spacing found)
 DIRECT_JOIST_MAX_SPACING_MM = 610.0  # O86-19 6.5.3.2 tier 6.5 (memory, reference 2.2)
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, kw_only=True)
 class EdgeSupport:
     """How a region's compression edge is held."""
 
-    edge: str  # "top" or "bottom"
+    edge: Edge
     continuous: bool
     lu_mm: float
     description: str
-    status: str
+    status: TraceStatus
     purlins_in_line: bool
     held_directly: bool
     bridging: bool
@@ -42,7 +43,8 @@ class EdgeSupport:
     lu_rotation_mm: float  # spacing of points restraining rotation too (bridging, bearings), mm
     rotation_how: str
     option: str = ""  # a non-default modelling option the reviewer chose, named in the trace
-    kind: RegionKind = RegionKind(False, False, False)  # what the region is, for the Table 7.4 row
+    # what the region is, for the Table 7.4 row
+    kind: RegionKind = RegionKind(simple_span=False, cantilever=False, braced_between=False)
 
 
 def restraint_points_mm(beam: Beam, model: BeamModel, assume_restrained: bool) -> list[float]:
@@ -95,7 +97,7 @@ def compression_edge(beam: Beam, model: BeamModel, region: Region, assume_restra
     edge = _compression_edge(beam, model, region, assume_restrained)
     kind = RegionKind(
         simple_span=len(model.elements) == 1,
-        cantilever=any(model.elements[e].kind == "overhang" for e in region.elements),
+        cantilever=any(model.elements[e].kind is ElementKind.overhang for e in region.elements),
         braced_between=not edge.continuous and not edge.unbraced,
     )
     return replace(edge, kind=kind)
@@ -107,19 +109,38 @@ def _compression_edge(beam: Beam, model: BeamModel, region: Region, assume_restr
     points = restraint_points_mm(beam, model, assume_restrained)
     between = _longest_interval_mm(points, model.total_length_mm, region.x0_mm, region.x1_mm)
     lu_rot, rot_how = _rotation_lu(beam, between)
-    if region.sign == "positive":
+    if region.sign is MomentSign.positive:
         fastened = top.fastened is True
         if top.braced_by is TopBracing.decking and fastened:
             return EdgeSupport(
-                "top", True, 0.0, "top edge held continuously by fastened decking", "memory",
-                True, True, bridging, both, False, lu_rot, rot_how,
-            )  # fmt: skip
+                edge=Edge.top,
+                continuous=True,
+                lu_mm=0.0,
+                description="top edge held continuously by fastened decking",
+                status=TraceStatus.memory,
+                purlins_in_line=True,
+                held_directly=True,
+                bridging=bridging,
+                both_edges=both,
+                unbraced=False,
+                lu_rotation_mm=lu_rot,
+                rotation_how=rot_how,
+            )
         if top.braced_by is TopBracing.purlins and fastened and top.spacing_mm is not None:
             return EdgeSupport(
-                "top", False, min(top.spacing_mm, between),
-                f"top edge braced by fastened purlins at {top.spacing_mm:g} mm", "memory",
-                True, top_direct, bridging, both, False, lu_rot, rot_how,
-            )  # fmt: skip
+                edge=Edge.top,
+                continuous=False,
+                lu_mm=min(top.spacing_mm, between),
+                description=f"top edge braced by fastened purlins at {top.spacing_mm:g} mm",
+                status=TraceStatus.memory,
+                purlins_in_line=True,
+                held_directly=top_direct,
+                bridging=bridging,
+                both_edges=both,
+                unbraced=False,
+                lu_rotation_mm=lu_rot,
+                rotation_how=rot_how,
+            )
         if top.braced_by is TopBracing.none:
             why = ""
         elif top.fastened is None:
@@ -127,9 +148,19 @@ def _compression_edge(beam: Beam, model: BeamModel, region: Region, assume_restr
         else:
             why = f" ({top.braced_by.value} not fastened)"
         return EdgeSupport(
-            "top", False, between, f"top edge unbraced between bearings{why}", "memory",
-            False, False, False, False, True, lu_rot, rot_how,
-        )  # fmt: skip
+            edge=Edge.top,
+            continuous=False,
+            lu_mm=between,
+            description=f"top edge unbraced between bearings{why}",
+            status=TraceStatus.memory,
+            purlins_in_line=False,
+            held_directly=False,
+            bridging=False,
+            both_edges=False,
+            unbraced=True,
+            lu_rotation_mm=lu_rot,
+            rotation_how=rot_how,
+        )
     option = ""
     if beam.negative_lu is NegativeLu.zero_moment_point:
         inside = [x for x in points if region.x0_mm < x < region.x1_mm]
@@ -142,13 +173,35 @@ def _compression_edge(beam: Beam, model: BeamModel, region: Region, assume_restr
         how = f"{zone:.0f} mm between real restraints of the bottom edge (a point of zero moment is not a brace)"
     if bottom_spacing is not None:
         return EdgeSupport(
-            "bottom", False, min(bottom_spacing, zone), f"bottom edge braced at {bottom_spacing:g} mm; {how}",
-            "memory", True, bottom_close, bridging, both, False, min(lu_rot, zone), rot_how, option,
-        )  # fmt: skip
+            edge=Edge.bottom,
+            continuous=False,
+            lu_mm=min(bottom_spacing, zone),
+            description=f"bottom edge braced at {bottom_spacing:g} mm; {how}",
+            status=TraceStatus.memory,
+            purlins_in_line=True,
+            held_directly=bottom_close,
+            bridging=bridging,
+            both_edges=both,
+            unbraced=False,
+            lu_rotation_mm=min(lu_rot, zone),
+            rotation_how=rot_how,
+            option=option,
+        )
     return EdgeSupport(
-        "bottom", False, zone, f"bottom edge unbraced; {how}", "memory",
-        False, False, False, False, True, lu_rot, rot_how, option,
-    )  # fmt: skip
+        edge=Edge.bottom,
+        continuous=False,
+        lu_mm=zone,
+        description=f"bottom edge unbraced; {how}",
+        status=TraceStatus.memory,
+        purlins_in_line=False,
+        held_directly=False,
+        bridging=False,
+        both_edges=False,
+        unbraced=True,
+        lu_rotation_mm=lu_rot,
+        rotation_how=rot_how,
+        option=option,
+    )
 
 
 def unrestrained_elements(beam: Beam, model: BeamModel) -> set[int]:

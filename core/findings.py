@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from core import tables
 from core.clauses.stability import bearing_restraint_required
+from core.kinds import FindingCode, MomentSign
 from core.member import Member
 from core.models import Beam, DeadLoadPattern, Material, NegativeLu, Restraint, TopBracing, TopStamp
 from core.results import (
@@ -17,21 +18,7 @@ from core.results import (
     Status,
 )
 
-FINDING_CODES = (
-    "bearing_restraint_missing",
-    "slenderness_exceeds_limit",
-    "bending_overstress",
-    "shear_overstress",
-    "bearing_overstress",
-    "deflection_exceeds_limit",
-    "undersize",
-    "substitution",
-    "compression_edge_unbraced",
-    "layup_inverted",
-    "uplift_at_support",
-    "input_assumed",
-    "modelling_option",
-)
+FINDING_CODES = tuple(code.value for code in FindingCode)  # kept for callers that list the codes
 
 
 def _support_label(j: int, n: int) -> str:
@@ -77,7 +64,7 @@ def restraint_findings(beam: Beam) -> list[Finding]:
             action = "Expose or confirm the bearing restraint (photo or site review) before loading."
         out.append(
             Finding(
-                code="bearing_restraint_missing",
+                code=FindingCode.bearing_restraint_missing,
                 priority=priority,
                 message=message,
                 action=action,
@@ -95,7 +82,7 @@ def bending_findings(beam: Beam, bending: list[BendingRegion]) -> list[Finding]:
         if r.outcome == "not_permitted":
             out.append(
                 Finding(
-                    code="slenderness_exceeds_limit",
+                    code=FindingCode.slenderness_exceeds_limit,
                     priority=Priority.immediate,
                     region=r.region,
                     message=(
@@ -110,10 +97,10 @@ def bending_findings(beam: Beam, bending: list[BendingRegion]) -> list[Finding]:
                 )
             )
         elif r.outcome == "overstress" and r.utilisation is not None and r.mr_knm is not None:
-            dead_only = r.combination.startswith("1.4D")
+            dead_only = r.dead_load_only
             out.append(
                 Finding(
-                    code="bending_overstress",
+                    code=FindingCode.bending_overstress,
                     priority=Priority.immediate if dead_only else Priority.before_loading,
                     region=r.region,
                     message=(
@@ -137,7 +124,7 @@ def bending_findings(beam: Beam, bending: list[BendingRegion]) -> list[Finding]:
             )
             out.append(
                 Finding(
-                    code="bending_overstress",
+                    code=FindingCode.bending_overstress,
                     priority=Priority.immediate,
                     region=r.region,
                     message=(
@@ -157,11 +144,11 @@ def bending_findings(beam: Beam, bending: list[BendingRegion]) -> list[Finding]:
             and r.kl < r.kzbg
             or (r.kl is not None and r.kzbg is None and r.kl < 1.0)
         )
-        if r.sign == "negative" and "unbraced" in r.compression_edge and stability_governs:
+        if r.sign is MomentSign.negative and r.compression_edge_unbraced and stability_governs:
             over = r.utilisation is not None and r.utilisation > 1.0
             out.append(
                 Finding(
-                    code="compression_edge_unbraced",
+                    code=FindingCode.compression_edge_unbraced,
                     region=r.region,
                     priority=Priority.before_loading if over else Priority.observation,
                     message=(
@@ -186,7 +173,7 @@ def assumed_findings(beam: Beam) -> list[Finding]:
     if beam.top_edge.fastened_assumed:
         out.append(
             Finding(
-                code="input_assumed",
+                code=FindingCode.input_assumed,
                 priority=Priority.observation,
                 region="top edge",
                 message=(
@@ -200,7 +187,7 @@ def assumed_findings(beam: Beam) -> list[Finding]:
     if beam.use is None:
         out.append(
             Finding(
-                code="input_assumed",
+                code=FindingCode.input_assumed,
                 priority=Priority.observation,
                 message=(
                     f"{beam.mark}: what the member supports (use) was not recorded; the recheck held the deflection "
@@ -222,7 +209,7 @@ def uplift_findings(beam: Beam, bearing: list[BearingCheck]) -> list[Finding]:
         now = " The specified dead load alone already lifts it off this bearing." if b.lifts_now else ""
         out.append(
             Finding(
-                code="uplift_at_support",
+                code=FindingCode.uplift_at_support,
                 priority=Priority.immediate if b.lifts_now else Priority.before_loading,
                 region=f"support {b.support}",
                 message=(
@@ -247,7 +234,7 @@ def option_findings(beam: Beam) -> list[Finding]:
     if beam.negative_lu is NegativeLu.zero_moment_point:
         out.append(
             Finding(
-                code="modelling_option",
+                code=FindingCode.modelling_option,
                 priority=Priority.observation,
                 message=(
                     f"{beam.mark}: the reviewer took points of zero moment as braces of the bottom edge "
@@ -260,7 +247,7 @@ def option_findings(beam: Beam) -> list[Finding]:
     if beam.dead_load_pattern is DeadLoadPattern.uniform:
         out.append(
             Finding(
-                code="modelling_option",
+                code=FindingCode.modelling_option,
                 priority=Priority.observation,
                 message=(
                     f"{beam.mark}: the reviewer applied one dead-load factor to the whole beam (not the default: "
@@ -280,7 +267,7 @@ def top_edge_findings(beam: Beam) -> list[Finding]:
         return []
     return [
         Finding(
-            code="compression_edge_unbraced",
+            code=FindingCode.compression_edge_unbraced,
             priority=Priority.before_loading,
             region="top edge",
             message=(
@@ -300,7 +287,7 @@ def layup_findings(beam: Beam, member: Member) -> list[Finding]:
     if beam.top_stamp is TopStamp.down:
         return [
             Finding(
-                code="layup_inverted",
+                code=FindingCode.layup_inverted,
                 priority=Priority.before_loading,
                 message=(
                     f"{beam.mark}: unbalanced layup {beam.grade} installed with its TOP stamp down; the weaker "
@@ -312,7 +299,7 @@ def layup_findings(beam: Beam, member: Member) -> list[Finding]:
         ]
     return [
         Finding(
-            code="layup_inverted",
+            code=FindingCode.layup_inverted,
             priority=Priority.before_next_review,
             message=(
                 f"{beam.mark}: TOP stamp of the unbalanced layup {beam.grade} not seen or not recorded; the "
@@ -332,7 +319,7 @@ def check_findings(
     if shear.utilisation > 1.0:
         out.append(
             Finding(
-                code="shear_overstress",
+                code=FindingCode.shear_overstress,
                 priority=Priority.before_loading,
                 message=(
                     f"{beam.mark}: factored shear {shear.vf_kn:.1f} kN exceeds the resistance {shear.vr_kn:.1f} kN "
@@ -346,7 +333,7 @@ def check_findings(
         if b.utilisation > 1.0:
             out.append(
                 Finding(
-                    code="bearing_overstress",
+                    code=FindingCode.bearing_overstress,
                     priority=Priority.before_loading,
                     region=f"support {b.support}",
                     message=(
@@ -360,7 +347,7 @@ def check_findings(
     if deflection.utilisation > 1.0:
         out.append(
             Finding(
-                code="deflection_exceeds_limit",
+                code=FindingCode.deflection_exceeds_limit,
                 priority=Priority.before_next_review,
                 region=deflection.element,
                 message=(
@@ -383,7 +370,7 @@ def size_findings(beam: Beam) -> list[Finding]:
     if (spec.species, spec.grade) != (beam.species, beam.grade):
         out.append(
             Finding(
-                code="substitution",
+                code=FindingCode.substitution,
                 priority=Priority.before_next_review,
                 message=(
                     f"{beam.mark}: drawings specify {spec.species} {spec.grade}; installed {beam.species} "
@@ -401,7 +388,7 @@ def size_findings(beam: Beam) -> list[Finding]:
         if smaller_width or lam_short:
             out.append(
                 Finding(
-                    code="substitution",
+                    code=FindingCode.substitution,
                     priority=Priority.before_next_review,
                     message=(
                         f"{beam.mark}: measured {beam.b_mm:g} x {beam.d_mm:g} mm against {spec.b_mm:g} x "
@@ -415,7 +402,7 @@ def size_findings(beam: Beam) -> list[Finding]:
     if short_b > beam.size_tolerance_mm or short_d > beam.size_tolerance_mm:
         out.append(
             Finding(
-                code="undersize",
+                code=FindingCode.undersize,
                 priority=Priority.before_next_review,
                 message=(
                     f"{beam.mark}: measured {beam.b_mm:g} x {beam.d_mm:g} mm against {spec.b_mm:g} x {spec.d_mm:g} mm "

@@ -7,12 +7,12 @@ companion values are memory).
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 from core.clauses.factors import KD_PERMANENT, load_duration_kd_standard
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, kw_only=True)
 class Combination:
     """One ULS combination: factors on D, L and S and its duration class."""
 
@@ -20,7 +20,7 @@ class Combination:
     alpha_d: float
     alpha_l: float
     alpha_s: float
-    permanent: bool  # 1.4D alone: KD for permanent loads
+    permanent: bool  # dead load alone (1.4D): KD for permanent loads; findings read it as "dead load only"
     ps_l: float  # share of specified L counted as standard-term load PS
     ps_s: float  # share of specified S counted as standard-term load PS
 
@@ -32,17 +32,18 @@ def gravity_combinations(counteracting_dead: bool) -> list[Combination]:
     where 0.9D on the whole beam can govern a region (NBC note: 0.9D where D counteracts).
     """
     out = [
-        Combination("1.4D", 1.4, 0.0, 0.0, True, 0.0, 0.0),
-        Combination("1.25D + 1.5L", 1.25, 1.5, 0.0, False, 1.0, 0.0),
-        Combination("1.25D + 1.5L + 0.5S", 1.25, 1.5, 0.5, False, 1.0, 0.5),
-        Combination("1.25D + 1.5S", 1.25, 0.0, 1.5, False, 0.0, 1.0),
-        Combination("1.25D + 1.5S + 0.5L", 1.25, 0.5, 1.5, False, 0.5, 1.0),
+        Combination(name="1.4D", alpha_d=1.4, alpha_l=0.0, alpha_s=0.0, permanent=True, ps_l=0.0, ps_s=0.0),
+        Combination(name="1.25D + 1.5L", alpha_d=1.25, alpha_l=1.5, alpha_s=0.0, permanent=False, ps_l=1.0, ps_s=0.0),
+        Combination(
+            name="1.25D + 1.5L + 0.5S", alpha_d=1.25, alpha_l=1.5, alpha_s=0.5, permanent=False, ps_l=1.0, ps_s=0.5
+        ),
+        Combination(name="1.25D + 1.5S", alpha_d=1.25, alpha_l=0.0, alpha_s=1.5, permanent=False, ps_l=0.0, ps_s=1.0),
+        Combination(
+            name="1.25D + 1.5S + 0.5L", alpha_d=1.25, alpha_l=0.5, alpha_s=1.5, permanent=False, ps_l=0.5, ps_s=1.0
+        ),
     ]
     if counteracting_dead:
-        out += [
-            Combination(c.name.replace("1.25D", "0.9D"), 0.9, c.alpha_l, c.alpha_s, False, c.ps_l, c.ps_s)
-            for c in out[1:]
-        ]
+        out += [replace(c, name=c.name.replace("1.25D", "0.9D"), alpha_d=0.9) for c in out[1:]]
     return out
 
 

@@ -7,6 +7,7 @@ from dataclasses import dataclass
 from core import tables
 from core.clauses.bending import section_modulus_s
 from core.clauses.factors import system_factor_kh
+from core.kinds import TraceStatus
 from core.models import Beam, Material, Service, Treatment
 from core.results import FactorTrace
 
@@ -37,7 +38,7 @@ class Member:
     inertia_mm4: float
     self_weight_n_mm: float
     trace: tuple[FactorTrace, ...]
-    grade_status: str = "memory"  # status of the grade row the strengths came from
+    grade_status: TraceStatus = TraceStatus.memory  # status of the grade row the strengths came from
 
 
 def _grade_row(beam: Beam) -> tuple[dict[str, str], str]:
@@ -55,7 +56,7 @@ def service_factors(beam: Beam) -> tuple[dict[str, float], FactorTrace]:
             value=1.0,
             clause="CSA O86-19 5.4.2 / 6.4.2 / 7.4.2",
             source="dry service: all KS = 1.0",
-            status="memory",
+            status=TraceStatus.memory,
         )
     if beam.material is Material.glulam:
         rule, table = "any", "Table 7.2"
@@ -69,7 +70,7 @@ def service_factors(beam: Beam) -> tuple[dict[str, float], FactorTrace]:
         value=values["ksb"],
         clause=f"CSA O86-19 {table}",
         source=f"service_factors: {beam.material.value} {rule}: {text}",
-        status=row["status"],
+        status=TraceStatus(row["status"]),
     )
 
 
@@ -89,7 +90,7 @@ def treatment_factors(beam: Beam) -> tuple[float, float, FactorTrace]:
             value=kt,
             clause="CSA O86-19 6.4.3 / Table 6.11",
             source=f"treatment_factors: {beam.treatment.value}, {beam.service.value}; KT(E) {kt_e:g}",
-            status=row["status"],
+            status=TraceStatus(row["status"]),
         ),
     )
 
@@ -106,7 +107,7 @@ def size_factor_kzb(b_mm: float, d_mm: float) -> tuple[float, FactorTrace]:
                 value=value,
                 clause="CSA O86-19 Table 6.13",
                 source=f"kzb: larger dim <= {row['larger_dim_max_mm']} mm, {column}",
-                status=row["status"],
+                status=TraceStatus(row["status"]),
             )
     raise ValueError(f"d_mm = {large:g} is outside the KZb table")
 
@@ -120,7 +121,7 @@ def member_properties(beam: Beam) -> Member:
             value=f"{beam.species} {beam.grade}",
             clause="CSA O86-19 Table 7.3" if table == "glulam_grades" else "CSA O86-19 Table 6.4",
             source=f"{table} row " + ", ".join(f"{k} {v}" for k, v in row.items() if k != "status"),
-            status=row["status"],
+            status=TraceStatus(row["status"]),
         )
     ]
     ks, ks_trace = service_factors(beam)
@@ -134,7 +135,11 @@ def member_properties(beam: Beam) -> Member:
         kh, kzb = 1.0, None
         trace.append(
             FactorTrace(
-                symbol="KH", value=1.0, clause="CSA O86-19 7.4", source="glulam: no system factor", status="memory"
+                symbol="KH",
+                value=1.0,
+                clause="CSA O86-19 7.4",
+                source="glulam: no system factor",
+                status=TraceStatus.memory,
             )
         )
     else:
@@ -149,7 +154,7 @@ def member_properties(beam: Beam) -> Member:
                 value=kh,
                 clause="CSA O86-19 Table 6.12",
                 source=f"system case {beam.system.value}",
-                status="memory",
+                status=TraceStatus.memory,
             )
         )
         trace.append(kzb_trace)
@@ -162,7 +167,7 @@ def member_properties(beam: Beam) -> Member:
             value=round(sw, 4),
             unit="kN/m",
             source=(f"densities: {gamma:g} kN/m3 x b x d" if beam.self_weight else "switched off by the reviewer"),
-            status=density["status"] if beam.self_weight else "input",
+            status=TraceStatus(density["status"]) if beam.self_weight else TraceStatus.input,
         )
     )
     return Member(
@@ -186,5 +191,5 @@ def member_properties(beam: Beam) -> Member:
         inertia_mm4=beam.b_mm * beam.d_mm**3 / 12.0,
         self_weight_n_mm=sw,
         trace=tuple(trace),
-        grade_status=row["status"],
+        grade_status=TraceStatus(row["status"]),
     )

@@ -304,6 +304,8 @@ class Beam(Record):
                 raise ValueError(f"d_mm = {self.d_mm:g} for sawn lumber; allowed: 0 < d_mm <= 400")
         if self.material is Material.glulam and self.system is not SystemCase.single:
             raise ValueError("system: glulam beams take KH = 1.0; allowed for glulam: 'single'")
+        if self.material is Material.glulam and self.treatment is Treatment.incised:
+            raise ValueError("treatment = 'incised' applies to sawn lumber; allowed for glulam: 'none'")
         total = sum(self.spans_mm) + self.overhang_left_mm + self.overhang_right_mm
         if total > MAX_SPAN_MM * 2:
             raise ValueError(f"total length {total:g} mm; allowed: <= {MAX_SPAN_MM * 2:g} mm")

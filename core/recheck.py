@@ -2,7 +2,10 @@
 
 This layer takes the pydantic ``Beam``, runs the analysis for every NBC combination and live/snow
 pattern, finds each region's compression edge and unsupported length, and applies the clause
-functions. It does no engineering arithmetic of its own beyond choosing inputs and maxima.
+functions. Besides choosing inputs and maxima it still does some arithmetic of its own, not yet
+moved into cited clause functions: Le = factor x Lu (Table 7.4 row), the deflection span 2L of a
+cantilever (common practice), the KL regime named in the trace, utilisations (demand / resistance)
+and the conversions to kN and kN*m.
 """
 
 from __future__ import annotations
@@ -40,6 +43,7 @@ from core.clauses.stability import (
 from core.edges import EdgeSupport, compression_edge, unrestrained_elements
 from core.effective_length import chosen_row
 from core.findings import build_findings, overall_status
+from core.kinds import ElementKind, MomentSign, Outcome, TraceStatus
 from core.loads import Combination, applicable, combination_kd, gravity_combinations
 from core.member import Member, member_properties
 from core.models import Beam, DeadLoadPattern, Material, NegativeLu, Use
@@ -55,11 +59,11 @@ from core.results import (
 CV_SIMPLE_UDL = 3.69
 SPLIT_HIGH_D = 1.25  # NBC Table 4.1.3.2.-A: dead-load factor where it adds to the effect
 SPLIT_LOW_D = 0.9  # and where it counteracts
-KN = 1e-3
-KNM = 1e-6
+KN_PER_N = 1e-3  # unit conversion: multiply a force in N by this to get kN
+KNM_PER_NMM = 1e-6  # unit conversion: a moment in N*mm to kN*m
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, kw_only=True)
 class LoadCase:
     """One combination with one live/snow pattern, solved."""
 
@@ -107,12 +111,30 @@ def load_cases(beam: Beam, member: Member, model: BeamModel) -> list[LoadCase]:
         for pattern in patterns:
             w = tuple(combo.alpha_d * dead + (variable if on else 0.0) for on in pattern)
             name = "" if combo.permanent else _pattern_name(model, pattern)
-            cases.append(LoadCase(combo, kd, note, name, model.case(w), _total(w, model)))
+            cases.append(
+                LoadCase(
+                    combo=combo,
+                    kd=kd,
+                    kd_note=note,
+                    pattern=name,
+                    result=model.case(w),
+                    total_factored_n=_total(w, model),
+                )
+            )
             if split and combo.alpha_d == SPLIT_HIGH_D and not all(pattern):
                 w = tuple((SPLIT_HIGH_D * dead + variable) if on else SPLIT_LOW_D * dead for on in pattern)
                 relieving = ", ".join(el.name for el, on in zip(model.elements, pattern, strict=True) if not on)
                 label = f"{name}; 0.9D on {relieving}"
-                cases.append(LoadCase(combo, kd, note, label, model.case(w), _total(w, model)))
+                cases.append(
+                    LoadCase(
+                        combo=combo,
+                        kd=kd,
+                        kd_note=note,
+                        pattern=label,
+                        result=model.case(w),
+                        total_factored_n=_total(w, model),
+                    )
+                )
     return cases
 
 
@@ -122,12 +144,12 @@ def _total(w: tuple[float, ...], model: BeamModel) -> float:
 
 def region_name(model: BeamModel, region: Region) -> str:
     """A stable name for a region: 'span 2', 'support 2', 'supports 2-3', 'overhang left'."""
-    if region.sign == "positive":
+    if region.sign is MomentSign.positive:
         mid = 0.5 * (region.x0_mm + region.x1_mm)
         for el in model.elements:
             if el.x0_mm <= mid <= el.x1_mm:
                 return el.name
-    overhangs = [model.elements[e].name for e in region.elements if model.elements[e].kind == "overhang"]
+    overhangs = [model.elements[e].name for e in region.elements if model.elements[e].kind is ElementKind.overhang]
     if overhangs:
         return " + ".join(overhangs)
     inside = [i + 1 for i, x in enumerate(model.support_x_mm) if region.x0_mm < x < region.x1_mm]
@@ -169,12 +191,16 @@ def bending_check(
         "fb_mpa": fb,
         "kd": case.kd,
         "mr_knm": None,
-        "mf_knm": region.m_max_nmm * KNM,
+        "mf_knm": region.m_max_nmm * KNM_PER_NMM,
         "utilisation": None,
+        "compression_edge_unbraced": edge.unbraced,
+        "dead_load_only": case.combo.permanent,
     }
     if trace is not None:
         trace.append(
-            FactorTrace(symbol="KD", value=case.kd, clause="CSA O86-19 5.3.2", source=case.kd_note, status="memory")
+            FactorTrace(
+                symbol="KD", value=case.kd, clause="CSA O86-19 5.3.2", source=case.kd_note, status=TraceStatus.memory
+            )
         )
         trace.append(
             FactorTrace(
@@ -207,7 +233,9 @@ def bending_check(
             )
         if edge.option:
             trace.append(
-                FactorTrace(symbol="option", value=edge.option, source="chosen by the reviewer", status="input")
+                FactorTrace(
+                    symbol="option", value=edge.option, source="chosen by the reviewer", status=TraceStatus.input
+                )
             )
     if not sawn:
         kzbg = size_factor_kzbg(beam.b_mm, beam.d_mm, region.length_mm)
@@ -219,16 +247,16 @@ def bending_check(
                     value=round(kzbg, 4),
                     clause="CSA O86-19 7.5.6.5.1",
                     source=f"L = {region.length_mm:.0f} mm between points of zero moment; cap 1.3",
-                    status="confirmed",
+                    status=TraceStatus.confirmed,
                 )
             )
     if not_established:
-        out["outcome"] = "not_established"
+        out["outcome"] = Outcome.not_established
         _upper_bound(beam, member, model, region, edge, fb, out, trace)
         return out
     kl = _stability_kl(beam, member, edge, fb, out, trace)
     if isinstance(kl, NotPermitted):
-        out["outcome"] = "not_permitted"
+        out["outcome"] = Outcome.not_permitted
         return out
     out["kl"] = kl
     if sawn:
@@ -237,14 +265,14 @@ def bending_check(
     else:
         mr = glulam_mr(fb, member.s_mm3, 1.0, out["kzbg"], kl)
         clause = "CSA O86-19 7.5.6.5.1"
-    out["mr_knm"] = mr * KNM
+    out["mr_knm"] = mr * KNM_PER_NMM
     out["utilisation"] = region.m_max_nmm / mr if mr > 0 else float("inf")
-    out["outcome"] = "overstress" if out["utilisation"] > 1.0 else "ok"
+    out["outcome"] = Outcome.overstress if out["utilisation"] > 1.0 else Outcome.ok
     if trace is not None:
         trace.append(
             FactorTrace(
                 symbol="Mr",
-                value=round(mr * KNM, 2),
+                value=round(mr * KNM_PER_NMM, 2),
                 unit="kN*m",
                 clause=clause,
                 source="lesser of phi Fb S KX KZbg and phi Fb S KX KL, phi = 0.9, KX = 1"
@@ -281,12 +309,12 @@ def _upper_bound(
     else:
         mr = glulam_mr(fb, member.s_mm3, 1.0, out["kzbg"], kl)
     out["kl_if_restrained"] = kl
-    out["mr_if_restrained_knm"] = mr * KNM
+    out["mr_if_restrained_knm"] = mr * KNM_PER_NMM
     out["utilisation_if_restrained"] = region.m_max_nmm / mr
     _note(
         trace,
         "Mr (if restrained)",
-        round(mr * KNM, 2),
+        round(mr * KNM_PER_NMM, 2),
         "CSA O86-19 7.5.6.3.1, 7.5.6.4",
         f"upper bound: KL = {kl:.4f} with Lu = {scratch['lu_mm'] or 0:.0f} mm as if every bearing were restrained; "
         "the real capacity is lower",
@@ -381,11 +409,14 @@ def _note(
     status: str,
     unit: str = "",
 ) -> None:
+    """Append one FactorTrace when a trace is being kept (status: a TraceStatus value)."""
     if trace is not None:
-        trace.append(FactorTrace(symbol=symbol, value=value, unit=unit, clause=clause, source=source, status=status))
+        trace.append(
+            FactorTrace(symbol=symbol, value=value, unit=unit, clause=clause, source=source, status=TraceStatus(status))
+        )
 
 
-_OUTCOME_RANK = {"not_established": 3, "not_permitted": 2, "overstress": 1, "ok": 0}
+_OUTCOME_RANK = {Outcome.not_established: 3, Outcome.not_permitted: 2, Outcome.overstress: 1, Outcome.ok: 0}
 
 
 def _rank(numbers: dict[str, Any]) -> tuple[int, float]:
@@ -464,7 +495,7 @@ def shear_check(beam: Beam, member: Member, model: BeamModel, cases: list[LoadCa
     assert best is not None
     util, resist, demand, case = best
     if volume_method:
-        cv_status = "confirmed" if len(model.elements) == 1 else "memory"
+        cv_status = TraceStatus.confirmed if len(model.elements) == 1 else TraceStatus.memory
         method = "volume: Wr vs total factored load W (Z >= 2.0 m3)"
         clause = "CSA O86-19 7.5.7.3(a)"
         extra = FactorTrace(
@@ -472,7 +503,7 @@ def shear_check(beam: Beam, member: Member, model: BeamModel, cases: list[LoadCa
             value=CV_SIMPLE_UDL,
             clause="CSA O86-19 Table 7.5",
             source="simple span, uniform load"
-            + ("" if cv_status == "confirmed" else "; applied to a continuous or overhanging beam: verify"),
+            + ("" if cv_status is TraceStatus.confirmed else "; applied to a continuous or overhanging beam: verify"),
             status=cv_status,
         )
     else:
@@ -488,12 +519,14 @@ def shear_check(beam: Beam, member: Member, model: BeamModel, cases: list[LoadCa
             else "sawn lumber",
         )
     trace = [
-        FactorTrace(symbol="KD", value=case.kd, clause="CSA O86-19 5.3.2", source=case.kd_note, status="memory"),
+        FactorTrace(
+            symbol="KD", value=case.kd, clause="CSA O86-19 5.3.2", source=case.kd_note, status=TraceStatus.memory
+        ),
         extra,
     ]
     return ShearCheck(
-        vr_kn=resist * KN,
-        vf_kn=demand * KN,
+        vr_kn=resist * KN_PER_N,
+        vf_kn=demand * KN_PER_N,
         utilisation=util,
         method=method,
         combination=_case_label(case),
@@ -533,23 +566,27 @@ def bearing_checks(beam: Beam, member: Member, model: BeamModel, cases: list[Loa
                 value=area,
                 unit="mm2",
                 source=f"b x bearing length {bearing.length_mm:g} mm",
-                status="input",
+                status=TraceStatus.input,
             ),
-            FactorTrace(symbol="KB", value=1.0, clause=clause, source="end bearing / conservative", status="memory"),
-            FactorTrace(symbol="KZcp", value=kzcp, clause=clause, status="memory"),
-            FactorTrace(symbol="KD", value=case.kd, clause="CSA O86-19 5.3.2", source=case.kd_note, status="memory"),
+            FactorTrace(
+                symbol="KB", value=1.0, clause=clause, source="end bearing / conservative", status=TraceStatus.memory
+            ),
+            FactorTrace(symbol="KZcp", value=kzcp, clause=clause, status=TraceStatus.memory),
+            FactorTrace(
+                symbol="KD", value=case.kd, clause="CSA O86-19 5.3.2", source=case.kd_note, status=TraceStatus.memory
+            ),
         ]
         out.append(
             BearingCheck(
                 support=j + 1,
-                qr_kn=qr * KN,
-                qf_kn=qf * KN,
+                qr_kn=qr * KN_PER_N,
+                qf_kn=qf * KN_PER_N,
                 utilisation=util,
                 length_mm=bearing.length_mm,
                 combination=_case_label(case),
                 clause=clause,
                 trace=trace,
-                uplift_kn=None if uplift is None else uplift * KN,
+                uplift_kn=None if uplift is None else uplift * KN_PER_N,
                 uplift_combination=None if uplift is None else _case_label(lowest[1]),
                 lifts_now=now[j] < 0,
             )
@@ -606,7 +643,7 @@ def deflection_check(beam: Beam, member: Member, model: BeamModel) -> Deflection
                 continue
             for e, (delta, _) in enumerate(model.deflections_mm(w, ei)):
                 el = model.elements[e]
-                span = 2 * el.length_mm if el.kind == "overhang" else el.length_mm
+                span = 2 * el.length_mm if el.kind is ElementKind.overhang else el.length_mm
                 limit = deflection_limit_mm(span, float(row["ratio"]))
                 util = abs(delta) / limit
                 if best is None or util > best[0]:
@@ -624,14 +661,19 @@ def deflection_check(beam: Beam, member: Member, model: BeamModel) -> Deflection
     util, delta, limit, label, element, row = best
     trace = [
         FactorTrace(
-            symbol="ES", value=es, unit="MPa", clause="CSA O86-19 5.4.1", source="E KSE KT (mean E)", status="memory"
+            symbol="ES",
+            value=es,
+            unit="MPa",
+            clause="CSA O86-19 5.4.1",
+            source="E KSE KT (mean E)",
+            status=TraceStatus.memory,
         ),
         FactorTrace(
             symbol="limit",
             value=f"L/{row['ratio']}",
             clause=_LIMIT_CLAUSE.get(row["use"], "NBC Table 9.4.3.1"),
             source=row["description"],
-            status=row["status"],
+            status=TraceStatus(row["status"]),
         ),
     ]
     if beam.use is None:
@@ -640,7 +682,7 @@ def deflection_check(beam: Beam, member: Member, model: BeamModel) -> Deflection
                 symbol="use",
                 value=use_row["use"],
                 source="not recorded: the strictest deflection limit of the table is taken",
-                status="input",
+                status=TraceStatus.input,
             )
         )
     trace.append(
@@ -651,7 +693,7 @@ def deflection_check(beam: Beam, member: Member, model: BeamModel) -> Deflection
             source="long-term deformation checked (O86-24 deletes 5.4.3 and folds creep into 5.4.2)"
             if long_term
             else "no separate long-term check in this edition",
-            status="confirmed",
+            status=TraceStatus.confirmed,
         )
     )
     return DeflectionCheck(

@@ -7,6 +7,8 @@ from typing import Any
 
 from pydantic import BaseModel, ConfigDict
 
+from core.kinds import FindingCode, MomentSign, Outcome, TraceStatus
+
 CAUTION = (
     "bracewalk is a recording and recheck aid for a qualified reviewer. Results are advisory and "
     "support, never replace, the judgement of the engineer of record, who decides repairs and "
@@ -50,14 +52,14 @@ class FactorTrace(Out):
     unit: str = ""
     clause: str = ""
     source: str = ""
-    status: str = "formula"  # "verified", "confirmed", "memory", "formula", "input"
+    status: TraceStatus = TraceStatus.formula
 
 
 class BendingRegion(Out):
     """Bending check of one region between points of zero moment, governing combination."""
 
     region: str
-    sign: str
+    sign: MomentSign
     x_start_mm: float
     x_end_mm: float
     lu_mm: float | None
@@ -75,8 +77,10 @@ class BendingRegion(Out):
     utilisation: float | None
     combination: str
     clause: str
-    outcome: str  # "ok", "overstress", "not_permitted", "not_established"
-    compression_edge: str
+    outcome: Outcome
+    compression_edge: str  # in words, for people; decisions use the flags below
+    compression_edge_unbraced: bool = False  # nothing braces the compression edge between its restraints
+    dead_load_only: bool = False  # the governing combination is dead load alone (1.4D, permanent KD)
     trace: list[FactorTrace]
     # not established only: what the member would give if its bearings were restrained (an upper bound;
     # the real capacity is lower). None when even that is not permitted (CB > 50; said in the trace).
@@ -129,7 +133,7 @@ class DeflectionCheck(Out):
 class Finding(Out):
     """Something the reviewer must act on or record."""
 
-    code: str
+    code: FindingCode
     priority: Priority
     message: str
     action: str

@@ -11,11 +11,7 @@ def sawn_bearing_kzcp(b_mm: float, d_mm: float) -> float:
     1.0 when r <= 1.0; 1.0 + 0.15 (r - 1) between; 1.15 when r >= 2.0. Dimensionless.
     """
     r = b_mm / d_mm
-    if r <= 1.0:
-        return 1.0
-    if r <= 2.0:
-        return 1.0 + 0.15 * (r - 1.0)
-    return 1.15
+    return min(1.15, max(1.0, 1.0 + 0.15 * (r - 1.0)))
 
 
 def bearing_qr(fcp_mpa: float, bearing_area_mm2: float, kb: float = 1.0, kzcp: float = 1.0) -> float:

@@ -21,9 +21,10 @@ def load_duration_kd_standard(pl_n_mm: float, ps_n_mm: float) -> float:
         raise ValueError(f"pl_n_mm = {pl_n_mm} must be >= 0")
     if ps_n_mm <= 0:
         raise ValueError(f"ps_n_mm = {ps_n_mm} must be > 0 for a standard-term combination")
-    if pl_n_mm <= ps_n_mm:
-        return KD_STANDARD_TERM
-    return max(KD_PERMANENT, 1.0 - 0.50 * math.log10(pl_n_mm / ps_n_mm))
+    if pl_n_mm == 0:
+        return KD_STANDARD_TERM  # no long-term load (log10 of 0 is undefined)
+    # the formula gives more than 1.0 when PL < PS and exactly 1.0 at PL = PS: 1.0 caps it
+    return min(KD_STANDARD_TERM, max(KD_PERMANENT, 1.0 - 0.50 * math.log10(pl_n_mm / ps_n_mm)))
 
 
 def system_factor_kh(case: str) -> float:

@@ -85,3 +85,16 @@ def test_readme_contract_defaults_name_real_fields():
         head, _, tail = path.partition(".")
         props = schema["properties"] if not tail else schema["$defs"]["TopEdge"]["properties"]
         assert (tail or head) in props, path
+
+
+def test_incised_glulam_is_refused_by_the_model_naming_the_field():
+    import pytest
+    from pydantic import ValidationError
+
+    from tests.core.beams import glulam
+
+    # O86-19 Table 6.11 (memory): the incising factor KT applies to sawn lumber only
+    with pytest.raises(
+        ValidationError, match=r"treatment = 'incised' applies to sawn lumber; allowed for glulam: 'none'"
+    ):
+        glulam(treatment="incised")
