@@ -11,6 +11,7 @@ from typing import Any
 
 from core.models import Beam
 from core.recheck import recheck
+from core.results import Recheck
 from storage import Store
 from storage.bundle import export_bundle
 from storage.store import DEMO_FIRM_KEY
@@ -80,7 +81,7 @@ def load_demo(store: Store) -> str:
     return site.id
 
 
-def raise_all(store: Store, site_id: str) -> list[tuple[str, Any]]:
+def raise_all(store: Store, site_id: str) -> list[tuple[dict[str, Any], Recheck]]:
     """Recheck every beam and raise a deficiency for each finding a reviewer acts on."""
     rows = []
     for beam_id, record in store.beams(site_id):
