@@ -467,7 +467,7 @@ def import_bundle(store: Store, path: str | Path, progress: Progress | None = No
         "applied",
         ops_total=len(v.ops),
         ops_new=new,
-        blobs_new=len(v.blobs),
+        blobs_new=len(created),  # files this import wrote, not those already held
         conflicts_new=conflicts,
         origins=v.manifest["ranges"],
         warning=warning,

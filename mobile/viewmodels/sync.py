@@ -4,17 +4,15 @@ from __future__ import annotations
 
 import json
 import time
-from collections.abc import Callable
 from dataclasses import dataclass
 from pathlib import Path
 
 from storage import Store
-from storage.bundle import export_bundle, import_bundle
+from storage.bundle import Progress, export_bundle, import_bundle
 from storage.hubsync import last_sync as last_hub_sync
 from storage.hubsync import rejection_words
 from storage.identity import enrolment
 
-Progress = Callable[[float, str], None]
 SKEW_WARN_MS = 2 * 60 * 1000  # sync.md 3.3: warn when the tablet's clock is this far from the hub's
 
 
