@@ -36,6 +36,7 @@ from storage.oplog import (
     content_hash,
     insert_op,
 )
+from storage.stamps import utc_stamp
 from storage.store import Store
 from storage.validate import RecordInvalid, check_op_record
 
@@ -107,7 +108,7 @@ class ImportReport:
 
 
 def _now() -> str:
-    return time.strftime("%Y-%m-%dT%H:%M:%SZ", time.gmtime())
+    return utc_stamp()
 
 
 def export_bundle(
