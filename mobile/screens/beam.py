@@ -121,8 +121,8 @@ class BeamScreen(Screen):
             length = Factory.BigInput(hint_text="not yet entered")
             length.text = values.get(f"bearing{i}.length_mm", "")
             length.bind(
-                text=lambda w, t, n=f"bearing{i}.length_mm": self.typed(n, t),
-                focus=lambda w, f, n=f"bearing{i}.length_mm": None if f else self.commit(n),
+                text=lambda _w, t, n=f"bearing{i}.length_mm": self.typed(n, t),
+                focus=lambda _w, f, n=f"bearing{i}.length_mm": None if f else self.commit(n),
             )
             row.add_widget(length)
             self.length_inputs[i] = length

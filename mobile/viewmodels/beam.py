@@ -572,9 +572,9 @@ class BeamFormViewModel:
 def raised_number_for(store: Store, site_id: str, beam_id: str, finding: Any) -> str:
     """The number of this beam's unverified deficiency raised from ``finding`` (same code and place), or ''."""
     for d in store.deficiencies(site_id):
-        if d.beam_id == beam_id and d.stage is not Stage.verified and d.code == finding.code:
-            if not finding.region or d.location.endswith(finding.region):
-                return d.number
+        same = d.beam_id == beam_id and d.stage is not Stage.verified and d.code == finding.code
+        if same and (not finding.region or d.location.endswith(finding.region)):
+            return d.number
     return ""
 
 

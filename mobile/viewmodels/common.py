@@ -6,7 +6,7 @@ from pydantic import ValidationError
 
 from core.records import DesignBasis
 from reports.render import PRIORITY_WORDS, priority_label
-from storage.stamps import local_time  # noqa: F401  (re-exported: the screens' one way to show a time)
+from storage.stamps import local_time as local_time  # re-exported: the screens show times through it
 
 STATUS_WORDS = {
     "ok": ("OK", "●"),
