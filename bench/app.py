@@ -20,6 +20,7 @@ import sys
 import tempfile
 import time
 from pathlib import Path
+from typing import cast
 
 from bench.common import Row, fmt_time
 
@@ -95,8 +96,8 @@ def run(quick: bool = False) -> list[Row]:
         for _ in range(repeats):
             start, data = _probe("app", db, display, home)
             starts.append(start)
-            refresh += list(data["refresh_ms"])  # type: ignore[arg-type]
-            rechecks += list(data["recheck_ms"])  # type: ignore[arg-type]
+            refresh += cast(list[float], data["refresh_ms"])
+            rechecks += cast(list[float], data["recheck_ms"])
         s, b = statistics.median(starts), statistics.median(bare)
         r, c = statistics.median(refresh), statistics.median(rechecks)
         p95 = sorted(refresh)[int(0.95 * (len(refresh) - 1))]

@@ -13,6 +13,7 @@ downscaling, no page X of Y. The ratio is render time / bare time.
 from __future__ import annotations
 
 import io
+from functools import partial
 
 from PIL import Image, ImageDraw
 from reportlab.lib.pagesizes import LETTER
@@ -138,8 +139,8 @@ def run(quick: bool = False) -> list[Row]:
         n = notice(items(count))
         render_notice(n)  # fonts registered, modules warm
         repeats = 3 if quick or count >= 100 else 5
-        lib = measure(lambda n=n: render_notice(n), repeats)
-        base = measure(lambda n=n: bare(n), repeats)
+        lib = measure(partial(render_notice, n), repeats)
+        base = measure(partial(bare, n), repeats)
         ratio = lib.median_s / base.median_s
         aim, met = "<= 1.5x", ratio <= 1.5
         if count == 100:

@@ -125,7 +125,7 @@ def cmd_check(args: argparse.Namespace) -> int:
     return EXIT_OK
 
 
-def cmd_schema(args: argparse.Namespace) -> int:
+def cmd_schema(_args: argparse.Namespace) -> int:
     """Print the JSON Schema of the beam input."""
     from core.models import Beam
 

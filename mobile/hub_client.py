@@ -17,6 +17,7 @@ from dataclasses import dataclass, field
 from typing import Any
 
 from storage import Store
+from storage.bundle import Progress
 from storage.clock import uuid7
 from storage.hubsync import PageRefused, adopt_enrolment, apply_page, hub_cursor, log_sync, outgoing, record_push_answer
 from storage.identity import Enrolment, b64, enrolment, new_private_key, public_text, sign_request
@@ -26,8 +27,6 @@ PUSH_BATCH = 2000
 PULL_LIMIT = 2000
 SKEW_WARN_MS = 2 * 60 * 1000
 BLOB_KEYS = ("sha256", "pdf_sha256", "evidence_sha256")
-
-Progress = Callable[[float, str], None]
 
 
 class HubError(Exception):

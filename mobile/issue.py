@@ -21,7 +21,7 @@ def observed_text(record: dict[str, object]) -> str:
     text = (
         f"{record.get('material')} {record.get('species')} {record.get('grade')}, measured "
         f"{record.get('b_mm'):g} x {record.get('d_mm'):g} mm"
-    )  # type: ignore[str-format]
+    )
     spec = record.get("specified")
     if isinstance(spec, dict):
         text += f"; drawings: {spec['b_mm']:g} x {spec['d_mm']:g} mm {spec['species']} {spec['grade']}"

@@ -151,7 +151,8 @@ def check_beam_json(data: Any) -> None:
     def num(v: Any) -> bool:
         return isinstance(v, int | float) and not isinstance(v, bool)
 
-    spans = data.get("spans_mm") if isinstance(data.get("spans_mm"), list) else []
+    raw_spans = data.get("spans_mm")
+    spans: list[Any] = raw_spans if isinstance(raw_spans, list) else []
     longest = max((s for s in spans if num(s)), default=None)
     checks: list[tuple[str, str, Any, float | None]] = [
         ("b_mm", "b_mm", data.get("b_mm"), None),

@@ -75,7 +75,7 @@ class NumberedCanvas(rl_canvas.Canvas):
         super().__init__(*args, **kwargs)
         self._pages: list[dict[str, Any]] = []
 
-    def showPage(self) -> None:  # noqa: N802 (reportlab API)
+    def showPage(self) -> None:
         """Hold each page until the total is known."""
         self._pages.append(dict(self.__dict__))
         self._startPage()

@@ -36,6 +36,7 @@ from storage.oplog import (
     content_hash,
     insert_op,
 )
+from storage.stamps import utc_stamp
 from storage.store import Store
 from storage.validate import RecordInvalid, check_op_record
 
@@ -107,7 +108,7 @@ class ImportReport:
 
 
 def _now() -> str:
-    return time.strftime("%Y-%m-%dT%H:%M:%SZ", time.gmtime())
+    return utc_stamp()
 
 
 def export_bundle(
@@ -467,7 +468,7 @@ def import_bundle(store: Store, path: str | Path, progress: Progress | None = No
         "applied",
         ops_total=len(v.ops),
         ops_new=new,
-        blobs_new=len(v.blobs),
+        blobs_new=len(created),  # files this import wrote, not those already held
         conflicts_new=conflicts,
         origins=v.manifest["ranges"],
         warning=warning,

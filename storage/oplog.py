@@ -10,13 +10,13 @@ from __future__ import annotations
 import hashlib
 import json
 from dataclasses import dataclass
-from datetime import UTC, datetime
 from typing import Any
 
 import sqlite_utils
 
 from storage.clock import HLC_MAX
 from storage.db import INSERT_ENTITIES, SCHEMA_VERSION, SET_ENTITIES
+from storage.stamps import utc_stamp
 
 OP_KEYS = ("origin", "seq", "hlc", "entity", "record_id", "kind", "payload", "base", "schema_version", "wall_ms")
 # Allowed ranges of an op's integers (closed): all fit SQLite's signed 64-bit integers.
@@ -117,7 +117,7 @@ class Op:
 
 
 def _now() -> str:
-    return datetime.now(UTC).isoformat(timespec="seconds")
+    return utc_stamp()  # 'Z'; rows written before this carry '+00:00', which storage.stamps also reads
 
 
 def _load(db: sqlite_utils.Database, table: str, record_id: str) -> tuple[dict[str, Any] | None, str | None]:

@@ -17,6 +17,7 @@ from storage.clock import hlc_receive, hlc_tick, uuid7
 from storage.db import PROJECTIONS, SCHEMA_VERSION, SET_ENTITIES, connect, transaction
 from storage.files import write_atomic
 from storage.oplog import IntegrityError, Op, all_ops, apply_op, canonical, insert_op
+from storage.stamps import utc_stamp
 
 BEAM_FIELDS = tuple(Beam.model_fields)
 DEMO_FIRM_KEY = "bracewalk-demo-firm-key-not-for-production"  # DEMO ONLY: the demo database, never a firm's
@@ -519,7 +520,7 @@ class Store:
                 )
             if target is Stage.verified and role != "reviewer":
                 raise LifecycleError(f"{d.number}: only a reviewer sets verified (role {role!r})")
-        when = at or time.strftime("%Y-%m-%dT%H:%M:%SZ", time.gmtime(self._wall() / 1000))
+        when = at or utc_stamp(self._wall())
         self.save(
             "deficiency",
             deficiency_id,

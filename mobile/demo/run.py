@@ -11,6 +11,8 @@ from typing import Any
 
 from core.models import Beam
 from core.recheck import recheck
+from core.results import Recheck
+from mobile.viewmodels.common import line_loads_kn_m
 from storage import Store
 from storage.bundle import export_bundle
 from storage.store import DEMO_FIRM_KEY
@@ -40,25 +42,17 @@ def demo_photo(label: str) -> bytes:
     return out.getvalue()
 
 
-def line_loads(basis: dict[str, float], tributary_m: float) -> dict[str, float]:
-    """Specified line loads (kN/m) = area loads (kPa) x tributary width (m)."""
-    return {
-        "dead_kn_m": round(basis["dead_kpa"] * tributary_m, 3),
-        "live_kn_m": round(basis["live_kpa"] * tributary_m, 3),
-        "snow_kn_m": round(basis["snow_kpa"] * tributary_m, 3),
-    }
-
-
 def load_demo(store: Store) -> str:
     """Log the demo site, its visits and beams through the storage API; return the site id."""
     data = demo_data()
     floor = dict(data["floor_basis"], use="floor")
     site = store.create_site(**data["site"], demo=True, load_bases={"floor": floor})
-    bases = {"roof": data["site"]["design_basis"], "floor": data["floor_basis"]}
+    bases = {"roof": site.design_basis, **site.load_bases}  # as stored: the app's beam form reads the same
     for v in data["visits"]:
         store.start_visit(site.id, **{k: v[k] for k in v if k != "key"})
     for entry in data["beams"]:
-        beam = Beam.model_validate(dict(entry["beam"], loads=line_loads(bases[entry["basis"]], entry["tributary_m"])))
+        loads = line_loads_kn_m(bases[entry["basis"]], entry["tributary_m"])
+        beam = Beam.model_validate(dict(entry["beam"], loads=loads))
         beam_id = store.save_beam(
             site.id,
             beam,
@@ -66,6 +60,7 @@ def load_demo(store: Store) -> str:
                 "level": entry["level"],
                 "gridline": entry["gridline"],
                 "tributary_m": entry["tributary_m"],
+                "load_basis": None if entry["basis"] == "roof" else entry["basis"],  # the site's own basis is None
                 "notes": entry["why"],
                 "visit": entry["visit"],
             },
@@ -80,7 +75,7 @@ def load_demo(store: Store) -> str:
     return site.id
 
 
-def raise_all(store: Store, site_id: str) -> list[tuple[str, Any]]:
+def raise_all(store: Store, site_id: str) -> list[tuple[dict[str, Any], Recheck]]:
     """Recheck every beam and raise a deficiency for each finding a reviewer acts on."""
     rows = []
     for beam_id, record in store.beams(site_id):

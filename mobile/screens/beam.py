@@ -58,7 +58,8 @@ class BeamScreen(Screen):
         """Load the beam into the form."""
         app = App.get_running_app()
         self.vm = BeamFormViewModel(app.store, app.site_id, app.beam_id)
-        self._panel_shape = self._bearing_shape = None  # a new beam or theme: build the widgets afresh
+        self._panel_shape: object = None  # a new beam or theme: build the widgets afresh
+        self._bearing_shape: object = None
         self.raised_text = ""
         self.archive_text = ARCHIVE_PROMPT
         self.ids.form_scroll.scroll_y = 1  # another beam: start at the top of its form
@@ -120,8 +121,8 @@ class BeamScreen(Screen):
             length = Factory.BigInput(hint_text="not yet entered")
             length.text = values.get(f"bearing{i}.length_mm", "")
             length.bind(
-                text=lambda w, t, n=f"bearing{i}.length_mm": self.typed(n, t),
-                focus=lambda w, f, n=f"bearing{i}.length_mm": None if f else self.commit(n),
+                text=lambda _w, t, n=f"bearing{i}.length_mm": self.typed(n, t),
+                focus=lambda _w, f, n=f"bearing{i}.length_mm": None if f else self.commit(n),
             )
             row.add_widget(length)
             self.length_inputs[i] = length

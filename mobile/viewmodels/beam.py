@@ -43,6 +43,7 @@ LOAD_FIELDS = ("dead_kn_m", "live_kn_m", "snow_kn_m")
 TEXT_ONLY = ("level", "gridline", "notes")
 REMEDIES_KEY = "remedies"
 NOT_RECORDED = "not recorded"  # core takes the unfavourable case and says so in a finding
+_YES_NO: dict[Any, str] = {True: "yes", False: "no"}
 PICKERS: dict[str, tuple[str, ...]] = {
     "material": ("glulam", "sawn"),
     "top_braced_by": ("none", "purlins", "decking"),
@@ -141,7 +142,7 @@ class BeamFormViewModel:
             "overhang_right_mm": _mm(rec.get("overhang_right_mm", 0)),
             "top_braced_by": _fmt(top.get("braced_by", "none")),
             "purlin_spacing_mm": _mm(top.get("spacing_mm")),
-            "top_fastened": {True: "yes", False: "no"}.get(top.get("fastened"), NOT_RECORDED),
+            "top_fastened": _YES_NO.get(top.get("fastened"), NOT_RECORDED),
             "bottom_braced_by": _fmt(bottom.get("braced_by", "none")),
             "bottom_spacing_mm": _mm(bottom.get("spacing_mm")),
             "tributary_m": _fmt(rec.get("tributary_m")),
@@ -571,9 +572,9 @@ class BeamFormViewModel:
 def raised_number_for(store: Store, site_id: str, beam_id: str, finding: Any) -> str:
     """The number of this beam's unverified deficiency raised from ``finding`` (same code and place), or ''."""
     for d in store.deficiencies(site_id):
-        if d.beam_id == beam_id and d.stage is not Stage.verified and d.code == finding.code:
-            if not finding.region or d.location.endswith(finding.region):
-                return d.number
+        same = d.beam_id == beam_id and d.stage is not Stage.verified and d.code == finding.code
+        if same and (not finding.region or d.location.endswith(finding.region)):
+            return d.number
     return ""
 
 

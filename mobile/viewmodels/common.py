@@ -2,12 +2,11 @@
 
 from __future__ import annotations
 
-from datetime import UTC, datetime
-
 from pydantic import ValidationError
 
 from core.records import DesignBasis
 from reports.render import PRIORITY_WORDS, priority_label
+from storage.stamps import local_time as local_time  # re-exported: the screens show times through it
 
 STATUS_WORDS = {
     "ok": ("OK", "●"),
@@ -38,12 +37,3 @@ def line_loads_kn_m(basis: DesignBasis, tributary_m: float) -> dict[str, float]:
         "live_kn_m": round(basis.live_kpa * tributary_m, 3),
         "snow_kn_m": round(basis.snow_kpa * tributary_m, 3),
     }
-
-
-def local_time(stamp: str) -> str:
-    """A stored UTC time ('2026-12-02T04:56:06Z') as local time with its zone ('2026-12-01 20:56 PST')."""
-    try:
-        when = datetime.strptime(stamp, "%Y-%m-%dT%H:%M:%SZ").replace(tzinfo=UTC)
-    except ValueError:
-        return stamp  # not a UTC stamp: shown as stored
-    return when.astimezone().strftime("%Y-%m-%d %H:%M %Z")

@@ -4,17 +4,16 @@ from __future__ import annotations
 
 import json
 import time
-from collections.abc import Callable
 from dataclasses import dataclass
 from pathlib import Path
 
 from storage import Store
-from storage.bundle import export_bundle, import_bundle
+from storage.bundle import Progress, export_bundle, import_bundle
 from storage.hubsync import last_sync as last_hub_sync
 from storage.hubsync import rejection_words
 from storage.identity import enrolment
+from storage.stamps import local_time, utc_stamp
 
-Progress = Callable[[float, str], None]
 SKEW_WARN_MS = 2 * 60 * 1000  # sync.md 3.3: warn when the tablet's clock is this far from the hub's
 
 
@@ -30,7 +29,7 @@ class SyncViewModel:
         pending = self.store.pending_sync_count(self.peer)
         return (
             f"{pending} changes not yet sent to the {self.peer}" if pending else "Everything sent"
-        ) + f"  ·  last sync: {self.store.last_sync() or 'never'}  ·  {len(self.store.conflicts())} conflicts to review"
+        ) + f"  ·  last sync: {_when(self.store.last_sync())}  ·  {len(self.store.conflicts())} conflicts to review"
 
     def export(self, folder: Path, progress: Progress | None = None) -> str:
         """Write a bundle of the changes the peer has not seen into folder; return a summary."""
@@ -68,7 +67,7 @@ class SyncViewModel:
         last = last_hub_sync(self.store)
         if last is None:
             return f"Office hub {auth.hub_url}: enrolled, not synced yet"
-        when = time.strftime("%Y-%m-%d %H:%M UTC", time.gmtime(last["at_ms"] / 1000))
+        when = local_time(utc_stamp(last["at_ms"]))
         words = {"in_step": "in step", "refused": "some changes held back", "unreachable": "could not be reached"}
         return f"Office hub {auth.hub_url}: {words.get(last['outcome'], last['outcome'])} at {when} ({last['detail']})"
 
@@ -180,3 +179,8 @@ class AutoSync:
         """What waits to be sent, in words."""
         n = self.view.store.pending_sync_count("hub")
         return f"{n} changes waiting for the office" if n else "nothing waiting for the office"
+
+
+def _when(stamp: str | None) -> str:
+    """A stored time in local time with its zone, or 'never'."""
+    return "never" if stamp is None else local_time(stamp)

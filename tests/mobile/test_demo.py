@@ -111,3 +111,23 @@ def test_sync_cli_round_trip_same_digest(tmp_path):
         cwd=ROOT,
     )
     assert refused.returncode == 1 and "refused" in refused.stderr
+
+
+def test_demo_loads_are_the_ones_the_beam_form_derives(tmp_path):
+    """The demo and the app share one line-load function and the same stored basis per beam."""
+    from mobile.viewmodels.beam import BeamFormViewModel
+    from mobile.viewmodels.common import line_loads_kn_m
+
+    store = Store(tmp_path / "demo.db")
+    site_id = load_demo(store)
+    by_mark = {}
+    for beam_id, record in store.beams(site_id):
+        vm = BeamFormViewModel(store, site_id, beam_id)
+        stored = store.beam(beam_id).loads
+        form = line_loads_kn_m(vm.basis(vm.record()), record["tributary_m"])
+        assert form == {"dead_kn_m": stored.dead_kn_m, "live_kn_m": stored.live_kn_m, "snow_kn_m": stored.snow_kn_m}
+        by_mark[record["mark"]] = stored
+    # line load = area load x tributary width (common practice), values from mobile/demo/site.json written out:
+    # FB-1 is on the floor basis (1.5 kPa dead, 2.4 kPa live) at 2.0 m; RB-1 on the roof (1.2 dead, 2.6 snow) at 2.4 m.
+    assert (by_mark["FB-1"].dead_kn_m, by_mark["FB-1"].live_kn_m, by_mark["FB-1"].snow_kn_m) == (3.0, 4.8, 0.0)
+    assert (by_mark["RB-1"].dead_kn_m, by_mark["RB-1"].live_kn_m, by_mark["RB-1"].snow_kn_m) == (2.88, 0.0, 6.24)

@@ -230,7 +230,7 @@ def test_sync_export_import_progress_and_conflict_resolution(tmp_path):
     a, b = Store(tmp_path / "a.db"), Store(tmp_path / "b.db")
     site_id = load_demo(a)
     seen = []
-    summary = SyncViewModel(a).export(tmp_path / "x", progress=lambda f, w: seen.append(f))
+    summary = SyncViewModel(a).export(tmp_path / "x", progress=lambda f, _w: seen.append(f))
     assert "Wrote" in summary and seen[-1] == 1.0 and seen == sorted(seen)
     bundle = next((tmp_path / "x").glob("*.bwsync"))
     assert "Merged" in SyncViewModel(b).import_file(bundle)

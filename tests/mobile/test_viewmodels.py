@@ -9,7 +9,7 @@ from storage import Store
 
 
 @pytest.mark.parametrize(
-    "text,mm",
+    ("text", "mm"),
     [
         ("3600", 3600),
         ("3600 mm", 3600),

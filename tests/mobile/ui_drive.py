@@ -83,9 +83,9 @@ def layout_problems(screen_name):
         full = _window_rect(w)
         if full[0] < -1 or full[2] > app.root_window.width + 1:
             problems.append(f"{what} off screen sideways")
-        if isinstance(w, Button | TextInput) and not w.disabled:
-            if w.height < mm(15) - 1 or w.width < mm(15) - 1:
-                problems.append(f"{what} target {w.width / mm(1):.0f} x {w.height / mm(1):.0f} mm < 15 mm")
+        small = w.height < mm(15) - 1 or w.width < mm(15) - 1
+        if isinstance(w, Button | TextInput) and not w.disabled and small:
+            problems.append(f"{what} target {w.width / mm(1):.0f} x {w.height / mm(1):.0f} mm < 15 mm")
         if isinstance(w, Label) and w.text.strip() and not w.shorten:
             tw, th = w.texture_size
             if th > w.height + 2 or tw > w.width + 2:

@@ -4,6 +4,7 @@ Checks (sync.md 3.11): equal digests on every replica and the hub once all have 
 (every replica holds every op any replica saved); projections equal a replay of the op log.
 """
 
+import contextlib
 import tempfile
 from pathlib import Path
 
@@ -63,10 +64,8 @@ def test_tablets_and_hub_converge(request, backend, n, steps, final_order):
                 elif kind == "beam":
                     t.save_beam(site.id, glulam(mark=f"N{value}"))
                 elif kind == "status":
-                    try:
+                    with contextlib.suppress(LifecycleError):  # not a forward move from where this tablet stands
                         t.move_status(d.id, what, f"T{who}", "reviewer")
-                    except LifecycleError:
-                        pass  # not a forward move from where this tablet stands
                 else:
                     assert sync(t).in_step
             order = list(range(n))

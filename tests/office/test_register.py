@@ -52,7 +52,7 @@ def office(served, tmp_path):
 
 
 def test_every_page_redirects_to_login_without_a_session(office):
-    served, client, site, d, notice, _ = office
+    _served, client, site, d, notice, _ = office
     for page in [*PAGES, f"/site/{site.id}", f"/deficiency/{d.id}", f"/notice/{notice.id}.pdf"]:
         r = client.get(page)
         assert r.status_code == 303 and r.headers["location"] == "/login", page
@@ -74,7 +74,7 @@ def _login(client):
 
 
 def test_register_shows_sites_items_history_notices_and_devices(office):
-    served, client, site, d, notice, tablet = office
+    _served, client, site, d, notice, _tablet = office
     _login(client)
     home = client.get("/").text
     assert "Maple Street Hall" in home and "overdue" in home.lower()
@@ -94,7 +94,7 @@ def test_register_shows_sites_items_history_notices_and_devices(office):
 
 
 def test_a_changed_pdf_is_flagged_and_not_served(office):
-    served, client, site, d, notice, _ = office
+    served, client, _site, _d, notice, _ = office
     _login(client)
     served.hub.blob_path(notice.pdf_sha256).write_bytes(b"%PDF-1.4 altered")
     assert "DOES NOT match" in client.get("/notices").text
@@ -102,7 +102,7 @@ def test_a_changed_pdf_is_flagged_and_not_served(office):
 
 
 def test_revoke_from_the_devices_page_needs_the_form_token(office):
-    served, client, site, d, notice, tablet = office
+    served, client, _site, _d, _notice, tablet = office
     _login(client)
     assert client.post(f"/devices/{tablet.device_id}/revoke", data={"csrf": "guess"}).status_code == 403
     assert served.hub.device(tablet.device_id).revoked_ms is None

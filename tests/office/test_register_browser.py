@@ -54,7 +54,7 @@ def _shot(driver, name):
 def test_log_in_open_a_site_and_an_item_download_a_notice(office, browser):  # noqa: F811
     from selenium.webdriver.common.by import By
 
-    served_hub, _, site, d, notice, _ = office
+    served_hub, _, _site, d, notice, _ = office
     url = served_hub.url
     browser.get(url + "/")
     assert browser.current_url.endswith("/login")  # no data without a session

@@ -40,7 +40,7 @@ def test_hub_serve_starts_answers_hello_and_stops(tmp_path):
         hub.close()
     finally:
         proc.terminate()
-        out, err = proc.communicate(timeout=20)
+        out, _err = proc.communicate(timeout=20)
     assert f"127.0.0.1:{port}" in out
 
 

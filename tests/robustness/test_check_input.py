@@ -33,7 +33,7 @@ def test_utf8_byte_order_mark_accepted(tmp_path, capsys):
 
 
 def test_latin1_read_and_named(tmp_path, capsys):
-    code, out, err = check(tmp_path, capsys, json.dumps(with_(mark="Poutre é"), ensure_ascii=False).encode("latin-1"))
+    code, _out, err = check(tmp_path, capsys, json.dumps(with_(mark="Poutre é"), ensure_ascii=False).encode("latin-1"))
     assert code == 0 and "Latin-1" in err
 
 

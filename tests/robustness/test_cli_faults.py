@@ -60,12 +60,15 @@ def test_read_only_database_is_named(tmp_path):
     from storage.db import migrate, storage_error
 
     conn = sqlite3.connect(f"file:{tmp_path / 'r.db'}?mode=ro", uri=True, isolation_level=None)
-    with pytest.raises(sqlite3.Error) as info:
-        conn.execute("PRAGMA user_version = 9")
-        import sqlite_utils
+    import sqlite_utils
 
+    def write_to_it() -> None:
+        conn.execute("PRAGMA user_version = 9")
         migrate(sqlite_utils.Database(conn))
         conn.execute("CREATE TABLE t (x)")
+
+    with pytest.raises(sqlite3.Error) as info:
+        write_to_it()
     assert "read-only" in str(storage_error(info.value, "r.db"))
 
 

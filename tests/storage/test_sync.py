@@ -1,5 +1,6 @@
 """Bundles between replicas: convergence, idempotence, tampering refused whole, conflicts, clocks."""
 
+import contextlib
 import io
 import random
 import shutil
@@ -34,7 +35,7 @@ def pair(tmp_path):
 
 
 def test_import_twice_changes_nothing(pair):
-    a, b, _, _, tmp = pair
+    _a, b, _, _, tmp = pair
     before = _db_bytes(b)
     report = import_bundle(b, tmp / "a.zip")
     assert report.ops_new == 0
@@ -190,10 +191,8 @@ class Replicas(RuleBasedStateMachine):
         if not self.stores:
             return
         s = self.stores[i % len(self.stores)]
-        try:
+        with contextlib.suppress(ValueError):
             s.move_status(self.defi, move, "someone", "reviewer")
-        except ValueError:
-            pass
 
     @rule(i=st.integers(0, 4))
     def measure_and_photo(self, i):
