@@ -14,6 +14,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from itertools import pairwise
 
 from core.kinds import ElementKind, MomentSign
 
@@ -238,7 +239,7 @@ class BeamModel:
                 if 1e-6 * el.length_mm < root < el.length_mm * (1 - 1e-6):
                     cuts.append(root)
             cuts.sort()
-            for a, b in zip(cuts, cuts[1:], strict=False):
+            for a, b in pairwise(cuts):
                 pieces.append((el.x0_mm + a, el.x0_mm + b, e))
         peaks = [self._piece_max(result, p)[0] for p in pieces]
         scale = max(peaks, default=0.0)

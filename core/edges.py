@@ -15,12 +15,15 @@ between real supports of *that* edge. Defaults follow reference o86.md section 1
 from __future__ import annotations
 
 from dataclasses import dataclass, replace
+from itertools import pairwise
 
 from core.analysis import BeamModel, Region
 from core.clauses.stability import bearing_restraint_required
 from core.effective_length import RegionKind
 from core.kinds import Edge, ElementKind, MomentSign, TraceStatus
 from core.models import Beam, BottomBracing, NegativeLu, TopBracing
+
+PLAIN_REGION = RegionKind(simple_span=False, cantilever=False, braced_between=False)  # immutable default
 
 BOTH_EDGES_MAX_SPACING_MM = 610.0  # reference o86.md section 13 (judgement; no Canadian spacing found)
 DIRECT_JOIST_MAX_SPACING_MM = 610.0  # O86-19 6.5.3.2 tier 6.5 (memory, reference 2.2)
@@ -44,7 +47,7 @@ class EdgeSupport:
     rotation_how: str
     option: str = ""  # a non-default modelling option the reviewer chose, named in the trace
     # what the region is, for the Table 7.4 row
-    kind: RegionKind = RegionKind(simple_span=False, cantilever=False, braced_between=False)
+    kind: RegionKind = PLAIN_REGION
 
 
 def restraint_points_mm(beam: Beam, model: BeamModel, assume_restrained: bool) -> list[float]:
@@ -65,7 +68,7 @@ def _longest_interval_mm(points: list[float], total_mm: float, x0: float, x1: fl
     """Longest stretch between consecutive points (or a free end) that overlaps (x0, x1), mm."""
     cuts = sorted({0.0, total_mm, *points})
     tol = 1e-6 * total_mm
-    return max((b - a for a, b in zip(cuts, cuts[1:], strict=False) if a < x1 - tol and b > x0 + tol), default=0.0)
+    return max((b - a for a, b in pairwise(cuts) if a < x1 - tol and b > x0 + tol), default=0.0)
 
 
 def _bracing(beam: Beam) -> tuple[bool, bool, bool, bool, float | None]:
@@ -165,7 +168,7 @@ def _compression_edge(beam: Beam, model: BeamModel, region: Region, assume_restr
     if beam.negative_lu is NegativeLu.zero_moment_point:
         inside = [x for x in points if region.x0_mm < x < region.x1_mm]
         cuts = sorted({region.x0_mm, region.x1_mm, *inside})
-        zone = max(b - a for a, b in zip(cuts, cuts[1:], strict=False))
+        zone = max(b - a for a, b in pairwise(cuts))
         option = "zero-moment point as brace (reviewer's option, not the default; reference o86.md 13)"
         how = f"{zone:.0f} mm from a restrained bearing to the point of zero moment; {option}"
     else:

@@ -138,11 +138,8 @@ def bending_findings(beam: Beam, bending: list[BendingRegion]) -> list[Finding]:
                     clause=r.clause,
                 )
             )
-        stability_governs = (
-            r.kl is not None
-            and r.kzbg is not None
-            and r.kl < r.kzbg
-            or (r.kl is not None and r.kzbg is None and r.kl < 1.0)
+        stability_governs = (r.kl is not None and r.kzbg is not None and r.kl < r.kzbg) or (
+            r.kl is not None and r.kzbg is None and r.kl < 1.0
         )
         if r.sign is MomentSign.negative and r.compression_edge_unbraced and stability_governs:
             over = r.utilisation is not None and r.utilisation > 1.0

@@ -70,6 +70,6 @@ def applicable(combo: Combination, live_n_mm: float, snow_n_mm: float) -> bool:
     principal_present = live_n_mm > 0 if combo.alpha_l == 1.5 else snow_n_mm > 0
     companion_l = combo.alpha_l == 0.5
     companion_s = combo.alpha_s == 0.5
-    if companion_l and live_n_mm == 0 or companion_s and snow_n_mm == 0:
+    if (companion_l and live_n_mm == 0) or (companion_s and snow_n_mm == 0):
         return False  # the same as the combination without the companion
     return principal_present

@@ -252,7 +252,7 @@ def bending_check(
             )
     if not_established:
         out["outcome"] = Outcome.not_established
-        _upper_bound(beam, member, model, region, edge, fb, out, trace)
+        _upper_bound(beam, member, model, region, fb, out, trace)
         return out
     kl = _stability_kl(beam, member, edge, fb, out, trace)
     if isinstance(kl, NotPermitted):
@@ -288,7 +288,6 @@ def _upper_bound(
     member: Member,
     model: BeamModel,
     region: Region,
-    edge: EdgeSupport,
     fb: float,
     out: dict[str, Any],
     trace: list[FactorTrace] | None,
@@ -556,7 +555,8 @@ def bearing_checks(beam: Beam, member: Member, model: BeamModel, cases: list[Loa
                 best = (util, qr, qf, case)
             if lowest is None or reaction < lowest[0]:
                 lowest = (reaction, case)
-        assert best is not None and lowest is not None
+        assert best is not None
+        assert lowest is not None
         util, qr, qf, case = best
         uplift = -lowest[0] if lowest[0] < 0 else None
         clause = "CSA O86-19 7.5.9 (memory)" if beam.material is Material.glulam else "CSA O86-19 6.5.6 (memory)"

@@ -25,7 +25,7 @@ def test_simple_span_takes_the_simple_udl_row_and_says_why():
 
 
 @pytest.mark.parametrize(
-    "le_case,why",
+    ("le_case", "why"),
     [
         ("cantilever_udl", "cantilever"),  # issue 16: this row gave Mr 168.0 instead of 96.5 kN*m on a 9 m span
         ("simple_point_centre", "uniform"),

@@ -7,7 +7,7 @@ from tests.core.beams import glulam, sawn
 
 
 @pytest.mark.parametrize(
-    "over,field",
+    ("over", "field"),
     [
         ({"b_mm": 0}, "b_mm"),
         ({"b_mm": -130}, "b_mm"),

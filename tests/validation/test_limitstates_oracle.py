@@ -52,7 +52,8 @@ def test_kl_matches_limitstates_away_from_boundaries(cb, e, fb):
 
 
 @pytest.mark.parametrize(
-    "b,d,fb,kzbg,kl", [(130, 456, 30.6, 1.05, 0.97), (365, 836, 25.6, 0.91, 1.0), (175, 608, 25.6, 1.1, 0.6)]
+    ("b", "d", "fb", "kzbg", "kl"),
+    [(130, 456, 30.6, 1.05, 0.97), (365, 836, 25.6, 0.91, 1.0), (175, 608, 25.6, 1.1, 0.6)],
 )
 def test_glulam_mr_lesser_of_matches_checkGlulamMr(b, d, fb, kzbg, kl):
     # source: limitstates checkGlulamMr returns min(Mr0*kzbg*kx, Mr0*kL*kx) in N*m (O86-19 7.5.6.5.1)
@@ -60,13 +61,13 @@ def test_glulam_mr_lesser_of_matches_checkGlulamMr(b, d, fb, kzbg, kl):
     assert glulam_mr(fb, s, 1.0, kzbg, kl) == pytest.approx(1000 * ls.checkGlulamMr(s, fb, kzbg, kl), rel=1e-12)
 
 
-@pytest.mark.parametrize("b,d,fv", [(130, 456, 2.0), (365, 836, 2.0), (80, 228, 1.75)])
+@pytest.mark.parametrize(("b", "d", "fv"), [(130, 456, 2.0), (365, 836, 2.0), (80, 228, 1.75)])
 def test_glulam_vr_matches_checkGlulamShearSimple(b, d, fv):
     # source: limitstates checkGlulamShearSimple (O86-19 7.5.7.3(b))
     assert glulam_vr(fv, b * d) == pytest.approx(ls.checkGlulamShearSimple(b * d, fv), rel=1e-12)
 
 
-@pytest.mark.parametrize("b,d,length", [(365, 836, 12_000), (265, 1216, 18_000)])
+@pytest.mark.parametrize(("b", "d", "length"), [(365, 836, 12_000), (265, 1216, 18_000)])
 def test_glulam_wr_matches_checkGlulamWr(b, d, length):
     # source: limitstates checkGlulamWr (O86-19 7.5.7.3(a)), CV = 3.69
     z = glulam_volume_m3(b, d, length)

@@ -21,7 +21,7 @@ def test_northern_no3_e05_is_the_transcriptions_4000_mpa():
 
 
 @pytest.mark.parametrize(
-    "table,expected",
+    ("table", "expected"),
     [("sawn_grades", 12), ("kzb", 8), ("lumber_sizes", 12), ("service_factors", 2), ("treatment_factors", 4)],
 )
 def test_rows_the_transcription_confirms_are_marked_with_it(table, expected):
