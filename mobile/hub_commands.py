@@ -43,7 +43,7 @@ def cmd_hub_serve(args: argparse.Namespace) -> int:
 
     if bool(args.cert) != bool(args.key):
         raise UserError("--cert and --key go together")
-    hub = _hub(args.db)
+    hub = _hub(" ".join(args.db) if args.db else None)
     scheme = "https" if args.cert else "http"
     print(f"bracewalk hub {hub.hub_id} on {scheme}://{args.host}:{args.port} (database {hub.path})", flush=True)
     uvicorn.run(
@@ -185,7 +185,12 @@ def register(sub: Any) -> None:
         dest="hub_command", required=True
     )
     p = hub.add_parser("serve", help="serve the office hub over HTTP")
-    p.add_argument("--db", help="hub database file (default: hub.db in the user's data folder)")
+    p.add_argument(
+        "--db",
+        action="append",
+        help="hub database file (default: hub.db in the user's data folder), or a postgresql:// URL; "
+        "repeat --db with each server's URL of a primary and its standbys to follow the one that accepts writes",
+    )
     p.add_argument("--host", default="127.0.0.1")
     p.add_argument("--port", type=int, default=DEFAULT_PORT)
     p.add_argument("--cert", help="TLS certificate file (PEM)")

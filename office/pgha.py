@@ -129,6 +129,10 @@ class PgServer:
         deadline = time.monotonic() + 10
         while time.monotonic() < deadline and any(_alive(p) for p in [pid, *children]):
             time.sleep(0.05)
+        # as after a reboot: the lock file stays, naming a process that is gone (a killed server may stay
+        # a zombie where nothing reaps orphans, and PostgreSQL would take it for a running server)
+        (self.data / "postmaster.pid").unlink(missing_ok=True)
+        (self.dir / f".s.PGSQL.{self.port}.lock").unlink(missing_ok=True)
 
     def promote(self) -> None:
         """Promote this standby to primary and wait until it accepts writes."""

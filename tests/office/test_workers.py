@@ -90,3 +90,38 @@ def _public_key() -> str:
     from storage.identity import public_text
 
     return public_text(Ed25519PrivateKey.generate().public_key())
+
+
+def test_several_addresses_make_one_url_that_asks_for_the_writable_server():
+    from office.pgdb import conninfo
+
+    url = conninfo(["postgresql://hub@10.0.0.1:5432/firm", "postgresql://hub@10.0.0.2:5433/firm"])
+    parts = dict(p.split("=", 1) for p in url.split())
+    assert parts["host"] == "10.0.0.1,10.0.0.2" and parts["port"] == "5432,5433"
+    assert parts["target_session_attrs"] == "read-write" and parts["dbname"] == "firm"
+    import pytest
+
+    with pytest.raises(ValueError, match="dbname"):
+        conninfo(["postgresql://hub@10.0.0.1/firm", "postgresql://hub@10.0.0.2/other"])
+
+
+def test_the_hub_answers_unavailable_while_its_database_is_down_then_reconnects():
+    import pytest
+
+    from office.pgdb import DatabaseUnavailable
+    from office.pgha import PgServer
+
+    server = PgServer(durable=False).init().start()  # a folder of its own: the postgres user must reach it
+    try:
+        hub = HubStore(server.create_database("hub"))
+        before = hub.hub_seq()
+        server.kill()
+        with pytest.raises(DatabaseUnavailable):
+            hub.hub_seq()
+        with pytest.raises(DatabaseUnavailable):  # still down: the reconnect fails in words, not a hang
+            hub.hub_seq()
+        server.start()
+        assert hub.hub_seq() == before
+        hub.close()
+    finally:
+        server.remove()
