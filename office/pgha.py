@@ -166,6 +166,9 @@ class SyncPair:
     def __init__(self, folder: Path | None = None, durable: bool = True):
         """Choose folders ``primary`` and ``standby`` under ``folder`` (a new temporary one by default)."""
         base = Path(folder) if folder else Path(tempfile.mkdtemp(prefix="bracewalk-pgpair-"))
+        base.mkdir(parents=True, exist_ok=True)
+        if os.geteuid() == 0:  # the servers run as postgres, who must reach their folders
+            shutil.chown(base, "postgres", "postgres")
         self.primary = PgServer(base / "primary", durable=durable)
         self.standby = PgServer(base / "standby", durable=durable)
         self.base = base
