@@ -23,12 +23,19 @@ class Acknowledged:
     def __init__(self) -> None:
         self.lock = threading.Lock()
         self.highest: dict[str, int] = {}
+        self.times: list[float] = []
 
     def record(self, store: Store, answer: dict, pushed: list, now_ms: int) -> None:
         with self.lock:
+            self.times.append(time.monotonic())
             for origin, seq in answer["accepted"].items():
                 self.highest[origin] = max(self.highest.get(origin, 0), int(seq))
         record_push_answer(store, answer, pushed, now_ms)
+
+    def first_after(self, t0: float) -> float:
+        """When the first push after ``t0`` was acknowledged (time.monotonic)."""
+        with self.lock:
+            return min(t for t in self.times if t > t0)
 
     def ops(self) -> set[tuple[str, int]]:
         """Each acknowledged op: a push acknowledges every op of the origin up to its ``accepted`` seq."""
