@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import threading
 import time
+from dataclasses import dataclass
 from pathlib import Path
 
 from mobile import hub_client
@@ -89,3 +90,92 @@ class SimTablet:
     def own_ops(self) -> set[tuple[str, int]]:
         """The ops this tablet made itself."""
         return {(o, s) for o, s in self.ops() if o == self.store.device_id}
+
+
+@dataclass
+class LoadResult:
+    """What a load run measured and counted."""
+
+    tablets: int
+    ops_each: int
+    workers: int
+    push_wall_s: float  # from the first push sent to the last push acknowledged
+    push_latencies_s: list[float]
+    total_wall_s: float  # push, pull everything, second round
+    ops_on_hub: int
+    hub_log_rows: int
+    tablets_complete: int  # tablets holding every op of every tablet
+
+    @property
+    def ops_per_s(self) -> float:
+        """Ops acknowledged per second over the push phase."""
+        return self.tablets * self.ops_each / self.push_wall_s
+
+    @property
+    def p95_s(self) -> float:
+        """95th percentile push latency (one push request)."""
+        lat = sorted(self.push_latencies_s)
+        return lat[min(len(lat) - 1, int(0.95 * len(lat)))]
+
+
+def run_load(dbs: list[str], folder: Path, tablets: int, ops_each: int, workers: int = 2) -> LoadResult:
+    """``tablets`` simulated tablets (threads) on ``workers`` hub processes: each pushes ``ops_each`` ops, pulls all.
+
+    Every tablet pushes at once (then pulls what is there), then syncs again to pull the rest.
+    """
+    from office.background import HubProcess
+
+    admin = HubStore(dbs)
+    procs = [HubProcess(dbs).start() for _ in range(workers)]
+    latencies: list[float] = []
+    lock = threading.Lock()
+    real_request = hub_client.request
+
+    def timed(url: str, method: str, path: str, *args: object, **kw: object) -> bytes:
+        t0 = time.perf_counter()
+        out: bytes = real_request(url, method, path, *args, **kw)  # type: ignore[arg-type]
+        if path == "/v1/push":
+            with lock:
+                latencies.append(time.perf_counter() - t0)
+                last_ack[0] = time.perf_counter()
+        return out
+
+    last_ack = [0.0]
+    try:
+        sims = [SimTablet(folder, procs[i % workers].url, admin, i) for i in range(tablets)]
+        for t in sims:
+            t.edit(ops_each - 2)  # with the site and the beam: ops_each ops per tablet
+        hub_client.request = timed  # type: ignore[assignment]
+        errors: list[BaseException] = []
+
+        def both(t: SimTablet) -> None:
+            try:
+                t.sync()
+            except BaseException as exc:  # reported below
+                errors.append(exc)
+
+        t0 = time.perf_counter()
+        for _round in range(2):
+            threads = [threading.Thread(target=both, args=(t,)) for t in sims]
+            for th in threads:
+                th.start()
+            for th in threads:
+                th.join(timeout=900)
+            if errors:
+                raise errors[0]
+        total = time.perf_counter() - t0
+        every = set().union(*(t.own_ops() for t in sims))
+        complete = sum(1 for t in sims if t.ops() == every)
+        with admin.lock:
+            ops_on_hub = int(admin.db.execute("SELECT count(*) FROM op").fetchone()[0])
+            log_rows = int(admin.db.execute("SELECT count(*) FROM hub_log").fetchone()[0])
+        for t in sims:
+            t.store.close()
+        return LoadResult(
+            tablets, ops_each, workers, last_ack[0] - t0, latencies, total, ops_on_hub, log_rows, complete
+        )
+    finally:
+        hub_client.request = real_request  # type: ignore[assignment]
+        for p in procs:
+            p.stop()
+        admin.close()
