@@ -57,6 +57,31 @@ def cmd_hub_serve(args: argparse.Namespace) -> int:
     return EXIT_OK
 
 
+def cmd_hub_backup(args: argparse.Namespace) -> int:
+    """A consistent backup of the hub into a new folder (VACUUM INTO for SQLite, pg_dump for PostgreSQL)."""
+    from office.backup import backup
+
+    try:
+        out = backup(" ".join(args.db) if args.db else str(default_hub_db()), Path(args.out))
+    except (OSError, RuntimeError) as exc:
+        raise UserError(f"backup failed: {exc}") from exc
+    print(f"hub backed up to {out}")
+    return EXIT_OK
+
+
+def cmd_hub_restore(args: argparse.Namespace) -> int:
+    """Restore a backup folder into a new SQLite file or an empty PostgreSQL database."""
+    from office.backup import restore
+
+    try:
+        hub = restore(Path(args.backup), " ".join(args.db))
+    except (OSError, RuntimeError) as exc:
+        raise UserError(f"restore failed: {exc}") from exc
+    print(f"hub {hub.hub_id} restored into {args.db[0]}: {len(hub.devices())} devices, hub_seq {hub.hub_seq()}")
+    hub.close()
+    return EXIT_OK
+
+
 def cmd_hub_enroll(args: argparse.Namespace) -> int:
     """Make a one-time enrolment code; the code is alone on the last line."""
     hub = _hub(args.db)
@@ -196,6 +221,14 @@ def register(sub: Any) -> None:
     p.add_argument("--cert", help="TLS certificate file (PEM)")
     p.add_argument("--key", help="TLS private key file (PEM)")
     p.set_defaults(func=cmd_hub_serve)
+    p = hub.add_parser("backup", help="take a consistent backup of the hub into a new folder")
+    p.add_argument("--db", action="append", help="hub database file or postgresql:// URL (repeatable)")
+    p.add_argument("--out", required=True, help="a new folder for the backup")
+    p.set_defaults(func=cmd_hub_backup)
+    p = hub.add_parser("restore", help="restore a backup into a new SQLite file or an empty PostgreSQL database")
+    p.add_argument("backup", help="the folder written by 'bracewalk hub backup'")
+    p.add_argument("--db", action="append", required=True, help="target: a new file or an empty database's URL")
+    p.set_defaults(func=cmd_hub_restore)
     p = hub.add_parser("enroll", help="make a one-time code for a tablet to enrol")
     p.add_argument("--db")
     p.add_argument("--name", required=True, help="the device's name, e.g. 'Tablet 3'")

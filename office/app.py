@@ -41,6 +41,7 @@ class HubHello(Strict):
     schema_min: int
     schema_max: int
     max_body_bytes: int
+    hub_seq: int  # the last hub_seq handed out: a tablet whose cursor is beyond it meets a restored hub
 
 
 class EnrollRequest(Strict):
@@ -185,6 +186,7 @@ def _hub_router() -> APIRouter:
             schema_min=1,
             schema_max=SCHEMA_VERSION,
             max_body_bytes=MAX_BODY_BYTES,
+            hub_seq=hub.hub_seq(),
         )
 
     @router.post("/enroll")
