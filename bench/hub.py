@@ -158,6 +158,7 @@ def run_scale(quick: bool = False) -> list[Row]:
             with tempfile.TemporaryDirectory(prefix="bracewalk-bench-scale-") as tmp:
                 r = run_load([server.create_database(f"scale{workers}")], Path(tmp), tablets, ops_each, workers)
             ok = r.ops_on_hub == r.hub_log_rows == tablets * ops_each and r.tablets_complete == tablets
+            print(f"{workers} worker(s): {r}"[:300], flush=True)
             rows.append(
                 Row(
                     f"hub, PostgreSQL, {workers} worker(s), {tablets} tablets x {ops_each} ops",

@@ -149,7 +149,7 @@ def _sync(store: Store, auth: Enrolment, result: SyncResult, tell: Progress, clo
     tell(0.0, "contacting the office")
     hello = json.loads(request(auth.hub_url, "GET", "/v1/hub", ca_pem=auth.ca_pem))
     result.skew_ms = int(hello["server_time_ms"]) - clock()
-    if int(hello.get("hub_seq", 0)) < hub_cursor(store):
+    if "hub_seq" in hello and int(hello["hub_seq"]) < hub_cursor(store):
         _forget_hub_cursors(store)  # the hub was restored from a backup older than this tablet's last sync
     seen: set[tuple[str, int]] = set()
     while True:

@@ -130,6 +130,7 @@ def run_load(dbs: list[str], folder: Path, tablets: int, ops_each: int, workers:
     latencies: list[float] = []
     lock = threading.Lock()
     real_request = hub_client.request
+    real_timeout = hub_client.TIMEOUT_S
 
     def timed(url: str, method: str, path: str, *args: object, **kw: object) -> bytes:
         t0 = time.perf_counter()
@@ -146,6 +147,9 @@ def run_load(dbs: list[str], folder: Path, tablets: int, ops_each: int, workers:
         for t in sims:
             t.edit(ops_each - 2)  # with the site and the beam: ops_each ops per tablet
         hub_client.request = timed  # type: ignore[assignment]
+        # a push waits its turn at the hub's ingest lock: with many tablets at once that can pass the
+        # tablet's usual 30 s timeout, and a retry would only queue the same ops again
+        hub_client.TIMEOUT_S = 900
         errors: list[BaseException] = []
 
         def both(t: SimTablet) -> None:
@@ -176,6 +180,7 @@ def run_load(dbs: list[str], folder: Path, tablets: int, ops_each: int, workers:
         )
     finally:
         hub_client.request = real_request  # type: ignore[assignment]
+        hub_client.TIMEOUT_S = real_timeout
         for p in procs:
             p.stop()
         admin.close()
