@@ -3,6 +3,12 @@
 Reports ops/s accepted and the p95 push latency, against a raw batched INSERT of the same rows into
 the same database in the same run (aim: >= 0.2x the raw insert). SQLite always; PostgreSQL with
 ``--pg URL``. Run: ``python -m bench.hub [--quick] [--pg postgresql://...]``. Not a test.
+
+``--scale`` (issue 15) adds: 50 tablets x 500 ops on a throwaway PostgreSQL server (durable:
+fsync and synchronous_commit on) with 1 and then 2 hub worker processes, each tablet pushing and
+then pulling every other tablet's ops (ops/s over the push phase, p95 of one push); and a failover
+drill on a synchronous primary+standby (SIGKILL the primary, promote the standby 1 s later): the
+time from the kill to the first push the promoted standby accepts.
 """
 
 from __future__ import annotations
@@ -139,13 +145,101 @@ def run(quick: bool = False, pg_url: str | None = None) -> list[Row]:
     return rows
 
 
+def run_scale(quick: bool = False) -> list[Row]:
+    """Issue 15: 1 and 2 hub workers on one PostgreSQL with many tablets; failover time."""
+    from office.pgha import PgServer
+    from tests.office.fleet import run_load
+
+    tablets, ops_each = (10, 100) if quick else (50, 500)
+    rows = []
+    server = PgServer().init().start()
+    try:
+        for workers in (1, 2):
+            with tempfile.TemporaryDirectory(prefix="bracewalk-bench-scale-") as tmp:
+                r = run_load([server.create_database(f"scale{workers}")], Path(tmp), tablets, ops_each, workers)
+            ok = r.ops_on_hub == r.hub_log_rows == tablets * ops_each and r.tablets_complete == tablets
+            print(f"{workers} worker(s): {r}"[:300], flush=True)
+            rows.append(
+                Row(
+                    f"hub, PostgreSQL, {workers} worker(s), {tablets} tablets x {ops_each} ops",
+                    fmt_rate(r.ops_per_s, "ops"),
+                    f"p95 push {r.p95_s * 1000:.0f} ms; all pulled in {r.total_wall_s:.1f} s",
+                    "",
+                    "zero lost or duplicated",
+                    ok,
+                )
+            )
+    finally:
+        server.remove()
+    rows.append(_failover_row())
+    return rows
+
+
+def _failover_row() -> Row:
+    """Kill the primary under pushes, promote the standby 1 s later, time to the first accepted push."""
+    from office.background import HubProcess
+    from office.pgha import SyncPair
+    from tests.office.fleet import SimTablet
+
+    pair = SyncPair().start()
+    procs: list[HubProcess] = []
+    stop = threading.Event()
+    acked: list[float] = []
+    try:
+        urls = pair.create_database("hub")
+        admin = HubStore(urls)
+        procs = [HubProcess(urls).start(), HubProcess(urls).start()]
+        with tempfile.TemporaryDirectory(prefix="bracewalk-bench-failover-") as tmp:
+            sims = [SimTablet(Path(tmp), procs[i % 2].url, admin, i) for i in range(4)]
+
+            def loop(t: SimTablet) -> None:
+                while not stop.is_set():
+                    t.edit(5)
+                    t.sync()
+                    acked.append(time.monotonic())
+
+            threads = [threading.Thread(target=loop, args=(t,)) for t in sims]
+            for th in threads:
+                th.start()
+            time.sleep(2.0)
+            pair.primary.kill()
+            killed = time.monotonic()
+            time.sleep(1.0)
+            pair.standby.promote()
+            promoted = time.monotonic()
+            deadline = killed + 120
+            while not [a for a in acked if a > promoted] and time.monotonic() < deadline:
+                time.sleep(0.01)
+            stop.set()
+            for th in threads:
+                th.join(timeout=120)
+            first = min(a for a in acked if a > promoted)
+            for t in sims:
+                t.store.close()
+        admin.close()
+    finally:
+        stop.set()
+        for p in procs:
+            p.stop()
+        pair.remove()
+    return Row(
+        "failover: kill primary -> first push accepted on the promoted standby",
+        f"{first - killed:.2f} s",
+        f"promote issued 1.0 s after the kill, done {promoted - killed:.2f} s after it",
+        "",
+        "",
+        None,
+    )
+
+
 def main(argv: list[str] | None = None) -> int:
     """Parse arguments, run, print the table."""
     ap = argparse.ArgumentParser(prog="python -m bench.hub", description=__doc__)
     ap.add_argument("--quick", action="store_true")
     ap.add_argument("--pg", help="an empty PostgreSQL database URL to run the same case on")
+    ap.add_argument("--scale", action="store_true", help="only the issue-15 rows: 1 and 2 workers, failover")
     args = ap.parse_args(argv)
-    print_table(run(args.quick, args.pg))
+    print_table(run_scale(args.quick) if args.scale else run(args.quick, args.pg))
     return 0
 
 

@@ -19,7 +19,17 @@ from typing import Any
 from storage import Store
 from storage.bundle import Progress
 from storage.clock import uuid7
-from storage.hubsync import PageRefused, adopt_enrolment, apply_page, hub_cursor, log_sync, outgoing, record_push_answer
+from storage.db import transaction
+from storage.hubsync import (
+    HUB_PEER,
+    PageRefused,
+    adopt_enrolment,
+    apply_page,
+    hub_cursor,
+    log_sync,
+    outgoing,
+    record_push_answer,
+)
 from storage.identity import Enrolment, b64, enrolment, new_private_key, public_text, sign_request
 
 TIMEOUT_S = 20.0
@@ -138,6 +148,8 @@ def _sync(store: Store, auth: Enrolment, result: SyncResult, tell: Progress, clo
     tell(0.0, "contacting the office")
     hello = json.loads(request(auth.hub_url, "GET", "/v1/hub", ca_pem=auth.ca_pem))
     result.skew_ms = int(hello["server_time_ms"]) - clock()
+    if "hub_seq" in hello and int(hello["hub_seq"]) < hub_cursor(store):
+        _forget_hub_cursors(store)  # the hub was restored from a backup older than this tablet's last sync
     seen: set[tuple[str, int]] = set()
     while True:
         out = outgoing(store, auth, PUSH_BATCH, frozenset(seen))
@@ -167,6 +179,13 @@ def _sync(store: Store, auth: Enrolment, result: SyncResult, tell: Progress, clo
         _fetch_blobs(store, auth, page["ops"])
         more = bool(page["more"])
     tell(1.0, "in step with the office")
+
+
+def _forget_hub_cursors(store: Store) -> None:
+    """Push again whatever the hub lacks and pull from the start (the hub merges both idempotently)."""
+    with transaction(store.db):
+        store.db.execute("DELETE FROM peer_cursor WHERE peer=?", [HUB_PEER])
+        store.db.execute("INSERT OR REPLACE INTO device_key VALUES ('hub_cursor', '0')")
 
 
 def _op_json(op: Any) -> dict[str, Any]:

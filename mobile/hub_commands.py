@@ -43,7 +43,7 @@ def cmd_hub_serve(args: argparse.Namespace) -> int:
 
     if bool(args.cert) != bool(args.key):
         raise UserError("--cert and --key go together")
-    hub = _hub(args.db)
+    hub = _hub(" ".join(args.db) if args.db else None)
     scheme = "https" if args.cert else "http"
     print(f"bracewalk hub {hub.hub_id} on {scheme}://{args.host}:{args.port} (database {hub.path})", flush=True)
     uvicorn.run(
@@ -54,6 +54,31 @@ def cmd_hub_serve(args: argparse.Namespace) -> int:
         ssl_keyfile=args.key,
         log_level="warning",
     )
+    return EXIT_OK
+
+
+def cmd_hub_backup(args: argparse.Namespace) -> int:
+    """A consistent backup of the hub into a new folder (VACUUM INTO for SQLite, pg_dump for PostgreSQL)."""
+    from office.backup import backup
+
+    try:
+        out = backup(" ".join(args.db) if args.db else str(default_hub_db()), Path(args.out))
+    except (OSError, RuntimeError) as exc:
+        raise UserError(f"backup failed: {exc}") from exc
+    print(f"hub backed up to {out}")
+    return EXIT_OK
+
+
+def cmd_hub_restore(args: argparse.Namespace) -> int:
+    """Restore a backup folder into a new SQLite file or an empty PostgreSQL database."""
+    from office.backup import restore
+
+    try:
+        hub = restore(Path(args.backup), " ".join(args.db))
+    except (OSError, RuntimeError) as exc:
+        raise UserError(f"restore failed: {exc}") from exc
+    print(f"hub {hub.hub_id} restored into {args.db[0]}: {len(hub.devices())} devices, hub_seq {hub.hub_seq()}")
+    hub.close()
     return EXIT_OK
 
 
@@ -185,12 +210,25 @@ def register(sub: Any) -> None:
         dest="hub_command", required=True
     )
     p = hub.add_parser("serve", help="serve the office hub over HTTP")
-    p.add_argument("--db", help="hub database file (default: hub.db in the user's data folder)")
+    p.add_argument(
+        "--db",
+        action="append",
+        help="hub database file (default: hub.db in the user's data folder), or a postgresql:// URL; "
+        "repeat --db with each server's URL of a primary and its standbys to follow the one that accepts writes",
+    )
     p.add_argument("--host", default="127.0.0.1")
     p.add_argument("--port", type=int, default=DEFAULT_PORT)
     p.add_argument("--cert", help="TLS certificate file (PEM)")
     p.add_argument("--key", help="TLS private key file (PEM)")
     p.set_defaults(func=cmd_hub_serve)
+    p = hub.add_parser("backup", help="take a consistent backup of the hub into a new folder")
+    p.add_argument("--db", action="append", help="hub database file or postgresql:// URL (repeatable)")
+    p.add_argument("--out", required=True, help="a new folder for the backup")
+    p.set_defaults(func=cmd_hub_backup)
+    p = hub.add_parser("restore", help="restore a backup into a new SQLite file or an empty PostgreSQL database")
+    p.add_argument("backup", help="the folder written by 'bracewalk hub backup'")
+    p.add_argument("--db", action="append", required=True, help="target: a new file or an empty database's URL")
+    p.set_defaults(func=cmd_hub_restore)
     p = hub.add_parser("enroll", help="make a one-time code for a tablet to enrol")
     p.add_argument("--db")
     p.add_argument("--name", required=True, help="the device's name, e.g. 'Tablet 3'")

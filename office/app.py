@@ -17,6 +17,7 @@ from fastapi.responses import JSONResponse
 from pydantic import BaseModel, ConfigDict, Field, ValidationError
 
 from office.hubstore import HubRefused, HubStore
+from office.pgdb import DatabaseUnavailable
 from storage.db import SCHEMA_VERSION
 from storage.identity import SignatureError, load_public, unb64, verify_request
 from storage.oplog import Op
@@ -40,6 +41,7 @@ class HubHello(Strict):
     schema_min: int
     schema_max: int
     max_body_bytes: int
+    hub_seq: int  # the last hub_seq handed out: a tablet whose cursor is beyond it meets a restored hub
 
 
 class EnrollRequest(Strict):
@@ -111,6 +113,11 @@ def create_app(hub: HubStore) -> FastAPI:
     async def refused(request: Request, exc: HubRefused) -> JSONResponse:
         return JSONResponse({"detail": exc.reason}, status_code=exc.status)
 
+    @app.exception_handler(DatabaseUnavailable)
+    async def unavailable(request: Request, exc: DatabaseUnavailable) -> JSONResponse:
+        # nothing was acknowledged: the tablet tries again (pushes are idempotent by bundle id)
+        return JSONResponse({"detail": f"the hub's database is unavailable, try again: {exc}"}, status_code=503)
+
     @app.middleware("http")
     async def limit_body(request: Request, call_next: Any) -> Response:
         declared = request.headers.get("content-length")
@@ -179,6 +186,7 @@ def _hub_router() -> APIRouter:
             schema_min=1,
             schema_max=SCHEMA_VERSION,
             max_body_bytes=MAX_BODY_BYTES,
+            hub_seq=hub.hub_seq(),
         )
 
     @router.post("/enroll")
@@ -232,10 +240,10 @@ def _blob_router() -> APIRouter:
         """A blob's bytes."""
         if not SHA_RE.match(sha256):
             raise HubRefused(400, "blob name is not a SHA-256")
-        path = _hub(request).blob_path(sha256)
-        if not path.exists():
+        content = _hub(request).read_blob(sha256)
+        if content is None:
             raise HTTPException(404, "no such blob")
-        return Response(path.read_bytes(), media_type="application/octet-stream")
+        return Response(content, media_type="application/octet-stream")
 
     return router
 

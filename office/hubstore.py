@@ -111,13 +111,19 @@ def _now_ms() -> int:
 class HubStore:
     """The office hub's database on embedded SQLite."""
 
-    def __init__(self, path: str | Path, clock_ms: Callable[[], int] | None = None, blob_dir: str | Path | None = None):
+    def __init__(
+        self,
+        path: str | Path | list[str],
+        clock_ms: Callable[[], int] | None = None,
+        blob_dir: str | Path | None = None,
+    ):
         """Open or create the hub database (an SQLite file, or a ``postgresql://`` URL) at the current schema.
 
-        Blobs live in ``blob_dir`` (default: beside an SQLite file; for PostgreSQL, a folder named for
-        the database in the user's data folder).
+        Several PostgreSQL addresses may be given as a list (or space-separated): the hub follows the
+        one that accepts writes. Blobs of an SQLite hub live in ``blob_dir`` (default: beside the
+        file); a PostgreSQL hub keeps them in the database (``blob_dir`` is then unused).
         """
-        self.path = str(path)
+        self.path = " ".join(path) if isinstance(path, list) else str(path)
         self.lock = threading.RLock()
         self.clock_ms = clock_ms or _now_ms
         self.db: Any
@@ -203,6 +209,10 @@ class HubStore:
             for table in (*tables, "hub_log", "hub_push", "hub_quarantine"):
                 for row in self.db.execute(f"SELECT * FROM {table} ORDER BY 1, 2").fetchall():
                     h.update(repr((table, row)).encode())
+        if self.backend == "postgresql":
+            with self.lock:
+                for row in self.db.execute("SELECT sha256 FROM hub_blob_data ORDER BY 1").fetchall():
+                    h.update(repr(("hub_blob_data", row)).encode())
         for path in sorted(self.blob_dir.rglob("*")) if self.blob_dir.exists() else []:
             h.update(str(path.relative_to(self.blob_dir)).encode())
         return h.hexdigest()
@@ -285,25 +295,49 @@ class HubStore:
 
     # -- blobs ---------------------------------------------------------------------------------
     def blob_path(self, sha: str) -> Path:
-        """Where a blob's bytes live."""
+        """Where a blob's bytes live on an SQLite hub (a PostgreSQL hub keeps them in the database)."""
         return self.blob_dir / sha[:2] / sha
+
+    def has_blob(self, sha: str) -> bool:
+        """True if the hub holds the blob's bytes."""
+        if self.backend == "sqlite":
+            return self.blob_path(sha).exists()
+        with self.lock:
+            return self.db.execute("SELECT 1 FROM hub_blob_data WHERE sha256=?", [sha]).fetchone() is not None
+
+    def read_blob(self, sha: str) -> bytes | None:
+        """A blob's bytes, or None if the hub does not hold it."""
+        if self.backend == "sqlite":
+            path = self.blob_path(sha)
+            return path.read_bytes() if path.exists() else None
+        with self.lock:
+            row = self.db.execute("SELECT content FROM hub_blob_data WHERE sha256=?", [sha]).fetchone()
+        return bytes(row[0]) if row else None
 
     def missing_blobs(self, shas: list[str]) -> list[str]:
         """The subset of ``shas`` the hub does not hold."""
-        return [s for s in shas if not self.blob_path(s).exists()]
+        return [s for s in shas if not self.has_blob(s)]
 
     def put_blob(self, sha: str, content: bytes, device_id: str) -> bool:
-        """Store a blob after checking its hash; True if it was new."""
+        """Store a blob after checking its hash; True if it was new.
+
+        SQLite hub: a file under the blob folder, written whole then renamed. PostgreSQL hub: a bytea
+        row in the same database as the ops, so every hub worker sees it, the synchronous standby holds
+        it before the tablet is told, and one pg_dump backs up ops and photos together.
+        """
         if hashlib.sha256(content).hexdigest() != sha:
             raise HubRefused(400, f"blob bytes do not match their SHA-256 {sha[:12]}")
-        path = self.blob_path(sha)
-        if path.exists():
+        if self.has_blob(sha):
             return False
-        path.parent.mkdir(parents=True, exist_ok=True)
-        tmp = path.with_suffix(f".{secrets.token_hex(4)}.part")
-        tmp.write_bytes(content)
-        tmp.replace(path)
+        if self.backend == "sqlite":
+            path = self.blob_path(sha)
+            path.parent.mkdir(parents=True, exist_ok=True)
+            tmp = path.with_suffix(f".{secrets.token_hex(4)}.part")
+            tmp.write_bytes(content)
+            tmp.replace(path)
         with self.tx():
+            if self.backend == "postgresql":
+                self.db.execute("INSERT OR IGNORE INTO hub_blob_data VALUES (?, ?)", [sha, content])
             self.db.execute(
                 "INSERT OR REPLACE INTO blob VALUES (?, ?, ?, 1)", [sha, len(content), "application/octet-stream"]
             )
@@ -373,6 +407,14 @@ class HubStore:
     ) -> PushAnswer:
         answer = PushAnswer()
         with transaction(self.db):
+            # checked again under the ingest lock: another hub worker may have taken this bundle meanwhile
+            done = self.db.execute(
+                "SELECT device_id, body_sha256, answer FROM hub_push WHERE bundle_id=?", [bundle_id]
+            ).fetchone()
+            if done is not None:
+                if (done[0], done[1]) != (device_id, body_sha256):
+                    raise HubRefused(409, f"bundle {bundle_id} was already pushed with other content")
+                return PushAnswer(**json.loads(done[2]))
             batch = ProjectionBatch(self.db)
             for op, sig in ops:
                 held = self.db.execute("SELECT 1 FROM op WHERE origin=? AND seq=?", [op.origin, op.seq]).fetchone()

@@ -127,10 +127,10 @@ def _router() -> APIRouter:
 
     @router.get("/photo/{sha256}")
     def photo(sha256: str, request: Request, user: User) -> Response:
-        path = _hub(request).blob_path(sha256)
-        if len(sha256) != 64 or not path.exists():
+        content = _hub(request).read_blob(sha256) if len(sha256) == 64 else None
+        if content is None:
             return Response("photo not yet received", status_code=404)
-        return Response(path.read_bytes(), media_type="image/jpeg")
+        return Response(content, media_type="image/jpeg")
 
     @router.get("/notices")
     def notices(request: Request, user: User) -> HTMLResponse:

@@ -13,6 +13,12 @@ database-access interface it uses (``execute(sql, params)`` returning a cursor w
 - ``BEGIN IMMEDIATE`` becomes ``BEGIN`` plus a transaction-scoped advisory lock, so ingest
   transactions run one at a time and hub_seq is handed out in commit order (no cursor holes,
   sync.md 4, even with several hub workers on one database).
+
+Several database addresses (a primary and its standbys) may be given: libpq tries them in turn and
+keeps the one that accepts writes (``target_session_attrs=read-write``). A lost connection is never
+retried inside a request: the request fails with ``DatabaseUnavailable`` (HTTP 503, nothing
+acknowledged), and the next request connects afresh, to whichever address then accepts writes. The
+tablet retries; pushes are idempotent by bundle id, so an ambiguous commit is never applied twice.
 """
 
 from __future__ import annotations
@@ -22,8 +28,18 @@ from functools import lru_cache
 from typing import Any
 
 import psycopg
+from psycopg.conninfo import conninfo_to_dict, make_conninfo
 
 INGEST_LOCK = 8470_0001
+CONNECT_TIMEOUT_S = 5
+# PostgreSQL's warning when a commit was cancelled while waiting for the synchronous standby: the
+# commit is then local only, so the hub must not acknowledge it.
+_SYNC_CANCEL = "synchronous replication"
+
+
+class DatabaseUnavailable(Exception):
+    """The hub's database cannot be reached or lost the connection; nothing was acknowledged."""
+
 
 # table -> (primary key columns, all columns in order); what INSERT OR REPLACE needs to know
 TABLES: dict[str, tuple[tuple[str, ...], tuple[str, ...]]] = {
@@ -103,6 +119,9 @@ PG_MIGRATIONS: dict[int, list[str]] = {
         "CREATE TABLE IF NOT EXISTS hub_user (name TEXT PRIMARY KEY, password_hash TEXT NOT NULL, created_ms BIGINT)",
         "CREATE TABLE IF NOT EXISTS hub_session (token_sha256 TEXT PRIMARY KEY, name TEXT NOT NULL, expires_ms BIGINT)",
     ],
+    3: [  # blob bytes in the database: every hub worker sees them, and the standby and backups hold them
+        "CREATE TABLE IF NOT EXISTS hub_blob_data (sha256 TEXT PRIMARY KEY, content BYTEA NOT NULL)",
+    ],
 }
 
 _REPLACE = re.compile(r"^\s*INSERT OR REPLACE INTO (\w+)\s*(\(([^)]*)\))?\s*VALUES", re.IGNORECASE | re.DOTALL)
@@ -129,13 +148,51 @@ def translate(sql: str) -> str:
     return out
 
 
+def conninfo(addresses: str | list[str]) -> str:
+    """One libpq URL from one URL or several (same database, user and options; the hosts differ).
+
+    With more than one host the URL asks for the server that accepts writes
+    (``target_session_attrs=read-write``), so after a standby is promoted the hub follows it.
+    """
+    urls = [addresses] if isinstance(addresses, str) else list(addresses)
+    urls = [u for part in urls for u in part.split(" ") if u]
+    if not urls:
+        raise ValueError("no database address given")
+    parsed = [conninfo_to_dict(u) for u in urls]
+    hosts = [h for p in parsed for h in str(p.get("host", "")).split(",")]
+    ports = [q for p in parsed for q in str(p.get("port", "5432")).split(",")]
+    base = dict(parsed[0])
+    for other in parsed[1:]:
+        differs = {k for k in ("dbname", "user") if other.get(k) != base.get(k)}
+        if differs:
+            raise ValueError(f"database addresses differ in {', '.join(sorted(differs))}: {urls}")
+    base["host"], base["port"] = ",".join(hosts), ",".join(p if p else "5432" for p in ports)
+    if len(hosts) > 1:
+        base.setdefault("target_session_attrs", "read-write")
+    base.setdefault("connect_timeout", str(CONNECT_TIMEOUT_S))
+    return make_conninfo("", **base)
+
+
 class PgDatabase:
     """A psycopg connection with the ``execute`` the shared storage code calls."""
 
-    def __init__(self, url: str):
+    def __init__(self, url: str | list[str]):
         """Connect (autocommit: transactions are opened explicitly by ``storage.db.transaction``)."""
-        self.url = url
-        self.conn = psycopg.connect(url, autocommit=True)
+        self.url = conninfo(url)
+        self.conn: psycopg.Connection[Any] = self._connect()
+        self._sync_cancelled = False
+
+    def _connect(self) -> psycopg.Connection[Any]:
+        try:
+            conn = psycopg.connect(self.url, autocommit=True)
+        except psycopg.OperationalError as exc:
+            raise DatabaseUnavailable(f"no database that accepts writes: {str(exc).splitlines()[0]}") from exc
+        conn.add_notice_handler(self._notice)
+        return conn
+
+    def _notice(self, diag: psycopg.errors.Diagnostic) -> None:
+        if _SYNC_CANCEL in (diag.message_primary or ""):
+            self._sync_cancelled = True
 
     @property
     def in_transaction(self) -> bool:
@@ -143,12 +200,28 @@ class PgDatabase:
         return self.conn.info.transaction_status != psycopg.pq.TransactionStatus.IDLE
 
     def execute(self, sql: str, params: Any = None) -> Any:
-        """Run one statement (translated) and return the cursor."""
-        if sql.strip().upper() == "BEGIN IMMEDIATE":
-            cur = self.conn.execute("BEGIN")
-            self.conn.execute("SELECT pg_advisory_xact_lock(%s)", [INGEST_LOCK])
-            return cur
-        return self.conn.execute(translate(sql), params)
+        """Run one statement (translated) and return the cursor; DatabaseUnavailable if the server is gone."""
+        word = sql.strip().upper()
+        if self.conn.broken or self.conn.closed:
+            if word == "ROLLBACK":  # the server dropped the transaction with the connection
+                return None
+            if word == "COMMIT":
+                raise DatabaseUnavailable("the database connection was lost before the commit; not acknowledged")
+            self.conn = self._connect()
+        try:
+            if word == "BEGIN IMMEDIATE":
+                self._sync_cancelled = False
+                cur = self.conn.execute("BEGIN")
+                self.conn.execute("SELECT pg_advisory_xact_lock(%s)", [INGEST_LOCK])
+                return cur
+            cur = self.conn.execute(translate(sql), params)
+        except psycopg.OperationalError as exc:
+            if not self.conn.broken:
+                raise
+            raise DatabaseUnavailable(f"the database connection was lost: {str(exc).splitlines()[0]}") from exc
+        if word == "COMMIT" and self._sync_cancelled:
+            raise DatabaseUnavailable("the commit did not reach the synchronous standby; not acknowledged")
+        return cur
 
 
 def migrate(db: PgDatabase) -> int:

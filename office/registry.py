@@ -191,7 +191,7 @@ def deficiency(hub: HubStore, deficiency_id: str) -> dict[str, Any] | None:
         dict(n, id=nid) for nid, n in _rows(hub, "issued_notice") if deficiency_id in n.get("deficiency_ids", [])
     ]
     for p in photos:
-        p["present"] = hub.blob_path(p["sha256"]).exists()
+        p["present"] = hub.has_blob(p["sha256"])
     return {
         "item": item,
         "history": [dict(e, stage_name=STAGES[int(e["stage"])]) for e in history],
@@ -205,14 +205,14 @@ def notices(hub: HubStore) -> list[dict[str, Any]]:
     """Issued notices, each with whether the hub holds its PDF and whether the bytes match the recorded SHA-256."""
     out = []
     for nid, n in _rows(hub, "issued_notice"):
-        path = hub.blob_path(n["pdf_sha256"])
-        if not path.exists():
+        content = hub.read_blob(n["pdf_sha256"])
+        if content is None:
             check = "PDF not yet received"
-        elif hashlib.sha256(path.read_bytes()).hexdigest() == n["pdf_sha256"]:
+        elif hashlib.sha256(content).hexdigest() == n["pdf_sha256"]:
             check = "matches its recorded SHA-256"
         else:
             check = "DOES NOT match its recorded SHA-256"
-        out.append(dict(n, id=nid, check=check, present=path.exists()))
+        out.append(dict(n, id=nid, check=check, present=content is not None))
     return sorted(out, key=lambda n: (n["number"], n.get("revision", 0)))
 
 
@@ -220,5 +220,7 @@ def notice_pdf(hub: HubStore, notice_id: str) -> tuple[str, bytes] | None:
     """(file name, bytes) of an issued notice's PDF, only when the bytes match the recorded hash."""
     for n in notices(hub):
         if n["id"] == notice_id and n["check"].startswith("matches"):
-            return f"{n['number']}-rev{n.get('revision', 0)}.pdf", hub.blob_path(n["pdf_sha256"]).read_bytes()
+            content = hub.read_blob(n["pdf_sha256"])
+            if content is not None:
+                return f"{n['number']}-rev{n.get('revision', 0)}.pdf", content
     return None

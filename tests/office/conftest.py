@@ -2,11 +2,7 @@
 
 from __future__ import annotations
 
-import os
-import shutil
 import socket
-import subprocess
-import tempfile
 import threading
 import time
 from pathlib import Path
@@ -17,6 +13,7 @@ import uvicorn
 from mobile.hub_client import enroll
 from office.app import create_app
 from office.hubstore import HubStore
+from office.pgha import PgServer, pg_bindir
 from storage import Store
 
 
@@ -53,56 +50,28 @@ class RunningHub:
 
 
 class PgCluster:
-    """A throwaway PostgreSQL cluster: initdb into a temporary folder, a free port on 127.0.0.1."""
+    """A throwaway PostgreSQL server (office.pgha) in a temporary folder, on a free port of 127.0.0.1."""
 
     def __init__(self):
-        self.bin = _pg_bindir()
-        self.dir = Path(tempfile.mkdtemp(prefix="bracewalk-pg-"))
-        self.data = self.dir / "data"
-        with socket.socket() as s:
-            s.bind(("127.0.0.1", 0))
-            self.port = s.getsockname()[1]
-        self.as_postgres = ["runuser", "-u", "postgres", "--"] if os.geteuid() == 0 else []
+        self.server = PgServer(durable=False)
+        self.port = self.server.port
         self.count = 0
 
     def start(self) -> PgCluster:
-        if self.as_postgres:
-            shutil.chown(self.dir, "postgres", "postgres")
-        self._run("initdb", "-D", str(self.data), "-A", "trust", "-U", "postgres", "--no-sync", "-E", "UTF8")
-        opts = f"-p {self.port} -k {self.dir} -c listen_addresses=127.0.0.1 -c fsync=off -c synchronous_commit=off"
-        self._run("pg_ctl", "-D", str(self.data), "-o", opts, "-l", str(self.dir / "log"), "-w", "start")
+        self.server.init(("synchronous_commit = off",)).start()
         return self
 
-    def _run(self, tool, *args):
-        subprocess.run([*self.as_postgres, str(self.bin / tool), *args], check=True, capture_output=True, timeout=120)
-
     def new_database(self) -> str:
-        import psycopg
-
         self.count += 1
-        name = f"hub{self.count}"
-        with psycopg.connect(f"postgresql://postgres@127.0.0.1:{self.port}/postgres", autocommit=True) as conn:
-            conn.execute(f"CREATE DATABASE {name}")
-        return f"postgresql://postgres@127.0.0.1:{self.port}/{name}"
+        return self.server.create_database(f"hub{self.count}")
 
     def stop(self) -> None:
-        try:
-            self._run("pg_ctl", "-D", str(self.data), "-m", "immediate", "-w", "stop")
-        finally:
-            shutil.rmtree(self.dir, ignore_errors=True)
-
-
-def _pg_bindir() -> Path | None:
-    found = shutil.which("pg_ctl")
-    if found:
-        return Path(os.path.realpath(found)).parent
-    versions = sorted(Path("/usr/lib/postgresql").glob("*/bin/pg_ctl"))
-    return versions[-1].parent if versions else None
+        self.server.remove()
 
 
 @pytest.fixture(scope="session")
 def pg_cluster():
-    if _pg_bindir() is None:
+    if pg_bindir() is None:
         pytest.skip("PostgreSQL is not installed (scripts/setup.sh installs Debian's postgresql); SQLite cases ran")
     cluster = PgCluster().start()
     yield cluster

@@ -19,7 +19,7 @@ def test_pg_migrations_run_twice_and_the_hub_reopens_with_its_id(pg_cluster, tmp
     url = pg_cluster.new_database()
     hub = HubStore(url, blob_dir=tmp_path)
     first_id = hub.hub_id
-    assert migrate(hub.db) == 2
+    assert migrate(hub.db) == 3
     hub.close()
     again = HubStore(url, blob_dir=tmp_path)
     assert again.hub_id == first_id

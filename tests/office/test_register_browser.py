@@ -28,11 +28,13 @@ def browser(tmp_path):
     options.binary_location = CHROMIUM
     for arg in ("--headless=new", "--no-sandbox", "--disable-dev-shm-usage", "--window-size=1200,900"):
         options.add_argument(arg)
+    downloads = tmp_path / "downloads"  # apart from the notice the fixture writes, so only the download counts
+    downloads.mkdir()
     options.add_experimental_option(
-        "prefs", {"download.default_directory": str(tmp_path), "download.prompt_for_download": False}
+        "prefs", {"download.default_directory": str(downloads), "download.prompt_for_download": False}
     )
     driver = webdriver.Chrome(service=Service(executable_path=DRIVER), options=options)
-    driver.download_dir = tmp_path
+    driver.download_dir = downloads
     yield driver
     driver.quit()
 

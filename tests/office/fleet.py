@@ -1,0 +1,186 @@
+"""Simulated tablets for the multi-worker, failover and load tests: edit, sync, retry, count what was acknowledged."""
+
+from __future__ import annotations
+
+import threading
+import time
+from dataclasses import dataclass
+from pathlib import Path
+
+from mobile import hub_client
+from mobile.hub_client import HubError, enroll
+from office.hubstore import HubStore
+from storage import Store
+from storage.db import transaction
+from storage.hubsync import record_push_answer
+from tests.core.beams import glulam
+
+RETRY_S = 120.0  # bounded: a tablet gives up after this long without a successful sync
+
+
+class Acknowledged:
+    """Every (origin, seq) a hub told a tablet it accepted, collected from the push answers."""
+
+    def __init__(self) -> None:
+        self.lock = threading.Lock()
+        self.highest: dict[str, int] = {}
+        self.times: list[float] = []
+
+    def record(self, store: Store, answer: dict, pushed: list, now_ms: int) -> None:
+        with self.lock:
+            self.times.append(time.monotonic())
+            for origin, seq in answer["accepted"].items():
+                self.highest[origin] = max(self.highest.get(origin, 0), int(seq))
+        record_push_answer(store, answer, pushed, now_ms)
+
+    def first_after(self, t0: float) -> float:
+        """When the first push after ``t0`` was acknowledged (time.monotonic)."""
+        with self.lock:
+            return min(t for t in self.times if t > t0)
+
+    def ops(self) -> set[tuple[str, int]]:
+        """Each acknowledged op: a push acknowledges every op of the origin up to its ``accepted`` seq."""
+        with self.lock:
+            return {(o, s) for o, top in self.highest.items() for s in range(1, top + 1)}
+
+
+def watch_acknowledgements(monkeypatch) -> Acknowledged:
+    """Collect every push answer the tablets receive (the client calls record_push_answer with it)."""
+    acked = Acknowledged()
+    monkeypatch.setattr(hub_client, "record_push_answer", acked.record)
+    return acked
+
+
+class SimTablet:
+    """One tablet enrolled at one hub worker: a site and a beam, edited ``n`` times between syncs."""
+
+    def __init__(self, folder: Path, url: str, hub: HubStore, i: int):
+        self.store = Store(folder / f"tablet{i}.db")
+        enroll(self.store, url, hub.new_code(f"Tablet {i}", f"Reviewer {i}", "reviewer"))
+        self.site = self.store.create_site(name=f"Site {i}")
+        self.beam = self.store.save_beam(self.site.id, glulam(mark=f"B{i}"))
+        self.i = i
+        self.failed_syncs = 0
+
+    def edit(self, n: int) -> None:
+        """``n`` edits of the tablet's beam, in one transaction (one op each)."""
+        with transaction(self.store.db):
+            for k in range(n):
+                self.store._save_in_tx("beam", self.beam, {"notes": f"t{self.i} edit {k}"}, "set", None)
+
+    def sync(self, give_up_s: float = RETRY_S) -> None:
+        """Sync, retrying while the hub is unreachable or answers 5xx (as the app's automatic sync does)."""
+        deadline = time.monotonic() + give_up_s
+        while True:
+            try:
+                hub_client.sync(self.store)
+                return
+            except HubError as exc:
+                if exc.status is not None and exc.status < 500:
+                    raise
+                self.failed_syncs += 1
+                if time.monotonic() > deadline:
+                    raise
+                time.sleep(0.2)
+
+    def ops(self) -> set[tuple[str, int]]:
+        """Every (origin, seq) the tablet holds."""
+        return {(o, s) for o, s in self.store.db.execute("SELECT origin, seq FROM op").fetchall()}
+
+    def own_ops(self) -> set[tuple[str, int]]:
+        """The ops this tablet made itself."""
+        return {(o, s) for o, s in self.ops() if o == self.store.device_id}
+
+
+@dataclass
+class LoadResult:
+    """What a load run measured and counted."""
+
+    tablets: int
+    ops_each: int
+    workers: int
+    push_wall_s: float  # from the first push sent to the last push acknowledged
+    push_latencies_s: list[float]
+    total_wall_s: float  # push, pull everything, second round
+    ops_on_hub: int
+    hub_log_rows: int
+    tablets_complete: int  # tablets holding every op of every tablet
+
+    @property
+    def ops_per_s(self) -> float:
+        """Ops acknowledged per second over the push phase."""
+        return self.tablets * self.ops_each / self.push_wall_s
+
+    @property
+    def p95_s(self) -> float:
+        """95th percentile push latency (one push request)."""
+        lat = sorted(self.push_latencies_s)
+        return lat[min(len(lat) - 1, int(0.95 * len(lat)))]
+
+
+def run_load(dbs: list[str], folder: Path, tablets: int, ops_each: int, workers: int = 2) -> LoadResult:
+    """``tablets`` simulated tablets (threads) on ``workers`` hub processes: each pushes ``ops_each`` ops, pulls all.
+
+    Every tablet pushes at once (then pulls what is there), then syncs again to pull the rest.
+    """
+    from office.background import HubProcess
+
+    admin = HubStore(dbs)
+    procs = [HubProcess(dbs).start() for _ in range(workers)]
+    latencies: list[float] = []
+    lock = threading.Lock()
+    real_request = hub_client.request
+    real_timeout = hub_client.TIMEOUT_S
+
+    def timed(url: str, method: str, path: str, *args: object, **kw: object) -> bytes:
+        t0 = time.perf_counter()
+        out: bytes = real_request(url, method, path, *args, **kw)  # type: ignore[arg-type]
+        if path == "/v1/push":
+            with lock:
+                latencies.append(time.perf_counter() - t0)
+                last_ack[0] = time.perf_counter()
+        return out
+
+    last_ack = [0.0]
+    try:
+        sims = [SimTablet(folder, procs[i % workers].url, admin, i) for i in range(tablets)]
+        for t in sims:
+            t.edit(ops_each - 2)  # with the site and the beam: ops_each ops per tablet
+        hub_client.request = timed  # type: ignore[assignment]
+        # a push waits its turn at the hub's ingest lock: with many tablets at once that can pass the
+        # tablet's usual 30 s timeout, and a retry would only queue the same ops again
+        hub_client.TIMEOUT_S = 900
+        errors: list[BaseException] = []
+
+        def both(t: SimTablet) -> None:
+            try:
+                t.sync()
+            except BaseException as exc:  # reported below
+                errors.append(exc)
+
+        t0 = time.perf_counter()
+        for _round in range(2):
+            threads = [threading.Thread(target=both, args=(t,)) for t in sims]
+            for th in threads:
+                th.start()
+            for th in threads:
+                th.join(timeout=900)
+            if errors:
+                raise errors[0]
+        total = time.perf_counter() - t0
+        every = set().union(*(t.own_ops() for t in sims))
+        complete = sum(1 for t in sims if t.ops() == every)
+        with admin.lock:
+            ops_on_hub = int(admin.db.execute("SELECT count(*) FROM op").fetchone()[0])
+            log_rows = int(admin.db.execute("SELECT count(*) FROM hub_log").fetchone()[0])
+        for t in sims:
+            t.store.close()
+        return LoadResult(
+            tablets, ops_each, workers, last_ack[0] - t0, latencies, total, ops_on_hub, log_rows, complete
+        )
+    finally:
+        hub_client.request = real_request  # type: ignore[assignment]
+        hub_client.TIMEOUT_S = real_timeout
+        for p in procs:
+            p.stop()
+        admin.close()
