@@ -14,6 +14,7 @@ from it with the same steps before relying on it again.
 
 from __future__ import annotations
 
+import contextlib
 import os
 import shutil
 import signal
@@ -122,10 +123,8 @@ class PgServer:
         pid = int((self.data / "postmaster.pid").read_text().split()[0])
         children = [p for p in _all_pids() if _parent(p) == pid]
         for p in [pid, *children]:
-            try:
+            with contextlib.suppress(ProcessLookupError):  # already gone
                 os.kill(p, signal.SIGKILL)
-            except ProcessLookupError:
-                pass
         deadline = time.monotonic() + 10
         while time.monotonic() < deadline and any(_alive(p) for p in [pid, *children]):
             time.sleep(0.05)

@@ -23,7 +23,7 @@ from pathlib import Path
 
 sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
 
-from office.pgha import PgServer, SyncPair  # noqa: E402
+from office.pgha import PgServer, SyncPair
 
 
 def _servers(folder: Path) -> tuple[PgServer, PgServer]:

@@ -146,7 +146,7 @@ def run_load(dbs: list[str], folder: Path, tablets: int, ops_each: int, workers:
         sims = [SimTablet(folder, procs[i % workers].url, admin, i) for i in range(tablets)]
         for t in sims:
             t.edit(ops_each - 2)  # with the site and the beam: ops_each ops per tablet
-        hub_client.request = timed  # type: ignore[assignment]
+        hub_client.request = timed
         # a push waits its turn at the hub's ingest lock: with many tablets at once that can pass the
         # tablet's usual 30 s timeout, and a retry would only queue the same ops again
         hub_client.TIMEOUT_S = 900
@@ -179,7 +179,7 @@ def run_load(dbs: list[str], folder: Path, tablets: int, ops_each: int, workers:
             tablets, ops_each, workers, last_ack[0] - t0, latencies, total, ops_on_hub, log_rows, complete
         )
     finally:
-        hub_client.request = real_request  # type: ignore[assignment]
+        hub_client.request = real_request
         hub_client.TIMEOUT_S = real_timeout
         for p in procs:
             p.stop()
