@@ -14,7 +14,7 @@ import time
 
 from bench.common import Row, print_table
 
-NAMES = ("recheck", "sync", "report", "app")
+NAMES = ("recheck", "sync", "report", "app", "siteopen")
 
 
 def main(argv: list[str] | None = None) -> int:

@@ -154,10 +154,11 @@ def build_parser() -> argparse.ArgumentParser:
 
 def _add_more(sub: Any) -> None:
     """Commands that live in their own modules (demo, report, sync, app)."""
-    from mobile import commands, hub_commands
+    from mobile import commands, hub_commands, portfolio
 
     commands.register(sub)
     hub_commands.register(sub)
+    portfolio.register(sub)
 
 
 def main(argv: list[str] | None = None) -> int:

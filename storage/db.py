@@ -77,6 +77,14 @@ MIGRATIONS: dict[int, list[str]] = {
         *[f"CREATE INDEX IF NOT EXISTS {name}_site ON {name}(site_id)" for name in PROJECTIONS],
         "CREATE INDEX IF NOT EXISTS op_hlc ON op(hlc)",
     ],
+    # 2: each beam's recheck result, a local derived copy (storage/results.py); never synced
+    2: [
+        """CREATE TABLE IF NOT EXISTS beam_result (
+            beam_id TEXT PRIMARY KEY, site_id TEXT, input_hash TEXT NOT NULL, status TEXT NOT NULL,
+            governing TEXT NOT NULL, utilisation REAL, findings TEXT NOT NULL, rows_used TEXT NOT NULL
+        )""",
+        "CREATE INDEX IF NOT EXISTS beam_result_site ON beam_result(site_id)",
+    ],
 }
 
 
