@@ -172,7 +172,8 @@ def main(argv: list[str] | None = None) -> int:
     from storage import StorageError
     from storage.db import storage_error
 
-    name = " ".join(["bracewalk", args.command, *([args.sync_command] if getattr(args, "sync_command", None) else [])])
+    sub_name = getattr(args, "sync_command", None) or getattr(args, "tables_command", None)
+    name = " ".join(["bracewalk", args.command, *([sub_name] if sub_name else [])])
     try:
         return int(args.func(args))
     except UserError as exc:

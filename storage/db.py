@@ -39,7 +39,7 @@ def storage_error(exc: sqlite3.Error, path: str) -> StorageError:
     return StoreUnavailable(f"{path}: database error: {text}")
 
 
-SET_ENTITIES = ("site", "visit", "beam", "deficiency")
+SET_ENTITIES = ("site", "visit", "beam", "deficiency", "table_row")  # table_row: core/overrides.py
 INSERT_ENTITIES = ("measurement", "photo", "issued_notice")
 PROJECTIONS = (*SET_ENTITIES, *INSERT_ENTITIES, "deficiency_event")
 
@@ -84,6 +84,12 @@ MIGRATIONS: dict[int, list[str]] = {
             governing TEXT NOT NULL, utilisation REAL, findings TEXT NOT NULL, rows_used TEXT NOT NULL
         )""",
         "CREATE INDEX IF NOT EXISTS beam_result_site ON beam_result(site_id)",
+    ],
+    # 3: a firm's verifications and corrections of table rows (synced like any record)
+    3: [
+        "CREATE TABLE IF NOT EXISTS table_row "
+        "(id TEXT PRIMARY KEY, site_id TEXT, data TEXT NOT NULL, content_hash TEXT)",
+        "CREATE INDEX IF NOT EXISTS table_row_site ON table_row(site_id)",
     ],
 }
 

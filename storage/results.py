@@ -184,6 +184,9 @@ def jobs(db: Any, site_id: str | None = None, only_stale: bool = True) -> Iterat
 
     With ``only_stale=False``, every beam. Archived beams are left out.
     """
+    from storage import firm_tables
+
+    firm_tables.apply(db)  # lookups honour the firm's verified and corrected rows (inherited by workers)
     stamp = tables_stamp(db)
     bases: dict[str, str] = {}
     sql = (
