@@ -19,6 +19,7 @@ import zipfile
 import zlib
 from collections.abc import Callable
 from dataclasses import dataclass, field
+from json.encoder import encode_basestring
 from pathlib import Path
 from typing import Any
 
@@ -114,8 +115,7 @@ PART_OPS = 50_000  # ops per bundle file of a split export (about 17 MB of ops.j
 _BLOB_KEYS = ("sha256", "pdf_sha256", "evidence_sha256")
 
 
-def _dump(text: str) -> str:
-    return json.dumps(text, ensure_ascii=False)
+_dump = encode_basestring  # a str as JSON, exactly as json.dumps(..., ensure_ascii=False) writes it
 
 
 def op_line(row: tuple[Any, ...]) -> str:
@@ -126,9 +126,9 @@ def op_line(row: tuple[Any, ...]) -> str:
     """
     origin, seq, hlc, entity, record_id, kind, payload, base, schema_version, wall_ms = row
     return (
-        f'{{"base":{base},"entity":{_dump(entity)},"hlc":{int(hlc)},"kind":{_dump(kind)},'
+        f'{{"base":{base},"entity":{_dump(entity)},"hlc":{hlc:d},"kind":{_dump(kind)},'
         f'"origin":{_dump(origin)},"payload":{payload},"record_id":{_dump(record_id)},'
-        f'"schema_version":{int(schema_version)},"seq":{int(seq)},"wall_ms":{int(wall_ms)}}}'
+        f'"schema_version":{schema_version:d},"seq":{seq:d},"wall_ms":{wall_ms:d}}}'
     )
 
 
