@@ -90,6 +90,22 @@ MIGRATIONS: dict[int, list[str]] = {
         "CREATE TABLE IF NOT EXISTS table_row "
         "(id TEXT PRIMARY KEY, site_id TEXT, data TEXT NOT NULL, content_hash TEXT)",
         "CREATE INDEX IF NOT EXISTS table_row_site ON table_row(site_id)",
+        # a stored result is marked stale (input_hash '') when what it depends on changes, whoever writes
+        # (a save, an import, a replay): the beam, its site's design bases, any firm table record
+        """CREATE TRIGGER IF NOT EXISTS beam_result_beam_new AFTER INSERT ON beam BEGIN
+            UPDATE beam_result SET input_hash = '' WHERE beam_id = NEW.id; END""",
+        """CREATE TRIGGER IF NOT EXISTS beam_result_beam_changed AFTER UPDATE ON beam BEGIN
+            UPDATE beam_result SET input_hash = '' WHERE beam_id = NEW.id; END""",
+        """CREATE TRIGGER IF NOT EXISTS beam_result_site_basis AFTER UPDATE ON site
+            WHEN json_extract(OLD.data, '$.design_basis') IS NOT json_extract(NEW.data, '$.design_basis')
+              OR json_extract(OLD.data, '$.load_bases') IS NOT json_extract(NEW.data, '$.load_bases')
+            BEGIN UPDATE beam_result SET input_hash = '' WHERE site_id = NEW.id; END""",
+        """CREATE TRIGGER IF NOT EXISTS beam_result_table_new AFTER INSERT ON table_row BEGIN
+            UPDATE beam_result SET input_hash = ''; END""",
+        """CREATE TRIGGER IF NOT EXISTS beam_result_table_changed AFTER UPDATE ON table_row BEGIN
+            UPDATE beam_result SET input_hash = ''; END""",
+        """CREATE TRIGGER IF NOT EXISTS beam_result_table_gone AFTER DELETE ON table_row BEGIN
+            UPDATE beam_result SET input_hash = ''; END""",
     ],
 }
 

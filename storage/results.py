@@ -2,10 +2,11 @@
 
 A stored result is a local, derived copy (never synced: every device recomputes it from the synced
 records): status, the governing check and its utilisation, the finding codes, and the table rows the
-recheck used with their status. It is keyed by ``input_hash``: a SHA-256 over the beam's stored
-record, its site's design bases and the firm's table records (verifications and overrides). When any
-of them changes the hash changes and the result is recomputed on the next read, so a stale result
-is never shown.
+recheck used with their status. Triggers in the database mark a result stale (``input_hash`` set
+to '') when its beam, its site's design bases or a firm table record changes, whoever writes (a
+save, an import), and the next read recomputes the stale and missing ones, so a stale result is
+never shown. ``input_hash`` (a SHA-256 over the beam's stored record, its site's design bases and
+the firm's table records) records what a result was computed from.
 """
 
 from __future__ import annotations
@@ -180,29 +181,31 @@ def compute(job: tuple[str, str, str, str]) -> StoredResult:
 
 
 def jobs(db: Any, site_id: str | None = None, only_stale: bool = True) -> Iterator[tuple[str, str, str, str]]:
-    """(beam id, site id, input hash, record text) of every beam (of a site) whose stored result is stale.
+    """(beam id, site id, input hash, record text) of every beam (of a site) without a current result.
 
-    With ``only_stale=False``, every beam. Archived beams are left out.
+    The database's triggers (storage/db.py, migration 3) mark a result stale when its beam, its
+    site's design bases or a firm table record changes, so stale ones are found in SQL without
+    reading every record. With ``only_stale=False``, every beam. Archived beams are left out.
     """
     from storage import firm_tables
 
     firm_tables.apply(db)  # lookups honour the firm's verified and corrected rows (inherited by workers)
     stamp = tables_stamp(db)
     bases: dict[str, str] = {}
+    where = ["NOT coalesce(json_extract(b.data, '$.archived'), 0)"]
+    if site_id:
+        where.append("b.site_id = ?")
+    if only_stale:
+        where.append("(r.beam_id IS NULL OR r.input_hash = '')")
     sql = (
-        "SELECT b.id, b.site_id, b.data, r.input_hash FROM beam b LEFT JOIN beam_result r ON r.beam_id = b.id"
-        + (" WHERE b.site_id = ?" if site_id else "")
+        "SELECT b.id, b.site_id, b.data FROM beam b LEFT JOIN beam_result r ON r.beam_id = b.id WHERE "
+        + " AND ".join(where)
         + " ORDER BY b.id"
     )
-    for bid, sid, text, have in db.execute(sql, [site_id] if site_id else []):
-        if '"archived"' in text and json.loads(text).get("archived"):
-            continue
+    for bid, sid, text in db.execute(sql, [site_id] if site_id else []).fetchall():
         if sid not in bases:
             bases[sid] = _site_bases(db, sid)
-        key = input_hash(text, bases[sid], stamp)
-        if only_stale and key == have:
-            continue
-        yield bid, sid or "", key, text
+        yield bid, sid or "", input_hash(text, bases[sid], stamp), text
 
 
 def refresh(db: Any, site_id: str) -> int:
