@@ -83,3 +83,19 @@ def test_recheck_command_lists_changes_then_nothing(tmp_path, capsys):
     out = capsys.readouterr().out
     assert out.startswith("B-2") and "deficient (shear) ->" in out
     assert main(["recheck", "--db", str(db), "--site", "nowhere"]) == 2
+
+
+def test_an_imported_edit_makes_the_result_stale(tmp_path):
+    from storage.bundle import export_bundle, import_bundle
+
+    a, b = Store(tmp_path / "a.db", firm_key="k"), Store(tmp_path / "b.db", firm_key="k")
+    site, ids = _site(a, n=2)
+    export_bundle(a, tmp_path / "1.zip")
+    assert import_bundle(b, tmp_path / "1.zip").outcome == "applied"
+    results.fresh(b.db, site.id)
+    assert list(results.jobs(b.db, site.id)) == []
+    a.update_beam(ids[0], {"d_mm": 190})
+    export_bundle(a, tmp_path / "2.zip", peer=None)
+    assert import_bundle(b, tmp_path / "2.zip").outcome == "applied"
+    assert [j[0] for j in results.jobs(b.db, site.id)] == [ids[0]]  # the trigger marked it, whoever wrote
+    assert results.fresh(b.db, site.id)[ids[0]].status == recheck(glulam(d_mm=190)).status.value
