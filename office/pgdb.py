@@ -103,6 +103,12 @@ PG_MIGRATIONS: dict[int, list[str]] = {
         "CREATE TABLE IF NOT EXISTS hub_user (name TEXT PRIMARY KEY, password_hash TEXT NOT NULL, created_ms BIGINT)",
         "CREATE TABLE IF NOT EXISTS hub_session (token_sha256 TEXT PRIMARY KEY, name TEXT NOT NULL, expires_ms BIGINT)",
     ],
+    # 3: a firm's verified and corrected table rows (storage/db.py migration 3; issue 16 item 6)
+    3: [
+        "CREATE TABLE IF NOT EXISTS table_row "
+        "(id TEXT PRIMARY KEY, site_id TEXT, data TEXT NOT NULL, content_hash TEXT)",
+        "CREATE INDEX IF NOT EXISTS table_row_site ON table_row(site_id)",
+    ],
 }
 
 _REPLACE = re.compile(r"^\s*INSERT OR REPLACE INTO (\w+)\s*(\(([^)]*)\))?\s*VALUES", re.IGNORECASE | re.DOTALL)
