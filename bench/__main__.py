@@ -16,7 +16,7 @@ import time
 
 from bench.common import Row, print_table
 
-NAMES = ("recheck", "sync", "report", "app")
+NAMES = ("recheck", "sync", "report", "app", "siteopen")
 ON_REQUEST = ("mutation",)  # too slow for the default run: only with --only
 
 

@@ -13,6 +13,8 @@ from dataclasses import dataclass
 from functools import cache
 from importlib import resources
 
+from core import overrides
+
 
 @dataclass(frozen=True)
 class Table:
@@ -35,8 +37,15 @@ def load(name: str) -> Table:
     text = resources.files("core").joinpath("data", f"{name}.csv").read_text(encoding="utf-8")
     header = tuple(line[1:].strip() for line in text.splitlines() if line.startswith("#"))
     body = [line for line in text.splitlines() if line and not line.startswith("#")]
-    rows = tuple(dict(r) for r in csv.DictReader(body))
+    rows = tuple(overrides.overlay(name, dict(r)) for r in csv.DictReader(body))  # a firm's records, if any
     return Table(name=name, header=header, rows=rows)
+
+
+def use_firm_records(records: list[overrides.TableRecord]) -> None:
+    """Apply a firm's verifications and corrections (``core/overrides.py``) to every lookup from now on."""
+    if overrides.use(records):
+        load.cache_clear()
+        _FOUND.clear()
 
 
 def find(name: str, **keys: str) -> dict[str, str]:

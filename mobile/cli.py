@@ -154,10 +154,11 @@ def build_parser() -> argparse.ArgumentParser:
 
 def _add_more(sub: Any) -> None:
     """Commands that live in their own modules (demo, report, sync, app)."""
-    from mobile import commands, hub_commands
+    from mobile import commands, hub_commands, portfolio
 
     commands.register(sub)
     hub_commands.register(sub)
+    portfolio.register(sub)
 
 
 def main(argv: list[str] | None = None) -> int:
@@ -171,7 +172,8 @@ def main(argv: list[str] | None = None) -> int:
     from storage import StorageError
     from storage.db import storage_error
 
-    name = " ".join(["bracewalk", args.command, *([args.sync_command] if getattr(args, "sync_command", None) else [])])
+    sub_name = getattr(args, "sync_command", None) or getattr(args, "tables_command", None)
+    name = " ".join(["bracewalk", args.command, *([sub_name] if sub_name else [])])
     try:
         return int(args.func(args))
     except UserError as exc:

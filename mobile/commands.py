@@ -35,7 +35,9 @@ def cmd_sync_export(args: argparse.Namespace) -> int:
     if Path(args.out).is_dir():
         raise UserError(f"{args.out} is a folder; give a file name for the bundle")
     manifest = export_bundle(store, args.out, peer=args.peer)
-    print(f"exported {manifest['op_count']} ops and {len(manifest['blobs'])} blobs to {args.out}")
+    parts = int(manifest.get("parts", 1))
+    where = args.out if parts == 1 else f"{parts} files ({args.out} first; import them in order)"
+    print(f"exported {manifest['op_count']} ops and {len(manifest['blobs'])} blobs to {where}")
     return EXIT_OK
 
 

@@ -122,6 +122,12 @@ PG_MIGRATIONS: dict[int, list[str]] = {
     3: [  # blob bytes in the database: every hub worker sees them, and the standby and backups hold them
         "CREATE TABLE IF NOT EXISTS hub_blob_data (sha256 TEXT PRIMARY KEY, content BYTEA NOT NULL)",
     ],
+    # 4: a firm's verified and corrected table rows (storage/db.py migration 3; issue 16 item 6)
+    4: [
+        "CREATE TABLE IF NOT EXISTS table_row "
+        "(id TEXT PRIMARY KEY, site_id TEXT, data TEXT NOT NULL, content_hash TEXT)",
+        "CREATE INDEX IF NOT EXISTS table_row_site ON table_row(site_id)",
+    ],
 }
 
 _REPLACE = re.compile(r"^\s*INSERT OR REPLACE INTO (\w+)\s*(\(([^)]*)\))?\s*VALUES", re.IGNORECASE | re.DOTALL)

@@ -19,6 +19,7 @@ import zipfile
 import zlib
 from collections.abc import Callable
 from dataclasses import dataclass, field
+from json.encoder import encode_basestring
 from pathlib import Path
 from typing import Any
 
@@ -111,56 +112,150 @@ def _now() -> str:
     return utc_stamp()
 
 
+PART_OPS = 50_000  # ops per bundle file of a split export (about 17 MB of ops.jsonl; import holds one part)
+_BLOB_KEYS = ("sha256", "pdf_sha256", "evidence_sha256")
+
+
+_dump = encode_basestring  # a str as JSON, exactly as json.dumps(..., ensure_ascii=False) writes it
+
+
+def op_line(row: tuple[Any, ...]) -> str:
+    """A bundle line straight from a stored op row (payload and base are stored as canonical JSON).
+
+    Equal to ``canonical`` of the op as a dict (sorted keys, no spaces) without decoding and re-encoding
+    the payload; tests/storage/test_sync_scale.py checks the equality.
+    """
+    origin, seq, hlc, entity, record_id, kind, payload, base, schema_version, wall_ms = row
+    return (
+        f'{{"base":{base},"entity":{_dump(entity)},"hlc":{hlc:d},"kind":{_dump(kind)},'
+        f'"origin":{_dump(origin)},"payload":{payload},"record_id":{_dump(record_id)},'
+        f'"schema_version":{schema_version:d},"seq":{seq:d},"wall_ms":{wall_ms:d}}}'
+    )
+
+
+@dataclass
+class _Part:
+    lines: list[str] = field(default_factory=list)
+    ranges: dict[str, list[int]] = field(default_factory=dict)
+    shas: set[str] = field(default_factory=set)
+
+
+def _parts(store: Store, cursor: dict[str, int], part_ops: int) -> Any:
+    """Stream the ops a peer has not seen (contiguous per origin) in parts of at most ``part_ops``."""
+    sql = f"SELECT {', '.join(OP_KEYS)} FROM op ORDER BY origin, seq"
+    last: dict[str, int] = {}
+    part = _Part()
+    for row in store.db.execute(sql):
+        origin, seq = row[0], row[1]
+        if seq <= cursor.get(origin, 0):
+            continue
+        prev = last.get(origin)
+        if prev is not None and seq != prev + 1:
+            last[origin] = -1  # the run ended (a restored device's hole): the rest goes in a later export
+            continue
+        last[origin] = seq
+        part.lines.append(op_line(row))
+        r = part.ranges.setdefault(origin, [seq, seq])
+        r[1] = seq
+        if "sha256" in row[6]:
+            payload = json.loads(row[6])
+            for key in _BLOB_KEYS:
+                sha = payload.get(key)
+                if sha and store.blob_path(sha).exists():
+                    part.shas.add(sha)
+        if len(part.lines) >= part_ops:
+            yield part
+            part = _Part()
+    if part.lines or not last:
+        yield part
+
+
+def part_path(out: Path, n: int) -> Path:
+    """The file of part ``n`` (1-based) of a split export: ``out`` itself, then ``<stem>-2<suffix>``, ..."""
+    return out if n == 1 else out.with_name(f"{out.stem}-{n}{out.suffix}")
+
+
 def export_bundle(
     store: Store, out: str | Path, peer: str | None = None, progress: Progress | None = None
 ) -> dict[str, Any]:
     """Write the ops ``peer`` has not seen (all ops when peer is None) and their blobs to ``out``.
 
-    ``progress(fraction, what)`` is called as the work goes (for a progress bar).
+    ``progress(fraction, what)`` is called as the work goes (for a progress bar). Returns the
+    manifest; when the changes exceed ``PART_OPS`` they go in several files (``export_bundles``)
+    and the manifest returned is the last one's, with ``op_count`` summed over the parts.
+    """
+    manifests = export_bundles(store, out, peer=peer, progress=progress)
+    if len(manifests) == 1:
+        return manifests[0]
+    return dict(manifests[-1], op_count=sum(m["op_count"] for m in manifests), parts=len(manifests))
+
+
+def export_bundles(
+    store: Store,
+    out: str | Path,
+    peer: str | None = None,
+    progress: Progress | None = None,
+    part_ops: int = PART_OPS,
+) -> list[dict[str, Any]]:
+    """Write the changes as one or more bundles of at most ``part_ops`` ops each, to import in order.
+
+    Ops stream from their stored canonical text (nothing is decoded and re-encoded), and one part
+    is held in memory at a time, so no file written can exceed what import accepts.
     """
     tell = progress or _silent
     tell(0.0, "reading changes")
+    out = Path(out)
+    if not out.parent.is_dir():
+        raise FileNotFoundError(2, "the folder does not exist", str(out.parent))
     cursor: dict[str, int] = {}
     if peer:
         cursor = dict(store.db.execute("SELECT origin, seq FROM peer_cursor WHERE peer=?", [peer]).fetchall())
-    rows = store.db.execute(f"SELECT {', '.join(OP_KEYS)} FROM op ORDER BY origin, seq").fetchall()
-    ops = [dict(zip(OP_KEYS, r, strict=True)) for r in rows]
-    ops = _contiguous([o for o in ops if o["seq"] > cursor.get(o["origin"], 0)])
-    lines = []
-    ranges: dict[str, list[int]] = {}
-    shas: set[str] = set()
-    for n, o in enumerate(ops):
-        if n % PROGRESS_EVERY == 0:
-            tell(0.8 * n / len(ops), f"packing change {n:,} of {len(ops):,}")
-        o["payload"], o["base"] = json.loads(o["payload"]), json.loads(o["base"])
-        lines.append(canonical(o))
-        r = ranges.setdefault(o["origin"], [o["seq"], o["seq"]])
-        r[1] = o["seq"]
-        for key in ("sha256", "pdf_sha256", "evidence_sha256"):
-            sha = o["payload"].get(key)
-            if sha and store.blob_path(sha).exists():
-                shas.add(sha)
-    body = ("\n".join(lines) + ("\n" if lines else "")).encode()
-    blobs: list[dict[str, Any]] = [{"sha256": s, "size": store.blob_path(s).stat().st_size} for s in sorted(shas)]
     vector = dict(store.db.execute("SELECT origin, seq FROM seen").fetchall())
+    total = int(store.db.execute("SELECT count(*) FROM op").fetchone()[0]) or 1
+    manifests: list[dict[str, Any]] = []
+    written: list[tuple[Path, str, int]] = []
+    done = 0
+    for n, part in enumerate(_parts(store, cursor, part_ops), start=1):
+        path = part_path(out, n)
+        tell(min(0.95, done / total), f"writing {path.name}")
+        manifest, sha = _write_part(store, path, part, vector)
+        manifests.append(manifest)
+        written.append((path, sha, len(part.lines)))
+        done += len(part.lines)
+    store.record_sent(peer)
+    with transaction(store.db):
+        for path, sha, count in written:
+            store.db.execute(
+                "INSERT INTO bundle_log (at, file, bundle_sha256, outcome, reason, ops, applied) "
+                "VALUES (?, ?, ?, 'exported', '', ?, 0)",
+                [_now(), str(path), sha, count],
+            )
+        if peer:
+            for manifest in manifests:
+                for origin, (_, last) in manifest["ranges"].items():
+                    store.db.execute("INSERT OR REPLACE INTO peer_cursor VALUES (?, ?, ?)", [peer, origin, last])
+    tell(1.0, f"wrote {done:,} changes in {len(manifests)} file{'s' if len(manifests) > 1 else ''}")
+    return manifests
+
+
+def _write_part(store: Store, out: Path, part: _Part, vector: dict[str, int]) -> tuple[dict[str, Any], str]:
+    """Write one bundle file (fsynced, atomically); its manifest and the file's SHA-256."""
+    body = ("\n".join(part.lines) + ("\n" if part.lines else "")).encode()
+    blobs: list[dict[str, Any]] = [{"sha256": s, "size": store.blob_path(s).stat().st_size} for s in sorted(part.shas)]
     manifest = {
         "format": FORMAT,
         "format_version": FORMAT_VERSION,
         "schema_version": SCHEMA_VERSION,
         "origin": store.device_id,
         "created_ms": int(time.time() * 1000),
-        "ranges": ranges,
-        "op_count": len(lines),
+        "ranges": part.ranges,
+        "op_count": len(part.lines),
         "ops_sha256": hashlib.sha256(body).hexdigest(),
         "blobs": blobs,
         "vector": vector,
     }
     mbytes = canonical(manifest).encode()
     mac = hmac.new(store.firm_key, mbytes, hashlib.sha256).hexdigest()
-    out = Path(out)
-    if not out.parent.is_dir():
-        raise FileNotFoundError(2, "the folder does not exist", str(out.parent))
-    tell(0.8, f"writing {out.name}")
     tmp = out.with_name(out.name + ".part")
     try:
         with zipfile.ZipFile(tmp, "w", compression=zipfile.ZIP_DEFLATED) as z:
@@ -175,18 +270,22 @@ def export_bundle(
     except OSError:
         tmp.unlink(missing_ok=True)  # a full disk leaves no partial bundle behind
         raise
-    store.record_sent(peer)
-    with transaction(store.db):
-        store.db.execute(
-            "INSERT INTO bundle_log (at, file, bundle_sha256, outcome, reason, ops, applied) "
-            "VALUES (?, ?, ?, 'exported', '', ?, 0)",
-            [_now(), str(out), hashlib.sha256(out.read_bytes()).hexdigest(), len(lines)],
-        )
-        if peer:
-            for origin, (_, last) in ranges.items():
-                store.db.execute("INSERT OR REPLACE INTO peer_cursor VALUES (?, ?, ?)", [peer, origin, last])
-    tell(1.0, f"wrote {len(lines):,} changes")
-    return manifest
+    h = hashlib.sha256()
+    with open(out, "rb") as fh:
+        for chunk in iter(lambda: fh.read(1 << 20), b""):
+            h.update(chunk)
+    return manifest, h.hexdigest()
+
+
+def import_bundles(store: Store, paths: list[str | Path], progress: Progress | None = None) -> list[ImportReport]:
+    """Import the parts of a split export in order, stopping at the first one not applied."""
+    reports = []
+    for path in paths:
+        report = import_bundle(store, path, progress)
+        reports.append(report)
+        if report.outcome != "applied":
+            break
+    return reports
 
 
 def _contiguous(ops: list[dict[str, Any]]) -> list[dict[str, Any]]:

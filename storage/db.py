@@ -39,7 +39,7 @@ def storage_error(exc: sqlite3.Error, path: str) -> StorageError:
     return StoreUnavailable(f"{path}: database error: {text}")
 
 
-SET_ENTITIES = ("site", "visit", "beam", "deficiency")
+SET_ENTITIES = ("site", "visit", "beam", "deficiency", "table_row")  # table_row: core/overrides.py
 INSERT_ENTITIES = ("measurement", "photo", "issued_notice")
 PROJECTIONS = (*SET_ENTITIES, *INSERT_ENTITIES, "deficiency_event")
 
@@ -76,6 +76,36 @@ MIGRATIONS: dict[int, list[str]] = {
         ],
         *[f"CREATE INDEX IF NOT EXISTS {name}_site ON {name}(site_id)" for name in PROJECTIONS],
         "CREATE INDEX IF NOT EXISTS op_hlc ON op(hlc)",
+    ],
+    # 2: each beam's recheck result, a local derived copy (storage/results.py); never synced
+    2: [
+        """CREATE TABLE IF NOT EXISTS beam_result (
+            beam_id TEXT PRIMARY KEY, site_id TEXT, input_hash TEXT NOT NULL, status TEXT NOT NULL,
+            governing TEXT NOT NULL, utilisation REAL, findings TEXT NOT NULL, rows_used TEXT NOT NULL
+        )""",
+        "CREATE INDEX IF NOT EXISTS beam_result_site ON beam_result(site_id)",
+    ],
+    # 3: a firm's verifications and corrections of table rows (synced like any record)
+    3: [
+        "CREATE TABLE IF NOT EXISTS table_row "
+        "(id TEXT PRIMARY KEY, site_id TEXT, data TEXT NOT NULL, content_hash TEXT)",
+        "CREATE INDEX IF NOT EXISTS table_row_site ON table_row(site_id)",
+        # a stored result is marked stale (input_hash '') when what it depends on changes, whoever writes
+        # (a save, an import, a replay): the beam, its site's design bases, any firm table record
+        """CREATE TRIGGER IF NOT EXISTS beam_result_beam_new AFTER INSERT ON beam BEGIN
+            UPDATE beam_result SET input_hash = '' WHERE beam_id = NEW.id; END""",
+        """CREATE TRIGGER IF NOT EXISTS beam_result_beam_changed AFTER UPDATE ON beam BEGIN
+            UPDATE beam_result SET input_hash = '' WHERE beam_id = NEW.id; END""",
+        """CREATE TRIGGER IF NOT EXISTS beam_result_site_basis AFTER UPDATE ON site
+            WHEN json_extract(OLD.data, '$.design_basis') IS NOT json_extract(NEW.data, '$.design_basis')
+              OR json_extract(OLD.data, '$.load_bases') IS NOT json_extract(NEW.data, '$.load_bases')
+            BEGIN UPDATE beam_result SET input_hash = '' WHERE site_id = NEW.id; END""",
+        """CREATE TRIGGER IF NOT EXISTS beam_result_table_new AFTER INSERT ON table_row BEGIN
+            UPDATE beam_result SET input_hash = ''; END""",
+        """CREATE TRIGGER IF NOT EXISTS beam_result_table_changed AFTER UPDATE ON table_row BEGIN
+            UPDATE beam_result SET input_hash = ''; END""",
+        """CREATE TRIGGER IF NOT EXISTS beam_result_table_gone AFTER DELETE ON table_row BEGIN
+            UPDATE beam_result SET input_hash = ''; END""",
     ],
 }
 

@@ -68,6 +68,9 @@ class Store:
         self.device_id = meta["device_id"]
         self.device_code = meta["device_code"]
         self._resume_from_mark()
+        from storage import firm_tables
+
+        firm_tables.apply(self.db)  # table lookups honour this firm's verified and corrected rows
 
     # -- bookkeeping -------------------------------------------------------------------------
     def _meta(self) -> dict[str, str]:

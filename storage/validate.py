@@ -14,6 +14,7 @@ from typing import Annotated, Any
 from pydantic import BaseModel, TypeAdapter, ValidationError
 
 from core.models import Beam
+from core.overrides import TableRecord
 from core.records import Deficiency, IssuedNotice, Site, Stage, StatusEvent, Visit
 from core.results import PRIORITY_ORDER
 from storage.clock import HLC_MAX
@@ -23,7 +24,13 @@ SHA256 = re.compile(r"^[0-9a-f]{64}$")
 MAX_VALUE_CHARS = 100_000  # one field's canonical JSON (a long description fits easily)
 MAX_CYCLE = 1_000
 
-MODELS: dict[str, type[BaseModel]] = {"site": Site, "visit": Visit, "beam": Beam, "deficiency": Deficiency}
+MODELS: dict[str, type[BaseModel]] = {
+    "site": Site,
+    "visit": Visit,
+    "beam": Beam,
+    "deficiency": Deficiency,
+    "table_row": TableRecord,
+}
 # fields a record holds besides its model's (location, drafts, bookkeeping); free JSON, size-bounded
 ALWAYS_TEXT_ID = ("site_id", "beam_id", "deficiency_id")
 

@@ -12,6 +12,7 @@ from kivy.app import App
 from kivy.factory import Factory
 from kivy.metrics import dp
 from kivy.properties import StringProperty
+from kivy.uix.button import Button
 from kivy.uix.label import Label
 from kivy.uix.popup import Popup
 from kivy.uix.screenmanager import Screen
@@ -23,7 +24,33 @@ from mobile.viewmodels.common import PRIORITY_LABELS, STATUS_WORDS, status_label
 from mobile.viewmodels.site import PINNED
 
 ALL_LEVELS, ALL_STATUSES = "all levels", "all statuses"
-SHOWN_AT_MOST = 60  # rows built at once; more asks the reviewer to narrow the search
+
+
+class BeamRow(Button):
+    """One beam of the recycling list (RecycleView): only the rows on screen exist as widgets."""
+
+    beam_id = StringProperty("")
+
+    def on_release(self) -> None:
+        """Open this beam's form."""
+        App.get_running_app().open_beam(self.beam_id)
+
+
+def list_data(groups: list[tuple[str, list[tuple[str, str, str]]]]) -> list[dict[str, Any]]:
+    """The recycling list's rows: a heading per level (and the pinned group), then its beams."""
+    data: list[dict[str, Any]] = []
+    for where, rows in groups:
+        data.append({"viewclass": "BeamHeading", "text": where if where == PINNED else f"Level: {where}"})
+        data += [
+            {
+                "viewclass": "BeamRow",
+                "beam_id": beam_id,
+                "text": f"{label}      {name}",
+                "background_color": status_colour(label),
+            }
+            for beam_id, name, label in rows
+        ]
+    return data
 
 
 class SiteScreen(Screen):
@@ -67,34 +94,14 @@ class SiteScreen(Screen):
             self.show_beams()
 
     def show_beams(self) -> None:
-        """The beams that match the search and filters, grouped by level (at most SHOWN_AT_MOST rows)."""
-        app = App.get_running_app()
+        """The beams that match the search and filters, grouped by level, in the recycling list."""
         level = "" if self.ids.level_filter.text == ALL_LEVELS else self.ids.level_filter.text
         status = next((s for s in STATUS_WORDS if status_label(s) == self.ids.status_filter.text), "")
         groups = self.vm.groups(self.ids.search.text, level, status, rows=self._rows)
-        box = self.ids.beam_list
-        box.clear_widgets()
-        shown = 0
-        total = sum(len(rows) for where, rows in groups if where != PINNED)
-        for where, rows in groups:
-            if shown >= SHOWN_AT_MOST:
-                break
-            box.add_widget(
-                Factory.Heading(
-                    text=where if where == PINNED else f"Level: {where}", font_size="19sp", height="11mm", shorten=True
-                )
-            )
-            for beam_id, name, label in rows[: SHOWN_AT_MOST - shown]:
-                box.add_widget(
-                    big_button(
-                        f"{label}      {name}", lambda _b, bid=beam_id: app.open_beam(bid), bg=status_colour(label)
-                    )
-                )
-                shown += where != PINNED
-        if total == 0:
-            box.add_widget(Factory.Wrapped(text="No beam matches."))
-        elif total > shown:
-            box.add_widget(Factory.Wrapped(text=f"{total - shown} more: narrow the search by mark, level or status."))
+        data = list_data(groups)
+        if not data:
+            data = [{"viewclass": "BeamHeading", "text": "No beam matches."}]
+        self.ids.beam_list.data = data
 
     def show_deficiencies(self) -> None:
         """Open deficiencies by priority, IMMEDIATE first (the list has its own part of the screen)."""

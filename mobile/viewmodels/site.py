@@ -5,13 +5,14 @@ from __future__ import annotations
 import copy
 import time
 from dataclasses import dataclass, field
+from types import SimpleNamespace
 from typing import Any
 
 from core.recheck import recheck
 from core.results import PRIORITY_ORDER
 from mobile.viewmodels.beam import raised_number_for
 from mobile.viewmodels.common import PRIORITY_LABELS, STAGE_WORDS, STATUS_WORDS, status_label
-from storage import Store
+from storage import Store, results
 from storage.clock import uuid7
 
 # A new beam holds nothing that looks measured: span, size, loads and bearings start "not yet
@@ -43,8 +44,13 @@ class SiteViewModel:
             return "unchecked"
 
     def beam_rows(self) -> list[tuple[str, dict[str, Any], str]]:
-        """[(beam_id, record, status)] for the site's beams, rechecked once per call."""
-        return [(beam_id, rec, self.status_of(beam_id)) for beam_id, rec in self.store.beams(self.site_id)]
+        """[(beam_id, record, status)] for the site's beams, from the stored results.
+
+        Only results made stale by a change (the beam, the site's design bases, the firm's tables)
+        are rechecked (``storage.results``); the rest are read as stored.
+        """
+        results.refresh(self.store.db, self.site_id)
+        return results.site_list(self.store.db, self.site_id)
 
     def groups(
         self,
@@ -93,13 +99,15 @@ class SiteViewModel:
     def unraised(self) -> list[str]:
         """'RB-7 (2 findings)' for each beam whose recheck has findings not yet raised as deficiencies."""
         out = []
-        for beam_id, record in self.store.beams(self.site_id):
-            try:
-                result = recheck(self.store.beam(beam_id))
-            except ValueError:
-                continue  # not yet checked: nothing to raise
-            todo = [f for f in result.findings if not raised_number_for(self.store, self.site_id, beam_id, f)]
-            if todo and result.status.value != "ok":
+        results.refresh(self.store.db, self.site_id)
+        stored = results.stored(self.store.db, self.site_id, needing_action=True)  # not ok, not unchecked
+        for beam_id, record, _ in results.site_list(self.store.db, self.site_id) if stored else []:
+            result = stored.get(beam_id)
+            if result is None:
+                continue  # not yet checked or passing: nothing to raise
+            found = [SimpleNamespace(code=f["code"], region=f["region"] or None) for f in result.findings]
+            todo = [f for f in found if not raised_number_for(self.store, self.site_id, beam_id, f)]
+            if todo:
                 out.append(f"{record.get('mark')} ({len(todo)} finding{'s' if len(todo) > 1 else ''})")
         return out
 

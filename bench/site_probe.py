@@ -1,0 +1,94 @@
+"""Child process of bench/siteopen.py, so the bench process itself stays small.
+
+usage: python -m bench.site_probe build DB N | open DB | old DB | recheck DB PROCESSES
+build: a site of N varied beams written through the storage API (one transaction);
+open: the site screen's data from stored results (view model rows, counts, groups, list rows);
+old: the same with a full recheck per beam (the path before results were stored);
+recheck: the portfolio recheck over every beam. Prints one line: BENCH {"seconds": ..., "peak_mb": ...}.
+"""
+
+from __future__ import annotations
+
+import json
+import resource
+import sys
+import time
+
+
+def peak_mb() -> float:
+    """Peak resident memory of this process, MB (Linux reports KiB)."""
+    return resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
+
+
+BEAM = {  # an invented roof beam (demo-style input, not a check value)
+    "material": "glulam",
+    "species": "D.Fir-L",
+    "grade": "24f-E",
+    "b_mm": 130,
+    "bearings": [{"lateral": True, "rotation": True, "length_mm": 140}] * 2,
+    "top_edge": {"braced_by": "purlins", "spacing_mm": 2400, "fastened": True},
+    "loads": {"dead_kn_m": 2.0, "live_kn_m": 0.0, "snow_kn_m": 5.0},
+    "top_stamp": "up",
+    "use": "roof_no_ceiling",
+}
+
+
+def build(db: str, n: int) -> None:
+    """A site of n beams: spans, depths and loads varied so results differ."""
+    from storage import Store
+    from storage.clock import uuid7
+    from storage.db import transaction
+
+    store = Store(db)
+    site = store.create_site(name="Bench site")
+    with transaction(store.db):
+        for i in range(n):
+            beam = dict(BEAM, mark=f"B-{i}", spans_mm=[5000 + 40 * (i % 100)], d_mm=[342, 380, 418, 456, 494][i % 5])
+            beam.update(site_id=site.id, level=f"L{i % 12}", gridline=f"{i % 40}/{i % 7}")
+            store._save_in_tx("beam", uuid7(), beam, "set", None)
+    store.close()
+
+
+def site_open(db: str, old: bool) -> dict[str, float]:
+    """Time the site screen's data (without widgets: the recycling list builds only visible rows)."""
+    from mobile.viewmodels.site import SiteViewModel
+    from storage import Store
+
+    store = Store(db)
+    site_id = store.sites()[0].id
+    t0 = time.perf_counter()
+    vm = SiteViewModel(store, site_id)
+    if old:
+        rows = [(b, r, vm.status_of(b)) for b, r in store.beams(site_id)]
+    else:
+        rows = vm.beam_rows()
+    vm.counts(rows)
+    groups = vm.groups(rows=rows)
+    data = [(where, len(items)) for where, items in groups]
+    return {"seconds": time.perf_counter() - t0, "rows": float(sum(n for _, n in data))}
+
+
+def portfolio(db: str, processes: int) -> dict[str, float]:
+    """Time the portfolio recheck (every beam, stored)."""
+    from storage import Store
+    from storage.results import recheck_all
+
+    store = Store(db)
+    t0 = time.perf_counter()
+    pairs = recheck_all(store.db, processes=processes)
+    return {"seconds": time.perf_counter() - t0, "beams": float(len(pairs))}
+
+
+if __name__ == "__main__":
+    mode, path = sys.argv[1], sys.argv[2]
+    out: dict[str, float] = {}
+    if mode == "build":
+        t = time.perf_counter()
+        build(path, int(sys.argv[3]))
+        out = {"seconds": time.perf_counter() - t}
+    elif mode in ("open", "old"):
+        out = site_open(path, old=mode == "old")
+    elif mode == "recheck":
+        out = portfolio(path, int(sys.argv[3]))
+    out["peak_mb"] = peak_mb()
+    print("BENCH " + json.dumps(out), flush=True)

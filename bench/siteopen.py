@@ -1,0 +1,88 @@
+"""Site open at 1k / 10k beams (stored results) and the portfolio recheck, each in a child process.
+
+Site open: the site screen's data read from stored results (view model rows, counts, groups); the
+recycling list then builds only the visible rows. Baseline, same run: the path before results were
+stored (a full recheck of every beam), at 1k beams only (it is linear: about 1.5 ms per beam).
+Portfolio: `recheck_all` over every beam with 2 worker processes; baseline: 1 process. Peak memory
+is the child's own (ru_maxrss); the bench process only starts children.
+"""
+
+from __future__ import annotations
+
+import json
+import shutil
+import subprocess
+import sys
+import tempfile
+from pathlib import Path
+
+from bench.common import Row, fmt_time
+
+ROOT = Path(__file__).resolve().parents[1]
+
+
+def probe(*args: str) -> dict[str, float]:
+    """Run bench.site_probe with args; return its BENCH line."""
+    out = subprocess.run(
+        [sys.executable, "-m", "bench.site_probe", *args], cwd=ROOT, capture_output=True, text=True, timeout=3600
+    )
+    line = next((x for x in out.stdout.splitlines() if x.startswith("BENCH ")), None)
+    if line is None:
+        raise RuntimeError(f"site probe {args[0]} failed:\n{out.stderr[-1500:]}")
+    return dict(json.loads(line[6:]))
+
+
+def run(quick: bool = False) -> list[Row]:
+    """Site open (first and warm) at 1k and 10k beams, and the portfolio recheck."""
+    work = Path(tempfile.mkdtemp(prefix="bracewalk-bench-site-"))
+    rows: list[Row] = []
+    try:
+        sizes = (200, 1000) if quick else (1000, 10_000)
+        old = None
+        for n in sizes:
+            db = str(work / f"site{n}.db")
+            probe("build", db, str(n))
+            if n == sizes[0]:
+                old = probe("old", db)
+            first = probe("open", db)  # no stored results yet: rechecks every beam once and stores it
+            warm = probe("open", db)
+            base = f"{fmt_time(old['seconds'])} / {old['peak_mb']:.0f} MB at {sizes[0]:,}" if old else ""
+            rows.append(
+                Row(
+                    f"site open, {n:,} beams (stored results)",
+                    f"{fmt_time(warm['seconds'])}, {warm['peak_mb']:.0f} MB",
+                    base,
+                    "",
+                    "< 0.5 s, < 400 MB at 10k",
+                    warm["seconds"] < 0.5 and warm["peak_mb"] < 400 if n >= 10_000 else None,
+                )
+            )
+            rows.append(
+                Row(
+                    f"site open, {n:,} beams, first (results computed)",
+                    f"{fmt_time(first['seconds'])}, {first['peak_mb']:.0f} MB",
+                    "",
+                    "",
+                    "-",
+                    None,
+                )
+            )
+        n = 2000 if quick else 20_000
+        db = str(work / "portfolio.db")
+        probe("build", db, str(n))
+        one = probe("recheck", db, "1")
+        two = probe("recheck", db, "2")
+        rate = two["beams"] / two["seconds"]
+        rows.append(
+            Row(
+                f"portfolio recheck, {n:,} beams, 2 processes",
+                f"{fmt_time(two['seconds'])} ({rate:,.0f} beams/s), {two['peak_mb']:.0f} MB",
+                f"1 process {fmt_time(one['seconds'])}",
+                f"{one['seconds'] / two['seconds']:.2f}x",
+                f"100k < 10 s (here ~{100_000 / rate:.0f} s)",
+                100_000 / rate < 10,
+            )
+        )
+    finally:
+        shutil.rmtree(work, ignore_errors=True)
+    return rows

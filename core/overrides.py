@@ -1,0 +1,132 @@
+"""A firm's own records about the standard's tables: a row verified against its copy, or a value corrected.
+
+A person with the standard checks one row of ``core/data/<table>.csv`` against their copy of
+CSA O86-19 and records who, when and where (edition and page); the row then reads ``verified`` for
+that firm. A correction (an override) replaces one value of the row and names its source. Rows are
+named by their key columns (``KEYS``), never by position, so a row added to a CSV never moves a
+firm's record onto another row. Pure: the storage layer reads the records and hands them to ``use``.
+"""
+
+from __future__ import annotations
+
+import math
+from typing import Literal
+
+from pydantic import BaseModel, ConfigDict, Field, field_validator, model_validator
+
+# the columns that name a row of each table (the rest are its values and provenance)
+KEYS: dict[str, tuple[str, ...]] = {
+    "glulam_grades": ("species", "grade"),
+    "sawn_grades": ("species", "grade"),
+    "kzb": ("larger_dim_max_mm",),
+    "service_factors": ("material", "smaller_dim_rule"),
+    "treatment_factors": ("material", "treatment", "service"),
+    "effective_length": ("le_case",),
+    "glulam_sizes": ("width_mm",),
+    "glulam_depths": ("depth_mm",),
+    "lumber_sizes": ("nominal",),
+    "deflection_limits": ("use",),
+    "densities": ("material", "species"),
+}
+PROVENANCE_COLUMNS = ("status", "confirmed_by")
+EDITIONS = ("O86-19",)
+
+
+class TableRecord(BaseModel):
+    """A firm's verification of one table row, optionally with one corrected value and its source."""
+
+    model_config = ConfigDict(extra="forbid", frozen=True)
+
+    table: str
+    row: str  # the row's key values joined by "/", e.g. "D.Fir-L/24f-E"
+    by: str = Field(min_length=1, max_length=200)
+    edition: Literal["O86-19"]
+    page: int = Field(ge=1, le=2000)
+    at: str = Field(min_length=1, max_length=40)  # UTC, ISO 8601
+    column: str | None = None  # the corrected value's column (None: verified as printed)
+    value: str | None = None
+    source: str = ""  # where the corrected value comes from (required with a correction)
+
+    @field_validator("table")
+    @classmethod
+    def _known_table(cls, v: str) -> str:
+        if v not in KEYS:
+            raise ValueError(f"table {v!r}; allowed: {', '.join(KEYS)}")
+        return v
+
+    @field_validator("value")
+    @classmethod
+    def _finite_number(cls, v: str | None) -> str | None:
+        if v is None:
+            return v
+        try:
+            number = float(v)
+        except ValueError as exc:
+            raise ValueError(f"value {v!r}: a corrected table value is a number") from exc
+        if not math.isfinite(number) or number <= 0:
+            raise ValueError(f"value {v!r}: a corrected table value is a positive finite number")
+        return v
+
+    @model_validator(mode="after")
+    def _correction_complete(self) -> TableRecord:
+        """A correction names its column, value and source together."""
+        if (self.column is None) != (self.value is None):
+            raise ValueError("column and value: give both for a correction, or neither for a verification")
+        if self.column is not None:
+            if self.column in KEYS[self.table] or self.column in PROVENANCE_COLUMNS:
+                raise ValueError(f"column {self.column!r}: a key or provenance column is not corrected")
+            if not self.source.strip():
+                raise ValueError("source: a corrected value names where it comes from")
+        return self
+
+
+def row_label(table: str, row: dict[str, str]) -> str:
+    """The name of a row: its key values joined by '/'."""
+    return "/".join(row[k] for k in KEYS[table])
+
+
+def record_id(table: str, label: str) -> str:
+    """The id of a firm's record about a row (one record per row; a later one replaces it)."""
+    return f"{table}:{label}"
+
+
+def note(record: TableRecord) -> str:
+    """Provenance text for a row the firm verified or corrected."""
+    what = "verified" if record.column is None else f"{record.column} corrected to {record.value} ({record.source})"
+    return f"{what} by {record.by} against CSA {record.edition} p. {record.page}, {record.at}"
+
+
+_IN_USE: dict[tuple[str, str], TableRecord] = {}
+
+
+def in_use() -> dict[tuple[str, str], TableRecord]:
+    """The firm records the tables currently apply, by (table, row label)."""
+    return dict(_IN_USE)
+
+
+def use(records: list[TableRecord]) -> bool:
+    """Make the tables apply these firm records (replacing any before); True when that changed anything.
+
+    The caller clears the table caches when this returns True (``core.tables.use_firm_records``).
+    """
+    wanted = {(r.table, r.row): r for r in records}
+    if wanted == _IN_USE:
+        return False
+    _IN_USE.clear()
+    _IN_USE.update(wanted)
+    return True
+
+
+def overlay(table: str, row: dict[str, str]) -> dict[str, str]:
+    """The row as the firm's records say: status verified, the corrected value, the provenance noted."""
+    if not _IN_USE or table not in KEYS:
+        return row
+    record = _IN_USE.get((table, row_label(table, row)))
+    if record is None:
+        return row
+    out = dict(row, status="verified", confirmed_by=note(record))
+    if record.column is not None and record.value is not None:
+        if record.column not in row:
+            raise ValueError(f"column {record.column!r} is not a column of table {table!r}")
+        out[record.column] = record.value
+    return out

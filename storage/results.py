@@ -1,0 +1,283 @@
+"""Each beam's recheck result, stored beside its record and refreshed when what it depends on changes.
+
+A stored result is a local, derived copy (never synced: every device recomputes it from the synced
+records): status, the governing check and its utilisation, the finding codes, and the table rows the
+recheck used with their status. Triggers in the database mark a result stale (``input_hash`` set
+to '') when its beam, its site's design bases or a firm table record changes, whoever writes (a
+save, an import), and the next read recomputes the stale and missing ones, so a stale result is
+never shown. ``input_hash`` (a SHA-256 over the beam's stored record, its site's design bases and
+the firm's table records) records what a result was computed from.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import sys
+from collections.abc import Callable, Iterable, Iterator
+from dataclasses import dataclass
+from typing import Any
+
+from pydantic import ValidationError
+
+from storage.db import transaction
+
+UNCHECKED = "unchecked"  # the record is incomplete (or refused): nothing to recheck yet
+TABLE_STATUSES = ("verified", "confirmed", "memory")
+
+
+@dataclass(frozen=True)
+class StoredResult:
+    """One beam's stored recheck result."""
+
+    beam_id: str
+    site_id: str
+    input_hash: str
+    status: str
+    governing: str  # "bending R1 (positive)", "shear", "bearing 2", "deflection", or "" when unchecked
+    utilisation: float | None
+    findings: tuple[dict[str, str], ...]  # {"code", "priority", "region"} per finding
+    rows_used: tuple[dict[str, str], ...]  # {"clause", "source", "status"} per table row the recheck used
+
+    @property
+    def finding_codes(self) -> list[str]:
+        """The codes of the findings, in the recheck's order."""
+        return [f["code"] for f in self.findings]
+
+
+def beam_fields() -> tuple[str, ...]:
+    """The contract-1 fields of a beam (the rest of a record is location and drafts)."""
+    from core.models import Beam
+
+    return tuple(Beam.model_fields)
+
+
+def summarise(record: dict[str, Any]) -> tuple[str, str, float | None, list[dict[str, str]], list[dict[str, str]]]:
+    """Recheck one stored beam record: (status, governing check, utilisation, findings, table rows used).
+
+    An incomplete record gives ``("unchecked", "", None, [], [])``. Pure apart from the recheck.
+    """
+    from core.models import Beam
+    from core.recheck import recheck
+
+    fields = beam_fields()
+    try:
+        result = recheck(Beam.model_validate({k: v for k, v in record.items() if k in fields}))
+    except (ValidationError, ValueError):
+        return UNCHECKED, "", None, [], []
+    checks: list[tuple[str, float | None, Iterable[Any]]] = [
+        (f"bending {r.region}", r.utilisation, r.trace) for r in result.bending
+    ]
+    checks.append(("shear", result.shear.utilisation, result.shear.trace))
+    checks += [(f"bearing {b.support}", b.utilisation, b.trace) for b in result.bearing]
+    checks.append(("deflection", result.deflection.utilisation, result.deflection.trace))
+    rated = [(u, name) for name, u, _ in checks if u is not None]
+    governing = max(rated)[1] if rated else ""
+    rows: dict[tuple[str, str, str], None] = {}
+    for _, _, trace in checks:
+        for t in trace:
+            if t.status in TABLE_STATUSES:
+                rows[(t.clause, t.source, t.status)] = None
+    findings = [{"code": f.code, "priority": f.priority.value, "region": f.region or ""} for f in result.findings]
+    used = [{"clause": c, "source": s, "status": st} for c, s, st in sorted(rows)]
+    util = None if result.governing_utilisation is None else round(float(result.governing_utilisation), 6)
+    return result.status.value, governing, util, findings, used
+
+
+def tables_stamp(db: Any) -> str:
+    """A digest of the firm's table records (verifications, overrides); '' while there are none."""
+    exists = db.execute("SELECT 1 FROM sqlite_master WHERE type='table' AND name='table_row'").fetchone()
+    if not exists:
+        return ""
+    h = hashlib.sha256()
+    for rid, data in db.execute("SELECT id, data FROM table_row ORDER BY id").fetchall():
+        h.update(f"{rid}\x1f{data}\x1e".encode())
+    return h.hexdigest()
+
+
+def _site_bases(db: Any, site_id: str | None) -> str:
+    row = db.execute("SELECT data FROM site WHERE id=?", [site_id]).fetchone() if site_id else None
+    if row is None:
+        return ""
+    site = json.loads(row[0])
+    return json.dumps([site.get("design_basis"), site.get("load_bases")], sort_keys=True)
+
+
+def input_hash(record_text: str, bases: str, stamp: str) -> str:
+    """The key a stored result is valid for: the beam's stored text, its site's bases, the tables."""
+    return hashlib.sha256(f"{record_text}\x1f{bases}\x1f{stamp}".encode()).hexdigest()
+
+
+def _row(r: tuple[Any, ...]) -> StoredResult:
+    return StoredResult(
+        beam_id=r[0],
+        site_id=r[1],
+        input_hash=r[2],
+        status=r[3],
+        governing=r[4],
+        utilisation=r[5],
+        findings=tuple(json.loads(r[6])),
+        rows_used=tuple(json.loads(r[7])),
+    )
+
+
+COLUMNS = "beam_id, site_id, input_hash, status, governing, utilisation, findings, rows_used"
+
+
+def stored(db: Any, site_id: str | None = None, needing_action: bool = False) -> dict[str, StoredResult]:
+    """The stored results (of one site, or all), whatever their age; ``needing_action``: not ok, not unchecked."""
+    where = ["site_id=?"] if site_id else []
+    if needing_action:
+        where.append(f"status NOT IN ('ok', '{UNCHECKED}')")
+    sql = f"SELECT {COLUMNS} FROM beam_result" + (" WHERE " + " AND ".join(where) if where else "")
+    return {r[0]: _row(r) for r in db.execute(sql, [site_id] if site_id else []).fetchall()}
+
+
+def site_list(db: Any, site_id: str) -> list[tuple[str, dict[str, Any], str]]:
+    """[(beam id, {mark, level, gridline}, status)] of a site's beams from the stored results.
+
+    Read with SQL (no record decoded), ordered by level, gridline and mark; archived beams left
+    out. Call ``refresh`` first so no status is stale.
+    """
+    sql = (
+        "SELECT b.id, json_extract(b.data, '$.mark'), json_extract(b.data, '$.level'), "
+        "json_extract(b.data, '$.gridline'), r.status FROM beam b LEFT JOIN beam_result r ON r.beam_id = b.id "
+        "WHERE b.site_id = ? AND NOT coalesce(json_extract(b.data, '$.archived'), 0)"
+    )
+    out = []
+    for bid, mark, level, grid, status in db.execute(sql, [site_id]).fetchall():
+        rec = {k: v for k, v in (("mark", mark), ("level", level), ("gridline", grid)) if v is not None}
+        out.append((bid, rec, status or UNCHECKED))
+    return sorted(
+        out, key=lambda r: (str(r[1].get("level", "")), str(r[1].get("gridline", "")), str(r[1].get("mark", "")))
+    )
+
+
+def write(db: Any, results: Iterable[StoredResult]) -> None:
+    """Store results (inside the caller's transaction)."""
+    db.conn.executemany(
+        f"INSERT OR REPLACE INTO beam_result ({COLUMNS}) VALUES (?, ?, ?, ?, ?, ?, ?, ?)",
+        [
+            (
+                r.beam_id,
+                r.site_id,
+                r.input_hash,
+                r.status,
+                r.governing,
+                r.utilisation,
+                json.dumps(list(r.findings)),
+                json.dumps(list(r.rows_used)),
+            )
+            for r in results
+        ],
+    )
+
+
+def compute(job: tuple[str, str, str, str]) -> StoredResult:
+    """Recheck one job (beam id, site id, input hash, record text) into a StoredResult."""
+    beam_id, site_id, key, text = job
+    status, governing, util, findings, used = summarise(json.loads(text))
+    return StoredResult(beam_id, site_id, key, status, governing, util, tuple(findings), tuple(used))
+
+
+def jobs(db: Any, site_id: str | None = None, only_stale: bool = True) -> Iterator[tuple[str, str, str, str]]:
+    """(beam id, site id, input hash, record text) of every beam (of a site) without a current result.
+
+    The database's triggers (storage/db.py, migration 3) mark a result stale when its beam, its
+    site's design bases or a firm table record changes, so stale ones are found in SQL without
+    reading every record. With ``only_stale=False``, every beam. Archived beams are left out.
+    """
+    from storage import firm_tables
+
+    firm_tables.apply(db)  # lookups honour the firm's verified and corrected rows (inherited by workers)
+    stamp = tables_stamp(db)
+    bases: dict[str, str] = {}
+    where = ["NOT coalesce(json_extract(b.data, '$.archived'), 0)"]
+    if site_id:
+        where.append("b.site_id = ?")
+    if only_stale:
+        where.append("(r.beam_id IS NULL OR r.input_hash = '')")
+    sql = (
+        "SELECT b.id, b.site_id, b.data FROM beam b LEFT JOIN beam_result r ON r.beam_id = b.id WHERE "
+        + " AND ".join(where)
+        + " ORDER BY b.id"
+    )
+    for bid, sid, text in db.execute(sql, [site_id] if site_id else []).fetchall():
+        if sid not in bases:
+            bases[sid] = _site_bases(db, sid)
+        yield bid, sid or "", input_hash(text, bases[sid], stamp), text
+
+
+def refresh(db: Any, site_id: str) -> int:
+    """Recompute (here, in this process) the stale results of a site; return how many were stale."""
+    todo = list(jobs(db, site_id))
+    if todo:
+        done = [compute(j) for j in todo]
+        with transaction(db):
+            write(db, done)
+    return len(todo)
+
+
+def fresh(db: Any, site_id: str) -> dict[str, StoredResult]:
+    """Every current result of a site, recomputing only the stale ones."""
+    refresh(db, site_id)
+    return stored(db, site_id)
+
+
+def progress_bar(done: int, total: int, width: int = 40) -> str:
+    """'[#########...........]  1,234 / 10,000 beams' for the portfolio recheck's stderr."""
+    filled = width * done // total if total else width
+    return f"[{'#' * filled}{'.' * (width - filled)}] {done:,} / {total:,} beams"
+
+
+def recheck_all(
+    db: Any,
+    site_id: str | None = None,
+    processes: int = 2,
+    on_progress: Callable[[int, int], None] | None = None,
+    chunk: int = 500,
+) -> list[tuple[StoredResult | None, StoredResult]]:
+    """Recheck every stored beam (of one site, or all), store the results, return [(before, after)].
+
+    The work is spread over ``processes`` worker processes (1 = in this process); results are written
+    in batches as they come back, so memory stays bounded by the batch and not the portfolio.
+    """
+    before = stored(db, site_id)
+    todo = list(jobs(db, site_id, only_stale=False))
+    total = len(todo)
+    out: list[tuple[StoredResult | None, StoredResult]] = []
+    done = 0
+    if on_progress:
+        on_progress(0, total)
+
+    def batches() -> Iterator[list[StoredResult]]:
+        if processes <= 1 or total < 2 * chunk:
+            for i in range(0, total, chunk):
+                yield [compute(j) for j in todo[i : i + chunk]]
+            return
+        import multiprocessing
+
+        ctx = multiprocessing.get_context("fork" if sys.platform.startswith("linux") else "spawn")
+        with ctx.Pool(processes) as pool:
+            parts = [todo[i : i + chunk] for i in range(0, total, chunk)]
+            yield from pool.imap(_compute_many, parts)
+
+    for batch in batches():
+        with transaction(db):
+            write(db, batch)
+        out += [(before.get(r.beam_id), r) for r in batch]
+        done += len(batch)
+        if on_progress:
+            on_progress(done, total)
+    return out
+
+
+def _compute_many(part: list[tuple[str, str, str, str]]) -> list[StoredResult]:
+    return [compute(j) for j in part]
+
+
+def changed(
+    pairs: Iterable[tuple[StoredResult | None, StoredResult]],
+) -> list[tuple[StoredResult | None, StoredResult]]:
+    """The pairs whose status or governing check differ (a beam with no stored result counts as changed)."""
+    return [(b, a) for b, a in pairs if b is None or (b.status, b.governing) != (a.status, a.governing)]

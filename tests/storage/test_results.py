@@ -1,0 +1,101 @@
+"""Stored recheck results: kept with the record, refreshed when what they depend on changes; the portfolio recheck."""
+
+import pytest
+
+from core.recheck import recheck
+from mobile.cli import main
+from storage import Store, results
+from tests.core.beams import glulam
+
+
+@pytest.fixture
+def store(tmp_path):
+    return Store(tmp_path / "r.db")
+
+
+def _site(store, n=3):
+    site = store.create_site(name="Yard")
+    ids = [store.save_beam(site.id, glulam(mark=f"B-{i}"), {"level": "Roof"}) for i in range(n)]
+    return site, ids
+
+
+def test_fresh_stores_the_recheck_and_reuses_it(store, monkeypatch):
+    site, ids = _site(store)
+    got = results.fresh(store.db, site.id)
+    expect = recheck(glulam())
+    assert {r.status for r in got.values()} == {expect.status.value}
+    assert got[ids[0]].utilisation == pytest.approx(expect.governing_utilisation, abs=1e-6)
+    assert got[ids[0]].finding_codes == [f.code for f in expect.findings]
+    # every table row the recheck used is recorded with its status
+    assert got[ids[0]].rows_used and {r["status"] for r in got[ids[0]].rows_used} <= {"verified", "confirmed", "memory"}
+    calls = []
+    monkeypatch.setattr(results, "compute", lambda job: calls.append(job))
+    assert results.fresh(store.db, site.id) == got
+    assert calls == []  # nothing stale: nothing rechecked
+
+
+def test_a_changed_beam_is_rechecked_the_others_not(store, monkeypatch):
+    site, ids = _site(store)
+    results.fresh(store.db, site.id)
+    store.update_beam(ids[1], {"d_mm": 190})  # a far shallower member than logged
+    seen = []
+    real = results.compute
+    monkeypatch.setattr(results, "compute", lambda job: seen.append(job[0]) or real(job))
+    got = results.fresh(store.db, site.id)
+    assert seen == [ids[1]]
+    assert got[ids[1]].status == recheck(glulam(d_mm=190)).status.value != got[ids[0]].status
+
+
+def test_site_design_basis_change_makes_its_results_stale(store):
+    site, _ = _site(store)
+    results.fresh(store.db, site.id)
+    assert list(results.jobs(store.db, site.id)) == []
+    store.save("site", site.id, {"design_basis": {"snow_kpa": 3.5}})
+    assert len(list(results.jobs(store.db, site.id))) == 3
+
+
+def test_incomplete_beam_is_unchecked(store):
+    site = store.create_site(name="Yard")
+    bid = "0190aaaa-0000-7000-8000-000000000001"
+    store.save("beam", bid, {"mark": "NEW-1", "site_id": site.id, "material": "glulam"})
+    assert results.fresh(store.db, site.id)[bid].status == results.UNCHECKED
+
+
+def test_two_processes_give_the_same_results_as_one(store):
+    site, _ = _site(store, n=7)
+    one = {a.beam_id: a for _, a in results.recheck_all(store.db, processes=1, chunk=2)}
+    two = {a.beam_id: a for _, a in results.recheck_all(store.db, processes=2, chunk=2)}
+    assert one == two and len(one) == 7
+
+
+def test_recheck_command_lists_changes_then_nothing(tmp_path, capsys):
+    db = tmp_path / "p.db"
+    store = Store(db)
+    site, ids = _site(store)
+    assert main(["recheck", "--db", str(db)]) == 0
+    out, err = capsys.readouterr()
+    assert len(out.splitlines()) == 3 and "no stored result" in out  # first run: every beam is new
+    assert "3 / 3 beams" in err  # the progress bar
+    assert main(["recheck", "--db", str(db), "--site", "Yard", "--quiet"]) == 0
+    assert capsys.readouterr().out == ""
+    store.db.execute("UPDATE beam_result SET status='deficient', governing='shear' WHERE beam_id=?", [ids[2]])
+    assert main(["recheck", "--db", str(db), "--quiet"]) == 0
+    out = capsys.readouterr().out
+    assert out.startswith("B-2") and "deficient (shear) ->" in out
+    assert main(["recheck", "--db", str(db), "--site", "nowhere"]) == 2
+
+
+def test_an_imported_edit_makes_the_result_stale(tmp_path):
+    from storage.bundle import export_bundle, import_bundle
+
+    a, b = Store(tmp_path / "a.db", firm_key="k"), Store(tmp_path / "b.db", firm_key="k")
+    site, ids = _site(a, n=2)
+    export_bundle(a, tmp_path / "1.zip")
+    assert import_bundle(b, tmp_path / "1.zip").outcome == "applied"
+    results.fresh(b.db, site.id)
+    assert list(results.jobs(b.db, site.id)) == []
+    a.update_beam(ids[0], {"d_mm": 190})
+    export_bundle(a, tmp_path / "2.zip", peer=None)
+    assert import_bundle(b, tmp_path / "2.zip").outcome == "applied"
+    assert [j[0] for j in results.jobs(b.db, site.id)] == [ids[0]]  # the trigger marked it, whoever wrote
+    assert results.fresh(b.db, site.id)[ids[0]].status == recheck(glulam(d_mm=190)).status.value
