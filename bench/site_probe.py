@@ -58,10 +58,7 @@ def site_open(db: str, old: bool) -> dict[str, float]:
     site_id = store.sites()[0].id
     t0 = time.perf_counter()
     vm = SiteViewModel(store, site_id)
-    if old:
-        rows = [(b, r, vm.status_of(b)) for b, r in store.beams(site_id)]
-    else:
-        rows = vm.beam_rows()
+    rows = [(b, r, vm.status_of(b)) for b, r in store.beams(site_id)] if old else vm.beam_rows()
     vm.counts(rows)
     groups = vm.groups(rows=rows)
     data = [(where, len(items)) for where, items in groups]

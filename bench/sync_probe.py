@@ -36,7 +36,8 @@ def build(db: str, n: int) -> None:
     rows = []
     for seq in range(1, n + 1):
         if seq == 1:
-            entity, rid, payload = "site", site, {"name": "Bench Site", "address": "1 Test Lane"}
+            entity, rid = "site", site
+            payload: dict[str, object] = {"name": "Bench Site", "address": "1 Test Lane"}
         elif seq <= max(2, n // 10):
             entity, rid = "beam", f"beam-{seq:07d}"
             payload = {"mark": rid, "site_id": site, "level": "Roof", "d_mm": 456, "b_mm": 130}

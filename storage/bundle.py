@@ -17,7 +17,7 @@ import shutil
 import time
 import zipfile
 import zlib
-from collections.abc import Callable
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
 from json.encoder import encode_basestring
 from pathlib import Path
@@ -277,7 +277,7 @@ def _write_part(store: Store, out: Path, part: _Part, vector: dict[str, int]) ->
     return manifest, h.hexdigest()
 
 
-def import_bundles(store: Store, paths: list[str | Path], progress: Progress | None = None) -> list[ImportReport]:
+def import_bundles(store: Store, paths: Sequence[str | Path], progress: Progress | None = None) -> list[ImportReport]:
     """Import the parts of a split export in order, stopping at the first one not applied."""
     reports = []
     for path in paths:

@@ -62,7 +62,7 @@ def test_incomplete_beam_is_unchecked(store):
 
 
 def test_two_processes_give_the_same_results_as_one(store):
-    site, _ = _site(store, n=7)
+    _, _ = _site(store, n=7)
     one = {a.beam_id: a for _, a in results.recheck_all(store.db, processes=1, chunk=2)}
     two = {a.beam_id: a for _, a in results.recheck_all(store.db, processes=2, chunk=2)}
     assert one == two and len(one) == 7
@@ -71,7 +71,7 @@ def test_two_processes_give_the_same_results_as_one(store):
 def test_recheck_command_lists_changes_then_nothing(tmp_path, capsys):
     db = tmp_path / "p.db"
     store = Store(db)
-    site, ids = _site(store)
+    _, ids = _site(store)
     assert main(["recheck", "--db", str(db)]) == 0
     out, err = capsys.readouterr()
     assert len(out.splitlines()) == 3 and "no stored result" in out  # first run: every beam is new
