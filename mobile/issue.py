@@ -8,7 +8,7 @@ from pathlib import Path
 
 from core.recheck import recheck
 from core.records import IssuedNotice, Stage
-from reports.content import Carried, Notice, header_from, item_for
+from reports.content import Carried, Mark, Notice, Photo, header_from, item_for
 from reports.render import render_notice
 from storage import Store
 from storage.files import write_atomic
@@ -39,6 +39,28 @@ def observed_text(record: dict[str, object]) -> str:
     return text
 
 
+def member_title(record: dict[str, object]) -> str:
+    """'RB-5 · level Roof · grid D / 2-3' from a stored beam record (what is not recorded is said so)."""
+    level = str(record.get("level") or "").strip() or "level not recorded"
+    grid = str(record.get("gridline") or "").strip()
+    return f"{record.get('mark')} · {level} · " + (f"grid {grid}" if grid else "gridline not recorded")
+
+
+def photo_ref(store: Store, record: dict[str, object]) -> Photo:
+    """A photo for the notice that reads its blob only when drawn, captioned what/where/when/who."""
+    sha = str(record["sha256"])
+    bits = [str(record.get(k) or "").strip() for k in ("caption", "taken_at", "taken_by")]
+    marks = tuple(Mark(**m) for m in record.get("marks") or [])  # type: ignore[attr-defined]
+
+    def load() -> bytes:
+        content = store.blob(sha)
+        if content is None:
+            raise FileNotFoundError(f"photo {sha[:12]} has not arrived on this tablet")
+        return content
+
+    return Photo(sha256=sha, load=load, caption=" · ".join(b for b in bits if b), marks=marks)
+
+
 def build_notice(
     store: Store,
     site_id: str,
@@ -55,28 +77,43 @@ def build_notice(
     open_items = store.deficiencies(site_id, open_only=True)
     if only is not None:
         open_items = [d for d in open_items if d.id in set(only)]
-    photos_by_def: dict[str, list[bytes]] = {}
-    photos_by_beam: dict[str, list[bytes]] = {}
+    # photos are referenced here and read one at a time when the renderer draws them (bounded memory)
+    photos_by_def: dict[str, list[bytes | Photo]] = {}
+    photos_by_beam: dict[str, list[bytes | Photo]] = {}
     for p in store.photos(site_id):
-        content = store.blob(p["sha256"])
-        if content is None:
+        if p.get("pending"):
             continue
+        ref = photo_ref(store, p)
         if p.get("deficiency_id"):
-            photos_by_def.setdefault(p["deficiency_id"], []).append(content)
+            photos_by_def.setdefault(p["deficiency_id"], []).append(ref)
         elif p.get("beam_id"):
-            photos_by_beam.setdefault(p["beam_id"], []).append(content)
+            photos_by_beam.setdefault(p["beam_id"], []).append(ref)
     earlier = {i for n in store.notices(site_id) for i in n.deficiency_ids}
     items, carried = [], []
     for d in open_items:
         beam = result = None
         observed = d.description
+        title = ""
         if d.beam_id:
             record = store.beam_record(d.beam_id)
             beam = store.beam(d.beam_id)
             result = recheck(beam)
             observed = observed_text(record)
-        photos = photos_by_def.get(d.id, []) + (photos_by_beam.get(d.beam_id, []) if d.beam_id else [])
-        items.append(item_for(d, beam, result, observed, photos))
+            title = member_title(record)
+        photos = photos_by_def.get(d.id, [])
+        member_photos = photos_by_beam.get(d.beam_id, []) if d.beam_id else []
+        items.append(
+            item_for(
+                d,
+                beam,
+                result,
+                observed,
+                photos,
+                member_title=title,
+                member_photos=member_photos,
+                status=_status_words(d.stage, d.cycle),
+            )
+        )
         if d.id in earlier:
             carried.append(Carried(d.number, d.location, d.description, _status_words(d.stage, d.cycle)))
     header = header_from(
