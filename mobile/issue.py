@@ -2,12 +2,14 @@
 
 from __future__ import annotations
 
+import dataclasses
 import hashlib
 import time
 from pathlib import Path
 
 from core.recheck import recheck
 from core.records import IssuedNotice, Stage
+from reports import stamp
 from reports.content import Carried, Mark, Notice, Photo, header_from, item_for
 from reports.render import render_notice
 from storage import Store
@@ -122,7 +124,27 @@ def build_notice(
     if site.contractor_contact:
         header["addressed_to"] = f"{site.contractor} (attention: {site.contractor_contact})"
     notice = Notice(**header, items=items, carried=carried, change_note=change_note)  # type: ignore[arg-type]
-    return notice, [d.id for d in open_items]
+    return signed_by(store, notice), [d.id for d in open_items]
+
+
+def signed_by(store: Store, notice: Notice) -> Notice:
+    """The notice with the device's reviewer profile: name, designation, licence, firm, contact, signature."""
+    profile = store.reviewer_profile()
+    if profile is None:
+        return notice
+    signature = store.blob(profile.signature_sha256) if profile.signature_sha256 else None
+    return dataclasses.replace(
+        notice,
+        reviewer=profile.name,
+        reviewer_designation=profile.designation,
+        reviewer_licence=profile.licence_number,
+        reviewer_phone=profile.phone,
+        reviewer_email=profile.email,
+        firm=profile.firm or notice.firm,
+        signature_png=signature,
+        seal=profile.seal,
+        page_size=profile.page_size,
+    )
 
 
 def _status_words(stage: Stage, cycle: int) -> str:
@@ -142,7 +164,7 @@ def issue_notice_for_site(
     site = store.site(site_id)
     number = store.next_notice_number(site)
     notice, ids = build_notice(store, site_id, number, issued_on=issued_on, only=only)
-    pdf = render_notice(notice)
+    pdf = render_notice(notice, stamp_hash=True)
     # the number is spent only once the PDF is safely written; if recording fails, the file goes too
     out.parent.mkdir(parents=True, exist_ok=True)
     write_atomic(out, pdf)
@@ -157,7 +179,7 @@ def issue_notice_for_site(
 def reissue(store: Store, previous: IssuedNotice, out: Path, change_note: str, issued_by: str) -> IssuedNotice:
     """A new revision of an issued notice that says what changed; the original stays on file."""
     notice, ids = build_notice(store, previous.site_id, previous.number, previous.revision + 1, change_note)
-    pdf = render_notice(notice)
+    pdf = render_notice(notice, stamp_hash=True)
     issued = store.issue_notice(
         previous.site_id,
         previous.number,
@@ -174,5 +196,16 @@ def reissue(store: Store, previous: IssuedNotice, out: Path, change_note: str, i
 
 
 def verify_pdf(store: Store, path: Path) -> IssuedNotice | None:
-    """The issued notice this PDF is exactly (by SHA-256), or None."""
-    return store.find_issued_by_hash(hashlib.sha256(path.read_bytes()).hexdigest())
+    """The issued notice this PDF is exactly, or None.
+
+    Two checks, both must hold: the file's SHA-256 is that of an issued notice on record, and the hash
+    the PDF carries (metadata and footer, see ``reports.stamp``) matches its bytes. Notices issued before
+    the embedded hash existed carry none and are checked against the record alone.
+    """
+    pdf = path.read_bytes()
+    found = store.find_issued_by_hash(hashlib.sha256(pdf).hexdigest())
+    if found is None:
+        return None
+    if stamp.META_PREFIX.encode() in pdf and stamp.embedded_hash(pdf) is None:
+        return None
+    return found

@@ -11,7 +11,7 @@ from pathlib import Path
 from typing import Any
 
 from core.models import Beam
-from core.records import Deficiency, IssuedNotice, Site, Stage, StatusEvent, Visit
+from core.records import Deficiency, IssuedNotice, ReviewerProfile, Site, Stage, StatusEvent, Visit
 from core.results import PRIORITY_ORDER
 from storage.clock import hlc_receive, hlc_tick, uuid7
 from storage.db import PROJECTIONS, SCHEMA_VERSION, SET_ENTITIES, connect, transaction
@@ -89,6 +89,16 @@ class Store:
         with transaction(self.db):
             self._set_meta("device_user", name.strip())
             self._set_meta("device_role", role)
+
+    def reviewer_profile(self) -> ReviewerProfile | None:
+        """The reviewer this device signs notices for (issue 13), or None until set up. Never synced."""
+        raw = self._meta().get("reviewer_profile")
+        return ReviewerProfile.model_validate_json(raw) if raw else None
+
+    def set_reviewer_profile(self, profile: ReviewerProfile) -> None:
+        """Set up (or change) the signing reviewer of this device."""
+        with transaction(self.db):
+            self._set_meta("reviewer_profile", profile.model_dump_json())
 
     @property
     def firm_key(self) -> bytes:

@@ -1,8 +1,10 @@
 """Issue 13: page 1 stands alone (summary of every item), items grouped by member, signed and hashed."""
 
+import hashlib
 import io
 import re
 
+import pytest
 from pypdf import PdfReader
 
 from core import recheck
@@ -104,3 +106,95 @@ def test_twenty_items_on_five_beams_each_block_once():
     for i in items:
         assert text.count(f"Item {i.number}") == 1
     save_pngs(pdf, "notice13-twenty-on-five")
+
+
+def _profiled_store(tmp_path):
+    from mobile.demo.run import load_demo, raise_all
+    from mobile.viewmodels.reviewer import ReviewerViewModel
+    from storage import Store
+
+    store = Store(tmp_path / "d.db")
+    site_id = load_demo(store)
+    raise_all(store, site_id)
+    vm = ReviewerViewModel(store)
+    for k, v in {
+        "name": "Priya Okonkwo-Lind",
+        "designation": "P.Eng.",
+        "licence_number": "EGBC 123456",
+        "firm": "Tamarack Structural Review Ltd.",
+        "phone": "604-555-0142",
+        "email": "priya@tamarack.example",
+    }.items():
+        vm.set(k, v)
+    vm.draw_signature([[(10, 10), (60, 80), (120, 20), (200, 70)], [(220, 30), (300, 60)]], (320, 100))
+    vm.seal = True
+    assert vm.save() is not None, vm.message
+    return store, site_id
+
+
+def test_signed_notice_and_embedded_hash(tmp_path):
+    from mobile.issue import issue_notice_for_site, verify_pdf
+    from reports import stamp
+
+    store, site_id = _profiled_store(tmp_path)
+    issued, path = issue_notice_for_site(store, site_id, tmp_path / "n.pdf", "P. O.", issued_on="2026-11-30")
+    pdf = path.read_bytes()
+    reader = PdfReader(io.BytesIO(pdf))
+    last = " ".join(reader.pages[-1].extract_text().split())
+    for value in (
+        "Priya Okonkwo-Lind",
+        "P.Eng.",
+        "licence EGBC 123456",
+        "Tamarack Structural Review Ltd.",
+        "2026-11-30",
+    ):
+        assert value in last, value
+    assert "Seal" in last
+    assert sum(len(p.images) for p in reader.pages[-1:]) >= 1  # the signature image
+    digest = stamp.embedded_hash(pdf)
+    assert digest is not None
+    assert reader.metadata["/Keywords"] == "bracewalk-sha256:" + digest
+    for page in reader.pages:
+        assert "SHA-256 " + digest[:16] in page.extract_text()  # a printout can be checked
+    # what is hashed, written out by hand: the file with the digits set back to zeros
+    blank = pdf.replace(digest.encode(), b"0" * 64).replace(
+        b"(SHA-256 " + digest[:16].encode(), b"(SHA-256 " + b"0" * 16
+    )
+    assert hashlib.sha256(blank).hexdigest() == digest
+    assert verify_pdf(store, path).number == issued.number
+    save_pngs(pdf, "notice13-signed")
+
+
+def test_verify_refuses_any_change(tmp_path):
+    from mobile.issue import issue_notice_for_site, verify_pdf
+    from reports import stamp
+
+    store, site_id = _profiled_store(tmp_path)
+    _, path = issue_notice_for_site(store, site_id, tmp_path / "n.pdf", "P. O.", issued_on="2026-11-30")
+    pdf = path.read_bytes()
+    digest = stamp.embedded_hash(pdf)
+    at_meta = pdf.index(digest.encode())
+    at_footer = pdf.index(b"(SHA-256 " + digest[:16].encode()) + 10
+    for where in (0, 100, len(pdf) // 3, len(pdf) // 2, len(pdf) - 20, at_meta + 5, at_footer):
+        changed = bytearray(pdf)
+        changed[where] = ord("1") if changed[where] != ord("1") else ord("2")
+        assert stamp.embedded_hash(bytes(changed)) is None, where
+        (tmp_path / "x.pdf").write_bytes(bytes(changed))
+        assert verify_pdf(store, tmp_path / "x.pdf") is None, where
+
+
+def test_same_input_same_bytes_when_stamped():
+    items = _twenty_on_five()[:4]
+    assert render_notice(_notice(items), stamp_hash=True) == render_notice(_notice(items), stamp_hash=True)
+
+
+def test_signature_profile_validation(tmp_path):
+    from mobile.viewmodels.reviewer import ReviewerViewModel
+    from storage import Store
+
+    store = Store(tmp_path / "d.db")
+    vm = ReviewerViewModel(store)
+    vm.set("name", "  ")
+    assert vm.save() is None and "name" in vm.message
+    with pytest.raises(ValueError, match="draw at least one line"):
+        vm.draw_signature([[(1, 1)]], (100, 100))
