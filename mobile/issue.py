@@ -95,13 +95,14 @@ def build_notice(
     for d in open_items:
         beam = result = None
         observed = d.description
-        title = ""
+        title = grid = ""
         if d.beam_id:
             record = store.beam_record(d.beam_id)
             beam = store.beam(d.beam_id)
             result = recheck(beam)
             observed = observed_text(record)
             title = member_title(record)
+            grid = str(record.get("gridline") or "")
         photos = photos_by_def.get(d.id, [])
         member_photos = photos_by_beam.get(d.beam_id, []) if d.beam_id else []
         items.append(
@@ -114,6 +115,7 @@ def build_notice(
                 member_title=title,
                 member_photos=member_photos,
                 status=_status_words(d.stage, d.cycle),
+                gridline=grid,
             )
         )
         if d.id in earlier:

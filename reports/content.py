@@ -34,6 +34,33 @@ class Sketch:
     braces_bottom_x: list[float]
     negative: list[tuple[float, float]]
     decking: bool
+    support_labels: list[str] = field(default_factory=list)  # "D/2" per support, from the gridline
+    title: str = ""  # "RB-5 · level Roof · grid D / 2-3"
+
+
+def ft_in(length_mm: float) -> str:
+    """A length in feet and inches to the nearest 1/4 in (7200 mm is 23 ft 7 1/2 in; 1 in = 25.4 mm exactly)."""
+    quarters = round(length_mm / 25.4 * 4)
+    feet, rest = divmod(quarters, 48)
+    inches, q = divmod(rest, 4)
+    frac = {0: "", 1: " 1/4", 2: " 1/2", 3: " 3/4"}[q]
+    return f"{feet}'-{inches}{frac}\""
+
+
+def support_names(gridline: str, supports: int) -> list[str]:
+    """Each support named by its gridline: 'D / 2-3' with 2 supports -> ['D/2', 'D/3']; [] when it cannot tell.
+
+    The gridline is read as a line and a range ('D / 2-3' or '2-3 / D'); the range must name exactly
+    one grid per support, otherwise the supports keep their numbers (S1, S2) rather than a guess.
+    """
+    parts = [x.strip() for x in gridline.replace("grid", "").split("/") if x.strip()]
+    if len(parts) != 2:
+        return []
+    line, span = (parts[0], parts[1]) if "-" in parts[1] else (parts[1], parts[0])
+    marks = [m.strip() for m in span.split("-") if m.strip()]
+    if "-" in line or len(marks) != supports:
+        return []
+    return [f"{line}/{m}" for m in marks]
 
 
 MILESTONES = {
@@ -299,8 +326,17 @@ def item_for(
     member_title: str = "",
     member_photos: list[bytes | Photo] | None = None,
     status: str = "open",
+    gridline: str = "",
 ) -> Item:
     """Build a notice item from a deficiency and (when it concerns a beam) its recheck."""
+    sketch = None
+    location = deficiency.location
+    if beam is not None:
+        sketch = _sketch_with_regions(beam, result)
+        names = support_names(gridline, len(sketch.supports_x))
+        sketch = replace(sketch, support_labels=names, title=member_title or beam.mark)
+        for k, name in enumerate(names, start=1):  # "support 2" -> "support 2 (grid D/3)"
+            location = location.replace(f"support {k}", f"support {k} (grid {name})", 1)
     options = []
     if beam is not None and result is not None and result.status.value != "ok":
         options = [r.message for r in remedies(beam, result)]
@@ -312,7 +348,7 @@ def item_for(
         status=status,
         member_photos=member_photos or [],
         number=deficiency.number,
-        location=deficiency.location,
+        location=location,
         observed=observed,
         finding=deficiency.description,
         reference=deficiency.reference,
@@ -321,7 +357,7 @@ def item_for(
         due=deficiency.due,
         key_numbers=(key_numbers(result) + remedy_numbers(beam, result)) if result is not None else [],
         photos=photos or [],
-        sketch=_sketch_with_regions(beam, result) if beam is not None else None,
+        sketch=sketch,
     )
 
 

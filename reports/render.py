@@ -271,7 +271,7 @@ def _member_block(group: list[Item], st: dict[str, ParagraphStyle]) -> list[Any]
         head.append(Paragraph(f"Member {esc(first.member_title or first.location)}: {esc(numbers)}", st["h2"]))
         head.append(_grid(_rows([("As built", first.observed)], st), [30 * mm, 144 * mm]))
         if first.sketch is not None:
-            head.append(beam_sketch(first.sketch, width_pt=WIDTH, height_pt=40 * mm))
+            head.append(beam_sketch(first.sketch, width_pt=WIDTH, height_pt=44 * mm))
         photos = first.member_photos
         if photos:
             head.append(Table([_photo_cells(photos, st)], hAlign="LEFT"))
@@ -307,7 +307,7 @@ def _member_block(group: list[Item], st: dict[str, ParagraphStyle]) -> list[Any]
             _grid(grid_rows, [30 * mm, 144 * mm]),
         ]
         if not item.member and item.sketch is not None:
-            parts.append(beam_sketch(item.sketch, width_pt=WIDTH, height_pt=40 * mm))
+            parts.append(beam_sketch(item.sketch, width_pt=WIDTH, height_pt=44 * mm))
         if not item.member and item.checks:
             parts.append(_engineering(item, st))
         if item.photos:

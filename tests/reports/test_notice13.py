@@ -198,3 +198,35 @@ def test_signature_profile_validation(tmp_path):
     assert vm.save() is None and "name" in vm.message
     with pytest.raises(ValueError, match="draw at least one line"):
         vm.draw_signature([[(1, 1)]], (100, 100))
+
+
+def test_sketch_locates_the_member():
+    from reports.content import ft_in, support_names
+
+    # 1 in = 25.4 mm exactly (the international inch); 7200 mm = 283.46 in = 23 ft 7.46 in
+    assert ft_in(7200) == "23'-7 1/2\""
+    assert ft_in(304.8) == "1'-0\""
+    assert support_names("D / 2-3", 2) == ["D/2", "D/3"]
+    assert support_names("2-3-4 / C", 3) == ["C/2", "C/3", "C/4"]
+    assert support_names("D / 2-3", 3) == []  # does not guess
+    beam = glulam(
+        mark="RB-5",
+        bearings=[
+            {"lateral": True, "rotation": True, "length_mm": 140},
+            {"lateral": True, "rotation": False, "length_mm": 140},
+        ],
+    )
+    r = recheck(beam)
+    d = Deficiency(
+        id="d1", site_id="s", beam_id="b", number="D-1", code="x", priority="immediate",
+        location="Roof, RB-5, support 2 (right end)", description="No rotation restraint", reference="S-201",
+        action="Restrain",
+    )  # fmt: skip
+    item = item_for(d, beam, r, "as built", member_title="RB-5 · level Roof · grid D / 2-3", gridline="D / 2-3")
+    assert "support 2 (grid D/3)" in item.location
+    pdf = render_notice(_notice([item]))
+    text = " ".join("\n".join(_pages(pdf)).split())
+    for value in ("RB-5 · level Roof · grid D / 2-3", "grid D/2", "grid D/3", "S2 NOT R", "span 7.20 m (23'-7 1/2\")"):
+        assert value in text, value
+    assert "NOT R not restrained" in text  # the legend
+    save_pngs(pdf, "notice13-sketch")
