@@ -82,9 +82,12 @@ def build_notice(
     # photos are referenced here and read one at a time when the renderer draws them (bounded memory)
     photos_by_def: dict[str, list[bytes | Photo]] = {}
     photos_by_beam: dict[str, list[bytes | Photo]] = {}
-    for p in store.photos(site_id):
-        if p.get("pending"):
+    records = store.photos(site_id)
+    marked = {str(p["marks_of"]): p for p in records if p.get("marks_of")}  # the latest markup of each photo
+    for p in records:
+        if p.get("pending") or p.get("marks_of"):
             continue
+        p = marked.get(str(p["id"]), p)  # drawn with its marks; the original record and blob stay as taken
         ref = photo_ref(store, p)
         if p.get("deficiency_id"):
             photos_by_def.setdefault(p["deficiency_id"], []).append(ref)

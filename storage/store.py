@@ -441,6 +441,31 @@ class Store:
         )
         return pid
 
+    def mark_photo(self, site_id: str, photo_id: str, marks: list[dict[str, Any]]) -> str:
+        """Record arrows/rings drawn on a photo as data beside it (issue 13); returns the new record's id.
+
+        A new insert-only photo record naming the same blob, with ``marks`` and ``marks_of``; the original
+        record and its bytes are untouched. Each mark: kind "arrow" (x, y tail -> x2, y2 head) or "ring"
+        (x, y centre, x2 radius), fractions 0-1 of the photo.
+        """
+        original = next((p for p in self.photos(site_id) if p["id"] == photo_id), None)
+        if original is None:
+            raise KeyError(f"photo {photo_id!r} is not a photo of site {site_id!r}")
+        for m in marks:
+            if m.get("kind") not in ("arrow", "ring"):
+                raise ValueError(f"photo mark kind {m.get('kind')!r}; allowed: arrow, ring")
+            for k in ("x", "y", "x2", "y2"):
+                v = m.get(k, 0.0)
+                if not isinstance(v, int | float) or not 0.0 <= v <= 1.0:
+                    raise ValueError(f"photo mark {k} = {v!r}; allowed: a fraction of the photo from 0 to 1")
+        pid = uuid7()
+        fields = {k: original.get(k) for k in ("site_id", "sha256", "mime", "beam_id", "deficiency_id", "caption")}
+        clean = [{k: m.get(k, 0.0) for k in ("kind", "x", "y", "x2", "y2")} for m in marks]
+        self.save(
+            "photo", pid, {**fields, "marks": clean, "marks_of": original.get("marks_of") or photo_id}, kind="insert"
+        )
+        return pid
+
     def photos(self, site_id: str) -> list[dict[str, Any]]:
         """Photo records of a site, each with ``pending`` True if its bytes have not arrived."""
         return [

@@ -230,3 +230,32 @@ def test_sketch_locates_the_member():
         assert value in text, value
     assert "NOT R not restrained" in text  # the legend
     save_pngs(pdf, "notice13-sketch")
+
+
+def test_photo_markup_leaves_the_original_unchanged(tmp_path):
+    from mobile.demo.run import load_demo, raise_all
+    from mobile.issue import build_notice
+    from storage import Store
+    from tests.reports.test_notice import _big_photo
+
+    store = Store(tmp_path / "d.db")
+    site_id = load_demo(store)
+    raise_all(store, site_id)
+    d = store.deficiencies(site_id, open_only=True)[0]
+    content = _big_photo()
+    pid = store.add_photo(site_id, content, deficiency_id=d.id, caption="RB-4 west bearing, 2026-11-30, P. O.")
+    sha = hashlib.sha256(content).hexdigest()
+    store.mark_photo(site_id, pid, [{"kind": "arrow", "x": 0.2, "y": 0.8, "x2": 0.5, "y2": 0.5}])
+    store.mark_photo(site_id, pid, [{"kind": "ring", "x": 0.5, "y": 0.5, "x2": 0.2}])
+    assert hashlib.sha256(store.blob(sha)).hexdigest() == sha  # the evidence photo is never altered
+    original = next(p for p in store.photos(site_id) if p["id"] == pid)
+    assert "marks" not in original and original["sha256"] == sha
+    with pytest.raises(ValueError, match="allowed: a fraction"):
+        store.mark_photo(site_id, pid, [{"kind": "ring", "x": 1.5, "y": 0.5}])
+    notice, _ = build_notice(store, site_id, "N-1", only=[d.id])
+    photos = [p for i in notice.items for p in i.photos]
+    assert len(photos) == 1 and photos[0].marks[0].kind == "ring"  # the latest markup, once
+    assert "RB-4 west bearing" in photos[0].caption
+    pdf = render_notice(notice)
+    assert "Photo 1: RB-4 west bearing, 2026-11-30, P. O." in " ".join("\n".join(_pages(pdf)).split())
+    save_pngs(pdf, "notice13-markup")
