@@ -214,3 +214,55 @@ def verify_pdf(store: Store, path: Path) -> IssuedNotice | None:
     if stamp.META_PREFIX.encode() in pdf and stamp.embedded_hash(pdf) is None:
         return None
     return found
+
+
+def build_closeout(store: Store, site_id: str, number: str, issued_on: str | None = None) -> tuple[Notice, list[str]]:
+    """A close-out notice after a re-review: every item of the earlier notices, verified or still open, and new.
+
+    The outcome of each item is the re-review the reviewer recorded (status moves with their note and
+    evidence); still-open and new items print in full with their response boxes.
+    """
+    earlier = {i for n in store.notices(site_id) for i in n.deficiency_ids}
+    every = store.deficiencies(site_id)
+    rows: list[tuple[str, str, str]] = []
+    for d in sorted(every, key=lambda x: x.number):
+        last = next((e for e in reversed(store.history(d.id)) if e.cycle == d.cycle), None)
+        evidence = ""
+        if last is not None:
+            evidence = f"{last.at[:10]} {last.actor}: {last.note}".strip()
+            if last.evidence_sha256:
+                evidence += f" (evidence SHA-256 {last.evidence_sha256[:12]})"
+        if d.stage is Stage.verified:
+            outcome = "verified (closed)"
+        elif d.id not in earlier:
+            outcome = "new"
+        elif d.stage is Stage.corrected:
+            outcome = "reported corrected, not yet verified: still open"
+        else:
+            outcome = "still open" + (f" (cycle {d.cycle + 1})" if d.cycle else "")
+        if d.id in earlier or d.stage is not Stage.verified:
+            rows.append((d.number, outcome, evidence or "none recorded"))
+    notice, ids = build_notice(store, site_id, number, issued_on=issued_on)
+    notice = dataclasses.replace(notice, kind="close-out", closeout=rows, carried=[])
+    return notice, sorted({*ids, *(d.id for d in every if d.id in earlier)})
+
+
+def issue_closeout(
+    store: Store, site_id: str, out: Path, issued_by: str, issued_on: str | None = None
+) -> tuple[IssuedNotice, Path]:
+    """Issue a numbered close-out notice (a new document, revision of nothing), stored and hashed like any notice."""
+    site = store.site(site_id)
+    number = store.next_notice_number(site)
+    notice, ids = build_closeout(store, site_id, number, issued_on)
+    pdf = render_notice(notice, stamp_hash=True)
+    out.parent.mkdir(parents=True, exist_ok=True)
+    write_atomic(out, pdf)
+    try:
+        issued = store.issue_notice(
+            site_id, number, pdf, ids, issued_by, issued_on or time.strftime("%Y-%m-%d"),
+            change_note="close-out notice",
+        )  # fmt: skip
+    except BaseException:
+        out.unlink(missing_ok=True)
+        raise
+    return issued, out

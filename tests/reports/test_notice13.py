@@ -259,3 +259,28 @@ def test_photo_markup_leaves_the_original_unchanged(tmp_path):
     pdf = render_notice(notice)
     assert "Photo 1: RB-4 west bearing, 2026-11-30, P. O." in " ".join("\n".join(_pages(pdf)).split())
     save_pngs(pdf, "notice13-markup")
+
+
+def test_closeout_after_rereview_and_revision(tmp_path):
+    from mobile.issue import issue_closeout, issue_notice_for_site, reissue
+    from reports import stamp
+
+    store, site_id = _profiled_store(tmp_path)
+    first, _ = issue_notice_for_site(store, site_id, tmp_path / "n.pdf", "P. O.", issued_on="2026-11-30")
+    rev1 = reissue(store, first, tmp_path / "n-rev1.pdf", "item D-x location corrected to grid D/3", "P. O.")
+    text = " ".join("\n".join(_pages((tmp_path / "n-rev1.pdf").read_bytes())).split())
+    assert f"{first.number} rev 1" in text and "What changed in rev 1: item D-x location corrected" in text
+    assert rev1.supersedes == first.id
+    done, *rest = [store.deficiency(i) for i in first.deficiency_ids]
+    store.move_status(done.id, "corrected", "D. Abernathy", "contractor", note="shimmed and bolted")
+    store.move_status(done.id, "verified", "P. O.", "reviewer", note="seen fixed on site")
+    closeout, path = issue_closeout(store, site_id, tmp_path / "c.pdf", "P. O.", issued_on="2026-12-10")
+    pdf = path.read_bytes()
+    assert closeout.number != first.number and closeout.revision == 0  # a new numbered document
+    assert stamp.embedded_hash(pdf) is not None
+    text = " ".join("\n".join(_pages(pdf)).split())
+    assert f"Close-out notice {closeout.number}" in text
+    assert f"{done.number} verified (closed)" in text and "seen fixed on site" in text
+    for d in rest:
+        assert f"{d.number} still open" in text, d.number
+    save_pngs(pdf, "notice13-closeout")
