@@ -284,3 +284,18 @@ def test_closeout_after_rereview_and_revision(tmp_path):
     for d in rest:
         assert f"{d.number} still open" in text, d.number
     save_pngs(pdf, "notice13-closeout")
+
+
+def test_printable_and_accessible():
+    items = _twenty_on_five()[:5]
+    for size, box in (("a4", (595.3, 841.9)), ("letter", (612.0, 792.0))):
+        pdf = render_notice(_notice(items, page_size=size), stamp_hash=True)  # page streams left readable
+        reader = PdfReader(io.BytesIO(pdf))
+        w, h = (float(x) for x in reader.pages[0].mediabox[2:])
+        assert (round(w, 1), round(h, 1)) == box  # ISO 216 A4 210 x 297 mm; US Letter 8.5 x 11 in
+        sizes = {float(x) for x in re.findall(rb"/F\d+ ([\d.]+) Tf", pdf)}
+        assert sizes and min(sizes) >= 8.0, sorted(sizes)  # nothing below 8 pt
+        assert reader.trailer["/Root"]["/Lang"] == "en"
+        assert reader.trailer["/Root"]["/ViewerPreferences"]["/DisplayDocTitle"]
+        assert reader.metadata.title.startswith("Deficiency notice TSR-2611-FR-AB12-001")
+        save_pngs(pdf, f"notice13-{size}")
