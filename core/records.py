@@ -101,3 +101,17 @@ class IssuedNotice(Record):
     pdf_sha256: str
     supersedes: str | None = None
     change_note: str = ""
+
+
+class ReviewerProfile(Record):
+    """Who signs the notices issued on this device, set up once (issue 13): printed on every notice."""
+
+    name: str = Field(min_length=1, max_length=120)
+    designation: str = Field(default="", max_length=80)  # "P.Eng.", "Building Official"
+    licence_number: str = Field(default="", max_length=60)
+    firm: str = Field(default="", max_length=200)
+    phone: str = Field(default="", max_length=60)
+    email: str = Field(default="", max_length=200)
+    signature_sha256: str = ""  # a PNG blob: drawn on the screen or imported
+    seal: bool = False  # the firm's setting: print a seal block
+    page_size: str = Field(default="letter", pattern="^(letter|a4)$")  # the firm's setting

@@ -30,13 +30,14 @@ from core.results import CAUTION  # noqa: E402
 from mobile.screens.beam import BeamScreen  # noqa: E402
 from mobile.screens.deficiency import DeficiencyScreen  # noqa: E402
 from mobile.screens.notice import NoticeScreen  # noqa: E402
+from mobile.screens.reviewer import ReviewerScreen  # noqa: E402
 from mobile.screens.site import SiteScreen  # noqa: E402
 from mobile.screens.sites import SitesScreen  # noqa: E402
 from mobile.screens.sync import SyncScreen  # noqa: E402
 from storage import Store  # noqa: E402
 
 KV = Path(__file__).with_name("screens")
-SCREENS = ("sites", "site", "beam", "deficiency", "notice", "sync")
+SCREENS = ("sites", "site", "beam", "deficiency", "notice", "sync", "reviewer")
 _FONTS = Path(__file__).resolve().parents[1] / "reports" / "fonts"
 # DejaVu Sans covers the status shapes and symbols (phi, <=, arrows) that Kivy's default font lacks
 LabelBase.register(DEFAULT_FONT, str(_FONTS / "DejaVuSans.ttf"), fn_bold=str(_FONTS / "DejaVuSans-Bold.ttf"))
@@ -110,6 +111,7 @@ class BracewalkApp(App):
             (DeficiencyScreen, "deficiency"),
             (NoticeScreen, "notice"),
             (SyncScreen, "sync"),
+            (ReviewerScreen, "reviewer"),
         ):
             sm.add_widget(cls(name=name))
         return sm

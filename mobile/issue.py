@@ -2,13 +2,15 @@
 
 from __future__ import annotations
 
+import dataclasses
 import hashlib
 import time
 from pathlib import Path
 
 from core.recheck import recheck
 from core.records import IssuedNotice, Stage
-from reports.content import Carried, Notice, header_from, item_for
+from reports import stamp
+from reports.content import Carried, Mark, Notice, Photo, header_from, item_for
 from reports.render import render_notice
 from storage import Store
 from storage.files import write_atomic
@@ -39,6 +41,28 @@ def observed_text(record: dict[str, object]) -> str:
     return text
 
 
+def member_title(record: dict[str, object]) -> str:
+    """'RB-5 · level Roof · grid D / 2-3' from a stored beam record (what is not recorded is said so)."""
+    level = str(record.get("level") or "").strip() or "level not recorded"
+    grid = str(record.get("gridline") or "").strip()
+    return f"{record.get('mark')} · {level} · " + (f"grid {grid}" if grid else "gridline not recorded")
+
+
+def photo_ref(store: Store, record: dict[str, object]) -> Photo:
+    """A photo for the notice that reads its blob only when drawn, captioned what/where/when/who."""
+    sha = str(record["sha256"])
+    bits = [str(record.get(k) or "").strip() for k in ("caption", "taken_at", "taken_by")]
+    marks = tuple(Mark(**m) for m in record.get("marks") or [])  # type: ignore[attr-defined]
+
+    def load() -> bytes:
+        content = store.blob(sha)
+        if content is None:
+            raise FileNotFoundError(f"photo {sha[:12]} has not arrived on this tablet")
+        return content
+
+    return Photo(sha256=sha, load=load, caption=" · ".join(b for b in bits if b), marks=marks)
+
+
 def build_notice(
     store: Store,
     site_id: str,
@@ -55,28 +79,48 @@ def build_notice(
     open_items = store.deficiencies(site_id, open_only=True)
     if only is not None:
         open_items = [d for d in open_items if d.id in set(only)]
-    photos_by_def: dict[str, list[bytes]] = {}
-    photos_by_beam: dict[str, list[bytes]] = {}
-    for p in store.photos(site_id):
-        content = store.blob(p["sha256"])
-        if content is None:
+    # photos are referenced here and read one at a time when the renderer draws them (bounded memory)
+    photos_by_def: dict[str, list[bytes | Photo]] = {}
+    photos_by_beam: dict[str, list[bytes | Photo]] = {}
+    records = store.photos(site_id)
+    marked = {str(p["marks_of"]): p for p in records if p.get("marks_of")}  # the latest markup of each photo
+    for p in records:
+        if p.get("pending") or p.get("marks_of"):
             continue
+        p = marked.get(str(p["id"]), p)  # drawn with its marks; the original record and blob stay as taken
+        ref = photo_ref(store, p)
         if p.get("deficiency_id"):
-            photos_by_def.setdefault(p["deficiency_id"], []).append(content)
+            photos_by_def.setdefault(p["deficiency_id"], []).append(ref)
         elif p.get("beam_id"):
-            photos_by_beam.setdefault(p["beam_id"], []).append(content)
+            photos_by_beam.setdefault(p["beam_id"], []).append(ref)
     earlier = {i for n in store.notices(site_id) for i in n.deficiency_ids}
     items, carried = [], []
     for d in open_items:
         beam = result = None
         observed = d.description
+        title = grid = ""
         if d.beam_id:
             record = store.beam_record(d.beam_id)
             beam = store.beam(d.beam_id)
             result = recheck(beam)
             observed = observed_text(record)
-        photos = photos_by_def.get(d.id, []) + (photos_by_beam.get(d.beam_id, []) if d.beam_id else [])
-        items.append(item_for(d, beam, result, observed, photos))
+            title = member_title(record)
+            grid = str(record.get("gridline") or "")
+        photos = photos_by_def.get(d.id, [])
+        member_photos = photos_by_beam.get(d.beam_id, []) if d.beam_id else []
+        items.append(
+            item_for(
+                d,
+                beam,
+                result,
+                observed,
+                photos,
+                member_title=title,
+                member_photos=member_photos,
+                status=_status_words(d.stage, d.cycle),
+                gridline=grid,
+            )
+        )
         if d.id in earlier:
             carried.append(Carried(d.number, d.location, d.description, _status_words(d.stage, d.cycle)))
     header = header_from(
@@ -85,7 +129,27 @@ def build_notice(
     if site.contractor_contact:
         header["addressed_to"] = f"{site.contractor} (attention: {site.contractor_contact})"
     notice = Notice(**header, items=items, carried=carried, change_note=change_note)  # type: ignore[arg-type]
-    return notice, [d.id for d in open_items]
+    return signed_by(store, notice), [d.id for d in open_items]
+
+
+def signed_by(store: Store, notice: Notice) -> Notice:
+    """The notice with the device's reviewer profile: name, designation, licence, firm, contact, signature."""
+    profile = store.reviewer_profile()
+    if profile is None:
+        return notice
+    signature = store.blob(profile.signature_sha256) if profile.signature_sha256 else None
+    return dataclasses.replace(
+        notice,
+        reviewer=profile.name,
+        reviewer_designation=profile.designation,
+        reviewer_licence=profile.licence_number,
+        reviewer_phone=profile.phone,
+        reviewer_email=profile.email,
+        firm=profile.firm or notice.firm,
+        signature_png=signature,
+        seal=profile.seal,
+        page_size=profile.page_size,
+    )
 
 
 def _status_words(stage: Stage, cycle: int) -> str:
@@ -105,7 +169,7 @@ def issue_notice_for_site(
     site = store.site(site_id)
     number = store.next_notice_number(site)
     notice, ids = build_notice(store, site_id, number, issued_on=issued_on, only=only)
-    pdf = render_notice(notice)
+    pdf = render_notice(notice, stamp_hash=True)
     # the number is spent only once the PDF is safely written; if recording fails, the file goes too
     out.parent.mkdir(parents=True, exist_ok=True)
     write_atomic(out, pdf)
@@ -120,7 +184,7 @@ def issue_notice_for_site(
 def reissue(store: Store, previous: IssuedNotice, out: Path, change_note: str, issued_by: str) -> IssuedNotice:
     """A new revision of an issued notice that says what changed; the original stays on file."""
     notice, ids = build_notice(store, previous.site_id, previous.number, previous.revision + 1, change_note)
-    pdf = render_notice(notice)
+    pdf = render_notice(notice, stamp_hash=True)
     issued = store.issue_notice(
         previous.site_id,
         previous.number,
@@ -137,5 +201,68 @@ def reissue(store: Store, previous: IssuedNotice, out: Path, change_note: str, i
 
 
 def verify_pdf(store: Store, path: Path) -> IssuedNotice | None:
-    """The issued notice this PDF is exactly (by SHA-256), or None."""
-    return store.find_issued_by_hash(hashlib.sha256(path.read_bytes()).hexdigest())
+    """The issued notice this PDF is exactly, or None.
+
+    Two checks, both must hold: the file's SHA-256 is that of an issued notice on record, and the hash
+    the PDF carries (metadata and footer, see ``reports.stamp``) matches its bytes. Notices issued before
+    the embedded hash existed carry none and are checked against the record alone.
+    """
+    pdf = path.read_bytes()
+    found = store.find_issued_by_hash(hashlib.sha256(pdf).hexdigest())
+    if found is None:
+        return None
+    if stamp.META_PREFIX.encode() in pdf and stamp.embedded_hash(pdf) is None:
+        return None
+    return found
+
+
+def build_closeout(store: Store, site_id: str, number: str, issued_on: str | None = None) -> tuple[Notice, list[str]]:
+    """A close-out notice after a re-review: every item of the earlier notices, verified or still open, and new.
+
+    The outcome of each item is the re-review the reviewer recorded (status moves with their note and
+    evidence); still-open and new items print in full with their response boxes.
+    """
+    earlier = {i for n in store.notices(site_id) for i in n.deficiency_ids}
+    every = store.deficiencies(site_id)
+    rows: list[tuple[str, str, str]] = []
+    for d in sorted(every, key=lambda x: x.number):
+        last = next((e for e in reversed(store.history(d.id)) if e.cycle == d.cycle), None)
+        evidence = ""
+        if last is not None:
+            evidence = f"{last.at[:10]} {last.actor}: {last.note}".strip()
+            if last.evidence_sha256:
+                evidence += f" (evidence SHA-256 {last.evidence_sha256[:12]})"
+        if d.stage is Stage.verified:
+            outcome = "verified (closed)"
+        elif d.id not in earlier:
+            outcome = "new"
+        elif d.stage is Stage.corrected:
+            outcome = "reported corrected, not yet verified: still open"
+        else:
+            outcome = "still open" + (f" (cycle {d.cycle + 1})" if d.cycle else "")
+        if d.id in earlier or d.stage is not Stage.verified:
+            rows.append((d.number, outcome, evidence or "none recorded"))
+    notice, ids = build_notice(store, site_id, number, issued_on=issued_on)
+    notice = dataclasses.replace(notice, kind="close-out", closeout=rows, carried=[])
+    return notice, sorted({*ids, *(d.id for d in every if d.id in earlier)})
+
+
+def issue_closeout(
+    store: Store, site_id: str, out: Path, issued_by: str, issued_on: str | None = None
+) -> tuple[IssuedNotice, Path]:
+    """Issue a numbered close-out notice (a new document, revision of nothing), stored and hashed like any notice."""
+    site = store.site(site_id)
+    number = store.next_notice_number(site)
+    notice, ids = build_closeout(store, site_id, number, issued_on)
+    pdf = render_notice(notice, stamp_hash=True)
+    out.parent.mkdir(parents=True, exist_ok=True)
+    write_atomic(out, pdf)
+    try:
+        issued = store.issue_notice(
+            site_id, number, pdf, ids, issued_by, issued_on or time.strftime("%Y-%m-%d"),
+            change_note="close-out notice",
+        )  # fmt: skip
+    except BaseException:
+        out.unlink(missing_ok=True)
+        raise
+    return issued, out

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from dataclasses import dataclass, field, replace
 
 from core.models import Beam, BottomBracing, Restraint, TopBracing
@@ -33,6 +34,78 @@ class Sketch:
     braces_bottom_x: list[float]
     negative: list[tuple[float, float]]
     decking: bool
+    support_labels: list[str] = field(default_factory=list)  # "D/2" per support, from the gridline
+    title: str = ""  # "RB-5 · level Roof · grid D / 2-3"
+
+
+def ft_in(length_mm: float) -> str:
+    """A length in feet and inches to the nearest 1/4 in (7200 mm is 23 ft 7 1/2 in; 1 in = 25.4 mm exactly)."""
+    quarters = round(length_mm / 25.4 * 4)
+    feet, rest = divmod(quarters, 48)
+    inches, q = divmod(rest, 4)
+    frac = {0: "", 1: " 1/4", 2: " 1/2", 3: " 3/4"}[q]
+    return f"{feet}'-{inches}{frac}\""
+
+
+def support_names(gridline: str, supports: int) -> list[str]:
+    """Each support named by its gridline: 'D / 2-3' with 2 supports -> ['D/2', 'D/3']; [] when it cannot tell.
+
+    The gridline is read as a line and a range ('D / 2-3' or '2-3 / D'); the range must name exactly
+    one grid per support, otherwise the supports keep their numbers (S1, S2) rather than a guess.
+    """
+    parts = [x.strip() for x in gridline.replace("grid", "").split("/") if x.strip()]
+    if len(parts) != 2:
+        return []
+    line, span = (parts[0], parts[1]) if "-" in parts[1] else (parts[1], parts[0])
+    marks = [m.strip() for m in span.split("-") if m.strip()]
+    if "-" in line or len(marks) != supports:
+        return []
+    return [f"{line}/{m}" for m in marks]
+
+
+MILESTONES = {
+    "immediate": "now: make safe",
+    "before_loading": "before loading or concealment",
+    "before_next_review": "before the next review",
+    "observation": "for information: no action due",
+}
+
+
+def due_words(priority: str, due: str) -> str:
+    """What the item is due by: the date or milestone the reviewer set, else the milestone of its priority."""
+    return due.strip() or MILESTONES.get(priority, "before the next review")
+
+
+@dataclass(frozen=True)
+class Mark:
+    """One mark drawn on a photo: an arrow (tail -> head) or a ring (centre, radius); fractions of width/height."""
+
+    kind: str  # "arrow" or "ring"
+    x: float
+    y: float
+    x2: float = 0.0  # arrow head, or ring radius (fraction of the photo's shorter side) in x2
+    y2: float = 0.0
+
+
+@dataclass(frozen=True)
+class Photo:
+    """A photo on the notice: read only when it is drawn (``load``), captioned, with its marks."""
+
+    sha256: str
+    load: Callable[[], bytes] = field(compare=False, repr=False)
+    caption: str = ""
+    marks: tuple[Mark, ...] = ()
+
+
+@dataclass(frozen=True)
+class Check:
+    """One check of the recheck in a contractor-readable row: demand against capacity."""
+
+    name: str
+    demand: str
+    capacity: str
+    utilisation: float | None
+    clause: str
 
 
 @dataclass(frozen=True)
@@ -48,8 +121,14 @@ class Item:
     priority: str
     due: str
     key_numbers: list[tuple[str, str]]
-    photos: list[bytes] = field(default_factory=list)
+    photos: list[bytes | Photo] = field(default_factory=list)
     sketch: Sketch | None = None
+    member: str = ""  # the beam's id (groups items by member); "" for an item not on a beam
+    member_title: str = ""  # "RB-5 · Roof · grid D / 2-3"
+    checks: list[Check] = field(default_factory=list)
+    options: list[str] = field(default_factory=list)  # remedies: options for the engineer of record
+    status: str = "open"
+    member_photos: list[bytes | Photo] = field(default_factory=list)  # photos of the beam (shown once)
 
 
 @dataclass(frozen=True)
@@ -86,6 +165,39 @@ class Notice:
     change_note: str = ""
     cautions: tuple[str, ...] = CAUTIONS
     draft: bool = False  # a preview: marked on every page as not issued
+    owner: str = ""
+    reviewer_designation: str = ""  # "P.Eng." / "Building Official"
+    reviewer_licence: str = ""
+    reviewer_phone: str = ""
+    reviewer_email: str = ""
+    signature_png: bytes | None = None
+    seal: bool = False  # the firm's setting: print a seal block
+    page_size: str = "letter"  # "letter" or "a4", the firm's setting
+    kind: str = "deficiency"  # or "close-out"
+    closeout: list[tuple[str, str, str]] = field(default_factory=list)  # (number, outcome, evidence)
+
+
+def ordered(items: list[Item]) -> list[Item]:
+    """Items as the summary lists them: IMMEDIATE first, then by item number."""
+    return sorted(items, key=lambda i: (i.priority != "immediate", i.number))
+
+
+def by_member(items: list[Item]) -> list[list[Item]]:
+    """Items grouped by member (each beam once), in the order the summary first names the member."""
+    groups: dict[str, list[Item]] = {}
+    for i, item in enumerate(ordered(items)):
+        groups.setdefault(item.member or f"\x00{i}", []).append(item)
+    return list(groups.values())
+
+
+def one_line(text: str, limit: int = 90) -> str:
+    """The first sentence of a text, cut to ``limit`` characters (for the summary table)."""
+    first = text.strip().split("\n")[0]
+    for stop in (". ", "; "):
+        if stop in first:
+            first = first.split(stop)[0]
+            break
+    return first if len(first) <= limit else first[: limit - 1].rstrip() + "…"
 
 
 def sketch_for(beam: Beam) -> Sketch:
@@ -165,6 +277,36 @@ def key_numbers(result: Recheck) -> list[tuple[str, str]]:
     return out
 
 
+def checks_for(result: Recheck) -> list[Check]:
+    """Demand vs capacity and utilisation for every check (bending per region, shear, bearing, deflection)."""
+    out = []
+    for r in result.bending:
+        if r.outcome == "not_permitted":
+            cap = "not permitted as installed (CSA O86-19 slenderness limit)"
+        elif r.mr_knm is None:
+            cap = "not established (bearing restraint missing)"
+            if r.mr_if_restrained_knm is not None:
+                cap += f"; at most {r.mr_if_restrained_knm:.1f} kN·m if restrained"
+        else:
+            cap = f"Mr {r.mr_knm:.1f} kN·m"
+        out.append(
+            Check(f"bending, {r.region} ({r.sign} moment)", f"Mf {r.mf_knm:.1f} kN·m", cap, r.utilisation, r.clause)
+        )
+    s = result.shear
+    out.append(Check("shear", f"Vf {s.vf_kn:.1f} kN", f"Vr {s.vr_kn:.1f} kN", s.utilisation, s.clause))
+    for b in result.bearing:
+        out.append(
+            Check(
+                f"bearing, support {b.support}", f"Qf {b.qf_kn:.1f} kN", f"Qr {b.qr_kn:.1f} kN", b.utilisation, b.clause
+            )
+        )
+    d = result.deflection
+    out.append(
+        Check(f"deflection ({d.case})", f"{d.delta_mm:.1f} mm", f"limit {d.limit_mm:.1f} mm", d.utilisation, d.clause)
+    )
+    return out
+
+
 def remedy_numbers(beam: Beam | None, result: Recheck) -> list[tuple[str, str]]:
     """Options for the engineer of record: what would make each failing check pass (never a design)."""
     if beam is None or result.status.value == "ok":
@@ -176,12 +318,37 @@ def remedy_numbers(beam: Beam | None, result: Recheck) -> list[tuple[str, str]]:
 
 
 def item_for(
-    deficiency: Deficiency, beam: Beam | None, result: Recheck | None, observed: str, photos: list[bytes] | None = None
+    deficiency: Deficiency,
+    beam: Beam | None,
+    result: Recheck | None,
+    observed: str,
+    photos: list[bytes | Photo] | None = None,
+    member_title: str = "",
+    member_photos: list[bytes | Photo] | None = None,
+    status: str = "open",
+    gridline: str = "",
 ) -> Item:
     """Build a notice item from a deficiency and (when it concerns a beam) its recheck."""
+    sketch = None
+    location = deficiency.location
+    if beam is not None:
+        sketch = _sketch_with_regions(beam, result)
+        names = support_names(gridline, len(sketch.supports_x))
+        sketch = replace(sketch, support_labels=names, title=member_title or beam.mark)
+        for k, name in enumerate(names, start=1):  # "support 2" -> "support 2 (grid D/3)"
+            location = location.replace(f"support {k}", f"support {k} (grid {name})", 1)
+    options = []
+    if beam is not None and result is not None and result.status.value != "ok":
+        options = [r.message for r in remedies(beam, result)]
     return Item(
+        member=deficiency.beam_id or "",
+        member_title=member_title or (beam.mark if beam is not None else ""),
+        checks=checks_for(result) if result is not None else [],
+        options=options,
+        status=status,
+        member_photos=member_photos or [],
         number=deficiency.number,
-        location=deficiency.location,
+        location=location,
         observed=observed,
         finding=deficiency.description,
         reference=deficiency.reference,
@@ -190,7 +357,7 @@ def item_for(
         due=deficiency.due,
         key_numbers=(key_numbers(result) + remedy_numbers(beam, result)) if result is not None else [],
         photos=photos or [],
-        sketch=_sketch_with_regions(beam, result) if beam is not None else None,
+        sketch=sketch,
     )
 
 
@@ -218,6 +385,7 @@ def header_from(
         "reviewer": visit.reviewer if visit else "",
         "firm": site.firm,
         "addressed_to": site.contractor,
+        "owner": site.owner,
         "distribution": distribution,
         "weather": visit.weather if visit else "",
         "scope_reviewed": visit.scope_reviewed if visit else "",

@@ -3,8 +3,15 @@
 from __future__ import annotations
 
 import io
+import math
+from collections.abc import Callable
+from typing import Any
 
 from PIL import Image, ImageOps
+from reportlab.lib import colors
+from reportlab.lib.units import mm
+from reportlab.lib.utils import ImageReader
+from reportlab.platypus import Flowable, Paragraph
 
 MAX_EDGE_PX = 900
 JPEG_QUALITY = 72
@@ -23,3 +30,75 @@ def prepare_photo(content: bytes, max_edge_px: int = MAX_EDGE_PX) -> tuple[bytes
         out = io.BytesIO()
         rgb.save(out, "JPEG", quality=JPEG_QUALITY, optimize=True)
         return out.getvalue(), rgb.width, rgb.height
+
+
+class PhotoFlowable(Flowable):
+    """A photo in a fixed box with its caption: read, downscaled and drawn only when its page is drawn.
+
+    Nothing of the photo is held before or after: the bytes are loaded in ``draw``, the downscaled JPEG
+    is embedded as is (DCT pass-through), and the decoded pixels reportlab computes to name the image are
+    dropped with the reader when ``draw`` returns, so a notice's memory does not grow with its photos.
+    The reviewer's marks (arrows, rings) are drawn over the photo as vectors; the photo is not altered.
+    """
+
+    def __init__(
+        self, load: Callable[[], bytes], caption: str, marks: tuple[Any, ...], style: Any, box_w: float, box_h: float
+    ):
+        super().__init__()
+        self._load = load
+        self._marks = marks
+        self._caption = Paragraph(caption, style)
+        self._box_w, self._box_h = box_w, box_h
+        self._cap_h = 0.0
+
+    def wrap(self, avail_w: float, avail_h: float) -> tuple[float, float]:  # noqa: ARG002 (Flowable.wrap)
+        """A fixed box plus the caption's height."""
+        self._cap_h = self._caption.wrap(self._box_w, avail_h)[1]
+        return self._box_w, self._box_h + 2 + self._cap_h
+
+    def draw(self) -> None:
+        """Load, downscale, draw, mark; then let everything go."""
+        jpeg, w, h = prepare_photo(self._load())
+        scale = min(self._box_w / w, self._box_h / h)
+        dw, dh = w * scale, h * scale
+        x0, y0 = 0.0, self._cap_h + 2 + (self._box_h - dh)
+        reader = ImageReader(io.BytesIO(jpeg))
+        self.canv.drawImage(reader, x0, y0, dw, dh)
+        reader._data = None  # the decoded RGB reportlab keeps for the image's name
+        reader._image = None
+        del reader, jpeg
+        for m in self._marks:
+            _draw_mark(self.canv, m, x0, y0, dw, dh)
+        self._caption.drawOn(self.canv, 0, 0)
+
+
+def _draw_mark(c: Any, m: Any, x0: float, y0: float, w: float, h: float) -> None:
+    """An arrow or a ring, black with a white halo so it reads on any photo and in black and white."""
+    x, y = x0 + m.x * w, y0 + (1 - m.y) * h
+    for colour, width in ((colors.white, 3.2), (colors.black, 1.4)):
+        c.setStrokeColor(colour)
+        c.setFillColor(colour)
+        c.setLineWidth(width)
+        if m.kind == "ring":
+            c.circle(x, y, max(3.0, m.x2 * min(w, h)), stroke=1, fill=0)
+        else:
+            hx, hy = x0 + m.x2 * w, y0 + (1 - m.y2) * h
+            c.line(x, y, hx, hy)
+            ang = math.atan2(hy - y, hx - x)
+            for da in (2.6, -2.6):
+                c.line(hx, hy, hx + 6 * math.cos(ang + da), hy + 6 * math.sin(ang + da))
+    c.setStrokeColor(colors.black)
+    c.setFillColor(colors.black)
+
+
+def photo_flowable(
+    photo: Any, number: int, style: Any, box_w: float = 55 * mm, box_h: float = 41 * mm
+) -> PhotoFlowable:
+    """A photo (raw bytes or a ``reports.content.Photo``) with its caption ("Photo n: ...")."""
+    from reports.render import esc
+
+    if isinstance(photo, bytes):
+        data = photo
+        return PhotoFlowable(lambda: data, f"Photo {number}", (), style, box_w, box_h)
+    caption = f"Photo {number}" + (f": {esc(photo.caption)}" if photo.caption else "")
+    return PhotoFlowable(photo.load, caption, tuple(photo.marks), style, box_w, box_h)

@@ -8,7 +8,7 @@ from typing import Any
 
 from reportlab import rl_config
 from reportlab.lib import colors
-from reportlab.lib.pagesizes import LETTER
+from reportlab.lib.pagesizes import A4, LETTER
 from reportlab.lib.styles import ParagraphStyle
 from reportlab.lib.units import mm
 from reportlab.pdfbase import pdfmetrics
@@ -17,6 +17,7 @@ from reportlab.pdfgen import canvas as rl_canvas
 from reportlab.platypus import (
     Image,
     KeepTogether,
+    PageBreak,
     Paragraph,
     SimpleDocTemplate,
     Spacer,
@@ -25,8 +26,9 @@ from reportlab.platypus import (
 )
 
 from core.results import Recheck
-from reports.content import Item, Notice
-from reports.photos import prepare_photo
+from reports import stamp
+from reports.content import Item, Notice, Photo, by_member, due_words, one_line, ordered
+from reports.photos import photo_flowable
 from reports.sketch import FONT, beam_sketch
 from reports.textrun import markup
 
@@ -35,6 +37,7 @@ from reports.textrun import markup
 rl_config.useA85 = 0
 
 FONT_BOLD = "BWSans-Bold"
+HASH_FONT = "Courier"  # a standard font: the hash digits stay literal bytes in the page (see reports.stamp)
 PRIORITY_WORDS = {
     "immediate": "IMMEDIATE: make safe now",
     "before_loading": "Before loading or concealment",
@@ -42,6 +45,14 @@ PRIORITY_WORDS = {
     "observation": "Observation",
 }
 PRIORITY_MARKERS = {"immediate": "▲", "before_loading": "●", "before_next_review": "○", "observation": "○"}
+
+
+SHORT_PRIORITY = {
+    "immediate": "▲ IMMEDIATE",
+    "before_loading": "● before loading",
+    "before_next_review": "○ next review",
+    "observation": "○ observation",
+}
 
 
 def priority_label(priority: str) -> str:
@@ -64,10 +75,16 @@ def esc(text: object) -> str:
     return markup(text, FONT)
 
 
+PAGE_SIZES = {"letter": LETTER, "a4": A4}
+WIDTH = 174 * mm  # the text width on both Letter and A4 (18 mm margins on A4)
+GREY = colors.Color(0.93, 0.93, 0.93)
+
+
 class NumberedCanvas(rl_canvas.Canvas):
-    """Canvas that prints 'page X of Y' and the notice number on every page."""
+    """Canvas that prints 'page X of Y', the notice number and the hash short form on every page."""
 
     footer_left = ""
+    footer_right = ""  # e.g. the SHA-256 short form of an issued notice
     draft = False
 
     def __init__(self, *args: Any, **kwargs: Any):
@@ -85,14 +102,16 @@ class NumberedCanvas(rl_canvas.Canvas):
         total = len(self._pages)
         for state in self._pages:
             self.__dict__.update(state)
-            self.setFont(FONT, 7.5)
+            width, height = self._pagesize
+            self.setFont(FONT, 8)
             self.drawString(18 * mm, 10 * mm, self.footer_left)
-            self.drawRightString(LETTER[0] - 18 * mm, 10 * mm, f"page {self._pageNumber} of {total}")
+            self.drawRightString(width - 18 * mm, 10 * mm, f"page {self._pageNumber} of {total}")
+            if self.footer_right:
+                self.setFont(HASH_FONT, 8)
+                self.drawCentredString(width / 2 + 20 * mm, 10 * mm, self.footer_right)
             if self.draft:
                 self.setFont(FONT_BOLD, 11)
-                self.setFillColor(colors.red)
-                self.drawCentredString(LETTER[0] / 2, LETTER[1] - 9 * mm, "DRAFT PREVIEW: NOT ISSUED, NOT FOR USE")
-                self.setFillColor(colors.black)
+                self.drawCentredString(width / 2, height - 9 * mm, "DRAFT PREVIEW: NOT ISSUED, NOT FOR USE")
             super().showPage()
         super().save()
 
@@ -102,16 +121,17 @@ def _styles() -> dict[str, ParagraphStyle]:
     base = ParagraphStyle("base", fontName=FONT, fontSize=9, leading=11.5, wordWrap="CJK")
     return {
         "base": base,
-        "small": ParagraphStyle("small", parent=base, fontSize=7.5, leading=9.5),
+        "small": ParagraphStyle("small", parent=base, fontSize=8, leading=10),
         "title": ParagraphStyle("title", parent=base, fontName=FONT_BOLD, fontSize=15, leading=19),
         "h2": ParagraphStyle("h2", parent=base, fontName=FONT_BOLD, fontSize=11, leading=14, spaceBefore=6),
+        "h3": ParagraphStyle("h3", parent=base, fontName=FONT_BOLD, fontSize=10, leading=13, spaceBefore=4),
         "bold": ParagraphStyle("bold", parent=base, fontName=FONT_BOLD),
     }
 
 
-def _grid(rows: list[list[Any]], widths: list[float], shade_first_col: bool = True) -> Table:
+def _grid(rows: list[list[Any]], widths: list[float], shade_first_col: bool = True, repeat: int = 0) -> Table:
     # splitInRow: a cell taller than a page (a long description) continues on the next page
-    t = Table(rows, colWidths=widths, splitInRow=1)
+    t = Table(rows, colWidths=widths, splitInRow=1, repeatRows=repeat)
     style = [
         ("GRID", (0, 0), (-1, -1), 0.4, colors.grey),
         ("VALIGN", (0, 0), (-1, -1), "TOP"),
@@ -119,109 +139,281 @@ def _grid(rows: list[list[Any]], widths: list[float], shade_first_col: bool = Tr
         ("RIGHTPADDING", (0, 0), (-1, -1), 3),
     ]
     if shade_first_col:
-        style.append(("BACKGROUND", (0, 0), (0, -1), colors.Color(0.93, 0.93, 0.93)))
+        style.append(("BACKGROUND", (0, 0), (0, -1), GREY))
     t.setStyle(TableStyle(style))
     return t
 
 
-def _header(n: Notice, st: dict[str, ParagraphStyle]) -> list[Any]:
+def _rows(pairs: list[tuple[str, str]], st: dict[str, ParagraphStyle]) -> list[list[Any]]:
+    return [[Paragraph(esc(k), st["bold"]), Paragraph(esc(v), st["base"])] for k, v in pairs]
+
+
+def _contact(n: Notice) -> str:
+    return " · ".join(x for x in (n.reviewer_phone, n.reviewer_email) if x)
+
+
+def _first_page(n: Notice, st: dict[str, ParagraphStyle]) -> list[Any]:
+    """Page 1: to whom, from whom, the site, the visit, the scope, and the summary of every item."""
     p = st["base"]
     rev = f" rev {n.revision}" if n.revision else ""
-    story: list[Any] = [
-        Paragraph(f"Field review: deficiency notice {esc(n.notice_number)}{rev}", st["title"]),
-        Spacer(1, 4),
-    ]
-    rows = [
-        ["Site", Paragraph(esc(n.site_name), p), "Notice", Paragraph(esc(n.notice_number + rev), p)],
-        ["Address", Paragraph(esc(n.address), p), "Issued", Paragraph(esc(n.issued_on), p)],
-        ["Permit no.", Paragraph(esc(n.permit_number), p), "Visit", Paragraph(esc(n.visit_at), p)],
-        ["Project no.", Paragraph(esc(n.project_number), p), "Weather", Paragraph(esc(n.weather), p)],
-        ["Reviewer", Paragraph(esc(n.reviewer), p), "Firm", Paragraph(esc(n.firm), p)],
-        ["To", Paragraph(esc(n.addressed_to), p), "Copies", Paragraph(esc(", ".join(n.distribution)), p)],
-    ]
-    rows = [[Paragraph(c, st["bold"]) if isinstance(c, str) else c for c in r] for r in rows]
-    t = _grid(rows, [22 * mm, 68 * mm, 20 * mm, 68 * mm])
-    t.setStyle(TableStyle([("BACKGROUND", (2, 0), (2, -1), colors.Color(0.93, 0.93, 0.93))]))
-    story += [t, Spacer(1, 4)]
-    if n.change_note:
-        story.append(Paragraph(f"<b>Revision:</b> {esc(n.change_note)}", p))
-    story.append(Paragraph(f"<b>Scope reviewed:</b> {esc(n.scope_reviewed)}", p))
-    story.append(Paragraph(f"<b>Not reviewed:</b> {esc(n.scope_not_reviewed)}", p))
-    immediate = sum(1 for i in n.items if i.priority == "immediate")
+    kind = "Close-out notice" if n.kind == "close-out" else "Deficiency notice"
+    story: list[Any] = [Paragraph(f"{kind} {esc(n.notice_number)}{esc(rev)}", st["title"]), Spacer(1, 4)]
+    immediate = [i for i in n.items if i.priority == "immediate"]
     if immediate:
-        story.append(Spacer(1, 4))
-        box = Table(
-            [
-                [
-                    Paragraph(
-                        f"<b>{immediate} IMMEDIATE item(s):</b> make the area safe now (keep loads off, "
-                        "shore or brace) and tell the contractor on site before this notice arrives.",
-                        st["base"],
-                    )
-                ]
-            ],
-            colWidths=[178 * mm],
+        story += [_immediate_box(len(immediate), st), Spacer(1, 4)]
+    to = [("Owner", n.owner or "not recorded"), ("Contractor", n.addressed_to or "not recorded")]
+    to.append(("Copies", ", ".join(n.distribution) or "none"))
+    licence = ", ".join(
+        x for x in (n.reviewer_designation, f"licence {n.reviewer_licence}" if n.reviewer_licence else "") if x
+    )
+    sender = [
+        ("Reviewer", n.reviewer + (f", {licence}" if licence else "")),
+        ("Firm", n.firm),
+        ("Contact", _contact(n) or "not recorded"),
+    ]
+    left = _grid(_rows(to, st), [22 * mm, 63 * mm])
+    right = _grid(_rows(sender, st), [22 * mm, 63 * mm])
+    pair = Table(
+        [[Paragraph("To", st["h3"]), Paragraph("From", st["h3"])], [left, right]], colWidths=[87 * mm, 87 * mm]
+    )
+    pair.setStyle(TableStyle([("LEFTPADDING", (0, 0), (-1, -1), 0), ("VALIGN", (0, 0), (-1, -1), "TOP")]))
+    story.append(pair)
+    site = [
+        ["Site", Paragraph(esc(n.site_name), p), "Visit", Paragraph(esc(n.visit_at), p)],
+        ["Address", Paragraph(esc(n.address), p), "Issued", Paragraph(esc(n.issued_on), p)],
+        ["Permit no.", Paragraph(esc(n.permit_number), p), "Weather", Paragraph(esc(n.weather), p)],
+        ["Project no.", Paragraph(esc(n.project_number), p), "Notice", Paragraph(esc(n.notice_number + rev), p)],
+    ]
+    site = [[Paragraph(c, st["bold"]) if isinstance(c, str) else c for c in r] for r in site]
+    t = _grid(site, [22 * mm, 65 * mm, 20 * mm, 67 * mm])
+    t.setStyle(TableStyle([("BACKGROUND", (2, 0), (2, -1), GREY)]))
+    story += [Spacer(1, 4), t, Spacer(1, 4)]
+    if n.change_note:
+        story.append(Paragraph(f"<b>What changed in rev {n.revision}:</b> {esc(n.change_note)}", p))
+    story.append(Paragraph(f"<b>Scope reviewed:</b> {esc(n.scope_reviewed or 'not recorded')}", p))
+    story.append(Paragraph(f"<b>Not reviewed:</b> {esc(n.scope_not_reviewed or 'not recorded')}", p))
+    who = f"{n.reviewer}" + (f" ({_contact(n)})" if _contact(n) else "")
+    story.append(
+        Paragraph(
+            "<b>What to do:</b> complete each item by its due date or milestone, write the action taken, the date "
+            f"and your name in the item's response box, then call {esc(who)} for a re-review. Do not conceal "
+            "work that an open item concerns before it has been re-reviewed.",
+            p,
         )
-        box.setStyle(
-            TableStyle(
-                [
-                    ("BOX", (0, 0), (-1, -1), 2, colors.black),
-                    ("BACKGROUND", (0, 0), (-1, -1), colors.Color(1, 0.9, 0.85)),
-                ]
-            )
-        )
-        story.append(box)
+    )
+    story += [Spacer(1, 4), Paragraph("Summary of items", st["h2"])]
+    story.append(_summary(n, st))
     return story
 
 
-def _item(item: Item, st: dict[str, ParagraphStyle]) -> KeepTogether:
+def _immediate_box(count: int, st: dict[str, ParagraphStyle]) -> Table:
+    box = Table(
+        [
+            [
+                Paragraph(
+                    f"<b>▲ {count} IMMEDIATE item(s):</b> make the area safe now (keep loads off, shore or brace) "
+                    "and tell the contractor on site before this notice arrives.",
+                    st["base"],
+                )
+            ]
+        ],
+        colWidths=[WIDTH],
+    )
+    box.setStyle(TableStyle([("BOX", (0, 0), (-1, -1), 2, colors.black)]))
+    return box
+
+
+def _summary(n: Notice, st: dict[str, ParagraphStyle]) -> Table:
+    """Every item in one table: IMMEDIATE first and boxed, then by number."""
+    s = st["small"]
+    words = ParagraphStyle("words", parent=s, wordWrap=None)  # break between words only
+    bold = ParagraphStyle("pb", parent=words, fontName=FONT_BOLD)
+    head = ["No.", "Location", "What is wrong", "Priority", "Due", "Status"]
+    rows: list[list[Any]] = [[Paragraph(h, st["bold"]) for h in head]]
+    items = ordered(n.items)
+    for i in items:
+        rows.append(
+            [
+                Paragraph(esc(i.number), s),
+                Paragraph(esc(i.location), s),
+                Paragraph(esc(one_line(i.finding, 80)), s),
+                Paragraph(esc(SHORT_PRIORITY.get(i.priority, i.priority)), bold),
+                Paragraph(esc(due_words(i.priority, i.due)), words),
+                Paragraph(esc(i.status), words),
+            ]
+        )
+    if not items:
+        rows.append([Paragraph("No open deficiencies.", s), "", "", "", "", ""])
+    t = _grid(rows, [21 * mm, 34 * mm, 48 * mm, 27 * mm, 29 * mm, 15 * mm], shade_first_col=False, repeat=1)
+    style: list[Any] = [("BACKGROUND", (0, 0), (-1, 0), GREY)]
+    n_imm = sum(1 for i in items if i.priority == "immediate")
+    if n_imm:
+        style.append(("BOX", (0, 1), (-1, n_imm), 2, colors.black))
+    t.setStyle(TableStyle(style))
+    return t
+
+
+def _photo_cells(photos: list[bytes | Photo], st: dict[str, ParagraphStyle]) -> list[Any]:
+    cells = []
+    for k, ph in enumerate(photos[:3]):
+        cells.append(photo_flowable(ph, k + 1, st["small"]))
+    return cells
+
+
+def _member_block(group: list[Item], st: dict[str, ParagraphStyle]) -> list[Any]:
+    """One beam: its description, sketch, photos and recheck once, then each of its items."""
+    first = group[0]
     p = st["base"]
-    rows = [
-        [Paragraph("Location", st["bold"]), Paragraph(esc(item.location), p)],
-        [Paragraph("Observed", st["bold"]), Paragraph(esc(item.observed), p)],
-        [Paragraph("Finding", st["bold"]), Paragraph(esc(item.finding), p)],
-        [Paragraph("Reference", st["bold"]), Paragraph(esc(item.reference), p)],
-        [Paragraph("Required action", st["bold"]), Paragraph(esc(item.action), p)],
-        [Paragraph("Priority", st["bold"]), Paragraph(esc(priority_label(item.priority)), st["bold"])],
-        [Paragraph("Due", st["bold"]), Paragraph(esc(item.due or PRIORITY_WORDS.get(item.priority, "")), p)],
+    out: list[Any] = [Spacer(1, 6)]
+    head: list[Any] = []
+    if first.member:
+        numbers = ", ".join(i.number for i in group)
+        head.append(Paragraph(f"Member {esc(first.member_title or first.location)}: {esc(numbers)}", st["h2"]))
+        head.append(_grid(_rows([("As built", first.observed)], st), [30 * mm, 144 * mm]))
+        if first.sketch is not None:
+            head.append(beam_sketch(first.sketch, width_pt=WIDTH, height_pt=44 * mm))
+        photos = first.member_photos
+        if photos:
+            head.append(Table([_photo_cells(photos, st)], hAlign="LEFT"))
+        out.append(KeepTogether(head))
+        if first.checks:
+            out.append(_engineering(first, st))
+    for item in group:
+        rows = [("Location", item.location)]
+        if not item.member:  # a member's block already describes what was observed
+            rows.append(("Observed", item.observed))
+        rows += [
+            ("Finding", item.finding),
+            ("Reference", item.reference),
+            ("Required action", item.action),
+        ]
+        grid_rows = _rows(rows, st)
+        grid_rows.append([Paragraph("Priority", st["bold"]), Paragraph(esc(priority_label(item.priority)), st["bold"])])
+        grid_rows.append([Paragraph("Due", st["bold"]), Paragraph(esc(due_words(item.priority, item.due)), p)])
+        grid_rows.append(
+            [
+                Paragraph("Response", st["bold"]),
+                Paragraph(
+                    "Action taken: ______________________________________________<br/><br/>"
+                    "Date: ______________  Name: ______________________________",
+                    p,
+                ),
+            ]
+        )
+        parts: list[Any] = [
+            Spacer(1, 4),
+            Paragraph(f"Item {esc(item.number)}", st["h3"]),
+            _grid(grid_rows, [30 * mm, 144 * mm]),
+        ]
+        if not item.member and item.sketch is not None:
+            parts.append(beam_sketch(item.sketch, width_pt=WIDTH, height_pt=44 * mm))
+        if not item.member and item.checks:
+            parts.append(_engineering(item, st))
+        if item.photos:
+            parts.append(Table([_photo_cells(item.photos, st)], hAlign="LEFT"))
+        out.append(KeepTogether(parts))
+    return out
+
+
+def _engineering(item: Item, st: dict[str, ParagraphStyle]) -> KeepTogether:
+    """The numbers that matter, for the engineer of record: demand vs capacity, utilisation, options."""
+    s = st["small"]
+    bold = ParagraphStyle("sb", parent=s, fontName=FONT_BOLD)
+    rows: list[list[Any]] = [
+        [Paragraph(h, st["bold"]) for h in ("Check", "Demand", "Capacity", "Utilisation", "Clause")]
     ]
-    if item.key_numbers:
-        nums = "<br/>".join(f"{esc(k)}: {esc(v)}" for k, v in item.key_numbers)
-        rows.append([Paragraph("Recheck", st["bold"]), Paragraph(nums, st["small"])])
-    parts: list[Any] = [Spacer(1, 6), Paragraph(f"Item {esc(item.number)}", st["h2"]), _grid(rows, [30 * mm, 148 * mm])]
-    if item.sketch is not None:
-        parts.append(beam_sketch(item.sketch, width_pt=178 * mm, height_pt=30 * mm))
-    if item.photos:
-        cells = []
-        for content in item.photos[:3]:
-            jpeg, w, h = prepare_photo(content)
-            scale = min(55 * mm / w, 40 * mm / h)
-            cells.append(Image(io.BytesIO(jpeg), width=w * scale, height=h * scale))
-        parts.append(Table([cells], hAlign="LEFT"))
+    for c in item.checks:
+        if c.utilisation is None:
+            util, style = "not established, taken as failing", bold
+        else:
+            fails = c.utilisation > 1.0
+            util, style = f"{c.utilisation:.2f}" + (" FAILS" if fails else " ok"), (bold if fails else s)
+        rows.append(
+            [
+                Paragraph(esc(c.name), s),
+                Paragraph(esc(c.demand), s),
+                Paragraph(esc(c.capacity), s),
+                Paragraph(esc(util), style),
+                Paragraph(esc(c.clause), s),
+            ]
+        )
+    parts: list[Any] = [
+        Paragraph("Engineering detail (for the engineer of record)", st["h3"]),
+        _grid(rows, [38 * mm, 26 * mm, 46 * mm, 32 * mm, 32 * mm], shade_first_col=False),
+    ]
+    if item.options:
+        parts.append(Paragraph("<b>Options that would make it pass (for the engineer of record; not a design):</b>", s))
+        parts += [Paragraph("• " + esc(o), s) for o in item.options]
     return KeepTogether(parts)
 
 
-def render_notice(n: Notice) -> bytes:
-    """Render a deficiency notice to PDF bytes (same content gives the same bytes)."""
+def _signature(n: Notice, st: dict[str, ParagraphStyle]) -> KeepTogether:
+    p = st["base"]
+    licence = ", ".join(
+        x for x in (n.reviewer_designation, f"licence {n.reviewer_licence}" if n.reviewer_licence else "") if x
+    )
+    if n.signature_png:
+        from reportlab.lib.utils import ImageReader
+
+        reader = ImageReader(io.BytesIO(n.signature_png))
+        w, h = reader.getSize()
+        scale = min(60 * mm / w, 18 * mm / h)
+        sig: Any = Image(io.BytesIO(n.signature_png), width=w * scale, height=h * scale, hAlign="LEFT")
+    else:
+        sig = Paragraph("(no signature image set up)", st["small"])
+    lines = Paragraph(
+        "<br/>".join(esc(x) for x in (n.reviewer, licence, n.firm, _contact(n), f"Date: {n.issued_on}") if x), p
+    )
+    cols: list[Any] = [[Paragraph("Reviewer", st["bold"]), sig, lines]]
+    widths = [24 * mm, 66 * mm, 84 * mm]
+    if n.seal:
+        cols = [[cols[0][0], sig, lines, Paragraph("Seal", st["bold"])]]
+        widths = [24 * mm, 60 * mm, 56 * mm, 34 * mm]
+    t = _grid(cols, widths)
+    t.setStyle(TableStyle([("VALIGN", (0, 0), (-1, -1), "MIDDLE"), ("BOTTOMPADDING", (0, 0), (-1, -1), 10)]))
+    return KeepTogether([Paragraph("Signed", st["h2"]), t])
+
+
+def render_notice(n: Notice, stamp_hash: bool = False) -> bytes:
+    """Render a notice to PDF bytes (same content gives the same bytes).
+
+    With ``stamp_hash`` the PDF carries its own SHA-256 (see ``reports.stamp``): in the metadata and,
+    in short form, in every page footer.
+    """
     st = _styles()
     buf = io.BytesIO()
+    kind = "Close-out notice" if n.kind == "close-out" else "Deficiency notice"
+    rev = f" rev {n.revision}" if n.revision else ""
     doc = SimpleDocTemplate(
         buf,
-        pagesize=LETTER,
+        pagesize=PAGE_SIZES.get(n.page_size, LETTER),
         leftMargin=18 * mm,
         rightMargin=18 * mm,
         topMargin=15 * mm,
         bottomMargin=18 * mm,
-        title=f"Deficiency notice {n.notice_number}",
+        title=f"{kind} {n.notice_number}{rev}, {n.site_name}",
         author=n.reviewer,
+        subject=f"{kind} to {n.addressed_to}",
+        keywords=stamp.placeholder_keywords() if stamp_hash else "",
+        lang="en",
+        displayDocTitle=1,
         invariant=1,
+        pageCompression=0 if stamp_hash else None,
     )
-    story = _header(n, st)
-    story.append(Paragraph("Deficiency items", st["h2"]))
-    if not n.items:
-        story.append(Paragraph("No open deficiencies.", st["base"]))
-    for item in n.items:
-        story.append(_item(item, st))
+    story = _first_page(n, st)
+    if n.closeout:
+        story.append(Paragraph("Re-review outcome per item", st["h2"]))
+        rows = [[Paragraph(h, st["bold"]) for h in ("Item", "Outcome", "Evidence")]]
+        rows += [
+            [Paragraph(esc(a), st["base"]), Paragraph(esc(b), st["bold"]), Paragraph(esc(c), st["base"])]
+            for a, b, c in n.closeout
+        ]
+        story.append(_grid(rows, [28 * mm, 40 * mm, 106 * mm], shade_first_col=False, repeat=1))
+    if n.items:
+        story.append(PageBreak())
+        story.append(Paragraph("Items by member", st["h2"]))
+        for group in by_member(n.items):
+            story += _member_block(group, st)
     if n.carried:
         story.append(Paragraph("Items carried forward from earlier notices", st["h2"]))
         rows = [[Paragraph(h, st["bold"]) for h in ("Item", "Location", "Description", "Status")]]
@@ -234,30 +426,21 @@ def render_notice(n: Notice) -> bytes:
             ]
             for c in n.carried
         ]
-        story.append(_grid(rows, [28 * mm, 40 * mm, 80 * mm, 30 * mm], shade_first_col=False))
+        story.append(_grid(rows, [28 * mm, 40 * mm, 76 * mm, 30 * mm], shade_first_col=False))
     story.append(Paragraph("Cautions", st["h2"]))
     for c in n.cautions:
         story.append(Paragraph("• " + esc(c), st["small"]))
-    sig = _grid(
-        [
-            [Paragraph("Reviewer signature", st["bold"]), "", Paragraph("Seal", st["bold"])],
-            [Paragraph(esc(n.reviewer), st["base"]), Paragraph("Date: " + esc(n.issued_on), st["base"]), ""],
-        ],
-        [70 * mm, 60 * mm, 48 * mm],
-        shade_first_col=False,
-    )
-    sig.setStyle(
-        TableStyle([("ROWBACKGROUNDS", (0, 0), (-1, -1), [colors.white]), ("TOPPADDING", (0, 1), (-1, 1), 28)])
-    )
-    story += [Spacer(1, 8), KeepTogether([Paragraph("Authentication", st["h2"]), sig])]
-    footer = f"{n.notice_number} · {n.site_name}"
+    story += [Spacer(1, 8), _signature(n, st)]
+    footer = f"{n.notice_number}{rev} · {n.site_name}"
 
     class _Canvas(NumberedCanvas):
         footer_left = footer
+        footer_right = stamp.placeholder_footer() if stamp_hash else ""
         draft = n.draft
 
     doc.build(story, canvasmaker=_Canvas)
-    return buf.getvalue()
+    pdf = buf.getvalue()
+    return stamp.stamp(pdf) if stamp_hash else pdf
 
 
 def render_recheck_sheet(mark: str, beam_json: dict[str, Any], result: Recheck, site_name: str = "") -> bytes:

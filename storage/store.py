@@ -11,7 +11,7 @@ from pathlib import Path
 from typing import Any
 
 from core.models import Beam
-from core.records import Deficiency, IssuedNotice, Site, Stage, StatusEvent, Visit
+from core.records import Deficiency, IssuedNotice, ReviewerProfile, Site, Stage, StatusEvent, Visit
 from core.results import PRIORITY_ORDER
 from storage.clock import hlc_receive, hlc_tick, uuid7
 from storage.db import PROJECTIONS, SCHEMA_VERSION, SET_ENTITIES, connect, transaction
@@ -93,6 +93,16 @@ class Store:
         with transaction(self.db):
             self._set_meta("device_user", name.strip())
             self._set_meta("device_role", role)
+
+    def reviewer_profile(self) -> ReviewerProfile | None:
+        """The reviewer this device signs notices for (issue 13), or None until set up. Never synced."""
+        raw = self._meta().get("reviewer_profile")
+        return ReviewerProfile.model_validate_json(raw) if raw else None
+
+    def set_reviewer_profile(self, profile: ReviewerProfile) -> None:
+        """Set up (or change) the signing reviewer of this device."""
+        with transaction(self.db):
+            self._set_meta("reviewer_profile", profile.model_dump_json())
 
     @property
     def firm_key(self) -> bytes:
@@ -432,6 +442,31 @@ class Store:
                 "caption": caption,
             },
             kind="insert",
+        )
+        return pid
+
+    def mark_photo(self, site_id: str, photo_id: str, marks: list[dict[str, Any]]) -> str:
+        """Record arrows/rings drawn on a photo as data beside it (issue 13); returns the new record's id.
+
+        A new insert-only photo record naming the same blob, with ``marks`` and ``marks_of``; the original
+        record and its bytes are untouched. Each mark: kind "arrow" (x, y tail -> x2, y2 head) or "ring"
+        (x, y centre, x2 radius), fractions 0-1 of the photo.
+        """
+        original = next((p for p in self.photos(site_id) if p["id"] == photo_id), None)
+        if original is None:
+            raise KeyError(f"photo {photo_id!r} is not a photo of site {site_id!r}")
+        for m in marks:
+            if m.get("kind") not in ("arrow", "ring"):
+                raise ValueError(f"photo mark kind {m.get('kind')!r}; allowed: arrow, ring")
+            for k in ("x", "y", "x2", "y2"):
+                v = m.get(k, 0.0)
+                if not isinstance(v, int | float) or not 0.0 <= v <= 1.0:
+                    raise ValueError(f"photo mark {k} = {v!r}; allowed: a fraction of the photo from 0 to 1")
+        pid = uuid7()
+        fields = {k: original.get(k) for k in ("site_id", "sha256", "mime", "beam_id", "deficiency_id", "caption")}
+        clean = [{k: m.get(k, 0.0) for k in ("kind", "x", "y", "x2", "y2")} for m in marks]
+        self.save(
+            "photo", pid, {**fields, "marks": clean, "marks_of": original.get("marks_of") or photo_id}, kind="insert"
         )
         return pid
 

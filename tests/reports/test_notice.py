@@ -59,7 +59,7 @@ def _notice(items, **over):
     return Notice(**data)
 
 
-def _item(text="RB-5 at support 2", n=1, photos=None):
+def _item(text="RB-5 at support 2", n=1, photos=None, beam_id="b1"):
     beam = glulam(
         bearings=[
             {"lateral": True, "rotation": True, "length_mm": 140},
@@ -71,6 +71,7 @@ def _item(text="RB-5 at support 2", n=1, photos=None):
     d = Deficiency(
         id=f"d{n}",
         site_id="s",
+        beam_id=beam_id,
         number=f"D-AB12-{n:03d}",
         code=f.code,
         priority=f.priority.value,
@@ -112,7 +113,8 @@ def test_header_items_cautions_and_page_numbers():
 def test_not_established_recheck_numbers_printed():
     item, r = _item()
     text = text_of(render_notice(_notice([item]))).replace("\n", " ")
-    assert "KL not established" in text
+    assert "not established (bearing restraint missing)" in text
+    assert "not established, taken as failing" in text  # unseen restraint taken as the unfavourable case
     assert f"Mf {r.bending[0].mf_knm:.1f}" in text
 
 
@@ -132,7 +134,8 @@ def test_kl_cb_mr_values_match_recheck():
     )
     text = text_of(render_notice(_notice([item_for(d, beam, r, "obs")]))).replace("\n", " ")
     b = r.bending[0]
-    assert f"KL {b.kl:.3f}, CB {b.cb:.2f}, Mr {b.mr_knm:.1f}" in text
+    assert f"Mf {b.mf_knm:.1f} kN·m Mr {b.mr_knm:.1f} kN·m {b.utilisation:.2f}" in text  # demand, capacity, ratio
+    assert f"Vf {r.shear.vf_kn:.1f} kN Vr {r.shear.vr_kn:.1f} kN {r.shear.utilisation:.2f}" in text
 
 
 @pytest.mark.parametrize(
@@ -171,12 +174,13 @@ def test_photo_downscaled_and_upright():
 
 def test_hundred_items_with_photos_keep_each_item_whole():
     photo = _big_photo()
-    items = [_item(text=f"ITEM-{i:03d}-LOC", n=i, photos=[photo])[0] for i in range(100)]
+    items = [_item(text=f"ITEM-{i:03d}-LOC", n=i, photos=[photo], beam_id=f"b{i}")[0] for i in range(100)]
     pdf = render_notice(_notice(items))
     assert len(pdf) < 15_000_000
     reader = PdfReader(io.BytesIO(pdf))
+    first = next(p for p, page in enumerate(reader.pages) if "Items by member" in page.extract_text())
     for i in range(100):
-        pages = [p for p, page in enumerate(reader.pages) if f"ITEM-{i:03d}-LOC" in page.extract_text()]
+        pages = [p for p, page in enumerate(reader.pages) if p >= first and f"ITEM-{i:03d}-LOC" in page.extract_text()]
         assert len(pages) == 1, (i, pages)  # an item (with its photo) never splits across pages
     images = sum(len(p.images) for p in reader.pages)
     assert images == 100
