@@ -178,9 +178,10 @@ def test_hundred_items_with_photos_keep_each_item_whole():
     pdf = render_notice(_notice(items))
     assert len(pdf) < 15_000_000
     reader = PdfReader(io.BytesIO(pdf))
-    first = next(p for p, page in enumerate(reader.pages) if "Items by member" in page.extract_text())
+    texts = [page.extract_text() for page in reader.pages]  # once per page: extraction is slow
+    first = next(p for p, text in enumerate(texts) if "Items by member" in text)
     for i in range(100):
-        pages = [p for p, page in enumerate(reader.pages) if p >= first and f"ITEM-{i:03d}-LOC" in page.extract_text()]
+        pages = [p for p, text in enumerate(texts) if p >= first and f"ITEM-{i:03d}-LOC" in text]
         assert len(pages) == 1, (i, pages)  # an item (with its photo) never splits across pages
     images = sum(len(p.images) for p in reader.pages)
     assert images == 100
