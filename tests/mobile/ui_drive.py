@@ -150,6 +150,8 @@ if FLOW == "main":
     def site():
         assert app.root.current == "site"
         shot("02-site")
+        rows = [w for w in screen().ids.beam_list.layout_manager.children if getattr(w, "beam_id", "")]
+        assert len(rows) >= 5, f"the beam list shows {len(rows)} beams"  # the demo has 13; the rest scroll
         screen().ids.visit.trigger_action(0)
         form = screen().visit_form.ids
         form.visit_reviewer.text = "Priya Okonkwo-Lind"
