@@ -104,8 +104,8 @@ def bending_findings(beam: Beam, bending: list[BendingRegion]) -> list[Finding]:
                     priority=Priority.immediate if dead_only else Priority.before_loading,
                     region=r.region,
                     message=(
-                        f"{beam.mark}, {r.region}: factored moment {r.mf_knm:.1f} kN*m exceeds the "
-                        f"resistance {r.mr_knm:.1f} kN*m (utilisation {r.utilisation:.2f}, {r.combination})."
+                        f"{beam.mark}, {r.region}: factored moment {r.mf_knm:.1f} kN·m exceeds the "
+                        f"resistance {r.mr_knm:.1f} kN·m (utilisation {r.utilisation:.2f}, {r.combination})."
                     ),
                     action=(
                         "Do not load beyond its present load; refer to the engineer of record for a repair, "
@@ -117,8 +117,8 @@ def bending_findings(beam: Beam, bending: list[BendingRegion]) -> list[Finding]:
         upper = r.utilisation_if_restrained
         if r.outcome == "not_established" and upper is not None and upper > 1.0:
             bound = (
-                f"even if its bearings were restrained the resistance would be only {r.mr_if_restrained_knm:.1f} kN*m "
-                f"against a factored moment of {r.mf_knm:.1f} kN*m (utilisation {upper:.2f}, {r.combination})"
+                f"even if its bearings were restrained the resistance would be only {r.mr_if_restrained_knm:.1f} kN·m "
+                f"against a factored moment of {r.mf_knm:.1f} kN·m (utilisation {upper:.2f}, {r.combination})"
                 if r.mr_if_restrained_knm is not None
                 else "even if its bearings were restrained the slenderness would exceed the limit"
             )

@@ -273,7 +273,7 @@ def bending_check(
             FactorTrace(
                 symbol="Mr",
                 value=round(mr * KNM_PER_NMM, 2),
-                unit="kN*m",
+                unit="kN·m",
                 clause=clause,
                 source="lesser of phi Fb S KX KZbg and phi Fb S KX KL, phi = 0.9, KX = 1"
                 if not sawn
@@ -318,7 +318,7 @@ def _upper_bound(
         f"upper bound: KL = {kl:.4f} with Lu = {scratch['lu_mm'] or 0:.0f} mm as if every bearing were restrained; "
         "the real capacity is lower",
         "formula",
-        "kN*m",
+        "kN·m",
     )
 
 
