@@ -18,4 +18,6 @@ def test_readme_commands_are_the_ci_commands():
     ci = (ROOT / ".ci" / "run").read_text()
     assert "bash scripts/setup.sh && .venv/bin/bracewalk demo --out demo-out" in readme
     assert "bash scripts/setup.sh && .venv/bin/python -m pytest -q" in readme
-    assert "bash scripts/setup.sh" in ci and ".venv/bin/python -m pytest -q" in ci and ".venv/bin/bracewalk demo" in ci
+    assert "bash scripts/setup.sh" in ci
+    assert ".venv/bin/python -m pytest -q" in ci
+    assert ".venv/bin/bracewalk demo" in ci

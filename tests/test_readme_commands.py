@@ -44,7 +44,8 @@ def fresh_copy(dest: Path) -> Path:
 @pytest.mark.skipif(shutil.which("git") is None, reason="needs git to list the project's files")
 def test_readme_commands_work_literally_in_a_fresh_venv(tmp_path):
     demo_cmd, test_cmd = readme_commands()
-    assert demo_cmd.startswith("bash scripts/setup.sh") and test_cmd.startswith("bash scripts/setup.sh")
+    assert demo_cmd.startswith("bash scripts/setup.sh")
+    assert test_cmd.startswith("bash scripts/setup.sh")
     project = fresh_copy(tmp_path / "bracewalk")
     assert not (project / ".venv").exists()
     env = dict(os.environ, **{NESTED: "1"})
@@ -53,7 +54,9 @@ def test_readme_commands_work_literally_in_a_fresh_venv(tmp_path):
     assert demo.returncode == 0, demo.stdout[-3000:] + demo.stderr[-3000:]
     assert (project / ".venv" / "bin" / "bracewalk").exists()
     out = project / "demo-out"
-    assert list(out.glob("*.pdf")) and list(out.glob("*.bwsync")) and list(out.glob("*.db"))
+    assert list(out.glob("*.pdf"))
+    assert list(out.glob("*.bwsync"))
+    assert list(out.glob("*.db"))
     assert "RB-5" in demo.stdout  # the demo table lists every beam
     tests = subprocess.run(["bash", "-c", test_cmd], cwd=project, env=env, capture_output=True, text=True, timeout=3600)
     assert tests.returncode == 0, tests.stdout[-5000:] + tests.stderr[-3000:]

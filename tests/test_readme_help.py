@@ -41,7 +41,8 @@ def help_text(path: list[str], capsys) -> str:
 def test_the_table_lists_the_commands():
     commands = table_commands()
     assert len(commands) >= 18, commands
-    assert "bracewalk" in commands and "bracewalk check BEAM.json [--text]" in commands
+    assert "bracewalk" in commands
+    assert "bracewalk check BEAM.json [--text]" in commands
 
 
 @pytest.mark.parametrize("command", table_commands())
@@ -68,7 +69,8 @@ def test_changelog_has_versions_and_dates_newest_first():
         released.append(((int(m[1]), int(m[2]), int(m[3])), m[4]))
     assert len(released) >= 2
     versions, dates = [v for v, _ in released], [d for _, d in released]
-    assert versions == sorted(versions, reverse=True) and len(set(versions)) == len(versions)
+    assert versions == sorted(versions, reverse=True)
+    assert len(set(versions)) == len(versions)
     assert dates == sorted(dates, reverse=True)
     project = tomllib.loads((ROOT / "pyproject.toml").read_text())["project"]["version"]
     assert project == ".".join(map(str, versions[0])), "pyproject's version is the newest released one"

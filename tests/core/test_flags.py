@@ -20,7 +20,8 @@ def test_unbraced_bottom_edge_finding_follows_the_flag_not_the_words():
     beam = glulam(**TWO_SPANS)
     r = recheck(beam)
     neg = [b for b in r.bending if b.sign is MomentSign.negative]
-    assert neg and all(b.compression_edge_unbraced for b in neg)  # nothing braces the bottom edge
+    assert neg
+    assert all(b.compression_edge_unbraced for b in neg)  # nothing braces the bottom edge
     codes = [f.code for f in _reworded(beam, r)]
     assert FindingCode.compression_edge_unbraced in codes
     flags_off = [f.code for f in _reworded(beam, r, compression_edge_unbraced=False)]
@@ -32,7 +33,8 @@ def test_dead_load_only_overstress_is_immediate_by_the_flag():
     beam = glulam(d_mm=304, loads={"dead_kn_m": 20.0, "live_kn_m": 0.0, "snow_kn_m": 0.0})
     r = recheck(beam)
     region = r.bending[0]
-    assert region.outcome is Outcome.overstress and region.dead_load_only
+    assert region.outcome is Outcome.overstress
+    assert region.dead_load_only
     first = [f for f in _reworded(beam, r) if f.code is FindingCode.bending_overstress]
     assert first[0].priority.value == "immediate"
     later = [f for f in _reworded(beam, r, dead_load_only=False) if f.code is FindingCode.bending_overstress]

@@ -105,7 +105,9 @@ def test_every_valid_beam_gives_a_result_or_typed_outcome(data):
         if region.outcome in ("not_permitted", "not_established"):
             assert region.mr_knm is None
         else:
-            assert region.mr_knm is not None and region.mr_knm > 0 and math.isfinite(region.utilisation)
+            assert region.mr_knm is not None
+            assert region.mr_knm > 0
+            assert math.isfinite(region.utilisation)
 
 
 @settings(max_examples=200, deadline=None)

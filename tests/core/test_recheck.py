@@ -34,7 +34,8 @@ def test_missing_rotation_restraint_is_not_established_and_immediate():
         )
     )
     assert r.status.value == "not_established"
-    assert r.bending[0].kl is None and r.bending[0].mr_knm is None
+    assert r.bending[0].kl is None
+    assert r.bending[0].mr_knm is None
     f = r.findings[0]
     assert (f.code, f.priority.value) == ("bearing_restraint_missing", "immediate")
 
@@ -49,7 +50,8 @@ def test_missing_restraint_waived_when_db_at_most_2_5():
 def test_slenderness_over_50_not_permitted():
     r = recheck(glulam(b_mm=80, d_mm=912, top_edge={"braced_by": "none"}, spans_mm=[14000]))
     assert r.status.value == "not_permitted"
-    assert r.bending[0].cb > 50 and r.bending[0].kl is None
+    assert r.bending[0].cb > 50
+    assert r.bending[0].kl is None
     assert r.findings[0].code == "slenderness_exceeds_limit"
 
 
@@ -57,7 +59,8 @@ def test_two_span_hogging_zone_uses_bottom_edge_and_negative_strength():
     # reference 1.1 / 1.4: negative moment -> bottom edge in compression, fb negative (23.0 for 24f-E)
     r = recheck(glulam(spans_mm=[7200, 7200], bearings=[{"lateral": True, "rotation": True, "length_mm": 140}] * 3))
     neg = [b for b in r.bending if b.sign == "negative"]
-    assert neg and neg[0].region == "support 2"
+    assert neg
+    assert neg[0].region == "support 2"
     assert "bottom edge" in neg[0].compression_edge
     assert neg[0].fb_mpa == pytest.approx(23.0 * neg[0].kd)
     # reference o86.md 13: nothing braces the bottom edge, so Lu runs support to support
@@ -82,13 +85,16 @@ def test_sawn_joist_with_decking_takes_kl_one_and_kzb():
     # O86-19 6.5.3.2 (memory): decking held: d/b 6.2 <= 6.5 -> KL = 1; KZb 38x235 = 1.1 (Table 6.13, memory)
     r = recheck(sawn())
     region = r.bending[0]
-    assert region.kl == 1.0 and region.kzb == pytest.approx(1.1)
-    assert "kzb" in r.to_json_dict()["bending"][0] and "kzbg" not in r.to_json_dict()["bending"][0]
+    assert region.kl == 1.0
+    assert region.kzb == pytest.approx(1.1)
+    assert "kzb" in r.to_json_dict()["bending"][0]
+    assert "kzbg" not in r.to_json_dict()["bending"][0]
 
 
 def test_sawn_joist_without_decking_uses_kl_method():
     r = recheck(sawn(top_edge={"braced_by": "decking", "fastened": False}))
-    assert r.bending[0].kl is not None and r.bending[0].kl < 1.0
+    assert r.bending[0].kl is not None
+    assert r.bending[0].kl < 1.0
 
 
 def test_wet_service_reduces_glulam_fb_by_ksb():

@@ -114,7 +114,8 @@ def test_sawn_floor_joist_by_hand():
     r = recheck(sawn())
     s = BS * DS**2 / 6
     region = r.bending[0]
-    assert region.kd == 1.0 and region.kl == 1.0  # d/b 6.18 <= 6.5 with decking (6.5.3.2, memory)
+    assert region.kd == 1.0
+    assert region.kl == 1.0  # d/b 6.18 <= 6.5 with decking (6.5.3.2, memory)
     # O86-19 6.5.3.1 (memory): Mr = 0.9 fb KD KH KSb KT S KZb KL = 0.9 x 11.8 x S x 1.1
     assert region.mr_knm == pytest.approx(0.9 * 11.8 * s * 1.1 / 1e6, rel=1e-9)  # 4.086 kN*m
     assert region.mf_knm == pytest.approx(W_ULS_SW * LS**2 / 8 / 1e6, rel=1e-9)

@@ -30,23 +30,28 @@ def test_check_bad_input_exit_2_names_field(tmp_path):
     path.write_text(json.dumps(bad))
     proc = run("check", str(path))
     assert proc.returncode == 2
-    assert "d_mm" in proc.stderr and "-456" in proc.stderr
+    assert "d_mm" in proc.stderr
+    assert "-456" in proc.stderr
     assert "Traceback" not in proc.stderr
 
 
 def test_check_not_json_exit_2():
     proc = run("check", "-", stdin="{not json")
-    assert proc.returncode == 2 and "not valid JSON" in proc.stderr
+    assert proc.returncode == 2
+    assert "not valid JSON" in proc.stderr
 
 
 def test_check_missing_file_exit_2():
     proc = run("check", "/nonexistent/beam.json")
-    assert proc.returncode == 2 and "cannot read" in proc.stderr
+    assert proc.returncode == 2
+    assert "cannot read" in proc.stderr
 
 
 def test_check_text_summary():
     proc = run("check", str(EXAMPLE), "--text")
-    assert proc.returncode == 0 and "R2-B4: OK" in proc.stdout and "engineer of record" in proc.stdout
+    assert proc.returncode == 0
+    assert "R2-B4: OK" in proc.stdout
+    assert "engineer of record" in proc.stdout
 
 
 def test_schema_is_json_schema():

@@ -57,8 +57,10 @@ def test_demo_command_writes_db_pdf_bundle(tmp_path):
     )
     assert proc.returncode == 0, proc.stderr
     assert (out / "notice.pdf").stat().st_size > 10_000
-    assert (out / "cedar-hollow.bwsync").exists() and (out / "cedar-hollow.db").exists()
-    assert "RB-5" in proc.stdout and "not_established" in proc.stdout
+    assert (out / "cedar-hollow.bwsync").exists()
+    assert (out / "cedar-hollow.db").exists()
+    assert "RB-5" in proc.stdout
+    assert "not_established" in proc.stdout
 
 
 def test_sync_cli_round_trip_same_digest(tmp_path):
@@ -79,7 +81,8 @@ def test_sync_cli_round_trip_same_digest(tmp_path):
         timeout=300,
         env=dict(os.environ, BRACEWALK_FIRM_KEY=DEMO_FIRM_KEY),  # the demo's bundle opens under the demo's key only
     )
-    assert imp.returncode == 0 and "merged" in imp.stdout
+    assert imp.returncode == 0
+    assert "merged" in imp.stdout
     d1 = subprocess.run(
         [sys.executable, "-m", "mobile.cli", "sync", "digest", "--db", str(out / "cedar-hollow.db")],
         capture_output=True,
@@ -92,14 +95,16 @@ def test_sync_cli_round_trip_same_digest(tmp_path):
         text=True,
         cwd=ROOT,
     ).stdout.strip()
-    assert d1 == d2 and len(d1) == 64
+    assert d1 == d2
+    assert len(d1) == 64
     verify = subprocess.run(
         [sys.executable, "-m", "mobile.cli", "report", "--verify", str(out / "notice.pdf"), "--db", str(other)],
         capture_output=True,
         text=True,
         cwd=ROOT,
     )
-    assert verify.returncode == 0 and "exactly issued notice" in verify.stdout
+    assert verify.returncode == 0
+    assert "exactly issued notice" in verify.stdout
     bad = tmp_path / "bad.bwsync"
     raw = bytearray((out / "cedar-hollow.bwsync").read_bytes())
     raw[40] ^= 0xFF
@@ -110,7 +115,8 @@ def test_sync_cli_round_trip_same_digest(tmp_path):
         text=True,
         cwd=ROOT,
     )
-    assert refused.returncode == 1 and "refused" in refused.stderr
+    assert refused.returncode == 1
+    assert "refused" in refused.stderr
 
 
 def test_demo_loads_are_the_ones_the_beam_form_derives(tmp_path):

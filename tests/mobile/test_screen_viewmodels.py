@@ -33,13 +33,18 @@ def _form(store, site_id, mark):
 
 def test_create_site_and_refuse_bad_basis(tmp_path):
     vm = SitesViewModel(Store(tmp_path / "s.db"))
-    assert vm.create({"name": "", "dead_kpa": "1"}) is None and "name" in vm.errors
-    assert vm.create({"name": "Hall", "dead_kpa": "heavy"}) is None and "dead_kpa" in vm.errors
-    assert vm.create({"name": "Hall", "snow_kpa": "70"}) is None and "snow_kpa" in vm.errors  # allowed 0..50
+    assert vm.create({"name": "", "dead_kpa": "1"}) is None
+    assert "name" in vm.errors
+    assert vm.create({"name": "Hall", "dead_kpa": "heavy"}) is None
+    assert "dead_kpa" in vm.errors
+    assert vm.create({"name": "Hall", "snow_kpa": "70"}) is None
+    assert "snow_kpa" in vm.errors  # allowed 0..50
     site = vm.create({"name": "Willow Yard Pavilion", "dead_kpa": "1.1", "snow_kpa": "2.2", "permit_number": "BP-9"})
-    assert site is not None and site.design_basis.snow_kpa == 2.2
+    assert site is not None
+    assert site.design_basis.snow_kpa == 2.2
     (row,) = vm.rows()
-    assert "Willow Yard Pavilion" in row[1] and "not yet synced" in row[1]
+    assert "Willow Yard Pavilion" in row[1]
+    assert "not yet synced" in row[1]
 
 
 def test_pending_changes_are_counted_per_site(demo, tmp_path):
@@ -59,7 +64,8 @@ def test_site_groups_deficiencies_by_priority_and_visit(demo):
     assert levels == sorted(levels)
     priorities = [label for label, _ in vm.deficiency_groups()]
     assert priorities[0].startswith("▲ IMMEDIATE")
-    assert vm.start_visit("  ") is None and "reviewer" in vm.errors
+    assert vm.start_visit("  ") is None
+    assert "reviewer" in vm.errors
     assert vm.start_visit("R. Vantongeren", "dry, 5 °C") is not None
     assert "R. Vantongeren" in vm.visit_line()
 
@@ -71,18 +77,22 @@ def test_new_beam_is_not_checked_until_entered(demo):
     form = BeamFormViewModel(store, site_id, beam_id)
     assert form.refresh() is None  # no recheck on defaults: nothing looks measured
     assert form.missing() == ["span", "width b", "depth d", "tributary width or line loads"]
-    assert "span" in form.recheck_error and form.form()["spans"] == "" and form.form()["b_mm"] == ""
+    assert "span" in form.recheck_error
+    assert form.form()["spans"] == ""
+    assert form.form()["b_mm"] == ""
     for name, text in (("b_mm", "130"), ("d_mm", "456"), ("spans", "7.2 m"), ("tributary_m", "3")):
         assert form.set_field(name, text), form.errors
     # the bearings appear with the span, and are "not yet entered" (not assumed seen either way)
-    assert "S1 lateral restraint" in form.missing() and form.form()["bearing1.lateral"] == ""
+    assert "S1 lateral restraint" in form.missing()
+    assert form.form()["bearing1.lateral"] == ""
     for i in (1, 2):
         assert form.set_field(f"bearing{i}.length_mm", "140")
         assert form.set_field(f"bearing{i}.lateral", "not_visible")
         assert form.set_field(f"bearing{i}.rotation", "not_visible")
     r = form.refresh()
     # d/b = 456/130 = 3.5 > 2.5 and restraint 'not visible': stability not established (O86-19 7.5.6.3.1)
-    assert r is not None and r.status.value == "not_established"
+    assert r is not None
+    assert r.status.value == "not_established"
     assert {f.code for f in r.findings} >= {"bearing_restraint_missing"}
     assert form.set_field("bearing2.rotation", "no")
     assert form.immediate_findings()  # seen missing: immediate
@@ -106,7 +116,9 @@ def test_copy_from_is_explicit_and_never_copies_span_or_bearings(demo):
         other["loads"],
         other["top_edge"],
     )
-    assert "spans_mm" not in rec and "bearings" not in rec and rec["mark"] != other["mark"]
+    assert "spans_mm" not in rec
+    assert "bearings" not in rec
+    assert rec["mark"] != other["mark"]
     assert form.missing() == ["span"]
 
 
@@ -115,7 +127,8 @@ def test_out_of_range_load_refused_on_an_incomplete_beam(demo):
     form = BeamFormViewModel(store, site_id, SiteViewModel(store, site_id).new_beam())
     assert not form.set_field("dead_kn_m", "-2")
     assert "0 to 200 kN/m" in form.errors["dead_kn_m"]
-    assert form.set_field("dead_kn_m", "2,5") and form.record()["loads"]["dead_kn_m"] == 2.5
+    assert form.set_field("dead_kn_m", "2,5")
+    assert form.record()["loads"]["dead_kn_m"] == 2.5
 
 
 def test_spans_entry_adds_supports_and_tributary_uses_design_basis(demo):
@@ -124,8 +137,10 @@ def test_spans_entry_adds_supports_and_tributary_uses_design_basis(demo):
     assert form.set_field("spans", "7.2 m; 23' 7 1/2\"")
     rec = form.record()
     assert rec["spans_mm"] == [7200, pytest.approx((23 * 12 + 7.5) * 25.4)]  # 1 in = 25.4 mm (common practice)
-    assert len(rec["bearings"]) == 3 and rec["bearings"][2] == {"lateral": None, "rotation": None, "length_mm": None}
-    assert form.refresh() is None and "S3 lateral restraint" in form.missing()  # the new support: not yet entered
+    assert len(rec["bearings"]) == 3
+    assert rec["bearings"][2] == {"lateral": None, "rotation": None, "length_mm": None}
+    assert form.refresh() is None
+    assert "S3 lateral restraint" in form.missing()  # the new support: not yet entered
     for key, value in (("lateral", "yes"), ("rotation", "yes"), ("length_mm", "140")):
         assert form.set_field(f"bearing3.{key}", value)
     assert form.support_count() == 3
@@ -134,9 +149,11 @@ def test_spans_entry_adds_supports_and_tributary_uses_design_basis(demo):
     # specified line load = area load x tributary width (common practice)
     assert form.record()["loads"]["snow_kn_m"] == pytest.approx(basis.snow_kpa * 2.0)
     loads = form.record()["loads"]
-    assert form.set_field("tributary_m", "") and form.record()["loads"] == loads  # clearing keeps the loads
+    assert form.set_field("tributary_m", "")
+    assert form.record()["loads"] == loads  # clearing keeps the loads
     assert form.set_field("dead_kn_m", "3.5")
-    assert form.record()["tributary_m"] is None and form.record()["loads"]["dead_kn_m"] == 3.5
+    assert form.record()["tributary_m"] is None
+    assert form.record()["loads"]["dead_kn_m"] == 3.5
 
 
 def test_pickers_keep_species_and_grade_consistent(demo):
@@ -145,11 +162,14 @@ def test_pickers_keep_species_and_grade_consistent(demo):
     assert "24f-E" in form.options("grade")
     assert not form.set_field("material", "sawn")  # 130 mm is too wide for dimension lumber: refused at the field
     assert "b_mm" in form.errors["material"]
-    assert form.set_field("b_mm", "38") and form.set_field("d_mm", "235")
+    assert form.set_field("b_mm", "38")
+    assert form.set_field("d_mm", "235")
     assert form.set_field("material", "sawn")
     rec = form.record()
-    assert rec["species"] in form.options("species") and rec["grade"] in form.options("grade")
-    assert "38" in form.quick_sizes("b_mm") and "235" in form.quick_sizes("d_mm")
+    assert rec["species"] in form.options("species")
+    assert rec["grade"] in form.options("grade")
+    assert "38" in form.quick_sizes("b_mm")
+    assert "235" in form.quick_sizes("d_mm")
 
 
 def test_purlins_picker_waits_for_spacing(demo):
@@ -159,7 +179,8 @@ def test_purlins_picker_waits_for_spacing(demo):
     assert form.form()["top_braced_by"] == "none"  # the picker shows the value in force
     assert "Purlins at" in form.errors["top_braced_by"]
     assert form.set_field("purlin_spacing_mm", "1200")
-    assert "top_braced_by" not in form.errors and form.record()["top_edge"]["braced_by"] == "purlins"
+    assert "top_braced_by" not in form.errors
+    assert form.record()["top_edge"]["braced_by"] == "purlins"
     assert "drafts" not in form.record() or "top_braced_by" not in form.record()["drafts"]
 
 
@@ -169,9 +190,11 @@ def test_trace_names_clause_row_and_status(demo):
     keys = [key for _, _, key in form.panel_lines() if key]
     lines = form.trace_lines(keys[0])
     text = "\n".join(lines)
-    assert "7.5.6.4.4" in text and "KL" in text  # O86-19 KL clause
+    assert "7.5.6.4.4" in text
+    assert "KL" in text  # O86-19 KL clause
     assert "[memory]" in text or "[confirmed]" in text or "[verified]" in text
-    assert form.trace_lines("shear") and form.trace_lines("deflection")
+    assert form.trace_lines("shear")
+    assert form.trace_lines("deflection")
 
 
 def test_photo_attached_to_beam(demo, tmp_path):
@@ -200,8 +223,11 @@ def test_deficiency_lifecycle_with_evidence_and_history(demo, tmp_path):
     assert vm.move("verified", "P. Okonkwo-Lind", "reviewer", "seen in place")
     assert vm.moves("reviewer") == ["reopen"]
     hist = vm.history_lines()
-    assert len(hist) == 2 and "photo evidence" in hist[0] and "blocking added" in hist[0]
-    assert vm.edit("action", "Add blocking both sides") and vm.fields()["action"] == "Add blocking both sides"
+    assert len(hist) == 2
+    assert "photo evidence" in hist[0]
+    assert "blocking added" in hist[0]
+    assert vm.edit("action", "Add blocking both sides")
+    assert vm.fields()["action"] == "Add blocking both sides"
     assert not vm.edit("priority", "whenever")
 
 
@@ -215,7 +241,8 @@ def test_notice_choose_preview_issue_export(demo, tmp_path):
     pdf = vm.draft_pdf()
     assert "DRAFT PREVIEW" in PdfReader(io.BytesIO(pdf)).pages[0].extract_text()
     pages = vm.preview_pages(tmp_path / "prev", pdf)
-    assert len(pages) == len(PdfReader(io.BytesIO(pdf)).pages) and pages[0].stat().st_size > 0
+    assert len(pages) == len(PdfReader(io.BytesIO(pdf)).pages)
+    assert pages[0].stat().st_size > 0
     assert store.notices(site_id) == []  # a preview issues nothing
     path = vm.issue("P. Okonkwo-Lind", tmp_path / "issued")
     (notice,) = store.notices(site_id)
@@ -231,7 +258,9 @@ def test_sync_export_import_progress_and_conflict_resolution(tmp_path):
     site_id = load_demo(a)
     seen = []
     summary = SyncViewModel(a).export(tmp_path / "x", progress=lambda f, _w: seen.append(f))
-    assert "Wrote" in summary and seen[-1] == 1.0 and seen == sorted(seen)
+    assert "Wrote" in summary
+    assert seen[-1] == 1.0
+    assert seen == sorted(seen)
     bundle = next((tmp_path / "x").glob("*.bwsync"))
     assert "Merged" in SyncViewModel(b).import_file(bundle)
     beam_id = next(i for i, r in a.beams(site_id) if r["mark"] == "RB-1")
@@ -242,10 +271,12 @@ def test_sync_export_import_progress_and_conflict_resolution(tmp_path):
     assert "1 conflicts to review" in text
     vm = SyncViewModel(b)
     ((cid, line),) = vm.conflicts()
-    assert "RB-1" in line and "notes" in line
+    assert "RB-1" in line
+    assert "notes" in line
     kept = b.beam_record(beam_id)["notes"]
     vm.resolve(cid, "loser", "P. Okonkwo-Lind")
-    assert b.beam_record(beam_id)["notes"] != kept and vm.conflicts() == []
+    assert b.beam_record(beam_id)["notes"] != kept
+    assert vm.conflicts() == []
 
 
 def test_site_search_filters_and_counts(demo):
@@ -253,15 +284,19 @@ def test_site_search_filters_and_counts(demo):
     vm = SiteViewModel(store, site_id)
     rows = vm.beam_rows()
     found = [name for _, beams in vm.groups("rb-5", rows=rows) for _, name, _ in beams]
-    assert found and all("RB-5" in n for n in found)
+    assert found
+    assert all("RB-5" in n for n in found)
     roof = vm.groups(level="Roof", rows=rows)
     assert [lvl for lvl, _ in roof if lvl != PINNED] == ["Roof"]
     raise_all(store, site_id)
     pinned = dict(vm.groups(rows=rows)).get(PINNED, [])
     immediate = {d.beam_id for d in store.deficiencies(site_id, open_only=True) if d.priority == "immediate"}
-    assert immediate and {b for b, _, _ in pinned} == immediate and vm.groups(rows=rows)[0][0] == PINNED
+    assert immediate
+    assert {b for b, _, _ in pinned} == immediate
+    assert vm.groups(rows=rows)[0][0] == PINNED
     deficient = [label for _, beams in vm.groups(status="deficient", rows=rows) for _, _, label in beams]
-    assert deficient and all("DEFICIENT" in x for x in deficient)
+    assert deficient
+    assert all("DEFICIENT" in x for x in deficient)
     counts = vm.counts(rows)
     assert counts.startswith(f"{len(rows)} beams:")
     # the counts add up to the beams (each beam has one status)
@@ -278,15 +313,18 @@ def test_derived_loads_follow_their_source_and_say_so(demo):
     assert form.form()["dead_kn_m"] == f"{round(basis.dead_kpa * 2.5, 3):g}"
     assert form.echo("dead_kn_m").startswith(f"derived: 2.5 m x {basis.dead_kpa:g} kPa")
     assert form.set_field("live_kn_m", "1.5")
-    assert form.form()["tributary_m"] == "" and form.echo("live_kn_m") == "typed directly"
+    assert form.form()["tributary_m"] == ""
+    assert form.echo("live_kn_m") == "typed directly"
 
 
 def test_refused_pick_keeps_the_value_in_force_and_says_so_in_words(demo):
     store, site_id = demo
     form = _form(store, site_id, "RB-1")  # 130 mm wide glulam
     assert not form.set_field("material", "sawn")
-    assert form.form()["material"] == "glulam" and form.record()["material"] == "glulam"
-    assert "Not changed to Sawn lumber" in form.errors["material"] and "Stays Glulam" in form.errors["material"]
+    assert form.form()["material"] == "glulam"
+    assert form.record()["material"] == "glulam"
+    assert "Not changed to Sawn lumber" in form.errors["material"]
+    assert "Stays Glulam" in form.errors["material"]
     assert "Value error" not in form.errors["material"]
 
 
@@ -298,7 +336,8 @@ def test_finding_raised_once_and_corrected_only_with_the_beam_updated(demo):
     index = next(i for i, f in enumerate(form.refresh().findings) if f.code == "bearing_restraint_missing")
     assert "[not yet raised]" in dict(form.findings())[index]
     number = form.raise_deficiency(index)
-    assert form.raised_number(index) == number and f"[raised as {number}]" in dict(form.findings())[index]
+    assert form.raised_number(index) == number
+    assert f"[raised as {number}]" in dict(form.findings())[index]
     with pytest.raises(ValueError, match="already raised"):
         form.raise_deficiency(index)
     d = next(x for x in store.deficiencies(site_id) if x.number == number)
@@ -325,7 +364,8 @@ def test_verify_is_offered_by_the_device_users_role(demo):
     store.set_device_user("R. Vantongeren", "contractor")
     assert "verified" not in vm.moves(vm.device_user()[1])
     store.set_device_user("P. Okonkwo-Lind", "reviewer")
-    assert vm.device_user() == ("P. Okonkwo-Lind", "reviewer") and "verified" in vm.moves("reviewer")
+    assert vm.device_user() == ("P. Okonkwo-Lind", "reviewer")
+    assert "verified" in vm.moves("reviewer")
 
 
 def test_times_shown_in_local_time_with_zone(monkeypatch):
@@ -363,14 +403,19 @@ def test_site_form_owner_contractor_distribution_bases_and_edit(tmp_path):
     }
     site = vm.create(form)
     assert site is not None, vm.errors
-    assert site.distribution == ["Owner", "Architect", "File"] and set(site.load_bases) == {"floor", "canopy"}
-    assert site.load_bases["floor"].live_kpa == 1.9 and site.load_bases["floor"].use.value == "floor"
+    assert site.distribution == ["Owner", "Architect", "File"]
+    assert set(site.load_bases) == {"floor", "canopy"}
+    assert site.load_bases["floor"].live_kpa == 1.9
+    assert site.load_bases["floor"].use.value == "floor"
     notice, _ = build_notice(store, site.id, "N-1")
     assert notice.addressed_to == "Ashgrove Framing Inc. (attention: M. Ferreira)"
     assert notice.distribution == ["Owner", "Architect", "File"]
-    assert not vm.create(dict(form, load_bases="floor 1.5")) and "dead/live/snow" in vm.errors["load_bases"]
+    assert not vm.create(dict(form, load_bases="floor 1.5"))
+    assert "dead/live/snow" in vm.errors["load_bases"]
     edited = vm.update(site.id, dict(vm.form_of(site.id), snow_kpa="3.1", contractor_contact="J. Osei"))
-    assert edited is not None and edited.design_basis.snow_kpa == 3.1 and edited.contractor_contact == "J. Osei"
+    assert edited is not None
+    assert edited.design_basis.snow_kpa == 3.1
+    assert edited.contractor_contact == "J. Osei"
     assert edited.load_bases == site.load_bases  # unchanged fields survive the edit
 
 

@@ -67,7 +67,8 @@ def test_app_end_to_end_under_xvfb(tmp_path):
     out = run_app(tmp_path / "ui.db", shots, "main", tmp_path / "home")
     assert "UI-OK" in out, out[-3000:]
     assert len(list(shots.glob("*.png"))) >= 12
-    assert list((shots / "sync").glob("*.bwsync")) and list((shots / "exported").glob("*.pdf"))
+    assert list((shots / "sync").glob("*.bwsync"))
+    assert list((shots / "exported").glob("*.pdf"))
 
 
 # Real tablets and a laptop: (width, height) px, dpi, and the density Kivy would use there. The density
@@ -102,7 +103,8 @@ def test_portrait_layout(tmp_path):
 def test_kill_after_typing_loses_nothing(tmp_path):
     db = tmp_path / "kill.db"
     out = run_app(db, tmp_path / "s1", "type-then-kill", tmp_path / "home")
-    assert "KILLING" in out and "UI-OK" not in out, out[-3000:]
+    assert "KILLING" in out, out[-3000:]
+    assert "UI-OK" not in out, out[-3000:]
     out = run_app(db, tmp_path / "s2", "relaunch", tmp_path / "home")
     assert "UI-OK" in out, out[-3000:]
     assert "NOTES=bearing plate at S2 bent; photo 14" in out, out[-3000:]

@@ -39,7 +39,8 @@ INCH = 25.4  # mm, exact
 )
 def test_spellings_of_a_length(text, mm):
     value, unit_typed = parse_length(text)
-    assert value == pytest.approx(mm) and unit_typed
+    assert value == pytest.approx(mm)
+    assert unit_typed
 
 
 def test_a_bare_number_is_read_in_mm_and_says_no_unit_was_typed():
@@ -108,7 +109,8 @@ def test_form_never_rechecks_a_span_it_misunderstood(form):
     before = form.record()["spans_mm"]
     assert not form.set_field("spans", "3.9")
     assert form.record()["spans_mm"] == before  # the value in force is unchanged
-    assert form.suggestions["spans"] == "3.9 m" and "Did you mean 3.9 m?" in form.errors["spans"]
+    assert form.suggestions["spans"] == "3.9 m"
+    assert "Did you mean 3.9 m?" in form.errors["spans"]
     assert form.set_field("spans", form.suggestions["spans"])
     assert form.record()["spans_mm"] == [3900.0]
     assert form.form()["spans"] == "3900 mm"
@@ -118,7 +120,8 @@ def test_form_never_rechecks_a_span_it_misunderstood(form):
 def test_form_purlins_in_metres_without_unit_are_refused(form):
     kl = form.refresh().bending[0].kl
     assert not form.set_field("purlin_spacing_mm", "2.4")
-    assert form.refresh().bending[0].kl == kl and "Did you mean 2.4 m?" in form.errors["purlin_spacing_mm"]
+    assert form.refresh().bending[0].kl == kl
+    assert "Did you mean 2.4 m?" in form.errors["purlin_spacing_mm"]
 
 
 def test_form_feet_inches_echoed_with_unit(form):
@@ -139,7 +142,10 @@ def _check(tmp_path, **changes):
 
 def test_cli_json_uses_the_same_ranges(tmp_path):
     proc = _check(tmp_path, spans_mm=[3.9])
-    assert proc.returncode == 2 and "spans_mm[0] = 3.9 mm" in proc.stderr and "300 mm to 40 m" in proc.stderr
+    assert proc.returncode == 2
+    assert "spans_mm[0] = 3.9 mm" in proc.stderr
+    assert "300 mm to 40 m" in proc.stderr
     top = json.loads((ROOT / "examples" / "beam_r2_b4.json").read_text())["top_edge"]
     proc = _check(tmp_path, top_edge=dict(top, spacing_mm=2.4))
-    assert proc.returncode == 2 and "top_edge.spacing_mm = 2.4 mm" in proc.stderr
+    assert proc.returncode == 2
+    assert "top_edge.spacing_mm = 2.4 mm" in proc.stderr

@@ -47,12 +47,14 @@ def test_purlin_spacing_change_updates_recheck_and_autosaves(form):
 def test_invalid_input_message_at_field_kept_as_draft_beam_unchanged(form):
     before = form.store.beam(form.beam_id)
     assert not form.set_field("d_mm", "-5")
-    assert "d_mm" in form.errors and form.store.beam(form.beam_id) == before
+    assert "d_mm" in form.errors
+    assert form.store.beam(form.beam_id) == before
     assert form.form()["d_mm"] == "-5"  # what was typed is kept and shown back
     assert not form.set_field("spans", "banana")
     assert "spans" in form.errors
     assert form.set_field("d_mm", "494")  # a valid entry clears the draft
-    assert form.form()["d_mm"] == "494 mm" and "d_mm" not in form.errors
+    assert form.form()["d_mm"] == "494 mm"
+    assert "d_mm" not in form.errors
 
 
 def test_bearing_toggle_shows_immediate_and_raise(form):
@@ -73,7 +75,8 @@ def test_undo_last_change(form):
 def test_site_groups_show_status_words(form):
     groups = dict(SiteViewModel(form.store, form.site_id).groups())
     labels = [label for rows in groups.values() for _, _, label in rows]
-    assert any("NOT ESTABLISHED" in x for x in labels) and any("OK" in x for x in labels)
+    assert any("NOT ESTABLISHED" in x for x in labels)
+    assert any("OK" in x for x in labels)
 
 
 def test_failing_beam_offers_options_for_the_engineer_of_record(form):
@@ -81,14 +84,17 @@ def test_failing_beam_offers_options_for_the_engineer_of_record(form):
     assert form.set_field("d_mm", "304")
     assert form.refresh().status.value != "ok"
     line = [text for text, _u, key in form.panel_lines() if key == "remedies"]
-    assert line and "engineer of record" in line[0]
+    assert line
+    assert "engineer of record" in line[0]
     options = form.trace_lines("remedies")
-    assert len(options) > 1 and "engineer of record" in options[0]
+    assert len(options) > 1
+    assert "engineer of record" in options[0]
 
 
 def test_unrecorded_fastening_and_use_are_shown_as_not_recorded(form):
     assert form.set_field("top_fastened", "not recorded")
     assert form.set_field("use", "not recorded")
     fields = form.form()
-    assert fields["top_fastened"] == "not recorded" and fields["use"] == "not recorded"
+    assert fields["top_fastened"] == "not recorded"
+    assert fields["use"] == "not recorded"
     assert any(f.code == "input_assumed" for f in form.refresh().findings)

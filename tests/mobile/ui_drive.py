@@ -205,7 +205,8 @@ if FLOW == "main":
                 screen("beam").restraint_buttons[(i, key, "yes")].trigger_action(0)
         rec = app.store.beam_record(app.beam_id)
         assert rec["bearings"][0]["length_mm"] == 139.7, rec["bearings"]
-        assert rec["mark"] == "RB-9" and rec["spans_mm"] == [7200], rec
+        assert rec["mark"] == "RB-9", rec
+        assert rec["spans_mm"] == [7200], rec
         assert screen("beam").vm.result.status.value == "ok", screen("beam").vm.result.status
 
     @step
@@ -213,7 +214,9 @@ if FLOW == "main":
         tf = screen("beam").fields["d_mm"]
         popup = tf.open_keypad()
         keys = [b.text for b in popup.content.children[1].children[::-1]]  # the grid, in reading order
-        assert "," not in keys and "C" in keys and keys.index(";") < 4  # ';' in the top row, far from OK
+        assert "," not in keys
+        assert "C" in keys
+        assert keys.index(";") < 4  # ';' in the top row, far from OK
         for k in ("C", "4", "9", "4"):
             next(b for b in popup.content.children[1].children if b.text == k).trigger_action(0)
         shot("03a-keypad")
@@ -244,7 +247,8 @@ if FLOW == "main":
 
         popup = app.root_window.children[0]
         rows = [w for w in popup.walk() if getattr(w, "text", "").startswith("▸  site photos")]
-        assert rows and rows[0].height >= mm(15) - 1, rows
+        assert rows, rows
+        assert rows[0].height >= mm(15) - 1, rows
         rows[0].trigger_action(0)  # one tap opens the folder
         shot("03d-file-picker")
         next(w for w in popup.walk() if getattr(w, "text", "") == "rb9-end.png").trigger_action(0)
@@ -339,7 +343,8 @@ if FLOW == "main":
         s.ids.note.text = "blocking installed both sides"
         buttons = {b.text: b for b in s.ids.moves.children}
         buttons["Mark corrected"].trigger_action(0)
-        assert "corrected" in s.history_text and "as now recorded: ● OK" in s.history_text, s.history_text
+        assert "corrected" in s.history_text, s.history_text
+        assert "as now recorded: ● OK" in s.history_text, s.history_text
         assert "Verify the correction" in {b.text for b in s.ids.moves.children}  # the device's user is a reviewer
 
     @step
@@ -415,10 +420,12 @@ if FLOW == "main":
         s.ids.new_dead_kpa.text = "1.0"
         s.ids.new_snow_kpa.text = "heavy"  # refused at the field: not a number
         s.ids.create_site.trigger_action(0)
-        assert app.root.current == "sites" and "snow_kpa" in s.error_text, s.error_text
+        assert app.root.current == "sites", s.error_text
+        assert "snow_kpa" in s.error_text, s.error_text
         s.ids.new_snow_kpa.text = "2.4"
         s.ids.create_site.trigger_action(0)
-        assert app.root.current == "site" and "Willow Yard" in screen("site").title
+        assert app.root.current == "site"
+        assert "Willow Yard" in screen("site").title
         assert app.store.site(app.site_id).contractor_contact == "M. Ferreira"
 
     @step
@@ -496,7 +503,8 @@ elif FLOW == "layout":
     @step
     def new_beam_layout():
         look("3c-beam-new")  # nothing entered yet: the panel lists what the recheck needs
-        assert screen("beam").vm.result is None and "span" in screen("beam").vm.recheck_error
+        assert screen("beam").vm.result is None
+        assert "span" in screen("beam").vm.recheck_error
         screen("beam").leave()
         app.open_deficiency(app.store.deficiencies(app.site_id, open_only=True)[0].id)
 

@@ -44,7 +44,8 @@ def test_restore_into_a_fresh_hub_then_tablets_sync_on_losing_and_repeating_noth
     else:
         target = request.getfixturevalue("pg_cluster").new_database()
     restored = restore(kept, target)
-    assert restored.hub_id == hub_id and len(restored.devices()) == 3
+    assert restored.hub_id == hub_id
+    assert len(restored.devices()) == 3
     assert len(restored.db.execute("SELECT * FROM op").fetchall()) == 3 * (2 + 5)  # as at the backup
     again = RunningHub(restored).start()
     try:
@@ -97,8 +98,10 @@ def test_backup_and_restore_commands(tmp_path):
     out = subprocess.run(
         [*cli, "restore", str(tmp_path / "b"), "--db", str(tmp_path / "new.db")], capture_output=True, text=True
     )
-    assert out.returncode == 0 and hub_id in out.stdout, out.stderr
+    assert out.returncode == 0, out.stderr
+    assert hub_id in out.stdout, out.stderr
     again = subprocess.run(
         [*cli, "restore", str(tmp_path / "b"), "--db", str(tmp_path / "new.db")], capture_output=True, text=True
     )
-    assert again.returncode != 0 and "exists" in again.stderr
+    assert again.returncode != 0
+    assert "exists" in again.stderr

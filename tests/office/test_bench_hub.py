@@ -9,4 +9,5 @@ from bench.hub import run
 def test_hub_bench_quick_reports_rate_and_latency():
     rows = run(quick=True)
     assert [r.what for r in rows] == ["hub push, sqlite, 3x200 ops", "hub push p95 latency, sqlite"]
-    assert rows[0].figure.endswith("ops/s") and rows[1].figure.endswith("ms")
+    assert rows[0].figure.endswith("ops/s")
+    assert rows[1].figure.endswith("ms")

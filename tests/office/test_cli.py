@@ -20,7 +20,8 @@ def test_enroll_sync_digest_revoke_through_the_command_line(served, tmp_path, ca
     )
     assert code == 0
     one_time = out.strip().splitlines()[-1]
-    assert len(one_time) == 19 and one_time.count("-") == 3  # the code alone on the last line
+    assert len(one_time) == 19
+    assert one_time.count("-") == 3  # the code alone on the last line
     tablet = tmp_path / "t.db"
     store = Store(tablet)
     site = store.create_site(name="CLI site")
@@ -30,7 +31,8 @@ def test_enroll_sync_digest_revoke_through_the_command_line(served, tmp_path, ca
     assert code == 0, err
     assert "Tablet 3" in out
     code, out, err = _run(capsys, "sync", "enroll", "--db", str(tablet), served.url, one_time)
-    assert code == 1 and "already been used" in err  # one-time
+    assert code == 1
+    assert "already been used" in err  # one-time
     code, out, err = _run(capsys, "sync", "hub", "--db", str(tablet))
     assert code == 0, err
     _, hub_digest, _ = _run(capsys, "hub", "digest", "--db", hub_db)
@@ -38,16 +40,19 @@ def test_enroll_sync_digest_revoke_through_the_command_line(served, tmp_path, ca
     assert hub_digest.strip() == tablet_digest.strip()
     device = Store(tablet).device_id
     code, out, _ = _run(capsys, "hub", "revoke", "--db", hub_db, device)
-    assert code == 0 and "revoked Tablet 3" in out
+    assert code == 0
+    assert "revoked Tablet 3" in out
     code, _, err = _run(capsys, "sync", "hub", "--db", str(tablet))
-    assert code == 1 and "revoked" in err
+    assert code == 1
+    assert "revoked" in err
 
 
 def test_sync_hub_exits_1_with_the_reason_when_unreachable_or_not_enrolled(tmp_path, capsys):
     tablet = tmp_path / "t.db"
     Store(tablet).close()
     code, _, err = _run(capsys, "sync", "hub", "--db", str(tablet))
-    assert code == 1 and "not enrolled" in err
+    assert code == 1
+    assert "not enrolled" in err
     with socket.socket() as s:
         s.bind(("127.0.0.1", 0))
         port = s.getsockname()[1]  # closed again: nothing listens there
@@ -57,11 +62,14 @@ def test_sync_hub_exits_1_with_the_reason_when_unreachable_or_not_enrolled(tmp_p
     save_enrolment(store.db, f"http://127.0.0.1:{port}", store.device_id, new_private_key())
     store.close()
     code, _, err = _run(capsys, "sync", "hub", "--db", str(tablet))
-    assert code == 1 and "cannot reach the office hub" in err
+    assert code == 1
+    assert "cannot reach the office hub" in err
 
 
 def test_bad_role_and_missing_database_are_user_errors(tmp_path, capsys):
     code, _, err = _run(capsys, "sync", "hub", "--db", str(tmp_path / "none.db"))
-    assert code == 2 and "no database" in err
+    assert code == 2
+    assert "no database" in err
     code, _, err = _run(capsys, "hub", "revoke", "--db", str(tmp_path / "hub.db"), "no-such-device")
-    assert code == 2 and "no enrolled device" in err
+    assert code == 2
+    assert "no enrolled device" in err

@@ -29,10 +29,12 @@ def test_two_tablets_sync_through_the_hub_and_agree(served, tmp_path):
     b = served.tablet(tmp_path / "b.db", "Tablet B", "B. Tech", "technician")
     site, beam = _work(a)
     ra = sync(a)
-    assert ra.in_step and ra.pushed == a.db.execute("SELECT count(*) FROM op").fetchone()[0]
+    assert ra.in_step
+    assert ra.pushed == a.db.execute("SELECT count(*) FROM op").fetchone()[0]
     assert ra.blobs_sent == 1
     rb = sync(b)
-    assert rb.in_step and rb.pulled_new == ra.pushed
+    assert rb.in_step
+    assert rb.pulled_new == ra.pushed
     assert a.digest() == b.digest() == served.hub.digest()
     assert b.photos(site.id)[0]["pending"] is False  # the photo's bytes came from the hub
     b.update_beam(beam, {"b_mm": 175})
@@ -41,7 +43,8 @@ def test_two_tablets_sync_through_the_hub_and_agree(served, tmp_path):
     assert a.beam(beam).b_mm == 175
     assert a.digest() == b.digest() == served.hub.digest()
     again = sync(a)
-    assert again.pushed == 0 and again.pulled_new == 0  # in step: nothing to send or receive
+    assert again.pushed == 0
+    assert again.pulled_new == 0  # in step: nothing to send or receive
 
 
 def test_pull_pages_follow_hub_seq_without_holes(served, tmp_path):

@@ -55,8 +55,10 @@ def test_every_page_redirects_to_login_without_a_session(office):
     _served, client, site, d, notice, _ = office
     for page in [*PAGES, f"/site/{site.id}", f"/deficiency/{d.id}", f"/notice/{notice.id}.pdf"]:
         r = client.get(page)
-        assert r.status_code == 303 and r.headers["location"] == "/login", page
-        assert d.description.encode() not in r.content and b"%PDF" not in r.content
+        assert r.status_code == 303, page
+        assert r.headers["location"] == "/login", page
+        assert d.description.encode() not in r.content
+        assert b"%PDF" not in r.content
     client.cookies.set("bw_session", "forged-token")
     assert client.get("/").status_code == 303
 
@@ -64,7 +66,8 @@ def test_every_page_redirects_to_login_without_a_session(office):
 def test_wrong_password_is_refused(office):
     _, client, *_ = office
     r = client.post("/login", data={"name": "office", "password": "wrong password"})
-    assert r.status_code == 401 and "bw_session" not in r.cookies
+    assert r.status_code == 401
+    assert "bw_session" not in r.cookies
 
 
 def _login(client):
@@ -77,20 +80,29 @@ def test_register_shows_sites_items_history_notices_and_devices(office):
     _served, client, site, d, notice, _tablet = office
     _login(client)
     home = client.get("/").text
-    assert "Maple Street Hall" in home and "overdue" in home.lower()
+    assert "Maple Street Hall" in home
+    assert "overdue" in home.lower()
     page = client.get(f"/site/{site.id}").text
-    assert d.number in page and "immediate" in page and "overdue" in page
+    assert d.number in page
+    assert "immediate" in page
+    assert "overdue" in page
     item = client.get(f"/deficiency/{d.id}").text
-    assert "blocking installed" in item and "corrected" in item and "R2-B4" in item and notice.number in item
+    assert "blocking installed" in item
+    assert "corrected" in item
+    assert "R2-B4" in item
+    assert notice.number in item
     assert "/photo/" in item
     photo_sha = hashlib.sha256(PHOTO).hexdigest()
     assert client.get(f"/photo/{photo_sha}").content == PHOTO
     notices = client.get("/notices").text
     assert "matches its recorded SHA-256" in notices
     pdf = client.get(f"/notice/{notice.id}.pdf")
-    assert pdf.status_code == 200 and hashlib.sha256(pdf.content).hexdigest() == notice.pdf_sha256
+    assert pdf.status_code == 200
+    assert hashlib.sha256(pdf.content).hexdigest() == notice.pdf_sha256
     devices = client.get("/devices").text
-    assert "Tablet 3" in devices and "R. Eng" in devices and "active" in devices
+    assert "Tablet 3" in devices
+    assert "R. Eng" in devices
+    assert "active" in devices
 
 
 def test_a_changed_pdf_is_flagged_and_not_served(office):

@@ -41,7 +41,9 @@ def test_only_a_reviewer_verifies_whatever_the_device_claims(served, tmp_path):
     assert '"stage":1' in hub_stage  # corrected reached the hub; verified did not
     vm = SyncViewModel(tech)
     words = vm.held_back()
-    assert len(words) == 1 and "only a reviewer verifies" in words[0] and "technician" in words[0]
+    assert len(words) == 1
+    assert "only a reviewer verifies" in words[0]
+    assert "technician" in words[0]
     assert "held back" in vm.hub_status()
 
 

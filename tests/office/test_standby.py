@@ -21,7 +21,8 @@ def test_a_hub_push_is_applied_on_the_standby_before_it_is_acknowledged():
         urls = pair.create_database("hub")
         with psycopg.connect(urls[0], autocommit=True) as conn:
             settings = dict(conn.execute("SELECT name, setting FROM pg_settings WHERE name LIKE 'synchronous%'"))
-            assert settings["synchronous_commit"] == "remote_apply" and settings["synchronous_standby_names"] == "*"
+            assert settings["synchronous_commit"] == "remote_apply"
+            assert settings["synchronous_standby_names"] == "*"
             conn.execute("CREATE TABLE t (n INT)")
             for n in range(20):
                 conn.execute("INSERT INTO t VALUES (%s)", [n])
@@ -46,7 +47,8 @@ def test_the_script_starts_a_pair_and_prints_the_serve_line():
         )
         assert out.returncode == 0, out.stderr
         serve = [line for line in out.stdout.splitlines() if line.startswith("bracewalk hub serve")]
-        assert len(serve) == 1 and serve[0].count("--db postgresql://") == 2
+        assert len(serve) == 1
+        assert serve[0].count("--db postgresql://") == 2
         status = subprocess.run(
             [sys.executable, str(script), "status", "--dir", str(folder)], capture_output=True, text=True, timeout=60
         )

@@ -32,7 +32,8 @@ def test_auto_sync_backs_off_while_unreachable_and_resumes_when_the_network_retu
     store.create_site(name="Offline work")
     auto = AutoSync(SyncViewModel(store), base_s=30, max_s=100)
     assert auto.tick(0).startswith("Not synced, your work is safe")
-    assert auto.next_at_s == 60 and auto.tick(59) is None  # waits, never blocks
+    assert auto.next_at_s == 60
+    assert auto.tick(59) is None  # waits, never blocks
     auto.tick(60)
     assert auto.next_at_s == 60 + 100  # doubled, capped at max_s
     assert "changes waiting" in auto.waiting()

@@ -76,7 +76,8 @@ def test_a_blob_sent_to_one_worker_is_served_by_another(pg_cluster):
         content = b"\xff\xd8 photo bytes"
         sha = hashlib.sha256(content).hexdigest()
         assert a.put_blob(sha, content, device) is True
-        assert b.has_blob(sha) and b.read_blob(sha) == content
+        assert b.has_blob(sha)
+        assert b.read_blob(sha) == content
         assert b.put_blob(sha, content, device) is False  # already held: not stored twice
         assert b.missing_blobs([sha, "0" * 64]) == ["0" * 64]
     finally:
@@ -97,8 +98,10 @@ def test_several_addresses_make_one_url_that_asks_for_the_writable_server():
 
     url = conninfo(["postgresql://hub@10.0.0.1:5432/firm", "postgresql://hub@10.0.0.2:5433/firm"])
     parts = dict(p.split("=", 1) for p in url.split())
-    assert parts["host"] == "10.0.0.1,10.0.0.2" and parts["port"] == "5432,5433"
-    assert parts["target_session_attrs"] == "read-write" and parts["dbname"] == "firm"
+    assert parts["host"] == "10.0.0.1,10.0.0.2"
+    assert parts["port"] == "5432,5433"
+    assert parts["target_session_attrs"] == "read-write"
+    assert parts["dbname"] == "firm"
     import pytest
 
     with pytest.raises(ValueError, match="dbname"):

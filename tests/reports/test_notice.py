@@ -106,7 +106,8 @@ def test_header_items_cautions_and_page_numbers():
     for caution in ("engineer of record", "Local codes", "means, methods", "recording and recheck aid"):
         assert caution in text.replace("\n", " ")
     n = len(PdfReader(io.BytesIO(pdf)).pages)
-    assert f"page 1 of {n}" in text and f"page {n} of {n}" in text
+    assert f"page 1 of {n}" in text
+    assert f"page {n} of {n}" in text
     save_pngs(pdf, "notice-one-item")
 
 

@@ -91,7 +91,8 @@ def test_first_page_stands_alone():
         assert value in first, value
     for i in items:
         assert i.number in first
-    assert "IMMEDIATE" in first and "call Priya Okonkwo-Lind" in first
+    assert "IMMEDIATE" in first
+    assert "call Priya Okonkwo-Lind" in first
     save_pngs(pdf, "notice13-first-page")
 
 
@@ -195,7 +196,8 @@ def test_signature_profile_validation(tmp_path):
     store = Store(tmp_path / "d.db")
     vm = ReviewerViewModel(store)
     vm.set("name", "  ")
-    assert vm.save() is None and "name" in vm.message
+    assert vm.save() is None
+    assert "name" in vm.message
     with pytest.raises(ValueError, match="draw at least one line"):
         vm.draw_signature([[(1, 1)]], (100, 100))
 
@@ -249,12 +251,14 @@ def test_photo_markup_leaves_the_original_unchanged(tmp_path):
     store.mark_photo(site_id, pid, [{"kind": "ring", "x": 0.5, "y": 0.5, "x2": 0.2}])
     assert hashlib.sha256(store.blob(sha)).hexdigest() == sha  # the evidence photo is never altered
     original = next(p for p in store.photos(site_id) if p["id"] == pid)
-    assert "marks" not in original and original["sha256"] == sha
+    assert "marks" not in original
+    assert original["sha256"] == sha
     with pytest.raises(ValueError, match="allowed: a fraction"):
         store.mark_photo(site_id, pid, [{"kind": "ring", "x": 1.5, "y": 0.5}])
     notice, _ = build_notice(store, site_id, "N-1", only=[d.id])
     photos = [p for i in notice.items for p in i.photos]
-    assert len(photos) == 1 and photos[0].marks[0].kind == "ring"  # the latest markup, once
+    assert len(photos) == 1
+    assert photos[0].marks[0].kind == "ring"  # the latest markup, once
     assert "RB-4 west bearing" in photos[0].caption
     pdf = render_notice(notice)
     assert "Photo 1: RB-4 west bearing, 2026-11-30, P. O." in " ".join("\n".join(_pages(pdf)).split())
@@ -269,18 +273,21 @@ def test_closeout_after_rereview_and_revision(tmp_path):
     first, _ = issue_notice_for_site(store, site_id, tmp_path / "n.pdf", "P. O.", issued_on="2026-11-30")
     rev1 = reissue(store, first, tmp_path / "n-rev1.pdf", "item D-x location corrected to grid D/3", "P. O.")
     text = " ".join("\n".join(_pages((tmp_path / "n-rev1.pdf").read_bytes())).split())
-    assert f"{first.number} rev 1" in text and "What changed in rev 1: item D-x location corrected" in text
+    assert f"{first.number} rev 1" in text
+    assert "What changed in rev 1: item D-x location corrected" in text
     assert rev1.supersedes == first.id
     done, *rest = [store.deficiency(i) for i in first.deficiency_ids]
     store.move_status(done.id, "corrected", "D. Abernathy", "contractor", note="shimmed and bolted")
     store.move_status(done.id, "verified", "P. O.", "reviewer", note="seen fixed on site")
     closeout, path = issue_closeout(store, site_id, tmp_path / "c.pdf", "P. O.", issued_on="2026-12-10")
     pdf = path.read_bytes()
-    assert closeout.number != first.number and closeout.revision == 0  # a new numbered document
+    assert closeout.number != first.number
+    assert closeout.revision == 0  # a new numbered document
     assert stamp.embedded_hash(pdf) is not None
     text = " ".join("\n".join(_pages(pdf)).split())
     assert f"Close-out notice {closeout.number}" in text
-    assert f"{done.number} verified (closed)" in text and "seen fixed on site" in text
+    assert f"{done.number} verified (closed)" in text
+    assert "seen fixed on site" in text
     for d in rest:
         assert f"{d.number} still open" in text, d.number
     save_pngs(pdf, "notice13-closeout")
@@ -294,7 +301,8 @@ def test_printable_and_accessible():
         w, h = (float(x) for x in reader.pages[0].mediabox[2:])
         assert (round(w, 1), round(h, 1)) == box  # ISO 216 A4 210 x 297 mm; US Letter 8.5 x 11 in
         sizes = {float(x) for x in re.findall(rb"/F\d+ ([\d.]+) Tf", pdf)}
-        assert sizes and min(sizes) >= 8.0, sorted(sizes)  # nothing below 8 pt
+        assert sizes, sorted(sizes)
+        assert min(sizes) >= 8.0, sorted(sizes)  # nothing below 8 pt
         assert reader.trailer["/Root"]["/Lang"] == "en"
         assert reader.trailer["/Root"]["/ViewerPreferences"]["/DisplayDocTitle"]
         assert reader.metadata.title.startswith("Deficiency notice TSR-2611-FR-AB12-001")

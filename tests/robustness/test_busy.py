@@ -45,7 +45,8 @@ def test_save_while_sync_holds_the_lock_is_told_not_lost(tmp_path, monkeypatch):
     with pytest.raises(StoreBusy, match="sync"):
         store.update_beam(beam, {"b_mm": 175})
     assert vm.set_field("b_mm", "175") is False
-    assert "NOT SAVED" in vm.errors["b_mm"] and "sync" in vm.errors["b_mm"]
+    assert "NOT SAVED" in vm.errors["b_mm"]
+    assert "sync" in vm.errors["b_mm"]
     other.execute("ROLLBACK")
     assert vm.set_field("b_mm", "175") is True
     assert store.beam(beam).b_mm == 175

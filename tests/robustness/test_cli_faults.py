@@ -41,7 +41,8 @@ def site_db(tmp_path):
 def test_not_a_database(tmp_path, capsys):
     (tmp_path / "x.db").write_text("hello, not sqlite")
     code, _, err = run(capsys, "sync", "digest", "--db", tmp_path / "x.db")
-    assert code == 1 and "not a bracewalk database" in _one_line(err)
+    assert code == 1
+    assert "not a bracewalk database" in _one_line(err)
 
 
 def test_truncated_database(site_db, capsys):
@@ -79,20 +80,25 @@ def test_folder_given_as_database(tmp_path):
 
 def test_export_to_missing_folder_and_folder_as_bundle(site_db, tmp_path, capsys):
     code, _, err = run(capsys, "sync", "export", "--db", site_db, "--out", tmp_path / "nope" / "b.zip")
-    assert code == 2 and "no folder" in _one_line(err)
+    assert code == 2
+    assert "no folder" in _one_line(err)
     code, _, err = run(capsys, "sync", "import", "--db", site_db, tmp_path)
-    assert code == 2 and "folder" in _one_line(err)
+    assert code == 2
+    assert "folder" in _one_line(err)
 
 
 def test_report_to_unwritable_path_spends_no_number(site_db, tmp_path, capsys):
     (tmp_path / "afile").write_text("x")
     code, _, err = run(capsys, "report", "--db", site_db, "--site", "Faults", "--out", tmp_path / "afile" / "n.pdf")
-    assert code == 1 and "cannot use" in _one_line(err)
+    assert code == 1
+    assert "cannot use" in _one_line(err)
     s = Store(site_db)
     assert s.notices(s.find_site("Faults").id) == []
     assert s._meta()["counter_notice"] == "0"
     code, out, err = run(capsys, "report", "--db", site_db, "--site", "Faults", "--out", tmp_path / "n.pdf")
-    assert code == 0 and "P1-FR-" in out and "-001" in out
+    assert code == 0
+    assert "P1-FR-" in out
+    assert "-001" in out
 
 
 def test_verify_missing_file(site_db, tmp_path, capsys):
@@ -139,4 +145,5 @@ def test_import_on_a_full_disk_leaves_no_partial_files(tmp_path, full_at):
     assert "cannot rollback" not in proc.stderr
     assert not [p for p in (tmp_path / "dst-blobs").rglob("*") if p.is_file()]  # no partial, no orphan
     dst = Store(tmp_path / "dst.db")
-    assert dst.digest() == before and dst.db.execute("SELECT count(*) FROM blob").fetchone()[0] == 0
+    assert dst.digest() == before
+    assert dst.db.execute("SELECT count(*) FROM blob").fetchone()[0] == 0

@@ -95,7 +95,8 @@ def test_out_of_range_stamp_refused_not_crash(tmp_path, hlc):
 
     _forge(a, tmp_path / "a.zip", edit)
     report = import_bundle(b, tmp_path / "a.zip")
-    assert report.outcome == "refused" and "hlc" in report.reason
+    assert report.outcome == "refused"
+    assert "hlc" in report.reason
 
 
 # -- 2. a tablet restored from a backup --------------------------------------------------------
@@ -136,7 +137,8 @@ def test_restored_tablet_loses_nothing(tmp_path, order):
         if order == "save_first_no_mark":  # the office cannot tell: it refuses whole and says why
             export_bundle(tablet, tmp_path / "2.zip", peer="office")
             report = import_bundle(office, tmp_path / "2.zip")
-            assert report.outcome == "refused" and "restored from a backup" in report.reason
+            assert report.outcome == "refused"
+            assert "restored from a backup" in report.reason
         else:
             _sync(tablet, office, tmp_path / "2.zip", peer="office")
         _sync(office, tablet, tmp_path / "3.zip")
@@ -164,7 +166,8 @@ def test_bundle_claiming_office_origin_is_refused(tmp_path):
     manifest["vector"] = {tablet.device_id: 999_999_999}
     _write(other, tmp_path / "o.zip", manifest, z.read("ops.jsonl"), {})
     report = import_bundle(tablet, tmp_path / "o.zip")
-    assert report.outcome == "refused" and "origin" in report.reason
+    assert report.outcome == "refused"
+    assert "origin" in report.reason
     assert tablet.pending_sync_count("office") == 2
 
 
@@ -209,8 +212,10 @@ def test_bad_record_refused_whole_naming_the_field(tmp_path, field, edit):
     before = b.projections()
     report = import_bundle(b, tmp_path / "a.zip")
     assert report.outcome == "refused", report
-    assert "invalid record" in report.reason and repr(field) in report.reason
-    assert b.projections() == before and b.db.execute("SELECT count(*) FROM blob").fetchone()[0] == 0
+    assert "invalid record" in report.reason
+    assert repr(field) in report.reason
+    assert b.projections() == before
+    assert b.db.execute("SELECT count(*) FROM blob").fetchone()[0] == 0
 
 
 # -- 5. limits ----------------------------------------------------------------------------------
@@ -291,7 +296,8 @@ def test_full_export_of_a_restored_device_with_a_hole_is_accepted(tmp_path):
     _sync(office, tablet, tmp_path / "3.zip")  # seq 3 comes back
     _sync(tablet, fresh, tmp_path / "4.zip")
     _sync(tablet, office, tmp_path / "5.zip", peer="office")
-    assert fresh.beam(beam).d_mm == 532 and fresh.beam(beam).b_mm == 175
+    assert fresh.beam(beam).d_mm == 532
+    assert fresh.beam(beam).b_mm == 175
     assert office.digest() == tablet.digest() == fresh.digest()
 
 
@@ -304,8 +310,10 @@ def test_bundle_larger_than_the_free_space_refused_before_writing(tmp_path, monk
     export_bundle(a, tmp_path / "a.zip")
     monkeypatch.setattr(bundle_mod, "MIN_FREE_BYTES", 10**15)  # as if the disk were nearly full
     report = import_bundle(b, tmp_path / "a.zip")
-    assert report.outcome == "refused" and "free space" in report.reason
-    assert not [p for p in b.blob_dir.rglob("*") if p.is_file()] and b.projections() == Store(":memory:").projections()
+    assert report.outcome == "refused"
+    assert "free space" in report.reason
+    assert not [p for p in b.blob_dir.rglob("*") if p.is_file()]
+    assert b.projections() == Store(":memory:").projections()
 
 
 def test_stamp_near_the_end_of_the_range_cannot_stop_local_saves(tmp_path):
@@ -320,6 +328,7 @@ def test_stamp_near_the_end_of_the_range_cannot_stop_local_saves(tmp_path):
 
     _forge(a, tmp_path / "a.zip", edit)
     report = import_bundle(b, tmp_path / "a.zip")
-    assert report.outcome == "refused" and "years ahead" in report.reason
+    assert report.outcome == "refused"
+    assert "years ahead" in report.reason
     b.create_site(name="Still saving")
     del site

@@ -27,7 +27,8 @@ def test_fresh_stores_the_recheck_and_reuses_it(store, monkeypatch):
     assert got[ids[0]].utilisation == pytest.approx(expect.governing_utilisation, abs=1e-6)
     assert got[ids[0]].finding_codes == [f.code for f in expect.findings]
     # every table row the recheck used is recorded with its status
-    assert got[ids[0]].rows_used and {r["status"] for r in got[ids[0]].rows_used} <= {"verified", "confirmed", "memory"}
+    assert got[ids[0]].rows_used
+    assert {r["status"] for r in got[ids[0]].rows_used} <= {"verified", "confirmed", "memory"}
     calls = []
     monkeypatch.setattr(results, "compute", lambda job: calls.append(job))
     assert results.fresh(store.db, site.id) == got
@@ -65,7 +66,8 @@ def test_two_processes_give_the_same_results_as_one(store):
     _, _ = _site(store, n=7)
     one = {a.beam_id: a for _, a in results.recheck_all(store.db, processes=1, chunk=2)}
     two = {a.beam_id: a for _, a in results.recheck_all(store.db, processes=2, chunk=2)}
-    assert one == two and len(one) == 7
+    assert one == two
+    assert len(one) == 7
 
 
 def test_recheck_command_lists_changes_then_nothing(tmp_path, capsys):
@@ -74,14 +76,16 @@ def test_recheck_command_lists_changes_then_nothing(tmp_path, capsys):
     _, ids = _site(store)
     assert main(["recheck", "--db", str(db)]) == 0
     out, err = capsys.readouterr()
-    assert len(out.splitlines()) == 3 and "no stored result" in out  # first run: every beam is new
+    assert len(out.splitlines()) == 3
+    assert "no stored result" in out  # first run: every beam is new
     assert "3 / 3 beams" in err  # the progress bar
     assert main(["recheck", "--db", str(db), "--site", "Yard", "--quiet"]) == 0
     assert capsys.readouterr().out == ""
     store.db.execute("UPDATE beam_result SET status='deficient', governing='shear' WHERE beam_id=?", [ids[2]])
     assert main(["recheck", "--db", str(db), "--quiet"]) == 0
     out = capsys.readouterr().out
-    assert out.startswith("B-2") and "deficient (shear) ->" in out
+    assert out.startswith("B-2")
+    assert "deficient (shear) ->" in out
     assert main(["recheck", "--db", str(db), "--site", "nowhere"]) == 2
 
 

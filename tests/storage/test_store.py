@@ -69,7 +69,9 @@ def test_deficiency_numbers_carry_device_code(store):
     site = store.create_site(name="S")
     d1 = store.raise_deficiency(site.id, None, "x", "observation", "L", "d", "r", "a")
     d2 = store.raise_deficiency(site.id, None, "x", "observation", "L", "d", "r", "a")
-    assert d1.number.endswith("-001") and d2.number.endswith("-002") and store.device_code in d1.number
+    assert d1.number.endswith("-001")
+    assert d2.number.endswith("-002")
+    assert store.device_code in d1.number
 
 
 def test_hlc_never_goes_backwards_across_restarts(tmp_path):
@@ -93,6 +95,7 @@ def test_photo_blob_written_before_row_and_pending_when_missing(store):
     site = store.create_site(name="S")
     pid = store.add_photo(site.id, b"jpegbytes", caption="bearing 2")
     photo = next(p for p in store.photos(site.id) if p["id"] == pid)
-    assert store.blob(photo["sha256"]) == b"jpegbytes" and photo["pending"] is False
+    assert store.blob(photo["sha256"]) == b"jpegbytes"
+    assert photo["pending"] is False
     store.blob_path(photo["sha256"]).unlink()
     assert next(p for p in store.photos(site.id) if p["id"] == pid)["pending"] is True

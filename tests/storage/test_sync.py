@@ -55,8 +55,10 @@ def test_two_reviewers_one_beam(pair):
     import_bundle(b, tmp / "a2.zip")
     assert a.digest() == b.digest()
     beam_a = a.beam(beam)
-    assert beam_a.b_mm == 175 and beam_a.spans_mm == [7000]  # different fields both survive
-    assert len(a.conflicts()) == 1 and len(b.conflicts()) == 1  # same field: one winner, one conflict row
+    assert beam_a.b_mm == 175
+    assert beam_a.spans_mm == [7000]  # different fields both survive
+    assert len(a.conflicts()) == 1
+    assert len(b.conflicts()) == 1  # same field: one winner, one conflict row
     assert a.conflicts()[0]["field"] == "d_mm"
 
 
@@ -116,7 +118,8 @@ def test_bundle_with_gap_refused(pair):
     a.update_beam(beam, {"b_mm": 130})
     export_bundle(a, tmp / "p2.zip", peer="b")
     report = import_bundle(b, tmp / "p2.zip")
-    assert report.outcome == "refused" and "gap" in report.reason
+    assert report.outcome == "refused"
+    assert "gap" in report.reason
 
 
 def test_newer_schema_bundle_held(pair, monkeypatch):

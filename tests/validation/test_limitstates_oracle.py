@@ -200,12 +200,16 @@ def test_not_established_region_reports_the_restrained_upper_bound_and_its_overs
     )
     r = recheck(beam)
     region = r.bending[0]
-    assert region.outcome == "not_established" and region.mr_knm is None and region.kl is None
+    assert region.outcome == "not_established"
+    assert region.mr_knm is None
+    assert region.kl is None
     s = 130 * 456**2 / 6
     expected = ls.checkGlulamMr(s, 30.6, ls.checkKzbg(130, 456, 7200), 1.0) / 1000
     assert region.mr_if_restrained_knm == pytest.approx(expected, rel=1e-9)
     assert region.mf_knm == pytest.approx(28.75 * 7.2**2 / 8, rel=1e-9)
     assert region.utilisation_if_restrained == pytest.approx(28.75 * 7.2**2 / 8 / expected, rel=1e-9)
     over = [f for f in r.findings if f.code == "bending_overstress"]
-    assert over and "real capacity is lower" in over[0].message and over[0].priority.value == "immediate"
+    assert over
+    assert "real capacity is lower" in over[0].message
+    assert over[0].priority.value == "immediate"
     assert r.status.value == "not_established"

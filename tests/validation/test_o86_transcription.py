@@ -17,7 +17,8 @@ TRANSCRIPTION = "independent open transcription of O86-19 tables (single author)
 def test_northern_no3_e05_is_the_transcriptions_4000_mpa():
     row = tables.find("sawn_grades", species="Northern", grade="No.3")
     assert float(row["e05_mpa"]) == 4000.0
-    assert row["status"] == "confirmed" and row["confirmed_by"] == TRANSCRIPTION
+    assert row["status"] == "confirmed"
+    assert row["confirmed_by"] == TRANSCRIPTION
 
 
 @pytest.mark.parametrize(
@@ -26,7 +27,8 @@ def test_northern_no3_e05_is_the_transcriptions_4000_mpa():
 )
 def test_rows_the_transcription_confirms_are_marked_with_it(table, expected):
     rows = [r for r in tables.load(table).rows if r["confirmed_by"] == TRANSCRIPTION]
-    assert len(rows) == expected and all(r["status"] == "confirmed" for r in rows)
+    assert len(rows) == expected
+    assert all(r["status"] == "confirmed" for r in rows)
 
 
 def test_total_specified_deflection_limit_is_l_over_180():

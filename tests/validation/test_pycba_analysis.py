@@ -95,7 +95,8 @@ def test_uplift_at_back_span_support_is_the_pycba_reaction_under_0_9d_and_snow_o
     r = recheck(_overhang_beam(6000, 3000, dead=1.0, snow=5.0))
     assert r.bearing[0].uplift_kn == pytest.approx(-r1_ref, rel=1e-6)
     uplift = [f for f in r.findings if f.code == "uplift_at_support"]
-    assert len(uplift) == 1 and uplift[0].region == "support 1"
+    assert len(uplift) == 1
+    assert uplift[0].region == "support 1"
     assert f"{-r1_ref:.1f} kN" in uplift[0].message
     assert uplift[0].priority.value == "before_loading"  # dead load alone holds it down (pycba R1 > 0)
     assert float(np.atleast_1d(_pycba([6.0], 0.0, 3.0, [1.0, 1.0]).R)[0]) > 0
@@ -108,7 +109,8 @@ def test_uplift_under_dead_load_alone_is_immediate():
     assert float(np.atleast_1d(_pycba([3.0], 0.0, 4.0, [2.0, 2.0]).R)[0]) < 0
     r = recheck(_overhang_beam(3000, 4000, dead=2.0, snow=1.0))
     uplift = [f for f in r.findings if f.code == "uplift_at_support"]
-    assert uplift and uplift[0].priority.value == "immediate"
+    assert uplift
+    assert uplift[0].priority.value == "immediate"
 
 
 def test_split_dead_load_governs_back_span_moment_as_pycba_gives():
