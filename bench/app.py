@@ -32,7 +32,8 @@ def _display() -> tuple[subprocess.Popen[bytes] | None, str]:
     if os.environ.get("DISPLAY"):
         return None, os.environ["DISPLAY"]
     if shutil.which("Xvfb") is None:
-        raise RuntimeError("no display and no Xvfb (scripts/setup.sh installs it)")
+        msg = "no display and no Xvfb (scripts/setup.sh installs it)"
+        raise RuntimeError(msg)
     for n in range(90, 110):
         if not Path(f"/tmp/.X11-unix/X{n}").exists() and not Path(f"/tmp/.X{n}-lock").exists():
             proc = subprocess.Popen(
@@ -46,7 +47,8 @@ def _display() -> tuple[subprocess.Popen[bytes] | None, str]:
                     return proc, f":{n}"
                 time.sleep(0.1)
             proc.kill()
-    raise RuntimeError("could not start Xvfb")
+    msg = "could not start Xvfb"
+    raise RuntimeError(msg)
 
 
 def _probe(mode: str, db: Path, display: str, home: Path) -> tuple[float, dict[str, object]]:
@@ -67,10 +69,12 @@ def _probe(mode: str, db: Path, display: str, home: Path) -> tuple[float, dict[s
         out, _ = proc.communicate(timeout=120)
     except subprocess.TimeoutExpired:
         os.killpg(proc.pid, signal.SIGKILL)
-        raise RuntimeError(f"app probe ({mode}) did not finish in 120 s") from None
+        msg = f"app probe ({mode}) did not finish in 120 s"
+        raise RuntimeError(msg) from None
     line = next((x for x in out.splitlines() if x.startswith("BENCH ")), None)
     if line is None:
-        raise RuntimeError(f"app probe ({mode}) printed no result:\n{out[-2000:]}")
+        msg = f"app probe ({mode}) printed no result:\n{out[-2000:]}"
+        raise RuntimeError(msg)
     data = json.loads(line[6:])
     return float(data["first_frame_wall"]) - t0, data
 

@@ -68,7 +68,8 @@ def _push_all(store: Store, url: str, latencies: list[float], lock: threading.Lo
         with lock:
             latencies.append(dt)
         if answer["rejected"]:
-            raise RuntimeError(f"hub bench: {len(answer['rejected'])} ops refused: {answer['rejected'][0]}")
+            msg = f"hub bench: {len(answer['rejected'])} ops refused: {answer['rejected'][0]}"
+            raise RuntimeError(msg)
         record_push_answer(store, answer, out, int(time.time() * 1000))
 
 
@@ -109,7 +110,8 @@ def run_one(db: str, folder: Path, tablets: int, ops_each: int) -> list[Row]:
         total = tablets * ops_each
         held = int(hub.db.execute("SELECT count(*) FROM op").fetchone()[0])
         if held != total:
-            raise RuntimeError(f"hub bench: the hub holds {held} ops of {total}")
+            msg = f"hub bench: the hub holds {held} ops of {total}"
+            raise RuntimeError(msg)
         rows = []
         for s in stores:
             rows += s.db.execute(f"SELECT {', '.join(OP_KEYS)} FROM op").fetchall()

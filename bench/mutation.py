@@ -74,7 +74,8 @@ def _workspace(only: list[str], root: Path) -> Path:
 def _mutmut(work: Path, *args: str, fail_ok: bool = False) -> str:
     done = subprocess.run([MUTMUT, *args], cwd=work, capture_output=True, text=True, check=False)
     if done.returncode != 0 and not fail_ok:
-        raise RuntimeError(f"mutmut {' '.join(args[:2])} exited {done.returncode}: {done.stderr[-500:]}")
+        msg = f"mutmut {' '.join(args[:2])} exited {done.returncode}: {done.stderr[-500:]}"
+        raise RuntimeError(msg)
     return done.stdout
 
 

@@ -28,7 +28,8 @@ def probe(*args: str) -> dict[str, float]:
     )
     line = next((x for x in out.stdout.splitlines() if x.startswith("BENCH ")), None)
     if line is None:
-        raise RuntimeError(f"site probe {args[0]} failed:\n{out.stderr[-1500:]}")
+        msg = f"site probe {args[0]} failed:\n{out.stderr[-1500:]}"
+        raise RuntimeError(msg)
     return dict(json.loads(line[6:]))
 
 

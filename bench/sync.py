@@ -102,7 +102,8 @@ def run(quick: bool = False) -> list[Row]:
                 dst = Store(work / f"dst{state['i']}.db", firm_key=BENCH_KEY)
                 report = import_bundle(dst, bundle)
                 if report.outcome != "applied" or report.ops_new != n:
-                    raise RuntimeError(f"sync bench: import {report.outcome}, {report.ops_new} of {n} ops")
+                    msg = f"sync bench: import {report.outcome}, {report.ops_new} of {n} ops"
+                    raise RuntimeError(msg)
                 dst.close()
 
             def raw(state: dict[str, int] = state, work: Path = work, src_path: Path = src_path) -> None:
@@ -146,7 +147,8 @@ def _probe(*args: str) -> dict[str, object]:
     )
     line = next((x for x in out.stdout.splitlines() if x.startswith("BENCH ")), None)
     if line is None:
-        raise RuntimeError(f"sync probe {args[0]} failed:\n{out.stderr[-1500:]}")
+        msg = f"sync probe {args[0]} failed:\n{out.stderr[-1500:]}"
+        raise RuntimeError(msg)
     return dict(json.loads(line[6:]))
 
 
@@ -162,7 +164,8 @@ def run_large(quick: bool = False) -> list[Row]:
         files = [str(f) for f in ex["files"]]  # type: ignore[attr-defined]
         im = _probe("import", str(work / "dst.db"), *files)
         if im["outcomes"] != ["applied"] or im["ops_new"] != n:
-            raise RuntimeError(f"sync 1M bench: import {im['outcomes']}, {im['ops_new']} of {n} ops")
+            msg = f"sync 1M bench: import {im['outcomes']}, {im['ops_new']} of {n} ops"
+            raise RuntimeError(msg)
         peak = max(float(ex["peak_mb"]), float(im["peak_mb"]))  # type: ignore[arg-type]
         return [
             Row(

@@ -82,7 +82,8 @@ def _solve(matrix: list[list[float]], rhs: list[list[float]]) -> list[list[float
     for col in range(n):
         pivot = max(range(col, n), key=lambda r: abs(aug[r][col]))
         if abs(aug[pivot][col]) < 1e-300:
-            raise ValueError("beam is a mechanism: check supports and overhangs")
+            msg = "beam is a mechanism: check supports and overhangs"
+            raise ValueError(msg)
         aug[col], aug[pivot] = aug[pivot], aug[col]
         piv = aug[col][col]
         for r in range(col + 1, n):
@@ -107,7 +108,8 @@ class BeamModel:
     def __init__(self, spans_mm: list[float], overhang_left_mm: float = 0.0, overhang_right_mm: float = 0.0):
         """Build elements and supports, then solve for a unit UDL on each element (EI = 1)."""
         if not spans_mm:
-            raise ValueError("spans_mm must hold at least one span")
+            msg = "spans_mm must hold at least one span"
+            raise ValueError(msg)
         elements: list[Element] = []
         x = 0.0
         if overhang_left_mm > 0:
@@ -185,7 +187,8 @@ class BeamModel:
         """Solve a load case given the line load on each element (N/mm, downward positive)."""
         n_el = len(self.elements)
         if len(w_n_mm) != n_el:
-            raise ValueError(f"w_n_mm has {len(w_n_mm)} entries; the beam has {n_el} elements")
+            msg = f"w_n_mm has {len(w_n_mm)} entries; the beam has {n_el} elements"
+            raise ValueError(msg)
         v0 = [0.0] * n_el
         m0 = [0.0] * n_el
         vend = [0.0] * n_el

@@ -77,7 +77,8 @@ def service_factors(beam: Beam) -> tuple[dict[str, float], FactorTrace]:
 def treatment_factors(beam: Beam) -> tuple[float, float, FactorTrace]:
     """KT for strength and for E (O86-19 6.4.3, memory)."""
     if beam.material is Material.glulam and beam.treatment is Treatment.incised:
-        raise ValueError("treatment = 'incised' applies to sawn lumber; allowed for glulam: 'none'")
+        msg = "treatment = 'incised' applies to sawn lumber; allowed for glulam: 'none'"
+        raise ValueError(msg)
     row = tables.find(
         "treatment_factors", material=beam.material.value, treatment=beam.treatment.value, service=beam.service.value
     )
@@ -109,7 +110,8 @@ def size_factor_kzb(b_mm: float, d_mm: float) -> tuple[float, FactorTrace]:
                 source=f"kzb: larger dim <= {row['larger_dim_max_mm']} mm, {column}",
                 status=TraceStatus(row["status"]),
             )
-    raise ValueError(f"d_mm = {large:g} is outside the KZb table")
+    msg = f"d_mm = {large:g} is outside the KZb table"
+    raise ValueError(msg)
 
 
 def member_properties(beam: Beam) -> Member:

@@ -42,7 +42,8 @@ MIN_OVERHANG_MM = 10.0
 
 def _no_overhang_or_plausible(value: float) -> float:
     if 0 < value < MIN_OVERHANG_MM:
-        raise ValueError(f"overhang {value:g} mm; allowed: 0 (none) or {MIN_OVERHANG_MM:g} to 20000 mm")
+        msg = f"overhang {value:g} mm; allowed: 0 (none) or {MIN_OVERHANG_MM:g} to 20000 mm"
+        raise ValueError(msg)
     return value
 
 
@@ -176,7 +177,8 @@ class TopEdge(Record):
     @model_validator(mode="after")
     def _spacing_rule(self) -> TopEdge:
         if self.braced_by is TopBracing.purlins and self.spacing_mm is None:
-            raise ValueError("top_edge.spacing_mm is required when top_edge.braced_by is 'purlins'")
+            msg = "top_edge.spacing_mm is required when top_edge.braced_by is 'purlins'"
+            raise ValueError(msg)
         return self
 
 
@@ -189,7 +191,8 @@ class BottomEdge(Record):
     @model_validator(mode="after")
     def _spacing_rule(self) -> BottomEdge:
         if self.braced_by is BottomBracing.braces and self.spacing_mm is None:
-            raise ValueError("bottom_edge.spacing_mm is required when bottom_edge.braced_by is 'braces'")
+            msg = "bottom_edge.spacing_mm is required when bottom_edge.braced_by is 'braces'"
+            raise ValueError(msg)
         return self
 
 
@@ -269,20 +272,23 @@ class Beam(Record):
             )
         supports = len(self.spans_mm) + 1
         if len(self.bearings) != supports:
-            raise ValueError(
+            msg = (
                 f"bearings: {len(self.bearings)} given; {len(self.spans_mm)} span(s) need "
                 f"{supports} (one per support, left to right)"
             )
+            raise ValueError(msg)
         longest = max(self.spans_mm)
         for edge in ("top_edge", "bottom_edge"):
             spacing = getattr(self, edge).spacing_mm
             if spacing is not None and spacing > longest:
-                raise ValueError(
+                msg = (
                     f"{edge}.spacing_mm = {spacing:g} is larger than the longest span {longest:g} mm; "
                     "allowed: 0 < spacing <= longest span"
                 )
+                raise ValueError(msg)
         if self.le_case not in le_cases_allowed():
-            raise ValueError(f"le_case = {self.le_case!r}; allowed: {le_cases_allowed()}")
+            msg = f"le_case = {self.le_case!r}; allowed: {le_cases_allowed()}"
+            raise ValueError(msg)
         kinds = effective_length.beam_kinds(
             len(self.spans_mm),
             self.overhang_left_mm > 0 or self.overhang_right_mm > 0,
@@ -291,37 +297,44 @@ class Beam(Record):
         )
         misfit = effective_length.beam_fit_error(self.le_case, kinds)
         if misfit is not None:
-            raise ValueError(
-                f"le_case = {self.le_case!r} does not fit this beam: {misfit}; allowed: a row that fits, or 'auto'"
-            )
+            msg = f"le_case = {self.le_case!r} does not fit this beam: {misfit}; allowed: a row that fits, or 'auto'"
+            raise ValueError(msg)
         if self.material is Material.sawn:
             if self.b_mm > 102:
-                raise ValueError(
+                msg = (
                     f"b_mm = {self.b_mm:g} for sawn lumber; allowed: 0 < b_mm <= 102 (dimension lumber; "
                     "timbers >= 114 mm thick are not supported: their strengths are not in the tables)"
                 )
+                raise ValueError(msg)
             if self.d_mm > 400:
-                raise ValueError(f"d_mm = {self.d_mm:g} for sawn lumber; allowed: 0 < d_mm <= 400")
+                msg = f"d_mm = {self.d_mm:g} for sawn lumber; allowed: 0 < d_mm <= 400"
+                raise ValueError(msg)
         if self.material is Material.glulam and self.system is not SystemCase.single:
-            raise ValueError("system: glulam beams take KH = 1.0; allowed for glulam: 'single'")
+            msg = "system: glulam beams take KH = 1.0; allowed for glulam: 'single'"
+            raise ValueError(msg)
         if self.material is Material.glulam and self.treatment is Treatment.incised:
-            raise ValueError("treatment = 'incised' applies to sawn lumber; allowed for glulam: 'none'")
+            msg = "treatment = 'incised' applies to sawn lumber; allowed for glulam: 'none'"
+            raise ValueError(msg)
         total = sum(self.spans_mm) + self.overhang_left_mm + self.overhang_right_mm
         if total > MAX_SPAN_MM * 2:
-            raise ValueError(f"total length {total:g} mm; allowed: <= {MAX_SPAN_MM * 2:g} mm")
+            msg = f"total length {total:g} mm; allowed: <= {MAX_SPAN_MM * 2:g} mm"
+            raise ValueError(msg)
         return self
 
     @model_validator(mode="after")
     def _treatment_fits_material(self) -> Beam:
         if self.material is Material.glulam and self.treatment is Treatment.incised:
-            raise ValueError("treatment = 'incised' applies to sawn lumber; allowed for glulam: 'none'")
+            msg = "treatment = 'incised' applies to sawn lumber; allowed for glulam: 'none'"
+            raise ValueError(msg)
         return self
 
 
 def _check_species_grade(f_species: str, f_grade: str, material: Material, species: str, grade: str) -> None:
     allowed = species_allowed(material)
     if species not in allowed:
-        raise ValueError(f"{f_species} = {species!r} is not a {material.value} species; allowed: {allowed}")
+        msg = f"{f_species} = {species!r} is not a {material.value} species; allowed: {allowed}"
+        raise ValueError(msg)
     grades = grades_allowed(material, species)
     if grade not in grades:
-        raise ValueError(f"{f_grade} = {grade!r} does not exist for {material.value} {species}; allowed: {grades}")
+        msg = f"{f_grade} = {grade!r} does not exist for {material.value} {species}; allowed: {grades}"
+        raise ValueError(msg)

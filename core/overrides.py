@@ -51,7 +51,8 @@ class TableRecord(BaseModel):
     @classmethod
     def _known_table(cls, v: str) -> str:
         if v not in KEYS:
-            raise ValueError(f"table {v!r}; allowed: {', '.join(KEYS)}")
+            msg = f"table {v!r}; allowed: {', '.join(KEYS)}"
+            raise ValueError(msg)
         return v
 
     @field_validator("value")
@@ -62,21 +63,26 @@ class TableRecord(BaseModel):
         try:
             number = float(v)
         except ValueError as exc:
-            raise ValueError(f"value {v!r}: a corrected table value is a number") from exc
+            msg = f"value {v!r}: a corrected table value is a number"
+            raise ValueError(msg) from exc
         if not math.isfinite(number) or number <= 0:
-            raise ValueError(f"value {v!r}: a corrected table value is a positive finite number")
+            msg = f"value {v!r}: a corrected table value is a positive finite number"
+            raise ValueError(msg)
         return v
 
     @model_validator(mode="after")
     def _correction_complete(self) -> TableRecord:
         """A correction names its column, value and source together."""
         if (self.column is None) != (self.value is None):
-            raise ValueError("column and value: give both for a correction, or neither for a verification")
+            msg = "column and value: give both for a correction, or neither for a verification"
+            raise ValueError(msg)
         if self.column is not None:
             if self.column in KEYS[self.table] or self.column in PROVENANCE_COLUMNS:
-                raise ValueError(f"column {self.column!r}: a key or provenance column is not corrected")
+                msg = f"column {self.column!r}: a key or provenance column is not corrected"
+                raise ValueError(msg)
             if not self.source.strip():
-                raise ValueError("source: a corrected value names where it comes from")
+                msg = "source: a corrected value names where it comes from"
+                raise ValueError(msg)
         return self
 
 
@@ -127,6 +133,7 @@ def overlay(table: str, row: dict[str, str]) -> dict[str, str]:
     out = dict(row, status="verified", confirmed_by=note(record))
     if record.column is not None and record.value is not None:
         if record.column not in row:
-            raise ValueError(f"column {record.column!r} is not a column of table {table!r}")
+            msg = f"column {record.column!r} is not a column of table {table!r}"
+            raise ValueError(msg)
         out[record.column] = record.value
     return out

@@ -62,7 +62,8 @@ def find(name: str, **keys: str) -> dict[str, str]:
         if all(row[k] == v for k, v in keys.items()):
             _FOUND[memo_key] = row
             return row
-    raise KeyError(f"no row in table {name!r} for {keys}")
+    msg = f"no row in table {name!r} for {keys}"
+    raise KeyError(msg)
 
 
 _FOUND: dict[tuple[str, tuple[tuple[str, str], ...]], dict[str, str]] = {}

@@ -40,13 +40,16 @@ def read_input(path: str) -> bytes:
             raw = sys.stdin.buffer.read(MAX_INPUT_BYTES + 1)
         else:
             if Path(path).is_dir():
-                raise UserError(f"{path} is a folder, not a beam file")
+                msg = f"{path} is a folder, not a beam file"
+                raise UserError(msg)
             with open(path, "rb") as fh:
                 raw = fh.read(MAX_INPUT_BYTES + 1)
     except OSError as exc:
-        raise UserError(f"cannot read {path}: {exc.strerror}") from exc
+        msg = f"cannot read {path}: {exc.strerror}"
+        raise UserError(msg) from exc
     if len(raw) > MAX_INPUT_BYTES:
-        raise UserError(f"{path} is larger than {MAX_INPUT_BYTES:,} bytes; a beam file is a few kB")
+        msg = f"{path} is larger than {MAX_INPUT_BYTES:,} bytes; a beam file is a few kB"
+        raise UserError(msg)
     return raw
 
 
@@ -57,7 +60,8 @@ def decode_input(raw: bytes, path: str) -> str:
             try:
                 return raw.decode(encoding)
             except UnicodeDecodeError as exc:
-                raise UserError(f"{path}: starts with a {encoding} byte-order mark but is not {encoding}") from exc
+                msg = f"{path}: starts with a {encoding} byte-order mark but is not {encoding}"
+                raise UserError(msg) from exc
     try:
         return raw.decode("utf-8")
     except UnicodeDecodeError:
@@ -66,12 +70,14 @@ def decode_input(raw: bytes, path: str) -> str:
 
 
 def _refuse_constant(name: str) -> Any:
-    raise UserError(f"{name} is not a number a beam can have (JSON allows only finite numbers)")
+    msg = f"{name} is not a number a beam can have (JSON allows only finite numbers)"
+    raise UserError(msg)
 
 
 def _bounded_int(text: str) -> int:
     if len(text.lstrip("-")) > MAX_INT_DIGITS:
-        raise UserError(f"an integer of {len(text)} digits; no beam field needs more than {MAX_INT_DIGITS}")
+        msg = f"an integer of {len(text)} digits; no beam field needs more than {MAX_INT_DIGITS}"
+        raise UserError(msg)
     return int(text)
 
 
@@ -80,9 +86,11 @@ def parse_json(text: str, path: str) -> Any:
     try:
         return json.loads(text, parse_constant=_refuse_constant, parse_int=_bounded_int)
     except json.JSONDecodeError as exc:
-        raise UserError(f"{path} is not valid JSON: {exc.msg} at line {exc.lineno}") from exc
+        msg = f"{path} is not valid JSON: {exc.msg} at line {exc.lineno}"
+        raise UserError(msg) from exc
     except RecursionError as exc:
-        raise UserError(f"{path}: JSON nested too deeply to be a beam") from exc
+        msg = f"{path}: JSON nested too deeply to be a beam"
+        raise UserError(msg) from exc
 
 
 def load_beam(path: str) -> Any:
@@ -94,13 +102,15 @@ def load_beam(path: str) -> Any:
     try:
         check_beam_json(data)  # plausible ranges, the same as the tablet's form (mobile/units.py)
     except ValueError as exc:
-        raise UserError(f"invalid beam: {exc}") from exc
+        msg = f"invalid beam: {exc}"
+        raise UserError(msg) from exc
     try:
         return Beam.model_validate(data)
     except ValidationError as exc:
         raise UserError(_format_validation(exc)) from exc
     except RecursionError as exc:
-        raise UserError(f"{path}: JSON nested too deeply to be a beam") from exc
+        msg = f"{path}: JSON nested too deeply to be a beam"
+        raise UserError(msg) from exc
 
 
 def cmd_check(args: argparse.Namespace) -> int:

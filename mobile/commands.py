@@ -21,7 +21,8 @@ def _open_store(db: str, must_exist: bool = True) -> Any:
     from storage import Store
 
     if must_exist and not Path(db).exists():
-        raise UserError(f"no database at {db}")
+        msg = f"no database at {db}"
+        raise UserError(msg)
     return Store(db)
 
 
@@ -31,9 +32,11 @@ def cmd_sync_export(args: argparse.Namespace) -> int:
 
     store = _open_store(args.db)
     if not Path(args.out).parent.is_dir():
-        raise UserError(f"no folder {Path(args.out).parent} to write {Path(args.out).name} in")
+        msg = f"no folder {Path(args.out).parent} to write {Path(args.out).name} in"
+        raise UserError(msg)
     if Path(args.out).is_dir():
-        raise UserError(f"{args.out} is a folder; give a file name for the bundle")
+        msg = f"{args.out} is a folder; give a file name for the bundle"
+        raise UserError(msg)
     manifest = export_bundle(store, args.out, peer=args.peer)
     parts = int(manifest.get("parts", 1))
     where = args.out if parts == 1 else f"{parts} files ({args.out} first; import them in order)"
@@ -46,9 +49,11 @@ def cmd_sync_import(args: argparse.Namespace) -> int:
     from storage.bundle import import_bundle
 
     if not Path(args.file).exists():
-        raise UserError(f"no bundle at {args.file}")
+        msg = f"no bundle at {args.file}"
+        raise UserError(msg)
     if Path(args.file).is_dir():
-        raise UserError(f"{args.file} is a folder; give the bundle file")
+        msg = f"{args.file} is a folder; give the bundle file"
+        raise UserError(msg)
     store = _open_store(args.db, must_exist=False)
     report = import_bundle(store, args.file)
     if report.outcome == "refused":
@@ -92,7 +97,8 @@ def cmd_report(args: argparse.Namespace) -> int:
     store = _open_store(args.db)
     if args.verify:
         if not Path(args.verify).is_file():
-            raise UserError(f"no PDF file at {args.verify}")
+            msg = f"no PDF file at {args.verify}"
+            raise UserError(msg)
         try:
             found = verify_pdf(store, Path(args.verify))
         except IntegrityError as exc:
@@ -104,13 +110,15 @@ def cmd_report(args: argparse.Namespace) -> int:
         print(f"{args.verify}: exactly issued notice {found.number} rev {found.revision}, {found.issued_at}")
         return EXIT_OK
     if not args.site or not args.out:
-        raise UserError("report needs --site and --out (or --verify FILE)")
+        msg = "report needs --site and --out (or --verify FILE)"
+        raise UserError(msg)
     try:
         site = store.find_site(args.site)
     except KeyError as exc:
         raise UserError(str(exc)) from exc
     if Path(args.out).is_dir():
-        raise UserError(f"{args.out} is a folder; give a file name for the PDF")
+        msg = f"{args.out} is a folder; give a file name for the PDF"
+        raise UserError(msg)
     notice, path = issue_notice_for_site(store, site.id, Path(args.out), issued_by=args.by)
     print(f"issued notice {notice.number} ({len(notice.deficiency_ids)} items) to {path}; sha256 {notice.pdf_sha256}")
     return EXIT_OK

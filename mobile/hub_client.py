@@ -106,9 +106,11 @@ def request(
             reason = exc.reason
         finally:
             exc.close()
-        raise HubError(f"the office hub refused: {reason}", exc.code) from exc
+        msg = f"the office hub refused: {reason}"
+        raise HubError(msg, exc.code) from exc
     except (urllib.error.URLError, OSError) as exc:
-        raise HubError(f"cannot reach the office hub at {url}: {getattr(exc, 'reason', exc)}") from exc
+        msg = f"cannot reach the office hub at {url}: {getattr(exc, 'reason', exc)}"
+        raise HubError(msg) from exc
 
 
 def enroll(store: Store, url: str, code: str, ca_pem: str = "") -> dict[str, Any]:
@@ -130,7 +132,8 @@ def sync(store: Store, progress: Progress | None = None, now_ms: Callable[[], in
     clock = now_ms or (lambda: int(time.time() * 1000))
     auth = enrolment(store.db)
     if auth is None:
-        raise HubError("this tablet is not enrolled at an office hub (enter the hub address and a code)")
+        msg = "this tablet is not enrolled at an office hub (enter the hub address and a code)"
+        raise HubError(msg)
     result = SyncResult()
     try:
         _sync(store, auth, result, tell, clock)

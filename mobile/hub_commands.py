@@ -28,11 +28,13 @@ def _hub(db: str | None) -> Any:
     from office.hubstore import HubStore
 
     if db and "://" in db and not db.startswith(("postgresql://", "postgres://")):
-        raise UserError(f"--db {db}: give an SQLite file path or a postgresql:// URL")
+        msg = f"--db {db}: give an SQLite file path or a postgresql:// URL"
+        raise UserError(msg)
     try:
         return HubStore(db or default_hub_db())
     except OSError as exc:
-        raise UserError(f"cannot open the hub database {db}: {exc}") from exc
+        msg = f"cannot open the hub database {db}: {exc}"
+        raise UserError(msg) from exc
 
 
 def cmd_hub_serve(args: argparse.Namespace) -> int:
@@ -42,7 +44,8 @@ def cmd_hub_serve(args: argparse.Namespace) -> int:
     from office.app import create_app
 
     if bool(args.cert) != bool(args.key):
-        raise UserError("--cert and --key go together")
+        msg = "--cert and --key go together"
+        raise UserError(msg)
     hub = _hub(" ".join(args.db) if args.db else None)
     scheme = "https" if args.cert else "http"
     print(f"bracewalk hub {hub.hub_id} on {scheme}://{args.host}:{args.port} (database {hub.path})", flush=True)
@@ -64,7 +67,8 @@ def cmd_hub_backup(args: argparse.Namespace) -> int:
     try:
         out = backup(" ".join(args.db) if args.db else str(default_hub_db()), Path(args.out))
     except (OSError, RuntimeError) as exc:
-        raise UserError(f"backup failed: {exc}") from exc
+        msg = f"backup failed: {exc}"
+        raise UserError(msg) from exc
     print(f"hub backed up to {out}")
     return EXIT_OK
 
@@ -76,7 +80,8 @@ def cmd_hub_restore(args: argparse.Namespace) -> int:
     try:
         hub = restore(Path(args.backup), " ".join(args.db))
     except (OSError, RuntimeError) as exc:
-        raise UserError(f"restore failed: {exc}") from exc
+        msg = f"restore failed: {exc}"
+        raise UserError(msg) from exc
     print(f"hub {hub.hub_id} restored into {args.db[0]}: {len(hub.devices())} devices, hub_seq {hub.hub_seq()}")
     hub.close()
     return EXIT_OK
@@ -102,7 +107,8 @@ def cmd_hub_revoke(args: argparse.Namespace) -> int:
     try:
         dev = hub.revoke(args.device)
     except KeyError as exc:
-        raise UserError(f"no enrolled device {args.device}") from exc
+        msg = f"no enrolled device {args.device}"
+        raise UserError(msg) from exc
     finally:
         hub.close()
     print(f"revoked {dev.name} ({dev.person}, {dev.role}); what it sent before stays in the log")
@@ -141,7 +147,8 @@ def cmd_hub_user_add(args: argparse.Namespace) -> int:
     if sys.stdin.isatty():
         password = getpass.getpass(f"password for {args.name}: ")
         if getpass.getpass("again: ") != password:
-            raise UserError("the two passwords differ")
+            msg = "the two passwords differ"
+            raise UserError(msg)
     else:
         password = sys.stdin.readline().rstrip("\n")
     hub = _hub(args.db)
@@ -159,7 +166,8 @@ def _tablet(db: str) -> Any:
     from storage import Store
 
     if not Path(db).exists():
-        raise UserError(f"no database at {db}")
+        msg = f"no database at {db}"
+        raise UserError(msg)
     return Store(db)
 
 
@@ -173,7 +181,8 @@ def cmd_sync_enroll(args: argparse.Namespace) -> int:
         try:
             ca_pem = Path(args.ca).read_text(encoding="ascii")
         except (OSError, UnicodeDecodeError) as exc:
-            raise UserError(f"cannot read the office certificate {args.ca}: {exc}") from exc
+            msg = f"cannot read the office certificate {args.ca}: {exc}"
+            raise UserError(msg) from exc
     try:
         answer = enroll(store, args.url, args.code, ca_pem)
     except HubError as exc:
@@ -270,4 +279,5 @@ def _subcommands(parser: argparse.ArgumentParser) -> Any:
     for action in parser._actions:
         if isinstance(action, argparse._SubParsersAction):
             return action
-    raise RuntimeError(f"{parser.prog} has no subcommands")
+    msg = f"{parser.prog} has no subcommands"
+    raise RuntimeError(msg)

@@ -57,7 +57,8 @@ def photo_ref(store: Store, record: dict[str, object]) -> Photo:
     def load() -> bytes:
         content = store.blob(sha)
         if content is None:
-            raise FileNotFoundError(f"photo {sha[:12]} has not arrived on this tablet")
+            msg = f"photo {sha[:12]} has not arrived on this tablet"
+            raise FileNotFoundError(msg)
         return content
 
     return Photo(sha256=sha, load=load, caption=" · ".join(b for b in bits if b), marks=marks)

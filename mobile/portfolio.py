@@ -85,7 +85,8 @@ def cmd_tables_verify(args: argparse.Namespace) -> int:
     except ValidationError as exc:
         e = exc.errors()[0]
         where = ".".join(str(p) for p in e["loc"])
-        raise UserError(f"{where + ': ' if where else ''}{str(e['msg']).removeprefix('Value error, ')}") from exc
+        msg = f"{where + ': ' if where else ''}{str(e['msg']).removeprefix('Value error, ')}"
+        raise UserError(msg) from exc
     what = "verified" if rec.column is None else f"{rec.column} corrected to {rec.value}"
     print(f"{rec.table} {rec.row}: {what} by {rec.by} (CSA {rec.edition} p. {rec.page}, {rec.at}); synced record")
     print("run `bracewalk tables impact --db DB` to see the beams and notices whose result changes", file=sys.stderr)

@@ -59,7 +59,8 @@ def parse_length(text: str) -> tuple[float, bool]:
     """
     s = _normalise(text)
     if not s:
-        raise LengthRefused("empty: enter a length in mm, m or feet-inches (11' 9 3/4\")")
+        msg = "empty: enter a length in mm, m or feet-inches (11' 9 3/4\")"
+        raise LengthRefused(msg)
     m = _METRIC.fullmatch(s)
     if m:
         value = float(m.group("v"))
@@ -72,12 +73,12 @@ def parse_length(text: str) -> tuple[float, bool]:
             if frac:
                 num, den = (int(p) for p in frac.replace(" ", "").split("/"))
                 if den == 0:
-                    raise LengthRefused(f"{text!r}: a fraction of an inch cannot have 0 below the line")
+                    msg = f"{text!r}: a fraction of an inch cannot have 0 below the line"
+                    raise LengthRefused(msg)
                 inches += Fraction(num, den)
             return float(inches) * MM_PER_INCH, True
-    raise LengthRefused(
-        f"{text!r} is not a length: enter mm (3600), m (3.6 m) or feet-inches (11' 9 3/4\", 11 ft 9.75 in)"
-    )
+    msg = f"{text!r} is not a length: enter mm (3600), m (3.6 m) or feet-inches (11' 9 3/4\", 11 ft 9.75 in)"
+    raise LengthRefused(msg)
 
 
 def parse_length_mm(text: str) -> float:
@@ -111,7 +112,8 @@ def check_length(kind: str, mm: float, high_mm: float | None = None, unit_typed:
     else:
         ask = ""
     shown = f"{typed} read as " if typed else ""
-    raise LengthRefused(f"{word}: {shown}{understood}; allowed {allowed_text(kind, high_mm)}.{ask}", suggestion)
+    msg = f"{word}: {shown}{understood}; allowed {allowed_text(kind, high_mm)}.{ask}"
+    raise LengthRefused(msg, suggestion)
 
 
 def read_length(kind: str, text: str, high_mm: float | None = None) -> float:
@@ -174,4 +176,5 @@ def check_beam_json(data: Any) -> None:
         r = PLAUSIBLE[kind]
         top = r.high if high is None else min(r.high, high)
         if not r.low <= value <= top:
-            raise ValueError(f"{where} = {value:g} mm: outside the plausible range {allowed_text(kind, high)}")
+            msg = f"{where} = {value:g} mm: outside the plausible range {allowed_text(kind, high)}"
+            raise ValueError(msg)

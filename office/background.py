@@ -36,7 +36,8 @@ class BackgroundHub:
             if self.server.started:
                 return self
             time.sleep(0.05)
-        raise RuntimeError(f"the hub did not start within {timeout_s} s")
+        msg = f"the hub did not start within {timeout_s} s"
+        raise RuntimeError(msg)
 
     def stop(self) -> None:
         """Stop serving and release the port."""
@@ -72,14 +73,16 @@ class HubProcess:
         deadline = time.monotonic() + timeout_s
         while time.monotonic() < deadline:
             if self.proc.poll() is not None:
-                raise RuntimeError(f"hub worker on port {self.port} exited with {self.proc.returncode}")
+                msg = f"hub worker on port {self.port} exited with {self.proc.returncode}"
+                raise RuntimeError(msg)
             try:
                 with urllib.request.urlopen(f"{self.url}/v1/hub", timeout=2):
                     return self
             except OSError:
                 time.sleep(0.1)
         self.stop()
-        raise RuntimeError(f"hub worker on port {self.port} did not answer within {timeout_s} s")
+        msg = f"hub worker on port {self.port} did not answer within {timeout_s} s"
+        raise RuntimeError(msg)
 
     def stop(self) -> None:
         """Stop the process (SIGTERM, then SIGKILL after 10 s)."""

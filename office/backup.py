@@ -34,7 +34,8 @@ def backup(db: str, out: Path, blob_dir: Path | None = None) -> Path:
         return out
     source = Path(db)
     if not source.exists():
-        raise FileNotFoundError(f"no hub database at {source}")
+        msg = f"no hub database at {source}"
+        raise FileNotFoundError(msg)
     conn = sqlite3.connect(source)
     try:
         conn.execute("VACUUM INTO ?", [str(out / "hub.db")])
@@ -51,7 +52,8 @@ def restore(backup_dir: Path, db: str, blob_dir: Path | None = None) -> HubStore
     if is_postgres_url(db.split(" ")[0]):
         dump = backup_dir / "hub.pgdump"
         if not dump.exists():
-            raise FileNotFoundError(f"{dump} is missing: that is not a backup of a PostgreSQL hub")
+            msg = f"{dump} is missing: that is not a backup of a PostgreSQL hub"
+            raise FileNotFoundError(msg)
         hub = HubStore(db)
         try:
             held = int(hub.db.execute("SELECT count(*) FROM hub_device").fetchone()[0])
@@ -59,15 +61,18 @@ def restore(backup_dir: Path, db: str, blob_dir: Path | None = None) -> HubStore
         finally:
             hub.close()
         if held:
-            raise FileExistsError("the target database already holds a hub: restore only into an empty database")
+            msg = "the target database already holds a hub: restore only into an empty database"
+            raise FileExistsError(msg)
         _pg_tool("pg_restore", "--no-owner", "--clean", "--if-exists", "--dbname", conninfo(db), str(dump))
         return HubStore(db)
     source = backup_dir / "hub.db"
     if not source.exists():
-        raise FileNotFoundError(f"{source} is missing: that is not a backup of an SQLite hub")
+        msg = f"{source} is missing: that is not a backup of an SQLite hub"
+        raise FileNotFoundError(msg)
     target = Path(db)
     if target.exists():
-        raise FileExistsError(f"{target} exists: restore only into a new file")
+        msg = f"{target} exists: restore only into a new file"
+        raise FileExistsError(msg)
     target.parent.mkdir(parents=True, exist_ok=True)
     shutil.copyfile(source, target)
     if (backup_dir / "blobs").exists():
@@ -78,7 +83,9 @@ def restore(backup_dir: Path, db: str, blob_dir: Path | None = None) -> HubStore
 def _pg_tool(tool: str, *args: str) -> None:
     bindir = pg_bindir()
     if bindir is None:
-        raise RuntimeError(f"{tool} is not installed (scripts/setup.sh installs Debian's postgresql)")
+        msg = f"{tool} is not installed (scripts/setup.sh installs Debian's postgresql)"
+        raise RuntimeError(msg)
     done = subprocess.run([str(bindir / tool), *args], capture_output=True, text=True, timeout=3600)
     if done.returncode != 0:
-        raise RuntimeError(f"{tool} failed: {done.stderr.strip()}")
+        msg = f"{tool} failed: {done.stderr.strip()}"
+        raise RuntimeError(msg)

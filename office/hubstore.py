@@ -221,9 +221,11 @@ class HubStore:
     def new_code(self, name: str, person: str, role: str) -> str:
         """A one-time enrolment code for a device to be named ``name``, used by ``person`` in ``role``."""
         if role not in ROLES:
-            raise ValueError(f"role {role!r}; allowed: {', '.join(ROLES)}")
+            msg = f"role {role!r}; allowed: {', '.join(ROLES)}"
+            raise ValueError(msg)
         if not name.strip() or not person.strip():
-            raise ValueError("name and person must not be empty")
+            msg = "name and person must not be empty"
+            raise ValueError(msg)
         raw = secrets.token_hex(8).upper()
         code = "-".join(raw[i : i + 4] for i in range(0, 16, 4))
         with self.tx():
@@ -263,7 +265,8 @@ class HubStore:
         with self.lock:
             row = self.db.execute("SELECT * FROM hub_device WHERE device_id=?", [device_id]).fetchone()
         if row is None:
-            raise KeyError(f"no device {device_id}")
+            msg = f"no device {device_id}"
+            raise KeyError(msg)
         return Device(*row)
 
     def devices(self) -> list[Device]:

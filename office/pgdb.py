@@ -142,7 +142,8 @@ def translate(sql: str) -> str:
     if m:
         table = m.group(1)
         if table not in TABLES:
-            raise ValueError(f"INSERT OR REPLACE on {table!r}: its primary key is not listed in office/pgdb.py")
+            msg = f"INSERT OR REPLACE on {table!r}: its primary key is not listed in office/pgdb.py"
+            raise ValueError(msg)
         pk, cols = TABLES[table]
         named = tuple(c.strip() for c in m.group(3).split(",")) if m.group(3) else cols
         head = f"INSERT INTO {table} ({', '.join(named)}) VALUES"
@@ -163,7 +164,8 @@ def conninfo(addresses: str | list[str]) -> str:
     urls = [addresses] if isinstance(addresses, str) else list(addresses)
     urls = [u for part in urls for u in part.split(" ") if u]
     if not urls:
-        raise ValueError("no database address given")
+        msg = "no database address given"
+        raise ValueError(msg)
     parsed = [conninfo_to_dict(u) for u in urls]
     hosts = [h for p in parsed for h in str(p.get("host", "")).split(",")]
     ports = [q for p in parsed for q in str(p.get("port", "5432")).split(",")]
@@ -171,7 +173,8 @@ def conninfo(addresses: str | list[str]) -> str:
     for other in parsed[1:]:
         differs = {k for k in ("dbname", "user") if other.get(k) != base.get(k)}
         if differs:
-            raise ValueError(f"database addresses differ in {', '.join(sorted(differs))}: {urls}")
+            msg = f"database addresses differ in {', '.join(sorted(differs))}: {urls}"
+            raise ValueError(msg)
     base["host"], base["port"] = ",".join(hosts), ",".join(p if p else "5432" for p in ports)
     if len(hosts) > 1:
         base.setdefault("target_session_attrs", "read-write")
@@ -192,7 +195,8 @@ class PgDatabase:
         try:
             conn = psycopg.connect(self.url, autocommit=True)
         except psycopg.OperationalError as exc:
-            raise DatabaseUnavailable(f"no database that accepts writes: {str(exc).splitlines()[0]}") from exc
+            msg = f"no database that accepts writes: {str(exc).splitlines()[0]}"
+            raise DatabaseUnavailable(msg) from exc
         conn.add_notice_handler(self._notice)
         return conn
 
@@ -212,7 +216,8 @@ class PgDatabase:
             if word == "ROLLBACK":  # the server dropped the transaction with the connection
                 return None
             if word == "COMMIT":
-                raise DatabaseUnavailable("the database connection was lost before the commit; not acknowledged")
+                msg = "the database connection was lost before the commit; not acknowledged"
+                raise DatabaseUnavailable(msg)
             self.conn = self._connect()
         try:
             if word == "BEGIN IMMEDIATE":
@@ -224,9 +229,11 @@ class PgDatabase:
         except psycopg.OperationalError as exc:
             if not self.conn.broken:
                 raise
-            raise DatabaseUnavailable(f"the database connection was lost: {str(exc).splitlines()[0]}") from exc
+            msg = f"the database connection was lost: {str(exc).splitlines()[0]}"
+            raise DatabaseUnavailable(msg) from exc
         if word == "COMMIT" and self._sync_cancelled:
-            raise DatabaseUnavailable("the commit did not reach the synchronous standby; not acknowledged")
+            msg = "the commit did not reach the synchronous standby; not acknowledged"
+            raise DatabaseUnavailable(msg)
         return cur
 
 

@@ -62,7 +62,8 @@ class PgServer:
         """Choose the folder (a new temporary one by default) and port (a free one by default)."""
         bindir = pg_bindir()
         if bindir is None:
-            raise RuntimeError("PostgreSQL is not installed (scripts/setup.sh installs Debian's postgresql)")
+            msg = "PostgreSQL is not installed (scripts/setup.sh installs Debian's postgresql)"
+            raise RuntimeError(msg)
         self.bin = bindir
         self.dir = Path(folder) if folder else Path(tempfile.mkdtemp(prefix="bracewalk-pg-"))
         self.dir.mkdir(parents=True, exist_ok=True)
@@ -83,7 +84,8 @@ class PgServer:
             [*self.as_postgres, str(self.bin / tool), *args], capture_output=True, text=True, timeout=timeout_s
         )
         if done.returncode != 0:
-            raise RuntimeError(f"{tool} {' '.join(args)} failed: {done.stderr.strip() or done.stdout.strip()}")
+            msg = f"{tool} {' '.join(args)} failed: {done.stderr.strip() or done.stdout.strip()}"
+            raise RuntimeError(msg)
         return done.stdout
 
     def init(self, settings: tuple[str, ...] = ()) -> PgServer:
@@ -143,7 +145,8 @@ class PgServer:
                 if row is not None and not row[0]:
                     return
             time.sleep(0.1)
-        raise RuntimeError("the standby did not leave recovery within 60 s")
+        msg = "the standby did not leave recovery within 60 s"
+        raise RuntimeError(msg)
 
     def create_database(self, name: str) -> str:
         """Create a database (UTF-8) and return its URL."""
@@ -203,7 +206,8 @@ class SyncPair:
                 if row is not None and row[0] >= 1:
                     return self
             time.sleep(0.1)
-        raise RuntimeError("the standby did not start streaming synchronously within 60 s")
+        msg = "the standby did not start streaming synchronously within 60 s"
+        raise RuntimeError(msg)
 
     def urls(self, dbname: str) -> list[str]:
         """Both addresses of a database, primary first (give both to the hub)."""

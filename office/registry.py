@@ -26,9 +26,11 @@ _hasher = PasswordHasher()
 def add_user(hub: HubStore, name: str, password: str) -> None:
     """Add (or re-set the password of) an office user."""
     if not name.strip():
-        raise ValueError("user name must not be empty")
+        msg = "user name must not be empty"
+        raise ValueError(msg)
     if len(password) < 8:
-        raise ValueError(f"password is {len(password)} characters; at least 8 allowed")
+        msg = f"password is {len(password)} characters; at least 8 allowed"
+        raise ValueError(msg)
     with hub.tx():
         hub.db.execute(
             "INSERT OR REPLACE INTO hub_user VALUES (?, ?, ?)", [name.strip(), _hasher.hash(password), hub.clock_ms()]

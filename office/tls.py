@@ -18,7 +18,8 @@ VALID_DAYS = 825
 def make_self_signed(out: Path, names: list[str]) -> tuple[Path, Path]:
     """Write ``hub.crt`` and ``hub.key`` (owner-only) into ``out`` for the host names or IP addresses given."""
     if not names:
-        raise ValueError("give at least one host name or IP address the tablets will use")
+        msg = "give at least one host name or IP address the tablets will use"
+        raise ValueError(msg)
     key = ec.generate_private_key(ec.SECP256R1())
     subject = x509.Name([x509.NameAttribute(NameOID.COMMON_NAME, names[0])])
     alt: list[x509.GeneralName] = []

@@ -45,7 +45,8 @@ def stamp(pdf: bytes) -> bytes:
     """Overwrite the placeholders of a rendered PDF with the SHA-256 of the placeholder-bearing bytes."""
     meta, foot = placeholder_keywords().encode(), _footer("0" * SHORT_DIGITS)
     if pdf.count(meta) != 1 or pdf.count(foot) < 1:
-        raise ValueError("stamp: the PDF has no hash placeholder (render it with stamp_hash=True)")
+        msg = "stamp: the PDF has no hash placeholder (render it with stamp_hash=True)"
+        raise ValueError(msg)
     digest = hashlib.sha256(pdf).hexdigest()
     return pdf.replace(meta, (META_PREFIX + digest).encode()).replace(foot, _footer(short_form(digest)))
 

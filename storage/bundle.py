@@ -318,14 +318,17 @@ class _Verified:
 def _read_bounded(z: zipfile.ZipFile, info: zipfile.ZipInfo, limit: int) -> bytes:
     """An entry's bytes, refusing more than ``limit`` (the declared size is not trusted)."""
     if info.file_size > limit:
-        raise BundleRefused(f"entry {info.filename} is {info.file_size} bytes; limit {limit}")
+        msg = f"entry {info.filename} is {info.file_size} bytes; limit {limit}"
+        raise BundleRefused(msg)
     try:
         with z.open(info) as fh:
             content = fh.read(limit + 1)
     except ZIP_ERRORS as exc:
-        raise BundleRefused(f"unreadable entry {info.filename}: {exc}") from exc
+        msg = f"unreadable entry {info.filename}: {exc}"
+        raise BundleRefused(msg) from exc
     if len(content) > limit:
-        raise BundleRefused(f"entry {info.filename} unpacks past {limit} bytes")
+        msg = f"entry {info.filename} unpacks past {limit} bytes"
+        raise BundleRefused(msg)
     return content
 
 
@@ -336,31 +339,40 @@ def _is_int(value: Any, low: int, high: int) -> bool:
 def _check_manifest_fields(manifest: dict[str, Any]) -> None:
     """Types and ranges of every manifest field (after its MAC verified)."""
     if manifest["format"] != FORMAT or manifest["format_version"] != FORMAT_VERSION:
-        raise BundleRefused(f"unknown format {str(manifest['format'])[:40]!r} v{str(manifest['format_version'])[:10]}")
+        msg = f"unknown format {str(manifest['format'])[:40]!r} v{str(manifest['format_version'])[:10]}"
+        raise BundleRefused(msg)
     origin = manifest["origin"]
     if not isinstance(origin, str) or not DEVICE_ID.match(origin):
         # peer names such as "office" key the export cursors: a bundle may not claim one
-        raise BundleRefused(f"manifest origin {str(origin)[:40]!r} is not a device id")
+        msg = f"manifest origin {str(origin)[:40]!r} is not a device id"
+        raise BundleRefused(msg)
     if not _is_int(manifest["schema_version"], 1, 10_000) or not _is_int(manifest["created_ms"], 0, WALL_MS_MAX):
-        raise BundleRefused("manifest schema_version or created_ms out of range")
+        msg = "manifest schema_version or created_ms out of range"
+        raise BundleRefused(msg)
     if not _is_int(manifest["op_count"], 0, MAX_OPS) or not isinstance(manifest["ops_sha256"], str):
-        raise BundleRefused(f"manifest op_count must be 0 to {MAX_OPS}")
+        msg = f"manifest op_count must be 0 to {MAX_OPS}"
+        raise BundleRefused(msg)
     for name in ("ranges", "vector"):
         if not isinstance(manifest[name], dict):
-            raise BundleRefused(f"manifest {name} must be an object")
+            msg = f"manifest {name} must be an object"
+            raise BundleRefused(msg)
     for origin_id, r in manifest["ranges"].items():
         if not (isinstance(r, list) and len(r) == 2 and all(_is_int(x, 1, SEQ_MAX) for x in r)):
-            raise BundleRefused(f"manifest range of {str(origin_id)[:12]} is not [first, last]")
+            msg = f"manifest range of {str(origin_id)[:12]} is not [first, last]"
+            raise BundleRefused(msg)
     for origin_id, seq in manifest["vector"].items():
         if not _is_int(seq, 0, SEQ_MAX) or len(origin_id) > MAX_ID_CHARS:
-            raise BundleRefused(f"manifest vector entry {str(origin_id)[:12]} out of range")
+            msg = f"manifest vector entry {str(origin_id)[:12]} out of range"
+            raise BundleRefused(msg)
     blobs = manifest["blobs"]
     if not isinstance(blobs, list) or len(blobs) > MAX_ENTRIES:
-        raise BundleRefused(f"manifest blobs must be a list of at most {MAX_ENTRIES}")
+        msg = f"manifest blobs must be a list of at most {MAX_ENTRIES}"
+        raise BundleRefused(msg)
     for b in blobs:
         ok = isinstance(b, dict) and set(b) == {"sha256", "size"} and isinstance(b["sha256"], str)
         if not ok or not SHA256.match(b["sha256"]) or not _is_int(b["size"], 0, MAX_ENTRY_BYTES):
-            raise BundleRefused(f"manifest blob entry {str(b)[:60]} is not {{sha256, size}}")
+            msg = f"manifest blob entry {str(b)[:60]} is not {{sha256, size}}"
+            raise BundleRefused(msg)
 
 
 def verify_bundle(store: Store, data: bytes) -> _Verified:
@@ -371,72 +383,90 @@ def verify_bundle(store: Store, data: bytes) -> _Verified:
     record against the models.
     """
     if len(data) > MAX_BUNDLE_BYTES:
-        raise BundleRefused(f"bundle is {len(data)} bytes; limit {MAX_BUNDLE_BYTES}")
+        msg = f"bundle is {len(data)} bytes; limit {MAX_BUNDLE_BYTES}"
+        raise BundleRefused(msg)
     try:
         z = zipfile.ZipFile(io.BytesIO(data))
         infos = z.infolist()
     except ZIP_ERRORS as exc:
-        raise BundleRefused(f"not a readable bundle: {exc}") from exc
+        msg = f"not a readable bundle: {exc}"
+        raise BundleRefused(msg) from exc
     if len(infos) > MAX_ENTRIES + 3:
-        raise BundleRefused(f"bundle has {len(infos)} entries; limit {MAX_ENTRIES + 3}")
+        msg = f"bundle has {len(infos)} entries; limit {MAX_ENTRIES + 3}"
+        raise BundleRefused(msg)
     names = [i.filename for i in infos]
     if len(names) != len(set(names)):
-        raise BundleRefused("duplicate entries in bundle")
+        msg = "duplicate entries in bundle"
+        raise BundleRefused(msg)
     total = sum(i.file_size for i in infos)
     if total > MAX_UNPACKED_BYTES:
-        raise BundleRefused(f"bundle unpacks to {total} bytes; limit {MAX_UNPACKED_BYTES}")
+        msg = f"bundle unpacks to {total} bytes; limit {MAX_UNPACKED_BYTES}"
+        raise BundleRefused(msg)
     by_name = {i.filename: i for i in infos}
     for required in ("manifest.json", "manifest.mac", "ops.jsonl"):
         if required not in by_name:
-            raise BundleRefused(f"missing entry {required}")
+            msg = f"missing entry {required}"
+            raise BundleRefused(msg)
     mbytes = _read_bounded(z, by_name["manifest.json"], MAX_MANIFEST_BYTES)
     try:
         mac = _read_bounded(z, by_name["manifest.mac"], 128).decode("ascii").strip()
     except UnicodeDecodeError as exc:
-        raise BundleRefused("manifest MAC is not text") from exc
+        msg = "manifest MAC is not text"
+        raise BundleRefused(msg) from exc
     expected = hmac.new(store.firm_key, mbytes, hashlib.sha256).hexdigest()
     if not hmac.compare_digest(mac, expected):
-        raise BundleRefused("manifest MAC does not verify (tampered, or another firm's key)")
+        msg = "manifest MAC does not verify (tampered, or another firm's key)"
+        raise BundleRefused(msg)
     try:
         manifest = json.loads(mbytes)
     except (ValueError, RecursionError) as exc:
-        raise BundleRefused(f"manifest is not JSON: {str(exc)[:80]}") from exc
+        msg = f"manifest is not JSON: {str(exc)[:80]}"
+        raise BundleRefused(msg) from exc
     if not isinstance(manifest, dict) or set(manifest) != MANIFEST_KEYS:
-        raise BundleRefused("manifest keys differ from the format")
+        msg = "manifest keys differ from the format"
+        raise BundleRefused(msg)
     _check_manifest_fields(manifest)
     blob_names = {f"blobs/{b['sha256']}" for b in manifest["blobs"]}
     if set(names) != {"manifest.json", "manifest.mac", "ops.jsonl"} | blob_names:
-        raise BundleRefused("bundle entries differ from the manifest")
+        msg = "bundle entries differ from the manifest"
+        raise BundleRefused(msg)
     body = _read_bounded(z, by_name["ops.jsonl"], MAX_ENTRY_BYTES)
     blobs = {
         b["sha256"]: _read_bounded(z, by_name[f"blobs/{b['sha256']}"], min(b["size"], MAX_ENTRY_BYTES))
         for b in manifest["blobs"]
     }
     if hashlib.sha256(body).hexdigest() != manifest["ops_sha256"]:
-        raise BundleRefused("ops hash does not match the manifest")
+        msg = "ops hash does not match the manifest"
+        raise BundleRefused(msg)
     for sha, content in blobs.items():
         if hashlib.sha256(content).hexdigest() != sha:
-            raise BundleRefused(f"blob {sha[:12]} does not match its hash")
+            msg = f"blob {sha[:12]} does not match its hash"
+            raise BundleRefused(msg)
     ops = []
     try:
         for n, line in enumerate(body.decode().splitlines(), start=1):
             if n > MAX_OPS:
-                raise BundleRefused(f"more than {MAX_OPS} ops")
+                msg = f"more than {MAX_OPS} ops"
+                raise BundleRefused(msg)
             ops.append(Op.from_row(json.loads(line)))
     except (ValueError, KeyError, TypeError, AttributeError, RecursionError) as exc:
-        raise BundleRefused(f"bad op line {len(ops) + 1}: {str(exc)[:120]}") from exc
+        msg = f"bad op line {len(ops) + 1}: {str(exc)[:120]}"
+        raise BundleRefused(msg) from exc
     if len(ops) != manifest["op_count"]:
-        raise BundleRefused("op count differs from the manifest")
+        msg = "op count differs from the manifest"
+        raise BundleRefused(msg)
     horizon = store.wall_ms() + MAX_AHEAD_MS
     for op in ops:
         if op.hlc >> 16 > horizon:  # accepted far ahead is flagged; this far would exhaust the clock's range
-            raise BundleRefused(
+            msg = (
                 f"op {op.origin[:8]}:{op.seq} hlc stamped more than {MAX_AHEAD_MS // YEAR_MS} years ahead of this clock"
             )
+            raise BundleRefused(msg)
         try:
             check_op_record(op)
         except RecordInvalid as exc:
-            raise BundleRefused(f"invalid record: {exc}") from exc
+            msg = f"invalid record: {exc}"
+            raise BundleRefused(msg) from exc
     rebase_from = _check_integrity(store, ops, manifest["origin"])
     _check_ranges(store, manifest, ops, rebase_from)
     return _Verified(manifest, ops, blobs, hashlib.sha256(data).hexdigest(), rebase_from)
@@ -466,7 +496,8 @@ def _check_integrity(store: Store, ops: list[Op], sender: str) -> int | None:
                     if op.origin == sender
                     else ""
                 )
-                raise BundleRefused(f"integrity: op {op.origin}:{op.seq} already held with different content{hint}")
+                msg = f"integrity: op {op.origin}:{op.seq} already held with different content{hint}"
+                raise BundleRefused(msg)
             continue
         if op.kind != "insert":
             continue
@@ -475,7 +506,8 @@ def _check_integrity(store: Store, ops: list[Op], sender: str) -> int | None:
         stored = store.db.execute(f"SELECT content_hash FROM {op.entity} WHERE id=?", [op.record_id]).fetchone()
         known = mine.setdefault(key, stored[0] if stored else chash)
         if known != chash:
-            raise BundleRefused(f"integrity: {op.entity} {op.record_id}: same id, different content")
+            msg = f"integrity: {op.entity} {op.record_id}: same id, different content"
+            raise BundleRefused(msg)
     return rebase_from
 
 
@@ -484,18 +516,21 @@ def _check_ranges(store: Store, manifest: dict[str, Any], ops: list[Op], rebase_
     for op in ops:
         by_origin.setdefault(op.origin, []).append(op.seq)
     if {k: [v[0], v[-1]] for k, v in by_origin.items()} != manifest["ranges"]:
-        raise BundleRefused("op ranges differ from the manifest")
+        msg = "op ranges differ from the manifest"
+        raise BundleRefused(msg)
     seen = dict(store.db.execute("SELECT origin, seq FROM seen").fetchall())
     if rebase_from is not None:
         seen[store.device_id] = min(seen.get(store.device_id, 0), rebase_from - 1)
     for origin, seqs in by_origin.items():
         if seqs != list(range(seqs[0], seqs[-1] + 1)):
-            raise BundleRefused(f"ops of {origin[:8]} are not contiguous")
+            msg = f"ops of {origin[:8]} are not contiguous"
+            raise BundleRefused(msg)
         if seqs[0] > seen.get(origin, 0) + 1:
-            raise BundleRefused(
+            msg = (
                 f"gap: this database holds {origin[:8]} up to {seen.get(origin, 0)}, bundle starts "
                 f"at {seqs[0]}; import the earlier bundle first"
             )
+            raise BundleRefused(msg)
 
 
 def import_bundle(store: Store, path: str | Path, progress: Progress | None = None) -> ImportReport:

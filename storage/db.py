@@ -116,7 +116,8 @@ def connect(path: str | Path) -> sqlite_utils.Database:
     Raises StorageError (one line, naming the file) if it is not a database, damaged or read-only.
     """
     if str(path) != ":memory:" and Path(path).is_dir():
-        raise StoreUnavailable(f"{path} is a folder, not a database file")
+        msg = f"{path} is a folder, not a database file"
+        raise StoreUnavailable(msg)
     try:
         conn = sqlite3.connect(str(path), isolation_level=None, check_same_thread=False, timeout=BUSY_TIMEOUT_S)
         conn.execute("PRAGMA journal_mode=WAL")

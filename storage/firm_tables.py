@@ -29,7 +29,8 @@ def apply(db: Any) -> None:
 def published_row(table: str, label: str) -> dict[str, str]:
     """The row named ``label`` of ``table`` as published in ``core/data`` (KeyError naming both if none)."""
     if table not in overrides.KEYS:
-        raise KeyError(f"no table {table!r}; tables: {', '.join(overrides.KEYS)}")
+        msg = f"no table {table!r}; tables: {', '.join(overrides.KEYS)}"
+        raise KeyError(msg)
     saved = overrides.in_use()
     tables.use_firm_records([])
     try:
@@ -39,7 +40,8 @@ def published_row(table: str, label: str) -> dict[str, str]:
     finally:
         tables.use_firm_records(list(saved.values()))
     labels = ", ".join(overrides.row_label(table, r) for r in tables.load(table).rows)
-    raise KeyError(f"no row {label!r} in table {table!r}; rows: {labels}")
+    msg = f"no row {label!r} in table {table!r}; rows: {labels}"
+    raise KeyError(msg)
 
 
 def record(
@@ -56,7 +58,8 @@ def record(
     """Record a verification (or, with column/value/source, a correction) of one row; returns the record."""
     row = published_row(table, label)
     if column is not None and column not in row:
-        raise KeyError(f"no column {column!r} in table {table!r}; columns: {', '.join(row)}")
+        msg = f"no column {column!r} in table {table!r}; columns: {', '.join(row)}"
+        raise KeyError(msg)
     at = time.strftime("%Y-%m-%dT%H:%M:%SZ", time.gmtime(store.wall_ms() / 1000))
     fields = {
         "table": table,

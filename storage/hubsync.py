@@ -62,7 +62,8 @@ def outgoing(
     try:
         sigs = op_signatures(store.db, chosen, enrolment.key, store.device_id)
     except SignatureError as exc:  # cannot happen for the filtered list; said plainly if it ever does
-        raise RuntimeError(f"signing outgoing ops: {exc}") from exc
+        msg = f"signing outgoing ops: {exc}"
+        raise RuntimeError(msg) from exc
     return Outgoing(list(zip(chosen, sigs, strict=True)), len(ops) - len(mine_or_signed))
 
 
@@ -101,11 +102,13 @@ def apply_page(store: Store, page: dict[str, Any]) -> int:
     ops = [Op.from_row(o["op"]) for o in page["ops"]]
     body = canonical([o["op"] for o in page["ops"]]).encode()
     if hashlib.sha256(body).hexdigest() != page["ops_sha256"]:
-        raise PageRefused("pulled page does not match its checksum; nothing applied")
+        msg = "pulled page does not match its checksum; nothing applied"
+        raise PageRefused(msg)
     try:
         return _apply_checked(store, ops, page)
     except IntegrityError as exc:
-        raise PageRefused(f"a change from the office contradicts a record held here, nothing applied: {exc}") from exc
+        msg = f"a change from the office contradicts a record held here, nothing applied: {exc}"
+        raise PageRefused(msg) from exc
 
 
 def _apply_checked(store: Store, ops: list[Op], page: dict[str, Any]) -> int:

@@ -46,7 +46,8 @@ def unb64(text: str) -> bytes:
     try:
         return base64.urlsafe_b64decode(text + "=" * (-len(text) % 4))
     except (ValueError, TypeError) as exc:
-        raise SignatureError(f"not base64: {text[:20]!r}") from exc
+        msg = f"not base64: {text[:20]!r}"
+        raise SignatureError(msg) from exc
 
 
 def new_private_key() -> Ed25519PrivateKey:
@@ -69,7 +70,8 @@ def load_public(text: str) -> Ed25519PublicKey:
     """Read a public key written by ``public_text``."""
     raw = unb64(text)
     if len(raw) != 32:
-        raise SignatureError(f"public key is {len(raw)} bytes; Ed25519 keys are 32")
+        msg = f"public key is {len(raw)} bytes; Ed25519 keys are 32"
+        raise SignatureError(msg)
     return Ed25519PublicKey.from_public_bytes(raw)
 
 
@@ -90,7 +92,8 @@ def verify_op(public: Ed25519PublicKey, op: Op, sig: str) -> None:
     try:
         public.verify(unb64(sig), op_message(op))
     except InvalidSignature as exc:
-        raise SignatureError(f"op {op.origin[:8]}:{op.seq} signature does not verify") from exc
+        msg = f"op {op.origin[:8]}:{op.seq} signature does not verify"
+        raise SignatureError(msg) from exc
 
 
 def request_message(method: str, path: str, timestamp_ms: int, body: bytes) -> bytes:
@@ -110,11 +113,13 @@ def verify_request(
 ) -> None:
     """Raise SignatureError unless the request is signed by this key and made within the window."""
     if abs(now_ms - timestamp_ms) > REQUEST_WINDOW_MS:
-        raise SignatureError(f"request time {timestamp_ms} is more than 10 minutes from the hub's clock {now_ms}")
+        msg = f"request time {timestamp_ms} is more than 10 minutes from the hub's clock {now_ms}"
+        raise SignatureError(msg)
     try:
         public.verify(unb64(sig), request_message(method, path, timestamp_ms, body))
     except InvalidSignature as exc:
-        raise SignatureError("request signature does not verify") from exc
+        msg = "request signature does not verify"
+        raise SignatureError(msg) from exc
 
 
 @dataclass(frozen=True)
@@ -176,7 +181,8 @@ def op_signatures(db: sqlite_utils.Database, ops: list[Op], key: Ed25519PrivateK
                 out.append(str(row[0]))
                 continue
             if op.origin != self_origin:
-                raise SignatureError(f"op {op.origin[:8]}:{op.seq} of another device has no signature to relay")
+                msg = f"op {op.origin[:8]}:{op.seq} of another device has no signature to relay"
+                raise SignatureError(msg)
             sig = sign_op(key, op)
             db.execute("INSERT INTO op_sig VALUES (?, ?, ?)", [op.origin, op.seq, sig])
             out.append(sig)

@@ -74,17 +74,21 @@ class Op:
     def from_row(cls, row: dict[str, Any]) -> Op:
         """Rebuild an op from a stored row or a bundle line (keys must match exactly)."""
         if set(row) != set(OP_KEYS):
-            raise ValueError(f"op keys {sorted(row)} differ from {sorted(OP_KEYS)}")
+            msg = f"op keys {sorted(row)} differ from {sorted(OP_KEYS)}"
+            raise ValueError(msg)
         payload = row["payload"] if isinstance(row["payload"], dict) else json.loads(row["payload"])
         base = row["base"] if isinstance(row["base"], dict) else json.loads(row["base"])
         for key in ("origin", "entity", "record_id", "kind"):
             if not isinstance(row[key], str) or not 0 < len(row[key]) <= MAX_ID_CHARS:
-                raise ValueError(f"op {key} {str(row[key])[:40]!r} must be text of 1 to {MAX_ID_CHARS} characters")
+                msg = f"op {key} {str(row[key])[:40]!r} must be text of 1 to {MAX_ID_CHARS} characters"
+                raise ValueError(msg)
         for key in INT_RANGES:
             if not isinstance(row[key], int) or isinstance(row[key], bool):
-                raise ValueError(f"op {key} {str(row[key])[:40]!r} must be an integer")
+                msg = f"op {key} {str(row[key])[:40]!r} must be an integer"
+                raise ValueError(msg)
         if not isinstance(payload, dict) or not isinstance(base, dict):
-            raise ValueError("op payload and base must be JSON objects")
+            msg = "op payload and base must be JSON objects"
+            raise ValueError(msg)
         op = cls(
             origin=row["origin"],
             seq=row["seq"],
@@ -103,17 +107,22 @@ class Op:
     def validate(self) -> None:
         """Refuse ops whose entity and kind do not go together."""
         if self.kind == "set" and self.entity not in SET_ENTITIES:
-            raise ValueError(f"op kind 'set' on unknown entity {self.entity!r}")
+            msg = f"op kind 'set' on unknown entity {self.entity!r}"
+            raise ValueError(msg)
         if self.kind == "insert" and self.entity not in INSERT_ENTITIES:
-            raise ValueError(f"op kind 'insert' on unknown entity {self.entity!r}")
+            msg = f"op kind 'insert' on unknown entity {self.entity!r}"
+            raise ValueError(msg)
         if self.kind == "status" and self.entity != "deficiency":
-            raise ValueError("op kind 'status' applies only to 'deficiency'")
+            msg = "op kind 'status' applies only to 'deficiency'"
+            raise ValueError(msg)
         if self.kind not in ("set", "insert", "status"):
-            raise ValueError(f"unknown op kind {self.kind!r}")
+            msg = f"unknown op kind {self.kind!r}"
+            raise ValueError(msg)
         for key, (low, high) in INT_RANGES.items():
             value = getattr(self, key)
             if not low <= value <= high:
-                raise ValueError(f"op {key} {value} out of range; allowed {low} to {high}")
+                msg = f"op {key} {value} out of range; allowed {low} to {high}"
+                raise ValueError(msg)
 
 
 def _now() -> str:
@@ -267,7 +276,8 @@ def _apply_insert(op: Op, rows: ProjectionBatch | _Direct) -> None:
     existing, stored_hash = rows.load(op.entity, op.record_id)
     if existing is not None:
         if stored_hash != chash:
-            raise IntegrityError(f"{op.entity} {op.record_id}: same id, different content")
+            msg = f"{op.entity} {op.record_id}: same id, different content"
+            raise IntegrityError(msg)
         return
     rows.store(op.entity, op.record_id, dict(op.payload), chash)
 
@@ -299,7 +309,8 @@ def insert_op(db: sqlite_utils.Database, op: Op, batch: ProjectionBatch | None =
     if row is not None:
         mine = (op.hlc, op.entity, op.record_id, op.kind, canonical(op.payload), canonical(op.base))
         if tuple(row) != mine:
-            raise IntegrityError(f"op {op.origin}:{op.seq} already held with different content")
+            msg = f"op {op.origin}:{op.seq} already held with different content"
+            raise IntegrityError(msg)
         return False
     r = op.row()
     db.execute(

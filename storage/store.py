@@ -87,9 +87,11 @@ class Store:
     def set_device_user(self, name: str, role: str) -> None:
         """Set up the device for one person and role (reviewer, contractor, office)."""
         if not name.strip():
-            raise ValueError("device user: enter the name of the person this device is set up for")
+            msg = "device user: enter the name of the person this device is set up for"
+            raise ValueError(msg)
         if role not in ("reviewer", "contractor", "office"):
-            raise ValueError(f"device role {role!r}; allowed: reviewer, contractor, office")
+            msg = f"device role {role!r}; allowed: reviewer, contractor, office"
+            raise ValueError(msg)
         with transaction(self.db):
             self._set_meta("device_user", name.strip())
             self._set_meta("device_role", role)
@@ -299,7 +301,8 @@ class Store:
         """One site."""
         data = self._get("site", site_id)
         if data is None:
-            raise KeyError(f"no site {site_id}")
+            msg = f"no site {site_id}"
+            raise KeyError(msg)
         return Site(id=site_id, **{k: v for k, v in data.items() if k != "site_id"})
 
     def sites(self) -> list[Site]:
@@ -315,7 +318,8 @@ class Store:
         matches = [s for s in self.sites() if s.name.lower().startswith(name_or_id.lower())]
         if len(matches) == 1:
             return matches[0]
-        raise KeyError(f"no single site matches {name_or_id!r}")
+        msg = f"no single site matches {name_or_id!r}"
+        raise KeyError(msg)
 
     def start_visit(self, site_id: str, reviewer: str, started_at: str, **fields: Any) -> Visit:
         """Record a visit."""
@@ -347,7 +351,8 @@ class Store:
         """Every stored field of a beam (beam fields, location and drafts)."""
         data = self._get("beam", beam_id)
         if data is None:
-            raise KeyError(f"no beam {beam_id}")
+            msg = f"no beam {beam_id}"
+            raise KeyError(msg)
         return data
 
     def beam(self, beam_id: str) -> Beam:
@@ -454,14 +459,17 @@ class Store:
         """
         original = next((p for p in self.photos(site_id) if p["id"] == photo_id), None)
         if original is None:
-            raise KeyError(f"photo {photo_id!r} is not a photo of site {site_id!r}")
+            msg = f"photo {photo_id!r} is not a photo of site {site_id!r}"
+            raise KeyError(msg)
         for m in marks:
             if m.get("kind") not in ("arrow", "ring"):
-                raise ValueError(f"photo mark kind {m.get('kind')!r}; allowed: arrow, ring")
+                msg = f"photo mark kind {m.get('kind')!r}; allowed: arrow, ring"
+                raise ValueError(msg)
             for k in ("x", "y", "x2", "y2"):
                 v = m.get(k, 0.0)
                 if not isinstance(v, int | float) or not 0.0 <= v <= 1.0:
-                    raise ValueError(f"photo mark {k} = {v!r}; allowed: a fraction of the photo from 0 to 1")
+                    msg = f"photo mark {k} = {v!r}; allowed: a fraction of the photo from 0 to 1"
+                    raise ValueError(msg)
         pid = uuid7()
         fields = {k: original.get(k) for k in ("site_id", "sha256", "mime", "beam_id", "deficiency_id", "caption")}
         clean = [{k: m.get(k, 0.0) for k in ("kind", "x", "y", "x2", "y2")} for m in marks]
@@ -491,7 +499,8 @@ class Store:
     ) -> Deficiency:
         """Confirm a finding (or a reviewer's own observation) as a numbered deficiency."""
         if priority not in PRIORITY_ORDER:
-            raise ValueError(f"priority {priority!r}; allowed: {list(PRIORITY_ORDER)}")
+            msg = f"priority {priority!r}; allowed: {list(PRIORITY_ORDER)}"
+            raise ValueError(msg)
         with transaction(self.db):
             number = f"D-{self.device_code}-{self._counter('deficiency'):03d}"
             did = uuid7()
@@ -517,7 +526,8 @@ class Store:
         """One deficiency with its current (cycle, stage)."""
         data = self._get("deficiency", deficiency_id)
         if data is None or "number" not in data:
-            raise KeyError(f"no deficiency {deficiency_id}")
+            msg = f"no deficiency {deficiency_id}"
+            raise KeyError(msg)
         return Deficiency(id=deficiency_id, **data)
 
     def deficiencies(self, site_id: str, open_only: bool = False) -> list[Deficiency]:
@@ -543,21 +553,25 @@ class Store:
         """
         d = self.deficiency(deficiency_id)
         if role not in ("reviewer", "contractor", "office"):
-            raise LifecycleError(f"role {role!r}; allowed: reviewer, contractor, office")
+            msg = f"role {role!r}; allowed: reviewer, contractor, office"
+            raise LifecycleError(msg)
         if stage == "reopen":
             if d.stage is Stage.open:
-                raise LifecycleError(f"{d.number} is already open")
+                msg = f"{d.number} is already open"
+                raise LifecycleError(msg)
             cycle, target = d.cycle + 1, Stage.open
         else:
             target = Stage[stage] if isinstance(stage, str) else stage
             cycle = d.cycle
             if target <= d.stage:
-                raise LifecycleError(
+                msg = (
                     f"{d.number}: status only moves forward ({d.stage.name} -> {target.name} "
                     "refused; use 'reopen' to start a new cycle)"
                 )
+                raise LifecycleError(msg)
             if target is Stage.verified and role != "reviewer":
-                raise LifecycleError(f"{d.number}: only a reviewer sets verified (role {role!r})")
+                msg = f"{d.number}: only a reviewer sets verified (role {role!r})"
+                raise LifecycleError(msg)
         when = at or utc_stamp(self._wall())
         self.save(
             "deficiency",
@@ -653,10 +667,11 @@ class Store:
         for record_id, payload in rows:
             data = json.loads(payload)
             if self._get("issued_notice", record_id) != data:
-                raise IntegrityError(
+                msg = (
                     f"issued notice {data.get('number')} in this database differs from its logged record "
                     "(the database was edited): the log is kept, the table is not trusted"
                 )
+                raise IntegrityError(msg)
             return IssuedNotice(id=record_id, **data)
         return None
 
@@ -689,9 +704,11 @@ class Store:
         """Resolve a conflict: keep 'winner' as is, or re-save the 'loser' value as a new edit."""
         c = next((c for c in self.conflicts(False) if c["id"] == conflict_id), None)
         if c is None:
-            raise KeyError(f"no conflict {conflict_id}")
+            msg = f"no conflict {conflict_id}"
+            raise KeyError(msg)
         if keep not in ("winner", "loser"):
-            raise ValueError("keep must be 'winner' or 'loser'")
+            msg = "keep must be 'winner' or 'loser'"
+            raise ValueError(msg)
         if keep == "loser":
             self.save(c["entity"], c["record_id"], {c["field"]: json.loads(c["loser_value"])})
         with transaction(self.db):

@@ -42,7 +42,8 @@ class RecordInvalid(ValueError):
 def check_priority(priority: Any) -> None:
     """The deficiency priorities the app offers (the same rule as ``Store.raise_deficiency``)."""
     if priority not in PRIORITY_ORDER:
-        raise ValueError(f"priority {priority!r}; allowed: {list(PRIORITY_ORDER)}")
+        msg = f"priority {priority!r}; allowed: {list(PRIORITY_ORDER)}"
+        raise ValueError(msg)
 
 
 @cache
@@ -69,14 +70,16 @@ def _first_error(exc: ValidationError) -> str:
 
 def _check_size(op: Op, field: str, value: Any) -> None:
     if len(canonical(value)) > MAX_VALUE_CHARS:
-        raise RecordInvalid(f"{_where(op, field)}: value longer than {MAX_VALUE_CHARS} characters")
+        msg = f"{_where(op, field)}: value longer than {MAX_VALUE_CHARS} characters"
+        raise RecordInvalid(msg)
 
 
 def _check_id(op: Op, field: str, value: Any, optional: bool) -> None:
     if value is None and optional:
         return
     if not isinstance(value, str) or not 0 < len(value) <= MAX_ID_CHARS:
-        raise RecordInvalid(f"{_where(op, field)}: must be a record id (text of 1 to {MAX_ID_CHARS} characters)")
+        msg = f"{_where(op, field)}: must be a record id (text of 1 to {MAX_ID_CHARS} characters)"
+        raise RecordInvalid(msg)
 
 
 def _check_set(op: Op) -> None:
@@ -89,11 +92,13 @@ def _check_set(op: Op) -> None:
             _check_id(op, field, value, optional=True)
             continue
         if op.entity != "beam" and field in ("id", "cycle", "stage"):
-            raise RecordInvalid(f"{_where(op, field)}: not set by an edit")
+            msg = f"{_where(op, field)}: not set by an edit"
+            raise RecordInvalid(msg)
         adapter = _adapter(op.entity, field)
         if adapter is None:
             if op.entity != "beam":  # beams carry location fields and drafts besides the model's
-                raise RecordInvalid(f"{_where(op, field)}: not a field of {op.entity}")
+                msg = f"{_where(op, field)}: not a field of {op.entity}"
+                raise RecordInvalid(msg)
             continue
         try:
             adapter.validate_python(value)
@@ -101,7 +106,8 @@ def _check_set(op: Op) -> None:
                 check_priority(value)
         except (ValidationError, ValueError) as exc:
             why = _first_error(exc) if isinstance(exc, ValidationError) else str(exc)
-            raise RecordInvalid(f"{_where(op, field)}: {why}") from exc
+            msg = f"{_where(op, field)}: {why}"
+            raise RecordInvalid(msg) from exc
     for field, stamp in op.base.items():
         ok = (
             isinstance(stamp, list)
@@ -113,7 +119,8 @@ def _check_set(op: Op) -> None:
             and 0 < len(stamp[1]) <= MAX_ID_CHARS
         )
         if not ok:
-            raise RecordInvalid(f"{_where(op, field)}: base stamp {str(stamp)[:60]} is not [hlc, origin]")
+            msg = f"{_where(op, field)}: base stamp {str(stamp)[:60]} is not [hlc, origin]"
+            raise RecordInvalid(msg)
 
 
 def _check_status(op: Op) -> None:
@@ -124,14 +131,18 @@ def _check_status(op: Op) -> None:
         )
     except ValidationError as exc:
         field = str(exc.errors()[0]["loc"][0]) if exc.errors()[0]["loc"] else "(status)"
-        raise RecordInvalid(f"{_where(op, field)}: {_first_error(exc)}") from exc
+        msg = f"{_where(op, field)}: {_first_error(exc)}"
+        raise RecordInvalid(msg) from exc
     if not isinstance(p["cycle"], int) or not 0 <= p["cycle"] <= MAX_CYCLE:
-        raise RecordInvalid(f"{_where(op, 'cycle')}: {p['cycle']!r} out of range 0 to {MAX_CYCLE}")
+        msg = f"{_where(op, 'cycle')}: {p['cycle']!r} out of range 0 to {MAX_CYCLE}"
+        raise RecordInvalid(msg)
     if p["stage"] not in tuple(int(s) for s in Stage) or isinstance(p["stage"], bool):
-        raise RecordInvalid(f"{_where(op, 'stage')}: {p['stage']!r}; allowed {[int(s) for s in Stage]}")
+        msg = f"{_where(op, 'stage')}: {p['stage']!r}; allowed {[int(s) for s in Stage]}"
+        raise RecordInvalid(msg)
     extra = set(p) - set(StatusEvent.model_fields) - {"site_id"}
     if extra:
-        raise RecordInvalid(f"{_where(op, sorted(extra)[0])}: not a field of a status move")
+        msg = f"{_where(op, sorted(extra)[0])}: not a field of a status move"
+        raise RecordInvalid(msg)
     _check_id(op, "site_id", p.get("site_id"), optional=True)
     for field, value in p.items():
         _check_size(op, field, value)
@@ -146,16 +157,19 @@ def _check_insert(op: Op) -> None:
             IssuedNotice.model_validate(dict(p, id=op.record_id))
         except ValidationError as exc:
             field = str(exc.errors()[0]["loc"][0]) if exc.errors()[0]["loc"] else "(notice)"
-            raise RecordInvalid(f"{_where(op, field)}: {_first_error(exc)}") from exc
+            msg = f"{_where(op, field)}: {_first_error(exc)}"
+            raise RecordInvalid(msg) from exc
         if not SHA256.match(str(p["pdf_sha256"])):
-            raise RecordInvalid(f"{_where(op, 'pdf_sha256')}: not a SHA-256")
+            msg = f"{_where(op, 'pdf_sha256')}: not a SHA-256"
+            raise RecordInvalid(msg)
         _check_id(op, "site_id", p["site_id"], optional=False)
         return
     _check_id(op, "site_id", p.get("site_id"), optional=False)
     for field in ("beam_id", "deficiency_id"):
         _check_id(op, field, p.get(field), optional=True)
     if op.entity == "photo" and not SHA256.match(str(p.get("sha256"))):
-        raise RecordInvalid(f"{_where(op, 'sha256')}: not a SHA-256")
+        msg = f"{_where(op, 'sha256')}: not a SHA-256"
+        raise RecordInvalid(msg)
 
 
 def check_op_record(op: Op) -> None:

@@ -18,7 +18,8 @@ def size_factor_kzbg(b_mm: float, d_mm: float, length_mm: float) -> float:
     length_mm: length of the segment between points of zero moment, mm. Dimensionless.
     """
     if length_mm <= 0:
-        raise ValueError(f"length_mm = {length_mm} must be > 0 (segment between points of zero moment)")
+        msg = f"length_mm = {length_mm} must be > 0 (segment between points of zero moment)"
+        raise ValueError(msg)
     value = ((130.0 / b_mm) * (610.0 / d_mm) * (9100.0 / length_mm)) ** 0.1
     return min(KZBG_CAP, value)
 
@@ -50,10 +51,12 @@ def glulam_bending_strength_for_face(
     Returns (fb in MPa, which value was used: "fb_pos" or "fb_neg").
     """
     if moment_sign not in ("positive", "negative"):
-        raise ValueError(f"moment_sign {moment_sign!r} must be 'positive' or 'negative'")
+        msg = f"moment_sign {moment_sign!r} must be 'positive' or 'negative'"
+        raise ValueError(msg)
     if top_stamp == "not_visible":
         return (fb_neg_mpa, "fb_neg") if fb_neg_mpa <= fb_pos_mpa else (fb_pos_mpa, "fb_pos")
     if top_stamp not in ("up", "down"):
-        raise ValueError(f"top_stamp {top_stamp!r} must be 'up', 'down' or 'not_visible'")
+        msg = f"top_stamp {top_stamp!r} must be 'up', 'down' or 'not_visible'"
+        raise ValueError(msg)
     tension_on_marked_bottom = (moment_sign == "positive") == (top_stamp == "up")
     return (fb_pos_mpa, "fb_pos") if tension_on_marked_bottom else (fb_neg_mpa, "fb_neg")

@@ -18,9 +18,11 @@ def load_duration_kd_standard(pl_n_mm: float, ps_n_mm: float) -> float:
     Returns KD, dimensionless. Status: formula from memory (reference 3.1).
     """
     if pl_n_mm < 0:
-        raise ValueError(f"pl_n_mm = {pl_n_mm} must be >= 0")
+        msg = f"pl_n_mm = {pl_n_mm} must be >= 0"
+        raise ValueError(msg)
     if ps_n_mm <= 0:
-        raise ValueError(f"ps_n_mm = {ps_n_mm} must be > 0 for a standard-term combination")
+        msg = f"ps_n_mm = {ps_n_mm} must be > 0 for a standard-term combination"
+        raise ValueError(msg)
     if pl_n_mm == 0:
         return KD_STANDARD_TERM  # no long-term load (log10 of 0 is undefined)
     # the formula gives more than 1.0 when PL < PS and exactly 1.0 at PL = PS: 1.0 caps it
@@ -36,7 +38,8 @@ def system_factor_kh(case: str) -> float:
     """
     table = {"single": 1.0, "shared": 1.10, "light_frame": 1.40, "built_up": 1.10}
     if case not in table:
-        raise ValueError(f"system case {case!r} is not one of {sorted(table)}")
+        msg = f"system case {case!r} is not one of {sorted(table)}"
+        raise ValueError(msg)
     return table[case]
 
 

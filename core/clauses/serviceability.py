@@ -9,7 +9,8 @@ def deflection_limit_mm(span_mm: float, ratio: float) -> float:
     span_mm: span, mm (for a cantilever, twice its length: common practice); ratio: e.g. 360.
     """
     if ratio <= 0:
-        raise ValueError(f"ratio = {ratio} must be > 0")
+        msg = f"ratio = {ratio} must be > 0"
+        raise ValueError(msg)
     return span_mm / ratio
 
 
@@ -31,4 +32,5 @@ def long_term_deformation_rule(edition: str) -> str | None:
         return "long_term"
     if edition == "O86-24":
         return None
-    raise ValueError(f"edition = {edition!r}; allowed: 'O86-19', 'O86-24'")
+    msg = f"edition = {edition!r}; allowed: 'O86-19', 'O86-24'"
+    raise ValueError(msg)

@@ -253,7 +253,8 @@ class BeamFormViewModel:
         if name == "spans":
             spans = [read_length("span_mm", t) for t in split_spans(text)]
             if not spans:
-                raise ValueError("spans: enter one length per span, separated by ';' (7.2 m; 7.2 m)")
+                msg = "spans: enter one length per span, separated by ';' (7.2 m; 7.2 m)"
+                raise ValueError(msg)
             bearings = [dict(b) for b in rec.get("bearings", [])]
             while len(bearings) < len(spans) + 1:
                 bearings.append({"lateral": None, "rotation": None, "length_mm": None})  # not yet entered
@@ -262,7 +263,8 @@ class BeamFormViewModel:
             idx, key = name[len("bearing") :].split(".")
             bearings = [dict(b) for b in rec.get("bearings") or []]
             if not 1 <= int(idx) <= len(bearings):
-                raise ValueError(f"support {idx}: the beam has supports 1 to {len(bearings)}")
+                msg = f"support {idx}: the beam has supports 1 to {len(bearings)}"
+                raise ValueError(msg)
             bearings[int(idx) - 1][key] = read_length("bearing_length_mm", text) if key == "length_mm" else text
             return {"bearings": bearings}
         if name in LOAD_FIELDS:
@@ -275,7 +277,8 @@ class BeamFormViewModel:
             return {"tributary_m": width, "loads": line_loads_kn_m(self.basis(rec), width)}
         if name == "load_basis":
             if text not in self.options("load_basis"):
-                raise ValueError(f"load basis {text!r}; allowed: {', '.join(self.options('load_basis'))}")
+                msg = f"load basis {text!r}; allowed: {', '.join(self.options('load_basis'))}"
+                raise ValueError(msg)
             changes: dict[str, Any] = {"load_basis": None if text == MAIN_BASIS else text}
             if rec.get("tributary_m") is not None:  # derived loads follow the basis at once
                 changes["loads"] = line_loads_kn_m(self.basis(dict(rec, **changes)), rec["tributary_m"])
@@ -315,7 +318,8 @@ class BeamFormViewModel:
                 return {"specified": None}
             m = _SIZE.match(text)
             if not m:
-                raise ValueError("specified_size: enter the drawn size as b x d (130 x 494)")
+                msg = "specified_size: enter the drawn size as b x d (130 x 494)"
+                raise ValueError(msg)
             return {
                 "specified": {
                     "b_mm": read_length("b_mm", m.group(1)),
@@ -328,7 +332,8 @@ class BeamFormViewModel:
             return {"use": None}
         if name in ("grade", "service", "use", "top_stamp"):
             return {name: text}
-        raise ValueError(f"unknown field {name!r}")
+        msg = f"unknown field {name!r}"
+        raise ValueError(msg)
 
     def set_field(self, name: str, text: str) -> bool:
         """Validate and autosave one field; refresh the recheck. False (message kept at the field) if refused."""
@@ -557,10 +562,12 @@ class BeamFormViewModel:
         """Confirm the finding at ``index`` as a numbered deficiency; return its number (never twice)."""
         r = self.result or self.refresh()
         if r is None or not 0 <= index < len(r.findings):
-            raise ValueError("no such finding to raise: the recheck has none at that position")
+            msg = "no such finding to raise: the recheck has none at that position"
+            raise ValueError(msg)
         already = self.raised_number(index)
         if already:
-            raise ValueError(f"already raised as {already}; it is not raised twice")
+            msg = f"already raised as {already}; it is not raised twice"
+            raise ValueError(msg)
         f = r.findings[index]
         where = self.location_text() + (f", {f.region}" if f.region else "")
         d = self.store.raise_deficiency(
@@ -644,8 +651,10 @@ def _number(name: str, text: str, kind: str) -> float:
     try:
         value = float(text.strip().replace(",", ".") or "0")
     except ValueError:
-        raise ValueError(f"{name} = {text!r}: enter a number") from None
+        msg = f"{name} = {text!r}: enter a number"
+        raise ValueError(msg) from None
     r = PLAUSIBLE[kind]
     if not r.low <= value <= r.high:
-        raise ValueError(f"{name} = {value:g} {r.unit}: allowed {r.low:g} to {r.high:g} {r.unit} ({r.source})")
+        msg = f"{name} = {value:g} {r.unit}: allowed {r.low:g} to {r.high:g} {r.unit} ({r.source})"
+        raise ValueError(msg)
     return value

@@ -100,9 +100,11 @@ class NoticeViewModel:
         n = next(x for x in self.store.notices(self.site_id) if x.id == notice_id)
         pdf = self.store.blob(n.pdf_sha256)
         if pdf is None:
-            raise FileNotFoundError(f"the PDF of {n.number} has not arrived on this tablet yet (pending sync)")
+            msg = f"the PDF of {n.number} has not arrived on this tablet yet (pending sync)"
+            raise FileNotFoundError(msg)
         if hashlib.sha256(pdf).hexdigest() != n.pdf_sha256:
-            raise ValueError(f"the stored PDF of {n.number} does not match its recorded SHA-256")
+            msg = f"the stored PDF of {n.number} does not match its recorded SHA-256"
+            raise ValueError(msg)
         folder.mkdir(parents=True, exist_ok=True)
         path = folder / f"{n.number}-rev{n.revision}.pdf"
         path.write_bytes(pdf)

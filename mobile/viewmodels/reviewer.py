@@ -24,10 +24,12 @@ MAX_IMPORT_BYTES = 5_000_000
 def signature_png(strokes: list[Stroke], pad_size: tuple[float, float]) -> bytes:
     """A black-on-white PNG of strokes drawn on a pad of pad_size (points scaled to SIGNATURE_PX)."""
     if not any(len(s) >= 2 for s in strokes):
-        raise ValueError("signature: draw at least one line on the pad")
+        msg = "signature: draw at least one line on the pad"
+        raise ValueError(msg)
     w, h = pad_size
     if w <= 0 or h <= 0:
-        raise ValueError(f"signature: pad size {pad_size} must be positive")
+        msg = f"signature: pad size {pad_size} must be positive"
+        raise ValueError(msg)
     img = Image.new("L", SIGNATURE_PX, 255)
     draw = ImageDraw.Draw(img)
     sx, sy = SIGNATURE_PX[0] / w, SIGNATURE_PX[1] / h
@@ -43,7 +45,8 @@ def signature_png(strokes: list[Stroke], pad_size: tuple[float, float]) -> bytes
 def imported_png(path: Path) -> bytes:
     """An image file as a grey PNG at most SIGNATURE_PX (the signature a reviewer scanned)."""
     if path.stat().st_size > MAX_IMPORT_BYTES:
-        raise ValueError(f"signature file {path.name}: over {MAX_IMPORT_BYTES} bytes; allowed up to that")
+        msg = f"signature file {path.name}: over {MAX_IMPORT_BYTES} bytes; allowed up to that"
+        raise ValueError(msg)
     with Image.open(path) as img:
         grey = ImageOps.exif_transpose(img).convert("L")
         grey.thumbnail(SIGNATURE_PX)
@@ -77,7 +80,8 @@ class ReviewerViewModel:
     def set(self, name: str, value: str) -> None:
         """Change one text field."""
         if name not in self.fields:
-            raise KeyError(f"reviewer profile field {name!r}; allowed: {sorted(self.fields)}")
+            msg = f"reviewer profile field {name!r}; allowed: {sorted(self.fields)}"
+            raise KeyError(msg)
         self.fields[name] = value
 
     def draw_signature(self, strokes: list[Stroke], pad_size: tuple[float, float]) -> None:

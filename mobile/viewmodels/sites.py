@@ -119,14 +119,17 @@ def parse_load_bases(text: str, main: DesignBasis) -> dict[str, DesignBasis]:
         name, sep, loads = part.partition(":")
         values = [v.strip().replace(",", ".") for v in loads.split("/")]
         if not sep or not name.strip() or len(values) != 3:
-            raise ValueError(f"load bases: {part!r}; write name: dead/live/snow kPa, e.g. floor: 1.5/1.9/0")
+            msg = f"load bases: {part!r}; write name: dead/live/snow kPa, e.g. floor: 1.5/1.9/0"
+            raise ValueError(msg)
         try:
             dead, live, snow = (float(v) for v in values)
         except ValueError:
-            raise ValueError(f"load bases: {part!r}: dead/live/snow must be numbers of kPa") from None
+            msg = f"load bases: {part!r}: dead/live/snow must be numbers of kPa"
+            raise ValueError(msg) from None
         use = "floor" if name.strip().lower().startswith("floor") else main.use.value
         try:
             out[name.strip()] = DesignBasis(dead_kpa=dead, live_kpa=live, snow_kpa=snow, use=use)
         except ValidationError as exc:
-            raise ValueError(f"load bases: {part!r}: {validation_message(exc)}") from None
+            msg = f"load bases: {part!r}: {validation_message(exc)}"
+            raise ValueError(msg) from None
     return out

@@ -71,7 +71,8 @@ def _passes(solves, change, r):
     if solves == "bearing_overstress":
         j = int(next(k for k in change if k.endswith("length_mm")).split(".")[1])
         return r.bearing[j].utilisation <= 1.0
-    raise AssertionError(f"unknown check {solves}")
+    msg = f"unknown check {solves}"
+    raise AssertionError(msg)
 
 
 def _failing_checks(r):

@@ -388,7 +388,8 @@ if FLOW == "main":
     def sync_wait():
         s = screen("sync")
         if s.busy:
-            raise TimeoutError("export still running")  # the runner retries a few times
+            msg = "export still running"
+            raise TimeoutError(msg)  # the runner retries a few times
         assert "Wrote" in s.summary, s.summary
         assert list((OUT / "sync").glob("*.bwsync"))
         shot("10-sync")

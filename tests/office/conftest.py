@@ -36,7 +36,8 @@ class RunningHub:
             if self.server.started:
                 return self
             time.sleep(0.05)
-        raise RuntimeError("hub did not start")
+        msg = "hub did not start"
+        raise RuntimeError(msg)
 
     def stop(self) -> None:
         self.server.should_exit = True
