@@ -88,6 +88,14 @@ class StatusEvent(Record):
     evidence_sha256: str = ""
 
 
+class MemoryAcknowledgement(Record):
+    """The reviewer's acknowledgement, before issue, of the table rows entered from memory a notice rests on."""
+
+    rows: list[str] = Field(min_length=1)  # each row as traced: clause and row
+    by: str = Field(min_length=1, max_length=200)
+    at: str = Field(min_length=1, max_length=40)  # UTC, ISO 8601 with Z (storage.stamps)
+
+
 class IssuedNotice(Record):
     """An issued notice: immutable, holds the SHA-256 of its PDF."""
 
@@ -101,6 +109,7 @@ class IssuedNotice(Record):
     pdf_sha256: str
     supersedes: str | None = None
     change_note: str = ""
+    memory_acknowledgement: MemoryAcknowledgement | None = None  # who accepted the memory rows used, and when
 
 
 class ReviewerProfile(Record):

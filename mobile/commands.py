@@ -91,7 +91,14 @@ def cmd_demo(args: argparse.Namespace) -> int:
 
 def cmd_report(args: argparse.Namespace) -> int:
     """Issue a notice for a site's open deficiencies, or verify a PDF against the issued notices."""
-    from mobile.issue import issue_notice_for_site, verify_pdf
+    from mobile.issue import (
+        MemoryRowsNotAcknowledged,
+        acknowledge,
+        issue_notice_for_site,
+        rows_for_items,
+        verify_pdf,
+    )
+    from reports.tablerows import memory_rows
     from storage.oplog import IntegrityError
 
     store = _open_store(args.db)
@@ -119,7 +126,23 @@ def cmd_report(args: argparse.Namespace) -> int:
     if Path(args.out).is_dir():
         msg = f"{args.out} is a folder; give a file name for the PDF"
         raise UserError(msg)
-    notice, path = issue_notice_for_site(store, site.id, Path(args.out), issued_by=args.by)
+    rows = rows_for_items(store, site.id)
+    memory = memory_rows(rows)
+    if memory and not args.acknowledge_memory_rows:
+        listed = "\n  ".join(memory)
+        msg = (
+            f"not issued: the items rest on {len(memory)} table row(s) entered from memory, not yet checked "
+            f"against the standard's text:\n  {listed}\nCheck them, then issue again with "
+            f"--acknowledge-memory-rows (recorded on the notice with --by and the time), or verify them first "
+            f"with 'bracewalk tables verify'"
+        )
+        raise UserError(msg)
+    ack = acknowledge(store, rows, args.by) if args.acknowledge_memory_rows else None
+    try:
+        notice, path = issue_notice_for_site(store, site.id, Path(args.out), issued_by=args.by, acknowledgement=ack)
+    except MemoryRowsNotAcknowledged as exc:  # a row changed between the listing and the issue
+        msg = f"not issued: {exc}"
+        raise UserError(msg) from exc
     print(f"issued notice {notice.number} ({len(notice.deficiency_ids)} items) to {path}; sha256 {notice.pdf_sha256}")
     return EXIT_OK
 
@@ -139,6 +162,12 @@ def register(sub: Any) -> None:
     p.add_argument("--out", help="PDF file to write")
     p.add_argument("--by", default="Reviewer", help="name of the issuing reviewer")
     p.add_argument("--verify", metavar="FILE.pdf", help="say whether FILE.pdf is exactly an issued notice")
+    p.add_argument(
+        "--acknowledge-memory-rows",
+        action="store_true",
+        help="the reviewer (--by) has checked the table rows entered from memory that the items use; "
+        "without it a notice resting on such rows is refused (the rows are listed)",
+    )
     p.set_defaults(func=cmd_report)
     sync = sub.add_parser("sync", help="carry changes between devices by file").add_subparsers(
         dest="sync_command", required=True

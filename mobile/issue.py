@@ -7,13 +7,17 @@ import hashlib
 import time
 from pathlib import Path
 
+from core.kinds import TraceStatus
 from core.recheck import recheck
-from core.records import IssuedNotice, Stage
+from core.records import IssuedNotice, MemoryAcknowledgement, Stage
+from core.results import Recheck
 from reports import stamp
 from reports.content import Carried, Mark, Notice, Photo, header_from, item_for
 from reports.render import render_notice
-from storage import Store
+from reports.tablerows import RowUsed, memory_rows, rows_used
+from storage import Store, results
 from storage.files import write_atomic
+from storage.stamps import utc_stamp
 
 DISTRIBUTION = ["Owner", "General contractor", "Architect (coordinating professional)", "File"]
 
@@ -96,6 +100,7 @@ def build_notice(
             photos_by_beam.setdefault(p["beam_id"], []).append(ref)
     earlier = {i for n in store.notices(site_id) for i in n.deficiency_ids}
     items, carried = [], []
+    checked: list[Recheck] = []
     for d in open_items:
         beam = result = None
         observed = d.description
@@ -104,6 +109,7 @@ def build_notice(
             record = store.beam_record(d.beam_id)
             beam = store.beam(d.beam_id)
             result = recheck(beam)
+            checked.append(result)
             observed = observed_text(record)
             title = member_title(record)
             grid = str(record.get("gridline") or "")
@@ -129,8 +135,57 @@ def build_notice(
     )
     if site.contractor_contact:
         header["addressed_to"] = f"{site.contractor} (attention: {site.contractor_contact})"
-    notice = Notice(**header, items=items, carried=carried, change_note=change_note)  # type: ignore[arg-type]
+    notice = Notice(**header, items=items, carried=carried, change_note=change_note, table_rows=rows_used(checked))  # type: ignore[arg-type]
     return signed_by(store, notice), [d.id for d in open_items]
+
+
+class MemoryRowsNotAcknowledged(ValueError):
+    """A notice would rest on table rows entered from memory that the reviewer has not acknowledged."""
+
+    def __init__(self, rows: list[str]):
+        self.rows = rows
+        listed = "\n  ".join(rows)
+        msg = (
+            f"the items rest on {len(rows)} table row(s) entered from memory, not yet checked against the "
+            f"standard's text; the reviewer must acknowledge them before the notice is issued:\n  {listed}"
+        )
+        super().__init__(msg)
+
+
+def rows_for_items(store: Store, site_id: str, only: list[str] | None = None) -> list[RowUsed]:
+    """The table rows the open items' beams (or the ``only`` ones chosen) rest on, from the stored rechecks."""
+    chosen = [d for d in store.deficiencies(site_id, open_only=True) if only is None or d.id in set(only)]
+    stored = results.fresh(store.db, site_id)
+    found = {
+        RowUsed(r["clause"], r["source"], TraceStatus(r["status"]))
+        for d in chosen
+        if d.beam_id and d.beam_id in stored
+        for r in stored[d.beam_id].rows_used
+    }
+    return sorted(found, key=lambda r: (r.status is not TraceStatus.memory, r.clause, r.source))
+
+
+def acknowledge(store: Store, rows: list[RowUsed], by: str) -> MemoryAcknowledgement | None:
+    """The reviewer ``by`` acknowledges the memory rows among ``rows`` now (None when there are none)."""
+    memory = memory_rows(rows)
+    if not memory:
+        return None
+    return MemoryAcknowledgement(rows=memory, by=by.strip(), at=utc_stamp(store.wall_ms()))
+
+
+def acknowledged(notice: Notice, acknowledgement: MemoryAcknowledgement | None) -> Notice:
+    """The notice carrying the acknowledgement; refused when a memory row it rests on was not acknowledged."""
+    memory = memory_rows(notice.table_rows)
+    if not memory:
+        return notice
+    if acknowledgement is None:
+        raise MemoryRowsNotAcknowledged(memory)
+    missing = [r for r in memory if r not in acknowledgement.rows]
+    if missing:
+        raise MemoryRowsNotAcknowledged(missing)
+    return dataclasses.replace(
+        notice, memory_acknowledgement=f"acknowledged by {acknowledgement.by} at {acknowledgement.at}"
+    )
 
 
 def signed_by(store: Store, notice: Notice) -> Notice:
@@ -165,26 +220,48 @@ def issue_notice_for_site(
     issued_by: str = "Reviewer",
     issued_on: str | None = None,
     only: list[str] | None = None,
+    acknowledgement: MemoryAcknowledgement | None = None,
 ) -> tuple[IssuedNotice, Path]:
-    """Render, store (PDF blob + immutable record) and write the notice PDF to ``out``."""
+    """Render, store (PDF blob + immutable record) and write the notice PDF to ``out``.
+
+    Refused (``MemoryRowsNotAcknowledged``, nothing written, no number spent) when the items rest on
+    table rows entered from memory that ``acknowledgement`` does not name.
+    """
     site = store.site(site_id)
     number = store.next_notice_number(site)
     notice, ids = build_notice(store, site_id, number, issued_on=issued_on, only=only)
+    notice = acknowledged(notice, acknowledgement)
     pdf = render_notice(notice, stamp_hash=True)
     # the number is spent only once the PDF is safely written; if recording fails, the file goes too
     out.parent.mkdir(parents=True, exist_ok=True)
     write_atomic(out, pdf)
     try:
-        issued = store.issue_notice(site_id, number, pdf, ids, issued_by, issued_on or time.strftime("%Y-%m-%d"))
+        issued = store.issue_notice(
+            site_id, number, pdf, ids, issued_by, issued_on or time.strftime("%Y-%m-%d"),
+            memory_acknowledgement=_kept(notice, acknowledgement),
+        )  # fmt: skip
     except BaseException:
         out.unlink(missing_ok=True)
         raise
     return issued, out
 
 
-def reissue(store: Store, previous: IssuedNotice, out: Path, change_note: str, issued_by: str) -> IssuedNotice:
+def _kept(notice: Notice, acknowledgement: MemoryAcknowledgement | None) -> MemoryAcknowledgement | None:
+    """The acknowledgement recorded with the notice: only when the notice rests on memory rows."""
+    return acknowledgement if notice.memory_acknowledgement else None
+
+
+def reissue(
+    store: Store,
+    previous: IssuedNotice,
+    out: Path,
+    change_note: str,
+    issued_by: str,
+    acknowledgement: MemoryAcknowledgement | None = None,
+) -> IssuedNotice:
     """A new revision of an issued notice that says what changed; the original stays on file."""
     notice, ids = build_notice(store, previous.site_id, previous.number, previous.revision + 1, change_note)
+    notice = acknowledged(notice, acknowledgement)
     pdf = render_notice(notice, stamp_hash=True)
     issued = store.issue_notice(
         previous.site_id,
@@ -196,6 +273,7 @@ def reissue(store: Store, previous: IssuedNotice, out: Path, change_note: str, i
         revision=previous.revision + 1,
         supersedes=previous.id,
         change_note=change_note,
+        memory_acknowledgement=_kept(notice, acknowledgement),
     )
     out.write_bytes(pdf)
     return issued
@@ -249,19 +327,25 @@ def build_closeout(store: Store, site_id: str, number: str, issued_on: str | Non
 
 
 def issue_closeout(
-    store: Store, site_id: str, out: Path, issued_by: str, issued_on: str | None = None
+    store: Store,
+    site_id: str,
+    out: Path,
+    issued_by: str,
+    issued_on: str | None = None,
+    acknowledgement: MemoryAcknowledgement | None = None,
 ) -> tuple[IssuedNotice, Path]:
     """Issue a numbered close-out notice (a new document, revision of nothing), stored and hashed like any notice."""
     site = store.site(site_id)
     number = store.next_notice_number(site)
     notice, ids = build_closeout(store, site_id, number, issued_on)
+    notice = acknowledged(notice, acknowledgement)
     pdf = render_notice(notice, stamp_hash=True)
     out.parent.mkdir(parents=True, exist_ok=True)
     write_atomic(out, pdf)
     try:
         issued = store.issue_notice(
             site_id, number, pdf, ids, issued_by, issued_on or time.strftime("%Y-%m-%d"),
-            change_note="close-out notice",
+            change_note="close-out notice", memory_acknowledgement=_kept(notice, acknowledgement),
         )  # fmt: skip
     except BaseException:
         out.unlink(missing_ok=True)

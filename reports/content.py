@@ -9,6 +9,7 @@ from core.models import Beam, BottomBracing, Restraint, TopBracing
 from core.records import Deficiency, Site, Visit
 from core.remedies import remedies
 from core.results import Recheck
+from reports.tablerows import RowUsed
 
 CAUTIONS = (
     "bracewalk is a recording and recheck aid for a qualified reviewer. Its results are advisory: they "
@@ -175,6 +176,8 @@ class Notice:
     page_size: str = "letter"  # "letter" or "a4", the firm's setting
     kind: str = "deficiency"  # or "close-out"
     closeout: list[tuple[str, str, str]] = field(default_factory=list)  # (number, outcome, evidence)
+    table_rows: list[RowUsed] = field(default_factory=list)  # the table rows the rechecks used, with status
+    memory_acknowledgement: str = ""  # "acknowledged by NAME at UTC" of the memory rows, before issue
 
 
 def ordered(items: list[Item]) -> list[Item]:

@@ -30,6 +30,7 @@ from reports import stamp
 from reports.content import Item, Notice, Photo, by_member, due_words, one_line, ordered
 from reports.photos import photo_flowable
 from reports.sketch import FONT, beam_sketch
+from reports.tablerows import memory_rows
 from reports.textrun import markup
 
 # Binary (Flate/DCT) streams instead of ASCII85: reportlab's pure-Python ASCII85 encoder was most of
@@ -374,6 +375,27 @@ def _signature(n: Notice, st: dict[str, ParagraphStyle]) -> KeepTogether:
     return KeepTogether([Paragraph("Signed", st["h2"]), t])
 
 
+def _table_rows(n: Notice, st: dict[str, ParagraphStyle]) -> list[Any]:
+    """The table rows the rechecks used with their status, and the reviewer's acknowledgement of memory rows."""
+    if not n.table_rows:
+        return []
+    memory = len(memory_rows(n.table_rows))
+    story: list[Any] = [
+        Paragraph("Table rows the rechecks used", st["h2"]),
+        Paragraph(
+            f"{len(n.table_rows)} rows; {memory} MEMORY: entered from memory, not yet checked against the standard's "
+            "text; confirmed: agrees with an independent source; verified: checked against the text.",
+            st["base"],
+        ),
+    ]
+    if n.memory_acknowledgement:
+        story.append(Paragraph(f"<b>Memory rows {esc(n.memory_acknowledgement)}.</b>", st["base"]))
+    rows = [[Paragraph(h, st["bold"]) for h in ("Status", "Clause and row")]]
+    rows += [[Paragraph(esc(r.status_short), st["small"]), Paragraph(esc(r.label), st["small"])] for r in n.table_rows]
+    story.append(_grid(rows, [30 * mm, 144 * mm], shade_first_col=False, repeat=1))
+    return story
+
+
 def render_notice(n: Notice, stamp_hash: bool = False) -> bytes:
     """Render a notice to PDF bytes (same content gives the same bytes).
 
@@ -427,6 +449,7 @@ def render_notice(n: Notice, stamp_hash: bool = False) -> bytes:
             for c in n.carried
         ]
         story.append(_grid(rows, [28 * mm, 40 * mm, 76 * mm, 30 * mm], shade_first_col=False))
+    story += _table_rows(n, st)
     story.append(Paragraph("Cautions", st["h2"]))
     for c in n.cautions:
         story.append(Paragraph("• " + esc(c), st["small"]))

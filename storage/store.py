@@ -11,7 +11,16 @@ from pathlib import Path
 from typing import Any
 
 from core.models import Beam
-from core.records import Deficiency, IssuedNotice, ReviewerProfile, Site, Stage, StatusEvent, Visit
+from core.records import (
+    Deficiency,
+    IssuedNotice,
+    MemoryAcknowledgement,
+    ReviewerProfile,
+    Site,
+    Stage,
+    StatusEvent,
+    Visit,
+)
 from core.results import PRIORITY_ORDER
 from storage.clock import hlc_receive, hlc_tick, uuid7
 from storage.db import PROJECTIONS, SCHEMA_VERSION, SET_ENTITIES, connect, transaction
@@ -626,8 +635,12 @@ class Store:
         revision: int = 0,
         supersedes: str | None = None,
         change_note: str = "",
+        memory_acknowledgement: MemoryAcknowledgement | None = None,
     ) -> IssuedNotice:
-        """Store an issued notice: the PDF blob first (fsynced), then the immutable record."""
+        """Store an issued notice: the PDF blob first (fsynced), then the immutable record.
+
+        ``memory_acknowledgement``: who acknowledged the table rows entered from memory, and when (issue 16).
+        """
         sha = self.put_blob(pdf, "application/pdf")
         nid = uuid7()
         notice = IssuedNotice(
@@ -641,11 +654,15 @@ class Store:
             pdf_sha256=sha,
             supersedes=supersedes,
             change_note=change_note,
+            memory_acknowledgement=memory_acknowledgement,
         )
+        payload = notice.model_dump(mode="json", exclude={"id"})
+        if memory_acknowledgement is None:
+            del payload["memory_acknowledgement"]  # records from before the field stay byte-for-byte as they were
         with transaction(self.db):
             if revision == 0:
                 self._counter("notice")
-            self._save_in_tx("issued_notice", nid, notice.model_dump(mode="json", exclude={"id"}), "insert", None)
+            self._save_in_tx("issued_notice", nid, payload, "insert", None)
         return notice
 
     def notices(self, site_id: str) -> list[IssuedNotice]:

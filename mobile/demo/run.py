@@ -95,7 +95,7 @@ def raise_all(store: Store, site_id: str) -> list[tuple[dict[str, Any], Recheck]
 
 def run_demo(out: Path, serve: bool = False) -> int:
     """``bracewalk demo --out DIR``: the whole job on the demo site; print a table and the paths."""
-    from mobile.issue import issue_notice_for_site
+    from mobile.issue import acknowledge, issue_notice_for_site, rows_for_items
 
     start = time.perf_counter()
     out.mkdir(parents=True, exist_ok=True)
@@ -105,8 +105,11 @@ def run_demo(out: Path, serve: bool = False) -> int:
     store = Store(db_path, firm_key=DEMO_FIRM_KEY)  # the demo's marked key, so its bundle opens anywhere in a demo
     site_id = load_demo(store)
     rows = raise_all(store, site_id)
+    reviewer = "Priya Okonkwo-Lind, P.Eng."
+    # the demo's reviewer acknowledges the table rows entered from memory (printed on the notice with the time)
+    ack = acknowledge(store, rows_for_items(store, site_id), reviewer)
     notice, pdf_path = issue_notice_for_site(
-        store, site_id, out / "notice.pdf", issued_by="Priya Okonkwo-Lind, P.Eng.", issued_on="2026-11-30"
+        store, site_id, out / "notice.pdf", issued_by=reviewer, issued_on="2026-11-30", acknowledgement=ack
     )
     bundle = out / "cedar-hollow.bwsync"
     export_bundle(store, bundle)

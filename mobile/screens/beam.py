@@ -279,6 +279,9 @@ class BeamScreen(Screen):
             line.text = text
             if bar is not None and util is not None:
                 bar.show(util)
+        self._rows_button.text = self.vm.table_rows_line()
+        self._rows_button.opacity = 1 if self._rows_button.text else 0
+        self._rows_button.disabled = not self._rows_button.text
         for (_i, text), label in zip(findings, self._finding_labels, strict=True):
             label.text = text
         self.refresh_ms = (time.perf_counter() - t0) * 1000
@@ -310,6 +313,13 @@ class BeamScreen(Screen):
                 row.add_widget(bar)
             panel.add_widget(row)
             self._rows.append((line, bar))
+        self._rows_button = big_button(
+            "",
+            lambda *_: info_popup("Table rows this recheck used", self.vm.table_row_lines()),
+            font_size="16sp",
+            halign="left",
+        )
+        panel.add_widget(self._rows_button)
         self._finding_labels: list[Label] = []
         for index, _text in findings:
             label = Label(font_size="16sp", color=app.theme_fg, size_hint_y=None, halign="left", valign="top")

@@ -7,7 +7,9 @@ from pathlib import Path
 from typing import Any
 
 from kivy.app import App
+from kivy.metrics import dp
 from kivy.properties import StringProperty
+from kivy.uix.label import Label
 from kivy.uix.screenmanager import Screen
 
 from mobile.screens.widgets import (
@@ -25,6 +27,7 @@ class NoticeScreen(Screen):
     page_text = StringProperty("no preview yet")
     page_source = StringProperty("")
     unraised_text = StringProperty("")
+    ack_text = StringProperty("")
 
     def on_pre_enter(self, *args: Any) -> None:
         """Fill the item and issued lists."""
@@ -45,10 +48,30 @@ class NoticeScreen(Screen):
         for did, line, chosen in self.vm.candidates():
             mark = "☑ " if chosen else "☐ "
             box.add_widget(big_button(mark + line, lambda _b, d=did: self.toggle(d), font_size="16sp"))
+        self.render_rows()
         issued = self.ids.issued
         issued.clear_widgets()
         for nid, line in self.vm.issued():
             issued.add_widget(big_button("Export  " + line, lambda _b, n=nid: self.export(n), font_size="15sp"))
+
+    def render_rows(self) -> None:
+        """The table rows the chosen items rest on, each with its status; where the acknowledgement stands."""
+        box = self.ids.rows_list
+        box.clear_widgets()
+        for line in self.vm.table_row_lines():
+            label = Label(text=line, font_size="15sp", color=App.get_running_app().theme_fg, size_hint_y=None)
+            label.bind(
+                width=lambda w, v: setattr(w, "text_size", (v, None)),
+                texture_size=lambda w, ts: setattr(w, "height", ts[1] + dp(4)),
+            )
+            box.add_widget(label)
+        self.ack_text = self.vm.acknowledgement_text()
+
+    def acknowledge(self) -> None:
+        """The reviewer (issued by) acknowledges the memory rows listed: who and when go on the notice."""
+        self.vm.acknowledge(self.ids.issued_by.text)
+        self.message = self.vm.message
+        self.render_rows()
 
     def toggle(self, deficiency_id: str) -> None:
         """Include or leave out one item."""

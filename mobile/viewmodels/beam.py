@@ -29,6 +29,7 @@ from core.remedies import remedies
 from core.results import FactorTrace, Recheck
 from mobile.units import LengthRefused, echo_length, read_length, split_spans
 from mobile.viewmodels.common import PRIORITY_LABELS, line_loads_kn_m, status_label
+from reports.tablerows import counts, rows_used
 from storage import StorageError, Store
 
 LENGTH_FIELDS = {  # form field -> its plausible range (core.plausible)
@@ -526,6 +527,22 @@ class BeamFormViewModel:
                 + (f"   ({t.source})" if t.source else "")
             )
         return out
+
+    def table_rows_line(self) -> str:
+        """'Table rows used: 18 table rows: 12 memory, 6 confirmed, 0 verified (tap)'; '' with no recheck."""
+        r = self.result or self.refresh()
+        return "" if r is None else f"Table rows used: {counts(rows_used([r]))} (tap for each row)"
+
+    def table_row_lines(self) -> list[str]:
+        """Each table row the recheck used with its status: confirmed / verified by the firm / memory."""
+        r = self.result or self.refresh()
+        if r is None:
+            return []
+        return [
+            "Every table row this recheck rests on; rows entered from memory must be acknowledged before a "
+            "notice is issued (or verified by the firm: bracewalk tables verify):",
+            *(f"[{row.status_words}]  {row.label}" for row in rows_used([r])),
+        ]
 
     def archive(self) -> None:
         """Soft delete: the beam leaves the site's lists (a synced change); its record and history stay."""

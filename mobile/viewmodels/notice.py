@@ -9,10 +9,14 @@ import time
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from mobile.issue import build_notice, issue_notice_for_site
+from core.records import IssuedNotice, MemoryAcknowledgement
+from mobile.issue import MemoryRowsNotAcknowledged, acknowledge, build_notice, issue_notice_for_site, rows_for_items
 from mobile.viewmodels.common import PRIORITY_LABELS
+from reports import stamp
 from reports.render import render_notice
+from reports.tablerows import RowUsed, memory_rows
 from storage import StorageError, Store
+from storage.stamps import local_time
 
 PREVIEW_SCALE = 2.0  # 144 dpi: a US letter page is 1224 x 1584 px, legible on a tablet
 
@@ -25,6 +29,8 @@ class NoticeViewModel:
     site_id: str
     chosen: set[str] = field(default_factory=set)
     message: str = ""
+    acknowledgement: MemoryAcknowledgement | None = None  # the reviewer's, of the memory rows the items use
+    _printed: dict[str, str] = field(default_factory=dict, repr=False)  # notice id -> the footer's short hash
 
     def __post_init__(self) -> None:
         """Every open item is chosen to begin with."""
@@ -38,8 +44,41 @@ class NoticeViewModel:
         ]
 
     def toggle(self, deficiency_id: str) -> None:
-        """Choose or leave out one item."""
+        """Choose or leave out one item (an acknowledgement stands only if it still covers every memory row)."""
         self.chosen ^= {deficiency_id}
+        if self.acknowledgement is not None and not set(self.memory_rows()) <= set(self.acknowledgement.rows):
+            self.acknowledgement = None
+
+    def table_rows(self) -> list[RowUsed]:
+        """The table rows the chosen items' beams rest on, memory rows first."""
+        return rows_for_items(self.store, self.site_id, sorted(self.chosen))
+
+    def table_row_lines(self) -> list[str]:
+        """'MEMORY (not checked ...)  ·  CSA O86-19 Table 7.3: glulam_grades row ...' per row used."""
+        return [f"{r.status_words}  ·  {r.label}" for r in self.table_rows()]
+
+    def memory_rows(self) -> list[str]:
+        """The rows entered from memory that the reviewer must acknowledge before issue."""
+        return memory_rows(self.table_rows())
+
+    def acknowledgement_text(self) -> str:
+        """Where the acknowledgement stands, in words."""
+        memory = self.memory_rows()
+        if not memory:
+            return "No table row entered from memory: nothing to acknowledge."
+        if self.acknowledgement is not None:
+            when = local_time(self.acknowledgement.at)
+            return f"{len(memory)} memory rows acknowledged by {self.acknowledgement.by} at {when}."
+        return f"{len(memory)} rows entered from memory: check them, then acknowledge before issue."
+
+    def acknowledge(self, by: str) -> bool:
+        """The reviewer ``by`` acknowledges the memory rows now listed (who and when go on the notice)."""
+        if not by.strip():
+            self.message = "Enter the reviewer acknowledging the memory rows (issued by)"
+            return False
+        self.acknowledgement = acknowledge(self.store, self.table_rows(), by)
+        self.message = self.acknowledgement_text()
+        return True
 
     def draft_pdf(self) -> bytes:
         """The notice as it would be issued now (marked with the next number), not stored."""
@@ -76,8 +115,16 @@ class NoticeViewModel:
         out = out_dir / f"notice-{time.strftime('%Y%m%d-%H%M%S')}.pdf"
         try:
             issued, path = issue_notice_for_site(
-                self.store, self.site_id, out, issued_by.strip(), only=sorted(self.chosen)
+                self.store,
+                self.site_id,
+                out,
+                issued_by.strip(),
+                only=sorted(self.chosen),
+                acknowledgement=self.acknowledgement,
             )
+        except MemoryRowsNotAcknowledged as exc:
+            self.message = f"Not issued: acknowledge the {len(exc.rows)} table rows entered from memory first"
+            return None
         except (StorageError, OSError) as exc:  # nothing was issued: the number is not spent
             self.message = f"Not issued: {exc}"
             return None
@@ -90,10 +137,24 @@ class NoticeViewModel:
             (
                 n.id,
                 f"{n.number} rev {n.revision}  ·  {n.issued_at}  ·  {n.issued_by}  ·  "
-                f"{len(n.deficiency_ids)} items  ·  SHA-256 {n.pdf_sha256[:12]}",
+                f"{len(n.deficiency_ids)} items  ·  {self._printed_hash(n)}",
             )
             for n in self.store.notices(self.site_id)
         ]
+
+    def _printed_hash(self, n: IssuedNotice) -> str:
+        """'SHA-256 1a2b3c4d5e6f7a8b' as the notice's footer prints it (the embedded hash's short form).
+
+        A notice issued before the hash was embedded, or whose PDF has not arrived, shows the file's
+        hash, said so.
+        """
+        if n.id not in self._printed:  # an issued PDF never changes: read and checked once
+            pdf = self.store.blob(n.pdf_sha256)
+            embedded = stamp.embedded_hash(pdf) if pdf is not None else None
+            if embedded is None:
+                return f"file SHA-256 {n.pdf_sha256[:12]}"
+            self._printed[n.id] = f"SHA-256 {stamp.short_form(embedded)}"
+        return self._printed[n.id]
 
     def export(self, notice_id: str, folder: Path) -> Path:
         """Write an issued notice's stored PDF into folder (to share); the bytes are checked against the hash."""

@@ -6,7 +6,7 @@ import httpx
 import pytest
 
 from mobile.hub_client import sync
-from mobile.issue import issue_notice_for_site
+from mobile.issue import acknowledge, issue_notice_for_site, rows_for_items
 from office import registry
 from tests.core.beams import glulam
 
@@ -43,7 +43,8 @@ def office(served, tmp_path):
     )
     tablet.add_photo(site.id, PHOTO, beam_id=beam, deficiency_id=d.id)
     tablet.move_status(d.id, "corrected", "Site super", "contractor", note="blocking installed")
-    notice, _ = issue_notice_for_site(tablet, site.id, tmp_path / "n.pdf", issued_by="R. Eng")
+    ack = acknowledge(tablet, rows_for_items(tablet, site.id), "R. Eng")  # the beam rests on memory rows
+    notice, _ = issue_notice_for_site(tablet, site.id, tmp_path / "n.pdf", issued_by="R. Eng", acknowledgement=ack)
     assert sync(tablet).in_step
     registry.add_user(served.hub, "office", "correct horse battery")
     client = httpx.Client(base_url=served.url, follow_redirects=False, timeout=20)

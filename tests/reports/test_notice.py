@@ -13,7 +13,7 @@ from pypdf import PdfReader
 from core import recheck
 from core.records import Deficiency
 from mobile.demo.run import load_demo, raise_all
-from mobile.issue import issue_notice_for_site, verify_pdf
+from mobile.issue import acknowledge, issue_notice_for_site, rows_for_items, verify_pdf
 from reports.content import Notice, item_for
 from reports.photos import prepare_photo
 from reports.render import render_notice, render_recheck_sheet
@@ -202,7 +202,10 @@ def test_issue_store_hash_and_verify(tmp_path):
     store = Store(tmp_path / "d.db")
     site_id = load_demo(store)
     raise_all(store, site_id)
-    notice, path = issue_notice_for_site(store, site_id, tmp_path / "n.pdf", issued_by="P. O.", issued_on="2026-11-30")
+    ack = acknowledge(store, rows_for_items(store, site_id), "P. O.")  # the demo beams rest on memory rows
+    notice, path = issue_notice_for_site(
+        store, site_id, tmp_path / "n.pdf", issued_by="P. O.", issued_on="2026-11-30", acknowledgement=ack
+    )
     pdf = path.read_bytes()
     assert hashlib.sha256(pdf).hexdigest() == notice.pdf_sha256
     assert store.blob(notice.pdf_sha256) == pdf

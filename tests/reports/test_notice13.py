@@ -133,12 +133,21 @@ def _profiled_store(tmp_path):
     return store, site_id
 
 
+def _ack(store, site_id):
+    """The reviewer acknowledges the memory rows the open items use (issue 16 item 6)."""
+    from mobile.issue import acknowledge, rows_for_items
+
+    return acknowledge(store, rows_for_items(store, site_id), "P. O.")
+
+
 def test_signed_notice_and_embedded_hash(tmp_path):
     from mobile.issue import issue_notice_for_site, verify_pdf
     from reports import stamp
 
     store, site_id = _profiled_store(tmp_path)
-    issued, path = issue_notice_for_site(store, site_id, tmp_path / "n.pdf", "P. O.", issued_on="2026-11-30")
+    issued, path = issue_notice_for_site(
+        store, site_id, tmp_path / "n.pdf", "P. O.", issued_on="2026-11-30", acknowledgement=_ack(store, site_id)
+    )
     pdf = path.read_bytes()
     reader = PdfReader(io.BytesIO(pdf))
     last = " ".join(reader.pages[-1].extract_text().split())
@@ -171,7 +180,9 @@ def test_verify_refuses_any_change(tmp_path):
     from reports import stamp
 
     store, site_id = _profiled_store(tmp_path)
-    _, path = issue_notice_for_site(store, site_id, tmp_path / "n.pdf", "P. O.", issued_on="2026-11-30")
+    _, path = issue_notice_for_site(
+        store, site_id, tmp_path / "n.pdf", "P. O.", issued_on="2026-11-30", acknowledgement=_ack(store, site_id)
+    )
     pdf = path.read_bytes()
     digest = stamp.embedded_hash(pdf)
     at_meta = pdf.index(digest.encode())
@@ -270,8 +281,17 @@ def test_closeout_after_rereview_and_revision(tmp_path):
     from reports import stamp
 
     store, site_id = _profiled_store(tmp_path)
-    first, _ = issue_notice_for_site(store, site_id, tmp_path / "n.pdf", "P. O.", issued_on="2026-11-30")
-    rev1 = reissue(store, first, tmp_path / "n-rev1.pdf", "item D-x location corrected to grid D/3", "P. O.")
+    first, _ = issue_notice_for_site(
+        store, site_id, tmp_path / "n.pdf", "P. O.", issued_on="2026-11-30", acknowledgement=_ack(store, site_id)
+    )
+    rev1 = reissue(
+        store,
+        first,
+        tmp_path / "n-rev1.pdf",
+        "item D-x location corrected to grid D/3",
+        "P. O.",
+        acknowledgement=_ack(store, site_id),
+    )
     text = " ".join("\n".join(_pages((tmp_path / "n-rev1.pdf").read_bytes())).split())
     assert f"{first.number} rev 1" in text
     assert "What changed in rev 1: item D-x location corrected" in text
@@ -279,7 +299,9 @@ def test_closeout_after_rereview_and_revision(tmp_path):
     done, *rest = [store.deficiency(i) for i in first.deficiency_ids]
     store.move_status(done.id, "corrected", "D. Abernathy", "contractor", note="shimmed and bolted")
     store.move_status(done.id, "verified", "P. O.", "reviewer", note="seen fixed on site")
-    closeout, path = issue_closeout(store, site_id, tmp_path / "c.pdf", "P. O.", issued_on="2026-12-10")
+    closeout, path = issue_closeout(
+        store, site_id, tmp_path / "c.pdf", "P. O.", issued_on="2026-12-10", acknowledgement=_ack(store, site_id)
+    )
     pdf = path.read_bytes()
     assert closeout.number != first.number
     assert closeout.revision == 0  # a new numbered document
