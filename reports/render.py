@@ -172,12 +172,16 @@ def _first_page(n: Notice, st: dict[str, ParagraphStyle]) -> list[Any]:
         ("Firm", n.firm),
         ("Contact", _contact(n) or "not recorded"),
     ]
-    left = _grid(_rows(to, st), [22 * mm, 63 * mm])
-    right = _grid(_rows(sender, st), [22 * mm, 63 * mm])
-    pair = Table(
-        [[Paragraph("To", st["h3"]), Paragraph("From", st["h3"])], [left, right]], colWidths=[87 * mm, 87 * mm]
+    # To, then From, one above the other: text extraction and screen readers read them in that order
+    # (side by side, a reader interleaved the two columns)
+    rows = [[Paragraph("To", st["h3"]), ""], *_rows(to, st), [Paragraph("From", st["h3"]), ""], *_rows(sender, st)]
+    pair = _grid(rows, [22 * mm, 152 * mm])
+    heads = (0, len(to) + 1)
+    pair.setStyle(
+        TableStyle(
+            [cmd for r in heads for cmd in (("SPAN", (0, r), (-1, r)), ("BACKGROUND", (0, r), (-1, r), colors.white))]
+        )
     )
-    pair.setStyle(TableStyle([("LEFTPADDING", (0, 0), (-1, -1), 0), ("VALIGN", (0, 0), (-1, -1), "TOP")]))
     story.append(pair)
     site = [
         ["Site", Paragraph(esc(n.site_name), p), "Visit", Paragraph(esc(n.visit_at), p)],

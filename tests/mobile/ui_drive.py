@@ -58,20 +58,61 @@ def _shown(w):
     return rect if rect[2] - rect[0] > 1 and rect[3] - rect[1] > 1 else None
 
 
-def layout_problems(screen_name):
-    """Overlap, text spilling out of its box, a zero-size panel, off-screen controls, targets under 15 mm."""
+def _panel_problem(w):
+    """A scroll panel shown with less than 15 mm of height (None when fine or not a shown panel)."""
+    from kivy.metrics import mm
+    from kivy.uix.scrollview import ScrollView
+
+    if not isinstance(w, ScrollView) or w.opacity == 0:
+        return None
+    shown = _shown(w)
+    if shown is None or shown[3] - shown[1] < mm(15) - 1:
+        return f"panel {w.__class__.__name__} in {w.parent.__class__.__name__} has no height"
+    return None
+
+
+def _leaf_problems(w, what):
+    """Off screen sideways, a target under 15 mm, text spilling out of its label."""
     from kivy.metrics import mm
     from kivy.uix.button import Button
     from kivy.uix.label import Label
-    from kivy.uix.scrollview import ScrollView
+    from kivy.uix.textinput import TextInput
+
+    problems = []
+    full = _window_rect(w)
+    if full[0] < -1 or full[2] > app.root_window.width + 1:
+        problems.append(f"{what} off screen sideways")
+    small = w.height < mm(15) - 1 or w.width < mm(15) - 1
+    if isinstance(w, Button | TextInput) and not w.disabled and small:
+        problems.append(f"{what} target {w.width / mm(1):.0f} x {w.height / mm(1):.0f} mm < 15 mm")
+    if isinstance(w, Label) and w.text.strip() and not w.shorten:
+        tw, th = w.texture_size
+        if th > w.height + 2 or tw > w.width + 2:
+            problems.append(f"{what} text {tw:.0f}x{th:.0f}px spills out of {w.width:.0f}x{w.height:.0f}px")
+    return problems
+
+
+def _overlaps(leaves):
+    """Every pair of shown leaves whose rectangles overlap by more than 2 px both ways."""
+    out = []
+    for i, (a, ra) in enumerate(leaves):
+        for b, rb in leaves[i + 1 :]:
+            if min(ra[2], rb[2]) - max(ra[0], rb[0]) > 2 and min(ra[3], rb[3]) - max(ra[1], rb[1]) > 2:
+                out.append(f"{a} overlaps {b}")
+    return out
+
+
+def layout_problems(screen_name):
+    """Overlap, text spilling out of its box, a zero-size panel, off-screen controls, targets under 15 mm."""
+    from kivy.uix.button import Button
+    from kivy.uix.label import Label
     from kivy.uix.textinput import TextInput
 
     problems, leaves = [], []
     for w in screen(screen_name).walk(restrict=True):
-        if isinstance(w, ScrollView) and w.opacity > 0:
-            shown = _shown(w)
-            if shown is None or shown[3] - shown[1] < mm(15) - 1:
-                problems.append(f"panel {w.__class__.__name__} in {w.parent.__class__.__name__} has no height")
+        panel = _panel_problem(w)
+        if panel:
+            problems.append(panel)
         if not isinstance(w, Button | TextInput | Label):
             continue
         if isinstance(w, Label) and not isinstance(w, Button) and not w.text.strip():
@@ -80,21 +121,9 @@ def layout_problems(screen_name):
         if shown is None:
             continue
         what = f"{type(w).__name__} {getattr(w, 'text', '')[:32]!r}"
-        full = _window_rect(w)
-        if full[0] < -1 or full[2] > app.root_window.width + 1:
-            problems.append(f"{what} off screen sideways")
-        small = w.height < mm(15) - 1 or w.width < mm(15) - 1
-        if isinstance(w, Button | TextInput) and not w.disabled and small:
-            problems.append(f"{what} target {w.width / mm(1):.0f} x {w.height / mm(1):.0f} mm < 15 mm")
-        if isinstance(w, Label) and w.text.strip() and not w.shorten:
-            tw, th = w.texture_size
-            if th > w.height + 2 or tw > w.width + 2:
-                problems.append(f"{what} text {tw:.0f}x{th:.0f}px spills out of {w.width:.0f}x{w.height:.0f}px")
+        problems += _leaf_problems(w, what)
         leaves.append((what, shown))
-    for i, (a, ra) in enumerate(leaves):
-        for b, rb in leaves[i + 1 :]:
-            if min(ra[2], rb[2]) - max(ra[0], rb[0]) > 2 and min(ra[3], rb[3]) - max(ra[1], rb[1]) > 2:
-                problems.append(f"{a} overlaps {b}")
+    problems += _overlaps(leaves)
     return [f"{screen_name}: {p}" for p in problems]
 
 
@@ -282,6 +311,21 @@ if FLOW == "main":
         app.root_window.children[0].dismiss()
 
     @step
+    def table_rows_popup():
+        s = screen("beam")
+        assert s._rows_button.text.startswith("Table rows used:"), s._rows_button.text
+        s._rows_button.trigger_action(0)
+
+    @step
+    def table_rows_shot():
+        popup = app.root_window.children[0]
+        text = "\n".join(w.text for w in popup.walk() if hasattr(w, "text") and isinstance(w.text, str))
+        assert "[MEMORY" in text, text[:400]  # each row with its status (issue 16 item 6)
+        assert "[confirmed" in text, text[:400]
+        shot("04b-table-rows")
+        popup.dismiss()
+
+    @step
     def restraint_off():
         s = screen("beam")
         s.restraint_buttons[(2, "rotation", "no")].trigger_action(0)  # chosen directly, not cycled
@@ -360,13 +404,32 @@ if FLOW == "main":
         assert screen("notice").pages
 
     @step
-    def issue():
+    def issue_refused_until_acknowledged():
         shot("08-notice-preview")
         s = screen("notice")
+        assert any(w.text.startswith("MEMORY") for w in s.ids.rows_list.children), "no memory row listed"
+        assert "acknowledge before issue" in s.ack_text, s.ack_text
         s.ids.issued_by.text = "Priya Okonkwo-Lind, P.Eng."
         s.ids.issue.trigger_action(0)
+        assert "acknowledge the" in s.message, s.message
+        assert not app.store.notices(app.site_id)
+
+    @step
+    def acknowledge_memory_rows():
+        s = screen("notice")
+        s.ids.acknowledge.trigger_action(0)
+        assert "acknowledged by Priya Okonkwo-Lind" in s.ack_text, s.ack_text
+
+    @step
+    def issue():
+        shot("08b-notice-acknowledged")  # the frame after the tap
+        s = screen("notice")
+        s.ids.issue.trigger_action(0)
         assert "Issued" in s.message, s.message
-        assert app.store.notices(app.site_id)
+        (notice,) = app.store.notices(app.site_id)
+        assert notice.memory_acknowledgement.by == "Priya Okonkwo-Lind, P.Eng."
+        assert "SHA-256 " in s.ids.issued.children[-1].text
+        assert notice.pdf_sha256[:12] not in s.ids.issued.children[-1].text  # the footer's hash, not the file's
 
     @step
     def export_notice():
