@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from enum import IntEnum
+from enum import IntEnum, StrEnum
 
 from pydantic import Field
 
@@ -57,6 +57,24 @@ class Visit(Record):
     scope_not_reviewed: str = ""
 
 
+class ReReviewOutcome(StrEnum):
+    """What the reviewer found for an item at a re-review (issue 13 item 5)."""
+
+    verified = "verified"  # the correction is seen and the updated beam no longer carries the finding
+    still_open = "still_open"  # not corrected, or not as required
+
+
+class ReReview(Record):
+    """The reviewer's re-review of one deficiency: outcome, note, and the recheck of the updated beam."""
+
+    outcome: ReReviewOutcome
+    note: str = Field(default="", max_length=2000)
+    evidence: str = Field(default="", max_length=2000)  # the recheck of the beam as now recorded, in words
+    by: str = Field(min_length=1, max_length=200)
+    at: str = Field(min_length=1, max_length=40)  # UTC, ISO 8601 with Z (storage.stamps)
+    cycle: int = Field(ge=0)  # the deficiency's cycle the outcome belongs to
+
+
 class Deficiency(Record):
     """A confirmed deficiency with a persistent number that carries across visits."""
 
@@ -73,6 +91,7 @@ class Deficiency(Record):
     due: str = ""
     cycle: int = 0
     stage: Stage = Stage.open
+    rereview: ReReview | None = None  # the latest re-review outcome (issue 13): printed on the close-out
 
 
 class StatusEvent(Record):

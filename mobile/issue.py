@@ -9,7 +9,7 @@ from pathlib import Path
 
 from core.kinds import TraceStatus
 from core.recheck import recheck
-from core.records import IssuedNotice, MemoryAcknowledgement, Stage
+from core.records import Deficiency, IssuedNotice, MemoryAcknowledgement, Stage
 from core.results import Recheck
 from reports import stamp
 from reports.content import Carried, Mark, Notice, Photo, header_from, item_for
@@ -19,6 +19,7 @@ from storage import Store, results
 from storage.files import write_atomic
 from storage.stamps import utc_stamp
 
+CLOSEOUT_NOTE = "close-out notice"  # the change note an issued close-out carries (how the record says what it is)
 DISTRIBUTION = ["Owner", "General contractor", "Architect (coordinating professional)", "File"]
 
 
@@ -311,19 +312,29 @@ def build_closeout(store: Store, site_id: str, number: str, issued_on: str | Non
             evidence = f"{last.at[:10]} {last.actor}: {last.note}".strip()
             if last.evidence_sha256:
                 evidence += f" (evidence SHA-256 {last.evidence_sha256[:12]})"
-        if d.stage is Stage.verified:
-            outcome = "verified (closed)"
-        elif d.id not in earlier:
-            outcome = "new"
-        elif d.stage is Stage.corrected:
-            outcome = "reported corrected, not yet verified: still open"
-        else:
-            outcome = "still open" + (f" (cycle {d.cycle + 1})" if d.cycle else "")
+        outcome = _outcome(d, d.id in earlier)
+        r = d.rereview
+        if r is not None and r.cycle == d.cycle:  # the reviewer's re-review of this item: its words and recheck
+            photo = f"photo SHA-256 {last.evidence_sha256[:12]}" if last and last.evidence_sha256 else ""
+            evidence = "; ".join(x for x in (f"{r.at[:10]} {r.by}", r.note, r.evidence, photo) if x)
         if d.id in earlier or d.stage is not Stage.verified:
             rows.append((d.number, outcome, evidence or "none recorded"))
     notice, ids = build_notice(store, site_id, number, issued_on=issued_on)
     notice = dataclasses.replace(notice, kind="close-out", closeout=rows, carried=[])
     return notice, sorted({*ids, *(d.id for d in every if d.id in earlier)})
+
+
+def _outcome(d: Deficiency, on_earlier_notice: bool) -> str:
+    """A close-out row's outcome in words: verified, new, or still open (with what the re-review found)."""
+    reviewed = d.rereview is not None and d.rereview.cycle == d.cycle
+    if d.stage is Stage.verified:
+        return "verified (closed)"
+    if not on_earlier_notice:
+        return "new"
+    if d.stage is Stage.corrected:
+        return "reported corrected, not yet verified: still open"
+    cycle = f" (cycle {d.cycle + 1})" if d.cycle else ""
+    return "still open" + (", found at re-review" if reviewed else "") + cycle
 
 
 def issue_closeout(
@@ -345,7 +356,7 @@ def issue_closeout(
     try:
         issued = store.issue_notice(
             site_id, number, pdf, ids, issued_by, issued_on or time.strftime("%Y-%m-%d"),
-            change_note="close-out notice", memory_acknowledgement=_kept(notice, acknowledgement),
+            change_note=CLOSEOUT_NOTE, memory_acknowledgement=_kept(notice, acknowledgement),
         )  # fmt: skip
     except BaseException:
         out.unlink(missing_ok=True)

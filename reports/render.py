@@ -168,8 +168,8 @@ def _first_page(n: Notice, st: dict[str, ParagraphStyle]) -> list[Any]:
         x for x in (n.reviewer_designation, f"licence {n.reviewer_licence}" if n.reviewer_licence else "") if x
     )
     sender = [
-        ("Reviewer", n.reviewer + (f", {licence}" if licence else "")),
-        ("Firm", n.firm),
+        ("Reviewer", (n.reviewer + (f", {licence}" if licence else "")) or "not recorded"),
+        ("Firm", n.firm or "not recorded"),
         ("Contact", _contact(n) or "not recorded"),
     ]
     # To, then From, one above the other: text extraction and screen readers read them in that order

@@ -527,7 +527,7 @@ class Store:
                 due=due,
             )
             self._save_in_tx(
-                "deficiency", did, d.model_dump(mode="json", exclude={"id", "cycle", "stage"}), "set", None
+                "deficiency", did, d.model_dump(mode="json", exclude={"id", "cycle", "stage", "rereview"}), "set", None
             )
         return self.deficiency(did)
 

@@ -30,6 +30,8 @@ class DeficiencyScreen(Screen):
     evidence_text = StringProperty("Evidence photo…")
     who_text = StringProperty("")
     has_beam = BooleanProperty(False)
+    is_reviewer = BooleanProperty(False)
+    rereview_text = StringProperty("")
     priority_words = ListProperty([PRIORITY_LABELS[p] for p in PRIORITY_ORDER])
 
     @staticmethod
@@ -107,6 +109,14 @@ class DeficiencyScreen(Screen):
         self.message = self.vm.message
         self.render()
 
+    def rereview(self, outcome: str) -> None:
+        """Record the re-review outcome (verified / still open) with the note and the beam's recheck."""
+        name, role = self.vm.device_user()
+        if self.vm.rereview(outcome, name, role, self.ids.note.text):
+            self.ids.note.text = ""
+        self.message = self.vm.message
+        self.render()
+
     def render(self) -> None:
         """Title, allowed moves for the chosen role, history."""
         if not hasattr(self, "vm"):
@@ -120,3 +130,5 @@ class DeficiencyScreen(Screen):
         for stage in self.vm.moves(role):
             box.add_widget(big_button(words[stage], lambda _b, s=stage: self.move(s), halign="center"))
         self.history_text = "\n".join(self.vm.history_lines())
+        self.is_reviewer = role == "reviewer"
+        self.rereview_text = self.vm.rereview_text()

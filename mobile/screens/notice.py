@@ -108,6 +108,19 @@ class NoticeScreen(Screen):
             self.vm = NoticeViewModel(App.get_running_app().store, App.get_running_app().site_id)
         self.render()
 
+    def issue_closeout(self) -> None:
+        """Issue the close-out notice after a re-review (the outcomes recorded on each item)."""
+        out_dir = Path(App.get_running_app().store.path).parent / "notices"
+        path = self.vm.issue_closeout(self.ids.issued_by.text, out_dir)
+        self.message = self.vm.message
+        if path is not None:
+            self.pages = self.vm.preview_pages(PREVIEW_DIR, path.read_bytes())
+            self.page = 0
+            self.show_page()
+            self.page_text = f"ISSUED close-out, page 1 of {len(self.pages)}"
+            self.vm = NoticeViewModel(App.get_running_app().store, App.get_running_app().site_id)
+        self.render()
+
     def export(self, notice_id: str) -> None:
         """Copy an issued notice's PDF into the export folder (to share)."""
         try:

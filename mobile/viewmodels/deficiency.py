@@ -7,10 +7,11 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from core.recheck import recheck
-from core.records import Deficiency, Stage
+from core.records import Deficiency, ReReview, ReReviewOutcome, Stage
 from core.results import PRIORITY_ORDER
 from mobile.viewmodels.common import PRIORITY_LABELS, STAGE_WORDS, local_time, status_label
 from storage import Store
+from storage.stamps import utc_stamp
 from storage.store import LifecycleError
 
 EDITABLE = ("location", "description", "reference", "action", "priority", "due")
@@ -119,6 +120,57 @@ class DeficiencyViewModel:
             return False
         self.message = f"Moved to {stage} by {actor.strip()} ({role})"
         return True
+
+    def rereview(self, outcome: str, actor: str, role: str, note: str = "") -> bool:
+        """Record the re-review outcome of this item (reviewer only); False with ``message`` if refused.
+
+        ``verified``: the beam as now recorded must no longer carry the finding (its recheck is the
+        evidence); the status moves to verified. ``still_open``: an item the contractor reported corrected
+        is reopened (a new cycle). Either way the outcome, note and recheck go on the close-out notice.
+        """
+        if role != "reviewer":
+            self.message = "Only a reviewer records a re-review (set this device's user up as a reviewer)"
+            return False
+        if not actor.strip():
+            self.message = "Enter who is making this change"
+            return False
+        kind = ReReviewOutcome(outcome)
+        gone, summary = self.recheck_as_installed()
+        if kind is ReReviewOutcome.verified and not gone:
+            self.message = "Not verified: the beam as recorded still shows this finding. " + summary
+            return False
+        d = self.deficiency()
+        text = "; ".join(x for x in (note.strip(), summary) if x)
+        try:
+            if kind is ReReviewOutcome.verified and d.stage is not Stage.verified:
+                self.store.move_status(d.id, "verified", actor.strip(), role, text)
+            elif kind is ReReviewOutcome.still_open and d.stage is not Stage.open:
+                self.store.move_status(d.id, "reopen", actor.strip(), role, text)
+        except LifecycleError as exc:
+            self.message = str(exc)
+            return False
+        record = ReReview(
+            outcome=kind,
+            note=note.strip(),
+            evidence=summary,
+            by=actor.strip(),
+            at=utc_stamp(self.store.wall_ms()),
+            cycle=self.deficiency().cycle,
+        )
+        self.store.save("deficiency", d.id, {"rereview": record.model_dump(mode="json")})
+        self.message = f"Re-review recorded: {kind.value.replace('_', ' ')} ({summary or 'no beam'})"
+        return True
+
+    def rereview_text(self) -> str:
+        """The latest re-review outcome in words, or that there is none yet."""
+        r = self.deficiency().rereview
+        if r is None:
+            return "No re-review recorded yet"
+        return (
+            f"Re-review {local_time(r.at)} by {r.by}: {r.outcome.value.replace('_', ' ')}"
+            + (f"; {r.note}" if r.note else "")
+            + (f"; {r.evidence}" if r.evidence else "")
+        )
 
     def history_lines(self) -> list[str]:
         """Every status move, oldest first, with who, when, the note and whether evidence is attached."""

@@ -10,7 +10,15 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from core.records import IssuedNotice, MemoryAcknowledgement
-from mobile.issue import MemoryRowsNotAcknowledged, acknowledge, build_notice, issue_notice_for_site, rows_for_items
+from mobile.issue import (
+    CLOSEOUT_NOTE,
+    MemoryRowsNotAcknowledged,
+    acknowledge,
+    build_notice,
+    issue_closeout,
+    issue_notice_for_site,
+    rows_for_items,
+)
 from mobile.viewmodels.common import PRIORITY_LABELS
 from reports import stamp
 from reports.render import render_notice
@@ -131,12 +139,45 @@ class NoticeViewModel:
         self.message = f"Issued {issued.number} rev {issued.revision} ({len(issued.deficiency_ids)} items)"
         return path
 
+    def closeout_ready(self) -> str:
+        """'' when a close-out can be issued, else why not (no notice issued yet)."""
+        if not self.store.notices(self.site_id):
+            return "A close-out follows an issued notice: none issued on this site yet"
+        return ""
+
+    def issue_closeout(self, issued_by: str, out_dir: Path) -> Path | None:
+        """Issue the numbered close-out notice: every earlier item verified or still open, and new items.
+
+        The memory rows of the open items must be acknowledged as for any notice (same step).
+        """
+        why = self.closeout_ready()
+        if why:
+            self.message = why
+            return None
+        if not issued_by.strip():
+            self.message = "Enter the reviewer issuing the close-out"
+            return None
+        out = out_dir / f"closeout-{time.strftime('%Y%m%d-%H%M%S')}.pdf"
+        try:
+            issued, path = issue_closeout(
+                self.store, self.site_id, out, issued_by.strip(), acknowledgement=self.acknowledgement
+            )
+        except MemoryRowsNotAcknowledged as exc:
+            self.message = f"Not issued: acknowledge the {len(exc.rows)} table rows entered from memory first"
+            return None
+        except (StorageError, OSError) as exc:
+            self.message = f"Not issued: {exc}"
+            return None
+        self.message = f"Issued close-out {issued.number} ({len(issued.deficiency_ids)} items)"
+        return path
+
     def issued(self) -> list[tuple[str, str]]:
         """[(notice id, 'number rev n · date · by · items')] of issued notices, read-only."""
         return [
             (
                 n.id,
-                f"{n.number} rev {n.revision}  ·  {n.issued_at}  ·  {n.issued_by}  ·  "
+                ("Close-out " if n.change_note == CLOSEOUT_NOTE else "")
+                + f"{n.number} rev {n.revision}  ·  {n.issued_at}  ·  {n.issued_by}  ·  "
                 f"{len(n.deficiency_ids)} items  ·  {self._printed_hash(n)}",
             )
             for n in self.store.notices(self.site_id)

@@ -244,6 +244,7 @@ def test_notice_choose_preview_issue_export(demo, tmp_path):
     assert len(pages) == len(PdfReader(io.BytesIO(pdf)).pages)
     assert pages[0].stat().st_size > 0
     assert store.notices(site_id) == []  # a preview issues nothing
+    assert vm.acknowledge("P. Okonkwo-Lind")  # the demo beams rest on table rows entered from memory
     path = vm.issue("P. Okonkwo-Lind", tmp_path / "issued")
     (notice,) = store.notices(site_id)
     assert notice.deficiency_ids == [first]

@@ -392,6 +392,15 @@ if FLOW == "main":
         assert "Verify the correction" in {b.text for b in s.ids.moves.children}  # the device's user is a reviewer
 
     @step
+    def rereview_verified():
+        s = screen("deficiency")
+        assert s.is_reviewer
+        s.ids.note.text = "blocking seen both sides at S2"
+        s.ids.rereview_verified.trigger_action(0)
+        assert "Re-review recorded: verified" in s.message, s.message
+        assert "verified; blocking seen both sides at S2" in s.rereview_text, s.rereview_text
+
+    @step
     def deficiency_shot():
         shot("07-deficiency")
         screen("deficiency").ids.back.trigger_action(0)
@@ -438,6 +447,18 @@ if FLOW == "main":
         s.ids.issued.children[-1].trigger_action(0)
         assert list((OUT / "exported").glob("*.pdf")), s.message
         shot("09-notice-issued")
+
+    @step
+    def closeout():
+        s = screen("notice")
+        s.ids.acknowledge.trigger_action(0)  # the open items' memory rows, acknowledged again for this document
+        s.ids.closeout.trigger_action(0)
+        assert "Issued close-out" in s.message, s.message
+        assert any(n.change_note == "close-out notice" for n in app.store.notices(app.site_id))
+
+    @step
+    def closeout_shot():
+        shot("09b-closeout-issued")
 
     @step
     def to_sync():
