@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from enum import IntEnum, StrEnum
+from typing import Literal
 
 from pydantic import Field
 
@@ -129,6 +130,35 @@ class IssuedNotice(Record):
     supersedes: str | None = None
     change_note: str = ""
     memory_acknowledgement: MemoryAcknowledgement | None = None  # who accepted the memory rows used, and when
+
+
+class PhotoMark(Record):
+    """One mark drawn on a photo: an arrow (x, y tail -> x2, y2 head) or a ring (x, y centre, x2 radius).
+
+    Coordinates are fractions 0-1 of the photo's width (x) and height (y); a ring's radius is a
+    fraction of the shorter side.
+    """
+
+    kind: Literal["arrow", "ring"]
+    x: float = Field(ge=0, le=1, allow_inf_nan=False)
+    y: float = Field(ge=0, le=1, allow_inf_nan=False)
+    x2: float = Field(default=0.0, ge=0, le=1, allow_inf_nan=False)
+    y2: float = Field(default=0.0, ge=0, le=1, allow_inf_nan=False)
+
+
+class PhotoRecord(Record):
+    """A photo as stored beside its untouched blob (insert-only; marks are a new record naming the same blob)."""
+
+    site_id: str
+    sha256: str = Field(pattern="^[0-9a-f]{64}$")
+    mime: str = "image/jpeg"
+    beam_id: str | None = None
+    deficiency_id: str | None = None
+    caption: str = Field(default="", max_length=500)
+    taken_at: str = Field(default="", pattern=r"^(\d{4}-\d\d-\d\dT\d\d:\d\d:\d\dZ)?$")  # UTC with Z; "" before
+    taken_by: str = Field(default="", max_length=200)  # the device's user when the photo was added
+    marks: list[PhotoMark] = Field(default_factory=list)
+    marks_of: str | None = None  # the original photo record these marks are drawn on
 
 
 class ReviewerProfile(Record):

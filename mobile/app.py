@@ -30,6 +30,7 @@ from core.results import CAUTION  # noqa: E402
 from mobile.screens.beam import BeamScreen  # noqa: E402
 from mobile.screens.deficiency import DeficiencyScreen  # noqa: E402
 from mobile.screens.notice import NoticeScreen  # noqa: E402
+from mobile.screens.photo import PhotoScreen  # noqa: E402
 from mobile.screens.reviewer import ReviewerScreen  # noqa: E402
 from mobile.screens.site import SiteScreen  # noqa: E402
 from mobile.screens.sites import SitesScreen  # noqa: E402
@@ -37,7 +38,7 @@ from mobile.screens.sync import SyncScreen  # noqa: E402
 from storage import Store  # noqa: E402
 
 KV = Path(__file__).with_name("screens")
-SCREENS = ("sites", "site", "beam", "deficiency", "notice", "sync", "reviewer")
+SCREENS = ("sites", "site", "beam", "deficiency", "notice", "sync", "reviewer", "photo")
 _FONTS = Path(__file__).resolve().parents[1] / "reports" / "fonts"
 # DejaVu Sans covers the status shapes and symbols (phi, <=, arrows) that Kivy's default font lacks
 LabelBase.register(DEFAULT_FONT, str(_FONTS / "DejaVuSans.ttf"), fn_bold=str(_FONTS / "DejaVuSans-Bold.ttf"))
@@ -112,6 +113,7 @@ class BracewalkApp(App):
             (NoticeScreen, "notice"),
             (SyncScreen, "sync"),
             (ReviewerScreen, "reviewer"),
+            (PhotoScreen, "photo"),
         ):
             sm.add_widget(cls(name=name))
         return sm

@@ -17,7 +17,7 @@ from reports.render import render_notice
 from reports.tablerows import RowUsed, memory_rows, rows_used
 from storage import Store, results
 from storage.files import write_atomic
-from storage.stamps import utc_stamp
+from storage.stamps import local_time, utc_stamp
 
 CLOSEOUT_NOTE = "close-out notice"  # the change note an issued close-out carries (how the record says what it is)
 DISTRIBUTION = ["Owner", "General contractor", "Architect (coordinating professional)", "File"]
@@ -53,10 +53,22 @@ def member_title(record: dict[str, object]) -> str:
     return f"{record.get('mark')} · {level} · " + (f"grid {grid}" if grid else "gridline not recorded")
 
 
+def photo_caption_bits(record: dict[str, object]) -> list[str]:
+    """What, when, who of a stored photo: [caption, 'taken 2026-12-02 07:34 UTC', 'by P. Okonkwo-Lind']."""
+    caption = str(record.get("caption") or "").strip()
+    taken_at = str(record.get("taken_at") or "").strip()
+    taken_by = str(record.get("taken_by") or "").strip()
+    return [
+        caption,
+        f"taken {local_time(taken_at)}" if taken_at else "time not recorded",
+        f"by {taken_by}" if taken_by else "",
+    ]
+
+
 def photo_ref(store: Store, record: dict[str, object]) -> Photo:
     """A photo for the notice that reads its blob only when drawn, captioned what/where/when/who."""
     sha = str(record["sha256"])
-    bits = [str(record.get(k) or "").strip() for k in ("caption", "taken_at", "taken_by")]
+    bits = photo_caption_bits(record)
     marks = tuple(Mark(**m) for m in record.get("marks") or [])  # type: ignore[attr-defined]
 
     def load() -> bytes:

@@ -15,6 +15,8 @@ from core.records import (
     Deficiency,
     IssuedNotice,
     MemoryAcknowledgement,
+    PhotoMark,
+    PhotoRecord,
     ReviewerProfile,
     Site,
     Stage,
@@ -440,23 +442,27 @@ class Store:
         beam_id: str | None = None,
         deficiency_id: str | None = None,
         caption: str = "",
+        taken_at: str | None = None,
+        taken_by: str | None = None,
     ) -> str:
-        """Store a photo's bytes as a blob, then its insert-only record."""
-        sha = self.put_blob(content, mime)
+        """Store a photo's bytes as a blob, then its insert-only record.
+
+        ``taken_at`` (UTC with Z) and ``taken_by`` default to this device's clock and its user (issue 13).
+        """
+        who = self.device_user()[0] if taken_by is None else taken_by
+        record = PhotoRecord(
+            site_id=site_id,
+            sha256=hashlib.sha256(content).hexdigest(),
+            mime=mime,
+            beam_id=beam_id,
+            deficiency_id=deficiency_id,
+            caption=caption,
+            taken_at=taken_at if taken_at is not None else utc_stamp(self._wall()),
+            taken_by=who or "device user not set up",
+        )  # checked before the blob is written
+        self.put_blob(content, mime)
         pid = uuid7()
-        self.save(
-            "photo",
-            pid,
-            {
-                "site_id": site_id,
-                "sha256": sha,
-                "mime": mime,
-                "beam_id": beam_id,
-                "deficiency_id": deficiency_id,
-                "caption": caption,
-            },
-            kind="insert",
-        )
+        self.save("photo", pid, record.model_dump(mode="json", exclude={"marks", "marks_of"}), kind="insert")
         return pid
 
     def mark_photo(self, site_id: str, photo_id: str, marks: list[dict[str, Any]]) -> str:
@@ -480,10 +486,18 @@ class Store:
                     msg = f"photo mark {k} = {v!r}; allowed: a fraction of the photo from 0 to 1"
                     raise ValueError(msg)
         pid = uuid7()
-        fields = {k: original.get(k) for k in ("site_id", "sha256", "mime", "beam_id", "deficiency_id", "caption")}
-        clean = [{k: m.get(k, 0.0) for k in ("kind", "x", "y", "x2", "y2")} for m in marks]
+        kept = ("site_id", "sha256", "mime", "beam_id", "deficiency_id", "caption", "taken_at", "taken_by")
+        fields = {k: original.get(k) for k in kept if k in original}
+        clean = [PhotoMark(**{k: m.get(k, 0.0) for k in ("kind", "x", "y", "x2", "y2")}) for m in marks]
         self.save(
-            "photo", pid, {**fields, "marks": clean, "marks_of": original.get("marks_of") or photo_id}, kind="insert"
+            "photo",
+            pid,
+            {
+                **fields,
+                "marks": [c.model_dump(mode="json") for c in clean],
+                "marks_of": original.get("marks_of") or photo_id,
+            },
+            kind="insert",
         )
         return pid
 

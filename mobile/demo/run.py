@@ -71,6 +71,8 @@ def load_demo(store: Store) -> str:
                 demo_photo(entry["beam"]["mark"]),
                 beam_id=beam_id,
                 caption=f"{entry['beam']['mark']} at {entry['gridline']}",
+                taken_at="2026-11-30T17:20:00Z",  # the demo visit (09:20 Pacific), fixed so the demo repeats
+                taken_by="Priya Okonkwo-Lind",
             )
     return site.id
 

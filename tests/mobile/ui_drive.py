@@ -160,6 +160,20 @@ def pick(name, value):
     screen("beam").fields[name].ids.input.text = shown
 
 
+def tap_photo(fx, fy):
+    """Tap the photo at fractions (fx, fy) of the photo from its top-left, as a finger would."""
+
+    class Tap:
+        def __init__(self, x, y):
+            self.x, self.y, self.pos, self.ud = x, y, (x, y), {}
+
+    w = screen("photo").ids.photo
+    x0, y0, pw, ph = w.shown_rect()
+    assert pw > 0, "photo not shown"
+    assert ph > 0, "photo not shown"
+    assert w.on_touch_down(Tap(x0 + fx * pw, y0 + (1 - fy) * ph))
+
+
 def demo_beam(mark):
     return next(i for i, r in app.store.beams(app.site_id) if r["mark"] == mark)
 
@@ -282,6 +296,35 @@ if FLOW == "main":
         shot("03d-file-picker")
         next(w for w in popup.walk() if getattr(w, "text", "") == "rb9-end.png").trigger_action(0)
         assert screen("beam").vm.photo_count() == 1
+
+    @step
+    def open_photos():
+        screen("beam").ids.photos.trigger_action(0)
+        assert app.root.current == "photo"
+
+    @step
+    def mark_photo():
+        import hashlib
+
+        s = screen("photo")
+        assert "Photo 1 of 1" in s.caption, s.caption
+        assert "by " in s.caption, s.caption  # who took it (the device user) and when
+        assert "taken " in s.caption, s.caption
+        tap_photo(0.5, 0.5)  # a ring
+        s.ids.mode_arrow.trigger_action(0)
+        tap_photo(0.15, 0.85)  # arrow tail
+        tap_photo(0.42, 0.55)  # arrow head
+        assert [m["kind"] for m in s.vm.marks] == ["ring", "arrow"], s.vm.marks
+        s.ids.save.trigger_action(0)
+        photo = s.vm.current()
+        assert s.vm.saved_marks(photo["id"]) == s.vm.marks
+        assert hashlib.sha256(app.store.blob(photo["sha256"])).hexdigest() == photo["sha256"]  # never altered
+
+    @step
+    def photo_shot():
+        shot("03e-photo-marked")
+        screen("photo").ids.back.trigger_action(0)
+        assert app.root.current == "beam"
 
     @step
     def bearings_view():
@@ -591,6 +634,13 @@ elif FLOW == "layout":
         assert screen("beam").vm.result is None
         assert "span" in screen("beam").vm.recheck_error
         screen("beam").leave()
+        app.open_beam(demo_beam("RB-5"))  # a demo beam with a photo
+        app.go("photo")
+
+    @step
+    def photo_layout():
+        assert screen("photo").source, "the demo beam's photo is not shown"
+        look("3d-photo")
         app.open_deficiency(app.store.deficiencies(app.site_id, open_only=True)[0].id)
 
     @step
