@@ -1,7 +1,7 @@
 """The Kivy tablet app: thin screens over the plain-Python view models (mobile/viewmodels/).
 
 Screens (mobile/screens/: one module and one .kv file each): sites, site, beam, deficiency, notice,
-sync; shared widgets in mobile/screens/widgets.py. This module keeps the App: theme, store,
+sync, reviewer, photo; shared widgets in mobile/screens/widgets.py. This module keeps the App: theme, store,
 navigation. Every field is saved as it is entered (debounced while typing, at once on Enter or
 leaving the field), so a killed app loses nothing typed. Long work (sync) runs in a worker thread
 with its own database connection; the recheck (a few milliseconds) runs on the UI thread.
