@@ -85,7 +85,11 @@ class NoticeViewModel:
             self.message = "Enter the reviewer acknowledging the memory rows (issued by)"
             return False
         self.acknowledgement = acknowledge(self.store, self.table_rows(), by)
-        self.message = self.acknowledgement_text()
+        self.message = (
+            "Acknowledged: who and when go on the notice. Issue when ready."
+            if self.acknowledgement is not None
+            else self.acknowledgement_text()
+        )
         return True
 
     def draft_pdf(self) -> bytes:
