@@ -4,12 +4,12 @@ The golden file (``golden_check.sha256``) pins the exact bytes the command print
 was reorganised for speed, so any change in a number, a trace line or a remedy shows up as a changed
 hash. One line per beam: its index, the SHA-256 of the recheck's JSON as the command formats it (every
 beam), and the SHA-256 of the whole printed output with the remedies (every ``FULL_EVERY``-th beam; ``-``
-for the others: remedies recheck a beam tens of times, which made the whole set too slow to write here). The inputs are invented (every material, span layout,
-bearing and bracing state, use, option and uplift case), not check values; the engineering itself
-is tested elsewhere against outside sources.
+for the others: remedies recheck a beam tens of times, which made the whole set too slow to write here).
+The inputs are invented (every material, span layout, bearing and bracing state, use, option and uplift
+case), not check values; the engineering itself is tested elsewhere against outside sources.
 
 Regenerate (only when an engineering change is intended and reviewed):
-``.venv/bin/python -m tests.core.golden --write``.
+``.venv/bin/python -m tests.core.golden --write --processes 2``.
 """
 
 from __future__ import annotations

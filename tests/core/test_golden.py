@@ -55,3 +55,19 @@ def test_check_output_identical_every_beam(stored):
     assert _differ(beams, [s[0] for s in stored], golden.recheck_digest) == []
     assert _differ(beams, [s[1] for s in stored], golden.check_digest) == []
 
+
+def _without_traces(data):
+    if isinstance(data, dict):
+        return {k: ([] if k == "trace" else _without_traces(v)) for k, v in data.items()}
+    if isinstance(data, list):
+        return [_without_traces(v) for v in data]
+    return data
+
+
+def test_status_only_recheck_is_the_full_recheck_without_traces():
+    from core.recheck import recheck
+
+    for beam in golden.beams(100):
+        full = recheck(beam).to_json_dict()
+        lean = recheck(beam, traces=False).to_json_dict()
+        assert lean == _without_traces(full), beam.mark
