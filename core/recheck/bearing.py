@@ -9,23 +9,21 @@ from core.kinds import TraceStatus
 from core.member import Member
 from core.models import Beam, Bearing, Material
 from core.recheck.cases import LoadCase
-from core.recheck.trace import KN_PER_N, case_label, kd_trace
+from core.recheck.trace import KN_PER_N, case_label, kd_trace, line
 from core.results import BearingCheck, FactorTrace
 
 
 def _trace(bearing: Bearing, area: float, kzcp: float, clause: str, case: LoadCase) -> list[FactorTrace]:
     return [
-        FactorTrace(
+        line(
             symbol="Ab",
             value=area,
             unit="mm2",
             source=f"b x bearing length {bearing.length_mm:g} mm",
             status=TraceStatus.input,
         ),
-        FactorTrace(
-            symbol="KB", value=1.0, clause=clause, source="end bearing / conservative", status=TraceStatus.memory
-        ),
-        FactorTrace(symbol="KZcp", value=kzcp, clause=clause, status=TraceStatus.memory),
+        line(symbol="KB", value=1.0, clause=clause, source="end bearing / conservative", status=TraceStatus.memory),
+        line(symbol="KZcp", value=kzcp, clause=clause, status=TraceStatus.memory),
         kd_trace(case),
     ]
 

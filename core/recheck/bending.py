@@ -27,7 +27,7 @@ from core.kinds import ElementKind, MomentSign, Outcome, TraceStatus
 from core.member import Member
 from core.models import Beam, Material, NegativeLu
 from core.recheck.cases import LoadCase
-from core.recheck.trace import KNM_PER_NMM, case_label, kd_trace, note
+from core.recheck.trace import KNM_PER_NMM, case_label, kd_trace, line, note
 from core.results import BendingRegion, FactorTrace
 
 
@@ -63,7 +63,7 @@ def _head_trace(
     sawn = beam.material is Material.sawn
     trace = [
         kd_trace(case),
-        FactorTrace(
+        line(
             symbol=f"{face} ({region.sign} moment)",
             value=fb_spec,
             unit="MPa",
@@ -71,7 +71,7 @@ def _head_trace(
             source=f"top stamp {beam.top_stamp.value}" if not sawn else f"{beam.species} {beam.grade}",
             status=member.grade_status,
         ),
-        FactorTrace(
+        line(
             symbol="Fb",
             value=round(fb, 3),
             unit="MPa",
@@ -80,14 +80,12 @@ def _head_trace(
         ),
     ]
     if edge.continuous:
-        trace.append(FactorTrace(symbol="Lu", value="held continuously", source=edge.description, status=edge.status))
+        trace.append(line(symbol="Lu", value="held continuously", source=edge.description, status=edge.status))
     else:
-        trace.append(
-            FactorTrace(symbol="Lu", value=round(edge.lu_mm), unit="mm", source=edge.description, status=edge.status)
-        )
+        trace.append(line(symbol="Lu", value=round(edge.lu_mm), unit="mm", source=edge.description, status=edge.status))
     if edge.option:
         trace.append(
-            FactorTrace(symbol="option", value=edge.option, source="chosen by the reviewer", status=TraceStatus.input)
+            line(symbol="option", value=edge.option, source="chosen by the reviewer", status=TraceStatus.input)
         )
     return trace
 

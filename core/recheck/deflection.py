@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from functools import lru_cache
+
 from core import tables
 from core.analysis import BeamModel
 from core.clauses.serviceability import (
@@ -14,6 +16,7 @@ from core.clauses.serviceability import (
 from core.kinds import ElementKind, TraceStatus
 from core.member import Member
 from core.models import Beam, Use
+from core.recheck.trace import line
 from core.results import DeflectionCheck, FactorTrace
 
 _LIMIT_CLAUSE = {"total_specified": "CSA O86-19 5.4.2", "long_term": "CSA O86-19 5.4.3"}
@@ -34,8 +37,18 @@ def _use_row(beam: Beam) -> dict[str, str]:
     """The deflection-limit row for the recorded use; when not recorded, the strictest (largest ratio)."""
     if beam.use is not None:
         return tables.find("deflection_limits", use=beam.use.value)
-    rows = [r for r in tables.load("deflection_limits").rows if r["use"] in {u.value for u in Use}]
+    return _strictest_use_row(tables.generation())
+
+
+@lru_cache(maxsize=8)
+def _strictest_use_row(generation: int) -> dict[str, str]:
+    """The use row of the largest ratio (the strictest limit), per tables generation."""
+    del generation  # the cache key only: a firm's correction gives a new generation
+    rows = [r for r in tables.load("deflection_limits").rows if r["use"] in _USES]
     return max(rows, key=lambda r: float(r["ratio"]))
+
+
+_USES = frozenset(u.value for u in Use)
 
 
 def _checks(use_row: dict[str, str], dead: float) -> list[tuple[str, dict[str, str], float, float]]:
@@ -73,7 +86,7 @@ def _worst(
 def _trace(beam: Beam, es: float, row: dict[str, str], use_row: dict[str, str]) -> list[FactorTrace]:
     long_term = long_term_deformation_rule(EDITION)
     trace = [
-        FactorTrace(
+        line(
             symbol="ES",
             value=es,
             unit="MPa",
@@ -81,7 +94,7 @@ def _trace(beam: Beam, es: float, row: dict[str, str], use_row: dict[str, str]) 
             source="E KSE KT (mean E)",
             status=TraceStatus.memory,
         ),
-        FactorTrace(
+        line(
             symbol="limit",
             value=f"L/{row['ratio']}",
             clause=_LIMIT_CLAUSE.get(row["use"], "NBC Table 9.4.3.1"),
@@ -91,7 +104,7 @@ def _trace(beam: Beam, es: float, row: dict[str, str], use_row: dict[str, str]) 
     ]
     if beam.use is None:
         trace.append(
-            FactorTrace(
+            line(
                 symbol="use",
                 value=use_row["use"],
                 source="not recorded: the strictest deflection limit of the table is taken",
@@ -99,7 +112,7 @@ def _trace(beam: Beam, es: float, row: dict[str, str], use_row: dict[str, str]) 
             )
         )
     trace.append(
-        FactorTrace(
+        line(
             symbol="edition",
             value=EDITION,
             clause="CSA O86-19 5.4.3",

@@ -15,7 +15,7 @@ from core.kinds import TraceStatus
 from core.member import Member
 from core.models import Beam, Material
 from core.recheck.cases import LoadCase
-from core.recheck.trace import KN_PER_N, case_label, kd_trace
+from core.recheck.trace import KN_PER_N, case_label, kd_trace, line
 from core.results import FactorTrace, ShearCheck
 
 CV_SIMPLE_UDL = 3.69  # CSA O86-19 Table 7.5: simple span, uniform load
@@ -40,7 +40,7 @@ def _method_trace(beam: Beam, model: BeamModel, volume: float, volume_method: bo
         return (
             "volume: Wr vs total factored load W (Z >= 2.0 m3)",
             "CSA O86-19 7.5.7.3(a)",
-            FactorTrace(
+            line(
                 symbol="CV",
                 value=CV_SIMPLE_UDL,
                 clause="CSA O86-19 Table 7.5",
@@ -57,7 +57,7 @@ def _method_trace(beam: Beam, model: BeamModel, volume: float, volume_method: bo
     return (
         "2A/3" if glulam else "2An/3 KZv",
         "CSA O86-19 7.5.7.2" if glulam else "CSA O86-19 6.5.4.1 (memory)",
-        FactorTrace(
+        line(
             symbol="Z",
             value=round(volume, 3),
             unit="m3",

@@ -10,6 +10,34 @@ KN_PER_N = 1e-3  # unit conversion: multiply a force in N by this to get kN
 KNM_PER_NMM = 1e-6  # unit conversion: a moment in N*mm to kN*m
 
 
+def line(
+    *,
+    symbol: str,
+    value: float | str | None,
+    unit: str = "",
+    clause: str = "",
+    source: str = "",
+    status: str = TraceStatus.formula,
+) -> FactorTrace:
+    """One FactorTrace (status: a TraceStatus value).
+
+    Trace lines are frozen, so equal lines are built once and shared (most repeat from beam to beam).
+    """
+    key = (symbol, type(value), value, unit, clause, source, status)
+    hit = _LINES.get(key)
+    if hit is None:
+        if len(_LINES) >= _LINES_MAX:
+            _LINES.clear()
+        hit = _LINES[key] = FactorTrace(
+            symbol=symbol, value=value, unit=unit, clause=clause, source=source, status=TraceStatus(status)
+        )
+    return hit
+
+
+_LINES: dict[tuple[object, ...], FactorTrace] = {}
+_LINES_MAX = 50_000
+
+
 def note(
     trace: list[FactorTrace] | None,
     symbol: str,
@@ -21,16 +49,12 @@ def note(
 ) -> None:
     """Append one FactorTrace when a trace is being kept (status: a TraceStatus value)."""
     if trace is not None:
-        trace.append(
-            FactorTrace(symbol=symbol, value=value, unit=unit, clause=clause, source=source, status=TraceStatus(status))
-        )
+        trace.append(line(symbol=symbol, value=value, unit=unit, clause=clause, source=source, status=status))
 
 
 def kd_trace(case: LoadCase) -> FactorTrace:
     """The KD line of a check's trace (CSA O86-19 5.3.2), with how KD was chosen."""
-    return FactorTrace(
-        symbol="KD", value=case.kd, clause="CSA O86-19 5.3.2", source=case.kd_note, status=TraceStatus.memory
-    )
+    return line(symbol="KD", value=case.kd, clause="CSA O86-19 5.3.2", source=case.kd_note, status=TraceStatus.memory)
 
 
 def case_label(case: LoadCase) -> str:
