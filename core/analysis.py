@@ -137,28 +137,13 @@ class BeamModel:
         return sum(self.lengths[:node])
 
     def _solve_unit_cases(self) -> None:
+        """Solve for a unit UDL on each element (EI = 1): displacements and element end forces per case."""
         n_el = len(self.elements)
         n_dof = 2 * (n_el + 1)
         restrained = {2 * n for n in self.support_nodes}
-        free = [d for d in range(n_dof) if d not in restrained]
-        index = {d: i for i, d in enumerate(free)}
-        k_global = [[0.0] * len(free) for _ in free]
-        loads = [[0.0] * n_el for _ in free]
-        self._k_el = []
-        for e, length in enumerate(self.lengths):
-            k = _element_stiffness(length)
-            self._k_el.append(k)
-            dofs = (2 * e, 2 * e + 1, 2 * e + 2, 2 * e + 3)
-            fe = _fixed_end_udl(length)
-            for a, da in enumerate(dofs):
-                if da not in index:
-                    continue
-                ia = index[da]
-                loads[ia][e] += fe[a]
-                for b, db in enumerate(dofs):
-                    if db in index:
-                        k_global[ia][index[db]] += k[a][b]
-        disp_free = _solve(k_global, loads)
+        index = {d: i for i, d in enumerate(d for d in range(n_dof) if d not in restrained)}
+        self._k_el = [_element_stiffness(length) for length in self.lengths]
+        disp_free = _solve(*self._assemble(index))
         # displacement of every dof for unit case c
         self._disp: list[list[float]] = []
         for c in range(n_el):
@@ -166,7 +151,26 @@ class BeamModel:
             for dof, i in index.items():
                 d[dof] = disp_free[i][c]
             self._disp.append(d)
-        # element end forces per unit case: f = k d - fe (fe only on the loaded element)
+        self._end_forces()
+
+    def _assemble(self, index: dict[int, int]) -> tuple[list[list[float]], list[list[float]]]:
+        """Global stiffness over the free dofs and the unit-UDL load vector of each element (columns)."""
+        n_el = len(self.elements)
+        k_global = [[0.0] * len(index) for _ in index]
+        loads = [[0.0] * n_el for _ in index]
+        for e, length in enumerate(self.lengths):
+            k = self._k_el[e]
+            fe = _fixed_end_udl(length)
+            free = [(a, index[da]) for a, da in enumerate((2 * e, 2 * e + 1, 2 * e + 2, 2 * e + 3)) if da in index]
+            for a, ia in free:
+                loads[ia][e] += fe[a]
+                for b, ib in free:
+                    k_global[ia][ib] += k[a][b]
+        return k_global, loads
+
+    def _end_forces(self) -> None:
+        """Element end forces per unit case: f = k d - fe (fe only on the loaded element)."""
+        n_el = len(self.elements)
         self._v0 = [[0.0] * n_el for _ in range(n_el)]  # [case][element]
         self._m0 = [[0.0] * n_el for _ in range(n_el)]
         self._vend = [[0.0] * n_el for _ in range(n_el)]
@@ -223,12 +227,15 @@ class BeamModel:
         for e, length in enumerate(self.lengths):
             v1, t1, v2, t2 = d[2 * e : 2 * e + 4]
             lt1, lt2, wl4 = length * t1, length * t2, w_n_mm[e] * length**4
-            best, at = 0.0, 0.0
-            for xi, n1, a2, n3, a4, bubble in _SAMPLES:
-                down = -(n1 * v1 + a2 * lt1 + n3 * v2 + a4 * lt2 - wl4 * bubble) / ei_nmm2
-                if abs(down) > abs(best):
-                    best, at = down, self.elements[e].x0_mm + xi * length
-            out.append((best, at))
+            downs = [
+                -(n1 * v1 + a2 * lt1 + n3 * v2 + a4 * lt2 - wl4 * c) / ei_nmm2 for _, n1, a2, n3, a4, c in _SAMPLES
+            ]
+            peak = max(downs, key=abs)  # the first sample of largest |deflection|
+            if abs(peak) > 0.0:
+                at = self.elements[e].x0_mm + _SAMPLES[downs.index(peak)][0] * length
+                out.append((peak, at))
+            else:
+                out.append((0.0, 0.0))
         return out
 
     def regions(self, result: CaseResult) -> list[Region]:
@@ -274,8 +281,9 @@ class BeamModel:
             xv = result.v0_n[e] / w
             if x0 < xv < x1:
                 candidates.append(xv)
-        best = max(candidates, key=lambda x: abs(result.moment_nmm(e, x)))
-        return abs(result.moment_nmm(e, best)), best + self.elements[e].x0_mm
+        moments = [abs(result.moment_nmm(e, x)) for x in candidates]
+        peak = max(moments)
+        return peak, candidates[moments.index(peak)] + self.elements[e].x0_mm  # the first candidate at the peak
 
 
 def _deflection_samples() -> tuple[tuple[float, float, float, float, float, float], ...]:

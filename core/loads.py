@@ -20,7 +20,7 @@ class Combination:
     alpha_d: float
     alpha_l: float
     alpha_s: float
-    permanent: bool  # dead load alone (1.4D): KD for permanent loads; findings read it as "dead load only"
+    dead_load_only: bool  # dead load alone (1.4D): KD for permanent loads; findings read this flag, never the name
     ps_l: float  # share of specified L counted as standard-term load PS
     ps_s: float  # share of specified S counted as standard-term load PS
 
@@ -32,14 +32,18 @@ def gravity_combinations(counteracting_dead: bool) -> list[Combination]:
     where 0.9D on the whole beam can govern a region (NBC note: 0.9D where D counteracts).
     """
     out = [
-        Combination(name="1.4D", alpha_d=1.4, alpha_l=0.0, alpha_s=0.0, permanent=True, ps_l=0.0, ps_s=0.0),
-        Combination(name="1.25D + 1.5L", alpha_d=1.25, alpha_l=1.5, alpha_s=0.0, permanent=False, ps_l=1.0, ps_s=0.0),
+        Combination(name="1.4D", alpha_d=1.4, alpha_l=0.0, alpha_s=0.0, dead_load_only=True, ps_l=0.0, ps_s=0.0),
         Combination(
-            name="1.25D + 1.5L + 0.5S", alpha_d=1.25, alpha_l=1.5, alpha_s=0.5, permanent=False, ps_l=1.0, ps_s=0.5
+            name="1.25D + 1.5L", alpha_d=1.25, alpha_l=1.5, alpha_s=0.0, dead_load_only=False, ps_l=1.0, ps_s=0.0
         ),
-        Combination(name="1.25D + 1.5S", alpha_d=1.25, alpha_l=0.0, alpha_s=1.5, permanent=False, ps_l=0.0, ps_s=1.0),
         Combination(
-            name="1.25D + 1.5S + 0.5L", alpha_d=1.25, alpha_l=0.5, alpha_s=1.5, permanent=False, ps_l=0.5, ps_s=1.0
+            name="1.25D + 1.5L + 0.5S", alpha_d=1.25, alpha_l=1.5, alpha_s=0.5, dead_load_only=False, ps_l=1.0, ps_s=0.5
+        ),
+        Combination(
+            name="1.25D + 1.5S", alpha_d=1.25, alpha_l=0.0, alpha_s=1.5, dead_load_only=False, ps_l=0.0, ps_s=1.0
+        ),
+        Combination(
+            name="1.25D + 1.5S + 0.5L", alpha_d=1.25, alpha_l=0.5, alpha_s=1.5, dead_load_only=False, ps_l=0.5, ps_s=1.0
         ),
     ]
     if counteracting_dead:
@@ -54,7 +58,7 @@ def combination_kd(combo: Combination, dead_n_mm: float, live_n_mm: float, snow_
     1.4D takes the permanent KD 0.65; other gravity combinations are standard term, with
     KD = 1 - 0.5 log10(PL/PS) >= 0.65 where PL > PS (PS = principal + 0.5 companion, specified).
     """
-    if combo.permanent:
+    if combo.dead_load_only:
         return KD_PERMANENT, "permanent load (1.4D): KD = 0.65, O86-19 Table 5.1"
     ps = combo.ps_l * live_n_mm + combo.ps_s * snow_n_mm
     kd = load_duration_kd_standard(dead_n_mm, ps)
@@ -65,7 +69,7 @@ def combination_kd(combo: Combination, dead_n_mm: float, live_n_mm: float, snow_
 
 def applicable(combo: Combination, live_n_mm: float, snow_n_mm: float) -> bool:
     """A combination applies when its principal variable load is present (1.4D always applies)."""
-    if combo.permanent:
+    if combo.dead_load_only:
         return True
     principal_present = live_n_mm > 0 if combo.alpha_l == 1.5 else snow_n_mm > 0
     companion_l = combo.alpha_l == 0.5

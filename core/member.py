@@ -114,8 +114,36 @@ def size_factor_kzb(b_mm: float, d_mm: float) -> tuple[float, FactorTrace]:
     raise ValueError(msg)
 
 
+_MEMBERS: dict[tuple[object, ...], Member] = {}
+_MEMBERS_MAX = 4096
+
+
 def member_properties(beam: Beam) -> Member:
-    """Look up strengths and factors for a beam and compute its section properties."""
+    """Look up strengths and factors for a beam and compute its section properties.
+
+    Cached per the fields it reads and the tables' generation (a firm's correction starts afresh).
+    """
+    key = (
+        tables.generation(),
+        beam.material,
+        beam.species,
+        beam.grade,
+        beam.b_mm,
+        beam.d_mm,
+        beam.service,
+        beam.treatment,
+        beam.system,
+        beam.self_weight,
+    )
+    hit = _MEMBERS.get(key)
+    if hit is None:
+        if len(_MEMBERS) >= _MEMBERS_MAX:
+            _MEMBERS.clear()
+        hit = _MEMBERS[key] = _member_properties(beam)
+    return hit
+
+
+def _member_properties(beam: Beam) -> Member:
     row, table = _grade_row(beam)
     trace = [
         FactorTrace(

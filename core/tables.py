@@ -43,9 +43,19 @@ def load(name: str) -> Table:
 
 def use_firm_records(records: list[overrides.TableRecord]) -> None:
     """Apply a firm's verifications and corrections (``core/overrides.py``) to every lookup from now on."""
+    global _GENERATION
     if overrides.use(records):
         load.cache_clear()
         _FOUND.clear()
+        _GENERATION += 1
+
+
+def generation() -> int:
+    """A number that changes whenever a firm's records change what a lookup returns (for callers' caches)."""
+    return _GENERATION
+
+
+_GENERATION = 0
 
 
 def find(name: str, **keys: str) -> dict[str, str]:

@@ -8,11 +8,14 @@ import os
 import sqlite3
 import sys
 from pathlib import Path
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 from pydantic import ValidationError
 
 from mobile.errors import EXIT_BAD_INPUT, EXIT_FAILURE, EXIT_OK, UserError
+
+if TYPE_CHECKING:
+    from core.models import Beam
 
 __all__ = ["EXIT_BAD_INPUT", "EXIT_FAILURE", "EXIT_OK", "UserError", "main"]
 
@@ -113,21 +116,31 @@ def load_beam(path: str) -> Any:
         raise UserError(msg) from exc
 
 
+def check_output(beam: Beam) -> str:
+    """The contract-1 JSON `bracewalk check` prints for a beam: the recheck and its remedies.
+
+    Raises ValueError when a value is not finite (a defect of the recheck, never printed).
+    """
+    from core.recheck import recheck
+    from core.remedies import remedies
+
+    result = recheck(beam)
+    data = result.to_json_dict()
+    data["remedies"] = [r.model_dump(mode="json", exclude_none=True) for r in remedies(beam, result)]
+    return json.dumps(data, indent=2, allow_nan=False)
+
+
 def cmd_check(args: argparse.Namespace) -> int:
     """Recheck one beam and print contract-1 JSON (or a readable summary with --text)."""
     from core.recheck import recheck
-    from core.remedies import remedies
     from mobile.text import recheck_text
 
     beam = load_beam(args.beam)
-    result = recheck(beam)
     if args.text:
-        print(recheck_text(result))
+        print(recheck_text(recheck(beam)))
         return EXIT_OK
-    data = result.to_json_dict()
-    data["remedies"] = [r.model_dump(mode="json", exclude_none=True) for r in remedies(beam, result)]
     try:
-        text = json.dumps(data, indent=2, allow_nan=False)
+        text = check_output(beam)
     except ValueError as exc:  # a result that is not finite is a defect of the recheck, never printed
         print(f"bracewalk check: the recheck gave a value that is not finite ({exc}); nothing printed", file=sys.stderr)
         return EXIT_FAILURE

@@ -22,7 +22,8 @@ def test_bench_quick_prints_every_row():
     )
     assert proc.returncode == 0, proc.stdout[-3000:] + proc.stderr[-3000:]
     for what in (
-        "recheck, simple span",
+        "recheck, simple span, status only",
+        "recheck, simple span, full traces",
         "recheck, 3-span continuous",
         "sync export+import",
         "notice, 10 items",

@@ -14,6 +14,15 @@ def deflection_limit_mm(span_mm: float, ratio: float) -> float:
     return span_mm / ratio
 
 
+def deflection_span_mm(length_mm: float, cantilever: bool) -> float:
+    """CSA O86-19 cl. 5.4.2: the span a deflection limit divides, mm.
+
+    length_mm: element length, mm. A span between supports is its own length; a cantilever takes twice
+    its length (common practice: the limit of the simple span the cantilever's tip deflection mirrors).
+    """
+    return 2 * length_mm if cantilever else length_mm
+
+
 def modulus_for_deflection_es(e_mpa: float, kse: float, kt_e: float) -> float:
     """CSA O86-19 cl. 5.4.1 (memory): ES = E (KSE KT), MPa; mean E, no KD."""
     return e_mpa * kse * kt_e

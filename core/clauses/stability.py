@@ -3,6 +3,8 @@
 from __future__ import annotations
 
 import math
+from enum import StrEnum
+from typing import NamedTuple
 
 from core.clauses.outcomes import NotPermitted
 
@@ -27,21 +29,45 @@ def critical_slenderness_ck(e_mpa: float, kse: float, kt: float, fb_mpa: float, 
     return math.sqrt(0.97 * e_mpa * kse * kt / (fb_mpa * kx))
 
 
+class KLRegime(StrEnum):
+    """Which formula of CSA O86-19 cl. 7.5.6.4.4 gave KL (the value is the trace's wording)."""
+
+    short = "(a) CB <= 10"
+    intermediate = "(b) 10 < CB <= CK"
+    long = "(c) CK < CB <= 50"
+
+
+class LateralStability(NamedTuple):
+    """KL and the regime of CSA O86-19 cl. 7.5.6.4.4 it came from."""
+
+    kl: float
+    regime: KLRegime
+
+
+def effective_length_le(factor: float, lu_mm: float) -> float:
+    """CSA O86-19 cl. 7.5.6.4.2 and Table 7.4: effective length Le = factor x Lu, mm.
+
+    factor: the Table 7.4 row's factor (dimensionless); lu_mm: unsupported length Lu (or the spacing a of
+    intermediate supports, as the row says), mm.
+    """
+    return factor * lu_mm
+
+
 def lateral_stability_kl(
     cb: float, ck: float, e_mpa: float, kse: float, kt: float, fb_mpa: float, kx: float = 1.0
-) -> float | NotPermitted:
-    """CSA O86-19 cl. 7.5.6.4.4: lateral stability factor KL, dimensionless.
+) -> LateralStability | NotPermitted:
+    """CSA O86-19 cl. 7.5.6.4.4: lateral stability factor KL (dimensionless) and its regime.
 
     (a) CB <= 10: KL = 1; (b) 10 < CB <= CK: KL = 1 - (CB/CK)^4 / 3;
     (c) CK < CB <= 50: KL = 0.65 E KSE KT / (CB^2 FB KX); CB > 50: not permitted.
     e_mpa: E, MPa; fb_mpa: FB, MPa. Boundaries are closed as written here (memory).
     """
     if cb <= 10.0:
-        return 1.0
+        return LateralStability(1.0, KLRegime.short)
     if cb <= ck:
-        return 1.0 - (cb / ck) ** 4 / 3.0
+        return LateralStability(1.0 - (cb / ck) ** 4 / 3.0, KLRegime.intermediate)
     if cb <= CB_LIMIT:
-        return 0.65 * e_mpa * kse * kt / (cb * cb * fb_mpa * kx)
+        return LateralStability(0.65 * e_mpa * kse * kt / (cb * cb * fb_mpa * kx), KLRegime.long)
     return NotPermitted("CB", cb, CB_LIMIT, "CSA O86-19 7.5.6.4.4")
 
 

@@ -18,7 +18,8 @@ CK = critical_slenderness_ck(E, 1.0, 1.0, FB)
 
 
 def kl(cb):
-    return lateral_stability_kl(cb, CK, E, 1.0, 1.0, FB)
+    out = lateral_stability_kl(cb, CK, E, 1.0, 1.0, FB)
+    return out if isinstance(out, NotPermitted) else out.kl
 
 
 def test_cb_exactly_10_is_regime_a():

@@ -34,11 +34,17 @@ from core.clauses.factors import (
     system_factor_kh,
 )
 from core.clauses.outcomes import NotPermitted
-from core.clauses.serviceability import deflection_limit_mm, long_term_deformation_rule, modulus_for_deflection_es
+from core.clauses.serviceability import (
+    deflection_limit_mm,
+    deflection_span_mm,
+    long_term_deformation_rule,
+    modulus_for_deflection_es,
+)
 from core.clauses.shear import glulam_volume_m3, glulam_vr, glulam_wr, sawn_vr
 from core.clauses.stability import (
     bearing_restraint_required,
     critical_slenderness_ck,
+    effective_length_le,
     glulam_db_waives_stability,
     lateral_stability_kl,
     lumber_db_limit,
@@ -242,6 +248,18 @@ def test_deflection_limit_mm(span, ratio, expected):
     assert deflection_limit_mm(span, ratio) == pytest.approx(expected, rel=1e-12)
 
 
+@pytest.mark.parametrize(
+    ("length", "cantilever", "expected"),
+    [
+        (7200, False, 7200.0),  # a span between supports: its own length (O86-19 5.4.2)
+        (1500, True, 3000.0),  # a cantilever: twice its length (common practice)
+        (0, True, 0.0),
+    ],
+)
+def test_deflection_span_mm(length, cantilever, expected):
+    assert deflection_span_mm(length, cantilever) == expected
+
+
 @pytest.mark.parametrize("ratio", [0, -360])
 def test_deflection_limit_mm_refuses_ratio(ratio):
     with pytest.raises(ValueError, match=rf"^ratio = {ratio} must be > 0$"):
@@ -389,32 +407,47 @@ CK = 20.0  # = sqrt(0.97 x 400 / 0.97) for E = 400, FB = 0.97 (7.5.6.4.4); the r
 
 
 @pytest.mark.parametrize(
-    ("cb", "e", "kse", "kt", "fb", "kx", "expected"),
+    ("factor", "lu", "expected"),
+    [
+        (1.92, 3000.0, 5760.0),  # O86-19 Table 7.4 simple span, uniform load: Le = 1.92 Lu
+        (1.54, 2400.0, 3696.0),  # Table 7.4 with intermediate supports: Le = 1.54 a (memory row)
+        (1.92, 0.0, 0.0),
+    ],
+)
+def test_effective_length_le(factor, lu, expected):
+    assert effective_length_le(factor, lu) == pytest.approx(expected, rel=1e-12)
+
+
+@pytest.mark.parametrize(
+    ("cb", "e", "kse", "kt", "fb", "kx", "expected", "regime"),
     [
         # O86-19 7.5.6.4.4 (ck passed in): (a) CB <= 10: 1; (b) 10 < CB <= CK: 1 - (CB/CK)^4 / 3;
         # (c) CK < CB <= 50: 0.65 E KSE KT / (CB^2 FB KX)
-        (5.0, 400.0, 1.0, 1.0, 0.97, 1.0, 1.0),
-        (10.0, 400.0, 1.0, 1.0, 0.97, 1.0, 1.0),  # boundary of (a), closed
-        (10.000001, 400.0, 1.0, 1.0, 0.97, 1.0, 1.0 - (10.000001 / 20) ** 4 / 3),  # just in (b): 0.97917
-        (15.0, 400.0, 1.0, 1.0, 0.97, 1.0, 1.0 - 0.75**4 / 3),  # 0.894531
-        (20.0, 400.0, 1.0, 1.0, 0.97, 1.0, 2.0 / 3.0),  # boundary CB = CK, closed in (b)
-        (25.0, 400.0, 1.0, 1.0, 0.97, 1.0, 0.65 * 400 / (625 * 0.97)),  # (c): 0.428866
-        (25.0, 400.0, 2.0, 3.0, 0.97, 5.0, 0.65 * 400 * 6 / (625 * 0.97 * 5)),  # KSE KT above, KX below
-        (50.0, 400.0, 1.0, 1.0, 0.97, 1.0, 0.65 * 400 / (2500 * 0.97)),  # boundary CB = 50, closed
+        (5.0, 400.0, 1.0, 1.0, 0.97, 1.0, 1.0, "(a) CB <= 10"),
+        (10.0, 400.0, 1.0, 1.0, 0.97, 1.0, 1.0, "(a) CB <= 10"),  # boundary of (a), closed
+        (10.000001, 400.0, 1.0, 1.0, 0.97, 1.0, 1.0 - (10.000001 / 20) ** 4 / 3, "(b) 10 < CB <= CK"),  # 0.97917
+        (15.0, 400.0, 1.0, 1.0, 0.97, 1.0, 1.0 - 0.75**4 / 3, "(b) 10 < CB <= CK"),  # 0.894531
+        (20.0, 400.0, 1.0, 1.0, 0.97, 1.0, 2.0 / 3.0, "(b) 10 < CB <= CK"),  # boundary CB = CK, closed in (b)
+        (20.000001, 400.0, 1.0, 1.0, 0.97, 1.0, 0.65 * 400 / (20.000001**2 * 0.97), "(c) CK < CB <= 50"),
+        (25.0, 400.0, 1.0, 1.0, 0.97, 1.0, 0.65 * 400 / (625 * 0.97), "(c) CK < CB <= 50"),  # 0.428866
+        (25.0, 400.0, 2.0, 3.0, 0.97, 5.0, 0.65 * 400 * 6 / (625 * 0.97 * 5), "(c) CK < CB <= 50"),  # KSE KT, KX
+        (50.0, 400.0, 1.0, 1.0, 0.97, 1.0, 0.65 * 400 / (2500 * 0.97), "(c) CK < CB <= 50"),  # CB = 50, closed
     ],
 )
-def test_lateral_stability_kl_regimes(cb, e, kse, kt, fb, kx, expected):
-    assert lateral_stability_kl(cb, CK, e, kse, kt, fb, kx) == pytest.approx(expected, rel=1e-9)
+def test_lateral_stability_kl_regimes(cb, e, kse, kt, fb, kx, expected, regime):
+    out = lateral_stability_kl(cb, CK, e, kse, kt, fb, kx)
+    assert out.kl == pytest.approx(expected, rel=1e-9)
+    assert out.regime == regime
 
 
 @pytest.mark.parametrize(("cb", "e", "fb"), [(11.1419, 12800.0, 30.6), (30.0, 12800.0, 30.6), (45.0, 10300.0, 25.6)])
 def test_lateral_stability_kl_matches_limitstates(cb, e, fb):
     ck = math.sqrt(0.97 * e / fb)  # O86-19 7.5.6.4.4 written out (KSE = KT = KX = 1)
-    assert lateral_stability_kl(cb, ck, e, 1.0, 1.0, fb) == pytest.approx(ls.checkKL(cb, e, fb), rel=1e-12)
+    assert lateral_stability_kl(cb, ck, e, 1.0, 1.0, fb).kl == pytest.approx(ls.checkKL(cb, e, fb), rel=1e-12)
 
 
 def test_lateral_stability_kl_default_kx_is_one():
-    assert lateral_stability_kl(25.0, CK, 400.0, 1.0, 1.0, 0.97) == pytest.approx(0.65 * 400 / (625 * 0.97))
+    assert lateral_stability_kl(25.0, CK, 400.0, 1.0, 1.0, 0.97).kl == pytest.approx(0.65 * 400 / (625 * 0.97))
 
 
 @pytest.mark.parametrize("cb", [50.000001, 80.0])

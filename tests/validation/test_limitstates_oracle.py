@@ -48,7 +48,7 @@ def test_kl_matches_limitstates_away_from_boundaries(cb, e, fb):
         if abs(cb - boundary) < 1e-6:
             return
     expected = ls.checkKL(cb, e, fb)
-    assert lateral_stability_kl(cb, ck, e, 1.0, 1.0, fb) == pytest.approx(expected, rel=1e-12)
+    assert lateral_stability_kl(cb, ck, e, 1.0, 1.0, fb).kl == pytest.approx(expected, rel=1e-12)
 
 
 @pytest.mark.parametrize(

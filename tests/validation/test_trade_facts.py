@@ -20,7 +20,7 @@ def test_db_of_2_5_or_less_waives_lateral_stability():
 
 def test_cb_up_to_10_gives_kl_of_one():
     # common practice (O86-19 7.5.6.4.4(a), from memory)
-    assert lateral_stability_kl(9.99, 20, 12800, 1, 1, 30.6) == 1.0
+    assert lateral_stability_kl(9.99, 20, 12800, 1, 1, 30.6).kl == 1.0
 
 
 def test_cb_above_50_is_not_permitted():

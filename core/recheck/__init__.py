@@ -1,0 +1,65 @@
+"""Member recheck: picks the clauses for a logged beam and records every factor it used.
+
+This layer takes the pydantic ``Beam``, solves its geometry once (cached: beams of one layout share the
+solved model), builds every NBC combination and live/snow pattern by superposition, and hands each check
+its cases. One module per check: ``cases`` (loads and patterns), ``bending``, ``shear``, ``bearing`` and
+``deflection``; the arithmetic of the standard lives in ``core.clauses``, one cited function per clause.
+What is left here is choosing inputs and maxima, utilisations (demand / resistance) and the unit
+conversions to kN and kN·m.
+"""
+
+from __future__ import annotations
+
+from functools import lru_cache
+
+from core.analysis import BeamModel
+from core.findings import build_findings, overall_status
+from core.member import member_properties
+from core.models import Beam
+from core.recheck.bearing import bearing_checks
+from core.recheck.bending import bending_regions
+from core.recheck.cases import load_cases
+from core.recheck.deflection import deflection_check
+from core.recheck.shear import shear_check
+from core.results import Recheck
+
+__all__ = ["beam_model", "recheck"]
+
+
+@lru_cache(maxsize=4096)
+def _model(spans_mm: tuple[float, ...], overhang_left_mm: float, overhang_right_mm: float) -> BeamModel:
+    return BeamModel(list(spans_mm), overhang_left_mm, overhang_right_mm)
+
+
+def beam_model(beam: Beam) -> BeamModel:
+    """The solved model of a beam's geometry (shared by every beam of the same spans and overhangs)."""
+    return _model(tuple(beam.spans_mm), beam.overhang_left_mm, beam.overhang_right_mm)
+
+
+def recheck(beam: Beam, *, traces: bool = True) -> Recheck:
+    """Recheck one logged beam: bending per region, shear, bearing, deflection and findings.
+
+    traces: False leaves every check's trace empty (the numbers, status and findings are the same);
+    the trace of a check is only ever built for its governing case.
+    """
+    member = member_properties(beam)
+    model = beam_model(beam)
+    cases = load_cases(beam, member, model)  # 1.4D always applies, so never empty
+    bending = bending_regions(beam, member, model, cases, traces=traces)
+    shear = shear_check(beam, member, model, cases, traces=traces)
+    bearing = bearing_checks(beam, member, model, cases, traces=traces)
+    deflection = deflection_check(beam, member, model, traces=traces)
+    findings = build_findings(beam, member, bending, shear, bearing, deflection)
+    utils = [r.utilisation for r in bending if r.utilisation is not None]
+    utils += [shear.utilisation, deflection.utilisation] + [b.utilisation for b in bearing]
+    return Recheck(
+        mark=beam.mark,
+        status=overall_status(bending, findings),
+        bending=bending,
+        shear=shear,
+        bearing=bearing,
+        deflection=deflection,
+        findings=findings,
+        governing_utilisation=max(utils) if utils else None,
+        material=beam.material.value,
+    )

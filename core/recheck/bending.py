@@ -1,0 +1,395 @@
+"""Bending per region (CSA O86-19 7.5.6 glulam, 6.5.3 sawn lumber): Mr, KL and the governing case.
+
+The search over load cases works on plain numbers: a region's resistance depends only on KD, the moment
+sign, its compression edge and (glulam) its length, so it is computed once per such key and reused; the
+trace is built only for the governing case of each region.
+"""
+
+from __future__ import annotations
+
+from typing import Any
+
+from core.analysis import BeamModel, Region
+from core.clauses.bending import glulam_bending_strength_for_face, glulam_mr, sawn_mr, size_factor_kzbg
+from core.clauses.factors import factored_bending_strength_fb
+from core.clauses.outcomes import NotPermitted
+from core.clauses.stability import (
+    critical_slenderness_ck,
+    effective_length_le,
+    glulam_db_waives_stability,
+    lateral_stability_kl,
+    lumber_db_limit,
+    slenderness_cb,
+)
+from core.edges import EdgeSupport, compression_edge, unrestrained_elements
+from core.effective_length import chosen_row
+from core.kinds import ElementKind, MomentSign, Outcome, TraceStatus
+from core.member import Member
+from core.models import Beam, Material, NegativeLu
+from core.recheck.cases import LoadCase
+from core.recheck.trace import KNM_PER_NMM, case_label, kd_trace, line, note
+from core.results import BendingRegion, FactorTrace
+
+
+def region_name(model: BeamModel, region: Region) -> str:
+    """A stable name for a region: 'span 2', 'support 2', 'supports 2-3', 'overhang left'."""
+    if region.sign is MomentSign.positive:
+        mid = 0.5 * (region.x0_mm + region.x1_mm)
+        for el in model.elements:
+            if el.x0_mm <= mid <= el.x1_mm:
+                return el.name
+    overhangs = [model.elements[e].name for e in region.elements if model.elements[e].kind is ElementKind.overhang]
+    if overhangs:
+        return " + ".join(overhangs)
+    inside = [i + 1 for i, x in enumerate(model.support_x_mm) if region.x0_mm < x < region.x1_mm]
+    if len(inside) == 1:
+        return f"support {inside[0]}"
+    if inside:
+        return f"supports {inside[0]}-{inside[-1]}"
+    return f"{model.elements[region.elements[0]].name} (hogging)"
+
+
+def _face_strength(beam: Beam, member: Member, sign: MomentSign) -> tuple[float, str]:
+    """Specified fb for the face in tension (glulam: by the top stamp) and its symbol, MPa."""
+    if beam.material is Material.sawn:
+        return member.fb_pos_mpa, "fb"
+    return glulam_bending_strength_for_face(member.fb_pos_mpa, member.fb_neg_mpa, sign, beam.top_stamp.value)
+
+
+def _head_trace(
+    beam: Beam, member: Member, region: Region, case: LoadCase, edge: EdgeSupport, fb_spec: float, face: str, fb: float
+) -> list[FactorTrace]:
+    """The first trace lines of a bending check: KD, fb, Fb, Lu and the reviewer's option."""
+    sawn = beam.material is Material.sawn
+    trace = [
+        kd_trace(case),
+        line(
+            symbol=f"{face} ({region.sign} moment)",
+            value=fb_spec,
+            unit="MPa",
+            clause="CSA O86-19 Table 7.3 note" if not sawn else "CSA O86-19 Table 6.4",
+            source=f"top stamp {beam.top_stamp.value}" if not sawn else f"{beam.species} {beam.grade}",
+            status=member.grade_status,
+        ),
+        line(
+            symbol="Fb",
+            value=round(fb, 3),
+            unit="MPa",
+            clause="CSA O86-19 6.5.3.1 (memory)" if sawn else "CSA O86-19 7.5.6.5.1",
+            source="Fb = fb (KD KH KSb KT)",
+        ),
+    ]
+    if edge.continuous:
+        trace.append(line(symbol="Lu", value="held continuously", source=edge.description, status=edge.status))
+    else:
+        trace.append(line(symbol="Lu", value=round(edge.lu_mm), unit="mm", source=edge.description, status=edge.status))
+    if edge.option:
+        trace.append(
+            line(symbol="option", value=edge.option, source="chosen by the reviewer", status=TraceStatus.input)
+        )
+    return trace
+
+
+def _member_mr(beam: Beam, member: Member, fb: float, kzbg: float | None, kl: float) -> float:
+    """Mr of the member, N*mm (CSA O86-19 6.5.3.1 sawn, 7.5.6.5.1 glulam)."""
+    if beam.material is Material.sawn:
+        return sawn_mr(fb, member.s_mm3, member.kzb or 1.0, kl)
+    assert kzbg is not None
+    return glulam_mr(fb, member.s_mm3, 1.0, kzbg, kl)
+
+
+def bending_check(
+    beam: Beam,
+    member: Member,
+    model: BeamModel,
+    region: Region,
+    case: LoadCase,
+    edge: EdgeSupport,
+    not_established: bool,
+    trace: list[FactorTrace] | None,
+) -> dict[str, Any]:
+    """Mr and utilisation of one region under one load case (numbers; trace appended if given)."""
+    sawn = beam.material is Material.sawn
+    fb_spec, face = _face_strength(beam, member, region.sign)
+    fb = factored_bending_strength_fb(fb_spec, case.kd, member.kh, member.ksb, member.kt)
+    out: dict[str, Any] = {
+        "lu_mm": None if edge.continuous else edge.lu_mm,
+        "le_mm": None,
+        "le_factor": None,
+        "cb": None,
+        "ck": None,
+        "kl": None,
+        "kzbg": None,
+        "kzb": member.kzb,
+        "fb_mpa": fb,
+        "kd": case.kd,
+        "mr_knm": None,
+        "mf_knm": region.m_max_nmm * KNM_PER_NMM,
+        "utilisation": None,
+        "compression_edge_unbraced": edge.unbraced,
+        "dead_load_only": case.combo.dead_load_only,
+    }
+    if trace is not None:
+        trace += _head_trace(beam, member, region, case, edge, fb_spec, face, fb)
+    if not sawn:
+        out["kzbg"] = _kzbg(beam, region, trace)
+    if not_established:
+        out["outcome"] = Outcome.not_established
+        _upper_bound(beam, member, model, region, fb, out, trace)
+        return out
+    kl = _stability_kl(beam, member, edge, fb, out, trace)
+    if isinstance(kl, NotPermitted):
+        out["outcome"] = Outcome.not_permitted
+        return out
+    out["kl"] = kl
+    mr = _member_mr(beam, member, fb, out["kzbg"], kl)
+    out["mr_knm"] = mr * KNM_PER_NMM
+    out["utilisation"] = region.m_max_nmm / mr if mr > 0 else float("inf")
+    out["outcome"] = Outcome.overstress if out["utilisation"] > 1.0 else Outcome.ok
+    note(
+        trace,
+        "Mr",
+        round(mr * KNM_PER_NMM, 2),
+        "CSA O86-19 6.5.3.1 (memory)" if sawn else "CSA O86-19 7.5.6.5.1",
+        "phi Fb S KZb KL, phi = 0.9" if sawn else "lesser of phi Fb S KX KZbg and phi Fb S KX KL, phi = 0.9, KX = 1",
+        "formula",
+        "kN·m",
+    )
+    return out
+
+
+def _kzbg(beam: Beam, region: Region, trace: list[FactorTrace] | None) -> float:
+    kzbg = size_factor_kzbg(beam.b_mm, beam.d_mm, region.length_mm)
+    note(
+        trace,
+        "KZbg",
+        round(kzbg, 4),
+        "CSA O86-19 7.5.6.5.1",
+        f"L = {region.length_mm:.0f} mm between points of zero moment; cap 1.3",
+        "confirmed",
+    )
+    return kzbg
+
+
+def _upper_bound(
+    beam: Beam,
+    member: Member,
+    model: BeamModel,
+    region: Region,
+    fb: float,
+    out: dict[str, Any],
+    trace: list[FactorTrace] | None,
+) -> None:
+    """What a not-established region would give if its bearings were restrained (an upper bound).
+
+    KL from the recorded bracing of the compression edge, with the unrestrained bearings counted as
+    restraints (CSA O86-19 7.5.6.3.1 is not met, so the real capacity is lower than this).
+    """
+    restrained_edge = compression_edge(beam, model, region, assume_restrained=True)
+    scratch: dict[str, Any] = dict(out)
+    kl = _stability_kl(beam, member, restrained_edge, fb, scratch, None)
+    if isinstance(kl, NotPermitted):
+        note(trace, "Mr (if restrained)", None, kl.clause, f"not permitted even if restrained: {kl}", "formula")
+        return
+    mr = _member_mr(beam, member, fb, out["kzbg"], kl)
+    out["kl_if_restrained"] = kl
+    out["mr_if_restrained_knm"] = mr * KNM_PER_NMM
+    out["utilisation_if_restrained"] = region.m_max_nmm / mr
+    note(
+        trace,
+        "Mr (if restrained)",
+        round(mr * KNM_PER_NMM, 2),
+        "CSA O86-19 7.5.6.3.1, 7.5.6.4",
+        f"upper bound: KL = {kl:.4f} with Lu = {scratch['lu_mm'] or 0:.0f} mm as if every bearing were restrained; "
+        "the real capacity is lower",
+        "formula",
+        "kN·m",
+    )
+
+
+def _stability_kl(
+    beam: Beam,
+    member: Member,
+    edge: EdgeSupport,
+    fb: float,
+    out: dict[str, Any],
+    trace: list[FactorTrace] | None,
+) -> float | NotPermitted:
+    db = beam.d_mm / beam.b_mm
+    if beam.material is Material.sawn:
+        return _sawn_kl(beam, member, edge, fb, out, trace)
+    if glulam_db_waives_stability(beam.d_mm, beam.b_mm):
+        note(trace, "KL", 1.0, "CSA O86-19 7.5.6.3.2", f"d/b = {db:.2f} <= 2.5", "memory")
+        return 1.0
+    if edge.continuous:
+        note(trace, "KL", 1.0, "CSA O86-19 7.5.6.3", edge.description, "memory")
+        return 1.0
+    return _kl_from_lu(beam, member, edge, fb, member.e_mpa, edge.lu_mm, out, trace)
+
+
+def _sawn_kl(
+    beam: Beam,
+    member: Member,
+    edge: EdgeSupport,
+    fb: float,
+    out: dict[str, Any],
+    trace: list[FactorTrace] | None,
+) -> float | NotPermitted:
+    """Sawn lumber: KL = 1 within its d/b tier (CSA O86-19 6.5.3.2.1), else the glulam method with E05."""
+    db = beam.d_mm / beam.b_mm
+    limit, need = lumber_db_limit(edge.purlins_in_line, edge.held_directly, edge.bridging, edge.both_edges)
+    if db <= limit:
+        note(trace, "KL", 1.0, "CSA O86-19 6.5.3.2.1", f"d/b = {db:.2f} <= {limit:g} ({need})", "memory")
+        return 1.0
+    e = member.e05_mpa
+    note(
+        trace,
+        "E05",
+        e,
+        "CSA O86-19 6.5.3.2 (reference Q2)",
+        f"d/b = {db:.2f} > {limit:g}: glulam KL method with E05 (conservative choice)",
+        "memory",
+    )
+    # reference o86.md section 13: past its tier, Lu is the spacing of the points that restrain
+    # rotation as well as displacement (bridging, blocking, bearings), never zero for a held edge.
+    lu = edge.lu_rotation_mm
+    out["lu_mm"] = lu
+    note(trace, "Lu", round(lu), "CSA O86-19 6.5.3.2; reference o86.md 13", edge.rotation_how, "memory", "mm")
+    return _kl_from_lu(beam, member, edge, fb, e, lu, out, trace)
+
+
+def _kl_from_lu(
+    beam: Beam,
+    member: Member,
+    edge: EdgeSupport,
+    fb: float,
+    e: float,
+    lu_mm: float,
+    out: dict[str, Any],
+    trace: list[FactorTrace] | None,
+) -> float | NotPermitted:
+    """KL by CSA O86-19 7.5.6.4 from an unsupported length (mm) and the modulus used (MPa)."""
+    row, why = chosen_row(beam.le_case, edge.kind)
+    factor = float(row["factor"])
+    le = effective_length_le(factor, lu_mm)
+    cb = slenderness_cb(le, beam.d_mm, beam.b_mm)
+    ck = critical_slenderness_ck(e, member.kse, member.kt, fb)
+    out.update(le_mm=le, le_factor=factor, cb=cb, ck=ck)
+    note(
+        trace,
+        "Le",
+        round(le, 1),
+        "CSA O86-19 7.5.6.4.2 / Table 7.4",
+        f"effective_length row {row['le_case']} ({row['description']}): {factor:g} x Lu; {why}",
+        row["status"],
+        "mm",
+    )
+    note(trace, "CB", round(cb, 3), "CSA O86-19 7.5.6.4.3", "CB = sqrt(Le d / b^2)", "confirmed")
+    note(trace, "CK", round(ck, 3), "CSA O86-19 7.5.6.4.4", "CK = sqrt(0.97 E KSE KT / (Fb KX))", "confirmed")
+    stability = lateral_stability_kl(cb, ck, e, member.kse, member.kt, fb)
+    if isinstance(stability, NotPermitted):
+        note(trace, "KL", None, stability.clause, str(stability), "confirmed")
+        return stability
+    note(trace, "KL", round(stability.kl, 4), "CSA O86-19 7.5.6.4.4", f"regime {stability.regime}", "confirmed")
+    return stability.kl
+
+
+_OUTCOME_RANK = {Outcome.not_established: 3, Outcome.not_permitted: 2, Outcome.overstress: 1, Outcome.ok: 0}
+
+
+def _rank(numbers: dict[str, Any]) -> tuple[int, float]:
+    util = numbers["utilisation"]
+    if util is None:
+        upper = numbers.get("utilisation_if_restrained")
+        util = numbers["mf_knm"] if upper is None else upper
+    return (_OUTCOME_RANK[numbers["outcome"]], util)
+
+
+class _Ranker:
+    """The rank of a region under a case, from numbers cached per key (no trace, no models).
+
+    KL depends on KD (through Fb), the moment sign, the compression edge and whether the region is
+    not established (its upper bound then uses the restrained edge), so it is found once per such key;
+    Mr and the utilisation M / Mr are then the same arithmetic as ``bending_check`` (KZbg by the
+    region's length for glulam), so the governing case found here is the one ``bending_check`` finds.
+    """
+
+    def __init__(self, beam: Beam, member: Member, model: BeamModel) -> None:
+        self.beam, self.member, self.model = beam, member, model
+        self._kl: dict[tuple[Any, ...], tuple[float, float | NotPermitted]] = {}
+
+    def rank(self, region: Region, case: LoadCase, edge: EdgeSupport, ne: bool) -> tuple[int, float]:
+        """(outcome rank, utilisation or the value ``_rank`` orders by) of a region under a case."""
+        key = (case.kd, region.sign, id(edge), ne)
+        hit = self._kl.get(key)
+        if hit is None:
+            hit = self._kl[key] = self._stability(region, case, edge, ne)
+        fb, kl = hit
+        m = region.m_max_nmm
+        outcome = Outcome.not_established if ne else Outcome.not_permitted
+        if isinstance(kl, NotPermitted):
+            return (_OUTCOME_RANK[outcome], m * KNM_PER_NMM)
+        beam = self.beam
+        kzbg = None if beam.material is Material.sawn else size_factor_kzbg(beam.b_mm, beam.d_mm, region.length_mm)
+        mr = _member_mr(beam, self.member, fb, kzbg, kl)
+        if ne:
+            return (_OUTCOME_RANK[outcome], m / mr)
+        util = m / mr if mr > 0 else float("inf")
+        return (_OUTCOME_RANK[Outcome.overstress if util > 1.0 else Outcome.ok], util)
+
+    def _stability(
+        self, region: Region, case: LoadCase, edge: EdgeSupport, ne: bool
+    ) -> tuple[float, float | NotPermitted]:
+        """(Fb in MPa, KL of the edge, or of the restrained edge for a not-established region)."""
+        beam, member = self.beam, self.member
+        fb_spec, _ = _face_strength(beam, member, region.sign)
+        fb = factored_bending_strength_fb(fb_spec, case.kd, member.kh, member.ksb, member.kt)
+        if ne:
+            edge = compression_edge(beam, self.model, region, assume_restrained=True)
+        return fb, _stability_kl(beam, member, edge, fb, {"lu_mm": None}, None)
+
+
+def bending_regions(
+    beam: Beam, member: Member, model: BeamModel, cases: list[LoadCase], *, traces: bool = True
+) -> list[BendingRegion]:
+    """Governing bending check for every named region over all cases (traces: False builds none)."""
+    blocked = unrestrained_elements(beam, model)
+    best: dict[str, tuple[tuple[int, float], Region, LoadCase, EdgeSupport, bool]] = {}
+    edges: dict[tuple[Any, ...], EdgeSupport] = {}
+    names: dict[tuple[Any, ...], str] = {}
+    exact = beam.negative_lu is NegativeLu.zero_moment_point
+    ranker = _Ranker(beam, member, model)
+    for case in cases:
+        for region in model.regions(case.result):
+            # the edge depends on the elements a region spans (and, for the zero-moment option, on its ends)
+            key = (region.sign, region.elements, *((region.x0_mm, region.x1_mm) if exact else ()))
+            edge = edges.get(key)
+            if edge is None:
+                edge = edges[key] = compression_edge(beam, model, region)
+            name_key = (region.sign, region.elements, region.x0_mm, region.x1_mm)
+            name = names.get(name_key)
+            if name is None:
+                name = names[name_key] = f"{region_name(model, region)}|{region.sign}"
+            ne = bool(blocked.intersection(region.elements))
+            rank = ranker.rank(region, case, edge, ne)
+            if name not in best or rank > best[name][0]:
+                best[name] = (rank, region, case, edge, ne)
+    out = []
+    for name, (_, region, case, edge, ne) in sorted(best.items(), key=lambda kv: kv[1][1].x0_mm):
+        trace: list[FactorTrace] | None = [] if traces else None
+        numbers = bending_check(beam, member, model, region, case, edge, ne, trace)
+        clause = "CSA O86-19 7.5.6.5.1, 7.5.6.4" if beam.material is Material.glulam else "CSA O86-19 6.5.3"
+        out.append(
+            BendingRegion(
+                region=name.split("|")[0],
+                sign=region.sign,
+                x_start_mm=region.x0_mm,
+                x_end_mm=region.x1_mm,
+                combination=case_label(case),
+                clause=clause,
+                compression_edge=edge.description,
+                trace=[] if trace is None else list(member.trace) + trace,
+                **numbers,
+            )
+        )
+    return out

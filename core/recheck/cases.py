@@ -1,0 +1,99 @@
+"""Load cases of a recheck: every applicable NBC gravity combination with every live/snow pattern, solved.
+
+Each case is a line load per element; the beam model holds the response to a unit load on each element,
+so a case is a weighted sum of those (superposition), never a new solve.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from itertools import product
+
+from core.analysis import BeamModel, CaseResult
+from core.loads import Combination, applicable, combination_kd, gravity_combinations
+from core.member import Member
+from core.models import Beam, DeadLoadPattern
+
+SPLIT_HIGH_D = 1.25  # NBC Table 4.1.3.2.-A: dead-load factor where it adds to the effect
+SPLIT_LOW_D = 0.9  # and where it counteracts
+
+
+@dataclass(frozen=True, kw_only=True)
+class LoadCase:
+    """One combination with one live/snow pattern, solved."""
+
+    combo: Combination
+    kd: float
+    kd_note: str
+    pattern: str  # the elements carrying live/snow ("" for dead load only, "all spans" when every one does)
+    relieving: str = ""  # the elements carrying 0.9D in a split pattern ("" when the dead-load factor is uniform)
+    result: CaseResult
+    total_factored_n: float
+
+
+def live_patterns(n_el: int) -> list[tuple[bool, ...]]:
+    """Live and snow patterns: every non-empty subset of elements (all elements for one element)."""
+    if n_el == 1:
+        return [(True,)]
+    return [p for p in product((True, False), repeat=n_el) if any(p)]
+
+
+def _names(model: BeamModel, pattern: tuple[bool, ...], on: bool) -> str:
+    return ", ".join(el.name for el, hit in zip(model.elements, pattern, strict=True) if hit is on)
+
+
+def _pattern_name(model: BeamModel, pattern: tuple[bool, ...]) -> str:
+    return "all spans" if all(pattern) else _names(model, pattern, True)
+
+
+def _total(w: tuple[float, ...], model: BeamModel) -> float:
+    return sum(wi * li for wi, li in zip(w, model.lengths, strict=True))
+
+
+def load_cases(beam: Beam, member: Member, model: BeamModel) -> list[LoadCase]:
+    """Every applicable NBC gravity combination with every live/snow pattern, solved.
+
+    Where dead load counteracts (more than one element), the envelope also holds the split patterns of
+    reference o86.md section 13 (NBC 4.1.3.2, 0.9D where dead load counteracts): for each live/snow
+    pattern, 1.25D on the loaded parts and 0.9D on the rest. With uniform loads per element these give
+    the exact extreme of every reaction and moment. ``dead_load_pattern = "uniform"`` (a flagged option)
+    keeps one dead-load factor on the whole beam.
+    """
+    dead = beam.loads.dead_kn_m + member.self_weight_n_mm
+    live, snow = beam.loads.live_kn_m, beam.loads.snow_kn_m
+    n_el = len(model.elements)
+    split = n_el > 1 and beam.dead_load_pattern is DeadLoadPattern.per_part
+    cases = []
+    for combo in gravity_combinations(counteracting_dead=n_el > 1):
+        if not applicable(combo, live, snow):
+            continue
+        kd, note = combination_kd(combo, dead, live, snow)
+        variable = combo.alpha_l * live + combo.alpha_s * snow
+        patterns = [(True,) * n_el] if combo.dead_load_only or variable == 0 else live_patterns(n_el)
+        for pattern in patterns:
+            w = tuple(combo.alpha_d * dead + (variable if on else 0.0) for on in pattern)
+            name = "" if combo.dead_load_only else _pattern_name(model, pattern)
+            cases.append(
+                LoadCase(
+                    combo=combo,
+                    kd=kd,
+                    kd_note=note,
+                    pattern=name,
+                    result=model.case(w),
+                    total_factored_n=_total(w, model),
+                )
+            )
+            if split and combo.alpha_d == SPLIT_HIGH_D and not all(pattern):
+                w = tuple((SPLIT_HIGH_D * dead + variable) if on else SPLIT_LOW_D * dead for on in pattern)
+                cases.append(
+                    LoadCase(
+                        combo=combo,
+                        kd=kd,
+                        kd_note=note,
+                        pattern=name,
+                        relieving=_names(model, pattern, False),
+                        result=model.case(w),
+                        total_factored_n=_total(w, model),
+                    )
+                )
+    return cases

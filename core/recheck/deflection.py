@@ -1,0 +1,157 @@
+"""Specified-load deflection (CSA O86-19 5.4.2, 5.4.3; NBC Table 9.4.3.1), mm."""
+
+from __future__ import annotations
+
+from functools import lru_cache
+
+from core import tables
+from core.analysis import BeamModel
+from core.clauses.serviceability import (
+    EDITION,
+    deflection_limit_mm,
+    deflection_span_mm,
+    long_term_deformation_rule,
+    modulus_for_deflection_es,
+)
+from core.kinds import ElementKind, TraceStatus
+from core.member import Member
+from core.models import Beam, Use
+from core.recheck.trace import line
+from core.results import DeflectionCheck, FactorTrace
+
+_LIMIT_CLAUSE = {"total_specified": "CSA O86-19 5.4.2", "long_term": "CSA O86-19 5.4.3"}
+Worst = tuple[float, float, float, str, str, dict[str, str]]  # utilisation, |delta|, limit, case, element, row
+
+
+def deflection_patterns(n_el: int) -> list[tuple[bool, ...]]:
+    """All loaded, each checkerboard, each element alone (common practice for maximum deflection)."""
+    pats = {(True,) * n_el}
+    if n_el > 1:
+        pats.add(tuple(i % 2 == 0 for i in range(n_el)))
+        pats.add(tuple(i % 2 == 1 for i in range(n_el)))
+        pats.update(tuple(i == k for i in range(n_el)) for k in range(n_el))
+    return sorted(pats, reverse=True)
+
+
+def _use_row(beam: Beam) -> dict[str, str]:
+    """The deflection-limit row for the recorded use; when not recorded, the strictest (largest ratio)."""
+    if beam.use is not None:
+        return tables.find("deflection_limits", use=beam.use.value)
+    return _strictest_use_row(tables.generation())
+
+
+@lru_cache(maxsize=8)
+def _strictest_use_row(generation: int) -> dict[str, str]:
+    """The use row of the largest ratio (the strictest limit), per tables generation."""
+    del generation  # the cache key only: a firm's correction gives a new generation
+    rows = [r for r in tables.load("deflection_limits").rows if r["use"] in _USES]
+    return max(rows, key=lambda r: float(r["ratio"]))
+
+
+_USES = frozenset(u.value for u in Use)
+
+
+def _checks(use_row: dict[str, str], dead: float) -> list[tuple[str, dict[str, str], float, float]]:
+    """(case, limit row, dead load on every element, share of the live/snow load) of each deflection check."""
+    checks = [
+        ("L + S", use_row, 0.0, 1.0),
+        ("D + L + S", tables.find("deflection_limits", use="total_specified"), dead, 1.0),
+    ]
+    long_term = long_term_deformation_rule(EDITION)
+    if long_term is not None:
+        checks.append(("D (long-term, O86-19 5.4.3)", tables.find("deflection_limits", use=long_term), dead, 0.0))
+    return checks
+
+
+def _worst(
+    model: BeamModel, checks: list[tuple[str, dict[str, str], float, float]], variable: float, ei: float
+) -> Worst | None:
+    """The largest deflection utilisation over every pattern, check and element."""
+    best: Worst | None = None
+    spans = [deflection_span_mm(el.length_mm, el.kind is ElementKind.overhang) for el in model.elements]
+    for pattern in deflection_patterns(len(model.elements)):
+        for label, row, base, share in checks:
+            w = tuple(base + (share * variable if on else 0.0) for on in pattern)
+            if not any(w):
+                continue
+            ratio = float(row["ratio"])
+            for e, (delta, _) in enumerate(model.deflections_mm(w, ei)):
+                limit = deflection_limit_mm(spans[e], ratio)
+                util = abs(delta) / limit
+                if best is None or util > best[0]:
+                    best = (util, abs(delta), limit, label, model.elements[e].name, row)
+    return best
+
+
+def _trace(beam: Beam, es: float, row: dict[str, str], use_row: dict[str, str]) -> list[FactorTrace]:
+    long_term = long_term_deformation_rule(EDITION)
+    trace = [
+        line(
+            symbol="ES",
+            value=es,
+            unit="MPa",
+            clause="CSA O86-19 5.4.1",
+            source="E KSE KT (mean E)",
+            status=TraceStatus.memory,
+        ),
+        line(
+            symbol="limit",
+            value=f"L/{row['ratio']}",
+            clause=_LIMIT_CLAUSE.get(row["use"], "NBC Table 9.4.3.1"),
+            source=row["description"],
+            status=TraceStatus(row["status"]),
+        ),
+    ]
+    if beam.use is None:
+        trace.append(
+            line(
+                symbol="use",
+                value=use_row["use"],
+                source="not recorded: the strictest deflection limit of the table is taken",
+                status=TraceStatus.input,
+            )
+        )
+    trace.append(
+        line(
+            symbol="edition",
+            value=EDITION,
+            clause="CSA O86-19 5.4.3",
+            source="long-term deformation checked (O86-24 deletes 5.4.3 and folds creep into 5.4.2)"
+            if long_term
+            else "no separate long-term check in this edition",
+            status=TraceStatus.confirmed,
+        )
+    )
+    return trace
+
+
+def deflection_check(beam: Beam, member: Member, model: BeamModel, *, traces: bool = True) -> DeflectionCheck:
+    """Specified-load deflection (CSA O86-19 5.4.2, 5.4.3; NBC Table 9.4.3.1), mm.
+
+    L + S against the use limit, D + L + S against L/180, and for O86-19 the long-term (dead) load
+    against L/360 (reference o86.md sections 12 and 13). traces: False builds no trace.
+    """
+    es = modulus_for_deflection_es(member.e_mpa, member.kse, member.kt_e)
+    dead = beam.loads.dead_kn_m + member.self_weight_n_mm
+    use_row = _use_row(beam)
+    best = _worst(model, _checks(use_row, dead), beam.loads.live_kn_m + beam.loads.snow_kn_m, es * member.inertia_mm4)
+    if best is None:
+        return DeflectionCheck(
+            delta_mm=0.0,
+            limit_mm=0.0,
+            utilisation=0.0,
+            case="no load",
+            element="-",
+            clause="CSA O86-19 5.4.2",
+            trace=[],
+        )
+    util, delta, limit, label, element, row = best
+    return DeflectionCheck(
+        delta_mm=delta,
+        limit_mm=limit,
+        utilisation=util,
+        case=label,
+        element=element,
+        clause="CSA O86-19 5.4.2; NBC 9.4.3.1",
+        trace=_trace(beam, es, row, use_row) if traces else [],
+    )

@@ -1,0 +1,94 @@
+"""Shear (CSA O86-19 7.5.7 glulam, 6.5.4 sawn lumber): the governing case over every load case."""
+
+from __future__ import annotations
+
+from core.analysis import BeamModel
+from core.clauses.factors import factored_strength
+from core.clauses.shear import (
+    GLULAM_SIMPLE_SHEAR_MAX_VOLUME_M3,
+    glulam_volume_m3,
+    glulam_vr,
+    glulam_wr,
+    sawn_vr,
+)
+from core.kinds import TraceStatus
+from core.member import Member
+from core.models import Beam, Material
+from core.recheck.cases import LoadCase
+from core.recheck.trace import KN_PER_N, case_label, kd_trace, line
+from core.results import FactorTrace, ShearCheck
+
+CV_SIMPLE_UDL = 3.69  # CSA O86-19 Table 7.5: simple span, uniform load
+
+
+def _resistance_and_demand(
+    beam: Beam, member: Member, model: BeamModel, case: LoadCase, volume: float, volume_method: bool
+) -> tuple[float, float]:
+    """(Vr or Wr, Vf or the total factored load W) of one case, N."""
+    fv = factored_strength(member.fv_mpa, case.kd, member.kh, member.ksv, member.kt)
+    if volume_method:
+        return glulam_wr(fv, member.area_mm2, CV_SIMPLE_UDL, volume), case.total_factored_n
+    if beam.material is Material.glulam:
+        return glulam_vr(fv, member.area_mm2), case.result.max_abs_shear_n(model.lengths)
+    return sawn_vr(fv, member.area_mm2, member.kzb or 1.0), case.result.max_abs_shear_n(model.lengths)
+
+
+def _method_trace(beam: Beam, model: BeamModel, volume: float, volume_method: bool) -> tuple[str, str, FactorTrace]:
+    """(method, clause, the CV or Z trace line) of the shear check."""
+    if volume_method:
+        cv_status = TraceStatus.confirmed if len(model.elements) == 1 else TraceStatus.memory
+        return (
+            "volume: Wr vs total factored load W (Z >= 2.0 m3)",
+            "CSA O86-19 7.5.7.3(a)",
+            line(
+                symbol="CV",
+                value=CV_SIMPLE_UDL,
+                clause="CSA O86-19 Table 7.5",
+                source="simple span, uniform load"
+                + (
+                    ""
+                    if cv_status is TraceStatus.confirmed
+                    else "; applied to a continuous or overhanging beam: verify"
+                ),
+                status=cv_status,
+            ),
+        )
+    glulam = beam.material is Material.glulam
+    return (
+        "2A/3" if glulam else "2An/3 KZv",
+        "CSA O86-19 7.5.7.2" if glulam else "CSA O86-19 6.5.4.1 (memory)",
+        line(
+            symbol="Z",
+            value=round(volume, 3),
+            unit="m3",
+            clause="CSA O86-19 7.5.7",
+            source="volume below 2.0 m3: simple method permitted" if glulam else "sawn lumber",
+        ),
+    )
+
+
+def shear_check(
+    beam: Beam, member: Member, model: BeamModel, cases: list[LoadCase], *, traces: bool = True
+) -> ShearCheck:
+    """Governing shear check (O86-19 7.5.7 glulam, 6.5.4 lumber); traces: False builds no trace."""
+    volume = glulam_volume_m3(beam.b_mm, beam.d_mm, model.total_length_mm)
+    volume_method = beam.material is Material.glulam and volume >= GLULAM_SIMPLE_SHEAR_MAX_VOLUME_M3
+    best: tuple[float, float, float, LoadCase] | None = None
+    for case in cases:
+        resist, demand = _resistance_and_demand(beam, member, model, case, volume, volume_method)
+        util = demand / resist
+        if best is None or util > best[0]:
+            best = (util, resist, demand, case)
+    assert best is not None
+    util, resist, demand, case = best
+    method, clause, extra = _method_trace(beam, model, volume, volume_method)
+    return ShearCheck(
+        vr_kn=resist * KN_PER_N,
+        vf_kn=demand * KN_PER_N,
+        utilisation=util,
+        method=method,
+        combination=case_label(case),
+        kd=case.kd,
+        clause=clause,
+        trace=[kd_trace(case), extra] if traces else [],
+    )
