@@ -148,8 +148,22 @@ def _router() -> APIRouter:
 
     @router.get("/devices")
     def devices(request: Request, user: User) -> HTMLResponse:
-        hub = _hub(request)
-        return _page(request, "devices.html", user, devices=hub.devices(), quarantine=hub.quarantine())
+        return _devices_page(request, user)
+
+    @router.post("/devices/enroll")
+    async def enroll(request: Request, user: User) -> Response:
+        form = await _form(request)
+        if not hmac.compare_digest(form.get("csrf", ""), _csrf(request)):
+            return Response("form expired; open the devices page again", status_code=403)
+        name, person, role = form.get("name", "").strip(), form.get("person", "").strip(), form.get("role", "")
+        try:
+            code = _hub(request).new_code(name, person, role)
+        except ValueError as exc:
+            page = _devices_page(request, user, enrol_error=f"No code made: {exc}")
+            page.status_code = 422
+            return page
+        new = {"name": name, "person": person, "role": role, "code": code, "qr": registry.enrolment_qr_data_uri(code)}
+        return _devices_page(request, user, new_code=new)
 
     @router.post("/devices/{device_id}/revoke")
     async def revoke(device_id: str, request: Request, user: User) -> Response:
@@ -164,6 +178,12 @@ def _router() -> APIRouter:
         return RedirectResponse("/devices", status_code=303)
 
     return router
+
+
+def _devices_page(request: Request, user: str, **extra: Any) -> HTMLResponse:
+    hub = _hub(request)
+    context = {"new_code": None, "enrol_error": ""} | extra
+    return _page(request, "devices.html", user, devices=hub.devices(), quarantine=hub.quarantine(), **context)
 
 
 def _priorities() -> list[str]:
