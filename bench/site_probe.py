@@ -2,7 +2,8 @@
 
 usage: python -m bench.site_probe build DB N | open DB | old DB | recheck DB PROCESSES
 build: a site of N varied beams written through the storage API (one transaction);
-open: the site screen's data from stored results (view model rows, counts, groups, list rows);
+open: the site screen's data from stored results (view model rows, counts, levels, groups, open
+deficiencies, findings not yet raised: what the screen's on_pre_enter asks for);
 old: the same with a full recheck per beam (the path before results were stored);
 recheck: the portfolio recheck over every beam. Prints one line: BENCH {"seconds": ..., "peak_mb": ...}.
 """
@@ -60,7 +61,10 @@ def site_open(db: str, old: bool) -> dict[str, float]:
     vm = SiteViewModel(store, site_id)
     rows = [(b, r, vm.status_of(b)) for b, r in store.beams(site_id)] if old else vm.beam_rows()
     vm.counts(rows)
+    vm.levels(rows)
     groups = vm.groups(rows=rows)
+    vm.deficiency_groups()
+    vm.unraised_warning()  # the site screen's on_pre_enter asks for all of these
     data = [(where, len(items)) for where, items in groups]
     return {"seconds": time.perf_counter() - t0, "rows": float(sum(n for _, n in data))}
 
