@@ -81,6 +81,13 @@ def install(app: FastAPI) -> None:
 
 def _router() -> APIRouter:
     router = APIRouter(tags=["register"], include_in_schema=False)
+    for add in (_session_routes, _site_routes, _notice_routes, _device_routes):
+        add(router)
+    return router
+
+
+def _session_routes(router: APIRouter) -> None:
+    """Log in and out."""
 
     @router.get("/login")
     def login_form(request: Request) -> HTMLResponse:
@@ -104,6 +111,10 @@ def _router() -> APIRouter:
         response = RedirectResponse("/login", status_code=303)
         response.delete_cookie(COOKIE)
         return response
+
+
+def _site_routes(router: APIRouter) -> None:
+    """Sites, one site, one deficiency (with the recheck run again here), photos."""
 
     @router.get("/")
     def sites(request: Request, user: User) -> HTMLResponse:
@@ -132,6 +143,10 @@ def _router() -> APIRouter:
             return Response("photo not yet received", status_code=404)
         return Response(content, media_type="image/jpeg")
 
+
+def _notice_routes(router: APIRouter) -> None:
+    """Issued notices with their hash check, and the PDF download."""
+
     @router.get("/notices")
     def notices(request: Request, user: User) -> HTMLResponse:
         return _page(request, "notices.html", user, notices=registry.notices(_hub(request)))
@@ -145,6 +160,10 @@ def _router() -> APIRouter:
         return Response(
             data, media_type="application/pdf", headers={"Content-Disposition": f'attachment; filename="{name}"'}
         )
+
+
+def _device_routes(router: APIRouter) -> None:
+    """Devices: last sync, quarantine, revoke, and enrolment codes with their QR image."""
 
     @router.get("/devices")
     def devices(request: Request, user: User) -> HTMLResponse:
@@ -176,8 +195,6 @@ def _router() -> APIRouter:
         except KeyError:
             return _not_found(request, user, f"No device {device_id}")
         return RedirectResponse("/devices", status_code=303)
-
-    return router
 
 
 def _devices_page(request: Request, user: str, **extra: Any) -> HTMLResponse:
