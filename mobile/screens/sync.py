@@ -80,6 +80,8 @@ class SyncScreen(Screen):
         self.hub_text = self.vm.hub_status()
         self.enrolled = bool(self.vm.hub_url())
         self.waiting_text = self.vm.waiting().capitalize() if self.enrolled else ""
+        if self.enrolled and App.get_running_app().background.auto.failing:
+            self.waiting_text += ". Kept here; it is sent by itself as soon as the office answers."
         self.clock_text = self.vm.clock_warning()
         held = self.vm.held_back()
         self.held_text = "\n".join(f"• {line}" for line in held) if held else "Nothing held back."

@@ -87,7 +87,7 @@ class SyncViewModel:
         """What waits to be sent to the office hub, in words (changes the hub refused are counted apart)."""
         held = sum(1 for r in rejections(self.store) if r["origin"] == self.store.device_id)
         n = max(0, self.store.pending_sync_count(HUB_PEER) - held)
-        text = f"{n} changes waiting for the office" if n else "nothing waiting for the office"
+        text = f"{n} change{'s' if n > 1 else ''} waiting for the office" if n else "nothing waiting for the office"
         return text + (f"; {held} held back by the office (listed with the reason)" if held else "")
 
     def clock_warning(self) -> str:

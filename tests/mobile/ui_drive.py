@@ -457,12 +457,23 @@ if FLOW == "main":
         assert not small, small
 
 elif FLOW == "hub":
+    import atexit
     import subprocess
     import time as _time
+
+    from mobile.viewmodels.sync import reachable
 
     HUB_URL, HUB_CODE = os.environ["BRACEWALK_TEST_HUB_URL"], os.environ["BRACEWALK_TEST_HUB_CODE"]
     GEOM = os.environ.get("BRACEWALK_GEOMETRY", "default")
     seen_sync = {"at": None}
+    restarted = []  # the hub this flow starts again after cutting the network; stopped when the flow ends
+
+    def _stop_restarted():
+        for proc in restarted:
+            proc.terminate()
+            proc.wait(timeout=20)
+
+    atexit.register(_stop_restarted)
 
     def wait_for_background_sync(what):
         """Retried by the runner (TimeoutError) until a background sync has finished since the last look."""
@@ -519,6 +530,49 @@ elif FLOW == "hub":
         summary = wait_for_background_sync("the logged change")
         assert app.root.current == "site"  # the reviewer never went to the Sync screen
         assert summary.startswith("Sent "), summary
+        assert app.store.pending_sync_count("hub") == 0
+        mine, office = app.store.digest(), hub_digest()
+        print(f"DIGESTS {mine} {office}", flush=True)
+        assert mine == office, (mine, office)
+        # the network goes: the hub stops; the reviewer goes on working
+        os.kill(int(os.environ["BRACEWALK_TEST_HUB_PID"]), signal.SIGTERM)
+        for _ in range(100):  # bounded: 10 s for the port to close
+            if not reachable(HUB_URL, 0.2):
+                break
+            _time.sleep(0.1)
+        app.open_beam(demo_beam("RB-2"))
+        type_into("notes", "purlin clip missing at grid 4, logged offline")
+        screen("beam").leave()
+
+    @step
+    def offline_work_is_kept():
+        summary = wait_for_background_sync("an attempt with the hub gone")
+        assert summary.startswith("Not synced, your work is safe"), summary
+        assert app.background.auto.failing
+        assert app.store.pending_sync_count("hub") > 0
+        assert app.root.current == "site"  # the form was never held up
+        app.go("sync")
+
+    @step
+    def offline_shown():
+        s = screen("sync")
+        assert "could not be reached" in s.hub_text, s.hub_text
+        assert "waiting for the office. Kept here; it is sent by itself" in s.waiting_text, s.waiting_text
+        check_layout("sync")
+        shot(f"{GEOM}-hub-2b-offline")
+        # the network returns: the same hub, on the same port
+        port = HUB_URL.rsplit(":", 1)[1]
+        cmd = [sys.executable, "-m", "mobile.cli", "hub", "serve", "--db", os.environ["BRACEWALK_TEST_HUB_DB"]]
+        restarted.append(subprocess.Popen([*cmd, "--port", port], stdout=subprocess.DEVNULL))
+        app.go("sites")
+
+    @step
+    def back_without_a_tap():
+        summary = wait_for_background_sync("the hub is back")
+        if not summary.startswith("Sent "):  # an attempt while the hub was still starting; the probe goes on
+            msg = f"not yet back: {summary}"
+            raise TimeoutError(msg)
+        print("HUB-BACK", flush=True)
         assert app.store.pending_sync_count("hub") == 0
         mine, office = app.store.digest(), hub_digest()
         print(f"DIGESTS {mine} {office}", flush=True)
