@@ -10,6 +10,7 @@ with its own database connection; the recheck (a few milliseconds) runs on the U
 from __future__ import annotations
 
 import os
+import time
 from pathlib import Path
 from typing import Any
 
@@ -21,6 +22,7 @@ Config.set("kivy", "exit_on_escape", "0")
 Config.set("input", "mouse", "mouse,disable_multitouch")  # no pinch or multi-finger gestures needed
 
 from kivy.app import App  # noqa: E402
+from kivy.clock import Clock  # noqa: E402
 from kivy.core.text import DEFAULT_FONT, LabelBase  # noqa: E402
 from kivy.lang import Builder  # noqa: E402
 from kivy.properties import ListProperty, StringProperty  # noqa: E402
@@ -35,9 +37,11 @@ from mobile.screens.reviewer import ReviewerScreen  # noqa: E402
 from mobile.screens.site import SiteScreen  # noqa: E402
 from mobile.screens.sites import SitesScreen  # noqa: E402
 from mobile.screens.sync import SyncScreen  # noqa: E402
+from mobile.viewmodels.sync import AutoSync, BackgroundSync, SyncViewModel  # noqa: E402
 from storage import Store  # noqa: E402
 
 KV = Path(__file__).with_name("screens")
+AUTO_SYNC_POLL_S = 1.0  # how often the app looks whether a background sync is due (a cheap count)
 SCREENS = ("sites", "site", "beam", "deficiency", "notice", "sync", "reviewer", "photo")
 _FONTS = Path(__file__).resolve().parents[1] / "reports" / "fonts"
 # DejaVu Sans covers the status shapes and symbols (phi, <=, arrows) that Kivy's default font lacks
@@ -116,7 +120,15 @@ class BracewalkApp(App):
             (PhotoScreen, "photo"),
         ):
             sm.add_widget(cls(name=name))
+        # automatic sync with the office hub: a worker thread, started when due; the form never waits for it
+        self.background = BackgroundSync(AutoSync(SyncViewModel(self.store)))
+        self._auto_sync_timer = Clock.schedule_interval(self._auto_sync, AUTO_SYNC_POLL_S)
         return sm
+
+    def _auto_sync(self, _dt: float) -> None:
+        """Timer: let the background sync start or collect its work (never waits on the network)."""
+        if self.background.poll(time.monotonic()) and self.root.current == "sync":
+            self.root.get_screen("sync").follow()
 
     def on_pause(self) -> bool:
         """Android/iOS pause: pending typing is saved first."""
@@ -125,9 +137,11 @@ class BracewalkApp(App):
         return True
 
     def on_stop(self) -> None:
-        """Save pending typing and close the database."""
+        """Save pending typing, let a sync under way finish (bounded) and close the database."""
         if self.beam_id and hasattr(self.root.get_screen("beam"), "vm"):
             self.root.get_screen("beam").flush()
+        self._auto_sync_timer.cancel()
+        self.background.stop()
         self.store.close()
 
     def set_theme(self, name: str) -> None:

@@ -96,6 +96,15 @@ def cmd_hub_enroll(args: argparse.Namespace) -> int:
         raise UserError(str(exc)) from exc
     finally:
         hub.close()
+    if args.qr:
+        from office.registry import write_enrolment_qr
+
+        try:
+            write_enrolment_qr(code, args.qr)
+        except OSError as exc:
+            msg = f"cannot write the QR image {args.qr}: {exc.strerror or exc}"
+            raise UserError(msg) from exc
+        print(f"QR image of the code (for the tablet to scan): {args.qr}")
     print(f"enrolment code for {args.name} ({args.person}, {args.role}); use once, within 24 hours:")
     print(code)
     return EXIT_OK
@@ -243,6 +252,7 @@ def register(sub: Any) -> None:
     p.add_argument("--name", required=True, help="the device's name, e.g. 'Tablet 3'")
     p.add_argument("--person", required=True, help="who uses it")
     p.add_argument("--role", required=True, choices=["reviewer", "technician", "office"])
+    p.add_argument("--qr", metavar="FILE.png", help="also write the code as a QR image (PNG) to scan")
     p.set_defaults(func=cmd_hub_enroll)
     p = hub.add_parser("revoke", help="refuse a device from now on")
     p.add_argument("--db")

@@ -81,6 +81,13 @@ def install(app: FastAPI) -> None:
 
 def _router() -> APIRouter:
     router = APIRouter(tags=["register"], include_in_schema=False)
+    for add in (_session_routes, _site_routes, _notice_routes, _device_routes):
+        add(router)
+    return router
+
+
+def _session_routes(router: APIRouter) -> None:
+    """Log in and out."""
 
     @router.get("/login")
     def login_form(request: Request) -> HTMLResponse:
@@ -104,6 +111,10 @@ def _router() -> APIRouter:
         response = RedirectResponse("/login", status_code=303)
         response.delete_cookie(COOKIE)
         return response
+
+
+def _site_routes(router: APIRouter) -> None:
+    """Sites, one site, one deficiency (with the recheck run again here), photos."""
 
     @router.get("/")
     def sites(request: Request, user: User) -> HTMLResponse:
@@ -132,6 +143,10 @@ def _router() -> APIRouter:
             return Response("photo not yet received", status_code=404)
         return Response(content, media_type="image/jpeg")
 
+
+def _notice_routes(router: APIRouter) -> None:
+    """Issued notices with their hash check, and the PDF download."""
+
     @router.get("/notices")
     def notices(request: Request, user: User) -> HTMLResponse:
         return _page(request, "notices.html", user, notices=registry.notices(_hub(request)))
@@ -146,10 +161,28 @@ def _router() -> APIRouter:
             data, media_type="application/pdf", headers={"Content-Disposition": f'attachment; filename="{name}"'}
         )
 
+
+def _device_routes(router: APIRouter) -> None:
+    """Devices: last sync, quarantine, revoke, and enrolment codes with their QR image."""
+
     @router.get("/devices")
     def devices(request: Request, user: User) -> HTMLResponse:
-        hub = _hub(request)
-        return _page(request, "devices.html", user, devices=hub.devices(), quarantine=hub.quarantine())
+        return _devices_page(request, user)
+
+    @router.post("/devices/enroll")
+    async def enroll(request: Request, user: User) -> Response:
+        form = await _form(request)
+        if not hmac.compare_digest(form.get("csrf", ""), _csrf(request)):
+            return Response("form expired; open the devices page again", status_code=403)
+        name, person, role = form.get("name", "").strip(), form.get("person", "").strip(), form.get("role", "")
+        try:
+            code = _hub(request).new_code(name, person, role)
+        except ValueError as exc:
+            page = _devices_page(request, user, enrol_error=f"No code made: {exc}")
+            page.status_code = 422
+            return page
+        new = {"name": name, "person": person, "role": role, "code": code, "qr": registry.enrolment_qr_data_uri(code)}
+        return _devices_page(request, user, new_code=new)
 
     @router.post("/devices/{device_id}/revoke")
     async def revoke(device_id: str, request: Request, user: User) -> Response:
@@ -163,7 +196,11 @@ def _router() -> APIRouter:
             return _not_found(request, user, f"No device {device_id}")
         return RedirectResponse("/devices", status_code=303)
 
-    return router
+
+def _devices_page(request: Request, user: str, **extra: Any) -> HTMLResponse:
+    hub = _hub(request)
+    context = {"new_code": None, "enrol_error": ""} | extra
+    return _page(request, "devices.html", user, devices=hub.devices(), quarantine=hub.quarantine(), **context)
 
 
 def _priorities() -> list[str]:

@@ -12,6 +12,7 @@ import time
 from dataclasses import dataclass
 from typing import Any
 
+import segno
 from argon2 import PasswordHasher
 from argon2.exceptions import InvalidHashError, VerificationError
 
@@ -19,6 +20,8 @@ from core.results import PRIORITY_ORDER
 from office.hubstore import HubStore
 
 SESSION_MS = 12 * 3600 * 1000
+QR_ERROR = "m"  # QR error correction level M (about 15 % of the symbol recoverable)
+QR_SCALE, QR_BORDER = 8, 4  # 8 px a module; the quiet zone of 4 modules the QR standard asks for
 STAGES = ("open", "corrected", "verified")
 _hasher = PasswordHasher()
 
@@ -189,6 +192,7 @@ def deficiency(hub: HubStore, deficiency_id: str) -> dict[str, Any] | None:
         if p.get("deficiency_id") == deficiency_id or (item.beam_id and p.get("beam_id") == item.beam_id)
     ]
     beam = _rows(hub, "beam", "WHERE id=?", [item.beam_id]) if item.beam_id else []
+    site_rows = _rows(hub, "site", "WHERE id=?", [item.site_id])
     carried = [
         dict(n, id=nid) for nid, n in _rows(hub, "issued_notice") if deficiency_id in n.get("deficiency_ids", [])
     ]
@@ -199,6 +203,7 @@ def deficiency(hub: HubStore, deficiency_id: str) -> dict[str, Any] | None:
         "history": [dict(e, stage_name=STAGES[int(e["stage"])]) for e in history],
         "photos": photos,
         "beam": beam[0][1] if beam else None,
+        "recheck": recheck_now(beam[0][1], site_rows[0][1] if site_rows else {}) if beam else None,
         "notices": carried,
     }
 
@@ -226,3 +231,134 @@ def notice_pdf(hub: HubStore, notice_id: str) -> tuple[str, bytes] | None:
             if content is not None:
                 return f"{n['number']}-rev{n.get('revision', 0)}.pdf", content
     return None
+
+
+# -- enrolment codes for a tablet to scan ----------------------------------------------------------
+def enrolment_qr(code: str) -> segno.QRCode:
+    """The QR symbol of a one-time enrolment code (the code alone, error correction M, never Micro QR)."""
+    if not code.strip():
+        msg = "enrolment code must not be empty"
+        raise ValueError(msg)
+    return segno.make(code, error=QR_ERROR, micro=False, boost_error=False)
+
+
+def write_enrolment_qr(code: str, path: str) -> None:
+    """Write the code's QR symbol as a PNG (8 px a module, 4-module quiet zone, black on white)."""
+    enrolment_qr(code).save(path, kind="png", scale=QR_SCALE, border=QR_BORDER)
+
+
+def enrolment_qr_data_uri(code: str) -> str:
+    """The code's QR symbol as an inline SVG data URI for the devices page (no file, no script)."""
+    return str(enrolment_qr(code).svg_data_uri(scale=QR_SCALE, border=QR_BORDER))
+
+
+# -- the recheck, re-run on the hub from the records --------------------------------------------------
+def _basis(beam: dict[str, Any], site_data: dict[str, Any]) -> tuple[str, Any]:
+    """The design basis a beam's loads come from: its named basis on the site, else the site's main one."""
+    from core.records import DesignBasis
+
+    name = beam.get("load_basis") or ""
+    bases = site_data.get("load_bases") or {}
+    if name and name in bases:
+        return name, DesignBasis.model_validate(bases[name])
+    return "site", DesignBasis.model_validate(site_data.get("design_basis") or {})
+
+
+def recheck_input(beam: dict[str, Any], site_data: dict[str, Any]) -> tuple[dict[str, Any], str]:
+    """The contract-1 input re-built from the beam record and the site's design basis, and where its loads came from.
+
+    With a tributary width on record the specified line loads are derived again from the site's design basis
+    as it stands (kN/m = kPa x m, common practice), so a corrected basis is rechecked; loads typed directly
+    on the tablet are used as recorded.
+    """
+    from storage.results import beam_fields
+
+    data = {k: v for k, v in beam.items() if k in beam_fields()}
+    width = beam.get("tributary_m")
+    if width is None:
+        return data, "line loads as typed on the tablet (no tributary width recorded)"
+    name, basis = _basis(beam, site_data)
+    loads = dict(data.get("loads") or {})
+    loads.update(
+        dead_kn_m=round(basis.dead_kpa * float(width), 3),
+        live_kn_m=round(basis.live_kpa * float(width), 3),
+        snow_kn_m=round(basis.snow_kpa * float(width), 3),
+    )
+    data["loads"] = loads
+    where = "the site's design basis" if name == "site" else f"the site's design basis '{name}'"
+    source = (
+        f"line loads derived from {where}: dead {basis.dead_kpa:g}, live {basis.live_kpa:g}, "
+        f"snow {basis.snow_kpa:g} kPa x tributary width {float(width):g} m"
+    )
+    return data, source
+
+
+def _trace_lines(trace: Any) -> list[str]:
+    out = []
+    for t in trace:
+        value = f"{t.value:.4g}" if isinstance(t.value, float) else ("-" if t.value is None else str(t.value))
+        line = f"{t.symbol} = {value} {t.unit}".rstrip() + f"   [{t.status.value}]"
+        out.append(line + (f"   {t.clause}" if t.clause else "") + (f"   ({t.source})" if t.source else ""))
+    return out
+
+
+def _checks(result: Any) -> list[dict[str, Any]]:
+    """Every check of a recheck: name, demand, capacity, utilisation, clause and its trace lines."""
+    from reports.content import checks_for
+
+    traces = [r.trace for r in result.bending] + [result.shear.trace]
+    traces += [b.trace for b in result.bearing] + [result.deflection.trace]
+    return [
+        {
+            "name": c.name,
+            "demand": c.demand,
+            "capacity": c.capacity,
+            "utilisation": c.utilisation,
+            "clause": c.clause,
+            "trace": _trace_lines(trace),
+        }
+        for c, trace in zip(checks_for(result), traces, strict=True)
+    ]
+
+
+def recheck_now(beam: dict[str, Any], site_data: dict[str, Any]) -> dict[str, Any]:
+    """The beam's recheck run again on the hub with ``core``.
+
+    Status, governing check, utilisation, every check with its trace lines, the findings; or ``error`` in
+    words when the record cannot be rechecked.
+    """
+    from pydantic import ValidationError
+
+    from core.models import Beam
+    from core.recheck import recheck
+
+    data, loads_from = recheck_input(beam, site_data)
+    try:
+        result = recheck(Beam.model_validate(data))
+    except ValidationError as exc:
+        fields = ", ".join(".".join(map(str, e["loc"])) for e in exc.errors()[:6])
+        text = f"the beam record is incomplete or refused ({fields}): not rechecked"
+        return {"error": text, "loads_from": loads_from}
+    except ValueError as exc:
+        return {"error": f"not rechecked: {exc}", "loads_from": loads_from}
+    checks = _checks(result)
+    rated = [c for c in checks if c["utilisation"] is not None]
+    governing = max(rated, key=lambda c: c["utilisation"]) if rated else None
+    return {
+        "error": "",
+        "loads_from": loads_from,
+        "status": result.status.value.replace("_", " "),
+        "governing": governing["name"] if governing else "none rated",
+        "utilisation": result.governing_utilisation,
+        "checks": checks,
+        "findings": [
+            {
+                "code": str(f.code),
+                "priority": f.priority.value,
+                "region": f.region or "",
+                "message": f.message,
+                "clause": f.clause,
+            }
+            for f in result.findings
+        ],
+    }

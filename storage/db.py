@@ -107,6 +107,26 @@ MIGRATIONS: dict[int, list[str]] = {
         """CREATE TRIGGER IF NOT EXISTS beam_result_table_gone AFTER DELETE ON table_row BEGIN
             UPDATE beam_result SET input_hash = ''; END""",
     ],
+    # 4: the site list read from the stored results alone (storage/results.py): each result carries its
+    # beam's list fields, an index keeps list order, and every beam has a result row from its insert on
+    # (status 'pending' until first rechecked), so a warm site open joins nothing and decodes no record;
+    # ALTER TABLE is not idempotent, but the migration runs once, in one transaction
+    4: [
+        "ALTER TABLE beam_result ADD COLUMN mark TEXT NOT NULL DEFAULT ''",
+        "ALTER TABLE beam_result ADD COLUMN level TEXT NOT NULL DEFAULT ''",
+        "ALTER TABLE beam_result ADD COLUMN gridline TEXT NOT NULL DEFAULT ''",
+        "ALTER TABLE beam_result ADD COLUMN archived INTEGER NOT NULL DEFAULT 0",
+        "CREATE INDEX IF NOT EXISTS beam_result_list ON beam_result(site_id, archived, level, gridline, mark)",
+        "CREATE INDEX IF NOT EXISTS beam_result_stale ON beam_result(site_id) WHERE input_hash = ''",
+        "DROP TRIGGER IF EXISTS beam_result_beam_new",
+        """CREATE TRIGGER beam_result_beam_new AFTER INSERT ON beam BEGIN
+            INSERT OR IGNORE INTO beam_result (beam_id, site_id, input_hash, status, governing, findings, rows_used)
+                VALUES (NEW.id, NEW.site_id, '', 'pending', '', '[]', '[]');
+            UPDATE beam_result SET input_hash = '', site_id = NEW.site_id WHERE beam_id = NEW.id; END""",
+        "INSERT OR IGNORE INTO beam_result (beam_id, site_id, input_hash, status, governing, findings, rows_used) "
+        "SELECT id, site_id, '', 'pending', '', '[]', '[]' FROM beam",
+        "UPDATE beam_result SET input_hash = ''",  # every result recomputed once, filling the list fields
+    ],
 }
 
 

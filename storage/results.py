@@ -23,6 +23,7 @@ from pydantic import ValidationError
 from storage.db import transaction
 
 UNCHECKED = "unchecked"  # the record is incomplete (or refused): nothing to recheck yet
+PENDING = "pending"  # the placeholder row a new beam gets (storage/db.py migration 4) until its first recheck
 TABLE_STATUSES = ("verified", "confirmed", "memory")
 
 
@@ -38,6 +39,10 @@ class StoredResult:
     utilisation: float | None
     findings: tuple[dict[str, str], ...]  # {"code", "priority", "region"} per finding
     rows_used: tuple[dict[str, str], ...]  # {"clause", "source", "status"} per table row the recheck used
+    mark: str = ""  # the beam's list fields, kept beside its result so the site list reads no record
+    level: str = ""
+    gridline: str = ""
+    archived: bool = False
 
     @property
     def finding_codes(self) -> list[str]:
@@ -126,7 +131,7 @@ COLUMNS = "beam_id, site_id, input_hash, status, governing, utilisation, finding
 
 def stored(db: Any, site_id: str | None = None, needing_action: bool = False) -> dict[str, StoredResult]:
     """The stored results (of one site, or all), whatever their age; ``needing_action``: not ok, not unchecked."""
-    where = ["site_id=?"] if site_id else []
+    where = (["site_id=?"] if site_id else []) + [f"status != '{PENDING}'"]
     if needing_action:
         where.append(f"status NOT IN ('ok', '{UNCHECKED}')")
     sql = f"SELECT {COLUMNS} FROM beam_result" + (" WHERE " + " AND ".join(where) if where else "")
@@ -136,27 +141,38 @@ def stored(db: Any, site_id: str | None = None, needing_action: bool = False) ->
 def site_list(db: Any, site_id: str) -> list[tuple[str, dict[str, Any], str]]:
     """[(beam id, {mark, level, gridline}, status)] of a site's beams from the stored results.
 
-    Read with SQL (no record decoded), ordered by level, gridline and mark; archived beams left
-    out. Call ``refresh`` first so no status is stale.
+    One indexed read of the results table (the list fields are stored beside each result: no record
+    decoded, no join, no sort), ordered by level, gridline and mark; archived beams left out; a field
+    not recorded is absent from the dict. Call ``refresh`` first so no status is stale.
     """
     sql = (
-        "SELECT b.id, json_extract(b.data, '$.mark'), json_extract(b.data, '$.level'), "
-        "json_extract(b.data, '$.gridline'), r.status FROM beam b LEFT JOIN beam_result r ON r.beam_id = b.id "
-        "WHERE b.site_id = ? AND NOT coalesce(json_extract(b.data, '$.archived'), 0)"
+        "SELECT beam_id, mark, level, gridline, status FROM beam_result WHERE site_id = ? AND archived = 0 "
+        "ORDER BY level, gridline, mark"
     )
     out = []
     for bid, mark, level, grid, status in db.execute(sql, [site_id]).fetchall():
-        rec = {k: v for k, v in (("mark", mark), ("level", level), ("gridline", grid)) if v is not None}
-        out.append((bid, rec, status or UNCHECKED))
-    return sorted(
-        out, key=lambda r: (str(r[1].get("level", "")), str(r[1].get("gridline", "")), str(r[1].get("mark", "")))
+        rec = {"mark": mark, "level": level, "gridline": grid}
+        out.append((bid, {k: v for k, v in rec.items() if v}, UNCHECKED if status == PENDING else status))
+    return out
+
+
+def needing_action(db: Any, site_id: str) -> list[tuple[str, str, list[dict[str, str]]]]:
+    """[(beam id, mark, findings)] of a site's beams whose stored result is neither ok nor unchecked.
+
+    In list order, archived beams left out; one indexed read. Call ``refresh`` first.
+    """
+    sql = (
+        "SELECT beam_id, mark, findings FROM beam_result WHERE site_id = ? AND archived = 0 "
+        f"AND status NOT IN ('ok', '{UNCHECKED}', '{PENDING}') ORDER BY level, gridline, mark"
     )
+    return [(bid, mark, json.loads(found)) for bid, mark, found in db.execute(sql, [site_id]).fetchall()]
 
 
 def write(db: Any, results: Iterable[StoredResult]) -> None:
-    """Store results (inside the caller's transaction)."""
+    """Store results with their beams' list fields (inside the caller's transaction)."""
     db.conn.executemany(
-        f"INSERT OR REPLACE INTO beam_result ({COLUMNS}) VALUES (?, ?, ?, ?, ?, ?, ?, ?)",
+        f"INSERT OR REPLACE INTO beam_result ({COLUMNS}, mark, level, gridline, archived) "
+        "VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)",
         [
             (
                 r.beam_id,
@@ -167,41 +183,67 @@ def write(db: Any, results: Iterable[StoredResult]) -> None:
                 r.utilisation,
                 json.dumps(list(r.findings)),
                 json.dumps(list(r.rows_used)),
+                r.mark,
+                r.level,
+                r.gridline,
+                int(r.archived),
             )
             for r in results
         ],
     )
 
 
+def _text(value: Any) -> str:
+    return "" if value is None else str(value)
+
+
 def compute(job: tuple[str, str, str, str]) -> StoredResult:
-    """Recheck one job (beam id, site id, input hash, record text) into a StoredResult."""
+    """Recheck one job (beam id, site id, input hash, record text) into a StoredResult.
+
+    An archived beam is not rechecked (``unchecked``): its row only carries the archived flag.
+    """
     beam_id, site_id, key, text = job
-    status, governing, util, findings, used = summarise(json.loads(text))
-    return StoredResult(beam_id, site_id, key, status, governing, util, tuple(findings), tuple(used))
+    record = json.loads(text)
+    archived = bool(record.get("archived"))
+    status, governing, util, findings, used = (UNCHECKED, "", None, [], []) if archived else summarise(record)
+    return StoredResult(
+        beam_id,
+        site_id,
+        key,
+        status,
+        governing,
+        util,
+        tuple(findings),
+        tuple(used),
+        mark=_text(record.get("mark")),
+        level=_text(record.get("level")),
+        gridline=_text(record.get("gridline")),
+        archived=archived,
+    )
 
 
 def jobs(db: Any, site_id: str | None = None, only_stale: bool = True) -> Iterator[tuple[str, str, str, str]]:
     """(beam id, site id, input hash, record text) of every beam (of a site) without a current result.
 
-    The database's triggers (storage/db.py, migration 3) mark a result stale when its beam, its
-    site's design bases or a firm table record changes, so stale ones are found in SQL without
-    reading every record. With ``only_stale=False``, every beam. Archived beams are left out.
+    The database's triggers (storage/db.py, migrations 3 and 4) give every new beam a stale result row
+    and mark a result stale when its beam, its site's design bases or a firm table record changes, so
+    stale ones are found through a small index without reading any other record (archived beams too:
+    their rows then carry the archived flag). With ``only_stale=False``, every beam not archived.
     """
     from storage import firm_tables
 
     firm_tables.apply(db)  # lookups honour the firm's verified and corrected rows (inherited by workers)
     stamp = tables_stamp(db)
     bases: dict[str, str] = {}
-    where = ["NOT coalesce(json_extract(b.data, '$.archived'), 0)"]
-    if site_id:
-        where.append("b.site_id = ?")
     if only_stale:
-        where.append("(r.beam_id IS NULL OR r.input_hash = '')")
-    sql = (
-        "SELECT b.id, b.site_id, b.data FROM beam b LEFT JOIN beam_result r ON r.beam_id = b.id WHERE "
-        + " AND ".join(where)
-        + " ORDER BY b.id"
-    )
+        sql = (
+            "SELECT b.id, b.site_id, b.data FROM beam_result r JOIN beam b ON b.id = r.beam_id WHERE r.input_hash = ''"
+            + (" AND r.site_id = ?" if site_id else "")
+            + " ORDER BY b.id"
+        )
+    else:
+        where = ["NOT coalesce(json_extract(b.data, '$.archived'), 0)"] + (["b.site_id = ?"] if site_id else [])
+        sql = "SELECT b.id, b.site_id, b.data FROM beam b WHERE " + " AND ".join(where) + " ORDER BY b.id"
     for bid, sid, text in db.execute(sql, [site_id] if site_id else []).fetchall():
         if sid not in bases:
             bases[sid] = _site_bases(db, sid)

@@ -1,9 +1,14 @@
-"""The sync screen (sync.kv): bundles by file with progress, a summary and conflicts to resolve."""
+"""The sync screen (sync.kv): the office hub (enrol, sync now, automatic sync), bundle files, conflicts.
+
+Automatic sync runs in the app (``app.background``, a ``BackgroundSync`` polled by a timer), so it goes on
+on every screen; this screen shows its state, refreshed twice a second while it is open.
+"""
 
 from __future__ import annotations
 
 import sqlite3
 import threading
+import time
 from pathlib import Path
 from typing import Any
 
@@ -23,25 +28,66 @@ from mobile.viewmodels import SyncViewModel
 
 
 class SyncScreen(Screen):
-    """Export / import bundle files with a progress bar, a summary, and conflicts to resolve."""
+    """The office hub, bundle files with a progress bar and a summary, and conflicts to resolve."""
 
     status_text = StringProperty("")
+    hub_text = StringProperty("")
+    waiting_text = StringProperty("")
+    clock_text = StringProperty("")
+    held_text = StringProperty("")
     progress = NumericProperty(0.0)
     progress_text = StringProperty("")
     summary = StringProperty("")
-    busy = BooleanProperty(False)
+    busy = BooleanProperty(False)  # a bundle or an enrolment is under way on this screen
+    syncing = BooleanProperty(False)  # the background sync is under way
+    enrolled = BooleanProperty(False)
+    _timer: Any = None
+    _shown_finish: float | None = None
 
     def on_pre_enter(self, *args: Any) -> None:
-        """Show the sync state and conflicts."""
+        """Show the sync state and conflicts; follow the background sync while the screen is open."""
         app = App.get_running_app()
         self.vm = SyncViewModel(app.store)
         if not self.ids.export_dir.text:
             self.ids.export_dir.text = str(Path.home() / "bracewalk-sync")
+        if not self.ids.hub_url.text:
+            self.ids.hub_url.text = self.vm.hub_url()
         self.render()
+        if self._timer is None:
+            self._timer = Clock.schedule_interval(lambda _dt: self.follow(), 0.5)
+
+    def on_leave(self, *args: Any) -> None:
+        """Stop following the background sync (it goes on)."""
+        if self._timer is not None:
+            self._timer.cancel()
+            self._timer = None
+
+    def follow(self) -> None:
+        """Show the background sync's progress; render again when a sync has finished."""
+        bg = App.get_running_app().background
+        self.syncing = bg.busy
+        if bg.busy:
+            self.progress, self.progress_text = bg.progress
+        if bg.finished_at_s is not None and bg.finished_at_s != self._shown_finish:
+            self._shown_finish = bg.finished_at_s
+            self.summary = bg.summary
+            self.progress, self.progress_text = 1.0, ""
+            self.render()
 
     def render(self) -> None:
-        """Status line and the conflict list with two large choices each."""
-        self.status_text = self.vm.status()
+        """Hub state, what waits, the clock warning, what the office held back, and the conflicts."""
+        self.status_text = "Bundle files: " + self.vm.status()
+        self.hub_text = self.vm.hub_status()
+        self.enrolled = bool(self.vm.hub_url())
+        self.waiting_text = self.vm.waiting().capitalize() if self.enrolled else ""
+        if self.enrolled and App.get_running_app().background.auto.failing:
+            self.waiting_text += ". Kept here; it is sent by itself as soon as the office answers."
+        self.clock_text = self.vm.clock_warning()
+        held = self.vm.held_back()
+        self.held_text = "\n".join(f"• {line}" for line in held) if held else "Nothing held back."
+        self._render_conflicts()
+
+    def _render_conflicts(self) -> None:
         box = self.ids.conflicts
         box.clear_widgets()
         conflicts = self.vm.conflicts()
@@ -102,6 +148,33 @@ class SyncScreen(Screen):
     def _done(self, text: str) -> None:
         self.busy, self.summary = False, text
         self.render()
+
+    def enroll(self) -> None:
+        """Enrol this tablet at the hub with the office's one-time code (in a worker thread), then sync."""
+        url, code = self.ids.hub_url.text.strip(), self.ids.enrol_code.text.strip()
+        if not code:
+            self.summary = "Enter the enrolment code the office gave you"
+            return
+
+        def work(progress: Any) -> str:
+            progress(0.2, "enrolling at the office hub")
+            text = self.vm.enroll(url, code)
+            if text.startswith("Enrolled"):
+                Clock.schedule_once(lambda _dt: self._enrolled())
+            return text
+
+        self._run(work)
+
+    def _enrolled(self) -> None:
+        self.ids.enrol_code.text = ""  # the code is spent
+        self.sync_now()
+
+    def sync_now(self) -> None:
+        """Sync with the hub now (the background sync runs it: one sync at a time)."""
+        bg = App.get_running_app().background
+        bg.sync_soon(time.monotonic())
+        bg.poll(time.monotonic())
+        self.follow()
 
     def export(self) -> None:
         """Export a bundle into the folder."""

@@ -5,12 +5,11 @@ from __future__ import annotations
 import copy
 import time
 from dataclasses import dataclass, field
-from types import SimpleNamespace
 from typing import Any
 
 from core.recheck import recheck
+from core.records import Stage
 from core.results import PRIORITY_ORDER
-from mobile.viewmodels.beam import raised_number_for
 from mobile.viewmodels.common import PRIORITY_LABELS, STAGE_WORDS, STATUS_WORDS, status_label
 from storage import Store, results
 from storage.clock import uuid7
@@ -97,18 +96,25 @@ class SiteViewModel:
         return f"{len(rows)} beams:  " + "  ·  ".join(parts) if rows else "No beams logged yet."
 
     def unraised(self) -> list[str]:
-        """'RB-7 (2 findings)' for each beam whose recheck has findings not yet raised as deficiencies."""
-        out = []
+        """'RB-7 (2 findings)' for each beam whose recheck has findings not yet raised as deficiencies.
+
+        A finding counts as raised when the beam has an unverified deficiency of the same code at the
+        same place (as ``raised_number_for`` on the beam form); read from the stored results in one query.
+        """
         results.refresh(self.store.db, self.site_id)
-        stored = results.stored(self.store.db, self.site_id, needing_action=True)  # not ok, not unchecked
-        for beam_id, record, _ in results.site_list(self.store.db, self.site_id) if stored else []:
-            result = stored.get(beam_id)
-            if result is None:
-                continue  # not yet checked or passing: nothing to raise
-            found = [SimpleNamespace(code=f["code"], region=f["region"] or None) for f in result.findings]
-            todo = [f for f in found if not raised_number_for(self.store, self.site_id, beam_id, f)]
+        flagged = results.needing_action(self.store.db, self.site_id)  # not ok, not unchecked
+        if not flagged:
+            return []
+        raised: dict[str, list[Any]] = {}
+        for d in self.store.deficiencies(self.site_id):
+            if d.beam_id and d.stage is not Stage.verified:
+                raised.setdefault(d.beam_id, []).append(d)
+        out = []
+        for beam_id, mark, findings in flagged:
+            mine = raised.get(beam_id, [])
+            todo = [f for f in findings if not _is_raised(mine, f["code"], f["region"])]
             if todo:
-                out.append(f"{record.get('mark')} ({len(todo)} finding{'s' if len(todo) > 1 else ''})")
+                out.append(f"{mark} ({len(todo)} finding{'s' if len(todo) > 1 else ''})")
         return out
 
     def unraised_warning(self) -> str:
@@ -201,3 +207,8 @@ class SiteViewModel:
             action.strip(),
         )
         return d.number
+
+
+def _is_raised(deficiencies: list[Any], code: str, region: str) -> bool:
+    """True when one of a beam's unverified deficiencies has this finding's code at its place."""
+    return any(d.code == code and (not region or d.location.endswith(region)) for d in deficiencies)

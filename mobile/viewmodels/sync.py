@@ -3,14 +3,20 @@
 from __future__ import annotations
 
 import json
+import socket
+import sqlite3
+import threading
 import time
-from dataclasses import dataclass
+from collections.abc import Callable
+from dataclasses import dataclass, field
 from pathlib import Path
+from urllib.parse import urlsplit
 
 from storage import Store
 from storage.bundle import Progress, export_bundle, import_bundle
+from storage.clock import far_ahead_ms
+from storage.hubsync import HUB_PEER, rejection_words, rejections
 from storage.hubsync import last_sync as last_hub_sync
-from storage.hubsync import rejection_words
 from storage.identity import enrolment
 from storage.stamps import local_time, utc_stamp
 
@@ -50,10 +56,11 @@ class SyncViewModel:
         finally:
             worker.close()
         if report.outcome == "applied":
-            return (
+            text = (
                 f"Merged {report.ops_new} new changes of {report.ops_total}; {report.blobs_new} files; "
                 f"{report.conflicts_new} conflicts to review"
             )
+            return text + (f". Warning: {report.warning}" if report.warning else "")
         if report.outcome == "held":
             return f"Held, not applied: {report.reason}. Update the app, then import again."
         return f"Refused, nothing changed: {report.reason}"
@@ -70,6 +77,38 @@ class SyncViewModel:
         when = local_time(utc_stamp(last["at_ms"]))
         words = {"in_step": "in step", "refused": "some changes held back", "unreachable": "could not be reached"}
         return f"Office hub {auth.hub_url}: {words.get(last['outcome'], last['outcome'])} at {when} ({last['detail']})"
+
+    def hub_url(self) -> str:
+        """The address of the office hub this tablet is enrolled at ('' when not enrolled)."""
+        auth = enrolment(self.store.db)
+        return auth.hub_url if auth is not None else ""
+
+    def waiting(self) -> str:
+        """What waits to be sent to the office hub, in words (changes the hub refused are counted apart)."""
+        held = sum(1 for r in rejections(self.store) if r["origin"] == self.store.device_id)
+        n = max(0, self.store.pending_sync_count(HUB_PEER) - held)
+        text = f"{n} change{'s' if n > 1 else ''} waiting for the office" if n else "nothing waiting for the office"
+        return text + (f"; {held} held back by the office (listed with the reason)" if held else "")
+
+    def clock_warning(self) -> str:
+        """A warning when changes held here are stamped far ahead of this tablet's clock ('' if none).
+
+        Such stamps are accepted (sync.md 3.3), and this tablet's own later edits still take effect, but
+        a clock that far off on some device is worth a look: this tablet's clock, or the other device's.
+        """
+        row = self.store.db.execute("SELECT max(hlc) FROM op WHERE origin != ?", [self.store.device_id]).fetchone()
+        if row is None or row[0] is None:
+            return ""
+        wall = self.store.wall_ms()
+        if far_ahead_ms(int(row[0]), wall) <= 0:
+            return ""
+        ahead_min = ((int(row[0]) >> 16) - wall) / 60_000
+        span = f"{ahead_min / 1440:,.1f} days" if ahead_min >= 1440 else f"{ahead_min:,.0f} min"
+        return (
+            f"Clock: changes from another device are stamped up to {span} ahead of this tablet's clock. "
+            "They were accepted and your next edits still take effect; check the date and time here and on "
+            "the other devices."
+        )
 
     def enroll(self, url: str, code: str) -> str:
         """Enrol this tablet with the office's one-time code; a summary or why not."""
@@ -154,6 +193,12 @@ class AutoSync:
     max_s: float = 1800.0
     next_at_s: float = 0.0
     wait_s: float = 30.0
+    settle_s: float = 3.0
+    failing: bool = False
+
+    def __post_init__(self) -> None:
+        """The first wait after a failure is ``base_s`` (then it doubles)."""
+        self.wait_s = self.base_s
 
     def due(self, now_s: float) -> bool:
         """True when a sync should start now."""
@@ -163,24 +208,143 @@ class AutoSync:
         """The network has returned: sync at the next tick."""
         self.next_at_s = now_s
         self.wait_s = self.base_s
+        self.failing = False
 
     def tick(self, now_s: float, progress: Progress | None = None) -> str | None:
-        """Sync if due; the summary in words, or None when nothing was due."""
+        """Sync if due; the summary in words, or None when nothing was due (single-threaded use)."""
         if not self.due(now_s):
             return None
         text = self.view.sync_now(progress)
-        last = last_hub_sync(self.view.store)
-        reached = last is not None and last["outcome"] in ("in_step", "refused")
+        self.record(now_s, hub_was_reached(self.view.store))
+        return text
+
+    def record(self, now_s: float, reached: bool) -> None:
+        """After a sync attempt: back to ``base_s`` when the hub answered, else double the wait."""
         self.wait_s = self.base_s if reached else min(self.wait_s * 2, self.max_s)
         self.next_at_s = now_s + self.wait_s
-        return text
+        self.failing = not reached
+
+    def changed(self, now_s: float) -> None:
+        """Work was logged: sync it ``settle_s`` later (sooner than the periodic pull), unless backing off."""
+        if not self.failing:
+            self.next_at_s = min(self.next_at_s, now_s + self.settle_s)
 
     def waiting(self) -> str:
         """What waits to be sent, in words."""
-        n = self.view.store.pending_sync_count("hub")
-        return f"{n} changes waiting for the office" if n else "nothing waiting for the office"
+        return self.view.waiting()
 
 
 def _when(stamp: str | None) -> str:
     """A stored time in local time with its zone, or 'never'."""
     return "never" if stamp is None else local_time(stamp)
+
+
+def hub_was_reached(store: Store) -> bool:
+    """True when the last sync attempt got an answer from the hub (in step, or some changes refused)."""
+    last = last_hub_sync(store)
+    return last is not None and last["outcome"] in ("in_step", "refused")
+
+
+def reachable(url: str, timeout_s: float = 2.0) -> bool:
+    """True when a TCP connection to the hub's host and port opens (a cheap probe: has the network returned?)."""
+    parts = urlsplit(url)
+    port = parts.port or (443 if parts.scheme == "https" else 80)
+    try:
+        with socket.create_connection((parts.hostname or "", port), timeout=timeout_s):
+            return True
+    except OSError:
+        return False
+
+
+@dataclass
+class BackgroundSync:
+    """Automatic sync in a worker thread, driven by ``poll(now_s)`` from a UI timer; never blocks the caller.
+
+    ``poll`` is cheap (a count of unsent changes): it notices logged work (sync ``settle_s`` later), probes the
+    hub while the network is down (every ``probe_s``; when it answers, sync at once) and starts a sync when
+    ``AutoSync`` says it is due. The worker opens its own ``Store`` (SQLite connections stay in their thread).
+    ``busy``, ``progress`` and ``summary`` are read by the screen.
+    """
+
+    auto: AutoSync
+    probe_s: float = 10.0
+    busy: bool = False
+    progress: tuple[float, str] = (0.0, "")
+    summary: str = ""
+    finished_at_s: float | None = None
+    _thread: threading.Thread | None = None
+    _outcome: tuple[str, bool] | None = None
+    _probe_ok: bool | None = None
+    _next_probe_s: float = 0.0
+    _sent_mark: int = -1
+    _lock: threading.Lock = field(default_factory=threading.Lock)
+    _stopped: bool = False
+
+    def poll(self, now_s: float) -> bool:
+        """Collect a finished job and start the next one when due; True when a sync just finished."""
+        if self._thread is not None and self._thread.is_alive():
+            return False
+        finished = self._collect(now_s)
+        if self._stopped or enrolment(self.auto.view.store.db) is None:
+            return finished
+        pending = self.auto.view.store.pending_sync_count(HUB_PEER)
+        if pending > 0 and pending != self._sent_mark:
+            self.auto.changed(now_s)
+            self._sent_mark = pending
+        if self.auto.due(now_s):
+            self.busy, self.progress = True, (0.0, "starting")
+            self._start(self._sync_job, str(self.auto.view.store.path))
+        elif self.auto.failing and now_s >= self._next_probe_s:
+            self._next_probe_s = now_s + self.probe_s
+            self._start(self._probe_job, self.auto.view.hub_url())
+        return finished
+
+    def sync_soon(self, now_s: float) -> None:
+        """Sync at the next poll (the reviewer tapped "Sync now", or the network returned)."""
+        self.auto.network_back(now_s)
+
+    def stop(self, timeout_s: float = 5.0) -> None:
+        """Start nothing more; wait up to ``timeout_s`` for a sync under way (its work is kept either way)."""
+        self._stopped = True
+        if self._thread is not None:
+            self._thread.join(timeout=timeout_s)
+
+    def _collect(self, now_s: float) -> bool:
+        with self._lock:
+            outcome, probe_ok = self._outcome, self._probe_ok
+            self._outcome = self._probe_ok = None
+        self.busy = False
+        if probe_ok:
+            self.auto.network_back(now_s)
+        if outcome is None:
+            return False
+        text, reached = outcome
+        self.auto.record(now_s, reached)
+        self.summary, self.finished_at_s = text, now_s
+        self._sent_mark = -1
+        return True
+
+    def _start(self, job: Callable[[str], None], arg: str) -> None:
+        self._thread = threading.Thread(target=job, args=(arg,), name="bracewalk-sync", daemon=False)
+        self._thread.start()
+
+    def _tell(self, fraction: float, what: str) -> None:
+        self.progress = (fraction, what)
+
+    def _sync_job(self, db_path: str) -> None:
+        try:
+            worker = Store(db_path)
+            try:
+                text = SyncViewModel(worker).sync_now(self._tell)
+                reached = hub_was_reached(worker)
+            finally:
+                worker.close()
+        except (OSError, ValueError, sqlite3.Error) as exc:  # shown on the Sync screen; the work stays here
+            text, reached = f"Not synced, your work is safe on this tablet: {exc}", False
+        with self._lock:
+            self._outcome = (text, reached)
+
+    def _probe_job(self, url: str) -> None:
+        ok = bool(url) and reachable(url)
+        with self._lock:
+            self._probe_ok = ok

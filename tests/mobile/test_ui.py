@@ -7,11 +7,15 @@ bundle. Screenshots go to test-artefacts/ui for a person to look at.
 Kill test: the app is SIGKILLed after typing a field (no Enter); relaunched, the field shows it.
 """
 
+import json
 import os
 import shutil
 import signal
+import socket
 import subprocess
 import sys
+import time
+import urllib.request
 from pathlib import Path
 
 import pytest
@@ -26,7 +30,7 @@ pytestmark = [
 ]
 
 
-def run_app(db, shots, flow, home, timeout=150, size=(1280, 800), dpi=None, density=None, geometry=""):
+def run_app(db, shots, flow, home, timeout=150, size=(1280, 800), dpi=None, density=None, geometry="", extra_env=None):
     """Run the driver under its own Xvfb in a new process group; on timeout kill the whole group."""
     home.mkdir(parents=True, exist_ok=True)
     env = {
@@ -38,7 +42,7 @@ def run_app(db, shots, flow, home, timeout=150, size=(1280, 800), dpi=None, dens
         "BRACEWALK_WIDTH": str(size[0]),
         "BRACEWALK_HEIGHT": str(size[1]),
         "BRACEWALK_GEOMETRY": geometry,
-    }
+    } | (extra_env or {})
     if dpi is not None:
         env["KIVY_DPI"] = str(dpi)
         env["KIVY_METRICS_DENSITY"] = str(density)
@@ -108,3 +112,85 @@ def test_kill_after_typing_loses_nothing(tmp_path):
     out = run_app(db, tmp_path / "s2", "relaunch", tmp_path / "home")
     assert "UI-OK" in out, out[-3000:]
     assert "NOTES=bearing plate at S2 bent; photo 14" in out, out[-3000:]
+
+
+@pytest.fixture
+def office_hub(tmp_path):
+    """A real hub (``bracewalk hub serve``) on a free port of 127.0.0.1, stopped at the end."""
+    with socket.socket() as s:
+        s.bind(("127.0.0.1", 0))
+        port = s.getsockname()[1]
+    db = tmp_path / "hub.db"
+    proc = subprocess.Popen(
+        [sys.executable, "-m", "mobile.cli", "hub", "serve", "--db", str(db), "--port", str(port)],
+        cwd=ROOT,
+        stdout=subprocess.DEVNULL,
+        stderr=subprocess.PIPE,
+        text=True,
+        start_new_session=True,
+    )
+    url = f"http://127.0.0.1:{port}"
+    try:
+        for _ in range(100):  # bounded: 20 s
+            try:
+                with urllib.request.urlopen(f"{url}/v1/hub", timeout=2) as resp:
+                    json.loads(resp.read())
+                break
+            except OSError:
+                time.sleep(0.2)
+        else:
+            pytest.fail("the hub did not answer in 20 s")
+        yield url, db, proc.pid
+    finally:
+        if proc.poll() is None:  # the flow stops this hub to cut the network, and starts its own on the port
+            os.killpg(proc.pid, signal.SIGTERM)
+        proc.communicate(timeout=20)
+
+
+def _enrol_code(db):
+    """A one-time code from ``bracewalk hub enroll`` (alone on the last line of stdout: the command contract)."""
+    args = ["hub", "enroll", "--db", str(db), "--name", "Tablet 7", "--person", "T. Tech", "--role", "technician"]
+    out = subprocess.run(
+        [sys.executable, "-m", "mobile.cli", *args],
+        cwd=ROOT,
+        capture_output=True,
+        text=True,
+        timeout=60,
+        check=True,
+    )
+    return out.stdout.strip().splitlines()[-1]
+
+
+@pytest.mark.parametrize("geometry", ["10in-1280x800-149dpi", "10in-portrait-800x1280-149dpi"])
+def test_sync_screen_enrols_and_syncs_by_itself_with_a_real_hub(tmp_path, office_hub, geometry):
+    """Enrol with a code from ``hub enroll``; a logged change reaches the hub without a tap.
+
+    The digests of tablet and hub are then equal. The hub is stopped: work goes on and is kept, the
+    screen says the office cannot be reached; the hub comes back on its port: the tablet finds it and
+    syncs without a tap. A technician's verification is held back by the hub and shown in words.
+    Screenshots: test-artefacts/ui-hub (look at them).
+    """
+    url, hub_db, hub_pid = office_hub
+    size, dpi, density = GEOMETRIES[geometry]
+    extra = {
+        "BRACEWALK_TEST_HUB_URL": url,
+        "BRACEWALK_TEST_HUB_CODE": _enrol_code(hub_db),
+        "BRACEWALK_TEST_HUB_DB": str(hub_db),
+        "BRACEWALK_TEST_HUB_PID": str(hub_pid),
+    }
+    shots = ROOT / "test-artefacts" / "ui-hub"
+    out = run_app(
+        tmp_path / "t.db",
+        shots,
+        "hub",
+        tmp_path / "home",
+        timeout=240,
+        size=size,
+        dpi=dpi,
+        density=density,
+        geometry=geometry,
+        extra_env=extra,
+    )
+    assert "UI-OK" in out, out[-4000:]
+    assert out.count("DIGESTS") == 2, out[-3000:]
+    assert "HUB-BACK" in out, out[-3000:]

@@ -1,6 +1,8 @@
 """Drive the real app under Xvfb through widget ids and save screenshots (run by test_ui.py).
 
-usage: ui_drive.py DB OUT_DIR [flow]; flows: "main" (the whole job), "layout" (every screen held
+usage: ui_drive.py DB OUT_DIR [flow]; flows: "main" (the whole job), "hub" (enrol at the hub named by
+BRACEWALK_TEST_HUB_URL with the code in BRACEWALK_TEST_HUB_CODE, log a change, it syncs by itself),
+"layout" (every screen held
 against the layout rules at the geometry the test set with KIVY_DPI / KIVY_METRICS_DENSITY and the
 window size), "type-then-kill" (type a note, wait for the autosave, then SIGKILL this process),
 "relaunch" (print what the note field shows).
@@ -581,6 +583,144 @@ if FLOW == "main":
                     small.append(f"{name}: {type(w).__name__} {getattr(w, 'text', '')[:30]!r} {w.height:.0f}px")
         assert not small, small
 
+elif FLOW == "hub":
+    import atexit
+    import subprocess
+    import time as _time
+
+    from mobile.viewmodels.sync import reachable
+
+    HUB_URL, HUB_CODE = os.environ["BRACEWALK_TEST_HUB_URL"], os.environ["BRACEWALK_TEST_HUB_CODE"]
+    GEOM = os.environ.get("BRACEWALK_GEOMETRY", "default")
+    seen_sync = {"at": None}
+    restarted = []  # the hub this flow starts again after cutting the network; stopped when the flow ends
+
+    def _stop_restarted():
+        for proc in restarted:
+            proc.terminate()
+            proc.wait(timeout=20)
+
+    atexit.register(_stop_restarted)
+
+    def wait_for_background_sync(what):
+        """Retried by the runner (TimeoutError) until a background sync has finished since the last look."""
+        bg = app.background
+        if bg.busy or bg.finished_at_s is None or bg.finished_at_s == seen_sync["at"]:
+            msg = f"waiting for the background sync ({what})"
+            raise TimeoutError(msg)
+        seen_sync["at"] = bg.finished_at_s
+        return bg.summary
+
+    def hub_digest():
+        out = subprocess.run(
+            [sys.executable, "-m", "mobile.cli", "hub", "digest", "--db", os.environ["BRACEWALK_TEST_HUB_DB"]],
+            capture_output=True,
+            text=True,
+            timeout=60,
+            check=True,
+        )
+        return out.stdout.strip().splitlines()[-1]
+
+    @step
+    def first_frame():
+        app.go("sync")
+
+    @step
+    def not_enrolled():
+        s = screen("sync")
+        assert "Not enrolled" in s.hub_text, s.hub_text
+        assert s.ids.sync_now.disabled  # nothing to sync with yet
+        shot(f"{GEOM}-hub-1-not-enrolled")
+        s.ids.hub_url.text = HUB_URL
+        s.ids.enrol_code.text = HUB_CODE
+        s.ids.enroll.trigger_action(0)
+
+    @step
+    def enrolled_and_first_sync():
+        summary = wait_for_background_sync("first sync after enrolment")
+        s = screen("sync")
+        assert "Enrolled as Tablet 7" in s.summary or summary.startswith("Sent "), (s.summary, summary)
+        assert summary.startswith("Sent "), summary
+        assert "in step at" in s.hub_text, s.hub_text
+        assert s.ids.enrol_code.text == ""  # the one-time code is spent
+        check_layout("sync")
+        shot(f"{GEOM}-hub-2-enrolled")
+        # log a change on a beam and leave: nobody taps "Sync now"
+        app.open_site(next(x.id for x in app.store.sites() if "Cedar" in x.name))
+        app.open_beam(demo_beam("RB-1"))
+        type_into("notes", "hanger at S1 re-nailed, seen 09:10")
+        screen("beam").leave()
+        assert app.store.pending_sync_count("hub") > 0
+
+    @step
+    def synced_without_a_tap():
+        summary = wait_for_background_sync("the logged change")
+        assert app.root.current == "site"  # the reviewer never went to the Sync screen
+        assert summary.startswith("Sent "), summary
+        assert app.store.pending_sync_count("hub") == 0
+        mine, office = app.store.digest(), hub_digest()
+        print(f"DIGESTS {mine} {office}", flush=True)
+        assert mine == office, (mine, office)
+        # the network goes: the hub stops; the reviewer goes on working
+        os.kill(int(os.environ["BRACEWALK_TEST_HUB_PID"]), signal.SIGTERM)
+        for _ in range(100):  # bounded: 10 s for the port to close
+            if not reachable(HUB_URL, 0.2):
+                break
+            _time.sleep(0.1)
+        app.open_beam(demo_beam("RB-2"))
+        type_into("notes", "purlin clip missing at grid 4, logged offline")
+        screen("beam").leave()
+
+    @step
+    def offline_work_is_kept():
+        summary = wait_for_background_sync("an attempt with the hub gone")
+        assert summary.startswith("Not synced, your work is safe"), summary
+        assert app.background.auto.failing
+        assert app.store.pending_sync_count("hub") > 0
+        assert app.root.current == "site"  # the form was never held up
+        app.go("sync")
+
+    @step
+    def offline_shown():
+        s = screen("sync")
+        assert "could not be reached" in s.hub_text, s.hub_text
+        assert "waiting for the office. Kept here; it is sent by itself" in s.waiting_text, s.waiting_text
+        check_layout("sync")
+        shot(f"{GEOM}-hub-2b-offline")
+        # the network returns: the same hub, on the same port
+        port = HUB_URL.rsplit(":", 1)[1]
+        cmd = [sys.executable, "-m", "mobile.cli", "hub", "serve", "--db", os.environ["BRACEWALK_TEST_HUB_DB"]]
+        restarted.append(subprocess.Popen([*cmd, "--port", port], stdout=subprocess.DEVNULL))
+        app.go("sites")
+
+    @step
+    def back_without_a_tap():
+        summary = wait_for_background_sync("the hub is back")
+        if not summary.startswith("Sent "):  # an attempt while the hub was still starting; the probe goes on
+            msg = f"not yet back: {summary}"
+            raise TimeoutError(msg)
+        print("HUB-BACK", flush=True)
+        assert app.store.pending_sync_count("hub") == 0
+        mine, office = app.store.digest(), hub_digest()
+        print(f"DIGESTS {mine} {office}", flush=True)
+        assert mine == office, (mine, office)
+        # a technician's tablet claims to verify: the hub refuses and quarantines it
+        d = app.store.deficiencies(app.site_id, open_only=True)[0]
+        app.store.move_status(d.id, "corrected", "T. Tech", "contractor")
+        app.store.move_status(d.id, "verified", "T. Tech", "reviewer")
+        app.go("sync")
+
+    @step
+    def held_back_in_words():
+        summary = wait_for_background_sync("the verification")
+        s = screen("sync")
+        assert "held back 1" in summary, summary
+        assert "only a reviewer verifies" in s.held_text, s.held_text
+        assert "some changes held back" in s.hub_text, s.hub_text
+        assert _time.strftime("%Z") in s.hub_text or "UTC" in s.hub_text, s.hub_text  # local time with its zone
+        check_layout("sync")
+        shot(f"{GEOM}-hub-3-held-back")
+
 elif FLOW == "layout":
     GEOM = os.environ.get("BRACEWALK_GEOMETRY", "default")
     seen = []
@@ -720,7 +860,7 @@ def run_next(_dt):
     except TimeoutError:
         state.setdefault("retries", 0)
         state["retries"] += 1
-        if state["retries"] < 40:
+        if state["retries"] < 120:  # 30 s
             Clock.schedule_once(run_next, 0.25)
             return
         print(f"UI-FAIL at {fn.__name__}: timed out", flush=True)
@@ -731,6 +871,7 @@ def run_next(_dt):
         app.stop()
         return
     state["i"] += 1
+    state["retries"] = 0  # each step gets its own budget of retries
     if state["i"] < len(steps):
         Clock.schedule_once(run_next, 0.5)
 

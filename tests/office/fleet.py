@@ -4,6 +4,8 @@ from __future__ import annotations
 
 import threading
 import time
+from collections.abc import Iterator
+from contextlib import contextmanager
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -118,6 +120,72 @@ class LoadResult:
         return lat[min(len(lat) - 1, int(0.95 * len(lat)))]
 
 
+class _PushTimer:
+    """``hub_client.request`` wrapped: the latency of every push and when the last one was acknowledged."""
+
+    def __init__(self) -> None:
+        self.latencies: list[float] = []
+        self.last_ack = 0.0
+        self.lock = threading.Lock()
+        self.real = hub_client.request
+
+    def __call__(self, url: str, method: str, path: str, *args: object, **kw: object) -> bytes:
+        t0 = time.perf_counter()
+        out: bytes = self.real(url, method, path, *args, **kw)  # type: ignore[arg-type]
+        if path == "/v1/push":
+            with self.lock:
+                self.latencies.append(time.perf_counter() - t0)
+                self.last_ack = time.perf_counter()
+        return out
+
+
+@contextmanager
+def _timed_pushes() -> Iterator[_PushTimer]:
+    """Time every push while the block runs; the client's request and timeout are put back after."""
+    timer, real_timeout = _PushTimer(), hub_client.TIMEOUT_S
+    hub_client.request = timer
+    # a push waits its turn at the hub's ingest lock: with many tablets at once that can pass the
+    # tablet's usual 30 s timeout, and a retry would only queue the same ops again
+    hub_client.TIMEOUT_S = 900
+    try:
+        yield timer
+    finally:
+        hub_client.request = timer.real
+        hub_client.TIMEOUT_S = real_timeout
+
+
+def _sync_all(sims: list[SimTablet], rounds: int = 2) -> None:
+    """Every tablet syncs at once (push, then pull what is there), ``rounds`` times; the first error is raised."""
+    errors: list[BaseException] = []
+
+    def both(t: SimTablet) -> None:
+        try:
+            t.sync()
+        except BaseException as exc:  # reported below
+            errors.append(exc)
+
+    for _round in range(rounds):
+        threads = [threading.Thread(target=both, args=(t,)) for t in sims]
+        for th in threads:
+            th.start()
+        for th in threads:
+            th.join(timeout=900)
+        if errors:
+            raise errors[0]
+
+
+def _tally(admin: HubStore, sims: list[SimTablet]) -> tuple[int, int, int]:
+    """(tablets holding every op of every tablet, ops on the hub, hub log rows); closes the tablets."""
+    every = set().union(*(t.own_ops() for t in sims))
+    complete = sum(1 for t in sims if t.ops() == every)
+    with admin.lock:
+        ops_on_hub = int(admin.db.execute("SELECT count(*) FROM op").fetchone()[0])
+        log_rows = int(admin.db.execute("SELECT count(*) FROM hub_log").fetchone()[0])
+    for t in sims:
+        t.store.close()
+    return complete, ops_on_hub, log_rows
+
+
 def run_load(dbs: list[str], folder: Path, tablets: int, ops_each: int, workers: int = 2) -> LoadResult:
     """``tablets`` simulated tablets (threads) on ``workers`` hub processes: each pushes ``ops_each`` ops, pulls all.
 
@@ -127,60 +195,19 @@ def run_load(dbs: list[str], folder: Path, tablets: int, ops_each: int, workers:
 
     admin = HubStore(dbs)
     procs = [HubProcess(dbs).start() for _ in range(workers)]
-    latencies: list[float] = []
-    lock = threading.Lock()
-    real_request = hub_client.request
-    real_timeout = hub_client.TIMEOUT_S
-
-    def timed(url: str, method: str, path: str, *args: object, **kw: object) -> bytes:
-        t0 = time.perf_counter()
-        out: bytes = real_request(url, method, path, *args, **kw)  # type: ignore[arg-type]
-        if path == "/v1/push":
-            with lock:
-                latencies.append(time.perf_counter() - t0)
-                last_ack[0] = time.perf_counter()
-        return out
-
-    last_ack = [0.0]
     try:
         sims = [SimTablet(folder, procs[i % workers].url, admin, i) for i in range(tablets)]
         for t in sims:
             t.edit(ops_each - 2)  # with the site and the beam: ops_each ops per tablet
-        hub_client.request = timed
-        # a push waits its turn at the hub's ingest lock: with many tablets at once that can pass the
-        # tablet's usual 30 s timeout, and a retry would only queue the same ops again
-        hub_client.TIMEOUT_S = 900
-        errors: list[BaseException] = []
-
-        def both(t: SimTablet) -> None:
-            try:
-                t.sync()
-            except BaseException as exc:  # reported below
-                errors.append(exc)
-
-        t0 = time.perf_counter()
-        for _round in range(2):
-            threads = [threading.Thread(target=both, args=(t,)) for t in sims]
-            for th in threads:
-                th.start()
-            for th in threads:
-                th.join(timeout=900)
-            if errors:
-                raise errors[0]
-        total = time.perf_counter() - t0
-        every = set().union(*(t.own_ops() for t in sims))
-        complete = sum(1 for t in sims if t.ops() == every)
-        with admin.lock:
-            ops_on_hub = int(admin.db.execute("SELECT count(*) FROM op").fetchone()[0])
-            log_rows = int(admin.db.execute("SELECT count(*) FROM hub_log").fetchone()[0])
-        for t in sims:
-            t.store.close()
+        with _timed_pushes() as timer:
+            t0 = time.perf_counter()
+            _sync_all(sims)
+            total = time.perf_counter() - t0
+        complete, ops_on_hub, log_rows = _tally(admin, sims)
         return LoadResult(
-            tablets, ops_each, workers, last_ack[0] - t0, latencies, total, ops_on_hub, log_rows, complete
+            tablets, ops_each, workers, timer.last_ack - t0, timer.latencies, total, ops_on_hub, log_rows, complete
         )
     finally:
-        hub_client.request = real_request
-        hub_client.TIMEOUT_S = real_timeout
         for p in procs:
             p.stop()
         admin.close()

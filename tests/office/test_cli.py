@@ -73,3 +73,58 @@ def test_bad_role_and_missing_database_are_user_errors(tmp_path, capsys):
     code, _, err = _run(capsys, "hub", "revoke", "--db", str(tmp_path / "hub.db"), "no-such-device")
     assert code == 2
     assert "no enrolled device" in err
+
+
+def _modules(png_path, scale, border):
+    """The dark (True) / light modules read back from the PNG's pixels (the centre of each module)."""
+    from PIL import Image
+
+    with Image.open(png_path) as img:
+        gray = img.convert("L")
+        n = gray.width // scale - 2 * border
+        return [
+            [
+                gray.getpixel(((border + c) * scale + scale // 2, (border + r) * scale + scale // 2)) < 128
+                for c in range(n)
+            ]
+            for r in range(n)
+        ]
+
+
+def test_enroll_writes_a_qr_image_of_the_code_and_keeps_the_code_last(served, tmp_path, capsys):
+    import segno
+    from PIL import Image
+
+    png = tmp_path / "code.png"
+    argv = ["hub", "enroll", "--db", served.hub.path, "--name", "Tablet 4", "--person", "R. Eng", "--role", "reviewer"]
+    code, out, _ = _run(capsys, *argv, "--qr", str(png))
+    assert code == 0
+    one_time = out.strip().splitlines()[-1]
+    assert one_time.count("-") == 3  # the command contract: the code alone on the last line
+    assert str(png) in out
+    assert png.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"  # PNG signature (PNG specification, section 5.2)
+    with Image.open(png) as img:
+        img.verify()  # a complete, valid PNG
+    # ISO/IEC 18004 capacity table: version 1 at level M holds 20 alphanumeric characters; a 19-character
+    # code of 0-9, A-F and '-' is alphanumeric, so version 1: 21 x 21 modules (+ 4-module quiet zone, 8 px each)
+    with Image.open(png) as img:
+        assert img.size == ((21 + 2 * 4) * 8, (21 + 2 * 4) * 8)
+    seen = _modules(png, 8, 4)
+    # ISO/IEC 18004 finder pattern at three corners: a dark 7x7 ring, a light ring, a dark 3x3 centre
+    finder = [[r in (0, 6) or c in (0, 6) or (2 <= r <= 4 and 2 <= c <= 4) for c in range(7)] for r in range(7)]
+    for r0, c0 in ((0, 0), (0, 14), (14, 0)):
+        assert [row[c0 : c0 + 7] for row in seen[r0 : r0 + 7]] == finder
+    # the symbol carries exactly this code: module for module the library's own matrix for it
+    expected = segno.make(one_time, error="m", micro=False, boost_error=False)
+    assert expected.version == 1
+    assert expected.mode == "alphanumeric"
+    assert seen == [[bool(v) for v in row] for row in expected.matrix]
+    other = segno.make(one_time[:-1] + ("0" if one_time[-1] != "0" else "1"), error="m", micro=False)
+    assert seen != [[bool(v) for v in row] for row in other.matrix]  # a different code gives another symbol
+
+
+def test_enroll_qr_into_a_missing_folder_is_a_user_error(served, tmp_path, capsys):
+    argv = ["hub", "enroll", "--db", served.hub.path, "--name", "T", "--person", "P", "--role", "reviewer"]
+    code, _, err = _run(capsys, *argv, "--qr", str(tmp_path / "no" / "such" / "code.png"))
+    assert code != 0
+    assert "cannot write the QR image" in err

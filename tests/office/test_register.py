@@ -145,3 +145,82 @@ def test_hub_user_add_reads_the_password_from_stdin(served, monkeypatch, capsys)
     monkeypatch.setattr("sys.stdin", io.StringIO("short\n"))
     assert main(["hub", "user", "add", "--db", served.hub.path, "--name", "clerk2"]) == 2
     assert "at least 8" in capsys.readouterr().err
+
+
+def test_devices_page_makes_a_one_time_code_with_its_qr_to_scan(office, tmp_path):
+    import html
+    import re
+
+    import segno
+
+    from mobile.hub_client import enroll
+    from storage import Store
+
+    served, client, *_ = office
+    _login(client)
+    form = {"name": "Tablet 5", "person": "J. Tech", "role": "technician"}
+    assert client.post("/devices/enroll", data=form | {"csrf": "guess"}).status_code == 403
+    token = re.search(r'name="csrf" value="([0-9a-f]+)"', client.get("/devices").text).group(1)
+    bad = client.post("/devices/enroll", data=form | {"csrf": token, "role": "boss"})
+    assert bad.status_code == 422
+    assert "No code made: role 'boss'" in html.unescape(bad.text)
+    page = client.post("/devices/enroll", data=form | {"csrf": token})
+    assert page.status_code == 200
+    code = re.search(r'id="enrol-code">([0-9A-F-]+)<', page.text).group(1)
+    src = html.unescape(re.search(r'id="enrol-qr"[^>]*src="([^"]+)"', page.text).group(1))
+    assert src.startswith("data:image/svg+xml")
+    # the image is the symbol of this code (the library's own writer for the code), not of another
+    assert src == segno.make(code, error="m", micro=False, boost_error=False).svg_data_uri(scale=8, border=4)
+    assert src != segno.make(code.replace("-", "+"), error="m", micro=False).svg_data_uri(scale=8, border=4)
+    # the code works once, for the name, person and role typed on the page
+    answer = enroll(Store(tmp_path / "t5.db"), served.url, code)
+    assert (answer["name"], answer["person"], answer["role"]) == ("Tablet 5", "J. Tech", "technician")
+
+
+def test_deficiency_page_reruns_the_recheck_from_the_beam_record_and_the_site_basis(office):
+    """The page's recheck, checked by hand.
+
+    Simple span, NBC 2020 Table 4.1.3.2-A combination 2 (1.25D + 1.5S), Mf = wL^2/8 (handbook simple-span
+    moment); dead load includes the beam's self-weight at 4.9 kN/m3 for glulam (common practice, from memory).
+    """
+    import html
+    import re
+
+    from mobile.hub_client import sync
+
+    _served, client, _site, d, _notice, tablet = office
+    _login(client)
+    self_weight = 4.9 * 0.130 * 0.456  # kN/m, 130 x 456 mm glulam
+    page = html.unescape(client.get(f"/deficiency/{d.id}").text)
+    assert "Recheck run again here" in page
+    assert "line loads as typed on the tablet" in page
+    # typed loads: D 2.0, S 5.0 kN/m on 7.2 m: w = 1.25 x (2.0 + sw) + 1.5 x 5.0 = 10.36 kN/m; Mf = w 7.2^2 / 8
+    assert f"Mf {(1.25 * (2.0 + self_weight) + 1.5 * 5.0) * 7.2**2 / 8:.1f} kN·m" in page  # 67.2
+    assert "Governing check" in page
+    assert "where the numbers come from" in page
+    assert re.search(r"\[(verified|confirmed|memory|formula)\]\s+CSA O86", page)  # the trace lines, with clauses
+    # a tributary width on record: the loads come from the site's design basis as it stands now
+    tablet.update_site(d.site_id, {"design_basis": {"dead_kpa": 1.0, "live_kpa": 0.0, "snow_kpa": 2.0}})
+    tablet.update_beam(d.beam_id, {"tributary_m": 3.0})
+    assert sync(tablet).in_step
+    page = html.unescape(client.get(f"/deficiency/{d.id}").text)
+    assert "derived from the site's design basis: dead 1, live 0, snow 2 kPa x tributary width 3 m" in page
+    # w = 1.25 x (1.0 x 3.0 + sw) + 1.5 x (2.0 x 3.0) = 13.11 kN/m; Mf = w 7.2^2 / 8 = 85.0 kN·m
+    assert f"Mf {(1.25 * (1.0 * 3.0 + self_weight) + 1.5 * (2.0 * 3.0)) * 7.2**2 / 8:.1f} kN·m" in page
+    rows = re.findall(r"<tr[^>]*>\s*<td>([^<]+)</td>\s*<td>[^<]*</td>\s*<td>[^<]*</td>\s*<td>([0-9.]+)", page)
+    top = max(rows, key=lambda r: float(r[1]))
+    assert f"Governing check</th><td>{top[0]}, utilisation {float(top[1]):.2f}" in page  # the largest one governs
+
+
+def test_deficiency_page_says_when_the_beam_record_cannot_be_rechecked(office):
+    import html
+
+    from mobile.hub_client import sync
+
+    _served, client, _site, d, _notice, tablet = office
+    _login(client)
+    tablet.update_beam(d.beam_id, {"spans_mm": []})
+    assert sync(tablet).in_step
+    page = html.unescape(client.get(f"/deficiency/{d.id}").text)
+    assert "the beam record is incomplete or refused (spans_mm" in page
+    assert "not rechecked" in page

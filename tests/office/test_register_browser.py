@@ -1,6 +1,7 @@
 """The office register in a real browser (Debian's chromium and chromedriver, driven by selenium).
 
-Logs in, opens a site, opens an item, downloads a notice; screenshots go to test-artefacts/office/.
+Logs in, opens a site, opens an item (with the recheck run again on the hub), downloads a notice, makes an
+enrolment code with its QR image; screenshots go to test-artefacts/office/.
 """
 
 import hashlib
@@ -72,6 +73,11 @@ def test_log_in_open_a_site_and_an_item_download_a_notice(office, browser):  # n
     browser.find_element(By.LINK_TEXT, d.number).click()
     assert _wait_for(browser, "blocking installed")
     _shot(browser, "4-item")
+    recheck = browser.find_element(By.ID, "recheck")
+    browser.execute_script("arguments[0].scrollIntoView();", recheck)
+    assert "Governing check" in recheck.text
+    assert "bending, span 1 (positive moment)" in recheck.text
+    _shot(browser, "4b-item-recheck")
     browser.find_element(By.LINK_TEXT, "Notices").click()
     assert _wait_for(browser, "matches its recorded SHA-256")
     _shot(browser, "5-notices")
@@ -87,3 +93,11 @@ def test_log_in_open_a_site_and_an_item_download_a_notice(office, browser):  # n
     browser.find_element(By.LINK_TEXT, "Devices").click()
     assert _wait_for(browser, "Tablet 3")
     _shot(browser, "6-devices")
+    browser.find_element(By.ID, "enrol-name").send_keys("Tablet 8")
+    browser.find_element(By.ID, "enrol-person").send_keys("J. Tech")
+    browser.find_element(By.ID, "enrol-make").click()
+    assert _wait_for(browser, "One-time code for")
+    qr = browser.find_element(By.ID, "enrol-qr")
+    browser.execute_script("arguments[0].scrollIntoView();", qr)
+    assert browser.execute_script("return arguments[0].complete && arguments[0].naturalWidth", qr) > 0  # drawn
+    _shot(browser, "7-enrol-qr")

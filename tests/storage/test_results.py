@@ -103,3 +103,67 @@ def test_an_imported_edit_makes_the_result_stale(tmp_path):
     assert import_bundle(b, tmp_path / "2.zip").outcome == "applied"
     assert [j[0] for j in results.jobs(b.db, site.id)] == [ids[0]]  # the trigger marked it, whoever wrote
     assert results.fresh(b.db, site.id)[ids[0]].status == recheck(glulam(d_mm=190)).status.value
+
+
+def test_site_list_reads_the_list_fields_stored_beside_each_result(store):
+    site = store.create_site(name="Yard")
+    a = store.save_beam(site.id, glulam(mark="RB-2"), {"level": "Roof", "gridline": "C/3"})
+    b = store.save_beam(site.id, glulam(mark="FB-1"), {"level": "L2", "gridline": "A/1"})
+    c = store.save_beam(site.id, glulam(mark="RB-1"), {"level": "Roof", "gridline": "C/3"})
+    d = store.save_beam(site.id, glulam(mark="X-9"))  # no level or gridline recorded
+    assert results.stored(store.db, site.id) == {}  # a new beam's placeholder row is no stored result
+    results.refresh(store.db, site.id)
+    rows = results.site_list(store.db, site.id)
+    assert [r[0] for r in rows] == [d, b, c, a]  # by level, gridline, mark ('' first, as before)
+    assert rows[0][1] == {"mark": "X-9"}  # a field not recorded is absent
+    assert rows[3][1] == {"mark": "RB-2", "level": "Roof", "gridline": "C/3"}
+    store.update_beam(a, {"mark": "RB-3", "level": "L2"})  # a renamed and moved beam: listed anew
+    store.update_beam(b, {"archived": True})
+    results.refresh(store.db, site.id)
+    rows = results.site_list(store.db, site.id)
+    assert [(r[0], r[1]["mark"]) for r in rows] == [(d, "X-9"), (a, "RB-3"), (c, "RB-1")]
+    e = store.save_beam(site.id, glulam(mark="RB-0"), {"level": "Roof", "gridline": "C/3"})  # logged later
+    assert e in [j[0] for j in results.jobs(store.db, site.id)]
+    results.refresh(store.db, site.id)
+    assert [r[1]["mark"] for r in results.site_list(store.db, site.id)] == ["X-9", "RB-3", "RB-0", "RB-1"]
+
+
+def test_a_database_from_before_the_list_fields_is_migrated_and_lists_its_beams(tmp_path, monkeypatch):
+    from storage import db as db_module
+
+    path = tmp_path / "old.db"
+    old_migrations = {k: v for k, v in db_module.MIGRATIONS.items() if k < 4}
+    with monkeypatch.context() as m:
+        m.setattr(db_module, "MIGRATIONS", old_migrations)
+        old = Store(path)
+        site, ids = _site(old)
+        results.fresh(old.db, site.id)  # the old site open (a stored result per beam, no list fields)
+        assert old.db.execute("PRAGMA user_version").fetchone()[0] == 3
+        old.close()
+    store = Store(path)  # migration 4 runs
+    assert store.db.execute("PRAGMA user_version").fetchone()[0] == 4
+    assert len(list(results.jobs(store.db, site.id))) == 3  # every result recomputed once to fill the fields
+    results.refresh(store.db, site.id)
+    assert [(r[0], r[1]["mark"], r[1]["level"]) for r in results.site_list(store.db, site.id)] == [
+        (ids[0], "B-0", "Roof"),
+        (ids[1], "B-1", "Roof"),
+        (ids[2], "B-2", "Roof"),
+    ]
+
+
+def test_unraised_lists_only_findings_without_a_deficiency(store):
+    from mobile.viewmodels.site import SiteViewModel
+
+    site = store.create_site(name="Yard")
+    weak = store.save_beam(site.id, glulam(mark="W-1", d_mm=190))  # far too shallow for the line load
+    store.save_beam(site.id, glulam(mark="OK-1"))
+    vm = SiteViewModel(store, site.id)
+    expect = recheck(glulam(mark="W-1", d_mm=190))
+    n = len(expect.findings)
+    assert n >= 1
+    assert vm.unraised() == [f"W-1 ({n} finding{'s' if n > 1 else ''})"]
+    for f in expect.findings:
+        store.raise_deficiency(
+            site.id, weak, f.code, f.priority.value, f"Grid A {f.region or ''}".strip(), f.message, f.clause, f.action
+        )
+    assert vm.unraised() == []
