@@ -8,6 +8,7 @@ from typing import Any
 from pydantic import BaseModel, ConfigDict
 
 from core.kinds import FindingCode, MomentSign, Outcome, TraceStatus
+from core.models import Material
 
 CAUTION = (
     "bracewalk is a recording and recheck aid for a qualified reviewer. Results are advisory and "
@@ -158,7 +159,7 @@ class Recheck(Out):
     def to_json_dict(self) -> dict[str, Any]:
         """The contract-1 JSON object: sawn regions carry ``kzb``, glulam regions ``kzbg``."""
         data = self.model_dump(mode="json")
-        drop = "kzbg" if self.material == "sawn" else "kzb"
+        drop = "kzbg" if self.material == Material.sawn else "kzb"
         for region in data["bending"]:
             region.pop(drop, None)
         return data
