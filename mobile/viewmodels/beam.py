@@ -27,7 +27,7 @@ from core.plausible import PLAUSIBLE
 from core.recheck import recheck
 from core.records import Stage
 from core.remedies import remedies
-from core.results import FactorTrace, Recheck
+from core.results import CheckKind, FactorTrace, Recheck, check_lines
 from mobile.units import LengthRefused, echo_length, read_length, split_spans
 from mobile.viewmodels.common import PRIORITY_LABELS, line_loads_kn_m, status_label
 from storage import StorageError, Store
@@ -427,29 +427,11 @@ class BeamFormViewModel:
         if r is None:
             return [(status_label("unchecked") + ": " + self.recheck_error, None, "")]
         lines: list[tuple[str, float | None, str]] = [(f"Status: {status_label(r.status.value)}", None, "")]
-        for i, b in enumerate(r.bending):
-            kl = "n/a" if b.kl is None else f"{b.kl:.3f}"
-            cb = "n/a" if b.cb is None else f"{b.cb:.1f}"
-            mr = "not established" if b.mr_knm is None else f"{b.mr_knm:.1f}"
-            lines.append(
-                (
-                    f"{b.region} ({b.sign}): KL {kl}  CB {cb}  Mr {mr} vs Mf {b.mf_knm:.1f} kN·m",
-                    b.utilisation,
-                    f"bending{i}",
-                )
-            )
-        lines.append((f"Shear: Vr {r.shear.vr_kn:.1f} vs Vf {r.shear.vf_kn:.1f} kN", r.shear.utilisation, "shear"))
-        for j, q in enumerate(r.bearing):
-            lines.append(
-                (f"Bearing S{q.support}: Qr {q.qr_kn:.1f} vs Qf {q.qf_kn:.1f} kN", q.utilisation, f"bearing{j}")
-            )
-        lines.append(
-            (
-                f"Deflection: {r.deflection.delta_mm:.1f} vs {r.deflection.limit_mm:.1f} mm ({r.deflection.case})",
-                r.deflection.utilisation,
-                "deflection",
-            )
-        )
+        for c in check_lines(r):  # the same lines as the text output and both PDFs
+            text = f"{c.name}: {c.demand} vs {c.capacity}"
+            if c.kind is CheckKind.bending:  # KL and CB beside Mr (the rest is in the trace, on tap)
+                text += f"  ({c.factors})"
+            lines.append((text, c.utilisation, c.key))
         if r.status.value != "ok":  # computed on tap (trace_lines): each option costs several rechecks
             lines.append(("Options for the engineer of record (tap; never a design)", None, REMEDIES_KEY))
         return lines
