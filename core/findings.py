@@ -114,8 +114,8 @@ def bending_findings(beam: Beam, bending: list[BendingRegion]) -> list[Finding]:
                     clause=r.clause,
                 )
             )
-        upper = r.utilisation_if_restrained
-        if r.outcome is Outcome.not_established and upper is not None and upper > 1.0:
+        upper = r.utilisation_if_restrained  # None: not permitted (CB > 50) even with restrained bearings
+        if r.outcome is Outcome.not_established and (upper is None or upper > 1.0):
             bound = (
                 f"even if its bearings were restrained the resistance would be only {r.mr_if_restrained_knm:.1f} kN·m "
                 f"against a factored moment of {r.mf_knm:.1f} kN·m (utilisation {upper:.2f}, {r.combination})"
