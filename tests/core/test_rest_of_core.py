@@ -305,3 +305,162 @@ def test_check_line_of_a_region_not_established_gives_the_upper_bound():
     assert line.utilisation is None
     assert line.capacity.startswith("not established (bearing restraint missing)")
     assert f"at most {r.bending[0].mr_if_restrained_knm:.1f} kN·m if restrained" in line.capacity
+
+
+# -- more of loads, edges and deflection -----------------------------------------------------------------
+def test_companion_snow_of_exactly_one_kn_m_still_counts():
+    # NBC case 2 with its companion: 1.25D + 1.5L + 0.5S = 2.5 + 6.0 + 0.5 = 9.0 kN/m (case 3: 2.5 + 1.5 + 2.0 = 6.0)
+    loads = {"dead_kn_m": 2.0, "live_kn_m": 4.0, "snow_kn_m": 1.0}
+    region = recheck(glulam(self_weight=False, loads=loads, top_edge=DECKED)).bending[0]
+    assert region.combination == "1.25D + 1.5L + 0.5S"
+    assert region.mf_knm == pytest.approx(9.0 * 7.2**2 / 8, rel=1e-9)
+
+
+def test_cantilever_root_takes_1_4d_alone_when_only_dead_load():
+    r = recheck(glulam(spans_mm=[6000], overhang_right_mm=2000, self_weight=False,
+                       loads={"dead_kn_m": 5.0, "live_kn_m": 0.0, "snow_kn_m": 0.0}))  # fmt: skip
+    (negative,) = [b for b in r.bending if b.sign is MomentSign.negative]
+    assert negative.combination == "1.4D"  # NBC case 1: no pattern to name, dead load is everywhere
+    assert negative.dead_load_only
+
+
+def test_largest_span_moment_of_two_spans_loads_that_span_only():
+    # influence lines (handbook): the largest sagging moment in span 1 of two spans has span 1 loaded and
+    # span 2 not; NBC 4.1.3.2 puts 0.9D on the part whose dead load relieves it
+    r = recheck(glulam(spans_mm=[6000, 6000], bearings=[R] * 3))
+    span1 = next(b for b in r.bending if b.region == "span 1")
+    assert "L/S on span 1" in span1.combination
+    assert "0.9D on span 2" in span1.combination
+
+
+@pytest.mark.parametrize(
+    ("d_mm", "top", "bottom", "kl_is_one"),
+    [
+        # O86-19 6.5.3.2.1 (memory): d/b <= 5 with purlins holding the member in line: KL = 1
+        (184, {"braced_by": "purlins", "spacing_mm": 1200, "fastened": True}, None, True),
+        # d/b 4.84 > 4 with nothing on the compression edge: not met, KL < 1 (the glulam method)
+        (184, {"braced_by": "none"}, None, False),
+        # d/b <= 9 with both edges held in line: decking on top, bottom braces at <= 610 mm (reference o86.md 13)
+        (286, DECKED, {"braced_by": "braces", "spacing_mm": 610}, True),
+        (286, DECKED, {"braced_by": "braces", "spacing_mm": 650}, False),
+    ],
+)
+def test_lumber_depth_to_width_tiers(d_mm, top, bottom, kl_is_one):
+    over = {"d_mm": d_mm, "top_edge": top, "spans_mm": [4000]}
+    if bottom is not None:
+        over["bottom_edge"] = bottom
+    region = recheck(sawn(**over)).bending[0]
+    assert (region.kl == 1.0) is kl_is_one, region.kl
+
+
+def test_overhang_deflection_limit_is_on_twice_its_length():
+    # common practice (and the Wood Design Manual's cantilever rule, from memory): a cantilever's limit is
+    # taken on twice its length; roof with no ceiling L/180
+    r = recheck(glulam(spans_mm=[4000], overhang_right_mm=3000))
+    assert r.deflection.element == "overhang right"
+    assert r.deflection.limit_mm == pytest.approx(2 * 3000 / 180, rel=1e-9)
+
+
+def test_a_beam_with_no_load_has_no_deflection():
+    r = recheck(glulam(self_weight=False, loads={"dead_kn_m": 0.0, "live_kn_m": 0.0, "snow_kn_m": 0.0}))
+    assert r.deflection.delta_mm == 0.0
+    assert r.deflection.utilisation == 0.0
+    assert FindingCode.deflection_exceeds_limit not in {f.code for f in r.findings}
+
+
+def test_sawn_upper_bound_if_restrained_by_o86_6_5_3_1():
+    # 38 x 235 S-P-F No.1/No.2 (fb 11.8 MPa, Table 6.4; KZb 1.1, Table 6.13; memory), top unbraced, one bearing
+    # without rotation restraint (d/b 6.2 > 2.5): Mr if restrained = 0.9 fb KD S KZb KL (6.5.3.1), KD 1.0
+    beam = sawn(top_edge={"braced_by": "none"}, bearings=[dict(R, length_mm=89), dict(R, length_mm=89, rotation=False)])
+    region = recheck(beam).bending[0]
+    assert region.outcome is Outcome.not_established
+    assert region.kl_if_restrained is not None
+    assert region.kl_if_restrained < 1.0
+    s = 38.0 * 235.0**2 / 6
+    expected = 0.9 * 11.8 * 1.0 * s * 1.1 * region.kl_if_restrained / 1e6
+    assert region.mr_if_restrained_knm == pytest.approx(expected, rel=1e-9)
+
+
+def test_glulam_with_a_lumber_system_factor_is_refused_by_name():
+    with pytest.raises(ValueError, match=r"system: glulam beams take KH = 1\.0; allowed for glulam: 'single'"):
+        glulam(system="shared")
+
+
+def test_analysis_refuses_a_load_list_of_the_wrong_length():
+    from core.analysis import BeamModel
+
+    model = BeamModel([6000.0, 6000.0])
+    with pytest.raises(ValueError, match=r"w_n_mm has 1 entries; the beam has 2 elements"):
+        model.case((1.0,))
+
+
+# -- a firm's verified or corrected table rows, and the provenance counts ---------------------------------
+def test_a_firm_correction_reaches_the_recheck_and_the_trace():
+    from core import tables
+    from core.overrides import TableRecord
+
+    fixed = TableRecord(table="glulam_grades", row="D.Fir-L/24f-E", by="A. Reviewer", edition="O86-19", page=120,
+                        at="2026-12-01T10:00:00Z", column="fv_mpa", value="1.8", source="firm's copy")  # fmt: skip
+    seen = TableRecord(table="glulam_grades", row="D.Fir-L/20f-E", by="A. Reviewer", edition="O86-19", page=120,
+                       at="2026-12-01T10:00:00Z")  # fmt: skip
+    before = recheck(glulam())
+    try:
+        tables.use_firm_records([fixed, seen])
+        after = recheck(glulam())
+        verified = recheck(glulam(grade="20f-E"))
+    finally:
+        tables.use_firm_records([])
+    # O86-19 7.5.7.2: Vr is proportional to fv, so 1.8 / 2.0 of the printed-table value
+    assert after.shear.vr_kn / before.shear.vr_kn == pytest.approx(1.8 / 2.0, rel=1e-9)
+    grade = next(t for t in after.bending[0].trace if t.symbol == "grade")
+    assert grade.status.value == "verified"
+    assert "fv_mpa corrected to 1.8 (firm's copy) by A. Reviewer against CSA O86-19 p. 120" in grade.source
+    other = next(t for t in verified.bending[0].trace if t.symbol == "grade")
+    assert other.status.value == "verified"
+    assert "verified by A. Reviewer" in other.source
+    assert recheck(glulam()).shear.vr_kn == pytest.approx(before.shear.vr_kn, rel=1e-12)  # records cleared
+
+
+def test_provenance_counts_match_the_csv_files():
+    import csv
+    from importlib import resources
+
+    from core.provenance import provenance_rows
+
+    rows = {line.split(" | ")[0].lstrip("| "): line for line in provenance_rows()[2:]}
+    for name, line in rows.items():
+        text = (resources.files("core") / "data" / f"{name}.csv").read_text()
+        data = list(csv.DictReader(row for row in text.splitlines() if not row.startswith("#")))
+        statuses = [r["status"] for r in data]
+        cells = [c.strip() for c in line.strip("|").split("|")]
+        assert cells[2:6] == [str(len(data)), *(str(statuses.count(s)) for s in ("verified", "confirmed", "memory"))]
+        named = {n for r in data for n in (r.get("confirmed_by") or "").split("; ") if n}
+        assert set(cells[6].split("; ")) - {"-"} == named
+
+
+SIMPLE_UNBRACED = {
+    "mark": "X-3", "material": "glulam", "species": "D.Fir-L", "grade": "24f-E", "b_mm": 80, "d_mm": 456,
+    "spans_mm": [7200], "bearings": [R] * 2, "top_stamp": "up", "use": "roof_no_ceiling",
+    "top_edge": {"braced_by": "none"}, "loads": {"dead_kn_m": 2.0, "live_kn_m": 0.0, "snow_kn_m": 5.0},
+}  # fmt: skip
+
+
+def test_positive_moment_brace_remedy_is_the_largest_fastened_purlin_spacing_that_passes():
+    full = Beam.model_validate(SIMPLE_UNBRACED).model_dump(mode="json")
+    before = recheck(Beam.model_validate(SIMPLE_UNBRACED))
+    assert any(b.outcome is Outcome.overstress for b in before.bending if b.sign is MomentSign.positive)
+    found = [r for r in remedies(Beam.model_validate(SIMPLE_UNBRACED), before) if "top_edge.spacing_mm" in r.change]
+    assert len(found) == 1
+    change = found[0].change
+    assert change["top_edge.braced_by"] == "purlins"
+    assert change["top_edge.fastened"] is True
+    assert "top edge" in found[0].message
+    for path in change:
+        assert _field_exists(path, full), path
+
+    def positive(c):
+        after = recheck(Beam.model_validate(apply_change(full, c)))
+        return max(b.utilisation for b in after.bending if b.sign is MomentSign.positive)
+
+    assert positive(change) <= 1.0
+    assert positive(dict(change, **{"top_edge.spacing_mm": change["top_edge.spacing_mm"] + 50})) > 1.0

@@ -112,7 +112,7 @@ def _capitals_ok(text: str) -> bool:
     return all(word in CAPITALS for word in re.findall(r"\b[A-Z]{3,}\b", text))
 
 
-@pytest.fixture(scope="module", params=sorted(BEAMS))
+@pytest.fixture(params=sorted(BEAMS))  # per test, so the mutation run's test selection sees every recheck
 def case(request):
     beam = BEAMS[request.param]()
     return beam, recheck(beam)
@@ -208,6 +208,44 @@ def test_findings_are_sentences_that_name_the_member(case):
             assert re.match(r"^(Make safe now: |Do not load beyond its present load)", f.action), f.action
 
 
+# O86-19 is arranged by material: clause 6 and its tables for sawn lumber, clause 7 for glulam
+CHECK_CLAUSE = {
+    "glulam": {"bending": r"CSA O86-19 7\.5\.6", "shear": r"CSA O86-19 7\.5\.7", "bearing": r"CSA O86-19 7\.5\.9"},
+    "sawn": {"bending": r"CSA O86-19 6\.5\.3", "shear": r"CSA O86-19 6\.5\.4", "bearing": r"CSA O86-19 6\.5\.6"},
+}
+
+
+def test_each_check_cites_the_clause_for_its_material(case):
+    beam, r = case
+    want = CHECK_CLAUSE[beam.material.value]
+    for b in r.bending:
+        assert re.match(want["bending"], b.clause), b.clause
+    assert re.match(want["shear"], r.shear.clause), r.shear.clause
+    for q in r.bearing:
+        assert re.match(want["bearing"], q.clause), q.clause
+    for b in r.bending:
+        for t in b.trace:
+            if t.symbol == "Fb":
+                assert re.match(want["bending"], t.clause), t.clause
+            if t.symbol == "grade":  # the strength table: Table 6.4 (sawn) or 7.3 (glulam)
+                table = "6.4" if beam.material.value == "sawn" else "7.3"
+                assert t.clause == f"CSA O86-19 Table {table}", t.clause
+
+
+def test_effective_length_row_says_why_it_applies():
+    # O86-19 Table 7.4: the simple-span uniform-load row fits a simple span only; elsewhere the catch-all row
+    simple = recheck(glulam(top_edge={"braced_by": "none"}))
+    two = recheck(glulam(spans_mm=[6000, 6000], bearings=[R] * 3, top_edge={"braced_by": "none"}))
+    (le_simple,) = [t.source for t in simple.bending[0].trace if t.symbol == "Le"]
+    assert le_simple.startswith("effective_length row simple_udl (")
+    assert le_simple.endswith("simple span, uniform load, no intermediate support")
+    le_two = [t.source for b in two.bending for t in b.trace if t.symbol == "Le" and b.sign.value == "positive"]
+    assert le_two
+    for source in le_two:
+        assert source.startswith("effective_length row any (")
+        assert "region of a continuous beam" in source
+
+
 def test_support_labels_count_from_the_left_end():
     beam = glulam(spans_mm=[6000, 6000], bearings=[dict(R, lateral=False)] * 3)
     regions = [f.region for f in recheck(beam).findings if f.code is FindingCode.bearing_restraint_missing]
@@ -246,6 +284,12 @@ def test_uplift_that_lifts_now_says_the_dead_load_alone_lifts_it():
     r = recheck(BEAMS["uplift"]())
     uplift = [f for f in r.findings if f.code is FindingCode.uplift_at_support]
     assert uplift
+    for q in r.bearing:
+        if q.uplift_kn is not None:
+            # NBC 4.1.3.2: uplift governs with 0.9D on the part whose dead load counteracts it
+            assert q.uplift_combination is not None
+            assert "0.9D" in q.uplift_combination
+            assert q.uplift_combination in " ".join(f.message for f in uplift)
     for f in uplift:
         lifts = f.priority is Priority.immediate
         assert ("The specified dead load alone already lifts it off this bearing." in f.message) is lifts
