@@ -43,6 +43,7 @@ BEAMS = {
     "not permitted even if restrained": lambda: glulam(
         b_mm=80, d_mm=912, spans_mm=[12000], top_edge={"braced_by": "none"}, bearings=[dict(R, lateral=False)] * 2
     ),
+    "slender, KL regime (c)": lambda: glulam(b_mm=80, d_mm=912, spans_mm=[8000], top_edge={"braced_by": "none"}),
     "unrecorded fastening and use": lambda: glulam(top_edge={"braced_by": "purlins", "spacing_mm": 2400}, use=None),
     "purlins not fastened": lambda: glulam(top_edge={"braced_by": "purlins", "spacing_mm": 2400, "fastened": False}),
     "substituted grade, deeper drawn": lambda: glulam(
@@ -126,6 +127,8 @@ def test_trace_symbols_units_and_statuses(case):
         assert m.group("symbol") in SYMBOLS, t.symbol
         assert t.unit in UNITS, (t.symbol, t.unit)
         assert t.status in set(TraceStatus), t
+        if t.symbol in ("Lu", "Le") and isinstance(t.value, int | float):
+            assert t.unit == "mm", t  # lengths
         if t.value is None:  # only the upper bound of a member not permitted even if restrained has no value
             assert t.symbol == "Mr (if restrained)", t
             assert "not permitted even if restrained" in t.source
@@ -244,6 +247,58 @@ def test_effective_length_row_says_why_it_applies():
     for source in le_two:
         assert source.startswith("effective_length row any (")
         assert "region of a continuous beam" in source
+
+
+def test_negative_moment_lu_says_a_zero_moment_point_is_not_a_brace():
+    # reference o86.md 13 (Q3): Lu runs between real restraints of the bottom edge by default
+    r = recheck(glulam(spans_mm=[6000, 6000], bearings=[R] * 3))
+    (negative,) = [b for b in r.bending if b.sign.value == "negative"]
+    (lu,) = [t for t in negative.trace if t.symbol == "Lu"]
+    assert re.search(r"\b6000 mm between real restraints of the bottom edge \(a point of zero moment is not a brace\)$",
+                     lu.source)  # fmt: skip
+
+
+def test_slenderness_finding_names_its_region():
+    r = recheck(glulam(b_mm=80, d_mm=912, spans_mm=[12000], top_edge={"braced_by": "none"}))
+    (found,) = [f for f in r.findings if f.code is FindingCode.slenderness_exceeds_limit]
+    assert found.region == "span 1"
+    assert found.clause == "CSA O86-19 7.5.6.4.4"  # CB <= 50
+
+
+def test_unseen_restraint_names_both_restraints_the_standard_requires():
+    # O86-19 7.5.6.3.1: restraint against lateral displacement and against rotation at the bearings
+    r = recheck(glulam(bearings=[dict(R, lateral="not_visible", rotation="not_visible"), R]))
+    (found,) = [f for f in r.findings if f.code is FindingCode.bearing_restraint_missing]
+    assert "restraint against lateral displacement and rotation (rolling over) could not be seen" in found.message
+    assert found.priority is Priority.before_loading
+
+
+def test_shear_method_by_volume_o86_7_5_7():
+    # Z = b d L in m^3 (O86-19 7.5.7): below 2.0 the simple method 7.5.7.2, else Wr against the total load W
+    small = recheck(glulam())
+    (z,) = [t for t in small.shear.trace if t.symbol == "Z"]
+    assert z.value == pytest.approx(0.130 * 0.456 * 7.2, abs=5e-4)
+    assert z.source == "volume below 2.0 m3: simple method permitted"
+    big = recheck(glulam(b_mm=265, d_mm=1216, spans_mm=[8000]))
+    assert 0.265 * 1.216 * 8.0 >= 2.0
+    assert big.shear.method == "volume: Wr vs total factored load W (Z >= 2.0 m3)"
+
+
+def test_self_weight_and_bearing_factor_in_the_trace():
+    r = recheck(glulam())
+    sw = next(t for b in r.bending for t in b.trace if t.symbol == "self-weight")
+    assert sw.value == round(4.9 * 0.130 * 0.456, 4)  # 4.9 kN/m^3 (common practice, from memory) x b x d, kN/m
+    assert sw.unit == "kN/m"
+    kb = next(t for t in r.bearing[0].trace if t.symbol == "KB")
+    assert kb.value == 1.0  # end bearing: KB = 1.0 (O86-19 7.5.9, from memory)
+    assert kb.status is TraceStatus.memory
+
+
+def test_unrecorded_use_takes_the_strictest_limit():
+    # NBC Table 9.4.3.1 (memory): L/360 is the strictest limit; snow governs the deflection here
+    r = recheck(glulam(use=None, self_weight=False, loads={"dead_kn_m": 0.1, "live_kn_m": 0.0, "snow_kn_m": 5.0}))
+    assert r.deflection.limit_mm == pytest.approx(7200 / 360, rel=1e-9)
+    assert r.deflection.case == "L + S"  # the variable loads, not the long-term dead-load check
 
 
 def test_support_labels_count_from_the_left_end():
