@@ -332,6 +332,10 @@ def test_largest_span_moment_of_two_spans_loads_that_span_only():
     span1 = next(b for b in r.bending if b.region == "span 1")
     assert "L/S on span 1" in span1.combination
     assert "0.9D on span 2" in span1.combination
+    # with one dead-load factor on the whole beam (the reviewer's option) the pattern is still named
+    uniform = recheck(glulam(spans_mm=[6000, 6000], bearings=[R] * 3, dead_load_pattern="uniform"))
+    span1 = next(b for b in uniform.bending if b.region == "span 1")
+    assert span1.combination == "1.25D + 1.5S (L/S on span 1)"
 
 
 @pytest.mark.parametrize(
