@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from core import tables
 from core.clauses.stability import bearing_restraint_required
-from core.kinds import FindingCode, MomentSign
+from core.kinds import FindingCode, MomentSign, Outcome
 from core.member import Member
 from core.models import Beam, DeadLoadPattern, Material, NegativeLu, Restraint, TopBracing, TopStamp
 from core.results import (
@@ -79,7 +79,7 @@ def bending_findings(beam: Beam, bending: list[BendingRegion]) -> list[Finding]:
     """Overstress, slenderness over the limit and unbraced compression edges, per region."""
     out = []
     for r in bending:
-        if r.outcome == "not_permitted":
+        if r.outcome is Outcome.not_permitted:
             out.append(
                 Finding(
                     code=FindingCode.slenderness_exceeds_limit,
@@ -96,7 +96,7 @@ def bending_findings(beam: Beam, bending: list[BendingRegion]) -> list[Finding]:
                     clause="CSA O86-19 7.5.6.4.4",
                 )
             )
-        elif r.outcome == "overstress" and r.utilisation is not None and r.mr_knm is not None:
+        elif r.outcome is Outcome.overstress and r.utilisation is not None and r.mr_knm is not None:
             dead_only = r.dead_load_only
             out.append(
                 Finding(
@@ -114,8 +114,8 @@ def bending_findings(beam: Beam, bending: list[BendingRegion]) -> list[Finding]:
                     clause=r.clause,
                 )
             )
-        upper = r.utilisation_if_restrained
-        if r.outcome == "not_established" and upper is not None and upper > 1.0:
+        upper = r.utilisation_if_restrained  # None: not permitted (CB > 50) even with restrained bearings
+        if r.outcome is Outcome.not_established and (upper is None or upper > 1.0):
             bound = (
                 f"even if its bearings were restrained the resistance would be only {r.mr_if_restrained_knm:.1f} kN·m "
                 f"against a factored moment of {r.mf_knm:.1f} kN·m (utilisation {upper:.2f}, {r.combination})"
@@ -437,10 +437,10 @@ def build_findings(
 
 def overall_status(bending: list[BendingRegion], findings: list[Finding]) -> Status:
     """not_established > not_permitted > deficient (any finding to act on) > ok."""
-    outcomes = {r.outcome for r in bending}
-    if "not_established" in outcomes:
+    outcomes = {Outcome(r.outcome) for r in bending}
+    if Outcome.not_established in outcomes:
         return Status.not_established
-    if "not_permitted" in outcomes:
+    if Outcome.not_permitted in outcomes:
         return Status.not_permitted
     if any(f.priority is not Priority.observation for f in findings):
         return Status.deficient

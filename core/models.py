@@ -270,6 +270,17 @@ class Beam(Record):
                 self.specified.species,
                 self.specified.grade,
             )
+        self._check_bearing_count()
+        self._check_edge_spacings()
+        self._check_le_case()
+        self._check_material_limits()
+        total = sum(self.spans_mm) + self.overhang_left_mm + self.overhang_right_mm
+        if total > MAX_SPAN_MM * 2:
+            msg = f"total length {total:g} mm; allowed: <= {MAX_SPAN_MM * 2:g} mm"
+            raise ValueError(msg)
+        return self
+
+    def _check_bearing_count(self) -> None:
         supports = len(self.spans_mm) + 1
         if len(self.bearings) != supports:
             msg = (
@@ -277,6 +288,8 @@ class Beam(Record):
                 f"{supports} (one per support, left to right)"
             )
             raise ValueError(msg)
+
+    def _check_edge_spacings(self) -> None:
         longest = max(self.spans_mm)
         for edge in ("top_edge", "bottom_edge"):
             spacing = getattr(self, edge).spacing_mm
@@ -286,6 +299,8 @@ class Beam(Record):
                     "allowed: 0 < spacing <= longest span"
                 )
                 raise ValueError(msg)
+
+    def _check_le_case(self) -> None:
         if self.le_case not in le_cases_allowed():
             msg = f"le_case = {self.le_case!r}; allowed: {le_cases_allowed()}"
             raise ValueError(msg)
@@ -299,6 +314,8 @@ class Beam(Record):
         if misfit is not None:
             msg = f"le_case = {self.le_case!r} does not fit this beam: {misfit}; allowed: a row that fits, or 'auto'"
             raise ValueError(msg)
+
+    def _check_material_limits(self) -> None:
         if self.material is Material.sawn:
             if self.b_mm > 102:
                 msg = (
@@ -315,18 +332,6 @@ class Beam(Record):
         if self.material is Material.glulam and self.treatment is Treatment.incised:
             msg = "treatment = 'incised' applies to sawn lumber; allowed for glulam: 'none'"
             raise ValueError(msg)
-        total = sum(self.spans_mm) + self.overhang_left_mm + self.overhang_right_mm
-        if total > MAX_SPAN_MM * 2:
-            msg = f"total length {total:g} mm; allowed: <= {MAX_SPAN_MM * 2:g} mm"
-            raise ValueError(msg)
-        return self
-
-    @model_validator(mode="after")
-    def _treatment_fits_material(self) -> Beam:
-        if self.material is Material.glulam and self.treatment is Treatment.incised:
-            msg = "treatment = 'incised' applies to sawn lumber; allowed for glulam: 'none'"
-            raise ValueError(msg)
-        return self
 
 
 def _check_species_grade(f_species: str, f_grade: str, material: Material, species: str, grade: str) -> None:

@@ -15,6 +15,7 @@ from collections.abc import Callable
 from typing import Any
 
 from core import tables
+from core.kinds import FindingCode, MomentSign, Outcome
 from core.models import Beam, Material
 from core.recheck import recheck
 from core.results import Out, Recheck
@@ -74,9 +75,9 @@ def _passes(util: float | None) -> bool:
     return util is not None and util <= 1.0
 
 
-def _bending(sign: str | None) -> Check:
+def _bending(sign: MomentSign | None) -> Check:
     def check(r: Recheck) -> float | None:
-        regions = [b for b in r.bending if sign is None or b.sign == sign]
+        regions = [b for b in r.bending if sign is None or b.sign is sign]
         if any(b.utilisation is None for b in regions):
             return None
         return max((b.utilisation for b in regions if b.utilisation is not None), default=0.0)
@@ -194,7 +195,7 @@ def _load_remedies(beam: Beam, data: dict[str, Any], base: Change, solves: str, 
 
 
 def _restraint_remedy(beam: Beam, data: dict[str, Any], result: Recheck) -> tuple[Change, list[Remedy]]:
-    if not any(r.outcome == "not_established" for r in result.bending):
+    if not any(r.outcome is Outcome.not_established for r in result.bending):
         return {}, []
     base: Change = {}
     for j, b in enumerate(beam.bearings):
@@ -209,11 +210,11 @@ def _restraint_remedy(beam: Beam, data: dict[str, Any], result: Recheck) -> tupl
     ]
 
 
-def _brace_remedy(beam: Beam, data: dict[str, Any], base: Change, sign: str) -> list[Remedy]:
+def _brace_remedy(beam: Beam, data: dict[str, Any], base: Change, sign: MomentSign) -> list[Remedy]:
     solves = f"bending ({sign} moment)"
 
     def make(s: float) -> Change:
-        if sign == "positive":
+        if sign is MomentSign.positive:
             return dict(base, **{"top_edge.braced_by": "purlins", "top_edge.spacing_mm": s, "top_edge.fastened": True})
         return dict(base, **{"bottom_edge.braced_by": "braces", "bottom_edge.spacing_mm": s})
 
@@ -221,8 +222,9 @@ def _brace_remedy(beam: Beam, data: dict[str, Any], base: Change, sign: str) -> 
     if found is None:
         return []
     change, util = found
-    edge = "top edge (fastened purlins or blocking)" if sign == "positive" else "bottom edge (knee braces or blocking)"
-    spacing = change["top_edge.spacing_mm" if sign == "positive" else "bottom_edge.spacing_mm"]
+    top = sign is MomentSign.positive
+    edge = "top edge (fastened purlins or blocking)" if top else "bottom edge (knee braces or blocking)"
+    spacing = change["top_edge.spacing_mm" if top else "bottom_edge.spacing_mm"]
     message = f"brace the {edge} at {spacing:g} mm or closer: {solves} {util:.3f}"
     return [Remedy(solves=solves, change=change, utilisation_after=util, message=message)]
 
@@ -245,21 +247,21 @@ def remedies(beam: Beam, result: Recheck | None = None) -> list[Remedy]:
     data = beam.model_dump(mode="json")
     codes = {f.code for f in result.findings}
     base, out = _restraint_remedy(beam, data, result)
-    for sign in ("positive", "negative"):
-        regions = [r for r in result.bending if r.sign == sign]
-        if not regions or all(r.outcome == "ok" for r in regions) or _passes(_try(data, base, _bending(sign))):
+    for sign in MomentSign:
+        regions = [r for r in result.bending if r.sign is sign]
+        if not regions or all(r.outcome is Outcome.ok for r in regions) or _passes(_try(data, base, _bending(sign))):
             continue
         solves = f"bending ({sign} moment)"
         out += _brace_remedy(beam, data, base, sign)
         out += _size_remedy(beam, data, base, solves, _bending(sign))
         out += _load_remedies(beam, data, base, solves, _bending(sign))
-    if "shear_overstress" in codes:
+    if FindingCode.shear_overstress in codes:
         out += _size_remedy(beam, data, {}, "shear_overstress", _shear)
         out += _load_remedies(beam, data, {}, "shear_overstress", _shear)
     for j, b in enumerate(result.bearing):
         if b.utilisation > 1.0:
             out += _bearing_remedy(beam, data, result, j)
-    if "deflection_exceeds_limit" in codes:
+    if FindingCode.deflection_exceeds_limit in codes:
         out += _size_remedy(beam, data, {}, "deflection_exceeds_limit", _deflection)
         out += _load_remedies(beam, data, {}, "deflection_exceeds_limit", _deflection)
     return out

@@ -8,6 +8,7 @@ from typing import Any
 from pydantic import BaseModel, ConfigDict
 
 from core.kinds import FindingCode, MomentSign, Outcome, TraceStatus
+from core.models import Material
 
 CAUTION = (
     "bracewalk is a recording and recheck aid for a qualified reviewer. Results are advisory and "
@@ -158,7 +159,108 @@ class Recheck(Out):
     def to_json_dict(self) -> dict[str, Any]:
         """The contract-1 JSON object: sawn regions carry ``kzb``, glulam regions ``kzbg``."""
         data = self.model_dump(mode="json")
-        drop = "kzbg" if self.material == "sawn" else "kzb"
+        drop = "kzbg" if self.material == Material.sawn else "kzb"
         for region in data["bending"]:
             region.pop(drop, None)
         return data
+
+
+class CheckKind(StrEnum):
+    """Which check a recheck line reports."""
+
+    bending = "bending"
+    shear = "shear"
+    bearing = "bearing"
+    deflection = "deflection"
+
+
+class CheckLine(Out):
+    """One check of a recheck in the words every output prints (app panel, text, notice, recheck sheet).
+
+    Demand and capacity carry their symbol and unit ("Mf 86.2 kN·m", "Mr 120.4 kN·m"); ``utilisation``
+    is demand over capacity (None when the capacity is not established or not permitted: taken as failing).
+    """
+
+    kind: CheckKind
+    key: str  # "bending0", "shear", "bearing1", "deflection": the check whose trace the line opens
+    name: str  # "bending, span 1 (positive moment)"
+    demand: str
+    capacity: str
+    utilisation: float | None
+    clause: str
+    factors: str = ""  # what the capacity rests on: "Lu 2400 mm, CB 11.15, KL 0.969, KZbg 1.091"; method; length
+    combination: str = ""  # the governing load combination (deflection: the specified-load case)
+
+
+def _opt(x: float | None, fmt: str) -> str:
+    return "n/a" if x is None else format(x, fmt)
+
+
+def _bending_capacity(r: BendingRegion) -> str:
+    if r.outcome is Outcome.not_permitted:
+        return "not permitted as installed (CSA O86-19 slenderness limit)"
+    if r.mr_knm is None:
+        bound = "" if r.mr_if_restrained_knm is None else f"; at most {r.mr_if_restrained_knm:.1f} kN·m if restrained"
+        return "not established (bearing restraint missing)" + bound
+    return f"Mr {r.mr_knm:.1f} kN·m"
+
+
+def _bending_line(i: int, r: BendingRegion) -> CheckLine:
+    lu = "Lu held continuously" if r.lu_mm is None else f"Lu {r.lu_mm:.0f} mm"
+    size = f"KZbg {_opt(r.kzbg, '.3f')}" if r.kzbg is not None else f"KZb {_opt(r.kzb, '.2f')}"
+    return CheckLine(
+        kind=CheckKind.bending,
+        key=f"bending{i}",
+        name=f"bending, {r.region} ({r.sign} moment)",
+        demand=f"Mf {r.mf_knm:.1f} kN·m",
+        capacity=_bending_capacity(r),
+        utilisation=r.utilisation,
+        clause=r.clause,
+        factors=f"{lu}, CB {_opt(r.cb, '.2f')}, KL {_opt(r.kl, '.3f')}, {size}",
+        combination=r.combination,
+    )
+
+
+def _bearing_line(j: int, b: BearingCheck) -> CheckLine:
+    uplift = "" if b.uplift_kn is None else f", factored uplift {b.uplift_kn:.1f} kN ({b.uplift_combination})"
+    return CheckLine(
+        kind=CheckKind.bearing,
+        key=f"bearing{j}",
+        name=f"bearing, support {b.support}",
+        demand=f"Qf {b.qf_kn:.1f} kN",
+        capacity=f"Qr {b.qr_kn:.1f} kN",
+        utilisation=b.utilisation,
+        clause=b.clause,
+        factors=f"bearing length {b.length_mm:g} mm{uplift}",
+        combination=b.combination,
+    )
+
+
+def check_lines(result: Recheck) -> list[CheckLine]:
+    """Every check of a recheck, in order: bending per region, shear, bearing per support, deflection."""
+    s, d = result.shear, result.deflection
+    return [
+        *(_bending_line(i, r) for i, r in enumerate(result.bending)),
+        CheckLine(
+            kind=CheckKind.shear,
+            key="shear",
+            name="shear",
+            demand=f"Vf {s.vf_kn:.1f} kN",
+            capacity=f"Vr {s.vr_kn:.1f} kN",
+            utilisation=s.utilisation,
+            clause=s.clause,
+            factors=s.method,
+            combination=s.combination,
+        ),
+        *(_bearing_line(j, b) for j, b in enumerate(result.bearing)),
+        CheckLine(
+            kind=CheckKind.deflection,
+            key="deflection",
+            name=f"deflection, {d.element}",
+            demand=f"{d.delta_mm:.1f} mm",
+            capacity=f"limit {d.limit_mm:.1f} mm",
+            utilisation=d.utilisation,
+            clause=d.clause,
+            combination=d.case,
+        ),
+    ]

@@ -141,6 +141,37 @@ def echo_length(mm: float) -> str:
     return f"{mm:g} mm = {feet_inches(mm)}"
 
 
+def _is_number(v: Any) -> bool:
+    return isinstance(v, int | float) and not isinstance(v, bool)
+
+
+def _length_checks(data: dict[str, Any]) -> list[tuple[str, str, Any, float | None]]:
+    """(field as named to the user, plausible range, value, a further upper bound) for every length."""
+    raw_spans = data.get("spans_mm")
+    spans: list[Any] = raw_spans if isinstance(raw_spans, list) else []
+    longest = max((s for s in spans if _is_number(s)), default=None)
+    checks: list[tuple[str, str, Any, float | None]] = [
+        ("b_mm", "b_mm", data.get("b_mm"), None),
+        ("d_mm", "d_mm", data.get("d_mm"), None),
+        ("overhang_left_mm", "overhang_mm", data.get("overhang_left_mm"), None),
+        ("overhang_right_mm", "overhang_mm", data.get("overhang_right_mm"), None),
+    ]
+    checks += [(f"spans_mm[{i}]", "span_mm", s, None) for i, s in enumerate(spans)]
+    checks += [
+        (f"{edge}.spacing_mm", "spacing_mm", data[edge].get("spacing_mm"), longest)
+        for edge in ("top_edge", "bottom_edge")
+        if isinstance(data.get(edge), dict)
+    ]
+    bearings = data.get("bearings")
+    if isinstance(bearings, list):
+        checks += [
+            (f"bearings[{i}].length_mm", "bearing_length_mm", b.get("length_mm"), None)
+            for i, b in enumerate(bearings)
+            if isinstance(b, dict)
+        ]
+    return checks
+
+
 def check_beam_json(data: Any) -> None:
     """Hold the lengths of a contract-1 beam (a JSON object, in mm) against their plausible ranges.
 
@@ -149,29 +180,8 @@ def check_beam_json(data: Any) -> None:
     """
     if not isinstance(data, dict):
         return
-
-    def num(v: Any) -> bool:
-        return isinstance(v, int | float) and not isinstance(v, bool)
-
-    raw_spans = data.get("spans_mm")
-    spans: list[Any] = raw_spans if isinstance(raw_spans, list) else []
-    longest = max((s for s in spans if num(s)), default=None)
-    checks: list[tuple[str, str, Any, float | None]] = [
-        ("b_mm", "b_mm", data.get("b_mm"), None),
-        ("d_mm", "d_mm", data.get("d_mm"), None),
-        ("overhang_left_mm", "overhang_mm", data.get("overhang_left_mm"), None),
-        ("overhang_right_mm", "overhang_mm", data.get("overhang_right_mm"), None),
-    ]
-    checks += [(f"spans_mm[{i}]", "span_mm", s, None) for i, s in enumerate(spans)]
-    for edge in ("top_edge", "bottom_edge"):
-        if isinstance(data.get(edge), dict):
-            checks.append((f"{edge}.spacing_mm", "spacing_mm", data[edge].get("spacing_mm"), longest))
-    if isinstance(data.get("bearings"), list):
-        for i, b in enumerate(data["bearings"]):
-            if isinstance(b, dict):
-                checks.append((f"bearings[{i}].length_mm", "bearing_length_mm", b.get("length_mm"), None))
-    for where, kind, value, high in checks:
-        if not num(value):
+    for where, kind, value, high in _length_checks(data):
+        if not _is_number(value):
             continue
         r = PLAUSIBLE[kind]
         top = r.high if high is None else min(r.high, high)

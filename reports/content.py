@@ -8,7 +8,7 @@ from dataclasses import dataclass, field, replace
 from core.models import Beam, BottomBracing, Restraint, TopBracing
 from core.records import Deficiency, Site, Visit
 from core.remedies import remedies
-from core.results import Recheck
+from core.results import CheckLine, Recheck, check_lines
 from reports.tablerows import RowUsed
 
 CAUTIONS = (
@@ -98,15 +98,7 @@ class Photo:
     marks: tuple[Mark, ...] = ()
 
 
-@dataclass(frozen=True)
-class Check:
-    """One check of the recheck in a contractor-readable row: demand against capacity."""
-
-    name: str
-    demand: str
-    capacity: str
-    utilisation: float | None
-    clause: str
+Check = CheckLine  # one check of the recheck, demand against capacity (core.results.check_lines)
 
 
 @dataclass(frozen=True)
@@ -258,56 +250,17 @@ def _range(start: float, stop: float, step: float) -> list[float]:
 
 
 def key_numbers(result: Recheck) -> list[tuple[str, str]]:
-    """The recheck numbers an item prints (KL, CB, Mr vs Mf per region; shear; deflection)."""
+    """The recheck numbers an item prints: the status, then each check line (name, demand vs capacity)."""
     out = [("status", result.status.value.replace("_", " "))]
-    for r in result.bending:
-        kl = (
-            "not established"
-            if r.outcome == "not_established"
-            else ("not permitted" if r.outcome == "not_permitted" else f"{r.kl:.3f}")
-        )
-        cb = "-" if r.cb is None else f"{r.cb:.2f}"
-        mr = "-" if r.mr_knm is None else f"{r.mr_knm:.1f}"
-        util = "-" if r.utilisation is None else f"{r.utilisation:.2f}"
-        out.append(
-            (f"{r.region} ({r.sign})", f"KL {kl}, CB {cb}, Mr {mr} kN·m vs Mf {r.mf_knm:.1f} kN·m, utilisation {util}")
-        )
-    out.append(
-        ("shear", f"Vr {result.shear.vr_kn:.1f} kN vs Vf {result.shear.vf_kn:.1f} kN ({result.shear.utilisation:.2f})")
-    )
-    d = result.deflection
-    out.append(("deflection", f"{d.delta_mm:.1f} mm vs limit {d.limit_mm:.1f} mm ({d.case})"))
+    for c in check_lines(result):
+        util = "-" if c.utilisation is None else f"{c.utilisation:.2f}"
+        out.append((c.name, f"{c.demand} vs {c.capacity}, utilisation {util}"))
     return out
 
 
 def checks_for(result: Recheck) -> list[Check]:
     """Demand vs capacity and utilisation for every check (bending per region, shear, bearing, deflection)."""
-    out = []
-    for r in result.bending:
-        if r.outcome == "not_permitted":
-            cap = "not permitted as installed (CSA O86-19 slenderness limit)"
-        elif r.mr_knm is None:
-            cap = "not established (bearing restraint missing)"
-            if r.mr_if_restrained_knm is not None:
-                cap += f"; at most {r.mr_if_restrained_knm:.1f} kN·m if restrained"
-        else:
-            cap = f"Mr {r.mr_knm:.1f} kN·m"
-        out.append(
-            Check(f"bending, {r.region} ({r.sign} moment)", f"Mf {r.mf_knm:.1f} kN·m", cap, r.utilisation, r.clause)
-        )
-    s = result.shear
-    out.append(Check("shear", f"Vf {s.vf_kn:.1f} kN", f"Vr {s.vr_kn:.1f} kN", s.utilisation, s.clause))
-    for b in result.bearing:
-        out.append(
-            Check(
-                f"bearing, support {b.support}", f"Qf {b.qf_kn:.1f} kN", f"Qr {b.qr_kn:.1f} kN", b.utilisation, b.clause
-            )
-        )
-    d = result.deflection
-    out.append(
-        Check(f"deflection ({d.case})", f"{d.delta_mm:.1f} mm", f"limit {d.limit_mm:.1f} mm", d.utilisation, d.clause)
-    )
-    return out
+    return check_lines(result)
 
 
 def remedy_numbers(beam: Beam | None, result: Recheck) -> list[tuple[str, str]]:

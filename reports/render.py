@@ -25,7 +25,7 @@ from reportlab.platypus import (
     TableStyle,
 )
 
-from core.results import Recheck
+from core.results import Recheck, check_lines
 from reports import stamp
 from reports.content import Item, Notice, Photo, by_member, due_words, one_line, ordered
 from reports.photos import photo_flowable
@@ -491,14 +491,18 @@ def render_recheck_sheet(mark: str, beam_json: dict[str, Any], result: Recheck, 
     ]
     rows = [[Paragraph(esc(k), st["bold"]), Paragraph(esc(v), st["small"])] for k, v in beam_json.items()]
     story.append(_grid(rows, [40 * mm, 146 * mm]))
-    for r in result.bending:
-        story.append(Paragraph(f"Bending, {esc(r.region)} ({esc(r.sign)} moment): {esc(r.outcome)}", st["h2"]))
-        util = "-" if r.utilisation is None else f"{r.utilisation:.3f}"
-        mr = "not established" if r.mr_knm is None else f"{r.mr_knm:.2f} kN·m"
+    lines = check_lines(result)  # the same check lines as the app, the text output and the notice
+    story.append(Paragraph("Checks", st["h2"]))
+    rows = [[Paragraph(h, st["bold"]) for h in ("Check", "Demand", "Capacity", "Utilisation", "Clause")]]
+    for c in lines:
+        util = "not established" if c.utilisation is None else f"{c.utilisation:.3f}"
+        rows.append([Paragraph(esc(x), st["small"]) for x in (c.name, c.demand, c.capacity, util, c.clause)])
+    story.append(_grid(rows, [46 * mm, 30 * mm, 44 * mm, 22 * mm, 44 * mm], shade_first_col=False))
+    for c, r in zip(lines[: len(result.bending)], result.bending, strict=True):  # bending lines come first
+        story.append(Paragraph(f"{esc(c.name)}: {esc(r.outcome)}", st["h2"]))
         story.append(
             Paragraph(
-                f"Mf {r.mf_knm:.2f} kN·m, Mr {esc(mr)}, utilisation {util}; governing "
-                f"{esc(r.combination)}; compression edge: {esc(r.compression_edge)}",
+                f"{esc(c.factors)}; governing {esc(c.combination)}; compression edge: {esc(r.compression_edge)}",
                 st["base"],
             )
         )
@@ -514,39 +518,6 @@ def render_recheck_sheet(mark: str, beam_json: dict[str, Any], result: Recheck, 
             for t in r.trace
         ]
         story.append(_grid(trows, [22 * mm, 24 * mm, 36 * mm, 84 * mm, 20 * mm], shade_first_col=False))
-    s = result.shear
-    story.append(Paragraph("Shear, bearing, deflection", st["h2"]))
-    rows = [[Paragraph(h, st["bold"]) for h in ("Check", "Demand", "Resistance / limit", "Utilisation", "Clause")]]
-    rows.append(
-        [
-            Paragraph(f"shear ({esc(s.method)})", st["small"]),
-            f"{s.vf_kn:.1f} kN",
-            f"{s.vr_kn:.1f} kN",
-            f"{s.utilisation:.3f}",
-            Paragraph(esc(s.clause), st["small"]),
-        ]
-    )
-    for b in result.bearing:
-        rows.append(
-            [
-                f"bearing S{b.support}",
-                f"{b.qf_kn:.1f} kN",
-                f"{b.qr_kn:.1f} kN",
-                f"{b.utilisation:.3f}",
-                Paragraph(esc(b.clause), st["small"]),
-            ]
-        )
-    d = result.deflection
-    rows.append(
-        [
-            Paragraph(f"deflection {esc(d.case)}, {esc(d.element)}", st["small"]),
-            f"{d.delta_mm:.1f} mm",
-            f"{d.limit_mm:.1f} mm",
-            f"{d.utilisation:.3f}",
-            Paragraph(esc(d.clause), st["small"]),
-        ]
-    )
-    story.append(_grid(rows, [46 * mm, 30 * mm, 36 * mm, 24 * mm, 50 * mm], shade_first_col=False))
     story.append(Paragraph("Findings", st["h2"]))
     for f in result.findings or []:
         story.append(

@@ -274,7 +274,7 @@ class BeamScreen(Screen):
             self._panel_shape = shape
         status, *rows = lines
         self._status.text = status[0]
-        self._status.background_color = status_colour(status[0].split(": ", 1)[1])
+        self._status.background_color = status_colour(self.vm.status())
         for (text, util, _key), (line, bar) in zip(rows, self._rows, strict=True):
             line.text = text
             if bar is not None and util is not None:

@@ -36,8 +36,11 @@ class BeamRow(Button):
         App.get_running_app().open_beam(self.beam_id)
 
 
-def list_data(groups: list[tuple[str, list[tuple[str, str, str]]]]) -> list[dict[str, Any]]:
-    """The recycling list's rows: a heading per level (and the pinned group), then its beams."""
+def list_data(groups: list[tuple[str, list[tuple[str, str, str]]]], statuses: dict[str, str]) -> list[dict[str, Any]]:
+    """The recycling list's rows: a heading per level (and the pinned group), then its beams.
+
+    ``statuses`` maps each beam id to its status value (the colour follows the value, not the label).
+    """
     data: list[dict[str, Any]] = []
     for where, rows in groups:
         data.append({"viewclass": "BeamHeading", "text": where if where == PINNED else f"Level: {where}"})
@@ -46,7 +49,7 @@ def list_data(groups: list[tuple[str, list[tuple[str, str, str]]]]) -> list[dict
                 "viewclass": "BeamRow",
                 "beam_id": beam_id,
                 "text": f"{label}      {name}",
-                "background_color": status_colour(label),
+                "background_color": status_colour(statuses[beam_id]),
             }
             for beam_id, name, label in rows
         ]
@@ -98,7 +101,7 @@ class SiteScreen(Screen):
         level = "" if self.ids.level_filter.text == ALL_LEVELS else self.ids.level_filter.text
         status = next((s for s in STATUS_WORDS if status_label(s) == self.ids.status_filter.text), "")
         groups = self.vm.groups(self.ids.search.text, level, status, rows=self._rows)
-        data = list_data(groups)
+        data = list_data(groups, {beam_id: st for beam_id, _, st in self._rows})
         if not data:
             data = [{"viewclass": "BeamHeading", "text": "No beam matches."}]
         self.ids.beam_list.data = data

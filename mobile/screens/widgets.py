@@ -17,6 +17,7 @@ from kivy.uix.label import Label
 from kivy.uix.popup import Popup
 from kivy.uix.scrollview import ScrollView
 
+from core.results import Status
 from mobile.units import parse_length_mm
 
 # ';' (next span) sits in the top row, far from OK; no ',' (the decimal point is '.'); C clears
@@ -212,21 +213,23 @@ class PickField(BoxLayout):
             self.screen.set_now(self.name, text)
 
 
-STATUS_COLOURS = {
-    "OK": (0.1, 0.4, 0.18, 1),
-    "DEFICIENT": (0.62, 0.3, 0.0, 1),
-    "NOT PERMITTED": (0.45, 0.05, 0.3, 1),
-    "NOT ESTABLISHED": (0.7, 0.0, 0.0, 1),
-    "NOT YET CHECKED": (0.35, 0.35, 0.38, 1),
+RGBA = tuple[float, float, float, float]
+UNCHECKED = "unchecked"  # a beam the recheck cannot run on yet (the view models' word for it)
+STATUS_COLOURS: dict[str, RGBA] = {  # keyed by the status enum's values: never by the label's wording
+    Status.ok: (0.1, 0.4, 0.18, 1),
+    Status.deficient: (0.62, 0.3, 0.0, 1),
+    Status.not_permitted: (0.45, 0.05, 0.3, 1),
+    Status.not_established: (0.7, 0.0, 0.0, 1),
+    UNCHECKED: (0.35, 0.35, 0.38, 1),
 }
 
 
-def status_colour(label: str) -> tuple[float, float, float, float]:
-    """Background for a status label (the label's word and shape carry the meaning; colour only helps)."""
-    return next(
-        (c for word, c in STATUS_COLOURS.items() if label.split(" ", 1)[1].startswith(word)),
-        STATUS_COLOURS["NOT YET CHECKED"],
-    )
+def status_colour(status: Status | str) -> RGBA:
+    """Background for a recheck status (core ``Status``, or "unchecked"); its word and shape carry the meaning."""
+    if status not in STATUS_COLOURS:
+        msg = f"status {status!r}; allowed: {', '.join(STATUS_COLOURS)}"
+        raise ValueError(msg)
+    return STATUS_COLOURS[status]
 
 
 def restraint_colour(state: str) -> tuple[float, float, float, float]:

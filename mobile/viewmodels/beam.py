@@ -14,6 +14,7 @@ from __future__ import annotations
 
 import copy
 import re
+from collections.abc import Callable
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -26,7 +27,7 @@ from core.plausible import PLAUSIBLE
 from core.recheck import recheck
 from core.records import Stage
 from core.remedies import remedies
-from core.results import FactorTrace, Recheck
+from core.results import CheckKind, FactorTrace, Recheck, check_lines
 from mobile.units import LengthRefused, echo_length, read_length, split_spans
 from mobile.viewmodels.common import PRIORITY_LABELS, line_loads_kn_m, status_label
 from reports.tablerows import counts, rows_used
@@ -240,106 +241,66 @@ class BeamFormViewModel:
         if name in TEXT_ONLY or name == "mark":
             return {name: text}
         if name in LENGTH_FIELDS:
-            longest = max(rec.get("spans_mm") or [0.0]) or None
-            kind = LENGTH_FIELDS[name]
-            if not text and name.startswith("overhang"):
-                value = 0.0
-            else:
-                value = read_length(kind, text, longest if kind == "spacing_mm" else None)
-            if name == "purlin_spacing_mm":
-                return {"top_edge": dict(rec.get("top_edge") or {}, braced_by="purlins", spacing_mm=value)}
-            if name == "bottom_spacing_mm":
-                return {"bottom_edge": {"braced_by": "braces", "spacing_mm": value}}
-            return {name: value}
-        if name == "spans":
-            spans = [read_length("span_mm", t) for t in split_spans(text)]
-            if not spans:
-                msg = "spans: enter one length per span, separated by ';' (7.2 m; 7.2 m)"
-                raise ValueError(msg)
-            bearings = [dict(b) for b in rec.get("bearings", [])]
-            while len(bearings) < len(spans) + 1:
-                bearings.append({"lateral": None, "rotation": None, "length_mm": None})  # not yet entered
-            return {"spans_mm": spans, "bearings": bearings[: len(spans) + 1]}
+            return _length_entry(name, text, rec)
         if name.startswith("bearing"):
-            idx, key = name[len("bearing") :].split(".")
-            bearings = [dict(b) for b in rec.get("bearings") or []]
-            if not 1 <= int(idx) <= len(bearings):
-                msg = f"support {idx}: the beam has supports 1 to {len(bearings)}"
-                raise ValueError(msg)
-            bearings[int(idx) - 1][key] = read_length("bearing_length_mm", text) if key == "length_mm" else text
-            return {"bearings": bearings}
+            return _bearing_entry(name, text, rec)
         if name in LOAD_FIELDS:
             value = _number(name, text, "line_load_kn_m")
             return {"loads": dict(rec.get("loads") or {}, **{name: value}), "tributary_m": None}
-        if name == "tributary_m":
-            if not text:
-                return {"tributary_m": None}  # cleared: the line loads stay as they are
-            width = _number(name, text, "tributary_m")
-            return {"tributary_m": width, "loads": line_loads_kn_m(self.basis(rec), width)}
-        if name == "load_basis":
-            if text not in self.options("load_basis"):
-                msg = f"load basis {text!r}; allowed: {', '.join(self.options('load_basis'))}"
-                raise ValueError(msg)
-            changes: dict[str, Any] = {"load_basis": None if text == MAIN_BASIS else text}
-            if rec.get("tributary_m") is not None:  # derived loads follow the basis at once
-                changes["loads"] = line_loads_kn_m(self.basis(dict(rec, **changes)), rec["tributary_m"])
-            return changes
-        if name == "material":
-            material = Material(text)
-            species = (
-                rec.get("species") if rec.get("species") in species_allowed(material) else species_allowed(material)[0]
-            )
-            grades = grades_allowed(material, str(species))
-            return {
-                "material": text,
-                "species": species,
-                "grade": rec.get("grade") if rec.get("grade") in grades else grades[0],
-            }
-        if name == "species":
-            grades = grades_allowed(Material(rec.get("material", "glulam")), text)
-            return {
-                "species": text,
-                "grade": rec.get("grade") if rec.get("grade") in grades else (grades[0] if grades else ""),
-            }
-        if name == "top_braced_by":
-            top = dict(rec.get("top_edge") or {}, braced_by=text)
-            if text != "purlins":
-                top["spacing_mm"] = None
-            return {"top_edge": top}
-        if name == "top_fastened":
-            fastened = None if text == NOT_RECORDED else text == "yes"
-            return {"top_edge": dict(rec.get("top_edge") or {}, fastened=fastened)}
-        if name == "bottom_braced_by":
-            bottom = dict(rec.get("bottom_edge") or {}, braced_by=text)
-            if text != "braces":
-                bottom["spacing_mm"] = None
-            return {"bottom_edge": bottom}
-        if name == "specified_size":
-            if not text:
-                return {"specified": None}
-            m = _SIZE.match(text)
-            if not m:
-                msg = "specified_size: enter the drawn size as b x d (130 x 494)"
-                raise ValueError(msg)
-            return {
-                "specified": {
-                    "b_mm": read_length("b_mm", m.group(1)),
-                    "d_mm": read_length("d_mm", m.group(2)),
-                    "species": rec.get("species"),
-                    "grade": rec.get("grade"),
-                }
-            }
-        if name == "use" and text == NOT_RECORDED:
-            return {"use": None}
+        entry = self._entries().get(name)
+        if entry is not None:
+            return entry(text, rec)
         if name in ("grade", "service", "use", "top_stamp"):
-            return {name: text}
+            return {name: None if name == "use" and text == NOT_RECORDED else text}
         msg = f"unknown field {name!r}"
         raise ValueError(msg)
+
+    def _entries(self) -> dict[str, Callable[[str, dict[str, Any]], dict[str, Any]]]:
+        """Fields whose entry changes more than itself (or needs the site): field -> reader."""
+        return {
+            "spans": _spans_entry,
+            "tributary_m": self._tributary_entry,
+            "load_basis": self._basis_entry,
+            "material": _material_entry,
+            "species": _species_entry,
+            "top_braced_by": _top_braced_entry,
+            "top_fastened": _top_fastened_entry,
+            "bottom_braced_by": _bottom_braced_entry,
+            "specified_size": _specified_entry,
+        }
+
+    def _tributary_entry(self, text: str, rec: dict[str, Any]) -> dict[str, Any]:
+        if not text:
+            return {"tributary_m": None}  # cleared: the line loads stay as they are
+        width = _number("tributary_m", text, "tributary_m")
+        return {"tributary_m": width, "loads": line_loads_kn_m(self.basis(rec), width)}
+
+    def _basis_entry(self, text: str, rec: dict[str, Any]) -> dict[str, Any]:
+        if text not in self.options("load_basis"):
+            msg = f"load basis {text!r}; allowed: {', '.join(self.options('load_basis'))}"
+            raise ValueError(msg)
+        changes: dict[str, Any] = {"load_basis": None if text == MAIN_BASIS else text}
+        if rec.get("tributary_m") is not None:  # derived loads follow the basis at once
+            changes["loads"] = line_loads_kn_m(self.basis(dict(rec, **changes)), rec["tributary_m"])
+        return changes
 
     def set_field(self, name: str, text: str) -> bool:
         """Validate and autosave one field; refresh the recheck. False (message kept at the field) if refused."""
         rec = self.record()
         drafts = dict(rec.get("drafts") or {})
+        changes = self._checked_changes(name, text, rec)
+        if changes is not None:
+            return self._accept(name, changes, rec, drafts)
+        if self.is_picker(name):  # a refused pick is not kept: the picker shows the value in force
+            self._refuse_pick(name, text, drafts)
+            return False
+        if drafts.get(name) != text:  # keep what was typed, even though it is refused
+            drafts[name] = text
+            self._save(name, {"drafts": drafts})
+        return False
+
+    def _checked_changes(self, name: str, text: str, rec: dict[str, Any]) -> dict[str, Any] | None:
+        """The entry's changes if the beam stays valid with them; None with the message at the field if not."""
         try:
             changes = self._to_storage(name, text, rec)
             candidate = dict(rec, **changes)
@@ -349,46 +310,47 @@ class BeamFormViewModel:
         except ValidationError as exc:
             self.errors[name] = trade_message(exc)
             self.suggestions.pop(name, None)
+            return None
         except ValueError as exc:
             self.errors[name] = str(exc)
             suggestion = exc.suggestion if isinstance(exc, LengthRefused) else ""
             if suggestion and len(split_spans(text)) > 1:
                 suggestion = ""  # one span of several: the reviewer retypes that one
             self.suggestions[name] = suggestion
-        else:
-            self.errors.pop(name, None)
-            self.suggestions.pop(name, None)
-            # the entry that made the beam valid also settles a picker refused for want of it
-            for settled in {
-                name,
-                "top_braced_by" if name == "purlin_spacing_mm" else "",
-                "bottom_braced_by" if name == "bottom_spacing_mm" else "",
-            } - {""}:
-                drafts.pop(settled, None)
-                self.errors.pop(settled, None)
-            changes = {k: v for k, v in changes.items() if rec.get(k) != v}
-            if drafts != (rec.get("drafts") or {}):
-                changes["drafts"] = drafts
-            if changes:
-                if not self._save(name, changes):
-                    return False
-                self._undo.append({k: rec.get(k) for k in changes})
-            self.refresh()
-            return True
-        if self.is_picker(name):  # a refused pick is not kept: the picker shows the value in force
-            kept = self.form().get(name, "")
-            reason = self.errors[name]
-            if name in ("top_braced_by", "bottom_braced_by") and text in ("purlins", "braces"):
-                where = "Purlins at" if text == "purlins" else "Bottom braces at"
-                reason = f"type their spacing in '{where}' (that also sets this choice)."
-            self.errors[name] = f"Not changed to {words(text)}: {reason} Stays {words(kept)}."
-            if drafts.pop(name, None) is not None:
-                self.store.update_beam(self.beam_id, {"drafts": drafts})
-            return False
-        if drafts.get(name) != text:  # keep what was typed, even though it is refused
-            drafts[name] = text
-            self._save(name, {"drafts": drafts})
-        return False
+            return None
+        return changes
+
+    def _accept(self, name: str, changes: dict[str, Any], rec: dict[str, Any], drafts: dict[str, Any]) -> bool:
+        """Save an accepted entry (with the drafts it settles), keep its undo, refresh the recheck."""
+        self.errors.pop(name, None)
+        self.suggestions.pop(name, None)
+        # the entry that made the beam valid also settles a picker refused for want of it
+        for settled in {
+            name,
+            "top_braced_by" if name == "purlin_spacing_mm" else "",
+            "bottom_braced_by" if name == "bottom_spacing_mm" else "",
+        } - {""}:
+            drafts.pop(settled, None)
+            self.errors.pop(settled, None)
+        changes = {k: v for k, v in changes.items() if rec.get(k) != v}
+        if drafts != (rec.get("drafts") or {}):
+            changes["drafts"] = drafts
+        if changes:
+            if not self._save(name, changes):
+                return False
+            self._undo.append({k: rec.get(k) for k in changes})
+        self.refresh()
+        return True
+
+    def _refuse_pick(self, name: str, text: str, drafts: dict[str, Any]) -> None:
+        kept = self.form().get(name, "")
+        reason = self.errors[name]
+        if name in ("top_braced_by", "bottom_braced_by") and text in ("purlins", "braces"):
+            where = "Purlins at" if text == "purlins" else "Bottom braces at"
+            reason = f"type their spacing in '{where}' (that also sets this choice)."
+        self.errors[name] = f"Not changed to {words(text)}: {reason} Stays {words(kept)}."
+        if drafts.pop(name, None) is not None:
+            self.store.update_beam(self.beam_id, {"drafts": drafts})
 
     def _save(self, name: str, changes: dict[str, Any]) -> bool:
         """Save; if the database is busy (a sync) or cannot be written, say so at the field (the text stays)."""
@@ -436,6 +398,11 @@ class BeamFormViewModel:
             self.result, self.recheck_error = None, f"not yet checked: {exc}"
         return self.result
 
+    def status(self) -> str:
+        """The recheck's status value (core ``Status``), or "unchecked" when the beam cannot be rechecked yet."""
+        r = self.result or self.refresh()
+        return "unchecked" if r is None else r.status.value
+
     def immediate_findings(self) -> list[str]:
         """The findings shown full-width and unmissable."""
         r = self.result or self.refresh()
@@ -461,29 +428,11 @@ class BeamFormViewModel:
         if r is None:
             return [(status_label("unchecked") + ": " + self.recheck_error, None, "")]
         lines: list[tuple[str, float | None, str]] = [(f"Status: {status_label(r.status.value)}", None, "")]
-        for i, b in enumerate(r.bending):
-            kl = "n/a" if b.kl is None else f"{b.kl:.3f}"
-            cb = "n/a" if b.cb is None else f"{b.cb:.1f}"
-            mr = "not established" if b.mr_knm is None else f"{b.mr_knm:.1f}"
-            lines.append(
-                (
-                    f"{b.region} ({b.sign}): KL {kl}  CB {cb}  Mr {mr} vs Mf {b.mf_knm:.1f} kN·m",
-                    b.utilisation,
-                    f"bending{i}",
-                )
-            )
-        lines.append((f"Shear: Vr {r.shear.vr_kn:.1f} vs Vf {r.shear.vf_kn:.1f} kN", r.shear.utilisation, "shear"))
-        for j, q in enumerate(r.bearing):
-            lines.append(
-                (f"Bearing S{q.support}: Qr {q.qr_kn:.1f} vs Qf {q.qf_kn:.1f} kN", q.utilisation, f"bearing{j}")
-            )
-        lines.append(
-            (
-                f"Deflection: {r.deflection.delta_mm:.1f} vs {r.deflection.limit_mm:.1f} mm ({r.deflection.case})",
-                r.deflection.utilisation,
-                "deflection",
-            )
-        )
+        for c in check_lines(r):  # the same lines as the text output and both PDFs
+            text = f"{c.name}: {c.demand} vs {c.capacity}"
+            if c.kind is CheckKind.bending:  # KL and CB beside Mr (the rest is in the trace, on tap)
+                text += f"  ({c.factors})"
+            lines.append((text, c.utilisation, c.key))
         if r.status.value != "ok":  # computed on tap (trace_lines): each option costs several rechecks
             lines.append(("Options for the engineer of record (tap; never a design)", None, REMEDIES_KEY))
         return lines
@@ -675,3 +624,85 @@ def _number(name: str, text: str, kind: str) -> float:
         msg = f"{name} = {value:g} {r.unit}: allowed {r.low:g} to {r.high:g} {r.unit} ({r.source})"
         raise ValueError(msg)
     return value
+
+
+# -- readers of one form entry (text -> the stored fields it changes) ----------------------------
+def _length_entry(name: str, text: str, rec: dict[str, Any]) -> dict[str, Any]:
+    longest = max(rec.get("spans_mm") or [0.0]) or None
+    kind = LENGTH_FIELDS[name]
+    if not text and name.startswith("overhang"):
+        value = 0.0
+    else:
+        value = read_length(kind, text, longest if kind == "spacing_mm" else None)
+    if name == "purlin_spacing_mm":
+        return {"top_edge": dict(rec.get("top_edge") or {}, braced_by="purlins", spacing_mm=value)}
+    if name == "bottom_spacing_mm":
+        return {"bottom_edge": {"braced_by": "braces", "spacing_mm": value}}
+    return {name: value}
+
+
+def _spans_entry(text: str, rec: dict[str, Any]) -> dict[str, Any]:
+    spans = [read_length("span_mm", t) for t in split_spans(text)]
+    if not spans:
+        msg = "spans: enter one length per span, separated by ';' (7.2 m; 7.2 m)"
+        raise ValueError(msg)
+    bearings = [dict(b) for b in rec.get("bearings", [])]
+    while len(bearings) < len(spans) + 1:
+        bearings.append({"lateral": None, "rotation": None, "length_mm": None})  # not yet entered
+    return {"spans_mm": spans, "bearings": bearings[: len(spans) + 1]}
+
+
+def _bearing_entry(name: str, text: str, rec: dict[str, Any]) -> dict[str, Any]:
+    idx, key = name[len("bearing") :].split(".")
+    bearings = [dict(b) for b in rec.get("bearings") or []]
+    if not 1 <= int(idx) <= len(bearings):
+        msg = f"support {idx}: the beam has supports 1 to {len(bearings)}"
+        raise ValueError(msg)
+    bearings[int(idx) - 1][key] = read_length("bearing_length_mm", text) if key == "length_mm" else text
+    return {"bearings": bearings}
+
+
+def _material_entry(text: str, rec: dict[str, Any]) -> dict[str, Any]:
+    material = Material(text)
+    species = rec.get("species") if rec.get("species") in species_allowed(material) else species_allowed(material)[0]
+    grades = grades_allowed(material, str(species))
+    return {
+        "material": text,
+        "species": species,
+        "grade": rec.get("grade") if rec.get("grade") in grades else grades[0],
+    }
+
+
+def _species_entry(text: str, rec: dict[str, Any]) -> dict[str, Any]:
+    grades = grades_allowed(Material(rec.get("material", "glulam")), text)
+    return {"species": text, "grade": rec.get("grade") if rec.get("grade") in grades else (grades[0] if grades else "")}
+
+
+def _top_braced_entry(text: str, rec: dict[str, Any]) -> dict[str, Any]:
+    top = dict(rec.get("top_edge") or {}, braced_by=text)
+    if text != "purlins":
+        top["spacing_mm"] = None
+    return {"top_edge": top}
+
+
+def _top_fastened_entry(text: str, rec: dict[str, Any]) -> dict[str, Any]:
+    fastened = None if text == NOT_RECORDED else text == "yes"
+    return {"top_edge": dict(rec.get("top_edge") or {}, fastened=fastened)}
+
+
+def _bottom_braced_entry(text: str, rec: dict[str, Any]) -> dict[str, Any]:
+    bottom = dict(rec.get("bottom_edge") or {}, braced_by=text)
+    if text != "braces":
+        bottom["spacing_mm"] = None
+    return {"bottom_edge": bottom}
+
+
+def _specified_entry(text: str, rec: dict[str, Any]) -> dict[str, Any]:
+    if not text:
+        return {"specified": None}
+    m = _SIZE.match(text)
+    if not m:
+        msg = "specified_size: enter the drawn size as b x d (130 x 494)"
+        raise ValueError(msg)
+    size = {"b_mm": read_length("b_mm", m.group(1)), "d_mm": read_length("d_mm", m.group(2))}
+    return {"specified": {**size, "species": rec.get("species"), "grade": rec.get("grade")}}

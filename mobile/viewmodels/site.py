@@ -24,7 +24,6 @@ NEW_BEAM_DEFAULTS: dict[str, Any] = {
 }
 LEVEL_NOT_RECORDED = "level not recorded"
 PINNED = "▲ IMMEDIATE open: pinned"  # beams with an open IMMEDIATE deficiency, shown first (also under their level)
-COPIED_FROM_LAST = ("material", "species", "grade", "b_mm", "d_mm", "service", "use", "top_stamp", "level")
 
 
 @dataclass

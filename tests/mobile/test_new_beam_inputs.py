@@ -1,0 +1,72 @@
+"""A new beam carries nothing over from the last beam on the site.
+
+The stamp and the use are unfavourable until entered (O86-19 Table 7.3 note: weaker face in tension;
+NBC Table 9.4.3.1: the strictest limit, L/360), each said in a finding; copying another beam is the
+reviewer's explicit action.
+"""
+
+import pytest
+
+from core.kinds import FindingCode
+from core.results import Status
+from mobile.demo.run import load_demo
+from mobile.viewmodels import BeamFormViewModel, SiteViewModel
+from storage import Store
+
+ENTRIES = {  # everything a recheck needs except the stamp and the use
+    "material": "glulam", "species": "D.Fir-L", "grade": "20f-E", "b_mm": "130", "d_mm": "456", "spans": "7.2 m",
+    "bearing1.lateral": "yes", "bearing1.rotation": "yes", "bearing1.length_mm": "140",
+    "bearing2.lateral": "yes", "bearing2.rotation": "yes", "bearing2.length_mm": "140",
+    "top_braced_by": "decking", "top_fastened": "yes", "dead_kn_m": "2", "snow_kn_m": "3",
+}  # fmt: skip
+
+
+@pytest.fixture
+def site(tmp_path):
+    store = Store(tmp_path / "a.db")
+    site_id = load_demo(store)
+    return store, site_id
+
+
+def _last_beam_with_favourable_inputs(store, site_id):
+    beam_id = SiteViewModel(store, site_id).new_beam()
+    form = BeamFormViewModel(store, site_id, beam_id)
+    for name, text in {**ENTRIES, "top_stamp": "up", "use": "roof_no_ceiling"}.items():
+        assert form.set_field(name, text), (name, form.errors)
+    return beam_id
+
+
+def test_new_beam_does_not_take_stamp_or_use_from_the_last_beam(site):
+    store, site_id = site
+    last = _last_beam_with_favourable_inputs(store, site_id)
+    assert store.beam_record(last)["top_stamp"] == "up"
+    new = SiteViewModel(store, site_id).new_beam()
+    rec = store.beam_record(new)
+    assert rec.get("top_stamp") in (None, "not_visible")
+    assert rec.get("use") is None
+    form = BeamFormViewModel(store, site_id, new)
+    assert form.form()["use"] == "not recorded"
+    assert form.form()["top_stamp"] == "not_visible"
+    for name, text in ENTRIES.items():
+        assert form.set_field(name, text), (name, form.errors)
+    r = form.refresh()
+    assert r is not None
+    # NBC Table 9.4.3.1: the strictest limit, L/360 of 7200 mm, until the use is entered
+    assert r.deflection.limit_mm <= 7200 / 360 + 1e-9
+    codes = [f.code for f in r.findings]
+    assert FindingCode.input_assumed in codes  # the use, assumed
+    assert FindingCode.layup_inverted in codes  # the stamp of the unbalanced 20f-E, assumed down (weaker face)
+    assert r.bending[0].fb_mpa == pytest.approx(19.2)  # 20f-E fb negative face (O86-19 Table 7.3, memory), KD 1
+    assert form.status() == r.status.value
+    assert form.status() in {s.value for s in Status}
+
+
+def test_copy_from_is_the_explicit_way_to_take_them(site):
+    store, site_id = site
+    last = _last_beam_with_favourable_inputs(store, site_id)
+    new = SiteViewModel(store, site_id).new_beam()
+    form = BeamFormViewModel(store, site_id, new)
+    form.copy_from(last)
+    rec = store.beam_record(new)
+    assert rec["top_stamp"] == "up"
+    assert rec["use"] == "roof_no_ceiling"
