@@ -107,6 +107,17 @@ MIGRATIONS: dict[int, list[str]] = {
         """CREATE TRIGGER IF NOT EXISTS beam_result_table_gone AFTER DELETE ON table_row BEGIN
             UPDATE beam_result SET input_hash = ''; END""",
     ],
+    # 4: device identity and trust (storage/identity.py): op signatures, this device's key, the devices the
+    # office hub lists with their public keys, and pulled ops whose signature did not verify
+    4: [
+        "CREATE TABLE IF NOT EXISTS op_sig (origin TEXT NOT NULL, seq INTEGER NOT NULL, sig TEXT NOT NULL, "
+        "PRIMARY KEY (origin, seq)) WITHOUT ROWID",
+        "CREATE TABLE IF NOT EXISTS device_key (key TEXT PRIMARY KEY, value TEXT NOT NULL)",
+        "CREATE TABLE IF NOT EXISTS trusted_device (device_id TEXT PRIMARY KEY, public_key TEXT NOT NULL, "
+        "name TEXT NOT NULL, revoked_ms INTEGER, at_ms INTEGER NOT NULL)",
+        "CREATE TABLE IF NOT EXISTS pull_quarantine (origin TEXT NOT NULL, seq INTEGER NOT NULL, op TEXT NOT NULL, "
+        "sig TEXT NOT NULL, reason TEXT NOT NULL, at_ms INTEGER NOT NULL, PRIMARY KEY (origin, seq))",
+    ],
 }
 
 

@@ -7,12 +7,14 @@ import shutil
 import zipfile
 
 import pytest
+from cryptography.hazmat.primitives.asymmetric.ed25519 import Ed25519PrivateKey
 from hypothesis import settings
 from hypothesis import strategies as st
 from hypothesis.stateful import RuleBasedStateMachine, invariant, rule
 
 from storage import Store
-from storage.bundle import BundleRefused, export_bundle, import_bundle, verify_bundle
+from storage.bundle import MANIFEST_SIG_PREFIX, BundleRefused, export_bundle, import_bundle, verify_bundle
+from storage.identity import b64
 from tests.core.beams import glulam
 
 
@@ -95,12 +97,15 @@ def test_tampered_bundle_refused_whole(pair, mutation):
                     z.writestr(info.filename, src.read(info.filename))
                     if mutation == "dup_entry" and info.filename == "ops.jsonl":
                         z.writestr(info.filename, src.read(info.filename))
+                    if mutation == "wrong_key" and info.filename == "manifest.sig":
+                        continue  # signed again below by a key that is not the exporter's
                 if mutation == "extra_entry":
                     z.writestr("extra.txt", b"hello")
+                if mutation == "wrong_key":
+                    other = Ed25519PrivateKey.generate()
+                    z.writestr("manifest.sig", b64(other.sign(MANIFEST_SIG_PREFIX + src.read("manifest.json"))))
         raw = buf.getvalue()
     (tmp / "t.zip").write_bytes(raw)
-    if mutation == "wrong_key":
-        b.db.execute("UPDATE meta SET value='another-firm' WHERE key='firm_key'")
     before = _db_bytes(b)
     report = import_bundle(b, tmp / "t.zip")
     if mutation == "flip" and report.outcome == "applied":
