@@ -37,6 +37,7 @@ from storage.oplog import (
     SEQ_MAX,
     WALL_MS_MAX,
     Op,
+    OpKind,
     ProjectionBatch,
     apply_op,
     canonical,
@@ -164,9 +165,10 @@ class _Exporter:
         """The op's signature: the stored one, or (for this device's own op) made now; None: not relayable."""
         if stored:
             return stored
-        if origin != self.store.device_id:
+        if origin not in (self.store.device_id, identity.DEMO_ORIGIN):
             return None
-        sig = identity.b64(self.key.sign(OP_SIG_PREFIX + line.encode()))
+        key = self.key if origin == self.store.device_id else identity.demo_key()  # the demo, only when asked
+        sig = identity.b64(key.sign(OP_SIG_PREFIX + line.encode()))
         part.signed_now.append((origin, seq, sig))
         return sig
 
@@ -227,15 +229,20 @@ def part_path(out: Path, n: int) -> Path:
 
 
 def export_bundle(
-    store: Store, out: str | Path, peer: str | None = None, progress: Progress | None = None
+    store: Store,
+    out: str | Path,
+    peer: str | None = None,
+    progress: Progress | None = None,
+    include_demo: bool = False,
 ) -> dict[str, Any]:
     """Write the ops ``peer`` has not seen (all ops when peer is None) and their blobs to ``out``.
 
     ``progress(fraction, what)`` is called as the work goes (for a progress bar). Returns the
     manifest; when the changes exceed ``PART_OPS`` they go in several files (``export_bundles``)
     and the manifest returned is the last one's, with ``op_count`` summed over the parts.
+    Changes to the built-in demo site stay on the device unless ``include_demo``.
     """
-    manifests = export_bundles(store, out, peer=peer, progress=progress)
+    manifests = export_bundles(store, out, peer=peer, progress=progress, include_demo=include_demo)
     if len(manifests) == 1:
         return manifests[0]
     return dict(manifests[-1], op_count=sum(m["op_count"] for m in manifests), parts=len(manifests))
@@ -247,11 +254,13 @@ def export_bundles(
     peer: str | None = None,
     progress: Progress | None = None,
     part_ops: int = PART_OPS,
+    include_demo: bool = False,
 ) -> list[dict[str, Any]]:
     """Write the changes as one or more bundles of at most ``part_ops`` ops each, to import in order.
 
     Ops stream from their stored canonical text (nothing is decoded and re-encoded), and one part
-    is held in memory at a time, so no file written can exceed what import accepts.
+    is held in memory at a time, so no file written can exceed what import accepts. The demo site's
+    changes (``identity.DEMO_ORIGIN``) are left out unless ``include_demo``.
     """
     tell = progress or _silent
     tell(0.0, "reading changes")
@@ -262,15 +271,18 @@ def export_bundles(
     if peer:
         cursor = dict(store.db.execute("SELECT origin, seq FROM peer_cursor WHERE peer=?", [peer]).fetchall())
     vector = dict(store.db.execute("SELECT origin, seq FROM seen").fetchall())
+    if not include_demo:
+        vector.pop(identity.DEMO_ORIGIN, None)
     total = int(store.db.execute("SELECT count(*) FROM op").fetchone()[0]) or 1
     manifests: list[dict[str, Any]] = []
     written: list[tuple[Path, str, int]] = []
     done = 0
     key = identity.device_key(store.db)
-    for n, part in enumerate(_parts(store, cursor, part_ops, _keep_all), start=1):
+    for n, part in enumerate(_parts(store, cursor, part_ops, _keep_all if include_demo else _not_demo), start=1):
         path = part_path(out, n)
         tell(min(0.95, done / total), f"writing {path.name}")
-        manifest, sha = _write_part(store, path, part, vector, key)
+        demo_only = set(part.ranges) == {identity.DEMO_ORIGIN}  # asked for: opens in any demo database
+        manifest, sha = _write_part(store, path, part, vector, identity.demo_key() if demo_only else key)
         _keep_signatures(store, part.signed_now)
         manifests.append(manifest)
         written.append((path, sha, len(part.lines)))
@@ -293,6 +305,10 @@ def export_bundles(
 
 def _keep_all(_origin: str) -> bool:
     return True
+
+
+def _not_demo(origin: str) -> bool:
+    return origin != identity.DEMO_ORIGIN
 
 
 def _keep_signatures(store: Store, signed: list[tuple[str, int, str]]) -> None:
@@ -634,7 +650,7 @@ def _check_integrity(store: Store, ops: list[Op], sender: str) -> int | None:
                 msg = f"integrity: op {op.origin}:{op.seq} already held with different content{hint}"
                 raise BundleRefused(msg)
             continue
-        if op.kind != "insert":
+        if op.kind != OpKind.INSERT:
             continue
         chash = content_hash(op.payload)
         key = (op.entity, op.record_id)

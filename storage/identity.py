@@ -29,6 +29,14 @@ IDENTITY_TABLES = tuple(MIGRATIONS[4])  # created by the migration; kept idempot
 # DEMO ONLY: the marked key that signs the built-in demo's bundles. Its private half is in the source, so
 # only a demo database (firm key DEMO_FIRM_KEY) trusts it; a real database never does.
 DEMO_KEY_SEED = hashlib.sha256(b"bracewalk demo device key - DEMO ONLY, never a firm's").digest()
+# DEMO ONLY: the origin of every change to the built-in demo site, whatever device makes it. Its ops leave a
+# device (bundle or hub) only when asked, so the demo never mixes with a firm's work.
+DEMO_ORIGIN = "00000000-0000-4000-8000-00000000de30"
+
+
+def demo_key() -> Ed25519PrivateKey:
+    """The marked demo key (DEMO ONLY: its private half is in the source)."""
+    return Ed25519PrivateKey.from_private_bytes(DEMO_KEY_SEED)
 
 
 class SignatureError(ValueError):
@@ -169,7 +177,8 @@ def save_enrolment(
 def op_signatures(db: sqlite_utils.Database, ops: list[Op], key: Ed25519PrivateKey, self_origin: str) -> list[str]:
     """Signatures of ``ops``: stored ones, or signed now (and stored) for this device's own ops.
 
-    Ops of other origins must carry the signature their origin made (relayed as received).
+    Ops of other origins must carry the signature their origin made (relayed as received); changes to
+    the demo site (``DEMO_ORIGIN``, sent only when asked) are signed with the marked demo key.
     """
     ensure_tables(db)
     out = []
@@ -179,10 +188,10 @@ def op_signatures(db: sqlite_utils.Database, ops: list[Op], key: Ed25519PrivateK
             if row:
                 out.append(str(row[0]))
                 continue
-            if op.origin != self_origin:
+            if op.origin not in (self_origin, DEMO_ORIGIN):
                 msg = f"op {op.origin[:8]}:{op.seq} of another device has no signature to relay"
                 raise SignatureError(msg)
-            sig = sign_op(key, op)
+            sig = sign_op(key if op.origin == self_origin else demo_key(), op)
             db.execute("INSERT INTO op_sig VALUES (?, ?, ?)", [op.origin, op.seq, sig])
             out.append(sig)
     return out
@@ -195,7 +204,7 @@ def device_key(db: sqlite_utils.Database) -> Ed25519PrivateKey:
     """
     ensure_tables(db)
     if _is_demo(db):
-        return Ed25519PrivateKey.from_private_bytes(DEMO_KEY_SEED)
+        return demo_key()
     raw = _get(db, "private_key")
     if raw:
         return Ed25519PrivateKey.from_private_bytes(unb64(raw))
@@ -271,10 +280,15 @@ def trusted_key(db: sqlite_utils.Database, device_id: str, allow_revoked: bool =
     ensure_tables(db)
     if device_id == own_device_id(db):
         return device_key(db).public_key()
+    if device_id == DEMO_ORIGIN:
+        if _is_demo(db):
+            return demo_key().public_key()
+        msg = "changes to the built-in demo site are accepted only by a demo database"
+        raise UnknownDevice(msg)
     row = db.execute("SELECT public_key, revoked_ms FROM trusted_device WHERE device_id=?", [device_id]).fetchone()
     if row is None:
         if _is_demo(db):
-            return Ed25519PrivateKey.from_private_bytes(DEMO_KEY_SEED).public_key()
+            return demo_key().public_key()
         msg = f"device {device_id[:40]} is not enrolled at the office hub this tablet knows (sync with the hub first)"
         raise UnknownDevice(msg)
     if row[1] is not None and not allow_revoked:

@@ -18,7 +18,7 @@ from core.overrides import TableRecord
 from core.records import Deficiency, IssuedNotice, Site, Stage, StatusEvent, Visit
 from core.results import PRIORITY_ORDER
 from storage.clock import HLC_MAX
-from storage.oplog import MAX_ID_CHARS, Op, canonical
+from storage.oplog import MAX_ID_CHARS, Op, OpKind, canonical
 
 SHA256 = re.compile(r"^[0-9a-f]{64}$")
 MAX_VALUE_CHARS = 100_000  # one field's canonical JSON (a long description fits easily)
@@ -180,9 +180,9 @@ def _check_insert(op: Op) -> None:
 
 def check_op_record(op: Op) -> None:
     """Raise RecordInvalid (naming record and field) unless the op's content is what a local save writes."""
-    if op.kind == "set":
+    if op.kind == OpKind.SET:
         _check_set(op)
-    elif op.kind == "status":
+    elif op.kind == OpKind.STATUS:
         _check_status(op)
     else:
         _check_insert(op)
