@@ -149,6 +149,7 @@ class _Part:
     lines: list[str] = field(default_factory=list)
     sigs: list[str] = field(default_factory=list)
     signed_now: list[tuple[str, int, str]] = field(default_factory=list)  # own ops first signed by this export
+    checked_now: list[tuple[str, int]] = field(default_factory=list)  # relayed signatures verified by this export
     ranges: dict[str, list[int]] = field(default_factory=dict)
     shas: set[str] = field(default_factory=set)
 
@@ -162,7 +163,17 @@ class _Exporter:
     revoked: set[str]
 
     def signature(self, origin: str, seq: int, line: str, stored: str | None, part: _Part) -> str | None:
-        """The op's signature: the stored one, or (for this device's own op) made now; None: not relayable."""
+        """The op's signature: the stored one, or (for this device's own op) made now; None: not relayable.
+
+        A stored signature that arrived unchecked is verified now, before it is passed on.
+        """
+        if (
+            stored
+            and self.store.db.execute(
+                "SELECT 1 FROM op_sig_unchecked WHERE origin=? AND seq=?", [origin, seq]
+            ).fetchone()
+        ):
+            return stored if self._verifies(origin, seq, line, stored, part) else None
         if stored:
             return stored
         if origin not in (self.store.device_id, identity.DEMO_ORIGIN):
@@ -171,6 +182,16 @@ class _Exporter:
         sig = identity.b64(key.sign(OP_SIG_PREFIX + line.encode()))
         part.signed_now.append((origin, seq, sig))
         return sig
+
+    def _verifies(self, origin: str, seq: int, line: str, sig: str, part: _Part) -> bool:
+        """Check a signature that arrived unchecked, by its origin's key; remember it once it verified."""
+        try:
+            key = identity.trusted_key(self.store.db, origin, allow_revoked=True)
+            key.verify(identity.unb64(sig), OP_SIG_PREFIX + line.encode())
+        except (SignatureError, InvalidSignature):
+            return False
+        part.checked_now.append((origin, seq))
+        return True
 
 
 def _parts(store: Store, cursor: dict[str, int], part_ops: int, include: Callable[[str], bool]) -> Any:
@@ -283,7 +304,7 @@ def export_bundles(
         tell(min(0.95, done / total), f"writing {path.name}")
         demo_only = set(part.ranges) == {identity.DEMO_ORIGIN}  # asked for: opens in any demo database
         manifest, sha = _write_part(store, path, part, vector, identity.demo_key() if demo_only else key)
-        _keep_signatures(store, part.signed_now)
+        _keep_signatures(store, part.signed_now, part.checked_now)
         manifests.append(manifest)
         written.append((path, sha, len(part.lines)))
         done += len(part.lines)
@@ -311,11 +332,12 @@ def _not_demo(origin: str) -> bool:
     return origin != identity.DEMO_ORIGIN
 
 
-def _keep_signatures(store: Store, signed: list[tuple[str, int, str]]) -> None:
+def _keep_signatures(store: Store, signed: list[tuple[str, int, str]], checked: list[tuple[str, int]]) -> None:
     """Keep the signatures an export made for this device's ops (an op is signed once in its life)."""
-    if signed:
+    if signed or checked:
         with transaction(store.db):
             store.db.conn.executemany("INSERT OR IGNORE INTO op_sig VALUES (?, ?, ?)", signed)
+            store.db.conn.executemany("DELETE FROM op_sig_unchecked WHERE origin=? AND seq=?", checked)
 
 
 def _lines(items: list[str]) -> bytes:
@@ -592,10 +614,16 @@ def _check_op_content(store: Store, ops: list[Op]) -> None:
             raise BundleRefused(msg) from exc
 
 
-def _check_op_signatures(store: Store, ops: list[Op], sigs: list[str]) -> None:
-    """Every op verifies by its origin device's key (relayed ops by their own origin's, not the exporter's)."""
+def _check_op_signatures(store: Store, ops: list[Op], sigs: list[str], exporter: str) -> None:
+    """Every relayed op verifies by its own origin device's key, not the exporter's.
+
+    The exporter's own ops are covered by its manifest signature (over the ops' hash); their per-op
+    signatures are kept unchecked and verified when relayed onward (``op_sig_unchecked``).
+    """
     keys: dict[str, Any] = {}
     for op, sig in zip(ops, sigs, strict=True):
+        if op.origin == exporter:
+            continue
         try:
             if op.origin not in keys:
                 keys[op.origin] = identity.trusted_key(store.db, op.origin)
@@ -616,7 +644,7 @@ def verify_bundle(store: Store, data: bytes) -> _Verified:
     manifest = _signed_manifest(store, z, by_name)
     body, sig_body, blobs = _entries(z, by_name, manifest)
     ops, sigs = _parse_ops(body, sig_body, manifest["op_count"])
-    _check_op_signatures(store, ops, sigs)
+    _check_op_signatures(store, ops, sigs, manifest["origin"])
     _check_op_content(store, ops)
     rebase_from = _check_integrity(store, ops, manifest["origin"])
     _check_ranges(store, manifest, ops, rebase_from)
@@ -808,14 +836,22 @@ def _merge_batch(store: Store, v: _Verified, start: int, tell: Progress) -> int:
             new += 1
     batch.flush()
     if v.sigs:
-        sigs = v.sigs[start : start + BATCH_OPS]
-        store.db.conn.executemany(
-            "INSERT OR IGNORE INTO op_sig VALUES (?, ?, ?)",
-            [(op.origin, op.seq, sig) for op, sig in zip(chunk, sigs, strict=True)],
-        )
+        _keep_received_signatures(store, chunk, v.sigs[start : start + BATCH_OPS], v.manifest["origin"])
     if newest:
         store.observe_hlc(newest)  # the clock passes every stamp received (once a batch, not per op)
     return new
+
+
+def _keep_received_signatures(store: Store, ops: list[Op], sigs: list[str], exporter: str) -> None:
+    """Keep each op's origin signature for relaying; the exporter's own ones marked unchecked if new here."""
+    conn = store.db.conn
+    conn.executemany(
+        "INSERT OR IGNORE INTO op_sig_unchecked SELECT ?, ? WHERE NOT EXISTS "
+        "(SELECT 1 FROM op_sig WHERE origin=? AND seq=?)",
+        [(op.origin, op.seq, op.origin, op.seq) for op in ops if op.origin == exporter],
+    )
+    rows = [(op.origin, op.seq, sig) for op, sig in zip(ops, sigs, strict=True)]
+    conn.executemany("INSERT OR IGNORE INTO op_sig VALUES (?, ?, ?)", rows)
 
 
 def _sender_cursor(store: Store, manifest: dict[str, Any]) -> None:

@@ -117,6 +117,10 @@ MIGRATIONS: dict[int, list[str]] = {
         "name TEXT NOT NULL, revoked_ms INTEGER, at_ms INTEGER NOT NULL)",
         "CREATE TABLE IF NOT EXISTS pull_quarantine (origin TEXT NOT NULL, seq INTEGER NOT NULL, op TEXT NOT NULL, "
         "sig TEXT NOT NULL, reason TEXT NOT NULL, at_ms INTEGER NOT NULL, PRIMARY KEY (origin, seq))",
+        # signatures received in a bundle from the op's own origin: that device's manifest signature covers the op,
+        # so its own signature is checked only when the op is relayed onward (storage/bundle.py)
+        "CREATE TABLE IF NOT EXISTS op_sig_unchecked (origin TEXT NOT NULL, seq INTEGER NOT NULL, "
+        "PRIMARY KEY (origin, seq)) WITHOUT ROWID",
     ],
 }
 

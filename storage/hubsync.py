@@ -67,6 +67,7 @@ def outgoing(
     signed = set((str(r[0]), int(r[1])) for r in store.db.execute("SELECT origin, seq FROM op_sig").fetchall())
     own = (store.device_id, DEMO_ORIGIN)  # the demo's changes are signed with its marked key when asked
     mine_or_signed = [o for o in ops if o.origin in own or (o.origin, o.seq) in signed]
+    mine_or_signed = _relayable(store, mine_or_signed, own)
     chosen = mine_or_signed[:limit]
     try:
         sigs = op_signatures(store.db, chosen, enrolment.key, store.device_id)
@@ -74,6 +75,22 @@ def outgoing(
         msg = f"signing outgoing ops: {exc}"
         raise RuntimeError(msg) from exc
     return Outgoing(list(zip(chosen, sigs, strict=True)), len(ops) - len(mine_or_signed))
+
+
+def _relayable(store: Store, ops: list[Op], own: tuple[str, ...]) -> list[Op]:
+    """Own ops, and colleagues' ops up to the first whose signature does not verify (per origin: no holes)."""
+    out: list[Op] = []
+    stopped: set[str] = set()
+    for op in ops:
+        if op.origin in stopped:
+            continue
+        if op.origin not in own:
+            row = store.db.execute("SELECT sig FROM op_sig WHERE origin=? AND seq=?", [op.origin, op.seq]).fetchone()
+            if not identity.relayable(store.db, op, str(row[0])):
+                stopped.add(op.origin)
+                continue
+        out.append(op)
+    return out
 
 
 def record_push_answer(store: Store, answer: dict[str, Any], pushed: list[tuple[Op, str]], now_ms: int) -> None:

@@ -297,6 +297,23 @@ def trusted_key(db: sqlite_utils.Database, device_id: str, allow_revoked: bool =
     return load_public(str(row[0]))
 
 
+def relayable(db: sqlite_utils.Database, op: Op, sig: str) -> bool:
+    """Whether a held signature may be relayed: checked on arrival, or checked now by the origin's key.
+
+    A signature that arrived unchecked (its op came from its own origin, covered by that device's bundle
+    signature) is verified the first time the op is relayed; a bad one is never passed on.
+    """
+    if db.execute("SELECT 1 FROM op_sig_unchecked WHERE origin=? AND seq=?", [op.origin, op.seq]).fetchone() is None:
+        return True
+    try:
+        verify_op(trusted_key(db, op.origin, allow_revoked=True), op, sig)
+    except SignatureError:
+        return False
+    with transaction(db):
+        db.execute("DELETE FROM op_sig_unchecked WHERE origin=? AND seq=?", [op.origin, op.seq])
+    return True
+
+
 def store_signatures(db: sqlite_utils.Database, sigs: list[dict[str, Any]]) -> None:
     """Keep signatures of ops received from the hub, so they can be relayed (inside the caller's transaction)."""
     for s in sigs:

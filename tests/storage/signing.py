@@ -21,11 +21,20 @@ def signed_bundle(store: Any, manifest: dict[str, Any], ops: list[dict[str, Any]
     return sign_bundle(identity.device_key(store.db), manifest, ops, blobs)
 
 
-def sign_bundle(key: Any, manifest: dict[str, Any], ops: list[dict[str, Any]], blobs: dict[str, bytes]) -> bytes:
-    """A bundle of ``ops`` with the manifest and every op signed by ``key`` (an Ed25519 private key)."""
+def sign_bundle(
+    key: Any, manifest: dict[str, Any], ops: list[dict[str, Any]], blobs: dict[str, bytes], wrong_op_sig: int = -1
+) -> bytes:
+    """A bundle of ``ops`` with the manifest and every op signed by ``key`` (an Ed25519 private key).
+
+    ``wrong_op_sig``: the index of one op signed by another key instead (the manifest still by ``key``).
+    """
     lines = [canonical(o) for o in ops]
     body = "".join(line + "\n" for line in lines).encode()
-    sigs = "".join(identity.b64(key.sign(OP_SIG_PREFIX + line.encode())) + "\n" for line in lines).encode()
+    other = identity.new_private_key()
+    sigs = "".join(
+        identity.b64((other if n == wrong_op_sig else key).sign(OP_SIG_PREFIX + line.encode())) + "\n"
+        for n, line in enumerate(lines)
+    ).encode()
     manifest = dict(manifest, ops_sha256=hashlib.sha256(body).hexdigest(), sigs_sha256=hashlib.sha256(sigs).hexdigest())
     mbytes = canonical(manifest).encode()
     buf = io.BytesIO()

@@ -150,3 +150,23 @@ def test_trust_list_with_an_unreadable_key_changes_nothing(tablets):
     with pytest.raises(identity.SignatureError, match="32"):
         identity.trust_devices(b.db, [{"device_id": "x", "public_key": "AAAA", "name": "bad"}], at_ms=1)
     assert identity.trusted_devices(b.db) == before
+
+
+def test_exporters_own_op_with_a_bad_signature_is_applied_but_never_relayed(tablets):
+    """Its manifest signature vouches for its own ops; their own signatures are checked before any relay."""
+    from tests.storage.signing import sign_bundle
+
+    a, b, c, tmp = tablets
+    introduce(b, a)
+    introduce(c, a, b)
+    export_bundle(a, tmp / "a.zip")
+    entries = _entries(tmp / "a.zip")
+    ops = [json.loads(line) for line in entries["ops.jsonl"].decode().splitlines()]
+    key = identity.device_key(a.db)
+    (tmp / "w.zip").write_bytes(sign_bundle(key, json.loads(entries["manifest.json"]), ops, {}, wrong_op_sig=1))
+    assert import_bundle(b, tmp / "w.zip").outcome == "applied"
+    assert b.digest() == a.digest()
+    export_bundle(b, tmp / "b.zip")
+    assert import_bundle(c, tmp / "b.zip").outcome == "applied"
+    held = c.db.execute("SELECT seq FROM op WHERE origin=? ORDER BY seq", [a.device_id]).fetchall()
+    assert held == [(1,)]  # a's op 2 carried a signature that is not a's: b did not pass it on
