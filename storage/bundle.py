@@ -651,6 +651,23 @@ def verify_bundle(store: Store, data: bytes) -> _Verified:
     return _Verified(manifest, ops, blobs, hashlib.sha256(data).hexdigest(), rebase_from, sigs)
 
 
+def _held_ops(store: Store, ops: list[Op]) -> dict[tuple[str, int], tuple[Any, ...]]:
+    """The ops of the bundle's seq ranges this database already holds, one query per origin."""
+    by_origin: dict[str, list[int]] = {}
+    for op in ops:
+        by_origin.setdefault(op.origin, []).append(op.seq)
+    held: dict[tuple[str, int], tuple[Any, ...]] = {}
+    for origin, seqs in by_origin.items():
+        first, last = min(seqs), max(seqs)
+        _refuse_unless(last - first + 1 == len(seqs), f"ops of {origin[:8]} are not contiguous")
+        rows = store.db.execute(
+            "SELECT seq, hlc, entity, record_id, kind, payload, base FROM op WHERE origin=? AND seq BETWEEN ? AND ?",
+            [origin, first, last],
+        )
+        held.update(((origin, r[0]), tuple(r[1:])) for r in rows)
+    return held
+
+
 def _check_integrity(store: Store, ops: list[Op], sender: str) -> int | None:
     """Refuse, before any write, an op or insert-only record that contradicts what is held.
 
@@ -660,23 +677,14 @@ def _check_integrity(store: Store, ops: list[Op], sender: str) -> int | None:
     """
     mine: dict[tuple[str, str], str] = {}
     rebase_from: int | None = None
+    held_ops = _held_ops(store, ops)
     for op in ops:
-        row = store.db.execute(
-            "SELECT hlc, entity, record_id, kind, payload, base FROM op WHERE origin=? AND seq=?", [op.origin, op.seq]
-        ).fetchone()
+        row = held_ops.get((op.origin, op.seq))
         if row is not None:
-            held = (op.hlc, op.entity, op.record_id, op.kind, canonical(op.payload), canonical(op.base))
-            if tuple(row) != held:
-                if op.origin == store.device_id:
-                    rebase_from = op.seq if rebase_from is None else min(rebase_from, op.seq)
-                    continue
-                hint = (
-                    " (the sending device was restored from a backup: import a bundle from here on it, then send again)"
-                    if op.origin == sender
-                    else ""
-                )
-                msg = f"integrity: op {op.origin}:{op.seq} already held with different content{hint}"
-                raise BundleRefused(msg)
+            if row != (op.hlc, op.entity, op.record_id, op.kind, canonical(op.payload), canonical(op.base)):
+                if op.origin != store.device_id:
+                    _refuse_different(op, sender)
+                rebase_from = op.seq if rebase_from is None else min(rebase_from, op.seq)
             continue
         if op.kind != OpKind.INSERT:
             continue
@@ -688,6 +696,16 @@ def _check_integrity(store: Store, ops: list[Op], sender: str) -> int | None:
             msg = f"integrity: {op.entity} {op.record_id}: same id, different content"
             raise BundleRefused(msg)
     return rebase_from
+
+
+def _refuse_different(op: Op, sender: str) -> None:
+    hint = (
+        " (the sending device was restored from a backup: import a bundle from here on it, then send again)"
+        if op.origin == sender
+        else ""
+    )
+    msg = f"integrity: op {op.origin}:{op.seq} already held with different content{hint}"
+    raise BundleRefused(msg)
 
 
 def _check_ranges(store: Store, manifest: dict[str, Any], ops: list[Op], rebase_from: int | None) -> None:
