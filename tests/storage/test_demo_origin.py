@@ -51,3 +51,17 @@ def test_the_demo_goes_only_when_asked_and_only_to_a_demo_database(tmp_path):
     report = import_bundle(demo_db, tmp_path / "demo.zip")
     assert report.outcome == "applied", report.reason
     assert demo_db.digest() == tablet.digest()
+
+
+def test_sync_export_leaves_the_demo_out_unless_the_flag_asks(tmp_path, capsys):
+    from mobile.cli import main
+
+    tablet = Store(tmp_path / "t.db")
+    load_demo(tablet)
+    tablet.close()
+    assert main(["sync", "export", "--db", str(tmp_path / "t.db"), "--out", str(tmp_path / "a.zip")]) == 0
+    assert _bundle_ops(tmp_path / "a.zip")[0] == []
+    args = ["sync", "export", "--db", str(tmp_path / "t.db"), "--out", str(tmp_path / "b.zip"), "--include-demo"]
+    assert main(args) == 0
+    assert {o["origin"] for o in _bundle_ops(tmp_path / "b.zip")[0]} == {DEMO_ORIGIN}
+    capsys.readouterr()
