@@ -4,8 +4,10 @@ Setup (untimed): a source database on disk with N ops of the shape a day in the 
 (a site, then beams logged with their contract-1 fields, then one-field edits: spans, sizes,
 purlin spacing, notes), written through the storage save path in one transaction.
 
-Measured: `export_bundle` from the source to a bundle file plus `import_bundle` of that file into
-a fresh database (verify the MAC, hashes and ranges, then merge every op in one transaction).
+Measured: `export_bundles` from the source to bundle files (parts of at most PART_OPS ops) plus
+`import_bundles` of them into a fresh database that trusts the source device's key as a hub would list
+it (verify the Ed25519 manifest signature, hashes and ranges, then merge in batches). The source's
+ops are signed once, by an untimed first export: a device signs each op once in its life.
 
 Baseline, same run: a raw SQLite copy of the same rows, `INSERT INTO op SELECT * FROM src.op`
 with the source attached, into a fresh database of the same schema, in one transaction. The
@@ -21,7 +23,8 @@ import tempfile
 from pathlib import Path
 
 from bench.common import Row, Sample, fmt_time, measure
-from storage.bundle import export_bundle, import_bundle
+from storage import identity
+from storage.bundle import export_bundles, import_bundles, part_path
 from storage.db import transaction
 from storage.store import Store
 
@@ -89,20 +92,25 @@ def run(quick: bool = False) -> list[Row]:
         try:
             src_path = work / "source.db"
             src = make_source(src_path, n)
+            export_bundles(src, work / "signing.bwsync")  # untimed: signs every op once, as saves are sent
+            listed = {"device_id": src.device_id, "public_key": identity.public_text(identity.device_key(src.db))}
             state = {"i": 0}
 
-            def fresh(state: dict[str, int] = state, work: Path = work) -> None:
+            def fresh(state: dict[str, int] = state, work: Path = work, listed: dict[str, str] = listed) -> None:
                 state["i"] += 1  # empty databases of the same schema for both sides, untimed
-                Store(work / f"dst{state['i']}.db", firm_key=BENCH_KEY).close()
+                dst = Store(work / f"dst{state['i']}.db", firm_key=BENCH_KEY)
+                identity.trust_devices(dst.db, [dict(listed, name="source")], at_ms=0)  # as the hub lists it
+                dst.close()
                 Store(work / f"raw{state['i']}.db", firm_key=BENCH_KEY).close()
 
             def sync(state: dict[str, int] = state, work: Path = work, src: Store = src, n: int = n) -> None:
                 bundle = work / f"b{state['i']}.bwsync"
-                export_bundle(src, bundle)
+                parts = export_bundles(src, bundle)
                 dst = Store(work / f"dst{state['i']}.db", firm_key=BENCH_KEY)
-                report = import_bundle(dst, bundle)
-                if report.outcome != "applied" or report.ops_new != n:
-                    msg = f"sync bench: import {report.outcome}, {report.ops_new} of {n} ops"
+                reports = import_bundles(dst, [part_path(bundle, k + 1) for k in range(len(parts))])
+                new = sum(r.ops_new for r in reports)
+                if {r.outcome for r in reports} != {"applied"} or new != n:
+                    msg = f"sync bench: import {[r.outcome for r in reports]}, {new} of {n} ops"
                     raise RuntimeError(msg)
                 dst.close()
 
@@ -162,7 +170,7 @@ def run_large(quick: bool = False) -> list[Row]:
         _probe("build", str(work / "src.db"), str(n))
         ex = _probe("export", str(work / "src.db"), str(work / "b.zip"))
         files = [str(f) for f in ex["files"]]  # type: ignore[attr-defined]
-        im = _probe("import", str(work / "dst.db"), *files)
+        im = _probe("import", str(work / "dst.db"), str(work / "src.db.device.json"), *files)
         if im["outcomes"] != ["applied"] or im["ops_new"] != n:
             msg = f"sync 1M bench: import {im['outcomes']}, {im['ops_new']} of {n} ops"
             raise RuntimeError(msg)

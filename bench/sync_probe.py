@@ -1,9 +1,11 @@
 """Child process of bench/sync.py's large rows, so each figure's peak memory is its own.
 
-usage: python -m bench.sync_probe build DB N | export DB OUT | import DB FILE...
+usage: python -m bench.sync_probe build DB N | export DB OUT | import DB TRUST FILE...
 build: N ops (a site, then beams and one-field edits) written straight into the op log with SQL
 (valid ops of the save path's shape; only the exporting side needs them, so no projection is built);
-export: `export_bundles` into OUT (split into parts); import: `import_bundles` of the parts, in order.
+export: `export_bundles` into OUT (split into parts; the first export signs every op once);
+import: `import_bundles` of the parts, in order, into a database that trusts the device listed in the
+TRUST file (``DB.device.json``, written by build: what the hub would list).
 Prints one line: BENCH {"seconds": ..., "peak_mb": ..., ...}.
 """
 
@@ -54,6 +56,10 @@ def build(db: str, n: int) -> None:
         store.db.execute("INSERT OR REPLACE INTO seen VALUES (?, ?)", [origin, n])
         store.db.execute("UPDATE meta SET value=? WHERE key='seq'", [str(n)])
         store.db.execute("UPDATE meta SET value=? WHERE key='hlc'", [str(((wall + n) << 16) | 0)])
+    from storage import identity
+
+    listing = {"device_id": origin, "public_key": identity.public_text(identity.device_key(store.db)), "name": "src"}
+    Path(db + ".device.json").write_text(json.dumps(listing), encoding="utf-8")
     store.close()
 
 
@@ -71,10 +77,12 @@ if __name__ == "__main__":
         out["files"] = [str(part_path(Path(sys.argv[3]), i + 1)) for i in range(len(manifests))]
         out["largest_mb"] = max(Path(f).stat().st_size for f in out["files"]) / 1e6  # type: ignore[attr-defined]
     elif mode == "import":
-        from storage import Store
+        from storage import Store, identity
         from storage.bundle import import_bundles
 
-        reports = import_bundles(Store(path, firm_key=KEY), sys.argv[3:])
+        dst = Store(path, firm_key=KEY)
+        identity.trust_devices(dst.db, [json.loads(Path(sys.argv[3]).read_text(encoding="utf-8"))], at_ms=0)
+        reports = import_bundles(dst, sys.argv[4:])
         out["outcomes"] = sorted({r.outcome for r in reports})
         out["ops_new"] = sum(r.ops_new for r in reports)
     out["seconds"] = time.perf_counter() - t0

@@ -37,7 +37,7 @@ def cmd_sync_export(args: argparse.Namespace) -> int:
     if Path(args.out).is_dir():
         msg = f"{args.out} is a folder; give a file name for the bundle"
         raise UserError(msg)
-    manifest = export_bundle(store, args.out, peer=args.peer)
+    manifest = export_bundle(store, args.out, peer=args.peer, include_demo=args.include_demo)
     parts = int(manifest.get("parts", 1))
     where = args.out if parts == 1 else f"{parts} files ({args.out} first; import them in order)"
     print(f"exported {manifest['op_count']} ops and {len(manifest['blobs'])} blobs to {where}")
@@ -176,6 +176,7 @@ def register(sub: Any) -> None:
     p.add_argument("--db", required=True)
     p.add_argument("--out", required=True)
     p.add_argument("--peer", help="only changes this peer has not seen")
+    p.add_argument("--include-demo", action="store_true", help="also the built-in demo site (left out unless asked)")
     p.set_defaults(func=cmd_sync_export)
     p = sync.add_parser("import", help="verify and merge a bundle")
     p.add_argument("--db", required=True)

@@ -30,7 +30,7 @@ from storage.hubsync import (
     outgoing,
     record_push_answer,
 )
-from storage.identity import Enrolment, b64, enrolment, new_private_key, public_text, sign_request
+from storage.identity import Enrolment, b64, device_key, enrolment, public_text, sign_request, trust_devices
 
 TIMEOUT_S = 20.0
 PUSH_BATCH = 2000
@@ -114,20 +114,41 @@ def request(
 
 
 def enroll(store: Store, url: str, code: str, ca_pem: str = "") -> dict[str, Any]:
-    """Make this tablet's key pair, enrol it with a one-time code, keep the enrolment and the firm's bundle key.
+    """Enrol this tablet's key pair (made at install, or now) with a one-time code; keep the enrolment.
 
-    ``ca_pem``: the office's self-signed certificate, trusted for this hub only.
+    The same key signs its file bundles and its ops. ``ca_pem``: the office's self-signed certificate,
+    trusted for this hub only.
     """
-    key = new_private_key()
+    key = device_key(store.db)
     proof = b64(key.sign(f"enroll\n{code}\n{store.device_id}".encode()))
     body = json.dumps({"code": code, "device_id": store.device_id, "public_key": public_text(key), "proof": proof})
     answer: dict[str, Any] = json.loads(request(url, "POST", "/v1/enroll", body.encode(), ca_pem=ca_pem))
     adopt_enrolment(store, url.rstrip("/"), answer["device_id"], key, answer["bundle_key"], ca_pem)
+    auth = enrolment(store.db)
+    if auth is not None:
+        learn_devices(store, auth, int(time.time() * 1000))
     return answer
 
 
-def sync(store: Store, progress: Progress | None = None, now_ms: Callable[[], int] | None = None) -> SyncResult:
-    """Push what the hub lacks, then pull until up to date. Raises HubError when refused or unreachable."""
+def learn_devices(store: Store, auth: Enrolment, now_ms: int) -> int:
+    """Fetch the enrolled devices' public keys from the hub (the point of trust) and keep them; how many.
+
+    File bundles and pulled ops verify by these keys; a device revoked at the office is marked so.
+    """
+    answer = json.loads(request(auth.hub_url, "GET", "/v1/devices", auth=auth))
+    return trust_devices(store.db, list(answer["devices"]), now_ms)
+
+
+def sync(
+    store: Store,
+    progress: Progress | None = None,
+    now_ms: Callable[[], int] | None = None,
+    include_demo: bool = False,
+) -> SyncResult:
+    """Push what the hub lacks, then pull until up to date. Raises HubError when refused or unreachable.
+
+    The built-in demo site's changes are pushed only when ``include_demo`` (``bracewalk demo`` asks).
+    """
     tell = progress or _silent
     clock = now_ms or (lambda: int(time.time() * 1000))
     auth = enrolment(store.db)
@@ -136,7 +157,7 @@ def sync(store: Store, progress: Progress | None = None, now_ms: Callable[[], in
         raise HubError(msg)
     result = SyncResult()
     try:
-        _sync(store, auth, result, tell, clock)
+        _sync(store, auth, result, tell, clock, include_demo)
     except HubError as exc:
         log_sync(store, "unreachable" if exc.status is None else "refused", exc.reason, clock())
         raise
@@ -147,15 +168,18 @@ def sync(store: Store, progress: Progress | None = None, now_ms: Callable[[], in
     return result
 
 
-def _sync(store: Store, auth: Enrolment, result: SyncResult, tell: Progress, clock: Callable[[], int]) -> None:
+def _sync(
+    store: Store, auth: Enrolment, result: SyncResult, tell: Progress, clock: Callable[[], int], include_demo: bool
+) -> None:
     tell(0.0, "contacting the office")
     hello = json.loads(request(auth.hub_url, "GET", "/v1/hub", ca_pem=auth.ca_pem))
     result.skew_ms = int(hello["server_time_ms"]) - clock()
     if "hub_seq" in hello and int(hello["hub_seq"]) < hub_cursor(store):
         _forget_hub_cursors(store)  # the hub was restored from a backup older than this tablet's last sync
+    learn_devices(store, auth, clock())
     seen: set[tuple[str, int]] = set()
     while True:
-        out = outgoing(store, auth, PUSH_BATCH, frozenset(seen))
+        out = outgoing(store, auth, PUSH_BATCH, frozenset(seen), include_demo)
         result.unsigned_relays = out.unsigned_relays
         batch = out.ops
         if not batch:
@@ -176,7 +200,7 @@ def _sync(store: Store, auth: Enrolment, result: SyncResult, tell: Progress, clo
         tell(0.5, f"receiving changes after {cursor}")
         page = json.loads(request(auth.hub_url, "GET", f"/v1/pull?cursor={cursor}&limit={PULL_LIMIT}", auth=auth))
         try:
-            result.pulled_new += apply_page(store, page)
+            result.pulled_new += apply_page(store, page, clock())
         except PageRefused as exc:
             raise HubError(str(exc), 409) from exc
         _fetch_blobs(store, auth, page["ops"])

@@ -64,6 +64,21 @@ class EnrollAnswer(Strict):
     bundle_key: str
 
 
+class DeviceKey(Strict):
+    """An enrolled device and its public key, as tablets learn them (the hub is the point of trust)."""
+
+    device_id: str
+    name: str
+    public_key: str
+    revoked_ms: int | None
+
+
+class DeviceList(Strict):
+    """Every device enrolled at this hub, revoked ones included (marked)."""
+
+    devices: list[DeviceKey]
+
+
 class BlobList(Strict):
     """A list of blob hashes."""
 
@@ -207,6 +222,16 @@ def _hub_router() -> APIRouter:
             person=dev.person,
             role=dev.role,
             bundle_key=hub.bundle_key,
+        )
+
+    @router.get("/devices")
+    def devices(request: Request, device: Device) -> DeviceList:
+        """The enrolled devices' public keys: a tablet verifies file bundles and pulled ops by them."""
+        return DeviceList(
+            devices=[
+                DeviceKey(device_id=d.device_id, name=d.name, public_key=d.public_key, revoked_ms=d.revoked_ms)
+                for d in _hub(request).devices()
+            ]
         )
 
     return router

@@ -1,14 +1,16 @@
-"""Sync bundles: one zip file with an HMAC-covered manifest, the ops as JSON lines, and the blobs.
+"""Sync bundles: one zip file with a signed manifest, the ops as JSON lines with their signatures, and the blobs.
 
-Import verifies everything before the first write (size, exact entry names, MAC, hashes, op keys,
-contiguous ranges, no gap against what this database holds), then applies in one transaction.
-A bundle written by a newer schema is held, not applied. Every attempt is logged.
+The manifest is signed with the exporting device's Ed25519 key (the key it enrolled at the office hub)
+and every op carries its origin device's signature, so ops relayed from colleagues verify by their own
+keys. Import verifies everything before the first write (size, exact entry names, the exporter's key as
+the hub listed it, the manifest signature, hashes, op keys and signatures, contiguous ranges, no gap
+against what this database holds), then applies in bounded batches. A bundle written by a newer schema
+is held, not applied. Every attempt is logged.
 """
 
 from __future__ import annotations
 
 import hashlib
-import hmac
 import io
 import json
 import os
@@ -23,14 +25,19 @@ from json.encoder import encode_basestring
 from pathlib import Path
 from typing import Any
 
+from cryptography.exceptions import InvalidSignature
+
+from storage import identity
 from storage.clock import far_ahead_ms
 from storage.db import SCHEMA_VERSION, transaction
+from storage.identity import SignatureError
 from storage.oplog import (
     MAX_ID_CHARS,
     OP_KEYS,
     SEQ_MAX,
     WALL_MS_MAX,
     Op,
+    OpKind,
     ProjectionBatch,
     apply_op,
     canonical,
@@ -42,7 +49,7 @@ from storage.store import Store
 from storage.validate import RecordInvalid, check_op_record
 
 FORMAT = "bracewalk-bundle"
-FORMAT_VERSION = 1
+FORMAT_VERSION = 2  # 2: Ed25519 signatures (manifest.sig, ops.sig) replace the firm-key MAC
 MAX_BUNDLE_BYTES = 512 * 1024 * 1024
 MAX_ENTRY_BYTES = 256 * 1024 * 1024
 MAX_UNPACKED_BYTES = 1024 * 1024 * 1024  # all entries together, as declared and as read
@@ -66,7 +73,11 @@ MANIFEST_KEYS = {
     "ops_sha256",
     "blobs",
     "vector",
+    "sigs_sha256",
 }
+ENTRIES = ("manifest.json", "manifest.sig", "ops.jsonl", "ops.sig")
+OP_SIG_PREFIX = b"bracewalk-op/1\n"  # what storage.identity.op_message puts before an op's canonical JSON
+MANIFEST_SIG_PREFIX = b"bracewalk-bundle/2\n"
 
 
 Progress = Callable[[float, str], None]
@@ -136,38 +147,101 @@ def op_line(row: tuple[Any, ...]) -> str:
 @dataclass
 class _Part:
     lines: list[str] = field(default_factory=list)
+    sigs: list[str] = field(default_factory=list)
+    signed_now: list[tuple[str, int, str]] = field(default_factory=list)  # own ops first signed by this export
+    checked_now: list[tuple[str, int]] = field(default_factory=list)  # relayed signatures verified by this export
     ranges: dict[str, list[int]] = field(default_factory=dict)
     shas: set[str] = field(default_factory=set)
 
 
-def _parts(store: Store, cursor: dict[str, int], part_ops: int) -> Any:
-    """Stream the ops a peer has not seen (contiguous per origin) in parts of at most ``part_ops``."""
-    sql = f"SELECT {', '.join(OP_KEYS)} FROM op ORDER BY origin, seq"
+@dataclass
+class _Exporter:
+    """Who signs, and which origins' ops may be relayed (not revoked, each op with its origin's signature)."""
+
+    store: Store
+    key: Any
+    revoked: set[str]
+
+    def signature(self, origin: str, seq: int, line: str, stored: str | None, part: _Part) -> str | None:
+        """The op's signature: the stored one, or (for this device's own op) made now; None: not relayable.
+
+        A stored signature that arrived unchecked is verified now, before it is passed on.
+        """
+        if (
+            stored
+            and self.store.db.execute(
+                "SELECT 1 FROM op_sig_unchecked WHERE origin=? AND seq=?", [origin, seq]
+            ).fetchone()
+        ):
+            return stored if self._verifies(origin, seq, line, stored, part) else None
+        if stored:
+            return stored
+        if origin not in (self.store.device_id, identity.DEMO_ORIGIN):
+            return None
+        key = self.key if origin == self.store.device_id else identity.demo_key()  # the demo, only when asked
+        sig = identity.b64(key.sign(OP_SIG_PREFIX + line.encode()))
+        part.signed_now.append((origin, seq, sig))
+        return sig
+
+    def _verifies(self, origin: str, seq: int, line: str, sig: str, part: _Part) -> bool:
+        """Check a signature that arrived unchecked, by its origin's key; remember it once it verified."""
+        try:
+            key = identity.trusted_key(self.store.db, origin, allow_revoked=True)
+            key.verify(identity.unb64(sig), OP_SIG_PREFIX + line.encode())
+        except (SignatureError, InvalidSignature):
+            return False
+        part.checked_now.append((origin, seq))
+        return True
+
+
+def _parts(store: Store, cursor: dict[str, int], part_ops: int, include: Callable[[str], bool]) -> Any:
+    """Stream the ops a peer has not seen (contiguous per origin) in parts of at most ``part_ops``.
+
+    Each op goes with its origin's signature; a colleague's op held without one, or from a device
+    the office revoked, ends that origin's run (the rest goes through the hub).
+    """
+    cols = ", ".join(f"o.{k}" for k in OP_KEYS)
+    sql = (
+        f"SELECT {cols}, s.sig FROM op o LEFT JOIN op_sig s ON s.origin = o.origin AND s.seq = o.seq "
+        "ORDER BY o.origin, o.seq"
+    )
+    revoked = {d.device_id for d in identity.trusted_devices(store.db) if d.revoked_ms}
+    ex = _Exporter(store, identity.device_key(store.db), revoked)
     last: dict[str, int] = {}
     part = _Part()
-    for row in store.db.execute(sql):
+    for full in store.db.execute(sql):
+        row, stored = full[:-1], full[-1]
         origin, seq = row[0], row[1]
-        if seq <= cursor.get(origin, 0):
+        if seq <= cursor.get(origin, 0) or not include(origin) or last.get(origin) == -1:
             continue
         prev = last.get(origin)
-        if prev is not None and seq != prev + 1:
-            last[origin] = -1  # the run ended (a restored device's hole): the rest goes in a later export
+        line = op_line(row)
+        sig = None if origin in ex.revoked else ex.signature(origin, seq, line, stored, part)
+        if (prev is not None and seq != prev + 1) or sig is None:
+            last[origin] = -1  # the run ended (a restored device's hole, an unsigned relay): a later export
             continue
         last[origin] = seq
-        part.lines.append(op_line(row))
+        part.lines.append(line)
+        part.sigs.append(sig)
         r = part.ranges.setdefault(origin, [seq, seq])
         r[1] = seq
-        if "sha256" in row[6]:
-            payload = json.loads(row[6])
-            for key in _BLOB_KEYS:
-                sha = payload.get(key)
-                if sha and store.blob_path(sha).exists():
-                    part.shas.add(sha)
+        _add_blobs(store, row[6], part.shas)
         if len(part.lines) >= part_ops:
             yield part
             part = _Part()
     if part.lines or not last:
         yield part
+
+
+def _add_blobs(store: Store, payload_text: str, shas: set[str]) -> None:
+    """Add the blobs an op's payload refers to (photos, notices, evidence) that this device holds."""
+    if "sha256" not in payload_text:
+        return
+    payload = json.loads(payload_text)
+    for key in _BLOB_KEYS:
+        sha = payload.get(key)
+        if sha and store.blob_path(sha).exists():
+            shas.add(sha)
 
 
 def part_path(out: Path, n: int) -> Path:
@@ -176,15 +250,20 @@ def part_path(out: Path, n: int) -> Path:
 
 
 def export_bundle(
-    store: Store, out: str | Path, peer: str | None = None, progress: Progress | None = None
+    store: Store,
+    out: str | Path,
+    peer: str | None = None,
+    progress: Progress | None = None,
+    include_demo: bool = False,
 ) -> dict[str, Any]:
     """Write the ops ``peer`` has not seen (all ops when peer is None) and their blobs to ``out``.
 
     ``progress(fraction, what)`` is called as the work goes (for a progress bar). Returns the
     manifest; when the changes exceed ``PART_OPS`` they go in several files (``export_bundles``)
     and the manifest returned is the last one's, with ``op_count`` summed over the parts.
+    Changes to the built-in demo site stay on the device unless ``include_demo``.
     """
-    manifests = export_bundles(store, out, peer=peer, progress=progress)
+    manifests = export_bundles(store, out, peer=peer, progress=progress, include_demo=include_demo)
     if len(manifests) == 1:
         return manifests[0]
     return dict(manifests[-1], op_count=sum(m["op_count"] for m in manifests), parts=len(manifests))
@@ -196,11 +275,13 @@ def export_bundles(
     peer: str | None = None,
     progress: Progress | None = None,
     part_ops: int = PART_OPS,
+    include_demo: bool = False,
 ) -> list[dict[str, Any]]:
     """Write the changes as one or more bundles of at most ``part_ops`` ops each, to import in order.
 
     Ops stream from their stored canonical text (nothing is decoded and re-encoded), and one part
-    is held in memory at a time, so no file written can exceed what import accepts.
+    is held in memory at a time, so no file written can exceed what import accepts. The demo site's
+    changes (``identity.DEMO_ORIGIN``) are left out unless ``include_demo``.
     """
     tell = progress or _silent
     tell(0.0, "reading changes")
@@ -211,14 +292,19 @@ def export_bundles(
     if peer:
         cursor = dict(store.db.execute("SELECT origin, seq FROM peer_cursor WHERE peer=?", [peer]).fetchall())
     vector = dict(store.db.execute("SELECT origin, seq FROM seen").fetchall())
+    if not include_demo:
+        vector.pop(identity.DEMO_ORIGIN, None)
     total = int(store.db.execute("SELECT count(*) FROM op").fetchone()[0]) or 1
     manifests: list[dict[str, Any]] = []
     written: list[tuple[Path, str, int]] = []
     done = 0
-    for n, part in enumerate(_parts(store, cursor, part_ops), start=1):
+    key = identity.device_key(store.db)
+    for n, part in enumerate(_parts(store, cursor, part_ops, _keep_all if include_demo else _not_demo), start=1):
         path = part_path(out, n)
         tell(min(0.95, done / total), f"writing {path.name}")
-        manifest, sha = _write_part(store, path, part, vector)
+        demo_only = set(part.ranges) == {identity.DEMO_ORIGIN}  # asked for: opens in any demo database
+        manifest, sha = _write_part(store, path, part, vector, identity.demo_key() if demo_only else key)
+        _keep_signatures(store, part.signed_now, part.checked_now)
         manifests.append(manifest)
         written.append((path, sha, len(part.lines)))
         done += len(part.lines)
@@ -238,9 +324,30 @@ def export_bundles(
     return manifests
 
 
-def _write_part(store: Store, out: Path, part: _Part, vector: dict[str, int]) -> tuple[dict[str, Any], str]:
+def _keep_all(_origin: str) -> bool:
+    return True
+
+
+def _not_demo(origin: str) -> bool:
+    return origin != identity.DEMO_ORIGIN
+
+
+def _keep_signatures(store: Store, signed: list[tuple[str, int, str]], checked: list[tuple[str, int]]) -> None:
+    """Keep the signatures an export made for this device's ops (an op is signed once in its life)."""
+    if signed or checked:
+        with transaction(store.db):
+            store.db.conn.executemany("INSERT OR IGNORE INTO op_sig VALUES (?, ?, ?)", signed)
+            store.db.conn.executemany("DELETE FROM op_sig_unchecked WHERE origin=? AND seq=?", checked)
+
+
+def _lines(items: list[str]) -> bytes:
+    return ("\n".join(items) + ("\n" if items else "")).encode()
+
+
+def _write_part(store: Store, out: Path, part: _Part, vector: dict[str, int], key: Any) -> tuple[dict[str, Any], str]:
     """Write one bundle file (fsynced, atomically); its manifest and the file's SHA-256."""
-    body = ("\n".join(part.lines) + ("\n" if part.lines else "")).encode()
+    body = _lines(part.lines)
+    sigs = _lines(part.sigs)
     blobs: list[dict[str, Any]] = [{"sha256": s, "size": store.blob_path(s).stat().st_size} for s in sorted(part.shas)]
     manifest = {
         "format": FORMAT,
@@ -253,15 +360,17 @@ def _write_part(store: Store, out: Path, part: _Part, vector: dict[str, int]) ->
         "ops_sha256": hashlib.sha256(body).hexdigest(),
         "blobs": blobs,
         "vector": vector,
+        "sigs_sha256": hashlib.sha256(sigs).hexdigest(),
     }
     mbytes = canonical(manifest).encode()
-    mac = hmac.new(store.firm_key, mbytes, hashlib.sha256).hexdigest()
+    signature = identity.b64(key.sign(MANIFEST_SIG_PREFIX + mbytes))
     tmp = out.with_name(out.name + ".part")
     try:
         with zipfile.ZipFile(tmp, "w", compression=zipfile.ZIP_DEFLATED) as z:
             z.writestr("manifest.json", mbytes)
-            z.writestr("manifest.mac", mac)
+            z.writestr("manifest.sig", signature)
             z.writestr("ops.jsonl", body)
+            z.writestr("ops.sig", sigs)
             for b in blobs:
                 z.write(store.blob_path(str(b["sha256"])), f"blobs/{b['sha256']}")
         with open(tmp, "rb") as fh:
@@ -313,6 +422,7 @@ class _Verified:
     blobs: dict[str, bytes]
     sha: str
     rebase_from: int | None = None  # own ops from this seq on are renumbered (restored device)
+    sigs: list[str] = field(default_factory=list)  # each op's origin signature, kept for relaying
 
 
 def _read_bounded(z: zipfile.ZipFile, info: zipfile.ZipInfo, limit: int) -> bytes:
@@ -336,125 +446,160 @@ def _is_int(value: Any, low: int, high: int) -> bool:
     return isinstance(value, int) and not isinstance(value, bool) and low <= value <= high
 
 
-def _check_manifest_fields(manifest: dict[str, Any]) -> None:
-    """Types and ranges of every manifest field (after its MAC verified)."""
-    if manifest["format"] != FORMAT or manifest["format_version"] != FORMAT_VERSION:
-        msg = f"unknown format {str(manifest['format'])[:40]!r} v{str(manifest['format_version'])[:10]}"
+def _refuse_unless(ok: bool, msg: str) -> None:
+    if not ok:
         raise BundleRefused(msg)
+
+
+def _check_header(manifest: dict[str, Any]) -> None:
+    """Format, origin (a device id), schema, time, op count and hashes."""
+    _refuse_unless(
+        manifest["format"] == FORMAT and manifest["format_version"] == FORMAT_VERSION,
+        f"unknown format {str(manifest['format'])[:40]!r} v{str(manifest['format_version'])[:10]}",
+    )
     origin = manifest["origin"]
-    if not isinstance(origin, str) or not DEVICE_ID.match(origin):
-        # peer names such as "office" key the export cursors: a bundle may not claim one
-        msg = f"manifest origin {str(origin)[:40]!r} is not a device id"
-        raise BundleRefused(msg)
-    if not _is_int(manifest["schema_version"], 1, 10_000) or not _is_int(manifest["created_ms"], 0, WALL_MS_MAX):
-        msg = "manifest schema_version or created_ms out of range"
-        raise BundleRefused(msg)
-    if not _is_int(manifest["op_count"], 0, MAX_OPS) or not isinstance(manifest["ops_sha256"], str):
-        msg = f"manifest op_count must be 0 to {MAX_OPS}"
-        raise BundleRefused(msg)
+    # peer names such as "office" key the export cursors: a bundle may not claim one
+    _refuse_unless(
+        isinstance(origin, str) and bool(DEVICE_ID.match(origin)),
+        f"manifest origin {str(origin)[:40]!r} is not a device id",
+    )
+    _refuse_unless(
+        _is_int(manifest["schema_version"], 1, 10_000) and _is_int(manifest["created_ms"], 0, WALL_MS_MAX),
+        "manifest schema_version or created_ms out of range",
+    )
+    _refuse_unless(
+        _is_int(manifest["op_count"], 0, MAX_OPS)
+        and all(isinstance(manifest[k], str) and SHA256.match(manifest[k]) for k in ("ops_sha256", "sigs_sha256")),
+        f"manifest op_count must be 0 to {MAX_OPS}, and ops_sha256 and sigs_sha256 SHA-256 hashes",
+    )
+
+
+def _check_vectors(manifest: dict[str, Any]) -> None:
+    """``ranges`` {origin: [first, last]} and ``vector`` {origin: seq}, within range."""
     for name in ("ranges", "vector"):
-        if not isinstance(manifest[name], dict):
-            msg = f"manifest {name} must be an object"
-            raise BundleRefused(msg)
+        _refuse_unless(isinstance(manifest[name], dict), f"manifest {name} must be an object")
     for origin_id, r in manifest["ranges"].items():
-        if not (isinstance(r, list) and len(r) == 2 and all(_is_int(x, 1, SEQ_MAX) for x in r)):
-            msg = f"manifest range of {str(origin_id)[:12]} is not [first, last]"
-            raise BundleRefused(msg)
+        ok = isinstance(r, list) and len(r) == 2 and all(_is_int(x, 1, SEQ_MAX) for x in r)
+        _refuse_unless(ok, f"manifest range of {str(origin_id)[:12]} is not [first, last]")
     for origin_id, seq in manifest["vector"].items():
-        if not _is_int(seq, 0, SEQ_MAX) or len(origin_id) > MAX_ID_CHARS:
-            msg = f"manifest vector entry {str(origin_id)[:12]} out of range"
-            raise BundleRefused(msg)
+        ok = _is_int(seq, 0, SEQ_MAX) and len(origin_id) <= MAX_ID_CHARS
+        _refuse_unless(ok, f"manifest vector entry {str(origin_id)[:12]} out of range")
+
+
+def _check_blob_list(manifest: dict[str, Any]) -> None:
+    """``blobs``: at most MAX_ENTRIES {sha256, size} objects."""
     blobs = manifest["blobs"]
-    if not isinstance(blobs, list) or len(blobs) > MAX_ENTRIES:
-        msg = f"manifest blobs must be a list of at most {MAX_ENTRIES}"
-        raise BundleRefused(msg)
+    _refuse_unless(
+        isinstance(blobs, list) and len(blobs) <= MAX_ENTRIES, f"manifest blobs must be a list of at most {MAX_ENTRIES}"
+    )
     for b in blobs:
         ok = isinstance(b, dict) and set(b) == {"sha256", "size"} and isinstance(b["sha256"], str)
-        if not ok or not SHA256.match(b["sha256"]) or not _is_int(b["size"], 0, MAX_ENTRY_BYTES):
-            msg = f"manifest blob entry {str(b)[:60]} is not {{sha256, size}}"
-            raise BundleRefused(msg)
+        ok = ok and bool(SHA256.match(b["sha256"])) and _is_int(b["size"], 0, MAX_ENTRY_BYTES)
+        _refuse_unless(ok, f"manifest blob entry {str(b)[:60]} is not {{sha256, size}}")
 
 
-def verify_bundle(store: Store, data: bytes) -> _Verified:
-    """Check a bundle completely without writing; raise BundleRefused with the reason.
+def _check_manifest_fields(manifest: dict[str, Any]) -> None:
+    """Types and ranges of every manifest field (after its signature verified)."""
+    _check_header(manifest)
+    _check_vectors(manifest)
+    _check_blob_list(manifest)
 
-    Order: sizes and entry count from the zip directory, then the MAC over a bounded manifest,
-    and only then the large entries (each read with a bound), hashes, op keys and ranges, and every
-    record against the models.
-    """
-    if len(data) > MAX_BUNDLE_BYTES:
-        msg = f"bundle is {len(data)} bytes; limit {MAX_BUNDLE_BYTES}"
-        raise BundleRefused(msg)
+
+def _open_zip(data: bytes) -> tuple[zipfile.ZipFile, dict[str, zipfile.ZipInfo]]:
+    """The zip and its entries by name, after the size, count and duplicate-name guards."""
+    _refuse_unless(len(data) <= MAX_BUNDLE_BYTES, f"bundle is {len(data)} bytes; limit {MAX_BUNDLE_BYTES}")
     try:
         z = zipfile.ZipFile(io.BytesIO(data))
         infos = z.infolist()
     except ZIP_ERRORS as exc:
         msg = f"not a readable bundle: {exc}"
         raise BundleRefused(msg) from exc
-    if len(infos) > MAX_ENTRIES + 3:
-        msg = f"bundle has {len(infos)} entries; limit {MAX_ENTRIES + 3}"
-        raise BundleRefused(msg)
+    limit = MAX_ENTRIES + len(ENTRIES)
+    _refuse_unless(len(infos) <= limit, f"bundle has {len(infos)} entries; limit {limit}")
     names = [i.filename for i in infos]
-    if len(names) != len(set(names)):
-        msg = "duplicate entries in bundle"
-        raise BundleRefused(msg)
+    _refuse_unless(len(names) == len(set(names)), "duplicate entries in bundle")
     total = sum(i.file_size for i in infos)
-    if total > MAX_UNPACKED_BYTES:
-        msg = f"bundle unpacks to {total} bytes; limit {MAX_UNPACKED_BYTES}"
-        raise BundleRefused(msg)
+    _refuse_unless(total <= MAX_UNPACKED_BYTES, f"bundle unpacks to {total} bytes; limit {MAX_UNPACKED_BYTES}")
     by_name = {i.filename: i for i in infos}
-    for required in ("manifest.json", "manifest.mac", "ops.jsonl"):
-        if required not in by_name:
-            msg = f"missing entry {required}"
-            raise BundleRefused(msg)
+    for required in ENTRIES:
+        _refuse_unless(required in by_name, f"missing entry {required}")
+    return z, by_name
+
+
+def _signed_manifest(store: Store, z: zipfile.ZipFile, by_name: dict[str, zipfile.ZipInfo]) -> dict[str, Any]:
+    """The manifest, once its signature verified by the exporting device's enrolled key.
+
+    Only the bounded manifest is read before this: the exporter must be a device the office hub
+    listed to this tablet and not revoked, and its signature must cover the exact manifest bytes.
+    """
     mbytes = _read_bounded(z, by_name["manifest.json"], MAX_MANIFEST_BYTES)
-    try:
-        mac = _read_bounded(z, by_name["manifest.mac"], 128).decode("ascii").strip()
-    except UnicodeDecodeError as exc:
-        msg = "manifest MAC is not text"
-        raise BundleRefused(msg) from exc
-    expected = hmac.new(store.firm_key, mbytes, hashlib.sha256).hexdigest()
-    if not hmac.compare_digest(mac, expected):
-        msg = "manifest MAC does not verify (tampered, or another firm's key)"
-        raise BundleRefused(msg)
+    sig = _read_bounded(z, by_name["manifest.sig"], 128)
     try:
         manifest = json.loads(mbytes)
     except (ValueError, RecursionError) as exc:
         msg = f"manifest is not JSON: {str(exc)[:80]}"
         raise BundleRefused(msg) from exc
-    if not isinstance(manifest, dict) or set(manifest) != MANIFEST_KEYS:
-        msg = "manifest keys differ from the format"
-        raise BundleRefused(msg)
+    keys_ok = isinstance(manifest, dict) and set(manifest) == MANIFEST_KEYS
+    _refuse_unless(keys_ok, "manifest keys differ from the format")
+    origin = manifest["origin"]
+    origin_ok = isinstance(origin, str) and bool(DEVICE_ID.match(origin))
+    _refuse_unless(origin_ok, f"manifest origin {str(origin)[:40]!r} is not a device id")
+    try:
+        key = identity.trusted_key(store.db, origin)
+        key.verify(identity.unb64(sig.decode("ascii").strip()), MANIFEST_SIG_PREFIX + mbytes)
+    except SignatureError as exc:
+        msg = f"exporting device: {exc}"
+        raise BundleRefused(msg) from exc
+    except (InvalidSignature, UnicodeDecodeError, ValueError) as exc:
+        msg = f"the manifest signature of device {origin[:8]} does not verify (tampered, or signed by another key)"
+        raise BundleRefused(msg) from exc
     _check_manifest_fields(manifest)
+    return manifest
+
+
+def _entries(
+    z: zipfile.ZipFile, by_name: dict[str, zipfile.ZipInfo], manifest: dict[str, Any]
+) -> tuple[bytes, bytes, dict[str, bytes]]:
+    """ops.jsonl, ops.sig and the blobs, each read with a bound and checked against its hash."""
     blob_names = {f"blobs/{b['sha256']}" for b in manifest["blobs"]}
-    if set(names) != {"manifest.json", "manifest.mac", "ops.jsonl"} | blob_names:
-        msg = "bundle entries differ from the manifest"
-        raise BundleRefused(msg)
+    _refuse_unless(set(by_name) == set(ENTRIES) | blob_names, "bundle entries differ from the manifest")
     body = _read_bounded(z, by_name["ops.jsonl"], MAX_ENTRY_BYTES)
+    sigs = _read_bounded(z, by_name["ops.sig"], MAX_ENTRY_BYTES)
     blobs = {
         b["sha256"]: _read_bounded(z, by_name[f"blobs/{b['sha256']}"], min(b["size"], MAX_ENTRY_BYTES))
         for b in manifest["blobs"]
     }
-    if hashlib.sha256(body).hexdigest() != manifest["ops_sha256"]:
-        msg = "ops hash does not match the manifest"
-        raise BundleRefused(msg)
+    _refuse_unless(hashlib.sha256(body).hexdigest() == manifest["ops_sha256"], "ops hash does not match the manifest")
+    _refuse_unless(
+        hashlib.sha256(sigs).hexdigest() == manifest["sigs_sha256"], "op signatures hash does not match the manifest"
+    )
     for sha, content in blobs.items():
-        if hashlib.sha256(content).hexdigest() != sha:
-            msg = f"blob {sha[:12]} does not match its hash"
-            raise BundleRefused(msg)
+        _refuse_unless(hashlib.sha256(content).hexdigest() == sha, f"blob {sha[:12]} does not match its hash")
+    return body, sigs, blobs
+
+
+def _parse_ops(body: bytes, sigs: bytes, op_count: int) -> tuple[list[Op], list[str]]:
+    """The op lines as ops, and one signature per op."""
     ops = []
     try:
         for n, line in enumerate(body.decode().splitlines(), start=1):
-            if n > MAX_OPS:
-                msg = f"more than {MAX_OPS} ops"
-                raise BundleRefused(msg)
+            _refuse_unless(n <= MAX_OPS, f"more than {MAX_OPS} ops")
             ops.append(Op.from_row(json.loads(line)))
     except (ValueError, KeyError, TypeError, AttributeError, RecursionError) as exc:
         msg = f"bad op line {len(ops) + 1}: {str(exc)[:120]}"
         raise BundleRefused(msg) from exc
-    if len(ops) != manifest["op_count"]:
-        msg = "op count differs from the manifest"
-        raise BundleRefused(msg)
+    try:
+        sig_lines = sigs.decode("ascii").splitlines()
+    except UnicodeDecodeError as exc:
+        msg = "op signatures are not text"
+        raise BundleRefused(msg) from exc
+    _refuse_unless(len(ops) == op_count, "op count differs from the manifest")
+    _refuse_unless(len(sig_lines) == len(ops), "one signature per op expected")
+    return ops, sig_lines
+
+
+def _check_op_content(store: Store, ops: list[Op]) -> None:
+    """Stamps within range of this clock, and every record as a local save would write it."""
     horizon = store.wall_ms() + MAX_AHEAD_MS
     for op in ops:
         if op.hlc >> 16 > horizon:  # accepted far ahead is flagged; this far would exhaust the clock's range
@@ -467,9 +612,60 @@ def verify_bundle(store: Store, data: bytes) -> _Verified:
         except RecordInvalid as exc:
             msg = f"invalid record: {exc}"
             raise BundleRefused(msg) from exc
+
+
+def _check_op_signatures(store: Store, ops: list[Op], sigs: list[str], exporter: str) -> None:
+    """Every relayed op verifies by its own origin device's key, not the exporter's.
+
+    The exporter's own ops are covered by its manifest signature (over the ops' hash); their per-op
+    signatures are kept unchecked and verified when relayed onward (``op_sig_unchecked``).
+    """
+    keys: dict[str, Any] = {}
+    for op, sig in zip(ops, sigs, strict=True):
+        if op.origin == exporter:
+            continue
+        try:
+            if op.origin not in keys:
+                keys[op.origin] = identity.trusted_key(store.db, op.origin)
+            identity.verify_op(keys[op.origin], op, sig)
+        except SignatureError as exc:
+            msg = f"op {op.origin[:8]}:{op.seq}: {exc}"
+            raise BundleRefused(msg) from exc
+
+
+def verify_bundle(store: Store, data: bytes) -> _Verified:
+    """Check a bundle completely without writing; raise BundleRefused with the reason.
+
+    Order: sizes and entry count from the zip directory, then the exporter's signature over a bounded
+    manifest, and only then the large entries (each read with a bound), hashes, op keys, every op's
+    signature by its origin, ranges, and every record against the models.
+    """
+    z, by_name = _open_zip(data)
+    manifest = _signed_manifest(store, z, by_name)
+    body, sig_body, blobs = _entries(z, by_name, manifest)
+    ops, sigs = _parse_ops(body, sig_body, manifest["op_count"])
+    _check_op_signatures(store, ops, sigs, manifest["origin"])
+    _check_op_content(store, ops)
     rebase_from = _check_integrity(store, ops, manifest["origin"])
     _check_ranges(store, manifest, ops, rebase_from)
-    return _Verified(manifest, ops, blobs, hashlib.sha256(data).hexdigest(), rebase_from)
+    return _Verified(manifest, ops, blobs, hashlib.sha256(data).hexdigest(), rebase_from, sigs)
+
+
+def _held_ops(store: Store, ops: list[Op]) -> dict[tuple[str, int], tuple[Any, ...]]:
+    """The ops of the bundle's seq ranges this database already holds, one query per origin."""
+    by_origin: dict[str, list[int]] = {}
+    for op in ops:
+        by_origin.setdefault(op.origin, []).append(op.seq)
+    held: dict[tuple[str, int], tuple[Any, ...]] = {}
+    for origin, seqs in by_origin.items():
+        first, last = min(seqs), max(seqs)
+        _refuse_unless(last - first + 1 == len(seqs), f"ops of {origin[:8]} are not contiguous")
+        rows = store.db.execute(
+            "SELECT seq, hlc, entity, record_id, kind, payload, base FROM op WHERE origin=? AND seq BETWEEN ? AND ?",
+            [origin, first, last],
+        )
+        held.update(((origin, r[0]), tuple(r[1:])) for r in rows)
+    return held
 
 
 def _check_integrity(store: Store, ops: list[Op], sender: str) -> int | None:
@@ -481,25 +677,16 @@ def _check_integrity(store: Store, ops: list[Op], sender: str) -> int | None:
     """
     mine: dict[tuple[str, str], str] = {}
     rebase_from: int | None = None
+    held_ops = _held_ops(store, ops)
     for op in ops:
-        row = store.db.execute(
-            "SELECT hlc, entity, record_id, kind, payload, base FROM op WHERE origin=? AND seq=?", [op.origin, op.seq]
-        ).fetchone()
+        row = held_ops.get((op.origin, op.seq))
         if row is not None:
-            held = (op.hlc, op.entity, op.record_id, op.kind, canonical(op.payload), canonical(op.base))
-            if tuple(row) != held:
-                if op.origin == store.device_id:
-                    rebase_from = op.seq if rebase_from is None else min(rebase_from, op.seq)
-                    continue
-                hint = (
-                    " (the sending device was restored from a backup: import a bundle from here on it, then send again)"
-                    if op.origin == sender
-                    else ""
-                )
-                msg = f"integrity: op {op.origin}:{op.seq} already held with different content{hint}"
-                raise BundleRefused(msg)
+            if row != (op.hlc, op.entity, op.record_id, op.kind, canonical(op.payload), canonical(op.base)):
+                if op.origin != store.device_id:
+                    _refuse_different(op, sender)
+                rebase_from = op.seq if rebase_from is None else min(rebase_from, op.seq)
             continue
-        if op.kind != "insert":
+        if op.kind != OpKind.INSERT:
             continue
         chash = content_hash(op.payload)
         key = (op.entity, op.record_id)
@@ -509,6 +696,16 @@ def _check_integrity(store: Store, ops: list[Op], sender: str) -> int | None:
             msg = f"integrity: {op.entity} {op.record_id}: same id, different content"
             raise BundleRefused(msg)
     return rebase_from
+
+
+def _refuse_different(op: Op, sender: str) -> None:
+    hint = (
+        " (the sending device was restored from a backup: import a bundle from here on it, then send again)"
+        if op.origin == sender
+        else ""
+    )
+    msg = f"integrity: op {op.origin}:{op.seq} already held with different content{hint}"
+    raise BundleRefused(msg)
 
 
 def _check_ranges(store: Store, manifest: dict[str, Any], ops: list[Op], rebase_from: int | None) -> None:
@@ -619,35 +816,68 @@ def _apply_batches(store: Store, v: _Verified, tell: Progress, committed: list[i
     own = [op.seq for op in v.ops if op.origin == store.device_id]
     for start in range(0, max(total, 1), BATCH_OPS):
         with transaction(store.db):
-            if start == 0 and v.rebase_from is not None:
-                top = max(op.seq for op in v.ops if op.origin == store.device_id)
-                store.renumber_own_ops(v.rebase_from, top)
             if start == 0:
-                for sha, content in v.blobs.items():
-                    store.index_blob(sha, len(content), "application/octet-stream")
-            newest = 0
-            batch = ProjectionBatch(store.db)
-            for n, op in enumerate(v.ops[start : start + BATCH_OPS], start=start):
-                if n % PROGRESS_EVERY == 0:
-                    tell(0.2 + 0.8 * n / max(total, 1), f"merging change {n:,} of {total:,}")
-                if insert_op(store.db, op, batch):
-                    apply_op(store.db, op, batch=batch)
-                    newest = max(newest, op.hlc)
-                    new += 1
-            batch.flush()
-            if newest:
-                store.observe_hlc(newest)  # the clock passes every stamp received (once a batch, not per op)
+                _first_batch(store, v)
+            new += _merge_batch(store, v, start, tell)
             if own:
                 store.resume_seq(max(own))  # this device's own ops came back: it was restored from a backup
             if start + BATCH_OPS >= total:
-                peer = v.manifest["origin"]
-                for origin, seq in v.manifest["vector"].items():
-                    top = store.held_seq(origin)  # a peer has not seen more of an origin than exists here
-                    store.db.execute(
-                        "INSERT OR REPLACE INTO peer_cursor VALUES (?, ?, ?)", [peer, origin, min(seq, top)]
-                    )
+                _sender_cursor(store, v.manifest)
         committed.append(start)
     return new
+
+
+def _first_batch(store: Store, v: _Verified) -> None:
+    """Renumber a restored device's unsent saves and index the blobs (inside the first batch)."""
+    if v.rebase_from is not None:
+        top = max(op.seq for op in v.ops if op.origin == store.device_id)
+        # the saves that move keep their content but not their seq: signed again when next sent
+        store.db.execute("DELETE FROM op_sig WHERE origin=? AND seq>=?", [store.device_id, v.rebase_from])
+        store.renumber_own_ops(v.rebase_from, top)
+    for sha, content in v.blobs.items():
+        store.index_blob(sha, len(content), "application/octet-stream")
+
+
+def _merge_batch(store: Store, v: _Verified, start: int, tell: Progress) -> int:
+    """Merge ops [start, start + BATCH_OPS) and keep their signatures; the number of new ops."""
+    total = len(v.ops)
+    newest = 0
+    new = 0
+    batch = ProjectionBatch(store.db)
+    chunk = v.ops[start : start + BATCH_OPS]
+    for n, op in enumerate(chunk, start=start):
+        if n % PROGRESS_EVERY == 0:
+            tell(0.2 + 0.8 * n / max(total, 1), f"merging change {n:,} of {total:,}")
+        if insert_op(store.db, op, batch):
+            apply_op(store.db, op, batch=batch)
+            newest = max(newest, op.hlc)
+            new += 1
+    batch.flush()
+    if v.sigs:
+        _keep_received_signatures(store, chunk, v.sigs[start : start + BATCH_OPS], v.manifest["origin"])
+    if newest:
+        store.observe_hlc(newest)  # the clock passes every stamp received (once a batch, not per op)
+    return new
+
+
+def _keep_received_signatures(store: Store, ops: list[Op], sigs: list[str], exporter: str) -> None:
+    """Keep each op's origin signature for relaying; the exporter's own ones marked unchecked if new here."""
+    conn = store.db.conn
+    conn.executemany(
+        "INSERT OR IGNORE INTO op_sig_unchecked SELECT ?, ? WHERE NOT EXISTS "
+        "(SELECT 1 FROM op_sig WHERE origin=? AND seq=?)",
+        [(op.origin, op.seq, op.origin, op.seq) for op in ops if op.origin == exporter],
+    )
+    rows = [(op.origin, op.seq, sig) for op, sig in zip(ops, sigs, strict=True)]
+    conn.executemany("INSERT OR IGNORE INTO op_sig VALUES (?, ?, ?)", rows)
+
+
+def _sender_cursor(store: Store, manifest: dict[str, Any]) -> None:
+    """What the sender holds (its vector) need not be sent back to it (inside the last batch)."""
+    peer = manifest["origin"]
+    for origin, seq in manifest["vector"].items():
+        top = store.held_seq(origin)  # a peer has not seen more of an origin than exists here
+        store.db.execute("INSERT OR REPLACE INTO peer_cursor VALUES (?, ?, ?)", [peer, origin, min(seq, top)])
 
 
 def _clock_warning(store: Store, ops: list[Op]) -> str:

@@ -127,6 +127,21 @@ MIGRATIONS: dict[int, list[str]] = {
         "SELECT id, site_id, '', 'pending', '', '[]', '[]' FROM beam",
         "UPDATE beam_result SET input_hash = ''",  # every result recomputed once, filling the list fields
     ],
+    # 5: device identity and trust (storage/identity.py): op signatures, this device's key, the devices the
+    # office hub lists with their public keys, and pulled ops whose signature did not verify
+    5: [
+        "CREATE TABLE IF NOT EXISTS op_sig (origin TEXT NOT NULL, seq INTEGER NOT NULL, sig TEXT NOT NULL, "
+        "PRIMARY KEY (origin, seq)) WITHOUT ROWID",
+        "CREATE TABLE IF NOT EXISTS device_key (key TEXT PRIMARY KEY, value TEXT NOT NULL)",
+        "CREATE TABLE IF NOT EXISTS trusted_device (device_id TEXT PRIMARY KEY, public_key TEXT NOT NULL, "
+        "name TEXT NOT NULL, revoked_ms INTEGER, at_ms INTEGER NOT NULL)",
+        "CREATE TABLE IF NOT EXISTS pull_quarantine (origin TEXT NOT NULL, seq INTEGER NOT NULL, op TEXT NOT NULL, "
+        "sig TEXT NOT NULL, reason TEXT NOT NULL, at_ms INTEGER NOT NULL, PRIMARY KEY (origin, seq))",
+        # signatures received in a bundle from the op's own origin: that device's manifest signature covers the op,
+        # so its own signature is checked only when the op is relayed onward (storage/bundle.py)
+        "CREATE TABLE IF NOT EXISTS op_sig_unchecked (origin TEXT NOT NULL, seq INTEGER NOT NULL, "
+        "PRIMARY KEY (origin, seq)) WITHOUT ROWID",
+    ],
 }
 
 

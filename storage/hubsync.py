@@ -12,8 +12,9 @@ import json
 from dataclasses import dataclass
 from typing import Any
 
+from storage import identity
 from storage.db import transaction
-from storage.identity import Enrolment, SignatureError, ensure_tables, op_signatures, save_enrolment, store_signatures
+from storage.identity import DEMO_ORIGIN, Enrolment, SignatureError, ensure_tables, op_signatures, save_enrolment
 from storage.oplog import OP_KEYS, IntegrityError, Op, ProjectionBatch, apply_op, canonical, insert_op
 from storage.store import Store
 
@@ -45,19 +46,28 @@ class Outgoing:
 
 
 def outgoing(
-    store: Store, enrolment: Enrolment, limit: int = 5000, skip: frozenset[tuple[str, int]] = frozenset()
+    store: Store,
+    enrolment: Enrolment,
+    limit: int = 5000,
+    skip: frozenset[tuple[str, int]] = frozenset(),
+    include_demo: bool = False,
 ) -> Outgoing:
     """Ops the hub has not acknowledged (this device's and relayed ones), oldest first, at most ``limit``.
 
     ``skip``: ops already pushed in this session (the hub refused them; they are not sent twice).
+    Changes to the built-in demo site (``DEMO_ORIGIN``) stay on the tablet unless ``include_demo``.
     """
     _ensure(store)
     cursor = dict(store.db.execute("SELECT origin, seq FROM peer_cursor WHERE peer=?", [HUB_PEER]).fetchall())
     rows = store.db.execute(f"SELECT {', '.join(OP_KEYS)} FROM op ORDER BY origin, seq").fetchall()
     ops = [Op.from_row(dict(zip(OP_KEYS, r, strict=True))) for r in rows]
     ops = [o for o in ops if o.seq > cursor.get(o.origin, 0) and (o.origin, o.seq) not in skip]
+    if not include_demo:
+        ops = [o for o in ops if o.origin != DEMO_ORIGIN]
     signed = set((str(r[0]), int(r[1])) for r in store.db.execute("SELECT origin, seq FROM op_sig").fetchall())
-    mine_or_signed = [o for o in ops if o.origin == store.device_id or (o.origin, o.seq) in signed]
+    own = (store.device_id, DEMO_ORIGIN)  # the demo's changes are signed with its marked key when asked
+    mine_or_signed = [o for o in ops if o.origin in own or (o.origin, o.seq) in signed]
+    mine_or_signed = _relayable(store, mine_or_signed, own)
     chosen = mine_or_signed[:limit]
     try:
         sigs = op_signatures(store.db, chosen, enrolment.key, store.device_id)
@@ -65,6 +75,22 @@ def outgoing(
         msg = f"signing outgoing ops: {exc}"
         raise RuntimeError(msg) from exc
     return Outgoing(list(zip(chosen, sigs, strict=True)), len(ops) - len(mine_or_signed))
+
+
+def _relayable(store: Store, ops: list[Op], own: tuple[str, ...]) -> list[Op]:
+    """Own ops, and colleagues' ops up to the first whose signature does not verify (per origin: no holes)."""
+    out: list[Op] = []
+    stopped: set[str] = set()
+    for op in ops:
+        if op.origin in stopped:
+            continue
+        if op.origin not in own:
+            row = store.db.execute("SELECT sig FROM op_sig WHERE origin=? AND seq=?", [op.origin, op.seq]).fetchone()
+            if not identity.relayable(store.db, op, str(row[0])):
+                stopped.add(op.origin)
+                continue
+        out.append(op)
+    return out
 
 
 def record_push_answer(store: Store, answer: dict[str, Any], pushed: list[tuple[Op, str]], now_ms: int) -> None:
@@ -96,27 +122,53 @@ def hub_cursor(store: Store) -> int:
     return int(row[0]) if row else 0
 
 
-def apply_page(store: Store, page: dict[str, Any]) -> int:
-    """Check and apply one pulled page and store its cursor, in one transaction; the number of new ops."""
+def apply_page(store: Store, page: dict[str, Any], now_ms: int = 0) -> int:
+    """Check and apply one pulled page and store its cursor, in one transaction; the number of new ops.
+
+    Each op must verify by its origin device's key as the hub listed it (revoked devices included:
+    the hub accepted their ops before the revocation). One that does not is quarantined in
+    ``pull_quarantine`` with the reason, never applied; the rest of the page is.
+    """
     _ensure(store)
     ops = [Op.from_row(o["op"]) for o in page["ops"]]
     body = canonical([o["op"] for o in page["ops"]]).encode()
     if hashlib.sha256(body).hexdigest() != page["ops_sha256"]:
         msg = "pulled page does not match its checksum; nothing applied"
         raise PageRefused(msg)
+    signed = [(op, str(o["sig"])) for op, o in zip(ops, page["ops"], strict=True)]
+    good, bad = _verified(store, signed)
     try:
-        return _apply_checked(store, ops, page)
+        return _apply_checked(store, good, bad, page, now_ms)
     except IntegrityError as exc:
         msg = f"a change from the office contradicts a record held here, nothing applied: {exc}"
         raise PageRefused(msg) from exc
 
 
-def _apply_checked(store: Store, ops: list[Op], page: dict[str, Any]) -> int:
+def _verified(store: Store, signed: list[tuple[Op, str]]) -> tuple[list[tuple[Op, str]], list[tuple[Op, str, str]]]:
+    """Split pulled ops into those whose signature verifies by their origin's key and those (with why) not."""
+    keys: dict[str, Any] = {}
+    good: list[tuple[Op, str]] = []
+    bad: list[tuple[Op, str, str]] = []
+    for op, sig in signed:
+        try:
+            if op.origin not in keys:
+                keys[op.origin] = identity.trusted_key(store.db, op.origin, allow_revoked=True)
+            identity.verify_op(keys[op.origin], op, sig)
+        except SignatureError as exc:
+            bad.append((op, sig, str(exc)))
+            continue
+        good.append((op, sig))
+    return good, bad
+
+
+def _apply_checked(
+    store: Store, good: list[tuple[Op, str]], bad: list[tuple[Op, str, str]], page: dict[str, Any], now_ms: int
+) -> int:
     new = 0
     with transaction(store.db):
         batch = ProjectionBatch(store.db)
         newest = 0
-        for op in ops:
+        for op, _ in good:
             if insert_op(store.db, op, batch):
                 apply_op(store.db, op, batch=batch)
                 newest = max(newest, op.hlc)
@@ -124,9 +176,12 @@ def _apply_checked(store: Store, ops: list[Op], page: dict[str, Any]) -> int:
         batch.flush()
         if new:
             store.observe_hlc(newest)
-        store_signatures(
-            store.db,
-            [{"origin": o.origin, "seq": o.seq, "sig": s["sig"]} for o, s in zip(ops, page["ops"], strict=True)],
+        store.db.conn.executemany(
+            "INSERT OR IGNORE INTO op_sig VALUES (?, ?, ?)", [(op.origin, op.seq, sig) for op, sig in good]
+        )
+        store.db.conn.executemany(
+            "INSERT OR REPLACE INTO pull_quarantine VALUES (?, ?, ?, ?, ?, ?)",
+            [(op.origin, op.seq, canonical(op.row()), sig, why, now_ms) for op, sig, why in bad],
         )
         store.db.execute("INSERT OR REPLACE INTO device_key VALUES ('hub_cursor', ?)", [str(int(page["next_cursor"]))])
         for origin, seq in page["seen"].items():  # what the hub holds need not be sent back to it
@@ -136,6 +191,43 @@ def _apply_checked(store: Store, ops: list[Op], page: dict[str, Any]) -> int:
                 [HUB_PEER, origin, int(seq)],
             )
     return new
+
+
+def pull_quarantine(store: Store) -> list[dict[str, Any]]:
+    """Changes pulled from the hub that this tablet did not apply: their signature did not verify."""
+    _ensure(store)
+    rows = store.db.execute(
+        "SELECT origin, seq, op, reason, at_ms FROM pull_quarantine ORDER BY at_ms, origin, seq"
+    ).fetchall()
+    out = []
+    for origin, seq, op_text, reason, at_ms in rows:
+        op = json.loads(op_text)
+        out.append(
+            {
+                "origin": origin,
+                "seq": seq,
+                "entity": op["entity"],
+                "record_id": op["record_id"],
+                "kind": op["kind"],
+                "reason": reason,
+                "at_ms": at_ms,
+            }
+        )
+    return out
+
+
+def pull_quarantine_words(store: Store) -> list[str]:
+    """Each change from the office this tablet set aside, in words: what it was, from which device, why."""
+    out = []
+    for q in pull_quarantine(store):
+        what = f"{q['entity']} {str(q['record_id'])[-6:]}"
+        if q["kind"] == "status":
+            what = f"status move of deficiency {str(q['record_id'])[-6:]}"
+        out.append(
+            f"{what} (change {q['seq']} from device {str(q['origin'])[-4:].upper()}): set aside, not applied, "
+            f"because its signature could not be checked: {q['reason']}"
+        )
+    return out
 
 
 def log_sync(store: Store, outcome: str, detail: str, now_ms: int) -> None:

@@ -19,17 +19,24 @@ from cryptography.exceptions import InvalidSignature
 from cryptography.hazmat.primitives import serialization
 from cryptography.hazmat.primitives.asymmetric.ed25519 import Ed25519PrivateKey, Ed25519PublicKey
 
-from storage.db import transaction
+from storage.db import MIGRATIONS, transaction
 from storage.oplog import Op, canonical
 
 # How far a signed request's time may be from the hub's clock (milliseconds).
 REQUEST_WINDOW_MS = 10 * 60 * 1000
 
-IDENTITY_TABLES = (
-    "CREATE TABLE IF NOT EXISTS op_sig (origin TEXT NOT NULL, seq INTEGER NOT NULL, sig TEXT NOT NULL, "
-    "PRIMARY KEY (origin, seq)) WITHOUT ROWID",
-    "CREATE TABLE IF NOT EXISTS device_key (key TEXT PRIMARY KEY, value TEXT NOT NULL)",
-)
+IDENTITY_TABLES = tuple(MIGRATIONS[5])  # created by the migration; kept idempotent for hub databases
+# DEMO ONLY: the marked key that signs the built-in demo's bundles. Its private half is in the source, so
+# only a demo database (firm key DEMO_FIRM_KEY) trusts it; a real database never does.
+DEMO_KEY_SEED = hashlib.sha256(b"bracewalk demo device key - DEMO ONLY, never a firm's").digest()
+# DEMO ONLY: the origin of every change to the built-in demo site, whatever device makes it. Its ops leave a
+# device (bundle or hub) only when asked, so the demo never mixes with a firm's work.
+DEMO_ORIGIN = "00000000-0000-4000-8000-00000000de30"
+
+
+def demo_key() -> Ed25519PrivateKey:
+    """The marked demo key (DEMO ONLY: its private half is in the source)."""
+    return Ed25519PrivateKey.from_private_bytes(DEMO_KEY_SEED)
 
 
 class SignatureError(ValueError):
@@ -170,7 +177,8 @@ def save_enrolment(
 def op_signatures(db: sqlite_utils.Database, ops: list[Op], key: Ed25519PrivateKey, self_origin: str) -> list[str]:
     """Signatures of ``ops``: stored ones, or signed now (and stored) for this device's own ops.
 
-    Ops of other origins must carry the signature their origin made (relayed as received).
+    Ops of other origins must carry the signature their origin made (relayed as received); changes to
+    the demo site (``DEMO_ORIGIN``, sent only when asked) are signed with the marked demo key.
     """
     ensure_tables(db)
     out = []
@@ -180,13 +188,130 @@ def op_signatures(db: sqlite_utils.Database, ops: list[Op], key: Ed25519PrivateK
             if row:
                 out.append(str(row[0]))
                 continue
-            if op.origin != self_origin:
+            if op.origin not in (self_origin, DEMO_ORIGIN):
                 msg = f"op {op.origin[:8]}:{op.seq} of another device has no signature to relay"
                 raise SignatureError(msg)
-            sig = sign_op(key, op)
+            sig = sign_op(key if op.origin == self_origin else demo_key(), op)
             db.execute("INSERT INTO op_sig VALUES (?, ?, ?)", [op.origin, op.seq, sig])
             out.append(sig)
     return out
+
+
+def device_key(db: sqlite_utils.Database) -> Ed25519PrivateKey:
+    """The device's own Ed25519 key: made at random on first use and kept in the database (never sent).
+
+    A demo database (firm key ``DEMO_FIRM_KEY``) signs with the marked demo key instead.
+    """
+    ensure_tables(db)
+    if _is_demo(db):
+        return demo_key()
+    raw = _get(db, "private_key")
+    if raw:
+        return Ed25519PrivateKey.from_private_bytes(unb64(raw))
+    key = new_private_key()
+    with transaction(db):
+        db.execute("INSERT OR IGNORE INTO device_key VALUES ('private_key', ?)", [b64(private_bytes(key))])
+    raw = _get(db, "private_key")  # another connection may have made one first: use the stored one
+    assert raw is not None
+    return Ed25519PrivateKey.from_private_bytes(unb64(raw))
+
+
+def _is_demo(db: sqlite_utils.Database) -> bool:
+    from storage.store import DEMO_FIRM_KEY
+
+    row = db.execute("SELECT value FROM meta WHERE key='firm_key'").fetchone()
+    return bool(row) and row[0] == DEMO_FIRM_KEY
+
+
+def own_device_id(db: sqlite_utils.Database) -> str:
+    """The id of the device whose database this is."""
+    row = db.execute("SELECT value FROM meta WHERE key='device_id'").fetchone()
+    return str(row[0]) if row else ""
+
+
+@dataclass(frozen=True)
+class TrustedDevice:
+    """An enrolled device as the office hub listed it to this tablet."""
+
+    device_id: str
+    public_key: str
+    name: str
+    revoked_ms: int | None
+
+
+def trust_devices(db: sqlite_utils.Database, devices: list[dict[str, Any]], at_ms: int) -> int:
+    """Replace the known devices with the hub's list (device_id, public_key, name, revoked_ms); how many.
+
+    Keys are checked before anything is written: a list with an unreadable key changes nothing.
+    """
+    ensure_tables(db)
+    rows = []
+    for d in devices:
+        load_public(str(d["public_key"]))
+        revoked = d.get("revoked_ms")
+        rows.append([str(d["device_id"]), str(d["public_key"]), str(d.get("name", "")), revoked, at_ms])
+    with transaction(db):
+        db.execute("DELETE FROM trusted_device")
+        db.conn.executemany("INSERT INTO trusted_device VALUES (?, ?, ?, ?, ?)", rows)
+    return len(rows)
+
+
+def trusted_devices(db: sqlite_utils.Database) -> list[TrustedDevice]:
+    """The devices this tablet knows from the hub, by name."""
+    ensure_tables(db)
+    rows = db.execute("SELECT device_id, public_key, name, revoked_ms FROM trusted_device ORDER BY name").fetchall()
+    return [TrustedDevice(*r) for r in rows]
+
+
+class UnknownDevice(SignatureError):
+    """A device this tablet has no enrolled key for (not listed by the hub)."""
+
+
+class RevokedDevice(SignatureError):
+    """A device the office has revoked."""
+
+
+def trusted_key(db: sqlite_utils.Database, device_id: str, allow_revoked: bool = False) -> Ed25519PublicKey:
+    """The public key to verify ``device_id`` by: this device's own, or one the hub listed.
+
+    Raises UnknownDevice for a device the hub never listed, RevokedDevice for a revoked one (unless
+    ``allow_revoked``: ops the hub accepted before the revocation). A demo database trusts the demo key.
+    """
+    ensure_tables(db)
+    if device_id == own_device_id(db):
+        return device_key(db).public_key()
+    if device_id == DEMO_ORIGIN:
+        if _is_demo(db):
+            return demo_key().public_key()
+        msg = "changes to the built-in demo site are accepted only by a demo database"
+        raise UnknownDevice(msg)
+    row = db.execute("SELECT public_key, revoked_ms FROM trusted_device WHERE device_id=?", [device_id]).fetchone()
+    if row is None:
+        if _is_demo(db):
+            return demo_key().public_key()
+        msg = f"device {device_id[:40]} is not enrolled at the office hub this tablet knows (sync with the hub first)"
+        raise UnknownDevice(msg)
+    if row[1] is not None and not allow_revoked:
+        msg = f"device {device_id[:40]} was revoked at the office"
+        raise RevokedDevice(msg)
+    return load_public(str(row[0]))
+
+
+def relayable(db: sqlite_utils.Database, op: Op, sig: str) -> bool:
+    """Whether a held signature may be relayed: checked on arrival, or checked now by the origin's key.
+
+    A signature that arrived unchecked (its op came from its own origin, covered by that device's bundle
+    signature) is verified the first time the op is relayed; a bad one is never passed on.
+    """
+    if db.execute("SELECT 1 FROM op_sig_unchecked WHERE origin=? AND seq=?", [op.origin, op.seq]).fetchone() is None:
+        return True
+    try:
+        verify_op(trusted_key(db, op.origin, allow_revoked=True), op, sig)
+    except SignatureError:
+        return False
+    with transaction(db):
+        db.execute("DELETE FROM op_sig_unchecked WHERE origin=? AND seq=?", [op.origin, op.seq])
+    return True
 
 
 def store_signatures(db: sqlite_utils.Database, sigs: list[dict[str, Any]]) -> None:

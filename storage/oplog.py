@@ -10,6 +10,7 @@ from __future__ import annotations
 import hashlib
 import json
 from dataclasses import dataclass
+from enum import StrEnum
 from typing import Any
 
 import sqlite_utils
@@ -24,6 +25,17 @@ SEQ_MAX = 2**53
 WALL_MS_MAX = 1 << 46  # the year 4199
 INT_RANGES = {"seq": (1, SEQ_MAX), "hlc": (0, HLC_MAX), "schema_version": (1, 10_000), "wall_ms": (0, WALL_MS_MAX)}
 MAX_ID_CHARS = 64
+
+
+class OpKind(StrEnum):
+    """What an op does; the value is what the log and bundles carry ("set", "insert", "status")."""
+
+    SET = "set"  # per-field edit of an editable record (last writer wins per field)
+    INSERT = "insert"  # an insert-only record (measurement, photo, issued notice): union by id
+    STATUS = "status"  # a deficiency status move (forward-only lattice)
+
+
+OP_KINDS = tuple(k.value for k in OpKind)
 
 
 class IntegrityError(Exception):
@@ -49,7 +61,7 @@ class Op:
     hlc: int
     entity: str
     record_id: str
-    kind: str  # "set", "insert" or "status"
+    kind: OpKind
     payload: dict[str, Any]
     base: dict[str, Any]
     schema_version: int
@@ -63,7 +75,7 @@ class Op:
             "hlc": self.hlc,
             "entity": self.entity,
             "record_id": self.record_id,
-            "kind": self.kind,
+            "kind": self.kind.value,
             "payload": canonical(self.payload),
             "base": canonical(self.base),
             "schema_version": self.schema_version,
@@ -89,13 +101,16 @@ class Op:
         if not isinstance(payload, dict) or not isinstance(base, dict):
             msg = "op payload and base must be JSON objects"
             raise ValueError(msg)
+        if row["kind"] not in OP_KINDS:
+            msg = f"unknown op kind {row['kind']!r}; allowed: {', '.join(OP_KINDS)}"
+            raise ValueError(msg)
         op = cls(
             origin=row["origin"],
             seq=row["seq"],
             hlc=row["hlc"],
             entity=row["entity"],
             record_id=row["record_id"],
-            kind=row["kind"],
+            kind=OpKind(row["kind"]),
             payload=payload,
             base=base,
             schema_version=row["schema_version"],
@@ -104,19 +119,24 @@ class Op:
         op.validate()
         return op
 
+    def __post_init__(self) -> None:
+        """Take the kind as text or as an OpKind (text is checked: an unknown kind is refused by name)."""
+        if not isinstance(self.kind, OpKind):
+            if self.kind not in OP_KINDS:
+                msg = f"unknown op kind {self.kind!r}; allowed: {', '.join(OP_KINDS)}"
+                raise ValueError(msg)
+            object.__setattr__(self, "kind", OpKind(self.kind))
+
     def validate(self) -> None:
         """Refuse ops whose entity and kind do not go together."""
-        if self.kind == "set" and self.entity not in SET_ENTITIES:
+        if self.kind == OpKind.SET and self.entity not in SET_ENTITIES:
             msg = f"op kind 'set' on unknown entity {self.entity!r}"
             raise ValueError(msg)
-        if self.kind == "insert" and self.entity not in INSERT_ENTITIES:
+        if self.kind == OpKind.INSERT and self.entity not in INSERT_ENTITIES:
             msg = f"op kind 'insert' on unknown entity {self.entity!r}"
             raise ValueError(msg)
-        if self.kind == "status" and self.entity != "deficiency":
+        if self.kind == OpKind.STATUS and self.entity != "deficiency":
             msg = "op kind 'status' applies only to 'deficiency'"
-            raise ValueError(msg)
-        if self.kind not in ("set", "insert", "status"):
-            msg = f"unknown op kind {self.kind!r}"
             raise ValueError(msg)
         for key, (low, high) in INT_RANGES.items():
             value = getattr(self, key)
@@ -201,9 +221,9 @@ def apply_op(
 ) -> None:
     """Merge one op into the projections (inside the caller's transaction; ``batch`` defers the writes)."""
     rows = batch or _Direct(db)
-    if op.kind == "set":
+    if op.kind == OpKind.SET:
         _apply_set(db, op, record_conflicts, rows)
-    elif op.kind == "insert":
+    elif op.kind == OpKind.INSERT:
         _apply_insert(op, rows)
     else:
         _apply_status(op, rows)
@@ -307,7 +327,7 @@ def insert_op(db: sqlite_utils.Database, op: Op, batch: ProjectionBatch | None =
         "SELECT hlc, entity, record_id, kind, payload, base FROM op WHERE origin=? AND seq=?", [op.origin, op.seq]
     ).fetchone()
     if row is not None:
-        mine = (op.hlc, op.entity, op.record_id, op.kind, canonical(op.payload), canonical(op.base))
+        mine = (op.hlc, op.entity, op.record_id, op.kind.value, canonical(op.payload), canonical(op.base))
         if tuple(row) != mine:
             msg = f"op {op.origin}:{op.seq} already held with different content"
             raise IntegrityError(msg)
@@ -340,4 +360,14 @@ def all_ops(db: sqlite_utils.Database) -> list[Op]:
     return [Op.from_row(dict(zip(OP_KEYS, r, strict=True))) for r in cur.fetchall()]
 
 
-__all__ = ["SCHEMA_VERSION", "IntegrityError", "Op", "ProjectionBatch", "all_ops", "apply_op", "canonical", "insert_op"]
+__all__ = [
+    "SCHEMA_VERSION",
+    "IntegrityError",
+    "Op",
+    "OpKind",
+    "ProjectionBatch",
+    "all_ops",
+    "apply_op",
+    "canonical",
+    "insert_op",
+]

@@ -27,7 +27,8 @@ from core.results import PRIORITY_ORDER
 from storage.clock import hlc_receive, hlc_tick, uuid7
 from storage.db import PROJECTIONS, SCHEMA_VERSION, SET_ENTITIES, connect, transaction
 from storage.files import write_atomic
-from storage.oplog import IntegrityError, Op, all_ops, apply_op, canonical, insert_op
+from storage.identity import DEMO_ORIGIN
+from storage.oplog import IntegrityError, Op, OpKind, all_ops, apply_op, canonical, insert_op
 from storage.stamps import utc_stamp
 
 BEAM_FIELDS = tuple(Beam.model_fields)
@@ -253,8 +254,12 @@ class Store:
     ) -> Op:
         if kind == "set" and base is None:
             base = {f: self.stamp(entity, record_id, f) for f in fields}
-        seq = int(self._meta()["seq"]) + 1
-        self._set_meta("seq", str(seq))
+        # changes to the demo site go under the demo's own origin and counter: they never leave unasked
+        origin, counter = (
+            (DEMO_ORIGIN, "demo_seq") if self._is_demo(entity, record_id, fields) else (self.device_id, "seq")
+        )
+        seq = int(self._meta().get(counter, "0")) + 1
+        self._set_meta(counter, str(seq))
         hlc = self._next_hlc()
         if kind == "set":
             # the device's own edit always takes effect here: past every stamp of the fields it changes
@@ -263,12 +268,12 @@ class Store:
                 hlc = top + 1
                 self._set_meta("hlc", str(hlc))
         op = Op(
-            origin=self.device_id,
+            origin=origin,
             seq=seq,
             hlc=hlc,
             entity=entity,
             record_id=record_id,
-            kind=kind,
+            kind=OpKind(kind),
             payload=json.loads(canonical(fields)),
             base={k: v for k, v in (base or {}).items() if v},
             schema_version=SCHEMA_VERSION,
@@ -278,6 +283,19 @@ class Store:
         insert_op(self.db, op)
         apply_op(self.db, op)
         return op
+
+    def _is_demo(self, entity: str, record_id: str, fields: dict[str, Any]) -> bool:
+        """Whether a change concerns the built-in demo site (a site saved with ``demo`` true)."""
+        if entity == "site" and fields.get("demo") is True:
+            return True
+        site_id = record_id if entity == "site" else fields.get("site_id")
+        if site_id is None and entity in PROJECTIONS:
+            row = self.db.execute(f"SELECT site_id FROM {entity} WHERE id=?", [record_id]).fetchone()
+            site_id = row[0] if row else None
+        if not isinstance(site_id, str):
+            return False
+        row = self.db.execute("SELECT json_extract(data, '$.demo') FROM site WHERE id=?", [site_id]).fetchone()
+        return bool(row and row[0])
 
     def _counter(self, name: str) -> int:
         value = int(self._meta()[f"counter_{name}"]) + 1

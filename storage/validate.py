@@ -18,7 +18,7 @@ from core.overrides import TableRecord
 from core.records import Deficiency, IssuedNotice, Site, Stage, StatusEvent, Visit
 from core.results import PRIORITY_ORDER
 from storage.clock import HLC_MAX
-from storage.oplog import MAX_ID_CHARS, Op, canonical
+from storage.oplog import MAX_ID_CHARS, Op, OpKind, canonical
 
 SHA256 = re.compile(r"^[0-9a-f]{64}$")
 MAX_VALUE_CHARS = 100_000  # one field's canonical JSON (a long description fits easily)
@@ -82,43 +82,49 @@ def _check_id(op: Op, field: str, value: Any, optional: bool) -> None:
         raise RecordInvalid(msg)
 
 
+def _check_set_field(op: Op, field: str, value: Any) -> None:
+    """One field of an edit: ids as ids, model fields by the model, nothing a local edit cannot set."""
+    _check_size(op, field, value)
+    if field == "site_id" or field in ALWAYS_TEXT_ID:
+        _check_id(op, field, value, optional=field != "site_id")
+        return
+    if op.entity != "beam" and field in ("id", "cycle", "stage"):
+        msg = f"{_where(op, field)}: not set by an edit"
+        raise RecordInvalid(msg)
+    adapter = _adapter(op.entity, field)
+    if adapter is None:
+        if op.entity != "beam":  # beams carry location fields and drafts besides the model's
+            msg = f"{_where(op, field)}: not a field of {op.entity}"
+            raise RecordInvalid(msg)
+        return
+    try:
+        adapter.validate_python(value)
+        if op.entity == "deficiency" and field == "priority":
+            check_priority(value)
+    except (ValidationError, ValueError) as exc:
+        why = _first_error(exc) if isinstance(exc, ValidationError) else str(exc)
+        msg = f"{_where(op, field)}: {why}"
+        raise RecordInvalid(msg) from exc
+
+
+def _is_stamp(stamp: Any) -> bool:
+    """A base stamp: [hlc, origin] with the hlc in range and the origin an id."""
+    return (
+        isinstance(stamp, list)
+        and len(stamp) == 2
+        and isinstance(stamp[0], int)
+        and not isinstance(stamp[0], bool)
+        and 0 <= stamp[0] <= HLC_MAX
+        and isinstance(stamp[1], str)
+        and 0 < len(stamp[1]) <= MAX_ID_CHARS
+    )
+
+
 def _check_set(op: Op) -> None:
     for field, value in op.payload.items():
-        _check_size(op, field, value)
-        if field == "site_id":
-            _check_id(op, field, value, optional=False)
-            continue
-        if field in ALWAYS_TEXT_ID:
-            _check_id(op, field, value, optional=True)
-            continue
-        if op.entity != "beam" and field in ("id", "cycle", "stage"):
-            msg = f"{_where(op, field)}: not set by an edit"
-            raise RecordInvalid(msg)
-        adapter = _adapter(op.entity, field)
-        if adapter is None:
-            if op.entity != "beam":  # beams carry location fields and drafts besides the model's
-                msg = f"{_where(op, field)}: not a field of {op.entity}"
-                raise RecordInvalid(msg)
-            continue
-        try:
-            adapter.validate_python(value)
-            if op.entity == "deficiency" and field == "priority":
-                check_priority(value)
-        except (ValidationError, ValueError) as exc:
-            why = _first_error(exc) if isinstance(exc, ValidationError) else str(exc)
-            msg = f"{_where(op, field)}: {why}"
-            raise RecordInvalid(msg) from exc
+        _check_set_field(op, field, value)
     for field, stamp in op.base.items():
-        ok = (
-            isinstance(stamp, list)
-            and len(stamp) == 2
-            and isinstance(stamp[0], int)
-            and not isinstance(stamp[0], bool)
-            and 0 <= stamp[0] <= HLC_MAX
-            and isinstance(stamp[1], str)
-            and 0 < len(stamp[1]) <= MAX_ID_CHARS
-        )
-        if not ok:
+        if not _is_stamp(stamp):
             msg = f"{_where(op, field)}: base stamp {str(stamp)[:60]} is not [hlc, origin]"
             raise RecordInvalid(msg)
 
@@ -174,9 +180,9 @@ def _check_insert(op: Op) -> None:
 
 def check_op_record(op: Op) -> None:
     """Raise RecordInvalid (naming record and field) unless the op's content is what a local save writes."""
-    if op.kind == "set":
+    if op.kind == OpKind.SET:
         _check_set(op)
-    elif op.kind == "status":
+    elif op.kind == OpKind.STATUS:
         _check_status(op)
     else:
         _check_insert(op)

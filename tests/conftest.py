@@ -8,3 +8,34 @@ sets for the same purpose). Tests of the per-install key unset it themselves.
 import os
 
 os.environ.setdefault("BRACEWALK_FIRM_KEY", "bracewalk-test-suite-key-tests-only")
+
+
+# Tablets learn each other's public keys from the office hub. The suite's databases have no hub, so
+# each one trusts the keys of the databases this test process made, as if one hub listed them all
+# (only for devices it has not been told about; a revoked device stays refused). Tests of trust itself
+# use the real lookup: ``monkeypatch.setattr(identity, "trusted_key", identity.trusted_key.__wrapped__)``.
+import storage.identity as _identity
+
+_SUITE_KEYS: dict[str, object] = {}
+_real_device_key = _identity.device_key
+_real_trusted_key = _identity.trusted_key
+
+
+def _suite_device_key(db):
+    key = _real_device_key(db)
+    _SUITE_KEYS[_identity.own_device_id(db)] = key.public_key()
+    return key
+
+
+def _suite_trusted_key(db, device_id, allow_revoked=False):
+    try:
+        return _real_trusted_key(db, device_id, allow_revoked)
+    except _identity.UnknownDevice:
+        if device_id in _SUITE_KEYS:
+            return _SUITE_KEYS[device_id]
+        raise
+
+
+_suite_trusted_key.__wrapped__ = _real_trusted_key
+_identity.device_key = _suite_device_key
+_identity.trusted_key = _suite_trusted_key

@@ -114,7 +114,7 @@ def run_demo(out: Path, serve: bool = False) -> int:
         store, site_id, out / "notice.pdf", issued_by=reviewer, issued_on="2026-11-30", acknowledgement=ack
     )
     bundle = out / "cedar-hollow.bwsync"
-    export_bundle(store, bundle)
+    export_bundle(store, bundle, include_demo=True)  # asked for: the demo's own bundle
     print(f"{'mark':<6} {'status':<16} {'util':>6}  findings")
     for record, result in rows:
         util = "-" if result.governing_utilisation is None else f"{result.governing_utilisation:.2f}"

@@ -35,6 +35,7 @@ class SyncScreen(Screen):
     waiting_text = StringProperty("")
     clock_text = StringProperty("")
     held_text = StringProperty("")
+    aside_text = StringProperty("")  # changes pulled from the office whose signature did not verify
     progress = NumericProperty(0.0)
     progress_text = StringProperty("")
     summary = StringProperty("")
@@ -85,6 +86,8 @@ class SyncScreen(Screen):
         self.clock_text = self.vm.clock_warning()
         held = self.vm.held_back()
         self.held_text = "\n".join(f"• {line}" for line in held) if held else "Nothing held back."
+        aside = self.vm.set_aside()
+        self.aside_text = "\n".join(f"• {line}" for line in aside) if aside else "Nothing set aside."
         self._render_conflicts()
 
     def _render_conflicts(self) -> None:

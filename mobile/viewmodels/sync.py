@@ -15,7 +15,7 @@ from urllib.parse import urlsplit
 from storage import Store
 from storage.bundle import Progress, export_bundle, import_bundle
 from storage.clock import far_ahead_ms
-from storage.hubsync import HUB_PEER, rejection_words, rejections
+from storage.hubsync import HUB_PEER, pull_quarantine_words, rejection_words, rejections
 from storage.hubsync import last_sync as last_hub_sync
 from storage.identity import enrolment
 from storage.stamps import local_time, utc_stamp
@@ -146,6 +146,10 @@ class SyncViewModel:
     def held_back(self) -> list[str]:
         """Changes the office hub refused, each in words: what it was and why."""
         return rejection_words(self.store)
+
+    def set_aside(self) -> list[str]:
+        """Changes pulled from the office that this tablet did not apply (signature not verified), in words."""
+        return pull_quarantine_words(self.store)
 
     def conflicts(self) -> list[tuple[int, str]]:
         """[(conflict id, 'beam RB-2 · spans_mm: kept [7200] (device A) · other [7000] (device B)')]."""

@@ -50,10 +50,12 @@ def test_create_site_and_refuse_bad_basis(tmp_path):
 def test_pending_changes_are_counted_per_site(demo, tmp_path):
     store, site_id = demo
     other = store.create_site(name="Other site")
-    assert store.pending_sync_count(site_id=other.id) == 1
-    assert store.pending_sync_count(site_id=site_id) > 13  # site, visits, 13 beams, photos
+    beam = store.save_beam(other.id, store.beam(store.beams(site_id)[0][0]))
+    store.update_beam(beam, {"notes": "copied from the demo"})
+    assert store.pending_sync_count(site_id=other.id) == 3
+    assert store.pending_sync_count(site_id=site_id) == 0  # the demo site never leaves the tablet (issue 12)
     SyncViewModel(store).export(tmp_path / "out")
-    assert store.pending_sync_count(site_id=site_id) == 0
+    assert store.pending_sync_count(site_id=other.id) == 0
 
 
 def test_site_groups_deficiencies_by_priority_and_visit(demo):
@@ -256,7 +258,11 @@ def test_notice_choose_preview_issue_export(demo, tmp_path):
 
 def test_sync_export_import_progress_and_conflict_resolution(tmp_path):
     a, b = Store(tmp_path / "a.db"), Store(tmp_path / "b.db")
-    site_id = load_demo(a)
+    site_id = a.create_site(name="Shared job").id  # a real site: the demo never leaves the tablet
+    demo = Store(tmp_path / "demo.db")
+    demo_site = load_demo(demo)
+    for beam_id, record in demo.beams(demo_site):
+        a.save_beam(site_id, demo.beam(beam_id), {"mark": record["mark"]})
     seen = []
     summary = SyncViewModel(a).export(tmp_path / "x", progress=lambda f, _w: seen.append(f))
     assert "Wrote" in summary

@@ -51,6 +51,7 @@ def test_openapi_document_lists_every_protocol_call(tmp_path):
     assert set(doc["paths"]) == {
         "/v1/hub",
         "/v1/enroll",
+        "/v1/devices",
         "/v1/blobs/missing",
         "/v1/blobs/{sha256}",
         "/v1/push",

@@ -108,12 +108,10 @@ def _set(doc: Any, path: tuple[Any, ...], value: Any, delete: bool = False) -> N
         doc[path[-1]] = value
 
 
-def mutate_beam(rng: random.Random, beams: list[dict[str, Any]]) -> bytes:
-    """One bad (or sometimes good) beam file, as bytes."""
-    doc = copy.deepcopy(rng.choice(beams))
+def _mutate_doc(rng: random.Random, doc: dict[str, Any]) -> None:
+    """One to three fields set to a nasty value, deleted, or set to a random number."""
     for _ in range(rng.randint(1, 3)):
-        paths = _paths(doc)
-        path = rng.choice(paths)
+        path = rng.choice(_paths(doc))
         roll = rng.random()
         if roll < 0.6:
             value = rng.choice(NASTY)
@@ -124,29 +122,44 @@ def mutate_beam(rng: random.Random, beams: list[dict[str, Any]]) -> bytes:
             _set(doc, path, None, delete=True)
         else:
             _set(doc, path, rng.uniform(-1e4, 1e5))
-    text = json.dumps(doc, ensure_ascii=False)
+
+
+def _mutate_text(rng: random.Random, text: str) -> str:
+    """Sometimes NaN or Infinity, deep nesting, a cut, or a huge number in the JSON text."""
     roll = rng.random()
     if roll < 0.05:
-        text = text.replace("0", "NaN", 1) if rng.random() < 0.5 else text.replace("1", "Infinity", 1)
-    elif roll < 0.08:
+        return text.replace("0", "NaN", 1) if rng.random() < 0.5 else text.replace("1", "Infinity", 1)
+    if roll < 0.08:
         depth = rng.choice([100, 5000, 50_000])
-        text = "[" * depth + "]" * depth
-    elif roll < 0.10:
-        text = text[: rng.randrange(len(text))]
-    elif roll < 0.12:
-        text = text.replace("130", "9" * 4300, 1)
+        return "[" * depth + "]" * depth
+    if roll < 0.10:
+        return text[: rng.randrange(len(text))]
+    if roll < 0.12:
+        return text.replace("130", "9" * 4300, 1)
+    return text
+
+
+def _mutate_bytes(rng: random.Random, text: str) -> bytes:
+    """The text encoded, sometimes with a BOM, as UTF-16 or Latin-1, or with one byte changed."""
     data = text.encode()
     roll = rng.random()
     if roll < 0.05:
-        data = b"\xef\xbb\xbf" + data
-    elif roll < 0.08:
-        data = text.encode("utf-16")
-    elif roll < 0.11:
-        data = text.encode("latin-1", errors="replace")
-    elif roll < 0.13:
+        return b"\xef\xbb\xbf" + data
+    if roll < 0.08:
+        return text.encode("utf-16")
+    if roll < 0.11:
+        return text.encode("latin-1", errors="replace")
+    if roll < 0.13:
         i = rng.randrange(len(data))
-        data = data[:i] + bytes([rng.randrange(256)]) + data[i + 1 :]
+        return data[:i] + bytes([rng.randrange(256)]) + data[i + 1 :]
     return data
+
+
+def mutate_beam(rng: random.Random, beams: list[dict[str, Any]]) -> bytes:
+    """One bad (or sometimes good) beam file, as bytes."""
+    doc = copy.deepcopy(rng.choice(beams))
+    _mutate_doc(rng, doc)
+    return _mutate_bytes(rng, _mutate_text(rng, json.dumps(doc, ensure_ascii=False)))
 
 
 def run_check(data: bytes, path: Path) -> tuple[str, str]:
@@ -186,34 +199,22 @@ def check_campaign(count: int, seed: int = 10) -> Tally:
 
 
 # -- mutated bundles -------------------------------------------------------------------------------
-def _resign(key: bytes, raw: bytes, edit_manifest: Any, edit_ops: Any) -> bytes:
-    import hashlib
-    import hmac
-
-    from storage.oplog import canonical
+def _resign(key: Any, raw: bytes, edit_manifest: Any, edit_ops: Any) -> bytes:
+    """The bundle with ops and manifest edited, then signed again with ``key`` (an insider's device key)."""
+    from tests.storage.signing import sign_bundle
 
     z = zipfile.ZipFile(io.BytesIO(raw))
     manifest = json.loads(z.read("manifest.json"))
     ops = [json.loads(line) for line in z.read("ops.jsonl").decode().splitlines()]
     edit_ops(ops)
-    body = ("\n".join(canonical(o) for o in ops) + ("\n" if ops else "")).encode()
-    manifest["ops_sha256"] = hashlib.sha256(body).hexdigest()
     manifest["op_count"] = len(ops)
     edit_manifest(manifest)
-    mbytes = canonical(manifest).encode()
-    buf = io.BytesIO()
-    with zipfile.ZipFile(buf, "w", compression=zipfile.ZIP_DEFLATED) as out:
-        out.writestr("manifest.json", mbytes)
-        out.writestr("manifest.mac", hmac.new(key, mbytes, hashlib.sha256).hexdigest())
-        out.writestr("ops.jsonl", body)
-        for name in z.namelist():
-            if name.startswith("blobs/"):
-                out.writestr(name, z.read(name))
-    return buf.getvalue()
+    blobs = {name: z.read(name) for name in z.namelist() if name.startswith("blobs/")}
+    return sign_bundle(key, manifest, ops, blobs)
 
 
-def mutate_bundle(rng: random.Random, raw: bytes, key: bytes) -> bytes:
-    """Bytes damaged at random, or (with the key, as an insider) a re-signed bundle with altered content."""
+def _damage(rng: random.Random, raw: bytes) -> bytes | None:
+    """Raw bytes flipped, cut or inserted (70 % of the time None: the content is edited instead)."""
     roll = rng.random()
     if roll < 0.3:
         i = rng.randrange(len(raw))
@@ -223,37 +224,49 @@ def mutate_bundle(rng: random.Random, raw: bytes, key: bytes) -> bytes:
     if roll < 0.45:
         i = rng.randrange(len(raw))
         return raw[:i] + rng.randbytes(rng.randint(1, 50)) + raw[i:]
+    return None
 
-    def edit_ops(ops: list[dict[str, Any]]) -> None:
-        if not ops:
-            return
-        op = rng.choice(ops)
-        where = rng.choice(["payload", "base", "top"])
-        value = rng.choice(NASTY)
-        if where == "top":
-            op[rng.choice(list(op))] = value
-        elif where == "payload" and op["payload"]:
-            k = rng.choice(list(op["payload"]))
-            if rng.random() < 0.2:
-                del op["payload"][k]
-            else:
-                op["payload"][k] = value
-        elif where == "base":
-            op["base"][rng.choice(["b_mm", "name", "x"])] = value
-        if rng.random() < 0.1:
-            ops.append(copy.deepcopy(op))
+
+def _edit_one_op(rng: random.Random, ops: list[dict[str, Any]]) -> None:
+    """A nasty value in one op's payload, base or top-level key; sometimes the op twice."""
+    if not ops:
+        return
+    op = rng.choice(ops)
+    where = rng.choice(["payload", "base", "top"])
+    value = rng.choice(NASTY)
+    if where == "top":
+        op[rng.choice(list(op))] = value
+    elif where == "payload" and op["payload"]:
+        k = rng.choice(list(op["payload"]))
+        if rng.random() < 0.2:
+            del op["payload"][k]
+        else:
+            op["payload"][k] = value
+    elif where == "base":
+        op["base"][rng.choice(["b_mm", "name", "x"])] = value
+    if rng.random() < 0.1:
+        ops.append(copy.deepcopy(op))
+
+
+def mutate_bundle(rng: random.Random, raw: bytes, key: Any) -> bytes:
+    """Bytes damaged at random, or (with the device key, as an insider) a re-signed bundle with altered content."""
+    damaged = _damage(rng, raw)
+    if damaged is not None:
+        return damaged
 
     def edit_manifest(m: dict[str, Any]) -> None:
         if rng.random() < 0.3:
             m[rng.choice(list(m))] = rng.choice([*NASTY, "office", {"x": 10**9}])
 
-    return _resign(key, raw, edit_manifest, edit_ops)
+    return _resign(key, raw, edit_manifest, lambda ops: _edit_one_op(rng, ops))
 
 
-def _fixture_bundle(tmp: Path) -> tuple[bytes, Path]:
-    from storage import Store
+def _fixture_bundle(tmp: Path) -> tuple[bytes, dict[str, Any], Any]:
+    """The bundle, its exporter as a hub lists it, and the exporter's key (for insider edits)."""
+    from storage import Store, identity
     from storage.bundle import export_bundle
     from tests.core.beams import glulam
+    from tests.storage.signing import listing
 
     src = Store(tmp / "src.db")
     site = src.create_site(name="Campaign", project_number="P9")
@@ -264,24 +277,25 @@ def _fixture_bundle(tmp: Path) -> tuple[bytes, Path]:
     src.add_photo(site.id, b"photo" * 40, deficiency_id=d.id)
     src.issue_notice(site.id, "P9-FR-1", b"%PDF-1.4 campaign", [d.id], "R", "2026-01-01")
     export_bundle(src, tmp / "b.zip")
+    listed, key = listing(src), identity.device_key(src.db)
     src.close()
-    return (tmp / "b.zip").read_bytes(), tmp
+    return (tmp / "b.zip").read_bytes(), listed, key
 
 
 def bundle_campaign(count: int, seed: int = 11) -> Tally:
     """``count`` mutated bundles, each imported into a fresh database."""
-    from storage import Store
+    from storage import Store, identity
     from storage.bundle import import_bundle
 
     rng = random.Random(seed)
     tally = Tally()
     with tempfile.TemporaryDirectory() as tmpname:
         tmp = Path(tmpname)
-        raw, _ = _fixture_bundle(tmp)
+        raw, listed, key = _fixture_bundle(tmp)
         ref = Store(tmp / "ref.db")
+        identity.trust_devices(ref.db, [listed], at_ms=0)
         import_bundle(ref, tmp / "b.zip")
         ref_digest = ref.digest()
-        key = ref.firm_key
         ref.close()
         for n in range(count):
             data = mutate_bundle(rng, raw, key)
@@ -289,6 +303,7 @@ def bundle_campaign(count: int, seed: int = 11) -> Tally:
             bundle.write_bytes(data)
             db = tmp / f"d{n}.db"
             store = Store(db)
+            identity.trust_devices(store.db, [listed], at_ms=0)  # the exporter, as the hub lists it
             try:
                 report = import_bundle(store, bundle)
             except Exception:
@@ -314,16 +329,18 @@ def bundle_campaign(count: int, seed: int = 11) -> Tally:
 
 # -- killed imports ---------------------------------------------------------------------------------
 IMPORT = (
-    "import sys; from storage import Store; import storage.bundle as b; b.BATCH_OPS = int(sys.argv[3]); "
-    "b.import_bundle(Store(sys.argv[1]), sys.argv[2])"
+    "import sys, json; from storage import Store, identity; import storage.bundle as b; "
+    "b.BATCH_OPS = int(sys.argv[3]); s = Store(sys.argv[1]); "
+    "identity.trust_devices(s.db, [json.loads(sys.argv[4])], at_ms=0); b.import_bundle(s, sys.argv[2])"
 )
 
 
 def kill_campaign(count: int, seed: int = 12, edits: int = 3000, batch_ops: int = 500) -> Tally:
     """``count`` imports SIGKILLed at random moments; each database checked, then the import resumed."""
-    from storage import Store
+    from storage import Store, identity
     from storage.bundle import export_bundle, import_bundle
     from tests.core.beams import glulam
+    from tests.storage.signing import listing
 
     rng = random.Random(seed)
     tally = Tally()
@@ -336,14 +353,16 @@ def kill_campaign(count: int, seed: int = 12, edits: int = 3000, batch_ops: int 
             src.update_beam(beam, {"b_mm": 80 + i % 50, "notes": f"edit {i}"})
         src.add_photo(site.id, rng.randbytes(50_000))
         export_bundle(src, tmp / "big.zip")
+        listed = listing(src)
         full = Store(tmp / "full.db")
+        identity.trust_devices(full.db, [listed], at_ms=0)
         import_bundle(full, tmp / "big.zip")
         full_digest = full.digest()
         full.close()
         for run in range(count):
             db = tmp / f"k{run}.db"
             proc = subprocess.Popen(
-                [sys.executable, "-c", IMPORT, str(db), str(tmp / "big.zip"), str(batch_ops)],
+                [sys.executable, "-c", IMPORT, str(db), str(tmp / "big.zip"), str(batch_ops), json.dumps(listed)],
                 cwd=ROOT,
                 stdout=subprocess.DEVNULL,
                 stderr=subprocess.DEVNULL,
@@ -358,6 +377,7 @@ def kill_campaign(count: int, seed: int = 12, edits: int = 3000, batch_ops: int 
                 conn.close()
             if ok:
                 store = Store(db)
+                identity.trust_devices(store.db, [listed], at_ms=0)  # a kill may come before the child's
                 ok = store.rebuild_projections() == store.projections()
                 ok = ok and import_bundle(store, tmp / "big.zip").outcome == "applied"
                 ok = ok and store.digest() == full_digest

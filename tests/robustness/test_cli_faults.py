@@ -12,6 +12,7 @@ from mobile.cli import main
 from storage import Store, StoreUnavailable
 from storage.bundle import export_bundle
 from tests.core.beams import glulam
+from tests.storage.signing import introduce
 
 ROOT = Path(__file__).resolve().parents[2]
 
@@ -135,6 +136,7 @@ def test_import_on_a_full_disk_leaves_no_partial_files(tmp_path, full_at):
             src.update_beam(beam, {"notes": f"edit {n} " + "x" * 200})
     export_bundle(src, tmp_path / "b.zip")
     dst = Store(tmp_path / "dst.db")
+    introduce(dst, src)  # the importing process knows src's key, as from a hub
     before = dst.digest()
     dst.close()
     # a file-size limit makes every write past 200 kB fail with "file too large", as a full disk would

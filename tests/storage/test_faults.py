@@ -13,6 +13,7 @@ import pytest
 from storage import Store
 from storage.bundle import BundleRefused, export_bundle, import_bundle, verify_bundle
 from tests.core.beams import glulam
+from tests.storage.signing import signed_bundle
 
 NOW = 1_900_000_000_000
 HOUR = 3_600_000
@@ -69,18 +70,9 @@ def _forge(store, path, edit):
 
 
 def _write(store, path, manifest, body, blobs):
-    import hashlib
-    import hmac
-
-    from storage.oplog import canonical
-
-    mbytes = canonical(manifest).encode()
-    with zipfile.ZipFile(path, "w") as out:
-        out.writestr("manifest.json", mbytes)
-        out.writestr("manifest.mac", hmac.new(store.firm_key, mbytes, hashlib.sha256).hexdigest())
-        out.writestr("ops.jsonl", body)
-        for name, content in blobs.items():
-            out.writestr(name, content)
+    """The bundle re-signed by ``store``'s own key: a device that can sign, gone wrong."""
+    ops = [json.loads(line) for line in body.decode().splitlines()]
+    path.write_bytes(signed_bundle(store, manifest, ops, blobs))
     return path
 
 
@@ -224,8 +216,9 @@ def test_huge_manifest_refused_before_the_mac_is_read(tmp_path):
     buf = io.BytesIO()
     with zipfile.ZipFile(buf, "w", compression=zipfile.ZIP_DEFLATED) as z:
         z.writestr("manifest.json", b" " * (64 * 1024 * 1024))
-        z.writestr("manifest.mac", "0" * 64)
+        z.writestr("manifest.sig", "0" * 64)
         z.writestr("ops.jsonl", b"")
+        z.writestr("ops.sig", b"")
     assert len(buf.getvalue()) < 200_000
     with pytest.raises(BundleRefused, match="limit"):
         verify_bundle(b, buf.getvalue())

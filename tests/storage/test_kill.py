@@ -19,6 +19,7 @@ import pytest
 from storage import Store
 from storage.bundle import export_bundle
 from tests.core.beams import glulam
+from tests.storage.signing import introduce
 
 ROOT = Path(__file__).resolve().parents[2]
 IMPORT = (
@@ -37,6 +38,7 @@ def big(tmp_path_factory):
         src.update_beam(with_ops, {"b_mm": 80 + i % 50, "notes": f"edit {i}"})
     export_bundle(src, tmp / "big.zip")
     base = Store(tmp / "base.db")
+    introduce(base, src)  # the child process importing into copies of base knows src's key, as from a hub
     base_digest = base.digest()
     base.close()
     full = Store(tmp / "full.db")

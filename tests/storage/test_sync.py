@@ -7,12 +7,14 @@ import shutil
 import zipfile
 
 import pytest
+from cryptography.hazmat.primitives.asymmetric.ed25519 import Ed25519PrivateKey
 from hypothesis import settings
 from hypothesis import strategies as st
 from hypothesis.stateful import RuleBasedStateMachine, invariant, rule
 
 from storage import Store
-from storage.bundle import BundleRefused, export_bundle, import_bundle, verify_bundle
+from storage.bundle import MANIFEST_SIG_PREFIX, BundleRefused, export_bundle, import_bundle, verify_bundle
+from storage.identity import b64
 from tests.core.beams import glulam
 
 
@@ -65,6 +67,28 @@ def test_two_reviewers_one_beam(pair):
 MUTATIONS = ["flip", "truncate", "insert", "dup_entry", "drop_entry", "extra_entry", "wrong_key"]
 
 
+def _rezip(raw, mutation):
+    """The bundle's entries written again: one dropped, doubled or added, or the manifest signed by another key."""
+    import warnings
+
+    src = zipfile.ZipFile(io.BytesIO(raw))
+    buf = io.BytesIO()
+    with zipfile.ZipFile(buf, "w") as z, warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        for info in src.infolist():
+            skip = (mutation, info.filename) in (("drop_entry", "ops.jsonl"), ("wrong_key", "manifest.sig"))
+            if not skip:
+                z.writestr(info.filename, src.read(info.filename))
+            if mutation == "dup_entry" and info.filename == "ops.jsonl":
+                z.writestr(info.filename, src.read(info.filename))
+        if mutation == "extra_entry":
+            z.writestr("extra.txt", b"hello")
+        if mutation == "wrong_key":  # a valid signature, by a key that is not the exporter's
+            other = Ed25519PrivateKey.generate()
+            z.writestr("manifest.sig", b64(other.sign(MANIFEST_SIG_PREFIX + src.read("manifest.json"))))
+    return buf.getvalue()
+
+
 @pytest.mark.parametrize("mutation", MUTATIONS)
 def test_tampered_bundle_refused_whole(pair, mutation):
     a, b, site, beam, tmp = pair
@@ -82,30 +106,15 @@ def test_tampered_bundle_refused_whole(pair, mutation):
         i = rng.randrange(len(raw))
         raw = raw[:i] + b"XX" + raw[i:]
     else:
-        src = zipfile.ZipFile(io.BytesIO(raw))
-        buf = io.BytesIO()
-        with zipfile.ZipFile(buf, "w") as z:
-            import warnings
-
-            with warnings.catch_warnings():
-                warnings.simplefilter("ignore")
-                for info in src.infolist():
-                    if mutation == "drop_entry" and info.filename == "ops.jsonl":
-                        continue
-                    z.writestr(info.filename, src.read(info.filename))
-                    if mutation == "dup_entry" and info.filename == "ops.jsonl":
-                        z.writestr(info.filename, src.read(info.filename))
-                if mutation == "extra_entry":
-                    z.writestr("extra.txt", b"hello")
-        raw = buf.getvalue()
+        raw = _rezip(raw, mutation)
     (tmp / "t.zip").write_bytes(raw)
-    if mutation == "wrong_key":
-        b.db.execute("UPDATE meta SET value='another-firm' WHERE key='firm_key'")
     before = _db_bytes(b)
     report = import_bundle(b, tmp / "t.zip")
     if mutation == "flip" and report.outcome == "applied":
         pytest.skip("flipped a byte inside zip padding that carries no content")
     assert report.outcome == "refused", report
+    if mutation == "wrong_key":
+        assert "signature" in report.reason
     after = _db_bytes(b)
     assert before == after
     assert b.db.execute("SELECT outcome FROM bundle_log ORDER BY id DESC LIMIT 1").fetchone()[0] == "refused"
