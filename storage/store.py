@@ -35,12 +35,21 @@ BEAM_FIELDS = tuple(Beam.model_fields)
 DEMO_FIRM_KEY = "bracewalk-demo-firm-key-not-for-production"  # DEMO ONLY: the demo database, never a firm's
 
 
-def projection_digest(db: Any) -> str:
-    """SHA-256 over the projections of a database (tablet or office hub): equal content, equal digest."""
+def projection_digest(db: Any, leave_out_origin: str | None = None) -> str:
+    """SHA-256 over the projections of a database (tablet or office hub): equal content, equal digest.
+
+    ``leave_out_origin``: records written by that origin are left out (the demo's, which never leave a tablet
+    unless asked, so a tablet holding the demo compares with a hub that does not).
+    """
+    skip: set[str] = set()
+    if leave_out_origin is not None:
+        rows = db.execute("SELECT DISTINCT record_id FROM op WHERE origin=?", [leave_out_origin]).fetchall()
+        skip = {r[0] for r in rows}
     h = hashlib.sha256()
     for table in PROJECTIONS:
         for rid, data in db.execute(f"SELECT id, data FROM {table} ORDER BY id").fetchall():
-            h.update(f"{table}\x1f{rid}\x1f{data}\x1e".encode())
+            if rid not in skip:
+                h.update(f"{table}\x1f{rid}\x1f{data}\x1e".encode())
     return h.hexdigest()
 
 
@@ -763,9 +772,12 @@ class Store:
         with transaction(self.db):
             self.db.execute("UPDATE conflict SET resolved_by=? WHERE id=?", [actor, conflict_id])
 
-    def digest(self) -> str:
-        """SHA-256 over the synced content (projections), excluding device identity and bookkeeping."""
-        return projection_digest(self.db)
+    def digest(self, *, include_demo: bool = True) -> str:
+        """SHA-256 over the synced content (projections), excluding device identity and bookkeeping.
+
+        ``include_demo=False`` leaves out the demo site's records (what a hub holds when the demo was never sent).
+        """
+        return projection_digest(self.db, None if include_demo else DEMO_ORIGIN)
 
     def rebuild_projections(self) -> dict[str, list[tuple[str, str]]]:
         """Replay the op log into fresh in-memory projections and return them (for the I13 check)."""

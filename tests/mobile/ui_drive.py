@@ -621,8 +621,32 @@ elif FLOW == "hub":
         )
         return out.stdout.strip().splitlines()[-1]
 
+    REAL_SITE = "Alder Yard roof (a real job)"
+
+    def real_site():
+        """A job of the reviewer's own: the demo site never leaves the tablet, so its edits are not synced."""
+        demo = next(x for x in app.store.sites() if "Cedar" in x.name)
+        site = app.store.create_site(**demo.model_dump(exclude={"id", "demo"}) | {"name": REAL_SITE})
+        for beam_id, record in app.store.beams(demo.id):
+            if record["mark"] in ("RB-1", "RB-2"):
+                location = {k: record[k] for k in ("mark", "level", "gridline") if k in record}
+                copied = app.store.save_beam(site.id, app.store.beam(beam_id), location)
+        # one open deficiency on the real job (the hub's verify rule is exercised on it later)
+        app.store.raise_deficiency(
+            site.id,
+            copied,
+            "bearing_restraint_missing",
+            "immediate",
+            "Roof, RB-2, support 1",
+            "no restraint against lateral displacement at the bearing",
+            "CSA O86-19 7.5.6.3.1",
+            "install the bearing restraint",
+        )
+        return site.id
+
     @step
     def first_frame():
+        real_site()
         app.go("sync")
 
     @step
@@ -646,7 +670,7 @@ elif FLOW == "hub":
         check_layout("sync")
         shot(f"{GEOM}-hub-2-enrolled")
         # log a change on a beam and leave: nobody taps "Sync now"
-        app.open_site(next(x.id for x in app.store.sites() if "Cedar" in x.name))
+        app.open_site(next(x.id for x in app.store.sites() if x.name == REAL_SITE))
         app.open_beam(demo_beam("RB-1"))
         type_into("notes", "hanger at S1 re-nailed, seen 09:10")
         screen("beam").leave()
@@ -658,7 +682,7 @@ elif FLOW == "hub":
         assert app.root.current == "site"  # the reviewer never went to the Sync screen
         assert summary.startswith("Sent "), summary
         assert app.store.pending_sync_count("hub") == 0
-        mine, office = app.store.digest(), hub_digest()
+        mine, office = app.store.digest(include_demo=False), hub_digest()
         print(f"DIGESTS {mine} {office}", flush=True)
         assert mine == office, (mine, office)
         # the network goes: the hub stops; the reviewer goes on working
@@ -701,7 +725,7 @@ elif FLOW == "hub":
             raise TimeoutError(msg)
         print("HUB-BACK", flush=True)
         assert app.store.pending_sync_count("hub") == 0
-        mine, office = app.store.digest(), hub_digest()
+        mine, office = app.store.digest(include_demo=False), hub_digest()
         print(f"DIGESTS {mine} {office}", flush=True)
         assert mine == office, (mine, office)
         # a technician's tablet claims to verify: the hub refuses and quarantines it

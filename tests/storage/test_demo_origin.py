@@ -35,6 +35,9 @@ def test_first_real_bundle_after_the_demo_carries_no_demo_record(tmp_path):
     office = Store(tmp_path / "office.db")
     assert import_bundle(office, tmp_path / "first.zip").outcome == "applied"
     assert [s.name for s in office.sites()] == ["Real job"]
+    # the tablet without its demo holds what the office holds (the tablet is ahead by the demo edit only)
+    assert tablet.digest(include_demo=False) == office.digest()
+    assert tablet.digest() != office.digest()
 
 
 def test_the_demo_goes_only_when_asked_and_only_to_a_demo_database(tmp_path):
