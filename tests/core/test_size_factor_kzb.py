@@ -32,3 +32,8 @@ def test_kzb_table_6_13(b_mm, d_mm, expected):
     assert value == pytest.approx(expected)
     assert trace.clause == "CSA O86-19 Table 6.13"
     assert trace.symbol == "KZb"
+
+
+def test_kzb_refuses_a_depth_past_the_table():
+    with pytest.raises(ValueError, match=r"d_mm = 200000 is outside the KZb table"):
+        size_factor_kzb(89, 200_000)
