@@ -243,15 +243,33 @@ def issue_notice_for_site(
     site = store.site(site_id)
     number = store.next_notice_number(site)
     notice, ids = build_notice(store, site_id, number, issued_on=issued_on, only=only)
+    return _write_and_record(store, site_id, number, notice, ids, out, issued_by, issued_on, acknowledgement)
+
+
+def _write_and_record(
+    store: Store,
+    site_id: str,
+    number: str,
+    notice: Notice,
+    ids: list[str],
+    out: Path,
+    issued_by: str,
+    issued_on: str | None,
+    acknowledgement: MemoryAcknowledgement | None,
+    change_note: str = "",
+) -> tuple[IssuedNotice, Path]:
+    """Render the acknowledged notice, write it to ``out``, then record it; if recording fails, the file goes too.
+
+    The number is spent only once the PDF is safely written.
+    """
     notice = acknowledged(notice, acknowledgement)
     pdf = render_notice(notice, stamp_hash=True)
-    # the number is spent only once the PDF is safely written; if recording fails, the file goes too
     out.parent.mkdir(parents=True, exist_ok=True)
     write_atomic(out, pdf)
     try:
         issued = store.issue_notice(
             site_id, number, pdf, ids, issued_by, issued_on or time.strftime("%Y-%m-%d"),
-            memory_acknowledgement=_kept(notice, acknowledgement),
+            change_note=change_note, memory_acknowledgement=_kept(notice, acknowledgement),
         )  # fmt: skip
     except BaseException:
         out.unlink(missing_ok=True)
@@ -361,16 +379,6 @@ def issue_closeout(
     site = store.site(site_id)
     number = store.next_notice_number(site)
     notice, ids = build_closeout(store, site_id, number, issued_on)
-    notice = acknowledged(notice, acknowledgement)
-    pdf = render_notice(notice, stamp_hash=True)
-    out.parent.mkdir(parents=True, exist_ok=True)
-    write_atomic(out, pdf)
-    try:
-        issued = store.issue_notice(
-            site_id, number, pdf, ids, issued_by, issued_on or time.strftime("%Y-%m-%d"),
-            change_note=CLOSEOUT_NOTE, memory_acknowledgement=_kept(notice, acknowledgement),
-        )  # fmt: skip
-    except BaseException:
-        out.unlink(missing_ok=True)
-        raise
-    return issued, out
+    return _write_and_record(
+        store, site_id, number, notice, ids, out, issued_by, issued_on, acknowledgement, change_note=CLOSEOUT_NOTE
+    )
