@@ -132,6 +132,9 @@ class BeamModel:
         self.support_nodes = tuple(range(first_support, first_support + len(spans_mm) + 1))
         self.support_x_mm = tuple(self._node_x(n) for n in self.support_nodes)
         self._solve_unit_cases()
+        # the samples where an element's largest deflection can be (every one; midspan alone for one span)
+        candidates = (_SAMPLES[SAMPLES_PER_ELEMENT // 2],) if len(self.elements) == 1 else _SAMPLES
+        self._peak_samples = tuple(sample[1:] for sample in candidates)
 
     def _node_x(self, node: int) -> float:
         return sum(self.lengths[:node])
@@ -236,6 +239,29 @@ class BeamModel:
                 out.append((peak, at))
             else:
                 out.append((0.0, 0.0))
+        return out
+
+    def max_abs_deflections_mm(self, w_n_mm: tuple[float, ...], ei_nmm2: float) -> list[float]:
+        """Largest |deflection| at the sample points of each element, mm (the same numbers as ``deflections_mm``).
+
+        The same sums as ``deflections_mm`` at each sample, divided by EI once per element (division by
+        a positive number keeps the order of correctly rounded values, so the maximum is the same float).
+        A model of one span and no overhang carries a symmetric deflected shape under its uniform load,
+        so its peak sample is the midspan one: only that sample is evaluated.
+        """
+        d = [0.0] * len(self._disp[0])
+        for c, w in enumerate(w_n_mm):
+            if w:
+                dc = self._disp[c]
+                for i in range(len(d)):
+                    d[i] += w * dc[i]
+        samples = self._peak_samples
+        out = []
+        for e, length in enumerate(self.lengths):
+            v1, t1, v2, t2 = d[2 * e : 2 * e + 4]
+            lt1, lt2, wl4 = length * t1, length * t2, w_n_mm[e] * length**4
+            peak = max(abs(n1 * v1 + a2 * lt1 + n3 * v2 + a4 * lt2 - wl4 * c) for n1, a2, n3, a4, c in samples)
+            out.append(peak / ei_nmm2)
         return out
 
     def regions(self, result: CaseResult) -> list[Region]:

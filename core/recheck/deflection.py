@@ -69,17 +69,21 @@ def _worst(
     """The largest deflection utilisation over every pattern, check and element."""
     best: Worst | None = None
     spans = [deflection_span_mm(el.length_mm, el.kind is ElementKind.overhang) for el in model.elements]
+    seen: set[tuple[str, tuple[float, ...]]] = set()
     for pattern in deflection_patterns(len(model.elements)):
         for label, row, base, share in checks:
             w = tuple(base + (share * variable if on else 0.0) for on in pattern)
-            if not any(w):
+            # a load already checked under this label (the dead-load check is the same for every pattern)
+            # cannot replace the worst: only a strictly larger utilisation does
+            if not any(w) or (label, w) in seen:
                 continue
+            seen.add((label, w))
             ratio = float(row["ratio"])
-            for e, (delta, _) in enumerate(model.deflections_mm(w, ei)):
+            for e, delta in enumerate(model.max_abs_deflections_mm(w, ei)):
                 limit = deflection_limit_mm(spans[e], ratio)
-                util = abs(delta) / limit
+                util = delta / limit
                 if best is None or util > best[0]:
-                    best = (util, abs(delta), limit, label, model.elements[e].name, row)
+                    best = (util, delta, limit, label, model.elements[e].name, row)
     return best
 
 

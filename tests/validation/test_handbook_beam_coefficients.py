@@ -19,6 +19,8 @@ def test_simple_span_midspan_moment_and_deflection():
     case = model.case((W,))
     assert case.moment_nmm(0, L / 2) == pytest.approx(W * L**2 / 8)
     assert model.deflections_mm((W,), 1e13)[0][0] == pytest.approx(5 * W * L**4 / (384 * 1e13))
+    # the recheck's peak-only path (midspan sample alone for one span): the same handbook value
+    assert model.max_abs_deflections_mm((W,), 1e13) == [pytest.approx(5 * W * L**4 / (384 * 1e13), rel=1e-12)]
 
 
 def test_two_equal_spans():

@@ -56,6 +56,29 @@ def test_cantilever_tip_deflection_matches_pycba():
     tip_ref_mm = -float(ref.results.D[-1]) * 1000 / 1e4
     ours = BeamModel([6000], 0, 2000).deflections_mm((0.0, 10.0), 1e13)
     assert ours[1][0] == pytest.approx(tip_ref_mm, rel=1e-3)
+    # the recheck's peak-only path: every sample of every element, the same tip value
+    peaks = BeamModel([6000], 0, 2000).max_abs_deflections_mm((0.0, 10.0), 1e13)
+    assert peaks[1] == pytest.approx(abs(tip_ref_mm), rel=1e-3)
+
+
+@pytest.mark.parametrize(
+    ("spans", "oh", "w"),
+    [
+        ([5.0], (0.0, 0.0), [7.5]),
+        ([4.0, 6.0, 5.0], (1.5, 0.0), [2.0, 9.0, 0.0, 4.0]),
+        ([6.0, 6.0], (0.0, 2.0), [0, 5, 8]),
+    ],
+)
+def test_peak_deflections_match_pycba(spans, oh, w):
+    # EI = 1e13 N*mm^2 (1e4 kN*m^2); pycba's largest |deflection| of each element against ours
+    ref = _pycba(spans, oh[0], oh[1], w)
+    model = BeamModel([s * 1000 for s in spans], oh[0] * 1000, oh[1] * 1000)
+    ours = model.max_abs_deflections_mm(tuple(float(x) for x in w), 1e13)
+    xs, ds = np.asarray(ref.results.x), np.asarray(ref.results.D)
+    for e, el in enumerate(model.elements):
+        inside = (xs >= el.x0_mm / 1000 - 1e-9) & (xs <= el.x1_mm / 1000 + 1e-9)
+        ref_mm = float(np.max(np.abs(ds[inside]))) * 1000 / 1e4
+        assert ours[e] == pytest.approx(ref_mm, rel=5e-3, abs=1e-6), el.name
 
 
 # --- Whole-beam rechecks against pycba: uplift and counteracting dead load (issue 16) ---------------
