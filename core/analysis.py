@@ -14,7 +14,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from itertools import pairwise
+from typing import Any
 
 from core.kinds import ElementKind, MomentSign
 
@@ -266,50 +266,57 @@ class BeamModel:
 
     def regions(self, result: CaseResult) -> list[Region]:
         """Split the beam at points of zero moment into regions of one sign."""
-        pieces: list[tuple[float, float, int]] = []  # (x0, x1, element) in global x
-        for e, el in enumerate(self.elements):
-            cuts = [0.0, el.length_mm]
-            w, v0 = result.w_n_mm[e], result.v0_n[e]
-            m0 = result.m0_nmm[e]
-            for root in _quadratic_roots(-0.5 * w, v0, m0):
-                if 1e-6 * el.length_mm < root < el.length_mm * (1 - 1e-6):
-                    cuts.append(root)
-            cuts.sort()
-            for a, b in pairwise(cuts):
-                pieces.append((el.x0_mm + a, el.x0_mm + b, e))
-        peaks = [self._piece_max(result, p)[0] for p in pieces]
-        scale = max(peaks, default=0.0)
-        regions: list[Region] = []
-        for p, peak in zip(pieces, peaks, strict=True):
-            mid = 0.5 * (p[0] + p[1]) - self.elements[p[2]].x0_mm
-            m_mid = result.moment_nmm(p[2], mid)
+        return [
+            Region(x0_mm=a, x1_mm=b, sign=sg, m_max_nmm=m, elements=els)
+            for a, b, sg, m, els in self.region_spans(result)
+        ]
+
+    def region_spans(self, result: CaseResult) -> list[list[Any]]:
+        """``regions`` as plain lists [x0_mm, x1_mm, sign, m_max_nmm, elements] (no objects: a load-case search)."""
+        pieces: list[tuple[float, float, int, float, float]] = []  # (x0, x1, element, peak |M|, M at mid)
+        for e in range(len(self.elements)):
+            self._element_pieces(result, e, pieces)
+        scale = max((p[3] for p in pieces), default=0.0)
+        spans: list[list[Any]] = []  # [x0, x1, sign, largest |M|, elements] of each region so far
+        for x0, x1, e, peak, m_mid in pieces:
             if scale == 0.0 or peak <= 1e-9 * scale:
-                sign = regions[-1].sign if regions else MomentSign.positive
+                sign = spans[-1][2] if spans else MomentSign.positive
             else:
                 sign = MomentSign.positive if m_mid > 0 else MomentSign.negative
-            if regions and regions[-1].sign == sign:
-                last = regions[-1]
-                elements = last.elements if p[2] in last.elements else (*last.elements, p[2])
-                regions[-1] = Region(
-                    x0_mm=last.x0_mm, x1_mm=p[1], sign=sign, m_max_nmm=max(last.m_max_nmm, peak), elements=elements
-                )
+            if spans and spans[-1][2] == sign:
+                last = spans[-1]
+                last[1] = x1
+                last[3] = max(last[3], peak)
+                if e not in last[4]:
+                    last[4] = (*last[4], e)
             else:
-                regions.append(Region(x0_mm=p[0], x1_mm=p[1], sign=sign, m_max_nmm=peak, elements=(p[2],)))
-        return regions
+                spans.append([x0, x1, sign, peak, (e,)])
+        return spans
 
-    def _piece_max(self, result: CaseResult, piece: tuple[float, float, int]) -> tuple[float, float]:
-        e = piece[2]
-        x0 = piece[0] - self.elements[e].x0_mm
-        x1 = piece[1] - self.elements[e].x0_mm
-        candidates = [x0, x1]
-        w = result.w_n_mm[e]
-        if w != 0.0:
-            xv = result.v0_n[e] / w
-            if x0 < xv < x1:
-                candidates.append(xv)
-        moments = [abs(result.moment_nmm(e, x)) for x in candidates]
-        peak = max(moments)
-        return peak, candidates[moments.index(peak)] + self.elements[e].x0_mm  # the first candidate at the peak
+    def _element_pieces(self, result: CaseResult, e: int, pieces: list[tuple[float, float, int, float, float]]) -> None:
+        """Append the pieces of one element between its points of zero moment.
+
+        Each piece: global ends, the element, the largest |M| (at an end or where the shear is zero) and
+        the moment at its middle, by ``CaseResult.moment_nmm``'s arithmetic (each cut's |M| found once).
+        """
+        el = self.elements[e]
+        origin, length = el.x0_mm, el.length_mm
+        w, v0, m0 = result.w_n_mm[e], result.v0_n[e], result.m0_nmm[e]
+        cuts = [0.0, length]
+        for root in _quadratic_roots(-0.5 * w, v0, m0):
+            if 1e-6 * length < root < length * (1 - 1e-6):
+                cuts.append(root)
+        cuts.sort()
+        ends = [origin + c for c in cuts]  # global positions of the cuts
+        local = [x - origin for x in ends]
+        moments = [abs(m0 + v0 * x - 0.5 * w * x * x) for x in local]
+        xv = v0 / w if w != 0.0 else None  # where the shear is zero
+        for i in range(len(cuts) - 1):
+            peak = max(moments[i], moments[i + 1])
+            if xv is not None and local[i] < xv < local[i + 1]:
+                peak = max(peak, abs(m0 + v0 * xv - 0.5 * w * xv * xv))
+            mid = 0.5 * (ends[i] + ends[i + 1]) - origin
+            pieces.append((ends[i], ends[i + 1], e, peak, m0 + v0 * mid - 0.5 * w * mid * mid))
 
 
 def _deflection_samples() -> tuple[tuple[float, float, float, float, float, float], ...]:

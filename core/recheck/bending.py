@@ -318,19 +318,22 @@ class _Ranker:
         self.beam, self.member, self.model = beam, member, model
         self._kl: dict[tuple[Any, ...], tuple[float, float | NotPermitted]] = {}
 
-    def rank(self, region: Region, case: LoadCase, edge: EdgeSupport, ne: bool) -> tuple[int, float]:
-        """(outcome rank, utilisation or the value ``_rank`` orders by) of a region under a case."""
-        key = (case.kd, region.sign, id(edge), ne)
+    def rank(self, region: list[Any], case: LoadCase, edge: EdgeSupport, ne: bool) -> tuple[int, float]:
+        """(outcome rank, utilisation or the value ``_rank`` orders by) of a region under a case.
+
+        region: ``BeamModel.region_spans`` numbers [x0_mm, x1_mm, sign, m_max_nmm, elements].
+        """
+        x0, x1, sign, m, _ = region
+        key = (case.kd, sign, id(edge), ne)
         hit = self._kl.get(key)
         if hit is None:
-            hit = self._kl[key] = self._stability(region, case, edge, ne)
+            hit = self._kl[key] = self._stability(_region(region), case, edge, ne)
         fb, kl = hit
-        m = region.m_max_nmm
         outcome = Outcome.not_established if ne else Outcome.not_permitted
         if isinstance(kl, NotPermitted):
             return (_OUTCOME_RANK[outcome], m * KNM_PER_NMM)
         beam = self.beam
-        kzbg = None if beam.material is Material.sawn else size_factor_kzbg(beam.b_mm, beam.d_mm, region.length_mm)
+        kzbg = None if beam.material is Material.sawn else size_factor_kzbg(beam.b_mm, beam.d_mm, x1 - x0)
         mr = _member_mr(beam, self.member, fb, kzbg, kl)
         if ne:
             return (_OUTCOME_RANK[outcome], m / mr)
@@ -349,33 +352,57 @@ class _Ranker:
         return fb, _stability_kl(beam, member, edge, fb, {"lu_mm": None}, None)
 
 
+def _region(span: list[Any]) -> Region:
+    """The Region of ``BeamModel.region_spans`` numbers."""
+    x0, x1, sign, m, elements = span
+    return Region(x0_mm=x0, x1_mm=x1, sign=sign, m_max_nmm=m, elements=elements)
+
+
+class _Search:
+    """The governing case of every named region: compression edges and names found once per key."""
+
+    def __init__(self, beam: Beam, member: Member, model: BeamModel) -> None:
+        self.beam, self.model = beam, model
+        self.blocked = unrestrained_elements(beam, model)
+        self.exact = beam.negative_lu is NegativeLu.zero_moment_point
+        self.ranker = _Ranker(beam, member, model)
+        self.edges: dict[tuple[Any, ...], tuple[EdgeSupport, bool]] = {}
+        self.names: dict[tuple[Any, ...], str] = {}
+        self.best: dict[str, tuple[tuple[int, float], list[Any], LoadCase, EdgeSupport, bool]] = {}
+
+    def add(self, case: LoadCase) -> None:
+        """Rank every region of one case and keep it where it governs its name so far."""
+        best, edges, names = self.best, self.edges, self.names
+        for span in self.model.region_spans(case.result):
+            x0, x1, sign, _, elements = span
+            # the edge depends on the elements a region spans (and, for the zero-moment option, on its ends)
+            key = (sign, elements, x0, x1) if self.exact else (sign, elements)
+            hit = edges.get(key)
+            if hit is None:
+                edge = compression_edge(self.beam, self.model, _region(span))
+                hit = edges[key] = (edge, bool(self.blocked.intersection(elements)))
+            edge, ne = hit
+            # a region within one element is named by that element and its sign alone (no support lies inside)
+            name_key = (sign, elements) if len(elements) == 1 else (sign, elements, x0, x1)
+            name = names.get(name_key)
+            if name is None:
+                name = names[name_key] = f"{region_name(self.model, _region(span))}|{sign}"
+            rank = self.ranker.rank(span, case, edge, ne)
+            held = best.get(name)
+            if held is None or rank > held[0]:
+                best[name] = (rank, span, case, edge, ne)
+
+
 def bending_regions(
     beam: Beam, member: Member, model: BeamModel, cases: list[LoadCase], *, traces: bool = True
 ) -> list[BendingRegion]:
     """Governing bending check for every named region over all cases (traces: False builds none)."""
-    blocked = unrestrained_elements(beam, model)
-    best: dict[str, tuple[tuple[int, float], Region, LoadCase, EdgeSupport, bool]] = {}
-    edges: dict[tuple[Any, ...], EdgeSupport] = {}
-    names: dict[tuple[Any, ...], str] = {}
-    exact = beam.negative_lu is NegativeLu.zero_moment_point
-    ranker = _Ranker(beam, member, model)
+    search = _Search(beam, member, model)
     for case in cases:
-        for region in model.regions(case.result):
-            # the edge depends on the elements a region spans (and, for the zero-moment option, on its ends)
-            key = (region.sign, region.elements, *((region.x0_mm, region.x1_mm) if exact else ()))
-            edge = edges.get(key)
-            if edge is None:
-                edge = edges[key] = compression_edge(beam, model, region)
-            name_key = (region.sign, region.elements, region.x0_mm, region.x1_mm)
-            name = names.get(name_key)
-            if name is None:
-                name = names[name_key] = f"{region_name(model, region)}|{region.sign}"
-            ne = bool(blocked.intersection(region.elements))
-            rank = ranker.rank(region, case, edge, ne)
-            if name not in best or rank > best[name][0]:
-                best[name] = (rank, region, case, edge, ne)
+        search.add(case)
     out = []
-    for name, (_, region, case, edge, ne) in sorted(best.items(), key=lambda kv: kv[1][1].x0_mm):
+    for name, (_, span, case, edge, ne) in sorted(search.best.items(), key=lambda kv: kv[1][1][0]):
+        region = _region(span)
         trace: list[FactorTrace] | None = [] if traces else None
         numbers = bending_check(beam, member, model, region, case, edge, ne, trace)
         clause = "CSA O86-19 7.5.6.5.1, 7.5.6.4" if beam.material is Material.glulam else "CSA O86-19 6.5.3"
