@@ -135,6 +135,7 @@ class BeamModel:
         # the samples where an element's largest deflection can be (every one; midspan alone for one span)
         candidates = (_SAMPLES[SAMPLES_PER_ELEMENT // 2],) if len(self.elements) == 1 else _SAMPLES
         self._peak_samples = tuple(sample[1:] for sample in candidates)
+        self._shape_max = tuple(max(abs(x) for x in column) for column in zip(*self._peak_samples, strict=True))
 
     def _node_x(self, node: int) -> float:
         return sum(self.lengths[:node])
@@ -241,13 +242,19 @@ class BeamModel:
                 out.append((0.0, 0.0))
         return out
 
-    def max_abs_deflections_mm(self, w_n_mm: tuple[float, ...], ei_nmm2: float) -> list[float]:
+    def max_abs_deflections_mm(
+        self, w_n_mm: tuple[float, ...], ei_nmm2: float, below_mm: list[float] | None = None
+    ) -> list[float | None]:
         """Largest |deflection| at the sample points of each element, mm (the same numbers as ``deflections_mm``).
 
         The same sums as ``deflections_mm`` at each sample, divided by EI once per element (division by
         a positive number keeps the order of correctly rounded values, so the maximum is the same float).
         A model of one span and no overhang carries a symmetric deflected shape under its uniform load,
         so its peak sample is the midspan one: only that sample is evaluated.
+
+        below_mm: per element, a deflection the caller no longer needs to know about: an element whose
+        upper bound (each term at its largest shape-function value, plus a 1e-9 margin over rounding) is
+        under it gives None, its samples not evaluated.
         """
         d = [0.0] * len(self._disp[0])
         for c, w in enumerate(w_n_mm):
@@ -256,10 +263,16 @@ class BeamModel:
                 for i in range(len(d)):
                     d[i] += w * dc[i]
         samples = self._peak_samples
-        out = []
+        n1m, a2m, n3m, a4m, cm = self._shape_max
+        out: list[float | None] = []
         for e, length in enumerate(self.lengths):
             v1, t1, v2, t2 = d[2 * e : 2 * e + 4]
             lt1, lt2, wl4 = length * t1, length * t2, w_n_mm[e] * length**4
+            if below_mm is not None:
+                bound = abs(v1) * n1m + abs(lt1) * a2m + abs(v2) * n3m + abs(lt2) * a4m + abs(wl4) * cm
+                if bound * (1 + 1e-9) / ei_nmm2 < below_mm[e]:
+                    out.append(None)
+                    continue
             peak = max(abs(n1 * v1 + a2 * lt1 + n3 * v2 + a4 * lt2 - wl4 * c) for n1, a2, n3, a4, c in samples)
             out.append(peak / ei_nmm2)
         return out

@@ -79,11 +79,15 @@ def _worst(
                 continue
             seen.add((label, w))
             ratio = float(row["ratio"])
-            for e, delta in enumerate(model.max_abs_deflections_mm(w, ei)):
-                limit = deflection_limit_mm(spans[e], ratio)
-                util = delta / limit
+            limits = [deflection_limit_mm(span, ratio) for span in spans]
+            # an element whose deflection is surely under (1 - 1e-9) x the worst so far cannot replace it
+            below = None if best is None else [best[0] * limit * (1 - 1e-9) for limit in limits]
+            for e, delta in enumerate(model.max_abs_deflections_mm(w, ei, below)):
+                if delta is None:
+                    continue
+                util = delta / limits[e]
                 if best is None or util > best[0]:
-                    best = (util, delta, limit, label, model.elements[e].name, row)
+                    best = (util, delta, limits[e], label, model.elements[e].name, row)
     return best
 
 
