@@ -382,8 +382,11 @@ class _Search:
                 edge = compression_edge(self.beam, self.model, _region(span))
                 hit = edges[key] = (edge, bool(self.blocked.intersection(elements)))
             edge, ne = hit
-            # a region within one element is named by that element and its sign alone (no support lies inside)
-            name_key = (sign, elements) if len(elements) == 1 else (sign, elements, x0, x1)
+            # the name of a region in negative moment, or within one element, rests on its elements alone
+            # (the supports strictly inside it are those between its elements); in positive moment over
+            # several elements it rests on where its middle falls
+            plain = len(elements) == 1 or sign is MomentSign.negative
+            name_key = (sign, elements) if plain else (sign, elements, x0, x1)
             name = names.get(name_key)
             if name is None:
                 name = names[name_key] = f"{region_name(self.model, _region(span))}|{sign}"

@@ -54,3 +54,19 @@ def test_region_numbers_are_the_regions(layout, data):
     case = model.case(_loads(model, data))
     spans = model.region_spans(case)
     assert [[r.x0_mm, r.x1_mm, r.sign, r.m_max_nmm, r.elements] for r in model.regions(case)] == spans
+
+
+@settings(max_examples=60, deadline=None)
+@given(layout=layouts, data=st.data())
+def test_region_name_rests_on_elements_where_the_search_keys_it_so(layout, data):
+    # the load-case search names a negative-moment or one-element region once per (sign, elements)
+    from core.kinds import MomentSign
+    from core.recheck.bending import region_name
+
+    model = BeamModel(list(layout[0]), layout[1], layout[2])
+    first: dict[tuple[object, ...], str] = {}
+    for _ in range(6):
+        for region in model.regions(model.case(_loads(model, data))):
+            if len(region.elements) == 1 or region.sign is MomentSign.negative:
+                name = region_name(model, region)
+                assert first.setdefault((region.sign, region.elements), name) == name
