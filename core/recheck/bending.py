@@ -316,7 +316,9 @@ class _Ranker:
 
     def __init__(self, beam: Beam, member: Member, model: BeamModel) -> None:
         self.beam, self.member, self.model = beam, member, model
-        self._kl: dict[tuple[Any, ...], tuple[float, float | NotPermitted]] = {}
+        self.sawn = beam.material is Material.sawn
+        # per key: Fb, KL (None: not permitted) and, for sawn lumber, Mr (no length in it)
+        self._hits: dict[tuple[Any, ...], tuple[float, float | None, float | None]] = {}
 
     def rank(self, region: list[Any], case: LoadCase, edge: EdgeSupport, ne: bool) -> tuple[int, float]:
         """(outcome rank, utilisation or the value ``_rank`` orders by) of a region under a case.
@@ -325,20 +327,28 @@ class _Ranker:
         """
         x0, x1, sign, m, _ = region
         key = (case.kd, sign, id(edge), ne)
-        hit = self._kl.get(key)
+        hit = self._hits.get(key)
         if hit is None:
-            hit = self._kl[key] = self._stability(_region(region), case, edge, ne)
-        fb, kl = hit
-        outcome = Outcome.not_established if ne else Outcome.not_permitted
-        if isinstance(kl, NotPermitted):
-            return (_OUTCOME_RANK[outcome], m * KNM_PER_NMM)
-        beam = self.beam
-        kzbg = None if beam.material is Material.sawn else size_factor_kzbg(beam.b_mm, beam.d_mm, x1 - x0)
-        mr = _member_mr(beam, self.member, fb, kzbg, kl)
+            hit = self._hits[key] = self._entry(_region(region), case, edge, ne)
+        fb, kl, mr = hit
+        if kl is None:
+            return (_OUTCOME_RANK[Outcome.not_established if ne else Outcome.not_permitted], m * KNM_PER_NMM)
+        if mr is None:  # glulam: KZbg by the region's length, as _member_mr
+            beam = self.beam
+            mr = glulam_mr(fb, self.member.s_mm3, 1.0, size_factor_kzbg(beam.b_mm, beam.d_mm, x1 - x0), kl)
         if ne:
-            return (_OUTCOME_RANK[outcome], m / mr)
+            return (_OUTCOME_RANK[Outcome.not_established], m / mr)
         util = m / mr if mr > 0 else float("inf")
         return (_OUTCOME_RANK[Outcome.overstress if util > 1.0 else Outcome.ok], util)
+
+    def _entry(
+        self, region: Region, case: LoadCase, edge: EdgeSupport, ne: bool
+    ) -> tuple[float, float | None, float | None]:
+        """(Fb, KL or None when not permitted, Mr for sawn lumber) of a key."""
+        fb, kl = self._stability(region, case, edge, ne)
+        if isinstance(kl, NotPermitted):
+            return fb, None, None
+        return fb, kl, _member_mr(self.beam, self.member, fb, None, kl) if self.sawn else None
 
     def _stability(
         self, region: Region, case: LoadCase, edge: EdgeSupport, ne: bool
