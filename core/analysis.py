@@ -128,6 +128,7 @@ class BeamModel:
         self.elements = tuple(elements)
         self.lengths = tuple(e.length_mm for e in elements)
         self.total_length_mm = x
+        self._origins = tuple(e.x0_mm for e in elements)
         first_support = 1 if overhang_left_mm > 0 else 0
         self.support_nodes = tuple(range(first_support, first_support + len(spans_mm) + 1))
         self.support_x_mm = tuple(self._node_x(n) for n in self.support_nodes)
@@ -312,22 +313,21 @@ class BeamModel:
         Each piece: global ends, the element, the largest |M| (at an end or where the shear is zero) and
         the moment at its middle, by ``CaseResult.moment_nmm``'s arithmetic (each cut's |M| found once).
         """
-        el = self.elements[e]
-        origin, length = el.x0_mm, el.length_mm
+        origin, length = self._origins[e], self.lengths[e]
         w, v0, m0 = result.w_n_mm[e], result.v0_n[e], result.m0_nmm[e]
-        cuts = [0.0, length]
-        for root in _quadratic_roots(-0.5 * w, v0, m0):
-            if 1e-6 * length < root < length * (1 - 1e-6):
-                cuts.append(root)
-        cuts.sort()
+        lo, hi = 1e-6 * length, length * (1 - 1e-6)
+        roots = [root for root in _quadratic_roots(-0.5 * w, v0, m0) if lo < root < hi]
+        cuts = [0.0, *sorted(roots), length] if roots else [0.0, length]
         ends = [origin + c for c in cuts]  # global positions of the cuts
         local = [x - origin for x in ends]
         moments = [abs(m0 + v0 * x - 0.5 * w * x * x) for x in local]
         xv = v0 / w if w != 0.0 else None  # where the shear is zero
         for i in range(len(cuts) - 1):
-            peak = max(moments[i], moments[i + 1])
-            if xv is not None and local[i] < xv < local[i + 1]:
-                peak = max(peak, abs(m0 + v0 * xv - 0.5 * w * xv * xv))
+            a, b = local[i], local[i + 1]
+            peak = moments[i] if moments[i] >= moments[i + 1] else moments[i + 1]
+            if xv is not None and a < xv < b:
+                at_xv = abs(m0 + v0 * xv - 0.5 * w * xv * xv)
+                peak = at_xv if at_xv > peak else peak
             mid = 0.5 * (ends[i] + ends[i + 1]) - origin
             pieces.append((ends[i], ends[i + 1], e, peak, m0 + v0 * mid - 0.5 * w * mid * mid))
 
