@@ -204,11 +204,9 @@ class BeamModel:
         for c, w in enumerate(w_n_mm):
             if w == 0.0:
                 continue
-            vc, mc, ec = self._v0[c], self._m0[c], self._vend[c]
-            for e in range(n_el):
-                v0[e] += w * vc[e]
-                m0[e] += w * mc[e]
-                vend[e] += w * ec[e]
+            v0 = [a + w * b for a, b in zip(v0, self._v0[c], strict=True)]
+            m0 = [a + w * b for a, b in zip(m0, self._m0[c], strict=True)]
+            vend = [a + w * b for a, b in zip(vend, self._vend[c], strict=True)]
         reactions = []
         for node in self.support_nodes:
             r = 0.0
