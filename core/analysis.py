@@ -14,7 +14,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from typing import Any
+from typing import Any, NamedTuple
 
 from core.kinds import ElementKind, MomentSign
 
@@ -52,9 +52,12 @@ class Region:
         return self.x1_mm - self.x0_mm
 
 
-@dataclass(frozen=True, kw_only=True)
-class CaseResult:
-    """Response to one load case: end shear and moment per element and support reactions."""
+class CaseResult(NamedTuple):
+    """Response to one load case: end shear and moment per element and support reactions.
+
+    Immutable; a named tuple rather than a frozen dataclass because a recheck builds one per load case
+    (21 for three spans) and a tuple is built in a fraction of the time.
+    """
 
     w_n_mm: tuple[float, ...]
     v0_n: tuple[float, ...]  # internal shear at each element's left end, N (up on left face +)
@@ -191,6 +194,7 @@ class BeamModel:
                 self._v0[c][e] = f[0]
                 self._m0[c][e] = -f[1]
                 self._vend[c][e] = f[2]
+        self._unit_rows = [(*self._v0[c], *self._m0[c], *self._vend[c]) for c in range(n_el)]
 
     def case(self, w_n_mm: tuple[float, ...]) -> CaseResult:
         """Solve a load case given the line load on each element (N/mm, downward positive)."""
@@ -198,15 +202,13 @@ class BeamModel:
         if len(w_n_mm) != n_el:
             msg = f"w_n_mm has {len(w_n_mm)} entries; the beam has {n_el} elements"
             raise ValueError(msg)
-        v0 = [0.0] * n_el
-        m0 = [0.0] * n_el
-        vend = [0.0] * n_el
+        # every element's v0, m0 and end shear in one row per unit case: the same sums, one pass per case
+        acc = [0.0] * (3 * n_el)
         for c, w in enumerate(w_n_mm):
             if w == 0.0:
                 continue
-            v0 = [a + w * b for a, b in zip(v0, self._v0[c], strict=True)]
-            m0 = [a + w * b for a, b in zip(m0, self._m0[c], strict=True)]
-            vend = [a + w * b for a, b in zip(vend, self._vend[c], strict=True)]
+            acc = [a + w * b for a, b in zip(acc, self._unit_rows[c], strict=True)]
+        v0, m0, vend = acc[:n_el], acc[n_el : 2 * n_el], acc[2 * n_el :]
         reactions = []
         for node in self.support_nodes:
             r = 0.0

@@ -6,8 +6,8 @@ so a case is a weighted sum of those (superposition), never a new solve.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
 from itertools import product
+from typing import NamedTuple
 
 from core.analysis import BeamModel, CaseResult
 from core.loads import Combination, applicable, combination_kd, gravity_combinations
@@ -18,17 +18,16 @@ SPLIT_HIGH_D = 1.25  # NBC Table 4.1.3.2.-A: dead-load factor where it adds to t
 SPLIT_LOW_D = 0.9  # and where it counteracts
 
 
-@dataclass(frozen=True, kw_only=True)
-class LoadCase:
-    """One combination with one live/snow pattern, solved."""
+class LoadCase(NamedTuple):
+    """One combination with one live/snow pattern, solved (immutable; a named tuple: built per case, fast)."""
 
     combo: Combination
     kd: float
     kd_note: str
     pattern: str  # the elements carrying live/snow ("" for dead load only, "all spans" when every one does)
-    relieving: str = ""  # the elements carrying 0.9D in a split pattern ("" when the dead-load factor is uniform)
     result: CaseResult
     total_factored_n: float
+    relieving: str = ""  # the elements carrying 0.9D in a split pattern ("" when the dead-load factor is uniform)
 
 
 def live_patterns(n_el: int) -> list[tuple[bool, ...]]:
