@@ -275,6 +275,21 @@ def _kl_from_lu(
     cb = slenderness_cb(le, beam.d_mm, beam.b_mm)
     ck = critical_slenderness_ck(e, member.kse, member.kt, fb)
     out.update(le_mm=le, le_factor=factor, cb=cb, ck=ck)
+    if trace is not None:  # the load-case search keeps no trace: nothing formatted for it
+        _slenderness_trace(trace, row, why, factor, le, cb, ck)
+    stability = lateral_stability_kl(cb, ck, e, member.kse, member.kt, fb)
+    if isinstance(stability, NotPermitted):
+        note(trace, "KL", None, stability.clause, str(stability), "confirmed")
+        return stability
+    if trace is not None:
+        note(trace, "KL", round(stability.kl, 4), "CSA O86-19 7.5.6.4.4", f"regime {stability.regime}", "confirmed")
+    return stability.kl
+
+
+def _slenderness_trace(
+    trace: list[FactorTrace], row: dict[str, str], why: str, factor: float, le: float, cb: float, ck: float
+) -> None:
+    """The Le, CB and CK lines of a KL trace."""
     note(
         trace,
         "Le",
@@ -286,12 +301,6 @@ def _kl_from_lu(
     )
     note(trace, "CB", round(cb, 3), "CSA O86-19 7.5.6.4.3", "CB = sqrt(Le d / b^2)", "confirmed")
     note(trace, "CK", round(ck, 3), "CSA O86-19 7.5.6.4.4", "CK = sqrt(0.97 E KSE KT / (Fb KX))", "confirmed")
-    stability = lateral_stability_kl(cb, ck, e, member.kse, member.kt, fb)
-    if isinstance(stability, NotPermitted):
-        note(trace, "KL", None, stability.clause, str(stability), "confirmed")
-        return stability
-    note(trace, "KL", round(stability.kl, 4), "CSA O86-19 7.5.6.4.4", f"regime {stability.regime}", "confirmed")
-    return stability.kl
 
 
 _OUTCOME_RANK = {Outcome.not_established: 3, Outcome.not_permitted: 2, Outcome.overstress: 1, Outcome.ok: 0}
