@@ -409,3 +409,33 @@ def test_a_beam_with_no_load_prints_its_deflection_limit(over, expected_mm):
     assert r.deflection.limit_mm == pytest.approx(expected_mm, rel=1e-9)
     (limit,) = [t for t in r.deflection.trace if t.symbol == "limit"]
     assert limit.value == "L/360"
+    # statics: no load, no reaction, so no bearing demand and no uplift
+    for q in r.bearing:
+        assert q.qf_kn == 0.0
+        assert q.uplift_kn is None
+        assert q.uplift_combination is None
+
+
+@pytest.mark.parametrize(
+    ("over", "length_m"),
+    [({}, 7.2), ({"spans_mm": [6000], "overhang_right_mm": 2000}, 8.0), ({"overhang_left_mm": 1500}, 8.7)],
+)
+def test_shear_volume_is_the_whole_member(over, length_m):
+    # O86-19 7.5.7: Z is the volume of the member, b x d x its whole length (overhangs included), m^3
+    (z,) = [t for t in recheck(glulam(**over)).shear.trace if t.symbol == "Z"]
+    assert z.value == pytest.approx(0.130 * 0.456 * length_m, abs=5e-4)
+
+
+def test_trace_line_keeps_every_field_and_shares_equal_lines():
+    from core.recheck.trace import line
+
+    # a value no recheck produces, so the line is built here and not taken from lines built before
+    made = line(symbol="KD", value=0.6180339, clause="CSA O86-19 5.3.2", source="by hand", status=TraceStatus.memory)
+    assert (made.symbol, made.value, made.unit, made.clause, made.source, made.status) == (
+        "KD", 0.6180339, "", "CSA O86-19 5.3.2", "by hand", TraceStatus.memory
+    )  # fmt: skip
+    again = line(symbol="KD", value=0.6180339, clause="CSA O86-19 5.3.2", source="by hand", status=TraceStatus.memory)
+    assert again is made
+    other = line(symbol="KD", value=0.6180339, unit="", clause="CSA O86-19 5.3.2", source="by hand")
+    assert other.status is TraceStatus.formula
+    assert other is not made
