@@ -4,6 +4,7 @@ ruff check, ruff format --check and mypy before each commit; those, the tests an
 """
 
 import re
+import tomllib
 from pathlib import Path
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -53,3 +54,10 @@ def test_pre_commit_hooks_are_local_and_use_the_venv():
     assert text.count("language: system") == len(hook_entries()) == 5
     assert re.search(r"^default_install_hook_types: \[pre-commit, pre-push\]$", text, flags=re.M)
     assert text.count("stages: [pre-push]") == 2  # the tests and the demo: minutes, before each push
+
+
+def test_mypy_checks_every_package_with_the_pydantic_plugin():
+    config = tomllib.loads((ROOT / "pyproject.toml").read_text())["tool"]["mypy"]
+    packages = {p.parent.name for p in ROOT.glob("*/__init__.py")} - {"tests"}
+    assert sorted(config["packages"]) == sorted(packages)
+    assert "pydantic.mypy" in config["plugins"]
