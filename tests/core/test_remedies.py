@@ -130,6 +130,9 @@ def test_load_remedy_names_the_load_it_limits(name, load, word):
         logged = data["loads"][load]
         assert remedy.change[f"loads.{load}"] < logged
         assert re.search(rf"carries at most [0-9.]+ kN/m specified {word} load \(logged {logged:g}\)", remedy.message)
+        # "at most": the next 0.1 kN/m step (the remedies' load step) up fails the same check
+        more = _set(data, f"loads.{load}", round(remedy.change[f"loads.{load}"] + 0.1, 2))
+        assert not _passes(remedy.solves, remedy.change, recheck(Beam.model_validate(more)))
 
 
 def _lumber_sizes_from_smallest():

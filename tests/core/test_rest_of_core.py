@@ -495,9 +495,10 @@ def test_a_check_at_exactly_its_limit_is_not_a_finding(util, flagged):
 def test_sawn_lumber_is_balanced():
     # common practice: sawn lumber has one bending strength for either face (O86-19 Table 6.4 gives one fb),
     # so it can never be installed upside down; only glulam layups can be unbalanced
-    from core.member import member_properties
+    from core.member import _member_properties, member_properties
 
-    member = member_properties(sawn())
+    member = _member_properties(sawn())  # not the cached lookup: built here
+    assert member == member_properties(sawn())
     assert member.balanced is True
     assert member.fb_pos_mpa == member.fb_neg_mpa
     unbalanced = member_properties(glulam(grade="20f-E"))

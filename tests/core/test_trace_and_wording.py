@@ -426,10 +426,11 @@ def test_shear_volume_is_the_whole_member(over, length_m):
     assert z.value == pytest.approx(0.130 * 0.456 * length_m, abs=5e-4)
 
 
-def test_trace_line_keeps_every_field_and_shares_equal_lines():
+def test_trace_line_keeps_every_field_and_shares_equal_lines(monkeypatch):
+    from core.recheck import trace
     from core.recheck.trace import line
 
-    # a value no recheck produces, so the line is built here and not taken from lines built before
+    monkeypatch.setattr(trace, "_LINES", {})  # an empty cache, so the line is built here
     made = line(symbol="KD", value=0.6180339, clause="CSA O86-19 5.3.2", source="by hand", status=TraceStatus.memory)
     assert (made.symbol, made.value, made.unit, made.clause, made.source, made.status) == (
         "KD", 0.6180339, "", "CSA O86-19 5.3.2", "by hand", TraceStatus.memory
@@ -439,3 +440,29 @@ def test_trace_line_keeps_every_field_and_shares_equal_lines():
     other = line(symbol="KD", value=0.6180339, unit="", clause="CSA O86-19 5.3.2", source="by hand")
     assert other.status is TraceStatus.formula
     assert other is not made
+
+
+def test_o86_24_has_no_separate_long_term_deflection_check(monkeypatch):
+    # reference o86.md sections 12 and 13: O86-24 deletes 5.4.3 (creep folded into 5.4.2), so a dead-load-only
+    # beam is held to L/180 under D + L + S, not to the O86-19 long-term L/360
+    from core.recheck import deflection
+
+    monkeypatch.setattr(deflection, "EDITION", "O86-24")
+    r = recheck(glulam(loads={"dead_kn_m": 4.0, "live_kn_m": 0.0, "snow_kn_m": 0.0}))
+    assert r.deflection.limit_mm == pytest.approx(7200 / 180, rel=1e-9)
+    assert r.deflection.case == "D + L + S"
+    (edition,) = [t for t in r.deflection.trace if t.symbol == "edition"]
+    assert edition.value == "O86-24"
+    assert edition.source == "no separate long-term check in this edition"
+
+
+def test_deflection_check_builds_its_trace_unless_told_not_to():
+    from core.analysis import BeamModel
+    from core.member import member_properties
+    from core.recheck.deflection import deflection_check
+
+    beam = glulam()
+    model = BeamModel(beam.spans_mm, beam.overhang_left_mm, beam.overhang_right_mm)
+    member = member_properties(beam)
+    assert {t.symbol for t in deflection_check(beam, member, model).trace} >= {"ES", "limit", "edition"}
+    assert deflection_check(beam, member, model, traces=False).trace == []
