@@ -178,10 +178,17 @@ def test_lumber_size_remedy_is_the_smallest_size_that_passes(over, solves):
 
 def test_a_bearing_exactly_at_its_resistance_gets_no_remedy():
     # NBC 4.1.3.1 / CSA O86-19 4.2: Qr >= Qf passes, so a bearing used at exactly 1.0 needs no longer bearing
-    data = _beam_data("short bearings on a heavy girder")
-    beam = Beam.model_validate(data)
+    # (a beam whose bearings pass, with its bearing utilisations set to exactly 1.0: a longer bearing would
+    # pass at once, so a remedy offered here would show that 1.0 was taken as failing)
+    beam = Beam.model_validate(
+        dict(_beam_data("short bearings on a heavy girder"), bearings=[dict(R, length_mm=400)] * 2)
+    )
     r = recheck(beam)
-    assert r.bearing[0].utilisation > 1.0
+    assert all(q.utilisation < 1.0 for q in r.bearing)
     at_limit = r.model_copy(update={"bearing": [q.model_copy(update={"utilisation": 1.0}) for q in r.bearing]})
     assert [x for x in remedies(beam, at_limit) if x.solves == "bearing_overstress"] == []
-    assert [x for x in remedies(beam, r) if x.solves == "bearing_overstress"]
+    over = r.model_copy(update={"bearing": [q.model_copy(update={"utilisation": 1.0 + 1e-9}) for q in r.bearing]})
+    assert [x.change for x in remedies(beam, over) if x.solves == "bearing_overstress"] == [
+        {"bearings.0.length_mm": 410.0},  # 400 mm x (1 + 1e-9) rounded up to the remedies' 10 mm step
+        {"bearings.1.length_mm": 410.0},
+    ]
