@@ -3,6 +3,7 @@
 No timing is judged here (machines are noisy); only that every benchmark completes and reports.
 """
 
+import fnmatch
 import os
 import subprocess
 import sys
@@ -32,3 +33,15 @@ def test_bench_quick_prints_every_row():
     ):
         assert what in proc.stdout, proc.stdout
     assert "FAILED" not in proc.stdout
+
+
+def test_mutation_run_covers_every_module_of_core():
+    # every .py file of core is mutated by exactly one of the two runs (core/clauses, or the rest)
+    from bench.mutation import _rest_of_core
+
+    globs = ["core/clauses/*", *_rest_of_core(ROOT)]
+    assert "core/recheck/*" in globs
+    files = [p.relative_to(ROOT).as_posix() for p in (ROOT / "core").rglob("*.py") if p.name != "__init__.py"]
+    for f in files:
+        hits = [g for g in globs if fnmatch.fnmatch(f, g)]
+        assert len(hits) == 1, (f, hits)

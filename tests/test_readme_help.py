@@ -1,5 +1,6 @@
 """The README's command table against each command's --help, and the CHANGELOG's versions and dates."""
 
+import argparse
 import re
 import tomllib
 from pathlib import Path
@@ -52,6 +53,21 @@ def test_table_command_exists_with_its_options(command, capsys):
     assert text.startswith(f"usage: {' '.join(['bracewalk', *path])}"), text[:200]
     missing = [o for o in options if not re.search(rf"{re.escape(o)}\b", text)]
     assert not missing, f"{command}: {missing} not in its --help"
+
+
+def parser_commands(parser: argparse.ArgumentParser, path: tuple[str, ...] = ()) -> list[tuple[str, ...]]:
+    """Every leaf command of the argument parser, as its words: ('hub', 'user', 'add')."""
+    subs = [a for a in parser._actions if isinstance(a, argparse._SubParsersAction)]
+    if not subs:
+        return [path]
+    return [leaf for a in subs for name, sub in a.choices.items() for leaf in parser_commands(sub, (*path, name))]
+
+
+def test_every_command_of_the_parser_is_in_the_table():
+    listed = {tuple(path_and_options(c)[0]) for c in table_commands()}
+    every = parser_commands(build_parser())
+    assert len(every) >= 20, every
+    assert [" ".join(c) for c in every if c not in listed] == []
 
 
 def changelog_headings() -> list[str]:

@@ -13,7 +13,26 @@ from core.recheck.trace import KN_PER_N, case_label, kd_trace, line
 from core.results import BearingCheck, FactorTrace
 
 
-def _trace(bearing: Bearing, area: float, kzcp: float, clause: str, case: LoadCase) -> list[FactorTrace]:
+def _kzcp_line(beam: Beam, kzcp: float) -> FactorTrace:
+    """The KZcp trace line: the sawn-lumber formula of O86-19 6.5.6.2.3 with r = b/d, or 1.0 for glulam."""
+    if beam.material is Material.glulam:
+        return line(
+            symbol="KZcp",
+            value=kzcp,
+            clause="CSA O86-19 7.5.9 (memory)",
+            source="glulam: no KZcp (1.0)",
+            status=TraceStatus.memory,
+        )
+    return line(
+        symbol="KZcp",
+        value=kzcp,
+        clause="CSA O86-19 6.5.6.2.3 (memory)",
+        source=f"r = b/d = {beam.b_mm / beam.d_mm:.3f}: 1.0 + 0.15 (r - 1), at least 1.0, at most 1.15",
+        status=TraceStatus.memory,
+    )
+
+
+def _trace(bearing: Bearing, area: float, kzcp: FactorTrace, clause: str, case: LoadCase) -> list[FactorTrace]:
     return [
         line(
             symbol="Ab",
@@ -23,7 +42,7 @@ def _trace(bearing: Bearing, area: float, kzcp: float, clause: str, case: LoadCa
             status=TraceStatus.input,
         ),
         line(symbol="KB", value=1.0, clause=clause, source="end bearing / conservative", status=TraceStatus.memory),
-        line(symbol="KZcp", value=kzcp, clause=clause, status=TraceStatus.memory),
+        kzcp,
         kd_trace(case),
     ]
 
@@ -61,7 +80,7 @@ def _one_bearing(
         length_mm=bearing.length_mm,
         combination=case_label(case),
         clause=clause,
-        trace=_trace(bearing, area, kzcp, clause, case) if traces else [],
+        trace=_trace(bearing, area, _kzcp_line(beam, kzcp), clause, case) if traces else [],
         uplift_kn=None if uplift is None else uplift * KN_PER_N,
         uplift_combination=None if uplift is None else case_label(lowest[1]),
         lifts_now=lifts_now,

@@ -306,14 +306,6 @@ def _slenderness_trace(
 _OUTCOME_RANK = {Outcome.not_established: 3, Outcome.not_permitted: 2, Outcome.overstress: 1, Outcome.ok: 0}
 
 
-def _rank(numbers: dict[str, Any]) -> tuple[int, float]:
-    util = numbers["utilisation"]
-    if util is None:
-        upper = numbers.get("utilisation_if_restrained")
-        util = numbers["mf_knm"] if upper is None else upper
-    return (_OUTCOME_RANK[numbers["outcome"]], util)
-
-
 class _Ranker:
     """The rank of a region under a case, from numbers cached per key (no trace, no models).
 
@@ -330,7 +322,7 @@ class _Ranker:
         self._hits: dict[tuple[Any, ...], tuple[float, float | None, float | None]] = {}
 
     def rank(self, region: list[Any], case: LoadCase, edge: EdgeSupport, ne: bool) -> tuple[int, float]:
-        """(outcome rank, utilisation or the value ``_rank`` orders by) of a region under a case.
+        """(outcome rank, utilisation; for a not-permitted region its moment in kN*m) of a region under a case.
 
         region: ``BeamModel.region_spans`` numbers [x0_mm, x1_mm, sign, m_max_nmm, elements].
         """

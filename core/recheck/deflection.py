@@ -91,6 +91,18 @@ def _worst(
     return best
 
 
+def _strictest_limit(model: BeamModel, checks: list[tuple[str, dict[str, str], float, float]]) -> Worst:
+    """With no load at all: the smallest limit (span / ratio) over every check and element, nothing deflecting."""
+    spans = [deflection_span_mm(el.length_mm, el.kind is ElementKind.overhang) for el in model.elements]
+    limits = [
+        (deflection_limit_mm(span, float(row["ratio"])), el.name, row)
+        for _, row, _, _ in checks
+        for el, span in zip(model.elements, spans, strict=True)
+    ]
+    limit, element, row = min(limits, key=lambda x: x[0])
+    return 0.0, 0.0, limit, "no load", element, row
+
+
 def _trace(beam: Beam, es: float, row: dict[str, str], use_row: dict[str, str]) -> list[FactorTrace]:
     long_term = long_term_deformation_rule(EDITION)
     trace = [
@@ -142,18 +154,9 @@ def deflection_check(beam: Beam, member: Member, model: BeamModel, *, traces: bo
     es = modulus_for_deflection_es(member.e_mpa, member.kse, member.kt_e)
     dead = beam.loads.dead_kn_m + member.self_weight_n_mm
     use_row = _use_row(beam)
-    best = _worst(model, _checks(use_row, dead), beam.loads.live_kn_m + beam.loads.snow_kn_m, es * member.inertia_mm4)
-    if best is None:
-        return DeflectionCheck(
-            delta_mm=0.0,
-            limit_mm=0.0,
-            utilisation=0.0,
-            case="no load",
-            element="-",
-            clause="CSA O86-19 5.4.2",
-            trace=[],
-        )
-    util, delta, limit, label, element, row = best
+    checks = _checks(use_row, dead)
+    best = _worst(model, checks, beam.loads.live_kn_m + beam.loads.snow_kn_m, es * member.inertia_mm4)
+    util, delta, limit, label, element, row = best if best is not None else _strictest_limit(model, checks)
     return DeflectionCheck(
         delta_mm=delta,
         limit_mm=limit,

@@ -61,8 +61,10 @@ def _method_trace(beam: Beam, model: BeamModel, volume: float, volume_method: bo
             symbol="Z",
             value=round(volume, 3),
             unit="m3",
-            clause="CSA O86-19 7.5.7",
-            source="volume below 2.0 m3: simple method permitted" if glulam else "sawn lumber",
+            clause="CSA O86-19 7.5.7" if glulam else "CSA O86-19 6.5.4 (memory)",
+            source="volume below 2.0 m3: simple method permitted"
+            if glulam
+            else "sawn lumber: Vr does not depend on the volume",
         ),
     )
 

@@ -30,8 +30,9 @@ def test_simple_span_takes_the_simple_udl_row_and_says_why():
     ("le_case", "why"),
     [
         ("cantilever_udl", "cantilever"),  # issue 16: this row gave Mr 168.0 instead of 96.5 kN*m on a 9 m span
-        ("simple_point_centre", "uniform"),
-        ("simple_end_moments", "uniform"),
+        # the reason names the row's load in words (CSA O86-19 Table 7.4 row descriptions, memory)
+        ("simple_point_centre", "is for a point centre load; the recheck carries uniform loads"),
+        ("simple_end_moments", "is for a end moments load; the recheck carries uniform loads"),
         ("simple_udl_braced", "intermediate lateral supports"),
     ],
 )

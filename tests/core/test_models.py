@@ -98,3 +98,25 @@ def test_incised_glulam_is_refused_by_the_model_naming_the_field():
         ValidationError, match=r"treatment = 'incised' applies to sawn lumber; allowed for glulam: 'none'"
     ):
         glulam(treatment="incised")
+
+
+@pytest.mark.parametrize(
+    ("b_mm", "refused"),
+    # dimension lumber is at most 102 mm thick (nominal 4 in, dressed 89 mm; O86-19 Table 6.13's 89-102 mm
+    # column, reference o86.md section 2.1); timbers >= 114 mm are out of scope
+    [(102, False), (103, True), (114, True)],
+)
+def test_sawn_thickness_boundary_is_102_mm(b_mm, refused):
+    if refused:
+        with pytest.raises(ValueError, match=rf"b_mm = {b_mm} for sawn lumber; allowed: 0 < b_mm <= 102"):
+            sawn(b_mm=b_mm)
+    else:
+        assert sawn(b_mm=b_mm).b_mm == b_mm
+
+
+@pytest.mark.parametrize("side", ["overhang_left_mm", "overhang_right_mm"])
+@pytest.mark.parametrize("value", [0.5, 5, 9.99])
+def test_a_sliver_of_overhang_is_refused_with_the_allowed_range(side, value):
+    # an overhang under 10 mm is a data-entry slip, not a cantilever (the model's own plausibility rule)
+    with pytest.raises(ValueError, match=rf"overhang {value:g} mm; allowed: 0 \(none\) or 10 to 20000 mm"):
+        glulam(**{side: value})

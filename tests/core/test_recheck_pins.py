@@ -127,3 +127,14 @@ def test_sawn_floor_joist_by_hand():
     # floor: L + S (live) against L/360 governs (NBC Table 9.4.3.1): 0.8/10 mm beats 1.09/20 and 0.29/10
     assert r.deflection.limit_mm == pytest.approx(LS / 360, rel=1e-9)
     assert r.deflection.delta_mm == pytest.approx(5 * 0.8 * LS**4 / (384 * 9500 * I_SW), rel=1e-6)
+
+
+def test_glulam_roof_without_ceiling_takes_l_over_180_for_snow():
+    # NBC Table 9.4.3.1 (memory): roof members with no ceiling L/180. With no dead load at all the L + S check
+    # (use limit) and D + L + S (O86-19 5.4.2, also L/180) see the same load; the use limit is reported
+    r = recheck(
+        glulam(use="roof_no_ceiling", self_weight=False, loads={"dead_kn_m": 0.0, "live_kn_m": 0.0, "snow_kn_m": 5.0})
+    )
+    assert r.deflection.case == "L + S"
+    assert r.deflection.limit_mm == pytest.approx(L / 180, rel=1e-9)
+    assert r.deflection.delta_mm == pytest.approx(5 * 5.0 * L**4 / (384 * 12800 * I_GL), rel=1e-6)

@@ -469,3 +469,37 @@ def test_positive_moment_brace_remedy_is_the_largest_fastened_purlin_spacing_tha
 
     assert positive(change) <= 1.0
     assert positive(dict(change, **{"top_edge.spacing_mm": change["top_edge.spacing_mm"] + 50})) > 1.0
+
+
+# -- limit states: a resistance equal to the demand passes ---------------------------------------------------
+@pytest.mark.parametrize(
+    ("util", "flagged"),
+    # NBC 4.1.3.1 / CSA O86-19 4.2 (limit states design): factored resistance >= effect of factored loads
+    # passes; O86-19 5.4.2: deflection shall not exceed the limit. Equal is within; anything above is not.
+    [(1.0, False), (1.0 + 1e-9, True), (0.999, False)],
+)
+def test_a_check_at_exactly_its_limit_is_not_a_finding(util, flagged):
+    from core.findings import check_findings
+
+    beam = glulam()
+    r = recheck(beam)
+    shear = r.shear.model_copy(update={"utilisation": util})
+    bearing = [q.model_copy(update={"utilisation": util}) for q in r.bearing]
+    deflection = r.deflection.model_copy(update={"utilisation": util})
+    codes = [f.code for f in check_findings(beam, shear, bearing, deflection)]
+    want = [FindingCode.shear_overstress, FindingCode.bearing_overstress, FindingCode.bearing_overstress]
+    want.append(FindingCode.deflection_exceeds_limit)
+    assert codes == (want if flagged else [])
+
+
+def test_sawn_lumber_is_balanced():
+    # common practice: sawn lumber has one bending strength for either face (O86-19 Table 6.4 gives one fb),
+    # so it can never be installed upside down; only glulam layups can be unbalanced
+    from core.member import _member_properties, member_properties
+
+    member = _member_properties(sawn())  # not the cached lookup: built here
+    assert member == member_properties(sawn())
+    assert member.balanced is True
+    assert member.fb_pos_mpa == member.fb_neg_mpa
+    unbalanced = member_properties(glulam(grade="20f-E"))
+    assert unbalanced.balanced is False  # 20f-E is an unbalanced layup (Table 7.3, memory)

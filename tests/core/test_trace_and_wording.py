@@ -91,6 +91,7 @@ CLAUSE_OF = {
     "KT": r"6\.4\.3 / Table 6\.11",
     "KS (wet)": r"Table (6\.10|7\.2)",
     "KL": r"(7\.5\.6\.4\.4|7\.5\.6\.3|6\.5\.3\.2(\.1)?)",
+    "KZcp": r"(6\.5\.6\.2\.3|7\.5\.9)",  # sawn lumber bearing size factor; glulam bearing has none
 }
 # words the wording may print in capitals: organisations, the TOP stamp, and O86 symbols written in capitals
 CAPITALS = {"CSA", "NBC", "CWC", "TOP", "KSB", "KSV", "KSCP", "KSE", "IMMEDIATE", "EX"}
@@ -139,8 +140,7 @@ def test_trace_symbols_units_and_statuses(case):
 def test_every_trace_entry_names_where_it_came_from(case):
     _beam, r = case
     for t in _traces(r):
-        if t.symbol != "KZcp":  # KZcp names its clause only (left as found: recheck.py is not this test's)
-            assert t.source.strip(), t
+        assert t.source.strip(), t
         assert _capitals_ok(t.source), t.source
         if re.match(r"^\w+ row |^(service_factors|treatment_factors|densities|kzb):", t.source):
             # a value read from a table carries the table row's status, never "formula"
@@ -350,3 +350,119 @@ def test_uplift_that_lifts_now_says_the_dead_load_alone_lifts_it():
     for f in uplift:
         lifts = f.priority is Priority.immediate
         assert ("The specified dead load alone already lifts it off this bearing." in f.message) is lifts
+
+
+def test_sawn_shear_trace_cites_the_lumber_clause_not_the_glulam_one():
+    # reference o86.md section 5: lumber shear Vr = phi Fv (2An/3) KZv is O86-19 6.5.4 (memory);
+    # 7.5.7 (the volume Z and its 2.0 m3 threshold) is the glulam clause
+    r = recheck(sawn())
+    (z,) = [t for t in r.shear.trace if t.symbol == "Z"]
+    assert z.clause == "CSA O86-19 6.5.4 (memory)"
+    assert "7.5.7" not in z.clause
+    assert r.shear.clause.startswith("CSA O86-19 6.5.4")
+    (z_glulam,) = [t for t in recheck(glulam()).shear.trace if t.symbol == "Z"]
+    assert z_glulam.clause == "CSA O86-19 7.5.7"
+
+
+@pytest.mark.parametrize(
+    ("b_mm", "d_mm", "kzcp"),
+    [
+        # O86-19 6.5.6.2.3 (memory; reference o86.md section 5, and section 12 "the KZcp formula" by T):
+        # r = b/d; KZcp = 1.0 for r <= 1.0
+        (38, 235, 1.0),  # r = 0.162
+        (89, 89, 1.0),  # r = 1.0 exactly
+    ],
+)
+def test_kzcp_trace_names_its_clause_and_source(b_mm, d_mm, kzcp):
+    r = recheck(sawn(b_mm=b_mm, d_mm=d_mm, spans_mm=[2400]))
+    for q in r.bearing:
+        (line,) = [t for t in q.trace if t.symbol == "KZcp"]
+        assert line.value == pytest.approx(kzcp)
+        assert line.clause == "CSA O86-19 6.5.6.2.3 (memory)"
+        assert f"r = b/d = {b_mm / d_mm:.3f}" in line.source
+    glulam_line = next(t for t in recheck(glulam()).bearing[0].trace if t.symbol == "KZcp")
+    assert glulam_line.value == 1.0  # O86-19 7.5.9 (memory): glulam bearing Qr = phi Fcp Ab KB, no KZcp
+    assert glulam_line.source == "glulam: no KZcp (1.0)"
+
+
+NO_LOAD = {"dead_kn_m": 0.0, "live_kn_m": 0.0, "snow_kn_m": 0.0}
+
+
+@pytest.mark.parametrize(
+    ("over", "expected_mm"),
+    [
+        # nothing deflects, yet the limit is span / ratio: the strictest row of the beam's checks, which for a
+        # roof without a ceiling (NBC Table 9.4.3.1 L/180; O86-19 5.4.2 L/180) is the O86-19 5.4.3 long-term
+        # L/360 (reference o86.md sections 12 and 13)
+        ({}, 7200 / 360),
+        # two spans: the shorter span gives the smaller limit, 3000 / 360
+        ({"spans_mm": [3000, 6000], "bearings": [R] * 3, "use": "roof_other"}, 3000 / 360),
+        # a cantilever takes twice its length (common practice): 2 x 1000 / 360 beats 6000 / 360
+        ({"spans_mm": [6000], "overhang_right_mm": 1000}, 2 * 1000 / 360),
+    ],
+)
+def test_a_beam_with_no_load_prints_its_deflection_limit(over, expected_mm):
+    r = recheck(glulam(self_weight=False, loads=NO_LOAD, **over))
+    assert r.deflection.delta_mm == 0.0
+    assert r.deflection.utilisation == 0.0
+    assert r.deflection.case == "no load"
+    assert r.deflection.limit_mm == pytest.approx(expected_mm, rel=1e-9)
+    (limit,) = [t for t in r.deflection.trace if t.symbol == "limit"]
+    assert limit.value == "L/360"
+    # statics: no load, no reaction, so no bearing demand and no uplift
+    for q in r.bearing:
+        assert q.qf_kn == 0.0
+        assert q.uplift_kn is None
+        assert q.uplift_combination is None
+
+
+@pytest.mark.parametrize(
+    ("over", "length_m"),
+    [({}, 7.2), ({"spans_mm": [6000], "overhang_right_mm": 2000}, 8.0), ({"overhang_left_mm": 1500}, 8.7)],
+)
+def test_shear_volume_is_the_whole_member(over, length_m):
+    # O86-19 7.5.7: Z is the volume of the member, b x d x its whole length (overhangs included), m^3
+    (z,) = [t for t in recheck(glulam(**over)).shear.trace if t.symbol == "Z"]
+    assert z.value == pytest.approx(0.130 * 0.456 * length_m, abs=5e-4)
+
+
+def test_trace_line_keeps_every_field_and_shares_equal_lines(monkeypatch):
+    from core.recheck import trace
+    from core.recheck.trace import line
+
+    monkeypatch.setattr(trace, "_LINES", {})  # an empty cache, so the line is built here
+    made = line(symbol="KD", value=0.6180339, clause="CSA O86-19 5.3.2", source="by hand", status=TraceStatus.memory)
+    assert (made.symbol, made.value, made.unit, made.clause, made.source, made.status) == (
+        "KD", 0.6180339, "", "CSA O86-19 5.3.2", "by hand", TraceStatus.memory
+    )  # fmt: skip
+    again = line(symbol="KD", value=0.6180339, clause="CSA O86-19 5.3.2", source="by hand", status=TraceStatus.memory)
+    assert again is made
+    other = line(symbol="KD", value=0.6180339, unit="", clause="CSA O86-19 5.3.2", source="by hand")
+    assert other.status is TraceStatus.formula
+    assert other is not made
+
+
+def test_o86_24_has_no_separate_long_term_deflection_check(monkeypatch):
+    # reference o86.md sections 12 and 13: O86-24 deletes 5.4.3 (creep folded into 5.4.2), so a dead-load-only
+    # beam is held to L/180 under D + L + S, not to the O86-19 long-term L/360
+    from core.recheck import deflection
+
+    monkeypatch.setattr(deflection, "EDITION", "O86-24")
+    r = recheck(glulam(loads={"dead_kn_m": 4.0, "live_kn_m": 0.0, "snow_kn_m": 0.0}))
+    assert r.deflection.limit_mm == pytest.approx(7200 / 180, rel=1e-9)
+    assert r.deflection.case == "D + L + S"
+    (edition,) = [t for t in r.deflection.trace if t.symbol == "edition"]
+    assert edition.value == "O86-24"
+    assert edition.source == "no separate long-term check in this edition"
+
+
+def test_deflection_check_builds_its_trace_unless_told_not_to():
+    from core.analysis import BeamModel
+    from core.member import member_properties
+    from core.recheck.deflection import deflection_check
+
+    beam = glulam()
+    model = BeamModel(beam.spans_mm, beam.overhang_left_mm, beam.overhang_right_mm)
+    member = member_properties(beam)
+    assert {t.symbol for t in deflection_check(beam, member, model).trace} >= {"ES", "limit", "edition"}
+    assert deflection_check(beam, member, model, traces=False).trace == []
