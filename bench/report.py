@@ -180,14 +180,14 @@ def peak_mb(count: int, which: str) -> float:
     import sys
 
     code = (
-        "import resource, sys\n"
         "from dataclasses import replace\n"
+        "from bench.common import own_peak_mb\n"
         "from bench.report import items, lazy_items, notice\n"
         "from reports.render import render_notice\n"
         f"n = {count}\n"
         f"its = lazy_items(n) if {which!r} == 'notice' else [replace(i, photos=[]) for i in items(n)]\n"
         "pdf = render_notice(notice(its))\n"
-        "print(resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024)\n"
+        "print(own_peak_mb())\n"
     )
     out = subprocess.run([sys.executable, "-c", code], check=True, capture_output=True, text=True)
     return float(out.stdout.strip().splitlines()[-1])

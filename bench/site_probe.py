@@ -11,14 +11,15 @@ recheck: the portfolio recheck over every beam. Prints one line: BENCH {"seconds
 from __future__ import annotations
 
 import json
-import resource
 import sys
 import time
 
 
 def peak_mb() -> float:
-    """Peak resident memory of this process, MB (Linux reports KiB)."""
-    return resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
+    """Peak resident memory of this process's own program, MB (VmHWM, see bench.common.own_peak_mb)."""
+    from bench.common import own_peak_mb
+
+    return own_peak_mb()
 
 
 BEAM = {  # an invented roof beam (demo-style input, not a check value)
@@ -81,8 +82,8 @@ def portfolio(db: str, processes: int) -> dict[str, float]:
 
     store = Store(db)
     t0 = time.perf_counter()
-    pairs = recheck_all(store.db, processes=processes)
-    return {"seconds": time.perf_counter() - t0, "beams": float(len(pairs))}
+    run = recheck_all(store.db, processes=processes)
+    return {"seconds": time.perf_counter() - t0, "beams": float(run.rechecked)}
 
 
 if __name__ == "__main__":
