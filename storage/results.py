@@ -15,7 +15,8 @@ import hashlib
 import json
 import sys
 from collections.abc import Callable, Iterable, Iterator
-from dataclasses import dataclass
+from dataclasses import dataclass, field
+from functools import lru_cache
 from typing import Any
 
 from pydantic import ValidationError
@@ -168,29 +169,48 @@ def needing_action(db: Any, site_id: str) -> list[tuple[str, str, list[dict[str,
     return [(bid, mark, json.loads(found)) for bid, mark, found in db.execute(sql, [site_id]).fetchall()]
 
 
+ROW_SQL = (
+    f"INSERT OR REPLACE INTO beam_result ({COLUMNS}, mark, level, gridline, archived) "
+    "VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)"
+)
+
+
+@lru_cache(maxsize=4096)
+def _json_of(key: tuple[tuple[tuple[str, str], ...], ...]) -> str:
+    """The stored JSON text of findings or table rows given as hashable items (many beams share them)."""
+    return json.dumps([dict(item) for item in key])
+
+
+def _json_list(items: Iterable[dict[str, str]]) -> str:
+    return _json_of(tuple(tuple(d.items()) for d in items))
+
+
+def as_row(r: StoredResult) -> tuple[Any, ...]:
+    """The ``beam_result`` row of a result, in ROW_SQL's column order."""
+    return (
+        r.beam_id,
+        r.site_id,
+        r.input_hash,
+        r.status,
+        r.governing,
+        r.utilisation,
+        _json_list(r.findings),
+        _json_list(r.rows_used),
+        r.mark,
+        r.level,
+        r.gridline,
+        int(r.archived),
+    )
+
+
 def write(db: Any, results: Iterable[StoredResult]) -> None:
     """Store results with their beams' list fields (inside the caller's transaction)."""
-    db.conn.executemany(
-        f"INSERT OR REPLACE INTO beam_result ({COLUMNS}, mark, level, gridline, archived) "
-        "VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)",
-        [
-            (
-                r.beam_id,
-                r.site_id,
-                r.input_hash,
-                r.status,
-                r.governing,
-                r.utilisation,
-                json.dumps(list(r.findings)),
-                json.dumps(list(r.rows_used)),
-                r.mark,
-                r.level,
-                r.gridline,
-                int(r.archived),
-            )
-            for r in results
-        ],
-    )
+    write_rows(db, [as_row(r) for r in results])
+
+
+def write_rows(db: Any, rows: list[tuple[Any, ...]]) -> None:
+    """Store ``beam_result`` rows made by ``as_row`` (inside the caller's transaction)."""
+    db.conn.executemany(ROW_SQL, rows)
 
 
 def _text(value: Any) -> str:
@@ -272,54 +292,96 @@ def progress_bar(done: int, total: int, width: int = 40) -> str:
     return f"[{'#' * filled}{'.' * (width - filled)}] {done:,} / {total:,} beams"
 
 
+@dataclass(frozen=True)
+class Summary:
+    """What the portfolio recheck compares and reports of a result: status, governing check, utilisation."""
+
+    beam_id: str
+    status: str
+    governing: str
+    utilisation: float | None
+
+
+@dataclass
+class PortfolioRun:
+    """What a portfolio recheck did: how many beams it rechecked, and those whose result moved.
+
+    ``moved``: (stored before, new) for every beam with no stored result or whose status, governing
+    check or utilisation differs; the others are counted, stored and not kept (memory stays bounded).
+    """
+
+    rechecked: int = 0
+    moved: list[tuple[Summary | None, Summary]] = field(default_factory=list)
+
+
+def _before(db: Any, site_id: str | None) -> dict[str, tuple[str, str, float | None]]:
+    """Map beam id -> (status, governing, utilisation) of the stored results: the light columns only."""
+    sql = f"SELECT beam_id, status, governing, utilisation FROM beam_result WHERE status != '{PENDING}'"
+    sql += " AND site_id = ?" if site_id else ""
+    return {r[0]: (r[1], r[2], r[3]) for r in db.execute(sql, [site_id] if site_id else []).fetchall()}
+
+
 def recheck_all(
     db: Any,
     site_id: str | None = None,
     processes: int = 2,
     on_progress: Callable[[int, int], None] | None = None,
     chunk: int = 500,
-) -> list[tuple[StoredResult | None, StoredResult]]:
-    """Recheck every stored beam (of one site, or all), store the results, return [(before, after)].
+    commit_rows: int = 5000,
+) -> PortfolioRun:
+    """Recheck every stored beam (of one site, or all) and store the results; return what moved.
 
-    The work is spread over ``processes`` worker processes (1 = in this process); results are written
-    in batches as they come back, so memory stays bounded by the batch and not the portfolio.
+    The rechecks run in ``processes`` worker processes (1 = in this process), ``chunk`` beams a task;
+    each worker also encodes its rows for storage, so this process only reads the records, compares
+    the light columns with the stored ones and writes rows, ``commit_rows`` a transaction.
     """
-    before = stored(db, site_id)
+    before = _before(db, site_id)
     todo = list(jobs(db, site_id, only_stale=False))
     total = len(todo)
-    out: list[tuple[StoredResult | None, StoredResult]] = []
-    done = 0
+    run = PortfolioRun()
+    pending: list[tuple[Any, ...]] = []
     if on_progress:
         on_progress(0, total)
-
-    def batches() -> Iterator[list[StoredResult]]:
-        if processes <= 1 or total < 2 * chunk:
-            for i in range(0, total, chunk):
-                yield [compute(j) for j in todo[i : i + chunk]]
-            return
-        import multiprocessing
-
-        ctx = multiprocessing.get_context("fork" if sys.platform.startswith("linux") else "spawn")
-        with ctx.Pool(processes) as pool:
-            parts = [todo[i : i + chunk] for i in range(0, total, chunk)]
-            yield from pool.imap(_compute_many, parts)
-
-    for batch in batches():
-        with transaction(db):
-            write(db, batch)
-        out += [(before.get(r.beam_id), r) for r in batch]
-        done += len(batch)
+    for rows in _row_batches(todo, processes, chunk):
+        pending += rows
+        for row in rows:
+            was = before.get(row[0])
+            if was is None or was != (row[3], row[4], row[5]):
+                old = None if was is None else Summary(row[0], *was)
+                run.moved.append((old, Summary(row[0], row[3], row[4], row[5])))
+        if len(pending) >= commit_rows:
+            with transaction(db):
+                write_rows(db, pending)
+            pending = []
+        run.rechecked += len(rows)
         if on_progress:
-            on_progress(done, total)
-    return out
+            on_progress(run.rechecked, total)
+    if pending:
+        with transaction(db):
+            write_rows(db, pending)
+    return run
 
 
-def _compute_many(part: list[tuple[str, str, str, str]]) -> list[StoredResult]:
-    return [compute(j) for j in part]
+def _row_batches(todo: list[tuple[str, str, str, str]], processes: int, chunk: int) -> Iterator[list[tuple[Any, ...]]]:
+    """The jobs' result rows, ``chunk`` at a time and in order, computed here or in worker processes."""
+    parts = [todo[i : i + chunk] for i in range(0, len(todo), chunk)]
+    if processes <= 1 or len(parts) < 2:
+        yield from map(_rows_of, parts)
+        return
+    import multiprocessing
+
+    ctx = multiprocessing.get_context("fork" if sys.platform.startswith("linux") else "spawn")
+    with ctx.Pool(min(processes, len(parts))) as pool:
+        yield from pool.imap(_rows_of, parts)
+
+
+def _rows_of(part: list[tuple[str, str, str, str]]) -> list[tuple[Any, ...]]:
+    """Recheck a part of the jobs into ``beam_result`` rows (run in a worker: small tuples to send back)."""
+    return [as_row(compute(j)) for j in part]
 
 
 def changed(
-    pairs: Iterable[tuple[StoredResult | None, StoredResult]],
-) -> list[tuple[StoredResult | None, StoredResult]]:
+    pairs: Iterable[tuple[Summary | None, Summary]],
+) -> list[tuple[Summary | None, Summary]]:
     """The pairs whose status or governing check differ (a beam with no stored result counts as changed)."""
     return [(b, a) for b, a in pairs if b is None or (b.status, b.governing) != (a.status, a.governing)]

@@ -64,10 +64,17 @@ def test_incomplete_beam_is_unchecked(store):
 
 def test_two_processes_give_the_same_results_as_one(store):
     _, _ = _site(store, n=7)
-    one = {a.beam_id: a for _, a in results.recheck_all(store.db, processes=1, chunk=2)}
-    two = {a.beam_id: a for _, a in results.recheck_all(store.db, processes=2, chunk=2)}
-    assert one == two
-    assert len(one) == 7
+    first = results.recheck_all(store.db, processes=1, chunk=2)
+    one = results.stored(store.db)
+    store.db.execute("DELETE FROM beam_result")
+    second = results.recheck_all(store.db, processes=2, chunk=2, commit_rows=3)
+    assert results.stored(store.db) == one
+    assert len(one) == first.rechecked == second.rechecked == 7
+    assert {a.beam_id: a for _, a in first.moved} == {a.beam_id: a for _, a in second.moved}
+    assert {a.beam_id: (a.status, a.governing, a.utilisation) for _, a in first.moved} == {
+        k: (r.status, r.governing, r.utilisation) for k, r in one.items()
+    }
+    assert results.recheck_all(store.db, processes=2, chunk=2).moved == []  # nothing moved: nothing kept
 
 
 def test_recheck_command_lists_changes_then_nothing(tmp_path, capsys):
