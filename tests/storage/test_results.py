@@ -174,3 +174,23 @@ def test_unraised_lists_only_findings_without_a_deficiency(store):
             site.id, weak, f.code, f.priority.value, f"Grid A {f.region or ''}".strip(), f.message, f.clause, f.action
         )
     assert vm.unraised() == []
+
+
+def test_portfolio_rows_are_exactly_the_stored_results_rows(tmp_path):
+    """The portfolio's row path (shared JSON, no StoredResult) stores what the site screen's path stores."""
+    from mobile.demo.run import load_demo
+
+    store = Store(tmp_path / "demo.db")
+    site_id = load_demo(store)  # every kind the demo covers: ok, deficient, not permitted, not established
+    bid = "0190aaaa-0000-7000-8000-000000000002"
+    store.save("beam", bid, {"mark": "NEW-1", "site_id": site_id, "material": "glulam"})  # unchecked
+    gone = store.save_beam(site_id, glulam(mark="OLD-1"))
+    store.update_beam(gone, {"archived": True})
+    todo = list(results.jobs(store.db, None, only_stale=False)) + [j for j in results.jobs(store.db) if j[0] == gone]
+    assert len(todo) >= 15
+    statuses = set()
+    for job in todo:
+        row = results.row_of(job)
+        assert row == results.as_row(results.compute(job)), job[0]
+        statuses.add(row[3])
+    assert statuses == {"ok", "deficient", "not_established", "not_permitted", "unchecked"}
