@@ -15,6 +15,7 @@ import hashlib
 import json
 import sys
 from collections.abc import Callable, Iterable, Iterator
+from contextlib import contextmanager
 from dataclasses import dataclass, field
 from functools import lru_cache
 from typing import Any
@@ -330,7 +331,10 @@ class PortfolioRun:
     moved: list[tuple[Summary | None, Summary]] = field(default_factory=list)
 
 
-def _before(db: Any, site_id: str | None) -> dict[str, tuple[str, str, float | None]]:
+Light = dict[str, tuple[str, str, float | None]]  # beam id -> (status, governing, utilisation)
+
+
+def _before(db: Any, site_id: str | None) -> Light:
     """Map beam id -> (status, governing, utilisation) of the stored results: the light columns only."""
     sql = f"SELECT beam_id, status, governing, utilisation FROM beam_result WHERE status != '{PENDING}'"
     sql += " AND site_id = ?" if site_id else ""
@@ -351,44 +355,58 @@ def recheck_all(
     each worker also encodes its rows for storage, so this process only reads the records, compares
     the light columns with the stored ones and writes rows, ``commit_rows`` a transaction.
     """
-    before = _before(db, site_id)
-    todo = list(jobs(db, site_id, only_stale=False))
-    total = len(todo)
-    run = PortfolioRun()
-    pending: list[tuple[Any, ...]] = []
-    if on_progress:
-        on_progress(0, total)
-    for rows in _row_batches(todo, processes, chunk):
-        pending += rows
-        for row in rows:
-            was = before.get(row[0])
-            if was is None or was != (row[3], row[4], row[5]):
-                old = None if was is None else Summary(row[0], *was)
-                run.moved.append((old, Summary(row[0], row[3], row[4], row[5])))
-        if len(pending) >= commit_rows:
-            with transaction(db):
-                write_rows(db, pending)
-            pending = []
-        run.rechecked += len(rows)
+    from storage import firm_tables
+
+    firm_tables.apply(db)  # before any worker starts: workers inherit the firm's table rows
+    with _workers(processes) as pool:  # started before the records are read: workers do not inherit them
+        before = _before(db, site_id)
+        todo = list(jobs(db, site_id, only_stale=False))
+        total = len(todo)
+        run = PortfolioRun()
         if on_progress:
-            on_progress(run.rechecked, total)
-    if pending:
-        with transaction(db):
-            write_rows(db, pending)
+            on_progress(0, total)
+        parts = [todo[i : i + chunk] for i in range(0, total, chunk)]
+        pending: list[tuple[Any, ...]] = []
+        for rows in map(_rows_of, parts) if pool is None or len(parts) < 2 else pool.imap(_rows_of, parts):
+            pending += rows
+            run.moved += _moved(before, rows)
+            if len(pending) >= commit_rows:
+                _write_batch(db, pending)
+                pending = []
+            run.rechecked += len(rows)
+            if on_progress:
+                on_progress(run.rechecked, total)
+        _write_batch(db, pending)
     return run
 
 
-def _row_batches(todo: list[tuple[str, str, str, str]], processes: int, chunk: int) -> Iterator[list[tuple[Any, ...]]]:
-    """The jobs' result rows, ``chunk`` at a time and in order, computed here or in worker processes."""
-    parts = [todo[i : i + chunk] for i in range(0, len(todo), chunk)]
-    if processes <= 1 or len(parts) < 2:
-        yield from map(_rows_of, parts)
+def _moved(before: Light, rows: list[tuple[Any, ...]]) -> list[tuple[Summary | None, Summary]]:
+    """(stored, new) of the rows whose status, governing check or utilisation differ from the stored ones."""
+    out = []
+    for row in rows:
+        was = before.get(row[0])
+        if was is None or was != (row[3], row[4], row[5]):
+            out.append((None if was is None else Summary(row[0], *was), Summary(row[0], row[3], row[4], row[5])))
+    return out
+
+
+def _write_batch(db: Any, rows: list[tuple[Any, ...]]) -> None:
+    if rows:
+        with transaction(db):
+            write_rows(db, rows)
+
+
+@contextmanager
+def _workers(processes: int) -> Iterator[Any]:
+    """A pool of ``processes`` worker processes (None for 1: everything runs here)."""
+    if processes <= 1:
+        yield None
         return
     import multiprocessing
 
     ctx = multiprocessing.get_context("fork" if sys.platform.startswith("linux") else "spawn")
-    with ctx.Pool(min(processes, len(parts))) as pool:
-        yield from pool.imap(_rows_of, parts)
+    with ctx.Pool(processes) as pool:
+        yield pool
 
 
 def _rows_of(part: list[tuple[str, str, str, str]]) -> list[tuple[Any, ...]]:
