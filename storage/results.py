@@ -196,10 +196,18 @@ ROW_SQL = (
 )
 
 
-@lru_cache(maxsize=4096)
 def _json_of(keys: tuple[str, str, str], items: Triples) -> str:
-    """The stored JSON text of findings or table rows (many beams share the same ones: encoded once)."""
+    """The stored JSON text of findings or table rows: a list of objects with ``keys``."""
     return json.dumps([dict(zip(keys, item, strict=True)) for item in items])
+
+
+@lru_cache(maxsize=1024)
+def _findings_json(items: Triples) -> str:
+    """Findings' JSON, encoded once per distinct set (few: a code, a priority, a region each).
+
+    Table rows are not cached: their sources carry each beam's own numbers, so no two beams share them.
+    """
+    return _json_of(FINDING_KEYS, items)
 
 
 def as_row(r: StoredResult) -> tuple[Any, ...]:
@@ -415,7 +423,7 @@ def _rows_of(part: list[tuple[str, str, str, str]]) -> list[tuple[Any, ...]]:
 
 
 def row_of(job: tuple[str, str, str, str]) -> tuple[Any, ...]:
-    """``as_row(compute(job))`` without the StoredResult: the findings' and table rows' JSON shared."""
+    """``as_row(compute(job))`` without the StoredResult (and the findings' JSON shared)."""
     beam_id, site_id, key, text = job
     record = json.loads(text)
     archived = bool(record.get("archived"))
@@ -427,7 +435,7 @@ def row_of(job: tuple[str, str, str, str]) -> tuple[Any, ...]:
         status,
         governing,
         util,
-        _json_of(FINDING_KEYS, findings),
+        _findings_json(findings),
         _json_of(ROW_KEYS, used),
         _text(record.get("mark")),
         _text(record.get("level")),
