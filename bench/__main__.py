@@ -14,7 +14,7 @@ import importlib
 import sys
 import time
 
-from bench.common import Row, print_table
+from bench.common import Row, own_peak_mb, print_table
 
 NAMES = ("recheck", "sync", "report", "app", "siteopen")
 ON_REQUEST = ("mutation",)  # too slow for the default run: only with --only
@@ -40,7 +40,8 @@ def main(argv: list[str] | None = None) -> int:
     print_table(rows)
     print(
         f"\n({time.perf_counter() - t0:.0f} s; figures are medians, spread = (max - min) / median; "
-        "ratios use baselines measured in this run)"
+        "ratios use baselines measured in this run; peak memory is each measured process's own VmHWM; "
+        f"this bench process peaked at {own_peak_mb():,.0f} MB)"
     )
     return 1 if failed else 0
 

@@ -6,6 +6,9 @@ already holds the demo site (first-run loading is not part of a start). Baseline
 one-label Kivy app started the same way. Refresh: from a purlin-spacing entry on the beam form
 (autosave with fsync, recheck, panel rebuilt) to the next frame flipped; baseline: the bare
 `core.recheck` of the same beam, measured in the same process.
+Site open in the app (issue 14 item 1): a tap on a site of 10,000 beams (1,000 with --quick, built by
+bench.site_probe, results stored) to the first frame showing the recycling list's rows, and the app
+process's own peak memory (VmHWM); baseline: the same for the demo site (13 beams).
 """
 
 from __future__ import annotations
@@ -102,6 +105,7 @@ def run(quick: bool = False) -> list[Row]:
             starts.append(start)
             refresh += cast(list[float], data["refresh_ms"])
             rechecks += cast(list[float], data["recheck_ms"])
+        site_rows = _site_open(work, db, display, home, 1000 if quick else 10_000, repeats)
         s, b = statistics.median(starts), statistics.median(bare)
         r, c = statistics.median(refresh), statistics.median(rechecks)
         p95 = sorted(refresh)[int(0.95 * (len(refresh) - 1))]
@@ -126,12 +130,37 @@ def run(quick: bool = False) -> list[Row]:
                 r < 16.0,
                 f"{spread_r:.0f}%",
             ),
+            *site_rows,
         ]
     finally:
         if xvfb is not None:
             os.killpg(xvfb.pid, signal.SIGTERM)
             xvfb.wait()
         shutil.rmtree(work, ignore_errors=True)
+
+
+def _site_open(work: Path, demo_db: Path, display: str, home: Path, n: int, repeats: int) -> list[Row]:
+    """Site open in the app: n beams against the demo site (time to rows on screen, the app's peak memory)."""
+    big = work / f"site{n}.db"
+    for args in (("build", str(big), str(n)), ("open", str(big))):  # the second stores every result
+        subprocess.run([sys.executable, "-m", "bench.site_probe", *args], cwd=ROOT, check=True, capture_output=True)
+    runs = {
+        name: [_probe("site", path, display, home)[1] for _ in range(repeats)]
+        for name, path in (("big", big), ("demo", demo_db))
+    }
+    med = {k: statistics.median(float(cast(float, d["site_open_s"])) for d in v) for k, v in runs.items()}
+    peak = {k: max(float(cast(float, d["peak_mb"])) for d in v) for k, v in runs.items()}
+    shown = int(cast(float, runs["big"][0]["beams_shown"]))
+    return [
+        Row(
+            f"app: site open, {n:,} beams, tap to rows on screen",
+            f"{fmt_time(med['big'])}, app peak {peak['big']:.0f} MB ({shown} rows built)",
+            f"demo site (13 beams) {fmt_time(med['demo'])}, {peak['demo']:.0f} MB",
+            f"{med['big'] / med['demo']:.1f}x",
+            "< 0.5 s, app < 400 MB at 10k",
+            med["big"] < 0.5 and peak["big"] < 400 if n >= 10_000 else None,
+        )
+    ]
 
 
 if __name__ == "__main__":

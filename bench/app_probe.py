@@ -1,8 +1,11 @@
 """Child process of bench/app.py: start an app under the bench's X display and report timings as JSON.
 
-usage: python -m bench.app_probe bare|app DB
-bare: a one-label Kivy app (the baseline); app: bracewalk on DB, then field changes on a beam form.
-Prints one line: BENCH {"first_frame_wall": ..., "refresh_ms": [...], "recheck_ms": [...]}.
+usage: python -m bench.app_probe bare|app|site DB
+bare: a one-label Kivy app (the baseline); app: bracewalk on DB, then field changes on a beam form;
+site: bracewalk on DB, then its first site opened (tap to the first frame showing the list's rows), with
+the process's own peak memory (VmHWM) after.
+Prints one line: BENCH {"first_frame_wall": ..., "refresh_ms": [...], "recheck_ms": [...]}
+(site: {"first_frame_wall": ..., "site_open_s": ..., "beams_shown": ..., "peak_mb": ...}).
 """
 
 from __future__ import annotations
@@ -49,6 +52,36 @@ if MODE == "bare":
             on_first_frame(lambda: finish(self))
 
     Bare().run()
+elif MODE == "site":
+    from kivy.clock import Clock
+    from kivy.core.window import Window
+
+    from bench.common import own_peak_mb
+    from mobile.app import BracewalkApp
+
+    app = BracewalkApp(DB)
+
+    def open_site() -> None:
+        t0 = time.perf_counter()
+
+        def flipped(*_: object) -> None:
+            layout = app.root.get_screen("site").ids.beam_list.layout_manager
+            if not layout.children:  # the recycling list has not laid out its visible rows yet
+                return
+            Window.unbind(on_flip=flipped)
+            out["site_open_s"] = time.perf_counter() - t0
+            out["beams_shown"] = len(layout.children)
+            Clock.schedule_once(lambda _dt: done(), 0.3)
+
+        def done() -> None:
+            out["peak_mb"] = own_peak_mb()
+            finish(app)
+
+        Window.bind(on_flip=flipped)
+        app.open_site(app.store.sites()[0].id)
+
+    app.bind(on_start=lambda *_: on_first_frame(open_site))
+    app.run()
 else:
     from kivy.clock import Clock
     from kivy.core.window import Window

@@ -11,6 +11,7 @@ import statistics
 import time
 from collections.abc import Callable
 from dataclasses import dataclass
+from pathlib import Path
 
 
 @dataclass(frozen=True)
@@ -75,3 +76,27 @@ def print_table(rows: list[Row]) -> None:
         print("  ".join(v.ljust(w) for v, w in zip(c, widths, strict=True)).rstrip())
         if n == 0:
             print("  ".join("-" * w for w in widths))
+
+
+def own_peak_mb(status: Path = Path("/proc/self/status")) -> float:
+    """Peak resident memory of this process's own program, MB: VmHWM of /proc/self/status (Linux).
+
+    Not ``getrusage(RUSAGE_SELF).ru_maxrss``: Linux carries that across fork and execve, so a child
+    started by a large process reports the parent's peak (getrusage(2); VmHWM belongs to the address
+    space, which execve replaces, proc(5)). Every memory figure of the bench is read here, in the
+    process being measured.
+    """
+    try:
+        lines = status.read_text().splitlines()
+    except OSError as exc:
+        msg = f"peak memory needs {status} (Linux): {exc}"
+        raise RuntimeError(msg) from exc
+    for line in lines:
+        if line.startswith("VmHWM:"):
+            value, unit = line.split()[1:3]
+            if unit != "kB":
+                msg = f"VmHWM in {status} is in {unit!r}, expected 'kB'"
+                raise RuntimeError(msg)
+            return int(value) / 1024
+    msg = f"no VmHWM line in {status}"
+    raise RuntimeError(msg)

@@ -4,16 +4,22 @@ Measured: `reports.render.render_notice` on a notice whose items carry the full 
 observed, finding, reference, action, priority, due, key recheck numbers, the beam sketch) and one
 3-megapixel JPEG each (distinct images, so nothing is shared), downscaled with Pillow as issued.
 
-Baseline, same run: a bare reportlab Platypus document with the same paragraphs and the same photo
-bytes placed as-is (reportlab embeds a JPEG without decoding it), under the same process-wide
-reportlab settings (binary streams, see reports/render.py): no tables, no sketch, no
-downscaling, no page X of Y. The ratio is render time / bare time.
+Baseline, same run: a bare reportlab Platypus document with the same paragraphs and the same photos,
+each decoded at the renderer's JPEG draft scale and re-encoded (as `reports.photos.prepare_photo`
+reads them, without its EXIF turn, thumbnail and optimised encoding), under the same process-wide
+reportlab settings (binary streams, see reports/render.py), each image opened when drawn and dropped
+after (Platypus `Image(lazy=2)`): no tables, no sketch, no page X of Y.
+The ratio is render time / bare time. (Placing the 3 MP photos as they are made reportlab decode
+each to 9 MB of RGB to name it and keep that until the document ended: the bench process grew to
+2.4 GB at 100 items and never gave it back, so the children it started reported it as their own.)
 """
 
 from __future__ import annotations
 
 import io
+import tempfile
 from functools import partial
+from pathlib import Path
 
 from PIL import Image, ImageDraw
 from reportlab.lib.pagesizes import LETTER
@@ -27,6 +33,7 @@ from core import recheck
 from core.models import Beam
 from core.records import Deficiency
 from reports.content import Item, Notice, item_for
+from reports.photos import JPEG_QUALITY, MAX_EDGE_PX
 from reports.render import esc, render_notice
 
 PHOTO_PX = (2048, 1536)
@@ -44,8 +51,11 @@ def photo(i: int) -> bytes:
     return out.getvalue()
 
 
-def items(count: int) -> list[Item]:
-    """Items from a real recheck of a beam with an unrestrained bearing (the demo's kind of finding)."""
+def items(count: int, photos: bool = True) -> list[Item]:
+    """Items from a real recheck of a beam with an unrestrained bearing (the demo's kind of finding).
+
+    With ``photos``, each item carries one distinct 3 MP JPEG; without, none is made.
+    """
     beam = Beam.model_validate(
         {
             "mark": "B",
@@ -78,7 +88,7 @@ def items(count: int) -> list[Item]:
             reference="S-201; " + finding.clause,
             action=finding.action,
         )
-        out.append(item_for(d, beam, result, "measured 130 x 456 mm; drawn 130 x 456 mm", [photo(n)]))
+        out.append(item_for(d, beam, result, "measured 130 x 456 mm; drawn 130 x 456 mm", [photo(n)] if photos else []))
     return out
 
 
@@ -104,32 +114,47 @@ def notice(its: list[Item]) -> Notice:
     )
 
 
+def draft_photo(raw: bytes) -> bytes:
+    """A photo decoded at the renderer's JPEG draft scale (the smallest DCT scale covering MAX_EDGE_PX), re-encoded."""
+    with Image.open(io.BytesIO(raw)) as img:
+        scale = MAX_EDGE_PX / max(img.size)
+        if scale < 1.0:
+            img.draft("RGB", (int(img.width * scale) + 1, int(img.height * scale) + 1))
+        out = io.BytesIO()
+        img.convert("RGB").save(out, "JPEG", quality=JPEG_QUALITY)
+        return out.getvalue()
+
+
 def bare(n: Notice) -> bytes:
-    """The baseline: the same paragraphs and photo bytes in a plain Platypus story."""
+    """The baseline: the same paragraphs and photos (at the draft scale, from files) in a plain Platypus story."""
     st = getSampleStyleSheet()["BodyText"]
     buf = io.BytesIO()
     doc = SimpleDocTemplate(buf, pagesize=LETTER, invariant=1)
     story: list[object] = [Paragraph(esc(f"{n.site_name} {n.address} {n.notice_number}"), st)]
-    for it in n.items:
-        for text in (
-            it.number,
-            it.location,
-            it.observed,
-            it.finding,
-            it.reference,
-            it.action,
-            it.priority,
-            it.due,
-            *(f"{k}: {v}" for k, v in it.key_numbers),
-        ):
-            story.append(Paragraph(esc(text), st))
-        for content in it.photos:
-            raw = content if isinstance(content, bytes) else content.load()
-            story.append(RLImage(io.BytesIO(raw), width=55 * mm, height=41 * mm))
-        story.append(Spacer(1, 6))
-    for c in n.cautions:
-        story.append(Paragraph(esc(c), st))
-    doc.build(story)
+    with tempfile.TemporaryDirectory(prefix="bracewalk-bench-bare-") as tmp:
+        for k, it in enumerate(n.items):
+            for text in (
+                it.number,
+                it.location,
+                it.observed,
+                it.finding,
+                it.reference,
+                it.action,
+                it.priority,
+                it.due,
+                *(f"{key}: {v}" for key, v in it.key_numbers),
+            ):
+                story.append(Paragraph(esc(text), st))
+            for j, content in enumerate(it.photos):
+                raw = content if isinstance(content, bytes) else content.load()
+                path = Path(tmp) / f"{k}-{j}.jpg"
+                path.write_bytes(draft_photo(raw))
+                # lazy=2 on a file: reportlab opens the image when it draws it and drops it after (its own option)
+                story.append(RLImage(str(path), width=55 * mm, height=41 * mm, lazy=2))
+            story.append(Spacer(1, 6))
+        for c in n.cautions:
+            story.append(Paragraph(esc(c), st))
+        doc.build(story)
     return buf.getvalue()
 
 
@@ -143,9 +168,9 @@ def run(quick: bool = False) -> list[Row]:
         lib = measure(partial(render_notice, n), repeats)
         base = measure(partial(bare, n), repeats)
         ratio = lib.median_s / base.median_s
-        aim, met = "<= 1.5x", ratio <= 1.5
-        if count == 100:
-            aim, met = "< 5 s, <= 1.5x", lib.median_s < 5.0 and ratio <= 1.5
+        # issue 14 item 4: the 100-item notice under 4 s; the ratio is shown, not judged (the baseline
+        # now decodes at the draft scale, so the earlier "<= 1.5x" against 3 MP decodes no longer applies)
+        aim, met = ("< 4 s", lib.median_s < 4.0) if count == 100 else ("-", None)
         rows.append(
             Row(
                 f"notice, {count} items with photos",
@@ -170,7 +195,7 @@ def lazy_items(count: int) -> list[Item]:
 
     return [
         replace(it, photos=[Photo(sha256=f"bench{k}", load=partial(photo, k), caption=f"bench photo {k}")])
-        for k, it in enumerate(items(count), start=1)
+        for k, it in enumerate(items(count, photos=False), start=1)
     ]
 
 
@@ -180,14 +205,13 @@ def peak_mb(count: int, which: str) -> float:
     import sys
 
     code = (
-        "import resource, sys\n"
-        "from dataclasses import replace\n"
+        "from bench.common import own_peak_mb\n"
         "from bench.report import items, lazy_items, notice\n"
         "from reports.render import render_notice\n"
         f"n = {count}\n"
-        f"its = lazy_items(n) if {which!r} == 'notice' else [replace(i, photos=[]) for i in items(n)]\n"
+        f"its = lazy_items(n) if {which!r} == 'notice' else items(n, photos=False)\n"
         "pdf = render_notice(notice(its))\n"
-        "print(resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024)\n"
+        "print(own_peak_mb())\n"
     )
     out = subprocess.run([sys.executable, "-c", code], check=True, capture_output=True, text=True)
     return float(out.stdout.strip().splitlines()[-1])

@@ -11,17 +11,19 @@ recheck: the portfolio recheck over every beam. Prints one line: BENCH {"seconds
 from __future__ import annotations
 
 import json
-import resource
 import sys
 import time
+from typing import Any
 
 
 def peak_mb() -> float:
-    """Peak resident memory of this process, MB (Linux reports KiB)."""
-    return resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
+    """Peak resident memory of this process's own program, MB (VmHWM, see bench.common.own_peak_mb)."""
+    from bench.common import own_peak_mb
+
+    return own_peak_mb()
 
 
-BEAM = {  # an invented roof beam (demo-style input, not a check value)
+BEAM: dict[str, Any] = {  # an invented roof beam (demo-style input, not a check value)
     "material": "glulam",
     "species": "D.Fir-L",
     "grade": "24f-E",
@@ -35,16 +37,35 @@ BEAM = {  # an invented roof beam (demo-style input, not a check value)
 
 
 def build(db: str, n: int) -> None:
-    """A site of n beams: spans, depths and loads varied so results differ."""
+    """A site of n beams, seeded, with span, depth, width, purlin spacing and loads drawn for each beam.
+
+    Almost no two beams are alike (a portfolio, not one beam repeated), so the results differ.
+    """
+    import random
+
     from storage import Store
     from storage.clock import uuid7
     from storage.db import transaction
 
+    rng = random.Random(14)
     store = Store(db)
     site = store.create_site(name="Bench site")
     with transaction(store.db):
         for i in range(n):
-            beam = dict(BEAM, mark=f"B-{i}", spans_mm=[5000 + 40 * (i % 100)], d_mm=[342, 380, 418, 456, 494][i % 5])
+            span = rng.randrange(4000, 9001, 10)
+            beam = dict(
+                BEAM,
+                mark=f"B-{i}",
+                spans_mm=[span],
+                b_mm=rng.choice((80, 130, 175)),
+                d_mm=38 * rng.randint(8, 14),
+                top_edge=dict(BEAM["top_edge"], spacing_mm=min(span, rng.choice((600, 1200, 1800, 2400)))),
+                loads={
+                    "dead_kn_m": rng.randint(100, 400) / 100,
+                    "live_kn_m": 0.0,
+                    "snow_kn_m": rng.randint(200, 800) / 100,
+                },
+            )
             beam.update(site_id=site.id, level=f"L{i % 12}", gridline=f"{i % 40}/{i % 7}")
             store._save_in_tx("beam", uuid7(), beam, "set", None)
     store.close()
@@ -75,14 +96,45 @@ def site_open(db: str, old: bool) -> dict[str, float]:
 
 
 def portfolio(db: str, processes: int) -> dict[str, float]:
-    """Time the portfolio recheck (every beam, stored)."""
+    """Time the portfolio recheck (every beam, stored), with this process's and its workers' CPU.
+
+    With one process, the time spent inside ``core.recheck.recheck`` is summed too (``recheck_s``),
+    so the pipeline around it (reading, validation, comparing, writing, progress) can be told apart:
+    ``seconds - recheck_s``.
+    """
+    import importlib
+    import os
+
     from storage import Store
     from storage.results import recheck_all
 
+    module: Any = importlib.import_module("core.recheck")  # the package (``core.recheck`` is also the function)
+    inside = [0.0, 0.0]  # wall, CPU
+    real = module.recheck
+
+    def timed(*args: object, **kwargs: object) -> object:
+        t, c = time.perf_counter(), time.process_time()
+        try:
+            return real(*args, **kwargs)
+        finally:
+            inside[0] += time.perf_counter() - t
+            inside[1] += time.process_time() - c
+
+    if processes == 1:
+        module.recheck = timed  # what storage.results.summarise calls
     store = Store(db)
-    t0 = time.perf_counter()
-    pairs = recheck_all(store.db, processes=processes)
-    return {"seconds": time.perf_counter() - t0, "beams": float(len(pairs))}
+    c0, t0 = os.times(), time.perf_counter()
+    run = recheck_all(store.db, processes=processes)
+    seconds, c1 = time.perf_counter() - t0, os.times()
+    out = {
+        "seconds": seconds,
+        "beams": float(run.rechecked),
+        "cpu_s": c1.user - c0.user + c1.system - c0.system,
+        "workers_cpu_s": c1.children_user - c0.children_user + c1.children_system - c0.children_system,
+    }
+    if processes == 1:
+        out["recheck_s"], out["recheck_cpu_s"] = inside
+    return out
 
 
 if __name__ == "__main__":

@@ -12,7 +12,6 @@ Prints one line: BENCH {"seconds": ..., "peak_mb": ..., ...}.
 from __future__ import annotations
 
 import json
-import resource
 import sys
 import time
 from pathlib import Path
@@ -21,8 +20,10 @@ KEY = "bench-only-firm-key"
 
 
 def peak_mb() -> float:
-    """Peak resident memory of this process, MB (Linux reports KiB)."""
-    return resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
+    """Peak resident memory of this process's own program, MB (VmHWM, see bench.common.own_peak_mb)."""
+    from bench.common import own_peak_mb
+
+    return own_peak_mb()
 
 
 def build(db: str, n: int) -> None:

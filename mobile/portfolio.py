@@ -47,13 +47,13 @@ def cmd_recheck(args: argparse.Namespace) -> int:
         raise UserError(str(exc.args[0])) from exc
     processes = args.processes or min(2, os.cpu_count() or 1)
     show = None if args.quiet else _progress(sys.stderr)
-    pairs = recheck_all(store.db, site_id, processes=processes, on_progress=show)
+    run = recheck_all(store.db, site_id, processes=processes, on_progress=show)
     sql = "SELECT id, json_extract(data, '$.mark') FROM beam" + (" WHERE site_id=?" if site_id else "")
     marks = {i: str(m) for i, m in store.db.execute(sql, [site_id] if site_id else []).fetchall()}
-    lines = changed_lines(pairs, marks)
+    lines = changed_lines(run.moved, marks)
     for line in lines:
         print(line)
-    print(f"rechecked {len(pairs):,} beams; {len(lines):,} changed status or governing check", file=sys.stderr)
+    print(f"rechecked {run.rechecked:,} beams; {len(lines):,} changed status or governing check", file=sys.stderr)
     return EXIT_OK
 
 
@@ -93,16 +93,12 @@ def cmd_tables_verify(args: argparse.Namespace) -> int:
     return EXIT_OK
 
 
-def impact_lines(store: Any, pairs: list[tuple[Any, Any]]) -> list[str]:
-    """Beams whose status, governing check or utilisation changed, then the issued notices that cite them."""
-    from storage.results import changed
+def impact_lines(store: Any, moved: list[tuple[Any, Any]]) -> list[str]:
+    """Beams whose status, governing check or utilisation changed, then the issued notices that cite them.
 
-    moved = [
-        (b, a)
-        for b, a in pairs
-        if b is not None and (b.utilisation != a.utilisation or (b.status, b.governing) != (a.status, a.governing))
-    ]
-    moved += [(b, a) for b, a in changed(pairs) if b is None]
+    ``moved`` is ``PortfolioRun.moved``; beams with no stored result are listed last.
+    """
+    moved = [(b, a) for b, a in moved if b is not None] + [(b, a) for b, a in moved if b is None]
     marks = dict(store.db.execute("SELECT id, json_extract(data, '$.mark') FROM beam").fetchall())
     lines = []
     for b, a in moved:
@@ -135,8 +131,8 @@ def cmd_tables_impact(args: argparse.Namespace) -> int:
 
     store = _open_store(args.db)
     processes = args.processes or min(2, os.cpu_count() or 1)
-    pairs = recheck_all(store.db, None, processes=processes, on_progress=_progress(sys.stderr))
-    lines = impact_lines(store, pairs)
+    run = recheck_all(store.db, None, processes=processes, on_progress=_progress(sys.stderr))
+    lines = impact_lines(store, run.moved)
     for line in lines:
         print(line)
     if not lines:

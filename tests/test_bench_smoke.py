@@ -30,9 +30,15 @@ def test_bench_quick_prints_every_row():
         "notice, 10 items",
         "app cold start",
         "field change to refreshed panel",
+        "app: site open, 1,000 beams",
+        "notice, 60 items with photos: peak memory",
+        "site open, 1,000 beams (stored results)",
+        "portfolio recheck, 2,000 beams, 2 processes",
+        "portfolio pipeline without the recheck",
     ):
         assert what in proc.stdout, proc.stdout
     assert "FAILED" not in proc.stdout
+    assert "this bench process peaked at" in proc.stdout
 
 
 def test_mutation_run_covers_every_module_of_core():

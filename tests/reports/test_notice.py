@@ -215,3 +215,30 @@ def test_issue_store_hash_and_verify(tmp_path):
     (tmp_path / "x.pdf").write_bytes(bytes(changed))
     assert verify_pdf(store, tmp_path / "x.pdf") is None
     save_pngs(pdf, "demo-notice")
+
+
+def test_photos_are_embedded_as_their_jpeg_and_named_by_it():
+    """A photo's JPEG goes into the PDF as is (DCTDecode, the PDF 1.4 reference's JPEG filter), named by its bytes."""
+    from reports.photos import JpegReader
+
+    a, b = _big_photo(), _big_photo()
+    other = io.BytesIO()
+    Image.new("RGB", (800, 600), (10, 200, 30)).save(other, "JPEG")
+    photos = (a, b, other.getvalue())
+    items = [_item(text=f"ITEM-{i}", n=i, photos=[p], beam_id=f"b{i}")[0] for i, p in enumerate(photos)]
+    pdf = render_notice(_notice(items))
+    assert pdf == render_notice(_notice(items))  # invariant bytes
+    xobjects = {}
+    for page in PdfReader(io.BytesIO(pdf)).pages:
+        for name, ref in (page["/Resources"].get("/XObject") or {}).items():
+            obj = ref.get_object()
+            if obj.get("/Subtype") == "/Image":
+                xobjects[name] = obj
+    assert len(xobjects) == 2  # the two equal photos share one image; the third is its own
+    assert all(list(o["/Filter"]) == ["/DCTDecode"] for o in xobjects.values())
+    jpeg, _, _ = prepare_photo(other.getvalue())
+    assert any(o.get_data() == jpeg for o in xobjects.values())  # the prepared JPEG, byte for byte
+    png = io.BytesIO()
+    Image.new("RGB", (10, 10)).save(png, "PNG")
+    with pytest.raises(ValueError, match="JPEG bytes only"):
+        JpegReader(png.getvalue())

@@ -111,3 +111,20 @@ def test_row_labels_are_unique_in_every_table():
     for name in KEYS:
         labels = [row_label(name, r) for r in tables.load(name).rows]
         assert len(labels) == len(set(labels)), name
+
+
+def test_portfolio_workers_use_the_firms_corrected_row(tmp_path):
+    store = Store(tmp_path / "w.db")
+    site = store.create_site(name="Yard")
+    ids = [store.save_beam(site.id, _decked(mark=f"RB-{i}"), {"level": "Roof"}) for i in range(4)]
+    before = recheck(_decked()).bending[0].utilisation
+    firm_tables.record(store, "glulam_grades", "D.Fir-L/24f-E", "R. Osei", "O86-19", 112, "fb_pos_mpa", "15.3",
+                       "firm's check of its copy (a test value: half the published fb)")  # fmt: skip
+    tables.use_firm_records([])  # this process forgets them: recheck_all must hand them to its workers
+    run = results.recheck_all(store.db, processes=2, chunk=1)  # one beam a task: the workers do the work
+    assert run.rechecked == 4
+    got = results.stored(store.db)
+    # Mr is proportional to Fb with KL = 1 (CSA O86-19 7.5.6.5.1): half the fb, twice the utilisation
+    for bid in ids:
+        assert got[bid].utilisation == pytest.approx(2 * before, rel=1e-3)
+    tables.use_firm_records([])

@@ -64,10 +64,17 @@ def test_incomplete_beam_is_unchecked(store):
 
 def test_two_processes_give_the_same_results_as_one(store):
     _, _ = _site(store, n=7)
-    one = {a.beam_id: a for _, a in results.recheck_all(store.db, processes=1, chunk=2)}
-    two = {a.beam_id: a for _, a in results.recheck_all(store.db, processes=2, chunk=2)}
-    assert one == two
-    assert len(one) == 7
+    first = results.recheck_all(store.db, processes=1, chunk=2)
+    one = results.stored(store.db)
+    store.db.execute("DELETE FROM beam_result")
+    second = results.recheck_all(store.db, processes=2, chunk=2, commit_rows=3)
+    assert results.stored(store.db) == one
+    assert len(one) == first.rechecked == second.rechecked == 7
+    assert {a.beam_id: a for _, a in first.moved} == {a.beam_id: a for _, a in second.moved}
+    assert {a.beam_id: (a.status, a.governing, a.utilisation) for _, a in first.moved} == {
+        k: (r.status, r.governing, r.utilisation) for k, r in one.items()
+    }
+    assert results.recheck_all(store.db, processes=2, chunk=2).moved == []  # nothing moved: nothing kept
 
 
 def test_recheck_command_lists_changes_then_nothing(tmp_path, capsys):
@@ -167,3 +174,23 @@ def test_unraised_lists_only_findings_without_a_deficiency(store):
             site.id, weak, f.code, f.priority.value, f"Grid A {f.region or ''}".strip(), f.message, f.clause, f.action
         )
     assert vm.unraised() == []
+
+
+def test_portfolio_rows_are_exactly_the_stored_results_rows(tmp_path):
+    """The portfolio's row path (shared JSON, no StoredResult) stores what the site screen's path stores."""
+    from mobile.demo.run import load_demo
+
+    store = Store(tmp_path / "demo.db")
+    site_id = load_demo(store)  # every kind the demo covers: ok, deficient, not permitted, not established
+    bid = "0190aaaa-0000-7000-8000-000000000002"
+    store.save("beam", bid, {"mark": "NEW-1", "site_id": site_id, "material": "glulam"})  # unchecked
+    gone = store.save_beam(site_id, glulam(mark="OLD-1"))
+    store.update_beam(gone, {"archived": True})
+    todo = list(results.jobs(store.db, None, only_stale=False)) + [j for j in results.jobs(store.db) if j[0] == gone]
+    assert len(todo) >= 15
+    statuses = set()
+    for job in todo:
+        row = results.row_of(job)
+        assert row == results.as_row(results.compute(job)), job[0]
+        statuses.add(row[3])
+    assert statuses == {"ok", "deficient", "not_established", "not_permitted", "unchecked"}
