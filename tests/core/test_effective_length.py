@@ -31,8 +31,8 @@ def test_simple_span_takes_the_simple_udl_row_and_says_why():
     [
         ("cantilever_udl", "cantilever"),  # issue 16: this row gave Mr 168.0 instead of 96.5 kN*m on a 9 m span
         # the reason names the row's load in words (CSA O86-19 Table 7.4 row descriptions, memory)
-        ("simple_point_centre", "is for a point centre load; the recheck carries uniform loads"),
-        ("simple_end_moments", "is for a end moments load; the recheck carries uniform loads"),
+        ("simple_point_centre", "applies to point centre loading; the recheck carries uniform loads"),
+        ("simple_end_moments", "applies to end moments loading; the recheck carries uniform loads"),
         ("simple_udl_braced", "intermediate lateral supports"),
     ],
 )
