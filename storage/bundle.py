@@ -59,7 +59,7 @@ MAX_OPS = 2_000_000
 YEAR_MS = 365 * 86_400_000
 MAX_AHEAD_MS = 100 * YEAR_MS  # stamps up to this far ahead are accepted (and flagged); the range lasts to 4199
 MIN_FREE_BYTES = 64 * 1024 * 1024  # left free after an import's files, for the database to grow
-BATCH_OPS = 2_000  # ops per import transaction: a save from another process waits at most one batch
+BATCH_OPS = 5_000  # ops per import transaction: a save from another process waits at most one batch (~0.3 s here)
 SHA256 = re.compile(r"^[0-9a-f]{64}$")
 DEVICE_ID = re.compile(r"^[0-9a-f]{8}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{12}$")
 MANIFEST_KEYS = {
@@ -162,17 +162,15 @@ class _Exporter:
     key: Any
     revoked: set[str]
 
-    def signature(self, origin: str, seq: int, line: str, stored: str | None, part: _Part) -> str | None:
+    def signature(
+        self, origin: str, seq: int, line: str, stored: str | None, unchecked: bool, part: _Part
+    ) -> str | None:
         """The op's signature: the stored one, or (for this device's own op) made now; None: not relayable.
 
-        A stored signature that arrived unchecked is verified now, before it is passed on.
+        A stored signature that arrived unchecked (listed in ``op_sig_unchecked``) is verified now,
+        before it is passed on.
         """
-        if (
-            stored
-            and self.store.db.execute(
-                "SELECT 1 FROM op_sig_unchecked WHERE origin=? AND seq=?", [origin, seq]
-            ).fetchone()
-        ):
+        if stored and unchecked:
             return stored if self._verifies(origin, seq, line, stored, part) else None
         if stored:
             return stored
@@ -202,7 +200,9 @@ def _parts(store: Store, cursor: dict[str, int], part_ops: int, include: Callabl
     """
     cols = ", ".join(f"o.{k}" for k in OP_KEYS)
     sql = (
-        f"SELECT {cols}, s.sig FROM op o LEFT JOIN op_sig s ON s.origin = o.origin AND s.seq = o.seq "
+        f"SELECT {cols}, s.sig, u.seq IS NOT NULL FROM op o "
+        "LEFT JOIN op_sig s ON s.origin = o.origin AND s.seq = o.seq "
+        "LEFT JOIN op_sig_unchecked u ON u.origin = o.origin AND u.seq = o.seq "
         "ORDER BY o.origin, o.seq"
     )
     revoked = {d.device_id for d in identity.trusted_devices(store.db) if d.revoked_ms}
@@ -210,13 +210,13 @@ def _parts(store: Store, cursor: dict[str, int], part_ops: int, include: Callabl
     last: dict[str, int] = {}
     part = _Part()
     for full in store.db.execute(sql):
-        row, stored = full[:-1], full[-1]
+        row, stored, unchecked = full[:-2], full[-2], bool(full[-1])
         origin, seq = row[0], row[1]
         if seq <= cursor.get(origin, 0) or not include(origin) or last.get(origin) == -1:
             continue
         prev = last.get(origin)
         line = op_line(row)
-        sig = None if origin in ex.revoked else ex.signature(origin, seq, line, stored, part)
+        sig = None if origin in ex.revoked else ex.signature(origin, seq, line, stored, unchecked, part)
         if (prev is not None and seq != prev + 1) or sig is None:
             last[origin] = -1  # the run ended (a restored device's hole, an unsigned relay): a later export
             continue
@@ -366,7 +366,8 @@ def _write_part(store: Store, out: Path, part: _Part, vector: dict[str, int], ke
     signature = identity.b64(key.sign(MANIFEST_SIG_PREFIX + mbytes))
     tmp = out.with_name(out.name + ".part")
     try:
-        with zipfile.ZipFile(tmp, "w", compression=zipfile.ZIP_DEFLATED) as z:
+        # level 1: under half the default's time on op lines, files 30 % larger (50,000 ops: 1.4 MB, limits far off)
+        with zipfile.ZipFile(tmp, "w", compression=zipfile.ZIP_DEFLATED, compresslevel=1) as z:
             z.writestr("manifest.json", mbytes)
             z.writestr("manifest.sig", signature)
             z.writestr("ops.jsonl", body)
@@ -681,7 +682,7 @@ def _check_integrity(store: Store, ops: list[Op], sender: str) -> int | None:
     for op in ops:
         row = held_ops.get((op.origin, op.seq))
         if row is not None:
-            if row != (op.hlc, op.entity, op.record_id, op.kind, canonical(op.payload), canonical(op.base)):
+            if row != op.stored():
                 if op.origin != store.device_id:
                     _refuse_different(op, sender)
                 rebase_from = op.seq if rebase_from is None else min(rebase_from, op.seq)
@@ -845,6 +846,7 @@ def _merge_batch(store: Store, v: _Verified, start: int, tell: Progress) -> int:
     new = 0
     batch = ProjectionBatch(store.db)
     chunk = v.ops[start : start + BATCH_OPS]
+    batch.prefetch(chunk)
     for n, op in enumerate(chunk, start=start):
         if n % PROGRESS_EVERY == 0:
             tell(0.2 + 0.8 * n / max(total, 1), f"merging change {n:,} of {total:,}")

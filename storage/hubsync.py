@@ -167,6 +167,7 @@ def _apply_checked(
     new = 0
     with transaction(store.db):
         batch = ProjectionBatch(store.db)
+        batch.prefetch([op for op, _ in good])
         newest = 0
         for op, _ in good:
             if insert_op(store.db, op, batch):

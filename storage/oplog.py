@@ -9,6 +9,8 @@ from __future__ import annotations
 
 import hashlib
 import json
+import sqlite3
+from collections.abc import Iterable, Sequence
 from dataclasses import dataclass
 from enum import StrEnum
 from typing import Any
@@ -25,6 +27,8 @@ SEQ_MAX = 2**53
 WALL_MS_MAX = 1 << 46  # the year 4199
 INT_RANGES = {"seq": (1, SEQ_MAX), "hlc": (0, HLC_MAX), "schema_version": (1, 10_000), "wall_ms": (0, WALL_MS_MAX)}
 MAX_ID_CHARS = 64
+INSERT_OP_SQL = f"INSERT INTO op ({', '.join(OP_KEYS)}) VALUES ({', '.join('?' * len(OP_KEYS))})"
+_OP_KEY_SET = frozenset(OP_KEYS)
 
 
 class OpKind(StrEnum):
@@ -42,9 +46,13 @@ class IntegrityError(Exception):
     """Same id, different content for an insert-only record, or an op that contradicts the log."""
 
 
+# what json.dumps(value, sort_keys=True, separators=(",", ":"), ensure_ascii=False) builds on every call
+_CANONICAL = json.JSONEncoder(sort_keys=True, separators=(",", ":"), ensure_ascii=False)
+
+
 def canonical(value: Any) -> str:
     """Canonical JSON (sorted keys, no spaces) used for hashes and stored values."""
-    return json.dumps(value, sort_keys=True, separators=(",", ":"), ensure_ascii=False)
+    return _CANONICAL.encode(value)
 
 
 def content_hash(payload: dict[str, Any]) -> str:
@@ -67,6 +75,20 @@ class Op:
     schema_version: int
     wall_ms: int
 
+    @property
+    def payload_text(self) -> str:
+        """``canonical(payload)`` (encoded at each call: an op's copies and forgeries must not share it)."""
+        return canonical(self.payload)
+
+    @property
+    def base_text(self) -> str:
+        """``canonical(base)``."""
+        return canonical(self.base) if self.base else "{}"
+
+    def stored(self) -> tuple[Any, ...]:
+        """(hlc, entity, record_id, kind, payload, base) as the ``op`` table holds them."""
+        return (self.hlc, self.entity, self.record_id, self.kind.value, self.payload_text, self.base_text)
+
     def row(self) -> dict[str, Any]:
         """The op as a row of the ``op`` table."""
         return {
@@ -76,8 +98,8 @@ class Op:
             "entity": self.entity,
             "record_id": self.record_id,
             "kind": self.kind.value,
-            "payload": canonical(self.payload),
-            "base": canonical(self.base),
+            "payload": self.payload_text,
+            "base": self.base_text,
             "schema_version": self.schema_version,
             "wall_ms": self.wall_ms,
         }
@@ -85,7 +107,7 @@ class Op:
     @classmethod
     def from_row(cls, row: dict[str, Any]) -> Op:
         """Rebuild an op from a stored row or a bundle line (keys must match exactly)."""
-        if set(row) != set(OP_KEYS):
+        if set(row) != _OP_KEY_SET:
             msg = f"op keys {sorted(row)} differ from {sorted(OP_KEYS)}"
             raise ValueError(msg)
         payload = row["payload"] if isinstance(row["payload"], dict) else json.loads(row["payload"])
@@ -149,25 +171,73 @@ def _now() -> str:
     return utc_stamp()  # 'Z'; rows written before this carry '+00:00', which storage.stamps also reads
 
 
+IN_CHUNK = 256  # ids per ``IN (...)`` read of a batch's prefetch
+HELD_SQL = "SELECT hlc, entity, record_id, kind, payload, base FROM op WHERE origin=? AND seq=?"
+STAMP_SQL = "SELECT hlc, origin FROM field_stamp WHERE entity=? AND record_id=? AND field=?"
+STAMP_WRITE_SQL = "INSERT OR REPLACE INTO field_stamp VALUES (?, ?, ?, ?, ?)"
+Stamp = tuple[int, str]  # (hlc, origin) of a field's current value
+
+
+def _store_sql(table: str) -> str:
+    return (
+        f"INSERT INTO {table} (id, site_id, data, content_hash) VALUES (?, ?, ?, ?) "
+        "ON CONFLICT(id) DO UPDATE SET site_id = excluded.site_id, data = excluded.data"
+    )
+
+
+def _write_many(db: sqlite_utils.Database, sql: str, rows: Sequence[Sequence[Any]]) -> None:
+    """One statement over many rows: ``executemany`` on SQLite, one ``execute`` a row elsewhere (PostgreSQL hub)."""
+    conn = getattr(db, "conn", None)
+    if isinstance(conn, sqlite3.Connection):
+        conn.executemany(sql, rows)
+        return
+    for row in rows:
+        db.execute(sql, list(row))
+
+
+def _in_chunks(ids: Sequence[str]) -> Iterable[tuple[str, list[str]]]:
+    """``(placeholders, params)`` to read ``ids`` with ``IN (...)``, at most IN_CHUNK at a time.
+
+    Each chunk is padded to a power of two by repeating its last id (an ``IN`` list reads a row once
+    however often it is named), so only a few distinct statements are ever prepared.
+    """
+    for start in range(0, len(ids), IN_CHUNK):
+        part = list(ids[start : start + IN_CHUNK])
+        size = 1 << (len(part) - 1).bit_length()
+        part += [part[-1]] * (size - len(part))
+        yield ", ".join("?" * size), part
+
+
+def _held_op(db: sqlite_utils.Database, origin: str, seq: int) -> tuple[Any, ...] | None:
+    """The stored (hlc, entity, record_id, kind, payload, base) of op ``origin:seq``; None if not held."""
+    row = db.execute(HELD_SQL, [origin, seq]).fetchone()
+    return tuple(row) if row is not None else None
+
+
 def _load(db: sqlite_utils.Database, table: str, record_id: str) -> tuple[dict[str, Any] | None, str | None]:
     row = db.execute(f"SELECT data, content_hash FROM {table} WHERE id = ?", [record_id]).fetchone()
     return (json.loads(row[0]), row[1]) if row else (None, None)
 
 
 def _store(db: sqlite_utils.Database, table: str, record_id: str, data: dict[str, Any], chash: str | None) -> None:
-    db.execute(
-        f"INSERT INTO {table} (id, site_id, data, content_hash) VALUES (?, ?, ?, ?) "
-        "ON CONFLICT(id) DO UPDATE SET site_id = excluded.site_id, data = excluded.data",
-        [record_id, data.get("site_id"), canonical(data), chash],
-    )
+    db.execute(_store_sql(table), [record_id, data.get("site_id"), canonical(data), chash])
+
+
+def touches(op: Op) -> list[tuple[str, str]]:
+    """The projection rows (table, id) that merging ``op`` reads."""
+    if op.kind == OpKind.STATUS:
+        return [("deficiency_event", f"{op.origin}:{op.seq}"), ("deficiency", op.record_id)]
+    return [(op.entity, op.record_id)]
 
 
 class ProjectionBatch:
-    """Projection rows held in memory across the ops of one transaction, written once at the end.
+    """Projection rows, field stamps and held ops kept in memory across one transaction's ops.
 
     An import merges thousands of ops that touch the same few records; reading and re-writing a
-    record's JSON per op was most of the import's time. Use inside the caller's transaction and
-    call ``flush()`` before it commits. Local saves do not use it.
+    record's JSON and stamps per op was most of the import's time. Use inside the caller's
+    transaction and call ``flush()`` before it commits (rows and stamps are written then, in one
+    statement per table on SQLite). ``prefetch(ops)`` reads up front, in a few statements, what
+    merging those ops would read one at a time. Local saves do not use it.
     """
 
     def __init__(self, db: sqlite_utils.Database):
@@ -175,8 +245,77 @@ class ProjectionBatch:
         self.db = db
         self.rows: dict[tuple[str, str], tuple[dict[str, Any] | None, str | None]] = {}
         self.dirty: set[tuple[str, str]] = set()
+        self.stamps: dict[tuple[str, str, str], Stamp | None] = {}  # (entity, record_id, field) -> stamp
+        self.dirty_stamps: set[tuple[str, str, str]] = set()
+        self.held: dict[tuple[str, int], tuple[Any, ...] | None] = {}  # (origin, seq) -> stored op, None: not held
         self.seen: dict[str, int] = {}  # origin -> contiguous high-water mark, as the batch sees it
         self.held_max: dict[str, int] = {}  # origin -> largest seq held before the batch began
+
+    def prefetch(self, ops: Sequence[Op]) -> None:
+        """Read what merging ``ops`` reads: the held ops of their seq ranges, their rows and field stamps.
+
+        Only reads, and only what the batch does not hold yet: every value is the one ``held_op``,
+        ``load`` and ``stamp`` would read one at a time.
+        """
+        self._prefetch_held(ops)
+        by_table: dict[str, set[str]] = {}
+        stamped: set[tuple[str, str, str]] = set()
+        for op in ops:
+            for table, record_id in touches(op):
+                by_table.setdefault(table, set()).add(record_id)
+            if op.kind == OpKind.SET:
+                stamped.update((op.entity, op.record_id, field) for field in op.payload)
+        for table, wanted in sorted(by_table.items()):
+            self._prefetch_rows(table, sorted(i for i in wanted if (table, i) not in self.rows))
+        self._prefetch_stamps(sorted(key for key in stamped if key not in self.stamps))
+
+    def _prefetch_held(self, ops: Sequence[Op]) -> None:
+        by_origin: dict[str, list[int]] = {}
+        for op in ops:
+            by_origin.setdefault(op.origin, []).append(op.seq)
+        for origin, seqs in sorted(by_origin.items()):
+            first, last = min(seqs), max(seqs)
+            if last - first + 1 > 2 * len(seqs):  # scattered seqs: read one at a time when merged
+                continue
+            rows = self.db.execute(
+                "SELECT seq, hlc, entity, record_id, kind, payload, base FROM op "
+                "WHERE origin=? AND seq BETWEEN ? AND ?",
+                [origin, first, last],
+            )
+            found = {r[0]: tuple(r[1:]) for r in rows}
+            for seq in seqs:
+                self.held.setdefault((origin, seq), found.get(seq))
+
+    def _prefetch_rows(self, table: str, ids: list[str]) -> None:
+        for marks, params in _in_chunks(ids):
+            for record_id, data, chash in self.db.execute(
+                f"SELECT id, data, content_hash FROM {table} WHERE id IN ({marks})", params
+            ):
+                self.rows[(table, record_id)] = (json.loads(data), chash)
+        for record_id in ids:
+            self.rows.setdefault((table, record_id), (None, None))
+
+    def _prefetch_stamps(self, keys: list[tuple[str, str, str]]) -> None:
+        """The stamps of these (entity, record_id, field): a join of the keys with the primary key."""
+        for start in range(0, len(keys), IN_CHUNK):
+            part = keys[start : start + IN_CHUNK]
+            padded = part + [part[-1]] * ((1 << (len(part) - 1).bit_length()) - len(part))  # few distinct statements
+            sql = (
+                f"WITH w(e, r, f) AS (VALUES {', '.join(['(?, ?, ?)'] * len(padded))}) "
+                "SELECT s.entity, s.record_id, s.field, s.hlc, s.origin FROM w "
+                "JOIN field_stamp s ON s.entity = w.e AND s.record_id = w.r AND s.field = w.f"
+            )
+            for key in part:
+                self.stamps[key] = None
+            for entity, record_id, field, hlc, origin in self.db.execute(sql, [v for key in padded for v in key]):
+                self.stamps[(entity, record_id, field)] = (hlc, origin)
+
+    def held_op(self, origin: str, seq: int) -> tuple[Any, ...] | None:
+        """The stored op ``origin:seq`` as the batch sees it (see ``_held_op``)."""
+        key = (origin, seq)
+        if key not in self.held:
+            self.held[key] = _held_op(self.db, origin, seq)
+        return self.held[key]
 
     def advance_seen(self, origin: str, seq: int) -> None:
         """An op of ``origin`` was inserted: move the contiguous high-water mark if it closes the run."""
@@ -205,13 +344,33 @@ class ProjectionBatch:
         self.rows[key] = (data, chash if chash is not None else old_hash)
         self.dirty.add(key)
 
+    def stamp(self, entity: str, record_id: str, field: str) -> Stamp | None:
+        """The field's (hlc, origin) as the batch sees it."""
+        key = (entity, record_id, field)
+        if key not in self.stamps:
+            row = self.db.execute(STAMP_SQL, [entity, record_id, field]).fetchone()
+            self.stamps[key] = (row[0], row[1]) if row else None
+        return self.stamps[key]
+
+    def set_stamp(self, entity: str, record_id: str, field: str, hlc: int, origin: str) -> None:
+        """Give the field a new stamp in the batch."""
+        key = (entity, record_id, field)
+        self.stamps[key] = (hlc, origin)
+        self.dirty_stamps.add(key)
+
     def flush(self) -> None:
-        """Write every changed row and the high-water marks."""
+        """Write every changed row and stamp, and the high-water marks."""
+        by_table: dict[str, list[tuple[Any, ...]]] = {}
         for table, record_id in sorted(self.dirty):
             data, chash = self.rows[(table, record_id)]
             assert data is not None
-            _store(self.db, table, record_id, data, chash)
+            by_table.setdefault(table, []).append((record_id, data.get("site_id"), canonical(data), chash))
+        for table, rows in by_table.items():
+            _write_many(self.db, _store_sql(table), rows)
         self.dirty.clear()
+        stamps = [(*key, *stamp) for key in sorted(self.dirty_stamps) if (stamp := self.stamps[key])]
+        _write_many(self.db, STAMP_WRITE_SQL, stamps)
+        self.dirty_stamps.clear()
         for origin, seq in self.seen.items():
             self.db.execute("INSERT OR REPLACE INTO seen VALUES (?, ?)", [origin, seq])
 
@@ -230,7 +389,7 @@ def apply_op(
 
 
 class _Direct:
-    """Projection rows read and written straight away (the local save path)."""
+    """Projection rows and stamps read and written straight away (the local save path)."""
 
     def __init__(self, db: sqlite_utils.Database):
         self.db = db
@@ -241,6 +400,13 @@ class _Direct:
     def store(self, table: str, record_id: str, data: dict[str, Any], chash: str | None) -> None:
         _store(self.db, table, record_id, data, chash)
 
+    def stamp(self, entity: str, record_id: str, field: str) -> Stamp | None:
+        row = self.db.execute(STAMP_SQL, [entity, record_id, field]).fetchone()
+        return (row[0], row[1]) if row else None
+
+    def set_stamp(self, entity: str, record_id: str, field: str, hlc: int, origin: str) -> None:
+        self.db.execute(STAMP_WRITE_SQL, [entity, record_id, field, hlc, origin])
+
 
 def _apply_set(db: sqlite_utils.Database, op: Op, record_conflicts: bool, rows: ProjectionBatch | _Direct) -> None:
     data, _ = rows.load(op.entity, op.record_id)
@@ -248,11 +414,7 @@ def _apply_set(db: sqlite_utils.Database, op: Op, record_conflicts: bool, rows: 
     new = (op.hlc, op.origin)
     changed = False
     for field, value in op.payload.items():
-        row = db.execute(
-            "SELECT hlc, origin FROM field_stamp WHERE entity=? AND record_id=? AND field=?",
-            [op.entity, op.record_id, field],
-        ).fetchone()
-        current = (row[0], row[1]) if row else None
+        current = rows.stamp(op.entity, op.record_id, field)
         base = op.base.get(field)
         base_t = (base[0], base[1]) if base else None
         if record_conflicts and current is not None and base_t != current and current != new:
@@ -260,10 +422,7 @@ def _apply_set(db: sqlite_utils.Database, op: Op, record_conflicts: bool, rows: 
         if current is None or new > current:
             data[field] = value
             changed = True
-            db.execute(
-                "INSERT OR REPLACE INTO field_stamp VALUES (?, ?, ?, ?, ?)",
-                [op.entity, op.record_id, field, op.hlc, op.origin],
-            )
+            rows.set_stamp(op.entity, op.record_id, field, op.hlc, op.origin)
     if changed:
         rows.store(op.entity, op.record_id, data, None)
 
@@ -320,23 +479,19 @@ def _apply_status(op: Op, rows: ProjectionBatch | _Direct) -> None:
 def insert_op(db: sqlite_utils.Database, op: Op, batch: ProjectionBatch | None = None) -> bool:
     """Append an op to the log; False if it is already held (same content), error if it differs.
 
-    With a ``batch`` the contiguous high-water mark (table ``seen``) is kept in memory and written
-    by ``batch.flush()``.
+    With a ``batch`` the held ops and the contiguous high-water mark (table ``seen``) are kept in
+    memory (the mark is written by ``batch.flush()``).
     """
-    row = db.execute(
-        "SELECT hlc, entity, record_id, kind, payload, base FROM op WHERE origin=? AND seq=?", [op.origin, op.seq]
-    ).fetchone()
+    row = batch.held_op(op.origin, op.seq) if batch is not None else _held_op(db, op.origin, op.seq)
+    mine = op.stored()
     if row is not None:
-        mine = (op.hlc, op.entity, op.record_id, op.kind.value, canonical(op.payload), canonical(op.base))
-        if tuple(row) != mine:
+        if row != mine:
             msg = f"op {op.origin}:{op.seq} already held with different content"
             raise IntegrityError(msg)
         return False
-    r = op.row()
-    db.execute(
-        f"INSERT INTO op ({', '.join(OP_KEYS)}) VALUES ({', '.join('?' * len(OP_KEYS))})", [r[k] for k in OP_KEYS]
-    )
+    db.execute(INSERT_OP_SQL, [op.origin, op.seq, *mine, op.schema_version, op.wall_ms])
     if batch is not None:
+        batch.held[(op.origin, op.seq)] = mine
         batch.advance_seen(op.origin, op.seq)
         return True
     seen = db.execute("SELECT seq FROM seen WHERE origin=?", [op.origin]).fetchone()
@@ -370,4 +525,5 @@ __all__ = [
     "apply_op",
     "canonical",
     "insert_op",
+    "touches",
 ]

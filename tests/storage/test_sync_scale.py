@@ -1,12 +1,16 @@
 """Sync at scale: export lines straight from the stored canonical text; a large export splits into parts."""
 
 import json
+import random
+
+import pytest
 
 from storage import Store
 from storage.bundle import export_bundles, import_bundles, op_line, part_path
 from storage.clock import uuid7
-from storage.db import transaction
-from storage.oplog import OP_KEYS, canonical
+from storage.db import connect, transaction
+from storage.oplog import OP_KEYS, Op, ProjectionBatch, apply_op, canonical, insert_op
+from storage.validate import MAX_VALUE_CHARS, RecordInvalid, check_op_record
 
 KEY = "test-firm-key"
 
@@ -43,3 +47,130 @@ def test_20k_ops_split_into_parts_that_import_in_order(tmp_path):
     assert [r.outcome for r in reports] == ["applied"] * 4
     assert sum(r.ops_new for r in reports) == 20_000
     assert b.digest() == a.digest()
+
+
+# -- the batched merge (an import) against the same ops merged one at a time (a local save's path) --------------
+
+ORIGINS = ("0190aaaa-0000-7000-8000-00000000000a", "0190aaaa-0000-7000-8000-00000000000b", "0190aaaa-0000-7000-8000-0c")
+FIELDS = ("notes", "d_mm", "b_mm", "spans_mm", "level")
+
+
+def _random_ops(seed, n):
+    """Edits, inserts and status moves from three devices on a few records, with stale and fresh bases."""
+    rng = random.Random(seed)
+    seqs = dict.fromkeys(ORIGINS, 0)
+    stamps = {}  # (record, field) -> the last stamp an op gave it: a base a device may or may not have seen
+    ops = []
+    for _ in range(n):
+        origin = rng.choice(ORIGINS)
+        seqs[origin] += 1
+        hlc = (1_760_000_000_000 + rng.randrange(0, 50)) << 16 | rng.randrange(0, 4)
+        record = f"beam-{rng.randrange(6)}"
+        common = {"origin": origin, "seq": seqs[origin], "hlc": hlc, "schema_version": 1, "wall_ms": hlc >> 16}
+        roll = rng.random()
+        if roll < 0.75:
+            fields = rng.sample(FIELDS, rng.randint(1, 3))
+            payload = {
+                f: rng.choice((rng.randrange(100, 900), f"v{rng.randrange(9)}", [7200, 3600], None)) for f in fields
+            }
+            base = {f: list(stamps[(record, f)]) for f in fields if (record, f) in stamps and rng.random() < 0.6}
+            ops.append(Op(entity="beam", record_id=record, kind="set", payload=payload, base=base, **common))
+            stamps.update({(record, f): (hlc, origin) for f in fields})
+        elif roll < 0.9:
+            payload = {"cycle": rng.randrange(3), "stage": rng.randrange(4), "site_id": "s1"}
+            ops.append(
+                Op(
+                    entity="deficiency",
+                    record_id=f"def-{rng.randrange(3)}",
+                    kind="status",
+                    payload=payload,
+                    base={},
+                    **common,
+                )
+            )
+        else:
+            rid = f"m-{rng.randrange(1000)}"
+            payload = {"site_id": "s1", "beam_id": record, "value_mm": 5}
+            ops.append(Op(entity="measurement", record_id=rid, kind="insert", payload=payload, base={}, **common))
+    ops = [op for op in ops if not (op.kind == "insert" and sum(o.record_id == op.record_id for o in ops) > 1)]
+    return ops
+
+
+def _state(db):
+    tables = ("site", "visit", "beam", "deficiency", "measurement", "deficiency_event", "field_stamp", "seen", "op")
+    out = {t: db.execute(f"SELECT * FROM {t} ORDER BY 1, 2").fetchall() for t in tables}
+    out["conflict"] = db.execute(
+        "SELECT entity, record_id, field, winner_origin, winner_seq, winner_value, loser_origin, loser_seq, "
+        "loser_value FROM conflict ORDER BY id"
+    ).fetchall()
+    return out
+
+
+@pytest.mark.parametrize("seed", range(6))
+@pytest.mark.parametrize("batch_ops", [1, 7, 64, 10_000])
+def test_batched_merge_equals_merging_one_op_at_a_time(tmp_path, seed, batch_ops):
+    """Reference: the same ops through insert_op + apply_op with no batch (each read and write straight to SQL)."""
+    ops = _random_ops(seed, 300)
+    one = connect(tmp_path / "one.db")
+    with transaction(one):
+        for op in ops:
+            if insert_op(one, op):
+                apply_op(one, op)
+    many = connect(tmp_path / "many.db")
+    for start in range(0, len(ops), batch_ops):
+        chunk = ops[start : start + batch_ops]
+        with transaction(many):
+            batch = ProjectionBatch(many)
+            if seed % 2 == 0:
+                batch.prefetch(chunk)  # with and without the up-front read: the same state
+            for op in chunk + chunk[:3]:  # ops already held (in this batch) are skipped as before
+                if insert_op(many, op, batch):
+                    apply_op(many, op, batch=batch)
+            batch.flush()
+    state = _state(one)
+    assert state["conflict"], "the ops make concurrent edits"
+    assert _state(many) == state
+
+
+def test_prefetch_reads_every_chunk_of_ids(tmp_path):
+    """More records and stamps than one IN list holds (IN_CHUNK), read up front, equal what is stored."""
+    db = connect(tmp_path / "a.db")
+    ops = [
+        Op(ORIGINS[0], i + 1, (1_760_000_000_000 + i) << 16, "beam", f"b{i:04d}", "set", {"notes": str(i)}, {}, 1, 1)
+        for i in range(700)
+    ]
+    with transaction(db):
+        for op in ops[::2]:
+            insert_op(db, op)
+            apply_op(db, op)
+    batch = ProjectionBatch(db)
+    batch.prefetch(ops)
+    for op in ops:
+        stored = db.execute("SELECT hlc, origin FROM field_stamp WHERE record_id=?", [op.record_id]).fetchone()
+        assert batch.stamps[("beam", op.record_id, "notes")] == (tuple(stored) if stored else None)
+        assert batch.rows[("beam", op.record_id)][0] == ({"notes": op.payload["notes"]} if stored else None)
+        assert (batch.held[(op.origin, op.seq)] is not None) == (stored is not None)
+
+
+def _note_op(payload):
+    return Op(ORIGINS[0], 1, 1 << 16, "beam", "b1", "set", payload, {}, 1, 1)
+
+
+def test_value_size_limit_holds_at_its_boundary():
+    """A field's canonical JSON of MAX_VALUE_CHARS passes, one more is refused, also beside other fields."""
+    at_limit = "x" * (MAX_VALUE_CHARS - 2)  # the two quotes make it MAX_VALUE_CHARS
+    check_op_record(_note_op({"notes": at_limit}))
+    check_op_record(_note_op({"notes": at_limit, "level": at_limit}))  # the payload is long, each field is not
+    with pytest.raises(RecordInvalid, match=r"'notes'.*longer than"):
+        check_op_record(_note_op({"notes": at_limit + "x", "level": "Roof"}))
+    status = Op(
+        ORIGINS[0], 1, 1 << 16, "deficiency", "d1", "status", {"cycle": 0, "stage": 1, "note": at_limit + "x"}, {}, 1, 1
+    )
+    with pytest.raises(RecordInvalid):
+        check_op_record(status)
+
+
+@pytest.mark.parametrize("value", [{"b": 1, "a": [1.5, None, True]}, 'café ☃ \u2028 "q"', [], {}, 1e300, -0.0])
+def test_canonical_is_sorted_compact_json(value):
+    """Python's json module with sorted keys, no spaces, non-ASCII kept (the stored and hashed form)."""
+    assert canonical(value) == json.dumps(value, sort_keys=True, separators=(",", ":"), ensure_ascii=False)
