@@ -28,7 +28,8 @@ class RegionKind:
 def row_fits(row: dict[str, str], kind: RegionKind) -> str | None:
     """None when a Table 7.4 row fits the region; otherwise the reason it does not (plain words)."""
     if row["load"] not in LOADS_CARRIED:
-        return f"row {row['le_case']!r} applies to {row['load'].replace('_', ' ')} loading; the recheck carries uniform loads"
+        loading = row["load"].replace("_", " ")
+        return f"row {row['le_case']!r} applies to {loading} loading; the recheck carries uniform loads"
     if row["fits"] == "simple_span" and not kind.simple_span:
         return f"row {row['le_case']!r} is for a simple span; this region is not the span of a single-span beam"
     if row["fits"] == "cantilever" and not kind.cantilever:
