@@ -42,8 +42,12 @@ class BackgroundHub:
         self.server = uvicorn.Server(uvicorn.Config(create_app(hub), log_level="error", lifespan="off"))
         self.thread = threading.Thread(target=self.server.run, kwargs={"sockets": [self.sock]}, daemon=True)
 
-    def start(self, timeout_s: float = 10.0) -> BackgroundHub:
-        """Start serving; RuntimeError if the server has not started within ``timeout_s``."""
+    def start(self, timeout_s: float = 60.0) -> BackgroundHub:
+        """Start serving; RuntimeError if the server has not started within ``timeout_s``.
+
+        Generous (uvicorn imports its protocol modules as it starts, slow on a loaded machine); the
+        wait ends as soon as the server has started.
+        """
         self.thread.start()
         deadline = time.monotonic() + timeout_s
         while time.monotonic() < deadline:
