@@ -37,7 +37,8 @@ class Demo:
         self.stderr_path = stderr_path
         self.lines: list[str] = []
         self._queue: queue.Queue[str | None] = queue.Queue()
-        threading.Thread(target=self._read, daemon=True).start()
+        self.reader = threading.Thread(target=self._read, daemon=True)
+        self.reader.start()
 
     def _read(self) -> None:
         assert self.proc.stdout is not None
@@ -93,10 +94,14 @@ def demo_serve(tmp_path: Path, ignore_sigint: bool = False) -> Iterator[Demo]:
     stderr_path = tmp_path / "demo-stderr.txt"
     with stderr_path.open("w") as err:
         proc = subprocess.Popen(args, cwd=ROOT, stdout=subprocess.PIPE, stderr=err, text=True, start_new_session=True)
+    demo = Demo(proc, stderr_path)
     try:
-        yield Demo(proc, stderr_path)
+        yield demo
     finally:
         _kill_group_if_running(proc)
+        demo.reader.join(timeout=STOP_S)  # the output ends with the process: the reader is done with it
+        if proc.stdout is not None:
+            proc.stdout.close()
 
 
 def _kill_group_if_running(proc: subprocess.Popen[str]) -> None:
@@ -112,8 +117,6 @@ def _kill_group_if_running(proc: subprocess.Popen[str]) -> None:
             proc.wait(timeout=wait_s)
         except subprocess.TimeoutExpired:
             continue
-    if proc.stdout is not None:
-        proc.stdout.close()
 
 
 def test_demo_serve_prints_the_register_address_and_a_login_that_works(tmp_path):
