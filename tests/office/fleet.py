@@ -216,8 +216,11 @@ def run_load(dbs: list[str], folder: Path, tablets: int, ops_each: int, workers:
     from office.background import HubProcess
 
     admin = HubStore(dbs)
-    procs = [HubProcess(dbs).start() for _ in range(workers)]
+    procs: list[HubProcess] = []
     try:
+        for _ in range(workers):  # each one stopped below, even if a later one fails to start
+            procs.append(HubProcess(dbs))
+            procs[-1].start()
         with _patient_client():
             sims = [SimTablet(folder, procs[i % workers].url, admin, i) for i in range(tablets)]
             for t in sims:
