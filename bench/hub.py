@@ -190,7 +190,9 @@ def _failover_row() -> Row:
     try:
         urls = pair.create_database("hub")
         admin = HubStore(urls)
-        procs = [HubProcess(urls).start(), HubProcess(urls).start()]
+        for _ in range(2):  # each one stopped below, even if the second fails to start
+            procs.append(HubProcess(urls))
+            procs[-1].start()
         with tempfile.TemporaryDirectory(prefix="bracewalk-bench-failover-") as tmp:
             sims = [SimTablet(Path(tmp), procs[i % 2].url, admin, i) for i in range(4)]
 

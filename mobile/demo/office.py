@@ -4,12 +4,20 @@ from __future__ import annotations
 
 import secrets
 import shutil
-import time
+import signal
+import threading
+from collections.abc import Iterator
+from contextlib import contextmanager
 from pathlib import Path
+from types import FrameType
+from typing import TYPE_CHECKING
 
 from mobile.hub_client import enroll, sync
 from storage import Store
 from storage.identity import DEMO_ORIGIN, demo_key, public_text
+
+if TYPE_CHECKING:
+    from office.background import BackgroundHub
 
 DEMO_USER = "demo"
 
@@ -39,15 +47,43 @@ def office_demo(store: Store, out: Path, serve: bool = False) -> str:
         if serve:
             password = secrets.token_urlsafe(9)
             registry.add_user(hub, DEMO_USER, password)
-            print(line)
-            print(f"office register: {running.url}/  log in as {DEMO_USER!r} with password {password!r}")
-            print("serving until Ctrl-C")
-            try:
-                while running.thread.is_alive():
-                    time.sleep(0.5)
-            except KeyboardInterrupt:
-                pass
+            _serve_until_stopped(running, line, password)
         return line
     finally:
         running.stop()
         hub.close()
+
+
+def _serve_until_stopped(running: BackgroundHub, line: str, password: str) -> None:
+    """Print the register's address and the demo login, then serve until SIGINT/SIGTERM (or the server ends)."""
+    # the handlers go in before the address is printed: whoever reads it may stop us at once
+    with stop_signals() as stopped:
+        # flushed: when the output is a pipe (a script, ``| tee``) the address must show now
+        print(line, flush=True)
+        address = f"office register: {running.url}/  log in as {DEMO_USER!r} with password {password!r}"
+        print(address, flush=True)
+        print("serving until Ctrl-C (or SIGTERM)", flush=True)
+        while running.thread.is_alive() and not stopped.wait(0.5):
+            pass
+
+
+@contextmanager
+def stop_signals() -> Iterator[threading.Event]:
+    """An event set by SIGINT (Ctrl-C) or SIGTERM while the block runs; the previous handlers are put back after.
+
+    Installed explicitly rather than relying on Python's KeyboardInterrupt: a process started in the
+    background of a non-interactive shell inherits SIGINT as *ignored*, and Python then never installs
+    its handler, so Ctrl-C (or ``kill -INT``) would leave the server running. SIGTERM's default
+    would end the process without stopping the hub and closing its database. Main thread only.
+    """
+    stopped = threading.Event()
+
+    def on_signal(_signum: int, _frame: FrameType | None) -> None:
+        stopped.set()
+
+    previous = {sig: signal.signal(sig, on_signal) for sig in (signal.SIGINT, signal.SIGTERM)}
+    try:
+        yield stopped
+    finally:
+        for sig, handler in previous.items():
+            signal.signal(sig, handler)

@@ -18,6 +18,7 @@ from storage.hubsync import record_push_answer
 from tests.core.beams import glulam
 
 RETRY_S = 120.0  # bounded: a tablet gives up after this long without a successful sync
+LOAD_TIMEOUT_S = 900.0  # bounded, generous: one request, and one sync round of every tablet, in the load run
 
 
 class Acknowledged:
@@ -140,22 +141,38 @@ class _PushTimer:
 
 
 @contextmanager
+def _patient_client() -> Iterator[None]:
+    """The tablets' request timeout raised to LOAD_TIMEOUT_S while the block runs (put back after).
+
+    A push waits its turn at the hub's ingest lock: with many tablets at once that can pass the
+    tablet's usual timeout, and a retry would only queue the same ops again. Enrolment too: on a
+    loaded 2-core machine a request to a just-started worker may wait well past 20 s.
+    """
+    real_timeout = hub_client.TIMEOUT_S
+    hub_client.TIMEOUT_S = LOAD_TIMEOUT_S
+    try:
+        yield
+    finally:
+        hub_client.TIMEOUT_S = real_timeout
+
+
+@contextmanager
 def _timed_pushes() -> Iterator[_PushTimer]:
-    """Time every push while the block runs; the client's request and timeout are put back after."""
-    timer, real_timeout = _PushTimer(), hub_client.TIMEOUT_S
+    """Time every push while the block runs; the client's request is put back after."""
+    timer = _PushTimer()
     hub_client.request = timer
-    # a push waits its turn at the hub's ingest lock: with many tablets at once that can pass the
-    # tablet's usual 30 s timeout, and a retry would only queue the same ops again
-    hub_client.TIMEOUT_S = 900
     try:
         yield timer
     finally:
         hub_client.request = timer.real
-        hub_client.TIMEOUT_S = real_timeout
 
 
 def _sync_all(sims: list[SimTablet], rounds: int = 2) -> None:
-    """Every tablet syncs at once (push, then pull what is there), ``rounds`` times; the first error is raised."""
+    """Every tablet syncs at once (push, then pull what is there), ``rounds`` times; the first error is raised.
+
+    A tablet still syncing after LOAD_TIMEOUT_S is an error too: counting while it runs would report
+    ops as lost that are merely late.
+    """
     errors: list[BaseException] = []
 
     def both(t: SimTablet) -> None:
@@ -165,13 +182,18 @@ def _sync_all(sims: list[SimTablet], rounds: int = 2) -> None:
             errors.append(exc)
 
     for _round in range(rounds):
-        threads = [threading.Thread(target=both, args=(t,)) for t in sims]
+        threads = [threading.Thread(target=both, args=(t,), name=f"tablet {t.i}") for t in sims]
         for th in threads:
             th.start()
+        deadline = time.monotonic() + LOAD_TIMEOUT_S
         for th in threads:
-            th.join(timeout=900)
+            th.join(timeout=max(0.0, deadline - time.monotonic()))
         if errors:
             raise errors[0]
+        late = [th.name for th in threads if th.is_alive()]
+        if late:
+            msg = f"round {_round + 1}: {', '.join(late)} still syncing after {LOAD_TIMEOUT_S} s"
+            raise RuntimeError(msg)
 
 
 def _tally(admin: HubStore, sims: list[SimTablet]) -> tuple[int, int, int]:
@@ -194,15 +216,19 @@ def run_load(dbs: list[str], folder: Path, tablets: int, ops_each: int, workers:
     from office.background import HubProcess
 
     admin = HubStore(dbs)
-    procs = [HubProcess(dbs).start() for _ in range(workers)]
+    procs: list[HubProcess] = []
     try:
-        sims = [SimTablet(folder, procs[i % workers].url, admin, i) for i in range(tablets)]
-        for t in sims:
-            t.edit(ops_each - 2)  # with the site and the beam: ops_each ops per tablet
-        with _timed_pushes() as timer:
-            t0 = time.perf_counter()
-            _sync_all(sims)
-            total = time.perf_counter() - t0
+        for _ in range(workers):  # each one stopped below, even if a later one fails to start
+            procs.append(HubProcess(dbs))
+            procs[-1].start()
+        with _patient_client():
+            sims = [SimTablet(folder, procs[i % workers].url, admin, i) for i in range(tablets)]
+            for t in sims:
+                t.edit(ops_each - 2)  # with the site and the beam: ops_each ops per tablet
+            with _timed_pushes() as timer:
+                t0 = time.perf_counter()
+                _sync_all(sims)
+                total = time.perf_counter() - t0
         complete, ops_on_hub, log_rows = _tally(admin, sims)
         return LoadResult(
             tablets, ops_each, workers, timer.last_ack - t0, timer.latencies, total, ops_on_hub, log_rows, complete

@@ -35,7 +35,9 @@ def test_kill_the_primary_mid_push_promote_the_standby_nothing_acknowledged_is_l
     try:
         urls = pair.create_database("hub")
         admin = HubStore(urls)
-        workers = [HubProcess(urls).start(), HubProcess(urls).start()]
+        for _ in range(2):  # each one stopped below, even if the second fails to start
+            workers.append(HubProcess(urls))
+            workers[-1].start()
         tablets = [SimTablet(tmp_path, workers[i % 2].url, admin, i) for i in range(TABLETS)]
         errors: list[BaseException] = []
 
