@@ -159,6 +159,7 @@ class PhotoRecord(Record):
     taken_by: str = Field(default="", max_length=200)  # the device's user when the photo was added
     marks: list[PhotoMark] = Field(default_factory=list)
     marks_of: str | None = None  # the original photo record these marks are drawn on
+    replaces: str | None = None  # the markup this one was drawn over (the latest one held when it was made)
 
 
 class ReviewerProfile(Record):

@@ -101,7 +101,7 @@ def build_notice(
     photos_by_def: dict[str, list[bytes | Photo]] = {}
     photos_by_beam: dict[str, list[bytes | Photo]] = {}
     records = store.photos(site_id)
-    marked = {str(p["marks_of"]): p for p in records if p.get("marks_of")}  # the latest markup of each photo
+    marked = store.latest_markups(site_id)  # the latest markup of each photo
     for p in records:
         if p.get("pending") or p.get("marks_of"):
             continue

@@ -512,6 +512,7 @@ class Store:
                 if not isinstance(v, int | float) or not 0.0 <= v <= 1.0:
                     msg = f"photo mark {k} = {v!r}; allowed: a fraction of the photo from 0 to 1"
                     raise ValueError(msg)
+        drawn_over = self.latest_markups(site_id).get(original.get("marks_of") or photo_id)
         pid = uuid7()
         kept = ("site_id", "sha256", "mime", "beam_id", "deficiency_id", "caption", "taken_at", "taken_by")
         fields = {k: original.get(k) for k in kept if k in original}
@@ -523,10 +524,28 @@ class Store:
                 **fields,
                 "marks": [c.model_dump(mode="json") for c in clean],
                 "marks_of": original.get("marks_of") or photo_id,
+                "replaces": drawn_over["id"] if drawn_over else None,
             },
             kind="insert",
         )
         return pid
+
+    def latest_markups(self, site_id: str) -> dict[str, dict[str, Any]]:
+        """The latest markup record of each marked photo of a site, keyed by the original photo's id.
+
+        Latest by what each markup names as the one it was drawn over (``replaces``), never by id or
+        clock: UUIDv7 ids order only by wall-clock ms (random bits within one ms) and a tablet's clock
+        can be set back. Of markups that nothing replaces (made on two devices without seeing each
+        other, or saved before ``replaces`` existed) the largest id is taken, the same on every device.
+        """
+        markups = [p for p in self.photos(site_id) if p.get("marks_of")]
+        replaced = {p["replaces"] for p in markups if p.get("replaces")}
+        latest: dict[str, dict[str, Any]] = {}
+        for p in markups:
+            held = latest.get(p["marks_of"])
+            if p["id"] not in replaced and (held is None or p["id"] > held["id"]):
+                latest[p["marks_of"]] = p
+        return latest
 
     def photos(self, site_id: str) -> list[dict[str, Any]]:
         """Photo records of a site, each with ``pending`` True if its bytes have not arrived."""

@@ -50,8 +50,8 @@ class PhotoViewModel:
 
     def saved_marks(self, photo_id: str) -> list[dict[str, Any]]:
         """The latest marks saved on a photo ([] when none)."""
-        markups = [p for p in self.store.photos(self.site_id) if p.get("marks_of") == photo_id]
-        return [dict(m) for m in markups[-1]["marks"]] if markups else []
+        latest = self.store.latest_markups(self.site_id).get(photo_id)
+        return [dict(m) for m in latest["marks"]] if latest else []
 
     def open(self, index: int) -> None:
         """Show photo ``index`` with its latest saved marks as the draft."""

@@ -99,3 +99,24 @@ def test_photo_blob_written_before_row_and_pending_when_missing(store):
     assert photo["pending"] is False
     store.blob_path(photo["sha256"]).unlink()
     assert next(p for p in store.photos(site.id) if p["id"] == pid)["pending"] is True
+
+
+def test_latest_markup_is_the_last_made_whatever_the_ids_or_the_wall_clock(tmp_path, monkeypatch):
+    # UUIDv7 ids order by wall-clock ms only, with random bits inside one ms (RFC 9562), and a tablet's
+    # clock can be set back: the latest markup is the one drawn over the others, not the largest id.
+    import storage.store as store_module
+
+    clock = {"now": 1_790_000_000_000}
+    s = Store(tmp_path / "m.db", wall_clock_ms=lambda: clock["now"])
+    site = s.create_site(name="S")
+    pid = s.add_photo(site.id, b"jpegbytes", caption="bearing 2")
+    ids = iter(["0190ffff-0000-7000-8000-000000000009", "0190ffff-0000-7000-8000-000000000001"])
+    monkeypatch.setattr(store_module, "uuid7", lambda: next(ids))  # the second id sorts first
+    s.mark_photo(site.id, pid, [{"kind": "arrow", "x": 0.2, "y": 0.8, "x2": 0.5, "y2": 0.5}])
+    clock["now"] -= 3_600_000  # the tablet's clock set back an hour between the two markups
+    s.mark_photo(site.id, pid, [{"kind": "ring", "x": 0.5, "y": 0.5, "x2": 0.2}])
+    latest = s.latest_markups(site.id)
+    assert list(latest) == [pid]
+    assert latest[pid]["id"] == "0190ffff-0000-7000-8000-000000000001"
+    assert latest[pid]["replaces"] == "0190ffff-0000-7000-8000-000000000009"
+    assert [m["kind"] for m in latest[pid]["marks"]] == ["ring"]
