@@ -121,3 +121,27 @@ def test_dead_load_alone_is_one_case_on_a_continuous_beam():
     # none, so it is one case on the whole beam however many spans it has.
     cases = _cases(glulam(spans_mm=[6000, 6000], bearings=[R] * 3))
     assert [c.pattern for c in cases if c.combo.dead_load_only] == [""]
+
+
+def test_a_bearing_lengthened_to_exactly_its_resistance_is_the_remedy():
+    # CSA O86-19 7.5.9: Qr is linear in the bearing length, so a bearing used at 2.0 over 200 mm is used at
+    # exactly 1.0 over 400 mm; NBC 4.1.3.1 / O86-19 4.2: Qr >= Qf passes, so 400 mm is the remedy, not 410.
+    # The live load was found by bisection so that 400 mm gives 1.0 to the last bit (checked first).
+    from core.models import Beam
+    from core.recheck import recheck
+    from core.remedies import remedies
+    from tests.core.test_remedies import _beam_data
+
+    base = _beam_data("short bearings on a heavy girder")
+    loads = dict(base["loads"], live_kn_m=38.049213333333334)
+
+    def beam(length_mm):
+        return Beam.model_validate(dict(base, bearings=[dict(R, length_mm=length_mm)] * 2, loads=loads))
+
+    assert recheck(beam(400)).bearing[0].utilisation == 1.0
+    short = beam(200)
+    r = recheck(short)
+    assert r.bearing[0].utilisation == pytest.approx(2.0, rel=1e-12)
+    found = [x for x in remedies(short, r) if x.solves == "bearing_overstress"]
+    assert found[0].change == {"bearings.0.length_mm": 400.0}
+    assert found[0].utilisation_after == 1.0
