@@ -99,7 +99,9 @@ def treatment_factors(beam: Beam) -> tuple[float, float, FactorTrace]:
 def size_factor_kzb(b_mm: float, d_mm: float) -> tuple[float, FactorTrace]:
     """CSA O86-19 Table 6.13 (memory): KZb (= KZv) for sawn lumber from the measured section."""
     small, large = min(b_mm, d_mm), max(b_mm, d_mm)
-    column = "kzb_small_38_64" if small <= 64.5 else ("kzb_mid_89_102" if small <= 102 else "kzb_large_114_up")
+    # a measured thickness between the columns (over 64, under 89 mm) takes the 38-64 column: its factors are
+    # the lower ones in every row, the unfavourable reading of a size the table does not list
+    column = "kzb_small_38_64" if small < 88.5 else ("kzb_mid_89_102" if small <= 102 else "kzb_large_114_up")
     for row in tables.load("kzb").rows:
         if large <= float(row["larger_dim_max_mm"]):
             value = float(row[column])

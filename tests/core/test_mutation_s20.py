@@ -49,10 +49,13 @@ def test_companion_load_that_is_zero_adds_no_combination():
     assert applicable(combos["1.25D + 1.5L + 0.5S"], live_n_mm=2.0, snow_n_mm=3.0)
 
 
-def test_a_measured_65_mm_thickness_is_past_the_38_64_column():
-    # O86-19 Table 6.13 (reference o86.md 2.1): the first column covers 38 to 64 mm thickness; a measured
-    # 65 mm is past it and is read in the 89-102 mm column (core/data/kzb.csv lookup note: <= 64.5 mm).
-    assert size_factor_kzb(65, 140)[0] == pytest.approx(1.5)
+def test_a_measured_thickness_between_the_columns_takes_the_lower_factors():
+    # O86-19 Table 6.13 (reference o86.md 2.1) lists 38-64 mm and 89-102 mm thicknesses; a measured 65-88 mm
+    # is neither, and the 38-64 column's factors are the lower in every row (1.4 against 1.5 at 140 mm deep),
+    # so the unfavourable reading is the 38-64 column (common practice: an unlisted size is read on the safe side).
+    assert size_factor_kzb(65, 140)[0] == pytest.approx(1.4)
+    assert size_factor_kzb(88, 140)[0] == pytest.approx(1.4)
+    assert size_factor_kzb(89, 140)[0] == pytest.approx(1.5)
     assert size_factor_kzb(64, 140)[0] == pytest.approx(1.4)
 
 
