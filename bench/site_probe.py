@@ -121,7 +121,7 @@ def portfolio(db: str, processes: int) -> dict[str, float]:
             inside[1] += time.process_time() - c
 
     if processes == 1:
-        module.recheck = timed  # what storage.results.summarise calls
+        module.recheck = timed  # what storage.results._summary calls
     store = Store(db)
     c0, t0 = os.times(), time.perf_counter()
     run = recheck_all(store.db, processes=processes)

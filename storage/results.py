@@ -69,23 +69,12 @@ FINDING_KEYS = ("code", "priority", "region")
 ROW_KEYS = ("clause", "source", "status")
 
 
-def summarise(record: dict[str, Any]) -> tuple[str, str, float | None, list[dict[str, str]], list[dict[str, str]]]:
+def _summary(record: dict[str, Any]) -> tuple[str, str, float | None, Triples, Triples]:
     """Recheck one stored beam record: (status, governing check, utilisation, findings, table rows used).
 
-    An incomplete record gives ``("unchecked", "", None, [], [])``. Pure apart from the recheck.
+    Findings as (code, priority, region), table rows as (clause, source, status); an incomplete record
+    gives ``("unchecked", "", None, (), ())``. Pure apart from the recheck.
     """
-    status, governing, util, findings, used = _summary(record)
-    return (
-        status,
-        governing,
-        util,
-        [dict(zip(FINDING_KEYS, f, strict=True)) for f in findings],
-        [dict(zip(ROW_KEYS, r, strict=True)) for r in used],
-    )
-
-
-def _summary(record: dict[str, Any]) -> tuple[str, str, float | None, Triples, Triples]:
-    """``summarise`` with findings as (code, priority, region) and table rows as (clause, source, status)."""
     from core.models import Beam
     from core.recheck import recheck
 
@@ -242,15 +231,22 @@ def _text(value: Any) -> str:
     return "" if value is None else str(value)
 
 
+def _evaluate(
+    job: tuple[str, str, str, str],
+) -> tuple[dict[str, Any], bool, tuple[str, str, float | None, Triples, Triples]]:
+    """A job's record, its archived flag and its ``_summary`` (an archived beam is not rechecked)."""
+    record = json.loads(job[3])
+    archived = bool(record.get("archived"))
+    return record, archived, (UNCHECKED, "", None, (), ()) if archived else _summary(record)
+
+
 def compute(job: tuple[str, str, str, str]) -> StoredResult:
     """Recheck one job (beam id, site id, input hash, record text) into a StoredResult.
 
     An archived beam is not rechecked (``unchecked``): its row only carries the archived flag.
     """
-    beam_id, site_id, key, text = job
-    record = json.loads(text)
-    archived = bool(record.get("archived"))
-    status, governing, util, findings, used = (UNCHECKED, "", None, [], []) if archived else summarise(record)
+    beam_id, site_id, key, _ = job
+    record, archived, (status, governing, util, findings, used) = _evaluate(job)
     return StoredResult(
         beam_id,
         site_id,
@@ -258,8 +254,8 @@ def compute(job: tuple[str, str, str, str]) -> StoredResult:
         status,
         governing,
         util,
-        tuple(findings),
-        tuple(used),
+        tuple(dict(zip(FINDING_KEYS, f, strict=True)) for f in findings),
+        tuple(dict(zip(ROW_KEYS, r, strict=True)) for r in used),
         mark=_text(record.get("mark")),
         level=_text(record.get("level")),
         gridline=_text(record.get("gridline")),
@@ -424,10 +420,8 @@ def _rows_of(part: list[tuple[str, str, str, str]]) -> list[tuple[Any, ...]]:
 
 def row_of(job: tuple[str, str, str, str]) -> tuple[Any, ...]:
     """``as_row(compute(job))`` without the StoredResult (and the findings' JSON shared)."""
-    beam_id, site_id, key, text = job
-    record = json.loads(text)
-    archived = bool(record.get("archived"))
-    status, governing, util, findings, used = (UNCHECKED, "", None, (), ()) if archived else _summary(record)
+    beam_id, site_id, key, _ = job
+    record, archived, (status, governing, util, findings, used) = _evaluate(job)
     return (
         beam_id,
         site_id,
