@@ -15,18 +15,12 @@ import uvicorn
 
 from office.app import create_app
 from office.hubstore import HubStore
+from office.pgha import free_port
 
 # generous: a worker answers in ~1 s alone, but took 20 s on a 2-core machine at load average 22
 # (measured: python + fastapi + psycopg imports); the wait ends as soon as it answers or exits
 STARTUP_S = 300.0
 PORT_ATTEMPTS = 5
-
-
-def _free_port() -> int:
-    """A port of 127.0.0.1 that is free now (the worker binds it a moment later)."""
-    with socket.socket() as s:
-        s.bind(("127.0.0.1", 0))
-        return int(s.getsockname()[1])
 
 
 class BackgroundHub:
@@ -74,7 +68,7 @@ class HubProcess:
     def __init__(self, dbs: list[str], port: int = 0):
         """Choose a free port (or the one given); nothing starts yet."""
         self.chosen = not port  # a port we picked may be taken by someone else before the worker binds it
-        self.port = port or _free_port()
+        self.port = port or free_port()
         self.url = f"http://127.0.0.1:{self.port}"
         self.dbs = dbs
         self.proc: subprocess.Popen[bytes] | None = None
@@ -89,7 +83,7 @@ class HubProcess:
         for _attempt in range(PORT_ATTEMPTS):
             if self._start_once(timeout_s):
                 return self
-            self.port = _free_port()
+            self.port = free_port()
             self.url = f"http://127.0.0.1:{self.port}"
         msg = f"hub worker: every one of {PORT_ATTEMPTS} free ports was taken before it could bind"
         raise RuntimeError(msg)
