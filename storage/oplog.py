@@ -195,17 +195,21 @@ def _write_many(db: sqlite_utils.Database, sql: str, rows: Sequence[Sequence[Any
         db.execute(sql, list(row))
 
 
-def _in_chunks(ids: Sequence[str]) -> Iterable[tuple[str, list[str]]]:
-    """``(placeholders, params)`` to read ``ids`` with ``IN (...)``, at most IN_CHUNK at a time.
+def _padded_chunks(items: Sequence[Any]) -> Iterable[tuple[list[Any], list[Any]]]:
+    """``(chunk, padded)``: ``items`` at most IN_CHUNK at a time, each chunk also padded to a power of two.
 
-    Each chunk is padded to a power of two by repeating its last id (an ``IN`` list reads a row once
-    however often it is named), so only a few distinct statements are ever prepared.
+    The padding repeats the chunk's last item (a key named twice in a lookup reads its row once), so
+    only a few distinct statements are ever prepared.
     """
-    for start in range(0, len(ids), IN_CHUNK):
-        part = list(ids[start : start + IN_CHUNK])
-        size = 1 << (len(part) - 1).bit_length()
-        part += [part[-1]] * (size - len(part))
-        yield ", ".join("?" * size), part
+    for start in range(0, len(items), IN_CHUNK):
+        part = list(items[start : start + IN_CHUNK])
+        yield part, part + [part[-1]] * ((1 << (len(part) - 1).bit_length()) - len(part))
+
+
+def read_stamp(db: sqlite_utils.Database, entity: str, record_id: str, field: str) -> Stamp | None:
+    """The stored (hlc, origin) stamp of a field's current value; None if it has none."""
+    row = db.execute(STAMP_SQL, [entity, record_id, field]).fetchone()
+    return (row[0], row[1]) if row else None
 
 
 def _held_op(db: sqlite_utils.Database, origin: str, seq: int) -> tuple[Any, ...] | None:
@@ -287,9 +291,9 @@ class ProjectionBatch:
                 self.held.setdefault((origin, seq), found.get(seq))
 
     def _prefetch_rows(self, table: str, ids: list[str]) -> None:
-        for marks, params in _in_chunks(ids):
+        for _, padded in _padded_chunks(ids):
             for record_id, data, chash in self.db.execute(
-                f"SELECT id, data, content_hash FROM {table} WHERE id IN ({marks})", params
+                f"SELECT id, data, content_hash FROM {table} WHERE id IN ({', '.join('?' * len(padded))})", padded
             ):
                 self.rows[(table, record_id)] = (json.loads(data), chash)
         for record_id in ids:
@@ -297,9 +301,7 @@ class ProjectionBatch:
 
     def _prefetch_stamps(self, keys: list[tuple[str, str, str]]) -> None:
         """The stamps of these (entity, record_id, field): a join of the keys with the primary key."""
-        for start in range(0, len(keys), IN_CHUNK):
-            part = keys[start : start + IN_CHUNK]
-            padded = part + [part[-1]] * ((1 << (len(part) - 1).bit_length()) - len(part))  # few distinct statements
+        for part, padded in _padded_chunks(keys):
             sql = (
                 f"WITH w(e, r, f) AS (VALUES {', '.join(['(?, ?, ?)'] * len(padded))}) "
                 "SELECT s.entity, s.record_id, s.field, s.hlc, s.origin FROM w "
@@ -348,8 +350,7 @@ class ProjectionBatch:
         """The field's (hlc, origin) as the batch sees it."""
         key = (entity, record_id, field)
         if key not in self.stamps:
-            row = self.db.execute(STAMP_SQL, [entity, record_id, field]).fetchone()
-            self.stamps[key] = (row[0], row[1]) if row else None
+            self.stamps[key] = read_stamp(self.db, entity, record_id, field)
         return self.stamps[key]
 
     def set_stamp(self, entity: str, record_id: str, field: str, hlc: int, origin: str) -> None:
@@ -401,8 +402,7 @@ class _Direct:
         _store(self.db, table, record_id, data, chash)
 
     def stamp(self, entity: str, record_id: str, field: str) -> Stamp | None:
-        row = self.db.execute(STAMP_SQL, [entity, record_id, field]).fetchone()
-        return (row[0], row[1]) if row else None
+        return read_stamp(self.db, entity, record_id, field)
 
     def set_stamp(self, entity: str, record_id: str, field: str, hlc: int, origin: str) -> None:
         self.db.execute(STAMP_WRITE_SQL, [entity, record_id, field, hlc, origin])
@@ -525,5 +525,6 @@ __all__ = [
     "apply_op",
     "canonical",
     "insert_op",
+    "read_stamp",
     "touches",
 ]

@@ -28,7 +28,7 @@ from storage.clock import hlc_receive, hlc_tick, uuid7
 from storage.db import PROJECTIONS, SCHEMA_VERSION, SET_ENTITIES, connect, transaction
 from storage.files import write_atomic
 from storage.identity import DEMO_ORIGIN
-from storage.oplog import IntegrityError, Op, OpKind, all_ops, apply_op, canonical, insert_op
+from storage.oplog import IntegrityError, Op, OpKind, all_ops, apply_op, canonical, insert_op, read_stamp
 from storage.stamps import utc_stamp
 
 BEAM_FIELDS = tuple(Beam.model_fields)
@@ -245,10 +245,8 @@ class Store:
 
     def stamp(self, entity: str, record_id: str, field: str) -> list[Any] | None:
         """The (hlc, origin) stamp of a field's current value: what a user 'saw'."""
-        row = self.db.execute(
-            "SELECT hlc, origin FROM field_stamp WHERE entity=? AND record_id=? AND field=?", [entity, record_id, field]
-        ).fetchone()
-        return [row[0], row[1]] if row else None
+        stamp = read_stamp(self.db, entity, record_id, field)
+        return list(stamp) if stamp else None
 
     # -- the one save path -------------------------------------------------------------------
     def save(
