@@ -219,15 +219,19 @@ class BeamModel:
             reactions.append(r)
         return CaseResult(w_n_mm=tuple(w_n_mm), v0_n=tuple(v0), m0_nmm=tuple(m0), reactions_n=tuple(reactions))
 
-    def deflections_mm(self, w_n_mm: tuple[float, ...], ei_nmm2: float) -> list[tuple[float, float]]:
-        """Downward deflection at sample points of each element: (max, at) per element, mm."""
-        n_el = len(self.elements)
-        d = [0.0] * (2 * (n_el + 1))
+    def _nodal_displacements(self, w_n_mm: tuple[float, ...]) -> list[float]:
+        """Nodal (v, theta) of every node times EI, by superposition of the unit cases (in case order)."""
+        d = [0.0] * len(self._disp[0])
         for c, w in enumerate(w_n_mm):
             if w:
                 dc = self._disp[c]
                 for i in range(len(d)):
                     d[i] += w * dc[i]
+        return d
+
+    def deflections_mm(self, w_n_mm: tuple[float, ...], ei_nmm2: float) -> list[tuple[float, float]]:
+        """Downward deflection at sample points of each element: (max, at) per element, mm."""
+        d = self._nodal_displacements(w_n_mm)
         out = []
         for e, length in enumerate(self.lengths):
             v1, t1, v2, t2 = d[2 * e : 2 * e + 4]
@@ -257,12 +261,7 @@ class BeamModel:
         upper bound (each term at its largest shape-function value, plus a 1e-9 margin over rounding) is
         under it gives None, its samples not evaluated.
         """
-        d = [0.0] * len(self._disp[0])
-        for c, w in enumerate(w_n_mm):
-            if w:
-                dc = self._disp[c]
-                for i in range(len(d)):
-                    d[i] += w * dc[i]
+        d = self._nodal_displacements(w_n_mm)
         samples = self._peak_samples
         n1m, a2m, n3m, a4m, cm = self._shape_max
         out: list[float | None] = []
