@@ -334,9 +334,9 @@ class _Ranker:
         fb, kl, mr = hit
         if kl is None:
             return (_OUTCOME_RANK[Outcome.not_established if ne else Outcome.not_permitted], m * KNM_PER_NMM)
-        if mr is None:  # glulam: KZbg by the region's length, as _member_mr
+        if mr is None:  # glulam: KZbg by the region's length
             beam = self.beam
-            mr = glulam_mr(fb, self.member.s_mm3, 1.0, size_factor_kzbg(beam.b_mm, beam.d_mm, x1 - x0), kl)
+            mr = _member_mr(beam, self.member, fb, size_factor_kzbg(beam.b_mm, beam.d_mm, x1 - x0), kl)
         if ne:
             return (_OUTCOME_RANK[Outcome.not_established], m / mr)
         util = m / mr if mr > 0 else float("inf")
