@@ -230,6 +230,41 @@ def le_cases_allowed() -> list[str]:
     return [effective_length.AUTO, *tables.column("effective_length", "le_case")]
 
 
+def _grades_by_species(material: Material) -> dict[str, frozenset[str]]:
+    """Species -> the grades the tables hold for it (``species_allowed``, ``grades_allowed`` as sets).
+
+    Built once per material and tables generation (a firm's records may change rows), as the member
+    cache is: a beam's validation then does no table scan.
+    """
+    key = (tables.generation(), material)
+    hit = _GRADE_SETS.get(key)
+    if hit is None:
+        name = "glulam_grades" if material is Material.glulam else "sawn_grades"
+        found: dict[str, set[str]] = {}
+        for row in tables.load(name).rows:
+            found.setdefault(row["species"], set()).add(row["grade"])
+        if len(_GRADE_SETS) >= _SETS_MAX:
+            _GRADE_SETS.clear()
+        hit = _GRADE_SETS[key] = {species: frozenset(grades) for species, grades in found.items()}
+    return hit
+
+
+def _le_cases() -> frozenset[str]:
+    """``le_cases_allowed`` as a set, built once per tables generation."""
+    key = tables.generation()
+    hit = _LE_CASES.get(key)
+    if hit is None:
+        if len(_LE_CASES) >= _SETS_MAX:
+            _LE_CASES.clear()
+        hit = _LE_CASES[key] = frozenset(le_cases_allowed())
+    return hit
+
+
+_GRADE_SETS: dict[tuple[int, Material], dict[str, frozenset[str]]] = {}
+_LE_CASES: dict[int, frozenset[str]] = {}
+_SETS_MAX = 16
+
+
 class Beam(Record):
     """One installed beam as logged on site (contract 1)."""
 
@@ -301,7 +336,7 @@ class Beam(Record):
                 raise ValueError(msg)
 
     def _check_le_case(self) -> None:
-        if self.le_case not in le_cases_allowed():
+        if self.le_case not in _le_cases():
             msg = f"le_case = {self.le_case!r}; allowed: {le_cases_allowed()}"
             raise ValueError(msg)
         kinds = effective_length.beam_kinds(
@@ -335,11 +370,11 @@ class Beam(Record):
 
 
 def _check_species_grade(f_species: str, f_grade: str, material: Material, species: str, grade: str) -> None:
-    allowed = species_allowed(material)
-    if species not in allowed:
-        msg = f"{f_species} = {species!r} is not a {material.value} species; allowed: {allowed}"
+    grades = _grades_by_species(material).get(species)
+    if grades is None:
+        msg = f"{f_species} = {species!r} is not a {material.value} species; allowed: {species_allowed(material)}"
         raise ValueError(msg)
-    grades = grades_allowed(material, species)
     if grade not in grades:
-        msg = f"{f_grade} = {grade!r} does not exist for {material.value} {species}; allowed: {grades}"
+        allowed = grades_allowed(material, species)
+        msg = f"{f_grade} = {grade!r} does not exist for {material.value} {species}; allowed: {allowed}"
         raise ValueError(msg)

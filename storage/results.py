@@ -18,6 +18,7 @@ from collections.abc import Callable, Iterable, Iterator
 from contextlib import contextmanager
 from dataclasses import dataclass, field
 from functools import lru_cache
+from json.encoder import encode_basestring_ascii as _ascii
 from typing import Any
 
 from pydantic import ValidationError
@@ -59,28 +60,38 @@ def beam_fields() -> tuple[str, ...]:
     return tuple(Beam.model_fields)
 
 
-@lru_cache(maxsize=1)
-def _field_set() -> frozenset[str]:
-    return frozenset(beam_fields())
-
-
 Triples = tuple[tuple[str, str, str], ...]
 FINDING_KEYS = ("code", "priority", "region")
 ROW_KEYS = ("clause", "source", "status")
 
 
-def _summary(record: dict[str, Any]) -> tuple[str, str, float | None, Triples, Triples]:
+@lru_cache(maxsize=1)
+def _stored_beam() -> type[Any]:
+    """``Beam`` that ignores the record's other keys (location, drafts): validated straight from its text.
+
+    The same fields, validators and instances' values as ``Beam.model_validate`` of the record's beam
+    fields (a subclass changes only ``extra``), without decoding the text into a dict first.
+    """
+    from pydantic import ConfigDict
+
+    from core.models import Beam
+
+    class StoredBeam(Beam):
+        model_config = ConfigDict(frozen=True, extra="ignore")
+
+    return StoredBeam
+
+
+def _summary(record_text: str) -> tuple[str, str, float | None, Triples, Triples]:
     """Recheck one stored beam record: (status, governing check, utilisation, findings, table rows used).
 
     Findings as (code, priority, region), table rows as (clause, source, status); an incomplete record
     gives ``("unchecked", "", None, (), ())``. Pure apart from the recheck.
     """
-    from core.models import Beam
     from core.recheck import recheck
 
-    fields = _field_set()
     try:
-        result = recheck(Beam.model_validate({k: v for k, v in record.items() if k in fields}))
+        result = recheck(_stored_beam().model_validate_json(record_text))
     except (ValidationError, ValueError):
         return UNCHECKED, "", None, (), ()
     checks: list[tuple[str, float | None, Iterable[Any]]] = [
@@ -192,11 +203,32 @@ def _json_of(keys: tuple[str, str, str], items: Triples) -> str:
 
 @lru_cache(maxsize=1024)
 def _findings_json(items: Triples) -> str:
-    """Findings' JSON, encoded once per distinct set (few: a code, a priority, a region each).
-
-    Table rows are not cached: their sources carry each beam's own numbers, so no two beams share them.
-    """
+    """Findings' JSON, encoded once per distinct set (few: a code, a priority, a region each)."""
     return _json_of(FINDING_KEYS, items)
+
+
+def _rows_json(items: Triples) -> str:
+    """``_json_of(ROW_KEYS, items)``, each row's object encoded once per distinct row.
+
+    A beam's rows differ as a set (their sources carry its own numbers), but most single rows recur
+    from beam to beam (the grade row, the service and treatment factors, the clause notes). The text is
+    the one ``json.dumps`` writes: ``encode_basestring_ascii`` is its encoder for a str (ensure_ascii).
+    """
+    parts = []
+    for item in items:
+        text = _ROW_TEXT.get(item)
+        if text is None:
+            if len(_ROW_TEXT) >= _ROW_TEXT_MAX:
+                _ROW_TEXT.clear()
+            text = _ROW_TEXT[item] = (
+                "{" + ", ".join(f"{_ascii(k)}: {_ascii(v)}" for k, v in zip(ROW_KEYS, item, strict=True)) + "}"
+            )
+        parts.append(text)
+    return "[" + ", ".join(parts) + "]"
+
+
+_ROW_TEXT: dict[tuple[str, str, str], str] = {}
+_ROW_TEXT_MAX = 50_000
 
 
 def as_row(r: StoredResult) -> tuple[Any, ...]:
@@ -231,22 +263,30 @@ def _text(value: Any) -> str:
     return "" if value is None else str(value)
 
 
-def _evaluate(
-    job: tuple[str, str, str, str],
-) -> tuple[dict[str, Any], bool, tuple[str, str, float | None, Triples, Triples]]:
-    """A job's record, its archived flag and its ``_summary`` (an archived beam is not rechecked)."""
-    record = json.loads(job[3])
-    archived = bool(record.get("archived"))
-    return record, archived, (UNCHECKED, "", None, (), ()) if archived else _summary(record)
+Job = tuple[str, str, str, str, str]  # beam id, site id, input hash, record text, its list fields' JSON
+# the fields a result keeps besides the recheck's, as one JSON array read by SQLite from the record
+# (json_extract with several paths): [mark, level, gridline, archived], null where absent
+_LIST_FIELDS_SQL = "json_extract(b.data, '$.mark', '$.level', '$.gridline', '$.archived')"
 
 
-def compute(job: tuple[str, str, str, str]) -> StoredResult:
-    """Recheck one job (beam id, site id, input hash, record text) into a StoredResult.
+def _evaluate(job: Job) -> tuple[list[str], bool, tuple[str, str, float | None, Triples, Triples]]:
+    """A job's list fields (mark, level, gridline as text), archived flag and ``_summary``.
+
+    An archived beam is not rechecked. The list fields and the flag are the record's own JSON values
+    (SQLite copies each value's text), read without decoding the whole record.
+    """
+    mark, level, gridline, archived = json.loads(job[4])
+    summary = (UNCHECKED, "", None, (), ()) if archived else _summary(job[3])
+    return [_text(mark), _text(level), _text(gridline)], bool(archived), summary
+
+
+def compute(job: Job) -> StoredResult:
+    """Recheck one job (``jobs``: beam id, site id, input hash, record text, list fields) into a StoredResult.
 
     An archived beam is not rechecked (``unchecked``): its row only carries the archived flag.
     """
-    beam_id, site_id, key, _ = job
-    record, archived, (status, governing, util, findings, used) = _evaluate(job)
+    beam_id, site_id, key = job[:3]
+    (mark, level, gridline), archived, (status, governing, util, findings, used) = _evaluate(job)
     return StoredResult(
         beam_id,
         site_id,
@@ -256,15 +296,15 @@ def compute(job: tuple[str, str, str, str]) -> StoredResult:
         util,
         tuple(dict(zip(FINDING_KEYS, f, strict=True)) for f in findings),
         tuple(dict(zip(ROW_KEYS, r, strict=True)) for r in used),
-        mark=_text(record.get("mark")),
-        level=_text(record.get("level")),
-        gridline=_text(record.get("gridline")),
+        mark=mark,
+        level=level,
+        gridline=gridline,
         archived=archived,
     )
 
 
-def jobs(db: Any, site_id: str | None = None, only_stale: bool = True) -> Iterator[tuple[str, str, str, str]]:
-    """(beam id, site id, input hash, record text) of every beam (of a site) without a current result.
+def jobs(db: Any, site_id: str | None = None, only_stale: bool = True) -> Iterator[Job]:
+    """(beam id, site id, input hash, record text, list fields) of every beam (of a site) without a current result.
 
     The database's triggers (storage/db.py, migrations 3 and 4) give every new beam a stale result row
     and mark a result stale when its beam, its site's design bases or a firm table record changes, so
@@ -278,17 +318,17 @@ def jobs(db: Any, site_id: str | None = None, only_stale: bool = True) -> Iterat
     bases: dict[str, str] = {}
     if only_stale:
         sql = (
-            "SELECT b.id, b.site_id, b.data FROM beam_result r JOIN beam b ON b.id = r.beam_id WHERE r.input_hash = ''"
-            + (" AND r.site_id = ?" if site_id else "")
-            + " ORDER BY b.id"
+            f"SELECT b.id, b.site_id, b.data, {_LIST_FIELDS_SQL} FROM beam_result r JOIN beam b ON b.id = r.beam_id "
+            "WHERE r.input_hash = ''" + (" AND r.site_id = ?" if site_id else "") + " ORDER BY b.id"
         )
     else:
         where = ["NOT coalesce(json_extract(b.data, '$.archived'), 0)"] + (["b.site_id = ?"] if site_id else [])
-        sql = "SELECT b.id, b.site_id, b.data FROM beam b WHERE " + " AND ".join(where) + " ORDER BY b.id"
-    for bid, sid, text in db.execute(sql, [site_id] if site_id else []).fetchall():
+        sql = f"SELECT b.id, b.site_id, b.data, {_LIST_FIELDS_SQL} FROM beam b WHERE " + " AND ".join(where)
+        sql += " ORDER BY b.id"
+    for bid, sid, text, listed in db.execute(sql, [site_id] if site_id else []).fetchall():
         if sid not in bases:
             bases[sid] = _site_bases(db, sid)
-        yield bid, sid or "", input_hash(text, bases[sid], stamp), text
+        yield bid, sid or "", input_hash(text, bases[sid], stamp), text, listed
 
 
 def refresh(db: Any, site_id: str) -> int:
@@ -413,27 +453,24 @@ def _workers(processes: int) -> Iterator[Any]:
         yield pool
 
 
-def _rows_of(part: list[tuple[str, str, str, str]]) -> list[tuple[Any, ...]]:
+def _rows_of(part: list[Job]) -> list[tuple[Any, ...]]:
     """Recheck a part of the jobs into ``beam_result`` rows (run in a worker: small tuples to send back)."""
     return [row_of(j) for j in part]
 
 
-def row_of(job: tuple[str, str, str, str]) -> tuple[Any, ...]:
-    """``as_row(compute(job))`` without the StoredResult (and the findings' JSON shared)."""
-    beam_id, site_id, key, _ = job
-    record, archived, (status, governing, util, findings, used) = _evaluate(job)
+def row_of(job: Job) -> tuple[Any, ...]:
+    """``as_row(compute(job))`` without the StoredResult (the findings' and rows' JSON shared)."""
+    (mark, level, gridline), archived, (status, governing, util, findings, used) = _evaluate(job)
     return (
-        beam_id,
-        site_id,
-        key,
+        *job[:3],
         status,
         governing,
         util,
         _findings_json(findings),
-        _json_of(ROW_KEYS, used),
-        _text(record.get("mark")),
-        _text(record.get("level")),
-        _text(record.get("gridline")),
+        _rows_json(used),
+        mark,
+        level,
+        gridline,
         int(archived),
     )
 

@@ -194,3 +194,25 @@ def test_portfolio_rows_are_exactly_the_stored_results_rows(tmp_path):
         assert row == results.as_row(results.compute(job)), job[0]
         statuses.add(row[3])
     assert statuses == {"ok", "deficient", "not_established", "not_permitted", "unchecked"}
+
+
+def test_a_result_is_built_from_the_record_text_as_the_record_reads(store):
+    """Validated from the stored text (other keys ignored), list fields as the record's own JSON values.
+
+    Expected values: the recheck of the same beam validated through ``Beam`` (its model, contract 1);
+    the list fields as Python's ``str`` of each JSON value (a number, a boolean: drafts are free JSON).
+    """
+    import json
+
+    site = store.create_site(name="Yard")
+    bid = store.save_beam(site.id, glulam(mark="T-1"), {"level": 3, "gridline": 2.50, "note": {"a": [1]}})
+    odd = store.save_beam(site.id, glulam(mark="T-2"), {"level": True, "gridline": None})
+    rows = {j[0]: results.row_of(j) for j in results.jobs(store.db, site.id)}
+    expect = recheck(glulam(mark="T-1"))
+    assert rows[bid][3] == expect.status.value
+    assert rows[bid][5] == round(expect.governing_utilisation, 6)
+    assert [f["code"] for f in json.loads(rows[bid][6])] == [f.code for f in expect.findings]
+    assert rows[bid][8:] == ("T-1", "3", "2.5", 0)
+    assert rows[odd][8:] == ("T-2", "True", "", 0)
+    # a row's stored JSON is what json.dumps writes for the same objects
+    assert rows[bid][7] == json.dumps(json.loads(rows[bid][7]))
