@@ -14,7 +14,7 @@ between real supports of *that* edge. Defaults follow reference o86.md section 1
 
 from __future__ import annotations
 
-from dataclasses import dataclass, replace
+from dataclasses import dataclass
 from itertools import pairwise
 
 from core.analysis import BeamModel, Region
@@ -103,7 +103,7 @@ def compression_edge(beam: Beam, model: BeamModel, region: Region, assume_restra
         cantilever=any(model.elements[e].kind is ElementKind.overhang for e in region.elements),
         braced_between=not edge.continuous and not edge.unbraced,
     )
-    return replace(edge, kind=kind)
+    return EdgeSupport(**(vars(edge) | {"kind": kind}))  # dataclasses.replace without its field checks
 
 
 def _compression_edge(beam: Beam, model: BeamModel, region: Region, assume_restrained: bool) -> EdgeSupport:

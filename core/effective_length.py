@@ -44,7 +44,23 @@ def chosen_row(le_case: str, kind: RegionKind) -> tuple[dict[str, str], str]:
 
     le_case: ``auto`` or a row name chosen by the reviewer. The default never picks a memory row:
     the span of a simple span under uniform load takes ``simple_udl``, every other region ``any``.
+    Found once per (tables generation, le_case, kind), as the member cache is (few keys: a row name
+    and three flags).
     """
+    key = (tables.generation(), le_case, kind)
+    hit = _CHOSEN.get(key)
+    if hit is None:
+        if len(_CHOSEN) >= _CHOSEN_MAX:
+            _CHOSEN.clear()
+        hit = _CHOSEN[key] = _chosen_row(le_case, kind)
+    return hit
+
+
+_CHOSEN: dict[tuple[int, str, RegionKind], tuple[dict[str, str], str]] = {}
+_CHOSEN_MAX = 1024
+
+
+def _chosen_row(le_case: str, kind: RegionKind) -> tuple[dict[str, str], str]:
     if le_case != AUTO:
         row = tables.find("effective_length", le_case=le_case)
         reason = row_fits(row, kind)

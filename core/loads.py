@@ -8,6 +8,7 @@ companion values are memory).
 from __future__ import annotations
 
 from dataclasses import dataclass, replace
+from functools import cache
 
 from core.clauses.factors import KD_PERMANENT, load_duration_kd_standard
 
@@ -30,7 +31,13 @@ def gravity_combinations(counteracting_dead: bool) -> list[Combination]:
 
     counteracting_dead: True for beams with more than one element (continuous or overhanging),
     where 0.9D on the whole beam can govern a region (NBC note: 0.9D where D counteracts).
+    The combinations are frozen and the same for every beam: built once, a new list each call.
     """
+    return list(_gravity_combinations(counteracting_dead))
+
+
+@cache
+def _gravity_combinations(counteracting_dead: bool) -> tuple[Combination, ...]:
     out = [
         Combination(name="1.4D", alpha_d=1.4, alpha_l=0.0, alpha_s=0.0, dead_load_only=True, ps_l=0.0, ps_s=0.0),
         Combination(
@@ -48,7 +55,7 @@ def gravity_combinations(counteracting_dead: bool) -> list[Combination]:
     ]
     if counteracting_dead:
         out += [replace(c, name=c.name.replace("1.25D", "0.9D"), alpha_d=0.9) for c in out[1:]]
-    return out
+    return tuple(out)
 
 
 def combination_kd(combo: Combination, dead_n_mm: float, live_n_mm: float, snow_n_mm: float) -> tuple[float, str]:

@@ -64,7 +64,7 @@ def find(name: str, **keys: str) -> dict[str, str]:
     Raises ``KeyError`` naming the table and the keys when no row matches. Hits are memoised
     (the tables are read-only), which keeps repeated rechecks from rescanning them.
     """
-    memo_key = (name, tuple(sorted(keys.items())))
+    memo_key = (name, tuple(keys.items()))  # in the caller's keyword order: one entry per call site's order
     hit = _FOUND.get(memo_key)
     if hit is not None:
         return hit

@@ -6,6 +6,7 @@ so a case is a weighted sum of those (superposition), never a new solve.
 
 from __future__ import annotations
 
+from functools import cache, lru_cache
 from itertools import product
 from typing import NamedTuple
 
@@ -32,12 +33,19 @@ class LoadCase(NamedTuple):
 
 def live_patterns(n_el: int) -> list[tuple[bool, ...]]:
     """Live and snow patterns: every non-empty subset of elements (all elements for one element)."""
+    return list(_live_patterns(n_el))
+
+
+@cache
+def _live_patterns(n_el: int) -> tuple[tuple[bool, ...], ...]:
     if n_el == 1:
-        return [(True,)]
-    return [p for p in product((True, False), repeat=n_el) if any(p)]
+        return ((True,),)
+    return tuple(p for p in product((True, False), repeat=n_el) if any(p))
 
 
+@lru_cache(maxsize=16384)
 def _names(model: BeamModel, pattern: tuple[bool, ...], on: bool) -> str:
+    """The names of the elements loaded (``on``) or not in a pattern, per solved model (models are shared)."""
     return ", ".join(el.name for el, hit in zip(model.elements, pattern, strict=True) if hit is on)
 
 
@@ -68,7 +76,7 @@ def load_cases(beam: Beam, member: Member, model: BeamModel) -> list[LoadCase]:
             continue
         kd, note = combination_kd(combo, dead, live, snow)
         variable = combo.alpha_l * live + combo.alpha_s * snow
-        patterns = [(True,) * n_el] if combo.dead_load_only or variable == 0 else live_patterns(n_el)
+        patterns = [(True,) * n_el] if combo.dead_load_only or variable == 0 else _live_patterns(n_el)
         for pattern in patterns:
             w = tuple(combo.alpha_d * dead + (variable if on else 0.0) for on in pattern)
             name = "" if combo.dead_load_only else _pattern_name(model, pattern)

@@ -25,12 +25,17 @@ Worst = tuple[float, float, float, str, str, dict[str, str]]  # utilisation, |de
 
 def deflection_patterns(n_el: int) -> list[tuple[bool, ...]]:
     """All loaded, each checkerboard, each element alone (common practice for maximum deflection)."""
+    return list(_deflection_patterns(n_el))
+
+
+@lru_cache(maxsize=16)
+def _deflection_patterns(n_el: int) -> tuple[tuple[bool, ...], ...]:
     pats = {(True,) * n_el}
     if n_el > 1:
         pats.add(tuple(i % 2 == 0 for i in range(n_el)))
         pats.add(tuple(i % 2 == 1 for i in range(n_el)))
         pats.update(tuple(i == k for i in range(n_el)) for k in range(n_el))
-    return sorted(pats, reverse=True)
+    return tuple(sorted(pats, reverse=True))
 
 
 def _use_row(beam: Beam) -> dict[str, str]:
@@ -68,9 +73,9 @@ def _worst(
 ) -> Worst | None:
     """The largest deflection utilisation over every pattern, check and element."""
     best: Worst | None = None
-    spans = [deflection_span_mm(el.length_mm, el.kind is ElementKind.overhang) for el in model.elements]
+    spans = _spans(model)
     seen: set[tuple[str, tuple[float, ...]]] = set()
-    for pattern in deflection_patterns(len(model.elements)):
+    for pattern in _deflection_patterns(len(model.elements)):
         for label, row, base, share in checks:
             w = tuple(base + (share * variable if on else 0.0) for on in pattern)
             # a load already checked under this label (the dead-load check is the same for every pattern)
@@ -89,6 +94,12 @@ def _worst(
                 if best is None or util > best[0]:
                     best = (util, delta, limits[e], label, model.elements[e].name, row)
     return best
+
+
+@lru_cache(maxsize=4096)
+def _spans(model: BeamModel) -> tuple[float, ...]:
+    """The deflection span of each element of a solved model (models are shared: found once per model)."""
+    return tuple(deflection_span_mm(el.length_mm, el.kind is ElementKind.overhang) for el in model.elements)
 
 
 def _strictest_limit(model: BeamModel, checks: list[tuple[str, dict[str, str], float, float]]) -> Worst:
