@@ -299,7 +299,8 @@ class BeamModel:
             if spans and spans[-1][2] == sign:
                 last = spans[-1]
                 last[1] = x1
-                last[3] = max(last[3], peak)
+                if peak > last[3]:  # max(last[3], peak) without the call
+                    last[3] = peak
                 if e not in last[4]:
                     last[4] = (*last[4], e)
             else:
@@ -316,19 +317,23 @@ class BeamModel:
         w, v0, m0 = result.w_n_mm[e], result.v0_n[e], result.m0_nmm[e]
         lo, hi = 1e-6 * length, length * (1 - 1e-6)
         roots = [root for root in _quadratic_roots(-0.5 * w, v0, m0) if lo < root < hi]
-        cuts = [0.0, *sorted(roots), length] if roots else [0.0, length]
-        ends = [origin + c for c in cuts]  # global positions of the cuts
-        local = [x - origin for x in ends]
-        moments = [abs(m0 + v0 * x - 0.5 * w * x * x) for x in local]
         xv = v0 / w if w != 0.0 else None  # where the shear is zero
-        for i in range(len(cuts) - 1):
-            a, b = local[i], local[i + 1]
-            peak = moments[i] if moments[i] >= moments[i + 1] else moments[i + 1]
+        # one cut after the other (no lists of ends, local positions and moments): a cut's global
+        # position is origin + its local one, and the moment is taken at (that position - origin)
+        x0 = origin + 0.0
+        a = x0 - origin
+        m_a = abs(m0 + v0 * a - 0.5 * w * a * a)
+        for cut in [*sorted(roots), length] if roots else (length,):
+            x1 = origin + cut
+            b = x1 - origin
+            m_b = abs(m0 + v0 * b - 0.5 * w * b * b)
+            peak = m_a if m_a >= m_b else m_b
             if xv is not None and a < xv < b:
                 at_xv = abs(m0 + v0 * xv - 0.5 * w * xv * xv)
                 peak = at_xv if at_xv > peak else peak
-            mid = 0.5 * (ends[i] + ends[i + 1]) - origin
-            pieces.append((ends[i], ends[i + 1], e, peak, m0 + v0 * mid - 0.5 * w * mid * mid))
+            mid = 0.5 * (x0 + x1) - origin
+            pieces.append((x0, x1, e, peak, m0 + v0 * mid - 0.5 * w * mid * mid))
+            x0, a, m_a = x1, b, m_b
 
 
 def _deflection_samples() -> tuple[tuple[float, float, float, float, float, float], ...]:

@@ -70,3 +70,39 @@ def test_region_name_rests_on_elements_where_the_search_keys_it_so(layout, data)
             if len(region.elements) == 1 or region.sign is MomentSign.negative:
                 name = region_name(model, region)
                 assert first.setdefault((region.sign, region.elements), name) == name
+
+
+def _pieces_by_lists(model: BeamModel, result, e: int) -> list[tuple[float, float, int, float, float]]:
+    """The element pieces as first written (lists of cut ends, local positions and moments): the reference."""
+    from core.analysis import _quadratic_roots
+
+    origin, length = model._origins[e], model.lengths[e]
+    w, v0, m0 = result.w_n_mm[e], result.v0_n[e], result.m0_nmm[e]
+    lo, hi = 1e-6 * length, length * (1 - 1e-6)
+    roots = [root for root in _quadratic_roots(-0.5 * w, v0, m0) if lo < root < hi]
+    cuts = [0.0, *sorted(roots), length] if roots else [0.0, length]
+    ends = [origin + c for c in cuts]
+    local = [x - origin for x in ends]
+    moments = [abs(m0 + v0 * x - 0.5 * w * x * x) for x in local]
+    xv = v0 / w if w != 0.0 else None
+    out = []
+    for i in range(len(cuts) - 1):
+        a, b = local[i], local[i + 1]
+        peak = moments[i] if moments[i] >= moments[i + 1] else moments[i + 1]
+        if xv is not None and a < xv < b:
+            at_xv = abs(m0 + v0 * xv - 0.5 * w * xv * xv)
+            peak = at_xv if at_xv > peak else peak
+        mid = 0.5 * (ends[i] + ends[i + 1]) - origin
+        out.append((ends[i], ends[i + 1], e, peak, m0 + v0 * mid - 0.5 * w * mid * mid))
+    return out
+
+
+@settings(max_examples=120, deadline=None)
+@given(layout=layouts, data=st.data())
+def test_element_pieces_one_cut_at_a_time_are_the_list_version_bit_for_bit(layout, data):
+    model = BeamModel(list(layout[0]), layout[1], layout[2])
+    case = model.case(_loads(model, data))
+    for e in range(len(model.elements)):
+        got: list[tuple[float, float, int, float, float]] = []
+        model._element_pieces(case, e, got)
+        assert got == _pieces_by_lists(model, case, e)
