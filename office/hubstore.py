@@ -419,19 +419,19 @@ class HubStore:
                     raise HubRefused(409, f"bundle {bundle_id} was already pushed with other content")
                 return PushAnswer(**json.loads(done[2]))
             batch = ProjectionBatch(self.db)
+            batch.prefetch([op for op, _ in ops])  # the rows, stamps and held ops the merge reads, up front
             for op, sig in ops:
-                held = self.db.execute("SELECT 1 FROM op WHERE origin=? AND seq=?", [op.origin, op.seq]).fetchone()
-                if held:
-                    reason = (
-                        None if _same_op(self.db, op) else "integrity: this change number is held with other content"
-                    )
+                stored = op.stored()
+                held = batch.held_op(op.origin, op.seq)  # the log as the batch sees it (ops added so far count)
+                if held is not None:
+                    reason = None if held == stored else "integrity: this change number is held with other content"
                 else:
                     reason = rules.judge(op, self._context(op, origins[op.origin], batch))
                 if reason:
                     self._quarantine(op, sig, reason, device_id)
                     answer.rejected.append({"origin": op.origin, "seq": op.seq, "reason": reason})
                     continue
-                if insert_op(self.db, op, batch):
+                if insert_op(self.db, op, batch, stored):
                     apply_op(self.db, op, batch=batch)
                     self.db.execute("INSERT INTO hub_log (origin, seq, sig) VALUES (?, ?, ?)", [op.origin, op.seq, sig])
                     self.db.execute("DELETE FROM hub_quarantine WHERE origin=? AND seq=?", [op.origin, op.seq])
@@ -524,13 +524,6 @@ class HubStore:
     def close(self) -> None:
         """Close the connection."""
         self.db.conn.close()
-
-
-def _same_op(db: sqlite_utils.Database, op: Op) -> bool:
-    row = db.execute(
-        "SELECT hlc, entity, record_id, kind, payload, base FROM op WHERE origin=? AND seq=?", [op.origin, op.seq]
-    ).fetchone()
-    return tuple(row) == (op.hlc, op.entity, op.record_id, op.kind, canonical(op.payload), canonical(op.base))
 
 
 def is_postgres_url(text: str) -> bool:

@@ -424,6 +424,7 @@ class _Verified:
     sha: str
     rebase_from: int | None = None  # own ops from this seq on are renumbered (restored device)
     sigs: list[str] = field(default_factory=list)  # each op's origin signature, kept for relaying
+    stored: list[tuple[Any, ...]] = field(default_factory=list)  # each op's ``stored()``, encoded once
 
 
 def _read_bounded(z: zipfile.ZipFile, info: zipfile.ZipInfo, limit: int) -> bytes:
@@ -599,17 +600,17 @@ def _parse_ops(body: bytes, sigs: bytes, op_count: int) -> tuple[list[Op], list[
     return ops, sig_lines
 
 
-def _check_op_content(store: Store, ops: list[Op]) -> None:
+def _check_op_content(store: Store, ops: list[Op], stored: list[tuple[Any, ...]]) -> None:
     """Stamps within range of this clock, and every record as a local save would write it."""
     horizon = store.wall_ms() + MAX_AHEAD_MS
-    for op in ops:
+    for op, row in zip(ops, stored, strict=True):
         if op.hlc >> 16 > horizon:  # accepted far ahead is flagged; this far would exhaust the clock's range
             msg = (
                 f"op {op.origin[:8]}:{op.seq} hlc stamped more than {MAX_AHEAD_MS // YEAR_MS} years ahead of this clock"
             )
             raise BundleRefused(msg)
         try:
-            check_op_record(op)
+            check_op_record(op, row[4])  # the payload's canonical text, encoded once per op
         except RecordInvalid as exc:
             msg = f"invalid record: {exc}"
             raise BundleRefused(msg) from exc
@@ -646,10 +647,11 @@ def verify_bundle(store: Store, data: bytes) -> _Verified:
     body, sig_body, blobs = _entries(z, by_name, manifest)
     ops, sigs = _parse_ops(body, sig_body, manifest["op_count"])
     _check_op_signatures(store, ops, sigs, manifest["origin"])
-    _check_op_content(store, ops)
-    rebase_from = _check_integrity(store, ops, manifest["origin"])
+    stored = [op.stored() for op in ops]  # each op's canonical texts, encoded once for the checks and the merge
+    _check_op_content(store, ops, stored)
+    rebase_from = _check_integrity(store, ops, stored, manifest["origin"])
     _check_ranges(store, manifest, ops, rebase_from)
-    return _Verified(manifest, ops, blobs, hashlib.sha256(data).hexdigest(), rebase_from, sigs)
+    return _Verified(manifest, ops, blobs, hashlib.sha256(data).hexdigest(), rebase_from, sigs, stored)
 
 
 def _held_ops(store: Store, ops: list[Op]) -> dict[tuple[str, int], tuple[Any, ...]]:
@@ -669,7 +671,7 @@ def _held_ops(store: Store, ops: list[Op]) -> dict[tuple[str, int], tuple[Any, .
     return held
 
 
-def _check_integrity(store: Store, ops: list[Op], sender: str) -> int | None:
+def _check_integrity(store: Store, ops: list[Op], stored: list[tuple[Any, ...]], sender: str) -> int | None:
     """Refuse, before any write, an op or insert-only record that contradicts what is held.
 
     Checked here (read-only) so that applying in batches can never stop half-way on a conflict.
@@ -679,10 +681,10 @@ def _check_integrity(store: Store, ops: list[Op], sender: str) -> int | None:
     mine: dict[tuple[str, str], str] = {}
     rebase_from: int | None = None
     held_ops = _held_ops(store, ops)
-    for op in ops:
+    for op, mine_row in zip(ops, stored, strict=True):
         row = held_ops.get((op.origin, op.seq))
         if row is not None:
-            if row != op.stored():
+            if row != mine_row:
                 if op.origin != store.device_id:
                     _refuse_different(op, sender)
                 rebase_from = op.seq if rebase_from is None else min(rebase_from, op.seq)
@@ -691,8 +693,8 @@ def _check_integrity(store: Store, ops: list[Op], sender: str) -> int | None:
             continue
         chash = content_hash(op.payload)
         key = (op.entity, op.record_id)
-        stored = store.db.execute(f"SELECT content_hash FROM {op.entity} WHERE id=?", [op.record_id]).fetchone()
-        known = mine.setdefault(key, stored[0] if stored else chash)
+        held = store.db.execute(f"SELECT content_hash FROM {op.entity} WHERE id=?", [op.record_id]).fetchone()
+        known = mine.setdefault(key, held[0] if held else chash)
         if known != chash:
             msg = f"integrity: {op.entity} {op.record_id}: same id, different content"
             raise BundleRefused(msg)
@@ -815,11 +817,16 @@ def _apply_batches(store: Store, v: _Verified, tell: Progress, committed: list[i
     new = 0
     total = len(v.ops)
     own = [op.seq for op in v.ops if op.origin == store.device_id]
+    batch: ProjectionBatch | None = None
     for start in range(0, max(total, 1), BATCH_OPS):
         with transaction(store.db):
             if start == 0:
                 _first_batch(store, v)
-            new += _merge_batch(store, v, start, tell)
+            if batch is None:
+                batch = ProjectionBatch(store.db)
+            else:
+                batch.renew()  # rows and stamps read by earlier batches stay, unless another connection wrote
+            new += _merge_batch(store, v, start, tell, batch)
             if own:
                 store.resume_seq(max(own))  # this device's own ops came back: it was restored from a backup
             if start + BATCH_OPS >= total:
@@ -839,18 +846,17 @@ def _first_batch(store: Store, v: _Verified) -> None:
         store.index_blob(sha, len(content), "application/octet-stream")
 
 
-def _merge_batch(store: Store, v: _Verified, start: int, tell: Progress) -> int:
-    """Merge ops [start, start + BATCH_OPS) and keep their signatures; the number of new ops."""
+def _merge_batch(store: Store, v: _Verified, start: int, tell: Progress, batch: ProjectionBatch) -> int:
+    """Merge ops [start, start + BATCH_OPS) through ``batch`` and keep their signatures; the number of new ops."""
     total = len(v.ops)
     newest = 0
     new = 0
-    batch = ProjectionBatch(store.db)
     chunk = v.ops[start : start + BATCH_OPS]
     batch.prefetch(chunk)
     for n, op in enumerate(chunk, start=start):
         if n % PROGRESS_EVERY == 0:
             tell(0.2 + 0.8 * n / max(total, 1), f"merging change {n:,} of {total:,}")
-        if insert_op(store.db, op, batch):
+        if insert_op(store.db, op, batch, v.stored[n]):
             apply_op(store.db, op, batch=batch)
             newest = max(newest, op.hlc)
             new += 1

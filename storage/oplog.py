@@ -172,6 +172,7 @@ def _now() -> str:
 
 
 IN_CHUNK = 256  # ids per ``IN (...)`` read of a batch's prefetch
+KEEP_MAX = 200_000  # rows plus field stamps a batch keeps from one transaction to the next (about 50 MB)
 HELD_SQL = "SELECT hlc, entity, record_id, kind, payload, base FROM op WHERE origin=? AND seq=?"
 STAMP_SQL = "SELECT hlc, origin FROM field_stamp WHERE entity=? AND record_id=? AND field=?"
 STAMP_WRITE_SQL = "INSERT OR REPLACE INTO field_stamp VALUES (?, ?, ?, ?, ?)"
@@ -195,6 +196,14 @@ def _write_many(db: sqlite_utils.Database, sql: str, rows: Sequence[Sequence[Any
         db.execute(sql, list(row))
 
 
+def _data_version(db: sqlite_utils.Database) -> int | None:
+    """SQLite's ``PRAGMA data_version`` (it changes when another connection commits); None elsewhere."""
+    conn = getattr(db, "conn", None)
+    if not isinstance(conn, sqlite3.Connection):
+        return None
+    return int(conn.execute("PRAGMA data_version").fetchone()[0])
+
+
 def _padded_chunks(items: Sequence[Any]) -> Iterable[tuple[list[Any], list[Any]]]:
     """``(chunk, padded)``: ``items`` at most IN_CHUNK at a time, each chunk also padded to a power of two.
 
@@ -216,6 +225,13 @@ def _held_op(db: sqlite_utils.Database, origin: str, seq: int) -> tuple[Any, ...
     """The stored (hlc, entity, record_id, kind, payload, base) of op ``origin:seq``; None if not held."""
     row = db.execute(HELD_SQL, [origin, seq]).fetchone()
     return tuple(row) if row is not None else None
+
+
+def _op_seq_at(db: sqlite_utils.Database, origin: str, hlc: int, entity: str, record_id: str) -> int | None:
+    """The least seq of a stored op of ``origin`` stamped ``hlc`` on this record (the op that set a field)."""
+    sql = "SELECT min(seq) FROM op WHERE origin=? AND hlc=? AND entity=? AND record_id=?"
+    row = db.execute(sql, [origin, hlc, entity, record_id]).fetchone()
+    return row[0] if row else None
 
 
 def _load(db: sqlite_utils.Database, table: str, record_id: str) -> tuple[dict[str, Any] | None, str | None]:
@@ -254,6 +270,30 @@ class ProjectionBatch:
         self.held: dict[tuple[str, int], tuple[Any, ...] | None] = {}  # (origin, seq) -> stored op, None: not held
         self.seen: dict[str, int] = {}  # origin -> contiguous high-water mark, as the batch sees it
         self.held_max: dict[str, int] = {}  # origin -> largest seq held before the batch began
+        self.new_ops: list[tuple[Any, ...]] = []  # op rows inserted by the batch, written at flush()
+        self.new_at: dict[tuple[str, int, str, str], int] = {}  # (origin, hlc, entity, record_id) -> least seq
+        self.version = _data_version(db)  # SQLite's data_version when the batch began (renew() compares)
+
+    def renew(self) -> None:
+        """Carry the batch into the caller's next transaction of the same merge (call right after it began).
+
+        The previous transaction must have been flushed and committed. Held ops and high-water marks are
+        read again; the rows and field stamps read so far are kept only if no other connection committed
+        in between (SQLite's ``PRAGMA data_version`` is unchanged: this connection's own commits do not
+        change it) and they number at most KEEP_MAX; otherwise they are read again too. An import of
+        many transactions thus decodes a record touched in several of them once.
+        """
+        if self.dirty or self.dirty_stamps or self.new_ops:
+            msg = "ProjectionBatch.renew: flush() the batch and commit before the next transaction"
+            raise RuntimeError(msg)
+        version = _data_version(self.db)
+        if version is None or version != self.version or len(self.rows) + len(self.stamps) > KEEP_MAX:
+            self.rows.clear()
+            self.stamps.clear()
+        self.version = version
+        self.held.clear()
+        self.seen.clear()
+        self.held_max.clear()
 
     def prefetch(self, ops: Sequence[Op]) -> None:
         """Read what merging ``ops`` reads: the held ops of their seq ranges, their rows and field stamps.
@@ -319,18 +359,51 @@ class ProjectionBatch:
             self.held[key] = _held_op(self.db, origin, seq)
         return self.held[key]
 
+    def add_op(self, op: Op, stored: tuple[Any, ...]) -> None:
+        """Insert ``op`` (its ``stored()`` tuple) into the log as the batch sees it; written at ``flush()``.
+
+        Reads of the log during the batch go through the batch first (``held_op``, ``op_seq_at``, the
+        contiguous run), so they see these ops as if they had been written already.
+        """
+        self.new_ops.append((op.origin, op.seq, *stored, op.schema_version, op.wall_ms))
+        self.held[(op.origin, op.seq)] = stored
+        at = (op.origin, op.hlc, op.entity, op.record_id)
+        self.new_at[at] = min(op.seq, self.new_at.get(at, op.seq))
+        self.advance_seen(op.origin, op.seq)
+
+    def op_seq_at(self, origin: str, hlc: int, entity: str, record_id: str) -> int | None:
+        """The least seq of an op of ``origin`` stamped ``hlc`` on this record, held or added by the batch."""
+        stored = _op_seq_at(self.db, origin, hlc, entity, record_id)
+        added = self.new_at.get((origin, hlc, entity, record_id))
+        return min(stored, added) if stored is not None and added is not None else stored if added is None else added
+
+    def _holds(self, origin: str, seq: int) -> bool:
+        """Whether op ``origin:seq`` is in the log as the batch sees it (read from the table if not known)."""
+        key = (origin, seq)
+        if key in self.held:
+            return self.held[key] is not None
+        return self.db.execute("SELECT 1 FROM op WHERE origin=? AND seq=?", [origin, seq]).fetchone() is not None
+
     def advance_seen(self, origin: str, seq: int) -> None:
         """An op of ``origin`` was inserted: move the contiguous high-water mark if it closes the run."""
         if origin not in self.seen:
             row = self.db.execute("SELECT seq FROM seen WHERE origin=?", [origin]).fetchone()
             self.seen[origin] = row[0] if row else 0
             top = self.db.execute("SELECT max(seq) FROM op WHERE origin=? AND seq <> ?", [origin, seq]).fetchone()
-            self.held_max[origin] = top[0] or 0
+            added = [s for (o, s, *_rest) in self.new_ops if o == origin and s != seq]
+            self.held_max[origin] = max([top[0] or 0, *added])
         if seq == self.seen[origin] + 1:
             # ops held beyond it (from an earlier bundle or earlier in this one) can close a longer run
-            self.seen[origin] = _contiguous_from(self.db, origin, seq) if seq < self.held_max[origin] else seq
+            self.seen[origin] = self._contiguous_from(origin, seq) if seq < self.held_max[origin] else seq
         else:
             self.held_max[origin] = max(self.held_max[origin], seq)
+
+    def _contiguous_from(self, origin: str, seq: int) -> int:
+        """``_contiguous_from`` over the log as the batch sees it."""
+        nxt = seq
+        while self._holds(origin, nxt + 1):
+            nxt += 1
+        return nxt
 
     def load(self, table: str, record_id: str) -> tuple[dict[str, Any] | None, str | None]:
         """The row (data, content hash) as the batch sees it."""
@@ -360,7 +433,10 @@ class ProjectionBatch:
         self.dirty_stamps.add(key)
 
     def flush(self) -> None:
-        """Write every changed row and stamp, and the high-water marks."""
+        """Write the added ops, every changed row and stamp, and the high-water marks."""
+        _write_many(self.db, INSERT_OP_SQL, self.new_ops)
+        self.new_ops.clear()
+        self.new_at.clear()
         by_table: dict[str, list[tuple[Any, ...]]] = {}
         for table, record_id in sorted(self.dirty):
             data, chash = self.rows[(table, record_id)]
@@ -407,6 +483,9 @@ class _Direct:
     def set_stamp(self, entity: str, record_id: str, field: str, hlc: int, origin: str) -> None:
         self.db.execute(STAMP_WRITE_SQL, [entity, record_id, field, hlc, origin])
 
+    def op_seq_at(self, origin: str, hlc: int, entity: str, record_id: str) -> int | None:
+        return _op_seq_at(self.db, origin, hlc, entity, record_id)
+
 
 def _apply_set(db: sqlite_utils.Database, op: Op, record_conflicts: bool, rows: ProjectionBatch | _Direct) -> None:
     data, _ = rows.load(op.entity, op.record_id)
@@ -418,7 +497,8 @@ def _apply_set(db: sqlite_utils.Database, op: Op, record_conflicts: bool, rows: 
         base = op.base.get(field)
         base_t = (base[0], base[1]) if base else None
         if record_conflicts and current is not None and base_t != current and current != new:
-            _record_conflict(db, op, field, value, current, data.get(field), new > current)
+            cur_seq = rows.op_seq_at(current[1], current[0], op.entity, op.record_id)
+            _record_conflict(db, op, field, value, (*current, cur_seq), data.get(field), new > current)
         if current is None or new > current:
             data[field] = value
             changed = True
@@ -432,15 +512,12 @@ def _record_conflict(
     op: Op,
     field: str,
     value: Any,
-    current: tuple[int, str],
+    current: tuple[int, str, int | None],
     current_value: Any,
     incoming_wins: bool,
 ) -> None:
-    cur_seq = db.execute(
-        "SELECT seq FROM op WHERE origin=? AND hlc=? AND entity=? AND record_id=?",
-        [current[1], current[0], op.entity, op.record_id],
-    ).fetchone()
-    cur = (current[1], cur_seq[0] if cur_seq else None, canonical(current_value))
+    """Log a concurrent edit; ``current`` is the field's (hlc, origin) stamp and the seq of the op that set it."""
+    cur = (current[1], current[2], canonical(current_value))
     inc = (op.origin, op.seq, canonical(value))
     winner, loser = (inc, cur) if incoming_wins else (cur, inc)
     db.execute(
@@ -476,24 +553,25 @@ def _apply_status(op: Op, rows: ProjectionBatch | _Direct) -> None:
         rows.store("deficiency", op.record_id, data, None)
 
 
-def insert_op(db: sqlite_utils.Database, op: Op, batch: ProjectionBatch | None = None) -> bool:
+def insert_op(
+    db: sqlite_utils.Database, op: Op, batch: ProjectionBatch | None = None, stored: tuple[Any, ...] | None = None
+) -> bool:
     """Append an op to the log; False if it is already held (same content), error if it differs.
 
-    With a ``batch`` the held ops and the contiguous high-water mark (table ``seen``) are kept in
-    memory (the mark is written by ``batch.flush()``).
+    With a ``batch`` the op, the held ops and the contiguous high-water mark (table ``seen``) are kept
+    in memory (written by ``batch.flush()``). ``stored`` is ``op.stored()`` when the caller has it.
     """
     row = batch.held_op(op.origin, op.seq) if batch is not None else _held_op(db, op.origin, op.seq)
-    mine = op.stored()
+    mine = stored if stored is not None else op.stored()
     if row is not None:
         if row != mine:
             msg = f"op {op.origin}:{op.seq} already held with different content"
             raise IntegrityError(msg)
         return False
-    db.execute(INSERT_OP_SQL, [op.origin, op.seq, *mine, op.schema_version, op.wall_ms])
     if batch is not None:
-        batch.held[(op.origin, op.seq)] = mine
-        batch.advance_seen(op.origin, op.seq)
+        batch.add_op(op, mine)
         return True
+    db.execute(INSERT_OP_SQL, [op.origin, op.seq, *mine, op.schema_version, op.wall_ms])
     seen = db.execute("SELECT seq FROM seen WHERE origin=?", [op.origin]).fetchone()
     have = seen[0] if seen else 0
     if op.seq == have + 1:

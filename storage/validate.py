@@ -68,9 +68,9 @@ def _first_error(exc: ValidationError) -> str:
     return f"{loc + ': ' if loc else ''}{e['msg']} (got {str(e.get('input'))[:60]!r})"
 
 
-def _long(op: Op) -> bool:
+def _long(payload_text: str) -> bool:
     """Whether any field's value can be too long: each one's canonical text is part of the payload's."""
-    return len(op.payload_text) > MAX_VALUE_CHARS
+    return len(payload_text) > MAX_VALUE_CHARS
 
 
 def _check_size(op: Op, field: str, value: Any) -> None:
@@ -126,8 +126,7 @@ def _is_stamp(stamp: Any) -> bool:
     )
 
 
-def _check_set(op: Op) -> None:
-    long = _long(op)
+def _check_set(op: Op, long: bool) -> None:
     for field, value in op.payload.items():
         _check_set_field(op, field, value, long)
     for field, stamp in op.base.items():
@@ -136,7 +135,7 @@ def _check_set(op: Op) -> None:
             raise RecordInvalid(msg)
 
 
-def _check_status(op: Op) -> None:
+def _check_status(op: Op, long: bool) -> None:
     p = op.payload
     try:
         StatusEvent.model_validate(
@@ -157,13 +156,13 @@ def _check_status(op: Op) -> None:
         msg = f"{_where(op, sorted(extra)[0])}: not a field of a status move"
         raise RecordInvalid(msg)
     _check_id(op, "site_id", p.get("site_id"), optional=True)
-    for field, value in p.items() if _long(op) else ():
+    for field, value in p.items() if long else ():
         _check_size(op, field, value)
 
 
-def _check_insert(op: Op) -> None:
+def _check_insert(op: Op, long: bool) -> None:
     p = op.payload
-    for field, value in p.items() if _long(op) else ():
+    for field, value in p.items() if long else ():
         _check_size(op, field, value)
     if op.entity == "issued_notice":
         try:
@@ -185,14 +184,18 @@ def _check_insert(op: Op) -> None:
         raise RecordInvalid(msg)
 
 
-def check_op_record(op: Op) -> None:
-    """Raise RecordInvalid (naming record and field) unless the op's content is what a local save writes."""
+def check_op_record(op: Op, payload_text: str | None = None) -> None:
+    """Raise RecordInvalid (naming record and field) unless the op's content is what a local save writes.
+
+    ``payload_text`` is ``op.payload_text`` when the caller has encoded it already.
+    """
+    long = _long(op.payload_text if payload_text is None else payload_text)
     if op.kind == OpKind.SET:
-        _check_set(op)
+        _check_set(op, long)
     elif op.kind == OpKind.STATUS:
-        _check_status(op)
+        _check_status(op, long)
     else:
-        _check_insert(op)
+        _check_insert(op, long)
 
 
 __all__ = ["RecordInvalid", "check_op_record", "check_priority"]

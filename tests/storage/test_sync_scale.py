@@ -174,3 +174,91 @@ def test_value_size_limit_holds_at_its_boundary():
 def test_canonical_is_sorted_compact_json(value):
     """Python's json module with sorted keys, no spaces, non-ASCII kept (the stored and hashed form)."""
     assert canonical(value) == json.dumps(value, sort_keys=True, separators=(",", ":"), ensure_ascii=False)
+
+
+def _merge_one_at_a_time(db, ops):
+    with transaction(db):
+        for op in ops:
+            if insert_op(db, op):
+                apply_op(db, op)
+
+
+@pytest.mark.parametrize("seed", range(4))
+@pytest.mark.parametrize("batch_ops", [5, 64])
+def test_one_batch_renewed_across_transactions_equals_one_at_a_time(tmp_path, seed, batch_ops):
+    """An import's batch carried through its transactions (``renew``) equals the op-at-a-time path.
+
+    Ops arrive out of seq order, with gaps that close later: the log, the high-water marks, the conflicts (a
+    winner's seq found among ops added but not yet written) and every projection equal the op-at-a-time path's
+    (reference: insert_op + apply_op with no batch).
+    """
+    ops = _random_ops(seed, 300)
+    rng = random.Random(seed)
+    for start in range(0, len(ops), 40):  # shuffle within windows: seqs arrive out of order, runs close later
+        window = ops[start : start + 40]
+        rng.shuffle(window)
+        ops[start : start + 40] = window
+    one = connect(tmp_path / "one.db")
+    _merge_one_at_a_time(one, ops)
+    many = connect(tmp_path / "many.db")
+    batch = None
+    for start in range(0, len(ops), batch_ops):
+        chunk = ops[start : start + batch_ops]
+        with transaction(many):
+            if batch is None:
+                batch = ProjectionBatch(many)
+            else:
+                batch.renew()
+            batch.prefetch(chunk)
+            for op in chunk:
+                if insert_op(many, op, batch):
+                    apply_op(many, op, batch=batch)
+            batch.flush()
+    state = _state(one)
+    assert state["conflict"], "the ops make concurrent edits"
+    assert _state(many) == state
+
+
+def test_renew_drops_what_it_read_when_another_connection_committed(tmp_path):
+    """A save by another connection between two transactions of a merge is seen by the next one.
+
+    SQLite's data_version changed: the batch reads the row and stamp again, so the save is neither lost nor
+    overwritten.
+    """
+    path = tmp_path / "a.db"
+    db = connect(path)
+    first = Op(ORIGINS[0], 1, 10 << 16, "beam", "b1", "set", {"notes": "one", "level": "L1"}, {}, 1, 1)
+    late = Op(ORIGINS[0], 2, 12 << 16, "beam", "b1", "set", {"level": "L3"}, {}, 1, 1)
+    other = Op(ORIGINS[1], 1, 20 << 16, "beam", "b1", "set", {"notes": "saved meanwhile"}, {}, 1, 1)
+    with transaction(db):
+        batch = ProjectionBatch(db)
+        batch.prefetch([first])
+        insert_op(db, first, batch)
+        apply_op(db, first, batch=batch)
+        batch.flush()
+    _merge_one_at_a_time(connect(path), [other])  # another connection commits
+    with transaction(db):
+        batch.renew()
+        assert batch.rows == {}
+        assert batch.stamps == {}
+        insert_op(db, late, batch)
+        apply_op(db, late, batch=batch)
+        batch.flush()
+    data = json.loads(db.execute("SELECT data FROM beam WHERE id='b1'").fetchone()[0])
+    assert data == {"notes": "saved meanwhile", "level": "L3"}
+    with transaction(db):  # nobody else committed: what the batch read stays
+        batch.renew()
+        assert batch.rows[("beam", "b1")][0] == data
+        batch.flush()
+
+
+def test_renew_refuses_an_unflushed_batch(tmp_path):
+    db = connect(tmp_path / "a.db")
+    op = Op(ORIGINS[0], 1, 10 << 16, "beam", "b1", "set", {"notes": "one"}, {}, 1, 1)
+    with transaction(db):
+        batch = ProjectionBatch(db)
+        insert_op(db, op, batch)
+        apply_op(db, op, batch=batch)
+        with pytest.raises(RuntimeError, match="flush"):
+            batch.renew()
+        batch.flush()
