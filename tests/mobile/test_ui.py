@@ -104,6 +104,16 @@ def test_portrait_layout(tmp_path):
     assert "UI-OK" in out, out[-3000:]
 
 
+def test_a_screenshot_shows_the_state_the_step_left(tmp_path):
+    """The driver's screenshots wait for the frame that draws the change (they lagged a frame on the sync screen).
+
+    The step switches to the dim theme and shoots at once: the background in the picture must be dim.
+    """
+    out = run_app(tmp_path / "s.db", tmp_path / "shots", "shot-current", tmp_path / "home")
+    assert "UI-OK" in out, out[-3000:]
+    assert "FRAME-WAITS 1" in out, out[-3000:]
+
+
 def test_kill_after_typing_loses_nothing(tmp_path):
     db = tmp_path / "kill.db"
     out = run_app(db, tmp_path / "s1", "type-then-kill", tmp_path / "home")
