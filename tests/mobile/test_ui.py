@@ -104,6 +104,18 @@ def test_portrait_layout(tmp_path):
     assert "UI-OK" in out, out[-3000:]
 
 
+@pytest.mark.parametrize("geometry", ["10in-1280x800-149dpi", "10in-portrait-800x1280-149dpi"])
+def test_first_site_open_places_the_beam_list_once(tmp_path, geometry):
+    """The recycling list's rows are placed once, at the list's real width (issue 14 item 1: it was three times).
+
+    Screenshots: test-artefacts/ui-geometry/site-layout-once-*.png.
+    """
+    size, dpi, density = GEOMETRIES[geometry]
+    shots = ROOT / "test-artefacts" / "ui-geometry" / f"site-layout-once-{geometry}"
+    out = run_app(tmp_path / "o.db", shots, "site-layout-once", tmp_path / "home", size=size, dpi=dpi, density=density)
+    assert "UI-OK" in out, out[-3000:]
+
+
 def test_a_screenshot_shows_the_state_the_step_left(tmp_path):
     """The driver's screenshots wait for the frame that draws the change (they lagged a frame on the sync screen).
 

@@ -870,6 +870,34 @@ elif FLOW == "portrait":
         assert app.root_window.height > app.root_window.width
         yield from shot("14-beam-portrait")
 
+elif FLOW == "site-layout-once":
+    # the first open of a site places the beam list's rows once, at the list's real width (it placed
+    # them three times: once about 34 px wide, before the screen had its size; once more when the list's
+    # height followed the rows; once at the real width)
+    widths = []
+
+    @step
+    def open_site_counting():
+        layout = screen("site").ids.beam_list.layout_manager
+        place = layout.compute_layout
+
+        def counted(data, flags):
+            if data:  # the empty list at start costs nothing
+                widths.append(round(layout.width))
+            return place(data, flags)
+
+        layout.compute_layout = counted  # this instance only
+        app.open_site(next(s.id for s in app.store.sites() if "Cedar" in s.name))
+        yield from shot("site-layout-once")
+
+    @step
+    def placed_once():
+        layout = screen("site").ids.beam_list.layout_manager
+        print(f"LAYOUTS {widths} final width {round(layout.width)}", flush=True)
+        assert widths == [round(layout.width)], f"rows placed at widths {widths}; the list is {layout.width:.0f} px"
+        rows = [w for w in layout.children if getattr(w, "beam_id", "")]
+        assert rows, f"the beam list shows no beam: {[type(w).__name__ for w in layout.children]}"
+
 elif FLOW == "shot-current":
     # a screenshot shows the state the step left, not the frame before it (the sync screen's lag)
 
