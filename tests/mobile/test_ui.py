@@ -20,6 +20,8 @@ from pathlib import Path
 
 import pytest
 
+from office.background import STARTUP_S
+
 ROOT = Path(__file__).resolve().parents[2]
 DRIVER = ROOT / "tests" / "mobile" / "ui_drive.py"
 pytestmark = [
@@ -136,6 +138,25 @@ def test_kill_after_typing_loses_nothing(tmp_path):
     assert "NOTES=bearing plate at S2 bent; photo 14" in out, out[-3000:]
 
 
+def _wait_for_hub(proc, url):
+    """Poll until the hub answers, for up to ``STARTUP_S`` (300 s: 20 s was measured at load average 22).
+
+    Fails at once, with its stderr, if the hub exits; after the deadline, with what it wrote so far.
+    """
+    deadline = time.monotonic() + STARTUP_S
+    while proc.poll() is None:
+        try:
+            with urllib.request.urlopen(f"{url}/v1/hub", timeout=2) as resp:
+                json.loads(resp.read())
+            return
+        except OSError:
+            if time.monotonic() > deadline:
+                os.killpg(proc.pid, signal.SIGTERM)
+                pytest.fail(f"the hub did not answer in {STARTUP_S} s: {proc.communicate(timeout=60)[1][-4000:]}")
+            time.sleep(0.2)
+    pytest.fail(f"the hub exited with {proc.returncode}: {proc.communicate(timeout=60)[1][-4000:]}")
+
+
 @pytest.fixture
 def office_hub(tmp_path):
     """A real hub (``bracewalk hub serve``) on a free port of 127.0.0.1, stopped at the end."""
@@ -153,15 +174,7 @@ def office_hub(tmp_path):
     )
     url = f"http://127.0.0.1:{port}"
     try:
-        for _ in range(100):  # bounded: 20 s
-            try:
-                with urllib.request.urlopen(f"{url}/v1/hub", timeout=2) as resp:
-                    json.loads(resp.read())
-                break
-            except OSError:
-                time.sleep(0.2)
-        else:
-            pytest.fail("the hub did not answer in 20 s")
+        _wait_for_hub(proc, url)
         yield url, db, proc.pid
     finally:
         if proc.poll() is None:  # the flow stops this hub to cut the network, and starts its own on the port

@@ -112,7 +112,10 @@ def test_tls_with_a_self_signed_office_certificate(tmp_path, capsys):
         for _ in range(2):
             assert main(["hub", "enroll", "--db", hub_db, "--name", "T", "--person", "P", "--role", "reviewer"]) == 0
             codes.append(capsys.readouterr().out.strip().splitlines()[-1])
-        for _ in range(100):  # bounded: wait for the server
+        deadline = time.monotonic() + STARTUP_S  # bounded, generous (was 20 s: see STARTUP_S)
+        while True:
+            assert proc.poll() is None, f"hub serve --cert exited with {proc.returncode}: {proc.stderr.read()[-4000:]}"
+            assert time.monotonic() < deadline, f"hub serve --cert: no answer in {STARTUP_S} s"
             if main(["sync", "enroll", "--db", str(tablet), url, codes[0]]) != 1:
                 break
             if "CERTIFICATE_VERIFY_FAILED" in capsys.readouterr().err:
