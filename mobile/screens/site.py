@@ -14,8 +14,11 @@ from kivy.metrics import dp
 from kivy.properties import StringProperty
 from kivy.uix.button import Button
 from kivy.uix.label import Label
+from kivy.uix.layout import Layout
 from kivy.uix.popup import Popup
+from kivy.uix.recyclelayout import RecycleLayout
 from kivy.uix.screenmanager import Screen
+from kivy.uix.scrollview import ScrollView
 
 from core.results import PRIORITY_ORDER
 from mobile.screens.widgets import big_button, status_colour
@@ -56,6 +59,42 @@ def list_data(groups: list[tuple[str, list[tuple[str, str, str]]]], statuses: di
     return data
 
 
+def lay_out_now(screen: Screen, size: Any) -> None:
+    """Give the screen ``size`` and lay its widgets out at once, each parent before its children.
+
+    Kivy sizes a screen when it is shown and lays it out over the next frame, level by level: the beam
+    list got its rows while still at its default size (~34 px wide at first, from the screen's 100 px)
+    and placed all of them there, then again at its real width. Laid out first, it places them once.
+    The recycling layout itself is skipped: its rows are placed by the list, from the data.
+    """
+    screen.size = size
+    for widget in screen.walk(restrict=True):
+        if isinstance(widget, RecycleLayout):
+            continue
+        if isinstance(widget, Layout):
+            widget.do_layout()
+        elif isinstance(widget, ScrollView):
+            widget.update_from_scroll()  # sizes its content (the list's layout) from its own size
+
+
+def presize(layout: Any, rows: int) -> None:
+    """Give the recycling list's layout the height it will find for ``rows`` rows, before they are set.
+
+    The list's height follows ``minimum_height`` (site.kv), which the layout computes while it places
+    every row; a change of height then makes it place every row again (10,000 rows: two passes). Set
+    beforehand, the same sum as the layout's own (``BoxLayout._iterate_layout``: padding and spacing,
+    then each row's default height in turn) leaves nothing to change, so the rows are placed once.
+    Every row takes the default height (no row sets its own size); were one to differ, the list would
+    only be placed twice, never drawn wrong.
+    """
+    _, top, _, bottom = layout.padding
+    total = top + bottom + layout.spacing * (rows - 1)
+    row_height = layout.default_size[1]
+    for _ in range(rows):
+        total += row_height
+    layout.minimum_height = total
+
+
 class SiteScreen(Screen):
     """A site: beams by level and gridline with status words and shapes; deficiencies by priority."""
 
@@ -87,6 +126,7 @@ class SiteScreen(Screen):
         self.counts_text = self.vm.counts(self._rows)
         self.ids.level_filter.values = [ALL_LEVELS, *self.vm.levels(self._rows)]
         self.ids.status_filter.values = [ALL_STATUSES, *(status_label(s) for s in STATUS_WORDS)]
+        lay_out_now(self, self.manager.size)  # before the list gets its rows: they are placed once
         self.show_beams()
         self.show_deficiencies()
         self.unraised_text = self.vm.unraised_warning()
@@ -104,6 +144,7 @@ class SiteScreen(Screen):
         data = list_data(groups, {beam_id: st for beam_id, _, st in self._rows})
         if not data:
             data = [{"viewclass": "BeamHeading", "text": "No beam matches."}]
+        presize(self.ids.beam_list.layout_manager, len(data))
         self.ids.beam_list.data = data
 
     def show_deficiencies(self) -> None:

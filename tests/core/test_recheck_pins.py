@@ -138,3 +138,25 @@ def test_glulam_roof_without_ceiling_takes_l_over_180_for_snow():
     assert r.deflection.case == "L + S"
     assert r.deflection.limit_mm == pytest.approx(L / 180, rel=1e-9)
     assert r.deflection.delta_mm == pytest.approx(5 * 5.0 * L**4 / (384 * 12800 * I_GL), rel=1e-6)
+
+
+@pytest.mark.parametrize(
+    ("b_mm", "d_mm", "kzcp"),
+    [
+        # CSA O86-19 6.5.6.2.3 (from memory; reference o86.md section 5, the formula also in section 12's
+        # independent transcription): r = b/d; KZcp = 1.0 + 0.15 (r - 1) for 1.0 < r < 2.0, 1.15 for r >= 2.0
+        (89, 64, 1.0 + 0.15 * (89 / 64 - 1.0)),  # a 3x4 laid flat: r = 1.391, on the sloped part (1.0586)
+        (89, 38, 1.15),  # a 2x4 laid flat: r = 2.342, at the cap
+    ],
+)
+def test_flat_sawn_bearing_takes_kzcp_through_recheck(b_mm, d_mm, kzcp):
+    """A flat sawn member (b/d > 1): the bearing resistance recheck() reports carries KZcp, by hand."""
+    r = recheck(sawn(b_mm=b_mm, d_mm=d_mm, spans_mm=[1200]))
+    for q in r.bearing:
+        # O86-19 Table 5.1 (from memory): 1.25D + 1.5L is a standard-term combination, KD = 1.0; dry service
+        # and untreated: KScp = KT = 1.0, so Fcp = fcp = 5.3 MPa (S-P-F No.1/No.2, O86-19 Table 6.4; reference
+        # o86.md section 4.2, confirmed by the transcription of section 12). O86-19 6.5.6.2 (from memory):
+        # Qr = 0.8 Fcp Ab KB KZcp with Ab = b x bearing length (89 mm) and KB = 1.0 at an end bearing.
+        assert q.combination == "1.25D + 1.5L"
+        assert q.qr_kn == pytest.approx(0.8 * 5.3 * b_mm * 89 * 1.0 * kzcp / 1000, rel=1e-12)
+    assert kzcp > 1.0  # the case tells a dropped KZcp apart (Qr 5.9 % or 15 % lower)

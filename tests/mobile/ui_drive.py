@@ -9,6 +9,7 @@ window size), "type-then-kill" (type a note, wait for the autosave, then SIGKILL
 Prints UI-OK (or UI-FAIL at <step>) and flushes, then stops the app.
 """
 
+import inspect
 import os
 import signal
 import sys
@@ -23,11 +24,23 @@ FLOW = sys.argv[3] if len(sys.argv) > 3 else "main"
 OUT.mkdir(parents=True, exist_ok=True)
 app = BracewalkApp(DB)
 steps = []
-state = {"i": 0}
+state = {"i": 0, "frame_waits": 0}
 KILL_NOTE = "bearing plate at S2 bent; photo 14"
 
 
+FRAMES_BEFORE_SHOT = 2  # the frame that draws this step's changes, then one more for what they set off
+
+
 def shot(name):
+    """Save the screen as the step left it (a step yields from this generator).
+
+    Reading the window at once returns the last frame drawn, from before the step's changes (a state set
+    in this tick, by the step or by a timer just before it, is drawn only at the end of the tick). So the
+    step yields here; the runner asks for a redraw, resumes the step in the ``on_flip`` of the second frame
+    drawn from now, when that frame is complete and not yet swapped (``frame_waits`` counts the waits),
+    and the pixels read are the state the step saw.
+    """
+    yield FRAMES_BEFORE_SHOT
     written = app.root_window.screenshot(str(OUT / f"{name}.png"))  # Kivy appends a counter to the name
     Path(written).replace(OUT / f"{name}.png")
 
@@ -134,6 +147,24 @@ def check_layout(screen_name):
     assert not problems, "\n".join(problems[:12])
 
 
+def after_frames(n, then):
+    """Call ``then()`` in the ``on_flip`` of the n-th frame drawn from now (drawn, not yet on screen)."""
+    window = app.root_window
+    left = [n]
+
+    def flipped(*_):
+        left[0] -= 1
+        if left[0] > 0:
+            window.canvas.ask_update()  # draw the next frame even if nothing else changes
+            return
+        window.unbind(on_flip=flipped)
+        state["frame_waits"] += 1
+        then()
+
+    window.bind(on_flip=flipped)
+    window.canvas.ask_update()
+
+
 def step(fn):
     steps.append(fn)
     return fn
@@ -188,13 +219,13 @@ if FLOW == "main":
 
     @step
     def sites():
-        shot("01-sites")
+        yield from shot("01-sites")
         screen().ids.site_list.children[-1].trigger_action(0)
 
     @step
     def site():
         assert app.root.current == "site"
-        shot("02-site")
+        yield from shot("02-site")
         rows = [w for w in screen().ids.beam_list.layout_manager.children if getattr(w, "beam_id", "")]
         assert len(rows) >= 5, f"the beam list shows {len(rows)} beams"  # the demo has 13; the rest scroll
         screen().ids.visit.trigger_action(0)
@@ -206,7 +237,7 @@ if FLOW == "main":
 
     @step
     def visit_form_shot():
-        shot("02b-visit-form")
+        yield from shot("02b-visit-form")
         screen().visit_form.ids.start_visit.trigger_action(0)
         assert "Priya" in screen().visit_text
 
@@ -264,7 +295,7 @@ if FLOW == "main":
         assert keys.index(";") < 4  # ';' in the top row, far from OK
         for k in ("C", "4", "9", "4"):
             next(b for b in popup.content.children[1].children if b.text == k).trigger_action(0)
-        shot("03a-keypad")
+        yield from shot("03a-keypad")
         popup.dismiss()  # a tap outside: what was typed is kept and entered
         assert app.store.beam_record(app.beam_id)["d_mm"] == 494, app.store.beam_record(app.beam_id)["d_mm"]
 
@@ -277,7 +308,7 @@ if FLOW == "main":
     def gloves_depth_picks_shown():
         tf = screen("beam").fields["d_mm"]
         assert tf.quick_near == "494", tf.quick_near
-        shot("03c-depth-picks")
+        yield from shot("03c-depth-picks")
         tf.ids.quick.is_open = False
         folder = Path(os.environ["HOME"]) / "site photos"
         folder.mkdir(parents=True, exist_ok=True)
@@ -295,7 +326,7 @@ if FLOW == "main":
         assert rows, rows
         assert rows[0].height >= mm(15) - 1, rows
         rows[0].trigger_action(0)  # one tap opens the folder
-        shot("03d-file-picker")
+        yield from shot("03d-file-picker")
         next(w for w in popup.walk() if getattr(w, "text", "") == "rb9-end.png").trigger_action(0)
         assert screen("beam").vm.photo_count() == 1
 
@@ -324,18 +355,18 @@ if FLOW == "main":
 
     @step
     def photo_shot():
-        shot("03e-photo-marked")
+        yield from shot("03e-photo-marked")
         screen("photo").ids.back.trigger_action(0)
         assert app.root.current == "beam"
 
     @step
     def bearings_view():
-        shot("03-beam-new")
+        yield from shot("03-beam-new")
         screen("beam").ids.form_scroll.scroll_y = 0.42
 
     @step
     def purlins_wider():
-        shot("03b-beam-bearings")
+        yield from shot("03b-beam-bearings")
         screen("beam").ids.form_scroll.scroll_y = 1
         s = screen("beam")
         before = s.vm.result.bending[0].kl
@@ -352,7 +383,7 @@ if FLOW == "main":
 
     @step
     def trace_shot():
-        shot("04-trace")
+        yield from shot("04-trace")
         app.root_window.children[0].dismiss()
 
     @step
@@ -367,7 +398,7 @@ if FLOW == "main":
         text = "\n".join(w.text for w in popup.walk() if hasattr(w, "text") and isinstance(w.text, str))
         assert "[MEMORY" in text, text[:400]  # each row with its status (issue 16 item 6)
         assert "[confirmed" in text, text[:400]
-        shot("04b-table-rows")
+        yield from shot("04b-table-rows")
         popup.dismiss()
 
     @step
@@ -378,7 +409,7 @@ if FLOW == "main":
 
     @step
     def raise_it():
-        shot("05-beam-immediate")
+        yield from shot("05-beam-immediate")
         s = screen("beam")
         raise_buttons = [w for w in s.ids.panel.children if getattr(w, "text", "").startswith("Raise deficiency")]
         raise_buttons[-1].trigger_action(0)  # the first finding (children are in reverse order)
@@ -393,7 +424,7 @@ if FLOW == "main":
 
     @step
     def open_deficiency():
-        shot("06-site-after")
+        yield from shot("06-site-after")
         number = state["raised"]
         d = next(d for d in app.store.deficiencies(app.site_id, open_only=True) if d.number == number)
         app.open_deficiency(d.id)
@@ -447,7 +478,7 @@ if FLOW == "main":
 
     @step
     def deficiency_shot():
-        shot("07-deficiency")
+        yield from shot("07-deficiency")
         screen("deficiency").ids.back.trigger_action(0)
         screen("site").ids.notice.trigger_action(0)
         assert app.root.current == "notice"
@@ -459,7 +490,7 @@ if FLOW == "main":
 
     @step
     def issue_refused_until_acknowledged():
-        shot("08-notice-preview")
+        yield from shot("08-notice-preview")
         s = screen("notice")
         assert any(w.text.startswith("MEMORY") for w in s.ids.rows_list.children), "no memory row listed"
         assert "acknowledge before issue" in s.ack_text, s.ack_text
@@ -476,7 +507,7 @@ if FLOW == "main":
 
     @step
     def issue():
-        shot("08b-notice-acknowledged")  # the frame after the tap
+        yield from shot("08b-notice-acknowledged")  # the frame after the tap
         s = screen("notice")
         s.ids.issue.trigger_action(0)
         assert "Issued" in s.message, s.message
@@ -491,7 +522,7 @@ if FLOW == "main":
         s.ids.export_dir.text = str(OUT / "exported")
         s.ids.issued.children[-1].trigger_action(0)
         assert list((OUT / "exported").glob("*.pdf")), s.message
-        shot("09-notice-issued")
+        yield from shot("09-notice-issued")
 
     @step
     def closeout():
@@ -503,7 +534,7 @@ if FLOW == "main":
 
     @step
     def closeout_shot():
-        shot("09b-closeout-issued")
+        yield from shot("09b-closeout-issued")
 
     @step
     def to_sync():
@@ -521,7 +552,7 @@ if FLOW == "main":
             raise TimeoutError(msg)  # the runner retries a few times
         assert "Wrote" in s.summary, s.summary
         assert list((OUT / "sync").glob("*.bwsync"))
-        shot("10-sync")
+        yield from shot("10-sync")
 
     @step
     def dim_theme():
@@ -531,13 +562,13 @@ if FLOW == "main":
 
     @step
     def dim_shot():
-        shot("11-sites-dim")
+        yield from shot("11-sites-dim")
         app.open_site(app.site_id)
         app.open_beam(demo_beam("RB-5"))
 
     @step
     def dim_beam():
-        shot("12-beam-dim")
+        yield from shot("12-beam-dim")
 
     @step
     def create_site():
@@ -654,7 +685,7 @@ elif FLOW == "hub":
         s = screen("sync")
         assert "Not enrolled" in s.hub_text, s.hub_text
         assert s.ids.sync_now.disabled  # nothing to sync with yet
-        shot(f"{GEOM}-hub-1-not-enrolled")
+        yield from shot(f"{GEOM}-hub-1-not-enrolled")
         s.ids.hub_url.text = HUB_URL
         s.ids.enrol_code.text = HUB_CODE
         s.ids.enroll.trigger_action(0)
@@ -668,7 +699,7 @@ elif FLOW == "hub":
         assert "in step at" in s.hub_text, s.hub_text
         assert s.ids.enrol_code.text == ""  # the one-time code is spent
         check_layout("sync")
-        shot(f"{GEOM}-hub-2-enrolled")
+        yield from shot(f"{GEOM}-hub-2-enrolled")
         # log a change on a beam and leave: nobody taps "Sync now"
         app.open_site(next(x.id for x in app.store.sites() if x.name == REAL_SITE))
         app.open_beam(demo_beam("RB-1"))
@@ -710,7 +741,7 @@ elif FLOW == "hub":
         assert "could not be reached" in s.hub_text, s.hub_text
         assert "waiting for the office. Kept here; it is sent by itself" in s.waiting_text, s.waiting_text
         check_layout("sync")
-        shot(f"{GEOM}-hub-2b-offline")
+        yield from shot(f"{GEOM}-hub-2b-offline")
         # the network returns: the same hub, on the same port
         port = HUB_URL.rsplit(":", 1)[1]
         cmd = [sys.executable, "-m", "mobile.cli", "hub", "serve", "--db", os.environ["BRACEWALK_TEST_HUB_DB"]]
@@ -743,14 +774,14 @@ elif FLOW == "hub":
         assert "some changes held back" in s.hub_text, s.hub_text
         assert _time.strftime("%Z") in s.hub_text or "UTC" in s.hub_text, s.hub_text  # local time with its zone
         check_layout("sync")
-        shot(f"{GEOM}-hub-3-held-back")
+        yield from shot(f"{GEOM}-hub-3-held-back")
 
 elif FLOW == "layout":
     GEOM = os.environ.get("BRACEWALK_GEOMETRY", "default")
     seen = []
 
     def look(name):
-        shot(f"{GEOM}-{name}")
+        yield from shot(f"{GEOM}-{name}")
         seen.extend(layout_problems(app.root.current))
 
     @step
@@ -759,12 +790,12 @@ elif FLOW == "layout":
 
     @step
     def sites_layout():
-        look("1-sites")
+        yield from look("1-sites")
         app.open_site(next(s.id for s in app.store.sites() if "Cedar" in s.name))
 
     @step
     def site_layout():
-        look("2-site")
+        yield from look("2-site")
         from kivy.metrics import mm
 
         s = screen("site")
@@ -783,18 +814,18 @@ elif FLOW == "layout":
 
     @step
     def beam_layout():
-        look("3-beam")
+        yield from look("3-beam")
         screen("beam").ids.form_scroll.scroll_y = 0.5
 
     @step
     def beam_layout_lower():
-        look("3b-beam-lower")
+        yield from look("3b-beam-lower")
         screen("beam").leave()
         screen("site").ids.new_beam.trigger_action(0)
 
     @step
     def new_beam_layout():
-        look("3c-beam-new")  # nothing entered yet: the panel lists what the recheck needs
+        yield from look("3c-beam-new")  # nothing entered yet: the panel lists what the recheck needs
         assert screen("beam").vm.result is None
         assert "span" in screen("beam").vm.recheck_error
         screen("beam").leave()
@@ -804,22 +835,22 @@ elif FLOW == "layout":
     @step
     def photo_layout():
         assert screen("photo").source, "the demo beam's photo is not shown"
-        look("3d-photo")
+        yield from look("3d-photo")
         app.open_deficiency(app.store.deficiencies(app.site_id, open_only=True)[0].id)
 
     @step
     def deficiency_layout():
-        look("4-deficiency")
+        yield from look("4-deficiency")
         app.go("notice")
 
     @step
     def notice_layout():
-        look("5-notice")
+        yield from look("5-notice")
         app.go("sync")
 
     @step
     def sync_layout():
-        look("6-sync")
+        yield from look("6-sync")
         print(f"WINDOW {app.root_window.size}", flush=True)
         assert not seen, "\n".join(seen[:25]) + (f"\n... {len(seen)} in all" if len(seen) > 25 else "")
 
@@ -831,13 +862,63 @@ elif FLOW == "portrait":
 
     @step
     def site_portrait():
-        shot("13-site-portrait")
+        yield from shot("13-site-portrait")
         app.open_beam(demo_beam("RB-5"))
 
     @step
     def beam_portrait():
         assert app.root_window.height > app.root_window.width
-        shot("14-beam-portrait")
+        yield from shot("14-beam-portrait")
+
+elif FLOW == "site-layout-once":
+    # the first open of a site places the beam list's rows once, at the list's real width (it placed
+    # them three times: once about 34 px wide, before the screen had its size; once more when the list's
+    # height followed the rows; once at the real width)
+    widths = []
+
+    @step
+    def open_site_counting():
+        layout = screen("site").ids.beam_list.layout_manager
+        place = layout.compute_layout
+
+        def counted(data, flags):
+            if data:  # the empty list at start costs nothing
+                widths.append(round(layout.width))
+            return place(data, flags)
+
+        layout.compute_layout = counted  # this instance only
+        app.open_site(next(s.id for s in app.store.sites() if "Cedar" in s.name))
+        yield from shot("site-layout-once")
+
+    @step
+    def placed_once():
+        layout = screen("site").ids.beam_list.layout_manager
+        print(f"LAYOUTS {widths} final width {round(layout.width)}", flush=True)
+        assert widths == [round(layout.width)], f"rows placed at widths {widths}; the list is {layout.width:.0f} px"
+        rows = [w for w in layout.children if getattr(w, "beam_id", "")]
+        assert rows, f"the beam list shows no beam: {[type(w).__name__ for w in layout.children]}"
+
+elif FLOW == "shot-current":
+    # a screenshot shows the state the step left, not the frame before it (the sync screen's lag)
+
+    def corner_grey(path):
+        """The grey level of the window's background at the right edge, halfway down (0 black, 255 white)."""
+        from PIL import Image
+
+        with Image.open(path) as im:
+            return im.convert("L").getpixel((im.width - 3, im.height // 2))
+
+    @step
+    def to_sync():
+        app.go("sync")
+
+    @step
+    def change_then_shoot():
+        app.set_theme("dim")  # the whole background turns from white (sun) to near black in this tick
+        yield from shot("shot-current")
+        grey = corner_grey(OUT / "shot-current.png")
+        print(f"SHOT-GREY {grey}", flush=True)
+        assert grey < 60, f"the screenshot shows the sun theme (grey {grey}), the frame before the change"
 
 elif FLOW == "type-then-kill":
 
@@ -873,14 +954,27 @@ elif FLOW == "relaunch":
 
 @step
 def done():
+    print(f"FRAME-WAITS {state['frame_waits']}", flush=True)  # screenshots taken after waiting for their frame
     print("UI-OK", flush=True)
     app.stop()
 
 
 def run_next(_dt):
     fn = steps[state["i"]]
+    advance(fn, None)
+
+
+def advance(fn, gen):
+    """Run step ``fn`` (or resume its generator ``gen`` after the frames it waited for) to its end or next wait."""
     try:
-        fn()
+        if gen is None:
+            gen = fn()
+        if inspect.isgenerator(gen):
+            frames = next(gen)  # runs the step until it waits for frames (a screenshot) or ends
+            after_frames(frames, lambda: advance(fn, gen))
+            return
+    except StopIteration:
+        pass
     except TimeoutError:
         state.setdefault("retries", 0)
         state["retries"] += 1

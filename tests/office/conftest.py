@@ -2,47 +2,75 @@
 
 from __future__ import annotations
 
-import socket
+import io
+import logging
 import threading
 import time
+import urllib.request
 from pathlib import Path
 
 import pytest
-import uvicorn
 
 from mobile.hub_client import enroll
-from office.app import create_app
+from office.background import STARTUP_S, BackgroundHub
 from office.hubstore import HubStore
 from office.pgha import PgServer, pg_bindir
 from storage import Store
 
 
-class RunningHub:
-    """A hub store served over HTTP on a loopback port."""
+class RunningHub(BackgroundHub):
+    """A hub store served over HTTP on a loopback port (``BackgroundHub``), and enrolled tablets.
+
+    ``start`` polls readiness (``/v1/hub`` answers) up to ``STARTUP_S`` (300 s, as every other hub start:
+    ~1 s alone, 20 s measured at load average 22 on 2 cores) and ends early if the server thread dies;
+    a failure carries what the server logged (uvicorn's errors go to its logger, not a process stderr)
+    and the exception that ended the thread.
+    """
 
     def __init__(self, hub: HubStore):
-        self.hub = hub
-        self.sock = socket.socket(socket.AF_INET, socket.SOCK_STREAM)
-        self.sock.setsockopt(socket.SOL_SOCKET, socket.SO_REUSEADDR, 1)
-        self.sock.bind(("127.0.0.1", 0))
-        self.url = f"http://127.0.0.1:{self.sock.getsockname()[1]}"
-        config = uvicorn.Config(create_app(hub), log_level="error", lifespan="off")
-        self.server = uvicorn.Server(config)
-        self.thread = threading.Thread(target=self.server.run, kwargs={"sockets": [self.sock]}, daemon=True)
+        super().__init__(hub)
+        self.errors = io.StringIO()
+        self.died: BaseException | None = None
+        self.thread = threading.Thread(target=self._run, daemon=True)
 
-    def start(self) -> RunningHub:
-        self.thread.start()
-        for _ in range(200):  # bounded: 10 s
-            if self.server.started:
-                return self
-            time.sleep(0.05)
-        msg = "hub did not start"
-        raise RuntimeError(msg)
+    def _run(self) -> None:
+        try:
+            self.server.run(sockets=[self.sock])
+        except BaseException as exc:  # kept, and raised by start() or stop() in the test's thread
+            self.died = exc
+
+    def start(self, timeout_s: float = STARTUP_S) -> RunningHub:
+        handler = logging.StreamHandler(self.errors)
+        logger = logging.getLogger("uvicorn.error")
+        logger.addHandler(handler)
+        try:
+            self.thread.start()
+            deadline = time.monotonic() + timeout_s
+            while self.thread.is_alive() and time.monotonic() < deadline:
+                if self.server.started and self._answers():
+                    return self
+                time.sleep(0.05)
+        finally:
+            logger.removeHandler(handler)
+        why = "its thread ended" if not self.thread.is_alive() else f"no answer within {timeout_s} s"
+        msg = f"hub at {self.url} did not start ({why}): {self.died!r}; logged: {self.errors.getvalue()[-4000:]!r}"
+        died, self.died = self.died, None
+        self.stop()
+        raise RuntimeError(msg) from died
+
+    def _answers(self) -> bool:
+        try:
+            with urllib.request.urlopen(f"{self.url}/v1/hub", timeout=2):
+                return True
+        except OSError:
+            return False
 
     def stop(self) -> None:
-        self.server.should_exit = True
-        self.thread.join(timeout=10)
-        self.sock.close()
+        """Stop serving; RuntimeError if the server thread had ended on an exception meanwhile."""
+        super().stop()
+        if self.died is not None:
+            msg = f"hub at {self.url} ended on {self.died!r}"
+            raise RuntimeError(msg) from self.died
 
     def tablet(self, path, name="Tablet", person="A. Reviewer", role="reviewer") -> Store:
         store = Store(path)

@@ -8,6 +8,8 @@ import time
 import urllib.request
 from pathlib import Path
 
+import pytest
+
 from office.app import create_app
 from office.hubstore import HubStore
 
@@ -110,7 +112,10 @@ def test_tls_with_a_self_signed_office_certificate(tmp_path, capsys):
         for _ in range(2):
             assert main(["hub", "enroll", "--db", hub_db, "--name", "T", "--person", "P", "--role", "reviewer"]) == 0
             codes.append(capsys.readouterr().out.strip().splitlines()[-1])
-        for _ in range(100):  # bounded: wait for the server
+        deadline = time.monotonic() + STARTUP_S  # bounded, generous (was 20 s: see STARTUP_S)
+        while True:
+            assert proc.poll() is None, f"hub serve --cert exited with {proc.returncode}: {proc.stderr.read()[-4000:]}"
+            assert time.monotonic() < deadline, f"hub serve --cert: no answer in {STARTUP_S} s"
             if main(["sync", "enroll", "--db", str(tablet), url, codes[0]]) != 1:
                 break
             if "CERTIFICATE_VERIFY_FAILED" in capsys.readouterr().err:
@@ -122,3 +127,22 @@ def test_tls_with_a_self_signed_office_certificate(tmp_path, capsys):
     finally:
         proc.terminate()
         proc.communicate(timeout=20)
+
+
+def test_running_hub_start_fails_at_once_with_the_cause(tmp_path):
+    """A dead hub thread ends the fixture's 300 s readiness wait at once, and the failure names the cause.
+
+    Here the cause is its listening socket, closed before the start.
+    """
+    from tests.office.conftest import RunningHub
+
+    hub = HubStore(tmp_path / "hub.db")
+    running = RunningHub(hub)
+    running.sock.close()
+    started = time.monotonic()
+    try:
+        with pytest.raises(RuntimeError, match=r"did not start \(its thread ended\): OSError"):
+            running.start()
+    finally:
+        hub.close()
+    assert time.monotonic() - started < 60  # not the 300 s deadline: the dead thread was noticed
