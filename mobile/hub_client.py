@@ -162,7 +162,8 @@ def sync(
         log_sync(store, "unreachable" if exc.status is None else "refused", exc.reason, clock())
         raise
     if result.rejected:
-        log_sync(store, "refused", f"{len(result.rejected)} changes held at the office", clock())
+        n = len(result.rejected)
+        log_sync(store, "refused", f"{n} change{'s' if n != 1 else ''} held at the office", clock())
     else:
         log_sync(store, "in_step", f"sent {result.pushed}, received {result.pulled_new}", clock())
     return result

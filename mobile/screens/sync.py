@@ -42,8 +42,24 @@ class SyncScreen(Screen):
     busy = BooleanProperty(False)  # a bundle or an enrolment is under way on this screen
     syncing = BooleanProperty(False)  # the background sync is under way
     enrolled = BooleanProperty(False)
+    enrolled_text = StringProperty("")  # where this tablet is enrolled ('' before)
+    enrol_open = BooleanProperty(False)  # the enrolment form unfolded again on an enrolled tablet
+    form_shown = BooleanProperty(True)  # the enrolment form: before enrolment, or unfolded again
     _timer: Any = None
     _shown_finish: float | None = None
+
+    def on_enrolled(self, _screen: Any, _value: bool) -> None:
+        """Fold the enrolment form away once enrolled."""
+        self.form_shown = self.enrol_open or not self.enrolled
+
+    def on_enrol_open(self, _screen: Any, _value: bool) -> None:
+        """Unfold the enrolment form ("Enrol again") and bring it into view, or fold it away."""
+        self.form_shown = self.enrol_open or not self.enrolled
+        view = self.ids.send_receive
+        if self.enrol_open:  # once the form is laid out (the next frame), scroll to its code field
+            Clock.schedule_once(lambda _dt: view.scroll_to(self.ids.enrol_code, animate=False))
+        else:  # folded again (enrolled): back to the top, where the hub's state is
+            view.scroll_y = 1
 
     def on_pre_enter(self, *args: Any) -> None:
         """Show the sync state and conflicts; follow the background sync while the screen is open."""
@@ -80,6 +96,7 @@ class SyncScreen(Screen):
         self.status_text = "Bundle files: " + self.vm.status()
         self.hub_text = self.vm.hub_status()
         self.enrolled = bool(self.vm.hub_url())
+        self.enrolled_text = self.vm.enrolled_note()
         self.waiting_text = self.vm.waiting().capitalize() if self.enrolled else ""
         if self.enrolled and App.get_running_app().background.auto.failing:
             self.waiting_text += ". Kept here; it is sent by itself as soon as the office answers."
@@ -170,6 +187,7 @@ class SyncScreen(Screen):
 
     def _enrolled(self) -> None:
         self.ids.enrol_code.text = ""  # the code is spent
+        self.enrol_open = False  # fold the form away again
         self.sync_now()
 
     def sync_now(self) -> None:

@@ -78,6 +78,16 @@ class SyncViewModel:
         words = {"in_step": "in step", "refused": "some changes held back", "unreachable": "could not be reached"}
         return f"Office hub {auth.hub_url}: {words.get(last['outcome'], last['outcome'])} at {when} ({last['detail']})"
 
+    def enrolled_note(self) -> str:
+        """Once enrolled: where and as which device, and when to enrol again ('' when not enrolled)."""
+        auth = enrolment(self.store.db)
+        if auth is None:
+            return ""
+        return (
+            f"This tablet is enrolled at {auth.hub_url} as device {auth.device_id}. Enrol again only with a new "
+            "code from the office: after the office revoked this tablet, or to move it to another hub."
+        )
+
     def hub_url(self) -> str:
         """The address of the office hub this tablet is enrolled at ('' when not enrolled)."""
         auth = enrolment(self.store.db)

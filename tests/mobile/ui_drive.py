@@ -685,6 +685,20 @@ elif FLOW == "hub":
         s = screen("sync")
         assert "Not enrolled" in s.hub_text, s.hub_text
         assert s.ids.sync_now.disabled  # nothing to sync with yet
+        assert s.ids.enroll.height > 0, (
+            s.enrolled_text,
+            s.form_shown,
+            s.ids.enroll.height,
+            s.ids.enroll.disabled,
+            s.ids.enrol_again.height,
+        )
+        assert s.ids.enrol_again.height == 0, (
+            s.enrolled_text,
+            s.form_shown,
+            s.ids.enroll.height,
+            s.ids.enroll.disabled,
+            s.ids.enrol_again.height,
+        )
         yield from shot(f"{GEOM}-hub-1-not-enrolled")
         s.ids.hub_url.text = HUB_URL
         s.ids.enrol_code.text = HUB_CODE
@@ -698,8 +712,69 @@ elif FLOW == "hub":
         assert summary.startswith("Sent "), summary
         assert "in step at" in s.hub_text, s.hub_text
         assert s.ids.enrol_code.text == ""  # the one-time code is spent
+        # enrolled: the form is folded away (0 high, no touch) behind "Enrol again", which unfolds it
+        assert "enrolled at" in s.enrolled_text, (
+            s.enrolled_text,
+            s.form_shown,
+            s.ids.enroll.height,
+            s.ids.enroll.disabled,
+            s.ids.enrol_again.height,
+        )
+        assert s.ids.enroll.height == 0, (
+            s.enrolled_text,
+            s.form_shown,
+            s.ids.enroll.height,
+            s.ids.enroll.disabled,
+            s.ids.enrol_again.height,
+        )
+        assert s.ids.enroll.disabled, (
+            s.enrolled_text,
+            s.form_shown,
+            s.ids.enroll.height,
+            s.ids.enroll.disabled,
+            s.ids.enrol_again.height,
+        )
+        assert s.ids.enrol_again.height > 0, (
+            s.enrolled_text,
+            s.form_shown,
+            s.ids.enroll.height,
+            s.ids.enroll.disabled,
+            s.ids.enrol_again.height,
+        )
+        assert not s.ids.enrol_again.disabled, (
+            s.enrolled_text,
+            s.form_shown,
+            s.ids.enroll.height,
+            s.ids.enroll.disabled,
+            s.ids.enrol_again.height,
+        )
         check_layout("sync")
         yield from shot(f"{GEOM}-hub-2-enrolled")
+        s.ids.enrol_again.trigger_action(0)
+        assert s.ids.enroll.height > 0, (
+            s.enrolled_text,
+            s.form_shown,
+            s.ids.enroll.height,
+            s.ids.enroll.disabled,
+            s.ids.enrol_again.height,
+        )
+        assert not s.ids.enroll.disabled, (
+            s.enrolled_text,
+            s.form_shown,
+            s.ids.enroll.height,
+            s.ids.enroll.disabled,
+            s.ids.enrol_again.height,
+        )
+        assert s.ids.enrol_again.height == 0, (
+            s.enrolled_text,
+            s.form_shown,
+            s.ids.enroll.height,
+            s.ids.enroll.disabled,
+            s.ids.enrol_again.height,
+        )
+        yield from shot(f"{GEOM}-hub-2a-enrol-again")  # waits for the frame that lays the form out again
+        check_layout("sync")
+        s.enrol_open = False
         # log a change on a beam and leave: nobody taps "Sync now"
         app.open_site(next(x.id for x in app.store.sites() if x.name == REAL_SITE))
         app.open_beam(demo_beam("RB-1"))
