@@ -23,13 +23,12 @@ _LIMIT_CLAUSE = {"total_specified": "CSA O86-19 5.4.2", "long_term": "CSA O86-19
 Worst = tuple[float, float, float, str, str, dict[str, str]]  # utilisation, |delta|, limit, case, element, row
 
 
-def deflection_patterns(n_el: int) -> list[tuple[bool, ...]]:
-    """All loaded, each checkerboard, each element alone (common practice for maximum deflection)."""
-    return list(_deflection_patterns(n_el))
-
-
 @lru_cache(maxsize=16)
-def _deflection_patterns(n_el: int) -> tuple[tuple[bool, ...], ...]:
+def deflection_patterns(n_el: int) -> tuple[tuple[bool, ...], ...]:
+    """All loaded, each checkerboard, each element alone (common practice for maximum deflection).
+
+    Built once per element count (the same for every beam).
+    """
     pats = {(True,) * n_el}
     if n_el > 1:
         pats.add(tuple(i % 2 == 0 for i in range(n_el)))
@@ -75,7 +74,7 @@ def _worst(
     best: Worst | None = None
     spans = _spans(model)
     seen: set[tuple[str, tuple[float, ...]]] = set()
-    for pattern in _deflection_patterns(len(model.elements)):
+    for pattern in deflection_patterns(len(model.elements)):
         for label, row, base, share in checks:
             w = tuple(base + (share * variable if on else 0.0) for on in pattern)
             # a load already checked under this label (the dead-load check is the same for every pattern)
