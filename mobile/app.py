@@ -196,7 +196,7 @@ def freeze_start_heap() -> None:
 
     What stays frozen: the objects alive just after the app's first frame: imported modules and
     classes, the kv rules, the screens and their widgets, the store. They live as long as the app, yet
-    every full collection walked all of them (about 400,000 objects: 170-250 ms here, which fell in the
+    every full collection walked all of them (about 400,000 objects: 120-290 ms here, which fell in the
     middle of opening a 10,000-beam site); frozen, a full collection walks only what came after.
     Why it cannot grow: it runs once per app run, after a full collection (no garbage is frozen), and
     everything made later is collected as before. An object frozen here that later becomes cyclic
