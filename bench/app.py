@@ -8,7 +8,9 @@ one-label Kivy app started the same way. Refresh: from a purlin-spacing entry on
 `core.recheck` of the same beam, measured in the same process.
 Site open in the app (issue 14 item 1): a tap on a site of 10,000 beams (1,000 with --quick, built by
 bench.site_probe, results stored) to the first frame showing the recycling list's rows, and the app
-process's own peak memory (VmHWM); baseline: the same for the demo site (13 beams).
+process's own peak memory (VmHWM), in the app's own window (1280x800, the size it sets; the row names it)
+and the median time spent in full cyclic collections during the open; baseline: the same for the demo
+site (13 beams).
 """
 
 from __future__ import annotations
@@ -151,10 +153,12 @@ def _site_open(work: Path, demo_db: Path, display: str, home: Path, n: int, repe
     med = {k: statistics.median(float(cast(float, d["site_open_s"])) for d in v) for k, v in runs.items()}
     peak = {k: max(float(cast(float, d["peak_mb"])) for d in v) for k, v in runs.items()}
     shown = int(cast(float, runs["big"][0]["beams_shown"]))
+    width, height = cast(list[int], runs["big"][0]["window"])
+    full_ms = statistics.median(float(cast(list[float], d["gc_ms"])[2]) for d in runs["big"])
     return [
         Row(
-            f"app: site open, {n:,} beams, tap to rows on screen",
-            f"{fmt_time(med['big'])}, app peak {peak['big']:.0f} MB ({shown} rows built)",
+            f"app: site open, {n:,} beams, tap to rows on screen (window {width}x{height})",
+            f"{fmt_time(med['big'])}, app peak {peak['big']:.0f} MB ({shown} rows built; full GC {full_ms:.0f} ms)",
             f"demo site (13 beams) {fmt_time(med['demo'])}, {peak['demo']:.0f} MB",
             f"{med['big'] / med['demo']:.1f}x",
             "< 0.5 s, app < 400 MB at 10k",

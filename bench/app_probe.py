@@ -5,7 +5,11 @@ bare: a one-label Kivy app (the baseline); app: bracewalk on DB, then field chan
 site: bracewalk on DB, then its first site opened (tap to the first frame showing the list's rows), with
 the process's own peak memory (VmHWM) after.
 Prints one line: BENCH {"first_frame_wall": ..., "refresh_ms": [...], "recheck_ms": [...]}
-(site: {"first_frame_wall": ..., "site_open_s": ..., "beams_shown": ..., "peak_mb": ...}).
+(site: {"first_frame_wall": ..., "site_open_s": ..., "beams_shown": ..., "window": [w, h], "gc_ms": [gen 0, 1, 2],
+"gc_full": ..., "peak_mb": ...}: the window's size in pixels, the time spent in the cyclic collector per
+generation and the number of full collections, all from the tap to the rows on screen).
+`mobile.app` is imported before Kivy's window: it sets the app's window size (1280x800, a 10-inch
+tablet in landscape), which the window takes when it opens; opened first, it was Kivy's 800x600.
 """
 
 from __future__ import annotations
@@ -53,16 +57,28 @@ if MODE == "bare":
 
     Bare().run()
 elif MODE == "site":
-    from kivy.clock import Clock
-    from kivy.core.window import Window
+    import gc
+
+    from mobile.app import BracewalkApp  # first: it sets the app's window size before the window opens
+
+    from kivy.clock import Clock  # isort: skip
+    from kivy.core.window import Window  # isort: skip
 
     from bench.common import own_peak_mb
-    from mobile.app import BracewalkApp
 
     app = BracewalkApp(DB)
+    collections: list[tuple[int, float]] = []  # (generation, seconds) of each collection during the open
+
+    def on_gc(phase: str, info: dict[str, int]) -> None:
+        if phase == "start":
+            collections.append((info["generation"], time.perf_counter()))
+        else:
+            gen, began = collections[-1]
+            collections[-1] = (gen, time.perf_counter() - began)
 
     def open_site() -> None:
         t0 = time.perf_counter()
+        gc.callbacks.append(on_gc)
 
         def flipped(*_: object) -> None:
             layout = app.root.get_screen("site").ids.beam_list.layout_manager
@@ -70,7 +86,11 @@ elif MODE == "site":
                 return
             Window.unbind(on_flip=flipped)
             out["site_open_s"] = time.perf_counter() - t0
+            gc.callbacks.remove(on_gc)
             out["beams_shown"] = len(layout.children)
+            out["window"] = list(Window.size)
+            out["gc_ms"] = [round(1000 * sum(s for g, s in collections if g == gen), 1) for gen in (0, 1, 2)]
+            out["gc_full"] = sum(1 for g, _ in collections if g == 2)
             Clock.schedule_once(lambda _dt: done(), 0.3)
 
         def done() -> None:
@@ -83,11 +103,12 @@ elif MODE == "site":
     app.bind(on_start=lambda *_: on_first_frame(open_site))
     app.run()
 else:
-    from kivy.clock import Clock
-    from kivy.core.window import Window
+    from mobile.app import BracewalkApp  # first: it sets the app's window size before the window opens
+
+    from kivy.clock import Clock  # isort: skip
+    from kivy.core.window import Window  # isort: skip
 
     from core.recheck import recheck
-    from mobile.app import BracewalkApp
 
     app = BracewalkApp(DB)
     spacings = ["1200", "1800", "2400", "3000", "1500", "2100", "2700", "1300"] * 3

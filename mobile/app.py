@@ -9,6 +9,7 @@ with its own database connection; the recheck (a few milliseconds) runs on the U
 
 from __future__ import annotations
 
+import gc
 import os
 import time
 from pathlib import Path
@@ -125,6 +126,18 @@ class BracewalkApp(App):
         self._auto_sync_timer = Clock.schedule_interval(self._auto_sync, AUTO_SYNC_POLL_S)
         return sm
 
+    def on_start(self) -> None:
+        """Freeze the start-up heap once the first frame is on screen (``freeze_start_heap``)."""
+        from kivy.core.window import Window
+
+        Window.bind(on_flip=self._first_frame)
+
+    def _first_frame(self, *_: Any) -> None:
+        from kivy.core.window import Window
+
+        Window.unbind(on_flip=self._first_frame)
+        freeze_start_heap()
+
     def _auto_sync(self, _dt: float) -> None:
         """Timer: let the background sync start or collect its work (never waits on the network)."""
         if self.background.poll(time.monotonic()) and self.root.current == "sync":
@@ -143,6 +156,10 @@ class BracewalkApp(App):
         self._auto_sync_timer.cancel()
         self.background.stop()
         self.store.close()
+        from kivy.core.window import Window
+
+        Window.unbind(on_flip=self._first_frame)  # stopped before its first frame: nothing to freeze
+        gc.unfreeze()  # the start-up heap goes back to the collector (freeze_start_heap)
 
     def set_theme(self, name: str) -> None:
         """Switch between the sunlight and the dim theme."""
@@ -172,6 +189,22 @@ class BracewalkApp(App):
         """Open a deficiency."""
         self.deficiency_id = deficiency_id
         self.go("deficiency")
+
+
+def freeze_start_heap() -> None:
+    """Collect once, then move every object still alive into the collector's permanent generation.
+
+    What stays frozen: the objects alive just after the app's first frame: imported modules and
+    classes, the kv rules, the screens and their widgets, the store. They live as long as the app, yet
+    every full collection walked all of them (about 400,000 objects: 120-290 ms here, which fell in the
+    middle of opening a 10,000-beam site); frozen, a full collection walks only what came after.
+    Why it cannot grow: it runs once per app run, after a full collection (no garbage is frozen), and
+    everything made later is collected as before. An object frozen here that later becomes cyclic
+    garbage (a widget of the first screen's list, rebuilt) is held until ``on_stop`` unfreezes the
+    heap: at most the start-up heap, never more.
+    """
+    gc.collect()
+    gc.freeze()
 
 
 def run_app(db: str | None = None) -> int:

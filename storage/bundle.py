@@ -30,6 +30,7 @@ from cryptography.exceptions import InvalidSignature
 from storage import identity
 from storage.clock import far_ahead_ms
 from storage.db import SCHEMA_VERSION, transaction
+from storage.gcpause import gc_paused
 from storage.identity import SignatureError
 from storage.oplog import (
     MAX_ID_CHARS,
@@ -741,7 +742,15 @@ def import_bundle(store: Store, path: str | Path, progress: Progress | None = No
     another process waits at most one batch; each batch is a whole unit (a killed import leaves a
     prefix of the log, and importing the same bundle again resumes it).
     ``progress(fraction, what)`` is called as the work goes (for a progress bar).
+    Automatic cyclic collection is paused for the import (``storage.gcpause``): its ops and rows live
+    to the end, so collecting during it finds nothing.
     """
+    with gc_paused():
+        return _import_bundle(store, path, progress)
+
+
+def _import_bundle(store: Store, path: Path | str, progress: Progress | None) -> ImportReport:
+    """``import_bundle``'s work (run with the collector paused)."""
     tell = progress or _silent
     tell(0.0, "verifying")
     path = Path(path)

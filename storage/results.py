@@ -24,6 +24,7 @@ from typing import Any
 from pydantic import ValidationError
 
 from storage.db import transaction
+from storage.gcpause import gc_paused
 
 UNCHECKED = "unchecked"  # the record is incomplete (or refused): nothing to recheck yet
 PENDING = "pending"  # the placeholder row a new beam gets (storage/db.py migration 4) until its first recheck
@@ -398,11 +399,14 @@ def recheck_all(
     The rechecks run in ``processes`` worker processes (1 = in this process), ``chunk`` beams a task;
     each worker also encodes its rows for storage, so this process only reads the records, compares
     the light columns with the stored ones and writes rows, ``commit_rows`` a transaction.
+    This process runs with automatic cyclic collection paused (``storage.gcpause``): what it builds (the
+    stored results, the jobs, the rows) lives to the end. The workers are started before it and pause
+    their own collector for each part (``_rows_of``).
     """
     from storage import firm_tables
 
     firm_tables.apply(db)  # before any worker starts: workers inherit the firm's table rows
-    with _workers(processes) as pool:  # started before the records are read: workers do not inherit them
+    with _workers(processes) as pool, gc_paused():  # workers fork first: they inherit neither records nor pause
         before = _before(db, site_id)
         todo = list(jobs(db, site_id, only_stale=False))
         total = len(todo)
@@ -454,8 +458,13 @@ def _workers(processes: int) -> Iterator[Any]:
 
 
 def _rows_of(part: list[Job]) -> list[tuple[Any, ...]]:
-    """Recheck a part of the jobs into ``beam_result`` rows (run in a worker: small tuples to send back)."""
-    return [row_of(j) for j in part]
+    """Recheck a part of the jobs into ``beam_result`` rows (run in a worker: small tuples to send back).
+
+    Automatic cyclic collection is paused for the part (a recheck makes no reference cycles: after a
+    paused portfolio recheck of 10,000 beams in one process, ``gc.collect()`` found none).
+    """
+    with gc_paused():
+        return [row_of(j) for j in part]
 
 
 def row_of(job: Job) -> tuple[Any, ...]:

@@ -13,6 +13,7 @@ from core.results import PRIORITY_ORDER
 from mobile.viewmodels.common import PRIORITY_LABELS, STAGE_WORDS, STATUS_WORDS, status_label
 from storage import Store, results
 from storage.clock import uuid7
+from storage.gcpause import gc_paused
 
 # A new beam holds nothing that looks measured: span, size, loads and bearings start "not yet
 # entered" and the recheck lists what it still needs. Pickers start on the most common member.
@@ -45,10 +46,12 @@ class SiteViewModel:
         """[(beam_id, record, status)] for the site's beams, from the stored results.
 
         Only results made stale by a change (the beam, the site's design bases, the firm's tables)
-        are rechecked (``storage.results``); the rest are read as stored.
+        are rechecked (``storage.results``); the rest are read as stored. Automatic cyclic collection
+        is paused while they are read (``storage.gcpause``): every row read lives on in the list.
         """
-        results.refresh(self.store.db, self.site_id)
-        return results.site_list(self.store.db, self.site_id)
+        with gc_paused():
+            results.refresh(self.store.db, self.site_id)
+            return results.site_list(self.store.db, self.site_id)
 
     def groups(
         self,

@@ -72,6 +72,8 @@ def test_app_end_to_end_under_xvfb(tmp_path):
     shutil.rmtree(shots, ignore_errors=True)
     out = run_app(tmp_path / "ui.db", shots, "main", tmp_path / "home")
     assert "UI-OK" in out, out[-3000:]
+    # the frozen start-up heap is unfrozen when the app stops (Python docs, gc.get_freeze_count)
+    assert "FROZEN-AFTER-STOP 0" in out, out[-3000:]
     assert len(list(shots.glob("*.png"))) >= 12
     assert list((shots / "sync").glob("*.bwsync"))
     assert list((shots / "exported").glob("*.pdf"))

@@ -9,6 +9,7 @@ window size), "type-then-kill" (type a note, wait for the autosave, then SIGKILL
 Prints UI-OK (or UI-FAIL at <step>) and flushes, then stops the app.
 """
 
+import gc
 import inspect
 import os
 import signal
@@ -215,7 +216,10 @@ if FLOW == "main":
 
     @step
     def first_frame():
-        pass  # let the first frames draw
+        # after the first frame the app froze its start-up heap (mobile.app.freeze_start_heap); collector on
+        if gc.get_freeze_count() == 0:
+            raise TimeoutError  # no frame drawn yet: the runner retries
+        assert gc.isenabled()
 
     @step
     def sites():
@@ -861,7 +865,10 @@ elif FLOW == "layout":
 
     @step
     def first_frame():
-        pass  # let the first frames draw
+        # after the first frame the app froze its start-up heap (mobile.app.freeze_start_heap); collector on
+        if gc.get_freeze_count() == 0:
+            raise TimeoutError  # no frame drawn yet: the runner retries
+        assert gc.isenabled()
 
     @step
     def sites_layout():
@@ -1071,3 +1078,4 @@ def advance(fn, gen):
 
 Clock.schedule_once(run_next, 1.0)
 app.run()
+print(f"FROZEN-AFTER-STOP {gc.get_freeze_count()}", flush=True)  # on_stop gave the start-up heap back
