@@ -143,6 +143,12 @@ def layout_problems(screen_name):
     return [f"{screen_name}: {p}" for p in problems]
 
 
+def _enrol_form(s):
+    """What the Sync screen shows of its enrolment form (for an assertion's message)."""
+    ids = s.ids
+    return s.enrolled_text, s.form_shown, ids.enroll.height, ids.enroll.disabled, ids.enrol_again.height
+
+
 def check_layout(screen_name):
     problems = layout_problems(screen_name)
     assert not problems, "\n".join(problems[:12])
@@ -689,20 +695,8 @@ elif FLOW == "hub":
         s = screen("sync")
         assert "Not enrolled" in s.hub_text, s.hub_text
         assert s.ids.sync_now.disabled  # nothing to sync with yet
-        assert s.ids.enroll.height > 0, (
-            s.enrolled_text,
-            s.form_shown,
-            s.ids.enroll.height,
-            s.ids.enroll.disabled,
-            s.ids.enrol_again.height,
-        )
-        assert s.ids.enrol_again.height == 0, (
-            s.enrolled_text,
-            s.form_shown,
-            s.ids.enroll.height,
-            s.ids.enroll.disabled,
-            s.ids.enrol_again.height,
-        )
+        assert s.ids.enroll.height > 0, _enrol_form(s)
+        assert s.ids.enrol_again.height == 0, _enrol_form(s)
         yield from shot(f"{GEOM}-hub-1-not-enrolled")
         s.ids.hub_url.text = HUB_URL
         s.ids.enrol_code.text = HUB_CODE
@@ -717,65 +711,17 @@ elif FLOW == "hub":
         assert "in step at" in s.hub_text, s.hub_text
         assert s.ids.enrol_code.text == ""  # the one-time code is spent
         # enrolled: the form is folded away (0 high, no touch) behind "Enrol again", which unfolds it
-        assert "enrolled at" in s.enrolled_text, (
-            s.enrolled_text,
-            s.form_shown,
-            s.ids.enroll.height,
-            s.ids.enroll.disabled,
-            s.ids.enrol_again.height,
-        )
-        assert s.ids.enroll.height == 0, (
-            s.enrolled_text,
-            s.form_shown,
-            s.ids.enroll.height,
-            s.ids.enroll.disabled,
-            s.ids.enrol_again.height,
-        )
-        assert s.ids.enroll.disabled, (
-            s.enrolled_text,
-            s.form_shown,
-            s.ids.enroll.height,
-            s.ids.enroll.disabled,
-            s.ids.enrol_again.height,
-        )
-        assert s.ids.enrol_again.height > 0, (
-            s.enrolled_text,
-            s.form_shown,
-            s.ids.enroll.height,
-            s.ids.enroll.disabled,
-            s.ids.enrol_again.height,
-        )
-        assert not s.ids.enrol_again.disabled, (
-            s.enrolled_text,
-            s.form_shown,
-            s.ids.enroll.height,
-            s.ids.enroll.disabled,
-            s.ids.enrol_again.height,
-        )
+        assert "enrolled at" in s.enrolled_text, _enrol_form(s)
+        assert s.ids.enroll.height == 0, _enrol_form(s)
+        assert s.ids.enroll.disabled, _enrol_form(s)
+        assert s.ids.enrol_again.height > 0, _enrol_form(s)
+        assert not s.ids.enrol_again.disabled, _enrol_form(s)
         check_layout("sync")
         yield from shot(f"{GEOM}-hub-2-enrolled")
         s.ids.enrol_again.trigger_action(0)
-        assert s.ids.enroll.height > 0, (
-            s.enrolled_text,
-            s.form_shown,
-            s.ids.enroll.height,
-            s.ids.enroll.disabled,
-            s.ids.enrol_again.height,
-        )
-        assert not s.ids.enroll.disabled, (
-            s.enrolled_text,
-            s.form_shown,
-            s.ids.enroll.height,
-            s.ids.enroll.disabled,
-            s.ids.enrol_again.height,
-        )
-        assert s.ids.enrol_again.height == 0, (
-            s.enrolled_text,
-            s.form_shown,
-            s.ids.enroll.height,
-            s.ids.enroll.disabled,
-            s.ids.enrol_again.height,
-        )
+        assert s.ids.enroll.height > 0, _enrol_form(s)
+        assert not s.ids.enroll.disabled, _enrol_form(s)
+        assert s.ids.enrol_again.height == 0, _enrol_form(s)
         yield from shot(f"{GEOM}-hub-2a-enrol-again")  # waits for the frame that lays the form out again
         check_layout("sync")
         s.enrol_open = False
