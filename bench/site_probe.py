@@ -15,13 +15,7 @@ import sys
 import time
 from typing import Any
 
-
-def peak_mb() -> float:
-    """Peak resident memory of this process's own program, MB (VmHWM, see bench.common.own_peak_mb)."""
-    from bench.common import own_peak_mb
-
-    return own_peak_mb()
-
+from bench.common import own_peak_mb
 
 BEAM: dict[str, Any] = {  # an invented roof beam (demo-style input, not a check value)
     "material": "glulam",
@@ -148,5 +142,5 @@ if __name__ == "__main__":
         out = site_open(path, old=mode == "old")
     elif mode == "recheck":
         out = portfolio(path, int(sys.argv[3]))
-    out["peak_mb"] = peak_mb()
+    out["peak_mb"] = own_peak_mb()
     print("BENCH " + json.dumps(out), flush=True)

@@ -16,14 +16,9 @@ import sys
 import time
 from pathlib import Path
 
+from bench.common import own_peak_mb
+
 KEY = "bench-only-firm-key"
-
-
-def peak_mb() -> float:
-    """Peak resident memory of this process's own program, MB (VmHWM, see bench.common.own_peak_mb)."""
-    from bench.common import own_peak_mb
-
-    return own_peak_mb()
 
 
 def build(db: str, n: int) -> None:
@@ -87,5 +82,5 @@ if __name__ == "__main__":
         out["outcomes"] = sorted({r.outcome for r in reports})
         out["ops_new"] = sum(r.ops_new for r in reports)
     out["seconds"] = time.perf_counter() - t0
-    out["peak_mb"] = peak_mb()
+    out["peak_mb"] = own_peak_mb()
     print("BENCH " + json.dumps(out), flush=True)

@@ -9,6 +9,7 @@ fits the beam, and a row that fits no region of the beam is refused with the rea
 from __future__ import annotations
 
 from dataclasses import dataclass
+from functools import lru_cache
 
 from core import tables
 
@@ -44,23 +45,14 @@ def chosen_row(le_case: str, kind: RegionKind) -> tuple[dict[str, str], str]:
 
     le_case: ``auto`` or a row name chosen by the reviewer. The default never picks a memory row:
     the span of a simple span under uniform load takes ``simple_udl``, every other region ``any``.
-    Found once per (tables generation, le_case, kind), as the member cache is (few keys: a row name
-    and three flags).
+    Found once per (tables generation, le_case, kind) (few keys: a row name and three flags).
     """
-    key = (tables.generation(), le_case, kind)
-    hit = _CHOSEN.get(key)
-    if hit is None:
-        if len(_CHOSEN) >= _CHOSEN_MAX:
-            _CHOSEN.clear()
-        hit = _CHOSEN[key] = _chosen_row(le_case, kind)
-    return hit
+    return _chosen_row(tables.generation(), le_case, kind)
 
 
-_CHOSEN: dict[tuple[int, str, RegionKind], tuple[dict[str, str], str]] = {}
-_CHOSEN_MAX = 1024
-
-
-def _chosen_row(le_case: str, kind: RegionKind) -> tuple[dict[str, str], str]:
+@lru_cache(maxsize=1024)
+def _chosen_row(generation: int, le_case: str, kind: RegionKind) -> tuple[dict[str, str], str]:
+    del generation  # the cache key only: a firm's correction gives a new generation
     if le_case != AUTO:
         row = tables.find("effective_length", le_case=le_case)
         reason = row_fits(row, kind)

@@ -7,6 +7,7 @@ the value and what is allowed.
 from __future__ import annotations
 
 from enum import StrEnum
+from functools import lru_cache
 from typing import Annotated, Any
 
 from pydantic import AfterValidator, BaseModel, ConfigDict, Field, field_validator, model_validator
@@ -233,36 +234,31 @@ def le_cases_allowed() -> list[str]:
 def _grades_by_species(material: Material) -> dict[str, frozenset[str]]:
     """Species -> the grades the tables hold for it (``species_allowed``, ``grades_allowed`` as sets).
 
-    Built once per material and tables generation (a firm's records may change rows), as the member
-    cache is: a beam's validation then does no table scan.
+    Built once per material and tables generation (a firm's records may change rows): a beam's
+    validation then does no table scan.
     """
-    key = (tables.generation(), material)
-    hit = _GRADE_SETS.get(key)
-    if hit is None:
-        name = "glulam_grades" if material is Material.glulam else "sawn_grades"
-        found: dict[str, set[str]] = {}
-        for row in tables.load(name).rows:
-            found.setdefault(row["species"], set()).add(row["grade"])
-        if len(_GRADE_SETS) >= _SETS_MAX:
-            _GRADE_SETS.clear()
-        hit = _GRADE_SETS[key] = {species: frozenset(grades) for species, grades in found.items()}
-    return hit
+    return _grade_sets(tables.generation(), material)
+
+
+@lru_cache(maxsize=16)
+def _grade_sets(generation: int, material: Material) -> dict[str, frozenset[str]]:
+    del generation  # the cache key only: a firm's correction gives a new generation
+    name = "glulam_grades" if material is Material.glulam else "sawn_grades"
+    found: dict[str, set[str]] = {}
+    for row in tables.load(name).rows:
+        found.setdefault(row["species"], set()).add(row["grade"])
+    return {species: frozenset(grades) for species, grades in found.items()}
 
 
 def _le_cases() -> frozenset[str]:
     """``le_cases_allowed`` as a set, built once per tables generation."""
-    key = tables.generation()
-    hit = _LE_CASES.get(key)
-    if hit is None:
-        if len(_LE_CASES) >= _SETS_MAX:
-            _LE_CASES.clear()
-        hit = _LE_CASES[key] = frozenset(le_cases_allowed())
-    return hit
+    return _le_case_set(tables.generation())
 
 
-_GRADE_SETS: dict[tuple[int, Material], dict[str, frozenset[str]]] = {}
-_LE_CASES: dict[int, frozenset[str]] = {}
-_SETS_MAX = 16
+@lru_cache(maxsize=16)
+def _le_case_set(generation: int) -> frozenset[str]:
+    del generation  # the cache key only
+    return frozenset(le_cases_allowed())
 
 
 class Beam(Record):

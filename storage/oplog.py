@@ -10,9 +10,10 @@ from __future__ import annotations
 import hashlib
 import json
 import sqlite3
-from collections.abc import Iterable, Sequence
+from collections.abc import Callable, Iterable, Sequence
 from dataclasses import dataclass
 from enum import StrEnum
+from functools import partial
 from typing import Any
 
 import sqlite_utils
@@ -373,16 +374,15 @@ class ProjectionBatch:
 
     def op_seq_at(self, origin: str, hlc: int, entity: str, record_id: str) -> int | None:
         """The least seq of an op of ``origin`` stamped ``hlc`` on this record, held or added by the batch."""
-        stored = _op_seq_at(self.db, origin, hlc, entity, record_id)
-        added = self.new_at.get((origin, hlc, entity, record_id))
-        return min(stored, added) if stored is not None and added is not None else stored if added is None else added
+        found = [_op_seq_at(self.db, origin, hlc, entity, record_id), self.new_at.get((origin, hlc, entity, record_id))]
+        return min((s for s in found if s is not None), default=None)
 
     def _holds(self, origin: str, seq: int) -> bool:
         """Whether op ``origin:seq`` is in the log as the batch sees it (read from the table if not known)."""
         key = (origin, seq)
         if key in self.held:
             return self.held[key] is not None
-        return self.db.execute("SELECT 1 FROM op WHERE origin=? AND seq=?", [origin, seq]).fetchone() is not None
+        return _has_op(self.db, origin, seq)
 
     def advance_seen(self, origin: str, seq: int) -> None:
         """An op of ``origin`` was inserted: move the contiguous high-water mark if it closes the run."""
@@ -394,16 +394,10 @@ class ProjectionBatch:
             self.held_max[origin] = max([top[0] or 0, *added])
         if seq == self.seen[origin] + 1:
             # ops held beyond it (from an earlier bundle or earlier in this one) can close a longer run
-            self.seen[origin] = self._contiguous_from(origin, seq) if seq < self.held_max[origin] else seq
+            holds = partial(self._holds, origin)  # the log as the batch sees it
+            self.seen[origin] = _contiguous_from(holds, seq) if seq < self.held_max[origin] else seq
         else:
             self.held_max[origin] = max(self.held_max[origin], seq)
-
-    def _contiguous_from(self, origin: str, seq: int) -> int:
-        """``_contiguous_from`` over the log as the batch sees it."""
-        nxt = seq
-        while self._holds(origin, nxt + 1):
-            nxt += 1
-        return nxt
 
     def load(self, table: str, record_id: str) -> tuple[dict[str, Any] | None, str | None]:
         """The row (data, content hash) as the batch sees it."""
@@ -575,14 +569,22 @@ def insert_op(
     seen = db.execute("SELECT seq FROM seen WHERE origin=?", [op.origin]).fetchone()
     have = seen[0] if seen else 0
     if op.seq == have + 1:
-        db.execute("INSERT OR REPLACE INTO seen VALUES (?, ?)", [op.origin, _contiguous_from(db, op.origin, op.seq)])
+        db.execute(
+            "INSERT OR REPLACE INTO seen VALUES (?, ?)",
+            [op.origin, _contiguous_from(partial(_has_op, db, op.origin), op.seq)],
+        )
     return True
 
 
-def _contiguous_from(db: sqlite_utils.Database, origin: str, seq: int) -> int:
-    """The last seq of the unbroken run of held ops of ``origin`` that starts at ``seq``."""
+def _has_op(db: sqlite_utils.Database, origin: str, seq: int) -> bool:
+    """Whether the log holds op ``origin:seq``."""
+    return db.execute("SELECT 1 FROM op WHERE origin=? AND seq=?", [origin, seq]).fetchone() is not None
+
+
+def _contiguous_from(holds: Callable[[int], bool], seq: int) -> int:
+    """The last seq of the unbroken run of held ops of one origin that starts at ``seq`` (``holds(seq)``)."""
     nxt = seq
-    while db.execute("SELECT 1 FROM op WHERE origin=? AND seq=?", [origin, nxt + 1]).fetchone():
+    while holds(nxt + 1):
         nxt += 1
     return nxt
 

@@ -31,13 +31,12 @@ class LoadCase(NamedTuple):
     relieving: str = ""  # the elements carrying 0.9D in a split pattern ("" when the dead-load factor is uniform)
 
 
-def live_patterns(n_el: int) -> list[tuple[bool, ...]]:
-    """Live and snow patterns: every non-empty subset of elements (all elements for one element)."""
-    return list(_live_patterns(n_el))
-
-
 @cache
-def _live_patterns(n_el: int) -> tuple[tuple[bool, ...], ...]:
+def live_patterns(n_el: int) -> tuple[tuple[bool, ...], ...]:
+    """Live and snow patterns: every non-empty subset of elements (all elements for one element).
+
+    Built once per element count (the same for every beam).
+    """
     if n_el == 1:
         return ((True,),)
     return tuple(p for p in product((True, False), repeat=n_el) if any(p))
@@ -76,7 +75,7 @@ def load_cases(beam: Beam, member: Member, model: BeamModel) -> list[LoadCase]:
             continue
         kd, note = combination_kd(combo, dead, live, snow)
         variable = combo.alpha_l * live + combo.alpha_s * snow
-        patterns = [(True,) * n_el] if combo.dead_load_only or variable == 0 else _live_patterns(n_el)
+        patterns = [(True,) * n_el] if combo.dead_load_only or variable == 0 else live_patterns(n_el)
         for pattern in patterns:
             w = tuple(combo.alpha_d * dead + (variable if on else 0.0) for on in pattern)
             name = "" if combo.dead_load_only else _pattern_name(model, pattern)

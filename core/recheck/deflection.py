@@ -103,11 +103,10 @@ def _spans(model: BeamModel) -> tuple[float, ...]:
 
 def _strictest_limit(model: BeamModel, checks: list[tuple[str, dict[str, str], float, float]]) -> Worst:
     """With no load at all: the smallest limit (span / ratio) over every check and element, nothing deflecting."""
-    spans = [deflection_span_mm(el.length_mm, el.kind is ElementKind.overhang) for el in model.elements]
     limits = [
         (deflection_limit_mm(span, float(row["ratio"])), el.name, row)
         for _, row, _, _ in checks
-        for el, span in zip(model.elements, spans, strict=True)
+        for el, span in zip(model.elements, _spans(model), strict=True)
     ]
     limit, element, row = min(limits, key=lambda x: x[0])
     return 0.0, 0.0, limit, "no load", element, row

@@ -106,16 +106,20 @@ def _state(db):
     return out
 
 
+def _merge_one_at_a_time(db, ops):
+    with transaction(db):
+        for op in ops:
+            if insert_op(db, op):
+                apply_op(db, op)
+
+
 @pytest.mark.parametrize("seed", range(6))
 @pytest.mark.parametrize("batch_ops", [1, 7, 64, 10_000])
 def test_batched_merge_equals_merging_one_op_at_a_time(tmp_path, seed, batch_ops):
     """Reference: the same ops through insert_op + apply_op with no batch (each read and write straight to SQL)."""
     ops = _random_ops(seed, 300)
     one = connect(tmp_path / "one.db")
-    with transaction(one):
-        for op in ops:
-            if insert_op(one, op):
-                apply_op(one, op)
+    _merge_one_at_a_time(one, ops)
     many = connect(tmp_path / "many.db")
     for start in range(0, len(ops), batch_ops):
         chunk = ops[start : start + batch_ops]
@@ -174,13 +178,6 @@ def test_value_size_limit_holds_at_its_boundary():
 def test_canonical_is_sorted_compact_json(value):
     """Python's json module with sorted keys, no spaces, non-ASCII kept (the stored and hashed form)."""
     assert canonical(value) == json.dumps(value, sort_keys=True, separators=(",", ":"), ensure_ascii=False)
-
-
-def _merge_one_at_a_time(db, ops):
-    with transaction(db):
-        for op in ops:
-            if insert_op(db, op):
-                apply_op(db, op)
 
 
 @pytest.mark.parametrize("seed", range(4))
