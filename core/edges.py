@@ -169,7 +169,7 @@ def _compression_edge(beam: Beam, model: BeamModel, region: Region, assume_restr
         inside = [x for x in points if region.x0_mm < x < region.x1_mm]
         cuts = sorted({region.x0_mm, region.x1_mm, *inside})
         zone = max(b - a for a, b in pairwise(cuts))
-        option = "zero-moment point as brace (reviewer's option, not the default; reference o86.md 13)"
+        option = "zero-moment point as brace (reviewer's option, not the default)"
         how = f"{zone:.0f} mm from a restrained bearing to the point of zero moment; {option}"
     else:
         zone = between

@@ -69,7 +69,8 @@ def _chosen_row(generation: int, le_case: str, kind: RegionKind) -> tuple[dict[s
         if kind.cantilever
         else ("simple span braced between supports" if kind.simple_span else "region of a continuous beam")
     )
-    return tables.find("effective_length", le_case="any"), f"{what}: conservative catch-all (memory rows never default)"
+    why = f"{what}: conservative catch-all (a row not yet confirmed is never chosen by default)"
+    return tables.find("effective_length", le_case="any"), why
 
 
 def beam_fit_error(le_case: str, kinds: list[RegionKind]) -> str | None:

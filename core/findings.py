@@ -6,7 +6,7 @@ from core import tables
 from core.clauses.stability import bearing_restraint_required
 from core.kinds import FindingCode, MomentSign, Outcome
 from core.member import Member
-from core.models import Beam, DeadLoadPattern, Material, NegativeLu, Restraint, TopBracing, TopStamp
+from core.models import Beam, DeadLoadPattern, Material, NegativeLu, Restraint, TopBracing, TopStamp, Use
 from core.results import (
     PRIORITY_ORDER,
     BearingCheck,
@@ -19,6 +19,31 @@ from core.results import (
 )
 
 FINDING_CODES = tuple(code.value for code in FindingCode)  # kept for callers that list the codes
+
+# Snow is a load nobody on site can keep off a member (common practice: an overstress under a snow
+# combination is made safe by shoring, not by an instruction not to load).
+DEAD_MAKE_SAFE = (
+    "Make safe now: the member is overstressed under the dead load as it stands; have it propped and tell the "
+    "site superintendent today. "
+)
+SNOW_MAKE_SAFE = (
+    "Make safe now: snow can load this member at any time and cannot be kept off it reliably; have it shored "
+    "or propped before snow builds up and tell the site superintendent today. "
+)
+
+
+def overstress_urgency(dead_load_only: bool, snow_in_combination: bool, action: str) -> tuple[Priority, str]:
+    """Priority and action of a strength overstress under its governing combination.
+
+    Dead load alone: immediate, with the propping instruction first (the member is overstressed as it
+    stands). A combination with snow: immediate, with the shoring instruction first (a contractor cannot
+    keep snow off). Otherwise before loading (the contractor controls the live load).
+    """
+    if dead_load_only:
+        return Priority.immediate, DEAD_MAKE_SAFE + action
+    if snow_in_combination:
+        return Priority.immediate, SNOW_MAKE_SAFE + action
+    return Priority.before_loading, action
 
 
 def _support_label(j: int, n: int) -> str:
@@ -97,20 +122,22 @@ def bending_findings(beam: Beam, bending: list[BendingRegion]) -> list[Finding]:
                 )
             )
         elif r.outcome is Outcome.overstress and r.utilisation is not None and r.mr_knm is not None:
-            dead_only = r.dead_load_only
+            priority, action = overstress_urgency(
+                r.dead_load_only,
+                r.snow_in_combination,
+                "Do not load beyond its present load; refer to the engineer of record for a repair, "
+                "added bracing or a replacement member.",
+            )
             out.append(
                 Finding(
                     code=FindingCode.bending_overstress,
-                    priority=Priority.immediate if dead_only else Priority.before_loading,
+                    priority=priority,
                     region=r.region,
                     message=(
                         f"{beam.mark}, {r.region}: factored moment {r.mf_knm:.1f} kN·m exceeds the "
                         f"resistance {r.mr_knm:.1f} kN·m (utilisation {r.utilisation:.2f}, {r.combination})."
                     ),
-                    action=(
-                        "Do not load beyond its present load; refer to the engineer of record for a repair, "
-                        "added bracing or a replacement member."
-                    ),
+                    action=action,
                     clause=r.clause,
                 )
             )
@@ -238,7 +265,7 @@ def option_findings(beam: Beam) -> list[Finding]:
                     "(not the default: a point of zero moment is not a lateral support)."
                 ),
                 action="The engineer of record accepts or rejects this option.",
-                clause="CSA O86-19 7.5.6.4; reference o86.md 13",
+                clause="CSA O86-19 7.5.6.4",
             )
         )
     if beam.dead_load_pattern is DeadLoadPattern.uniform:
@@ -251,7 +278,7 @@ def option_findings(beam: Beam) -> list[Finding]:
                     "0.9D on the parts that relieve the effect and 1.25D on the rest)."
                 ),
                 action="The engineer of record accepts or rejects this option.",
-                clause="NBC 4.1.3.2; reference o86.md 13",
+                clause="NBC 4.1.3.2",
             )
         )
     return out
@@ -262,19 +289,29 @@ def top_edge_findings(beam: Beam) -> list[Finding]:
     top = beam.top_edge
     if top.braced_by is TopBracing.none or top.fastened is not False:
         return []
+    what = "the purlins are" if top.braced_by is TopBracing.purlins else "the decking is"
     return [
         Finding(
             code=FindingCode.compression_edge_unbraced,
             priority=Priority.before_loading,
             region="top edge",
             message=(
-                f"{beam.mark}: the {top.braced_by.value} on the top edge are not fastened, so they do not brace "
-                "the compression edge; the recheck treats the top edge as unbraced between supports."
+                f"{beam.mark}: {what} not fastened to the top edge, so the compression edge is not braced; the "
+                "recheck treats the top edge as unbraced between supports."
             ),
-            action="Fasten the purlins or decking as detailed before any roofing material or snow load is placed.",
-            clause="CSA O86-19 7.5.6.4.2",
+            action=f"Fasten the {top.braced_by.value} as detailed before {_further_load(beam)} is placed.",
+            clause="CSA O86-19 7.5.6.4.2" if beam.material is Material.glulam else "CSA O86-19 6.5.3.2.1",
         )
     ]
+
+
+def _further_load(beam: Beam) -> str:
+    """The loads still to come on a member, in words, by what it supports (use) and its logged loads."""
+    if beam.use is Use.floor:
+        return "any floor finish, stored material or other load"
+    if beam.use is not None or beam.loads.snow_kn_m > 0:
+        return "any roofing material or snow load"
+    return "any further load (roofing, flooring, stored material or snow)"
 
 
 def layup_findings(beam: Beam, member: Member) -> list[Finding]:
@@ -314,30 +351,40 @@ def check_findings(
     """Shear, bearing and deflection over their limits."""
     out = []
     if shear.utilisation > 1.0:
+        priority, action = overstress_urgency(
+            shear.dead_load_only,
+            shear.snow_in_combination,
+            "Refer to the engineer of record before further loading.",
+        )
         out.append(
             Finding(
                 code=FindingCode.shear_overstress,
-                priority=Priority.before_loading,
+                priority=priority,
                 message=(
                     f"{beam.mark}: factored shear {shear.vf_kn:.1f} kN exceeds the resistance {shear.vr_kn:.1f} kN "
                     f"(utilisation {shear.utilisation:.2f}, {shear.combination})."
                 ),
-                action="Refer to the engineer of record before further loading.",
+                action=action,
                 clause=shear.clause,
             )
         )
     for b in bearing:
         if b.utilisation > 1.0:
+            priority, action = overstress_urgency(
+                b.dead_load_only,
+                b.snow_in_combination,
+                "Lengthen the bearing or add a bearing plate as directed by the engineer of record.",
+            )
             out.append(
                 Finding(
                     code=FindingCode.bearing_overstress,
-                    priority=Priority.before_loading,
+                    priority=priority,
                     region=f"support {b.support}",
                     message=(
                         f"{beam.mark} at support {b.support}: factored reaction {b.qf_kn:.1f} kN exceeds the bearing "
                         f"resistance {b.qr_kn:.1f} kN over {b.length_mm:g} mm (utilisation {b.utilisation:.2f})."
                     ),
-                    action="Lengthen the bearing or add a bearing plate as directed by the engineer of record.",
+                    action=action,
                     clause=b.clause,
                 )
             )

@@ -90,7 +90,10 @@ def treatment_factors(beam: Beam) -> tuple[float, float, FactorTrace]:
             symbol="KT",
             value=kt,
             clause="CSA O86-19 6.4.3 / Table 6.11",
-            source=f"treatment_factors: {beam.treatment.value}, {beam.service.value}; KT(E) {kt_e:g}",
+            source=(
+                f"treatment_factors: {beam.material.value}, {beam.treatment.value}, {beam.service.value}; "
+                f"KT(E) {kt_e:g}"
+            ),
             status=TraceStatus(row["status"]),
         ),
     )
@@ -152,7 +155,7 @@ def _member_properties(beam: Beam) -> Member:
             symbol="grade",
             value=f"{beam.species} {beam.grade}",
             clause="CSA O86-19 Table 7.3" if table == "glulam_grades" else "CSA O86-19 Table 6.4",
-            source=f"{table} row " + ", ".join(f"{k} {v}" for k, v in row.items() if k != "status"),
+            source=f"{table} row " + ", ".join(f"{k} {v}" for k, v in row.items() if k != "status" and v != ""),
             status=TraceStatus(row["status"]),
         )
     ]

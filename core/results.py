@@ -82,6 +82,7 @@ class BendingRegion(Out):
     compression_edge: str  # in words, for people; decisions use the flags below
     compression_edge_unbraced: bool = False  # nothing braces the compression edge between its restraints
     dead_load_only: bool = False  # the governing combination is dead load alone (1.4D, permanent KD)
+    snow_in_combination: bool = False  # the governing combination includes snow (nobody on site can keep it off)
     trace: list[FactorTrace]
     # not established only: what the member would give if its bearings were restrained (an upper bound;
     # the real capacity is lower). None when even that is not permitted (CB > 50; said in the trace).
@@ -101,6 +102,8 @@ class ShearCheck(Out):
     kd: float
     clause: str
     trace: list[FactorTrace]
+    dead_load_only: bool = False  # the governing combination is dead load alone (1.4D, permanent KD)
+    snow_in_combination: bool = False  # the governing combination includes snow (nobody on site can keep it off)
 
 
 class BearingCheck(Out):
@@ -117,6 +120,8 @@ class BearingCheck(Out):
     uplift_kn: float | None = None  # largest factored uplift (negative reaction), kN; None when none
     uplift_combination: str | None = None
     lifts_now: bool = False  # the specified dead load alone already lifts the member off this bearing
+    dead_load_only: bool = False  # the governing combination is dead load alone (1.4D, permanent KD)
+    snow_in_combination: bool = False  # the governing combination includes snow (nobody on site can keep it off)
 
 
 class DeflectionCheck(Out):

@@ -8,7 +8,7 @@ from core.clauses.factors import factored_strength
 from core.kinds import TraceStatus
 from core.member import Member
 from core.models import Beam, Bearing, Material
-from core.recheck.cases import LoadCase
+from core.recheck.cases import LoadCase, carries_snow
 from core.recheck.trace import KN_PER_N, case_label, kd_trace, line
 from core.results import BearingCheck, FactorTrace
 
@@ -84,6 +84,8 @@ def _one_bearing(
         uplift_kn=None if uplift is None else uplift * KN_PER_N,
         uplift_combination=None if uplift is None else case_label(lowest[1]),
         lifts_now=lifts_now,
+        dead_load_only=case.combo.dead_load_only,
+        snow_in_combination=carries_snow(case, beam),
     )
 
 

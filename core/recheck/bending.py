@@ -26,7 +26,7 @@ from core.effective_length import chosen_row
 from core.kinds import ElementKind, MomentSign, Outcome, TraceStatus
 from core.member import Member
 from core.models import Beam, Material, NegativeLu
-from core.recheck.cases import LoadCase
+from core.recheck.cases import LoadCase, carries_snow
 from core.recheck.trace import KNM_PER_NMM, case_label, kd_trace, line, note
 from core.results import BendingRegion, FactorTrace
 
@@ -68,7 +68,7 @@ def _head_trace(
             value=fb_spec,
             unit="MPa",
             clause="CSA O86-19 Table 7.3 note" if not sawn else "CSA O86-19 Table 6.4",
-            source=f"top stamp {beam.top_stamp.value}" if not sawn else f"{beam.species} {beam.grade}",
+            source=f"{beam.species} {beam.grade}" + ("" if sawn else f", top stamp {beam.top_stamp.value}"),
             status=member.grade_status,
         ),
         line(
@@ -128,6 +128,7 @@ def bending_check(
         "utilisation": None,
         "compression_edge_unbraced": edge.unbraced,
         "dead_load_only": case.combo.dead_load_only,
+        "snow_in_combination": carries_snow(case, beam),
     }
     if trace is not None:
         trace += _head_trace(beam, member, region, case, edge, fb_spec, face, fb)
@@ -246,7 +247,7 @@ def _sawn_kl(
         trace,
         "E05",
         e,
-        "CSA O86-19 6.5.3.2 (reference Q2)",
+        "CSA O86-19 6.5.3.2",
         f"d/b = {db:.2f} > {limit:g}: glulam KL method with E05 (conservative choice)",
         "memory",
     )
@@ -254,7 +255,7 @@ def _sawn_kl(
     # rotation as well as displacement (bridging, blocking, bearings), never zero for a held edge.
     lu = edge.lu_rotation_mm
     out["lu_mm"] = lu
-    note(trace, "Lu", round(lu), "CSA O86-19 6.5.3.2; reference o86.md 13", edge.rotation_how, "memory", "mm")
+    note(trace, "Lu", round(lu), "CSA O86-19 6.5.3.2 (memory)", edge.rotation_how, "memory", "mm")
     return _kl_from_lu(beam, member, edge, fb, e, lu, out, trace)
 
 

@@ -56,6 +56,11 @@ def _total(w: tuple[float, ...], model: BeamModel) -> float:
     return sum(wi * li for wi, li in zip(w, model.lengths, strict=True))
 
 
+def carries_snow(case: LoadCase, beam: Beam) -> bool:
+    """Whether a case includes snow (principal or companion): a load nobody on site can keep off the member."""
+    return case.combo.alpha_s > 0 and beam.loads.snow_kn_m > 0
+
+
 def load_cases(beam: Beam, member: Member, model: BeamModel) -> list[LoadCase]:
     """Every applicable NBC gravity combination with every live/snow pattern, solved.
 

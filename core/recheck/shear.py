@@ -14,7 +14,7 @@ from core.clauses.shear import (
 from core.kinds import TraceStatus
 from core.member import Member
 from core.models import Beam, Material
-from core.recheck.cases import LoadCase
+from core.recheck.cases import LoadCase, carries_snow
 from core.recheck.trace import KN_PER_N, case_label, kd_trace, line
 from core.results import FactorTrace, ShearCheck
 
@@ -93,4 +93,6 @@ def shear_check(
         kd=case.kd,
         clause=clause,
         trace=[kd_trace(case), extra] if traces else [],
+        dead_load_only=case.combo.dead_load_only,
+        snow_in_combination=carries_snow(case, beam),
     )

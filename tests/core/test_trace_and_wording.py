@@ -77,8 +77,8 @@ UNITS = {"", "mm", "mm2", "m3", "MPa", "kN", "kN/m", "kN·m"}  # SI, as the edge
 # a citation: "CSA O86-19 7.5.6.4.4", "CSA O86-19 Table 7.3 note", "NBC Table 9.4.3.1", parts joined by / , ;
 PART = re.compile(
     r"^((CSA O86-19|NBC) )?(Table \d+\.\d+(\.\d+)*(\.?-?[A-Z])?( note)?|\d+(\.\d+)+(\([a-z]\))?)"
-    r"( \((memory|0\.9D where dead load counteracts|reference Q\d+)\))?$"
-    r"|^reference o86\.md \d+$|^CWC glulam sizes$|^project setting \(CSA O122 tolerances not yet checked\)$"
+    r"( \((memory|0\.9D where dead load counteracts)\))?$"  # no project-internal references on a notice
+    r"|^CWC glulam sizes$|^project setting \(CSA O122 tolerances not yet checked\)$"
 )
 # clause of the standard behind each factor (CSA O86-19 clause numbering, from memory)
 CLAUSE_OF = {
@@ -246,7 +246,9 @@ def test_effective_length_row_says_why_it_applies():
     assert le_two
     for source in le_two:
         assert source.startswith("effective_length row any (")
-        assert source.endswith("; region of a continuous beam: conservative catch-all (memory rows never default)")
+        assert source.endswith(
+            "; region of a continuous beam: conservative catch-all (a row not yet confirmed is never chosen by default)"
+        )
 
 
 def test_negative_moment_lu_says_a_zero_moment_point_is_not_a_brace():

@@ -1,0 +1,155 @@
+"""How urgent an overstress is, what a finding tells the contractor to do, and table rows named unambiguously.
+
+Found by a read of the demo notice as a contractor and as the signing engineer would read it:
+- a roof beam overstressed under 1.25D + 1.5S was "before loading" with "Do not load beyond its present
+  load", an instruction nobody can follow for snow;
+- a sawn floor joist with loose decking was told to fasten it "before any roofing material or snow load"
+  and cited the glulam clause;
+- two different table rows printed the same words with different statuses (KT of glulam from memory, KT
+  of sawn lumber confirmed: both "treatment_factors: none, dry"), so the engineer could not tell which held.
+"""
+
+from __future__ import annotations
+
+import re
+
+from core.kinds import FindingCode
+from core.recheck import recheck
+from core.results import Priority
+from tests.core import golden
+from tests.core.beams import glulam, sawn
+
+
+def _findings(result, code):
+    return [f for f in result.findings if f.code is code]
+
+
+def test_roof_overstress_under_snow_is_immediate_and_says_shore_it():
+    """Snow cannot be kept off a roof (common practice): shore or prop now, not "do not load".
+
+    An overstress under a snow combination is made safe by shoring, not by an instruction nobody can follow.
+    """
+    r = recheck(glulam(b_mm=80, d_mm=304, spans_mm=[7200]))
+    region = r.bending[0]
+    assert region.utilisation > 1.0
+    assert region.combination.startswith("1.25D + 1.5S")
+    assert region.snow_in_combination
+    (finding,) = _findings(r, FindingCode.bending_overstress)
+    assert finding.priority is Priority.immediate
+    assert finding.action.startswith("Make safe now: snow can load this member at any time")
+    assert "shored or propped before snow builds up" in finding.action
+    assert finding.action.endswith("added bracing or a replacement member.")  # the engineer-of-record part kept
+
+
+def test_floor_overstress_under_live_load_stays_before_loading():
+    """A floor's live load is the contractor's to keep off (common practice): before loading, not immediate."""
+    r = recheck(sawn(spans_mm=[6000]))
+    region = r.bending[0]
+    assert region.utilisation > 1.0
+    assert region.combination.startswith("1.25D + 1.5L")
+    assert not region.snow_in_combination
+    assert not region.dead_load_only
+    (finding,) = _findings(r, FindingCode.bending_overstress)
+    assert finding.priority is Priority.before_loading
+    assert finding.action.startswith("Do not load beyond its present load")
+
+
+def test_bearing_overstress_under_snow_is_immediate():
+    """Qr = phi Fcp Ab KB KZcp (CSA O86-19 7.5.9, from memory): 20 mm of bearing under a snow roof beam fails."""
+    r = recheck(glulam(bearings=[{"lateral": True, "rotation": True, "length_mm": 20}] * 2))
+    over = [b for b in r.bearing if b.utilisation > 1.0]
+    assert over
+    assert all(b.snow_in_combination and not b.dead_load_only for b in over)
+    found = _findings(r, FindingCode.bearing_overstress)
+    assert len(found) == len(over)
+    for f in found:
+        assert f.priority is Priority.immediate
+        assert f.action.startswith("Make safe now: snow can load")
+        assert f.action.endswith("Lengthen the bearing or add a bearing plate as directed by the engineer of record.")
+
+
+def test_overstress_under_dead_load_alone_is_immediate_and_says_prop_it():
+    """Dead load alone: overstressed as the member stands (common practice: prop it now).
+
+    With no live or snow load, 1.4D is the one combination (NBC Table 4.1.3.2-A).
+    """
+    r = recheck(
+        glulam(
+            loads={"dead_kn_m": 40.0, "live_kn_m": 0.0, "snow_kn_m": 0.0},
+            bearings=[{"lateral": True, "rotation": True, "length_mm": 40}] * 2,
+        )
+    )
+    assert r.shear.dead_load_only
+    assert r.shear.combination == "1.4D"
+    assert r.shear.utilisation > 1.0
+    (shear,) = _findings(r, FindingCode.shear_overstress)
+    assert shear.priority is Priority.immediate
+    assert shear.action.startswith("Make safe now: the member is overstressed under the dead load as it stands")
+    bearing = _findings(r, FindingCode.bearing_overstress)
+    assert bearing
+    assert all(f.priority is Priority.immediate and f.action.startswith("Make safe now: the member") for f in bearing)
+
+
+def test_loose_decking_on_a_floor_joist_speaks_of_floor_loads_and_the_lumber_clause():
+    """A joist cites the lumber clause and floor loads, not the glulam clause and roofing.
+
+    Sawn lumber's lateral stability tiers (CSA O86-19 6.5.3.2.1, from memory) rest on decking fastened to
+    the compression edge; the glulam clause (7.5.6.4) does not apply to a joist.
+    """
+    r = recheck(sawn(top_edge={"braced_by": "decking", "fastened": False}))
+    (f,) = [f for f in r.findings if f.region == "top edge"]
+    assert f.clause == "CSA O86-19 6.5.3.2.1"
+    assert "the decking is not fastened to the top edge" in f.message
+    assert f.action == (
+        "Fasten the decking as detailed before any floor finish, stored material or other load is placed."
+    )
+
+
+def test_loose_purlins_on_a_roof_beam_speak_of_roofing_and_snow():
+    r = recheck(glulam(top_edge={"braced_by": "purlins", "spacing_mm": 2400, "fastened": False}))
+    (f,) = [f for f in r.findings if f.region == "top edge"]
+    assert f.clause == "CSA O86-19 7.5.6.4.2"
+    assert "the purlins are not fastened to the top edge" in f.message
+    assert f.action == "Fasten the purlins as detailed before any roofing material or snow load is placed."
+
+
+def test_loose_decking_with_use_and_snow_unknown_names_every_load_still_to_come():
+    r = recheck(glulam(use=None, top_edge={"braced_by": "decking", "fastened": False}, loads=_no_snow()))
+    (f,) = [f for f in r.findings if f.region == "top edge"]
+    assert f.action.endswith("before any further load (roofing, flooring, stored material or snow) is placed.")
+
+
+def _no_snow():
+    return {"dead_kn_m": 2.0, "live_kn_m": 2.4, "snow_kn_m": 0.0}
+
+
+def _rows(result):
+    traces = [t for r in result.bending for t in r.trace] + result.shear.trace + result.deflection.trace
+    traces += [t for b in result.bearing for t in b.trace]
+    return traces
+
+
+def test_one_wording_never_stands_for_two_statuses():
+    """A table row's line (clause and source) must name the row, so one wording has one status on a notice."""
+    seen: dict[tuple[str, str], set[str]] = {}
+    for beam in golden.beams(golden.FAST_COUNT):
+        for t in _rows(recheck(beam)):
+            seen.setdefault((t.clause, t.source), set()).add(t.status.value)
+    mixed = {k: v for k, v in seen.items() if len(v) > 1}
+    assert mixed == {}
+
+
+def test_rows_name_their_material_and_grade():
+    glu, lumber = recheck(glulam()), recheck(sawn())
+    kt = {t.source for r in (glu, lumber) for t in _rows(r) if t.symbol == "KT"}
+    assert kt == {"treatment_factors: glulam, none, dry; KT(E) 1", "treatment_factors: sawn, none, dry; KT(E) 1"}
+    stamp = {t.source for t in _rows(glu) if t.symbol.endswith(" moment)")}
+    assert stamp == {"D.Fir-L 24f-E, top stamp up"}
+
+
+def test_no_project_internal_references_or_empty_fields_reach_a_notice():
+    """What the engineer signs cites the standard, not this project's notes; a row never ends in an empty field."""
+    internal = re.compile(r"o86\.md|reference Q\d|memory rows never|confirmed_by\s*($|,)")
+    for beam in golden.beams(golden.FAST_COUNT):
+        text = recheck(beam).model_dump_json()
+        assert not internal.search(text), internal.search(text)
