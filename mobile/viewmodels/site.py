@@ -127,11 +127,14 @@ class SiteViewModel:
         return "▲ Findings not yet raised (not on any notice): " + ", ".join(marks)
 
     def deficiency_groups(self) -> list[tuple[str, list[tuple[str, str]]]]:
-        """Open deficiencies by priority, most urgent first: [(priority label, [(id, line)])]."""
+        """Open deficiencies by priority, most urgent first: [(priority label with its count, [(id, line)])].
+
+        The count is in the heading so a reviewer knows how many there are when not all fit on screen.
+        """
         out: dict[str, list[tuple[str, str]]] = {}
         for d in self.store.deficiencies(self.site_id, open_only=True):
             out.setdefault(d.priority, []).append((d.id, f"{d.number}  {d.location}  ·  {STAGE_WORDS[int(d.stage)]}"))
-        return [(PRIORITY_LABELS[p], out[p]) for p in sorted(out, key=PRIORITY_ORDER.__getitem__)]
+        return [(f"{PRIORITY_LABELS[p]} ({len(out[p])})", out[p]) for p in sorted(out, key=PRIORITY_ORDER.__getitem__)]
 
     def open_deficiencies(self) -> list[str]:
         """One line per open deficiency, most urgent first."""

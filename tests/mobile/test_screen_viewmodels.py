@@ -64,8 +64,11 @@ def test_site_groups_deficiencies_by_priority_and_visit(demo):
     vm = SiteViewModel(store, site_id)
     levels = [level for level, _ in vm.groups() if level != PINNED]
     assert levels == sorted(levels)
-    priorities = [label for label, _ in vm.deficiency_groups()]
-    assert priorities[0].startswith("▲ IMMEDIATE")
+    groups = vm.deficiency_groups()
+    assert groups[0][0].startswith("▲ IMMEDIATE")
+    immediate = [d for d in store.deficiencies(site_id, open_only=True) if d.priority == "immediate"]
+    assert groups[0][0].endswith(f" ({len(immediate)})")  # the count, for when not all fit on screen
+    assert [label.rsplit(" (", 1)[1] for label, _ in groups] == [f"{len(rows)})" for _, rows in groups]
     assert vm.start_visit("  ") is None
     assert "reviewer" in vm.errors
     assert vm.start_visit("R. Vantongeren", "dry, 5 °C") is not None

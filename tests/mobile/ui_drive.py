@@ -834,10 +834,18 @@ elif FLOW == "layout":
         immediate = [d for d in app.store.deficiencies(app.site_id, open_only=True) if d.priority == "immediate"]
         rows = [w for w in box.walk(restrict=True) if any(d.number in getattr(w, "text", "") for d in immediate)]
         assert len(rows) == len(immediate) > 0, (len(rows), len(immediate))
-        for w in rows:
+        # the IMMEDIATE heading (with how many) and the first IMMEDIATE item open the list, in view; the rest
+        # follow it directly and are reached by scrolling when they do not all fit
+        heading = next(w for w in box.walk(restrict=True) if getattr(w, "text", "").startswith("▲ IMMEDIATE"))
+        if not heading.text.endswith(f" ({len(immediate)})"):
+            seen.append(f"site: IMMEDIATE heading without its count: {heading.text}")
+        for w in (heading, rows[0]):
             r = _window_rect(w)
             if r[1] < view[1] - 1 or r[3] > view[3] + 1:
-                seen.append(f"site: IMMEDIATE item not in view: {w.text[:40]}")
+                seen.append(f"site: IMMEDIATE heading or first item not in view: {w.text[:40]}")
+        below = [w for w in rows if _window_rect(w)[1] < view[1] - 1]
+        if below and box.height <= view[3] - view[1]:
+            seen.append("site: IMMEDIATE items below the fold and the list does not scroll")
         app.open_beam(demo_beam("RB-5"))
 
     @step
