@@ -18,6 +18,12 @@ CAUTION = (
 )
 
 
+# The version of what a recheck prints. Bump it with every change that may change a recheck's output (the
+# golden digests, tests/core/golden_versions.txt, refuse a rewrite under the same version): stored results
+# of another version are recomputed when a database is opened (storage.results).
+RESULTS_VERSION = 2
+
+
 class Out(BaseModel):
     """Base for results: frozen."""
 
@@ -145,6 +151,30 @@ class Finding(Out):
     action: str
     clause: str
     region: str | None = None
+
+
+def governing_check(
+    bending: list[BendingRegion], shear: ShearCheck, bearing: list[BearingCheck], deflection: DeflectionCheck
+) -> tuple[int, float | None]:
+    """The check that governs: its index in [bending regions..., shear, bearings..., deflection], utilisation.
+
+    A bending region whose capacity is not established or not permitted has no utilisation and governs over
+    every rated check (not established before not permitted, as the status ranks them), with None: no
+    reassuring number stands for a member whose capacity is unknown. Otherwise the largest utilisation
+    governs (the last of equals: the right-hand bearing of a symmetric beam).
+    """
+    for outcome in (Outcome.not_established, Outcome.not_permitted):
+        for i, r in enumerate(bending):
+            if r.utilisation is None and r.outcome is outcome:
+                return i, None
+    utils = [r.utilisation for r in bending] + [shear.utilisation]
+    utils += [b.utilisation for b in bearing] + [deflection.utilisation]
+    best = len(utils) - 1  # deflection: always rated
+    for i, u in enumerate(utils):
+        held = utils[best]
+        if u is not None and held is not None and u >= held:
+            best = i
+    return best, utils[best]
 
 
 class Recheck(Out):

@@ -331,6 +331,7 @@ def recheck_now(beam: dict[str, Any], site_data: dict[str, Any]) -> dict[str, An
 
     from core.models import Beam
     from core.recheck import recheck
+    from core.results import governing_check
 
     data, loads_from = recheck_input(beam, site_data)
     try:
@@ -342,13 +343,12 @@ def recheck_now(beam: dict[str, Any], site_data: dict[str, Any]) -> dict[str, An
     except ValueError as exc:
         return {"error": f"not rechecked: {exc}", "loads_from": loads_from}
     checks = _checks(result)
-    rated = [c for c in checks if c["utilisation"] is not None]
-    governing = max(rated, key=lambda c: c["utilisation"]) if rated else None
+    index, _ = governing_check(result.bending, result.shear, result.bearing, result.deflection)
     return {
         "error": "",
         "loads_from": loads_from,
         "status": result.status.value.replace("_", " "),
-        "governing": governing["name"] if governing else "none rated",
+        "governing": checks[index]["name"],
         "utilisation": result.governing_utilisation,
         "checks": checks,
         "findings": [

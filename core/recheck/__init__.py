@@ -21,7 +21,7 @@ from core.recheck.bending import bending_regions
 from core.recheck.cases import load_cases
 from core.recheck.deflection import deflection_check
 from core.recheck.shear import shear_check
-from core.results import Recheck
+from core.results import Recheck, governing_check
 
 __all__ = ["beam_model", "recheck"]
 
@@ -50,8 +50,7 @@ def recheck(beam: Beam, *, traces: bool = True) -> Recheck:
     bearing = bearing_checks(beam, member, model, cases, traces=traces)
     deflection = deflection_check(beam, member, model, traces=traces)
     findings = build_findings(beam, member, bending, shear, bearing, deflection)
-    utils = [r.utilisation for r in bending if r.utilisation is not None]
-    utils += [shear.utilisation, deflection.utilisation] + [b.utilisation for b in bearing]
+    _, governing = governing_check(bending, shear, bearing, deflection)
     return Recheck(
         mark=beam.mark,
         status=overall_status(bending, findings),
@@ -60,6 +59,6 @@ def recheck(beam: Beam, *, traces: bool = True) -> Recheck:
         bearing=bearing,
         deflection=deflection,
         findings=findings,
-        governing_utilisation=max(utils) if utils else None,
+        governing_utilisation=governing,
         material=beam.material.value,
     )

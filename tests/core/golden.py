@@ -29,6 +29,7 @@ from mobile.cli import check_output
 from mobile.units import check_beam_json
 
 GOLDEN = Path(__file__).with_name("golden_check.sha256")
+VERSIONS = Path(__file__).with_name("golden_versions.txt")  # "<core.results.RESULTS_VERSION> <SHA-256 of GOLDEN>"
 SEED = 20261202
 COUNT = 5000
 FAST_COUNT = 500  # the subset run in the fast suite
@@ -190,6 +191,33 @@ def read_golden() -> list[tuple[str, str]]:
     return [(r[1], r[2]) for r in rows]
 
 
+def versions() -> dict[int, str]:
+    """The ledger: results version -> SHA-256 of the golden file written under it."""
+    rows = [line.split() for line in VERSIONS.read_text(encoding="utf-8").splitlines() if line.strip()]
+    return {int(r[0]): r[1] for r in rows}
+
+
+def write(got: list[tuple[str, str]]) -> int:
+    """Write the golden file, refusing new output under a results version that already has other output."""
+    from core.results import RESULTS_VERSION
+
+    text = "".join(f"{i} {a} {b}\n" for i, (a, b) in enumerate(got))
+    sha = hashlib.sha256(text.encode("utf-8")).hexdigest()
+    held = versions()
+    if held.get(RESULTS_VERSION, sha) != sha:
+        print(
+            f"the recheck's output changed under results version {RESULTS_VERSION}: bump "
+            "core.results.RESULTS_VERSION (stored results are then recomputed) and write again"
+        )
+        return 1
+    GOLDEN.write_text(text, encoding="utf-8")
+    if RESULTS_VERSION not in held:
+        with VERSIONS.open("a", encoding="utf-8") as f:
+            f.write(f"{RESULTS_VERSION} {sha}\n")
+    print(f"wrote {len(got)} digests to {GOLDEN} (results version {RESULTS_VERSION})")
+    return 0
+
+
 def main(argv: list[str] | None = None) -> int:
     """Write the golden file (`--write`) or compare every beam with it."""
     ap = argparse.ArgumentParser(prog="python -m tests.core.golden")
@@ -200,9 +228,7 @@ def main(argv: list[str] | None = None) -> int:
     with multiprocessing.Pool(args.processes) as pool:
         got = pool.map(digests, enumerate(beams(args.count)), chunksize=50)
     if args.write:
-        GOLDEN.write_text("".join(f"{i} {a} {b}\n" for i, (a, b) in enumerate(got)), encoding="utf-8")
-        print(f"wrote {len(got)} digests to {GOLDEN}")
-        return 0
+        return write(got)
     want = read_golden()
     bad = [i for i, (a, b) in enumerate(zip(got, want, strict=False)) if a != b]  # both digests of a beam
     print(f"{len(got)} beams, {len(bad)} differ: {bad[:20]}")

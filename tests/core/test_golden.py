@@ -24,6 +24,32 @@ def test_golden_file_covers_every_beam(stored):
     assert golden.GOLDEN.stat().st_size < 1_000_000
 
 
+def test_golden_file_is_the_one_written_under_this_results_version():
+    """An output change comes with a new results version: the ledger holds the golden file's SHA per version.
+
+    The stored results of a database are recomputed when the version changes (storage.results).
+    """
+    import hashlib
+
+    from core.results import RESULTS_VERSION
+
+    held = golden.versions()
+    assert held[RESULTS_VERSION] == hashlib.sha256(golden.GOLDEN.read_bytes()).hexdigest()
+    assert max(held) == RESULTS_VERSION
+    assert len(set(held.values())) == len(held)  # every version printed something different
+
+
+def test_a_rewrite_with_other_output_under_the_same_version_is_refused(monkeypatch, tmp_path, capsys):
+    monkeypatch.setattr(golden, "GOLDEN", tmp_path / "golden_check.sha256")
+    monkeypatch.setattr(golden, "VERSIONS", tmp_path / "golden_versions.txt")
+    golden.VERSIONS.write_text("", encoding="utf-8")
+    assert golden.write([("a", "-")]) == 0
+    assert golden.write([("a", "-")]) == 0  # the same output again: nothing to bump
+    assert golden.write([("b", "-")]) == 1
+    assert "bump core.results.RESULTS_VERSION" in capsys.readouterr().out
+    assert golden.GOLDEN.read_text(encoding="utf-8") == "0 a -\n"  # the refused output was not written
+
+
 def test_generator_draws_every_kind():
     beams = golden.beams(golden.FAST_COUNT)
     assert {b.material.value for b in beams} == {"glulam", "sawn"}

@@ -15,7 +15,7 @@ import re
 
 from core.kinds import FindingCode
 from core.recheck import recheck
-from core.results import Priority
+from core.results import Priority, governing_check
 from tests.core import golden
 from tests.core.beams import glulam, sawn
 
@@ -153,3 +153,32 @@ def test_no_project_internal_references_or_empty_fields_reach_a_notice():
     for beam in golden.beams(golden.FAST_COUNT):
         text = recheck(beam).model_dump_json()
         assert not internal.search(text), internal.search(text)
+
+
+def test_a_member_whose_capacity_is_unknown_has_no_governing_utilisation():
+    """No reassuring number for a member whose bending capacity is unknown, though its shear is rated.
+
+    Not established: a bearing restraint is missing (CSA O86-19 7.5.6.3.1); not permitted: CB > 50 (7.5.6.4.4).
+    """
+    for beam in (
+        glulam(bearings=[{"lateral": False, "rotation": True, "length_mm": 140}] * 2),
+        glulam(b_mm=80, d_mm=912, spans_mm=[12000], top_edge={"braced_by": "none"}),
+    ):
+        r = recheck(beam)
+        assert r.status.value in {"not_established", "not_permitted"}
+        assert r.shear.utilisation < 1.0
+        index, util = governing_check(r.bending, r.shear, r.bearing, r.deflection)
+        assert util is None
+        assert r.governing_utilisation is None
+        assert r.bending[index].utilisation is None
+        assert r.bending[index].outcome.value == r.status.value
+
+
+def test_a_rated_member_is_governed_by_its_largest_utilisation_the_last_of_equals():
+    r = recheck(glulam(bearings=[{"lateral": True, "rotation": True, "length_mm": 20}] * 2))
+    utils = [x.utilisation for x in r.bending] + [r.shear.utilisation]
+    utils += [b.utilisation for b in r.bearing] + [r.deflection.utilisation]
+    index, util = governing_check(r.bending, r.shear, r.bearing, r.deflection)
+    assert util == max(utils) == r.governing_utilisation
+    assert r.bearing[0].utilisation == r.bearing[1].utilisation  # a symmetric simple span
+    assert index == len(r.bending) + 2  # the right-hand bearing

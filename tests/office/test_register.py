@@ -212,6 +212,27 @@ def test_deficiency_page_reruns_the_recheck_from_the_beam_record_and_the_site_ba
     assert f"Governing check</th><td>{top[0]}, utilisation {float(top[1]):.2f}" in page  # the largest one governs
 
 
+def test_deficiency_page_gives_no_governing_number_when_the_capacity_is_not_established(office):
+    """A bearing without lateral restraint (CSA O86-19 7.5.6.3.1, d/b > 2.5): bending capacity not established.
+
+    The page named the largest rated check (shear, well under 1) as governing, a reassuring number for a
+    member whose capacity is unknown; the unrated bending region governs, with no number.
+    """
+    import html
+
+    from mobile.hub_client import sync
+
+    _served, client, _site, d, _notice, tablet = office
+    _login(client)
+    loose = {"lateral": False, "rotation": True, "length_mm": 140}
+    tablet.update_beam(d.beam_id, {"bearings": [loose, loose]})
+    assert sync(tablet).in_step
+    page = html.unescape(client.get(f"/deficiency/{d.id}").text)
+    assert "not established" in page
+    assert "Governing check</th><td>bending" in page
+    assert "capacity not established or not permitted (taken as failing)" in page
+
+
 def test_deficiency_page_says_when_the_beam_record_cannot_be_rechecked(office):
     import html
 
