@@ -176,8 +176,8 @@ def _reach_reviewer(n: Notice) -> str:
     if n.reviewer_email:
         return f"email {who} at {n.reviewer_email}"
     if n.firm:
-        return f"ask {n.firm} (the issuing firm; no phone or email is recorded on this notice) for {who}"
-    return f"ask whoever sent you this notice for {who} (no phone, email or firm is recorded on this notice)"
+        return f"contact {who} through {n.firm} (the issuing firm; no phone or email is recorded on this notice)"
+    return f"contact {who} through whoever sent you this notice (no phone, email or firm is recorded on it)"
 
 
 def _issuer_warnings(n: Notice) -> list[str]:
@@ -189,7 +189,7 @@ def _issuer_warnings(n: Notice) -> list[str]:
         out.append(
             "no contact recorded: the notice gives the contractor no phone or email for the reviewer"
             + (f" and sends them to {n.firm}" if n.firm else " and no firm")
-            + ". Add a phone or email in the reviewer profile before issuing."
+            + "; add a phone or email in the reviewer profile before issuing."
         )
     return out
 

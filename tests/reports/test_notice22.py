@@ -174,11 +174,14 @@ def test_no_contact_recorded_never_says_call_and_names_the_firm():
     first = _pages(pdf)[0]
     assert "call " not in first
     assert "Contact not recorded: reach the reviewer through Tamarack Structural Review Ltd." in first
-    assert "then ask Tamarack Structural Review Ltd. (the issuing firm; no phone or email is recorded" in first
+    assert (
+        "then contact Priya Okonkwo-Lind through Tamarack Structural Review Ltd. (the issuing firm; no phone or "
+        "email is recorded on this notice) for a re-review"
+    ) in first
     assert "For the issuer" not in first  # an issued notice carries no preview note
     none = _pages(render_notice(_notice(_twenty_on_five()[:2], firm="")))[0]
     assert "call " not in none
-    assert "ask whoever sent you this notice for Priya Okonkwo-Lind" in none
+    assert "contact Priya Okonkwo-Lind through whoever sent you this notice" in none
 
 
 def test_draft_preview_flags_no_contact_recorded_to_the_issuer():
