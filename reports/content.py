@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import re
 from collections.abc import Callable
 from dataclasses import dataclass, field, replace
 
@@ -49,19 +50,36 @@ def ft_in(length_mm: float) -> str:
 
 
 def support_names(gridline: str, supports: int) -> list[str]:
-    """Each support named by its gridline: 'D / 2-3' with 2 supports -> ['D/2', 'D/3']; [] when it cannot tell.
+    """Each support named by its gridline, written in the order the gridline is: [] when it cannot tell.
 
-    The gridline is read as a line and a range ('D / 2-3' or '2-3 / D'); the range must name exactly
-    one grid per support, otherwise the supports keep their numbers (S1, S2) rather than a guess.
+    'D / 2-3' (line D, from grid 2 to grid 3) with 2 supports -> ['D/2', 'D/3']; 'A-B / 4' -> ['A/4', 'B/4'],
+    so the sketch reads like the Location line. The range names one grid per support ('F / 1-2-3' for a
+    two-span beam); a range naming only the two ends of a longer beam names the end supports and leaves
+    the inner ones '' (their grid is not recorded, and is never guessed). Anything else: [].
     """
     parts = [x.strip() for x in gridline.replace("grid", "").split("/") if x.strip()]
     if len(parts) != 2:
         return []
-    line, span = (parts[0], parts[1]) if "-" in parts[1] else (parts[1], parts[0])
+    range_first = "-" not in parts[1]
+    line, span = (parts[1], parts[0]) if range_first else (parts[0], parts[1])
     marks = [m.strip() for m in span.split("-") if m.strip()]
-    if "-" in line or len(marks) != supports:
+    if "-" in line or len(marks) < 2 or supports < 2:
         return []
-    return [f"{line}/{m}" for m in marks]
+    if len(marks) == 2 and supports > 2:  # only the ends are recorded
+        marks = [marks[0], *[""] * (supports - 2), marks[1]]
+    if len(marks) != supports:
+        return []
+    return [(f"{m}/{line}" if range_first else f"{line}/{m}") if m else "" for m in marks]
+
+
+def support_words(k: int, names: list[str]) -> str:
+    """'support 2 (grid D/3)'; an inner support whose grid is not recorded: 'support 2 (between grid F/1 and F/3)'."""
+    if not names:
+        return f"support {k}"
+    name = names[k - 1]
+    if name:
+        return f"support {k} (grid {name})"
+    return f"support {k} (between grid {names[0]} and {names[-1]})"
 
 
 MILESTONES = {
@@ -185,14 +203,31 @@ def by_member(items: list[Item]) -> list[list[Item]]:
     return list(groups.values())
 
 
-def one_line(text: str, limit: int = 90) -> str:
-    """The first sentence of a text, cut to ``limit`` characters (for the summary table)."""
+ABBREVIATIONS = frozenset({"no", "nos", "e.g", "i.e", "approx", "incl", "min", "max", "vs", "ltd", "inc", "st", "fig"})
+
+
+def one_line(text: str) -> str:
+    """The first sentence of a text, whole (for the summary table): never cut inside a word or a bracket.
+
+    A sentence ends at '; ' or '. ' outside brackets, except a '. ' before a digit or after a common
+    abbreviation ('No. 2', 'approx. 5', 'e.g. a'). The table cell wraps it; the item's block prints the
+    full text.
+    """
     first = text.strip().split("\n")[0]
-    for stop in (". ", "; "):
-        if stop in first:
-            first = first.split(stop)[0]
-            break
-    return first if len(first) <= limit else first[: limit - 1].rstrip() + "…"
+    depth = 0
+    for k, ch in enumerate(first):
+        depth += {"(": 1, ")": -1}.get(ch, 0)
+        if depth > 0 or ch not in ".;" or first[k + 1 : k + 2] != " ":
+            continue
+        if ch == ";" or not _abbreviation_dot(first, k):
+            return first[:k].rstrip() + ("." if ch == "." else "")
+    return first
+
+
+def _abbreviation_dot(text: str, k: int) -> bool:
+    """Whether the '. ' at ``k`` belongs to an abbreviation or a number ('No. 2', 'e.g. the'), not a sentence end."""
+    word = text[:k].rsplit(" ", 1)[-1].lower().lstrip("(")
+    return word in ABBREVIATIONS or text[k + 2 : k + 3].isdigit()
 
 
 def sketch_for(beam: Beam) -> Sketch:
@@ -291,8 +326,7 @@ def item_for(
         sketch = _sketch_with_regions(beam, result)
         names = support_names(gridline, len(sketch.supports_x))
         sketch = replace(sketch, support_labels=names, title=member_title or beam.mark)
-        for k, name in enumerate(names, start=1):  # "support 2" -> "support 2 (grid D/3)"
-            location = location.replace(f"support {k}", f"support {k} (grid {name})", 1)
+        location = _supports_named(location, names)
     options = []
     if beam is not None and result is not None and result.status.value != "ok":
         options = [r.message for r in remedies(beam, result)]
@@ -314,6 +348,17 @@ def item_for(
         key_numbers=(key_numbers(result) + remedy_numbers(beam, result)) if result is not None else [],
         photos=photos or [],
         sketch=sketch,
+    )
+
+
+def _supports_named(location: str, names: list[str]) -> str:
+    """'support 2' in a location -> 'support 2 (grid D/3)' (see ``support_words``); 'support 12' is left alone."""
+    if not names:
+        return location
+    return re.sub(
+        r"\bsupport (\d+)\b",
+        lambda m: support_words(int(m[1]), names) if 1 <= int(m[1]) <= len(names) else m[0],
+        location,
     )
 
 

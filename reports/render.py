@@ -130,9 +130,15 @@ def _styles() -> dict[str, ParagraphStyle]:
     }
 
 
-def _grid(rows: list[list[Any]], widths: list[float], shade_first_col: bool = True, repeat: int = 0) -> Table:
+def _grid(
+    rows: list[list[Any]],
+    widths: list[float],
+    shade_first_col: bool = True,
+    repeat: int = 0,
+    table: type[Table] = Table,
+) -> Table:
     # splitInRow: a cell taller than a page (a long description) continues on the next page
-    t = Table(rows, colWidths=widths, splitInRow=1, repeatRows=repeat)
+    t = table(rows, colWidths=widths, splitInRow=1, repeatRows=repeat)
     style = [
         ("GRID", (0, 0), (-1, -1), 0.4, colors.grey),
         ("VALIGN", (0, 0), (-1, -1), "TOP"),
@@ -153,12 +159,56 @@ def _contact(n: Notice) -> str:
     return " · ".join(x for x in (n.reviewer_phone, n.reviewer_email) if x)
 
 
+def _contact_row(n: Notice) -> str:
+    """The Contact line: phone and email, or whom to reach when neither is recorded."""
+    if _contact(n):
+        return _contact(n)
+    if n.firm:
+        return f"not recorded: reach the reviewer through {n.firm}"
+    return "not recorded"
+
+
+def _reach_reviewer(n: Notice) -> str:
+    """How the contractor asks for the re-review, from what is recorded: never a number that is not there."""
+    who = n.reviewer or "the reviewer"
+    if n.reviewer_phone:
+        return f"call {who} at {n.reviewer_phone}" + (f" (email {n.reviewer_email})" if n.reviewer_email else "")
+    if n.reviewer_email:
+        return f"email {who} at {n.reviewer_email}"
+    if n.firm:
+        return f"contact {who} through {n.firm} (the issuing firm; no phone or email is recorded on this notice)"
+    return f"contact {who} through whoever sent you this notice (no phone, email or firm is recorded on it)"
+
+
+def _issuer_warnings(n: Notice) -> list[str]:
+    """What the issuer should fix before issuing, printed on a draft preview only (never on an issued notice)."""
+    if not n.draft:
+        return []
+    out = []
+    if not _contact(n):
+        out.append(
+            "no contact recorded: the notice gives the contractor no phone or email for the reviewer"
+            + (f" and sends them to {n.firm}" if n.firm else " and no firm")
+            + "; add a phone or email in the reviewer profile before issuing."
+        )
+    return out
+
+
+SHORT_CAUTION = (
+    "<b>Caution:</b> these results support, and never replace, the judgement of the engineer of record; local "
+    "codes and licensed practice govern. The full cautions are at the end of this notice."
+)
+
+
 def _first_page(n: Notice, st: dict[str, ParagraphStyle]) -> list[Any]:
     """Page 1: to whom, from whom, the site, the visit, the scope, and the summary of every item."""
     p = st["base"]
     rev = f" rev {n.revision}" if n.revision else ""
     kind = "Close-out notice" if n.kind == "close-out" else "Deficiency notice"
     story: list[Any] = [Paragraph(f"{kind} {esc(n.notice_number)}{esc(rev)}", st["title"]), Spacer(1, 4)]
+    for warning in _issuer_warnings(n):
+        note = f"<b>For the issuer (preview only, not printed when issued):</b> {esc(warning)}"
+        story += [_boxed(note, st), Spacer(1, 4)]
     immediate = [i for i in n.items if i.priority == "immediate"]
     if immediate:
         story += [_immediate_box(len(immediate), st), Spacer(1, 4)]
@@ -170,7 +220,7 @@ def _first_page(n: Notice, st: dict[str, ParagraphStyle]) -> list[Any]:
     sender = [
         ("Reviewer", (n.reviewer + (f", {licence}" if licence else "")) or "not recorded"),
         ("Firm", n.firm or "not recorded"),
-        ("Contact", _contact(n) or "not recorded"),
+        ("Contact", _contact_row(n)),
     ]
     # To, then From, one above the other: text extraction and screen readers read them in that order
     # (side by side, a reader interleaved the two columns)
@@ -197,35 +247,77 @@ def _first_page(n: Notice, st: dict[str, ParagraphStyle]) -> list[Any]:
         story.append(Paragraph(f"<b>What changed in rev {n.revision}:</b> {esc(n.change_note)}", p))
     story.append(Paragraph(f"<b>Scope reviewed:</b> {esc(n.scope_reviewed or 'not recorded')}", p))
     story.append(Paragraph(f"<b>Not reviewed:</b> {esc(n.scope_not_reviewed or 'not recorded')}", p))
-    who = f"{n.reviewer}" + (f" ({_contact(n)})" if _contact(n) else "")
     story.append(
         Paragraph(
             "<b>What to do:</b> complete each item by its due date or milestone, write the action taken, the date "
-            f"and your name in the item's response box, then call {esc(who)} for a re-review. Do not conceal "
-            "work that an open item concerns before it has been re-reviewed.",
+            f"and your name in the item's response box, then {esc(_reach_reviewer(n))} for a re-review. Do not "
+            "conceal work that an open item concerns before it has been re-reviewed.",
             p,
         )
     )
+    story += [Spacer(1, 2), Paragraph(SHORT_CAUTION, st["small"])]
     story += [Spacer(1, 4), Paragraph("Summary of items", st["h2"])]
+    if n.items:
+        story.append(Paragraph(esc(item_count(n.items)), st["bold"]))
     story.append(_summary(n, st))
     return story
 
 
+def item_count(items: list[Item]) -> str:
+    """'9 items: 2 IMMEDIATE, 6 before loading, 1 before the next review': most urgent first."""
+    counts: dict[str, int] = {}
+    for i in items:
+        counts[i.priority] = counts.get(i.priority, 0) + 1
+    order = [*COUNT_WORDS, *sorted(set(counts) - set(COUNT_WORDS))]
+    parts = [f"{counts[p]} {COUNT_WORDS.get(p, p)}" for p in order if p in counts]
+    total = len(items)
+    return f"{total} item{'s' if total != 1 else ''}: " + ", ".join(parts)
+
+
+COUNT_WORDS = {
+    "immediate": "IMMEDIATE",
+    "before_loading": "before loading",
+    "before_next_review": "before the next review",
+    "observation": "observation",
+}
+
+
 def _immediate_box(count: int, st: dict[str, ParagraphStyle]) -> Table:
-    box = Table(
-        [
-            [
-                Paragraph(
-                    f"<b>▲ {count} IMMEDIATE item(s):</b> make the area safe now (keep loads off, shore or brace) "
-                    "and tell the contractor on site before this notice arrives.",
-                    st["base"],
-                )
-            ]
-        ],
-        colWidths=[WIDTH],
+    return _boxed(
+        f"<b>▲ {count} IMMEDIATE item(s):</b> make the area safe now (keep loads off, shore or brace) "
+        "and tell the contractor on site before this notice arrives.",
+        st,
     )
+
+
+def _boxed(text: str, st: dict[str, ParagraphStyle]) -> Table:
+    """One paragraph (markup) in a heavy box across the page."""
+    box = Table([[Paragraph(text, st["base"])]], colWidths=[WIDTH])
     box.setStyle(TableStyle([("BOX", (0, 0), (-1, -1), 2, colors.black)]))
     return box
+
+
+class _ContinuedTable(Table):
+    """A table split across pages with its marks: a continuation line, then a '(continued)' heading.
+
+    'The summary continues on the next page' goes under the first part; the next part starts with the
+    '(continued)' heading, then the repeated header row.
+    """
+
+    continued_heading: Any = None  # Flowables set on the instance, passed to the parts a split makes
+    continues_mark: Any = None
+
+    def split(self, availWidth: float, availHeight: float) -> list[Any]:
+        """Split as a Table does, leaving room for the mark; the later part is kept with its heading."""
+        if self.continued_heading is None or self.continues_mark is None:
+            return list(super().split(availWidth, availHeight))
+        _, mark_h = self.continues_mark.wrap(availWidth, availHeight)
+        parts = list(super().split(availWidth, availHeight - mark_h))
+        if len(parts) < 2:
+            return parts
+        for part in parts:
+            part.continued_heading, part.continues_mark = self.continued_heading, self.continues_mark
+        return [parts[0], self.continues_mark, KeepTogether([self.continued_heading, *parts[1:]])]
 
 
 def _summary(n: Notice, st: dict[str, ParagraphStyle]) -> Table:
@@ -240,8 +332,8 @@ def _summary(n: Notice, st: dict[str, ParagraphStyle]) -> Table:
         rows.append(
             [
                 Paragraph(esc(i.number), s),
-                Paragraph(esc(i.location), s),
-                Paragraph(esc(one_line(i.finding, 80)), s),
+                Paragraph(esc(i.location), words),
+                Paragraph(esc(one_line(i.finding)), words),  # whole, wrapped between words: never cut
                 Paragraph(esc(SHORT_PRIORITY.get(i.priority, i.priority)), bold),
                 Paragraph(esc(due_words(i.priority, i.due)), words),
                 Paragraph(esc(i.status), words),
@@ -249,7 +341,15 @@ def _summary(n: Notice, st: dict[str, ParagraphStyle]) -> Table:
         )
     if not items:
         rows.append([Paragraph("No open deficiencies.", s), "", "", "", "", ""])
-    t = _grid(rows, [21 * mm, 34 * mm, 48 * mm, 27 * mm, 29 * mm, 15 * mm], shade_first_col=False, repeat=1)
+    t = _grid(
+        rows,
+        [21 * mm, 33 * mm, 56 * mm, 24 * mm, 26 * mm, 14 * mm],
+        shade_first_col=False,
+        repeat=1,
+        table=_ContinuedTable,
+    )
+    t.continued_heading = Paragraph(f"Summary of items (continued): {len(items)} items in all", st["h2"])
+    t.continues_mark = Paragraph("<i>The summary continues on the next page.</i>", st["small"])
     style: list[Any] = [("BACKGROUND", (0, 0), (-1, 0), GREY)]
     n_imm = sum(1 for i in items if i.priority == "immediate")
     if n_imm:
@@ -282,7 +382,7 @@ def _member_block(group: list[Item], st: dict[str, ParagraphStyle]) -> list[Any]
             head.append(Table([_photo_cells(photos, st)], hAlign="LEFT"))
         out.append(KeepTogether(head))
         if first.checks:
-            out.append(_engineering(first, st))
+            out.append(_engineering(first, st, [i.number for i in group]))
     for item in group:
         rows = [("Location", item.location)]
         if not item.member:  # a member's block already describes what was observed
@@ -313,14 +413,31 @@ def _member_block(group: list[Item], st: dict[str, ParagraphStyle]) -> list[Any]
         if not item.member and item.sketch is not None:
             parts.append(beam_sketch(item.sketch, width_pt=WIDTH, height_pt=44 * mm))
         if not item.member and item.checks:
-            parts.append(_engineering(item, st))
+            parts.append(_engineering(item, st, [item.number]))
         if item.photos:
             parts.append(Table([_photo_cells(item.photos, st)], hAlign="LEFT"))
         out.append(KeepTogether(parts))
     return out
 
 
-def _engineering(item: Item, st: dict[str, ParagraphStyle]) -> KeepTogether:
+def passes_as_installed(item: Item, numbers: list[str]) -> str:
+    """One line for a member whose every check passes yet carries items: why 'ok' sits beside a deficiency.
+
+    '' when a check fails or is not established (the checks then explain the item themselves).
+    """
+    if not item.checks or any(c.utilisation is None or c.utilisation > 1.0 for c in item.checks):
+        return ""
+    top = max(item.checks, key=lambda c: c.utilisation or 0.0)
+    which = "Item " + numbers[0] if len(numbers) == 1 else "Items " + ", ".join(numbers)
+    return (
+        "<b>Passes as installed, still a deficiency:</b> every check above is within capacity for the member as it "
+        f"is installed; the highest utilisation is {top.utilisation:.2f}, for {esc(top.name)}. {esc(which)} below "
+        "still records a condition that passing the check does not clear (it departs from the drawings, the "
+        "specification or good practice): the engineer of record accepts it, or it is corrected."
+    )
+
+
+def _engineering(item: Item, st: dict[str, ParagraphStyle], numbers: list[str] | None = None) -> KeepTogether:
     """The numbers that matter, for the engineer of record: demand vs capacity, utilisation, options."""
     s = st["small"]
     bold = ParagraphStyle("sb", parent=s, fontName=FONT_BOLD)
@@ -346,6 +463,9 @@ def _engineering(item: Item, st: dict[str, ParagraphStyle]) -> KeepTogether:
         Paragraph("Engineering detail (for the engineer of record)", st["h3"]),
         _grid(rows, [38 * mm, 26 * mm, 46 * mm, 32 * mm, 32 * mm], shade_first_col=False),
     ]
+    passing = passes_as_installed(item, numbers or [item.number])
+    if passing:
+        parts.append(Paragraph(passing, st["base"]))
     if item.options:
         parts.append(Paragraph("<b>Options that would make it pass (for the engineer of record; not a design):</b>", s))
         parts += [Paragraph("• " + esc(o), s) for o in item.options]

@@ -11,6 +11,7 @@ from typing import Any
 
 from core.models import Beam
 from core.recheck import recheck
+from core.records import ReviewerProfile
 from core.results import Recheck
 from mobile.viewmodels.common import line_loads_kn_m
 from storage import Store
@@ -77,6 +78,17 @@ def load_demo(store: Store) -> str:
     return site.id
 
 
+def set_demo_reviewer(store: Store) -> ReviewerProfile:
+    """Make the demo's invented reviewer (with a fictional phone and e-mail) the signing reviewer of ``store``.
+
+    For the demo's own database only (``bracewalk demo``): the app's first run loads the demo site into
+    the user's database, and must not sign the user's notices as the demo reviewer.
+    """
+    profile = ReviewerProfile.model_validate(demo_data()["reviewer_profile"])
+    store.set_reviewer_profile(profile)
+    return profile
+
+
 def raise_all(store: Store, site_id: str) -> list[tuple[dict[str, Any], Recheck]]:
     """Recheck every beam and raise a deficiency for each finding a reviewer acts on."""
     rows = []
@@ -106,6 +118,7 @@ def run_demo(out: Path, serve: bool = False) -> int:
         Path(str(db_path) + suffix).unlink(missing_ok=True)
     store = Store(db_path, firm_key=DEMO_FIRM_KEY)  # the demo's marked key, so its bundle opens anywhere in a demo
     site_id = load_demo(store)
+    set_demo_reviewer(store)
     rows = raise_all(store, site_id)
     reviewer = "Priya Okonkwo-Lind, P.Eng."
     # the demo's reviewer acknowledges the table rows entered from memory (printed on the notice with the time)

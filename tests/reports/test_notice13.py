@@ -220,8 +220,8 @@ def test_sketch_locates_the_member():
     assert ft_in(7200) == "23'-7 1/2\""
     assert ft_in(304.8) == "1'-0\""
     assert support_names("D / 2-3", 2) == ["D/2", "D/3"]
-    assert support_names("2-3-4 / C", 3) == ["C/2", "C/3", "C/4"]
-    assert support_names("D / 2-3", 3) == []  # does not guess
+    assert support_names("2-3-4 / C", 3) == ["2/C", "3/C", "4/C"]  # in the order the gridline is written
+    assert support_names("D / 2-3", 3) == ["D/2", "", "D/3"]  # the inner support is not guessed
     beam = glulam(
         mark="RB-5",
         bearings=[
