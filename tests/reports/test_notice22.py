@@ -117,7 +117,7 @@ def test_a_summary_on_one_page_has_no_continuation_marks():
 def test_demo_summary_item_9_on_page_2_is_marked_continued(tmp_path):
     pdf = render_notice(_demo_notice(tmp_path))
     pages = _pages(pdf)
-    assert "9 items: 2 IMMEDIATE, 6 before loading, 1 before the next review" in pages[0]
+    assert "9 items: 4 IMMEDIATE, 4 before loading, 1 before the next review" in pages[0]
     assert "D-TEST-009" not in pages[0]  # the ninth row is on page 2 (as the reviewer saw it)...
     assert pages[1].startswith("Summary of items (continued): 9 items in all")  # ... now under a heading
     assert "…" not in _summary_text(pages)
