@@ -652,9 +652,9 @@ def _check_op_signatures(
         msg = f"op {ops[n].origin[:8]}:{ops[n].seq}: {why}"
         raise BundleRefused(msg)
     if lookup_failed is not None:
-        n, exc = lookup_failed
-        msg = f"op {ops[n].origin[:8]}:{ops[n].seq}: {exc}"
-        raise BundleRefused(msg) from exc
+        at, unknown = lookup_failed
+        msg = f"op {ops[at].origin[:8]}:{ops[at].seq}: {unknown}"
+        raise BundleRefused(msg) from unknown
 
 
 def _first_bad_signature(
