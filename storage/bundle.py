@@ -20,7 +20,7 @@ import time
 import zipfile
 import zlib
 from collections.abc import Callable, Sequence
-from concurrent.futures import ThreadPoolExecutor
+from concurrent.futures import Future, ThreadPoolExecutor
 from dataclasses import dataclass, field
 from json.encoder import encode_basestring
 from pathlib import Path
@@ -281,8 +281,9 @@ def export_bundles(
 ) -> list[dict[str, Any]]:
     """Write the changes as one or more bundles of at most ``part_ops`` ops each, to import in order.
 
-    Ops stream from their stored canonical text (nothing is decoded and re-encoded), and one part
-    is held in memory at a time, so no file written can exceed what import accepts. The demo site's
+    Ops stream from their stored canonical text (nothing is decoded and re-encoded), and at most two
+    parts are held in memory (one being written while the next is read), so no file written can exceed
+    what import accepts. The demo site's
     changes (``identity.DEMO_ORIGIN``) are left out unless ``include_demo``.
     """
     tell = progress or _silent
@@ -297,19 +298,11 @@ def export_bundles(
     if not include_demo:
         vector.pop(identity.DEMO_ORIGIN, None)
     total = int(store.db.execute("SELECT count(*) FROM op").fetchone()[0]) or 1
-    manifests: list[dict[str, Any]] = []
-    written: list[tuple[Path, str, int]] = []
-    done = 0
-    key = identity.device_key(store.db)
-    for n, part in enumerate(_parts(store, cursor, part_ops, _keep_all if include_demo else _not_demo), start=1):
-        path = part_path(out, n)
-        tell(min(0.95, done / total), f"writing {path.name}")
-        demo_only = set(part.ranges) == {identity.DEMO_ORIGIN}  # asked for: opens in any demo database
-        manifest, sha = _write_part(store, path, part, vector, identity.demo_key() if demo_only else key)
-        _keep_signatures(store, part.signed_now, part.checked_now)
-        manifests.append(manifest)
-        written.append((path, sha, len(part.lines)))
-        done += len(part.lines)
+    parts = _parts(store, cursor, part_ops, _keep_all if include_demo else _not_demo)
+    manifests, written = _write_parts(
+        store, out, parts, vector, lambda done, name: tell(min(0.95, done / total), f"writing {name}")
+    )
+    done = sum(count for _, _, count in written)
     store.record_sent(peer)
     with transaction(store.db):
         for path, sha, count in written:
@@ -324,6 +317,47 @@ def export_bundles(
                     store.db.execute("INSERT OR REPLACE INTO peer_cursor VALUES (?, ?, ?)", [peer, origin, last])
     tell(1.0, f"wrote {done:,} changes in {len(manifests)} file{'s' if len(manifests) > 1 else ''}")
     return manifests
+
+
+_Job = tuple[Future[tuple[dict[str, Any], str]], Path, _Part]
+
+
+def _write_parts(
+    store: Store, out: Path, parts: Any, vector: dict[str, int], tell: Callable[[int, str], None]
+) -> tuple[list[dict[str, Any]], list[tuple[Path, str, int]]]:
+    """Write each part to its file; the manifests and (file, SHA-256, op count) of each, in order.
+
+    Each part is written (compressed, fsynced, hashed: all release the GIL) by a worker thread while
+    the next part is read; a part is handed over only once the one before it is written, so at most
+    two parts are held and a failed write stops the export before the next file is begun.
+    ``tell(ops_done, file_name)`` reports progress.
+    """
+    key = identity.device_key(store.db)
+    manifests: list[dict[str, Any]] = []
+    written: list[tuple[Path, str, int]] = []
+    pending: _Job | None = None
+
+    def finish(job: _Job) -> None:
+        future, path, part = job
+        manifest, sha = future.result()  # a part that failed to write ends the export here
+        _keep_signatures(store, part.signed_now, part.checked_now)
+        manifests.append(manifest)
+        written.append((path, sha, len(part.lines)))
+
+    done = 0
+    with ThreadPoolExecutor(max_workers=1, thread_name_prefix="export-part") as pool:
+        for n, part in enumerate(parts, start=1):
+            if pending is not None:
+                finish(pending)
+            path = part_path(out, n)
+            tell(done, path.name)
+            demo_only = set(part.ranges) == {identity.DEMO_ORIGIN}  # asked for: opens in any demo database
+            signer = identity.demo_key() if demo_only else key
+            pending = (pool.submit(_write_part, store, path, part, vector, signer), path, part)
+            done += len(part.lines)
+        if pending is not None:
+            finish(pending)
+    return manifests, written
 
 
 def _keep_all(_origin: str) -> bool:
@@ -390,10 +424,16 @@ def _write_part(store: Store, out: Path, part: _Part, vector: dict[str, int], ke
 
 
 def import_bundles(store: Store, paths: Sequence[str | Path], progress: Progress | None = None) -> list[ImportReport]:
-    """Import the parts of a split export in order, stopping at the first one not applied."""
+    """Import the parts of a split export in order, stopping at the first one not applied.
+
+    One projection batch is carried from part to part (``ProjectionBatch.renew``), so the records and
+    field stamps a part read stay read for the next one unless another connection wrote in between.
+    """
     reports = []
+    carry = _Carry()
     for path in paths:
-        report = import_bundle(store, path, progress)
+        with gc_paused():
+            report = _import_bundle(store, path, progress, carry)
         reports.append(report)
         if report.outcome != "applied":
             break
@@ -800,11 +840,18 @@ def import_bundle(store: Store, path: str | Path, progress: Progress | None = No
     to the end, so collecting during it finds nothing.
     """
     with gc_paused():
-        return _import_bundle(store, path, progress)
+        return _import_bundle(store, path, progress, _Carry())
 
 
-def _import_bundle(store: Store, path: Path | str, progress: Progress | None) -> ImportReport:
-    """``import_bundle``'s work (run with the collector paused)."""
+@dataclass
+class _Carry:
+    """The projection batch of the last part applied, for the next part of the same import."""
+
+    batch: ProjectionBatch | None = None
+
+
+def _import_bundle(store: Store, path: Path | str, progress: Progress | None, carry: _Carry) -> ImportReport:
+    """``import_bundle``'s work (run with the collector paused); ``carry`` holds the batch between parts."""
     tell = progress or _silent
     tell(0.0, "verifying")
     path = Path(path)
@@ -852,7 +899,7 @@ def _import_bundle(store: Store, path: Path | str, progress: Progress | None) ->
                 store.write_blob_file(content)
                 created.append(store.blob_path(sha))
         before = store.db.execute("SELECT count(*) FROM conflict").fetchone()[0]
-        new = _apply_batches(store, v, tell, committed)
+        new = _apply_batches(store, v, tell, committed, carry)
     except BaseException:
         if not committed:  # nothing committed (a full disk, a kill signal): the blobs this import wrote go too
             for path_created in created:
@@ -872,15 +919,18 @@ def _import_bundle(store: Store, path: Path | str, progress: Progress | None) ->
     )
 
 
-def _apply_batches(store: Store, v: _Verified, tell: Progress, committed: list[int]) -> int:
+def _apply_batches(store: Store, v: _Verified, tell: Progress, committed: list[int], carry: _Carry) -> int:
     """Merge the verified ops in transactions of at most BATCH_OPS ops; the number of new ops.
 
-    ``committed`` receives the start of each batch once it has committed.
+    ``committed`` receives the start of each batch once it has committed. The batch of an earlier part
+    (``carry``) is renewed and used, unless this part renumbers a restored device's saves (that moves
+    rows the batch may hold).
     """
     new = 0
     total = len(v.ops)
     own = [op.seq for op in v.ops if op.origin == store.device_id]
-    batch: ProjectionBatch | None = None
+    batch = carry.batch if v.rebase_from is None else None
+    carry.batch = None  # until this part's batches have committed
     for start in range(0, max(total, 1), BATCH_OPS):
         with transaction(store.db):
             if start == 0:
@@ -895,6 +945,7 @@ def _apply_batches(store: Store, v: _Verified, tell: Progress, committed: list[i
             if start + BATCH_OPS >= total:
                 _sender_cursor(store, v.manifest)
         committed.append(start)
+    carry.batch = batch  # flushed and committed: the next part renews it
     return new
 
 
