@@ -622,11 +622,24 @@ def _entries(
     return body, sigs, blobs
 
 
+def _op_lines(text: str) -> list[str]:
+    """The lines of ops.jsonl, split at the line feed only, as they were joined.
+
+    Not ``str.splitlines``: that also splits at U+0085, U+2028 and U+2029, which canonical JSON
+    (``ensure_ascii=False``) writes raw inside strings, so a note pasted with a line separator made
+    every bundle carrying it unreadable.
+    """
+    lines = text.split("\n")
+    if lines[-1] == "":
+        lines.pop()  # the newline after the last op (an empty file has no line)
+    return lines
+
+
 def _parse_ops(body: bytes, sigs: bytes, op_count: int) -> tuple[list[Op], list[str]]:
     """The op lines as ops, and one signature per op."""
     ops = []
     try:
-        for n, line in enumerate(body.decode().splitlines(), start=1):
+        for n, line in enumerate(_op_lines(body.decode()), start=1):
             _refuse_unless(n <= MAX_OPS, f"more than {MAX_OPS} ops")
             ops.append(Op.from_row(json.loads(line)))
     except (ValueError, KeyError, TypeError, AttributeError, RecursionError) as exc:

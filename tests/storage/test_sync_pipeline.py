@@ -189,3 +189,24 @@ def test_export_writes_the_same_parts_and_stops_at_a_failed_write(tmp_path, monk
         export_bundles(a, tmp_path / "q.zip", part_ops=10)
     assert (tmp_path / "q.zip").exists()
     assert not any((tmp_path / f"q-{n}.zip").exists() for n in range(2, len(parts) + 1))
+
+
+@pytest.mark.parametrize("separator", ["\u2028", "\u2029", "\x85"])
+def test_a_note_with_a_unicode_line_separator_syncs(tmp_path, separator):
+    """A note holding U+2028, U+2029 or U+0085 goes through a bundle unchanged.
+
+    RFC 8259 lets a JSON string hold these unescaped (only U+0000-U+001F, quote and backslash must be
+    escaped), and canonical JSON writes them raw; Python's str.splitlines splits at them (its docs' table
+    of line boundaries), so op lines are split at the line feed only.
+    """
+    a = Store(tmp_path / "a.db")
+    b = Store(tmp_path / "b.db")
+    introduce(b, a)
+    beam_id = a.save_beam(a.create_site(name="Pasted").id, glulam())
+    a.update_beam(beam_id, {"notes": f"first line{separator}second line"})
+    export_bundle(a, tmp_path / "a.zip")
+    with zipfile.ZipFile(tmp_path / "a.zip") as z:
+        assert separator in z.read("ops.jsonl").decode()  # written raw, not escaped
+    report = import_bundle(b, tmp_path / "a.zip")
+    assert report.outcome == "applied", report.reason
+    assert b.beam_record(beam_id)["notes"] == f"first line{separator}second line"
