@@ -399,9 +399,10 @@ class ProjectionBatch:
             added = [s for (o, s, *_rest) in self.new_ops if o == origin and s != seq]
             self.held_max[origin] = max([top[0] or 0, *added])
         if seq == self.seen[origin] + 1:
-            # ops held beyond it (from an earlier bundle or earlier in this one) can close a longer run
-            holds = partial(self._holds, origin)  # the log as the batch sees it
-            self.seen[origin] = _contiguous_from(holds, seq) if seq < self.held_max[origin] else seq
+            # ops held beyond it (from an earlier bundle or earlier in this one) can close a longer run,
+            # read through the log as the batch sees it
+            held_beyond = seq < self.held_max[origin]
+            self.seen[origin] = _contiguous_from(partial(self._holds, origin), seq) if held_beyond else seq
         else:
             self.held_max[origin] = max(self.held_max[origin], seq)
 
@@ -488,23 +489,25 @@ class _Direct:
 
 
 def _apply_set(db: sqlite_utils.Database, op: Op, record_conflicts: bool, rows: ProjectionBatch | _Direct) -> None:
-    data, _ = rows.load(op.entity, op.record_id)
+    entity, record_id, bases = op.entity, op.record_id, op.base
+    stamp, set_stamp = rows.stamp, rows.set_stamp  # looked up once: an import runs this for every field
+    data, _ = rows.load(entity, record_id)
     data = data or {}
     new = (op.hlc, op.origin)
     changed = False
     for field, value in op.payload.items():
-        current = rows.stamp(op.entity, op.record_id, field)
-        base = op.base.get(field)
+        current = stamp(entity, record_id, field)
+        base = bases.get(field)
         base_t = (base[0], base[1]) if base else None
         if record_conflicts and current is not None and base_t != current and current != new:
-            cur_seq = rows.op_seq_at(current[1], current[0], op.entity, op.record_id)
+            cur_seq = rows.op_seq_at(current[1], current[0], entity, record_id)
             _record_conflict(db, op, field, value, (*current, cur_seq), data.get(field), new > current)
         if current is None or new > current:
             data[field] = value
             changed = True
-            rows.set_stamp(op.entity, op.record_id, field, op.hlc, op.origin)
+            set_stamp(entity, record_id, field, new[0], new[1])
     if changed:
-        rows.store(op.entity, op.record_id, data, None)
+        rows.store(entity, record_id, data, None)
 
 
 def _record_conflict(
