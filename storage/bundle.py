@@ -424,16 +424,10 @@ def _write_part(store: Store, out: Path, part: _Part, vector: dict[str, int], ke
 
 
 def import_bundles(store: Store, paths: Sequence[str | Path], progress: Progress | None = None) -> list[ImportReport]:
-    """Import the parts of a split export in order, stopping at the first one not applied.
-
-    One projection batch is carried from part to part (``ProjectionBatch.renew``), so the records and
-    field stamps a part read stay read for the next one unless another connection wrote in between.
-    """
+    """Import the parts of a split export in order, stopping at the first one not applied."""
     reports = []
-    carry = _Carry()
     for path in paths:
-        with gc_paused():
-            report = _import_bundle(store, path, progress, carry)
+        report = import_bundle(store, path, progress)
         reports.append(report)
         if report.outcome != "applied":
             break
@@ -853,18 +847,11 @@ def import_bundle(store: Store, path: str | Path, progress: Progress | None = No
     to the end, so collecting during it finds nothing.
     """
     with gc_paused():
-        return _import_bundle(store, path, progress, _Carry())
+        return _import_bundle(store, path, progress)
 
 
-@dataclass
-class _Carry:
-    """The projection batch of the last part applied, for the next part of the same import."""
-
-    batch: ProjectionBatch | None = None
-
-
-def _import_bundle(store: Store, path: Path | str, progress: Progress | None, carry: _Carry) -> ImportReport:
-    """``import_bundle``'s work (run with the collector paused); ``carry`` holds the batch between parts."""
+def _import_bundle(store: Store, path: Path | str, progress: Progress | None) -> ImportReport:
+    """``import_bundle``'s work (run with the collector paused)."""
     tell = progress or _silent
     tell(0.0, "verifying")
     path = Path(path)
@@ -912,7 +899,7 @@ def _import_bundle(store: Store, path: Path | str, progress: Progress | None, ca
                 store.write_blob_file(content)
                 created.append(store.blob_path(sha))
         before = store.db.execute("SELECT count(*) FROM conflict").fetchone()[0]
-        new = _apply_batches(store, v, tell, committed, carry)
+        new = _apply_batches(store, v, tell, committed)
     except BaseException:
         if not committed:  # nothing committed (a full disk, a kill signal): the blobs this import wrote go too
             for path_created in created:
@@ -932,18 +919,15 @@ def _import_bundle(store: Store, path: Path | str, progress: Progress | None, ca
     )
 
 
-def _apply_batches(store: Store, v: _Verified, tell: Progress, committed: list[int], carry: _Carry) -> int:
+def _apply_batches(store: Store, v: _Verified, tell: Progress, committed: list[int]) -> int:
     """Merge the verified ops in transactions of at most BATCH_OPS ops; the number of new ops.
 
-    ``committed`` receives the start of each batch once it has committed. The batch of an earlier part
-    (``carry``) is renewed and used, unless this part renumbers a restored device's saves (that moves
-    rows the batch may hold).
+    ``committed`` receives the start of each batch once it has committed.
     """
     new = 0
     total = len(v.ops)
     own = [op.seq for op in v.ops if op.origin == store.device_id]
-    batch = carry.batch if v.rebase_from is None else None
-    carry.batch = None  # until this part's batches have committed
+    batch: ProjectionBatch | None = None
     for start in range(0, max(total, 1), BATCH_OPS):
         with transaction(store.db):
             if start == 0:
@@ -958,7 +942,6 @@ def _apply_batches(store: Store, v: _Verified, tell: Progress, committed: list[i
             if start + BATCH_OPS >= total:
                 _sender_cursor(store, v.manifest)
         committed.append(start)
-    carry.batch = batch  # flushed and committed: the next part renews it
     return new
 
 

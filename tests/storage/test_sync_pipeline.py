@@ -4,8 +4,6 @@
   first failing op in log order) equals checking one op after another (``VERIFY_THREADS = 1``). The
   verifier is Ed25519 (RFC 8032) as implemented by ``cryptography``; a signature made by another key
   must fail.
-- ``import_bundles`` carries one projection batch from part to part: with another connection importing
-  in between, every table equals importing the parts one at a time (a fresh batch per part).
 - ``export_bundles`` writes a part while it reads the next: the files are the ones a part-at-a-time
   export writes, and a part that fails to write stops the export before the next file is begun.
 """
@@ -22,8 +20,7 @@ import pytest
 
 import storage.bundle as bundle_mod
 from storage import Store, identity
-from storage.bundle import MANIFEST_SIG_PREFIX, export_bundle, export_bundles, import_bundle, import_bundles, part_path
-from storage.db import transaction
+from storage.bundle import MANIFEST_SIG_PREFIX, export_bundle, export_bundles, import_bundle, part_path
 from storage.oplog import canonical
 from tests.core.beams import glulam
 from tests.storage.signing import introduce
@@ -123,47 +120,6 @@ def test_the_first_bad_relayed_signature_in_log_order_is_named(relayed, monkeypa
     (outcome, reason), _ = _import_both_ways(a, b, tmp, "g.zip", monkeypatch)
     assert outcome == "refused"
     assert "not base64" in reason
-
-
-def test_batch_carried_across_parts_equals_a_fresh_batch_per_part(tmp_path, monkeypatch):
-    """Another connection commits an edit of the same beams between two parts; nothing it wrote is lost."""
-    a = _origin_with_edits(tmp_path / "a.db", 6, 60)
-    x = Store(tmp_path / "x.db")
-    introduce(x, a)
-    export_bundle(a, tmp_path / "a-all.zip")
-    assert import_bundle(x, tmp_path / "a-all.zip").outcome == "applied"
-    for beam_id, _ in x.beams(x.sites()[0].id):
-        x.update_beam(beam_id, {"level": "edited on x"})  # newer than every op of a: it must win
-    with transaction(x.db):  # x sends only its own edits (a's ops reach the receiver in the parts)
-        x.db.execute("INSERT INTO peer_cursor VALUES ('dst', ?, ?)", [a.device_id, x.held_seq(a.device_id)])
-    export_bundle(x, tmp_path / "x.zip", peer="dst")
-    parts = export_bundles(a, tmp_path / "parts.zip", part_ops=25)
-    paths = [part_path(tmp_path / "parts.zip", n + 1) for n in range(len(parts))]
-    assert len(paths) >= 3
-    states = []
-    for carried in (True, False):
-        db = tmp_path / f"dst-{carried}.db"
-        dst = Store(db)
-        introduce(dst, a, x)
-        real = bundle_mod._import_bundle
-        calls = []
-
-        def between(store, path, progress, carry, real=real, calls=calls, db=db, dst=dst, carried=carried):
-            if store is not dst:  # the other connection's own import
-                return real(store, path, progress, carry)
-            calls.append(path)
-            if len(calls) == 2:  # after the first part: another connection imports x's edits
-                assert import_bundle(Store(db), tmp_path / "x.zip").outcome == "applied"
-            return real(store, path, progress, carry if carried else bundle_mod._Carry())
-
-        monkeypatch.setattr(bundle_mod, "_import_bundle", between)
-        assert {r.outcome for r in import_bundles(dst, paths)} == {"applied"}
-        monkeypatch.setattr(bundle_mod, "_import_bundle", real)
-        assert len(calls) == len(paths)
-        levels = {json.loads(d)["level"] for (d,) in dst.db.execute("SELECT data FROM beam")}
-        assert levels == {"edited on x"}
-        states.append(_state(dst))
-    assert states[0] == states[1]
 
 
 def test_export_writes_the_same_parts_and_stops_at_a_failed_write(tmp_path, monkeypatch):
