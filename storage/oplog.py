@@ -116,7 +116,7 @@ class Op:
         import builds one op per line: the dataclass constructor's ten frozen-attribute writes were a
         third of the parse).
         """
-        if row.keys() != _OP_KEY_SET:
+        if (row.keys() if isinstance(row, dict) else set(row)) != _OP_KEY_SET:  # a line may hold any JSON
             msg = f"op keys {sorted(row)} differ from {sorted(OP_KEYS)}"
             raise ValueError(msg)
         payload = row["payload"] if isinstance(row["payload"], dict) else json.loads(row["payload"])
