@@ -142,7 +142,7 @@ def repeated_rows(work: Path, n: int) -> list[Row]:
     sites = -(-n // SITE_BEAMS)
     return [
         Row(
-            f"portfolio recheck, {n:,} beams, repeated members ({sites} sites x {DESIGNS} designs = "
+            f"portfolio recheck, {n:,} beams, repeated members ({sites} site{'s' * (sites > 1)} x {DESIGNS} designs = "
             f"{sites * DESIGNS:,} distinct), 2 processes, summary memo (NOT the aim set)",
             f"{fmt_time(on['seconds'])} ({n / on['seconds']:,.0f} beams/s), {on['peak_mb']:.0f} MB; "
             f"CPU parent {on['cpu_s']:.1f} s, workers {on['workers_cpu_s']:.1f} s",
