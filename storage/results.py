@@ -357,17 +357,21 @@ def jobs(db: Any, site_id: str | None = None, only_stale: bool = True) -> Iterat
             "WHERE r.input_hash = ''" + (" AND r.site_id = ?" if site_id else "") + " ORDER BY b.id"
         )
     else:
-        sql = _every_beam_sql(site_id, after=False) + " ORDER BY b.id"
+        sql = _every_beam_sql(site_id) + " ORDER BY b.id"
     for bid, sid, text, listed in db.execute(sql, [site_id] if site_id else []).fetchall():
         if sid not in bases:
             bases[sid] = _site_bases(db, sid)
         yield bid, sid or "", input_hash(text, bases[sid], stamp), text, listed
 
 
-def _every_beam_sql(site_id: str | None, after: bool) -> str:
-    """Every beam not archived (of a site; ``after``: with an id above a bound), as a job's columns."""
-    where = ["NOT coalesce(json_extract(b.data, '$.archived'), 0)"] + (["b.site_id = ?"] if site_id else [])
-    where += ["b.id > ?"] if after else []
+def _every_beam_sql(site_id: str | None, after: bool = False, paged: bool = False) -> str:
+    """Every beam not archived (of a site; ``after``: with an id above a bound), as a job's columns.
+
+    ``paged``: read in id order through the id index (``+b.site_id`` keeps SQLite off the site index,
+    which would sort the whole site again for every page: 0.31 s instead of 0.03 s for a 10k site).
+    """
+    site = ["+b.site_id = ?" if paged else "b.site_id = ?"] if site_id else []
+    where = [*site, "NOT coalesce(json_extract(b.data, '$.archived'), 0)"] + (["b.id > ?"] if after else [])
     return f"SELECT b.id, b.site_id, b.data, {_LIST_FIELDS_SQL} FROM beam b WHERE " + " AND ".join(where)
 
 
@@ -383,7 +387,7 @@ def _parts(db: Any, site_id: str | None, chunk: int) -> Iterator[Part]:
     """
     stamp = tables_stamp(db)
     bases: dict[str | None, str] = {}
-    first, more = _every_beam_sql(site_id, after=False), _every_beam_sql(site_id, after=True)
+    first, more = _every_beam_sql(site_id, paged=True), _every_beam_sql(site_id, after=True, paged=True)
     head = [site_id] if site_id else []
     last: str | None = None
     while True:

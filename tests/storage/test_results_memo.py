@@ -205,3 +205,15 @@ def test_portfolio_of_one_site_stores_what_the_site_refresh_stores(tmp_path, pro
     got = {r[0]: tuple(r) for r in store.db.execute(f"SELECT {', '.join(results._ROW_COLUMNS)} FROM beam_result")}
     assert got == expect
     assert gone not in got
+
+
+@pytest.mark.parametrize("site", [True, False])
+def test_portfolio_pages_are_read_in_id_order_without_sorting_a_site_per_page(tmp_path, site):
+    """A page is a seek on the id index: no temporary sort (per page, that sorted the whole site again)."""
+    store = Store(tmp_path / "q.db")
+    yard, _ = _two_sites(store, 4)
+    args = [yard.id] if site else []
+    for after in (False, True):
+        sql = results._every_beam_sql(yard.id if site else None, after=after, paged=True) + " ORDER BY b.id LIMIT ?"
+        plan = store.db.execute(f"EXPLAIN QUERY PLAN {sql}", [*args, *([""] if after else []), 2]).fetchall()
+        assert "TEMP B-TREE" not in repr(plan), plan
