@@ -1,11 +1,13 @@
 """Child process of bench/siteopen.py, so the bench process itself stays small.
 
-usage: python -m bench.site_probe build DB N | open DB | old DB | recheck DB PROCESSES
+usage: python -m bench.site_probe build DB N | repeated DB N | open DB | old DB | recheck DB PROCESSES [nomemo]
 build: a site of N varied beams written through the storage API (one transaction);
+repeated: N beams on sites of SITE_BEAMS, each site's beams drawn from its own DESIGNS typical designs;
 open: the site screen's data from stored results (view model rows, counts, levels, groups, open
 deficiencies, findings not yet raised: what the screen's on_pre_enter asks for);
 old: the same with a full recheck per beam (the path before results were stored);
-recheck: the portfolio recheck over every beam. Prints one line: BENCH {"seconds": ..., "peak_mb": ...}.
+recheck: the portfolio recheck over every beam (nomemo: without the per-process summary memo).
+Prints one line: BENCH {"seconds": ..., "peak_mb": ...}.
 """
 
 from __future__ import annotations
@@ -30,37 +32,63 @@ BEAM: dict[str, Any] = {  # an invented roof beam (demo-style input, not a check
 }
 
 
+def _design(rng: Any) -> dict[str, Any]:
+    """One beam's engineering fields: span, depth, width, purlin spacing and loads drawn from ``rng``."""
+    span = rng.randrange(4000, 9001, 10)
+    return dict(
+        BEAM,
+        mark="",  # set per beam (``_write``); here to keep the record's key order
+        spans_mm=[span],
+        b_mm=rng.choice((80, 130, 175)),
+        d_mm=38 * rng.randint(8, 14),
+        top_edge=dict(BEAM["top_edge"], spacing_mm=min(span, rng.choice((600, 1200, 1800, 2400)))),
+        loads={
+            "dead_kn_m": rng.randint(100, 400) / 100,
+            "live_kn_m": 0.0,
+            "snow_kn_m": rng.randint(200, 800) / 100,
+        },
+    )
+
+
 def build(db: str, n: int) -> None:
-    """A site of n beams, seeded, with span, depth, width, purlin spacing and loads drawn for each beam.
+    """A site of n beams, seeded, each beam's engineering fields drawn for it (``_design``).
 
     Almost no two beams are alike (a portfolio, not one beam repeated), so the results differ.
     """
     import random
 
+    rng = random.Random(14)
+    _write(db, [(0, _design(rng)) for _ in range(n)], 1)
+
+
+SITE_BEAMS = 2500  # beams a site in the repeated-members portfolio
+DESIGNS = 40  # typical designs a site's beams are drawn from (rows of identical purlins: common practice)
+
+
+def build_repeated(db: str, n: int) -> None:
+    """N beams on sites of SITE_BEAMS, each site's beams drawn (seeded) from its own DESIGNS designs.
+
+    Members repeat as in real buildings; n / SITE_BEAMS * DESIGNS distinct designs in all.
+    """
+    import random
+
+    rng = random.Random(14)
+    sites = -(-n // SITE_BEAMS)
+    designs = [[_design(rng) for _ in range(DESIGNS)] for _ in range(sites)]
+    _write(db, [(i // SITE_BEAMS, rng.choice(designs[i // SITE_BEAMS])) for i in range(n)], sites)
+
+
+def _write(db: str, beams: list[tuple[int, dict[str, Any]]], sites: int) -> None:
+    """Write (site number, design) beams through the storage API, one transaction, marks and places by order."""
     from storage import Store
     from storage.clock import uuid7
     from storage.db import transaction
 
-    rng = random.Random(14)
     store = Store(db)
-    site = store.create_site(name="Bench site")
+    site_ids = [store.create_site(name=f"Bench site {k + 1}" if sites > 1 else "Bench site").id for k in range(sites)]
     with transaction(store.db):
-        for i in range(n):
-            span = rng.randrange(4000, 9001, 10)
-            beam = dict(
-                BEAM,
-                mark=f"B-{i}",
-                spans_mm=[span],
-                b_mm=rng.choice((80, 130, 175)),
-                d_mm=38 * rng.randint(8, 14),
-                top_edge=dict(BEAM["top_edge"], spacing_mm=min(span, rng.choice((600, 1200, 1800, 2400)))),
-                loads={
-                    "dead_kn_m": rng.randint(100, 400) / 100,
-                    "live_kn_m": 0.0,
-                    "snow_kn_m": rng.randint(200, 800) / 100,
-                },
-            )
-            beam.update(site_id=site.id, level=f"L{i % 12}", gridline=f"{i % 40}/{i % 7}")
+        for i, (k, design) in enumerate(beams):
+            beam = dict(design, mark=f"B-{i}", site_id=site_ids[k], level=f"L{i % 12}", gridline=f"{i % 40}/{i % 7}")
             store._save_in_tx("beam", uuid7(), beam, "set", None)
     store.close()
 
@@ -89,7 +117,7 @@ def site_open(db: str, old: bool) -> dict[str, float]:
     }
 
 
-def portfolio(db: str, processes: int) -> dict[str, float]:
+def portfolio(db: str, processes: int, memo: bool = True) -> dict[str, float]:
     """Time the portfolio recheck (every beam, stored), with this process's and its workers' CPU.
 
     With one process, the time spent inside ``core.recheck.recheck`` is summed too (``recheck_s``),
@@ -99,8 +127,11 @@ def portfolio(db: str, processes: int) -> dict[str, float]:
     import importlib
     import os
 
-    from storage import Store
+    from storage import Store, results
     from storage.results import recheck_all
+
+    if not memo:
+        results.MEMO_MAX = 0  # before the workers fork: they inherit it
 
     module: Any = importlib.import_module("core.recheck")  # the package (``core.recheck`` is also the function)
     inside = [0.0, 0.0]  # wall, CPU
@@ -140,7 +171,11 @@ if __name__ == "__main__":
         out = {"seconds": time.perf_counter() - t}
     elif mode in ("open", "old"):
         out = site_open(path, old=mode == "old")
+    elif mode == "repeated":
+        t = time.perf_counter()
+        build_repeated(path, int(sys.argv[3]))
+        out = {"seconds": time.perf_counter() - t}
     elif mode == "recheck":
-        out = portfolio(path, int(sys.argv[3]))
+        out = portfolio(path, int(sys.argv[3]), memo=sys.argv[4:] != ["nomemo"])
     out["peak_mb"] = own_peak_mb()
     print("BENCH " + json.dumps(out), flush=True)

@@ -30,7 +30,7 @@ def test_fresh_stores_the_recheck_and_reuses_it(store, monkeypatch):
     assert got[ids[0]].rows_used
     assert {r["status"] for r in got[ids[0]].rows_used} <= {"verified", "confirmed", "memory"}
     calls = []
-    monkeypatch.setattr(results, "compute", lambda job: calls.append(job))
+    monkeypatch.setattr(results, "row_of", lambda job: calls.append(job))
     assert results.fresh(store.db, site.id) == got
     assert calls == []  # nothing stale: nothing rechecked
 
@@ -40,8 +40,8 @@ def test_a_changed_beam_is_rechecked_the_others_not(store, monkeypatch):
     results.fresh(store.db, site.id)
     store.update_beam(ids[1], {"d_mm": 190})  # a far shallower member than logged
     seen = []
-    real = results.compute
-    monkeypatch.setattr(results, "compute", lambda job: seen.append(job[0]) or real(job))
+    real = results.row_of
+    monkeypatch.setattr(results, "row_of", lambda job: seen.append(job[0]) or real(job))
     got = results.fresh(store.db, site.id)
     assert seen == [ids[1]]
     assert got[ids[1]].status == recheck(glulam(d_mm=190)).status.value != got[ids[0]].status
