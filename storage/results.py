@@ -131,6 +131,7 @@ _NOT_IN_KEY = {"mark"}  # a set, not a frozenset: pydantic's serializer takes a 
 def _summary_of(beam: Any) -> Summ:
     """``_summary`` of a validated beam (no memo): the recheck, reduced to what a stored result keeps."""
     from core.recheck import recheck
+    from core.results import governing_check
 
     try:
         result = recheck(beam)
@@ -142,12 +143,30 @@ def _summary_of(beam: Any) -> Summ:
     checks.append(("shear", result.shear.utilisation, result.shear.trace))
     checks += [(f"bearing {b.support}", b.utilisation, b.trace) for b in result.bearing]
     checks.append(("deflection", result.deflection.utilisation, result.deflection.trace))
-    rated = [(u, name) for name, u, _ in checks if u is not None]
-    governing = max(rated)[1] if rated else ""
+    index, _ = governing_check(result.bending, result.shear, result.bearing, result.deflection)
+    governing = checks[index][0]  # an unrated bending region governs a member whose capacity is unknown
     rows = {(t.clause, t.source, t.status) for _, _, trace in checks for t in trace if t.status in TABLE_STATUSES}
     findings = tuple((f.code, f.priority.value, f.region or "") for f in result.findings)
     util = None if result.governing_utilisation is None else round(float(result.governing_utilisation), 6)
     return result.status.value, governing, util, findings, tuple(sorted(rows))
+
+
+def stale_after_new_results_version(db: Any) -> bool:
+    """Mark every stored result stale once when the recheck's output changed (``core.results.RESULTS_VERSION``).
+
+    Stored results are otherwise refreshed only when a beam, its site's bases or a firm table record
+    changes (the triggers): an app update whose recheck prints something else (an engineering fix) would
+    leave every site showing the old statuses. True when results were marked stale.
+    """
+    from core.results import RESULTS_VERSION
+
+    row = db.execute("SELECT value FROM meta WHERE key = 'results_version'").fetchone()
+    if row is not None and row[0] == str(RESULTS_VERSION):
+        return False
+    with transaction(db):
+        db.execute("UPDATE beam_result SET input_hash = '' WHERE input_hash != ''")
+        db.execute("INSERT OR REPLACE INTO meta VALUES ('results_version', ?)", [str(RESULTS_VERSION)])
+    return True
 
 
 def tables_stamp(db: Any) -> str:

@@ -89,9 +89,10 @@ class Store:
         self.device_id = meta["device_id"]
         self.device_code = meta["device_code"]
         self._resume_from_mark()
-        from storage import firm_tables
+        from storage import firm_tables, results
 
         firm_tables.apply(self.db)  # table lookups honour this firm's verified and corrected rows
+        results.stale_after_new_results_version(self.db)  # an app whose recheck prints something else
 
     # -- bookkeeping -------------------------------------------------------------------------
     def _meta(self) -> dict[str, str]:

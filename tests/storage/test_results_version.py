@@ -1,0 +1,69 @@
+"""Stored results follow the recheck's version, and a member of unknown capacity stores no number.
+
+An app update whose recheck prints something else (core.results.RESULTS_VERSION) must not leave every site
+showing statuses from the old recheck: the results are marked stale once when the database is opened.
+"""
+
+from core.recheck import recheck
+from core.results import RESULTS_VERSION
+from storage import Store, results
+from tests.core.beams import glulam
+
+
+def _version(store):
+    return store.db.execute("SELECT value FROM meta WHERE key = 'results_version'").fetchone()[0]
+
+
+def _stale(store):
+    return store.db.execute("SELECT count(*) FROM beam_result WHERE input_hash = ''").fetchone()[0]
+
+
+def test_results_of_another_version_are_recomputed_once(tmp_path, monkeypatch):
+    path = tmp_path / "v.db"
+    store = Store(path)
+    site = store.create_site(name="Yard")
+    for i in range(3):
+        store.save_beam(site.id, glulam(mark=f"B-{i}"), {"level": "Roof"})
+    results.fresh(store.db, site.id)
+    assert _stale(store) == 0
+    assert _version(store) == str(RESULTS_VERSION)
+    store.close()
+    assert _stale(Store(path)) == 0  # same version: nothing to redo
+    # results written by an app whose recheck printed something else
+    older = Store(path)
+    older.db.execute("UPDATE meta SET value = ? WHERE key = 'results_version'", [str(RESULTS_VERSION - 1)])
+    older.close()
+    reopened = Store(path)
+    assert _stale(reopened) == 3
+    assert _version(reopened) == str(RESULTS_VERSION)
+    calls = []
+    real = results.row_of
+    monkeypatch.setattr(results, "row_of", lambda job: calls.append(job) or real(job))
+    results.fresh(reopened.db, site.id)
+    assert len(calls) == 3
+    assert _stale(reopened) == 0
+    assert results.stale_after_new_results_version(reopened.db) is False
+
+
+def test_a_database_without_a_version_is_taken_as_older(tmp_path):
+    path = tmp_path / "old.db"
+    store = Store(path)
+    site = store.create_site(name="Yard")
+    store.save_beam(site.id, glulam(), {"level": "Roof"})
+    results.fresh(store.db, site.id)
+    store.db.execute("DELETE FROM meta WHERE key = 'results_version'")  # written before versions were kept
+    store.close()
+    assert _stale(Store(path)) == 1
+
+
+def test_a_member_of_unknown_capacity_stores_its_bending_region_and_no_number(tmp_path):
+    """Bearing without lateral restraint, d/b > 2.5: capacity not established (CSA O86-19 7.5.6.3.1)."""
+    store = Store(tmp_path / "n.db")
+    site = store.create_site(name="Yard")
+    beam = glulam(bearings=[{"lateral": False, "rotation": True, "length_mm": 140}] * 2)
+    bid = store.save_beam(site.id, beam, {"level": "Roof"})
+    got = results.fresh(store.db, site.id)[bid]
+    assert got.status == "not_established"
+    assert recheck(beam).shear.utilisation < 1.0  # the number the list used to show
+    assert got.utilisation is None
+    assert got.governing.startswith("bending ")
