@@ -309,8 +309,29 @@ def write(db: Any, results: Iterable[StoredResult]) -> None:
 
 
 def write_rows(db: Any, rows: list[tuple[Any, ...]]) -> None:
-    """Store ``beam_result`` rows made by ``as_row`` (inside the caller's transaction)."""
-    db.conn.executemany(ROW_SQL, rows)
+    """Store ``beam_result`` rows made by ``as_row`` (inside the caller's transaction), current ones only.
+
+    A row is written only while its key is still the key of the beam's record, site bases and tables as they
+    stand inside this transaction (``BEGIN IMMEDIATE`` holds the write lock): a beam saved after its record
+    was read keeps its stale mark instead of getting the old recheck under the old key.
+    """
+    db.conn.executemany(ROW_SQL, _still_current(db, rows))
+
+
+def _still_current(db: Any, rows: list[tuple[Any, ...]]) -> list[tuple[Any, ...]]:
+    """The rows whose input hash (row[2]) is the key of their beam's record as it stands now."""
+    stamp = tables_stamp(db)
+    bases: dict[str, str] = {}
+    now: dict[str, str] = {}
+    ids = [r[0] for r in rows]
+    for i in range(0, len(ids), 500):
+        part = ids[i : i + 500]
+        sql = f"SELECT id, site_id, data FROM beam WHERE id IN ({','.join('?' * len(part))})"
+        for bid, sid, text in db.execute(sql, part).fetchall():
+            if sid not in bases:
+                bases[sid] = _site_bases(db, sid)
+            now[bid] = input_hash(text, bases[sid], stamp)
+    return [r for r in rows if now.get(r[0]) == r[2]]
 
 
 def _text(value: Any) -> str:

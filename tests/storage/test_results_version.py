@@ -67,3 +67,55 @@ def test_a_member_of_unknown_capacity_stores_its_bending_region_and_no_number(tm
     assert recheck(beam).shear.utilisation < 1.0  # the number the list used to show
     assert got.utilisation is None
     assert got.governing.startswith("bending ")
+
+
+def _race(monkeypatch, path, beam_id):
+    """While the recheck runs, another connection saves a changed beam (a sync import, the hub, the app)."""
+    real, done = results.row_of, []
+
+    def row_of(job):
+        if not done:
+            other = Store(path)
+            other.save_beam(other_site(other), glulam(mark="B-0", d_mm=494), {"level": "Roof"}, beam_id=beam_id)
+            other.close()
+            done.append(True)
+        return real(job)
+
+    monkeypatch.setattr(results, "row_of", row_of)
+    return done
+
+
+def other_site(store):
+    return store.db.execute("SELECT id FROM site").fetchone()[0]
+
+
+def _key_of(store, beam_id):
+    return store.db.execute("SELECT input_hash, utilisation FROM beam_result WHERE beam_id = ?", [beam_id]).fetchone()
+
+
+def test_a_beam_saved_while_its_recheck_ran_keeps_its_stale_mark(tmp_path, monkeypatch):
+    """The old recheck must not be stored under the old key over a newer save: the row stays stale."""
+    path = tmp_path / "race.db"
+    store = Store(path)
+    site = store.create_site(name="Yard")
+    ids = [store.save_beam(site.id, glulam(mark=f"B-{i}"), {"level": "Roof"}) for i in range(3)]
+    done = _race(monkeypatch, path, ids[0])
+    results.refresh(store.db, site.id)
+    assert done
+    assert _key_of(store, ids[0])[0] == ""  # stale: the save came after its record was read
+    assert all(_key_of(store, b)[0] for b in ids[1:])
+    monkeypatch.undo()
+    got = results.fresh(store.db, site.id)
+    assert got[ids[0]].utilisation == round(recheck(glulam(d_mm=494)).governing_utilisation, 6)
+
+
+def test_the_portfolio_keeps_the_stale_mark_of_a_beam_saved_meanwhile(tmp_path, monkeypatch):
+    path = tmp_path / "race-all.db"
+    store = Store(path)
+    site = store.create_site(name="Yard")
+    ids = [store.save_beam(site.id, glulam(mark=f"B-{i}"), {"level": "Roof"}) for i in range(3)]
+    results.fresh(store.db, site.id)
+    _race(monkeypatch, path, ids[0])
+    results.recheck_all(store.db, processes=1)
+    assert _key_of(store, ids[0])[0] == ""
+    assert all(_key_of(store, b)[0] for b in ids[1:])
