@@ -38,7 +38,8 @@ class NoticeScreen(Screen):
         self.page_source, self.page_text = "", "no preview yet"
         if not self.ids.export_dir.text:
             self.ids.export_dir.text = str(Path.home() / "bracewalk-exports")
-        self.unraised_text = SiteViewModel(app.store, app.site_id).unraised_warning()
+        warnings = (SiteViewModel(app.store, app.site_id).unraised_warning(), self.vm.contact_warning())
+        self.unraised_text = "\n".join(w for w in warnings if w)
         self.render()
 
     def render(self) -> None:

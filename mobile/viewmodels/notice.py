@@ -65,6 +65,16 @@ class NoticeViewModel:
         """'MEMORY (not checked ...)  ·  CSA O86-19 Table 7.3: glulam_grades row ...' per row used."""
         return [f"{r.status_words}  ·  {r.label}" for r in self.table_rows()]
 
+    def contact_warning(self) -> str:
+        """A line for the issuer when the notice would give the contractor no phone or email for the reviewer."""
+        profile = self.store.reviewer_profile()
+        if profile is not None and (profile.phone.strip() or profile.email.strip()):
+            return ""
+        return (
+            "No phone or email for the signer: the notice cannot tell the contractor how to reach you. "
+            "Add one under Signer."
+        )
+
     def memory_rows(self) -> list[str]:
         """The rows entered from memory that the reviewer must acknowledge before issue."""
         return memory_rows(self.table_rows())

@@ -236,6 +236,21 @@ def test_deficiency_lifecycle_with_evidence_and_history(demo, tmp_path):
     assert not vm.edit("priority", "whenever")
 
 
+def test_notice_screen_warns_when_the_signer_has_no_phone_or_email(demo):
+    """A notice asks the contractor to call the reviewer (common practice): the issuer hears first if it can't."""
+    from core.records import ReviewerProfile
+
+    store, site_id = demo
+    vm = NoticeViewModel(store, site_id)
+    assert "No phone or email for the signer" in vm.contact_warning()  # no profile yet
+    store.set_reviewer_profile(ReviewerProfile(name="P. Okonkwo-Lind", firm="Tamarack Structural Review Ltd."))
+    assert "No phone or email" in vm.contact_warning()
+    store.set_reviewer_profile(ReviewerProfile(name="P. Okonkwo-Lind", email="p.okonkwo-lind@tamarack.example"))
+    assert vm.contact_warning() == ""
+    store.set_reviewer_profile(ReviewerProfile(name="P. Okonkwo-Lind", phone="604-555-0147"))
+    assert vm.contact_warning() == ""
+
+
 def test_notice_choose_preview_issue_export(demo, tmp_path):
     store, site_id = demo
     raise_all(store, site_id)
