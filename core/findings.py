@@ -20,12 +20,12 @@ from core.results import (
 
 FINDING_CODES = tuple(code.value for code in FindingCode)  # kept for callers that list the codes
 
-# Snow is a load nobody on site can keep off a member (common practice: an overstress under a snow
-# combination is made safe by shoring, not by an instruction not to load).
 DEAD_MAKE_SAFE = (
     "Make safe now: the member is overstressed under the dead load as it stands; have it propped and tell the "
     "site superintendent today. "
 )
+# Snow is a load nobody on site can keep off a member (common practice: an overstress under a snow
+# combination is made safe by shoring, not by an instruction not to load).
 SNOW_MAKE_SAFE = (
     "Make safe now: snow can load this member at any time and cannot be kept off it reliably; have it shored "
     "or propped before snow builds up and tell the site superintendent today. "

@@ -169,12 +169,8 @@ def governing_check(
                 return i, None
     utils = [r.utilisation for r in bending] + [shear.utilisation]
     utils += [b.utilisation for b in bearing] + [deflection.utilisation]
-    best = len(utils) - 1  # deflection: always rated
-    for i, u in enumerate(utils):
-        held = utils[best]
-        if u is not None and held is not None and u >= held:
-            best = i
-    return best, utils[best]
+    util, best = max((u, i) for i, u in enumerate(utils) if u is not None)  # deflection is always rated
+    return best, util
 
 
 class Recheck(Out):

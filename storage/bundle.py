@@ -283,8 +283,8 @@ def export_bundles(
 
     Ops stream from their stored canonical text (nothing is decoded and re-encoded), and at most two
     parts are held in memory (one being written while the next is read), so no file written can exceed
-    what import accepts. The demo site's
-    changes (``identity.DEMO_ORIGIN``) are left out unless ``include_demo``.
+    what import accepts. The demo site's changes (``identity.DEMO_ORIGIN``) are left out unless
+    ``include_demo``.
     """
     tell = progress or _silent
     tell(0.0, "reading changes")

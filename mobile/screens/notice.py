@@ -26,7 +26,7 @@ class NoticeScreen(Screen):
     message = StringProperty("")
     page_text = StringProperty("no preview yet")
     page_source = StringProperty("")
-    unraised_text = StringProperty("")
+    warning_text = StringProperty("")  # beams not yet raised, a signer without phone or email
     ack_text = StringProperty("")
 
     def on_pre_enter(self, *args: Any) -> None:
@@ -39,7 +39,7 @@ class NoticeScreen(Screen):
         if not self.ids.export_dir.text:
             self.ids.export_dir.text = str(Path.home() / "bracewalk-exports")
         warnings = (SiteViewModel(app.store, app.site_id).unraised_warning(), self.vm.contact_warning())
-        self.unraised_text = "\n".join(w for w in warnings if w)
+        self.warning_text = "\n".join(w for w in warnings if w)
         self.render()
 
     def render(self) -> None:
