@@ -78,6 +78,19 @@ def test_log_in_open_a_site_and_an_item_download_a_notice(office, browser):  # n
     assert "Governing check" in recheck.text
     assert "bending, span 1 (positive moment)" in recheck.text
     _shot(browser, "4b-item-recheck")
+    # the same item once its beam lost a bearing restraint (CSA O86-19 7.5.6.3.1): no governing number
+    from mobile.hub_client import sync
+
+    tablet = office[5]
+    loose = {"lateral": False, "rotation": True, "length_mm": 140}
+    tablet.update_beam(d.beam_id, {"bearings": [loose, loose]})
+    assert sync(tablet).in_step
+    browser.refresh()
+    assert _wait_for(browser, "taken as failing")
+    recheck = browser.find_element(By.ID, "recheck")
+    browser.execute_script("arguments[0].scrollIntoView();", recheck)
+    assert "capacity not established or not permitted (taken as failing)" in recheck.text
+    _shot(browser, "4c-item-not-established")
     browser.find_element(By.LINK_TEXT, "Notices").click()
     assert _wait_for(browser, "matches its recorded SHA-256")
     _shot(browser, "5-notices")
