@@ -396,7 +396,8 @@ def check_findings(
                 region=deflection.element,
                 message=(
                     f"{beam.mark}, {deflection.element}: deflection under {deflection.case} "
-                    f"{deflection.delta_mm:.1f} mm exceeds the limit {deflection.limit_mm:.1f} mm."
+                    f"{deflection.delta_mm:.1f} mm exceeds the limit {deflection.limit_mm:.1f} mm "
+                    f"(L/{deflection.limit_ratio:g})."
                 ),
                 action="Refer to the engineer of record (serviceability).",
                 clause=deflection.clause,

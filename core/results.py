@@ -21,7 +21,7 @@ CAUTION = (
 # The version of what a recheck prints. Bump it with every change that may change a recheck's output (the
 # golden digests, tests/core/golden_versions.txt, refuse a rewrite under the same version): stored results
 # of another version are recomputed when a database is opened (storage.results).
-RESULTS_VERSION = 2
+RESULTS_VERSION = 3
 
 
 class Out(BaseModel):
@@ -135,8 +135,9 @@ class DeflectionCheck(Out):
 
     delta_mm: float
     limit_mm: float
+    limit_ratio: float  # the limit is the deflection span / this ratio (L/360 -> 360)
     utilisation: float
-    case: str
+    case: str  # the specified-load case: "L + S", "D + L + S" or the long-term dead load
     element: str
     clause: str
     trace: list[FactorTrace]
@@ -289,9 +290,9 @@ def check_lines(result: Recheck) -> list[CheckLine]:
             key="deflection",
             name=f"deflection, {d.element}",
             demand=f"{d.delta_mm:.1f} mm",
-            capacity=f"limit {d.limit_mm:.1f} mm",
+            capacity=f"limit {d.limit_mm:.1f} mm (L/{d.limit_ratio:g})",
             utilisation=d.utilisation,
             clause=d.clause,
-            combination=d.case,
+            combination="no specified load" if d.case == "no load" else f"specified {d.case}",
         ),
     ]

@@ -453,7 +453,7 @@ def _engineering(item: Item, st: dict[str, ParagraphStyle], numbers: list[str] |
         rows.append(
             [
                 Paragraph(esc(c.name), s),
-                Paragraph(esc(c.demand), s),
+                Paragraph(esc(c.demand) + (f"<br/>under {esc(c.combination)}" if c.combination else ""), s),
                 Paragraph(esc(c.capacity), s),
                 Paragraph(esc(util), style),
                 Paragraph(esc(c.clause), s),
@@ -461,7 +461,7 @@ def _engineering(item: Item, st: dict[str, ParagraphStyle], numbers: list[str] |
         )
     parts: list[Any] = [
         Paragraph("Engineering detail (for the engineer of record)", st["h3"]),
-        _grid(rows, [38 * mm, 26 * mm, 46 * mm, 32 * mm, 32 * mm], shade_first_col=False),
+        _grid(rows, [34 * mm, 42 * mm, 42 * mm, 28 * mm, 28 * mm], shade_first_col=False),
     ]
     passing = passes_as_installed(item, numbers or [item.number])
     if passing:

@@ -1,4 +1,4 @@
-"""Specified-load deflection (CSA O86-19 5.4.2, 5.4.3; NBC Table 9.4.3.1), mm."""
+"""Specified-load deflection (CSA O86-19 5.4.2, 5.4.3; NBC Table 9.4.3.1 ratios as the criterion), mm."""
 
 from __future__ import annotations
 
@@ -20,6 +20,20 @@ from core.recheck.trace import line
 from core.results import DeflectionCheck, FactorTrace
 
 _LIMIT_CLAUSE = {"total_specified": "CSA O86-19 5.4.2", "long_term": "CSA O86-19 5.4.3"}
+USE_LIMIT_CLAUSE = "NBC Table 9.4.3.1"
+# the use rows are NBC Part 9's ratios; a building designed to Part 4 has no table of ratios, so the trace says
+# they are taken as the criterion (reference o86.md section 6: Part 4's commentary gives similar guidance)
+_USE_LIMIT_BASIS = (
+    "NBC Part 9 ratio, taken as the serviceability criterion (Part 4 sets no ratio; its commentary gives similar "
+    "limits); a criterion set by the engineer of record governs"
+)
+
+
+def limit_clause(row: dict[str, str]) -> str:
+    """The clause behind a deflection-limit row: O86-19 5.4.2 / 5.4.3, or the NBC table for a use row."""
+    return _LIMIT_CLAUSE.get(row["use"], USE_LIMIT_CLAUSE)
+
+
 Worst = tuple[float, float, float, str, str, dict[str, str]]  # utilisation, |delta|, limit, case, element, row
 
 
@@ -126,8 +140,8 @@ def _trace(beam: Beam, es: float, row: dict[str, str], use_row: dict[str, str]) 
         line(
             symbol="limit",
             value=f"L/{row['ratio']}",
-            clause=_LIMIT_CLAUSE.get(row["use"], "NBC Table 9.4.3.1"),
-            source=row["description"],
+            clause=limit_clause(row),
+            source=row["description"] if row["use"] in _LIMIT_CLAUSE else f"{row['description']}: {_USE_LIMIT_BASIS}",
             status=TraceStatus(row["status"]),
         ),
     ]
@@ -170,8 +184,9 @@ def deflection_check(beam: Beam, member: Member, model: BeamModel, *, traces: bo
         delta_mm=delta,
         limit_mm=limit,
         utilisation=util,
+        limit_ratio=float(row["ratio"]),
         case=label,
         element=element,
-        clause="CSA O86-19 5.4.2; NBC 9.4.3.1",
+        clause=limit_clause(row),
         trace=_trace(beam, es, row, use_row) if traces else [],
     )

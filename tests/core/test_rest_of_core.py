@@ -296,7 +296,8 @@ def test_check_lines_cover_every_check_with_its_numbers():
     shear = lines[len(r.bending)]
     assert shear.demand == f"Vf {r.shear.vf_kn:.1f} kN"
     assert shear.capacity == f"Vr {r.shear.vr_kn:.1f} kN"
-    assert lines[-1].capacity == f"limit {r.deflection.limit_mm:.1f} mm"
+    assert lines[-1].capacity == f"limit {r.deflection.limit_mm:.1f} mm (L/{r.deflection.limit_ratio:g})"
+    assert lines[-1].combination == f"specified {r.deflection.case}"
     assert [c.key for c in lines][-5:] == ["shear", "bearing0", "bearing1", "bearing2", "deflection"]
 
 

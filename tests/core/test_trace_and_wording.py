@@ -411,6 +411,7 @@ def test_a_beam_with_no_load_prints_its_deflection_limit(over, expected_mm):
     assert r.deflection.limit_mm == pytest.approx(expected_mm, rel=1e-9)
     (limit,) = [t for t in r.deflection.trace if t.symbol == "limit"]
     assert limit.value == "L/360"
+    assert r.deflection.limit_ratio == 360.0
     # statics: no load, no reaction, so no bearing demand and no uplift
     for q in r.bearing:
         assert q.qf_kn == 0.0

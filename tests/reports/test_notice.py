@@ -113,7 +113,7 @@ def test_header_items_cautions_and_page_numbers():
 
 def test_not_established_recheck_numbers_printed():
     item, r = _item()
-    text = text_of(render_notice(_notice([item]))).replace("\n", " ")
+    text = " ".join(text_of(render_notice(_notice([item]))).split())  # cells wrap at any width
     assert "not established (bearing restraint missing)" in text
     assert "not established, taken as failing" in text  # unseen restraint taken as the unfavourable case
     assert f"Mf {r.bending[0].mf_knm:.1f}" in text
@@ -135,8 +135,13 @@ def test_kl_cb_mr_values_match_recheck():
     )
     text = text_of(render_notice(_notice([item_for(d, beam, r, "obs")]))).replace("\n", " ")
     b = r.bending[0]
-    assert f"Mf {b.mf_knm:.1f} kN·m Mr {b.mr_knm:.1f} kN·m {b.utilisation:.2f}" in text  # demand, capacity, ratio
-    assert f"Vf {r.shear.vf_kn:.1f} kN Vr {r.shear.vr_kn:.1f} kN {r.shear.utilisation:.2f}" in text
+    # demand with its governing combination, capacity, ratio
+    assert f"Mf {b.mf_knm:.1f} kN·m under {b.combination} Mr {b.mr_knm:.1f} kN·m {b.utilisation:.2f}" in text
+    s = r.shear
+    assert f"Vf {s.vf_kn:.1f} kN under {s.combination} Vr {s.vr_kn:.1f} kN {s.utilisation:.2f}" in text
+    d = r.deflection
+    # the deflection row names its specified-load case and the ratio of its limit (span / ratio)
+    assert f"{d.delta_mm:.1f} mm under specified {d.case} limit {d.limit_mm:.1f} mm (L/{d.limit_ratio:g})" in text
 
 
 @pytest.mark.parametrize(
