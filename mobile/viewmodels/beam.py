@@ -30,6 +30,7 @@ from core.remedies import remedies
 from core.results import CheckKind, FactorTrace, Recheck, check_lines
 from mobile.units import LengthRefused, echo_length, read_length, split_spans
 from mobile.viewmodels.common import PRIORITY_LABELS, line_loads_kn_m, status_label
+from reports.content import support_names
 from reports.tablerows import counts, rows_used
 from storage import StorageError, Store
 
@@ -189,6 +190,8 @@ class BeamFormViewModel:
             values = [rec.get(name)]
         elif name in LOAD_FIELDS or name == "tributary_m":
             return self._load_echo(name, rec)
+        elif name == "gridline":
+            return gridline_echo(str(rec.get("gridline") or ""), len(rec.get("spans_mm") or []) + 1)
         else:
             return ""
         shown = [echo_length(v) for v in values if isinstance(v, int | float) and v]
@@ -549,6 +552,24 @@ def raised_number_for(store: Store, site_id: str, beam_id: str, finding: Any) ->
         if same and (not finding.region or d.location.endswith(finding.region)):
             return d.number
     return ""
+
+
+def gridline_echo(gridline: str, supports: int) -> str:
+    """How the notice will name each support from the gridline, or how to write it so it can.
+
+    The notice names supports only from 'line / grid per support' ('F / 1-2', 'F / 1-2-3' for two spans;
+    ``reports.content.support_names``); an inner support's grid is never guessed.
+    """
+    if not gridline.strip():
+        return ""
+    example = "F / " + "-".join(str(k) for k in range(1, supports + 1))
+    names = support_names(gridline, supports)
+    if not names:
+        return f"the notice cannot name the supports from this: write line / one grid per support, e.g. {example}"
+    shown = ", ".join(n or "(not named)" for n in names)
+    if all(names):
+        return f"supports on the notice: {shown}"
+    return f"supports on the notice: {shown}; to name every support write one grid per support, e.g. {example}"
 
 
 def words(value: str) -> str:

@@ -462,3 +462,21 @@ def test_demo_site_is_marked(demo):
     store, site_id = demo
     assert store.site(site_id).demo
     assert any(text.startswith("DEMO · ") for _, text in SitesViewModel(store).rows())
+
+
+def test_gridline_echo_says_how_the_notice_will_name_each_support(demo):
+    """A two-span beam logged with only its end grids: the inner support goes unnamed, and the form says so.
+
+    It says how to write it (one grid per support), then echoes the names the notice will print.
+    """
+    store, site_id = demo
+    form = _form(store, site_id, "RB-1")
+    assert form.set_field("spans", "4.8 m; 4.8 m")
+    assert form.set_field("gridline", "F / 1-3")
+    said = form.echo("gridline")
+    assert "F/1, (not named), F/3" in said
+    assert "F / 1-2-3" in said
+    assert form.set_field("gridline", "F / 1-2-3")
+    assert form.echo("gridline") == "supports on the notice: F/1, F/2, F/3"
+    assert form.set_field("gridline", "near the stair")
+    assert "cannot name the supports" in form.echo("gridline")
