@@ -163,6 +163,23 @@ class Bearing(Record):
         return self.lateral is Restraint.yes and self.rotation is Restraint.yes
 
 
+# what a bearing not yet fully entered is checked with (the app's form, an imported draft): valid values that
+# let the entries made so far be held to every rule; such a beam is never rechecked until they are entered
+BEARING_STAND_INS: dict[str, Any] = {"lateral": "not_visible", "rotation": "not_visible", "length_mm": 140.0}
+
+
+def bearings_with_stand_ins(bearings: list[Any], count: int) -> list[Any]:
+    """``count`` bearings as saved while being entered, each value not yet entered (None or absent) stood in for.
+
+    Anything that is not a bearing's dict is passed on as it is, for the model to refuse.
+    """
+    padded = list(bearings) + [{}] * (count - len(bearings))
+    return [
+        {**b, **{k: v for k, v in BEARING_STAND_INS.items() if b.get(k) is None}} if isinstance(b, dict) else b
+        for b in padded
+    ]
+
+
 class TopEdge(Record):
     """Bracing of the top edge (purlins at a spacing, or decking) and whether it is fastened."""
 

@@ -13,7 +13,7 @@ from typing import Annotated, Any
 
 from pydantic import BaseModel, TypeAdapter, ValidationError
 
-from core.models import Beam
+from core.models import Beam, bearings_with_stand_ins
 from core.overrides import TableRecord
 from core.records import Deficiency, IssuedNotice, Site, Stage, StatusEvent, Visit
 from core.results import PRIORITY_ORDER
@@ -98,6 +98,9 @@ def _check_set_field(op: Op, field: str, value: Any, long: bool) -> None:
         msg = f"{_where(op, field)}: not set by an edit"
         raise RecordInvalid(msg)
     adapter = _adapter(op.entity, field)
+    if op.entity == "beam" and field == "bearings" and isinstance(value, list):
+        # as the app saves a beam being entered: a restraint or length not yet entered is None
+        value = bearings_with_stand_ins(value, len(value))
     if adapter is None:
         if op.entity != "beam":  # beams carry location fields and drafts besides the model's
             msg = f"{_where(op, field)}: not a field of {op.entity}"

@@ -22,7 +22,7 @@ from typing import Any
 from pydantic import ValidationError
 
 from core import tables
-from core.models import Beam, Material, grades_allowed, species_allowed
+from core.models import Beam, Material, bearings_with_stand_ins, grades_allowed, species_allowed
 from core.plausible import PLAUSIBLE
 from core.recheck import recheck
 from core.records import Stage
@@ -600,16 +600,7 @@ def _with_stand_ins(rec: dict[str, Any]) -> dict[str, Any]:
     if not out.get("spans_mm"):
         out["spans_mm"] = [3000.0]
     out["loads"] = out.get("loads") or {}
-    bearings = [dict(b) for b in out.get("bearings") or []]
-    bearings += [{}] * (len(out["spans_mm"]) + 1 - len(bearings))
-    out["bearings"] = [
-        {
-            "lateral": b.get("lateral") or "not_visible",
-            "rotation": b.get("rotation") or "not_visible",
-            "length_mm": b.get("length_mm") or 140.0,
-        }
-        for b in bearings
-    ]
+    out["bearings"] = bearings_with_stand_ins(out.get("bearings") or [], len(out["spans_mm"]) + 1)
     return out
 
 
