@@ -19,12 +19,13 @@ from typing import Any
 from storage import Store
 from storage.bundle import Progress
 from storage.clock import uuid7
-from storage.db import transaction
+from storage.db import SCHEMA_VERSION, transaction
 from storage.hubsync import (
     HUB_PEER,
     PageRefused,
     adopt_enrolment,
     apply_page,
+    first_newer_schema,
     hub_cursor,
     log_sync,
     outgoing,
@@ -59,11 +60,13 @@ class SyncResult:
     rejected: list[dict[str, Any]] = field(default_factory=list)
     unsigned_relays: int = 0
     skew_ms: int = 0
+    hub_schema_older: int | None = None  # the hub's record schema when older than this app's: nothing was sent
+    newer_waiting: bool = False  # the hub holds changes written by a newer app: pulling stopped before them
 
     @property
     def in_step(self) -> bool:
         """True when the hub took everything and nothing waits."""
-        return not self.rejected
+        return not self.rejected and self.hub_schema_older is None and not self.newer_waiting
 
 
 def _silent(fraction: float, what: str) -> None:
@@ -164,6 +167,10 @@ def sync(
     if result.rejected:
         n = len(result.rejected)
         log_sync(store, "refused", f"{n} change{'s' if n != 1 else ''} held at the office", clock())
+    elif result.hub_schema_older is not None:
+        log_sync(store, "refused", "nothing sent: the office hub runs an older bracewalk", clock())
+    elif result.newer_waiting:
+        log_sync(store, "refused", "changes from a newer bracewalk wait at the office: update this app", clock())
     else:
         log_sync(store, "in_step", f"sent {result.pushed}, received {result.pulled_new}", clock())
     return result
@@ -178,6 +185,30 @@ def _sync(
     if "hub_seq" in hello and int(hello["hub_seq"]) < hub_cursor(store):
         _forget_hub_cursors(store)  # the hub was restored from a backup older than this tablet's last sync
     learn_devices(store, auth, clock())
+    if int(hello.get("schema_max", SCHEMA_VERSION)) < SCHEMA_VERSION:
+        # an older hub would not know this app's fields: keep every change here until the office updates it
+        result.hub_schema_older = int(hello["schema_max"])
+    else:
+        _push(store, auth, result, tell, clock, include_demo)
+    more = True
+    while more:
+        cursor = hub_cursor(store)
+        tell(0.5, f"receiving changes after {cursor}")
+        page = json.loads(request(auth.hub_url, "GET", f"/v1/pull?cursor={cursor}&limit={PULL_LIMIT}", auth=auth))
+        try:
+            result.pulled_new += apply_page(store, page, clock())
+        except PageRefused as exc:
+            raise HubError(str(exc), 409) from exc
+        _fetch_blobs(store, auth, page["ops"][: first_newer_schema(page)])
+        result.newer_waiting = first_newer_schema(page) is not None
+        more = bool(page["more"]) and not result.newer_waiting
+    tell(1.0, "in step with the office")
+
+
+def _push(
+    store: Store, auth: Enrolment, result: SyncResult, tell: Progress, clock: Callable[[], int], include_demo: bool
+) -> None:
+    """Send every change the hub lacks, in batches, recording what it took and what it refused."""
     seen: set[tuple[str, int]] = set()
     while True:
         out = outgoing(store, auth, PUSH_BATCH, frozenset(seen), include_demo)
@@ -195,18 +226,6 @@ def _sync(
         result.pushed += len(batch)
         result.rejected.extend(answer["rejected"])
         seen.update((op.origin, op.seq) for op, _ in batch)
-    more = True
-    while more:
-        cursor = hub_cursor(store)
-        tell(0.5, f"receiving changes after {cursor}")
-        page = json.loads(request(auth.hub_url, "GET", f"/v1/pull?cursor={cursor}&limit={PULL_LIMIT}", auth=auth))
-        try:
-            result.pulled_new += apply_page(store, page, clock())
-        except PageRefused as exc:
-            raise HubError(str(exc), 409) from exc
-        _fetch_blobs(store, auth, page["ops"])
-        more = bool(page["more"])
-    tell(1.0, "in step with the office")
 
 
 def _forget_hub_cursors(store: Store) -> None:

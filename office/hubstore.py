@@ -364,6 +364,13 @@ class HubStore:
                 if (done[0], done[1]) != (device_id, body_sha256):
                     raise HubRefused(409, f"bundle {bundle_id} was already pushed with other content")
                 return PushAnswer(**json.loads(done[2]))
+            newer = next((op for op, _ in ops if op.schema_version > SCHEMA_VERSION), None)
+            if newer is not None:  # its fields may be ones this hub does not know: held on the tablet, not judged
+                raise HubRefused(
+                    409,
+                    f"op {newer.origin[:8]}:{newer.seq} is written by a newer bracewalk (record schema "
+                    f"{newer.schema_version}; this hub knows {SCHEMA_VERSION}): update the office hub; nothing changed",
+                )
             keys = self._verify_signatures(ops)
             return self._merge(device_id, bundle_id, body_sha256, ops, keys)
 

@@ -10,6 +10,7 @@ from dataclasses import dataclass
 
 from storage.clock import MAX_DRIFT_MS
 from storage.oplog import Op, content_hash
+from storage.validate import RecordInvalid, check_op_record
 
 STAGE_VERIFIED = 2
 STATUS_FIELDS = ("cycle", "stage")
@@ -82,6 +83,16 @@ def immutable_unchanged(op: Op, ctx: Context) -> str | None:
     return None
 
 
+def record_valid(op: Op, ctx: Context) -> str | None:
+    """The op's record passes the same checks as a local save and a bundle import (``storage.validate``)."""
+    del ctx  # the record alone decides
+    try:
+        check_op_record(op)
+    except RecordInvalid as exc:
+        return f"invalid_record: {exc}"
+    return None
+
+
 RULES = (
     origin_revoked,
     clock_ahead,
@@ -89,6 +100,7 @@ RULES = (
     only_reviewer_verifies,
     status_forward_only,
     immutable_unchanged,
+    record_valid,  # last: a rule above names what is wrong more precisely (a status set by an edit, say)
 )
 
 

@@ -9,7 +9,7 @@ from pathlib import Path
 
 import sqlite_utils
 
-SCHEMA_VERSION = 1
+SCHEMA_VERSION = 2  # 2: record fields added after 0.6.0 (re-review, photo marks, memory acknowledgement)
 BUSY_TIMEOUT_S = 10.0  # a save waits this long for a sync's batch (each takes well under a second)
 
 

@@ -13,10 +13,11 @@ from dataclasses import dataclass
 from typing import Any
 
 from storage import identity
-from storage.db import transaction
+from storage.db import SCHEMA_VERSION, transaction
 from storage.identity import DEMO_ORIGIN, Enrolment, SignatureError, ensure_tables, op_signatures, save_enrolment
 from storage.oplog import OP_KEYS, IntegrityError, Op, ProjectionBatch, apply_op, canonical, insert_op
 from storage.store import Store
+from storage.validate import RecordInvalid, check_op_record
 
 HUB_PEER = "hub"
 HUB_TABLES = (
@@ -122,12 +123,20 @@ def hub_cursor(store: Store) -> int:
     return int(row[0]) if row else 0
 
 
+def first_newer_schema(page: dict[str, Any]) -> int | None:
+    """Index of the first op of a pulled page written by a newer record schema than this app knows, or None."""
+    return next((i for i, o in enumerate(page["ops"]) if int(o["op"]["schema_version"]) > SCHEMA_VERSION), None)
+
+
 def apply_page(store: Store, page: dict[str, Any], now_ms: int = 0) -> int:
     """Check and apply one pulled page and store its cursor, in one transaction; the number of new ops.
 
     Each op must verify by its origin device's key as the hub listed it (revoked devices included:
-    the hub accepted their ops before the revocation). One that does not is quarantined in
-    ``pull_quarantine`` with the reason, never applied; the rest of the page is.
+    the hub accepted their ops before the revocation) and its record must pass the checks of a local
+    save (``storage.validate``). One that does not is quarantined in ``pull_quarantine`` with the
+    reason, never applied; the rest of the page is. An op written by a newer record schema than this
+    app knows stops the page there: the ops before it are applied and the cursor stays before it, so
+    it and everything after it arrive once the app is updated (``first_newer_schema``).
     """
     _ensure(store)
     ops = [Op.from_row(o["op"]) for o in page["ops"]]
@@ -135,6 +144,11 @@ def apply_page(store: Store, page: dict[str, Any], now_ms: int = 0) -> int:
     if hashlib.sha256(body).hexdigest() != page["ops_sha256"]:
         msg = "pulled page does not match its checksum; nothing applied"
         raise PageRefused(msg)
+    newer = first_newer_schema(page)
+    if newer is not None:
+        cursor = page["ops"][newer - 1]["hub_seq"] if newer else hub_cursor(store)
+        page = dict(page, ops=page["ops"][:newer], next_cursor=cursor)
+        ops = ops[:newer]
     signed = [(op, str(o["sig"])) for op, o in zip(ops, page["ops"], strict=True)]
     good, bad = _verified(store, signed)
     try:
@@ -145,7 +159,7 @@ def apply_page(store: Store, page: dict[str, Any], now_ms: int = 0) -> int:
 
 
 def _verified(store: Store, signed: list[tuple[Op, str]]) -> tuple[list[tuple[Op, str]], list[tuple[Op, str, str]]]:
-    """Split pulled ops into those whose signature verifies by their origin's key and those (with why) not."""
+    """Split pulled ops into those that verify by their origin's key with a valid record, and those (why) not."""
     keys: dict[str, Any] = {}
     good: list[tuple[Op, str]] = []
     bad: list[tuple[Op, str, str]] = []
@@ -156,6 +170,11 @@ def _verified(store: Store, signed: list[tuple[Op, str]]) -> tuple[list[tuple[Op
             identity.verify_op(keys[op.origin], op, sig)
         except SignatureError as exc:
             bad.append((op, sig, str(exc)))
+            continue
+        try:
+            check_op_record(op)  # the hub checks too; a tablet trusts no single point for what it applies
+        except RecordInvalid as exc:
+            bad.append((op, sig, f"its record fails the checks of a local save: {exc}"))
             continue
         good.append((op, sig))
     return good, bad
@@ -195,7 +214,7 @@ def _apply_checked(
 
 
 def pull_quarantine(store: Store) -> list[dict[str, Any]]:
-    """Changes pulled from the hub that this tablet did not apply: their signature did not verify."""
+    """Changes pulled from the hub that this tablet did not apply: signature not verified, or record invalid."""
     _ensure(store)
     rows = store.db.execute(
         "SELECT origin, seq, op, reason, at_ms FROM pull_quarantine ORDER BY at_ms, origin, seq"
@@ -226,9 +245,16 @@ def pull_quarantine_words(store: Store) -> list[str]:
             what = f"status move of deficiency {str(q['record_id'])[-6:]}"
         out.append(
             f"{what} (change {q['seq']} from device {str(q['origin'])[-4:].upper()}): set aside, not applied, "
-            f"because its signature could not be checked: {q['reason']}"
+            f"because {_reason_words(q['reason'])}"
         )
     return out
+
+
+def _reason_words(reason: str) -> str:
+    """A quarantine reason as the end of a sentence: a record that failed its checks, else a signature."""
+    if reason.startswith("its record"):
+        return reason
+    return f"its signature could not be checked: {reason}"
 
 
 def log_sync(store: Store, outcome: str, detail: str, now_ms: int) -> None:

@@ -7,6 +7,7 @@ naming the record and the field.
 
 from __future__ import annotations
 
+import hashlib
 import re
 from functools import cache
 from typing import Annotated, Any
@@ -15,7 +16,7 @@ from pydantic import BaseModel, TypeAdapter, ValidationError
 
 from core.models import Beam, bearings_with_stand_ins
 from core.overrides import TableRecord
-from core.records import Deficiency, IssuedNotice, Site, Stage, StatusEvent, Visit
+from core.records import Deficiency, IssuedNotice, PhotoRecord, Site, Stage, StatusEvent, Visit
 from core.results import PRIORITY_ORDER
 from storage.clock import HLC_MAX
 from storage.oplog import MAX_ID_CHARS, Op, OpKind, canonical
@@ -31,6 +32,34 @@ MODELS: dict[str, type[BaseModel]] = {
     "deficiency": Deficiency,
     "table_row": TableRecord,
 }
+# every record that travels in ops, by entity: what ``storage.db.SCHEMA_VERSION`` versions
+SYNCED_MODELS: dict[str, type[BaseModel]] = {
+    **MODELS,
+    "issued_notice": IssuedNotice,
+    "photo": PhotoRecord,
+    "deficiency_event": StatusEvent,
+}
+
+
+def _shape(schema: Any) -> Any:
+    """A JSON Schema without its titles and descriptions (wording is not shape)."""
+    if isinstance(schema, dict):
+        return {k: _shape(v) for k, v in schema.items() if k not in ("title", "description")}
+    if isinstance(schema, list):
+        return [_shape(v) for v in schema]
+    return schema
+
+
+def record_schema_fingerprint() -> str:
+    """SHA-256 of the shape of every synced record (fields, types, defaults, bounds).
+
+    A change needs a new ``storage.db.SCHEMA_VERSION`` (ledger: tests/storage/record_schemas.txt), so that
+    an older app holds what it cannot read instead of refusing or misreading it.
+    """
+    shapes = {entity: _shape(model.model_json_schema()) for entity, model in sorted(SYNCED_MODELS.items())}
+    return hashlib.sha256(canonical(shapes).encode()).hexdigest()
+
+
 # fields a record holds besides its model's (location, drafts, bookkeeping); free JSON, size-bounded
 ALWAYS_TEXT_ID = ("site_id", "beam_id", "deficiency_id")
 
@@ -201,4 +230,4 @@ def check_op_record(op: Op, payload_text: str | None = None) -> None:
         _check_insert(op, long)
 
 
-__all__ = ["RecordInvalid", "check_op_record", "check_priority"]
+__all__ = ["SYNCED_MODELS", "RecordInvalid", "check_op_record", "check_priority", "record_schema_fingerprint"]
