@@ -44,6 +44,18 @@ def cmd_sync_export(args: argparse.Namespace) -> int:
     return EXIT_OK
 
 
+def _apply_held(store: Any) -> None:
+    """Apply the bundles held for a newer app that this one now reads, saying what each did."""
+    from storage.held import apply_held
+
+    for held, report in apply_held(store):
+        what = f"held bundle {held.sha256[:12]} (written by record schema {held.schema_version})"
+        if report.outcome == "applied":
+            print(f"{what}: applied now, {report.ops_new} new ops of {report.ops_total}")
+        else:
+            print(f"bracewalk sync import: {what} still held: {report.reason}", file=sys.stderr)
+
+
 def cmd_sync_import(args: argparse.Namespace) -> int:
     """Verify and merge a bundle (creates the database if it does not exist)."""
     from storage.bundle import import_bundle
@@ -55,12 +67,13 @@ def cmd_sync_import(args: argparse.Namespace) -> int:
         msg = f"{args.file} is a folder; give the bundle file"
         raise UserError(msg)
     store = _open_store(args.db, must_exist=False)
+    _apply_held(store)  # bundles held until this app was updated: before the new one, in the order received
     report = import_bundle(store, args.file)
     if report.outcome == "refused":
         print(f"bracewalk sync import: bundle refused, nothing changed: {report.reason}", file=sys.stderr)
         return EXIT_FAILURE
     if report.outcome == "held":
-        print(f"bundle held, not applied: {report.reason}")
+        print(f"bundle held, not applied: {report.reason}; a copy is kept: `sync import` applies it after an update")
         return EXIT_OK
     print(
         f"merged {report.ops_new} new ops of {report.ops_total} ({report.ops_total - report.ops_new} already held), "

@@ -36,6 +36,8 @@ class SyncScreen(Screen):
     clock_text = StringProperty("")
     held_text = StringProperty("")
     aside_text = StringProperty("")  # changes pulled from the office whose signature did not verify
+    held_bundles_text = StringProperty("")  # bundles held for a newer app: readable now, or still waiting
+    held_readable = BooleanProperty(False)  # some held bundle can be applied now (the button shows)
     progress = NumericProperty(0.0)
     progress_text = StringProperty("")
     summary = StringProperty("")
@@ -94,6 +96,8 @@ class SyncScreen(Screen):
     def render(self) -> None:
         """Hub state, what waits, the clock warning, what the office held back, and the conflicts."""
         self.status_text = "Bundle files: " + self.vm.status()
+        self.held_bundles_text = self.vm.held_bundles_text()
+        self.held_readable = self.vm.has_readable_held()
         self.hub_text = self.vm.hub_status()
         self.enrolled = bool(self.vm.hub_url())
         self.enrolled_text = self.vm.enrolled_note()
@@ -205,6 +209,10 @@ class SyncScreen(Screen):
     def choose_bundle(self) -> None:
         """Pick a bundle file."""
         choose_file("Bundle to import", lambda p: setattr(self.ids.import_path, "text", p), ["*.bwsync"])
+
+    def apply_held(self) -> None:
+        """Apply the bundles held until this app was updated (in a worker thread, with progress)."""
+        self._run(self.vm.apply_held)
 
     def import_bundle(self) -> None:
         """Import the chosen bundle."""

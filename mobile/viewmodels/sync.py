@@ -15,6 +15,7 @@ from urllib.parse import urlsplit
 from storage import Store
 from storage.bundle import Progress, export_bundle, import_bundle
 from storage.clock import far_ahead_ms
+from storage.held import apply_held, held_bundles
 from storage.hubsync import HUB_PEER, pull_quarantine_words, rejection_words, rejections
 from storage.hubsync import last_sync as last_hub_sync
 from storage.identity import enrolment
@@ -62,8 +63,39 @@ class SyncViewModel:
             )
             return text + (f". Warning: {report.warning}" if report.warning else "")
         if report.outcome == "held":
-            return f"Held, not applied: {report.reason}. Update the app, then import again."
+            return (
+                f"Held, not applied: {report.reason}. A copy is kept on this tablet: after updating the app, "
+                "tap Apply held bundles here (no need to import the file again)."
+            )
         return f"Refused, nothing changed: {report.reason}"
+
+    def held_bundles_text(self) -> str:
+        """Bundles held because a newer app wrote them: how many this app now reads, how many wait ('' if none)."""
+        held = held_bundles(self.store)
+        now = sum(1 for h in held if h.readable)
+        later = len(held) - now
+        parts = []
+        if now:
+            parts.append(f"{_bundles(now)} held until this app was updated can be applied now: tap Apply held bundles")
+        if later:
+            parts.append(f"{_bundles(later)} held until this app is updated (written by a newer bracewalk)")
+        return "; ".join(parts)
+
+    def has_readable_held(self) -> bool:
+        """True when a held bundle can be applied now (show the button)."""
+        return any(h.readable for h in held_bundles(self.store))
+
+    def apply_held(self, progress: Progress | None = None) -> str:
+        """Apply the held bundles this app now reads (own Store: a worker thread); a summary."""
+        worker = Store(self.store.path)
+        try:
+            done = apply_held(worker, progress)
+        finally:
+            worker.close()
+        applied = [r for _, r in done if r.outcome == "applied"]
+        text = f"Applied {_bundles(len(applied))}: {sum(r.ops_new for r in applied)} new changes"
+        kept = [f"{h.sha256[:8]}: {r.reason}" for h, r in done if r.outcome != "applied"]
+        return text + (f"; still held: {'; '.join(kept)}" if kept else "")
 
     # -- the office hub ------------------------------------------------------------------------
     def hub_status(self) -> str:
@@ -369,3 +401,7 @@ class BackgroundSync:
         ok = bool(url) and reachable(url)
         with self._lock:
             self._probe_ok = ok
+
+
+def _bundles(n: int) -> str:
+    return f"{n} bundle{'s' if n != 1 else ''}"

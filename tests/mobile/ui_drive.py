@@ -882,10 +882,14 @@ elif FLOW == "layout":
     @step
     def notice_layout():
         yield from look("5-notice")
+        # a bundle held until this app was updated, now readable: its line and the Apply button are laid out too
+        with app.store.db.conn:
+            app.store.db.execute("INSERT INTO held_bundle VALUES (?, ?, ?)", ["ab" * 32, 1, str(OUT / "held.zip")])
         app.go("sync")
 
     @step
     def sync_layout():
+        assert screen("sync").ids.apply_held.opacity == 1
         yield from look("6-sync")
         print(f"WINDOW {app.root_window.size}", flush=True)
         assert not seen, "\n".join(seen[:25]) + (f"\n... {len(seen)} in all" if len(seen) > 25 else "")
