@@ -287,43 +287,31 @@ class BeamModel:
     def region_spans(self, result: CaseResult) -> list[list[Any]]:
         """``regions`` as plain lists [x0_mm, x1_mm, sign, m_max_nmm, elements] (no objects: a load-case search)."""
         pieces: list[tuple[float, float, int, float, float]] = []  # (x0, x1, element, peak |M|, M at mid)
-        for e in range(len(self.elements)):
-            self._element_pieces(result, e, pieces)
-        scale = max((p[3] for p in pieces), default=0.0)
-        spans: list[list[Any]] = []  # [x0, x1, sign, largest |M|, elements] of each region so far
-        for x0, x1, e, peak, m_mid in pieces:
-            if scale == 0.0 or peak <= 1e-9 * scale:
-                sign = spans[-1][2] if spans else MomentSign.positive
-            else:
-                sign = MomentSign.positive if m_mid > 0 else MomentSign.negative
-            if spans and spans[-1][2] == sign:
-                last = spans[-1]
-                last[1] = x1
-                if peak > last[3]:  # max(last[3], peak) without the call
-                    last[3] = peak
-                if e not in last[4]:
-                    last[4] = (*last[4], e)
-            else:
-                spans.append([x0, x1, sign, peak, (e,)])
-        return spans
+        scale = 0.0
+        for e in range(len(self.lengths)):
+            peak = self._element_pieces(result, e, pieces)
+            if peak > scale:  # max over the pieces' peaks, element by element
+                scale = peak
+        return _merged(pieces, scale)
 
-    def _element_pieces(self, result: CaseResult, e: int, pieces: list[tuple[float, float, int, float, float]]) -> None:
-        """Append the pieces of one element between its points of zero moment.
+    def _element_pieces(
+        self, result: CaseResult, e: int, pieces: list[tuple[float, float, int, float, float]]
+    ) -> float:
+        """Append the pieces of one element between its points of zero moment; return their largest peak.
 
         Each piece: global ends, the element, the largest |M| (at an end or where the shear is zero) and
         the moment at its middle, by ``CaseResult.moment_nmm``'s arithmetic (each cut's |M| found once).
         """
         origin, length = self._origins[e], self.lengths[e]
         w, v0, m0 = result.w_n_mm[e], result.v0_n[e], result.m0_nmm[e]
-        lo, hi = 1e-6 * length, length * (1 - 1e-6)
-        roots = [root for root in _quadratic_roots(-0.5 * w, v0, m0) if lo < root < hi]
         xv = v0 / w if w != 0.0 else None  # where the shear is zero
         # one cut after the other (no lists of ends, local positions and moments): a cut's global
         # position is origin + its local one, and the moment is taken at (that position - origin)
         x0 = origin + 0.0
         a = x0 - origin
         m_a = abs(m0 + v0 * a - 0.5 * w * a * a)
-        for cut in [*sorted(roots), length] if roots else (length,):
+        top = 0.0
+        for cut in _cuts(-0.5 * w, v0, m0, length):
             x1 = origin + cut
             b = x1 - origin
             m_b = abs(m0 + v0 * b - 0.5 * w * b * b)
@@ -333,7 +321,51 @@ class BeamModel:
                 peak = at_xv if at_xv > peak else peak
             mid = 0.5 * (x0 + x1) - origin
             pieces.append((x0, x1, e, peak, m0 + v0 * mid - 0.5 * w * mid * mid))
+            if peak > top:
+                top = peak
             x0, a, m_a = x1, b, m_b
+        return top
+
+
+def _merged(pieces: list[tuple[float, float, int, float, float]], scale: float) -> list[list[Any]]:
+    """Join consecutive pieces of one moment sign into regions [x0, x1, sign, largest |M|, elements].
+
+    A piece whose peak is at most 1e-9 of the largest (scale) takes the sign of the region before it.
+    """
+    spans: list[list[Any]] = []
+    last: list[Any] | None = None
+    positive, negative = MomentSign.positive, MomentSign.negative
+    tiny = 1e-9 * scale
+    for x0, x1, e, peak, m_mid in pieces:
+        if scale == 0.0 or peak <= tiny:
+            sign = positive if last is None else last[2]
+        else:
+            sign = positive if m_mid > 0 else negative
+        if last is not None and last[2] is sign:
+            last[1] = x1
+            if peak > last[3]:  # max(last[3], peak) without the call
+                last[3] = peak
+            if e not in last[4]:
+                last[4] = (*last[4], e)
+        else:
+            last = [x0, x1, sign, peak, (e,)]
+            spans.append(last)
+    return spans
+
+
+def _cuts(a: float, b: float, c: float, length: float) -> tuple[float, ...]:
+    """The local ends of an element's pieces: the roots of a x^2 + b x + c strictly inside, in order, then length.
+
+    The roots as ``_quadratic_roots`` finds them, kept when within (1e-6, 1 - 1e-6) of the length.
+    """
+    roots = _quadratic_roots(a, b, c)
+    lo, hi = 1e-6 * length, length * (1 - 1e-6)
+    inside = [root for root in roots if lo < root < hi]
+    if not inside:
+        return (length,)
+    if len(inside) == 2 and inside[1] < inside[0]:
+        return (inside[1], inside[0], length)
+    return (*inside, length)
 
 
 def _deflection_samples() -> tuple[tuple[float, float, float, float, float, float], ...]:

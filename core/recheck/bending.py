@@ -7,7 +7,7 @@ trace is built only for the governing case of each region.
 
 from __future__ import annotations
 
-from typing import Any
+from typing import Any, NamedTuple
 
 from core.analysis import BeamModel, Region
 from core.clauses.bending import glulam_bending_strength_for_face, glulam_mr, sawn_mr, size_factor_kzbg
@@ -305,6 +305,7 @@ def _slenderness_trace(
 
 
 _OUTCOME_RANK = {Outcome.not_established: 3, Outcome.not_permitted: 2, Outcome.overstress: 1, Outcome.ok: 0}
+_NOT_ESTABLISHED, _NOT_PERMITTED, _OVERSTRESS, _OK = 3, 2, 1, 0  # the ranks above, read in the search's loop
 
 
 class _Ranker:
@@ -319,34 +320,29 @@ class _Ranker:
     def __init__(self, beam: Beam, member: Member, model: BeamModel) -> None:
         self.beam, self.member, self.model = beam, member, model
         self.sawn = beam.material is Material.sawn
-        # per key: Fb, KL (None: not permitted) and, for sawn lumber, Mr (no length in it)
-        self._hits: dict[tuple[Any, ...], tuple[float, float | None, float | None]] = {}
 
-    def rank(self, region: list[Any], case: LoadCase, edge: EdgeSupport, ne: bool) -> tuple[int, float]:
+    def rank(self, region: list[Any], entry: tuple[float, float | None, float | None], ne: bool) -> tuple[int, float]:
         """(outcome rank, utilisation; for a not-permitted region its moment in kN*m) of a region under a case.
 
-        region: ``BeamModel.region_spans`` numbers [x0_mm, x1_mm, sign, m_max_nmm, elements].
+        region: ``BeamModel.region_spans`` numbers [x0_mm, x1_mm, sign, m_max_nmm, elements];
+        entry: ``entry`` of the region's key under the case's KD.
         """
-        x0, x1, sign, m, _ = region
-        key = (case.kd, sign, id(edge), ne)
-        hit = self._hits.get(key)
-        if hit is None:
-            hit = self._hits[key] = self._entry(_region(region), case, edge, ne)
-        fb, kl, mr = hit
+        x0, x1, _, m, _ = region
+        fb, kl, mr = entry
         if kl is None:
-            return (_OUTCOME_RANK[Outcome.not_established if ne else Outcome.not_permitted], m * KNM_PER_NMM)
-        if mr is None:  # glulam: KZbg by the region's length
+            return (_NOT_ESTABLISHED if ne else _NOT_PERMITTED, m * KNM_PER_NMM)
+        if mr is None:  # glulam: KZbg by the region's length (``_member_mr``'s glulam arithmetic)
             beam = self.beam
-            mr = _member_mr(beam, self.member, fb, size_factor_kzbg(beam.b_mm, beam.d_mm, x1 - x0), kl)
+            mr = glulam_mr(fb, self.member.s_mm3, 1.0, size_factor_kzbg(beam.b_mm, beam.d_mm, x1 - x0), kl)
         if ne:
-            return (_OUTCOME_RANK[Outcome.not_established], m / mr)
+            return (_NOT_ESTABLISHED, m / mr)
         util = m / mr if mr > 0 else float("inf")
-        return (_OUTCOME_RANK[Outcome.overstress if util > 1.0 else Outcome.ok], util)
+        return (_OVERSTRESS if util > 1.0 else _OK, util)
 
-    def _entry(
+    def entry(
         self, region: Region, case: LoadCase, edge: EdgeSupport, ne: bool
     ) -> tuple[float, float | None, float | None]:
-        """(Fb, KL or None when not permitted, Mr for sawn lumber) of a key."""
+        """(Fb, KL or None when not permitted, Mr for sawn lumber) of a key (KD, sign, edge, ne)."""
         fb, kl = self._stability(region, case, edge, ne)
         if isinstance(kl, NotPermitted):
             return fb, None, None
@@ -370,6 +366,15 @@ def _region(span: list[Any]) -> Region:
     return Region(x0_mm=x0, x1_mm=x1, sign=sign, m_max_nmm=m, elements=elements)
 
 
+class _Key(NamedTuple):
+    """What the search finds once per region key: the edge, whether not established, the name and ranks per KD."""
+
+    edge: EdgeSupport
+    ne: bool
+    name: str | None  # None: a region in positive moment over several elements, named by its ends
+    by_kd: dict[float, tuple[float, float | None, float | None]]  # ``_Ranker.entry`` per KD
+
+
 class _Search:
     """The governing case of every named region: compression edges and names found once per key."""
 
@@ -378,31 +383,50 @@ class _Search:
         self.blocked = unrestrained_elements(beam, model)
         self.exact = beam.negative_lu is NegativeLu.zero_moment_point
         self.ranker = _Ranker(beam, member, model)
-        self.edges: dict[tuple[Any, ...], tuple[EdgeSupport, bool]] = {}
+        self.keys: dict[tuple[Any, ...], _Key] = {}
         self.names: dict[tuple[Any, ...], str] = {}
         self.best: dict[str, tuple[tuple[int, float], list[Any], LoadCase, EdgeSupport, bool]] = {}
 
+    def _key(self, span: list[Any]) -> _Key:
+        """Edge, not-established flag and (when it rests on sign and elements alone) the name of a region key.
+
+        The edge depends on the elements a region spans (and, for the zero-moment option, on its ends);
+        the name of a region in negative moment, or within one element, rests on its elements alone (the
+        supports strictly inside it are those between its elements); in positive moment over several
+        elements it rests on where its middle falls (found per ends in ``_name``).
+        """
+        _, _, sign, _, elements = span
+        region = _region(span)
+        edge = compression_edge(self.beam, self.model, region)
+        plain = len(elements) == 1 or sign is MomentSign.negative
+        name = f"{region_name(self.model, region)}|{sign}" if plain or self.exact else None
+        return _Key(edge, bool(self.blocked.intersection(elements)), name, {})
+
+    def _name(self, span: list[Any]) -> str:
+        """The name of a region in positive moment over several elements, found once per ends."""
+        x0, x1, sign, _, elements = span
+        name_key = (sign, elements, x0, x1)
+        name = self.names.get(name_key)
+        if name is None:
+            name = self.names[name_key] = f"{region_name(self.model, _region(span))}|{sign}"
+        return name
+
     def add(self, case: LoadCase) -> None:
         """Rank every region of one case and keep it where it governs its name so far."""
-        best, edges, names = self.best, self.edges, self.names
+        best, keys, exact, ranker, kd = self.best, self.keys, self.exact, self.ranker, case.kd
         for span in self.model.region_spans(case.result):
             x0, x1, sign, _, elements = span
-            # the edge depends on the elements a region spans (and, for the zero-moment option, on its ends)
-            key = (sign, elements, x0, x1) if self.exact else (sign, elements)
-            hit = edges.get(key)
+            key = (sign, elements, x0, x1) if exact else (sign, elements)
+            hit = keys.get(key)
             if hit is None:
-                edge = compression_edge(self.beam, self.model, _region(span))
-                hit = edges[key] = (edge, bool(self.blocked.intersection(elements)))
-            edge, ne = hit
-            # the name of a region in negative moment, or within one element, rests on its elements alone
-            # (the supports strictly inside it are those between its elements); in positive moment over
-            # several elements it rests on where its middle falls
-            plain = len(elements) == 1 or sign is MomentSign.negative
-            name_key = (sign, elements) if plain else (sign, elements, x0, x1)
-            name = names.get(name_key)
+                hit = keys[key] = self._key(span)
+            edge, ne, name, by_kd = hit
+            entry = by_kd.get(kd)
+            if entry is None:
+                entry = by_kd[kd] = ranker.entry(_region(span), case, edge, ne)
+            rank = ranker.rank(span, entry, ne)
             if name is None:
-                name = names[name_key] = f"{region_name(self.model, _region(span))}|{sign}"
-            rank = self.ranker.rank(span, case, edge, ne)
+                name = self._name(span)
             held = best.get(name)
             if held is None or rank > held[0]:
                 best[name] = (rank, span, case, edge, ne)
