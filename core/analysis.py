@@ -195,29 +195,41 @@ class BeamModel:
                 self._m0[c][e] = -f[1]
                 self._vend[c][e] = f[2]
         self._unit_rows = [(*self._v0[c], *self._m0[c], *self._vend[c]) for c in range(n_el)]
+        # per support: the index in a case's sums of the end shear on its left and of v0 on its right
+        # (3 n_el, one past the sums, holds 0.0 where there is no element on that side)
+        none = 3 * n_el
+        self._reaction_terms = tuple(
+            (2 * n_el + node - 1 if node > 0 else none, node if node < n_el else none) for node in self.support_nodes
+        )
 
     def case(self, w_n_mm: tuple[float, ...]) -> CaseResult:
         """Solve a load case given the line load on each element (N/mm, downward positive)."""
-        n_el = len(self.elements)
+        n_el = len(self.lengths)
         if len(w_n_mm) != n_el:
             msg = f"w_n_mm has {len(w_n_mm)} entries; the beam has {n_el} elements"
             raise ValueError(msg)
         # every element's v0, m0 and end shear in one row per unit case: the same sums, one pass per case
-        acc = [0.0] * (3 * n_el)
+        # (0.0 + w b for the first loaded case: the sum started at 0.0)
+        rows = self._unit_rows
+        acc: list[float] | None = None
         for c, w in enumerate(w_n_mm):
             if w == 0.0:
                 continue
-            acc = [a + w * b for a, b in zip(acc, self._unit_rows[c], strict=True)]
-        v0, m0, vend = acc[:n_el], acc[n_el : 2 * n_el], acc[2 * n_el :]
-        reactions = []
-        for node in self.support_nodes:
-            r = 0.0
-            if node > 0:
-                r += vend[node - 1]
-            if node < n_el:
-                r += v0[node]
-            reactions.append(r)
-        return CaseResult(w_n_mm=tuple(w_n_mm), v0_n=tuple(v0), m0_nmm=tuple(m0), reactions_n=tuple(reactions))
+            if acc is None:
+                acc = [0.0 + w * b for b in rows[c]]
+            else:
+                acc = [a + w * b for a, b in zip(acc, rows[c], strict=True)]
+        if acc is None:
+            acc = [0.0] * (3 * n_el)
+        acc.append(0.0)  # the term of a support with no element on one side
+        # each reaction: 0.0 + the end shear of the element on its left + v0 of the element on its right
+        reactions = tuple((0.0 + acc[i]) + acc[j] for i, j in self._reaction_terms)
+        return CaseResult(
+            w_n_mm=tuple(w_n_mm),
+            v0_n=tuple(acc[:n_el]),
+            m0_nmm=tuple(acc[n_el : 2 * n_el]),
+            reactions_n=reactions,
+        )
 
     def _nodal_displacements(self, w_n_mm: tuple[float, ...]) -> list[float]:
         """Nodal (v, theta) of every node times EI, by superposition of the unit cases (in case order)."""
