@@ -209,19 +209,16 @@ class BeamModel:
             msg = f"w_n_mm has {len(w_n_mm)} entries; the beam has {n_el} elements"
             raise ValueError(msg)
         # every element's v0, m0 and end shear in one row per unit case: the same sums, one pass per case
-        # (0.0 + w b for the first loaded case: the sum started at 0.0)
+        # (in place: a comprehension per case costs more); one more 0.0 for a support with no element on a side
         rows = self._unit_rows
-        acc: list[float] | None = None
+        size = 3 * n_el
+        acc = [0.0] * (size + 1)
         for c, w in enumerate(w_n_mm):
             if w == 0.0:
                 continue
-            if acc is None:
-                acc = [0.0 + w * b for b in rows[c]]
-            else:
-                acc = [a + w * b for a, b in zip(acc, rows[c], strict=True)]
-        if acc is None:
-            acc = [0.0] * (3 * n_el)
-        acc.append(0.0)  # the term of a support with no element on one side
+            row = rows[c]
+            for i in range(size):
+                acc[i] += w * row[i]
         # each reaction: 0.0 + the end shear of the element on its left + v0 of the element on its right
         reactions = tuple((0.0 + acc[i]) + acc[j] for i, j in self._reaction_terms)
         return CaseResult(
@@ -285,7 +282,7 @@ class BeamModel:
                 if bound * (1 + 1e-9) / ei_nmm2 < below_mm[e]:
                     out.append(None)
                     continue
-            peak = max(abs(n1 * v1 + a2 * lt1 + n3 * v2 + a4 * lt2 - wl4 * c) for n1, a2, n3, a4, c in samples)
+            peak = max([abs(n1 * v1 + a2 * lt1 + n3 * v2 + a4 * lt2 - wl4 * c) for n1, a2, n3, a4, c in samples])
             out.append(peak / ei_nmm2)
         return out
 
