@@ -159,3 +159,36 @@ def test_edge_kind_is_what_the_edge_is(layout, data, restrained):
             cantilever=any(model.elements[e].kind is ElementKind.overhang for e in region.elements),
             braced_between=not edge.continuous and not edge.unbraced,
         )
+
+
+def _spans_by_two_passes(model: BeamModel, result) -> list[list[object]]:
+    """The regions as first written: every piece, the largest peak, then the pieces joined: the reference."""
+    from core.kinds import MomentSign
+
+    pieces: list[tuple[float, float, int, float, float]] = []
+    for e in range(len(model.elements)):
+        pieces += _pieces_by_lists(model, result, e)
+    scale = max((p[3] for p in pieces), default=0.0)
+    spans: list[list[object]] = []
+    for x0, x1, e, peak, m_mid in pieces:
+        if scale == 0.0 or peak <= 1e-9 * scale:
+            sign = spans[-1][2] if spans else MomentSign.positive
+        else:
+            sign = MomentSign.positive if m_mid > 0 else MomentSign.negative
+        if spans and spans[-1][2] == sign:
+            last = spans[-1]
+            last[1] = x1
+            last[3] = max(last[3], peak)
+            if e not in last[4]:
+                last[4] = (*last[4], e)
+        else:
+            spans.append([x0, x1, sign, peak, (e,)])
+    return spans
+
+
+@settings(max_examples=120, deadline=None)
+@given(layout=layouts, data=st.data())
+def test_region_spans_are_the_two_pass_regions_bit_for_bit(layout, data):
+    model = BeamModel(list(layout[0]), layout[1], layout[2])
+    case = model.case(_loads(model, data))
+    assert model.region_spans(case) == _spans_by_two_passes(model, case)
