@@ -107,8 +107,13 @@ def bending_check(
     edge: EdgeSupport,
     not_established: bool,
     trace: list[FactorTrace] | None,
+    known: tuple[float | NotPermitted, dict[str, Any]] | None = None,
 ) -> dict[str, Any]:
-    """Mr and utilisation of one region under one load case (numbers; trace appended if given)."""
+    """Mr and utilisation of one region under one load case (numbers; trace appended if given).
+
+    known: for a region the load-case search ranked without a trace, what ``_stability_kl`` gave for its
+    key there (KL and the numbers it wrote): the same call with the same arguments, not made again.
+    """
     sawn = beam.material is Material.sawn
     fb_spec, face = _face_strength(beam, member, region.sign)
     fb = factored_bending_strength_fb(fb_spec, case.kd, member.kh, member.ksb, member.kt)
@@ -138,7 +143,7 @@ def bending_check(
         out["outcome"] = Outcome.not_established
         _upper_bound(beam, member, model, region, fb, out, trace)
         return out
-    kl = _stability_kl(beam, member, edge, fb, out, trace)
+    kl = _stability_kl(beam, member, edge, fb, out, trace) if known is None else _known_kl(out, *known)
     if isinstance(kl, NotPermitted):
         out["outcome"] = Outcome.not_permitted
         return out
@@ -157,6 +162,14 @@ def bending_check(
         "kN·m",
     )
     return out
+
+
+def _known_kl(out: dict[str, Any], kl: float | NotPermitted, wrote: dict[str, Any]) -> float | NotPermitted:
+    """KL as ``_stability_kl`` gave it, and what it wrote into its numbers (``lu_mm`` only where it set one)."""
+    for key, value in wrote.items():
+        if key != "lu_mm" or value is not None:
+            out[key] = value
+    return kl
 
 
 def _kzbg(beam: Beam, region: Region, trace: list[FactorTrace] | None) -> float:
@@ -306,6 +319,8 @@ def _slenderness_trace(
 
 _OUTCOME_RANK = {Outcome.not_established: 3, Outcome.not_permitted: 2, Outcome.overstress: 1, Outcome.ok: 0}
 _NOT_ESTABLISHED, _NOT_PERMITTED, _OVERSTRESS, _OK = 3, 2, 1, 0  # the ranks above, read in the search's loop
+# a ranker entry: Fb, KL (None: not permitted), Mr for sawn lumber, and (KL as found, the numbers it wrote)
+_Entry = tuple[float, float | None, float | None, tuple[float | NotPermitted, dict[str, Any]]]
 
 
 class _Ranker:
@@ -321,14 +336,14 @@ class _Ranker:
         self.beam, self.member, self.model = beam, member, model
         self.sawn = beam.material is Material.sawn
 
-    def rank(self, region: list[Any], entry: tuple[float, float | None, float | None], ne: bool) -> tuple[int, float]:
+    def rank(self, region: list[Any], entry: _Entry, ne: bool) -> tuple[int, float]:
         """(outcome rank, utilisation; for a not-permitted region its moment in kN*m) of a region under a case.
 
         region: ``BeamModel.region_spans`` numbers [x0_mm, x1_mm, sign, m_max_nmm, elements];
         entry: ``entry`` of the region's key under the case's KD.
         """
         x0, x1, _, m, _ = region
-        fb, kl, mr = entry
+        fb, kl, mr, _ = entry
         if kl is None:
             return (_NOT_ESTABLISHED if ne else _NOT_PERMITTED, m * KNM_PER_NMM)
         if mr is None:  # glulam: KZbg by the region's length (``_member_mr``'s glulam arithmetic)
@@ -339,25 +354,27 @@ class _Ranker:
         util = m / mr if mr > 0 else float("inf")
         return (_OVERSTRESS if util > 1.0 else _OK, util)
 
-    def entry(
-        self, region: Region, case: LoadCase, edge: EdgeSupport, ne: bool
-    ) -> tuple[float, float | None, float | None]:
-        """(Fb, KL or None when not permitted, Mr for sawn lumber) of a key (KD, sign, edge, ne)."""
-        fb, kl = self._stability(region, case, edge, ne)
+    def entry(self, region: Region, case: LoadCase, edge: EdgeSupport, ne: bool) -> _Entry:
+        """(Fb, KL or None when not permitted, Mr for sawn lumber, (KL as found, numbers written)) of a key.
+
+        The key: KD, sign, edge, ne. The last item is what ``bending_check`` takes as ``known``.
+        """
+        fb, kl, wrote = self._stability(region, case, edge, ne)
         if isinstance(kl, NotPermitted):
-            return fb, None, None
-        return fb, kl, _member_mr(self.beam, self.member, fb, None, kl) if self.sawn else None
+            return fb, None, None, (kl, wrote)
+        return fb, kl, _member_mr(self.beam, self.member, fb, None, kl) if self.sawn else None, (kl, wrote)
 
     def _stability(
         self, region: Region, case: LoadCase, edge: EdgeSupport, ne: bool
-    ) -> tuple[float, float | NotPermitted]:
-        """(Fb in MPa, KL of the edge, or of the restrained edge for a not-established region)."""
+    ) -> tuple[float, float | NotPermitted, dict[str, Any]]:
+        """(Fb in MPa, KL of the edge, or of the restrained edge for a not-established region, numbers written)."""
         beam, member = self.beam, self.member
         fb_spec, _ = _face_strength(beam, member, region.sign)
         fb = factored_bending_strength_fb(fb_spec, case.kd, member.kh, member.ksb, member.kt)
         if ne:
             edge = compression_edge(beam, self.model, region, assume_restrained=True)
-        return fb, _stability_kl(beam, member, edge, fb, {"lu_mm": None}, None)
+        wrote: dict[str, Any] = {"lu_mm": None}
+        return fb, _stability_kl(beam, member, edge, fb, wrote, None), wrote
 
 
 def _region(span: list[Any]) -> Region:
@@ -372,7 +389,7 @@ class _Key(NamedTuple):
     edge: EdgeSupport
     ne: bool
     name: str | None  # None: a region in positive moment over several elements, named by its ends
-    by_kd: dict[float, tuple[float, float | None, float | None]]  # ``_Ranker.entry`` per KD
+    by_kd: dict[float, _Entry]  # ``_Ranker.entry`` per KD
 
 
 class _Search:
@@ -385,7 +402,7 @@ class _Search:
         self.ranker = _Ranker(beam, member, model)
         self.keys: dict[tuple[Any, ...], _Key] = {}
         self.names: dict[tuple[Any, ...], str] = {}
-        self.best: dict[str, tuple[tuple[int, float], list[Any], LoadCase, EdgeSupport, bool]] = {}
+        self.best: dict[str, tuple[tuple[int, float], list[Any], LoadCase, EdgeSupport, bool, _Entry]] = {}
 
     def _key(self, span: list[Any]) -> _Key:
         """Edge, not-established flag and (when it rests on sign and elements alone) the name of a region key.
@@ -429,7 +446,7 @@ class _Search:
                 name = self._name(span)
             held = best.get(name)
             if held is None or rank > held[0]:
-                best[name] = (rank, span, case, edge, ne)
+                best[name] = (rank, span, case, edge, ne, entry)
 
 
 def bending_regions(
@@ -440,10 +457,13 @@ def bending_regions(
     for case in cases:
         search.add(case)
     out = []
-    for name, (_, span, case, edge, ne) in sorted(search.best.items(), key=lambda kv: kv[1][1][0]):
+    for name, (_, span, case, edge, ne, entry) in sorted(search.best.items(), key=lambda kv: kv[1][1][0]):
         region = _region(span)
         trace: list[FactorTrace] | None = [] if traces else None
-        numbers = bending_check(beam, member, model, region, case, edge, ne, trace)
+        # without a trace, KL is what the search found for the region's key (a not-established region's
+        # entry holds the restrained edge's KL, so its upper bound is found again for its own ends)
+        known = None if traces or ne else entry[3]
+        numbers = bending_check(beam, member, model, region, case, edge, ne, trace, known)
         clause = "CSA O86-19 7.5.6.5.1, 7.5.6.4" if beam.material is Material.glulam else "CSA O86-19 6.5.3"
         out.append(
             BendingRegion(
