@@ -317,8 +317,8 @@ def _slenderness_trace(
     note(trace, "CK", round(ck, 3), "CSA O86-19 7.5.6.4.4", "CK = sqrt(0.97 E KSE KT / (Fb KX))", "confirmed")
 
 
-_OUTCOME_RANK = {Outcome.not_established: 3, Outcome.not_permitted: 2, Outcome.overstress: 1, Outcome.ok: 0}
-_NOT_ESTABLISHED, _NOT_PERMITTED, _OVERSTRESS, _OK = 3, 2, 1, 0  # the ranks above, read in the search's loop
+# the rank of a region's outcome in the search, worst highest: not established, not permitted, overstress, ok
+_NOT_ESTABLISHED, _NOT_PERMITTED, _OVERSTRESS, _OK = 3, 2, 1, 0
 # a ranker entry: Fb, KL (None: not permitted), Mr for sawn lumber, and (KL as found, the numbers it wrote)
 _Entry = tuple[float, float | None, float | None, tuple[float | NotPermitted, dict[str, Any]]]
 
