@@ -195,29 +195,38 @@ class BeamModel:
                 self._m0[c][e] = -f[1]
                 self._vend[c][e] = f[2]
         self._unit_rows = [(*self._v0[c], *self._m0[c], *self._vend[c]) for c in range(n_el)]
+        # per support: the index in a case's sums of the end shear on its left and of v0 on its right
+        # (3 n_el, one past the sums, holds 0.0 where there is no element on that side)
+        none = 3 * n_el
+        self._reaction_terms = tuple(
+            (2 * n_el + node - 1 if node > 0 else none, node if node < n_el else none) for node in self.support_nodes
+        )
 
     def case(self, w_n_mm: tuple[float, ...]) -> CaseResult:
         """Solve a load case given the line load on each element (N/mm, downward positive)."""
-        n_el = len(self.elements)
+        n_el = len(self.lengths)
         if len(w_n_mm) != n_el:
             msg = f"w_n_mm has {len(w_n_mm)} entries; the beam has {n_el} elements"
             raise ValueError(msg)
         # every element's v0, m0 and end shear in one row per unit case: the same sums, one pass per case
-        acc = [0.0] * (3 * n_el)
+        # (in place: a comprehension per case costs more); one more 0.0 for a support with no element on a side
+        rows = self._unit_rows
+        size = 3 * n_el
+        acc = [0.0] * (size + 1)
         for c, w in enumerate(w_n_mm):
             if w == 0.0:
                 continue
-            acc = [a + w * b for a, b in zip(acc, self._unit_rows[c], strict=True)]
-        v0, m0, vend = acc[:n_el], acc[n_el : 2 * n_el], acc[2 * n_el :]
-        reactions = []
-        for node in self.support_nodes:
-            r = 0.0
-            if node > 0:
-                r += vend[node - 1]
-            if node < n_el:
-                r += v0[node]
-            reactions.append(r)
-        return CaseResult(w_n_mm=tuple(w_n_mm), v0_n=tuple(v0), m0_nmm=tuple(m0), reactions_n=tuple(reactions))
+            row = rows[c]
+            for i in range(size):
+                acc[i] += w * row[i]
+        # each reaction: 0.0 + the end shear of the element on its left + v0 of the element on its right
+        reactions = tuple((0.0 + acc[i]) + acc[j] for i, j in self._reaction_terms)
+        return CaseResult(
+            w_n_mm=tuple(w_n_mm),
+            v0_n=tuple(acc[:n_el]),
+            m0_nmm=tuple(acc[n_el : 2 * n_el]),
+            reactions_n=reactions,
+        )
 
     def _nodal_displacements(self, w_n_mm: tuple[float, ...]) -> list[float]:
         """Nodal (v, theta) of every node times EI, by superposition of the unit cases (in case order)."""
@@ -273,7 +282,7 @@ class BeamModel:
                 if bound * (1 + 1e-9) / ei_nmm2 < below_mm[e]:
                     out.append(None)
                     continue
-            peak = max(abs(n1 * v1 + a2 * lt1 + n3 * v2 + a4 * lt2 - wl4 * c) for n1, a2, n3, a4, c in samples)
+            peak = max([abs(n1 * v1 + a2 * lt1 + n3 * v2 + a4 * lt2 - wl4 * c) for n1, a2, n3, a4, c in samples])
             out.append(peak / ei_nmm2)
         return out
 
@@ -287,43 +296,31 @@ class BeamModel:
     def region_spans(self, result: CaseResult) -> list[list[Any]]:
         """``regions`` as plain lists [x0_mm, x1_mm, sign, m_max_nmm, elements] (no objects: a load-case search)."""
         pieces: list[tuple[float, float, int, float, float]] = []  # (x0, x1, element, peak |M|, M at mid)
-        for e in range(len(self.elements)):
-            self._element_pieces(result, e, pieces)
-        scale = max((p[3] for p in pieces), default=0.0)
-        spans: list[list[Any]] = []  # [x0, x1, sign, largest |M|, elements] of each region so far
-        for x0, x1, e, peak, m_mid in pieces:
-            if scale == 0.0 or peak <= 1e-9 * scale:
-                sign = spans[-1][2] if spans else MomentSign.positive
-            else:
-                sign = MomentSign.positive if m_mid > 0 else MomentSign.negative
-            if spans and spans[-1][2] == sign:
-                last = spans[-1]
-                last[1] = x1
-                if peak > last[3]:  # max(last[3], peak) without the call
-                    last[3] = peak
-                if e not in last[4]:
-                    last[4] = (*last[4], e)
-            else:
-                spans.append([x0, x1, sign, peak, (e,)])
-        return spans
+        scale = 0.0
+        for e in range(len(self.lengths)):
+            peak = self._element_pieces(result, e, pieces)
+            if peak > scale:  # max over the pieces' peaks, element by element
+                scale = peak
+        return _merged(pieces, scale)
 
-    def _element_pieces(self, result: CaseResult, e: int, pieces: list[tuple[float, float, int, float, float]]) -> None:
-        """Append the pieces of one element between its points of zero moment.
+    def _element_pieces(
+        self, result: CaseResult, e: int, pieces: list[tuple[float, float, int, float, float]]
+    ) -> float:
+        """Append the pieces of one element between its points of zero moment; return their largest peak.
 
         Each piece: global ends, the element, the largest |M| (at an end or where the shear is zero) and
         the moment at its middle, by ``CaseResult.moment_nmm``'s arithmetic (each cut's |M| found once).
         """
         origin, length = self._origins[e], self.lengths[e]
         w, v0, m0 = result.w_n_mm[e], result.v0_n[e], result.m0_nmm[e]
-        lo, hi = 1e-6 * length, length * (1 - 1e-6)
-        roots = [root for root in _quadratic_roots(-0.5 * w, v0, m0) if lo < root < hi]
         xv = v0 / w if w != 0.0 else None  # where the shear is zero
         # one cut after the other (no lists of ends, local positions and moments): a cut's global
         # position is origin + its local one, and the moment is taken at (that position - origin)
         x0 = origin + 0.0
         a = x0 - origin
         m_a = abs(m0 + v0 * a - 0.5 * w * a * a)
-        for cut in [*sorted(roots), length] if roots else (length,):
+        top = 0.0
+        for cut in _cuts(-0.5 * w, v0, m0, length):
             x1 = origin + cut
             b = x1 - origin
             m_b = abs(m0 + v0 * b - 0.5 * w * b * b)
@@ -333,7 +330,51 @@ class BeamModel:
                 peak = at_xv if at_xv > peak else peak
             mid = 0.5 * (x0 + x1) - origin
             pieces.append((x0, x1, e, peak, m0 + v0 * mid - 0.5 * w * mid * mid))
+            if peak > top:
+                top = peak
             x0, a, m_a = x1, b, m_b
+        return top
+
+
+def _merged(pieces: list[tuple[float, float, int, float, float]], scale: float) -> list[list[Any]]:
+    """Join consecutive pieces of one moment sign into regions [x0, x1, sign, largest |M|, elements].
+
+    A piece whose peak is at most 1e-9 of the largest (scale) takes the sign of the region before it.
+    """
+    spans: list[list[Any]] = []
+    last: list[Any] | None = None
+    positive, negative = MomentSign.positive, MomentSign.negative
+    tiny = 1e-9 * scale
+    for x0, x1, e, peak, m_mid in pieces:
+        if scale == 0.0 or peak <= tiny:
+            sign = positive if last is None else last[2]
+        else:
+            sign = positive if m_mid > 0 else negative
+        if last is not None and last[2] is sign:
+            last[1] = x1
+            if peak > last[3]:  # max(last[3], peak) without the call
+                last[3] = peak
+            if e not in last[4]:
+                last[4] = (*last[4], e)
+        else:
+            last = [x0, x1, sign, peak, (e,)]
+            spans.append(last)
+    return spans
+
+
+def _cuts(a: float, b: float, c: float, length: float) -> tuple[float, ...]:
+    """The local ends of an element's pieces: the roots of a x^2 + b x + c strictly inside, in order, then length.
+
+    The roots as ``_quadratic_roots`` finds them, kept when within (1e-6, 1 - 1e-6) of the length.
+    """
+    roots = _quadratic_roots(a, b, c)
+    lo, hi = 1e-6 * length, length * (1 - 1e-6)
+    inside = [root for root in roots if lo < root < hi]
+    if not inside:
+        return (length,)
+    if len(inside) == 2 and inside[1] < inside[0]:
+        return (inside[1], inside[0], length)
+    return (*inside, length)
 
 
 def _deflection_samples() -> tuple[tuple[float, float, float, float, float, float], ...]:

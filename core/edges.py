@@ -96,17 +96,32 @@ def _rotation_lu(beam: Beam, between_mm: float) -> tuple[float, str]:
 
 
 def compression_edge(beam: Beam, model: BeamModel, region: Region, assume_restrained: bool = False) -> EdgeSupport:
-    """The compression edge of a region and its unsupported length Lu (mm), with how it was found."""
-    edge = _compression_edge(beam, model, region, assume_restrained)
-    kind = RegionKind(
-        simple_span=len(model.elements) == 1,
-        cantilever=any(model.elements[e].kind is ElementKind.overhang for e in region.elements),
-        braced_between=not edge.continuous and not edge.unbraced,
+    """The compression edge of a region and its unsupported length Lu (mm), with how it was found.
+
+    Its ``kind`` (for the Table 7.4 row): the span of a single-span beam, a region holding an overhang,
+    and braced between supports (neither held continuously nor unbraced).
+    """
+    simple = len(model.elements) == 1
+    cantilever = any(model.elements[e].kind is ElementKind.overhang for e in region.elements)
+    return _compression_edge(
+        beam, model, region, assume_restrained, (_KINDS[simple, cantilever, False], _KINDS[simple, cantilever, True])
     )
-    return EdgeSupport(**(vars(edge) | {"kind": kind}))  # dataclasses.replace without its field checks
 
 
-def _compression_edge(beam: Beam, model: BeamModel, region: Region, assume_restrained: bool) -> EdgeSupport:
+# every RegionKind, built once: (simple_span, cantilever, braced_between) -> kind
+_KINDS = {
+    (s, c, b): RegionKind(simple_span=s, cantilever=c, braced_between=b)
+    for s in (False, True)
+    for c in (False, True)
+    for b in (False, True)
+}
+
+
+def _compression_edge(
+    beam: Beam, model: BeamModel, region: Region, assume_restrained: bool, kinds: tuple[RegionKind, RegionKind]
+) -> EdgeSupport:
+    """The edge with its kind: kinds holds the region's kind when not braced between supports, then when braced."""
+    plain, braced = kinds
     top = beam.top_edge
     top_direct, bottom_close, both, bridging, bottom_spacing = _bracing(beam)
     points = restraint_points_mm(beam, model, assume_restrained)
@@ -126,6 +141,7 @@ def _compression_edge(beam: Beam, model: BeamModel, region: Region, assume_restr
                 bridging=bridging,
                 both_edges=both,
                 unbraced=False,
+                kind=plain,
                 lu_rotation_mm=lu_rot,
                 rotation_how=rot_how,
             )
@@ -141,6 +157,7 @@ def _compression_edge(beam: Beam, model: BeamModel, region: Region, assume_restr
                 bridging=bridging,
                 both_edges=both,
                 unbraced=False,
+                kind=braced,
                 lu_rotation_mm=lu_rot,
                 rotation_how=rot_how,
             )
@@ -161,6 +178,7 @@ def _compression_edge(beam: Beam, model: BeamModel, region: Region, assume_restr
             bridging=False,
             both_edges=False,
             unbraced=True,
+            kind=plain,
             lu_rotation_mm=lu_rot,
             rotation_how=rot_how,
         )
@@ -186,6 +204,7 @@ def _compression_edge(beam: Beam, model: BeamModel, region: Region, assume_restr
             bridging=bridging,
             both_edges=both,
             unbraced=False,
+            kind=braced,
             lu_rotation_mm=min(lu_rot, zone),
             rotation_how=rot_how,
             option=option,
@@ -201,6 +220,7 @@ def _compression_edge(beam: Beam, model: BeamModel, region: Region, assume_restr
         bridging=False,
         both_edges=False,
         unbraced=True,
+        kind=plain,
         lu_rotation_mm=lu_rot,
         rotation_how=rot_how,
         option=option,

@@ -61,7 +61,7 @@ def _one_bearing(
             fcp = factored_strength(member.fcp_mpa, case.kd, member.kscp, member.kt)
             qr = qr_by_kd[case.kd] = bearing_qr(fcp, area, 1.0, kzcp)
         reaction = case.result.reactions_n[j]
-        qf = max(reaction, 0.0)  # a downward reaction loads the bearing; uplift is reported below
+        qf = 0.0 if reaction < 0.0 else reaction  # max(reaction, 0.0): a downward reaction loads the bearing
         util = qf / qr
         if best is None or util > best[0]:
             best = (util, qr, qf, case)

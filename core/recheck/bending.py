@@ -7,7 +7,7 @@ trace is built only for the governing case of each region.
 
 from __future__ import annotations
 
-from typing import Any
+from typing import Any, NamedTuple
 
 from core.analysis import BeamModel, Region
 from core.clauses.bending import glulam_bending_strength_for_face, glulam_mr, sawn_mr, size_factor_kzbg
@@ -107,8 +107,13 @@ def bending_check(
     edge: EdgeSupport,
     not_established: bool,
     trace: list[FactorTrace] | None,
+    known: tuple[float | NotPermitted, dict[str, Any]] | None = None,
 ) -> dict[str, Any]:
-    """Mr and utilisation of one region under one load case (numbers; trace appended if given)."""
+    """Mr and utilisation of one region under one load case (numbers; trace appended if given).
+
+    known: for a region the load-case search ranked without a trace, what ``_stability_kl`` gave for its
+    key there (KL and the numbers it wrote): the same call with the same arguments, not made again.
+    """
     sawn = beam.material is Material.sawn
     fb_spec, face = _face_strength(beam, member, region.sign)
     fb = factored_bending_strength_fb(fb_spec, case.kd, member.kh, member.ksb, member.kt)
@@ -138,7 +143,7 @@ def bending_check(
         out["outcome"] = Outcome.not_established
         _upper_bound(beam, member, model, region, fb, out, trace)
         return out
-    kl = _stability_kl(beam, member, edge, fb, out, trace)
+    kl = _stability_kl(beam, member, edge, fb, out, trace) if known is None else _known_kl(out, *known)
     if isinstance(kl, NotPermitted):
         out["outcome"] = Outcome.not_permitted
         return out
@@ -157,6 +162,14 @@ def bending_check(
         "kN·m",
     )
     return out
+
+
+def _known_kl(out: dict[str, Any], kl: float | NotPermitted, wrote: dict[str, Any]) -> float | NotPermitted:
+    """KL as ``_stability_kl`` gave it, and what it wrote into its numbers (``lu_mm`` only where it set one)."""
+    for key, value in wrote.items():
+        if key != "lu_mm" or value is not None:
+            out[key] = value
+    return kl
 
 
 def _kzbg(beam: Beam, region: Region, trace: list[FactorTrace] | None) -> float:
@@ -304,7 +317,10 @@ def _slenderness_trace(
     note(trace, "CK", round(ck, 3), "CSA O86-19 7.5.6.4.4", "CK = sqrt(0.97 E KSE KT / (Fb KX))", "confirmed")
 
 
-_OUTCOME_RANK = {Outcome.not_established: 3, Outcome.not_permitted: 2, Outcome.overstress: 1, Outcome.ok: 0}
+# the rank of a region's outcome in the search, worst highest: not established, not permitted, overstress, ok
+_NOT_ESTABLISHED, _NOT_PERMITTED, _OVERSTRESS, _OK = 3, 2, 1, 0
+# a ranker entry: Fb, KL (None: not permitted), Mr for sawn lumber, and (KL as found, the numbers it wrote)
+_Entry = tuple[float, float | None, float | None, tuple[float | NotPermitted, dict[str, Any]]]
 
 
 class _Ranker:
@@ -319,55 +335,61 @@ class _Ranker:
     def __init__(self, beam: Beam, member: Member, model: BeamModel) -> None:
         self.beam, self.member, self.model = beam, member, model
         self.sawn = beam.material is Material.sawn
-        # per key: Fb, KL (None: not permitted) and, for sawn lumber, Mr (no length in it)
-        self._hits: dict[tuple[Any, ...], tuple[float, float | None, float | None]] = {}
 
-    def rank(self, region: list[Any], case: LoadCase, edge: EdgeSupport, ne: bool) -> tuple[int, float]:
+    def rank(self, region: list[Any], entry: _Entry, ne: bool) -> tuple[int, float]:
         """(outcome rank, utilisation; for a not-permitted region its moment in kN*m) of a region under a case.
 
-        region: ``BeamModel.region_spans`` numbers [x0_mm, x1_mm, sign, m_max_nmm, elements].
+        region: ``BeamModel.region_spans`` numbers [x0_mm, x1_mm, sign, m_max_nmm, elements];
+        entry: ``entry`` of the region's key under the case's KD.
         """
-        x0, x1, sign, m, _ = region
-        key = (case.kd, sign, id(edge), ne)
-        hit = self._hits.get(key)
-        if hit is None:
-            hit = self._hits[key] = self._entry(_region(region), case, edge, ne)
-        fb, kl, mr = hit
+        x0, x1, _, m, _ = region
+        fb, kl, mr, _ = entry
         if kl is None:
-            return (_OUTCOME_RANK[Outcome.not_established if ne else Outcome.not_permitted], m * KNM_PER_NMM)
-        if mr is None:  # glulam: KZbg by the region's length
+            return (_NOT_ESTABLISHED if ne else _NOT_PERMITTED, m * KNM_PER_NMM)
+        if mr is None:  # glulam: KZbg by the region's length (``_member_mr``'s glulam arithmetic)
             beam = self.beam
-            mr = _member_mr(beam, self.member, fb, size_factor_kzbg(beam.b_mm, beam.d_mm, x1 - x0), kl)
+            mr = glulam_mr(fb, self.member.s_mm3, 1.0, size_factor_kzbg(beam.b_mm, beam.d_mm, x1 - x0), kl)
         if ne:
-            return (_OUTCOME_RANK[Outcome.not_established], m / mr)
+            return (_NOT_ESTABLISHED, m / mr)
         util = m / mr if mr > 0 else float("inf")
-        return (_OUTCOME_RANK[Outcome.overstress if util > 1.0 else Outcome.ok], util)
+        return (_OVERSTRESS if util > 1.0 else _OK, util)
 
-    def _entry(
-        self, region: Region, case: LoadCase, edge: EdgeSupport, ne: bool
-    ) -> tuple[float, float | None, float | None]:
-        """(Fb, KL or None when not permitted, Mr for sawn lumber) of a key."""
-        fb, kl = self._stability(region, case, edge, ne)
+    def entry(self, region: Region, case: LoadCase, edge: EdgeSupport, ne: bool) -> _Entry:
+        """(Fb, KL or None when not permitted, Mr for sawn lumber, (KL as found, numbers written)) of a key.
+
+        The key: KD, sign, edge, ne. The last item is what ``bending_check`` takes as ``known``.
+        """
+        fb, kl, wrote = self._stability(region, case, edge, ne)
         if isinstance(kl, NotPermitted):
-            return fb, None, None
-        return fb, kl, _member_mr(self.beam, self.member, fb, None, kl) if self.sawn else None
+            return fb, None, None, (kl, wrote)
+        return fb, kl, _member_mr(self.beam, self.member, fb, None, kl) if self.sawn else None, (kl, wrote)
 
     def _stability(
         self, region: Region, case: LoadCase, edge: EdgeSupport, ne: bool
-    ) -> tuple[float, float | NotPermitted]:
-        """(Fb in MPa, KL of the edge, or of the restrained edge for a not-established region)."""
+    ) -> tuple[float, float | NotPermitted, dict[str, Any]]:
+        """(Fb in MPa, KL of the edge, or of the restrained edge for a not-established region, numbers written)."""
         beam, member = self.beam, self.member
         fb_spec, _ = _face_strength(beam, member, region.sign)
         fb = factored_bending_strength_fb(fb_spec, case.kd, member.kh, member.ksb, member.kt)
         if ne:
             edge = compression_edge(beam, self.model, region, assume_restrained=True)
-        return fb, _stability_kl(beam, member, edge, fb, {"lu_mm": None}, None)
+        wrote: dict[str, Any] = {"lu_mm": None}
+        return fb, _stability_kl(beam, member, edge, fb, wrote, None), wrote
 
 
 def _region(span: list[Any]) -> Region:
     """The Region of ``BeamModel.region_spans`` numbers."""
     x0, x1, sign, m, elements = span
     return Region(x0_mm=x0, x1_mm=x1, sign=sign, m_max_nmm=m, elements=elements)
+
+
+class _Key(NamedTuple):
+    """What the search finds once per region key: the edge, whether not established, the name and ranks per KD."""
+
+    edge: EdgeSupport
+    ne: bool
+    name: str | None  # None: a region in positive moment over several elements, named by its ends
+    by_kd: dict[float, _Entry]  # ``_Ranker.entry`` per KD
 
 
 class _Search:
@@ -378,34 +400,53 @@ class _Search:
         self.blocked = unrestrained_elements(beam, model)
         self.exact = beam.negative_lu is NegativeLu.zero_moment_point
         self.ranker = _Ranker(beam, member, model)
-        self.edges: dict[tuple[Any, ...], tuple[EdgeSupport, bool]] = {}
+        self.keys: dict[tuple[Any, ...], _Key] = {}
         self.names: dict[tuple[Any, ...], str] = {}
-        self.best: dict[str, tuple[tuple[int, float], list[Any], LoadCase, EdgeSupport, bool]] = {}
+        self.best: dict[str, tuple[tuple[int, float], list[Any], LoadCase, EdgeSupport, bool, _Entry]] = {}
+
+    def _key(self, span: list[Any]) -> _Key:
+        """Edge, not-established flag and (when it rests on sign and elements alone) the name of a region key.
+
+        The edge depends on the elements a region spans (and, for the zero-moment option, on its ends);
+        the name of a region in negative moment, or within one element, rests on its elements alone (the
+        supports strictly inside it are those between its elements); in positive moment over several
+        elements it rests on where its middle falls (found per ends in ``_name``).
+        """
+        _, _, sign, _, elements = span
+        region = _region(span)
+        edge = compression_edge(self.beam, self.model, region)
+        plain = len(elements) == 1 or sign is MomentSign.negative
+        name = f"{region_name(self.model, region)}|{sign}" if plain or self.exact else None
+        return _Key(edge, bool(self.blocked.intersection(elements)), name, {})
+
+    def _name(self, span: list[Any]) -> str:
+        """The name of a region in positive moment over several elements, found once per ends."""
+        x0, x1, sign, _, elements = span
+        name_key = (sign, elements, x0, x1)
+        name = self.names.get(name_key)
+        if name is None:
+            name = self.names[name_key] = f"{region_name(self.model, _region(span))}|{sign}"
+        return name
 
     def add(self, case: LoadCase) -> None:
         """Rank every region of one case and keep it where it governs its name so far."""
-        best, edges, names = self.best, self.edges, self.names
+        best, keys, exact, ranker, kd = self.best, self.keys, self.exact, self.ranker, case.kd
         for span in self.model.region_spans(case.result):
             x0, x1, sign, _, elements = span
-            # the edge depends on the elements a region spans (and, for the zero-moment option, on its ends)
-            key = (sign, elements, x0, x1) if self.exact else (sign, elements)
-            hit = edges.get(key)
+            key = (sign, elements, x0, x1) if exact else (sign, elements)
+            hit = keys.get(key)
             if hit is None:
-                edge = compression_edge(self.beam, self.model, _region(span))
-                hit = edges[key] = (edge, bool(self.blocked.intersection(elements)))
-            edge, ne = hit
-            # the name of a region in negative moment, or within one element, rests on its elements alone
-            # (the supports strictly inside it are those between its elements); in positive moment over
-            # several elements it rests on where its middle falls
-            plain = len(elements) == 1 or sign is MomentSign.negative
-            name_key = (sign, elements) if plain else (sign, elements, x0, x1)
-            name = names.get(name_key)
+                hit = keys[key] = self._key(span)
+            edge, ne, name, by_kd = hit
+            entry = by_kd.get(kd)
+            if entry is None:
+                entry = by_kd[kd] = ranker.entry(_region(span), case, edge, ne)
+            rank = ranker.rank(span, entry, ne)
             if name is None:
-                name = names[name_key] = f"{region_name(self.model, _region(span))}|{sign}"
-            rank = self.ranker.rank(span, case, edge, ne)
+                name = self._name(span)
             held = best.get(name)
             if held is None or rank > held[0]:
-                best[name] = (rank, span, case, edge, ne)
+                best[name] = (rank, span, case, edge, ne, entry)
 
 
 def bending_regions(
@@ -416,10 +457,13 @@ def bending_regions(
     for case in cases:
         search.add(case)
     out = []
-    for name, (_, span, case, edge, ne) in sorted(search.best.items(), key=lambda kv: kv[1][1][0]):
+    for name, (_, span, case, edge, ne, entry) in sorted(search.best.items(), key=lambda kv: kv[1][1][0]):
         region = _region(span)
         trace: list[FactorTrace] | None = [] if traces else None
-        numbers = bending_check(beam, member, model, region, case, edge, ne, trace)
+        # without a trace, KL is what the search found for the region's key (a not-established region's
+        # entry holds the restrained edge's KL, so its upper bound is found again for its own ends)
+        known = None if traces or ne else entry[3]
+        numbers = bending_check(beam, member, model, region, case, edge, ne, trace, known)
         clause = "CSA O86-19 7.5.6.5.1, 7.5.6.4" if beam.material is Material.glulam else "CSA O86-19 6.5.3"
         out.append(
             BendingRegion(

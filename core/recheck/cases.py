@@ -74,6 +74,7 @@ def load_cases(beam: Beam, member: Member, model: BeamModel) -> list[LoadCase]:
     live, snow = beam.loads.live_kn_m, beam.loads.snow_kn_m
     n_el = len(model.elements)
     split = n_el > 1 and beam.dead_load_pattern is DeadLoadPattern.per_part
+    high_d, low = SPLIT_HIGH_D * dead, SPLIT_LOW_D * dead  # a split pattern's 1.25D and 0.9D parts
     cases = []
     for combo in gravity_combinations(counteracting_dead=n_el > 1):
         if not applicable(combo, live, snow):
@@ -81,8 +82,10 @@ def load_cases(beam: Beam, member: Member, model: BeamModel) -> list[LoadCase]:
         kd, note = combination_kd(combo, dead, live, snow)
         variable = combo.alpha_l * live + combo.alpha_s * snow
         patterns = [(True,) * n_el] if combo.dead_load_only or variable == 0 else live_patterns(n_el)
+        base = combo.alpha_d * dead
+        loaded, unloaded = base + variable, base + 0.0  # each element's w: alpha_d D + (variable or 0.0)
         for pattern in patterns:
-            w = tuple(combo.alpha_d * dead + (variable if on else 0.0) for on in pattern)
+            w = tuple(loaded if on else unloaded for on in pattern)
             name = "" if combo.dead_load_only else _pattern_name(model, pattern)
             cases.append(
                 LoadCase(
@@ -95,7 +98,8 @@ def load_cases(beam: Beam, member: Member, model: BeamModel) -> list[LoadCase]:
                 )
             )
             if split and combo.alpha_d == SPLIT_HIGH_D and not all(pattern):
-                w = tuple((SPLIT_HIGH_D * dead + variable) if on else SPLIT_LOW_D * dead for on in pattern)
+                high = high_d + variable
+                w = tuple(high if on else low for on in pattern)
                 cases.append(
                     LoadCase(
                         combo=combo,

@@ -88,6 +88,7 @@ def _worst(
     best: Worst | None = None
     spans = _spans(model)
     seen: set[tuple[str, tuple[float, ...]]] = set()
+    limits_of: dict[str, list[float]] = {}  # each check's limit per element (span / ratio), found when first needed
     for pattern in deflection_patterns(len(model.elements)):
         for label, row, base, share in checks:
             w = tuple(base + (share * variable if on else 0.0) for on in pattern)
@@ -96,8 +97,10 @@ def _worst(
             if not any(w) or (label, w) in seen:
                 continue
             seen.add((label, w))
-            ratio = float(row["ratio"])
-            limits = [deflection_limit_mm(span, ratio) for span in spans]
+            limits = limits_of.get(label)
+            if limits is None:
+                ratio = float(row["ratio"])
+                limits = limits_of[label] = [deflection_limit_mm(span, ratio) for span in spans]
             # an element whose deflection is surely under (1 - 1e-9) x the worst so far cannot replace it
             below = None if best is None else [best[0] * limit * (1 - 1e-9) for limit in limits]
             for e, delta in enumerate(model.max_abs_deflections_mm(w, ei, below)):

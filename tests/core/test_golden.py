@@ -97,3 +97,16 @@ def test_status_only_recheck_is_the_full_recheck_without_traces():
         full = recheck(beam).to_json_dict()
         lean = recheck(beam, traces=False).to_json_dict()
         assert lean == _without_traces(full), beam.mark
+
+
+@pytest.mark.slow
+def test_status_only_recheck_is_the_full_recheck_without_traces_every_beam():
+    # the status-only path takes KL from the load-case search instead of finding it again: every golden
+    # beam (every kind, options and restraint case) must print what the traced recheck prints, traces aside
+    from core.recheck import recheck
+
+    differ = []
+    for beam in golden.beams(golden.COUNT):
+        if recheck(beam, traces=False).to_json_dict() != _without_traces(recheck(beam).to_json_dict()):
+            differ.append(beam.mark)
+    assert differ == []

@@ -106,3 +106,89 @@ def test_element_pieces_one_cut_at_a_time_are_the_list_version_bit_for_bit(layou
         got: list[tuple[float, float, int, float, float]] = []
         model._element_pieces(case, e, got)
         assert got == _pieces_by_lists(model, case, e)
+
+
+def _case_by_sums(model: BeamModel, w: tuple[float, ...]) -> tuple[tuple[float, ...], ...]:
+    """A load case as first written (sums from 0.0 over the loaded unit cases, reactions support by support)."""
+    n_el = len(model.elements)
+    acc = [0.0] * (3 * n_el)
+    for c, wc in enumerate(w):
+        if wc != 0.0:
+            acc = [a + wc * b for a, b in zip(acc, model._unit_rows[c], strict=True)]
+    v0, m0, vend = acc[:n_el], acc[n_el : 2 * n_el], acc[2 * n_el :]
+    reactions = []
+    for node in model.support_nodes:
+        r = 0.0
+        if node > 0:
+            r += vend[node - 1]
+        if node < n_el:
+            r += v0[node]
+        reactions.append(r)
+    return tuple(w), tuple(v0), tuple(m0), tuple(reactions)
+
+
+@settings(max_examples=120, deadline=None)
+@given(layout=layouts, data=st.data())
+def test_case_sums_are_the_plain_sums_bit_for_bit(layout, data):
+    model = BeamModel(list(layout[0]), layout[1], layout[2])
+    w = _loads(model, data)
+    got = model.case(w)
+    want = _case_by_sums(model, w)
+    assert tuple(got) == want
+    # the sign of a zero too (repr tells -0.0 from 0.0): printed results rest on it
+    assert repr(tuple(got)) == repr(want)
+
+
+@settings(max_examples=60, deadline=None)
+@given(layout=layouts, data=st.data(), restrained=st.booleans())
+def test_edge_kind_is_what_the_edge_is(layout, data, restrained):
+    # compression_edge gives each edge its Table 7.4 kind from the branch it takes: the kind must be
+    # what the edge says (braced between supports = neither held continuously nor unbraced)
+    from core.edges import compression_edge
+    from core.effective_length import RegionKind
+    from core.kinds import ElementKind
+    from tests.core.golden import beams
+
+    model = BeamModel(list(layout[0]), layout[1], layout[2])
+    beam = data.draw(st.sampled_from(beams(60)))
+    beam = beam.model_copy(update={"bearings": beam.bearings[:1] * (len(model.support_nodes))})
+    for region in model.regions(model.case(_loads(model, data))):
+        edge = compression_edge(beam, model, region, assume_restrained=restrained)
+        assert edge.kind == RegionKind(
+            simple_span=len(model.elements) == 1,
+            cantilever=any(model.elements[e].kind is ElementKind.overhang for e in region.elements),
+            braced_between=not edge.continuous and not edge.unbraced,
+        )
+
+
+def _spans_by_two_passes(model: BeamModel, result) -> list[list[object]]:
+    """The regions as first written: every piece, the largest peak, then the pieces joined: the reference."""
+    from core.kinds import MomentSign
+
+    pieces: list[tuple[float, float, int, float, float]] = []
+    for e in range(len(model.elements)):
+        pieces += _pieces_by_lists(model, result, e)
+    scale = max((p[3] for p in pieces), default=0.0)
+    spans: list[list[object]] = []
+    for x0, x1, e, peak, m_mid in pieces:
+        if scale == 0.0 or peak <= 1e-9 * scale:
+            sign = spans[-1][2] if spans else MomentSign.positive
+        else:
+            sign = MomentSign.positive if m_mid > 0 else MomentSign.negative
+        if spans and spans[-1][2] == sign:
+            last = spans[-1]
+            last[1] = x1
+            last[3] = max(last[3], peak)
+            if e not in last[4]:
+                last[4] = (*last[4], e)
+        else:
+            spans.append([x0, x1, sign, peak, (e,)])
+    return spans
+
+
+@settings(max_examples=120, deadline=None)
+@given(layout=layouts, data=st.data())
+def test_region_spans_are_the_two_pass_regions_bit_for_bit(layout, data):
+    model = BeamModel(list(layout[0]), layout[1], layout[2])
+    case = model.case(_loads(model, data))
+    assert model.region_spans(case) == _spans_by_two_passes(model, case)
