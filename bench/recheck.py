@@ -150,6 +150,9 @@ def status_only(b: Beam) -> object:
 
 def run(quick: bool = False) -> list[Row]:
     """Measure both beam kinds; return the table rows."""
+    from core.compiled import running_compiled
+
+    build = "compiled core" if running_compiled() else "core from source"  # scripts/build_core.py
     rows = []
     for label, n_spans, count, fn, bare, aim_rate in (
         ("recheck, simple span, status only", 1, 400 if quick else 2000, status_only, bare_simple, 20_000),
@@ -168,7 +171,7 @@ def run(quick: bool = False) -> list[Row]:
         met = rate >= aim_rate
         rows.append(
             Row(
-                label,
+                f"{label} ({build})",
                 fmt_rate(rate, "beams"),
                 fmt_rate(base_rate, "beams"),
                 f"{ratio:.1f}x",

@@ -9,7 +9,7 @@ def deflection_limit_mm(span_mm: float, ratio: float) -> float:
     span_mm: span, mm (for a cantilever, twice its length: common practice); ratio: e.g. 360.
     """
     if ratio <= 0:
-        msg = f"ratio = {ratio} must be > 0"
+        msg = f"ratio = {ratio:g} must be > 0"
         raise ValueError(msg)
     return span_mm / ratio
 
