@@ -41,19 +41,20 @@ def _same_command(line: str) -> str:
 
 
 def test_pre_commit_runs_every_command_of_ci():
-    # every .venv command of .ci/run (lint, types, the README's test and demo commands) is a hook
+    # every .venv command of .ci/run (lint, types, the README's test and demo commands, core's tests from
+    # source), with the environment it is given on its line, is a hook
     lines = (ROOT / ".ci" / "run").read_text().splitlines()
-    ci = sorted(_same_command(x) for x in lines if re.match(r"\s*\.venv/bin/", x))
-    assert len(ci) == 5, ci
+    ci = sorted(_same_command(x) for x in lines if re.match(r"\s*([A-Z_]+=\S+\s+)*\.venv/bin/", x))
+    assert len(ci) == 6, ci
     assert sorted(_same_command(e) for e in hook_entries()) == ci
 
 
 def test_pre_commit_hooks_are_local_and_use_the_venv():
     text = (ROOT / ".pre-commit-config.yaml").read_text()
     assert re.findall(r"^\s*-\s*repo:\s*(\S+)", text, flags=re.M) == ["local"]
-    assert text.count("language: system") == len(hook_entries()) == 5
+    assert text.count("language: system") == len(hook_entries()) == 6
     assert re.search(r"^default_install_hook_types: \[pre-commit, pre-push\]$", text, flags=re.M)
-    assert text.count("stages: [pre-push]") == 2  # the tests and the demo: minutes, before each push
+    assert text.count("stages: [pre-push]") == 3  # the tests (both builds) and the demo: minutes, before each push
 
 
 def test_mypy_checks_every_package_with_the_pydantic_plugin():

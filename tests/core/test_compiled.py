@@ -68,6 +68,16 @@ def _run(cwd, env_extra=None):
     return done.stdout.strip(), done.stderr
 
 
+@pytest.mark.skipif(
+    not os.environ.get("BRACEWALK_EXPECT_COMPILED") or bool(os.environ.get(compiled.SOURCE_ONLY_ENV)),
+    reason="only where setup.sh must compile (.ci/run), and not in the run from source",
+)
+def test_setup_compiled_core():
+    """CI's machine has a C compiler and Python's headers (setup.sh installs them): the build must be there."""
+    assert compiled.stale_reason() == ""
+    assert compiled.running_compiled()
+
+
 def test_asked_for_source_core_runs_from_source():
     assert _run(ROOT, {compiled.SOURCE_ONLY_ENV: "1"}) == ("source", "")
 
