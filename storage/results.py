@@ -88,6 +88,22 @@ UNCHECKED_SUMMARY: Summ = (UNCHECKED, "", None, (), ())
 # distinct designs kept per process (0: no memo), cleared when full: about 1.6 KB each (20,000: ~32 MB)
 MEMO_MAX = 20_000
 _MEMO: dict[tuple[int, bytes], Summ] = {}
+# a memo that found (almost) nothing in its first lookups of a run stops being consulted for the rest of it:
+# computing a key costs ~15-25 us a beam, for nothing on a portfolio where no two beams are alike
+MEMO_PROBE = 2_000  # lookups before the memo may stand idle
+MEMO_MIN_HIT_SHARE = 0.05  # below this share of hits after MEMO_PROBE lookups, it stands idle
+_MEMO_SEEN = [0, 0]  # lookups and hits since ``memo_reset``
+
+
+def memo_reset() -> None:
+    """Start a run's count of memo lookups afresh (each refresh and portfolio run; workers inherit it)."""
+    _MEMO_SEEN[0] = _MEMO_SEEN[1] = 0
+
+
+def _memo_idle() -> bool:
+    """True when this run's first MEMO_PROBE lookups found fewer than MEMO_MIN_HIT_SHARE hits."""
+    lookups, hits = _MEMO_SEEN
+    return lookups >= MEMO_PROBE and hits < MEMO_MIN_HIT_SHARE * lookups
 
 
 def _summary(record_text: str) -> Summ:
@@ -96,20 +112,24 @@ def _summary(record_text: str) -> Summ:
     Findings as (code, priority, region), table rows as (clause, source, status); an incomplete record
     gives ``UNCHECKED_SUMMARY``. Memoised per process (``_memo_key``, at most ``MEMO_MAX`` designs):
     beams that differ only in their mark and the record's keys outside contract 1 (location, notes)
-    share one recheck, as the repeated members of a building do.
+    share one recheck, as the repeated members of a building do; a run whose first lookups find almost
+    nothing stops consulting it (``_memo_idle``).
     """
     try:
         beam = _stored_beam().model_validate_json(record_text)
     except ValueError:  # a ValidationError: the record is incomplete or refused
         return UNCHECKED_SUMMARY
-    if MEMO_MAX <= 0:
+    if MEMO_MAX <= 0 or _memo_idle():
         return _summary_of(beam)
     key = _memo_key(beam)
     hit = _MEMO.get(key)
+    _MEMO_SEEN[0] += 1
     if hit is None:
         if len(_MEMO) >= MEMO_MAX:
             _MEMO.clear()
         hit = _MEMO[key] = _summary_of(beam)
+    else:
+        _MEMO_SEEN[1] += 1
     return hit
 
 
@@ -455,6 +475,7 @@ def refresh(db: Any, site_id: str) -> int:
     about 8 % less CPU a beam), summaries through the per-process memo.
     """
     todo = list(jobs(db, site_id))
+    memo_reset()
     if todo:
         rows = [row_of(j) for j in todo]
         with transaction(db):
@@ -527,6 +548,7 @@ def recheck_all(
     from storage import firm_tables
 
     firm_tables.apply(db)  # before any worker starts: workers inherit the firm's table rows
+    memo_reset()  # so do they the memo's fresh count
     with _workers(processes) as pool, gc_paused():  # workers fork first: they inherit neither records nor pause
         parts = _InFlight(pool, _parts(db, site_id, chunk), ahead=2 * processes)  # the workers start now
         before = _before(db, site_id)

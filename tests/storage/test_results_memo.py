@@ -217,3 +217,27 @@ def test_portfolio_pages_are_read_in_id_order_without_sorting_a_site_per_page(tm
         sql = results._every_beam_sql(yard.id if site else None, after=after, paged=True) + " ORDER BY b.id LIMIT ?"
         plan = store.db.execute(f"EXPLAIN QUERY PLAN {sql}", [*args, *([""] if after else []), 2]).fetchall()
         assert "TEMP B-TREE" not in repr(plan), plan
+
+
+def test_a_memo_that_finds_nothing_stands_idle_for_the_rest_of_the_run(counted, monkeypatch):
+    """No two beams alike: after MEMO_PROBE lookups without a hit, no key is computed; results unchanged."""
+    monkeypatch.setattr(results, "MEMO_PROBE", 4)
+    results.memo_reset()
+    texts = [_text(glulam(mark=f"V-{k}", d_mm=38 * (8 + k))) for k in range(6)]
+    texts.append(_text(glulam(mark="V-again", d_mm=38 * 8)))  # the first design again: no longer looked up
+    got = [results._summary(t) for t in texts]
+    assert results._MEMO_SEEN == [4, 0]  # four lookups, then idle
+    assert len(counted) == 7  # the repeat was rechecked, not found
+    assert got == [_direct(t) for t in texts]
+    results.memo_reset()  # the next run looks again
+    assert not results._memo_idle()
+
+
+def test_a_memo_that_finds_repeats_stays_in_use(counted, monkeypatch):
+    monkeypatch.setattr(results, "MEMO_PROBE", 4)
+    results.memo_reset()
+    texts = [_text(glulam(mark=f"R-{k}", d_mm=38 * (8 + k % 2))) for k in range(10)]  # two designs
+    got = [results._summary(t) for t in texts]
+    assert results._MEMO_SEEN == [10, 8]
+    assert counted == ["R-0", "R-1"]
+    assert got == [_direct(t) for t in texts]
