@@ -8,7 +8,6 @@ records, with concurrent edits recorded as conflicts; deficiency status as a for
 from __future__ import annotations
 
 import hashlib
-import json
 import sqlite3
 from collections.abc import Callable, Iterable, Sequence
 from dataclasses import dataclass
@@ -20,6 +19,7 @@ import sqlite_utils
 
 from storage.clock import HLC_MAX
 from storage.db import INSERT_ENTITIES, SCHEMA_VERSION, SET_ENTITIES
+from storage.fastjson import canonical, dumps_parsed, loads
 from storage.stamps import utc_stamp
 
 OP_KEYS = ("origin", "seq", "hlc", "entity", "record_id", "kind", "payload", "base", "schema_version", "wall_ms")
@@ -47,15 +47,6 @@ _TEXT_KEYS = ("origin", "entity", "record_id", "kind")
 
 class IntegrityError(Exception):
     """Same id, different content for an insert-only record, or an op that contradicts the log."""
-
-
-# what json.dumps(value, sort_keys=True, separators=(",", ":"), ensure_ascii=False) builds on every call
-_CANONICAL = json.JSONEncoder(sort_keys=True, separators=(",", ":"), ensure_ascii=False)
-
-
-def canonical(value: Any) -> str:
-    """Canonical JSON (sorted keys, no spaces) used for hashes and stored values."""
-    return _CANONICAL.encode(value)
 
 
 def content_hash(payload: dict[str, Any]) -> str:
@@ -92,6 +83,11 @@ class Op:
         """(hlc, entity, record_id, kind, payload, base) as the ``op`` table holds them."""
         return (self.hlc, self.entity, self.record_id, self.kind.value, self.payload_text, self.base_text)
 
+    def stored_parsed(self) -> tuple[Any, ...]:
+        """``stored()`` of an op whose payload and base were parsed from JSON (``fastjson.dumps_parsed``)."""
+        base = dumps_parsed(self.base) if self.base else "{}"
+        return (self.hlc, self.entity, self.record_id, self.kind.value, dumps_parsed(self.payload), base)
+
     def row(self) -> dict[str, Any]:
         """The op as a row of the ``op`` table."""
         return {
@@ -119,8 +115,8 @@ class Op:
         if (row.keys() if isinstance(row, dict) else set(row)) != _OP_KEY_SET:  # a line may hold any JSON
             msg = f"op keys {sorted(row)} differ from {sorted(OP_KEYS)}"
             raise ValueError(msg)
-        payload = row["payload"] if isinstance(row["payload"], dict) else json.loads(row["payload"])
-        base = row["base"] if isinstance(row["base"], dict) else json.loads(row["base"])
+        payload = row["payload"] if isinstance(row["payload"], dict) else loads(row["payload"])
+        base = row["base"] if isinstance(row["base"], dict) else loads(row["base"])
         for key in _TEXT_KEYS:
             value = row[key]
             if not isinstance(value, str) or not 0 < len(value) <= MAX_ID_CHARS:
@@ -238,7 +234,7 @@ def _op_seq_at(db: sqlite_utils.Database, origin: str, hlc: int, entity: str, re
 
 def _load(db: sqlite_utils.Database, table: str, record_id: str) -> tuple[dict[str, Any] | None, str | None]:
     row = db.execute(f"SELECT data, content_hash FROM {table} WHERE id = ?", [record_id]).fetchone()
-    return (json.loads(row[0]), row[1]) if row else (None, None)
+    return (loads(row[0]), row[1]) if row else (None, None)
 
 
 def _store(db: sqlite_utils.Database, table: str, record_id: str, data: dict[str, Any], chash: str | None) -> None:
@@ -342,7 +338,7 @@ class ProjectionBatch:
             for record_id, data, chash in self.db.execute(
                 f"SELECT id, data, content_hash FROM {table} WHERE id IN ({', '.join('?' * len(padded))})", padded
             ):
-                self.rows[(table, record_id)] = (json.loads(data), chash)
+                self.rows[(table, record_id)] = (loads(data), chash)
         for record_id in ids:
             self.rows.setdefault((table, record_id), (None, None))
 
@@ -442,7 +438,7 @@ class ProjectionBatch:
         for table, record_id in sorted(self.dirty):
             data, chash = self.rows[(table, record_id)]
             assert data is not None
-            by_table.setdefault(table, []).append((record_id, data.get("site_id"), canonical(data), chash))
+            by_table.setdefault(table, []).append((record_id, data.get("site_id"), dumps_parsed(data), chash))
         for table, rows in by_table.items():
             _write_many(self.db, _store_sql(table), rows)
         self.dirty.clear()
