@@ -53,7 +53,7 @@ def has_long_digits(data: bytes) -> bool:
 
 def loads(text: str) -> Any:
     """``json.loads(text)``: the same value, or the same refusal (``ValueError`` or ``RecursionError``)."""
-    if ORJSON is None or has_long_digits(text.encode("utf-8", "surrogatepass")):
+    if ORJSON is None or not isinstance(text, str) or has_long_digits(text.encode("utf-8", "surrogatepass")):
         return json.loads(text)
     return _orjson_or_json(text)
 
