@@ -31,7 +31,7 @@ from cryptography.exceptions import InvalidSignature
 from storage import identity
 from storage.clock import far_ahead_ms
 from storage.db import SCHEMA_VERSION, transaction
-from storage.fastjson import line_reader
+from storage.fastjson import LineReader
 from storage.gcpause import gc_paused
 from storage.identity import SignatureError
 from storage.oplog import (
@@ -462,6 +462,7 @@ class _Verified:
     rebase_from: int | None = None  # own ops from this seq on are renumbered (restored device)
     sigs: list[str] = field(default_factory=list)  # each op's origin signature, kept for relaying
     stored: list[tuple[Any, ...]] = field(default_factory=list)  # each op's ``stored()``, encoded once
+    finite: bool = False  # every op line was read by orjson: no NaN or infinity (``fastjson.LineReader``)
 
 
 def _read_bounded(z: zipfile.ZipFile, info: zipfile.ZipInfo, limit: int) -> bytes:
@@ -630,10 +631,10 @@ def _op_lines(text: str) -> list[str]:
     return lines
 
 
-def _parse_ops(body: bytes, sigs: bytes, op_count: int) -> tuple[list[Op], list[str]]:
-    """The op lines as ops, and one signature per op."""
+def _parse_ops(body: bytes, sigs: bytes, op_count: int) -> tuple[list[Op], list[str], bool]:
+    """The op lines as ops, one signature per op, and whether every value read is finite (``LineReader.finite``)."""
     ops = []
-    read = line_reader(body)
+    read = LineReader(body)
     try:
         for n, line in enumerate(_op_lines(body.decode()), start=1):
             _refuse_unless(n <= MAX_OPS, f"more than {MAX_OPS} ops")
@@ -648,7 +649,7 @@ def _parse_ops(body: bytes, sigs: bytes, op_count: int) -> tuple[list[Op], list[
         raise BundleRefused(msg) from exc
     _refuse_unless(len(ops) == op_count, "op count differs from the manifest")
     _refuse_unless(len(sig_lines) == len(ops), "one signature per op expected")
-    return ops, sig_lines
+    return ops, sig_lines, read.finite
 
 
 def _check_op_content(store: Store, ops: list[Op], stored: list[tuple[Any, ...]]) -> None:
@@ -749,13 +750,13 @@ def verify_bundle(store: Store, data: bytes) -> _Verified:
     z, by_name = _open_zip(data)
     manifest = _signed_manifest(store, z, by_name)
     body, sig_body, blobs = _entries(z, by_name, manifest)
-    ops, sigs = _parse_ops(body, sig_body, manifest["op_count"])
-    stored = [op.stored_parsed() for op in ops]  # each op's canonical texts, encoded once for the checks and the merge
+    ops, sigs, finite = _parse_ops(body, sig_body, manifest["op_count"])
+    stored = [op.stored_parsed(finite) for op in ops]  # each op's canonical texts, once for the checks and the merge
     _check_op_signatures(store, ops, sigs, manifest["origin"], stored)
     _check_op_content(store, ops, stored)
     rebase_from = _check_integrity(store, ops, stored, manifest["origin"])
     _check_ranges(store, manifest, ops, rebase_from)
-    return _Verified(manifest, ops, blobs, hashlib.sha256(data).hexdigest(), rebase_from, sigs, stored)
+    return _Verified(manifest, ops, blobs, hashlib.sha256(data).hexdigest(), rebase_from, sigs, stored, finite)
 
 
 def _held_ops(store: Store, ops: list[Op]) -> dict[tuple[str, int], tuple[Any, ...]]:
@@ -935,7 +936,7 @@ def _apply_batches(store: Store, v: _Verified, tell: Progress, committed: list[i
             if start == 0:
                 _first_batch(store, v)
             if batch is None:
-                batch = ProjectionBatch(store.db)
+                batch = ProjectionBatch(store.db, finite=v.finite)
             else:
                 batch.renew()  # rows and stamps read by earlier batches stay, unless another connection wrote
             new += _merge_batch(store, v, start, tell, batch)

@@ -24,7 +24,6 @@ suites both ways (``ORJSON`` set to None).
 from __future__ import annotations
 
 import json
-from collections.abc import Callable
 from typing import Any
 
 try:
@@ -58,11 +57,38 @@ def loads(text: str) -> Any:
     return _orjson_or_json(text)
 
 
-def line_reader(body: bytes) -> Callable[[str], Any]:
-    """``loads`` for the lines of ``body``, checking the whole of it for long digit runs once instead of per line."""
-    if ORJSON is None or has_long_digits(body):
-        return loads
-    return _orjson_or_json
+def loads_finite(text: str) -> tuple[Any, bool]:
+    """``loads(text)``, and whether orjson read it (then the value holds no NaN or infinity: it refuses them)."""
+    if ORJSON is None or has_long_digits(text.encode("utf-8", "surrogatepass")):
+        return json.loads(text), False
+    try:
+        return ORJSON.loads(text), True
+    except ORJSON.JSONDecodeError:
+        return json.loads(text), False
+
+
+class LineReader:
+    """``loads`` for the lines of one body, checking the whole of it for long digit runs once instead of per line.
+
+    ``finite`` stays True while every line was read by orjson, which refuses NaN, Infinity and numbers
+    that overflow: the values read then hold no non-finite float, and ``dumps_parsed(..., finite=True)``
+    may keep orjson's ``null`` (a JSON null, not a NaN).
+    """
+
+    def __init__(self, body: bytes):
+        """Decide once for the body whether orjson may read its lines."""
+        self.fast = ORJSON is not None and not has_long_digits(body)
+        self.finite = self.fast
+
+    def __call__(self, text: str) -> Any:
+        """``json.loads(text)``'s value or refusal."""
+        if not self.fast:
+            return loads(text)
+        try:
+            return ORJSON.loads(text)
+        except ORJSON.JSONDecodeError:
+            self.finite = False  # json may accept it (NaN, Infinity, overflow, lone surrogates)
+            return json.loads(text)
 
 
 def _orjson_or_json(text: str) -> Any:
@@ -73,8 +99,13 @@ def _orjson_or_json(text: str) -> Any:
         return json.loads(text)
 
 
-def dumps_parsed(value: Any) -> str:
-    """``canonical(value)`` (sorted keys, no spaces, text unescaped) for a value parsed from JSON."""
+def dumps_parsed(value: Any, finite: bool = False) -> str:
+    """``canonical(value)`` (sorted keys, no spaces, text unescaped) for a value parsed from JSON.
+
+    ``finite``: the caller knows the value holds no NaN or infinity (read by a ``LineReader`` whose
+    ``finite`` stayed True); a ``null`` in orjson's text is then a JSON null. Otherwise a text with
+    ``null`` is encoded by ``canonical`` (orjson writes NaN and infinities as ``null``).
+    """
     fast = ORJSON
     if fast is None:
         return canonical(value)
@@ -82,7 +113,7 @@ def dumps_parsed(value: Any) -> str:
         out: bytes = fast.dumps(value, option=_OPTIONS)
     except TypeError:  # orjson.JSONEncodeError is a TypeError: big integers, lone surrogates, other types
         return canonical(value)
-    if b"null" in out or b"0.0000" in out or b"0e" in out.translate(_DIGITS):
+    if (not finite and b"null" in out) or b"0.0000" in out or b"0e" in out.translate(_DIGITS):
         return canonical(value)  # NaN or infinity (written null), a float below 1e-4, or an exponent
     return out.decode()
 

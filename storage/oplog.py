@@ -19,7 +19,7 @@ import sqlite_utils
 
 from storage.clock import HLC_MAX
 from storage.db import INSERT_ENTITIES, SCHEMA_VERSION, SET_ENTITIES
-from storage.fastjson import canonical, dumps_parsed, loads
+from storage.fastjson import canonical, dumps_parsed, loads, loads_finite
 from storage.stamps import utc_stamp
 
 OP_KEYS = ("origin", "seq", "hlc", "entity", "record_id", "kind", "payload", "base", "schema_version", "wall_ms")
@@ -83,10 +83,10 @@ class Op:
         """(hlc, entity, record_id, kind, payload, base) as the ``op`` table holds them."""
         return (self.hlc, self.entity, self.record_id, self.kind.value, self.payload_text, self.base_text)
 
-    def stored_parsed(self) -> tuple[Any, ...]:
+    def stored_parsed(self, finite: bool = False) -> tuple[Any, ...]:
         """``stored()`` of an op whose payload and base were parsed from JSON (``fastjson.dumps_parsed``)."""
-        base = dumps_parsed(self.base) if self.base else "{}"
-        return (self.hlc, self.entity, self.record_id, self.kind.value, dumps_parsed(self.payload), base)
+        base = dumps_parsed(self.base, finite) if self.base else "{}"
+        return (self.hlc, self.entity, self.record_id, self.kind.value, dumps_parsed(self.payload, finite), base)
 
     def row(self) -> dict[str, Any]:
         """The op as a row of the ``op`` table."""
@@ -306,9 +306,15 @@ class ProjectionBatch:
     merging those ops would read one at a time. Local saves do not use it.
     """
 
-    def __init__(self, db: sqlite_utils.Database):
-        """Hold rows of ``db``'s projection tables."""
+    def __init__(self, db: sqlite_utils.Database, finite: bool = False):
+        """Hold rows of ``db``'s projection tables.
+
+        ``finite``: the ops merged through the batch hold no NaN or infinity (a bundle read by a
+        ``fastjson.LineReader`` whose ``finite`` stayed True). It stays True while every row read was
+        read by orjson too; the changed rows are then encoded keeping orjson's ``null`` (``dumps_parsed``).
+        """
         self.db = db
+        self.finite = finite
         self.rows: dict[tuple[str, str], tuple[dict[str, Any] | None, str | None]] = {}
         # dirty keys in insertion order (a dict): merged in log order they come nearly sorted, and sorting
         # a nearly sorted list for the write is several times faster than sorting a set's order
@@ -386,7 +392,7 @@ class ProjectionBatch:
             for record_id, data, chash in self.db.execute(
                 f"SELECT id, data, content_hash FROM {table} WHERE id IN ({', '.join('?' * len(padded))})", padded
             ):
-                self.rows[(table, record_id)] = (loads(data), chash)
+                self.rows[(table, record_id)] = (self._read(data), chash)
         for record_id in ids:
             self.rows.setdefault((table, record_id), (None, None))
 
@@ -454,8 +460,17 @@ class ProjectionBatch:
         """The row (data, content hash) as the batch sees it."""
         key = (table, record_id)
         if key not in self.rows:
-            self.rows[key] = _load(self.db, table, record_id)
+            row = self.db.execute(f"SELECT data, content_hash FROM {table} WHERE id = ?", [record_id]).fetchone()
+            self.rows[key] = (self._read(row[0]), row[1]) if row else (None, None)
         return self.rows[key]
+
+    def _read(self, text: str) -> Any:
+        """A stored row's JSON (``fastjson.loads``); one not read by orjson ends ``finite``."""
+        if not self.finite:
+            return loads(text)
+        value, finite = loads_finite(text)
+        self.finite = finite
+        return value
 
     def store(self, table: str, record_id: str, data: dict[str, Any], chash: str | None) -> None:
         """Change a row in the batch (a None hash keeps the stored one, as ``_store`` does)."""
@@ -483,10 +498,11 @@ class ProjectionBatch:
         self.new_ops.clear()
         self.new_at.clear()
         by_table: dict[str, list[tuple[Any, ...]]] = {}
+        finite = self.finite
         for table, record_id in sorted(self.dirty):
             data, chash = self.rows[(table, record_id)]
             assert data is not None
-            by_table.setdefault(table, []).append((record_id, data.get("site_id"), dumps_parsed(data), chash))
+            by_table.setdefault(table, []).append((record_id, data.get("site_id"), dumps_parsed(data, finite), chash))
         for table, rows in by_table.items():
             _write_many(self.db, _store_sql(table), rows)
         self.dirty.clear()

@@ -17,8 +17,9 @@ from typing import Any
 import pytest
 
 from storage import fastjson
-from storage.fastjson import canonical, dumps_parsed, line_reader, loads
-from storage.oplog import OpKind
+from storage.db import connect, transaction
+from storage.fastjson import LineReader, canonical, dumps_parsed, loads
+from storage.oplog import Op, OpKind, ProjectionBatch, apply_op, insert_op
 from tests.core.golden import beams
 
 ODD_TEXT = [
@@ -75,13 +76,24 @@ def _outcome(parse: Any, text: str) -> tuple[str, Any]:
         return "refused", type(exc).__name__
 
 
+def _nonfinite(value: Any) -> bool:
+    if isinstance(value, dict):
+        return any(_nonfinite(v) for v in value.values())
+    if isinstance(value, list):
+        return any(_nonfinite(v) for v in value)
+    return isinstance(value, float) and not math.isfinite(value)
+
+
 def _check_loads(text: str) -> None:
     want = _outcome(json.loads, text)
-    for parse in (loads, line_reader(text.encode("utf-8", "surrogatepass"))):
+    reader = LineReader(text.encode("utf-8", "surrogatepass"))
+    for parse in (loads, reader):
         got = _outcome(parse, text)
         assert got[0] == want[0], text[:80]
         if want[0] == "value":
             assert _same(got[1], want[1]), text[:80]
+    if want[0] == "value" and _nonfinite(want[1]):
+        assert not reader.finite, text[:80]  # dumps_parsed(..., finite=True) would write its NaN as null
 
 
 @pytest.mark.parametrize(
@@ -196,13 +208,69 @@ def _op_records() -> list[dict[str, Any]]:
 def test_dumps_parsed_equals_canonical_on_records_of_every_op_kind():
     assert set(OpKind) == {OpKind.SET, OpKind.INSERT, OpKind.STATUS}  # each kind's payload shape is above
     for record in _op_records():
-        parsed = json.loads(canonical(record))
+        text = canonical(record)
+        reader = LineReader(text.encode())
+        parsed = reader(text)
         assert dumps_parsed(parsed) == canonical(parsed)
+        assert dumps_parsed(parsed, finite=reader.finite) == canonical(parsed)  # the golden beams hold nulls
         assert loads(dumps_parsed(parsed)) == parsed
+
+
+def test_a_line_reader_that_read_nan_or_infinity_is_not_finite():
+    reader = LineReader(b'{"a": 1}\n{"a": NaN}\n{"a": 1e999}')
+    assert reader('{"a": 1}') == {"a": 1}
+    assert reader.finite == (fastjson.ORJSON is not None)  # without orjson nothing is vouched for
+    for text in ('{"a": NaN}', '{"a": 1e999}', '{"a": -Infinity}'):
+        value = reader(text)
+        assert not reader.finite
+        assert dumps_parsed(value, finite=reader.finite) == canonical(value)  # NaN / Infinity, not null
 
 
 def test_without_orjson_both_are_the_standard_library(monkeypatch):
     monkeypatch.setattr(fastjson, "ORJSON", None)
-    assert line_reader(b"{}") is loads
+    assert not LineReader(b"{}").finite
     assert dumps_parsed({"b": 1e-05, "a": "\u2028"}) == '{"a":"\u2028","b":1e-05}'
     assert math.isnan(loads("NaN"))
+
+
+def _merge_note(db: Any, finite: bool, note: str) -> str:
+    """One edit merged through a batch told its ops are finite or not; the beam row's stored text after it."""
+    op = Op(
+        origin="0190aaaa-0000-7000-8000-00000000000a",
+        seq=1,
+        hlc=115_343_360_000_000_000,
+        entity="beam",
+        record_id="beam-1",
+        kind="set",
+        payload={"notes": note, "bridging_spacing_mm": None},
+        base={},
+        schema_version=1,
+        wall_ms=1_760_000_000_000,
+    )
+    with transaction(db):
+        batch = ProjectionBatch(db, finite=finite)
+        batch.prefetch([op])
+        assert insert_op(db, op, batch)
+        apply_op(db, op, batch=batch)
+        batch.flush()
+    return str(db.execute("SELECT data FROM beam WHERE id='beam-1'").fetchone()[0])
+
+
+@pytest.mark.parametrize("finite", [True, False])
+def test_a_batch_keeps_a_stored_nan_whatever_its_ops_are(tmp_path, finite):
+    """A row stored with NaN (canonical writes it) is read by json, ends the batch's ``finite`` and stays NaN."""
+    db = connect(tmp_path / "t.db")
+    with transaction(db):
+        db.execute("INSERT INTO beam (id, site_id, data) VALUES ('beam-1', 's', ?)", [canonical({"x": math.nan})])
+    text = _merge_note(db, finite, "after \u2028")
+    assert text == canonical({"x": math.nan, "notes": "after \u2028", "bridging_spacing_mm": None})
+    assert "NaN" in text
+    assert "null" in text
+
+
+def test_a_finite_batch_writes_nulls_as_canonical_does(tmp_path):
+    db = connect(tmp_path / "t.db")
+    with transaction(db):
+        db.execute("INSERT INTO beam (id, site_id, data) VALUES ('beam-1', 's', ?)", ['{"top":{"spacing_mm":null}}'])
+    text = _merge_note(db, True, "n")
+    assert text == canonical({"top": {"spacing_mm": None}, "notes": "n", "bridging_spacing_mm": None})
