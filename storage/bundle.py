@@ -31,6 +31,7 @@ from cryptography.exceptions import InvalidSignature
 from storage import identity
 from storage.clock import far_ahead_ms
 from storage.db import SCHEMA_VERSION, transaction
+from storage.fastjson import LineReader
 from storage.gcpause import gc_paused
 from storage.identity import SignatureError
 from storage.oplog import (
@@ -461,6 +462,7 @@ class _Verified:
     rebase_from: int | None = None  # own ops from this seq on are renumbered (restored device)
     sigs: list[str] = field(default_factory=list)  # each op's origin signature, kept for relaying
     stored: list[tuple[Any, ...]] = field(default_factory=list)  # each op's ``stored()``, encoded once
+    finite: bool = False  # every op line was read by orjson: no NaN or infinity (``fastjson.LineReader``)
 
 
 def _read_bounded(z: zipfile.ZipFile, info: zipfile.ZipInfo, limit: int) -> bytes:
@@ -629,13 +631,14 @@ def _op_lines(text: str) -> list[str]:
     return lines
 
 
-def _parse_ops(body: bytes, sigs: bytes, op_count: int) -> tuple[list[Op], list[str]]:
-    """The op lines as ops, and one signature per op."""
+def _parse_ops(body: bytes, sigs: bytes, op_count: int) -> tuple[list[Op], list[str], bool]:
+    """The op lines as ops, one signature per op, and whether every value read is finite (``LineReader.finite``)."""
     ops = []
+    read = LineReader(body)
     try:
         for n, line in enumerate(_op_lines(body.decode()), start=1):
             _refuse_unless(n <= MAX_OPS, f"more than {MAX_OPS} ops")
-            ops.append(Op.from_row(json.loads(line)))
+            ops.append(Op.from_row(read(line)))
     except (ValueError, KeyError, TypeError, AttributeError, RecursionError) as exc:
         msg = f"bad op line {len(ops) + 1}: {str(exc)[:120]}"
         raise BundleRefused(msg) from exc
@@ -646,7 +649,7 @@ def _parse_ops(body: bytes, sigs: bytes, op_count: int) -> tuple[list[Op], list[
         raise BundleRefused(msg) from exc
     _refuse_unless(len(ops) == op_count, "op count differs from the manifest")
     _refuse_unless(len(sig_lines) == len(ops), "one signature per op expected")
-    return ops, sig_lines
+    return ops, sig_lines, read.finite
 
 
 def _check_op_content(store: Store, ops: list[Op], stored: list[tuple[Any, ...]]) -> None:
@@ -747,13 +750,13 @@ def verify_bundle(store: Store, data: bytes) -> _Verified:
     z, by_name = _open_zip(data)
     manifest = _signed_manifest(store, z, by_name)
     body, sig_body, blobs = _entries(z, by_name, manifest)
-    ops, sigs = _parse_ops(body, sig_body, manifest["op_count"])
-    stored = [op.stored() for op in ops]  # each op's canonical texts, encoded once for the checks and the merge
+    ops, sigs, finite = _parse_ops(body, sig_body, manifest["op_count"])
+    stored = [op.stored_parsed(finite) for op in ops]  # each op's canonical texts, once for the checks and the merge
     _check_op_signatures(store, ops, sigs, manifest["origin"], stored)
     _check_op_content(store, ops, stored)
     rebase_from = _check_integrity(store, ops, stored, manifest["origin"])
     _check_ranges(store, manifest, ops, rebase_from)
-    return _Verified(manifest, ops, blobs, hashlib.sha256(data).hexdigest(), rebase_from, sigs, stored)
+    return _Verified(manifest, ops, blobs, hashlib.sha256(data).hexdigest(), rebase_from, sigs, stored, finite)
 
 
 def _held_ops(store: Store, ops: list[Op]) -> dict[tuple[str, int], tuple[Any, ...]]:
@@ -933,7 +936,7 @@ def _apply_batches(store: Store, v: _Verified, tell: Progress, committed: list[i
             if start == 0:
                 _first_batch(store, v)
             if batch is None:
-                batch = ProjectionBatch(store.db)
+                batch = ProjectionBatch(store.db, finite=v.finite)
             else:
                 batch.renew()  # rows and stamps read by earlier batches stay, unless another connection wrote
             new += _merge_batch(store, v, start, tell, batch)
@@ -981,11 +984,18 @@ def _merge_batch(store: Store, v: _Verified, start: int, tell: Progress, batch: 
 def _keep_received_signatures(store: Store, ops: list[Op], sigs: list[str], exporter: str) -> None:
     """Keep each op's origin signature for relaying; the exporter's own ones marked unchecked if new here."""
     conn = store.db.conn
-    conn.executemany(
-        "INSERT OR IGNORE INTO op_sig_unchecked SELECT ?, ? WHERE NOT EXISTS "
-        "(SELECT 1 FROM op_sig WHERE origin=? AND seq=?)",
-        [(op.origin, op.seq, op.origin, op.seq) for op in ops if op.origin == exporter],
-    )
+    own = [op.seq for op in ops if op.origin == exporter]  # contiguous (checked before the first write)
+    if own:
+        # one range read instead of a NOT EXISTS probe per op: the exporter's ops already signed here stay so
+        signed = {
+            r[0]
+            for r in conn.execute(
+                "SELECT seq FROM op_sig WHERE origin=? AND seq BETWEEN ? AND ?", [exporter, own[0], own[-1]]
+            )
+        }
+        conn.executemany(
+            "INSERT OR IGNORE INTO op_sig_unchecked VALUES (?, ?)", [(exporter, s) for s in own if s not in signed]
+        )
     rows = [(op.origin, op.seq, sig) for op, sig in zip(ops, sigs, strict=True)]
     conn.executemany("INSERT OR IGNORE INTO op_sig VALUES (?, ?, ?)", rows)
 

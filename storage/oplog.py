@@ -8,7 +8,6 @@ records, with concurrent edits recorded as conflicts; deficiency status as a for
 from __future__ import annotations
 
 import hashlib
-import json
 import sqlite3
 from collections.abc import Callable, Iterable, Sequence
 from dataclasses import dataclass
@@ -20,6 +19,7 @@ import sqlite_utils
 
 from storage.clock import HLC_MAX
 from storage.db import INSERT_ENTITIES, SCHEMA_VERSION, SET_ENTITIES
+from storage.fastjson import canonical, dumps_parsed, loads, loads_finite
 from storage.stamps import utc_stamp
 
 OP_KEYS = ("origin", "seq", "hlc", "entity", "record_id", "kind", "payload", "base", "schema_version", "wall_ms")
@@ -47,15 +47,6 @@ _TEXT_KEYS = ("origin", "entity", "record_id", "kind")
 
 class IntegrityError(Exception):
     """Same id, different content for an insert-only record, or an op that contradicts the log."""
-
-
-# what json.dumps(value, sort_keys=True, separators=(",", ":"), ensure_ascii=False) builds on every call
-_CANONICAL = json.JSONEncoder(sort_keys=True, separators=(",", ":"), ensure_ascii=False)
-
-
-def canonical(value: Any) -> str:
-    """Canonical JSON (sorted keys, no spaces) used for hashes and stored values."""
-    return _CANONICAL.encode(value)
 
 
 def content_hash(payload: dict[str, Any]) -> str:
@@ -92,6 +83,11 @@ class Op:
         """(hlc, entity, record_id, kind, payload, base) as the ``op`` table holds them."""
         return (self.hlc, self.entity, self.record_id, self.kind.value, self.payload_text, self.base_text)
 
+    def stored_parsed(self, finite: bool = False) -> tuple[Any, ...]:
+        """``stored()`` of an op whose payload and base were parsed from JSON (``fastjson.dumps_parsed``)."""
+        base = dumps_parsed(self.base, finite) if self.base else "{}"
+        return (self.hlc, self.entity, self.record_id, self.kind.value, dumps_parsed(self.payload, finite), base)
+
     def row(self) -> dict[str, Any]:
         """The op as a row of the ``op`` table."""
         return {
@@ -119,18 +115,11 @@ class Op:
         if (row.keys() if isinstance(row, dict) else set(row)) != _OP_KEY_SET:  # a line may hold any JSON
             msg = f"op keys {sorted(row)} differ from {sorted(OP_KEYS)}"
             raise ValueError(msg)
-        payload = row["payload"] if isinstance(row["payload"], dict) else json.loads(row["payload"])
-        base = row["base"] if isinstance(row["base"], dict) else json.loads(row["base"])
-        for key in _TEXT_KEYS:
-            value = row[key]
-            if not isinstance(value, str) or not 0 < len(value) <= MAX_ID_CHARS:
-                msg = f"op {key} {str(value)[:40]!r} must be text of 1 to {MAX_ID_CHARS} characters"
-                raise ValueError(msg)
-        for key in INT_RANGES:
-            value = row[key]
-            if not isinstance(value, int) or isinstance(value, bool):
-                msg = f"op {key} {str(value)[:40]!r} must be an integer"
-                raise ValueError(msg)
+        payload = row["payload"] if isinstance(row["payload"], dict) else loads(row["payload"])
+        base = row["base"] if isinstance(row["base"], dict) else loads(row["base"])
+        plain = _plainly_valid(row)  # True: every check below and in ``validate`` passes (the loops are skipped)
+        if not plain:
+            _check_row_types(row)
         if not isinstance(payload, dict) or not isinstance(base, dict):
             msg = "op payload and base must be JSON objects"
             raise ValueError(msg)
@@ -140,7 +129,8 @@ class Op:
             raise ValueError(msg)
         op = cls.__new__(cls)
         op.__dict__.update(row, kind=kind, payload=payload, base=base)  # each value checked above
-        op.validate()
+        if not plain:
+            op.validate()
         return op
 
     def __post_init__(self) -> None:
@@ -167,6 +157,60 @@ class Op:
             if not low <= value <= high:
                 msg = f"op {key} {value} out of range; allowed {low} to {high}"
                 raise ValueError(msg)
+
+
+_SEQ_LOW, _SEQ_HIGH = INT_RANGES["seq"]
+_HLC_LOW, _HLC_HIGH = INT_RANGES["hlc"]
+_SCHEMA_LOW, _SCHEMA_HIGH = INT_RANGES["schema_version"]
+_WALL_LOW, _WALL_HIGH = INT_RANGES["wall_ms"]
+
+
+def _plainly_valid(row: dict[str, Any]) -> bool:
+    """True when a row passes ``_check_row_types`` and ``Op.validate`` with exact types (str, int).
+
+    One expression instead of the loops: a bundle import checks every line. False does not refuse the
+    row; it sends it through the checks themselves, which raise with the field's name and range (an int
+    subclass other than bool, for example, passes them).
+    """
+    o, e, r, k = row["origin"], row["entity"], row["record_id"], row["kind"]
+    s, h, v, w = row["seq"], row["hlc"], row["schema_version"], row["wall_ms"]
+    return (
+        type(o) is str
+        and type(e) is str
+        and type(r) is str
+        and type(k) is str
+        and 0 < len(o) <= MAX_ID_CHARS
+        and 0 < len(e) <= MAX_ID_CHARS
+        and 0 < len(r) <= MAX_ID_CHARS
+        and 0 < len(k) <= MAX_ID_CHARS
+        and type(s) is int
+        and type(h) is int
+        and type(v) is int
+        and type(w) is int
+        and _SEQ_LOW <= s <= _SEQ_HIGH
+        and _HLC_LOW <= h <= _HLC_HIGH
+        and _SCHEMA_LOW <= v <= _SCHEMA_HIGH
+        and _WALL_LOW <= w <= _WALL_HIGH
+        and (
+            (k == "set" and e in SET_ENTITIES)
+            or (k == "insert" and e in INSERT_ENTITIES)
+            or k + e == "statusdeficiency"
+        )
+    )
+
+
+def _check_row_types(row: dict[str, Any]) -> None:
+    """Refuse a row whose text keys are not text of 1 to MAX_ID_CHARS characters or whose integers are not integers."""
+    for key in _TEXT_KEYS:
+        value = row[key]
+        if not isinstance(value, str) or not 0 < len(value) <= MAX_ID_CHARS:
+            msg = f"op {key} {str(value)[:40]!r} must be text of 1 to {MAX_ID_CHARS} characters"
+            raise ValueError(msg)
+    for key in INT_RANGES:
+        value = row[key]
+        if not isinstance(value, int) or isinstance(value, bool):
+            msg = f"op {key} {str(value)[:40]!r} must be an integer"
+            raise ValueError(msg)
 
 
 def _now() -> str:
@@ -238,7 +282,7 @@ def _op_seq_at(db: sqlite_utils.Database, origin: str, hlc: int, entity: str, re
 
 def _load(db: sqlite_utils.Database, table: str, record_id: str) -> tuple[dict[str, Any] | None, str | None]:
     row = db.execute(f"SELECT data, content_hash FROM {table} WHERE id = ?", [record_id]).fetchone()
-    return (json.loads(row[0]), row[1]) if row else (None, None)
+    return (loads(row[0]), row[1]) if row else (None, None)
 
 
 def _store(db: sqlite_utils.Database, table: str, record_id: str, data: dict[str, Any], chash: str | None) -> None:
@@ -262,9 +306,15 @@ class ProjectionBatch:
     merging those ops would read one at a time. Local saves do not use it.
     """
 
-    def __init__(self, db: sqlite_utils.Database):
-        """Hold rows of ``db``'s projection tables."""
+    def __init__(self, db: sqlite_utils.Database, finite: bool = False):
+        """Hold rows of ``db``'s projection tables.
+
+        ``finite``: the ops merged through the batch hold no NaN or infinity (a bundle read by a
+        ``fastjson.LineReader`` whose ``finite`` stayed True). It stays True while every row read was
+        read by orjson too; the changed rows are then encoded keeping orjson's ``null`` (``dumps_parsed``).
+        """
         self.db = db
+        self.finite = finite
         self.rows: dict[tuple[str, str], tuple[dict[str, Any] | None, str | None]] = {}
         # dirty keys in insertion order (a dict): merged in log order they come nearly sorted, and sorting
         # a nearly sorted list for the write is several times faster than sorting a set's order
@@ -342,7 +392,7 @@ class ProjectionBatch:
             for record_id, data, chash in self.db.execute(
                 f"SELECT id, data, content_hash FROM {table} WHERE id IN ({', '.join('?' * len(padded))})", padded
             ):
-                self.rows[(table, record_id)] = (json.loads(data), chash)
+                self.rows[(table, record_id)] = (self._read(data), chash)
         for record_id in ids:
             self.rows.setdefault((table, record_id), (None, None))
 
@@ -410,8 +460,17 @@ class ProjectionBatch:
         """The row (data, content hash) as the batch sees it."""
         key = (table, record_id)
         if key not in self.rows:
-            self.rows[key] = _load(self.db, table, record_id)
+            row = self.db.execute(f"SELECT data, content_hash FROM {table} WHERE id = ?", [record_id]).fetchone()
+            self.rows[key] = (self._read(row[0]), row[1]) if row else (None, None)
         return self.rows[key]
+
+    def _read(self, text: str) -> Any:
+        """A stored row's JSON (``fastjson.loads``); one not read by orjson ends ``finite``."""
+        if not self.finite:
+            return loads(text)
+        value, finite = loads_finite(text)
+        self.finite = finite
+        return value
 
     def store(self, table: str, record_id: str, data: dict[str, Any], chash: str | None) -> None:
         """Change a row in the batch (a None hash keeps the stored one, as ``_store`` does)."""
@@ -439,10 +498,11 @@ class ProjectionBatch:
         self.new_ops.clear()
         self.new_at.clear()
         by_table: dict[str, list[tuple[Any, ...]]] = {}
+        finite = self.finite
         for table, record_id in sorted(self.dirty):
             data, chash = self.rows[(table, record_id)]
             assert data is not None
-            by_table.setdefault(table, []).append((record_id, data.get("site_id"), canonical(data), chash))
+            by_table.setdefault(table, []).append((record_id, data.get("site_id"), dumps_parsed(data, finite), chash))
         for table, rows in by_table.items():
             _write_many(self.db, _store_sql(table), rows)
         self.dirty.clear()
