@@ -3,8 +3,8 @@
     .venv/bin/python scripts/build_core.py          # compile (scripts/setup.sh runs this)
     .venv/bin/python scripts/build_core.py --clean  # remove every compiled module: core runs from source
 
-The same Python source, compiled to C extension modules placed beside it (``core/**/*.so`` and the shared
-``bracewalk_core__mypyc*.so`` at the top of the repository), and ``core/compiled.json``: the SHA-256 of
+The same Python source, compiled to C extension modules placed beside it (``core/**/*.so``, with the group's
+shared ``core/native__mypyc*.so``), and ``core/compiled.json``: the SHA-256 of
 every source compiled. On import, ``core`` compares the sources with it (``core/__init__.py``): if any
 changed since the build, or a compiled module is not listed, every ``core`` module is loaded from its source
 instead (a warning says so), never a mix. The output is the same either way: the golden digests
@@ -22,7 +22,7 @@ import tempfile
 from pathlib import Path
 
 ROOT = Path(__file__).resolve().parents[1]
-GROUP = "bracewalk_core"
+GROUP = "core.native"  # the shared library core/native__mypyc*.so: inside the package, found as core is
 # the modules of a recheck's hot path: pure arithmetic and plain classes (models and tables stay Python)
 MODULES = (
     "core/analysis.py",
@@ -48,7 +48,7 @@ SETUP = (
 
 def compiled_files() -> list[Path]:
     """Every compiled module of core, and the group's shared library."""
-    return sorted([*ROOT.glob("core/**/*.so"), *ROOT.glob(f"{GROUP}__mypyc*.so")])
+    return sorted(ROOT.glob("core/**/*.so"))
 
 
 def clean() -> int:
