@@ -27,9 +27,15 @@ FB_POS, FV, FCP, E = 30.6, 2.0, 7.0, 12800.0
 UNIT_WEIGHT = 4.9  # kN/m3, core/data/densities.csv D.Fir-L glulam
 
 
-def _each(fn: Callable[[Beam], object], items: list[Beam]) -> list[object]:
-    """Fn over every beam: the timed body of a recheck sample."""
-    return [fn(b) for b in items]
+def _each(fn: Callable[[Beam], object], items: list[Beam]) -> None:
+    """Fn over every beam, each result let go as the next is made: the timed body of a recheck sample.
+
+    As the recheck's users take it: the portfolio and a site's refresh keep a small row of each result,
+    never the results themselves. Keeping all 2,000 results alive (a list, as this body did before)
+    measured the cyclic collector walking them too: 15-25 % of the time, in no user's path.
+    """
+    for b in items:
+        fn(b)
 
 
 def beams(n_spans: int, count: int, seed: int = 7) -> list[Beam]:
