@@ -211,9 +211,28 @@ def _check_insert(op: Op, long: bool) -> None:
     _check_id(op, "site_id", p.get("site_id"), optional=False)
     for field in ("beam_id", "deficiency_id"):
         _check_id(op, field, p.get(field), optional=True)
-    if op.entity == "photo" and not SHA256.match(str(p.get("sha256"))):
+    if op.entity == "photo":
+        _check_photo(op, p)
+
+
+CAPTION_MAX = PhotoRecord.model_fields["caption"].metadata[0].max_length
+
+
+def _check_photo(op: Op, p: dict[str, Any]) -> None:
+    """A photo record as a local save writes it (``PhotoRecord``: ids, SHA-256, time, marks within the photo).
+
+    All but the caption's length: photos of 0.6.0 had no limit on it, and a markup copies its original's.
+    """
+    if not SHA256.match(str(p.get("sha256"))):
         msg = f"{_where(op, 'sha256')}: not a SHA-256"
         raise RecordInvalid(msg)
+    caption = p.get("caption", "")
+    try:
+        PhotoRecord.model_validate(dict(p, caption=caption[:CAPTION_MAX] if isinstance(caption, str) else caption))
+    except ValidationError as exc:
+        field = ".".join(str(x) for x in exc.errors()[0]["loc"]) or "(photo)"
+        msg = f"{_where(op, field)}: {_first_error(exc)}"
+        raise RecordInvalid(msg) from exc
 
 
 def check_op_record(op: Op, payload_text: str | None = None) -> None:
