@@ -68,6 +68,18 @@ class SyncResult:
         """True when the hub took everything and nothing waits."""
         return not self.rejected and self.hub_schema_older is None and not self.newer_waiting
 
+    @property
+    def version_words(self) -> str:
+        """Why the sync stopped short between app versions, in words ('' when it did not)."""
+        if self.hub_schema_older is not None:
+            return (
+                "nothing was sent: the office hub runs an older bracewalk than this tablet, so your changes stay "
+                "here until the office updates it"
+            )
+        if self.newer_waiting:
+            return "the office holds changes made with a newer bracewalk: update this app to receive them"
+        return ""
+
 
 def _silent(fraction: float, what: str) -> None:
     """No progress display."""
@@ -167,10 +179,8 @@ def sync(
     if result.rejected:
         n = len(result.rejected)
         log_sync(store, "refused", f"{n} change{'s' if n != 1 else ''} held at the office", clock())
-    elif result.hub_schema_older is not None:
-        log_sync(store, "refused", "nothing sent: the office hub runs an older bracewalk", clock())
-    elif result.newer_waiting:
-        log_sync(store, "refused", "changes from a newer bracewalk wait at the office: update this app", clock())
+    elif result.version_words:
+        log_sync(store, "refused", result.version_words, clock())
     else:
         log_sync(store, "in_step", f"sent {result.pushed}, received {result.pulled_new}", clock())
     return result
@@ -199,8 +209,9 @@ def _sync(
             result.pulled_new += apply_page(store, page, clock())
         except PageRefused as exc:
             raise HubError(str(exc), 409) from exc
-        _fetch_blobs(store, auth, page["ops"][: first_newer_schema(page)])
-        result.newer_waiting = first_newer_schema(page) is not None
+        newer = first_newer_schema(page)
+        _fetch_blobs(store, auth, page["ops"][:newer])
+        result.newer_waiting = newer is not None
         more = bool(page["more"]) and not result.newer_waiting
     tell(1.0, "in step with the office")
 

@@ -219,19 +219,8 @@ def cmd_sync_hub(args: argparse.Namespace) -> int:
         for item in rejection_words(store):
             print(f"  {item}", file=sys.stderr)
         return EXIT_FAILURE
-    if result.hub_schema_older is not None:
-        print(
-            f"bracewalk sync hub: nothing sent: the office hub knows record schema {result.hub_schema_older}, this "
-            "app writes a newer one; every change stays here until the hub is updated",
-            file=sys.stderr,
-        )
-        return EXIT_FAILURE
-    if result.newer_waiting:
-        print(
-            "bracewalk sync hub: the office holds changes made with a newer bracewalk; update this app to receive "
-            "them (everything before them was received)",
-            file=sys.stderr,
-        )
+    if result.version_words:
+        print(f"bracewalk sync hub: {result.version_words}", file=sys.stderr)
         return EXIT_FAILURE
     return EXIT_OK
 

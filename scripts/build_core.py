@@ -31,8 +31,10 @@ MODULES = (
     "core/findings.py",
     "core/loads.py",
     "core/member.py",
-    *(f"core/clauses/{n}.py" for n in ("bearing", "bending", "factors", "outcomes", "serviceability", "shear")),
-    "core/clauses/stability.py",
+    *(
+        f"core/clauses/{n}.py"
+        for n in ("bearing", "bending", "factors", "outcomes", "serviceability", "shear", "stability")
+    ),
     *(f"core/recheck/{n}.py" for n in ("__init__", "bearing", "bending", "cases", "deflection", "shear", "trace")),
 )
 MANIFEST = ROOT / "core" / "compiled.json"

@@ -183,13 +183,8 @@ class SyncViewModel:
             text += f"; this tablet's clock is {abs(result.skew_ms) // 60000} min off the office clock"
         if result.rejected:
             text += f"; the office held back {len(result.rejected)}: see below"
-        if result.hub_schema_older is not None:
-            text += (
-                "; nothing was sent: the office hub runs an older bracewalk than this tablet, so your changes stay "
-                "here until the office updates it"
-            )
-        if result.newer_waiting:
-            text += "; the office holds changes made with a newer bracewalk: update this app to receive them"
+        if result.version_words:
+            text += f"; {result.version_words}"
         return text
 
     def held_back(self) -> list[str]:
