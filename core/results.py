@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from collections.abc import Iterable
 from enum import StrEnum
 from typing import Any
 
@@ -60,6 +61,17 @@ class FactorTrace(Out):
     clause: str = ""
     source: str = ""
     status: TraceStatus = TraceStatus.formula
+
+
+# a table row (or tabulated rule) a recheck used, as its trace line names it: (clause, source, status); the
+# statuses that mark such a line: verified, confirmed or memory (formula and input lines rest on no table)
+RowUsed = tuple[str, str, TraceStatus]
+TABLE_STATUSES = frozenset((TraceStatus.verified, TraceStatus.confirmed, TraceStatus.memory))
+
+
+def trace_rows(trace: Iterable[FactorTrace]) -> set[RowUsed]:
+    """The table rows named by trace lines: (clause, source, status) of each line verified, confirmed or memory."""
+    return {(t.clause, t.source, t.status) for t in trace if t.status in TABLE_STATUSES}
 
 
 class BendingRegion(Out):
@@ -195,6 +207,21 @@ class Recheck(Out):
         for region in data["bending"]:
             region.pop(drop, None)
         return data
+
+
+def rows_used(result: Recheck) -> frozenset[RowUsed]:
+    """Every table row a traced recheck used: the rows of every trace line of every check.
+
+    A status-only recheck keeps no trace: ``core.recheck.recheck_with_rows`` gives the same set without one.
+    """
+    rows: set[RowUsed] = set()
+    for region in result.bending:
+        rows |= trace_rows(region.trace)
+    rows |= trace_rows(result.shear.trace)
+    for bearing in result.bearing:
+        rows |= trace_rows(bearing.trace)
+    rows |= trace_rows(result.deflection.trace)
+    return frozenset(rows)
 
 
 class CheckKind(StrEnum):

@@ -10,6 +10,7 @@ from __future__ import annotations
 from typing import Any, NamedTuple
 
 from core.analysis import BeamModel, Region
+from core.assembled import assembled
 from core.clauses.bending import glulam_bending_strength_for_face, glulam_mr, sawn_mr, size_factor_kzbg
 from core.clauses.factors import factored_bending_strength_fb
 from core.clauses.outcomes import NotPermitted
@@ -27,8 +28,8 @@ from core.kinds import ElementKind, MomentSign, Outcome, TraceStatus
 from core.member import Member
 from core.models import Beam, Material, NegativeLu
 from core.recheck.cases import LoadCase, carries_snow
-from core.recheck.trace import KNM_PER_NMM, case_label, kd_trace, line, note
-from core.results import BendingRegion, FactorTrace
+from core.recheck.trace import KNM_PER_NMM, case_label, kd_trace, keep_rows, line, note
+from core.results import BendingRegion, FactorTrace, RowUsed
 
 
 def region_name(model: BeamModel, region: Region) -> str:
@@ -354,25 +355,26 @@ class _Ranker:
         util = m / mr if mr > 0 else float("inf")
         return (_OVERSTRESS if util > 1.0 else _OK, util)
 
-    def entry(self, region: Region, case: LoadCase, edge: EdgeSupport, ne: bool) -> _Entry:
+    def entry(self, span: list[Any], case: LoadCase, edge: EdgeSupport, ne: bool) -> _Entry:
         """(Fb, KL or None when not permitted, Mr for sawn lumber, (KL as found, numbers written)) of a key.
 
-        The key: KD, sign, edge, ne. The last item is what ``bending_check`` takes as ``known``.
+        span: the region's ``BeamModel.region_spans`` numbers. The key: KD, sign, edge, ne. The last item is
+        what ``bending_check`` takes as ``known``.
         """
-        fb, kl, wrote = self._stability(region, case, edge, ne)
+        fb, kl, wrote = self._stability(span, case, edge, ne)
         if isinstance(kl, NotPermitted):
             return fb, None, None, (kl, wrote)
         return fb, kl, _member_mr(self.beam, self.member, fb, None, kl) if self.sawn else None, (kl, wrote)
 
     def _stability(
-        self, region: Region, case: LoadCase, edge: EdgeSupport, ne: bool
+        self, span: list[Any], case: LoadCase, edge: EdgeSupport, ne: bool
     ) -> tuple[float, float | NotPermitted, dict[str, Any]]:
         """(Fb in MPa, KL of the edge, or of the restrained edge for a not-established region, numbers written)."""
         beam, member = self.beam, self.member
-        fb_spec, _ = _face_strength(beam, member, region.sign)
+        fb_spec, _ = _face_strength(beam, member, span[2])
         fb = factored_bending_strength_fb(fb_spec, case.kd, member.kh, member.ksb, member.kt)
         if ne:
-            edge = compression_edge(beam, self.model, region, assume_restrained=True)
+            edge = compression_edge(beam, self.model, _region(span), assume_restrained=True)
         wrote: dict[str, Any] = {"lu_mm": None}
         return fb, _stability_kl(beam, member, edge, fb, wrote, None), wrote
 
@@ -380,7 +382,7 @@ class _Ranker:
 def _region(span: list[Any]) -> Region:
     """The Region of ``BeamModel.region_spans`` numbers."""
     x0, x1, sign, m, elements = span
-    return Region(x0_mm=x0, x1_mm=x1, sign=sign, m_max_nmm=m, elements=elements)
+    return Region(x0, x1, sign, m, elements)
 
 
 class _Key(NamedTuple):
@@ -440,7 +442,7 @@ class _Search:
             edge, ne, name, by_kd = hit
             entry = by_kd.get(kd)
             if entry is None:
-                entry = by_kd[kd] = ranker.entry(_region(span), case, edge, ne)
+                entry = by_kd[kd] = ranker.entry(span, case, edge, ne)
             rank = ranker.rank(span, entry, ne)
             if name is None:
                 name = self._name(span)
@@ -449,33 +451,80 @@ class _Search:
                 best[name] = (rank, span, case, edge, ne, entry)
 
 
+def _assembled_region(
+    name: str,
+    region: Region,
+    case: LoadCase,
+    clause: str,
+    edge: EdgeSupport,
+    trace: list[FactorTrace],
+    numbers: dict[str, Any],
+) -> BendingRegion:
+    """The BendingRegion of a region's governing case, from ``bending_check``'s numbers (fields in order)."""
+    return assembled(
+        BendingRegion,
+        {
+            "region": name.split("|")[0],
+            "sign": region.sign,
+            "x_start_mm": region.x0_mm,
+            "x_end_mm": region.x1_mm,
+            "lu_mm": numbers["lu_mm"],
+            "le_mm": numbers["le_mm"],
+            "le_factor": numbers["le_factor"],
+            "cb": numbers["cb"],
+            "ck": numbers["ck"],
+            "kl": numbers["kl"],
+            "kzbg": numbers["kzbg"],
+            "kzb": numbers["kzb"],
+            "fb_mpa": numbers["fb_mpa"],
+            "kd": numbers["kd"],
+            "mr_knm": numbers["mr_knm"],
+            "mf_knm": numbers["mf_knm"],
+            "utilisation": numbers["utilisation"],
+            "combination": case_label(case),
+            "clause": clause,
+            "outcome": numbers["outcome"],
+            "compression_edge": edge.description,
+            "compression_edge_unbraced": numbers["compression_edge_unbraced"],
+            "dead_load_only": numbers["dead_load_only"],
+            "snow_in_combination": numbers["snow_in_combination"],
+            "trace": trace,
+            "kl_if_restrained": numbers.get("kl_if_restrained"),
+            "mr_if_restrained_knm": numbers.get("mr_if_restrained_knm"),
+            "utilisation_if_restrained": numbers.get("utilisation_if_restrained"),
+        },
+    )
+
+
 def bending_regions(
-    beam: Beam, member: Member, model: BeamModel, cases: list[LoadCase], *, traces: bool = True
+    beam: Beam,
+    member: Member,
+    model: BeamModel,
+    cases: list[LoadCase],
+    *,
+    traces: bool = True,
+    rows: set[RowUsed] | None = None,
 ) -> list[BendingRegion]:
-    """Governing bending check for every named region over all cases (traces: False builds none)."""
+    """Governing bending check for every named region over all cases (traces: False builds none).
+
+    rows: when given, the table rows of every region's trace (the member's rows and the governing case's
+    lines, found as a traced recheck finds them) are added to it, with or without traces.
+    """
     search = _Search(beam, member, model)
     for case in cases:
         search.add(case)
     out = []
     for name, (_, span, case, edge, ne, entry) in sorted(search.best.items(), key=lambda kv: kv[1][1][0]):
         region = _region(span)
-        trace: list[FactorTrace] | None = [] if traces else None
+        trace: list[FactorTrace] | None = [] if traces or rows is not None else None
         # without a trace, KL is what the search found for the region's key (a not-established region's
         # entry holds the restrained edge's KL, so its upper bound is found again for its own ends)
-        known = None if traces or ne else entry[3]
+        known = None if trace is not None or ne else entry[3]
         numbers = bending_check(beam, member, model, region, case, edge, ne, trace, known)
+        if rows is not None:
+            rows.update(member.rows_used)
+            keep_rows(rows, trace)
         clause = "CSA O86-19 7.5.6.5.1, 7.5.6.4" if beam.material is Material.glulam else "CSA O86-19 6.5.3"
-        out.append(
-            BendingRegion(
-                region=name.split("|")[0],
-                sign=region.sign,
-                x_start_mm=region.x0_mm,
-                x_end_mm=region.x1_mm,
-                combination=case_label(case),
-                clause=clause,
-                compression_edge=edge.description,
-                trace=[] if trace is None else list(member.trace) + trace,
-                **numbers,
-            )
-        )
+        trace_out = list(member.trace) + trace if traces and trace is not None else []
+        out.append(_assembled_region(name, region, case, clause, edge, trace_out, numbers))
     return out

@@ -6,6 +6,7 @@ from functools import lru_cache
 
 from core import tables
 from core.analysis import BeamModel
+from core.assembled import assembled
 from core.clauses.serviceability import (
     EDITION,
     deflection_limit_mm,
@@ -16,8 +17,8 @@ from core.clauses.serviceability import (
 from core.kinds import ElementKind, TraceStatus
 from core.member import Member
 from core.models import Beam, Use
-from core.recheck.trace import line
-from core.results import DeflectionCheck, FactorTrace
+from core.recheck.trace import keep_rows, line
+from core.results import DeflectionCheck, FactorTrace, RowUsed
 
 _LIMIT_CLAUSE = {"total_specified": "CSA O86-19 5.4.2", "long_term": "CSA O86-19 5.4.3"}
 USE_LIMIT_CLAUSE = "NBC Table 9.4.3.1"
@@ -171,11 +172,14 @@ def _trace(beam: Beam, es: float, row: dict[str, str], use_row: dict[str, str]) 
     return trace
 
 
-def deflection_check(beam: Beam, member: Member, model: BeamModel, *, traces: bool = True) -> DeflectionCheck:
+def deflection_check(
+    beam: Beam, member: Member, model: BeamModel, *, traces: bool = True, rows: set[RowUsed] | None = None
+) -> DeflectionCheck:
     """Specified-load deflection (CSA O86-19 5.4.2, 5.4.3; NBC Table 9.4.3.1), mm.
 
     L + S against the use limit, D + L + S against L/180, and for O86-19 the long-term (dead) load
-    against L/360 (reference o86.md sections 12 and 13). traces: False builds no trace.
+    against L/360 (reference o86.md sections 12 and 13). traces: False builds no trace; rows: when given,
+    the table rows of the governing check's trace are added to it.
     """
     es = modulus_for_deflection_es(member.e_mpa, member.kse, member.kt_e)
     dead = beam.loads.dead_kn_m + member.self_weight_n_mm
@@ -183,13 +187,18 @@ def deflection_check(beam: Beam, member: Member, model: BeamModel, *, traces: bo
     checks = _checks(use_row, dead)
     best = _worst(model, checks, beam.loads.live_kn_m + beam.loads.snow_kn_m, es * member.inertia_mm4)
     util, delta, limit, label, element, row = best if best is not None else _strictest_limit(model, checks)
-    return DeflectionCheck(
-        delta_mm=delta,
-        limit_mm=limit,
-        utilisation=util,
-        limit_ratio=float(row["ratio"]),
-        case=label,
-        element=element,
-        clause=limit_clause(row),
-        trace=_trace(beam, es, row, use_row) if traces else [],
+    trace = _trace(beam, es, row, use_row) if traces or rows is not None else None
+    keep_rows(rows, trace)
+    return assembled(
+        DeflectionCheck,
+        {
+            "delta_mm": delta,
+            "limit_mm": limit,
+            "limit_ratio": float(row["ratio"]),
+            "utilisation": util,
+            "case": label,
+            "element": element,
+            "clause": limit_clause(row),
+            "trace": trace if traces and trace is not None else [],
+        },
     )

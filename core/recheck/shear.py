@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from core.analysis import BeamModel
+from core.assembled import assembled
 from core.clauses.factors import factored_strength
 from core.clauses.shear import (
     GLULAM_SIMPLE_SHEAR_MAX_VOLUME_M3,
@@ -15,8 +16,8 @@ from core.kinds import TraceStatus
 from core.member import Member
 from core.models import Beam, Material
 from core.recheck.cases import LoadCase, carries_snow
-from core.recheck.trace import KN_PER_N, case_label, kd_trace, line
-from core.results import FactorTrace, ShearCheck
+from core.recheck.trace import KN_PER_N, case_label, kd_trace, keep_rows, line
+from core.results import FactorTrace, RowUsed, ShearCheck
 
 CV_SIMPLE_UDL = 3.69  # CSA O86-19 Table 7.5: simple span, uniform load
 
@@ -70,9 +71,18 @@ def _method_trace(beam: Beam, model: BeamModel, volume: float, volume_method: bo
 
 
 def shear_check(
-    beam: Beam, member: Member, model: BeamModel, cases: list[LoadCase], *, traces: bool = True
+    beam: Beam,
+    member: Member,
+    model: BeamModel,
+    cases: list[LoadCase],
+    *,
+    traces: bool = True,
+    rows: set[RowUsed] | None = None,
 ) -> ShearCheck:
-    """Governing shear check (O86-19 7.5.7 glulam, 6.5.4 lumber); traces: False builds no trace."""
+    """Governing shear check (O86-19 7.5.7 glulam, 6.5.4 lumber); traces: False builds no trace.
+
+    rows: when given, the table rows of the governing case's trace are added to it (with or without traces).
+    """
     volume = glulam_volume_m3(beam.b_mm, beam.d_mm, model.total_length_mm)
     volume_method = beam.material is Material.glulam and volume >= GLULAM_SIMPLE_SHEAR_MAX_VOLUME_M3
     best: tuple[float, float, float, LoadCase] | None = None
@@ -84,15 +94,20 @@ def shear_check(
     assert best is not None
     util, resist, demand, case = best
     method, clause, extra = _method_trace(beam, model, volume, volume_method)
-    return ShearCheck(
-        vr_kn=resist * KN_PER_N,
-        vf_kn=demand * KN_PER_N,
-        utilisation=util,
-        method=method,
-        combination=case_label(case),
-        kd=case.kd,
-        clause=clause,
-        trace=[kd_trace(case), extra] if traces else [],
-        dead_load_only=case.combo.dead_load_only,
-        snow_in_combination=carries_snow(case, beam),
+    trace = [kd_trace(case), extra] if traces or rows is not None else None
+    keep_rows(rows, trace)
+    return assembled(
+        ShearCheck,
+        {
+            "vr_kn": resist * KN_PER_N,
+            "vf_kn": demand * KN_PER_N,
+            "utilisation": util,
+            "method": method,
+            "combination": case_label(case),
+            "kd": case.kd,
+            "clause": clause,
+            "trace": trace if traces and trace is not None else [],
+            "dead_load_only": case.combo.dead_load_only,
+            "snow_in_combination": carries_snow(case, beam),
+        },
     )

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from core.kinds import TraceStatus
 from core.recheck.cases import LoadCase
-from core.results import FactorTrace
+from core.results import FactorTrace, RowUsed, trace_rows
 
 KN_PER_N = 1e-3  # unit conversion: multiply a force in N by this to get kN
 KNM_PER_NMM = 1e-6  # unit conversion: a moment in N*mm to kN*m
@@ -64,3 +64,9 @@ def case_label(case: LoadCase) -> str:
     if not case.pattern or case.pattern == "all spans":
         return case.combo.name
     return f"{case.combo.name} (L/S on {case.pattern})"
+
+
+def keep_rows(rows: set[RowUsed] | None, trace: list[FactorTrace] | None) -> None:
+    """Add the table rows of a check's trace lines to ``rows`` when the rows used are being collected."""
+    if rows is not None and trace is not None:
+        rows.update(trace_rows(trace))
