@@ -61,6 +61,8 @@ def restraint_findings(beam: Beam) -> list[Finding]:
     out = []
     n = len(beam.bearings)
     for j, b in enumerate(beam.bearings):
+        if b.lateral is Restraint.yes and b.rotation is Restraint.yes:
+            continue  # both restraints seen: nothing missing or unseen
         missing = [k for k in ("lateral", "rotation") if getattr(b, k) is Restraint.no]
         unseen = [k for k in ("lateral", "rotation") if getattr(b, k) is Restraint.not_visible]
         if not missing and not unseen:
@@ -480,12 +482,12 @@ def build_findings(
         + assumed_findings(beam)
         + option_findings(beam)
     )
-    return sorted(found, key=lambda f: PRIORITY_ORDER[f.priority.value])
+    return sorted(found, key=lambda f: PRIORITY_ORDER[f.priority])  # a StrEnum member finds its value's entry
 
 
 def overall_status(bending: list[BendingRegion], findings: list[Finding]) -> Status:
     """not_established > not_permitted > deficient (any finding to act on) > ok."""
-    outcomes = {Outcome(r.outcome) for r in bending}
+    outcomes = {r.outcome for r in bending}  # Outcome members (a StrEnum: equal to and hashed as their values)
     if Outcome.not_established in outcomes:
         return Status.not_established
     if Outcome.not_permitted in outcomes:

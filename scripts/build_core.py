@@ -30,6 +30,7 @@ MODULES = (
     "core/edges.py",
     "core/effective_length.py",
     "core/findings.py",
+    "core/governing.py",
     "core/loads.py",
     "core/member.py",
     *(

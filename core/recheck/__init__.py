@@ -16,6 +16,7 @@ from typing import NamedTuple
 from core.analysis import BeamModel
 from core.assembled import assembled
 from core.findings import build_findings, overall_status
+from core.governing import governing
 from core.member import member_properties
 from core.models import Beam
 from core.recheck.bearing import bearing_checks
@@ -23,7 +24,7 @@ from core.recheck.bending import bending_regions
 from core.recheck.cases import load_cases
 from core.recheck.deflection import deflection_check
 from core.recheck.shear import shear_check
-from core.results import CAUTION, Recheck, RowUsed, governing_check
+from core.results import CAUTION, Recheck, RowUsed
 
 __all__ = ["RecheckRows", "beam_model", "recheck", "recheck_with_rows"]
 
@@ -75,7 +76,7 @@ def _recheck(beam: Beam, traces: bool, rows: set[RowUsed] | None) -> Recheck:
     bearing = bearing_checks(beam, member, model, cases, traces=traces, rows=rows)
     deflection = deflection_check(beam, member, model, traces=traces, rows=rows)
     findings = build_findings(beam, member, bending, shear, bearing, deflection)
-    _, governing = governing_check(bending, shear, bearing, deflection)
+    _, governing_utilisation = governing(bending, shear, bearing, deflection)
     return assembled(
         Recheck,
         {
@@ -86,7 +87,7 @@ def _recheck(beam: Beam, traces: bool, rows: set[RowUsed] | None) -> Recheck:
             "bearing": bearing,
             "deflection": deflection,
             "findings": findings,
-            "governing_utilisation": governing,
+            "governing_utilisation": governing_utilisation,
             "material": beam.material.value,
             "caution": CAUTION,
         },

@@ -54,7 +54,7 @@ def _face_strength(beam: Beam, member: Member, sign: MomentSign) -> tuple[float,
     """Specified fb for the face in tension (glulam: by the top stamp) and its symbol, MPa."""
     if beam.material is Material.sawn:
         return member.fb_pos_mpa, "fb"
-    return glulam_bending_strength_for_face(member.fb_pos_mpa, member.fb_neg_mpa, sign, beam.top_stamp.value)
+    return glulam_bending_strength_for_face(member.fb_pos_mpa, member.fb_neg_mpa, sign, beam.top_stamp)
 
 
 def _head_trace(

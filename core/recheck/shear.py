@@ -34,39 +34,36 @@ def _resistance_and_demand(
     return sawn_vr(fv, member.area_mm2, member.kzb or 1.0), case.result.max_abs_shear_n(model.lengths)
 
 
-def _method_trace(beam: Beam, model: BeamModel, volume: float, volume_method: bool) -> tuple[str, str, FactorTrace]:
-    """(method, clause, the CV or Z trace line) of the shear check."""
+def _method(beam: Beam, volume_method: bool) -> tuple[str, str]:
+    """(method, clause) of the shear check."""
+    if volume_method:
+        return "volume: Wr vs total factored load W (Z >= 2.0 m3)", "CSA O86-19 7.5.7.3(a)"
+    if beam.material is Material.glulam:
+        return "2A/3", "CSA O86-19 7.5.7.2"
+    return "2An/3 KZv", "CSA O86-19 6.5.4.1 (memory)"
+
+
+def _method_line(beam: Beam, model: BeamModel, volume: float, volume_method: bool) -> FactorTrace:
+    """The CV (volume method) or Z trace line of the shear check."""
     if volume_method:
         cv_status = TraceStatus.confirmed if len(model.elements) == 1 else TraceStatus.memory
-        return (
-            "volume: Wr vs total factored load W (Z >= 2.0 m3)",
-            "CSA O86-19 7.5.7.3(a)",
-            line(
-                symbol="CV",
-                value=CV_SIMPLE_UDL,
-                clause="CSA O86-19 Table 7.5",
-                source="simple span, uniform load"
-                + (
-                    ""
-                    if cv_status is TraceStatus.confirmed
-                    else "; applied to a continuous or overhanging beam: verify"
-                ),
-                status=cv_status,
-            ),
+        return line(
+            symbol="CV",
+            value=CV_SIMPLE_UDL,
+            clause="CSA O86-19 Table 7.5",
+            source="simple span, uniform load"
+            + ("" if cv_status is TraceStatus.confirmed else "; applied to a continuous or overhanging beam: verify"),
+            status=cv_status,
         )
     glulam = beam.material is Material.glulam
-    return (
-        "2A/3" if glulam else "2An/3 KZv",
-        "CSA O86-19 7.5.7.2" if glulam else "CSA O86-19 6.5.4.1 (memory)",
-        line(
-            symbol="Z",
-            value=round(volume, 3),
-            unit="m3",
-            clause="CSA O86-19 7.5.7" if glulam else "CSA O86-19 6.5.4 (memory)",
-            source="volume below 2.0 m3: simple method permitted"
-            if glulam
-            else "sawn lumber: Vr does not depend on the volume",
-        ),
+    return line(
+        symbol="Z",
+        value=round(volume, 3),
+        unit="m3",
+        clause="CSA O86-19 7.5.7" if glulam else "CSA O86-19 6.5.4 (memory)",
+        source="volume below 2.0 m3: simple method permitted"
+        if glulam
+        else "sawn lumber: Vr does not depend on the volume",
     )
 
 
@@ -93,8 +90,8 @@ def shear_check(
             best = (util, resist, demand, case)
     assert best is not None
     util, resist, demand, case = best
-    method, clause, extra = _method_trace(beam, model, volume, volume_method)
-    trace = [kd_trace(case), extra] if traces or rows is not None else None
+    method, clause = _method(beam, volume_method)
+    trace = [kd_trace(case), _method_line(beam, model, volume, volume_method)] if traces or rows is not None else None
     keep_rows(rows, trace)
     return assembled(
         ShearCheck,
