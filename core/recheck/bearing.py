@@ -10,42 +10,30 @@ from core.kinds import TraceStatus
 from core.member import Member
 from core.models import Beam, Bearing, Material
 from core.recheck.cases import LoadCase, carries_snow
-from core.recheck.trace import KN_PER_N, case_label, kd_trace, keep_rows, line
-from core.results import BearingCheck, FactorTrace, RowUsed
+from core.recheck.trace import KN_PER_N, Lines, add_kd, case_label, lines_for
+from core.results import BearingCheck, RowUsed
 
 
-def _kzcp_line(beam: Beam, kzcp: float) -> FactorTrace:
+def _kzcp_line(trace: Lines, beam: Beam, kzcp: float) -> None:
     """The KZcp trace line: the sawn-lumber formula of O86-19 6.5.6.2.3 with r = b/d, or 1.0 for glulam."""
     if beam.material is Material.glulam:
-        return line(
-            symbol="KZcp",
-            value=kzcp,
-            clause="CSA O86-19 7.5.9 (memory)",
-            source="glulam: no KZcp (1.0)",
-            status=TraceStatus.memory,
-        )
-    return line(
-        symbol="KZcp",
-        value=kzcp,
-        clause="CSA O86-19 6.5.6.2.3 (memory)",
-        source=f"r = b/d = {beam.b_mm / beam.d_mm:.3f}: 1.0 + 0.15 (r - 1), at least 1.0, at most 1.15",
-        status=TraceStatus.memory,
+        trace.add("KZcp", kzcp, "CSA O86-19 7.5.9 (memory)", "glulam: no KZcp (1.0)", TraceStatus.memory)
+        return
+    trace.add(
+        "KZcp",
+        kzcp,
+        "CSA O86-19 6.5.6.2.3 (memory)",
+        f"r = b/d = {beam.b_mm / beam.d_mm:.3f}: 1.0 + 0.15 (r - 1), at least 1.0, at most 1.15",
+        TraceStatus.memory,
     )
 
 
-def _trace(bearing: Bearing, area: float, kzcp: FactorTrace, clause: str, case: LoadCase) -> list[FactorTrace]:
-    return [
-        line(
-            symbol="Ab",
-            value=area,
-            unit="mm2",
-            source=f"b x bearing length {bearing.length_mm:g} mm",
-            status=TraceStatus.input,
-        ),
-        line(symbol="KB", value=1.0, clause=clause, source="end bearing / conservative", status=TraceStatus.memory),
-        kzcp,
-        kd_trace(case),
-    ]
+def _trace(trace: Lines, beam: Beam, bearing: Bearing, area: float, kzcp: float, clause: str, case: LoadCase) -> None:
+    """The lines of a bearing check's trace: Ab, KB, KZcp and KD."""
+    trace.add("Ab", area, "", f"b x bearing length {bearing.length_mm:g} mm", TraceStatus.input, "mm2")
+    trace.add("KB", 1.0, clause, "end bearing / conservative", TraceStatus.memory)
+    _kzcp_line(trace, beam, kzcp)
+    add_kd(trace, case)
 
 
 def _one_bearing(
@@ -80,8 +68,9 @@ def _one_bearing(
     util, qr, qf, case = best
     uplift = -lowest[0] if lowest[0] < 0 else None
     clause = "CSA O86-19 7.5.9 (memory)" if beam.material is Material.glulam else "CSA O86-19 6.5.6 (memory)"
-    trace = _trace(bearing, area, _kzcp_line(beam, kzcp), clause, case) if traces or rows is not None else None
-    keep_rows(rows, trace)
+    trace = lines_for(traces, rows)
+    if trace is not None:
+        _trace(trace, beam, bearing, area, kzcp, clause, case)
     return assembled(
         BearingCheck,
         {
@@ -92,7 +81,7 @@ def _one_bearing(
             "length_mm": bearing.length_mm,
             "combination": case_label(case),
             "clause": clause,
-            "trace": trace if traces and trace is not None else [],
+            "trace": [] if trace is None else trace.lines,
             "uplift_kn": None if uplift is None else uplift * KN_PER_N,
             "uplift_combination": None if uplift is None else case_label(lowest[1]),
             "lifts_now": lifts_now,
@@ -113,7 +102,7 @@ def bearing_checks(
 ) -> list[BearingCheck]:
     """Bearing at each support (O86-19 6.5.6 lumber, 7.5.9 glulam; KB = 1.0); traces: False builds none.
 
-    rows: when given, the table rows of each support's governing trace are added to it.
+    rows: when given, the table rows of each support's governing trace are added to it, and no trace is kept.
     """
     kzcp = sawn_bearing_kzcp(beam.b_mm, beam.d_mm) if beam.material is Material.sawn else 1.0
     dead = beam.loads.dead_kn_m + member.self_weight_n_mm

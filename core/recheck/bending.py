@@ -28,7 +28,7 @@ from core.kinds import ElementKind, MomentSign, Outcome, TraceStatus
 from core.member import Member
 from core.models import Beam, Material, NegativeLu
 from core.recheck.cases import LoadCase, carries_snow
-from core.recheck.trace import KNM_PER_NMM, case_label, kd_trace, keep_rows, line, note
+from core.recheck.trace import KNM_PER_NMM, Lines, add_kd, case_label, lines_for, note
 from core.results import BendingRegion, FactorTrace, RowUsed
 
 
@@ -58,37 +58,41 @@ def _face_strength(beam: Beam, member: Member, sign: MomentSign) -> tuple[float,
 
 
 def _head_trace(
-    beam: Beam, member: Member, region: Region, case: LoadCase, edge: EdgeSupport, fb_spec: float, face: str, fb: float
-) -> list[FactorTrace]:
+    trace: Lines,
+    beam: Beam,
+    member: Member,
+    region: Region,
+    case: LoadCase,
+    edge: EdgeSupport,
+    fb_spec: float,
+    face: str,
+    fb: float,
+) -> None:
     """The first trace lines of a bending check: KD, fb, Fb, Lu and the reviewer's option."""
     sawn = beam.material is Material.sawn
-    trace = [
-        kd_trace(case),
-        line(
-            symbol=f"{face} ({region.sign} moment)",
-            value=fb_spec,
-            unit="MPa",
-            clause="CSA O86-19 Table 7.3 note" if not sawn else "CSA O86-19 Table 6.4",
-            source=f"{beam.species} {beam.grade}" + ("" if sawn else f", top stamp {beam.top_stamp.value}"),
-            status=member.grade_status,
-        ),
-        line(
-            symbol="Fb",
-            value=round(fb, 3),
-            unit="MPa",
-            clause="CSA O86-19 6.5.3.1 (memory)" if sawn else "CSA O86-19 7.5.6.5.1",
-            source="Fb = fb (KD KH KSb KT)",
-        ),
-    ]
+    add_kd(trace, case)
+    trace.add(
+        f"{face} ({region.sign} moment)",
+        fb_spec,
+        "CSA O86-19 Table 7.3 note" if not sawn else "CSA O86-19 Table 6.4",
+        f"{beam.species} {beam.grade}" + ("" if sawn else f", top stamp {beam.top_stamp.value}"),
+        member.grade_status,
+        "MPa",
+    )
+    trace.add(
+        "Fb",
+        round(fb, 3),
+        "CSA O86-19 6.5.3.1 (memory)" if sawn else "CSA O86-19 7.5.6.5.1",
+        "Fb = fb (KD KH KSb KT)",
+        TraceStatus.formula,
+        "MPa",
+    )
     if edge.continuous:
-        trace.append(line(symbol="Lu", value="held continuously", source=edge.description, status=edge.status))
+        trace.add("Lu", "held continuously", "", edge.description, edge.status)
     else:
-        trace.append(line(symbol="Lu", value=round(edge.lu_mm), unit="mm", source=edge.description, status=edge.status))
+        trace.add("Lu", round(edge.lu_mm), "", edge.description, edge.status, "mm")
     if edge.option:
-        trace.append(
-            line(symbol="option", value=edge.option, source="chosen by the reviewer", status=TraceStatus.input)
-        )
-    return trace
+        trace.add("option", edge.option, "", "chosen by the reviewer", TraceStatus.input)
 
 
 def _member_mr(beam: Beam, member: Member, fb: float, kzbg: float | None, kl: float) -> float:
@@ -107,7 +111,7 @@ def bending_check(
     case: LoadCase,
     edge: EdgeSupport,
     not_established: bool,
-    trace: list[FactorTrace] | None,
+    trace: Lines | None,
     known: tuple[float | NotPermitted, dict[str, Any]] | None = None,
 ) -> dict[str, Any]:
     """Mr and utilisation of one region under one load case (numbers; trace appended if given).
@@ -137,7 +141,7 @@ def bending_check(
         "snow_in_combination": carries_snow(case, beam),
     }
     if trace is not None:
-        trace += _head_trace(beam, member, region, case, edge, fb_spec, face, fb)
+        _head_trace(trace, beam, member, region, case, edge, fb_spec, face, fb)
     if not sawn:
         out["kzbg"] = _kzbg(beam, region, trace)
     if not_established:
@@ -173,7 +177,7 @@ def _known_kl(out: dict[str, Any], kl: float | NotPermitted, wrote: dict[str, An
     return kl
 
 
-def _kzbg(beam: Beam, region: Region, trace: list[FactorTrace] | None) -> float:
+def _kzbg(beam: Beam, region: Region, trace: Lines | None) -> float:
     kzbg = size_factor_kzbg(beam.b_mm, beam.d_mm, region.length_mm)
     note(
         trace,
@@ -193,7 +197,7 @@ def _upper_bound(
     region: Region,
     fb: float,
     out: dict[str, Any],
-    trace: list[FactorTrace] | None,
+    trace: Lines | None,
 ) -> None:
     """What a not-established region would give if its bearings were restrained (an upper bound).
 
@@ -228,7 +232,7 @@ def _stability_kl(
     edge: EdgeSupport,
     fb: float,
     out: dict[str, Any],
-    trace: list[FactorTrace] | None,
+    trace: Lines | None,
 ) -> float | NotPermitted:
     db = beam.d_mm / beam.b_mm
     if beam.material is Material.sawn:
@@ -248,7 +252,7 @@ def _sawn_kl(
     edge: EdgeSupport,
     fb: float,
     out: dict[str, Any],
-    trace: list[FactorTrace] | None,
+    trace: Lines | None,
 ) -> float | NotPermitted:
     """Sawn lumber: KL = 1 within its d/b tier (CSA O86-19 6.5.3.2.1), else the glulam method with E05."""
     db = beam.d_mm / beam.b_mm
@@ -281,7 +285,7 @@ def _kl_from_lu(
     e: float,
     lu_mm: float,
     out: dict[str, Any],
-    trace: list[FactorTrace] | None,
+    trace: Lines | None,
 ) -> float | NotPermitted:
     """KL by CSA O86-19 7.5.6.4 from an unsupported length (mm) and the modulus used (MPa)."""
     row, why = chosen_row(beam.le_case, edge.kind)
@@ -302,7 +306,7 @@ def _kl_from_lu(
 
 
 def _slenderness_trace(
-    trace: list[FactorTrace], row: dict[str, str], why: str, factor: float, le: float, cb: float, ck: float
+    trace: Lines, row: dict[str, str], why: str, factor: float, le: float, cb: float, ck: float
 ) -> None:
     """The Le, CB and CK lines of a KL trace."""
     note(
@@ -508,7 +512,7 @@ def bending_regions(
     """Governing bending check for every named region over all cases (traces: False builds none).
 
     rows: when given, the table rows of every region's trace (the member's rows and the governing case's
-    lines, found as a traced recheck finds them) are added to it, with or without traces.
+    lines, written as a traced recheck writes them) are added to it, and no trace is kept.
     """
     search = _Search(beam, member, model)
     for case in cases:
@@ -516,15 +520,14 @@ def bending_regions(
     out = []
     for name, (_, span, case, edge, ne, entry) in sorted(search.best.items(), key=lambda kv: kv[1][1][0]):
         region = _region(span)
-        trace: list[FactorTrace] | None = [] if traces or rows is not None else None
+        trace = lines_for(traces, rows)
         # without a trace, KL is what the search found for the region's key (a not-established region's
         # entry holds the restrained edge's KL, so its upper bound is found again for its own ends)
         known = None if trace is not None or ne else entry[3]
         numbers = bending_check(beam, member, model, region, case, edge, ne, trace, known)
         if rows is not None:
-            rows.update(member.rows_used)
-            keep_rows(rows, trace)
+            rows.update(member.rows_used)  # the member's lines open every region's trace
         clause = "CSA O86-19 7.5.6.5.1, 7.5.6.4" if beam.material is Material.glulam else "CSA O86-19 6.5.3"
-        trace_out = list(member.trace) + trace if traces and trace is not None else []
+        trace_out = list(member.trace) + trace.lines if traces and trace is not None else []
         out.append(_assembled_region(name, region, case, clause, edge, trace_out, numbers))
     return out

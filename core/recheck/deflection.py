@@ -17,8 +17,8 @@ from core.clauses.serviceability import (
 from core.kinds import ElementKind, TraceStatus
 from core.member import Member
 from core.models import Beam, Use
-from core.recheck.trace import keep_rows, line
-from core.results import DeflectionCheck, FactorTrace, RowUsed
+from core.recheck.trace import Lines, lines_for
+from core.results import DeflectionCheck, RowUsed
 
 _LIMIT_CLAUSE = {"total_specified": "CSA O86-19 5.4.2", "long_term": "CSA O86-19 5.4.3"}
 USE_LIMIT_CLAUSE = "NBC Table 9.4.3.1"
@@ -130,46 +130,34 @@ def _strictest_limit(model: BeamModel, checks: list[tuple[str, dict[str, str], f
     return 0.0, 0.0, limit, "no load", element, row
 
 
-def _trace(beam: Beam, es: float, row: dict[str, str], use_row: dict[str, str]) -> list[FactorTrace]:
+def _trace(trace: Lines, beam: Beam, es: float, row: dict[str, str], use_row: dict[str, str]) -> None:
+    """The lines of the deflection check's trace: ES, the limit, the use taken when not recorded, the edition."""
     long_term = long_term_deformation_rule(EDITION)
-    trace = [
-        line(
-            symbol="ES",
-            value=es,
-            unit="MPa",
-            clause="CSA O86-19 5.4.1",
-            source="E KSE KT (mean E)",
-            status=TraceStatus.memory,
-        ),
-        line(
-            symbol="limit",
-            value=f"L/{row['ratio']}",
-            clause=limit_clause(row),
-            source=row["description"] if row["use"] in _LIMIT_CLAUSE else f"{row['description']}: {_USE_LIMIT_BASIS}",
-            status=TraceStatus(row["status"]),
-        ),
-    ]
-    if beam.use is None:
-        trace.append(
-            line(
-                symbol="use",
-                value=use_row["use"],
-                source="not recorded: the strictest deflection limit of the table is taken",
-                status=TraceStatus.input,
-            )
-        )
-    trace.append(
-        line(
-            symbol="edition",
-            value=EDITION,
-            clause="CSA O86-19 5.4.3",
-            source="long-term deformation checked (O86-24 deletes 5.4.3 and folds creep into 5.4.2)"
-            if long_term
-            else "no separate long-term check in this edition",
-            status=TraceStatus.confirmed,
-        )
+    trace.add("ES", es, "CSA O86-19 5.4.1", "E KSE KT (mean E)", TraceStatus.memory, "MPa")
+    trace.add(
+        "limit",
+        f"L/{row['ratio']}",
+        limit_clause(row),
+        row["description"] if row["use"] in _LIMIT_CLAUSE else f"{row['description']}: {_USE_LIMIT_BASIS}",
+        TraceStatus(row["status"]),
     )
-    return trace
+    if beam.use is None:
+        trace.add(
+            "use",
+            use_row["use"],
+            "",
+            "not recorded: the strictest deflection limit of the table is taken",
+            TraceStatus.input,
+        )
+    trace.add(
+        "edition",
+        EDITION,
+        "CSA O86-19 5.4.3",
+        "long-term deformation checked (O86-24 deletes 5.4.3 and folds creep into 5.4.2)"
+        if long_term
+        else "no separate long-term check in this edition",
+        TraceStatus.confirmed,
+    )
 
 
 def deflection_check(
@@ -179,7 +167,7 @@ def deflection_check(
 
     L + S against the use limit, D + L + S against L/180, and for O86-19 the long-term (dead) load
     against L/360 (reference o86.md sections 12 and 13). traces: False builds no trace; rows: when given,
-    the table rows of the governing check's trace are added to it.
+    the table rows of the governing check's trace are added to it (and no trace is kept).
     """
     es = modulus_for_deflection_es(member.e_mpa, member.kse, member.kt_e)
     dead = beam.loads.dead_kn_m + member.self_weight_n_mm
@@ -187,8 +175,9 @@ def deflection_check(
     checks = _checks(use_row, dead)
     best = _worst(model, checks, beam.loads.live_kn_m + beam.loads.snow_kn_m, es * member.inertia_mm4)
     util, delta, limit, label, element, row = best if best is not None else _strictest_limit(model, checks)
-    trace = _trace(beam, es, row, use_row) if traces or rows is not None else None
-    keep_rows(rows, trace)
+    trace = lines_for(traces, rows)
+    if trace is not None:
+        _trace(trace, beam, es, row, use_row)
     return assembled(
         DeflectionCheck,
         {
@@ -199,6 +188,6 @@ def deflection_check(
             "case": label,
             "element": element,
             "clause": limit_clause(row),
-            "trace": trace if traces and trace is not None else [],
+            "trace": [] if trace is None else trace.lines,
         },
     )

@@ -16,8 +16,8 @@ from core.kinds import TraceStatus
 from core.member import Member
 from core.models import Beam, Material
 from core.recheck.cases import LoadCase, carries_snow
-from core.recheck.trace import KN_PER_N, case_label, kd_trace, keep_rows, line
-from core.results import FactorTrace, RowUsed, ShearCheck
+from core.recheck.trace import KN_PER_N, Lines, add_kd, case_label, lines_for
+from core.results import RowUsed, ShearCheck
 
 CV_SIMPLE_UDL = 3.69  # CSA O86-19 Table 7.5: simple span, uniform load
 
@@ -43,27 +43,23 @@ def _method(beam: Beam, volume_method: bool) -> tuple[str, str]:
     return "2An/3 KZv", "CSA O86-19 6.5.4.1 (memory)"
 
 
-def _method_line(beam: Beam, model: BeamModel, volume: float, volume_method: bool) -> FactorTrace:
+def _method_line(trace: Lines, beam: Beam, model: BeamModel, volume: float, volume_method: bool) -> None:
     """The CV (volume method) or Z trace line of the shear check."""
     if volume_method:
         cv_status = TraceStatus.confirmed if len(model.elements) == 1 else TraceStatus.memory
-        return line(
-            symbol="CV",
-            value=CV_SIMPLE_UDL,
-            clause="CSA O86-19 Table 7.5",
-            source="simple span, uniform load"
-            + ("" if cv_status is TraceStatus.confirmed else "; applied to a continuous or overhanging beam: verify"),
-            status=cv_status,
+        source = "simple span, uniform load" + (
+            "" if cv_status is TraceStatus.confirmed else "; applied to a continuous or overhanging beam: verify"
         )
+        trace.add("CV", CV_SIMPLE_UDL, "CSA O86-19 Table 7.5", source, cv_status)
+        return
     glulam = beam.material is Material.glulam
-    return line(
-        symbol="Z",
-        value=round(volume, 3),
-        unit="m3",
-        clause="CSA O86-19 7.5.7" if glulam else "CSA O86-19 6.5.4 (memory)",
-        source="volume below 2.0 m3: simple method permitted"
-        if glulam
-        else "sawn lumber: Vr does not depend on the volume",
+    trace.add(
+        "Z",
+        round(volume, 3),
+        "CSA O86-19 7.5.7" if glulam else "CSA O86-19 6.5.4 (memory)",
+        "volume below 2.0 m3: simple method permitted" if glulam else "sawn lumber: Vr does not depend on the volume",
+        TraceStatus.formula,
+        "m3",
     )
 
 
@@ -78,7 +74,7 @@ def shear_check(
 ) -> ShearCheck:
     """Governing shear check (O86-19 7.5.7 glulam, 6.5.4 lumber); traces: False builds no trace.
 
-    rows: when given, the table rows of the governing case's trace are added to it (with or without traces).
+    rows: when given, the table rows of the governing case's trace are added to it, and no trace is kept.
     """
     volume = glulam_volume_m3(beam.b_mm, beam.d_mm, model.total_length_mm)
     volume_method = beam.material is Material.glulam and volume >= GLULAM_SIMPLE_SHEAR_MAX_VOLUME_M3
@@ -91,8 +87,10 @@ def shear_check(
     assert best is not None
     util, resist, demand, case = best
     method, clause = _method(beam, volume_method)
-    trace = [kd_trace(case), _method_line(beam, model, volume, volume_method)] if traces or rows is not None else None
-    keep_rows(rows, trace)
+    trace = lines_for(traces, rows)
+    if trace is not None:
+        add_kd(trace, case)
+        _method_line(trace, beam, model, volume, volume_method)
     return assembled(
         ShearCheck,
         {
@@ -103,7 +101,7 @@ def shear_check(
             "combination": case_label(case),
             "kd": case.kd,
             "clause": clause,
-            "trace": trace if traces and trace is not None else [],
+            "trace": [] if trace is None else trace.lines,
             "dead_load_only": case.combo.dead_load_only,
             "snow_in_combination": carries_snow(case, beam),
         },
