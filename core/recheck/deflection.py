@@ -55,7 +55,7 @@ def deflection_patterns(n_el: int) -> tuple[tuple[bool, ...], ...]:
 def _use_row(beam: Beam) -> dict[str, str]:
     """The deflection-limit row for the recorded use; when not recorded, the strictest (largest ratio)."""
     if beam.use is not None:
-        return tables.find("deflection_limits", use=beam.use.value)
+        return tables.find("deflection_limits", use=beam.use)  # a StrEnum member: equal to its value
     return _strictest_use_row(tables.generation())
 
 
@@ -72,14 +72,20 @@ _USES = frozenset(u.value for u in Use)
 
 def _checks(use_row: dict[str, str], dead: float) -> list[tuple[str, dict[str, str], float, float]]:
     """(case, limit row, dead load on every element, share of the live/snow load) of each deflection check."""
-    checks = [
-        ("L + S", use_row, 0.0, 1.0),
-        ("D + L + S", tables.find("deflection_limits", use="total_specified"), dead, 1.0),
-    ]
-    long_term = long_term_deformation_rule(EDITION)
+    total, long_term = _dead_load_rows(tables.generation(), EDITION)
+    checks = [("L + S", use_row, 0.0, 1.0), ("D + L + S", total, dead, 1.0)]
     if long_term is not None:
-        checks.append(("D (long-term, O86-19 5.4.3)", tables.find("deflection_limits", use=long_term), dead, 0.0))
+        checks.append(("D (long-term, O86-19 5.4.3)", long_term, dead, 0.0))
     return checks
+
+
+@lru_cache(maxsize=8)
+def _dead_load_rows(generation: int, edition: str) -> tuple[dict[str, str], dict[str, str] | None]:
+    """The limit rows of the total-load check and (O86-19) the long-term check, per tables generation and edition."""
+    del generation  # the cache key only: a firm's correction gives a new generation
+    long_term = long_term_deformation_rule(edition)
+    total = tables.find("deflection_limits", use="total_specified")
+    return total, None if long_term is None else tables.find("deflection_limits", use=long_term)
 
 
 def _worst(
