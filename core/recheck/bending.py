@@ -157,16 +157,19 @@ def bending_check(
     out["mr_knm"] = mr * KNM_PER_NMM
     out["utilisation"] = region.m_max_nmm / mr if mr > 0 else float("inf")
     out["outcome"] = Outcome.overstress if out["utilisation"] > 1.0 else Outcome.ok
-    note(
-        trace,
-        "Mr",
-        round(mr * KNM_PER_NMM, 2),
-        "CSA O86-19 6.5.3.1 (memory)" if sawn else "CSA O86-19 7.5.6.5.1",
-        "phi Fb S KZb KL, phi = 0.9" if sawn else "lesser of phi Fb S KX KZbg and phi Fb S KX KL, phi = 0.9, KX = 1",
-        "formula",
-        "kN·m",
-    )
+    if trace is not None:  # without a trace nothing is formatted
+        trace.add(
+            "Mr",
+            round(mr * KNM_PER_NMM, 2),
+            "CSA O86-19 6.5.3.1 (memory)" if sawn else "CSA O86-19 7.5.6.5.1",
+            "phi Fb S KZb KL, phi = 0.9" if sawn else _GLULAM_MR,
+            "formula",
+            "kN·m",
+        )
     return out
+
+
+_GLULAM_MR = "lesser of phi Fb S KX KZbg and phi Fb S KX KL, phi = 0.9, KX = 1"  # the glulam Mr line's source
 
 
 def _known_kl(out: dict[str, Any], kl: float | NotPermitted, wrote: dict[str, Any]) -> float | NotPermitted:
@@ -178,15 +181,16 @@ def _known_kl(out: dict[str, Any], kl: float | NotPermitted, wrote: dict[str, An
 
 
 def _kzbg(beam: Beam, region: Region, trace: Lines | None) -> float:
-    kzbg = size_factor_kzbg(beam.b_mm, beam.d_mm, region.length_mm)
-    note(
-        trace,
-        "KZbg",
-        round(kzbg, 4),
-        "CSA O86-19 7.5.6.5.1",
-        f"L = {region.length_mm:.0f} mm between points of zero moment; cap 1.3",
-        "confirmed",
-    )
+    length = region.x1_mm - region.x0_mm  # Region.length_mm
+    kzbg = size_factor_kzbg(beam.b_mm, beam.d_mm, length)
+    if trace is not None:  # without a trace nothing is formatted
+        trace.add(
+            "KZbg",
+            round(kzbg, 4),
+            "CSA O86-19 7.5.6.5.1",
+            f"L = {length:.0f} mm between points of zero moment; cap 1.3",
+            "confirmed",
+        )
     return kzbg
 
 
@@ -234,11 +238,11 @@ def _stability_kl(
     out: dict[str, Any],
     trace: Lines | None,
 ) -> float | NotPermitted:
-    db = beam.d_mm / beam.b_mm
     if beam.material is Material.sawn:
         return _sawn_kl(beam, member, edge, fb, out, trace)
     if glulam_db_waives_stability(beam.d_mm, beam.b_mm):
-        note(trace, "KL", 1.0, "CSA O86-19 7.5.6.3.2", f"d/b = {db:.2f} <= 2.5", "memory")
+        if trace is not None:  # without a trace nothing is formatted
+            trace.add("KL", 1.0, "CSA O86-19 7.5.6.3.2", f"d/b = {beam.d_mm / beam.b_mm:.2f} <= 2.5", "memory")
         return 1.0
     if edge.continuous:
         note(trace, "KL", 1.0, "CSA O86-19 7.5.6.3", edge.description, "memory")
