@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from core import tables
+from core.assembled import assembled
 from core.clauses.stability import bearing_restraint_required
 from core.kinds import FindingCode, MomentSign, Outcome
 from core.member import Member
@@ -30,6 +31,16 @@ SNOW_MAKE_SAFE = (
     "Make safe now: snow can load this member at any time and cannot be kept off it reliably; have it shored "
     "or propped before snow builds up and tell the site superintendent today. "
 )
+
+
+def _finding(
+    *, code: FindingCode, priority: Priority, message: str, action: str, clause: str, region: str | None = None
+) -> Finding:
+    """A Finding of these values (``core.assembled``: every value here is already of its field's type)."""
+    return assembled(
+        Finding,
+        {"code": code, "priority": priority, "message": message, "action": action, "clause": clause, "region": region},
+    )
 
 
 def overstress_urgency(dead_load_only: bool, snow_in_combination: bool, action: str) -> tuple[Priority, str]:
@@ -61,6 +72,8 @@ def restraint_findings(beam: Beam) -> list[Finding]:
     out = []
     n = len(beam.bearings)
     for j, b in enumerate(beam.bearings):
+        if b.lateral is Restraint.yes and b.rotation is Restraint.yes:
+            continue  # both restraints seen: nothing missing or unseen
         missing = [k for k in ("lateral", "rotation") if getattr(b, k) is Restraint.no]
         unseen = [k for k in ("lateral", "rotation") if getattr(b, k) is Restraint.not_visible]
         if not missing and not unseen:
@@ -88,7 +101,7 @@ def restraint_findings(beam: Beam) -> list[Finding]:
             priority = Priority.before_loading
             action = "Expose or confirm the bearing restraint (photo or site review) before loading."
         out.append(
-            Finding(
+            _finding(
                 code=FindingCode.bearing_restraint_missing,
                 priority=priority,
                 message=message,
@@ -106,7 +119,7 @@ def bending_findings(beam: Beam, bending: list[BendingRegion]) -> list[Finding]:
     for r in bending:
         if r.outcome is Outcome.not_permitted:
             out.append(
-                Finding(
+                _finding(
                     code=FindingCode.slenderness_exceeds_limit,
                     priority=Priority.immediate,
                     region=r.region,
@@ -129,7 +142,7 @@ def bending_findings(beam: Beam, bending: list[BendingRegion]) -> list[Finding]:
                 "added bracing or a replacement member.",
             )
             out.append(
-                Finding(
+                _finding(
                     code=FindingCode.bending_overstress,
                     priority=priority,
                     region=r.region,
@@ -150,7 +163,7 @@ def bending_findings(beam: Beam, bending: list[BendingRegion]) -> list[Finding]:
                 else "even if its bearings were restrained the slenderness would exceed the limit"
             )
             out.append(
-                Finding(
+                _finding(
                     code=FindingCode.bending_overstress,
                     priority=Priority.immediate,
                     region=r.region,
@@ -171,7 +184,7 @@ def bending_findings(beam: Beam, bending: list[BendingRegion]) -> list[Finding]:
         if r.sign is MomentSign.negative and r.compression_edge_unbraced and stability_governs:
             over = r.utilisation is not None and r.utilisation > 1.0
             out.append(
-                Finding(
+                _finding(
                     code=FindingCode.compression_edge_unbraced,
                     region=r.region,
                     priority=Priority.before_loading if over else Priority.observation,
@@ -196,7 +209,7 @@ def assumed_findings(beam: Beam) -> list[Finding]:
     out = []
     if beam.top_edge.fastened_assumed:
         out.append(
-            Finding(
+            _finding(
                 code=FindingCode.input_assumed,
                 priority=Priority.observation,
                 region="top edge",
@@ -210,7 +223,7 @@ def assumed_findings(beam: Beam) -> list[Finding]:
         )
     if beam.use is None:
         out.append(
-            Finding(
+            _finding(
                 code=FindingCode.input_assumed,
                 priority=Priority.observation,
                 message=(
@@ -232,7 +245,7 @@ def uplift_findings(beam: Beam, bearing: list[BearingCheck]) -> list[Finding]:
             continue
         now = " The specified dead load alone already lifts it off this bearing." if b.lifts_now else ""
         out.append(
-            Finding(
+            _finding(
                 code=FindingCode.uplift_at_support,
                 priority=Priority.immediate if b.lifts_now else Priority.before_loading,
                 region=f"support {b.support}",
@@ -257,7 +270,7 @@ def option_findings(beam: Beam) -> list[Finding]:
     out = []
     if beam.negative_lu is NegativeLu.zero_moment_point:
         out.append(
-            Finding(
+            _finding(
                 code=FindingCode.modelling_option,
                 priority=Priority.observation,
                 message=(
@@ -270,7 +283,7 @@ def option_findings(beam: Beam) -> list[Finding]:
         )
     if beam.dead_load_pattern is DeadLoadPattern.uniform:
         out.append(
-            Finding(
+            _finding(
                 code=FindingCode.modelling_option,
                 priority=Priority.observation,
                 message=(
@@ -291,7 +304,7 @@ def top_edge_findings(beam: Beam) -> list[Finding]:
         return []
     what = "the purlins are" if top.braced_by is TopBracing.purlins else "the decking is"
     return [
-        Finding(
+        _finding(
             code=FindingCode.compression_edge_unbraced,
             priority=Priority.before_loading,
             region="top edge",
@@ -320,7 +333,7 @@ def layup_findings(beam: Beam, member: Member) -> list[Finding]:
         return []
     if beam.top_stamp is TopStamp.down:
         return [
-            Finding(
+            _finding(
                 code=FindingCode.layup_inverted,
                 priority=Priority.before_loading,
                 message=(
@@ -332,7 +345,7 @@ def layup_findings(beam: Beam, member: Member) -> list[Finding]:
             )
         ]
     return [
-        Finding(
+        _finding(
             code=FindingCode.layup_inverted,
             priority=Priority.before_next_review,
             message=(
@@ -357,7 +370,7 @@ def check_findings(
             "Refer to the engineer of record before further loading.",
         )
         out.append(
-            Finding(
+            _finding(
                 code=FindingCode.shear_overstress,
                 priority=priority,
                 message=(
@@ -376,7 +389,7 @@ def check_findings(
                 "Lengthen the bearing or add a bearing plate as directed by the engineer of record.",
             )
             out.append(
-                Finding(
+                _finding(
                     code=FindingCode.bearing_overstress,
                     priority=priority,
                     region=f"support {b.support}",
@@ -390,7 +403,7 @@ def check_findings(
             )
     if deflection.utilisation > 1.0:
         out.append(
-            Finding(
+            _finding(
                 code=FindingCode.deflection_exceeds_limit,
                 priority=Priority.before_next_review,
                 region=deflection.element,
@@ -414,7 +427,7 @@ def size_findings(beam: Beam) -> list[Finding]:
     out = []
     if (spec.species, spec.grade) != (beam.species, beam.grade):
         out.append(
-            Finding(
+            _finding(
                 code=FindingCode.substitution,
                 priority=Priority.before_next_review,
                 message=(
@@ -432,7 +445,7 @@ def size_findings(beam: Beam) -> list[Finding]:
         lam_short = short_d >= 38 - beam.size_tolerance_mm
         if smaller_width or lam_short:
             out.append(
-                Finding(
+                _finding(
                     code=FindingCode.substitution,
                     priority=Priority.before_next_review,
                     message=(
@@ -446,7 +459,7 @@ def size_findings(beam: Beam) -> list[Finding]:
             return out
     if short_b > beam.size_tolerance_mm or short_d > beam.size_tolerance_mm:
         out.append(
-            Finding(
+            _finding(
                 code=FindingCode.undersize,
                 priority=Priority.before_next_review,
                 message=(
@@ -480,12 +493,12 @@ def build_findings(
         + assumed_findings(beam)
         + option_findings(beam)
     )
-    return sorted(found, key=lambda f: PRIORITY_ORDER[f.priority.value])
+    return sorted(found, key=lambda f: PRIORITY_ORDER[f.priority])  # a StrEnum member finds its value's entry
 
 
 def overall_status(bending: list[BendingRegion], findings: list[Finding]) -> Status:
     """not_established > not_permitted > deficient (any finding to act on) > ok."""
-    outcomes = {Outcome(r.outcome) for r in bending}
+    outcomes = {r.outcome for r in bending}  # Outcome members (a StrEnum: equal to and hashed as their values)
     if Outcome.not_established in outcomes:
         return Status.not_established
     if Outcome.not_permitted in outcomes:

@@ -9,7 +9,7 @@ from core.clauses.bending import section_modulus_s
 from core.clauses.factors import system_factor_kh
 from core.kinds import TraceStatus
 from core.models import Beam, Material, Service, Treatment
-from core.results import FactorTrace
+from core.results import FactorTrace, RowUsed, trace_rows
 
 GLULAM_E05_RATIO = 0.87
 
@@ -39,6 +39,7 @@ class Member:
     self_weight_n_mm: float
     trace: tuple[FactorTrace, ...]
     grade_status: TraceStatus = TraceStatus.memory  # status of the grade row the strengths came from
+    rows_used: frozenset[RowUsed] = frozenset()  # the table rows of ``trace`` (``core.results.trace_rows``)
 
 
 def _grade_row(beam: Beam) -> tuple[dict[str, str], str]:
@@ -227,4 +228,5 @@ def _member_properties(beam: Beam) -> Member:
         self_weight_n_mm=sw,
         trace=tuple(trace),
         grade_status=TraceStatus(row["status"]),
+        rows_used=frozenset(trace_rows(trace)),
     )

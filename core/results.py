@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from collections.abc import Iterable
 from enum import StrEnum
 from typing import Any
 
@@ -60,6 +61,17 @@ class FactorTrace(Out):
     clause: str = ""
     source: str = ""
     status: TraceStatus = TraceStatus.formula
+
+
+# a table row (or tabulated rule) a recheck used, as its trace line names it: (clause, source, status); the
+# statuses that mark such a line: verified, confirmed or memory (formula and input lines rest on no table)
+RowUsed = tuple[str, str, TraceStatus]
+TABLE_STATUSES = frozenset((TraceStatus.verified, TraceStatus.confirmed, TraceStatus.memory))
+
+
+def trace_rows(trace: Iterable[FactorTrace]) -> set[RowUsed]:
+    """The table rows named by trace lines: (clause, source, status) of each line verified, confirmed or memory."""
+    return {(t.clause, t.source, t.status) for t in trace if t.status in TABLE_STATUSES}
 
 
 class BendingRegion(Out):
@@ -164,14 +176,9 @@ def governing_check(
     reassuring number stands for a member whose capacity is unknown. Otherwise the largest utilisation
     governs (the last of equals: the right-hand bearing of a symmetric beam).
     """
-    for outcome in (Outcome.not_established, Outcome.not_permitted):
-        for i, r in enumerate(bending):
-            if r.utilisation is None and r.outcome is outcome:
-                return i, None
-    utils = [r.utilisation for r in bending] + [shear.utilisation]
-    utils += [b.utilisation for b in bearing] + [deflection.utilisation]
-    util, best = max((u, i) for i, u in enumerate(utils) if u is not None)  # deflection is always rated
-    return best, util
+    from core.governing import governing  # compiled with the recheck's modules; it reads this module's models
+
+    return governing(bending, shear, bearing, deflection)
 
 
 class Recheck(Out):
@@ -195,6 +202,21 @@ class Recheck(Out):
         for region in data["bending"]:
             region.pop(drop, None)
         return data
+
+
+def rows_used(result: Recheck) -> frozenset[RowUsed]:
+    """Every table row a traced recheck used: the rows of every trace line of every check.
+
+    A status-only recheck keeps no trace: ``core.recheck.recheck_with_rows`` gives the same set without one.
+    """
+    rows: set[RowUsed] = set()
+    for region in result.bending:
+        rows |= trace_rows(region.trace)
+    rows |= trace_rows(result.shear.trace)
+    for bearing in result.bearing:
+        rows |= trace_rows(bearing.trace)
+    rows |= trace_rows(result.deflection.trace)
+    return frozenset(rows)
 
 
 class CheckKind(StrEnum):

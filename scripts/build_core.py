@@ -26,9 +26,11 @@ GROUP = "core.native"  # the shared library core/native__mypyc*.so: inside the p
 # the modules of a recheck's hot path: pure arithmetic and plain classes (models and tables stay Python)
 MODULES = (
     "core/analysis.py",
+    "core/assembled.py",
     "core/edges.py",
     "core/effective_length.py",
     "core/findings.py",
+    "core/governing.py",
     "core/loads.py",
     "core/member.py",
     *(

@@ -10,6 +10,7 @@ from __future__ import annotations
 from typing import Any, NamedTuple
 
 from core.analysis import BeamModel, Region
+from core.assembled import assembled
 from core.clauses.bending import glulam_bending_strength_for_face, glulam_mr, sawn_mr, size_factor_kzbg
 from core.clauses.factors import factored_bending_strength_fb
 from core.clauses.outcomes import NotPermitted
@@ -27,8 +28,8 @@ from core.kinds import ElementKind, MomentSign, Outcome, TraceStatus
 from core.member import Member
 from core.models import Beam, Material, NegativeLu
 from core.recheck.cases import LoadCase, carries_snow
-from core.recheck.trace import KNM_PER_NMM, case_label, kd_trace, line, note
-from core.results import BendingRegion, FactorTrace
+from core.recheck.trace import KNM_PER_NMM, Lines, add_kd, case_label, lines_for, note
+from core.results import BendingRegion, FactorTrace, RowUsed
 
 
 def region_name(model: BeamModel, region: Region) -> str:
@@ -53,41 +54,45 @@ def _face_strength(beam: Beam, member: Member, sign: MomentSign) -> tuple[float,
     """Specified fb for the face in tension (glulam: by the top stamp) and its symbol, MPa."""
     if beam.material is Material.sawn:
         return member.fb_pos_mpa, "fb"
-    return glulam_bending_strength_for_face(member.fb_pos_mpa, member.fb_neg_mpa, sign, beam.top_stamp.value)
+    return glulam_bending_strength_for_face(member.fb_pos_mpa, member.fb_neg_mpa, sign, beam.top_stamp)
 
 
 def _head_trace(
-    beam: Beam, member: Member, region: Region, case: LoadCase, edge: EdgeSupport, fb_spec: float, face: str, fb: float
-) -> list[FactorTrace]:
+    trace: Lines,
+    beam: Beam,
+    member: Member,
+    region: Region,
+    case: LoadCase,
+    edge: EdgeSupport,
+    fb_spec: float,
+    face: str,
+    fb: float,
+) -> None:
     """The first trace lines of a bending check: KD, fb, Fb, Lu and the reviewer's option."""
     sawn = beam.material is Material.sawn
-    trace = [
-        kd_trace(case),
-        line(
-            symbol=f"{face} ({region.sign} moment)",
-            value=fb_spec,
-            unit="MPa",
-            clause="CSA O86-19 Table 7.3 note" if not sawn else "CSA O86-19 Table 6.4",
-            source=f"{beam.species} {beam.grade}" + ("" if sawn else f", top stamp {beam.top_stamp.value}"),
-            status=member.grade_status,
-        ),
-        line(
-            symbol="Fb",
-            value=round(fb, 3),
-            unit="MPa",
-            clause="CSA O86-19 6.5.3.1 (memory)" if sawn else "CSA O86-19 7.5.6.5.1",
-            source="Fb = fb (KD KH KSb KT)",
-        ),
-    ]
+    add_kd(trace, case)
+    trace.add(
+        f"{face} ({region.sign} moment)",
+        fb_spec,
+        "CSA O86-19 Table 7.3 note" if not sawn else "CSA O86-19 Table 6.4",
+        f"{beam.species} {beam.grade}" + ("" if sawn else f", top stamp {beam.top_stamp.value}"),
+        member.grade_status,
+        "MPa",
+    )
+    trace.add(
+        "Fb",
+        round(fb, 3),
+        "CSA O86-19 6.5.3.1 (memory)" if sawn else "CSA O86-19 7.5.6.5.1",
+        "Fb = fb (KD KH KSb KT)",
+        TraceStatus.formula,
+        "MPa",
+    )
     if edge.continuous:
-        trace.append(line(symbol="Lu", value="held continuously", source=edge.description, status=edge.status))
+        trace.add("Lu", "held continuously", "", edge.description, edge.status)
     else:
-        trace.append(line(symbol="Lu", value=round(edge.lu_mm), unit="mm", source=edge.description, status=edge.status))
+        trace.add("Lu", round(edge.lu_mm), "", edge.description, edge.status, "mm")
     if edge.option:
-        trace.append(
-            line(symbol="option", value=edge.option, source="chosen by the reviewer", status=TraceStatus.input)
-        )
-    return trace
+        trace.add("option", edge.option, "", "chosen by the reviewer", TraceStatus.input)
 
 
 def _member_mr(beam: Beam, member: Member, fb: float, kzbg: float | None, kl: float) -> float:
@@ -106,7 +111,7 @@ def bending_check(
     case: LoadCase,
     edge: EdgeSupport,
     not_established: bool,
-    trace: list[FactorTrace] | None,
+    trace: Lines | None,
     known: tuple[float | NotPermitted, dict[str, Any]] | None = None,
 ) -> dict[str, Any]:
     """Mr and utilisation of one region under one load case (numbers; trace appended if given).
@@ -136,7 +141,7 @@ def bending_check(
         "snow_in_combination": carries_snow(case, beam),
     }
     if trace is not None:
-        trace += _head_trace(beam, member, region, case, edge, fb_spec, face, fb)
+        _head_trace(trace, beam, member, region, case, edge, fb_spec, face, fb)
     if not sawn:
         out["kzbg"] = _kzbg(beam, region, trace)
     if not_established:
@@ -152,16 +157,19 @@ def bending_check(
     out["mr_knm"] = mr * KNM_PER_NMM
     out["utilisation"] = region.m_max_nmm / mr if mr > 0 else float("inf")
     out["outcome"] = Outcome.overstress if out["utilisation"] > 1.0 else Outcome.ok
-    note(
-        trace,
-        "Mr",
-        round(mr * KNM_PER_NMM, 2),
-        "CSA O86-19 6.5.3.1 (memory)" if sawn else "CSA O86-19 7.5.6.5.1",
-        "phi Fb S KZb KL, phi = 0.9" if sawn else "lesser of phi Fb S KX KZbg and phi Fb S KX KL, phi = 0.9, KX = 1",
-        "formula",
-        "kN·m",
-    )
+    if trace is not None:  # without a trace nothing is formatted
+        trace.add(
+            "Mr",
+            round(mr * KNM_PER_NMM, 2),
+            "CSA O86-19 6.5.3.1 (memory)" if sawn else "CSA O86-19 7.5.6.5.1",
+            "phi Fb S KZb KL, phi = 0.9" if sawn else _GLULAM_MR,
+            "formula",
+            "kN·m",
+        )
     return out
+
+
+_GLULAM_MR = "lesser of phi Fb S KX KZbg and phi Fb S KX KL, phi = 0.9, KX = 1"  # the glulam Mr line's source
 
 
 def _known_kl(out: dict[str, Any], kl: float | NotPermitted, wrote: dict[str, Any]) -> float | NotPermitted:
@@ -172,16 +180,17 @@ def _known_kl(out: dict[str, Any], kl: float | NotPermitted, wrote: dict[str, An
     return kl
 
 
-def _kzbg(beam: Beam, region: Region, trace: list[FactorTrace] | None) -> float:
-    kzbg = size_factor_kzbg(beam.b_mm, beam.d_mm, region.length_mm)
-    note(
-        trace,
-        "KZbg",
-        round(kzbg, 4),
-        "CSA O86-19 7.5.6.5.1",
-        f"L = {region.length_mm:.0f} mm between points of zero moment; cap 1.3",
-        "confirmed",
-    )
+def _kzbg(beam: Beam, region: Region, trace: Lines | None) -> float:
+    length = region.x1_mm - region.x0_mm  # Region.length_mm
+    kzbg = size_factor_kzbg(beam.b_mm, beam.d_mm, length)
+    if trace is not None:  # without a trace nothing is formatted
+        trace.add(
+            "KZbg",
+            round(kzbg, 4),
+            "CSA O86-19 7.5.6.5.1",
+            f"L = {length:.0f} mm between points of zero moment; cap 1.3",
+            "confirmed",
+        )
     return kzbg
 
 
@@ -192,7 +201,7 @@ def _upper_bound(
     region: Region,
     fb: float,
     out: dict[str, Any],
-    trace: list[FactorTrace] | None,
+    trace: Lines | None,
 ) -> None:
     """What a not-established region would give if its bearings were restrained (an upper bound).
 
@@ -227,13 +236,13 @@ def _stability_kl(
     edge: EdgeSupport,
     fb: float,
     out: dict[str, Any],
-    trace: list[FactorTrace] | None,
+    trace: Lines | None,
 ) -> float | NotPermitted:
-    db = beam.d_mm / beam.b_mm
     if beam.material is Material.sawn:
         return _sawn_kl(beam, member, edge, fb, out, trace)
     if glulam_db_waives_stability(beam.d_mm, beam.b_mm):
-        note(trace, "KL", 1.0, "CSA O86-19 7.5.6.3.2", f"d/b = {db:.2f} <= 2.5", "memory")
+        if trace is not None:  # without a trace nothing is formatted
+            trace.add("KL", 1.0, "CSA O86-19 7.5.6.3.2", f"d/b = {beam.d_mm / beam.b_mm:.2f} <= 2.5", "memory")
         return 1.0
     if edge.continuous:
         note(trace, "KL", 1.0, "CSA O86-19 7.5.6.3", edge.description, "memory")
@@ -247,7 +256,7 @@ def _sawn_kl(
     edge: EdgeSupport,
     fb: float,
     out: dict[str, Any],
-    trace: list[FactorTrace] | None,
+    trace: Lines | None,
 ) -> float | NotPermitted:
     """Sawn lumber: KL = 1 within its d/b tier (CSA O86-19 6.5.3.2.1), else the glulam method with E05."""
     db = beam.d_mm / beam.b_mm
@@ -280,7 +289,7 @@ def _kl_from_lu(
     e: float,
     lu_mm: float,
     out: dict[str, Any],
-    trace: list[FactorTrace] | None,
+    trace: Lines | None,
 ) -> float | NotPermitted:
     """KL by CSA O86-19 7.5.6.4 from an unsupported length (mm) and the modulus used (MPa)."""
     row, why = chosen_row(beam.le_case, edge.kind)
@@ -301,7 +310,7 @@ def _kl_from_lu(
 
 
 def _slenderness_trace(
-    trace: list[FactorTrace], row: dict[str, str], why: str, factor: float, le: float, cb: float, ck: float
+    trace: Lines, row: dict[str, str], why: str, factor: float, le: float, cb: float, ck: float
 ) -> None:
     """The Le, CB and CK lines of a KL trace."""
     note(
@@ -354,25 +363,26 @@ class _Ranker:
         util = m / mr if mr > 0 else float("inf")
         return (_OVERSTRESS if util > 1.0 else _OK, util)
 
-    def entry(self, region: Region, case: LoadCase, edge: EdgeSupport, ne: bool) -> _Entry:
+    def entry(self, span: list[Any], case: LoadCase, edge: EdgeSupport, ne: bool) -> _Entry:
         """(Fb, KL or None when not permitted, Mr for sawn lumber, (KL as found, numbers written)) of a key.
 
-        The key: KD, sign, edge, ne. The last item is what ``bending_check`` takes as ``known``.
+        span: the region's ``BeamModel.region_spans`` numbers. The key: KD, sign, edge, ne. The last item is
+        what ``bending_check`` takes as ``known``.
         """
-        fb, kl, wrote = self._stability(region, case, edge, ne)
+        fb, kl, wrote = self._stability(span, case, edge, ne)
         if isinstance(kl, NotPermitted):
             return fb, None, None, (kl, wrote)
         return fb, kl, _member_mr(self.beam, self.member, fb, None, kl) if self.sawn else None, (kl, wrote)
 
     def _stability(
-        self, region: Region, case: LoadCase, edge: EdgeSupport, ne: bool
+        self, span: list[Any], case: LoadCase, edge: EdgeSupport, ne: bool
     ) -> tuple[float, float | NotPermitted, dict[str, Any]]:
         """(Fb in MPa, KL of the edge, or of the restrained edge for a not-established region, numbers written)."""
         beam, member = self.beam, self.member
-        fb_spec, _ = _face_strength(beam, member, region.sign)
+        fb_spec, _ = _face_strength(beam, member, span[2])
         fb = factored_bending_strength_fb(fb_spec, case.kd, member.kh, member.ksb, member.kt)
         if ne:
-            edge = compression_edge(beam, self.model, region, assume_restrained=True)
+            edge = compression_edge(beam, self.model, _region(span), assume_restrained=True)
         wrote: dict[str, Any] = {"lu_mm": None}
         return fb, _stability_kl(beam, member, edge, fb, wrote, None), wrote
 
@@ -380,7 +390,7 @@ class _Ranker:
 def _region(span: list[Any]) -> Region:
     """The Region of ``BeamModel.region_spans`` numbers."""
     x0, x1, sign, m, elements = span
-    return Region(x0_mm=x0, x1_mm=x1, sign=sign, m_max_nmm=m, elements=elements)
+    return Region(x0, x1, sign, m, elements)
 
 
 class _Key(NamedTuple):
@@ -440,7 +450,7 @@ class _Search:
             edge, ne, name, by_kd = hit
             entry = by_kd.get(kd)
             if entry is None:
-                entry = by_kd[kd] = ranker.entry(_region(span), case, edge, ne)
+                entry = by_kd[kd] = ranker.entry(span, case, edge, ne)
             rank = ranker.rank(span, entry, ne)
             if name is None:
                 name = self._name(span)
@@ -449,33 +459,79 @@ class _Search:
                 best[name] = (rank, span, case, edge, ne, entry)
 
 
+def _assembled_region(
+    name: str,
+    region: Region,
+    case: LoadCase,
+    clause: str,
+    edge: EdgeSupport,
+    trace: list[FactorTrace],
+    numbers: dict[str, Any],
+) -> BendingRegion:
+    """The BendingRegion of a region's governing case, from ``bending_check``'s numbers (fields in order)."""
+    return assembled(
+        BendingRegion,
+        {
+            "region": name.split("|")[0],
+            "sign": region.sign,
+            "x_start_mm": region.x0_mm,
+            "x_end_mm": region.x1_mm,
+            "lu_mm": numbers["lu_mm"],
+            "le_mm": numbers["le_mm"],
+            "le_factor": numbers["le_factor"],
+            "cb": numbers["cb"],
+            "ck": numbers["ck"],
+            "kl": numbers["kl"],
+            "kzbg": numbers["kzbg"],
+            "kzb": numbers["kzb"],
+            "fb_mpa": numbers["fb_mpa"],
+            "kd": numbers["kd"],
+            "mr_knm": numbers["mr_knm"],
+            "mf_knm": numbers["mf_knm"],
+            "utilisation": numbers["utilisation"],
+            "combination": case_label(case),
+            "clause": clause,
+            "outcome": numbers["outcome"],
+            "compression_edge": edge.description,
+            "compression_edge_unbraced": numbers["compression_edge_unbraced"],
+            "dead_load_only": numbers["dead_load_only"],
+            "snow_in_combination": numbers["snow_in_combination"],
+            "trace": trace,
+            "kl_if_restrained": numbers.get("kl_if_restrained"),
+            "mr_if_restrained_knm": numbers.get("mr_if_restrained_knm"),
+            "utilisation_if_restrained": numbers.get("utilisation_if_restrained"),
+        },
+    )
+
+
 def bending_regions(
-    beam: Beam, member: Member, model: BeamModel, cases: list[LoadCase], *, traces: bool = True
+    beam: Beam,
+    member: Member,
+    model: BeamModel,
+    cases: list[LoadCase],
+    *,
+    traces: bool = True,
+    rows: set[RowUsed] | None = None,
 ) -> list[BendingRegion]:
-    """Governing bending check for every named region over all cases (traces: False builds none)."""
+    """Governing bending check for every named region over all cases (traces: False builds none).
+
+    rows: when given, the table rows of every region's trace (the member's rows and the governing case's
+    lines, written as a traced recheck writes them) are added to it, and no trace is kept.
+    """
     search = _Search(beam, member, model)
     for case in cases:
         search.add(case)
     out = []
     for name, (_, span, case, edge, ne, entry) in sorted(search.best.items(), key=lambda kv: kv[1][1][0]):
         region = _region(span)
-        trace: list[FactorTrace] | None = [] if traces else None
+        trace = lines_for(traces, rows)
         # without a trace, KL is what the search found for the region's key (a not-established region's
         # entry holds the restrained edge's KL, so its upper bound is found again for its own ends)
-        known = None if traces or ne else entry[3]
+        known = None if trace is not None or ne else entry[3]
         numbers = bending_check(beam, member, model, region, case, edge, ne, trace, known)
+        if rows is not None:
+            rows.update(member.rows_used)  # the member's lines open every region's trace
         clause = "CSA O86-19 7.5.6.5.1, 7.5.6.4" if beam.material is Material.glulam else "CSA O86-19 6.5.3"
-        out.append(
-            BendingRegion(
-                region=name.split("|")[0],
-                sign=region.sign,
-                x_start_mm=region.x0_mm,
-                x_end_mm=region.x1_mm,
-                combination=case_label(case),
-                clause=clause,
-                compression_edge=edge.description,
-                trace=[] if trace is None else list(member.trace) + trace,
-                **numbers,
-            )
-        )
+        trace_out = list(member.trace) + trace.lines if traces and trace is not None else []
+        out.append(_assembled_region(name, region, case, clause, edge, trace_out, numbers))
     return out

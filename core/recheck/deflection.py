@@ -6,6 +6,7 @@ from functools import lru_cache
 
 from core import tables
 from core.analysis import BeamModel
+from core.assembled import assembled
 from core.clauses.serviceability import (
     EDITION,
     deflection_limit_mm,
@@ -16,8 +17,8 @@ from core.clauses.serviceability import (
 from core.kinds import ElementKind, TraceStatus
 from core.member import Member
 from core.models import Beam, Use
-from core.recheck.trace import line
-from core.results import DeflectionCheck, FactorTrace
+from core.recheck.trace import Lines, lines_for
+from core.results import DeflectionCheck, RowUsed
 
 _LIMIT_CLAUSE = {"total_specified": "CSA O86-19 5.4.2", "long_term": "CSA O86-19 5.4.3"}
 USE_LIMIT_CLAUSE = "NBC Table 9.4.3.1"
@@ -54,7 +55,7 @@ def deflection_patterns(n_el: int) -> tuple[tuple[bool, ...], ...]:
 def _use_row(beam: Beam) -> dict[str, str]:
     """The deflection-limit row for the recorded use; when not recorded, the strictest (largest ratio)."""
     if beam.use is not None:
-        return tables.find("deflection_limits", use=beam.use.value)
+        return tables.find("deflection_limits", use=beam.use)  # a StrEnum member: equal to its value
     return _strictest_use_row(tables.generation())
 
 
@@ -71,14 +72,20 @@ _USES = frozenset(u.value for u in Use)
 
 def _checks(use_row: dict[str, str], dead: float) -> list[tuple[str, dict[str, str], float, float]]:
     """(case, limit row, dead load on every element, share of the live/snow load) of each deflection check."""
-    checks = [
-        ("L + S", use_row, 0.0, 1.0),
-        ("D + L + S", tables.find("deflection_limits", use="total_specified"), dead, 1.0),
-    ]
-    long_term = long_term_deformation_rule(EDITION)
+    total, long_term = _dead_load_rows(tables.generation(), EDITION)
+    checks = [("L + S", use_row, 0.0, 1.0), ("D + L + S", total, dead, 1.0)]
     if long_term is not None:
-        checks.append(("D (long-term, O86-19 5.4.3)", tables.find("deflection_limits", use=long_term), dead, 0.0))
+        checks.append(("D (long-term, O86-19 5.4.3)", long_term, dead, 0.0))
     return checks
+
+
+@lru_cache(maxsize=8)
+def _dead_load_rows(generation: int, edition: str) -> tuple[dict[str, str], dict[str, str] | None]:
+    """The limit rows of the total-load check and (O86-19) the long-term check, per tables generation and edition."""
+    del generation  # the cache key only: a firm's correction gives a new generation
+    long_term = long_term_deformation_rule(edition)
+    total = tables.find("deflection_limits", use="total_specified")
+    return total, None if long_term is None else tables.find("deflection_limits", use=long_term)
 
 
 def _worst(
@@ -129,53 +136,44 @@ def _strictest_limit(model: BeamModel, checks: list[tuple[str, dict[str, str], f
     return 0.0, 0.0, limit, "no load", element, row
 
 
-def _trace(beam: Beam, es: float, row: dict[str, str], use_row: dict[str, str]) -> list[FactorTrace]:
+def _trace(trace: Lines, beam: Beam, es: float, row: dict[str, str], use_row: dict[str, str]) -> None:
+    """The lines of the deflection check's trace: ES, the limit, the use taken when not recorded, the edition."""
     long_term = long_term_deformation_rule(EDITION)
-    trace = [
-        line(
-            symbol="ES",
-            value=es,
-            unit="MPa",
-            clause="CSA O86-19 5.4.1",
-            source="E KSE KT (mean E)",
-            status=TraceStatus.memory,
-        ),
-        line(
-            symbol="limit",
-            value=f"L/{row['ratio']}",
-            clause=limit_clause(row),
-            source=row["description"] if row["use"] in _LIMIT_CLAUSE else f"{row['description']}: {_USE_LIMIT_BASIS}",
-            status=TraceStatus(row["status"]),
-        ),
-    ]
-    if beam.use is None:
-        trace.append(
-            line(
-                symbol="use",
-                value=use_row["use"],
-                source="not recorded: the strictest deflection limit of the table is taken",
-                status=TraceStatus.input,
-            )
-        )
-    trace.append(
-        line(
-            symbol="edition",
-            value=EDITION,
-            clause="CSA O86-19 5.4.3",
-            source="long-term deformation checked (O86-24 deletes 5.4.3 and folds creep into 5.4.2)"
-            if long_term
-            else "no separate long-term check in this edition",
-            status=TraceStatus.confirmed,
-        )
+    trace.add("ES", es, "CSA O86-19 5.4.1", "E KSE KT (mean E)", TraceStatus.memory, "MPa")
+    trace.add(
+        "limit",
+        f"L/{row['ratio']}",
+        limit_clause(row),
+        row["description"] if row["use"] in _LIMIT_CLAUSE else f"{row['description']}: {_USE_LIMIT_BASIS}",
+        TraceStatus(row["status"]),
     )
-    return trace
+    if beam.use is None:
+        trace.add(
+            "use",
+            use_row["use"],
+            "",
+            "not recorded: the strictest deflection limit of the table is taken",
+            TraceStatus.input,
+        )
+    trace.add(
+        "edition",
+        EDITION,
+        "CSA O86-19 5.4.3",
+        "long-term deformation checked (O86-24 deletes 5.4.3 and folds creep into 5.4.2)"
+        if long_term
+        else "no separate long-term check in this edition",
+        TraceStatus.confirmed,
+    )
 
 
-def deflection_check(beam: Beam, member: Member, model: BeamModel, *, traces: bool = True) -> DeflectionCheck:
+def deflection_check(
+    beam: Beam, member: Member, model: BeamModel, *, traces: bool = True, rows: set[RowUsed] | None = None
+) -> DeflectionCheck:
     """Specified-load deflection (CSA O86-19 5.4.2, 5.4.3; NBC Table 9.4.3.1), mm.
 
     L + S against the use limit, D + L + S against L/180, and for O86-19 the long-term (dead) load
-    against L/360 (reference o86.md sections 12 and 13). traces: False builds no trace.
+    against L/360 (reference o86.md sections 12 and 13). traces: False builds no trace; rows: when given,
+    the table rows of the governing check's trace are added to it (and no trace is kept).
     """
     es = modulus_for_deflection_es(member.e_mpa, member.kse, member.kt_e)
     dead = beam.loads.dead_kn_m + member.self_weight_n_mm
@@ -183,13 +181,19 @@ def deflection_check(beam: Beam, member: Member, model: BeamModel, *, traces: bo
     checks = _checks(use_row, dead)
     best = _worst(model, checks, beam.loads.live_kn_m + beam.loads.snow_kn_m, es * member.inertia_mm4)
     util, delta, limit, label, element, row = best if best is not None else _strictest_limit(model, checks)
-    return DeflectionCheck(
-        delta_mm=delta,
-        limit_mm=limit,
-        utilisation=util,
-        limit_ratio=float(row["ratio"]),
-        case=label,
-        element=element,
-        clause=limit_clause(row),
-        trace=_trace(beam, es, row, use_row) if traces else [],
+    trace = lines_for(traces, rows)
+    if trace is not None:
+        _trace(trace, beam, es, row, use_row)
+    return assembled(
+        DeflectionCheck,
+        {
+            "delta_mm": delta,
+            "limit_mm": limit,
+            "limit_ratio": float(row["ratio"]),
+            "utilisation": util,
+            "case": label,
+            "element": element,
+            "clause": limit_clause(row),
+            "trace": [] if trace is None else trace.lines,
+        },
     )

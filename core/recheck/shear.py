@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from core.analysis import BeamModel
+from core.assembled import assembled
 from core.clauses.factors import factored_strength
 from core.clauses.shear import (
     GLULAM_SIMPLE_SHEAR_MAX_VOLUME_M3,
@@ -15,8 +16,8 @@ from core.kinds import TraceStatus
 from core.member import Member
 from core.models import Beam, Material
 from core.recheck.cases import LoadCase, carries_snow
-from core.recheck.trace import KN_PER_N, case_label, kd_trace, line
-from core.results import FactorTrace, ShearCheck
+from core.recheck.trace import KN_PER_N, Lines, add_kd, case_label, lines_for
+from core.results import RowUsed, ShearCheck
 
 CV_SIMPLE_UDL = 3.69  # CSA O86-19 Table 7.5: simple span, uniform load
 
@@ -33,46 +34,48 @@ def _resistance_and_demand(
     return sawn_vr(fv, member.area_mm2, member.kzb or 1.0), case.result.max_abs_shear_n(model.lengths)
 
 
-def _method_trace(beam: Beam, model: BeamModel, volume: float, volume_method: bool) -> tuple[str, str, FactorTrace]:
-    """(method, clause, the CV or Z trace line) of the shear check."""
+def _method(beam: Beam, volume_method: bool) -> tuple[str, str]:
+    """(method, clause) of the shear check."""
+    if volume_method:
+        return "volume: Wr vs total factored load W (Z >= 2.0 m3)", "CSA O86-19 7.5.7.3(a)"
+    if beam.material is Material.glulam:
+        return "2A/3", "CSA O86-19 7.5.7.2"
+    return "2An/3 KZv", "CSA O86-19 6.5.4.1 (memory)"
+
+
+def _method_line(trace: Lines, beam: Beam, model: BeamModel, volume: float, volume_method: bool) -> None:
+    """The CV (volume method) or Z trace line of the shear check."""
     if volume_method:
         cv_status = TraceStatus.confirmed if len(model.elements) == 1 else TraceStatus.memory
-        return (
-            "volume: Wr vs total factored load W (Z >= 2.0 m3)",
-            "CSA O86-19 7.5.7.3(a)",
-            line(
-                symbol="CV",
-                value=CV_SIMPLE_UDL,
-                clause="CSA O86-19 Table 7.5",
-                source="simple span, uniform load"
-                + (
-                    ""
-                    if cv_status is TraceStatus.confirmed
-                    else "; applied to a continuous or overhanging beam: verify"
-                ),
-                status=cv_status,
-            ),
+        source = "simple span, uniform load" + (
+            "" if cv_status is TraceStatus.confirmed else "; applied to a continuous or overhanging beam: verify"
         )
+        trace.add("CV", CV_SIMPLE_UDL, "CSA O86-19 Table 7.5", source, cv_status)
+        return
     glulam = beam.material is Material.glulam
-    return (
-        "2A/3" if glulam else "2An/3 KZv",
-        "CSA O86-19 7.5.7.2" if glulam else "CSA O86-19 6.5.4.1 (memory)",
-        line(
-            symbol="Z",
-            value=round(volume, 3),
-            unit="m3",
-            clause="CSA O86-19 7.5.7" if glulam else "CSA O86-19 6.5.4 (memory)",
-            source="volume below 2.0 m3: simple method permitted"
-            if glulam
-            else "sawn lumber: Vr does not depend on the volume",
-        ),
+    trace.add(
+        "Z",
+        round(volume, 3),
+        "CSA O86-19 7.5.7" if glulam else "CSA O86-19 6.5.4 (memory)",
+        "volume below 2.0 m3: simple method permitted" if glulam else "sawn lumber: Vr does not depend on the volume",
+        TraceStatus.formula,
+        "m3",
     )
 
 
 def shear_check(
-    beam: Beam, member: Member, model: BeamModel, cases: list[LoadCase], *, traces: bool = True
+    beam: Beam,
+    member: Member,
+    model: BeamModel,
+    cases: list[LoadCase],
+    *,
+    traces: bool = True,
+    rows: set[RowUsed] | None = None,
 ) -> ShearCheck:
-    """Governing shear check (O86-19 7.5.7 glulam, 6.5.4 lumber); traces: False builds no trace."""
+    """Governing shear check (O86-19 7.5.7 glulam, 6.5.4 lumber); traces: False builds no trace.
+
+    rows: when given, the table rows of the governing case's trace are added to it, and no trace is kept.
+    """
     volume = glulam_volume_m3(beam.b_mm, beam.d_mm, model.total_length_mm)
     volume_method = beam.material is Material.glulam and volume >= GLULAM_SIMPLE_SHEAR_MAX_VOLUME_M3
     best: tuple[float, float, float, LoadCase] | None = None
@@ -83,16 +86,23 @@ def shear_check(
             best = (util, resist, demand, case)
     assert best is not None
     util, resist, demand, case = best
-    method, clause, extra = _method_trace(beam, model, volume, volume_method)
-    return ShearCheck(
-        vr_kn=resist * KN_PER_N,
-        vf_kn=demand * KN_PER_N,
-        utilisation=util,
-        method=method,
-        combination=case_label(case),
-        kd=case.kd,
-        clause=clause,
-        trace=[kd_trace(case), extra] if traces else [],
-        dead_load_only=case.combo.dead_load_only,
-        snow_in_combination=carries_snow(case, beam),
+    method, clause = _method(beam, volume_method)
+    trace = lines_for(traces, rows)
+    if trace is not None:
+        add_kd(trace, case)
+        _method_line(trace, beam, model, volume, volume_method)
+    return assembled(
+        ShearCheck,
+        {
+            "vr_kn": resist * KN_PER_N,
+            "vf_kn": demand * KN_PER_N,
+            "utilisation": util,
+            "method": method,
+            "combination": case_label(case),
+            "kd": case.kd,
+            "clause": clause,
+            "trace": [] if trace is None else trace.lines,
+            "dead_load_only": case.combo.dead_load_only,
+            "snow_in_combination": carries_snow(case, beam),
+        },
     )

@@ -1,10 +1,14 @@
-"""Trace helpers shared by the checks: one ``FactorTrace`` line, and the combination label of a case."""
+"""Trace helpers shared by the checks: lines, where a check writes them, and the combination label of a case.
+
+One ``FactorTrace`` line (``line``), where a check writes its lines (``Lines``: a kept trace, or the table
+rows it names), and ``case_label``.
+"""
 
 from __future__ import annotations
 
 from core.kinds import TraceStatus
 from core.recheck.cases import LoadCase
-from core.results import FactorTrace
+from core.results import TABLE_STATUSES, FactorTrace, RowUsed
 
 KN_PER_N = 1e-3  # unit conversion: multiply a force in N by this to get kN
 KNM_PER_NMM = 1e-6  # unit conversion: a moment in N*mm to kN*m
@@ -38,8 +42,49 @@ _LINES: dict[tuple[object, ...], FactorTrace] = {}
 _LINES_MAX = 50_000
 
 
+class Lines:
+    """Where a check writes the lines of its governing case's trace.
+
+    Kept as ``FactorTrace`` lines (``lines``: a traced recheck), or, when ``rows`` is given, reduced to the
+    table rows they name and added to ``rows`` (``core.recheck.recheck_with_rows``): the same calls with the
+    same arguments either way, so the rows are exactly those of the trace a traced recheck keeps, and no
+    ``FactorTrace`` is built for them.
+    """
+
+    def __init__(self, rows: set[RowUsed] | None = None) -> None:
+        self.lines: list[FactorTrace] = []
+        self.rows = rows
+
+    def add(
+        self, symbol: str, value: float | str | None, clause: str, source: str, status: str, unit: str = ""
+    ) -> None:
+        """One line (status: a TraceStatus value); as a row, only when its status is a table's."""
+        rows = self.rows
+        if rows is None:
+            self.lines.append(line(symbol=symbol, value=value, unit=unit, clause=clause, source=source, status=status))
+            return
+        table = _TABLE_STATUS.get(status)
+        if table is not None:
+            rows.add((clause, source, table))
+
+
+# the statuses of a table row (core.results.TABLE_STATUSES), by value
+_TABLE_STATUS: dict[str, TraceStatus] = {s.value: s for s in TABLE_STATUSES}
+
+
+def lines_for(traces: bool, rows: set[RowUsed] | None) -> Lines | None:
+    """Where a check's trace lines go: into ``rows``, into a kept trace, or nowhere (None).
+
+    Into ``rows`` when the rows used are collected (no trace is then kept), into a kept trace when
+    ``traces``, else nowhere: nothing is formatted.
+    """
+    if rows is not None:
+        return Lines(rows)
+    return Lines() if traces else None
+
+
 def note(
-    trace: list[FactorTrace] | None,
+    trace: Lines | None,
     symbol: str,
     value: float | None,
     clause: str,
@@ -47,14 +92,14 @@ def note(
     status: str,
     unit: str = "",
 ) -> None:
-    """Append one FactorTrace when a trace is being kept (status: a TraceStatus value)."""
+    """Write one trace line when a trace or its rows are being kept (status: a TraceStatus value)."""
     if trace is not None:
-        trace.append(line(symbol=symbol, value=value, unit=unit, clause=clause, source=source, status=status))
+        trace.add(symbol, value, clause, source, status, unit)
 
 
-def kd_trace(case: LoadCase) -> FactorTrace:
+def add_kd(trace: Lines, case: LoadCase) -> None:
     """The KD line of a check's trace (CSA O86-19 5.3.2), with how KD was chosen."""
-    return line(symbol="KD", value=case.kd, clause="CSA O86-19 5.3.2", source=case.kd_note, status=TraceStatus.memory)
+    trace.add("KD", case.kd, "CSA O86-19 5.3.2", case.kd_note, TraceStatus.memory)
 
 
 def case_label(case: LoadCase) -> str:

@@ -6,6 +6,8 @@ skip bound never hiding a deflection at or over the caller's threshold, and the 
 the load-case search against ``regions``.
 """
 
+import functools
+
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
@@ -192,3 +194,55 @@ def test_region_spans_are_the_two_pass_regions_bit_for_bit(layout, data):
     model = BeamModel(list(layout[0]), layout[1], layout[2])
     case = model.case(_loads(model, data))
     assert model.region_spans(case) == _spans_by_two_passes(model, case)
+
+
+def _governing_plain(bending, shear, bearing, deflection):
+    """The governing check as first written (two passes for unrated regions, then max over (utilisation, index))."""
+    from core.kinds import Outcome
+
+    for outcome in (Outcome.not_established, Outcome.not_permitted):
+        for i, r in enumerate(bending):
+            if r.utilisation is None and r.outcome is outcome:
+                return i, None
+    utils = [r.utilisation for r in bending] + [shear.utilisation]
+    utils += [b.utilisation for b in bearing] + [deflection.utilisation]
+    util, best = max((u, i) for i, u in enumerate(utils) if u is not None)
+    return best, util
+
+
+_UTILS = st.sampled_from([0.0, -0.0, 0.3, 0.8, 0.8, 1.0, 1.2, float("inf")])
+_REGION = st.one_of(
+    st.tuples(_UTILS, st.sampled_from(["ok", "overstress"])),
+    st.tuples(st.none(), st.sampled_from(["not_established", "not_permitted"])),
+)
+
+
+@settings(max_examples=200, deadline=None)
+@given(
+    regions=st.lists(_REGION, min_size=1, max_size=5),
+    shear=_UTILS,
+    bearings=st.lists(_UTILS, min_size=2, max_size=4),
+    deflection=_UTILS,
+)
+def test_governing_check_is_the_plain_two_pass_version(regions, shear, bearings, deflection):
+    # one pass in order (core/governing.py) against the first form: the same index and the very same number
+    from core.kinds import Outcome
+    from core.results import governing_check
+
+    r = _governing_result()
+    bending = [r.bending[0].model_copy(update={"utilisation": u, "outcome": Outcome(o)}) for u, o in regions]
+    sh = r.shear.model_copy(update={"utilisation": shear})
+    be = [r.bearing[0].model_copy(update={"utilisation": u}) for u in bearings]
+    de = r.deflection.model_copy(update={"utilisation": deflection})
+    got, want = governing_check(bending, sh, be, de), _governing_plain(bending, sh, be, de)
+    assert got[0] == want[0]
+    assert repr(got[1]) == repr(want[1])  # -0.0 and 0.0 told apart
+
+
+@functools.cache
+def _governing_result():
+    """One recheck for every example."""
+    from core.recheck import recheck
+    from tests.core.beams import glulam
+
+    return recheck(glulam())
