@@ -120,7 +120,7 @@ def site_open(db: str, old: bool) -> dict[str, float]:
 def portfolio(db: str, processes: int, memo: bool = True) -> dict[str, float]:
     """Time the portfolio recheck (every beam, stored), with this process's and its workers' CPU.
 
-    With one process, the time spent inside ``core.recheck.recheck`` is summed too (``recheck_s``),
+    With one process, the time spent inside ``core.recheck.recheck_with_rows`` is summed too (``recheck_s``),
     so the pipeline around it (reading, validation, comparing, writing, progress) can be told apart:
     ``seconds - recheck_s``.
     """
@@ -135,7 +135,7 @@ def portfolio(db: str, processes: int, memo: bool = True) -> dict[str, float]:
 
     module: Any = importlib.import_module("core.recheck")  # the package (``core.recheck`` is also the function)
     inside = [0.0, 0.0]  # wall, CPU
-    real = module.recheck
+    real = module.recheck_with_rows
 
     def timed(*args: object, **kwargs: object) -> object:
         t, c = time.perf_counter(), time.process_time()
@@ -146,7 +146,7 @@ def portfolio(db: str, processes: int, memo: bool = True) -> dict[str, float]:
             inside[1] += time.process_time() - c
 
     if processes == 1:
-        module.recheck = timed  # what storage.results._summary calls
+        module.recheck_with_rows = timed  # what storage.results._summary_of calls
     store = Store(db)
     c0, t0 = os.times(), time.perf_counter()
     run = recheck_all(store.db, processes=processes)

@@ -112,7 +112,8 @@ def portfolio_rows(work: Path, n: int) -> list[Row]:
             f"portfolio pipeline without the recheck, {n:,} beams, 1 process",
             f"{fmt_time(pipeline_s)} ({n / pipeline_s:,.0f} beams/s); CPU {pipeline_cpu:.2f} s "
             f"({n / pipeline_cpu:,.0f} beams/s)",
-            f"core recheck alone {fmt_time(one['recheck_s'])} ({n / one['recheck_s']:,.0f} beams/s); "
+            f"core recheck (status and rows used) alone {fmt_time(one['recheck_s'])} "
+            f"({n / one['recheck_s']:,.0f} beams/s); "
             f"CPU {one['recheck_cpu_s']:.2f} s ({n / one['recheck_cpu_s']:,.0f} beams/s)",
             f"{pipeline_cpu / one['cpu_s']:.0%} of CPU",
             "-",

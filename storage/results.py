@@ -28,7 +28,6 @@ from storage.gcpause import gc_paused
 
 UNCHECKED = "unchecked"  # the record is incomplete (or refused): nothing to recheck yet
 PENDING = "pending"  # the placeholder row a new beam gets (storage/db.py migration 4) until its first recheck
-TABLE_STATUSES = ("verified", "confirmed", "memory")
 
 
 @dataclass(frozen=True)
@@ -149,26 +148,27 @@ _NOT_IN_KEY = {"mark"}  # a set, not a frozenset: pydantic's serializer takes a 
 
 
 def _summary_of(beam: Any) -> Summ:
-    """``_summary`` of a validated beam (no memo): the recheck, reduced to what a stored result keeps."""
-    from core.recheck import recheck
+    """``_summary`` of a validated beam (no memo): the recheck, reduced to what a stored result keeps.
+
+    The status-only recheck with the table rows it used (``core.recheck.recheck_with_rows``: the same set
+    the traced recheck's lines name), so no trace is built.
+    """
+    from core.recheck import recheck_with_rows
     from core.results import governing_check
 
     try:
-        result = recheck(beam)
+        result, used = recheck_with_rows(beam)
     except ValueError:
         return UNCHECKED_SUMMARY
-    checks: list[tuple[str, float | None, Iterable[Any]]] = [
-        (f"bending {r.region}", r.utilisation, r.trace) for r in result.bending
-    ]
-    checks.append(("shear", result.shear.utilisation, result.shear.trace))
-    checks += [(f"bearing {b.support}", b.utilisation, b.trace) for b in result.bearing]
-    checks.append(("deflection", result.deflection.utilisation, result.deflection.trace))
+    names = [f"bending {r.region}" for r in result.bending]
+    names.append("shear")
+    names += [f"bearing {b.support}" for b in result.bearing]
+    names.append("deflection")
     index, _ = governing_check(result.bending, result.shear, result.bearing, result.deflection)
-    governing = checks[index][0]  # an unrated bending region governs a member whose capacity is unknown
-    rows = {(t.clause, t.source, t.status) for _, _, trace in checks for t in trace if t.status in TABLE_STATUSES}
+    governing = names[index]  # an unrated bending region governs a member whose capacity is unknown
     findings = tuple((f.code, f.priority.value, f.region or "") for f in result.findings)
     util = None if result.governing_utilisation is None else round(float(result.governing_utilisation), 6)
-    return result.status.value, governing, util, findings, tuple(sorted(rows))
+    return result.status.value, governing, util, findings, tuple(sorted(used))
 
 
 def stale_after_new_results_version(db: Any) -> bool:
