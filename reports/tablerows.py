@@ -11,7 +11,8 @@ from collections.abc import Iterable
 from dataclasses import dataclass
 
 from core.kinds import TraceStatus
-from core.results import FactorTrace, Recheck
+from core.results import Recheck
+from core.results import rows_used as row_set
 
 TABLE_STATUSES = (TraceStatus.verified, TraceStatus.confirmed, TraceStatus.memory)
 FIRM_MARK = "verified by "  # core.overrides.note: a firm's verification names who verified the row
@@ -49,23 +50,9 @@ class RowUsed:
         return "confirmed (independent source)"
 
 
-def _traces(result: Recheck) -> Iterable[FactorTrace]:
-    for region in result.bending:
-        yield from region.trace
-    yield from result.shear.trace
-    for bearing in result.bearing:
-        yield from bearing.trace
-    yield from result.deflection.trace
-
-
 def rows_used(results: Iterable[Recheck]) -> list[RowUsed]:
     """Every distinct table row the rechecks used (status verified, confirmed or memory), memory rows first."""
-    found = {
-        RowUsed(t.clause, t.source, TraceStatus(t.status))
-        for result in results
-        for t in _traces(result)
-        if t.status in TABLE_STATUSES
-    }
+    found = {RowUsed(clause, source, TraceStatus(status)) for r in results for clause, source, status in row_set(r)}
     return sorted(found, key=lambda r: (r.status is not TraceStatus.memory, r.clause, r.source))
 
 
