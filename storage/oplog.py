@@ -336,7 +336,8 @@ class ProjectionBatch:
         self.seen: dict[str, int] = {}  # origin -> contiguous high-water mark, as the batch sees it
         self.held_max: dict[str, int] = {}  # origin -> largest seq held before the batch began
         self.new_ops: list[tuple[Any, ...]] = []  # op rows inserted by the batch, written at flush()
-        self.new_at: dict[tuple[str, int, str, str], int] = {}  # (origin, hlc, entity, record_id) -> least seq
+        # (origin, hlc, entity, record_id) -> least seq of new_ops; built from new_ops when a conflict first asks
+        self.new_at: dict[tuple[str, int, str, str], int] | None = None
         self.version = _data_version(db)  # SQLite's data_version when the batch began (renew() compares)
 
     def renew(self) -> None:
@@ -461,12 +462,21 @@ class ProjectionBatch:
         """
         self.new_ops.append((op.origin, op.seq, *stored, op.schema_version, op.wall_ms))
         self.held[(op.origin, op.seq)] = stored
-        at = (op.origin, op.hlc, op.entity, op.record_id)
-        self.new_at[at] = min(op.seq, self.new_at.get(at, op.seq))
+        if self.new_at is not None:
+            self._index_new(op.origin, op.seq, op.hlc, op.entity, op.record_id)
         self.advance_seen(op.origin, op.seq)
+
+    def _index_new(self, origin: str, seq: int, hlc: int, entity: str, record_id: str) -> None:
+        assert self.new_at is not None
+        at = (origin, hlc, entity, record_id)
+        self.new_at[at] = min(seq, self.new_at.get(at, seq))
 
     def op_seq_at(self, origin: str, hlc: int, entity: str, record_id: str) -> int | None:
         """The least seq of an op of ``origin`` stamped ``hlc`` on this record, held or added by the batch."""
+        if self.new_at is None:  # the first conflict since flush(): index the ops added so far (kept up to date)
+            self.new_at = {}
+            for row in self.new_ops:
+                self._index_new(row[0], row[1], row[2], row[3], row[4])
         found = [_op_seq_at(self.db, origin, hlc, entity, record_id), self.new_at.get((origin, hlc, entity, record_id))]
         return min((s for s in found if s is not None), default=None)
 
@@ -559,7 +569,7 @@ class ProjectionBatch:
         """Write the added ops, every changed row and stamp, and the high-water marks."""
         _write_many(self.db, INSERT_OP_SQL, self.new_ops)
         self.new_ops.clear()
-        self.new_at.clear()
+        self.new_at = None
         self._write_rows()
         stamps = [(*key, *stamp) for key in sorted(self.dirty_stamps) if (stamp := self.stamps[key])]
         _write_many(self.db, STAMP_WRITE_SQL, stamps)
