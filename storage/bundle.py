@@ -211,15 +211,22 @@ def _parts(store: Store, cursor: dict[str, int], part_ops: int, include: Callabl
     revoked = {d.device_id for d in identity.trusted_devices(store.db) if d.revoked_ms}
     ex = _Exporter(store, identity.device_key(store.db), revoked)
     last: dict[str, int] = {}
+    wanted: dict[str, bool] = {}  # include(origin), asked once per origin
     part = _Part()
-    for full in store.db.execute(sql):
-        row, stored, unchecked = full[:-2], full[-2], bool(full[-1])
-        origin, seq = row[0], row[1]
-        if seq <= cursor.get(origin, 0) or not include(origin) or last.get(origin) == -1:
+    for full in store.db.conn.execute(sql):
+        origin, seq, stored = full[0], full[1], full[10]
+        if seq <= cursor.get(origin, 0) or last.get(origin) == -1:
+            continue
+        if (keep := wanted.get(origin)) is None:
+            keep = wanted[origin] = include(origin)
+        if not keep:
             continue
         prev = last.get(origin)
-        line = op_line(row)
-        sig = None if origin in ex.revoked else ex.signature(origin, seq, line, stored, unchecked, part)
+        line = op_line(full[:10])
+        if stored and not full[11] and origin not in ex.revoked:
+            sig: str | None = stored  # the common case of ``ex.signature``: a stored signature, not to check again
+        else:
+            sig = None if origin in ex.revoked else ex.signature(origin, seq, line, stored, bool(full[11]), part)
         if (prev is not None and seq != prev + 1) or sig is None:
             last[origin] = -1  # the run ended (a restored device's hole, an unsigned relay): a later export
             continue
@@ -228,7 +235,8 @@ def _parts(store: Store, cursor: dict[str, int], part_ops: int, include: Callabl
         part.sigs.append(sig)
         r = part.ranges.setdefault(origin, [seq, seq])
         r[1] = seq
-        _add_blobs(store, row[6], part.shas)
+        if "sha256" in full[6]:  # what ``_add_blobs`` looks for first
+            _add_blobs(store, full[6], part.shas)
         if len(part.lines) >= part_ops:
             yield part
             part = _Part()

@@ -232,6 +232,14 @@ def _store_sql(table: str) -> str:
     )
 
 
+_ABSENT = object()  # ``ProjectionBatch.stored_site``: the table holds no row of this id
+_ROW_WRITE_SQL: tuple[Callable[[str], str], ...] = (
+    _store_sql,
+    lambda table: f"UPDATE {table} SET data = ? WHERE id = ?",
+    lambda table: f"UPDATE {table} SET site_id = ?, data = ? WHERE id = ?",
+)
+
+
 def _write_many(db: sqlite_utils.Database, sql: str, rows: Sequence[Sequence[Any]]) -> None:
     """One statement over many rows: ``executemany`` on SQLite, one ``execute`` a row elsewhere (PostgreSQL hub)."""
     conn = getattr(db, "conn", None)
@@ -316,6 +324,9 @@ class ProjectionBatch:
         self.db = db
         self.finite = finite
         self.rows: dict[tuple[str, str], tuple[dict[str, Any] | None, str | None]] = {}
+        # (table, id) -> the row's site_id column as the table holds it, or _ABSENT: no row (written at flush()
+        # as an INSERT; a held row as an UPDATE of its data, and of site_id only when that changed)
+        self.stored_site: dict[tuple[str, str], object] = {}
         # dirty keys in insertion order (a dict): merged in log order they come nearly sorted, and sorting
         # a nearly sorted list for the write is several times faster than sorting a set's order
         self.dirty: dict[tuple[str, str], None] = {}
@@ -325,7 +336,8 @@ class ProjectionBatch:
         self.seen: dict[str, int] = {}  # origin -> contiguous high-water mark, as the batch sees it
         self.held_max: dict[str, int] = {}  # origin -> largest seq held before the batch began
         self.new_ops: list[tuple[Any, ...]] = []  # op rows inserted by the batch, written at flush()
-        self.new_at: dict[tuple[str, int, str, str], int] = {}  # (origin, hlc, entity, record_id) -> least seq
+        # (origin, hlc, entity, record_id) -> least seq of new_ops; built from new_ops when a conflict first asks
+        self.new_at: dict[tuple[str, int, str, str], int] | None = None
         self.version = _data_version(db)  # SQLite's data_version when the batch began (renew() compares)
 
     def renew(self) -> None:
@@ -343,6 +355,7 @@ class ProjectionBatch:
         version = _data_version(self.db)
         if version is None or version != self.version or len(self.rows) + len(self.stamps) > KEEP_MAX:
             self.rows.clear()
+            self.stored_site.clear()
             self.stamps.clear()
         self.version = version
         self.held.clear()
@@ -358,17 +371,38 @@ class ProjectionBatch:
         self._prefetch_held(ops)
         rows, stamps = self.rows, self.stamps
         by_table: dict[str, dict[str, None]] = {}  # dicts, not sets: log order sorts fast (see ``dirty``)
-        stamped: dict[tuple[str, str, str], None] = {}
         for op in ops:  # only what the batch does not hold yet (most of a later chunk's records are held)
-            for table, record_id in touches(op):
+            for table, record_id in touches(op) if op.kind is not OpKind.SET else ((op.entity, op.record_id),):
                 if (table, record_id) not in rows:
                     by_table.setdefault(table, {})[record_id] = None
-            if op.kind is OpKind.SET:
-                entity, record_id = op.entity, op.record_id
-                stamped.update((k, None) for f in op.payload if (k := (entity, record_id, f)) not in stamps)
         for table, wanted in sorted(by_table.items()):
             self._prefetch_rows(table, sorted(wanted))
+        sets = [op for op in ops if op.kind is OpKind.SET]
+        rowless = {key: None for op in sets if rows[key := (op.entity, op.record_id)][0] is None}
+        unstamped = self._unstamped(sorted(rowless))
+        stamped: dict[tuple[str, str, str], None] = {}
+        for op in sets:
+            entity, record_id = op.entity, op.record_id
+            keys = [k for f in op.payload if (k := (entity, record_id, f)) not in stamps]
+            (stamps if (entity, record_id) in unstamped else stamped).update(dict.fromkeys(keys))
         self._prefetch_stamps(sorted(stamped))
+
+    def _unstamped(self, records: list[tuple[str, str]]) -> set[tuple[str, str]]:
+        """Those of these (entity, record_id) that hold no field stamp at all (each field's stamp is None).
+
+        Asked of records without a row (a new record: its fields are stamped with its first save), so a batch
+        creating thousands of records reads one answer per record instead of one per field. A record holding
+        any stamp is not among them: its fields are read one by one, as before.
+        """
+        found: set[tuple[str, str]] = set()
+        for part, padded in _padded_chunks(records):
+            sql = (
+                f"WITH w(e, r) AS (VALUES {', '.join(['(?, ?)'] * len(padded))}) SELECT w.e, w.r FROM w "
+                "WHERE EXISTS (SELECT 1 FROM field_stamp s WHERE s.entity = w.e AND s.record_id = w.r)"
+            )
+            stamped = {(e, r) for e, r in self.db.execute(sql, [v for key in padded for v in key])}
+            found.update(key for key in part if key not in stamped)
+        return found
 
     def _prefetch_held(self, ops: Sequence[Op]) -> None:
         by_origin: dict[str, list[int]] = {}
@@ -389,12 +423,16 @@ class ProjectionBatch:
 
     def _prefetch_rows(self, table: str, ids: list[str]) -> None:
         for _, padded in _padded_chunks(ids):
-            for record_id, data, chash in self.db.execute(
-                f"SELECT id, data, content_hash FROM {table} WHERE id IN ({', '.join('?' * len(padded))})", padded
+            for record_id, site_id, data, chash in self.db.execute(
+                f"SELECT id, site_id, data, content_hash FROM {table} WHERE id IN ({', '.join('?' * len(padded))})",
+                padded,
             ):
                 self.rows[(table, record_id)] = (self._read(data), chash)
+                self.stored_site[(table, record_id)] = site_id
         for record_id in ids:
-            self.rows.setdefault((table, record_id), (None, None))
+            if (table, record_id) not in self.rows:
+                self.rows[(table, record_id)] = (None, None)
+                self.stored_site[(table, record_id)] = _ABSENT
 
     def _prefetch_stamps(self, keys: list[tuple[str, str, str]]) -> None:
         """The stamps of these (entity, record_id, field): a join of the keys with the primary key."""
@@ -424,12 +462,21 @@ class ProjectionBatch:
         """
         self.new_ops.append((op.origin, op.seq, *stored, op.schema_version, op.wall_ms))
         self.held[(op.origin, op.seq)] = stored
-        at = (op.origin, op.hlc, op.entity, op.record_id)
-        self.new_at[at] = min(op.seq, self.new_at.get(at, op.seq))
+        if self.new_at is not None:
+            self._index_new(op.origin, op.seq, op.hlc, op.entity, op.record_id)
         self.advance_seen(op.origin, op.seq)
+
+    def _index_new(self, origin: str, seq: int, hlc: int, entity: str, record_id: str) -> None:
+        assert self.new_at is not None
+        at = (origin, hlc, entity, record_id)
+        self.new_at[at] = min(seq, self.new_at.get(at, seq))
 
     def op_seq_at(self, origin: str, hlc: int, entity: str, record_id: str) -> int | None:
         """The least seq of an op of ``origin`` stamped ``hlc`` on this record, held or added by the batch."""
+        if self.new_at is None:  # the first conflict since flush(): index the ops added so far (kept up to date)
+            self.new_at = {}
+            for row in self.new_ops:
+                self._index_new(row[0], row[1], row[2], row[3], row[4])
         found = [_op_seq_at(self.db, origin, hlc, entity, record_id), self.new_at.get((origin, hlc, entity, record_id))]
         return min((s for s in found if s is not None), default=None)
 
@@ -460,8 +507,10 @@ class ProjectionBatch:
         """The row (data, content hash) as the batch sees it."""
         key = (table, record_id)
         if key not in self.rows:
-            row = self.db.execute(f"SELECT data, content_hash FROM {table} WHERE id = ?", [record_id]).fetchone()
-            self.rows[key] = (self._read(row[0]), row[1]) if row else (None, None)
+            sql = f"SELECT site_id, data, content_hash FROM {table} WHERE id = ?"
+            row = self.db.execute(sql, [record_id]).fetchone()
+            self.rows[key] = (self._read(row[1]), row[2]) if row else (None, None)
+            self.stored_site[key] = row[0] if row else _ABSENT
         return self.rows[key]
 
     def _read(self, text: str) -> Any:
@@ -492,20 +541,36 @@ class ProjectionBatch:
         self.stamps[key] = (hlc, origin)
         self.dirty_stamps[key] = None
 
+    def _write_rows(self) -> None:
+        """Write the changed rows: new ones as ``_store`` does, held ones as an ``UPDATE`` of what changed.
+
+        The same final rows as ``_store``'s upsert (which keeps the held content hash): an ``UPDATE`` of the
+        data alone leaves the ``site_id`` index untouched when the site did not change, and skips the
+        upsert's failed insert.
+        """
+        writes: dict[tuple[str, int], list[tuple[Any, ...]]] = {}  # (table, 0 new / 1 data / 2 site and data)
+        finite, stored_site = self.finite, self.stored_site
+        for key in sorted(self.dirty):
+            data, chash = self.rows[key]
+            assert data is not None
+            site_id, text, held_site = data.get("site_id"), dumps_parsed(data, finite), stored_site.get(key, _ABSENT)
+            if held_site is _ABSENT:
+                writes.setdefault((key[0], 0), []).append((key[1], site_id, text, chash))
+            elif held_site == site_id and type(held_site) is type(site_id):
+                writes.setdefault((key[0], 1), []).append((text, key[1]))
+            else:
+                writes.setdefault((key[0], 2), []).append((site_id, text, key[1]))
+            stored_site[key] = site_id
+        for (table, how), rows in sorted(writes.items()):
+            _write_many(self.db, _ROW_WRITE_SQL[how](table), rows)
+        self.dirty.clear()
+
     def flush(self) -> None:
         """Write the added ops, every changed row and stamp, and the high-water marks."""
         _write_many(self.db, INSERT_OP_SQL, self.new_ops)
         self.new_ops.clear()
-        self.new_at.clear()
-        by_table: dict[str, list[tuple[Any, ...]]] = {}
-        finite = self.finite
-        for table, record_id in sorted(self.dirty):
-            data, chash = self.rows[(table, record_id)]
-            assert data is not None
-            by_table.setdefault(table, []).append((record_id, data.get("site_id"), dumps_parsed(data, finite), chash))
-        for table, rows in by_table.items():
-            _write_many(self.db, _store_sql(table), rows)
-        self.dirty.clear()
+        self.new_at = None
+        self._write_rows()
         stamps = [(*key, *stamp) for key in sorted(self.dirty_stamps) if (stamp := self.stamps[key])]
         _write_many(self.db, STAMP_WRITE_SQL, stamps)
         self.dirty_stamps.clear()
