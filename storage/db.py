@@ -142,6 +142,24 @@ MIGRATIONS: dict[int, list[str]] = {
         "CREATE TABLE IF NOT EXISTS op_sig_unchecked (origin TEXT NOT NULL, seq INTEGER NOT NULL, "
         "PRIMARY KEY (origin, seq)) WITHOUT ROWID",
     ],
+    # 6: the beam triggers write only what changes (a bulk import fires them for every row it writes): a
+    # new beam's result row in one upsert instead of an insert and an update; a changed beam marks its
+    # result stale only when its text or site changed and the result is not already stale (the key of a
+    # result is the beam's text, its site's bases and the tables: storage/results.py input_hash), and a
+    # beam moved to another site takes its result row with it (before, the row stayed under the old site,
+    # so the new site's list and its refresh did not show the beam until the old site was opened)
+    6: [
+        "DROP TRIGGER IF EXISTS beam_result_beam_new",
+        """CREATE TRIGGER beam_result_beam_new AFTER INSERT ON beam BEGIN
+            INSERT INTO beam_result (beam_id, site_id, input_hash, status, governing, findings, rows_used)
+                VALUES (NEW.id, NEW.site_id, '', 'pending', '', '[]', '[]')
+                ON CONFLICT(beam_id) DO UPDATE SET input_hash = '', site_id = excluded.site_id; END""",
+        "DROP TRIGGER IF EXISTS beam_result_beam_changed",
+        """CREATE TRIGGER beam_result_beam_changed AFTER UPDATE ON beam
+            WHEN OLD.data IS NOT NEW.data OR OLD.site_id IS NOT NEW.site_id BEGIN
+            UPDATE beam_result SET input_hash = '', site_id = NEW.site_id
+                WHERE beam_id = NEW.id AND (input_hash != '' OR site_id IS NOT NEW.site_id); END""",
+    ],
 }
 
 

@@ -7,6 +7,7 @@ showing statuses from the old recheck: the results are marked stale once when th
 from core.recheck import recheck
 from core.results import RESULTS_VERSION
 from storage import Store, results
+from storage.db import transaction
 from tests.core.beams import glulam
 
 
@@ -119,3 +120,29 @@ def test_the_portfolio_keeps_the_stale_mark_of_a_beam_saved_meanwhile(tmp_path, 
     results.recheck_all(store.db, processes=1)
     assert _key_of(store, ids[0])[0] == ""
     assert all(_key_of(store, b)[0] for b in ids[1:])
+
+
+def test_a_beam_moved_to_another_site_is_listed_there_at_once(tmp_path):
+    """A save (or an import) that moves a beam takes its result row along: the new site lists it, the old not."""
+    store = Store(tmp_path / "move.db")
+    yard, shed = store.create_site(name="Yard"), store.create_site(name="Shed")
+    bid = store.save_beam(yard.id, glulam(mark="M-1"), {"level": "Roof"})
+    assert list(results.fresh(store.db, yard.id)) == [bid]
+    store.save_beam(shed.id, glulam(mark="M-1"), {"level": "Roof"}, beam_id=bid)
+    assert list(results.fresh(store.db, shed.id)) == [bid]
+    assert list(results.fresh(store.db, yard.id)) == []
+    assert [r[0] for r in results.site_list(store.db, shed.id)] == [bid]
+
+
+def test_a_save_that_changes_nothing_keeps_the_result_current(tmp_path):
+    """Its key (the record's text, the site's bases, the tables) is unchanged, so the result still holds."""
+    store = Store(tmp_path / "same.db")
+    site = store.create_site(name="Yard")
+    bid = store.save_beam(site.id, glulam(mark="M-1"), {"level": "Roof"})
+    results.fresh(store.db, site.id)
+    key = _key_of(store, bid)[0]
+    with transaction(store.db):
+        store.db.execute("UPDATE beam SET data = data WHERE id = ?", [bid])
+    assert _key_of(store, bid)[0] == key
+    store.save_beam(site.id, glulam(mark="M-2"), {"level": "Roof"}, beam_id=bid)
+    assert _key_of(store, bid)[0] == ""  # a real change marks it stale
