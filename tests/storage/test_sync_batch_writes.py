@@ -11,7 +11,8 @@ import random
 import pytest
 
 from storage.db import connect, transaction
-from storage.oplog import Op, ProjectionBatch, apply_op, insert_op
+from storage.oplog import Op
+from tests.storage.test_sync_scale import merge_batched, merge_one_at_a_time
 
 ORIGINS = ("0190aaaa-0000-7000-8000-00000000000a", "0190aaaa-0000-7000-8000-00000000000b")
 SITES = ("s1", "s2", None)
@@ -45,29 +46,6 @@ def _state(db):
     return out
 
 
-def _one_at_a_time(db, ops):
-    with transaction(db):
-        for op in ops:
-            if insert_op(db, op):
-                apply_op(db, op)
-
-
-def _batched(db, ops, batch_ops):
-    batch = None
-    for start in range(0, len(ops), batch_ops):
-        chunk = ops[start : start + batch_ops]
-        with transaction(db):
-            if batch is None:
-                batch = ProjectionBatch(db)
-            else:
-                batch.renew()
-            batch.prefetch(chunk)
-            for op in chunk:
-                if insert_op(db, op, batch):
-                    apply_op(db, op, batch=batch)
-            batch.flush()
-
-
 @pytest.mark.parametrize("seed", range(4))
 @pytest.mark.parametrize("batch_ops", [3, 50, 1_000])
 def test_rows_moving_between_sites_equal_the_upsert_path(tmp_path, seed, batch_ops):
@@ -76,13 +54,13 @@ def test_rows_moving_between_sites_equal_the_upsert_path(tmp_path, seed, batch_o
     ops = _ops(seed, 300, {o: max(op.seq for op in held if op.origin == o) for o in ORIGINS})
     one, many = connect(tmp_path / "one.db"), connect(tmp_path / "many.db")
     for db in (one, many):
-        _one_at_a_time(db, held[:20])
+        merge_one_at_a_time(db, held[:20])
         with transaction(db):  # stored results of some beams: the triggers mark them and move their site
             for n in range(0, 8, 2):
                 db.execute("UPDATE beam_result SET input_hash = 'h', site_id = 'old' WHERE beam_id = ?", [f"beam-{n}"])
-    _one_at_a_time(one, held[20:] + ops)
-    _one_at_a_time(many, held[20:])
-    _batched(many, ops, batch_ops)
+    merge_one_at_a_time(one, held[20:] + ops)
+    merge_one_at_a_time(many, held[20:])
+    merge_batched(many, ops, batch_ops)
     state = _state(one)
     assert {op.payload["site_id"] for op in ops if "site_id" in op.payload} == set(SITES), "moves to each site"
     assert _state(many) == state
@@ -101,8 +79,8 @@ def test_a_record_with_stamps_but_no_row_is_read_field_by_field(tmp_path):
             db.execute("INSERT INTO field_stamp VALUES ('beam', 'b1', 'notes', ?, ?)", list(newer))
     op = Op(ORIGINS[0], 1, 1_760_000_000_000 << 16, "beam", "b1", "set", {"notes": "old", "level": "L1"}, {}, 1, 1)
     fresh = Op(ORIGINS[0], 2, 1_760_000_000_001 << 16, "beam", "b2", "set", {"notes": "new"}, {}, 1, 1)
-    _one_at_a_time(one, [op, fresh])
-    _batched(many, [op, fresh], 10)
+    merge_one_at_a_time(one, [op, fresh])
+    merge_batched(many, [op, fresh], 10)
     state = _state(one)
     assert [r[:3] for r in state["beam"]] == [("b1", None, '{"level":"L1"}'), ("b2", None, '{"notes":"new"}')]
     assert _state(many) == state

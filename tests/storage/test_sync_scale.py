@@ -106,11 +106,28 @@ def _state(db):
     return out
 
 
-def _merge_one_at_a_time(db, ops):
+def merge_one_at_a_time(db, ops):
     with transaction(db):
         for op in ops:
             if insert_op(db, op):
                 apply_op(db, op)
+
+
+def merge_batched(db, ops, batch_ops):
+    """Merge ``ops`` in transactions of ``batch_ops``, one ProjectionBatch renewed across them (as an import does)."""
+    batch = None
+    for start in range(0, len(ops), batch_ops):
+        chunk = ops[start : start + batch_ops]
+        with transaction(db):
+            if batch is None:
+                batch = ProjectionBatch(db)
+            else:
+                batch.renew()
+            batch.prefetch(chunk)
+            for op in chunk:
+                if insert_op(db, op, batch):
+                    apply_op(db, op, batch=batch)
+            batch.flush()
 
 
 @pytest.mark.parametrize("seed", range(6))
@@ -119,7 +136,7 @@ def test_batched_merge_equals_merging_one_op_at_a_time(tmp_path, seed, batch_ops
     """Reference: the same ops through insert_op + apply_op with no batch (each read and write straight to SQL)."""
     ops = _random_ops(seed, 300)
     one = connect(tmp_path / "one.db")
-    _merge_one_at_a_time(one, ops)
+    merge_one_at_a_time(one, ops)
     many = connect(tmp_path / "many.db")
     for start in range(0, len(ops), batch_ops):
         chunk = ops[start : start + batch_ops]
@@ -196,21 +213,9 @@ def test_one_batch_renewed_across_transactions_equals_one_at_a_time(tmp_path, se
         rng.shuffle(window)
         ops[start : start + 40] = window
     one = connect(tmp_path / "one.db")
-    _merge_one_at_a_time(one, ops)
+    merge_one_at_a_time(one, ops)
     many = connect(tmp_path / "many.db")
-    batch = None
-    for start in range(0, len(ops), batch_ops):
-        chunk = ops[start : start + batch_ops]
-        with transaction(many):
-            if batch is None:
-                batch = ProjectionBatch(many)
-            else:
-                batch.renew()
-            batch.prefetch(chunk)
-            for op in chunk:
-                if insert_op(many, op, batch):
-                    apply_op(many, op, batch=batch)
-            batch.flush()
+    merge_batched(many, ops, batch_ops)
     state = _state(one)
     assert state["conflict"], "the ops make concurrent edits"
     assert _state(many) == state
@@ -233,7 +238,7 @@ def test_renew_drops_what_it_read_when_another_connection_committed(tmp_path):
         insert_op(db, first, batch)
         apply_op(db, first, batch=batch)
         batch.flush()
-    _merge_one_at_a_time(connect(path), [other])  # another connection commits
+    merge_one_at_a_time(connect(path), [other])  # another connection commits
     with transaction(db):
         batch.renew()
         assert batch.rows == {}
