@@ -171,3 +171,23 @@ def test_the_source_first_finder_takes_core_modules_only():
     spec = finder.find_spec("core.analysis", list(core.__path__))
     assert spec is not None
     assert str(spec.origin).endswith("analysis.py")
+
+
+def test_a_remedy_at_exactly_the_resistance_passes():
+    # CSA O86-19 / NBC 4.1.3.1 limit states design: a member passes when the factored resistance is at least the
+    # factored load effect (Mr >= Mf), so a utilisation of exactly 1.0 passes. The searches are given a check
+    # that reads exactly 1.0 for every candidate: the largest load step and the first size are the answers.
+    from core.remedies import _largest_passing, _smallest_passing
+
+    data = sawn().model_dump(mode="json")
+
+    def at_limit(_result):
+        return 1.0
+
+    def snow(v):
+        return {"loads.snow_kn_m": round(v, 2)}
+
+    found = _largest_passing(0.5, 0.1, snow, data, at_limit)
+    assert found == ({"loads.snow_kn_m": 0.5}, 1.0)
+    sizes = [{"d_mm": 235.0}, {"d_mm": 286.0}]
+    assert _smallest_passing(sizes, data, at_limit) == ({"d_mm": 235.0}, 1.0)
