@@ -122,9 +122,11 @@ def run(quick: bool = False) -> list[Row]:
             r: Sample = measure(raw, repeats, setup=fresh)
             src.close()
             ratio = r.median_s / s.median_s
-            aim, met = ">= 0.25x raw", ratio >= 0.25
+            # absolute aims (issue 14): a verified merge costs 0.10-0.20x a raw row copy at best, so the ratio
+            # is shown, not held to a figure
+            aim, met = "-", None
             if n == 10_000:
-                aim, met = "< 1 s, >= 0.25x raw", s.median_s < 1.0 and ratio >= 0.25
+                aim, met = "< 1 s", s.median_s < 1.0
             if n == 100_000:
                 aim, met = "< 3 s", s.median_s < 3.0
             rows.append(
