@@ -96,12 +96,17 @@ def archived(db: Any, site_id: str | None) -> int:
     return int(db.execute(sql + (" AND b.site_id = ?" if site_id else ""), [site_id] if site_id else []).fetchone()[0])
 
 
-def summary_line(rechecked: int, changed: int, new: int, skipped: int) -> str:
-    """'rechecked 13 beams (1 archived beam not rechecked); 3 changed status or governing check (0 had no ...)'."""
+def summary_line(rechecked: int, changed: int, new: int, skipped: int, util_only: int = 0) -> str:
+    """'rechecked 13 beams (1 archived beam not rechecked); 3 changed status or governing check, ...'.
+
+    ``new``: of the changed, those with no stored result before; ``util_only``: beams whose utilisation alone
+    moved (not listed: `tables impact` lists them).
+    """
     left_out = f" ({skipped:,} archived beam{'s' if skipped != 1 else ''} not rechecked)" if skipped else ""
     first = f", {new:,} of them with no stored result before" if new else ""
     beams = f"{rechecked:,} beam{'s' if rechecked != 1 else ''}"
-    return f"rechecked {beams}{left_out}; {changed:,} changed status or governing check{first}"
+    util = f"; {util_only:,} more changed utilisation only (`tables impact` lists them)" if util_only else ""
+    return f"rechecked {beams}{left_out}; {changed:,} changed status or governing check{first}{util}"
 
 
 def _site_arg(store: Any, name: str | None) -> str | None:
@@ -133,7 +138,7 @@ def cmd_recheck(args: argparse.Namespace) -> int:
     for line in lines:
         print(line)
     new = sum(1 for b, _ in moved if b is None)
-    print(summary_line(run.rechecked, len(lines), new, archived(store.db, site_id)))
+    print(summary_line(run.rechecked, len(lines), new, archived(store.db, site_id), len(run.moved) - len(moved)))
     print(CAUTION)
     return EXIT_OK
 

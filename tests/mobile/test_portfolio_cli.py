@@ -9,15 +9,26 @@ import io
 
 import pytest
 
+from core import tables
 from core.recheck import recheck
 from core.results import CAUTION
 from mobile import portfolio
 from mobile.cli import main
-from storage import Store
+from storage import Store, results
 from tests.core.beams import glulam
 
 CORRECTION = ["--by", "R. Osei", "--edition", "O86-19", "--page", "112", "--column", "fb_pos_mpa", "--value",
               "15.3", "--source", "firm's check of its copy (a test value: half the published fb)"]  # fmt: skip
+
+
+LIGHT = {"dead_kn_m": 0.6, "live_kn_m": 0.0, "snow_kn_m": 1.5}  # 0.3 x glulam()'s loads
+
+
+@pytest.fixture(autouse=True)
+def published_tables():
+    """Every test leaves the process on the published tables (`tables verify` applies the firm's records here)."""
+    yield
+    tables.use_firm_records([])
 
 
 def _decked(**over):
@@ -32,9 +43,20 @@ def _two_sites(db):
     south = store.create_site(name="South Arena")
     store.save_beam(south.id, _decked(mark="RB-1"), {"level": "Roof", "gridline": "C / 2-3"})
     store.save_beam(north.id, _decked(mark="RB-1"), {"level": "Roof", "gridline": "A / 1-2"})
+    store.save_beam(north.id, _decked(mark="RB-2", loads=LIGHT), {"level": "Roof", "gridline": "B / 1-2"})
     gone = store.save_beam(north.id, _decked(mark="RB-9"), {"level": "Roof", "gridline": "D / 1-2"})
     store.update_beam(gone, {"archived": True})
     store.close()
+
+
+def _stored(db, mark):
+    """The stored result of the beam marked ``mark`` (the only one so marked)."""
+    store = Store(db)
+    try:
+        ((bid,),) = store.db.execute("SELECT id FROM beam WHERE json_extract(data, '$.mark') = ?", [mark]).fetchall()
+        return results.stored(store.db)[bid]
+    finally:
+        store.close()
 
 
 def test_a_table_correction_names_each_changed_beam_with_its_site_and_place(tmp_path, capsys):
@@ -43,6 +65,7 @@ def test_a_table_correction_names_each_changed_beam_with_its_site_and_place(tmp_
     assert main(["recheck", "--db", str(db), "--quiet"]) == 0
     capsys.readouterr()
     before = recheck(_decked()).governing_utilisation
+    light_before = _stored(db, "RB-2")
     assert main(["tables", "verify", "--db", str(db), "glulam_grades", "D.Fir-L/24f-E", *CORRECTION]) == 0
     capsys.readouterr()
     assert main(["recheck", "--db", str(db), "--quiet"]) == 0
@@ -55,7 +78,15 @@ def test_a_table_correction_names_each_changed_beam_with_its_site_and_place(tmp_
     for line in out[:2]:
         assert ": ok (bending span 1) -> deficient (bending span 1)" in line, line
         assert line.endswith(now), line
-    assert out[2] == "rechecked 2 beams (1 archived beam not rechecked); 2 changed status or governing check"
+    light_after = _stored(db, "RB-2")
+    # RB-2's utilisation moved but it stays ok with the same governing check: counted, not listed
+    assert (light_before.status, light_before.governing) == (light_after.status, light_after.governing)
+    assert light_after.status == "ok"
+    assert light_after.utilisation != light_before.utilisation
+    assert out[2] == (
+        "rechecked 3 beams (1 archived beam not rechecked); 2 changed status or governing check; "
+        "1 more changed utilisation only (`tables impact` lists them)"
+    )
     assert out[3] == CAUTION
     assert len(out) == 4
 
@@ -66,21 +97,23 @@ def test_one_site_first_run_counts_what_had_no_result_and_ends_with_the_caution(
     assert main(["recheck", "--db", str(db), "--site", "north", "--quiet"]) == 0
     out = capsys.readouterr().out.splitlines()
     assert out[0].startswith("North Depot  ·  RB-1  ·  grid A / 1-2")
-    assert ": no stored result -> ok (bending span 1)  utilisation - -> " in out[0]
-    assert out[1:] == [
-        "rechecked 1 beam (1 archived beam not rechecked); 1 changed status or governing check, "
-        "1 of them with no stored result before",
+    assert out[1].startswith("North Depot  ·  RB-2  ·  grid B / 1-2")
+    for line in out[:2]:
+        assert ": no stored result -> ok (bending span 1)  utilisation - -> " in line
+    assert out[2:] == [
+        "rechecked 2 beams (1 archived beam not rechecked); 2 changed status or governing check, "
+        "2 of them with no stored result before",
         CAUTION,
     ]
     assert main(["recheck", "--db", str(db), "--quiet"]) == 0  # nothing moved: still the counts and the caution
     assert capsys.readouterr().out.splitlines()[-2:] == [
-        "rechecked 2 beams (1 archived beam not rechecked); 1 changed status or governing check, "
+        "rechecked 3 beams (1 archived beam not rechecked); 1 changed status or governing check, "
         "1 of them with no stored result before",
         CAUTION,
     ]
     assert main(["recheck", "--db", str(db), "--quiet"]) == 0
     assert capsys.readouterr().out.splitlines() == [
-        "rechecked 2 beams (1 archived beam not rechecked); 0 changed status or governing check",
+        "rechecked 3 beams (1 archived beam not rechecked); 0 changed status or governing check",
         CAUTION,
     ]
 
