@@ -139,9 +139,17 @@ class BracewalkApp(App):
         freeze_start_heap()
 
     def _auto_sync(self, _dt: float) -> None:
-        """Timer: let the background sync start or collect its work (never waits on the network)."""
-        if self.background.poll(time.monotonic()) and self.root.current == "sync":
+        """Timer: let the background sync start or collect its work (never waits on the network).
+
+        When a sync has just finished, the screen shown follows it: the sync screen's progress, the site
+        screen's beams (a pulled edit changes their results).
+        """
+        if not self.background.poll(time.monotonic()):
+            return
+        if self.root.current == "sync":
             self.root.get_screen("sync").follow()
+        elif self.root.current == "site":
+            self.root.get_screen("site").after_sync()
 
     def on_pause(self) -> bool:
         """Android/iOS pause: pending typing is saved first."""

@@ -10,50 +10,136 @@ from typing import Any
 
 from mobile.errors import EXIT_OK, UserError
 
+PROGRESS_STEPS = 10  # lines a progress log written to a file or pipe gets: one per tenth of the beams
+
 
 def _progress(stream: Any) -> Any:
+    """The portfolio's progress on ``stream``: a bar redrawn in place on a terminal, else a line per tenth.
+
+    A bar redrawn with carriage returns reads as one long line of bars in a file or a CI log.
+    """
     from storage.results import progress_bar
 
-    def show(done: int, total: int) -> None:
-        end = "\n" if done >= total else ""
-        stream.write(f"\r{progress_bar(done, total)}{end}")
-        stream.flush()
+    if stream.isatty():
 
-    return show
+        def bar(done: int, total: int) -> None:
+            end = "\n" if done >= total else ""
+            stream.write(f"\r{progress_bar(done, total)}{end}")
+            stream.flush()
+
+        return bar
+    shown = [-1]  # the last tenth written
+
+    def lines(done: int, total: int) -> None:
+        tenth = PROGRESS_STEPS if done >= total else PROGRESS_STEPS * done // max(total, 1)
+        if tenth > shown[0]:
+            shown[0] = tenth
+            stream.write(f"recheck: {done:,} / {total:,} beams\n")
+            stream.flush()
+
+    return lines
 
 
-def changed_lines(pairs: list[tuple[Any, Any]], marks: dict[str, str]) -> list[str]:
-    """One line per beam whose status or governing check changed: mark, before -> after."""
-    from storage.results import changed
+Place = tuple[str, str, str, str]  # site name, mark, level, gridline ('' when not recorded)
 
-    out = []
-    for before, after in changed(pairs):
-        was = "no stored result" if before is None else f"{before.status} ({before.governing or '-'})"
-        now = f"{after.status} ({after.governing or '-'})"
-        util = "" if after.utilisation is None else f"  utilisation {after.utilisation:.2f}"
-        out.append(f"{marks.get(after.beam_id, after.beam_id)}  [{after.beam_id}]: {was} -> {now}{util}")
+
+def places(db: Any, beam_ids: list[str], chunk: int = 500) -> dict[str, Place]:
+    """Site name, mark, level and gridline of each beam in ``beam_ids`` (read ``chunk`` ids at a time)."""
+    out: dict[str, Place] = {}
+    for i in range(0, len(beam_ids), chunk):
+        ids = beam_ids[i : i + chunk]
+        rows = db.execute(
+            "SELECT b.id, json_extract(s.data, '$.name'), json_extract(b.data, '$.mark'), "
+            "json_extract(b.data, '$.level'), json_extract(b.data, '$.gridline') "
+            f"FROM beam b LEFT JOIN site s ON s.id = b.site_id WHERE b.id IN ({','.join('?' * len(ids))})",
+            ids,
+        ).fetchall()
+        out.update({r[0]: tuple(str(v or "") for v in r[1:]) for r in rows})
     return out
 
 
-def cmd_recheck(args: argparse.Namespace) -> int:
-    """Recheck every stored beam (or one site's), print the changes, store the results."""
-    from mobile.commands import _open_store
-    from storage.results import recheck_all
+def where(place: Place | None, beam_id: str) -> str:
+    """'Cedar Hollow Community Hall · RB-1 · grid A / 1-2 · level Roof  [beam id]': which beam, on which site."""
+    site, mark, level, gridline = place or ("", "", "", "")
+    parts = [site or "site not recorded", mark or "mark not recorded", f"grid {gridline or 'not recorded'}"]
+    parts += [f"level {level}"] if level else []
+    return f"{'  ·  '.join(parts)}  [{beam_id}]"
 
-    store = _open_store(args.db)
+
+def _util(value: float | None) -> str:
+    return "-" if value is None else f"{value:.2f}"
+
+
+def changed_lines(pairs: list[tuple[Any, Any]], where_of: dict[str, Place]) -> list[str]:
+    """One line per beam whose status or governing check changed: the beam and its site, before -> after.
+
+    Sorted by site, level, gridline and mark (the order a reviewer walks a site in).
+    """
+    from storage.results import changed
+
+    def order(pair: tuple[Any, Any]) -> tuple[str, ...]:
+        site, mark, level, gridline = where_of.get(pair[1].beam_id, ("", "", "", ""))
+        return site, level, gridline, mark, pair[1].beam_id
+
+    out = []
+    for before, after in sorted(changed(pairs), key=order):
+        was = "no stored result" if before is None else f"{before.status} ({before.governing or '-'})"
+        now = f"{after.status} ({after.governing or '-'})"
+        util = f"utilisation {'-' if before is None else _util(before.utilisation)} -> {_util(after.utilisation)}"
+        out.append(f"{where(where_of.get(after.beam_id), after.beam_id)}: {was} -> {now}  {util}")
+    return out
+
+
+def archived(db: Any, site_id: str | None) -> int:
+    """How many beams (of a site) are archived: the portfolio recheck leaves them out."""
+    sql = "SELECT count(*) FROM beam b WHERE coalesce(json_extract(b.data, '$.archived'), 0)"
+    return int(db.execute(sql + (" AND b.site_id = ?" if site_id else ""), [site_id] if site_id else []).fetchone()[0])
+
+
+def summary_line(rechecked: int, changed: int, new: int, skipped: int, util_only: int = 0) -> str:
+    """'rechecked 13 beams (1 archived beam not rechecked); 3 changed status or governing check, ...'.
+
+    ``new``: of the changed, those with no stored result before; ``util_only``: beams whose utilisation alone
+    moved (not listed: `tables impact` lists them).
+    """
+    left_out = f" ({skipped:,} archived beam{'s' if skipped != 1 else ''} not rechecked)" if skipped else ""
+    first = f", {new:,} of them with no stored result before" if new else ""
+    beams = f"{rechecked:,} beam{'s' if rechecked != 1 else ''}"
+    util = f"; {util_only:,} more changed utilisation only (`tables impact` lists them)" if util_only else ""
+    return f"rechecked {beams}{left_out}; {changed:,} changed status or governing check{first}{util}"
+
+
+def _site_arg(store: Any, name: str | None) -> str | None:
+    """The id of the site named by ``--site`` (None for every site); a user error naming the choices."""
+    if not name:
+        return None
     try:
-        site_id = store.find_site(args.site).id if args.site else None
+        return str(store.find_site(name).id)
     except KeyError as exc:
         raise UserError(str(exc.args[0])) from exc
-    processes = args.processes or min(2, os.cpu_count() or 1)
+
+
+def cmd_recheck(args: argparse.Namespace) -> int:
+    """Recheck every stored beam (or one site's), print the changes, the counts and the caution; store the results.
+
+    Exit 0 whether or not a result changed (the lines say what did); 2 on bad input.
+    """
+    from core.results import CAUTION
+    from mobile.commands import _open_store
+    from storage.results import changed, recheck_all
+
+    store = _open_store(args.db)
+    site_id = _site_arg(store, args.site)
+    processes = args.processes or min(2, os.cpu_count() or 1)  # 0: the default
     show = None if args.quiet else _progress(sys.stderr)
     run = recheck_all(store.db, site_id, processes=processes, on_progress=show)
-    sql = "SELECT id, json_extract(data, '$.mark') FROM beam" + (" WHERE site_id=?" if site_id else "")
-    marks = {i: str(m) for i, m in store.db.execute(sql, [site_id] if site_id else []).fetchall()}
-    lines = changed_lines(run.moved, marks)
+    moved = changed(run.moved)
+    lines = changed_lines(moved, places(store.db, [a.beam_id for _, a in moved]))
     for line in lines:
         print(line)
-    print(f"rechecked {run.rechecked:,} beams; {len(lines):,} changed status or governing check", file=sys.stderr)
+    new = sum(1 for b, _ in moved if b is None)
+    print(summary_line(run.rechecked, len(lines), new, archived(store.db, site_id), len(run.moved) - len(moved)))
+    print(CAUTION)
     return EXIT_OK
 
 
@@ -100,12 +186,12 @@ def impact_lines(store: Any, moved: list[tuple[Any, Any]]) -> list[str]:
     """
     moved = [(b, a) for b, a in moved if b is not None] + [(b, a) for b, a in moved if b is None]
     marks = dict(store.db.execute("SELECT id, json_extract(data, '$.mark') FROM beam").fetchall())
+    where_of = places(store.db, [a.beam_id for _, a in moved])
     lines = []
     for b, a in moved:
-        was = "no stored result" if b is None else f"{b.status} {b.governing} {b.utilisation}"
-        lines.append(
-            f"beam {marks.get(a.beam_id, a.beam_id)} [{a.beam_id}]: {was} -> {a.status} {a.governing} {a.utilisation}"
-        )
+        was = "no stored result" if b is None else f"{b.status} ({b.governing or '-'}) {_util(b.utilisation)}"
+        now = f"{a.status} ({a.governing or '-'}) {_util(a.utilisation)}"
+        lines.append(f"beam {where(where_of.get(a.beam_id), a.beam_id)}: {was} -> {now}")
     beams = {a.beam_id for _, a in moved}
     deficiency_beam = dict(store.db.execute("SELECT id, json_extract(data, '$.beam_id') FROM deficiency").fetchall())
     for nid, data in store.db.execute("SELECT id, data FROM issued_notice ORDER BY id").fetchall():
@@ -126,18 +212,36 @@ def impact_lines(store: Any, moved: list[tuple[Any, Any]]) -> list[str]:
 
 def cmd_tables_impact(args: argparse.Namespace) -> int:
     """Recheck every beam with the firm's tables; list beams and issued notices whose result changes."""
+    from core.results import CAUTION
     from mobile.commands import _open_store
     from storage.results import recheck_all
 
     store = _open_store(args.db)
-    processes = args.processes or min(2, os.cpu_count() or 1)
+    processes = args.processes or min(2, os.cpu_count() or 1)  # 0: the default
     run = recheck_all(store.db, None, processes=processes, on_progress=_progress(sys.stderr))
     lines = impact_lines(store, run.moved)
     for line in lines:
         print(line)
     if not lines:
-        print("no beam or issued notice changes with the firm's current tables", file=sys.stderr)
+        print("no beam or issued notice changes with the firm's current tables")
+    print(CAUTION)
     return EXIT_OK
+
+
+MAX_PROCESSES = 32  # worker processes a portfolio recheck may ask for
+PROCESSES_HELP = f"worker processes, 1 to {MAX_PROCESSES} (default: up to 2)"
+
+
+def processes_arg(text: str) -> int:
+    """``--processes``: a whole number from 1 to MAX_PROCESSES (argparse reports anything else, exit 2)."""
+    try:
+        value = int(text)
+    except ValueError:
+        value = 0
+    if not 1 <= value <= MAX_PROCESSES:
+        msg = f"{text!r} is not a whole number from 1 to {MAX_PROCESSES}"
+        raise argparse.ArgumentTypeError(msg)
+    return value
 
 
 def register(sub: Any) -> None:
@@ -145,7 +249,7 @@ def register(sub: Any) -> None:
     p = sub.add_parser("recheck", help="recheck every stored beam and list those whose result changed")
     p.add_argument("--db", required=True)
     p.add_argument("--site", help="only this site (name or id); all sites by default")
-    p.add_argument("--processes", type=int, default=0, help="worker processes (default: up to 2)")
+    p.add_argument("--processes", type=processes_arg, default=0, help=PROCESSES_HELP)
     p.add_argument("--quiet", action="store_true", help="no progress bar")
     p.set_defaults(func=cmd_recheck)
     tables = sub.add_parser("tables", help="the standard's table rows: status, a firm's verification, impact")
@@ -166,5 +270,5 @@ def register(sub: Any) -> None:
     p.set_defaults(func=cmd_tables_verify)
     p = tsub.add_parser("impact", help="recheck every beam; list beams and issued notices whose result changes")
     p.add_argument("--db", required=True)
-    p.add_argument("--processes", type=int, default=0)
+    p.add_argument("--processes", type=processes_arg, default=0, help=PROCESSES_HELP)
     p.set_defaults(func=cmd_tables_impact)

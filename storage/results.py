@@ -468,6 +468,16 @@ def _count(db: Any, site_id: str | None) -> int:
     return int(db.execute(f"SELECT count(*) FROM beam b WHERE {where}", [site_id] if site_id else []).fetchone()[0])
 
 
+def has_stale(db: Any, site_id: str) -> bool:
+    """True when a result of the site is stale: its beam, the site's bases or a table row changed since it was stored.
+
+    One probe of the partial index of stale rows (migration 4), for a screen that asks whether what it shows
+    is still current (a sync in another thread may have changed a beam).
+    """
+    sql = "SELECT 1 FROM beam_result WHERE site_id = ? AND input_hash = '' LIMIT 1"
+    return db.execute(sql, [site_id]).fetchone() is not None
+
+
 def refresh(db: Any, site_id: str) -> int:
     """Recompute (here, in this process) the stale results of a site; return how many were stale.
 

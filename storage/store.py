@@ -33,6 +33,7 @@ from storage.stamps import utc_stamp
 
 BEAM_FIELDS = tuple(Beam.model_fields)
 DEMO_FIRM_KEY = "bracewalk-demo-firm-key-not-for-production"  # DEMO ONLY: the demo database, never a firm's
+SITES_NAMED = 10  # sites named in the message when a name matches none or several
 
 
 def projection_digest(db: Any, leave_out_origin: str | None = None) -> str:
@@ -355,7 +356,7 @@ class Store:
         matches = [s for s in self.sites() if s.name.lower().startswith(name_or_id.lower())]
         if len(matches) == 1:
             return matches[0]
-        msg = f"no single site matches {name_or_id!r}"
+        msg = f"no single site matches {name_or_id!r}; {_site_choices(matches, self.sites())}"
         raise KeyError(msg)
 
     def start_visit(self, site_id: str, reviewer: str, started_at: str, **fields: Any) -> Visit:
@@ -815,3 +816,13 @@ class Store:
 
 
 __all__ = ["BEAM_FIELDS", "SET_ENTITIES", "IntegrityError", "LifecycleError", "Store"]
+
+
+def _site_choices(matches: list[Site], sites: list[Site]) -> str:
+    """What a site name could have been: the sites it starts (several), else every site (at most SITES_NAMED)."""
+    names = sorted(s.name for s in (matches or sites))
+    if not names:
+        return "no site is stored"
+    more = len(names) - SITES_NAMED
+    shown = "; ".join(names[:SITES_NAMED]) + (f"; and {more:,} more" if more > 0 else "")
+    return f"{len(matches):,} sites start with it: {shown}" if matches else f"sites: {shown}"

@@ -119,15 +119,31 @@ class SiteScreen(Screen):
         """Refresh from storage."""
         app = App.get_running_app()
         self.vm = SiteViewModel(app.store, app.site_id)
-        site = app.store.site(app.site_id)
-        self.title = ("DEMO  ·  " if site.demo else "") + f"{site.name}  ·  {site.address}"
+        self.title = self.vm.title()
         self.visit_text = self.vm.visit_line()
         self._rows = self.vm.beam_rows()
-        self.counts_text = self.vm.counts(self._rows)
         self.ids.level_filter.values = [ALL_LEVELS, *self.vm.levels(self._rows)]
         self.ids.status_filter.values = [ALL_STATUSES, *(status_label(s) for s in STATUS_WORDS)]
+        groups = self._groups()
+        self.counts_text = self.vm.counts(self._rows, shown=self.vm.shown(groups))  # its height, before the layout
         lay_out_now(self, self.manager.size)  # before the list gets its rows: they are placed once
-        self.show_beams()
+        self.show_beams(groups)
+        self.show_deficiencies()
+        self.unraised_text = self.vm.unraised_warning()
+
+    def after_sync(self) -> None:
+        """A background sync finished while this screen is shown: redraw what it may have changed.
+
+        The open deficiencies and the unraised warning always; the beam list and its counts when the sync
+        made any of this site's results stale, so no row keeps showing the status from before the sync.
+        The search, the filters and the list's scroll position stay as they are.
+        """
+        if not hasattr(self, "vm"):
+            return
+        if self.vm.stale():
+            self._rows = self.vm.beam_rows()
+            self.ids.level_filter.values = [ALL_LEVELS, *self.vm.levels(self._rows)]
+            self.show_beams()
         self.show_deficiencies()
         self.unraised_text = self.vm.unraised_warning()
 
@@ -136,12 +152,17 @@ class SiteScreen(Screen):
         if hasattr(self, "vm"):
             self.show_beams()
 
-    def show_beams(self) -> None:
-        """The beams that match the search and filters, grouped by level, in the recycling list."""
+    def _groups(self) -> list[tuple[str, list[tuple[str, str, str]]]]:
+        """The beams that match the search and filters, grouped by level."""
         level = "" if self.ids.level_filter.text == ALL_LEVELS else self.ids.level_filter.text
         status = next((s for s in STATUS_WORDS if status_label(s) == self.ids.status_filter.text), "")
-        groups = self.vm.groups(self.ids.search.text, level, status, rows=self._rows)
+        return self.vm.groups(self.ids.search.text, level, status, rows=self._rows)
+
+    def show_beams(self, groups: list[tuple[str, list[tuple[str, str, str]]]] | None = None) -> None:
+        """The beams that match the search and filters (``groups`` when already found), in the recycling list."""
+        groups = self._groups() if groups is None else groups
         data = list_data(groups, {beam_id: st for beam_id, _, st in self._rows})
+        self.counts_text = self.vm.counts(self._rows, shown=self.vm.shown(groups))
         if not data:
             data = [{"viewclass": "BeamHeading", "text": "No beam matches."}]
         presize(self.ids.beam_list.layout_manager, len(data))

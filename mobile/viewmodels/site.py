@@ -24,6 +24,7 @@ NEW_BEAM_DEFAULTS: dict[str, Any] = {
     "top_edge": {"braced_by": "none", "spacing_mm": None, "fastened": None},  # not recorded: taken as not fastened
 }
 LEVEL_NOT_RECORDED = "level not recorded"
+UNRAISED_NAMED = 30  # beams the unraised-findings warning names before "and N more" (its count comes first)
 PINNED = "▲ IMMEDIATE open: pinned"  # beams with an open IMMEDIATE deficiency, shown first (also under their level)
 
 
@@ -52,6 +53,14 @@ class SiteViewModel:
         with gc_paused():
             results.refresh(self.store.db, self.site_id)
             return results.site_list(self.store.db, self.site_id)
+
+    def stale(self) -> bool:
+        """True when a result of this site changed underneath the screen since it was read.
+
+        A sync in its worker thread (its own connection) that brings an edit of a beam, of the site's
+        design basis or of a firm table row marks the results it touches stale (storage/db.py triggers).
+        """
+        return results.has_stale(self.store.db, self.site_id)
 
     def groups(
         self,
@@ -89,13 +98,29 @@ class SiteViewModel:
         return sorted({str(r.get("level") or LEVEL_NOT_RECORDED) for _, r, _ in rows})
 
     @staticmethod
-    def counts(rows: list[tuple[str, dict[str, Any], str]]) -> str:
-        """'12 beams:  ● 8 OK  ·  ▲ 3 DEFICIENT  ·  ✖ 1 NOT ESTABLISHED' (every status that occurs)."""
+    def counts(rows: list[tuple[str, dict[str, Any], str]], shown: int | None = None) -> str:
+        """'1,200 beams:  ● 800 OK  ·  ▲ 390 DEFICIENT  ·  ✖ 10 NOT ESTABLISHED' (every status that occurs).
+
+        ``shown``: how many beams the search and filters leave in the list; said when it is not every beam.
+        """
         tally: dict[str, int] = {}
         for _, _, st in rows:
             tally[st] = tally.get(st, 0) + 1
-        parts = [f"{STATUS_WORDS[st][1]} {tally[st]} {STATUS_WORDS[st][0]}" for st in STATUS_WORDS if st in tally]
-        return f"{len(rows)} beams:  " + "  ·  ".join(parts) if rows else "No beams logged yet."
+        parts = [f"{STATUS_WORDS[st][1]} {tally[st]:,} {STATUS_WORDS[st][0]}" for st in STATUS_WORDS if st in tally]
+        if not rows:
+            return "No beams logged yet."
+        line = f"{len(rows):,} beams:  " + "  ·  ".join(parts)
+        return line if shown is None or shown == len(rows) else f"{line}\n{shown:,} shown (search or filter)"
+
+    @staticmethod
+    def shown(groups: list[tuple[str, list[tuple[str, str, str]]]]) -> int:
+        """How many beams ``groups`` lists (a pinned beam is also under its level: counted once)."""
+        return sum(len(beams) for where, beams in groups if where != PINNED)
+
+    def title(self) -> str:
+        """'DEMO  ·  name  ·  address' (the address and the demo mark only when there are)."""
+        site = self.store.site(self.site_id)
+        return "  ·  ".join([*(["DEMO"] if site.demo else []), site.name, *([site.address] if site.address else [])])
 
     def unraised(self) -> list[str]:
         """'RB-7 (2 findings)' for each beam whose recheck has findings not yet raised as deficiencies.
@@ -124,7 +149,10 @@ class SiteViewModel:
         marks = self.unraised()
         if not marks:
             return ""
-        return "▲ Findings not yet raised (not on any notice): " + ", ".join(marks)
+        more = len(marks) - UNRAISED_NAMED
+        named = ", ".join(marks[:UNRAISED_NAMED]) + (f" and {more:,} more" if more > 0 else "")
+        beams = f"{len(marks):,} beam{'s' if len(marks) != 1 else ''}"
+        return f"▲ Findings not yet raised on {beams} (not on any notice): {named}"
 
     def deficiency_groups(self) -> list[tuple[str, list[tuple[str, str]]]]:
         """Open deficiencies by priority, most urgent first: [(priority label with its count, [(id, line)])].

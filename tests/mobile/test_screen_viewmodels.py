@@ -323,9 +323,9 @@ def test_site_search_filters_and_counts(demo):
     assert deficient
     assert all("DEFICIENT" in x for x in deficient)
     counts = vm.counts(rows)
-    assert counts.startswith(f"{len(rows)} beams:")
+    assert counts.startswith(f"{len(rows):,} beams:")
     # the counts add up to the beams (each beam has one status)
-    assert sum(int(p.split()[1]) for p in counts.split(":", 1)[1].split("·")) == len(rows)
+    assert sum(int(p.split()[1].replace(",", "")) for p in counts.split(":", 1)[1].split("·")) == len(rows)
     assert "Roof" in vm.levels(rows)
 
 

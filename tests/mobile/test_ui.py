@@ -120,6 +120,12 @@ def test_first_site_open_places_the_beam_list_once(tmp_path, geometry):
     assert "UI-OK" in out, out[-3000:]
 
 
+def test_the_site_list_follows_a_sync_that_changed_a_beam(tmp_path):
+    """A background sync finishing on the site screen redraws the rows whose results it made stale."""
+    out = run_app(tmp_path / "y.db", ROOT / "test-artefacts" / "ui", "site-after-sync", tmp_path / "home")
+    assert "UI-OK" in out, out[-3000:]
+
+
 def test_a_screenshot_shows_the_state_the_step_left(tmp_path):
     """The driver's screenshots wait for the frame that draws the change (they lagged a frame on the sync screen).
 

@@ -938,6 +938,53 @@ elif FLOW == "site-layout-once":
         rows = [w for w in layout.children if getattr(w, "beam_id", "")]
         assert rows, f"the beam list shows no beam: {[type(w).__name__ for w in layout.children]}"
 
+elif FLOW == "site-after-sync":
+    # a sync that finishes while the site screen is shown redraws the rows whose results it changed (they kept
+    # the status from before the sync: found in the session-25 review)
+    from core.recheck import recheck
+    from mobile.viewmodels.common import status_label
+    from storage import Store
+
+    seen = {}
+
+    def row_text(beam_id):
+        return next(d["text"] for d in screen("site").ids.beam_list.data if d.get("beam_id") == beam_id)
+
+    @step
+    def open_site():
+        app.open_site(next(s.id for s in app.store.sites() if "Cedar" in s.name))
+        seen["id"] = demo_beam("RB-1")
+        yield from shot("site-before-sync")
+        seen["before"] = row_text(seen["id"])
+        assert seen["before"].startswith(status_label("ok")), seen["before"]
+
+    @step
+    def pulled_edit():
+        other = Store(app.store.path)  # the sync worker writes through its own connection
+        other.update_beam(seen["id"], {"d_mm": 152})  # a far shallower member than logged
+        seen["expect"] = status_label(recheck(other.beam(seen["id"])).status.value)
+        other.close()
+        assert seen["expect"] != seen["before"].split("      ")[0], seen["expect"]
+        real = app.background.poll
+
+        def finished_once(_now_s):
+            app.background.poll = real
+            return True  # a background sync has just finished
+
+        app.background.poll = finished_once
+
+    @step
+    def row_follows():
+        if "finished_once" in getattr(app.background.poll, "__name__", ""):
+            raise TimeoutError  # the app's timer has not polled yet: the runner tries again
+        yield from shot("site-after-sync")
+        now = row_text(seen["id"])
+        print(f"ROW before {seen['before']!r} after {now!r}", flush=True)
+        assert now.startswith(seen["expect"]), f"after the sync the row shows {now!r}; its recheck: {seen['expect']}"
+        warning = screen("site").unraised_text
+        print(f"UNRAISED {warning!r}", flush=True)
+        assert "RB-1 (" in warning, warning  # its new findings are not on any notice yet
+
 elif FLOW == "shot-current":
     # a screenshot shows the state the step left, not the frame before it (the sync screen's lag)
 

@@ -83,15 +83,15 @@ def test_recheck_command_lists_changes_then_nothing(tmp_path, capsys):
     _, ids = _site(store)
     assert main(["recheck", "--db", str(db)]) == 0
     out, err = capsys.readouterr()
-    assert len(out.splitlines()) == 3
+    assert len(out.splitlines()) == 3 + 2  # the beams, the counts, the caution
     assert "no stored result" in out  # first run: every beam is new
-    assert "3 / 3 beams" in err  # the progress bar
+    assert "3 / 3 beams" in err  # the progress
     assert main(["recheck", "--db", str(db), "--site", "Yard", "--quiet"]) == 0
-    assert capsys.readouterr().out == ""
+    assert capsys.readouterr().out.startswith("rechecked 3 beams; 0 changed")
     store.db.execute("UPDATE beam_result SET status='deficient', governing='shear' WHERE beam_id=?", [ids[2]])
     assert main(["recheck", "--db", str(db), "--quiet"]) == 0
     out = capsys.readouterr().out
-    assert out.startswith("B-2")
+    assert out.startswith("Yard  ·  B-2")
     assert "deficient (shear) ->" in out
     assert main(["recheck", "--db", str(db), "--site", "nowhere"]) == 2
 

@@ -1,0 +1,62 @@
+"""The site screen's words on a large site (session-25 review, 10,000 beams at tablet geometries).
+
+Found there: the unraised-findings warning listed ~2,800 marks in one line cut off after the first few,
+so the reviewer never saw how many beams had findings not yet raised; the counts line printed 10000
+without a separator and said nothing of how many beams a search left; a site without an address had a
+title ending in a lone separator.
+"""
+
+import pytest
+
+from mobile.viewmodels import SiteViewModel
+from mobile.viewmodels.site import PINNED, UNRAISED_NAMED
+from storage import Store
+from tests.core.beams import glulam
+
+
+@pytest.fixture
+def store(tmp_path):
+    return Store(tmp_path / "big.db")
+
+
+def _overstressed(store, site_id, n):
+    """N beams that fail their recheck (a 190 mm deep glulam over 7.2 m under demo-style roof loads)."""
+    return [
+        store.save_beam(site_id, glulam(mark=f"B-{i}", d_mm=190), {"level": "Roof", "gridline": f"A/{i}"})
+        for i in range(n)
+    ]
+
+
+def test_the_unraised_warning_counts_the_beams_first_and_names_a_bounded_few(store):
+    site = store.create_site(name="Depot")
+    vm = SiteViewModel(store, site.id)
+    _overstressed(store, site.id, UNRAISED_NAMED + 5)
+    marks = vm.unraised()
+    assert len(marks) == UNRAISED_NAMED + 5  # every beam has a finding not raised
+    text = vm.unraised_warning()
+    assert text.startswith(f"▲ Findings not yet raised on {UNRAISED_NAMED + 5} beams (not on any notice): ")
+    assert text.endswith(f"{marks[UNRAISED_NAMED - 1]} and 5 more")
+    assert marks[UNRAISED_NAMED] not in text.split(": ", 1)[1].split(", ")
+    one = store.create_site(name="Shed")
+    _overstressed(store, one.id, 1)
+    assert SiteViewModel(store, one.id).unraised_warning().startswith("▲ Findings not yet raised on 1 beam (")
+
+
+def test_counts_use_thousands_separators_and_say_how_many_a_search_shows():
+    rows = [(f"b{i}", {"mark": f"B-{i}"}, "ok" if i % 4 else "deficient") for i in range(10_000)]
+    assert SiteViewModel.counts(rows) == "10,000 beams:  ● 7,500 OK  ·  ▲ 2,500 DEFICIENT"
+    assert SiteViewModel.counts(rows, shown=10_000) == SiteViewModel.counts(rows)
+    assert SiteViewModel.counts(rows, shown=111).endswith("\n111 shown (search or filter)")
+    assert SiteViewModel.counts([], shown=0) == "No beams logged yet."
+
+
+def test_shown_counts_a_pinned_beam_once():
+    groups = [(PINNED, [("b1", "B-1", "▲ DEFICIENT")]), ("Roof", [("b1", "B-1", "▲ DEFICIENT"), ("b2", "B-2", "")])]
+    assert SiteViewModel.shown(groups) == 2
+
+
+def test_the_title_has_no_lone_separator_without_an_address(store):
+    bare = store.create_site(name="Depot")
+    assert SiteViewModel(store, bare.id).title() == "Depot"
+    full = store.create_site(name="Arena", address="12 Main St")
+    assert SiteViewModel(store, full.id).title() == "Arena  ·  12 Main St"
