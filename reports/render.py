@@ -81,6 +81,40 @@ WIDTH = 174 * mm  # the text width on both Letter and A4 (18 mm margins on A4)
 GREY = colors.Color(0.93, 0.93, 0.93)
 
 
+FOOTER_PT = 8
+FOOTER_LEADING = 9.6
+FOOTER_BASELINE = 10 * mm  # the footer's lowest line
+WIDEST_PAGE_LABEL = "page 8888 of 8888"
+
+
+def footer_room(page_width: float, hashed: bool) -> float:
+    """Width for the footer's left text: it ends 3 mm before the hash short form, or before the page label."""
+    if hashed:
+        hash_w = pdfmetrics.stringWidth(stamp.placeholder_footer(), HASH_FONT, FOOTER_PT)
+        end = page_width / 2 + 20 * mm - hash_w / 2
+    else:
+        _register_fonts()
+        end = page_width - 18 * mm - pdfmetrics.stringWidth(WIDEST_PAGE_LABEL, FONT, FOOTER_PT)
+    return end - 3 * mm - 18 * mm
+
+
+def footer_paragraph(text: str, page_width: float, hashed: bool) -> tuple[Paragraph, float]:
+    """The footer's left text (notice number, site) set in fonts that have its script, wrapped to its room.
+
+    Returns the paragraph, wrapped, and its height: a long site name takes more lines, never the hash's
+    or the page label's place (the body's bottom margin grows by the extra lines, ``footer_extra``).
+    """
+    style = ParagraphStyle("footer", fontName=FONT, fontSize=FOOTER_PT, leading=FOOTER_LEADING, wordWrap="CJK")
+    para = Paragraph(esc(text), style)
+    _, height = para.wrap(footer_room(page_width, hashed), 10 * FOOTER_LEADING)
+    return para, height
+
+
+def footer_extra(text: str, page_width: float, hashed: bool) -> float:
+    """How much higher than one line the footer's left text reaches (0 when it fits on one line)."""
+    return max(0.0, footer_paragraph(text, page_width, hashed)[1] - FOOTER_LEADING)
+
+
 class NumberedCanvas(rl_canvas.Canvas):
     """Canvas that prints 'page X of Y', the notice number and the hash short form on every page."""
 
@@ -101,11 +135,14 @@ class NumberedCanvas(rl_canvas.Canvas):
     def save(self) -> None:
         """Stamp every held page with its number of the total, then write."""
         total = len(self._pages)
+        left: tuple[Paragraph, float] | None = None
         for state in self._pages:
             self.__dict__.update(state)
             width, height = self._pagesize
-            self.setFont(FONT, 8)
-            self.drawString(18 * mm, 10 * mm, self.footer_left)
+            left = left or footer_paragraph(self.footer_left, width, bool(self.footer_right))
+            # the paragraph's last line on the footer's baseline: its lines above it, never beside the hash
+            left[0].drawOn(self, 18 * mm, FOOTER_BASELINE - (FOOTER_LEADING - FOOTER_PT))
+            self.setFont(FONT, FOOTER_PT)
             self.drawRightString(width - 18 * mm, 10 * mm, f"page {self._pageNumber} of {total}")
             if self.footer_right:
                 self.setFont(HASH_FONT, 8)
@@ -358,11 +395,16 @@ def _summary(n: Notice, st: dict[str, ParagraphStyle]) -> Table:
     return t
 
 
-def _photo_cells(photos: list[bytes | Photo], st: dict[str, ParagraphStyle]) -> list[Any]:
-    cells = []
-    for k, ph in enumerate(photos[:3]):
-        cells.append(photo_flowable(ph, k + 1, st["small"]))
-    return cells
+PHOTOS_PER_ROW = 3
+
+
+def _photo_table(photos: list[bytes | Photo], st: dict[str, ParagraphStyle]) -> Table:
+    """Every photo, numbered, three to a row (a fourth and later photo starts a new row, never left out)."""
+    cells: list[Any] = [photo_flowable(ph, k + 1, st["small"]) for k, ph in enumerate(photos)]
+    rows = [cells[k : k + PHOTOS_PER_ROW] for k in range(0, len(cells), PHOTOS_PER_ROW)]
+    if len(rows) > 1:
+        rows[-1] += [""] * (PHOTOS_PER_ROW - len(rows[-1]))
+    return Table(rows, hAlign="LEFT")
 
 
 def _member_block(group: list[Item], st: dict[str, ParagraphStyle]) -> list[Any]:
@@ -379,13 +421,15 @@ def _member_block(group: list[Item], st: dict[str, ParagraphStyle]) -> list[Any]
             head.append(beam_sketch(first.sketch, width_pt=WIDTH, height_pt=44 * mm))
         photos = first.member_photos
         if photos:
-            head.append(Table([_photo_cells(photos, st)], hAlign="LEFT"))
+            head.append(_photo_table(photos, st))
         out.append(KeepTogether(head))
         if first.checks:
             out.append(_engineering(first, st, [i.number for i in group]))
     for item in group:
         rows = [("Location", item.location)]
-        if not item.member:  # a member's block already describes what was observed
+        if not item.member and item.observed.strip() != item.finding.strip():
+            # a member's block already describes what was observed; an item not on a beam whose observation
+            # is its finding (build_notice passes the description) prints it once, as the finding
             rows.append(("Observed", item.observed))
         rows += [
             ("Finding", item.finding),
@@ -415,7 +459,7 @@ def _member_block(group: list[Item], st: dict[str, ParagraphStyle]) -> list[Any]
         if not item.member and item.checks:
             parts.append(_engineering(item, st, [item.number]))
         if item.photos:
-            parts.append(Table([_photo_cells(item.photos, st)], hAlign="LEFT"))
+            parts.append(_photo_table(item.photos, st))
         out.append(KeepTogether(parts))
     return out
 
@@ -459,8 +503,10 @@ def _engineering(item: Item, st: dict[str, ParagraphStyle], numbers: list[str] |
                 Paragraph(esc(c.clause), s),
             ]
         )
+    # named: when the table starts a page, the member's heading is on the page before
+    of = f", {esc(item.member_title)}" if item.member_title else ""
     parts: list[Any] = [
-        Paragraph("Engineering detail (for the engineer of record)", st["h3"]),
+        Paragraph(f"Engineering detail{of} (for the engineer of record)", st["h3"]),
         _grid(rows, [34 * mm, 42 * mm, 42 * mm, 28 * mm, 28 * mm], shade_first_col=False),
     ]
     passing = passes_as_installed(item, numbers or [item.number])
@@ -530,13 +576,15 @@ def render_notice(n: Notice, stamp_hash: bool = False) -> bytes:
     buf = io.BytesIO()
     kind = "Close-out notice" if n.kind == "close-out" else "Deficiency notice"
     rev = f" rev {n.revision}" if n.revision else ""
+    footer = f"{n.notice_number}{rev} · {n.site_name}"
+    page = PAGE_SIZES.get(n.page_size, LETTER)
     doc = SimpleDocTemplate(
         buf,
-        pagesize=PAGE_SIZES.get(n.page_size, LETTER),
+        pagesize=page,
         leftMargin=18 * mm,
         rightMargin=18 * mm,
         topMargin=15 * mm,
-        bottomMargin=18 * mm,
+        bottomMargin=18 * mm + footer_extra(footer, page[0], stamp_hash),
         title=f"{kind} {n.notice_number}{rev}, {n.site_name}",
         author=n.reviewer,
         subject=f"{kind} to {n.addressed_to}",
@@ -578,7 +626,6 @@ def render_notice(n: Notice, stamp_hash: bool = False) -> bytes:
     for c in n.cautions:
         story.append(Paragraph("• " + esc(c), st["small"]))
     story += [Spacer(1, 8), _signature(n, st)]
-    footer = f"{n.notice_number}{rev} · {n.site_name}"
 
     class _Canvas(NumberedCanvas):
         footer_left = footer

@@ -1,0 +1,193 @@
+"""Defects a fresh-eyes review of a large notice (150 and 500 items, photos of every shape) found.
+
+Each test fails on the code before its fix. Sources: a contractor and the engineer of record act on
+what is printed, so nothing logged is left out, every page says which notice and page it is, and a
+table that starts a page says what it belongs to (common practice for construction documents and
+drawing sets); positions and widths are reportlab's own measures (``pdfmetrics.stringWidth``) of the
+text pypdf reads back with its transformation matrix.
+"""
+
+import io
+
+from PIL import Image
+from pypdf import PdfReader
+from reportlab.lib.units import mm
+from reportlab.pdfbase.pdfmetrics import stringWidth
+from reportlab.pdfgen import canvas as rl_canvas
+
+from core import recheck
+from core.records import Deficiency
+from mobile.issue import observed_text
+from reports.content import Photo, item_for
+from reports.photos import photo_flowable
+from reports.render import FONT, HASH_FONT, _styles, render_notice
+from tests.core.beams import glulam
+from tests.reports.test_notice import _notice, save_pngs
+
+FREE = {"lateral": True, "rotation": False, "length_mm": 140}
+HELD = {"lateral": True, "rotation": True, "length_mm": 140}
+SIZES = [(2048, 1536), (1536, 2048), (4000, 500), (40, 30), (3000, 2000)]  # landscape, portrait, very wide, tiny
+
+
+def _jpeg(size, shade=120):
+    out = io.BytesIO()
+    Image.new("RGB", size, (shade, 110, 140)).save(out, "JPEG", quality=80)
+    return out.getvalue()
+
+
+def _photos(prefix, count):
+    return [
+        Photo(
+            sha256=f"{prefix}{k}",
+            load=lambda k=k: _jpeg(SIZES[k % len(SIZES)], 60 + 30 * k),
+            caption=f"{prefix} {k + 1}",
+        )
+        for k in range(count)
+    ]
+
+
+def _item(number="D-AB12-001", photos=(), member_photos=(), title="RB-9 · Roof · grid C / 2-3", **beam):
+    b = glulam(mark="RB-9", bearings=[HELD, FREE], **beam)
+    d = Deficiency(
+        id=number, site_id="s", beam_id="b1", number=number, code="x", priority="immediate",
+        location="Roof, grid C / 2-3, RB-9, support 2", description="RB-9 at support 2: no restraint.",
+        reference="S-201", action="Install the bearing restraint.",
+    )  # fmt: skip
+    return item_for(
+        d, b, recheck(b), "as built", list(photos), member_title=title, member_photos=list(member_photos),
+        gridline="C / 2-3",
+    )  # fmt: skip
+
+
+def _pages(pdf):
+    return [p.extract_text() or "" for p in PdfReader(io.BytesIO(pdf)).pages]
+
+
+# 1. an item's fourth and later photos were left out (the renderer took the first three); a member's too
+
+
+def test_every_photo_of_an_item_and_of_a_member_is_printed():
+    item = _item(photos=_photos("item view", 5), member_photos=_photos("beam view", 4))
+    pdf = render_notice(_notice([item]))
+    text = " ".join(" ".join(_pages(pdf)).split())
+    for k in range(1, 6):
+        assert f"Photo {k}: item view {k}" in text
+    for k in range(1, 5):
+        assert f"Photo {k}: beam view {k}" in text
+    images = sum(
+        len(p["/Resources"]["/XObject"]) for p in PdfReader(io.BytesIO(pdf)).pages if "/XObject" in p["/Resources"]
+    )
+    assert images == 9
+    save_pngs(pdf, "notice25-photos")
+
+
+# 2. the engineering table, when it starts a page, said "Engineering detail" without naming the member
+
+
+def test_the_engineering_detail_heading_names_its_member():
+    pdf = render_notice(_notice([_item()]))
+    text = " ".join(" ".join(_pages(pdf)).split())
+    assert "Engineering detail, RB-9 · Roof · grid C / 2-3 (for the engineer of record)" in text
+
+
+# 3. a long site name ran into the footer's hash; a site name in another script printed as empty boxes
+
+
+def _runs(pdf, page=0, below=20 * mm):
+    """(text, x, y, font, size) of every text run whose baseline is below ``below`` on a page."""
+    runs = []
+
+    def visit(text, cm, tm, font, size):
+        x, y = cm[4] + tm[4] * cm[0], cm[5] + tm[5] * cm[3]
+        if text.strip() and y < below:
+            runs.append((text, x, y, str((font or {}).get("/BaseFont", "")), size))
+
+    PdfReader(io.BytesIO(pdf)).pages[page].extract_text(visitor_text=visit)
+    return runs
+
+
+def _footer_runs(pdf, page=0):
+    """The footer's runs: what is drawn within 25 mm of the page's foot with the footer's 8 pt size."""
+    return [r for r in _runs(pdf, page, 25 * mm) if r[4] == 8 and r[2] < 20 * mm]
+
+
+def _width(text, font):
+    return stringWidth(text, HASH_FONT if "Courier" in font else FONT, 8)
+
+
+def test_a_long_site_name_in_the_footer_stays_clear_of_the_hash_and_the_page_number():
+    name = "Harrowgate Cold Storage and Maker Hall, Building C (north annex and the loading dock extension)"
+    pdf = render_notice(_notice([_item()], site_name=name), stamp_hash=True)
+    runs = _footer_runs(pdf)
+    hash_run = next(r for r in runs if r[0].startswith("SHA-256 "))
+    page_run = next(r for r in runs if r[0].startswith("page 1 of"))
+    left = [r for r in runs if r not in (hash_run, page_run)]
+    assert "Building C" in " ".join(r[0] for r in left)  # the name is printed whole (wrapped), not cut
+    for y in {r[2] for r in left}:  # each line: its runs side by side from its first run's x
+        line = [r for r in left if r[2] == y]
+        end = min(r[1] for r in line) + sum(_width(r[0], r[3]) for r in line)
+        if abs(y - hash_run[2]) < 8:  # on the hash's line: it ends before the hash starts
+            assert end < hash_run[1], line
+        assert end < page_run[1], line
+    assert len({round(r[2]) for r in left}) > 1  # wrapped onto more than one line
+    # the wrapped footer stays below the page's text: the lowest body line sits above the footer's top line
+    body = [r for r in _runs(pdf, 0, 1000) if r not in runs]
+    assert min(r[2] for r in body) > max(r[2] for r in left) + 8
+    save_pngs(pdf, "notice25-footer-long-name")
+
+
+def test_a_site_name_in_another_script_prints_in_the_footer_in_a_font_that_has_it():
+    pdf = render_notice(_notice([_item()], site_name="Harrowgate 冷蔵倉庫 Hall"), stamp_hash=True)
+    cjk = [r for r in _footer_runs(pdf) if "冷" in r[0]]
+    assert cjk
+    assert all("BWSans" not in font and "DejaVu" not in font for _, _, _, font, _ in cjk), cjk
+
+
+# 4. an item not on a beam printed its description twice (as "Observed" and again as "Finding")
+
+
+def test_an_item_not_on_a_beam_prints_its_description_once():
+    text = "Temporary guard missing at the stair opening. The lumber stack sits on the slab edge."
+    d = Deficiency(
+        id="o1", site_id="s", number="D-AB12-050", code="reviewer_observation", priority="before_next_review",
+        location="Level 2, grid C-D / 2", description=text, reference="Site safety", action="Reinstate it.",
+    )  # fmt: skip
+    other = Deficiency(**dict(d.model_dump(), id="o2", number="D-AB12-051"))
+    pdf = render_notice(_notice([item_for(d, None, None, text), item_for(other, None, None, "seen from the stair")]))
+    flat = " ".join(" ".join(_pages(pdf)).split())
+    # once per item's Finding (the summary prints only the first sentence)
+    assert flat.count("The lumber stack sits on the slab edge.") == 2
+    assert "Observed seen from the stair" in flat  # an observation that differs from the finding still prints
+
+
+# 5. the as-built line said nothing when the top edge was recorded as not braced
+
+
+def test_the_as_built_line_says_when_the_top_edge_is_not_braced():
+    record = glulam(top_edge={"braced_by": "none"}).model_dump(mode="json")
+    assert "top edge not braced" in observed_text(record)
+
+
+# 6. a very wide photo sat at the top of its box, its caption a box-height below it
+
+
+class _Recording(rl_canvas.Canvas):
+    def __init__(self):
+        super().__init__(io.BytesIO())
+        self.images = []
+
+    def drawImage(self, image, x, y, width=None, height=None, **kw):
+        self.images.append((image, x, y, width, height))
+
+
+def test_a_photo_sits_directly_above_its_caption_whatever_its_shape():
+    style = _styles()["small"]
+    for size in SIZES:
+        flow = photo_flowable(Photo(sha256="w", load=lambda s=size: _jpeg(s), caption="wide"), 1, style)
+        _, height = flow.wrap(200 * mm, 200 * mm)
+        canv = _Recording()
+        flow.canv = canv
+        flow.draw()
+        (_, _, y, _, h), caption_h = canv.images[0], flow._cap_h
+        assert abs(y - (caption_h + 2)) < 0.01, size  # the image's lower edge is 2 pt above the caption
+        assert y + h <= height + 0.01
