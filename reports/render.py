@@ -15,6 +15,7 @@ from reportlab.pdfbase import pdfmetrics
 from reportlab.pdfbase.ttfonts import TTFont
 from reportlab.pdfgen import canvas as rl_canvas
 from reportlab.platypus import (
+    FrameBreak,
     Image,
     KeepTogether,
     PageBreak,
@@ -338,11 +339,15 @@ class _ContinuedTable(Table):
     """A table split across pages with its marks: a continuation line, then a '(continued)' heading.
 
     'The summary continues on the next page' goes under the first part; the next part starts with the
-    '(continued)' heading, then the repeated header row.
+    '(continued)' heading, then the repeated header row. With ``heading_when_moved`` (an item's photos),
+    a table of which not one row fits where it stands goes to the next page under the heading too, so
+    what it shows is never on a page that does not say what it belongs to.
     """
 
     continued_heading: Any = None  # Flowables set on the instance, passed to the parts a split makes
     continues_mark: Any = None
+    heading_when_moved = False
+    _moved = False  # already moved under its heading once: not again (a row taller than a page)
 
     def split(self, availWidth: float, availHeight: float) -> list[Any]:
         """Split as a Table does, leaving room for the mark; the later part is kept with its heading."""
@@ -350,10 +355,16 @@ class _ContinuedTable(Table):
             return list(super().split(availWidth, availHeight))
         _, mark_h = self.continues_mark.wrap(availWidth, availHeight)
         parts = list(super().split(availWidth, availHeight - mark_h))
+        if not parts and self.heading_when_moved and not self._moved:
+            self._moved = True
+            # the mark when it fits here, else a frame break: what a split returns first must fit where it stands
+            first = self.continues_mark if mark_h <= availHeight else FrameBreak()
+            return [first, KeepTogether([self.continued_heading, self])]
         if len(parts) < 2:
             return parts
         for part in parts:
             part.continued_heading, part.continues_mark = self.continued_heading, self.continues_mark
+            part.heading_when_moved = self.heading_when_moved
         return [parts[0], self.continues_mark, KeepTogether([self.continued_heading, *parts[1:]])]
 
 
@@ -398,13 +409,25 @@ def _summary(n: Notice, st: dict[str, ParagraphStyle]) -> Table:
 PHOTOS_PER_ROW = 3
 
 
-def _photo_table(photos: list[bytes | Photo], st: dict[str, ParagraphStyle]) -> Table:
-    """Every photo, numbered, three to a row (a fourth and later photo starts a new row, never left out)."""
+def _photo_table(photos: list[bytes | Photo], st: dict[str, ParagraphStyle], of: str) -> Table:
+    """Every photo, numbered, three to a row (a fourth and later photo starts a new row, never left out).
+
+    ``of`` names what the photos show ('item D-AB12-001'): photos that cross to the next page, or go
+    there whole, open it under 'Photos of item D-AB12-001 (continued)'.
+    """
     cells: list[Any] = [photo_flowable(ph, k + 1, st["small"]) for k, ph in enumerate(photos)]
     rows = [cells[k : k + PHOTOS_PER_ROW] for k in range(0, len(cells), PHOTOS_PER_ROW)]
     if len(rows) > 1:
         rows[-1] += [""] * (PHOTOS_PER_ROW - len(rows[-1]))
-    return Table(rows, hAlign="LEFT")
+    return _continued(_ContinuedTable(rows, hAlign="LEFT"), f"Photos of {of}", st, "continue")
+
+
+def _continued(table: Table, what: str, st: dict[str, ParagraphStyle], verb: str = "continues") -> Table:
+    """``table`` (a _ContinuedTable) marked as ``what`` (markup) where it crosses a page or moves whole to the next."""
+    table.continued_heading = Paragraph(f"{what} (continued)", st["h3"])
+    table.continues_mark = Paragraph(f"<i>{what} {verb} on the next page.</i>", st["small"])
+    table.heading_when_moved = True
+    return table
 
 
 def _member_block(group: list[Item], st: dict[str, ParagraphStyle]) -> list[Any]:
@@ -421,7 +444,7 @@ def _member_block(group: list[Item], st: dict[str, ParagraphStyle]) -> list[Any]
             head.append(beam_sketch(first.sketch, width_pt=WIDTH, height_pt=44 * mm))
         photos = first.member_photos
         if photos:
-            head.append(_photo_table(photos, st))
+            head.append(_photo_table(photos, st, f"member {esc(first.member_title or first.location)}"))
         out.append(KeepTogether(head))
         if first.checks:
             out.append(_engineering(first, st, [i.number for i in group]))
@@ -452,14 +475,14 @@ def _member_block(group: list[Item], st: dict[str, ParagraphStyle]) -> list[Any]
         parts: list[Any] = [
             Spacer(1, 4),
             Paragraph(f"Item {esc(item.number)}", st["h3"]),
-            _grid(grid_rows, [30 * mm, 144 * mm]),
+            _continued(_grid(grid_rows, [30 * mm, 144 * mm], table=_ContinuedTable), f"Item {esc(item.number)}", st),
         ]
         if not item.member and item.sketch is not None:
             parts.append(beam_sketch(item.sketch, width_pt=WIDTH, height_pt=44 * mm))
         if not item.member and item.checks:
             parts.append(_engineering(item, st, [item.number]))
         if item.photos:
-            parts.append(_photo_table(item.photos, st))
+            parts.append(_photo_table(item.photos, st, f"item {esc(item.number)}"))
         out.append(KeepTogether(parts))
     return out
 
@@ -507,7 +530,17 @@ def _engineering(item: Item, st: dict[str, ParagraphStyle], numbers: list[str] |
     of = f", {esc(item.member_title)}" if item.member_title else ""
     parts: list[Any] = [
         Paragraph(f"Engineering detail{of} (for the engineer of record)", st["h3"]),
-        _grid(rows, [34 * mm, 42 * mm, 42 * mm, 28 * mm, 28 * mm], shade_first_col=False),
+        _continued(
+            _grid(
+                rows,
+                [34 * mm, 42 * mm, 42 * mm, 28 * mm, 28 * mm],
+                shade_first_col=False,
+                repeat=1,
+                table=_ContinuedTable,
+            ),
+            f"Engineering detail{of}",
+            st,
+        ),
     ]
     passing = passes_as_installed(item, numbers or [item.number])
     if passing:

@@ -8,6 +8,7 @@ text pypdf reads back with its transformation matrix.
 """
 
 import io
+from dataclasses import replace
 
 from PIL import Image
 from pypdf import PdfReader
@@ -191,3 +192,50 @@ def test_a_photo_sits_directly_above_its_caption_whatever_its_shape():
         (_, _, y, _, h), caption_h = canv.images[0], flow._cap_h
         assert abs(y - (caption_h + 2)) < 0.01, size  # the image's lower edge is 2 pt above the caption
         assert y + h <= height + 0.01
+
+
+# 7. an item taller than what is left of a page: its rows or its photos went on, or whole, to the next page
+# without its number (the heading stayed behind)
+
+SENTENCE = "The hanger seat was packed with a split shim and the beam bears on half its width."
+
+
+def test_an_item_or_its_photos_on_the_next_page_are_headed_with_its_number():
+    for repeats, photos in ((24, 4), (36, 4), (44, 3), (50, 4), (60, 10), (30, 13)):
+        item = _item(photos=_photos("nails", photos))
+        item = replace(item, finding=item.finding + "\n" + " ".join([SENTENCE] * repeats))
+        pages = [" ".join(p.split()) for p in _pages(render_notice(_notice([item])))]
+        start = next(i for i, p in enumerate(pages) if p.startswith("Item D-AB12-001"))
+        for k, page in enumerate(pages[start:], start):
+            shows = any(f"Photo {j}: nails" in page for j in range(1, photos + 1)) or "Action taken" in page
+            if shows or SENTENCE in page:
+                assert "Item D-AB12-001" in page or "Photos of item D-AB12-001 (continued)" in page, (repeats, k)
+            if "D-AB12-001 (continued)" in page and (repeats, photos) != (44, 3):
+                # the page before says it goes on (at 44 lines and 3 photos it is full: the heading alone says it)
+                assert "D-AB12-001 continue" in pages[k - 1], (repeats, k)
+        printed = " ".join(pages)
+        assert all(f"Photo {j}: nails {j}" in printed for j in range(1, photos + 1))
+
+
+def test_an_engineering_table_over_a_page_carries_its_member_on_the_next():
+    beam = glulam(
+        mark="RB-9",
+        spans_mm=[4000] * 5,  # five spans, unbraced, with live load: 20 check lines, more than a page
+        bearings=[HELD, FREE, *[HELD] * 4],
+        top_edge={"braced_by": "none"},
+        loads={"dead_kn_m": 2.0, "live_kn_m": 3.0, "snow_kn_m": 5.0},
+    )
+    d = Deficiency(
+        id="e1", site_id="s", beam_id="b7", number="D-AB12-070", code="x", priority="immediate",
+        location="Roof, grid C / 1-6, RB-9", description="RB-9: no restraint.", reference="S-201", action="Fix.",
+    )  # fmt: skip
+    item = item_for(d, beam, recheck(beam), "as built", member_title="RB-9 · Roof · grid C / 1-6")
+    pdf = render_notice(_notice([item]))
+    pages = [" ".join(p.split()) for p in _pages(pdf)]
+    rows = [k for k, p in enumerate(pages) if "under 1.25D" in p]  # pages holding rows of the engineering table
+    assert len(rows) > 1
+    assert pages[rows[0]].count("Engineering detail, RB-9 · Roof · grid C / 1-6 (for the engineer of record)") == 1
+    assert "Engineering detail, RB-9 · Roof · grid C / 1-6 continues on the next page." in pages[rows[0]]
+    for k in rows[1:]:
+        assert pages[k].startswith("Engineering detail, RB-9 · Roof · grid C / 1-6 (continued) Check Demand Capacity")
+    save_pngs(pdf, "notice25-engineering-continued")
