@@ -15,6 +15,7 @@ from reportlab.pdfbase import pdfmetrics
 from reportlab.pdfbase.ttfonts import TTFont
 from reportlab.pdfgen import canvas as rl_canvas
 from reportlab.platypus import (
+    Flowable,
     FrameBreak,
     Image,
     KeepTogether,
@@ -116,12 +117,77 @@ def footer_extra(text: str, page_width: float, hashed: bool) -> float:
     return max(0.0, footer_paragraph(text, page_width, hashed)[1] - FOOTER_LEADING)
 
 
+class PageRefs:
+    """Where each item's block starts, for the summary's Page column (a forward reference, filled at save).
+
+    The summary is drawn before the items are laid out, so under each item's number it draws a named PDF form
+    (``_PageRef``) whose content, the page number, is written when the canvas saves, from the pages the
+    items' headings recorded as they were drawn (``_ItemHeading``). The layout does not change: the cell
+    is sized for four digits either way.
+    """
+
+    def __init__(self) -> None:
+        self.names: dict[str, str] = {}  # item key -> form name
+        self.pages: dict[str, int] = {}  # item key -> page its heading is drawn on
+
+    def name(self, key: str) -> str:
+        """The form that prints the page of ``key`` (made on first use)."""
+        return self.names.setdefault(key, f"pageref{len(self.names)}")
+
+    def write_forms(self, canv: rl_canvas.Canvas) -> None:
+        """Define each referenced form as its page number; an item never drawn is an error, not a blank."""
+        missing = sorted(k for k in self.names if k not in self.pages)
+        if missing:
+            msg = f"page references: the block of item(s) {', '.join(missing)} was never drawn"
+            raise RuntimeError(msg)
+        for key, name in self.names.items():
+            canv.beginForm(name)
+            canv.setFont(FONT, PAGE_REF_PT)
+            canv.drawString(0, PAGE_REF_BASELINE, f"p. {self.pages[key]}")
+            canv.endForm()
+
+
+PAGE_REF_PT = 8
+PAGE_REF_BASELINE = 2.0  # as a one-line 8/10 pt Paragraph's baseline sits in its cell
+
+
+class _PageRef(Flowable):
+    """'p. 12' under an item's number in the summary: the named form ``PageRefs.write_forms`` fills in."""
+
+    def __init__(self, refs: PageRefs, key: str):
+        super().__init__()
+        self._name = refs.name(key)
+
+    def wrap(self, avail_w: float, avail_h: float) -> tuple[float, float]:  # noqa: ARG002 (Flowable.wrap)
+        """One small line, room for four digits."""
+        return pdfmetrics.stringWidth("p. 8888", FONT, PAGE_REF_PT), 10.0
+
+    def draw(self) -> None:
+        """Draw the form (defined when the canvas saves)."""
+        self.canv.doForm(self._name)
+
+
+class _ItemHeading(Paragraph):
+    """An item's heading that records the page it is drawn on (``PageRefs.pages``)."""
+
+    def __init__(self, text: str, style: ParagraphStyle, refs: PageRefs | None, key: str):
+        super().__init__(text, style)
+        self._refs, self._key = refs, key
+
+    def draw(self) -> None:
+        """Record the page, then draw the heading."""
+        if self._refs is not None:
+            self._refs.pages[self._key] = self.canv.getPageNumber()
+        super().draw()
+
+
 class NumberedCanvas(rl_canvas.Canvas):
     """Canvas that prints 'page X of Y', the notice number and the hash short form on every page."""
 
     footer_left = ""
     footer_right = ""  # e.g. the SHA-256 short form of an issued notice
     draft = False
+    page_refs: PageRefs | None = None  # the summary's page numbers, written as forms when saving
 
     def __init__(self, *args: Any, **kwargs: Any):
         kwargs.setdefault("invariant", 1)
@@ -152,6 +218,8 @@ class NumberedCanvas(rl_canvas.Canvas):
                 self.setFont(FONT_BOLD, 11)
                 self.drawCentredString(width / 2, height - 9 * mm, "DRAFT PREVIEW: NOT ISSUED, NOT FOR USE")
             super().showPage()
+        if self.page_refs is not None:
+            self.page_refs.write_forms(self)
         super().save()
 
 
@@ -238,7 +306,7 @@ SHORT_CAUTION = (
 )
 
 
-def _first_page(n: Notice, st: dict[str, ParagraphStyle]) -> list[Any]:
+def _first_page(n: Notice, st: dict[str, ParagraphStyle], refs: PageRefs) -> list[Any]:
     """Page 1: to whom, from whom, the site, the visit, the scope, and the summary of every item."""
     p = st["base"]
     rev = f" rev {n.revision}" if n.revision else ""
@@ -297,7 +365,7 @@ def _first_page(n: Notice, st: dict[str, ParagraphStyle]) -> list[Any]:
     story += [Spacer(1, 4), Paragraph("Summary of items", st["h2"])]
     if n.items:
         story.append(Paragraph(esc(item_count(n.items)), st["bold"]))
-    story.append(_summary(n, st))
+    story.append(_summary(n, st, refs))
     return story
 
 
@@ -368,18 +436,23 @@ class _ContinuedTable(Table):
         return [parts[0], self.continues_mark, KeepTogether([self.continued_heading, *parts[1:]])]
 
 
-def _summary(n: Notice, st: dict[str, ParagraphStyle]) -> Table:
-    """Every item in one table: IMMEDIATE first and boxed, then by number."""
+def item_key(item: Item) -> str:
+    """What the summary's Page cell and the item's heading agree on: the item's number."""
+    return item.number
+
+
+def _summary(n: Notice, st: dict[str, ParagraphStyle], refs: PageRefs) -> Table:
+    """Every item in one table: IMMEDIATE first and boxed, then by number, with the page its block is on."""
     s = st["small"]
     words = ParagraphStyle("words", parent=s, wordWrap=None)  # break between words only
     bold = ParagraphStyle("pb", parent=words, fontName=FONT_BOLD)
-    head = ["No.", "Location", "What is wrong", "Priority", "Due", "Status"]
+    head = ["No., page", "Location", "What is wrong", "Priority", "Due", "Status"]
     rows: list[list[Any]] = [[Paragraph(h, st["bold"]) for h in head]]
     items = ordered(n.items)
     for i in items:
         rows.append(
             [
-                Paragraph(esc(i.number), s),
+                [Paragraph(esc(i.number), s), _PageRef(refs, item_key(i))],  # "p. 12": where its block starts
                 Paragraph(esc(i.location), words),
                 Paragraph(esc(one_line(i.finding)), words),  # whole, wrapped between words: never cut
                 Paragraph(esc(SHORT_PRIORITY.get(i.priority, i.priority)), bold),
@@ -391,7 +464,7 @@ def _summary(n: Notice, st: dict[str, ParagraphStyle]) -> Table:
         rows.append([Paragraph("No open deficiencies.", s), "", "", "", "", ""])
     t = _grid(
         rows,
-        [21 * mm, 33 * mm, 56 * mm, 24 * mm, 26 * mm, 14 * mm],
+        [21 * mm, 33 * mm, 52 * mm, 24 * mm, 26 * mm, 18 * mm],
         shade_first_col=False,
         repeat=1,
         table=_ContinuedTable,
@@ -430,7 +503,7 @@ def _continued(table: Table, what: str, st: dict[str, ParagraphStyle], verb: str
     return table
 
 
-def _member_block(group: list[Item], st: dict[str, ParagraphStyle]) -> list[Any]:
+def _member_block(group: list[Item], st: dict[str, ParagraphStyle], refs: PageRefs) -> list[Any]:
     """One beam: its description, sketch, photos and recheck once, then each of its items."""
     first = group[0]
     p = st["base"]
@@ -474,7 +547,7 @@ def _member_block(group: list[Item], st: dict[str, ParagraphStyle]) -> list[Any]
         )
         parts: list[Any] = [
             Spacer(1, 4),
-            Paragraph(f"Item {esc(item.number)}", st["h3"]),
+            _ItemHeading(f"Item {esc(item.number)}", st["h3"], refs, item_key(item)),
             _continued(_grid(grid_rows, [30 * mm, 144 * mm], table=_ContinuedTable), f"Item {esc(item.number)}", st),
         ]
         if not item.member and item.sketch is not None:
@@ -595,7 +668,8 @@ def _table_rows(n: Notice, st: dict[str, ParagraphStyle]) -> list[Any]:
         story.append(Paragraph(f"<b>Memory rows {esc(n.memory_acknowledgement)}.</b>", st["base"]))
     rows = [[Paragraph(h, st["bold"]) for h in ("Status", "Clause and row")]]
     rows += [[Paragraph(esc(r.status_short), st["small"]), Paragraph(esc(r.label), st["small"])] for r in n.table_rows]
-    story.append(_grid(rows, [30 * mm, 144 * mm], shade_first_col=False, repeat=1))
+    table = _grid(rows, [30 * mm, 144 * mm], shade_first_col=False, repeat=1, table=_ContinuedTable)
+    story.append(_continued(table, "Table rows the rechecks used", st))
     return story
 
 
@@ -627,7 +701,8 @@ def render_notice(n: Notice, stamp_hash: bool = False) -> bytes:
         invariant=1,
         pageCompression=0 if stamp_hash else None,
     )
-    story = _first_page(n, st)
+    refs = PageRefs()
+    story = _first_page(n, st, refs)
     if n.closeout:
         story.append(Paragraph("Re-review outcome per item", st["h2"]))
         rows = [[Paragraph(h, st["bold"]) for h in ("Item", "Outcome", "Evidence")]]
@@ -640,7 +715,7 @@ def render_notice(n: Notice, stamp_hash: bool = False) -> bytes:
         story.append(PageBreak())
         story.append(Paragraph("Items by member", st["h2"]))
         for group in by_member(n.items):
-            story += _member_block(group, st)
+            story += _member_block(group, st, refs)
     if n.carried:
         story.append(Paragraph("Items carried forward from earlier notices", st["h2"]))
         rows = [[Paragraph(h, st["bold"]) for h in ("Item", "Location", "Description", "Status")]]
@@ -664,6 +739,7 @@ def render_notice(n: Notice, stamp_hash: bool = False) -> bytes:
         footer_left = footer
         footer_right = stamp.placeholder_footer() if stamp_hash else ""
         draft = n.draft
+        page_refs = refs
 
     doc.build(story, canvasmaker=_Canvas)
     pdf = buf.getvalue()

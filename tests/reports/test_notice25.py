@@ -75,10 +75,13 @@ def test_every_photo_of_an_item_and_of_a_member_is_printed():
         assert f"Photo {k}: item view {k}" in text
     for k in range(1, 5):
         assert f"Photo {k}: beam view {k}" in text
-    images = sum(
-        len(p["/Resources"]["/XObject"]) for p in PdfReader(io.BytesIO(pdf)).pages if "/XObject" in p["/Resources"]
-    )
-    assert images == 9
+    images = [
+        x
+        for p in PdfReader(io.BytesIO(pdf)).pages
+        for x in p["/Resources"].get("/XObject", {}).values()
+        if x.get_object()["/Subtype"] == "/Image"
+    ]
+    assert len(images) == 9
     save_pngs(pdf, "notice25-photos")
 
 
@@ -239,3 +242,48 @@ def test_an_engineering_table_over_a_page_carries_its_member_on_the_next():
     for k in rows[1:]:
         assert pages[k].startswith("Engineering detail, RB-9 · Roof · grid C / 1-6 (continued) Check Demand Capacity")
     save_pngs(pdf, "notice25-engineering-continued")
+
+
+# 8. the list of table rows the rechecks used went on over pages under a bare header row
+
+
+def test_the_table_rows_list_over_pages_says_what_it_is_on_each():
+    from core.kinds import TraceStatus
+    from reports.tablerows import RowUsed
+
+    rows = [RowUsed(f"CSA O86-19 Table 7.{k}", f"row {k} of a long list", TraceStatus.confirmed) for k in range(90)]
+    pages = [" ".join(p.split()) for p in _pages(render_notice(_notice([_item()], table_rows=rows)))]
+    holding = [k for k, p in enumerate(pages) if "of a long list" in p]
+    assert len(holding) > 1
+    assert "Table rows the rechecks used continues on the next page." in pages[holding[0]]
+    for k in holding[1:]:
+        assert pages[k].startswith("Table rows the rechecks used (continued) Status Clause and row"), k
+
+
+# 9. the summary did not say where an item's block is: on a 679-page notice the contractor leafed for it
+
+
+def test_the_summary_gives_the_page_of_each_items_block():
+    import re
+
+    from tests.reports.test_notice13 import _twenty_on_five
+
+    pdf = render_notice(_notice(_twenty_on_five()), stamp_hash=True)
+    pages = [" ".join(p.split()) for p in _pages(pdf)]
+    summary = " ".join(pages[: next(k for k, p in enumerate(pages) if "Items by member" in p)])
+    refs = re.findall(r"(D-AB12-\d{3}) p\. (\d+)", summary)
+    assert len(refs) == len({n for n, _ in refs}) == 20
+    for number, page in refs:
+        assert f"Item {number} " in pages[int(page) - 1] + " ", (number, page)
+    assert len({page for _, page in refs}) > 5  # not one page for all: the numbers come from the layout
+
+
+# 10. a status cell cut a word in two ("contracto" / "r"): the summary's cells wrap between words
+
+
+def test_the_summary_status_wraps_between_words():
+    from tests.reports.test_notice13 import _twenty_on_five
+
+    items = [replace(i, status="corrected (contractor reports done), cycle 2") for i in _twenty_on_five()[:3]]
+    pages = [" ".join(p.split()) for p in _pages(render_notice(_notice(items)))]
+    assert pages[0].count("corrected (contractor reports done), cycle 2") == 3
