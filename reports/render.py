@@ -619,7 +619,15 @@ def _engineering(item: Item, st: dict[str, ParagraphStyle], numbers: list[str] |
     if passing:
         parts.append(Paragraph(passing, st["base"]))
     if item.options:
-        parts.append(Paragraph("<b>Options that would make it pass (for the engineer of record; not a design):</b>", s))
+        # not "would make it pass": an option is listed with the utilisation its recheck gave, which may be over 1
+        # (restraining a bearing alone can leave the member failing)
+        parts.append(
+            Paragraph(
+                "<b>Options, each rechecked (for the engineer of record; not a design):</b> an option passes only "
+                "where the utilisation it gives is 1.00 or less.",
+                s,
+            )
+        )
         parts += [Paragraph("• " + esc(o), s) for o in item.options]
     return KeepTogether(parts)
 

@@ -287,3 +287,49 @@ def test_the_summary_status_wraps_between_words():
     items = [replace(i, status="corrected (contractor reports done), cycle 2") for i in _twenty_on_five()[:3]]
     pages = [" ".join(p.split()) for p in _pages(render_notice(_notice(items)))]
     assert pages[0].count("corrected (contractor reports done), cycle 2") == 3
+
+
+# 11. the cross of a support that is not restrained reached down into its label ("S2 NOT R")
+
+
+def test_a_not_restrained_supports_cross_stays_clear_of_its_label():
+    from reportlab.graphics.shapes import Line, String
+    from reportlab.pdfbase.pdfmetrics import getAscentDescent
+
+    from reports.content import sketch_for
+    from reports.sketch import beam_sketch
+
+    _styles()  # the notice's fonts registered, so reportlab can measure the label
+    for bearing in (FREE, {"lateral": "not_visible", "rotation": "not_visible", "length_mm": 140}):
+        drawing = beam_sketch(sketch_for(glulam(bearings=[HELD, bearing])))
+        labels = [s for s in drawing.contents if isinstance(s, String) and s.text.startswith("S2 ")]
+        crosses = [s for s in drawing.contents if isinstance(s, Line) and abs(s.x1 - s.x2) == 12]
+        assert len(labels) == 1
+        assert len(crosses) == 2
+        label_top = labels[0].y + getAscentDescent(labels[0].fontName, labels[0].fontSize)[0]
+        for line in crosses:
+            assert min(line.y1, line.y2) - line.strokeWidth / 2 > label_top, (bearing, line.y1, line.y2, label_top)
+
+
+# 12. the options were headed "Options that would make it pass" above one that leaves the member failing (1.009)
+
+
+def test_the_options_heading_does_not_claim_every_option_passes():
+    beam = glulam(
+        mark="RB-4",
+        spans_mm=[7000, 7000],
+        d_mm=532,
+        bearings=[HELD, dict(FREE, length_mm=280), HELD],
+        loads={"dead_kn_m": 3.6, "live_kn_m": 0.0, "snow_kn_m": 7.8},
+        top_edge={"braced_by": "purlins", "spacing_mm": 1200, "fastened": True},
+    )
+    d = Deficiency(
+        id="r1", site_id="s", beam_id="b4", number="D-AB12-004", code="x", priority="immediate",
+        location="Roof, grid A / 4-5-6, RB-4, support 2", description="RB-4 at support 2: no restraint.",
+        reference="S-201", action="Install the restraint.",
+    )  # fmt: skip
+    item = item_for(d, beam, recheck(beam), "as built", member_title="RB-4 · Roof · grid A / 4-5-6")
+    assert any("utilisation then 1.009" in o for o in item.options)  # the recheck's own number, over 1
+    text = " ".join(" ".join(_pages(render_notice(_notice([item])))).split())
+    assert "would make it pass" not in text
+    assert "an option passes only where the utilisation it gives is 1.00 or less" in text
