@@ -736,11 +736,15 @@ def render_notice(n: Notice, stamp_hash: bool = False) -> bytes:
             ]
             for c in n.carried
         ]
-        story.append(_grid(rows, [28 * mm, 40 * mm, 76 * mm, 30 * mm], shade_first_col=False))
+        carried = _grid(
+            rows, [28 * mm, 40 * mm, 76 * mm, 30 * mm], shade_first_col=False, repeat=1, table=_ContinuedTable
+        )
+        story.append(_continued(carried, "Items carried forward from earlier notices", st, "continue"))
     story += _table_rows(n, st)
-    story.append(Paragraph("Cautions", st["h2"]))
-    for c in n.cautions:
-        story.append(Paragraph("• " + esc(c), st["small"]))
+    # kept together: the heading never ends a page with its cautions on the next
+    story.append(
+        KeepTogether([Paragraph("Cautions", st["h2"]), *(Paragraph("• " + esc(c), st["small"]) for c in n.cautions)])
+    )
     story += [Spacer(1, 8), _signature(n, st)]
 
     class _Canvas(NumberedCanvas):

@@ -333,3 +333,45 @@ def test_the_options_heading_does_not_claim_every_option_passes():
     text = " ".join(" ".join(_pages(render_notice(_notice([item])))).split())
     assert "would make it pass" not in text
     assert "an option passes only where the utilisation it gives is 1.00 or less" in text
+
+
+# 13. the "Cautions" heading ended a page with the cautions themselves on the next
+
+
+def test_the_cautions_heading_is_on_the_page_of_its_cautions():
+    from reports.content import CAUTIONS
+
+    # the five-span member of test 11: its notice put "Cautions" last on page 4 and the cautions on page 5
+    beam = glulam(
+        mark="RB-9",
+        spans_mm=[4000] * 5,
+        bearings=[HELD, FREE, *[HELD] * 4],
+        top_edge={"braced_by": "none"},
+        loads={"dead_kn_m": 2.0, "live_kn_m": 3.0, "snow_kn_m": 5.0},
+    )
+    d = Deficiency(
+        id="e1", site_id="s", beam_id="b7", number="D-AB12-070", code="x", priority="immediate",
+        location="Roof, grid C / 1-6, RB-9", description="RB-9: no restraint.", reference="S-201", action="Fix.",
+    )  # fmt: skip
+    item = item_for(d, beam, recheck(beam), "as built", member_title="RB-9 · Roof · grid C / 1-6")
+    pages = [" ".join(p.split()) for p in _pages(render_notice(_notice([item])))]
+    heading = [k for k, p in enumerate(pages) if "Cautions • " + CAUTIONS[0][:40] in p]
+    assert len(heading) == 1
+    assert all(c[:40] in pages[heading[0]] for c in CAUTIONS)
+
+
+# 14. a long list of items carried forward went on over pages with neither heading nor header row
+
+
+def test_the_carried_forward_list_over_pages_says_what_it_is_on_each():
+    from reports.content import Carried
+
+    carried = [Carried(f"D-AB11-{k:03d}", "Roof, grid B / 2-3", "Hanger nails missing.", "open") for k in range(80)]
+    pages = [" ".join(p.split()) for p in _pages(render_notice(_notice([_item()], carried=carried)))]
+    holding = [k for k, p in enumerate(pages) if "D-AB11-0" in p]
+    assert len(holding) > 1
+    assert "Items carried forward from earlier notices continue on the next page." in pages[holding[0]]
+    for k in holding[1:]:
+        assert pages[k].startswith(
+            "Items carried forward from earlier notices (continued) Item Location Description"
+        ), k
