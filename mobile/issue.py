@@ -36,14 +36,26 @@ def observed_text(record: dict[str, object]) -> str:
     if isinstance(spans, list):
         text += "; span(s) " + " + ".join(f"{s / 1000:.2f} m" for s in spans)
     top = record.get("top_edge")
-    if isinstance(top, dict) and top.get("braced_by") != "none":
-        text += f"; top edge {top['braced_by']}" + (f" at {top['spacing_mm']:g} mm" if top.get("spacing_mm") else "")
-        fastened = top.get("fastened")
-        text += "" if fastened is True else (" (not fastened)" if fastened is False else " (fastening not recorded)")
+    if isinstance(top, dict):
+        text += "; " + top_edge_words(top)
     notes = record.get("notes")
     if isinstance(notes, str) and notes.strip():
         text += f"; beam notes: {notes.strip()}"  # what the reviewer wrote at the beam reaches the notice
     return text
+
+
+def top_edge_words(top: dict[str, object]) -> str:
+    """'top edge purlins at 1200 mm (not fastened)'; 'top edge not braced' when nothing holds it (as recorded)."""
+    if top.get("braced_by") == "none":
+        return "top edge not braced"  # what the recheck took: said, not left for the reader to infer
+    spacing = top.get("spacing_mm")
+    text = f"top edge {top['braced_by']}"
+    if isinstance(spacing, int | float) and spacing:
+        text += f" at {spacing:g} mm"
+    fastened = top.get("fastened")
+    if fastened is True:
+        return text
+    return text + (" (not fastened)" if fastened is False else " (fastening not recorded)")
 
 
 def member_title(record: dict[str, object]) -> str:

@@ -84,7 +84,8 @@ class PhotoFlowable(Flowable):
         jpeg, w, h = prepare_photo(self._load())
         scale = min(self._box_w / w, self._box_h / h)
         dw, dh = w * scale, h * scale
-        x0, y0 = 0.0, self._cap_h + 2 + (self._box_h - dh)
+        # the photo's lower edge sits on its caption (a wide photo's spare height is left above it)
+        x0, y0 = 0.0, self._cap_h + 2
         reader = JpegReader(jpeg)
         self.canv.drawImage(reader, x0, y0, dw, dh)
         reader._image = None  # the reader is kept by nothing after this, but drop the open image at once

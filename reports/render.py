@@ -15,6 +15,8 @@ from reportlab.pdfbase import pdfmetrics
 from reportlab.pdfbase.ttfonts import TTFont
 from reportlab.pdfgen import canvas as rl_canvas
 from reportlab.platypus import (
+    Flowable,
+    FrameBreak,
     Image,
     KeepTogether,
     PageBreak,
@@ -81,12 +83,111 @@ WIDTH = 174 * mm  # the text width on both Letter and A4 (18 mm margins on A4)
 GREY = colors.Color(0.93, 0.93, 0.93)
 
 
+FOOTER_PT = 8
+FOOTER_LEADING = 9.6
+FOOTER_BASELINE = 10 * mm  # the footer's lowest line
+WIDEST_PAGE_LABEL = "page 8888 of 8888"
+
+
+def footer_room(page_width: float, hashed: bool) -> float:
+    """Width for the footer's left text: it ends 3 mm before the hash short form, or before the page label."""
+    if hashed:
+        hash_w = pdfmetrics.stringWidth(stamp.placeholder_footer(), HASH_FONT, FOOTER_PT)
+        end = page_width / 2 + 20 * mm - hash_w / 2
+    else:
+        _register_fonts()
+        end = page_width - 18 * mm - pdfmetrics.stringWidth(WIDEST_PAGE_LABEL, FONT, FOOTER_PT)
+    return end - 3 * mm - 18 * mm
+
+
+def footer_paragraph(text: str, page_width: float, hashed: bool) -> tuple[Paragraph, float]:
+    """The footer's left text (notice number, site) set in fonts that have its script, wrapped to its room.
+
+    Returns the paragraph, wrapped, and its height: a long site name takes more lines, never the hash's
+    or the page label's place (the body's bottom margin grows by the extra lines, ``footer_extra``).
+    """
+    style = ParagraphStyle("footer", fontName=FONT, fontSize=FOOTER_PT, leading=FOOTER_LEADING, wordWrap="CJK")
+    para = Paragraph(esc(text), style)
+    _, height = para.wrap(footer_room(page_width, hashed), 10 * FOOTER_LEADING)
+    return para, height
+
+
+def footer_extra(text: str, page_width: float, hashed: bool) -> float:
+    """How much higher than one line the footer's left text reaches (0 when it fits on one line)."""
+    return max(0.0, footer_paragraph(text, page_width, hashed)[1] - FOOTER_LEADING)
+
+
+class PageRefs:
+    """Where each item's block starts, for the summary's Page column (a forward reference, filled at save).
+
+    The summary is drawn before the items are laid out, so under each item's number it draws a named PDF form
+    (``_PageRef``) whose content, the page number, is written when the canvas saves, from the pages the
+    items' headings recorded as they were drawn (``_ItemHeading``). The layout does not change: the cell
+    is sized for four digits either way.
+    """
+
+    def __init__(self) -> None:
+        self.names: dict[str, str] = {}  # item key -> form name
+        self.pages: dict[str, int] = {}  # item key -> page its heading is drawn on
+
+    def name(self, key: str) -> str:
+        """The form that prints the page of ``key`` (made on first use)."""
+        return self.names.setdefault(key, f"pageref{len(self.names)}")
+
+    def write_forms(self, canv: rl_canvas.Canvas) -> None:
+        """Define each referenced form as its page number; an item never drawn is an error, not a blank."""
+        missing = sorted(k for k in self.names if k not in self.pages)
+        if missing:
+            msg = f"page references: the block of item(s) {', '.join(missing)} was never drawn"
+            raise RuntimeError(msg)
+        for key, name in self.names.items():
+            canv.beginForm(name)
+            canv.setFont(FONT, PAGE_REF_PT)
+            canv.drawString(0, PAGE_REF_BASELINE, f"p. {self.pages[key]}")
+            canv.endForm()
+
+
+PAGE_REF_PT = 8
+PAGE_REF_BASELINE = 2.0  # as a one-line 8/10 pt Paragraph's baseline sits in its cell
+
+
+class _PageRef(Flowable):
+    """'p. 12' under an item's number in the summary: the named form ``PageRefs.write_forms`` fills in."""
+
+    def __init__(self, refs: PageRefs, key: str):
+        super().__init__()
+        self._name = refs.name(key)
+
+    def wrap(self, avail_w: float, avail_h: float) -> tuple[float, float]:  # noqa: ARG002 (Flowable.wrap)
+        """One small line, room for four digits."""
+        return pdfmetrics.stringWidth("p. 8888", FONT, PAGE_REF_PT), 10.0
+
+    def draw(self) -> None:
+        """Draw the form (defined when the canvas saves)."""
+        self.canv.doForm(self._name)
+
+
+class _ItemHeading(Paragraph):
+    """An item's heading that records the page it is drawn on (``PageRefs.pages``)."""
+
+    def __init__(self, text: str, style: ParagraphStyle, refs: PageRefs | None, key: str):
+        super().__init__(text, style)
+        self._refs, self._key = refs, key
+
+    def draw(self) -> None:
+        """Record the page, then draw the heading."""
+        if self._refs is not None:
+            self._refs.pages[self._key] = self.canv.getPageNumber()
+        super().draw()
+
+
 class NumberedCanvas(rl_canvas.Canvas):
     """Canvas that prints 'page X of Y', the notice number and the hash short form on every page."""
 
     footer_left = ""
     footer_right = ""  # e.g. the SHA-256 short form of an issued notice
     draft = False
+    page_refs: PageRefs | None = None  # the summary's page numbers, written as forms when saving
 
     def __init__(self, *args: Any, **kwargs: Any):
         kwargs.setdefault("invariant", 1)
@@ -101,11 +202,14 @@ class NumberedCanvas(rl_canvas.Canvas):
     def save(self) -> None:
         """Stamp every held page with its number of the total, then write."""
         total = len(self._pages)
+        left: tuple[Paragraph, float] | None = None
         for state in self._pages:
             self.__dict__.update(state)
             width, height = self._pagesize
-            self.setFont(FONT, 8)
-            self.drawString(18 * mm, 10 * mm, self.footer_left)
+            left = left or footer_paragraph(self.footer_left, width, bool(self.footer_right))
+            # the paragraph's last line on the footer's baseline: its lines above it, never beside the hash
+            left[0].drawOn(self, 18 * mm, FOOTER_BASELINE - (FOOTER_LEADING - FOOTER_PT))
+            self.setFont(FONT, FOOTER_PT)
             self.drawRightString(width - 18 * mm, 10 * mm, f"page {self._pageNumber} of {total}")
             if self.footer_right:
                 self.setFont(HASH_FONT, 8)
@@ -114,6 +218,8 @@ class NumberedCanvas(rl_canvas.Canvas):
                 self.setFont(FONT_BOLD, 11)
                 self.drawCentredString(width / 2, height - 9 * mm, "DRAFT PREVIEW: NOT ISSUED, NOT FOR USE")
             super().showPage()
+        if self.page_refs is not None:
+            self.page_refs.write_forms(self)
         super().save()
 
 
@@ -200,7 +306,7 @@ SHORT_CAUTION = (
 )
 
 
-def _first_page(n: Notice, st: dict[str, ParagraphStyle]) -> list[Any]:
+def _first_page(n: Notice, st: dict[str, ParagraphStyle], refs: PageRefs) -> list[Any]:
     """Page 1: to whom, from whom, the site, the visit, the scope, and the summary of every item."""
     p = st["base"]
     rev = f" rev {n.revision}" if n.revision else ""
@@ -259,7 +365,7 @@ def _first_page(n: Notice, st: dict[str, ParagraphStyle]) -> list[Any]:
     story += [Spacer(1, 4), Paragraph("Summary of items", st["h2"])]
     if n.items:
         story.append(Paragraph(esc(item_count(n.items)), st["bold"]))
-    story.append(_summary(n, st))
+    story.append(_summary(n, st, refs))
     return story
 
 
@@ -301,11 +407,15 @@ class _ContinuedTable(Table):
     """A table split across pages with its marks: a continuation line, then a '(continued)' heading.
 
     'The summary continues on the next page' goes under the first part; the next part starts with the
-    '(continued)' heading, then the repeated header row.
+    '(continued)' heading, then the repeated header row. With ``heading_when_moved`` (an item's photos),
+    a table of which not one row fits where it stands goes to the next page under the heading too, so
+    what it shows is never on a page that does not say what it belongs to.
     """
 
     continued_heading: Any = None  # Flowables set on the instance, passed to the parts a split makes
     continues_mark: Any = None
+    heading_when_moved = False
+    _moved = False  # already moved under its heading once: not again (a row taller than a page)
 
     def split(self, availWidth: float, availHeight: float) -> list[Any]:
         """Split as a Table does, leaving room for the mark; the later part is kept with its heading."""
@@ -313,25 +423,36 @@ class _ContinuedTable(Table):
             return list(super().split(availWidth, availHeight))
         _, mark_h = self.continues_mark.wrap(availWidth, availHeight)
         parts = list(super().split(availWidth, availHeight - mark_h))
+        if not parts and self.heading_when_moved and not self._moved:
+            self._moved = True
+            # the mark when it fits here, else a frame break: what a split returns first must fit where it stands
+            first = self.continues_mark if mark_h <= availHeight else FrameBreak()
+            return [first, KeepTogether([self.continued_heading, self])]
         if len(parts) < 2:
             return parts
         for part in parts:
             part.continued_heading, part.continues_mark = self.continued_heading, self.continues_mark
+            part.heading_when_moved = self.heading_when_moved
         return [parts[0], self.continues_mark, KeepTogether([self.continued_heading, *parts[1:]])]
 
 
-def _summary(n: Notice, st: dict[str, ParagraphStyle]) -> Table:
-    """Every item in one table: IMMEDIATE first and boxed, then by number."""
+def item_key(item: Item) -> str:
+    """What the summary's Page cell and the item's heading agree on: the item's number."""
+    return item.number
+
+
+def _summary(n: Notice, st: dict[str, ParagraphStyle], refs: PageRefs) -> Table:
+    """Every item in one table: IMMEDIATE first and boxed, then by number, with the page its block is on."""
     s = st["small"]
     words = ParagraphStyle("words", parent=s, wordWrap=None)  # break between words only
     bold = ParagraphStyle("pb", parent=words, fontName=FONT_BOLD)
-    head = ["No.", "Location", "What is wrong", "Priority", "Due", "Status"]
+    head = ["No., page", "Location", "What is wrong", "Priority", "Due", "Status"]
     rows: list[list[Any]] = [[Paragraph(h, st["bold"]) for h in head]]
     items = ordered(n.items)
     for i in items:
         rows.append(
             [
-                Paragraph(esc(i.number), s),
+                [Paragraph(esc(i.number), s), _PageRef(refs, item_key(i))],  # "p. 12": where its block starts
                 Paragraph(esc(i.location), words),
                 Paragraph(esc(one_line(i.finding)), words),  # whole, wrapped between words: never cut
                 Paragraph(esc(SHORT_PRIORITY.get(i.priority, i.priority)), bold),
@@ -343,7 +464,7 @@ def _summary(n: Notice, st: dict[str, ParagraphStyle]) -> Table:
         rows.append([Paragraph("No open deficiencies.", s), "", "", "", "", ""])
     t = _grid(
         rows,
-        [21 * mm, 33 * mm, 56 * mm, 24 * mm, 26 * mm, 14 * mm],
+        [21 * mm, 33 * mm, 52 * mm, 24 * mm, 26 * mm, 18 * mm],
         shade_first_col=False,
         repeat=1,
         table=_ContinuedTable,
@@ -358,14 +479,31 @@ def _summary(n: Notice, st: dict[str, ParagraphStyle]) -> Table:
     return t
 
 
-def _photo_cells(photos: list[bytes | Photo], st: dict[str, ParagraphStyle]) -> list[Any]:
-    cells = []
-    for k, ph in enumerate(photos[:3]):
-        cells.append(photo_flowable(ph, k + 1, st["small"]))
-    return cells
+PHOTOS_PER_ROW = 3
 
 
-def _member_block(group: list[Item], st: dict[str, ParagraphStyle]) -> list[Any]:
+def _photo_table(photos: list[bytes | Photo], st: dict[str, ParagraphStyle], of: str) -> Table:
+    """Every photo, numbered, three to a row (a fourth and later photo starts a new row, never left out).
+
+    ``of`` names what the photos show ('item D-AB12-001'): photos that cross to the next page, or go
+    there whole, open it under 'Photos of item D-AB12-001 (continued)'.
+    """
+    cells: list[Any] = [photo_flowable(ph, k + 1, st["small"]) for k, ph in enumerate(photos)]
+    rows = [cells[k : k + PHOTOS_PER_ROW] for k in range(0, len(cells), PHOTOS_PER_ROW)]
+    if len(rows) > 1:
+        rows[-1] += [""] * (PHOTOS_PER_ROW - len(rows[-1]))
+    return _continued(_ContinuedTable(rows, hAlign="LEFT"), f"Photos of {of}", st, "continue")
+
+
+def _continued(table: Table, what: str, st: dict[str, ParagraphStyle], verb: str = "continues") -> Table:
+    """``table`` (a _ContinuedTable) marked as ``what`` (markup) where it crosses a page or moves whole to the next."""
+    table.continued_heading = Paragraph(f"{what} (continued)", st["h3"])
+    table.continues_mark = Paragraph(f"<i>{what} {verb} on the next page.</i>", st["small"])
+    table.heading_when_moved = True
+    return table
+
+
+def _member_block(group: list[Item], st: dict[str, ParagraphStyle], refs: PageRefs) -> list[Any]:
     """One beam: its description, sketch, photos and recheck once, then each of its items."""
     first = group[0]
     p = st["base"]
@@ -379,13 +517,15 @@ def _member_block(group: list[Item], st: dict[str, ParagraphStyle]) -> list[Any]
             head.append(beam_sketch(first.sketch, width_pt=WIDTH, height_pt=44 * mm))
         photos = first.member_photos
         if photos:
-            head.append(Table([_photo_cells(photos, st)], hAlign="LEFT"))
+            head.append(_photo_table(photos, st, f"member {esc(first.member_title or first.location)}"))
         out.append(KeepTogether(head))
         if first.checks:
             out.append(_engineering(first, st, [i.number for i in group]))
     for item in group:
         rows = [("Location", item.location)]
-        if not item.member:  # a member's block already describes what was observed
+        if not item.member and item.observed.strip() != item.finding.strip():
+            # a member's block already describes what was observed; an item not on a beam whose observation
+            # is its finding (build_notice passes the description) prints it once, as the finding
             rows.append(("Observed", item.observed))
         rows += [
             ("Finding", item.finding),
@@ -407,15 +547,15 @@ def _member_block(group: list[Item], st: dict[str, ParagraphStyle]) -> list[Any]
         )
         parts: list[Any] = [
             Spacer(1, 4),
-            Paragraph(f"Item {esc(item.number)}", st["h3"]),
-            _grid(grid_rows, [30 * mm, 144 * mm]),
+            _ItemHeading(f"Item {esc(item.number)}", st["h3"], refs, item_key(item)),
+            _continued(_grid(grid_rows, [30 * mm, 144 * mm], table=_ContinuedTable), f"Item {esc(item.number)}", st),
         ]
         if not item.member and item.sketch is not None:
             parts.append(beam_sketch(item.sketch, width_pt=WIDTH, height_pt=44 * mm))
         if not item.member and item.checks:
             parts.append(_engineering(item, st, [item.number]))
         if item.photos:
-            parts.append(Table([_photo_cells(item.photos, st)], hAlign="LEFT"))
+            parts.append(_photo_table(item.photos, st, f"item {esc(item.number)}"))
         out.append(KeepTogether(parts))
     return out
 
@@ -459,15 +599,35 @@ def _engineering(item: Item, st: dict[str, ParagraphStyle], numbers: list[str] |
                 Paragraph(esc(c.clause), s),
             ]
         )
+    # named: when the table starts a page, the member's heading is on the page before
+    of = f", {esc(item.member_title)}" if item.member_title else ""
     parts: list[Any] = [
-        Paragraph("Engineering detail (for the engineer of record)", st["h3"]),
-        _grid(rows, [34 * mm, 42 * mm, 42 * mm, 28 * mm, 28 * mm], shade_first_col=False),
+        Paragraph(f"Engineering detail{of} (for the engineer of record)", st["h3"]),
+        _continued(
+            _grid(
+                rows,
+                [34 * mm, 42 * mm, 42 * mm, 28 * mm, 28 * mm],
+                shade_first_col=False,
+                repeat=1,
+                table=_ContinuedTable,
+            ),
+            f"Engineering detail{of}",
+            st,
+        ),
     ]
     passing = passes_as_installed(item, numbers or [item.number])
     if passing:
         parts.append(Paragraph(passing, st["base"]))
     if item.options:
-        parts.append(Paragraph("<b>Options that would make it pass (for the engineer of record; not a design):</b>", s))
+        # not "would make it pass": an option is listed with the utilisation its recheck gave, which may be over 1
+        # (restraining a bearing alone can leave the member failing)
+        parts.append(
+            Paragraph(
+                "<b>Options, each rechecked (for the engineer of record; not a design):</b> an option passes only "
+                "where the utilisation it gives is 1.00 or less.",
+                s,
+            )
+        )
         parts += [Paragraph("• " + esc(o), s) for o in item.options]
     return KeepTogether(parts)
 
@@ -516,7 +676,8 @@ def _table_rows(n: Notice, st: dict[str, ParagraphStyle]) -> list[Any]:
         story.append(Paragraph(f"<b>Memory rows {esc(n.memory_acknowledgement)}.</b>", st["base"]))
     rows = [[Paragraph(h, st["bold"]) for h in ("Status", "Clause and row")]]
     rows += [[Paragraph(esc(r.status_short), st["small"]), Paragraph(esc(r.label), st["small"])] for r in n.table_rows]
-    story.append(_grid(rows, [30 * mm, 144 * mm], shade_first_col=False, repeat=1))
+    table = _grid(rows, [30 * mm, 144 * mm], shade_first_col=False, repeat=1, table=_ContinuedTable)
+    story.append(_continued(table, "Table rows the rechecks used", st))
     return story
 
 
@@ -530,13 +691,15 @@ def render_notice(n: Notice, stamp_hash: bool = False) -> bytes:
     buf = io.BytesIO()
     kind = "Close-out notice" if n.kind == "close-out" else "Deficiency notice"
     rev = f" rev {n.revision}" if n.revision else ""
+    footer = f"{n.notice_number}{rev} · {n.site_name}"
+    page = PAGE_SIZES.get(n.page_size, LETTER)
     doc = SimpleDocTemplate(
         buf,
-        pagesize=PAGE_SIZES.get(n.page_size, LETTER),
+        pagesize=page,
         leftMargin=18 * mm,
         rightMargin=18 * mm,
         topMargin=15 * mm,
-        bottomMargin=18 * mm,
+        bottomMargin=18 * mm + footer_extra(footer, page[0], stamp_hash),
         title=f"{kind} {n.notice_number}{rev}, {n.site_name}",
         author=n.reviewer,
         subject=f"{kind} to {n.addressed_to}",
@@ -546,7 +709,8 @@ def render_notice(n: Notice, stamp_hash: bool = False) -> bytes:
         invariant=1,
         pageCompression=0 if stamp_hash else None,
     )
-    story = _first_page(n, st)
+    refs = PageRefs()
+    story = _first_page(n, st, refs)
     if n.closeout:
         story.append(Paragraph("Re-review outcome per item", st["h2"]))
         rows = [[Paragraph(h, st["bold"]) for h in ("Item", "Outcome", "Evidence")]]
@@ -559,7 +723,7 @@ def render_notice(n: Notice, stamp_hash: bool = False) -> bytes:
         story.append(PageBreak())
         story.append(Paragraph("Items by member", st["h2"]))
         for group in by_member(n.items):
-            story += _member_block(group, st)
+            story += _member_block(group, st, refs)
     if n.carried:
         story.append(Paragraph("Items carried forward from earlier notices", st["h2"]))
         rows = [[Paragraph(h, st["bold"]) for h in ("Item", "Location", "Description", "Status")]]
@@ -572,18 +736,22 @@ def render_notice(n: Notice, stamp_hash: bool = False) -> bytes:
             ]
             for c in n.carried
         ]
-        story.append(_grid(rows, [28 * mm, 40 * mm, 76 * mm, 30 * mm], shade_first_col=False))
+        carried = _grid(
+            rows, [28 * mm, 40 * mm, 76 * mm, 30 * mm], shade_first_col=False, repeat=1, table=_ContinuedTable
+        )
+        story.append(_continued(carried, "Items carried forward from earlier notices", st, "continue"))
     story += _table_rows(n, st)
-    story.append(Paragraph("Cautions", st["h2"]))
-    for c in n.cautions:
-        story.append(Paragraph("• " + esc(c), st["small"]))
+    # kept together: the heading never ends a page with its cautions on the next
+    story.append(
+        KeepTogether([Paragraph("Cautions", st["h2"]), *(Paragraph("• " + esc(c), st["small"]) for c in n.cautions)])
+    )
     story += [Spacer(1, 8), _signature(n, st)]
-    footer = f"{n.notice_number}{rev} · {n.site_name}"
 
     class _Canvas(NumberedCanvas):
         footer_left = footer
         footer_right = stamp.placeholder_footer() if stamp_hash else ""
         draft = n.draft
+        page_refs = refs
 
     doc.build(story, canvasmaker=_Canvas)
     pdf = buf.getvalue()

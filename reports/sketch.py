@@ -80,6 +80,9 @@ def _braces(d: Drawing, sk: Sketch, f: _Frame) -> None:
         d.add(Polygon([f.x_of(bx) - 3, y - 5, f.x_of(bx) + 3, y - 5, f.x_of(bx), y], fillColor=colors.black))
 
 
+CROSS_LOW = 16  # pt below the member's baseline: the cross's lowest point, above the label's ascent (y - 25 + 7.4)
+
+
 def _support(d: Drawing, f: _Frame, px: float, i: int, state: str, grid: str) -> None:
     """One bearing: solid triangle and "R" when restrained, hollow with a cross otherwise; its gridline."""
     y = f.y
@@ -89,8 +92,9 @@ def _support(d: Drawing, f: _Frame, px: float, i: int, state: str, grid: str) ->
         state_word = "R"
     else:
         d.add(Polygon(tri, fillColor=colors.white, strokeColor=colors.black, strokeWidth=1.5))
-        d.add(Line(px - 6, y - 20, px + 6, y - 8, strokeColor=colors.black, strokeWidth=1.5))
-        d.add(Line(px - 6, y - 8, px + 6, y - 20, strokeColor=colors.black, strokeWidth=1.5))
+        # the cross over the hollow triangle, clear of the label below it (it reached into "S2 NOT R")
+        d.add(Line(px - 6, y - CROSS_LOW, px + 6, y - 4, strokeColor=colors.black, strokeWidth=1.5))
+        d.add(Line(px - 6, y - 4, px + 6, y - CROSS_LOW, strokeColor=colors.black, strokeWidth=1.5))
         state_word = "NOT R" if state == "NOT restrained" else "R?"
     d.add(String(px, y - 25, f"S{i + 1} {state_word}", fontName=FONT, fontSize=f.fs, textAnchor="middle"))
     if grid:

@@ -100,7 +100,9 @@ def test_summary_states_the_total_and_marks_its_continuation():
     assert pages[0].endswith("page 1 of " + str(len(pages)))
     assert "The summary continues on the next page." in pages[0]
     # the next page opens with the continued heading, then the repeated header row
-    assert pages[1].startswith("Summary of items (continued): 20 items in all No. Location What is wrong Priority")
+    assert pages[1].startswith(
+        "Summary of items (continued): 20 items in all No., page Location What is wrong Priority"
+    )
     numbers = re.findall(r"D-AB12-\d{3}", _summary_text(pages))
     assert len(numbers) == len(set(numbers)) == 20
     save_pngs(pdf, "notice22-summary-continued")

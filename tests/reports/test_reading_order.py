@@ -68,7 +68,7 @@ def test_page_one_reads_in_logical_order(tmp_path):
         "Scope reviewed: Roof",
         "Not reviewed: Mezzanine",
         "Summary of items",
-        "No. Location What is wrong Priority Due Status",
+        "No., page Location What is wrong Priority Due Status",  # each item number with its page
     ]
     assert _in_order(text, head) == [], text[:1500]
     rows = [i.number for i in ordered(items)]
