@@ -103,6 +103,21 @@ def _bearing(j: int) -> Check:
 Change = dict[str, Any]
 Found = tuple[Change, float] | None
 
+# what a remedy's utilisation is of, in words (a notice goes to a contractor: no internal codes)
+_CHECK_WORDS = {
+    "shear_overstress": "shear",
+    "deflection_exceeds_limit": "deflection",
+    "bearing_overstress": "bearing",
+    "bearing_restraint_missing": "bending",
+}
+RESTRAINED_TOO = "and only with the bearing(s) restrained against lateral displacement and rotation as well"
+
+
+def _result_words(solves: str, base: Change, util: float) -> str:
+    """``"shear utilisation 0.927"``, saying when the change also restrains bearings (``base`` not empty)."""
+    words = f"{_CHECK_WORDS.get(solves, solves)} utilisation {util:.3f}"
+    return f"{words}, {RESTRAINED_TOO}" if any(k.startswith("bearings.") for k in base) else words
+
 
 def _largest_passing(
     hi: float, step: float, make: Callable[[float], Change], data: dict[str, Any], check: Check
@@ -169,7 +184,8 @@ def _size_remedy(beam: Beam, data: dict[str, Any], base: Change, solves: str, ch
         what = f"a {beam.b_mm:g} x {change['d_mm']:g} mm glulam (same width, the smallest standard depth that passes)"
     else:
         what = f"a {change['b_mm']:g} x {change['d_mm']:g} mm dressed lumber size (the smallest that passes)"
-    return [Remedy(solves=solves, change=change, utilisation_after=util, message=f"{what}: {solves} {util:.3f}")]
+    message = f"{what}: {_result_words(solves, base, util)}"
+    return [Remedy(solves=solves, change=change, utilisation_after=util, message=message)]
 
 
 def _load_remedies(beam: Beam, data: dict[str, Any], base: Change, solves: str, check: Check) -> list[Remedy]:
@@ -188,7 +204,7 @@ def _load_remedies(beam: Beam, data: dict[str, Any], base: Change, solves: str, 
         word = "snow" if name == "snow_kn_m" else "live"
         message = (
             f"as built it carries at most {change[f'loads.{name}']:g} kN/m specified {word} load "
-            f"(logged {value:g}): {solves} {util:.3f}"
+            f"(logged {value:g}): {_result_words(solves, base, util)}"
         )
         out.append(Remedy(solves=solves, change=change, utilisation_after=util, message=message))
     return out
@@ -205,6 +221,8 @@ def _restraint_remedy(beam: Beam, data: dict[str, Any], result: Recheck) -> tupl
     if util is None:
         return base, []
     message = f"restrain the bearing(s) against lateral displacement and rotation; bending utilisation then {util:.3f}"
+    if not _passes(util):
+        message += " (over 1.00 by itself: it passes only together with a bending option)"
     return base, [
         Remedy(solves="bearing_restraint_missing", change=dict(base), utilisation_after=util, message=message)
     ]
@@ -225,7 +243,7 @@ def _brace_remedy(beam: Beam, data: dict[str, Any], base: Change, sign: MomentSi
     top = sign is MomentSign.positive
     edge = "top edge (fastened purlins or blocking)" if top else "bottom edge (knee braces or blocking)"
     spacing = change["top_edge.spacing_mm" if top else "bottom_edge.spacing_mm"]
-    message = f"brace the {edge} at {spacing:g} mm or closer: {solves} {util:.3f}"
+    message = f"brace the {edge} at {spacing:g} mm or closer: {_result_words(solves, base, util)}"
     return [Remedy(solves=solves, change=change, utilisation_after=util, message=message)]
 
 
@@ -236,7 +254,8 @@ def _bearing_remedy(beam: Beam, data: dict[str, Any], result: Recheck, j: int) -
         change = {f"bearings.{j}.length_mm": length}
         util = _try(data, change, _bearing(j))
         if util is not None and util <= 1.0:
-            message = f"lengthen the bearing at support {check.support} to {length:g} mm: bearing {util:.3f}"
+            words = _result_words("bearing_overstress", {}, util)
+            message = f"lengthen the bearing at support {check.support} to {length:g} mm: {words}"
             return [Remedy(solves="bearing_overstress", change=change, utilisation_after=util, message=message)]
     return []
 

@@ -192,3 +192,48 @@ def test_a_bearing_exactly_at_its_resistance_gets_no_remedy():
         {"bearings.0.length_mm": 410.0},  # 400 mm x (1 + 1e-9) rounded up to the remedies' 10 mm step
         {"bearings.1.length_mm": 410.0},
     ]
+
+
+def _golden_remedies(count):
+    from tests.core.golden import beams
+
+    for beam in beams(count):
+        yield from remedies(beam)
+
+
+def test_remedy_messages_name_checks_in_words_not_codes():
+    """Common practice: a notice read by a contractor names the check ("shear"), not a program's code.
+
+    Before: "a 130 x 494 mm glulam (...): shear_overstress 0.927". Over the golden beams' remedies
+    (tests/core/golden.py: every material, layout, bracing and bearing state).
+    """
+    found = list(_golden_remedies(400))
+    assert {r.solves for r in found} >= {"shear_overstress", "deflection_exceeds_limit", "bearing_overstress"}
+    coded = [r.message for r in found if re.search(r"[a-z]+_[a-z]+", r.message)]
+    assert coded == []
+    assert all(re.search(r"utilisation (then )?\d\.\d{3}", r.message) for r in found)
+
+
+def test_an_option_that_also_restrains_the_bearings_says_so():
+    """Common practice: an option that holds only together with another change states that change.
+
+    The bending options of a beam whose bearings lack restraint are rechecked with the restraint added
+    (their ``change`` carries it); the message must say so, and only those may say it.
+    """
+    found = list(_golden_remedies(400))
+    restraint_keys = re.compile(r"^bearings\.\d+\.(lateral|rotation)$")
+    with_restraint = [
+        r for r in found if r.solves != "bearing_restraint_missing" and any(restraint_keys.match(k) for k in r.change)
+    ]
+    assert with_restraint, "the golden set must hold bending options computed with restraint added"
+    for r in found:
+        says = "only with the bearing(s) restrained against lateral displacement and rotation" in r.message
+        assert says == (r in with_restraint), r.message
+
+
+def test_a_restraint_that_does_not_pass_by_itself_is_not_offered_as_enough():
+    """The restraint option's own recheck decides: over 1.00 it says it passes only with a bending option."""
+    found = [r for r in _golden_remedies(400) if r.solves == "bearing_restraint_missing"]
+    assert {r.utilisation_after > 1.0 for r in found} == {True, False}
+    for r in found:
+        assert ("over 1.00 by itself" in r.message) == (r.utilisation_after > 1.0), r.message
