@@ -11,6 +11,7 @@ from core.recheck import recheck
 from core.records import Stage
 from core.results import PRIORITY_ORDER
 from mobile.viewmodels.common import PRIORITY_LABELS, STAGE_WORDS, STATUS_WORDS, status_label
+from reports.render import SHORT_PRIORITY
 from storage import Store, results
 from storage.clock import uuid7
 from storage.gcpause import gc_paused
@@ -26,6 +27,12 @@ NEW_BEAM_DEFAULTS: dict[str, Any] = {
 LEVEL_NOT_RECORDED = "level not recorded"
 UNRAISED_NAMED = 30  # beams the unraised-findings warning names before "and N more" (its count comes first)
 PINNED = "▲ IMMEDIATE open: pinned"  # beams with an open IMMEDIATE deficiency, shown first (also under their level)
+# The site screen's caution band, short so the beam list keeps the height (its tap shows core.results.CAUTION
+# whole); it still says what the full caution says of the results and of who governs.
+CAUTION_SHORT = (
+    "Results support, never replace, the judgement of the engineer of record. Local codes and licensed practice "
+    "govern. Tap here for the full caution."
+)
 
 
 @dataclass
@@ -163,6 +170,15 @@ class SiteViewModel:
         for d in self.store.deficiencies(self.site_id, open_only=True):
             out.setdefault(d.priority, []).append((d.id, f"{d.number}  {d.location}  ·  {STAGE_WORDS[int(d.stage)]}"))
         return [(f"{PRIORITY_LABELS[p]} ({len(out[p])})", out[p]) for p in sorted(out, key=PRIORITY_ORDER.__getitem__)]
+
+    @staticmethod
+    def fold_label(groups: list[tuple[str, list[tuple[str, str]]]]) -> str:
+        """The portrait button that opens the deficiencies: how many are open, and how many are IMMEDIATE."""
+        total = sum(len(rows) for _, rows in groups)
+        urgent = sum(len(rows) for label, rows in groups if label.startswith(f"{PRIORITY_LABELS['immediate']} ("))
+        if not total:
+            return "Open deficiencies: none…"
+        return f"Open deficiencies ({total:,})" + (f"\n{SHORT_PRIORITY['immediate']}: {urgent:,}…" if urgent else "…")
 
     def open_deficiencies(self) -> list[str]:
         """One line per open deficiency, most urgent first."""
