@@ -983,6 +983,20 @@ elif FLOW == "site-rows":
         wanted = int(os.environ["BRACEWALK_MIN_ROWS"])
         assert len(rows) >= wanted, f"{len(rows)} beam rows wholly in view, want at least {wanted}"
 
+    @step
+    def longest_filters():
+        # the filters share their row with the search and "+ Log a beam": each choice still fits its box
+        s = screen("site")
+        seen = []
+        for value in s.ids.status_filter.values:
+            s.ids.status_filter.text = value
+            s.ids.status_filter.texture_update()
+            seen += layout_problems("site")
+        s.ids.level_filter.text = "level not recorded"
+        yield from shot(f"{GEOM}-site-rows-filters")
+        seen += layout_problems("site")
+        assert not seen, "\n".join(seen[:12])
+
 
 elif FLOW == "site-layout-once":
     # the first open of a site places the beam list's rows once, at the list's real width (it placed
