@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import copy
+import re
 import time
 from dataclasses import dataclass, field
 from typing import Any
@@ -33,6 +34,19 @@ CAUTION_SHORT = (
     "Results support, never replace, the judgement of the engineer of record. Local codes and licensed practice "
     "govern. Tap here for the full caution."
 )
+
+
+_DIGITS = re.compile(r"(\d+)")
+
+
+def level_key(level: str) -> tuple[tuple[tuple[str, int], ...], str]:
+    """The order levels are listed in: runs of digits as numbers (L2 before L10), the rest as text without case.
+
+    'B1' comes before 'L1' as text does. Ties (case, leading zeros) go by the text itself, so the order is total.
+    """
+    parts = _DIGITS.split(level.casefold())  # text, digits, text, ..., text
+    runs = tuple((parts[i], int(parts[i + 1])) for i in range(0, len(parts) - 1, 2))
+    return (*runs, (parts[-1], -1)), level
 
 
 @dataclass
@@ -97,12 +111,13 @@ class SiteViewModel:
             out.setdefault(where, []).append((beam_id, text, status_label(st)))
             if beam_id in immediate:
                 pinned.append((beam_id, f"{text}  ·  {where}", status_label(st)))
-        return ([(PINNED, pinned)] if pinned else []) + list(out.items())
+        by_level = sorted(out.items(), key=lambda group: level_key(group[0]))  # a handful of levels: no cost
+        return ([(PINNED, pinned)] if pinned else []) + by_level
 
     @staticmethod
     def levels(rows: list[tuple[str, dict[str, Any], str]]) -> list[str]:
-        """The levels the site's beams are on, as shown."""
-        return sorted({str(r.get("level") or LEVEL_NOT_RECORDED) for _, r, _ in rows})
+        """The levels the site's beams are on, as shown, in the list's order (``level_key``)."""
+        return sorted({str(r.get("level") or LEVEL_NOT_RECORDED) for _, r, _ in rows}, key=level_key)
 
     @staticmethod
     def counts(rows: list[tuple[str, dict[str, Any], str]], shown: int | None = None) -> str:

@@ -11,7 +11,7 @@ import pytest
 from core.results import CAUTION
 from mobile.demo.run import load_demo, raise_all
 from mobile.viewmodels import SiteViewModel
-from mobile.viewmodels.site import CAUTION_SHORT, PINNED, UNRAISED_NAMED
+from mobile.viewmodels.site import CAUTION_SHORT, LEVEL_NOT_RECORDED, PINNED, UNRAISED_NAMED, level_key
 from storage import Store
 from tests.core.beams import glulam
 
@@ -96,3 +96,19 @@ def test_the_short_caution_still_says_what_governs():
         assert phrase in CAUTION_SHORT
     assert "full caution" in CAUTION_SHORT  # says a tap shows the rest
     assert len(CAUTION_SHORT) < len(CAUTION) / 2
+
+
+def test_levels_are_listed_in_natural_order():
+    """L2 before L10, as floors are numbered on drawings (common practice); letters as text, so B1 before L1."""
+    shown = ["L10", "Roof", "L2", "B1", "l3", "L1", LEVEL_NOT_RECORDED, "P2", "L02"]
+    assert sorted(shown, key=level_key) == ["B1", "L1", "L02", "L2", "l3", "L10", LEVEL_NOT_RECORDED, "P2", "Roof"]
+    rows = [(f"b{i}", {"mark": f"M-{i}", "level": level}, "ok") for i, level in enumerate(["L10", "L2", "L1"])]
+    assert SiteViewModel.levels(rows) == ["L1", "L2", "L10"]
+
+
+def test_the_site_list_groups_levels_in_natural_order(store):
+    site = store.create_site(name="Tower")
+    for level in ("L10", "L2", "L1"):
+        store.save_beam(site.id, glulam(mark=f"{level}-B1"), {"level": level, "gridline": "A/1"})
+    vm = SiteViewModel(store, site.id)
+    assert [where for where, _ in vm.groups()] == ["L1", "L2", "L10"]  # stored order is L1, L10, L2 (as text)

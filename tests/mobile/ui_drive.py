@@ -980,6 +980,8 @@ elif FLOW == "site-rows":
         print(f"BEAM-ROWS {len(rows)} {rows[:1]}", flush=True)
         problems = layout_problems("site")
         assert not problems, "\n".join(problems[:12])
+        headings = [d["text"] for d in screen("site").ids.beam_list.data if d["viewclass"] == "BeamHeading"]
+        assert headings == ["Level: L2", "Level: L10"], headings  # natural order (L10 came first, as text)
         wanted = int(os.environ["BRACEWALK_MIN_ROWS"])
         assert len(rows) >= wanted, f"{len(rows)} beam rows wholly in view, want at least {wanted}"
 
