@@ -12,6 +12,8 @@ from __future__ import annotations
 from typing import Any
 
 from kivy.app import App
+from kivy.clock import Clock
+from kivy.core.window import Window
 from kivy.factory import Factory
 from kivy.metrics import dp, mm
 from kivy.properties import BooleanProperty, StringProperty
@@ -27,7 +29,7 @@ from core.results import PRIORITY_ORDER
 from mobile.screens.widgets import big_button, status_colour
 from mobile.viewmodels import SiteViewModel
 from mobile.viewmodels.common import PRIORITY_LABELS, STATUS_WORDS, status_label
-from mobile.viewmodels.site import CAUTION_SHORT, PINNED
+from mobile.viewmodels.site import CAUTION_SHORT, PINNED, RECHECK_NOTICE_AT
 
 ALL_LEVELS, ALL_STATUSES = "all levels", "all statuses"
 HEADING_MM = 8  # a level's heading in the beam list: a thin band, not a target (site.kv BeamHeading)
@@ -129,17 +131,48 @@ class SiteScreen(Screen):
         self.caution_full = Factory.CautionFull()
         self._popup: Popup | None = None
         self._rows: list[tuple[str, dict[str, Any], str]] = []
+        self._loading = False  # rechecking stale results after saying so: the list is not read yet
 
     def on_size(self, *_: Any) -> None:
         """Landscape or portrait: the columns follow the screen's shape."""
         self.wide = self.width >= self.height
 
     def on_pre_enter(self, *args: Any) -> None:
-        """Refresh from storage."""
+        """Refresh from storage; when many results are stale, say so on screen before rechecking them."""
         app = App.get_running_app()
         self.vm = SiteViewModel(app.store, app.site_id)
         self.title = self.vm.title()
         self.visit_text = self.vm.visit_line()
+        self.show_deficiencies()
+        self._rows = []
+        stale = self.vm.stale_count()
+        if stale < RECHECK_NOTICE_AT:
+            self._load()
+            return
+        # e.g. every result after a table correction: ~2 s for 10,000 beams, which froze the last screen shown
+        self._loading = True
+        self.unraised_text = ""
+        self.counts_text = self.vm.rechecking_line(stale)
+        lay_out_now(self, self.manager.size)
+        self.ids.beam_list.data = [heading_row("Rechecking…")]
+        self._after_drawn(self._load)
+
+    @staticmethod
+    def _after_drawn(then: Any) -> None:
+        """Call ``then()`` in the tick after the next frame is drawn and shown (its ``on_flip``, then a new tick)."""
+
+        def flipped(*_: Any) -> None:
+            Window.unbind(on_flip=flipped)
+            Clock.schedule_once(lambda _dt: then(), 0)
+
+        Window.bind(on_flip=flipped)
+        Window.canvas.ask_update()
+
+    def _load(self) -> None:
+        """Read the beams (rechecking the stale ones) and lay them out with their counts and the unraised warning."""
+        self._loading = False
+        if self.manager is None or self.manager.current != self.name:
+            return  # left before the recheck started: the next visit loads
         self._rows = self.vm.beam_rows()
         self.ids.level_filter.values = [ALL_LEVELS, *self.vm.levels(self._rows)]
         self.ids.status_filter.values = [ALL_STATUSES, *(status_label(s) for s in STATUS_WORDS)]
@@ -147,7 +180,6 @@ class SiteScreen(Screen):
         self.counts_text = self.vm.counts(self._rows, shown=self.vm.shown(groups))  # its height, before the layout
         lay_out_now(self, self.manager.size)  # before the list gets its rows: they are placed once
         self.show_beams(groups)
-        self.show_deficiencies()
         self.unraised_text = self.vm.unraised_warning()
 
     def after_sync(self) -> None:
@@ -157,7 +189,7 @@ class SiteScreen(Screen):
         made any of this site's results stale, so no row keeps showing the status from before the sync.
         The search, the filters and the list's scroll position stay as they are.
         """
-        if not hasattr(self, "vm"):
+        if not hasattr(self, "vm") or self._loading:
             return
         if self.vm.stale():
             self._rows = self.vm.beam_rows()
@@ -168,7 +200,7 @@ class SiteScreen(Screen):
 
     def filter_changed(self) -> None:
         """Search text or a filter changed: redraw the beam list."""
-        if hasattr(self, "vm"):
+        if hasattr(self, "vm") and not self._loading:
             self.show_beams()
 
     def _groups(self) -> list[tuple[str, list[tuple[str, str, str]]]]:

@@ -26,6 +26,7 @@ NEW_BEAM_DEFAULTS: dict[str, Any] = {
     "top_edge": {"braced_by": "none", "spacing_mm": None, "fastened": None},  # not recorded: taken as not fastened
 }
 LEVEL_NOT_RECORDED = "level not recorded"
+RECHECK_NOTICE_AT = 500  # stale beams (~0.1 s of rechecking) from which the screen says so before it starts
 UNRAISED_NAMED = 30  # beams the unraised-findings warning names before "and N more" (its count comes first)
 PINNED = "▲ IMMEDIATE open: pinned"  # beams with an open IMMEDIATE deficiency, shown first (also under their level)
 # The site screen's caution band, short so the beam list keeps the height (its tap shows core.results.CAUTION
@@ -82,6 +83,15 @@ class SiteViewModel:
         design basis or of a firm table row marks the results it touches stale (storage/db.py triggers).
         """
         return results.has_stale(self.store.db, self.site_id)
+
+    def stale_count(self) -> int:
+        """How many beams opening the site will recheck first (their stored results are out of date)."""
+        return results.stale_count(self.store.db, self.site_id)
+
+    @staticmethod
+    def rechecking_line(count: int) -> str:
+        """What the screen says while it rechecks ``count`` beams before listing them."""
+        return f"Rechecking {count:,} beam{'s' if count != 1 else ''} (their stored results are out of date)…"
 
     def groups(
         self,

@@ -151,6 +151,16 @@ def test_the_beam_list_gets_most_of_the_screen(tmp_path, geometry):
     assert "UI-OK" in out, out[-3000:]
 
 
+def test_a_site_with_stale_results_says_it_is_rechecking_before_the_work(tmp_path):
+    """600 stale results: a frame showing "Rechecking 600 beams..." is drawn before the recheck starts.
+
+    Screenshots: test-artefacts/ui-rechecking/site-rechecking.png (the frame on screen when the work starts).
+    """
+    shots = ROOT / "test-artefacts" / "ui-rechecking"
+    out = run_app(tmp_path / "k.db", shots, "site-rechecking", tmp_path / "home")
+    assert "UI-OK" in out, out[-3000:]
+
+
 def test_the_site_list_follows_a_sync_that_changed_a_beam(tmp_path):
     """A background sync finishing on the site screen redraws the rows whose results it made stale."""
     out = run_app(tmp_path / "y.db", ROOT / "test-artefacts" / "ui", "site-after-sync", tmp_path / "home")

@@ -1000,6 +1000,57 @@ elif FLOW == "site-rows":
         assert not seen, "\n".join(seen[:12])
 
 
+elif FLOW == "site-rechecking":
+    # a site whose stored results are all stale (after a table correction: ~2 s for 10,000 beams) says so on
+    # screen before the recheck starts; the last screen stayed frozen on the display until it was done
+    from storage import results as stored_results
+
+    STALE = 600
+    seen = {"flips": 0}
+
+    @step
+    def many_stale():
+        demo = next(x for x in app.store.sites() if "Cedar" in x.name)
+        site = app.store.create_site(**demo.model_dump(exclude={"id", "demo"}) | {"name": "Stale yard"})
+        beam = app.store.beam(next(i for i, r in app.store.beams(demo.id) if r["mark"] == "RB-1"))
+        for n in range(STALE):
+            app.store.save_beam(site.id, beam, {"mark": f"S-{n}", "level": "L1"})
+        assert stored_results.stale_count(app.store.db, site.id) == STALE  # a new beam's result starts stale
+        seen["site"] = site.id
+
+    @step
+    def open_stale():
+        def flipped(*_):
+            if app.root.current == "site" and screen("site").ids.counts.text.startswith("Rechecking"):
+                seen["flips"] += 1  # a frame drawn (and then shown) with the message
+
+        app.root_window.bind(on_flip=flipped)
+        real = stored_results.refresh
+
+        def refresh(db, site_id):
+            seen["at_work"] = (seen["flips"], screen("site").ids.counts.text)
+            written = app.root_window.screenshot(str(OUT / "site-rechecking.png"))  # the frame last drawn
+            Path(written).replace(OUT / "site-rechecking.png")
+            stored_results.refresh = real
+            return real(db, site_id)
+
+        stored_results.refresh = refresh
+        app.open_site(seen["site"])
+
+    @step
+    def said_before_the_work():
+        if "at_work" not in seen:
+            raise TimeoutError  # the recheck has not started yet: the runner tries again
+        flips, text = seen["at_work"]
+        print(f"AT-WORK flips {flips} text {text!r}", flush=True)
+        assert flips >= 1, f"no frame showed the message before the recheck started (counts said {text!r})"
+        assert text == f"Rechecking {STALE} beams (their stored results are out of date)…", text
+        yield from shot("site-after-recheck")
+        counts = screen("site").counts_text
+        assert counts.startswith(f"{STALE} beams:"), counts
+        assert stored_results.stale_count(app.store.db, seen["site"]) == 0
+
+
 elif FLOW == "site-layout-once":
     # the first open of a site places the beam list's rows once, at the list's real width (it placed
     # them three times: once about 34 px wide, before the screen had its size; once more when the list's
