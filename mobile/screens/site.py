@@ -32,6 +32,7 @@ from mobile.viewmodels.common import PRIORITY_LABELS, STATUS_WORDS, status_label
 from mobile.viewmodels.site import CAUTION_SHORT, PINNED, RECHECK_NOTICE_AT
 
 ALL_LEVELS, ALL_STATUSES = "all levels", "all statuses"
+AFTER_DRAWN_LATEST_S = 1.0  # the stale-results recheck starts then at the latest, frame drawn or not
 HEADING_MM = 8  # a level's heading in the beam list: a thin band, not a target (site.kv BeamHeading)
 
 
@@ -159,14 +160,24 @@ class SiteScreen(Screen):
 
     @staticmethod
     def _after_drawn(then: Any) -> None:
-        """Call ``then()`` in the tick after the next frame is drawn and shown (its ``on_flip``, then a new tick)."""
+        """Call ``then()`` once, in the tick after the next frame is drawn and shown (its ``on_flip``, then a new tick).
+
+        A window that draws no frame (an app sent to the background) still gets it after ``AFTER_DRAWN_LATEST_S``.
+        """
+        pending = [True]
+
+        def run(*_: Any) -> None:
+            if pending[0]:
+                pending[0] = False
+                Window.unbind(on_flip=flipped)
+                then()
 
         def flipped(*_: Any) -> None:
-            Window.unbind(on_flip=flipped)
-            Clock.schedule_once(lambda _dt: then(), 0)
+            Clock.schedule_once(run, 0)
 
         Window.bind(on_flip=flipped)
         Window.canvas.ask_update()
+        Clock.schedule_once(run, AFTER_DRAWN_LATEST_S)
 
     def _load(self) -> None:
         """Read the beams (rechecking the stale ones) and lay them out with their counts and the unraised warning."""
@@ -220,11 +231,10 @@ class SiteScreen(Screen):
         self.ids.beam_list.data = data
 
     def show_deficiencies(self) -> None:
-        """Open deficiencies by priority, IMMEDIATE first: in the right-hand column and in the portrait fold."""
+        """Open deficiencies by priority, IMMEDIATE first, in the right-hand column; their counts on the fold."""
         groups = self.vm.deficiency_groups()
         self.fold_text = self.vm.fold_label(groups)
         self._fill_deficiencies(self.ids.deficiency_list, groups)
-        self._fill_deficiencies(self.fold.ids.fold_list, groups)
 
     def _fill_deficiencies(self, dbox: Any, groups: list[tuple[str, list[tuple[str, str]]]]) -> None:
         app = App.get_running_app()
@@ -241,7 +251,8 @@ class SiteScreen(Screen):
         App.get_running_app().open_deficiency(deficiency_id)
 
     def open_fold(self) -> None:
-        """Portrait: the open deficiencies, most urgent first, over the screen."""
+        """Portrait: the open deficiencies, most urgent first, over the screen (read when opened)."""
+        self._fill_deficiencies(self.fold.ids.fold_list, self.vm.deficiency_groups())
         self._open("Open deficiencies, most urgent first", self.fold)
 
     def open_caution(self) -> None:
