@@ -998,6 +998,19 @@ elif FLOW == "site-rows":
         yield from shot(f"{GEOM}-site-rows-filters")
         seen += layout_problems("site")
         assert not seen, "\n".join(seen[:12])
+        s.ids.caution.trigger_action(0)  # the short caution band: a tap shows the whole caution
+
+    @step
+    def whole_caution():
+        from kivy.uix.modalview import ModalView
+
+        yield from shot(f"{GEOM}-site-rows-caution")
+        (view,) = [w for w in app.root_window.children if isinstance(w, ModalView)]
+        texts = [getattr(w, "text", "") for w in view.walk(restrict=True)]
+        assert app.caution in texts, texts
+        problems = popup_problems()
+        assert not problems, "\n".join(problems[:12])
+        view.dismiss()
 
 
 elif FLOW == "site-rechecking":
