@@ -478,6 +478,12 @@ def has_stale(db: Any, site_id: str) -> bool:
     return db.execute(sql, [site_id]).fetchone() is not None
 
 
+def stale_count(db: Any, site_id: str) -> int:
+    """How many of the site's results are stale: the beams ``refresh`` would recheck (through the stale-row index)."""
+    sql = "SELECT count(*) FROM beam_result WHERE site_id = ? AND input_hash = ''"
+    return int(db.execute(sql, [site_id]).fetchone()[0])
+
+
 def refresh(db: Any, site_id: str) -> int:
     """Recompute (here, in this process) the stale results of a site; return how many were stale.
 

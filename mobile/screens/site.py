@@ -1,7 +1,10 @@
 """The site screen (site.kv): beams found by mark / level / status with counts, open deficiencies, the visit.
 
-The open-deficiency list keeps its own part of the screen at every size, most urgent first; the
-visit and the raise-by-hand forms open over the screen so they never squeeze it.
+The beam list takes most of the height: search, filters and "+ Log a beam" share one row, a level's
+heading is a thin band, and the caution band is short (a tap shows it whole). In landscape the visit,
+the unraised warning and the open deficiencies (most urgent first) have the right-hand column; in
+portrait they sit under the list, the deficiencies folded behind a button with their count (and the
+IMMEDIATE count), opened over the screen. The visit and raise-by-hand forms open over the screen too.
 """
 
 from __future__ import annotations
@@ -9,9 +12,11 @@ from __future__ import annotations
 from typing import Any
 
 from kivy.app import App
+from kivy.clock import Clock
+from kivy.core.window import Window
 from kivy.factory import Factory
-from kivy.metrics import dp
-from kivy.properties import StringProperty
+from kivy.metrics import dp, mm
+from kivy.properties import BooleanProperty, StringProperty
 from kivy.uix.button import Button
 from kivy.uix.label import Label
 from kivy.uix.layout import Layout
@@ -24,9 +29,11 @@ from core.results import PRIORITY_ORDER
 from mobile.screens.widgets import big_button, status_colour
 from mobile.viewmodels import SiteViewModel
 from mobile.viewmodels.common import PRIORITY_LABELS, STATUS_WORDS, status_label
-from mobile.viewmodels.site import PINNED
+from mobile.viewmodels.site import CAUTION_SHORT, PINNED, RECHECK_NOTICE_AT
 
 ALL_LEVELS, ALL_STATUSES = "all levels", "all statuses"
+AFTER_DRAWN_LATEST_S = 1.0  # the stale-results recheck starts then at the latest, frame drawn or not
+HEADING_MM = 8  # a level's heading in the beam list: a thin band, not a target (site.kv BeamHeading)
 
 
 class BeamRow(Button):
@@ -46,7 +53,7 @@ def list_data(groups: list[tuple[str, list[tuple[str, str, str]]]], statuses: di
     """
     data: list[dict[str, Any]] = []
     for where, rows in groups:
-        data.append({"viewclass": "BeamHeading", "text": where if where == PINNED else f"Level: {where}"})
+        data.append(heading_row(where if where == PINNED else f"Level: {where}"))
         data += [
             {
                 "viewclass": "BeamRow",
@@ -57,6 +64,11 @@ def list_data(groups: list[tuple[str, list[tuple[str, str, str]]]], statuses: di
             for beam_id, name, label in rows
         ]
     return data
+
+
+def heading_row(text: str) -> dict[str, Any]:
+    """A heading of the recycling list: a thin band (HEADING_MM) between the 15 mm beam rows."""
+    return {"viewclass": "BeamHeading", "text": text, "height": mm(HEADING_MM)}
 
 
 def lay_out_now(screen: Screen, size: Any) -> None:
@@ -77,21 +89,21 @@ def lay_out_now(screen: Screen, size: Any) -> None:
             widget.update_from_scroll()  # sizes its content (the list's layout) from its own size
 
 
-def presize(layout: Any, rows: int) -> None:
-    """Give the recycling list's layout the height it will find for ``rows`` rows, before they are set.
+def presize(layout: Any, data: list[dict[str, Any]]) -> None:
+    """Give the recycling list's layout the height it will find for the rows of ``data``, before they are set.
 
     The list's height follows ``minimum_height`` (site.kv), which the layout computes while it places
     every row; a change of height then makes it place every row again (10,000 rows: two passes). Set
     beforehand, the same sum as the layout's own (``BoxLayout._iterate_layout``: padding and spacing,
-    then each row's default height in turn) leaves nothing to change, so the rows are placed once.
-    Every row takes the default height (no row sets its own size); were one to differ, the list would
-    only be placed twice, never drawn wrong.
+    then each row's height in turn: its ``height`` in the data, else the default) leaves nothing to
+    change, so the rows are placed once. Were a row to differ, the list would only be placed twice,
+    never drawn wrong.
     """
     _, top, _, bottom = layout.padding
-    total = top + bottom + layout.spacing * (rows - 1)
+    total = top + bottom + layout.spacing * (len(data) - 1)
     row_height = layout.default_size[1]
-    for _ in range(rows):
-        total += row_height
+    for row in data:
+        total += row.get("height", row_height)
     layout.minimum_height = total
 
 
@@ -103,6 +115,9 @@ class SiteScreen(Screen):
     message = StringProperty("")
     counts_text = StringProperty("")
     unraised_text = StringProperty("")
+    fold_text = StringProperty("")
+    caution_short = StringProperty(CAUTION_SHORT)
+    wide = BooleanProperty(True)  # landscape: two columns; portrait: the deficiencies folded behind a button
 
     def on_kv_post(self, base_widget: Any) -> None:
         """Build the visit and raise-by-hand forms once (opened over the screen when asked)."""
@@ -112,15 +127,63 @@ class SiteScreen(Screen):
         self.hand_form.ids.hand_priority.text = PRIORITY_LABELS["before_loading"]
         self.visit_form.ids.start_visit.bind(on_release=lambda *_: self.start_visit())
         self.hand_form.ids.hand_raise.bind(on_release=lambda *_: self.raise_by_hand())
+        self.fold = Factory.DeficiencyFold()
+        self.fold.ids.fold_hand.bind(on_release=lambda *_: self.open_hand())
+        self.caution_full = Factory.CautionFull()
         self._popup: Popup | None = None
         self._rows: list[tuple[str, dict[str, Any], str]] = []
+        self._loading = False  # rechecking stale results after saying so: the list is not read yet
+
+    def on_size(self, *_: Any) -> None:
+        """Landscape or portrait: the columns follow the screen's shape."""
+        self.wide = self.width >= self.height
 
     def on_pre_enter(self, *args: Any) -> None:
-        """Refresh from storage."""
+        """Refresh from storage; when many results are stale, say so on screen before rechecking them."""
         app = App.get_running_app()
         self.vm = SiteViewModel(app.store, app.site_id)
         self.title = self.vm.title()
         self.visit_text = self.vm.visit_line()
+        self.show_deficiencies()
+        self._rows = []
+        stale = self.vm.stale_count()
+        if stale < RECHECK_NOTICE_AT:
+            self._load()
+            return
+        # e.g. every result after a table correction: ~2 s for 10,000 beams, which froze the last screen shown
+        self._loading = True
+        self.unraised_text = ""
+        self.counts_text = self.vm.rechecking_line(stale)
+        lay_out_now(self, self.manager.size)
+        self.ids.beam_list.data = [heading_row("Rechecking…")]
+        self._after_drawn(self._load)
+
+    @staticmethod
+    def _after_drawn(then: Any) -> None:
+        """Call ``then()`` once, in the tick after the next frame is drawn and shown (its ``on_flip``, then a new tick).
+
+        A window that draws no frame (an app sent to the background) still gets it after ``AFTER_DRAWN_LATEST_S``.
+        """
+        pending = [True]
+
+        def run(*_: Any) -> None:
+            if pending[0]:
+                pending[0] = False
+                Window.unbind(on_flip=flipped)
+                then()
+
+        def flipped(*_: Any) -> None:
+            Clock.schedule_once(run, 0)
+
+        Window.bind(on_flip=flipped)
+        Window.canvas.ask_update()
+        Clock.schedule_once(run, AFTER_DRAWN_LATEST_S)
+
+    def _load(self) -> None:
+        """Read the beams (rechecking the stale ones) and lay them out with their counts and the unraised warning."""
+        self._loading = False
+        if self.manager is None or self.manager.current != self.name:
+            return  # left before the recheck started: the next visit loads
         self._rows = self.vm.beam_rows()
         self.ids.level_filter.values = [ALL_LEVELS, *self.vm.levels(self._rows)]
         self.ids.status_filter.values = [ALL_STATUSES, *(status_label(s) for s in STATUS_WORDS)]
@@ -128,7 +191,6 @@ class SiteScreen(Screen):
         self.counts_text = self.vm.counts(self._rows, shown=self.vm.shown(groups))  # its height, before the layout
         lay_out_now(self, self.manager.size)  # before the list gets its rows: they are placed once
         self.show_beams(groups)
-        self.show_deficiencies()
         self.unraised_text = self.vm.unraised_warning()
 
     def after_sync(self) -> None:
@@ -138,7 +200,7 @@ class SiteScreen(Screen):
         made any of this site's results stale, so no row keeps showing the status from before the sync.
         The search, the filters and the list's scroll position stay as they are.
         """
-        if not hasattr(self, "vm"):
+        if not hasattr(self, "vm") or self._loading:
             return
         if self.vm.stale():
             self._rows = self.vm.beam_rows()
@@ -149,7 +211,7 @@ class SiteScreen(Screen):
 
     def filter_changed(self) -> None:
         """Search text or a filter changed: redraw the beam list."""
-        if hasattr(self, "vm"):
+        if hasattr(self, "vm") and not self._loading:
             self.show_beams()
 
     def _groups(self) -> list[tuple[str, list[tuple[str, str, str]]]]:
@@ -164,22 +226,38 @@ class SiteScreen(Screen):
         data = list_data(groups, {beam_id: st for beam_id, _, st in self._rows})
         self.counts_text = self.vm.counts(self._rows, shown=self.vm.shown(groups))
         if not data:
-            data = [{"viewclass": "BeamHeading", "text": "No beam matches."}]
-        presize(self.ids.beam_list.layout_manager, len(data))
+            data = [heading_row("No beam matches.")]
+        presize(self.ids.beam_list.layout_manager, data)
         self.ids.beam_list.data = data
 
     def show_deficiencies(self) -> None:
-        """Open deficiencies by priority, IMMEDIATE first (the list has its own part of the screen)."""
-        app = App.get_running_app()
-        dbox = self.ids.deficiency_list
-        dbox.clear_widgets()
+        """Open deficiencies by priority, IMMEDIATE first, in the right-hand column; their counts on the fold."""
         groups = self.vm.deficiency_groups()
+        self.fold_text = self.vm.fold_label(groups)
+        self._fill_deficiencies(self.ids.deficiency_list, groups)
+
+    def _fill_deficiencies(self, dbox: Any, groups: list[tuple[str, list[tuple[str, str]]]]) -> None:
+        app = App.get_running_app()
+        dbox.clear_widgets()
         if not groups:
             dbox.add_widget(Label(text="None open.", color=app.theme_fg, size_hint_y=None, height=dp(40)))
         for label, rows in groups:
             dbox.add_widget(Factory.Heading(text=label, font_size="18sp", height="9mm", shorten=True))
             for did, line in rows:
-                dbox.add_widget(big_button(line, lambda _b, d=did: app.open_deficiency(d), font_size="16sp"))
+                dbox.add_widget(big_button(line, lambda _b, d=did: self._open_deficiency(d), font_size="16sp"))
+
+    def _open_deficiency(self, deficiency_id: str) -> None:
+        self._close()  # from the portrait fold: it closes first
+        App.get_running_app().open_deficiency(deficiency_id)
+
+    def open_fold(self) -> None:
+        """Portrait: the open deficiencies, most urgent first, over the screen (read when opened)."""
+        self._fill_deficiencies(self.fold.ids.fold_list, self.vm.deficiency_groups())
+        self._open("Open deficiencies, most urgent first", self.fold)
+
+    def open_caution(self) -> None:
+        """The full caution (the band on this screen is its short form)."""
+        self._open("Caution", self.caution_full)
 
     def edit_site(self) -> None:
         """Edit this site and its design basis (on the sites screen's form)."""
@@ -210,7 +288,8 @@ class SiteScreen(Screen):
         self._open("Start a visit", self.visit_form)
 
     def open_hand(self) -> None:
-        """Open the form for the reviewer's own observation."""
+        """Open the form for the reviewer's own observation (from the portrait fold: over it, in its place)."""
+        self._close()
         self._open("Raise a deficiency by hand", self.hand_form)
 
     def start_visit(self) -> None:

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import copy
+import re
 import time
 from dataclasses import dataclass, field
 from typing import Any
@@ -11,6 +12,7 @@ from core.recheck import recheck
 from core.records import Stage
 from core.results import PRIORITY_ORDER
 from mobile.viewmodels.common import PRIORITY_LABELS, STAGE_WORDS, STATUS_WORDS, status_label
+from reports.render import SHORT_PRIORITY
 from storage import Store, results
 from storage.clock import uuid7
 from storage.gcpause import gc_paused
@@ -24,8 +26,28 @@ NEW_BEAM_DEFAULTS: dict[str, Any] = {
     "top_edge": {"braced_by": "none", "spacing_mm": None, "fastened": None},  # not recorded: taken as not fastened
 }
 LEVEL_NOT_RECORDED = "level not recorded"
+RECHECK_NOTICE_AT = 500  # stale beams (~0.1 s of rechecking) from which the screen says so before it starts
 UNRAISED_NAMED = 30  # beams the unraised-findings warning names before "and N more" (its count comes first)
 PINNED = "▲ IMMEDIATE open: pinned"  # beams with an open IMMEDIATE deficiency, shown first (also under their level)
+# The site screen's caution band, short so the beam list keeps the height (its tap shows core.results.CAUTION
+# whole); it still says what the full caution says of the results and of who governs.
+CAUTION_SHORT = (
+    "Results support, never replace, the judgement of the engineer of record. Local codes and licensed practice "
+    "govern. Tap here for the full caution."
+)
+
+
+_DIGITS = re.compile(r"(\d+)")
+
+
+def level_key(level: str) -> tuple[tuple[tuple[str, int], ...], str]:
+    """The order levels are listed in: runs of digits as numbers (L2 before L10), the rest as text without case.
+
+    'B1' comes before 'L1' as text does. Ties (case, leading zeros) go by the text itself, so the order is total.
+    """
+    parts = _DIGITS.split(level.casefold())  # text, digits, text, ..., text
+    runs = tuple((parts[i], int(parts[i + 1])) for i in range(0, len(parts) - 1, 2))
+    return (*runs, (parts[-1], -1)), level
 
 
 @dataclass
@@ -62,6 +84,15 @@ class SiteViewModel:
         """
         return results.has_stale(self.store.db, self.site_id)
 
+    def stale_count(self) -> int:
+        """How many beams opening the site will recheck first (their stored results are out of date)."""
+        return results.stale_count(self.store.db, self.site_id)
+
+    @staticmethod
+    def rechecking_line(count: int) -> str:
+        """What the screen says while it rechecks ``count`` beams before listing them."""
+        return f"Rechecking {count:,} beam{'s' if count != 1 else ''} (their stored results are out of date)…"
+
     def groups(
         self,
         search: str = "",
@@ -90,12 +121,13 @@ class SiteViewModel:
             out.setdefault(where, []).append((beam_id, text, status_label(st)))
             if beam_id in immediate:
                 pinned.append((beam_id, f"{text}  ·  {where}", status_label(st)))
-        return ([(PINNED, pinned)] if pinned else []) + list(out.items())
+        by_level = sorted(out.items(), key=lambda group: level_key(group[0]))  # a handful of levels: no cost
+        return ([(PINNED, pinned)] if pinned else []) + by_level
 
     @staticmethod
     def levels(rows: list[tuple[str, dict[str, Any], str]]) -> list[str]:
-        """The levels the site's beams are on, as shown."""
-        return sorted({str(r.get("level") or LEVEL_NOT_RECORDED) for _, r, _ in rows})
+        """The levels the site's beams are on, as shown, in the list's order (``level_key``)."""
+        return sorted({str(r.get("level") or LEVEL_NOT_RECORDED) for _, r, _ in rows}, key=level_key)
 
     @staticmethod
     def counts(rows: list[tuple[str, dict[str, Any], str]], shown: int | None = None) -> str:
@@ -163,6 +195,15 @@ class SiteViewModel:
         for d in self.store.deficiencies(self.site_id, open_only=True):
             out.setdefault(d.priority, []).append((d.id, f"{d.number}  {d.location}  ·  {STAGE_WORDS[int(d.stage)]}"))
         return [(f"{PRIORITY_LABELS[p]} ({len(out[p])})", out[p]) for p in sorted(out, key=PRIORITY_ORDER.__getitem__)]
+
+    @staticmethod
+    def fold_label(groups: list[tuple[str, list[tuple[str, str]]]]) -> str:
+        """The portrait button that opens the deficiencies: how many are open, and how many are IMMEDIATE."""
+        total = sum(len(rows) for _, rows in groups)
+        urgent = sum(len(rows) for label, rows in groups if label.startswith(f"{PRIORITY_LABELS['immediate']} ("))
+        if not total:
+            return "Open deficiencies: none…"
+        return f"Open deficiencies ({total:,})" + (f"\n{SHORT_PRIORITY['immediate']}: {urgent:,}…" if urgent else "…")
 
     def open_deficiencies(self) -> list[str]:
         """One line per open deficiency, most urgent first."""

@@ -16,7 +16,7 @@ from mobile.viewmodels import (
     SiteViewModel,
     SyncViewModel,
 )
-from mobile.viewmodels.site import PINNED
+from mobile.viewmodels.site import PINNED, level_key
 from storage import Store
 
 
@@ -63,7 +63,7 @@ def test_site_groups_deficiencies_by_priority_and_visit(demo):
     raise_all(store, site_id)
     vm = SiteViewModel(store, site_id)
     levels = [level for level, _ in vm.groups() if level != PINNED]
-    assert levels == sorted(levels)
+    assert levels == sorted(levels, key=level_key)
     groups = vm.deficiency_groups()
     assert groups[0][0].startswith("▲ IMMEDIATE")
     immediate = [d for d in store.deficiencies(site_id, open_only=True) if d.priority == "immediate"]

@@ -8,8 +8,10 @@ title ending in a lone separator.
 
 import pytest
 
+from core.results import CAUTION
+from mobile.demo.run import load_demo, raise_all
 from mobile.viewmodels import SiteViewModel
-from mobile.viewmodels.site import PINNED, UNRAISED_NAMED
+from mobile.viewmodels.site import CAUTION_SHORT, LEVEL_NOT_RECORDED, PINNED, UNRAISED_NAMED, level_key
 from storage import Store
 from tests.core.beams import glulam
 
@@ -60,3 +62,53 @@ def test_the_title_has_no_lone_separator_without_an_address(store):
     assert SiteViewModel(store, bare.id).title() == "Depot"
     full = store.create_site(name="Arena", address="12 Main St")
     assert SiteViewModel(store, full.id).title() == "Arena  ·  12 Main St"
+
+
+def test_the_folded_deficiencies_button_counts_them_and_the_immediate_ones(tmp_path):
+    """Portrait folds the open deficiencies behind one button: it must still say how many, and how many are urgent.
+
+    Expected counts from the demo's own records (each deficiency raised by ``raise_all``), counted here by priority.
+    """
+    store = Store(tmp_path / "demo.db")
+    site_id = load_demo(store)
+    vm = SiteViewModel(store, site_id)
+    assert vm.fold_label(vm.deficiency_groups()) == "Open deficiencies: none…"
+    raise_all(store, site_id)
+    open_now = store.deficiencies(site_id, open_only=True)
+    urgent = sum(d.priority == "immediate" for d in open_now)
+    assert urgent > 0
+    label = vm.fold_label(vm.deficiency_groups())
+    assert label == f"Open deficiencies ({len(open_now)})\n▲ IMMEDIATE: {urgent}…"
+    calm = [(lbl, rows) for lbl, rows in vm.deficiency_groups() if not lbl.startswith("▲")]
+    assert vm.fold_label(calm) == f"Open deficiencies ({sum(len(r) for _, r in calm)})…"  # no IMMEDIATE line
+
+
+def test_the_short_caution_still_says_what_governs():
+    """The site screen's short caution keeps the full caution's words on the results and on who governs.
+
+    The phrases are the full caution's own (core.results.CAUTION), which the short form's tap shows whole.
+    """
+    for phrase in (
+        "support, never replace, the judgement of the engineer of record",
+        "Local codes and licensed practice govern",
+    ):
+        assert phrase in CAUTION
+        assert phrase in CAUTION_SHORT
+    assert "full caution" in CAUTION_SHORT  # says a tap shows the rest
+    assert len(CAUTION_SHORT) < len(CAUTION) / 2
+
+
+def test_levels_are_listed_in_natural_order():
+    """L2 before L10, as floors are numbered on drawings (common practice); letters as text, so B1 before L1."""
+    shown = ["L10", "Roof", "L2", "B1", "l3", "L1", LEVEL_NOT_RECORDED, "P2", "L02"]
+    assert sorted(shown, key=level_key) == ["B1", "L1", "L02", "L2", "l3", "L10", LEVEL_NOT_RECORDED, "P2", "Roof"]
+    rows = [(f"b{i}", {"mark": f"M-{i}", "level": level}, "ok") for i, level in enumerate(["L10", "L2", "L1"])]
+    assert SiteViewModel.levels(rows) == ["L1", "L2", "L10"]
+
+
+def test_the_site_list_groups_levels_in_natural_order(store):
+    site = store.create_site(name="Tower")
+    for level in ("L10", "L2", "L1"):
+        store.save_beam(site.id, glulam(mark=f"{level}-B1"), {"level": level, "gridline": "A/1"})
+    vm = SiteViewModel(store, site.id)
+    assert [where for where, _ in vm.groups()] == ["L1", "L2", "L10"]  # stored order is L1, L10, L2 (as text)

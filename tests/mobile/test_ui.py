@@ -120,6 +120,47 @@ def test_first_site_open_places_the_beam_list_once(tmp_path, geometry):
     assert "UI-OK" in out, out[-3000:]
 
 
+# The tablet geometries of the session-25 review (window px, dpi, density: a 10-inch 1280x800 tablet run at
+# density 1.5, the same in portrait, a 2560x1600 one at density 3) and the beam rows wholly in view each needs:
+# a reviewer walking a site of hundreds of beams sees a screenful (the review found 2 in landscape, 1 in portrait).
+ROW_GEOMETRIES = {
+    "landscape-1280x800-d1.5": ((1280, 800), 149, 1.5, 5),
+    "portrait-800x1280-d1.5": ((800, 1280), 149, 1.5, 7),
+    "landscape-2560x1600-d3": ((2560, 1600), 300, 3.0, 5),
+}
+
+
+@pytest.mark.parametrize("geometry", list(ROW_GEOMETRIES))
+def test_the_beam_list_gets_most_of_the_screen(tmp_path, geometry):
+    """Counted from the RecycleView's geometry: rows wholly inside its window; no layout problem on the screen.
+
+    Screenshots: test-artefacts/ui-rows/<geometry>-site-rows.png.
+    """
+    size, dpi, density, rows = ROW_GEOMETRIES[geometry]
+    out = run_app(
+        tmp_path / "r.db",
+        ROOT / "test-artefacts" / "ui-rows",
+        "site-rows",
+        tmp_path / "home",
+        size=size,
+        dpi=dpi,
+        density=density,
+        geometry=geometry,
+        extra_env={"BRACEWALK_MIN_ROWS": str(rows)},
+    )
+    assert "UI-OK" in out, out[-3000:]
+
+
+def test_a_site_with_stale_results_says_it_is_rechecking_before_the_work(tmp_path):
+    """600 stale results: a frame showing "Rechecking 600 beams..." is drawn before the recheck starts.
+
+    Screenshots: test-artefacts/ui-rechecking/site-rechecking.png (the frame on screen when the work starts).
+    """
+    shots = ROOT / "test-artefacts" / "ui-rechecking"
+    out = run_app(tmp_path / "k.db", shots, "site-rechecking", tmp_path / "home")
+    assert "UI-OK" in out, out[-3000:]
+
+
 def test_the_site_list_follows_a_sync_that_changed_a_beam(tmp_path):
     """A background sync finishing on the site screen redraws the rows whose results it made stale."""
     out = run_app(tmp_path / "y.db", ROOT / "test-artefacts" / "ui", "site-after-sync", tmp_path / "home")

@@ -118,14 +118,14 @@ def _overlaps(leaves):
     return out
 
 
-def layout_problems(screen_name):
+def widget_problems(root):
     """Overlap, text spilling out of its box, a zero-size panel, off-screen controls, targets under 15 mm."""
     from kivy.uix.button import Button
     from kivy.uix.label import Label
     from kivy.uix.textinput import TextInput
 
     problems, leaves = [], []
-    for w in screen(screen_name).walk(restrict=True):
+    for w in root.walk(restrict=True):
         panel = _panel_problem(w)
         if panel:
             problems.append(panel)
@@ -140,7 +140,22 @@ def layout_problems(screen_name):
         problems += _leaf_problems(w, what)
         leaves.append((what, shown))
     problems += _overlaps(leaves)
-    return [f"{screen_name}: {p}" for p in problems]
+    return problems
+
+
+def layout_problems(screen_name):
+    """The layout rules (``widget_problems``) on a screen."""
+    return [f"{screen_name}: {p}" for p in widget_problems(screen(screen_name))]
+
+
+def popup_problems():
+    """The layout rules on what is open over the screen (a popup's content); none open is a problem too."""
+    from kivy.uix.modalview import ModalView
+
+    views = [w for w in app.root_window.children if isinstance(w, ModalView)]
+    if not views:
+        return ["nothing open over the screen"]
+    return [p for v in views for p in widget_problems(v.content if hasattr(v, "content") else v)]
 
 
 def _enrol_form(s):
@@ -216,6 +231,33 @@ def tap_photo(fx, fy):
 
 def demo_beam(mark):
     return next(i for i, r in app.store.beams(app.site_id) if r["mark"] == mark)
+
+
+def deficiency_list_problems(box, immediate):
+    """What is wrong with the open-deficiency list on screen (empty when nothing).
+
+    Its view at least 30 mm tall; the IMMEDIATE heading (with its count) and first item in view at its top;
+    the rest reached by scrolling when they do not all fit.
+    """
+    from kivy.metrics import mm
+
+    found = []
+    view = _window_rect(box.parent)
+    if view[3] - view[1] < mm(30):
+        found.append(f"site: open-deficiency list only {(view[3] - view[1]) / mm(1):.0f} mm tall")
+    rows = [w for w in box.walk(restrict=True) if any(d.number in getattr(w, "text", "") for d in immediate)]
+    assert len(rows) == len(immediate) > 0, (len(rows), len(immediate))
+    heading = next(w for w in box.walk(restrict=True) if getattr(w, "text", "").startswith("▲ IMMEDIATE"))
+    if not heading.text.endswith(f" ({len(immediate)})"):
+        found.append(f"site: IMMEDIATE heading without its count: {heading.text}")
+    for w in (heading, rows[0]):
+        r = _window_rect(w)
+        if r[1] < view[1] - 1 or r[3] > view[3] + 1:
+            found.append(f"site: IMMEDIATE heading or first item not in view: {w.text[:40]}")
+    below = [w for w in rows if _window_rect(w)[1] < view[1] - 1]
+    if below and box.height <= view[3] - view[1]:
+        found.append("site: IMMEDIATE items below the fold and the list does not scroll")
+    return found
 
 
 if FLOW == "main":
@@ -824,28 +866,21 @@ elif FLOW == "layout":
     @step
     def site_layout():
         yield from look("2-site")
-        from kivy.metrics import mm
-
         s = screen("site")
-        box = s.ids.deficiency_list
-        view = _window_rect(box.parent)
-        if view[3] - view[1] < mm(30):
-            seen.append(f"site: open-deficiency list only {(view[3] - view[1]) / mm(1):.0f} mm tall")
         immediate = [d for d in app.store.deficiencies(app.site_id, open_only=True) if d.priority == "immediate"]
-        rows = [w for w in box.walk(restrict=True) if any(d.number in getattr(w, "text", "") for d in immediate)]
-        assert len(rows) == len(immediate) > 0, (len(rows), len(immediate))
-        # the IMMEDIATE heading (with how many) and the first IMMEDIATE item open the list, in view; the rest
-        # follow it directly and are reached by scrolling when they do not all fit
-        heading = next(w for w in box.walk(restrict=True) if getattr(w, "text", "").startswith("▲ IMMEDIATE"))
-        if not heading.text.endswith(f" ({len(immediate)})"):
-            seen.append(f"site: IMMEDIATE heading without its count: {heading.text}")
-        for w in (heading, rows[0]):
-            r = _window_rect(w)
-            if r[1] < view[1] - 1 or r[3] > view[3] + 1:
-                seen.append(f"site: IMMEDIATE heading or first item not in view: {w.text[:40]}")
-        below = [w for w in rows if _window_rect(w)[1] < view[1] - 1]
-        if below and box.height <= view[3] - view[1]:
-            seen.append("site: IMMEDIATE items below the fold and the list does not scroll")
+        if s.wide:
+            seen.extend(deficiency_list_problems(s.ids.deficiency_list, immediate))
+            app.open_beam(demo_beam("RB-5"))
+            return
+        # portrait: the deficiencies are folded behind a button that says how many, and how many IMMEDIATE
+        total = len(app.store.deficiencies(app.site_id, open_only=True))
+        if f"({total})" not in s.ids.fold.text or f"IMMEDIATE: {len(immediate)}" not in s.ids.fold.text:
+            seen.append(f"site: the folded deficiencies' button without their counts: {s.ids.fold.text!r}")
+        s.ids.fold.trigger_action(0)
+        yield from look("2b-site-deficiencies")
+        seen.extend(f"site fold: {p}" for p in popup_problems())
+        seen.extend(deficiency_list_problems(s.fold.ids.fold_list, immediate))
+        s.fold.ids.cancel.trigger_action(0)
         app.open_beam(demo_beam("RB-5"))
 
     @step
@@ -909,6 +944,125 @@ elif FLOW == "portrait":
     def beam_portrait():
         assert app.root_window.height > app.root_window.width
         yield from shot("14-beam-portrait")
+
+elif FLOW == "site-rows":
+    # how many beam rows a reviewer sees at once on a long site (session-25 review: 2.5 rows at 1280x800
+    # with density 1.5, 1.5 in portrait, under fixed-height controls); BRACEWALK_MIN_ROWS from the test
+    GEOM = os.environ.get("BRACEWALK_GEOMETRY", "default")
+
+    def whole_rows_in_view():
+        """Beam rows wholly inside the list's window (the RecycleView's own rectangle), each with its text."""
+        rv = screen("site").ids.beam_list
+        view = _window_rect(rv)
+        rows = []
+        for w in rv.layout_manager.children:
+            if not getattr(w, "beam_id", ""):
+                continue
+            r = _window_rect(w)
+            if r[1] >= view[1] - 1 and r[3] <= view[3] + 1 and w.opacity == 1 and w.text:
+                rows.append(w.text)
+        return rows
+
+    @step
+    def many_beams():
+        demo = next(x for x in app.store.sites() if "Cedar" in x.name)
+        site = app.store.create_site(**demo.model_dump(exclude={"id", "demo"}) | {"name": "Row count yard"})
+        one = next(i for i, r in app.store.beams(demo.id) if r["mark"] == "RB-1")
+        for level in ("L2", "L10"):
+            for n in range(20):
+                app.store.save_beam(site.id, app.store.beam(one), {"mark": f"{level}-B{n}", "level": level})
+        app.open_site(site.id)
+
+    @step
+    def count_rows():
+        yield from shot(f"{GEOM}-site-rows")
+        rows = whole_rows_in_view()
+        print(f"BEAM-ROWS {len(rows)} {rows[:1]}", flush=True)
+        problems = layout_problems("site")
+        assert not problems, "\n".join(problems[:12])
+        headings = [d["text"] for d in screen("site").ids.beam_list.data if d["viewclass"] == "BeamHeading"]
+        assert headings == ["Level: L2", "Level: L10"], headings  # natural order (L10 came first, as text)
+        wanted = int(os.environ["BRACEWALK_MIN_ROWS"])
+        assert len(rows) >= wanted, f"{len(rows)} beam rows wholly in view, want at least {wanted}"
+
+    @step
+    def longest_filters():
+        # the filters share their row with the search and "+ Log a beam": each choice still fits its box
+        s = screen("site")
+        seen = []
+        for value in s.ids.status_filter.values:
+            s.ids.status_filter.text = value
+            s.ids.status_filter.texture_update()
+            seen += layout_problems("site")
+        s.ids.level_filter.text = "level not recorded"
+        yield from shot(f"{GEOM}-site-rows-filters")
+        seen += layout_problems("site")
+        assert not seen, "\n".join(seen[:12])
+        s.ids.caution.trigger_action(0)  # the short caution band: a tap shows the whole caution
+
+    @step
+    def whole_caution():
+        from kivy.uix.modalview import ModalView
+
+        yield from shot(f"{GEOM}-site-rows-caution")
+        (view,) = [w for w in app.root_window.children if isinstance(w, ModalView)]
+        texts = [getattr(w, "text", "") for w in view.walk(restrict=True)]
+        assert app.caution in texts, texts
+        problems = popup_problems()
+        assert not problems, "\n".join(problems[:12])
+        view.dismiss()
+
+
+elif FLOW == "site-rechecking":
+    # a site whose stored results are all stale (after a table correction: ~2 s for 10,000 beams) says so on
+    # screen before the recheck starts; the last screen stayed frozen on the display until it was done
+    from storage import results as stored_results
+
+    STALE = 600
+    seen = {"flips": 0}
+
+    @step
+    def many_stale():
+        demo = next(x for x in app.store.sites() if "Cedar" in x.name)
+        site = app.store.create_site(**demo.model_dump(exclude={"id", "demo"}) | {"name": "Stale yard"})
+        beam = app.store.beam(next(i for i, r in app.store.beams(demo.id) if r["mark"] == "RB-1"))
+        for n in range(STALE):
+            app.store.save_beam(site.id, beam, {"mark": f"S-{n}", "level": "L1"})
+        assert stored_results.stale_count(app.store.db, site.id) == STALE  # a new beam's result starts stale
+        seen["site"] = site.id
+
+    @step
+    def open_stale():
+        def flipped(*_):
+            if app.root.current == "site" and screen("site").ids.counts.text.startswith("Rechecking"):
+                seen["flips"] += 1  # a frame drawn (and then shown) with the message
+
+        app.root_window.bind(on_flip=flipped)
+        real = stored_results.refresh
+
+        def refresh(db, site_id):
+            seen["at_work"] = (seen["flips"], screen("site").ids.counts.text)
+            written = app.root_window.screenshot(str(OUT / "site-rechecking.png"))  # the frame last drawn
+            Path(written).replace(OUT / "site-rechecking.png")
+            stored_results.refresh = real
+            return real(db, site_id)
+
+        stored_results.refresh = refresh
+        app.open_site(seen["site"])
+
+    @step
+    def said_before_the_work():
+        if "at_work" not in seen:
+            raise TimeoutError  # the recheck has not started yet: the runner tries again
+        flips, text = seen["at_work"]
+        print(f"AT-WORK flips {flips} text {text!r}", flush=True)
+        assert flips >= 1, f"no frame showed the message before the recheck started (counts said {text!r})"
+        assert text == f"Rechecking {STALE} beams (their stored results are out of date)…", text
+        yield from shot("site-after-recheck")
+        counts = screen("site").counts_text
+        assert counts.startswith(f"{STALE} beams:"), counts
+        assert stored_results.stale_count(app.store.db, seen["site"]) == 0
+
 
 elif FLOW == "site-layout-once":
     # the first open of a site places the beam list's rows once, at the list's real width (it placed

@@ -216,3 +216,16 @@ def test_a_result_is_built_from_the_record_text_as_the_record_reads(store):
     assert rows[odd][8:] == ("T-2", "True", "", 0)
     # a row's stored JSON is what json.dumps writes for the same objects
     assert rows[bid][7] == json.dumps(json.loads(rows[bid][7]))
+
+
+def test_stale_count_is_what_a_refresh_rechecks(store):
+    """The site screen says "Rechecking N beams" with this count before the work: N must be what refresh does."""
+    site, _ = _site(store, n=4)
+    other, _ = _site(store, n=2)
+    assert results.stale_count(store.db, site.id) == 4  # a new beam's result starts stale
+    assert results.refresh(store.db, site.id) == 4
+    assert results.stale_count(store.db, site.id) == 0
+    assert results.stale_count(store.db, other.id) == 2  # another site's are its own
+    store.save("site", site.id, {"design_basis": {"snow_kpa": 3.5}})  # a basis change: every result of the site
+    assert results.stale_count(store.db, site.id) == 4
+    assert results.refresh(store.db, site.id) == 4
