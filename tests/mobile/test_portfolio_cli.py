@@ -9,31 +9,18 @@ import io
 
 import pytest
 
-from core import tables
 from core.recheck import recheck
 from core.results import CAUTION
 from mobile import portfolio
 from mobile.cli import main
 from storage import Store, results
-from tests.core.beams import glulam
+from tests.storage.test_firm_tables import _decked, published_tables  # noqa: F401  (autouse: it applies here too)
 
 CORRECTION = ["--by", "R. Osei", "--edition", "O86-19", "--page", "112", "--column", "fb_pos_mpa", "--value",
               "15.3", "--source", "firm's check of its copy (a test value: half the published fb)"]  # fmt: skip
 
 
 LIGHT = {"dead_kn_m": 0.6, "live_kn_m": 0.0, "snow_kn_m": 1.5}  # 0.3 x glulam()'s loads
-
-
-@pytest.fixture(autouse=True)
-def published_tables():
-    """Every test leaves the process on the published tables (`tables verify` applies the firm's records here)."""
-    yield
-    tables.use_firm_records([])
-
-
-def _decked(**over):
-    """A glulam beam under fastened decking: the compression edge is held, KL = 1."""
-    return glulam(top_edge={"braced_by": "decking", "fastened": True}, **over)
 
 
 def _two_sites(db):

@@ -220,10 +220,11 @@ def test_an_item_or_its_photos_on_the_next_page_are_headed_with_its_number():
         assert all(f"Photo {j}: nails {j}" in printed for j in range(1, photos + 1))
 
 
-def test_an_engineering_table_over_a_page_carries_its_member_on_the_next():
+def _five_span_item():
+    """RB-9: five spans, unbraced, with live load (20 check lines: more than a page), one bearing free."""
     beam = glulam(
         mark="RB-9",
-        spans_mm=[4000] * 5,  # five spans, unbraced, with live load: 20 check lines, more than a page
+        spans_mm=[4000] * 5,
         bearings=[HELD, FREE, *[HELD] * 4],
         top_edge={"braced_by": "none"},
         loads={"dead_kn_m": 2.0, "live_kn_m": 3.0, "snow_kn_m": 5.0},
@@ -232,7 +233,11 @@ def test_an_engineering_table_over_a_page_carries_its_member_on_the_next():
         id="e1", site_id="s", beam_id="b7", number="D-AB12-070", code="x", priority="immediate",
         location="Roof, grid C / 1-6, RB-9", description="RB-9: no restraint.", reference="S-201", action="Fix.",
     )  # fmt: skip
-    item = item_for(d, beam, recheck(beam), "as built", member_title="RB-9 · Roof · grid C / 1-6")
+    return item_for(d, beam, recheck(beam), "as built", member_title="RB-9 · Roof · grid C / 1-6")
+
+
+def test_an_engineering_table_over_a_page_carries_its_member_on_the_next():
+    item = _five_span_item()
     pdf = render_notice(_notice([item]))
     pages = [" ".join(p.split()) for p in _pages(pdf)]
     rows = [k for k, p in enumerate(pages) if "under 1.25D" in p]  # pages holding rows of the engineering table
@@ -342,18 +347,7 @@ def test_the_cautions_heading_is_on_the_page_of_its_cautions():
     from reports.content import CAUTIONS
 
     # the five-span member of test 11: its notice put "Cautions" last on page 4 and the cautions on page 5
-    beam = glulam(
-        mark="RB-9",
-        spans_mm=[4000] * 5,
-        bearings=[HELD, FREE, *[HELD] * 4],
-        top_edge={"braced_by": "none"},
-        loads={"dead_kn_m": 2.0, "live_kn_m": 3.0, "snow_kn_m": 5.0},
-    )
-    d = Deficiency(
-        id="e1", site_id="s", beam_id="b7", number="D-AB12-070", code="x", priority="immediate",
-        location="Roof, grid C / 1-6, RB-9", description="RB-9: no restraint.", reference="S-201", action="Fix.",
-    )  # fmt: skip
-    item = item_for(d, beam, recheck(beam), "as built", member_title="RB-9 · Roof · grid C / 1-6")
+    item = _five_span_item()
     pages = [" ".join(p.split()) for p in _pages(render_notice(_notice([item])))]
     heading = [k for k, p in enumerate(pages) if "Cautions • " + CAUTIONS[0][:40] in p]
     assert len(heading) == 1
