@@ -6,9 +6,12 @@ import argparse
 import json
 import os
 import sys
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 from mobile.errors import EXIT_OK, UserError
+
+if TYPE_CHECKING:
+    from storage.results import Place
 
 PROGRESS_STEPS = 10  # lines a progress log written to a file or pipe gets: one per tenth of the beams
 
@@ -38,24 +41,6 @@ def _progress(stream: Any) -> Any:
             stream.flush()
 
     return lines
-
-
-Place = tuple[str, str, str, str]  # site name, mark, level, gridline ('' when not recorded)
-
-
-def places(db: Any, beam_ids: list[str], chunk: int = 500) -> dict[str, Place]:
-    """Site name, mark, level and gridline of each beam in ``beam_ids`` (read ``chunk`` ids at a time)."""
-    out: dict[str, Place] = {}
-    for i in range(0, len(beam_ids), chunk):
-        ids = beam_ids[i : i + chunk]
-        rows = db.execute(
-            "SELECT b.id, json_extract(s.data, '$.name'), json_extract(b.data, '$.mark'), "
-            "json_extract(b.data, '$.level'), json_extract(b.data, '$.gridline') "
-            f"FROM beam b LEFT JOIN site s ON s.id = b.site_id WHERE b.id IN ({','.join('?' * len(ids))})",
-            ids,
-        ).fetchall()
-        out.update({r[0]: tuple(str(v or "") for v in r[1:]) for r in rows})
-    return out
 
 
 def where(place: Place | None, beam_id: str) -> str:
@@ -90,12 +75,6 @@ def changed_lines(pairs: list[tuple[Any, Any]], where_of: dict[str, Place]) -> l
     return out
 
 
-def archived(db: Any, site_id: str | None) -> int:
-    """How many beams (of a site) are archived: the portfolio recheck leaves them out."""
-    sql = "SELECT count(*) FROM beam b WHERE coalesce(json_extract(b.data, '$.archived'), 0)"
-    return int(db.execute(sql + (" AND b.site_id = ?" if site_id else ""), [site_id] if site_id else []).fetchone()[0])
-
-
 def summary_line(rechecked: int, changed: int, new: int, skipped: int, util_only: int = 0) -> str:
     """'rechecked 13 beams (1 archived beam not rechecked); 3 changed status or governing check, ...'.
 
@@ -126,7 +105,7 @@ def cmd_recheck(args: argparse.Namespace) -> int:
     """
     from core.results import CAUTION
     from mobile.commands import _open_store
-    from storage.results import changed, recheck_all
+    from storage.results import archived_count, changed, places, recheck_all
 
     store = _open_store(args.db)
     site_id = _site_arg(store, args.site)
@@ -138,7 +117,7 @@ def cmd_recheck(args: argparse.Namespace) -> int:
     for line in lines:
         print(line)
     new = sum(1 for b, _ in moved if b is None)
-    print(summary_line(run.rechecked, len(lines), new, archived(store.db, site_id), len(run.moved) - len(moved)))
+    print(summary_line(run.rechecked, len(lines), new, archived_count(store.db, site_id), len(run.moved) - len(moved)))
     print(CAUTION)
     return EXIT_OK
 
@@ -185,7 +164,8 @@ def impact_lines(store: Any, moved: list[tuple[Any, Any]]) -> list[str]:
     ``moved`` is ``PortfolioRun.moved``; beams with no stored result are listed last.
     """
     moved = [(b, a) for b, a in moved if b is not None] + [(b, a) for b, a in moved if b is None]
-    marks = dict(store.db.execute("SELECT id, json_extract(data, '$.mark') FROM beam").fetchall())
+    from storage.results import places
+
     where_of = places(store.db, [a.beam_id for _, a in moved])
     lines = []
     for b, a in moved:
@@ -198,7 +178,7 @@ def impact_lines(store: Any, moved: list[tuple[Any, Any]]) -> list[str]:
         notice = json.loads(data)
         hit = sorted(
             {
-                str(marks.get(deficiency_beam.get(d), ""))
+                where_of[deficiency_beam[d]][1]
                 for d in notice.get("deficiency_ids", [])
                 if deficiency_beam.get(d) in beams
             }

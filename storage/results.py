@@ -462,10 +462,36 @@ def _parts(db: Any, site_id: str | None, chunk: int) -> Iterator[Part]:
         last = raw[-1][0]
 
 
-def _count(db: Any, site_id: str | None) -> int:
-    """How many beams (of a site) the portfolio rechecks: every one not archived."""
-    where = "NOT coalesce(json_extract(b.data, '$.archived'), 0)" + (" AND b.site_id = ?" if site_id else "")
+_ARCHIVED_SQL = "coalesce(json_extract(b.data, '$.archived'), 0)"
+
+
+def _count(db: Any, site_id: str | None, archived: bool = False) -> int:
+    """How many beams (of a site) the portfolio rechecks: every one not archived (``archived``: those it leaves out)."""
+    where = ("" if archived else "NOT ") + _ARCHIVED_SQL + (" AND b.site_id = ?" if site_id else "")
     return int(db.execute(f"SELECT count(*) FROM beam b WHERE {where}", [site_id] if site_id else []).fetchone()[0])
+
+
+def archived_count(db: Any, site_id: str | None) -> int:
+    """How many beams (of a site) are archived: the portfolio recheck leaves them out."""
+    return _count(db, site_id, archived=True)
+
+
+Place = tuple[str, str, str, str]  # site name, mark, level, gridline ('' when not recorded)
+
+
+def places(db: Any, beam_ids: list[str], chunk: int = 500) -> dict[str, Place]:
+    """Site name, mark, level and gridline of each beam in ``beam_ids`` (read ``chunk`` ids at a time)."""
+    out: dict[str, Place] = {}
+    for i in range(0, len(beam_ids), chunk):
+        ids = beam_ids[i : i + chunk]
+        rows = db.execute(
+            "SELECT b.id, json_extract(s.data, '$.name'), json_extract(b.data, '$.mark'), "
+            "json_extract(b.data, '$.level'), json_extract(b.data, '$.gridline') "
+            f"FROM beam b LEFT JOIN site s ON s.id = b.site_id WHERE b.id IN ({','.join('?' * len(ids))})",
+            ids,
+        ).fetchall()
+        out.update({r[0]: (str(r[1] or ""), str(r[2] or ""), str(r[3] or ""), str(r[4] or "")) for r in rows})
+    return out
 
 
 def has_stale(db: Any, site_id: str) -> bool:
