@@ -4,7 +4,9 @@ Benchmarks: recheck, sync, report (modules of this package) and app (the tablet 
 run in a child process), and on request mutation (mutmut over core: not in the default run, it
 takes minutes to tens of minutes; see bench/mutation.py). Each uses its own temporary files and
 removes them. Figures are medians over repeats with their spread; baselines are measured in the same
-run. Nothing here is a test.
+run; the last row times two fixed workloads at the start and the end (``bench/machine.py``), so figures
+from different machines, or from a machine whose speed drifted, can be read side by side. Nothing here is
+a test.
 """
 
 from __future__ import annotations
@@ -14,6 +16,7 @@ import importlib
 import sys
 import time
 
+from bench import machine
 from bench.common import Row, own_peak_mb, print_table
 
 NAMES = ("recheck", "sync", "report", "app", "siteopen")
@@ -29,6 +32,8 @@ def main(argv: list[str] | None = None) -> int:
     rows: list[Row] = []
     failed = False
     t0 = time.perf_counter()
+    print("measuring this machine ...", file=sys.stderr, flush=True)
+    start = machine.speed(args.quick)
     for name in args.only or NAMES:
         print(f"running {name} ...", file=sys.stderr, flush=True)
         try:
@@ -37,6 +42,7 @@ def main(argv: list[str] | None = None) -> int:
         except Exception as exc:  # report the crash in the table and go on with the others
             failed = True
             rows.append(Row(name, "FAILED", "", "", f"{type(exc).__name__}: {exc}"[:80], False))
+    rows.append(machine.row(start, machine.speed(args.quick)))  # speeds differ between machines and over a run
     print_table(rows)
     print(
         f"\n({time.perf_counter() - t0:.0f} s; figures are medians, spread = (max - min) / median; "

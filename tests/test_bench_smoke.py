@@ -35,6 +35,7 @@ def test_bench_quick_prints_every_row():
         "site open, 1,000 beams (stored results)",
         "portfolio recheck, 2,000 beams, 2 processes",
         "portfolio pipeline without the recheck",
+        "machine: 10M Python additions",
     ):
         assert what in proc.stdout, proc.stdout
     assert "FAILED" not in proc.stdout
