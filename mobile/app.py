@@ -4,7 +4,8 @@ Screens (mobile/screens/: one module and one .kv file each): sites, site, beam, 
 sync, reviewer, photo; shared widgets in mobile/screens/widgets.py. This module keeps the App: theme, store,
 navigation. Every field is saved as it is entered (debounced while typing, at once on Enter or
 leaving the field), so a killed app loses nothing typed. Long work (sync) runs in a worker thread
-with its own database connection; the recheck (a few milliseconds) runs on the UI thread.
+with its own database connection, as does the site screen's recheck of many stale results; a beam's
+live recheck (a few milliseconds) runs on the UI thread.
 """
 
 from __future__ import annotations
@@ -163,6 +164,7 @@ class BracewalkApp(App):
             self.root.get_screen("beam").flush()
         self._auto_sync_timer.cancel()
         self.background.stop()
+        self.root.get_screen("site").stop_recheck()
         self.store.close()
         from kivy.core.window import Window
 

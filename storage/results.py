@@ -511,18 +511,31 @@ def stale_count(db: Any, site_id: str) -> int:
 
 
 def refresh(db: Any, site_id: str) -> int:
-    """Recompute (here, in this process) the stale results of a site; return how many were stale.
+    """Recompute (here, in this process) the stale results of a site in one transaction; return how many were stale."""
+    stored = [stale for _, stale in refresh_parts(db, site_id)]  # one part, or none when nothing is stale
+    return stored[-1] if stored else 0
 
-    Rows by ``row_of`` (the rows ``as_row(compute(job))`` gives, without building each StoredResult:
-    about 8 % less CPU a beam), summaries through the per-process memo.
+
+def refresh_parts(db: Any, site_id: str, part: int | None = None) -> Iterator[tuple[int, int]]:
+    """Recompute a site's stale results ``part`` beams at a time (None: all at once); yield (done, stale) after each.
+
+    Each part is stored in its own transaction before it is yielded, so a caller that stops iterating (the
+    site screen's background recheck, when the reviewer leaves) keeps the parts already stored and leaves the
+    rest stale for the next reader. The stale beams are found once, at the start; a beam saved after that
+    keeps its stale mark (``write_rows``). Rows by ``row_of`` (the rows ``as_row(compute(job))`` gives,
+    without building each StoredResult: about 8 % less CPU a beam), summaries through the per-process memo.
     """
+    if part is not None and part < 1:
+        msg = f"part must be at least 1 beam (or None for all at once), got {part}"
+        raise ValueError(msg)
     todo = list(jobs(db, site_id))
     memo_reset()
-    if todo:
-        rows = [row_of(j) for j in todo]
+    step = part or max(len(todo), 1)
+    for start in range(0, len(todo), step):
+        rows = [row_of(j) for j in todo[start : start + step]]
         with transaction(db):
             write_rows(db, rows)
-    return len(todo)
+        yield min(start + step, len(todo)), len(todo)
 
 
 def fresh(db: Any, site_id: str) -> dict[str, StoredResult]:

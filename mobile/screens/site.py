@@ -13,7 +13,6 @@ from typing import Any
 
 from kivy.app import App
 from kivy.clock import Clock
-from kivy.core.window import Window
 from kivy.factory import Factory
 from kivy.metrics import dp, mm
 from kivy.properties import BooleanProperty, StringProperty
@@ -29,10 +28,10 @@ from core.results import PRIORITY_ORDER
 from mobile.screens.widgets import big_button, status_colour
 from mobile.viewmodels import SiteViewModel
 from mobile.viewmodels.common import PRIORITY_LABELS, STATUS_WORDS, status_label
-from mobile.viewmodels.site import CAUTION_SHORT, PINNED, RECHECK_NOTICE_AT
+from mobile.viewmodels.site import CAUTION_SHORT, PINNED, RECHECK_NOTICE_AT, BackgroundRecheck
 
 ALL_LEVELS, ALL_STATUSES = "all levels", "all statuses"
-AFTER_DRAWN_LATEST_S = 1.0  # the stale-results recheck starts then at the latest, frame drawn or not
+RECHECK_FOLLOW_S = 0.2  # how often the screen shows the background recheck's progress
 HEADING_MM = 8  # a level's heading in the beam list: a thin band, not a target (site.kv BeamHeading)
 
 
@@ -132,7 +131,10 @@ class SiteScreen(Screen):
         self.caution_full = Factory.CautionFull()
         self._popup: Popup | None = None
         self._rows: list[tuple[str, dict[str, Any], str]] = []
-        self._loading = False  # rechecking stale results after saying so: the list is not read yet
+        self._loading = False  # stale results are being rechecked in the background: the list is not read yet
+        self._stale = 0  # how many were stale when the background recheck started (its message)
+        self._recheck: BackgroundRecheck | None = None
+        self._follow: Any = None  # the timer that follows the background recheck
 
     def on_size(self, *_: Any) -> None:
         """Landscape or portrait: the columns follow the screen's shape."""
@@ -150,34 +152,41 @@ class SiteScreen(Screen):
         if stale < RECHECK_NOTICE_AT:
             self._load()
             return
-        # e.g. every result after a table correction: ~2 s for 10,000 beams, which froze the last screen shown
+        # e.g. every result after a table correction (10,000 beams: 2-4 s): rechecked in a worker thread while
+        # the screen says how far it is and stays live (Back, "+ Log a beam"); the list comes when it is done
         self._loading = True
+        self._stale = stale
         self.unraised_text = ""
         self.counts_text = self.vm.rechecking_line(stale)
         lay_out_now(self, self.manager.size)
         self.ids.beam_list.data = [heading_row("Rechecking…")]
-        self._after_drawn(self._load)
+        running = self._recheck is not None and self._recheck.running()
+        if running and self._recheck is not None and self._recheck.site_id != app.site_id:
+            self._recheck.stop()  # another site's: it stops after its part under way, keeping what it stored
+            running = False
+        if not running:
+            self._recheck = BackgroundRecheck(str(app.store.path), app.site_id).start()
+        if self._follow is None:
+            self._follow = Clock.schedule_interval(self._follow_recheck, RECHECK_FOLLOW_S)
 
-    @staticmethod
-    def _after_drawn(then: Any) -> None:
-        """Call ``then()`` once, in the tick after the next frame is drawn and shown (its ``on_flip``, then a new tick).
+    def _follow_recheck(self, _dt: float) -> None:
+        """Timer while the background recheck runs: its progress on screen; the list once it is done."""
+        work = self._recheck
+        if work is not None and work.running():
+            if self._loading and work.site_id == self.vm.site_id:
+                self.counts_text = self.vm.rechecking_line(self._stale, work.done)
+            return
+        if self._follow is not None:
+            self._follow.cancel()
+            self._follow = None
+        self._recheck = None
+        if self._loading:
+            self._load()  # what the worker left stale (a failure, a beam saved meanwhile) is rechecked here
 
-        A window that draws no frame (an app sent to the background) still gets it after ``AFTER_DRAWN_LATEST_S``.
-        """
-        pending = [True]
-
-        def run(*_: Any) -> None:
-            if pending[0]:
-                pending[0] = False
-                Window.unbind(on_flip=flipped)
-                then()
-
-        def flipped(*_: Any) -> None:
-            Clock.schedule_once(run, 0)
-
-        Window.bind(on_flip=flipped)
-        Window.canvas.ask_update()
-        Clock.schedule_once(run, AFTER_DRAWN_LATEST_S)
+    def stop_recheck(self) -> None:
+        """The app is closing: the background recheck stops after its part under way (what it stored is kept)."""
+        if self._recheck is not None:
+            self._recheck.stop()
 
     def _load(self) -> None:
         """Read the beams (rechecking the stale ones) and lay them out with their counts and the unraised warning."""

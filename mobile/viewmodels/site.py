@@ -4,6 +4,8 @@ from __future__ import annotations
 
 import copy
 import re
+import sqlite3
+import threading
 import time
 from dataclasses import dataclass, field
 from typing import Any
@@ -26,7 +28,8 @@ NEW_BEAM_DEFAULTS: dict[str, Any] = {
     "top_edge": {"braced_by": "none", "spacing_mm": None, "fastened": None},  # not recorded: taken as not fastened
 }
 LEVEL_NOT_RECORDED = "level not recorded"
-RECHECK_NOTICE_AT = 500  # stale beams (~0.1 s of rechecking) from which the screen says so before it starts
+RECHECK_NOTICE_AT = 500  # stale beams (~0.1-0.2 s of rechecking) from which the screen rechecks in a worker thread
+RECHECK_PART = 500  # beams the background recheck stores per transaction (its progress steps; where a stop lands)
 UNRAISED_NAMED = 30  # beams the unraised-findings warning names before "and N more" (its count comes first)
 PINNED = "▲ IMMEDIATE open: pinned"  # beams with an open IMMEDIATE deficiency, shown first (also under their level)
 # The site screen's caution band, short so the beam list keeps the height (its tap shows core.results.CAUTION
@@ -89,9 +92,10 @@ class SiteViewModel:
         return results.stale_count(self.store.db, self.site_id)
 
     @staticmethod
-    def rechecking_line(count: int) -> str:
-        """What the screen says while it rechecks ``count`` beams before listing them."""
-        return f"Rechecking {count:,} beam{'s' if count != 1 else ''} (their stored results are out of date)…"
+    def rechecking_line(count: int, done: int = 0) -> str:
+        """What the screen says while it rechecks ``count`` beams before listing them (``done`` of them so far)."""
+        line = f"Rechecking {count:,} beam{'s' if count != 1 else ''} (their stored results are out of date)…"
+        return line + (f"  {done:,} done" if done else "")
 
     def groups(
         self,
@@ -286,3 +290,53 @@ class SiteViewModel:
 def _is_raised(deficiencies: list[Any], code: str, region: str) -> bool:
     """True when one of a beam's unverified deficiencies has this finding's code at its place."""
     return any(d.code == code and (not region or d.location.endswith(region)) for d in deficiencies)
+
+
+@dataclass
+class BackgroundRecheck:
+    """A site's stale results rechecked in a worker thread with its own ``Store``, so the screen keeps drawing.
+
+    After a table correction or a sync every result of a site can be stale: 10,000 beams took 2-4 s, during
+    which the screen was frozen. The worker stores ``RECHECK_PART`` beams per transaction
+    (``storage.results.refresh_parts``) and says how far it is (``done`` of ``total``); ``stop`` makes it
+    stop after the part under way, keeping what is stored (the rest stays stale for the next reader, which
+    rechecks it). ``error`` holds why it failed, if it did: the screen's own refresh then rechecks what is
+    left, so a failure here only costs time.
+    """
+
+    db_path: str
+    site_id: str
+    done: int = 0
+    total: int = 0
+    error: str = ""
+    _stop: threading.Event = field(default_factory=threading.Event)
+    _thread: threading.Thread | None = None
+
+    def start(self) -> BackgroundRecheck:
+        """Start the worker; returns self."""
+        self._thread = threading.Thread(target=self._run, name="bracewalk-recheck", daemon=False)
+        self._thread.start()
+        return self
+
+    def running(self) -> bool:
+        """True while the worker is rechecking."""
+        return self._thread is not None and self._thread.is_alive()
+
+    def stop(self, timeout_s: float = 5.0) -> None:
+        """Ask the worker to stop after the part under way and wait up to ``timeout_s`` for it."""
+        self._stop.set()
+        if self._thread is not None:
+            self._thread.join(timeout=timeout_s)
+
+    def _run(self) -> None:
+        try:
+            worker = Store(self.db_path)
+            try:
+                for done, total in results.refresh_parts(worker.db, self.site_id, RECHECK_PART):
+                    self.done, self.total = done, total
+                    if self._stop.is_set():
+                        break
+            finally:
+                worker.close()
+        except (OSError, ValueError, sqlite3.Error) as exc:  # the screen's own refresh rechecks what is left
+            self.error = f"{type(exc).__name__}: {exc}"

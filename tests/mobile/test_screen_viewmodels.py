@@ -2,6 +2,9 @@
 
 import hashlib
 import io
+import sqlite3
+import threading
+import time
 
 import pytest
 from PIL import Image
@@ -16,8 +19,10 @@ from mobile.viewmodels import (
     SiteViewModel,
     SyncViewModel,
 )
-from mobile.viewmodels.site import PINNED, level_key
-from storage import Store
+from mobile.viewmodels import site as site_vm
+from mobile.viewmodels.site import PINNED, BackgroundRecheck, level_key
+from storage import Store, results
+from tests.core.beams import glulam
 
 
 @pytest.fixture
@@ -480,3 +485,71 @@ def test_gridline_echo_says_how_the_notice_will_name_each_support(demo):
     assert form.echo("gridline") == "supports on the notice: F/1, F/2, F/3"
     assert form.set_field("gridline", "near the stair")
     assert "cannot name the supports" in form.echo("gridline")
+
+
+def _many_stale(tmp_path, n):
+    store = Store(tmp_path / "m.db")
+    site = store.create_site(name="Stale yard")
+    for i in range(n):
+        store.save_beam(site.id, glulam(mark=f"S-{i}"), {"level": "L1"})
+    return store, site.id
+
+
+def _finish(work, timeout_s=60.0):
+    deadline = time.monotonic() + timeout_s
+    while work.running() and time.monotonic() < deadline:
+        time.sleep(0.01)
+    assert not work.running(), "the background recheck did not finish"
+
+
+def test_background_recheck_stores_every_stale_result_and_says_how_far_it_is(tmp_path):
+    """The site screen's recheck of many stale results runs in a worker thread with its own Store."""
+    store, site_id = _many_stale(tmp_path, 12)
+    vm = SiteViewModel(store, site_id)
+    assert vm.stale_count() == 12
+    work = BackgroundRecheck(str(store.path), site_id).start()
+    _finish(work)
+    assert (work.done, work.total, work.error) == (12, 12, "")
+    assert vm.stale_count() == 0  # stored through the worker's connection, read through the screen's
+    assert {st for _, _, st in vm.beam_rows()} == {vm.status_of(next(iter(vm.beam_rows()))[0])}
+    assert vm.rechecking_line(12, 5) == "Rechecking 12 beams (their stored results are out of date)…  5 done"
+    assert vm.rechecking_line(1) == "Rechecking 1 beam (their stored results are out of date)…"
+
+
+def test_background_recheck_stopped_keeps_the_parts_it_stored(tmp_path, monkeypatch):
+    store, site_id = _many_stale(tmp_path, 5)
+    first, go = threading.Event(), threading.Event()
+    real = results.refresh_parts
+
+    def parts(db, sid, part=None):
+        for step in real(db, sid, part):
+            first.set()
+            assert go.wait(10)
+            yield step
+
+    monkeypatch.setattr(site_vm, "RECHECK_PART", 2)
+    monkeypatch.setattr(results, "refresh_parts", parts)
+    work = BackgroundRecheck(str(store.path), site_id).start()
+    assert first.wait(30)
+    threading.Timer(0.1, go.set).start()
+    work.stop()  # the app closes, or another site is opened: after the part under way
+    assert not work.running()
+    assert (work.done, work.total) == (2, 5)
+    assert results.stale_count(store.db, site_id) == 3  # the rest stay stale: the next reader rechecks them
+
+
+def test_background_recheck_that_fails_says_why_and_leaves_the_rest_stale(tmp_path, monkeypatch):
+    store, site_id = _many_stale(tmp_path, 3)
+
+    def locked(*_args, **_kwargs):
+        msg = "database is locked"
+        raise sqlite3.OperationalError(msg)
+        yield  # a generator, as the real one
+
+    monkeypatch.setattr(results, "refresh_parts", locked)
+    work = BackgroundRecheck(str(store.path), site_id).start()
+    _finish(work)
+    assert work.error == "OperationalError: database is locked"
+    assert results.stale_count(store.db, site_id) == 3
+    monkeypatch.undo()
+    assert results.refresh(store.db, site_id) == 3  # what the screen's own refresh then does

@@ -151,10 +151,13 @@ def test_the_beam_list_gets_most_of_the_screen(tmp_path, geometry):
     assert "UI-OK" in out, out[-3000:]
 
 
-def test_a_site_with_stale_results_says_it_is_rechecking_before_the_work(tmp_path):
-    """600 stale results: a frame showing "Rechecking 600 beams..." is drawn before the recheck starts.
+def test_a_site_with_stale_results_is_rechecked_in_the_background_while_the_screen_draws(tmp_path):
+    """1,200 stale results: a worker rechecks them while the screen draws how far it is, then lists them.
 
-    Screenshots: test-artefacts/ui-rechecking/site-rechecking.png (the frame on screen when the work starts).
+    Frames are drawn during the work, showing "500 done", "1,000 done", "1,200 done"; a reviewer who leaves
+    mid-recheck loses nothing and finds the site current when back.
+
+    Screenshots: test-artefacts/ui-rechecking/site-rechecking.png (a frame drawn during the recheck).
     """
     shots = ROOT / "test-artefacts" / "ui-rechecking"
     out = run_app(tmp_path / "k.db", shots, "site-rechecking", tmp_path / "home")

@@ -1014,12 +1014,18 @@ elif FLOW == "site-rows":
 
 
 elif FLOW == "site-rechecking":
-    # a site whose stored results are all stale (after a table correction: ~2 s for 10,000 beams) says so on
-    # screen before the recheck starts; the last screen stayed frozen on the display until it was done
+    # a site whose stored results are all stale (after a table correction: 2-4 s for 10,000 beams) is rechecked in a
+    # worker thread: the screen says how far it is and keeps drawing (it was frozen until the recheck was done)
+    import time
+
+    from mobile.viewmodels.site import RECHECK_PART
     from storage import results as stored_results
 
-    STALE = 600
-    seen = {"flips": 0}
+    STALE = 2 * RECHECK_PART + 200  # three parts
+    seen = {"flips": 0, "texts": set()}
+
+    def recheck_work():
+        return screen("site")._recheck if app.root.current == "site" else None
 
     @step
     def many_stale():
@@ -1034,34 +1040,73 @@ elif FLOW == "site-rechecking":
     @step
     def open_stale():
         def flipped(*_):
-            if app.root.current == "site" and screen("site").ids.counts.text.startswith("Rechecking"):
-                seen["flips"] += 1  # a frame drawn (and then shown) with the message
+            work = recheck_work()
+            if work is None or not work.running():
+                return
+            seen["flips"] += 1  # a frame drawn while the worker rechecks
+            text = screen("site").ids.counts.text
+            if text not in seen["texts"] and f"{RECHECK_PART:,} done" in text:
+                written = app.root_window.screenshot(str(OUT / "site-rechecking.png"))  # this frame, drawn
+                Path(written).replace(OUT / "site-rechecking.png")
+            seen["texts"].add(text)
 
         app.root_window.bind(on_flip=flipped)
-        real = stored_results.refresh
+        real = stored_results.refresh_parts
 
-        def refresh(db, site_id):
-            seen["at_work"] = (seen["flips"], screen("site").ids.counts.text)
-            written = app.root_window.screenshot(str(OUT / "site-rechecking.png"))  # the frame last drawn
-            Path(written).replace(OUT / "site-rechecking.png")
-            stored_results.refresh = real
-            return real(db, site_id)
+        def parts(db, site_id, part=None):
+            # after each stored part the worker waits (5 s at most) until a frame has shown how far it is, so
+            # what is checked below does not depend on how fast this machine rechecks
+            for done, total in real(db, site_id, part):
+                yield done, total  # the worker now says it is this far
+                deadline = time.monotonic() + 5
+                while not any(f"{done:,} done" in t for t in seen["texts"]) and time.monotonic() < deadline:
+                    time.sleep(0.02)
 
-        stored_results.refresh = refresh
+        seen["real"] = real
+        stored_results.refresh_parts = parts
         app.open_site(seen["site"])
 
     @step
-    def said_before_the_work():
-        if "at_work" not in seen:
-            raise TimeoutError  # the recheck has not started yet: the runner tries again
-        flips, text = seen["at_work"]
-        print(f"AT-WORK flips {flips} text {text!r}", flush=True)
-        assert flips >= 1, f"no frame showed the message before the recheck started (counts said {text!r})"
-        assert text == f"Rechecking {STALE} beams (their stored results are out of date)…", text
+    def listed_after_the_work():
+        if recheck_work() is not None or screen("site")._loading:
+            raise TimeoutError  # still rechecking: the runner tries again
+        print(f"RECHECK-FRAMES {seen['flips']} texts {sorted(seen['texts'])}", flush=True)
+        said = f"Rechecking {STALE:,} beams (their stored results are out of date)…"
+        for done in (RECHECK_PART, 2 * RECHECK_PART, STALE):
+            assert f"{said}  {done:,} done" in seen["texts"], f"{done} done never shown: {sorted(seen['texts'])}"
+        assert seen["flips"] >= 3, f"{seen['flips']} frames drawn during the recheck"
         yield from shot("site-after-recheck")
         counts = screen("site").counts_text
-        assert counts.startswith(f"{STALE} beams:"), counts
+        assert counts.startswith(f"{STALE:,} beams:"), counts
         assert stored_results.stale_count(app.store.db, seen["site"]) == 0
+
+    @step
+    def back_to_sites():
+        app.go("sites")
+
+    @step
+    def leave_while_rechecking():
+        # every result stale again; the reviewer taps back to the sites while the worker is on its first part
+        app.store.db.execute("UPDATE beam_result SET input_hash = '' WHERE site_id = ?", [seen["site"]])
+        stored_results.refresh_parts = seen["real"]
+        app.open_site(seen["site"])
+        assert recheck_work() is not None
+        app.go("sites")
+        assert stored_results.stale_count(app.store.db, seen["site"]) > 0  # left before the first part was stored
+
+    @step
+    def finished_in_the_background():
+        work = screen("site")._recheck
+        if work is not None:
+            raise TimeoutError  # the worker goes on after the screen is left; what it stores is kept
+        assert app.root.current == "sites", app.root.current
+        assert stored_results.stale_count(app.store.db, seen["site"]) == 0
+        app.open_site(seen["site"])  # nothing stale: listed at once, no worker
+        assert screen("site")._recheck is None
+        assert not screen("site")._loading
+        yield from shot("site-reopened")
+        counts = screen("site").counts_text
+        assert counts.startswith(f"{STALE:,} beams:"), counts
 
 
 elif FLOW == "site-layout-once":

@@ -229,3 +229,28 @@ def test_stale_count_is_what_a_refresh_rechecks(store):
     store.save("site", site.id, {"design_basis": {"snow_kpa": 3.5}})  # a basis change: every result of the site
     assert results.stale_count(store.db, site.id) == 4
     assert results.refresh(store.db, site.id) == 4
+
+
+def test_refresh_in_parts_stores_each_part_before_going_on_and_a_stop_keeps_them(store, tmp_path):
+    """Each part of ``refresh_parts`` is stored in its own transaction before it is yielded; a stop keeps them.
+
+    The site screen's background recheck reads them through its own connection; what is not done stays stale.
+
+    Results checked against ``core.recheck.recheck`` of the same member (the engineering's own tests check that).
+    """
+    site, _ = _site(store, n=7)
+    reader = Store(tmp_path / "r.db")  # another connection, as the screen's is to the worker's
+    parts = results.refresh_parts(store.db, site.id, part=3)
+    assert next(parts) == (3, 7)
+    assert results.stale_count(reader.db, site.id) == 4
+    assert next(parts) == (6, 7)
+    parts.close()  # the reviewer left: the worker stops after the part under way
+    assert results.stale_count(reader.db, site.id) == 1
+    assert list(results.refresh_parts(store.db, site.id, part=3)) == [(1, 1)]  # only what was left
+    got = results.stored(reader.db, site.id)
+    expect = recheck(glulam())
+    assert {r.status for r in got.values()} == {expect.status.value}
+    assert {round(r.utilisation, 6) for r in got.values()} == {round(float(expect.governing_utilisation), 6)}
+    assert list(results.refresh_parts(store.db, site.id, part=3)) == []  # nothing stale: nothing to yield
+    with pytest.raises(ValueError, match="part must be at least 1"):
+        next(results.refresh_parts(store.db, site.id, part=0))
