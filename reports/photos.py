@@ -16,6 +16,32 @@ from reportlab.platypus import Flowable, Paragraph
 
 MAX_EDGE_PX = 900
 JPEG_QUALITY = 72
+CELL_W_MM, CELL_H_MM = 55, 41  # a photo's box, three to a row
+WIDE_H_MM = 60  # the box of a wide photo, which has a row of its own (its width is the row's)
+# width / height from which a photo has a row of its own: in a 55 x 41 mm cell it would print under 25 mm tall
+# (a panorama of a run of purlins, 8:1, printed 7 mm tall); across the page it prints 21-60 mm tall
+WIDE_ASPECT = 2.2
+_QUARTER_TURNS = {5, 6, 7, 8}  # EXIF orientations that turn the picture a quarter: its width is the stored height
+
+
+def upright_size(content: bytes) -> tuple[int, int]:
+    """(width px, height px) of a photo as it is shown (EXIF orientation applied); reads its header only."""
+    with Image.open(io.BytesIO(content)) as img:
+        w, h = img.size
+        return (h, w) if img.getexif().get(0x0112, 1) in _QUARTER_TURNS else (w, h)
+
+
+def wide_box(photo: Any, row_w: float) -> tuple[float, float] | None:
+    """The box (width, height in pt) of a wide ``photo`` on a row of its own ``row_w`` wide; None when not wide.
+
+    Wide: at least ``WIDE_ASPECT`` times as wide as tall, as shown. The box is as tall as the photo drawn
+    across the row (at most ``WIDE_H_MM``), so no blank band is left over it. ``photo``: bytes or a
+    ``reports.content.Photo``, whose bytes are read once more for their header (and dropped at once).
+    """
+    w, h = upright_size(photo if isinstance(photo, bytes) else photo.load())
+    if w < WIDE_ASPECT * h:
+        return None
+    return row_w, min(WIDE_H_MM * mm, row_w * h / w)
 
 
 def prepare_photo(content: bytes, max_edge_px: int = MAX_EDGE_PX) -> tuple[bytes, int, int]:
@@ -115,7 +141,7 @@ def _draw_mark(c: Any, m: Any, x0: float, y0: float, w: float, h: float) -> None
 
 
 def photo_flowable(
-    photo: Any, number: int, style: Any, box_w: float = 55 * mm, box_h: float = 41 * mm
+    photo: Any, number: int, style: Any, box_w: float = CELL_W_MM * mm, box_h: float = CELL_H_MM * mm
 ) -> PhotoFlowable:
     """A photo (raw bytes or a ``reports.content.Photo``) with its caption ("Photo n: ...")."""
     from reports.render import esc

@@ -30,7 +30,7 @@ from reportlab.platypus import (
 from core.results import Recheck, check_lines
 from reports import stamp
 from reports.content import Item, Notice, Photo, by_member, due_words, one_line, ordered
-from reports.photos import photo_flowable
+from reports.photos import CELL_W_MM, photo_flowable, wide_box
 from reports.sketch import FONT, beam_sketch
 from reports.tablerows import memory_rows
 from reports.textrun import markup
@@ -482,17 +482,36 @@ def _summary(n: Notice, st: dict[str, ParagraphStyle], refs: PageRefs) -> Table:
 PHOTOS_PER_ROW = 3
 
 
-def _photo_table(photos: list[bytes | Photo], st: dict[str, ParagraphStyle], of: str) -> Table:
-    """Every photo, numbered, three to a row (a fourth and later photo starts a new row, never left out).
+CELL_PAD = 6  # pt, a table cell's default left and right padding
 
+
+def _photo_table(photos: list[bytes | Photo], st: dict[str, ParagraphStyle], of: str) -> Table:
+    """Every photo, numbered in order, three to a row (a fourth and later photo starts a new row, never left out).
+
+    A wide photo (``reports.photos.wide_box``: a panorama along a beam) has a row of its own across the text
+    width, so it prints 21-60 mm tall instead of a strip a few millimetres high in a third of the row.
     ``of`` names what the photos show ('item D-AB12-001'): photos that cross to the next page, or go
     there whole, open it under 'Photos of item D-AB12-001 (continued)'.
     """
-    cells: list[Any] = [photo_flowable(ph, k + 1, st["small"]) for k, ph in enumerate(photos)]
-    rows = [cells[k : k + PHOTOS_PER_ROW] for k in range(0, len(cells), PHOTOS_PER_ROW)]
-    if len(rows) > 1:
-        rows[-1] += [""] * (PHOTOS_PER_ROW - len(rows[-1]))
-    return _continued(_ContinuedTable(rows, hAlign="LEFT"), f"Photos of {of}", st, "continue")
+    rows: list[tuple[list[Any], bool]] = []  # (cells, wide)
+    for k, ph in enumerate(photos):
+        box = wide_box(ph, WIDTH - 2 * CELL_PAD)
+        if box is not None:
+            rows.append(([photo_flowable(ph, k + 1, st["small"], *box)], True))
+        elif rows and not rows[-1][1] and len(rows[-1][0]) < PHOTOS_PER_ROW:
+            rows[-1][0].append(photo_flowable(ph, k + 1, st["small"]))
+        else:
+            rows.append(([photo_flowable(ph, k + 1, st["small"])], False))
+    cells = [row for row, _ in rows]
+    if not any(wide for _, wide in rows):
+        if len(cells) > 1:
+            cells[-1] += [""] * (PHOTOS_PER_ROW - len(cells[-1]))
+        return _continued(_ContinuedTable(cells, hAlign="LEFT"), f"Photos of {of}", st, "continue")
+    for row in cells:
+        row += [""] * (PHOTOS_PER_ROW - len(row))
+    table = _ContinuedTable(cells, colWidths=[CELL_W_MM * mm + 2 * CELL_PAD] * PHOTOS_PER_ROW, hAlign="LEFT")
+    table.setStyle(TableStyle([("SPAN", (0, r), (-1, r)) for r, (_, wide) in enumerate(rows) if wide]))
+    return _continued(table, f"Photos of {of}", st, "continue")
 
 
 def _continued(table: Table, what: str, st: dict[str, ParagraphStyle], verb: str = "continues") -> Table:
