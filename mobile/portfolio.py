@@ -161,6 +161,9 @@ def cmd_tables_verify(args: argparse.Namespace) -> int:
 def impact_lines(store: Any, moved: list[tuple[Any, Any]]) -> list[str]:
     """Beams whose status, governing check or utilisation changed, then the issued notices that cite them.
 
+    A notice's line names its site and each beam it cites by mark and gridline (marks repeat across sites, and
+    sometimes within one).
+
     ``moved`` is ``PortfolioRun.moved``; beams with no stored result are listed last.
     """
     moved = [(b, a) for b, a in moved if b is not None] + [(b, a) for b, a in moved if b is None]
@@ -177,15 +180,15 @@ def impact_lines(store: Any, moved: list[tuple[Any, Any]]) -> list[str]:
     for nid, data in store.db.execute("SELECT id, data FROM issued_notice ORDER BY id").fetchall():
         notice = json.loads(data)
         hit = sorted(
-            {
-                where_of[deficiency_beam[d]][1]
-                for d in notice.get("deficiency_ids", [])
-                if deficiency_beam.get(d) in beams
-            }
+            {where_of[deficiency_beam[d]] for d in notice.get("deficiency_ids", []) if deficiency_beam.get(d) in beams}
         )
         if hit:
+            sites = "; ".join(sorted({site or "site not recorded" for site, _, _, _ in hit}))
+            cited = ", ".join(
+                f"{mark or 'mark not recorded'} (grid {grid or 'not recorded'})" for _, mark, _, grid in hit
+            )
             lines.append(
-                f"notice {notice.get('number')} rev {notice.get('revision', 0)} [{nid}]: cites beams {', '.join(hit)}"
+                f"notice {notice.get('number')} rev {notice.get('revision', 0)} [{nid}], {sites}: cites beams {cited}"
             )
     return lines
 

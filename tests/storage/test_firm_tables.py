@@ -90,7 +90,7 @@ def test_a_correction_changes_the_results_and_impact_lists_beams_and_notices(tmp
     out = capsys.readouterr().out
     assert "beam Yard  ·  RB-1  ·  grid not recorded  ·  level Roof  [" in out  # the site as well as the mark
     assert "notice P-7-FR-1 rev 0" in out
-    assert "cites beams RB-1" in out
+    assert ", Yard: cites beams RB-1 (grid not recorded)" in out  # which site's RB-1, and where on it
     assert "J-1" not in out  # a 20f-E beam does not use the corrected row
     assert other
 
