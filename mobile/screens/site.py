@@ -129,6 +129,7 @@ class SiteScreen(Screen):
         self.fold = Factory.DeficiencyFold()
         self.fold.ids.fold_hand.bind(on_release=lambda *_: self.open_hand())
         self.caution_full = Factory.CautionFull()
+        self.unraised_full = Factory.UnraisedFull()
         self._popup: Popup | None = None
         self._rows: list[tuple[str, dict[str, Any], str]] = []
         self._loading = False  # stale results are being rechecked in the background: the list is not read yet
@@ -200,7 +201,7 @@ class SiteScreen(Screen):
         self.counts_text = self.vm.counts(self._rows, shown=self.vm.shown(groups))  # its height, before the layout
         lay_out_now(self, self.manager.size)  # before the list gets its rows: they are placed once
         self.show_beams(groups)
-        self.unraised_text = self.vm.unraised_warning()
+        self.unraised_text = self.vm.unraised_warning(tap=True)
 
     def after_sync(self) -> None:
         """A background sync finished while this screen is shown: redraw what it may have changed.
@@ -216,7 +217,7 @@ class SiteScreen(Screen):
             self.ids.level_filter.values = [ALL_LEVELS, *self.vm.levels(self._rows)]
             self.show_beams()
         self.show_deficiencies()
-        self.unraised_text = self.vm.unraised_warning()
+        self.unraised_text = self.vm.unraised_warning(tap=True)
 
     def filter_changed(self) -> None:
         """Search text or a filter changed: redraw the beam list."""
@@ -263,6 +264,11 @@ class SiteScreen(Screen):
         """Portrait: the open deficiencies, most urgent first, over the screen (read when opened)."""
         self._fill_deficiencies(self.fold.ids.fold_list, self.vm.deficiency_groups())
         self._open("Open deficiencies, most urgent first", self.fold)
+
+    def open_unraised(self) -> None:
+        """The whole findings-not-yet-raised warning (the band shows its first three lines)."""
+        self.unraised_full.ids.unraised_full.text = self.vm.unraised_warning()
+        self._open("Findings not yet raised", self.unraised_full)
 
     def open_caution(self) -> None:
         """The full caution (the band on this screen is its short form)."""

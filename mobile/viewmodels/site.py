@@ -180,15 +180,18 @@ class SiteViewModel:
                 out.append(f"{mark} ({len(todo)} finding{'s' if len(todo) > 1 else ''})")
         return out
 
-    def unraised_warning(self) -> str:
-        """The warning shown on the site and notice screens ('' when every finding is raised)."""
+    def unraised_warning(self, tap: bool = False) -> str:
+        """The warning shown on the site and notice screens ('' when every finding is raised).
+
+        ``tap``: it says a tap shows it all (the site screen's band shows its first lines).
+        """
         marks = self.unraised()
         if not marks:
             return ""
         more = len(marks) - UNRAISED_NAMED
         named = ", ".join(marks[:UNRAISED_NAMED]) + (f" and {more:,} more" if more > 0 else "")
         beams = f"{len(marks):,} beam{'s' if len(marks) != 1 else ''}"
-        return f"▲ Findings not yet raised on {beams} (not on any notice): {named}"
+        return f"▲ Findings not yet raised on {beams} (not on any notice{'; tap to read all' if tap else ''}): {named}"
 
     def deficiency_groups(self) -> list[tuple[str, list[tuple[str, str]]]]:
         """Open deficiencies by priority, most urgent first: [(priority label with its count, [(id, line)])].

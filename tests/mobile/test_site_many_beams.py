@@ -39,6 +39,10 @@ def test_the_unraised_warning_counts_the_beams_first_and_names_a_bounded_few(sto
     assert text.startswith(f"▲ Findings not yet raised on {UNRAISED_NAMED + 5} beams (not on any notice): ")
     assert text.endswith(f"{marks[UNRAISED_NAMED - 1]} and 5 more")
     assert marks[UNRAISED_NAMED] not in text.split(": ", 1)[1].split(", ")
+    band = vm.unraised_warning(tap=True)  # the site screen's band: its first lines, a tap shows it all
+    head = f"▲ Findings not yet raised on {UNRAISED_NAMED + 5} beams (not on any notice; tap to read all): "
+    assert band.startswith(head)
+    assert band.split("): ", 1)[1] == text.split("): ", 1)[1]
     one = store.create_site(name="Shed")
     _overstressed(store, one.id, 1)
     assert SiteViewModel(store, one.id).unraised_warning().startswith("▲ Findings not yet raised on 1 beam (")

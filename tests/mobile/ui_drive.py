@@ -486,7 +486,17 @@ if FLOW == "main":
         s = screen("deficiency")
         assert not s.ids.moves.children or "no user" in s.who_text
         s.ids.device_setup.trigger_action(0)
-        form = s.device_popup.content.ids
+        yield from shot("device-form")
+        # its text is in the theme's colour, so it sits on the theme's background (it was on the popup's dark grey)
+        from PIL import Image
+
+        content = s.device_popup.content
+        x, y = content.to_window(content.x + 3, content.top - 3)
+        with Image.open(OUT / "device-form.png") as im:
+            got = im.convert("RGB").getpixel((int(x), int(im.height - y)))
+        want = tuple(round(255 * c) for c in app.theme_bg[:3])
+        assert all(abs(g - w) <= 3 for g, w in zip(got, want, strict=True)), f"form background {got}, theme {want}"
+        form = content.ids
         form.device_name.text = "Priya Okonkwo-Lind"
         form.device_role.text = "reviewer"
         form.device_save.trigger_action(0)
@@ -1183,6 +1193,21 @@ elif FLOW == "site-after-sync":
         warning = screen("site").unraised_text
         print(f"UNRAISED {warning!r}", flush=True)
         assert "RB-1 (" in warning, warning  # its new findings are not on any notice yet
+
+    @step
+    def unraised_in_full():
+        # the band shows the warning's first lines (it was cut to one); a tap shows the whole warning
+        band = screen("site").ids.unraised
+        assert "tap to read all" in band.text, band.text
+        assert band.texture_size[1] > band.font_size * 1.5, "the band shows one line only"
+        band.dispatch("on_release")
+        yield from shot("site-unraised-full")
+        full = screen("site").unraised_full.ids.unraised_full.text
+        assert full.startswith("▲ Findings not yet raised on "), full
+        assert "RB-1 (" in full, full
+        problems = popup_problems()
+        assert not problems, problems
+        screen("site")._close()
 
 elif FLOW == "shot-current":
     # a screenshot shows the state the step left, not the frame before it (the sync screen's lag)
