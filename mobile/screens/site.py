@@ -266,7 +266,7 @@ class SiteScreen(Screen):
         self._open("Open deficiencies, most urgent first", self.fold)
 
     def open_unraised(self) -> None:
-        """The whole findings-not-yet-raised warning (the band shows its first three lines)."""
+        """The whole findings-not-yet-raised warning (the band names only its first few beams)."""
         self.unraised_full.ids.unraised_full.text = self.vm.unraised_warning()
         self._open("Findings not yet raised", self.unraised_full)
 

@@ -31,6 +31,7 @@ LEVEL_NOT_RECORDED = "level not recorded"
 RECHECK_NOTICE_AT = 500  # stale beams (~0.1-0.2 s of rechecking) from which the screen rechecks in a worker thread
 RECHECK_PART = 500  # beams the background recheck stores per transaction (its progress steps; where a stop lands)
 UNRAISED_NAMED = 30  # beams the unraised-findings warning names before "and N more" (its count comes first)
+UNRAISED_BAND_NAMED = 4  # on the site screen's band (three lines at most in the landscape column); a tap shows all
 PINNED = "▲ IMMEDIATE open: pinned"  # beams with an open IMMEDIATE deficiency, shown first (also under their level)
 # The site screen's caution band, short so the beam list keeps the height (its tap shows core.results.CAUTION
 # whole); it still says what the full caution says of the results and of who governs.
@@ -183,13 +184,15 @@ class SiteViewModel:
     def unraised_warning(self, tap: bool = False) -> str:
         """The warning shown on the site and notice screens ('' when every finding is raised).
 
-        ``tap``: it says a tap shows it all (the site screen's band shows its first lines).
+        ``tap``: the site screen's band, which names at most ``UNRAISED_BAND_NAMED`` beams and says a tap shows
+        the whole warning.
         """
         marks = self.unraised()
         if not marks:
             return ""
-        more = len(marks) - UNRAISED_NAMED
-        named = ", ".join(marks[:UNRAISED_NAMED]) + (f" and {more:,} more" if more > 0 else "")
+        most = UNRAISED_BAND_NAMED if tap else UNRAISED_NAMED
+        more = len(marks) - most
+        named = ", ".join(marks[:most]) + (f" and {more:,} more" if more > 0 else "")
         beams = f"{len(marks):,} beam{'s' if len(marks) != 1 else ''}"
         return f"▲ Findings not yet raised on {beams} (not on any notice{'; tap to read all' if tap else ''}): {named}"
 

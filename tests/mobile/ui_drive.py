@@ -877,6 +877,21 @@ elif FLOW == "layout":
     def site_layout():
         yield from look("2-site")
         s = screen("site")
+        # the unraised-findings band at its longest (its most beams named): nothing overlapped, nothing cut
+        from mobile.viewmodels.site import UNRAISED_BAND_NAMED
+
+        marks = ", ".join(f"RB-{i} (2 findings)" for i in range(UNRAISED_BAND_NAMED))
+        head = "▲ Findings not yet raised on 35 beams (not on any notice; tap to read all)"
+        s.unraised_text = f"{head}: {marks} and 31 more"
+        yield from look("2a-site-unraised")
+        band = s.ids.unraised
+        if band.height < band.texture_size[1]:
+            seen.append(f"site: the unraised band {band.height:.0f} px high for {band.texture_size[1]:.0f} px of text")
+        s.open_unraised()
+        yield from look("2a-site-unraised-full")
+        seen.extend(f"site unraised: {p}" for p in popup_problems())
+        s._close()
+        s.unraised_text = s.vm.unraised_warning(tap=True)
         immediate = [d for d in app.store.deficiencies(app.site_id, open_only=True) if d.priority == "immediate"]
         if s.wide:
             seen.extend(deficiency_list_problems(s.ids.deficiency_list, immediate))
