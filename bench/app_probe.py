@@ -1,6 +1,6 @@
 """Child process of bench/app.py: start an app under the bench's X display and report timings as JSON.
 
-usage: python -m bench.app_probe bare|app|site DB
+usage: python -m bench.app_probe bare|app|site|stale DB
 bare: a one-label Kivy app (the baseline); app: bracewalk on DB, then field changes on a beam form;
 site: bracewalk on DB, then its first site opened (tap to the first frame showing the list's rows), with
 the process's own peak memory (VmHWM) after.
@@ -8,12 +8,16 @@ Prints one line: BENCH {"first_frame_wall": ..., "refresh_ms": [...], "recheck_m
 (site: {"first_frame_wall": ..., "site_open_s": ..., "beams_shown": ..., "window": [w, h], "gc_ms": [gen 0, 1, 2],
 "gc_full": ..., "peak_mb": ...}: the window's size in pixels, the time spent in the cyclic collector per
 generation and the number of full collections, all from the tap to the rows on screen).
+stale: as site, on a site whose every result is stale (the app rechecks it in a worker thread): the tap to the
+rows on screen once the recheck is done ("site_open_s"), the tap to the first frame ("first_frame_s") and the
+longest gap between two UI ticks after that first frame ("longest_pause_s"), a Clock callback every frame.
 `mobile.app` is imported before Kivy's window: it sets the app's window size (1280x800, a 10-inch
 tablet in landscape), which the window takes when it opens; opened first, it was Kivy's 800x600.
 """
 
 from __future__ import annotations
 
+import itertools
 import json
 import sys
 import time
@@ -56,6 +60,42 @@ if MODE == "bare":
             on_first_frame(lambda: finish(self))
 
     Bare().run()
+elif MODE == "stale":
+    from mobile.app import BracewalkApp  # first: it sets the app's window size before the window opens
+
+    from kivy.clock import Clock  # isort: skip
+    from kivy.core.window import Window  # isort: skip
+
+    app = BracewalkApp(DB)
+
+    def open_stale() -> None:
+        ticks: list[float] = []
+        flips: list[float] = []
+        t0 = time.perf_counter()
+
+        def tick(_dt: float) -> None:
+            ticks.append(time.perf_counter())
+            screen = app.root.get_screen("site")
+            if screen._loading or screen._recheck is not None or not screen.ids.beam_list.layout_manager.children:
+                return
+            tick_event.cancel()
+            Window.unbind(on_flip=flipped)
+            out["site_open_s"] = ticks[-1] - t0
+            first = flips[0] if flips else ticks[-1]
+            out["first_frame_s"] = first - t0
+            after = [t for t in ticks if t >= first]
+            out["longest_pause_s"] = max((b - a for a, b in itertools.pairwise(after)), default=0.0)
+            Clock.schedule_once(lambda _dt: finish(app), 0.3)
+
+        def flipped(*_: object) -> None:
+            flips.append(time.perf_counter())
+
+        Window.bind(on_flip=flipped)
+        tick_event = Clock.schedule_interval(tick, 0)
+        app.open_site(app.store.sites()[0].id)
+
+    app.bind(on_start=lambda *_: on_first_frame(open_stale))
+    app.run()
 elif MODE == "site":
     import gc
 

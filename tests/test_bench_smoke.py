@@ -31,6 +31,7 @@ def test_bench_quick_prints_every_row():
         "app cold start",
         "field change to refreshed panel",
         "app: site open, 1,000 beams",
+        "app: site open, 1,000 beams all stale (a table correction): longest UI pause",
         "notice, 60 items with photos: peak memory",
         "site open, 1,000 beams (stored results)",
         "portfolio recheck, 2,000 beams, 2 processes",
