@@ -115,19 +115,20 @@ def use(records: list[TableRecord]) -> bool:
 
     The caller clears the table caches when this returns True (``core.tables.use_firm_records``).
     """
+    global _IN_USE
     wanted = {(r.table, r.row): r for r in records}
     if wanted == _IN_USE:
         return False
-    _IN_USE.clear()
-    _IN_USE.update(wanted)
+    _IN_USE = wanted  # one step: a lookup in another thread sees the old records or the new, never none
     return True
 
 
 def overlay(table: str, row: dict[str, str]) -> dict[str, str]:
     """The row as the firm's records say: status verified, the corrected value, the provenance noted."""
-    if not _IN_USE or table not in KEYS:
+    in_use = _IN_USE  # read once: another thread may put new records in place meanwhile
+    if not in_use or table not in KEYS:
         return row
-    record = _IN_USE.get((table, row_label(table, row)))
+    record = in_use.get((table, row_label(table, row)))
     if record is None:
         return row
     out = dict(row, status="verified", confirmed_by=note(record))

@@ -9,8 +9,7 @@ never by position. Reading the package's own read-only data is the only file acc
 from __future__ import annotations
 
 import csv
-from dataclasses import dataclass
-from functools import cache
+from dataclasses import dataclass, field
 from importlib import resources
 
 from core import overrides
@@ -31,9 +30,39 @@ class Table:
         return "; ".join(h.split(":", 1)[1].strip() for h in keep)
 
 
-@cache
+@dataclass
+class _Generation:
+    """The tables as one set of a firm's records makes them: loaded tables and found rows, filled as asked.
+
+    ``use_firm_records`` puts a new, empty one in place as its last step, after the records themselves, so
+    what a generation holds was never computed with records older than it: a lookup that began before the
+    change (in another thread: the app's background recheck, a sync) stores what it read in the generation
+    it began in, which no caller asks for again, and no new generation starts with a row read before it.
+    """
+
+    number: int
+    tables: dict[str, Table] = field(default_factory=dict)
+    found: dict[tuple[str, tuple[tuple[str, str], ...]], dict[str, str]] = field(default_factory=dict)
+
+
+_NOW = _Generation(0)
+
+
 def load(name: str) -> Table:
-    """Load the table ``core/data/<name>.csv`` (cached; the files are read-only package data)."""
+    """Load the table ``core/data/<name>.csv`` with a firm's records applied (cached per generation)."""
+    return _table(_NOW, name)
+
+
+def _table(now: _Generation, name: str) -> Table:
+    """Table ``name`` of generation ``now``, read into it on first use."""
+    table = now.tables.get(name)
+    if table is None:
+        table = now.tables[name] = _read(name)
+    return table
+
+
+def _read(name: str) -> Table:
+    """The table ``core/data/<name>.csv`` as the firm's records in use make it (the files are read-only)."""
     text = resources.files("core").joinpath("data", f"{name}.csv").read_text(encoding="utf-8")
     header = tuple(line[1:].strip() for line in text.splitlines() if line.startswith("#"))
     body = [line for line in text.splitlines() if line and not line.startswith("#")]
@@ -43,40 +72,33 @@ def load(name: str) -> Table:
 
 def use_firm_records(records: list[overrides.TableRecord]) -> None:
     """Apply a firm's verifications and corrections (``core/overrides.py``) to every lookup from now on."""
-    global _GENERATION
+    global _NOW
     if overrides.use(records):
-        load.cache_clear()
-        _FOUND.clear()
-        _GENERATION += 1
+        _NOW = _Generation(_NOW.number + 1)  # last: see _Generation
 
 
 def generation() -> int:
     """A number that changes whenever a firm's records change what a lookup returns (for callers' caches)."""
-    return _GENERATION
-
-
-_GENERATION = 0
+    return _NOW.number
 
 
 def find(name: str, **keys: str) -> dict[str, str]:
     """Return the single row of table ``name`` whose columns equal ``keys``.
 
-    Raises ``KeyError`` naming the table and the keys when no row matches. Hits are memoised
-    (the tables are read-only), which keeps repeated rechecks from rescanning them.
+    Raises ``KeyError`` naming the table and the keys when no row matches. Hits are memoised per
+    generation (the tables are read-only), which keeps repeated rechecks from rescanning them.
     """
+    now = _NOW
     memo_key = (name, tuple(keys.items()))  # in the caller's keyword order: one entry per call site's order
-    hit = _FOUND.get(memo_key)
+    hit = now.found.get(memo_key)
     if hit is not None:
         return hit
-    for row in load(name).rows:
+    for row in _table(now, name).rows:
         if all(row[k] == v for k, v in keys.items()):
-            _FOUND[memo_key] = row
+            now.found[memo_key] = row
             return row
     msg = f"no row in table {name!r} for {keys}"
     raise KeyError(msg)
-
-
-_FOUND: dict[tuple[str, tuple[tuple[str, str], ...]], dict[str, str]] = {}
 
 
 def column(name: str, col: str) -> list[str]:

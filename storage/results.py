@@ -408,8 +408,11 @@ def jobs(db: Any, site_id: str | None = None, only_stale: bool = True) -> Iterat
     """
     from storage import firm_tables
 
-    firm_tables.apply(db)  # lookups honour the firm's verified and corrected rows (inherited by workers)
+    # the stamp first: a table record that arrives between the two (a sync in another thread) leaves these rows
+    # hashed under the older stamp, so ``write_rows`` drops them (they stay stale) instead of storing rows
+    # computed with the older records under the newer stamp
     stamp = tables_stamp(db)
+    firm_tables.apply(db)  # lookups honour the firm's verified and corrected rows (inherited by workers)
     bases: dict[str, str] = {}
     if only_stale:
         sql = (
@@ -439,13 +442,13 @@ Raw = tuple[str, str | None, str, str]  # beam id, site id, record text, list fi
 Part = tuple[str, dict[str | None, str], list[Raw]]  # the tables stamp, site id -> its bases, the records
 
 
-def _parts(db: Any, site_id: str | None, chunk: int) -> Iterator[Part]:
+def _parts(db: Any, site_id: str | None, chunk: int, stamp: str) -> Iterator[Part]:
     """The portfolio's parts: ``chunk`` records at a time in id order, each read when it is asked for.
 
     Read page by page (an id bound and a limit: no cursor stays open across the caller's writes), so
-    only the parts in flight are in memory. Each part carries what its worker needs to hash its jobs.
+    only the parts in flight are in memory. Each part carries what its worker needs to hash its jobs, with
+    ``stamp``, the tables stamp read before the firm's records were applied (``jobs`` says why).
     """
-    stamp = tables_stamp(db)
     bases: dict[str | None, str] = {}
     first, more = _every_beam_sql(site_id, paged=True), _every_beam_sql(site_id, after=True, paged=True)
     head = [site_id] if site_id else []
@@ -602,10 +605,11 @@ def recheck_all(
     """
     from storage import firm_tables
 
+    stamp = tables_stamp(db)  # before the records are applied (``jobs`` says why)
     firm_tables.apply(db)  # before any worker starts: workers inherit the firm's table rows
     memo_reset()  # so do they the memo's fresh count
     with _workers(processes) as pool, gc_paused():  # workers fork first: they inherit neither records nor pause
-        parts = _InFlight(pool, _parts(db, site_id, chunk), ahead=2 * processes)  # the workers start now
+        parts = _InFlight(pool, _parts(db, site_id, chunk, stamp), ahead=2 * processes)  # the workers start now
         before = _before(db, site_id)
         total = _count(db, site_id)
         run = PortfolioRun()

@@ -134,7 +134,8 @@ class SiteScreen(Screen):
         self._rows: list[tuple[str, dict[str, Any], str]] = []
         self._loading = False  # stale results are being rechecked in the background: the list is not read yet
         self._stale = 0  # how many were stale when the background recheck started (its message)
-        self._recheck: BackgroundRecheck | None = None
+        self._recheck: BackgroundRecheck | None = None  # the one this screen follows
+        self._workers: list[BackgroundRecheck] = []  # every one started and perhaps still running (stopped on close)
         self._follow: Any = None  # the timer that follows the background recheck
 
     def on_size(self, *_: Any) -> None:
@@ -158,15 +159,17 @@ class SiteScreen(Screen):
         self._loading = True
         self._stale = stale
         self.unraised_text = ""
-        self.counts_text = self.vm.rechecking_line(stale)
+        self.ids.level_filter.values = [ALL_LEVELS]  # this site's levels once its list is read (not the last site's)
+        work = self._recheck if self._recheck is not None and self._recheck.running() else None
+        if work is not None and work.site_id != app.site_id:
+            work.stop(wait=False)  # another site's: it stops after its part under way, keeping what it stored
+            work = None
+        if work is None:
+            work = self._recheck = BackgroundRecheck(str(app.store.path), app.site_id).start()
+            self._workers = [w for w in self._workers if w.running()] + [work]
+        self.counts_text = self.vm.rechecking_line(work.total or stale, work.done)  # back while it runs: how far
         lay_out_now(self, self.manager.size)
         self.ids.beam_list.data = [heading_row("Rechecking…")]
-        running = self._recheck is not None and self._recheck.running()
-        if running and self._recheck is not None and self._recheck.site_id != app.site_id:
-            self._recheck.stop()  # another site's: it stops after its part under way, keeping what it stored
-            running = False
-        if not running:
-            self._recheck = BackgroundRecheck(str(app.store.path), app.site_id).start()
         if self._follow is None:
             self._follow = Clock.schedule_interval(self._follow_recheck, RECHECK_FOLLOW_S)
 
@@ -175,7 +178,7 @@ class SiteScreen(Screen):
         work = self._recheck
         if work is not None and work.running():
             if self._loading and work.site_id == self.vm.site_id:
-                self.counts_text = self.vm.rechecking_line(self._stale, work.done)
+                self.counts_text = self.vm.rechecking_line(work.total or self._stale, work.done)
             return
         if self._follow is not None:
             self._follow.cancel()
@@ -185,9 +188,11 @@ class SiteScreen(Screen):
             self._load()  # what the worker left stale (a failure, a beam saved meanwhile) is rechecked here
 
     def stop_recheck(self) -> None:
-        """The app is closing: the background recheck stops after its part under way (what it stored is kept)."""
-        if self._recheck is not None:
-            self._recheck.stop()
+        """The app is closing: every background recheck stops after its part under way (what it stored is kept)."""
+        for work in self._workers:
+            work.stop(wait=False)
+        for work in self._workers:
+            work.stop()
 
     def _load(self) -> None:
         """Read the beams (rechecking the stale ones) and lay them out with their counts and the unraised warning."""
@@ -210,7 +215,10 @@ class SiteScreen(Screen):
         made any of this site's results stale, so no row keeps showing the status from before the sync.
         The search, the filters and the list's scroll position stay as they are.
         """
-        if not hasattr(self, "vm") or self._loading:
+        if not hasattr(self, "vm"):
+            return
+        if self._loading:  # the list comes when the recheck is done; a deficiency pulled by the sync shows now
+            self.show_deficiencies()
             return
         if self.vm.stale():
             self._rows = self.vm.beam_rows()

@@ -328,10 +328,13 @@ class BackgroundRecheck:
         """True while the worker is rechecking."""
         return self._thread is not None and self._thread.is_alive()
 
-    def stop(self, timeout_s: float = 5.0) -> None:
-        """Ask the worker to stop after the part under way and wait up to ``timeout_s`` for it."""
+    def stop(self, wait: bool = True, timeout_s: float = 5.0) -> None:
+        """Ask the worker to stop after the part under way; with ``wait``, wait up to ``timeout_s`` for it.
+
+        Without: the screen does not wait (a part may be waiting on a sync's write lock for seconds).
+        """
         self._stop.set()
-        if self._thread is not None:
+        if wait and self._thread is not None:
             self._thread.join(timeout=timeout_s)
 
     def _run(self) -> None:

@@ -531,8 +531,10 @@ def test_background_recheck_stopped_keeps_the_parts_it_stored(tmp_path, monkeypa
     monkeypatch.setattr(results, "refresh_parts", parts)
     work = BackgroundRecheck(str(store.path), site_id).start()
     assert first.wait(30)
+    work.stop(wait=False)  # another site opened: the screen does not wait for the part under way
+    assert work.running()
     threading.Timer(0.1, go.set).start()
-    work.stop()  # the app closes, or another site is opened: after the part under way
+    work.stop()  # the app closes: it waits for the part under way
     assert not work.running()
     assert (work.done, work.total) == (2, 5)
     assert results.stale_count(store.db, site_id) == 3  # the rest stay stale: the next reader rechecks them

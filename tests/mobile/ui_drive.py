@@ -1112,12 +1112,42 @@ elif FLOW == "site-rechecking":
     @step
     def leave_while_rechecking():
         # every result stale again; the reviewer taps back to the sites while the worker is on its first part
+        import threading
+
         app.store.db.execute("UPDATE beam_result SET input_hash = '' WHERE site_id = ?", [seen["site"]])
-        stored_results.refresh_parts = seen["real"]
+        hold = seen["hold"] = threading.Event()
+        real = seen["real"]
+
+        def parts(db, site_id, part=None):
+            for k, step_done in enumerate(real(db, site_id, part)):
+                yield step_done
+                if k == 0:
+                    hold.wait(10)  # after its first part, until the reviewer is back on the site (10 s at most)
+
+        stored_results.refresh_parts = parts
         app.open_site(seen["site"])
-        assert recheck_work() is not None
+        seen["worker"] = recheck_work()
+        assert seen["worker"] is not None
         app.go("sites")
         assert stored_results.stale_count(app.store.db, seen["site"]) > 0  # left before the first part was stored
+
+    @step
+    def back_while_it_runs():
+        # back on the site while the same worker runs: it is followed, not started again, and the line says how
+        # far it is of all it is rechecking (it said "Rechecking 700 beams... 500 done" before: the review's find)
+        work = seen["worker"]
+        if work.done < RECHECK_PART:
+            raise TimeoutError  # the first part is not stored yet: the runner tries again
+        assert app.root.current == "sites", app.root.current
+        assert stored_results.stale_count(app.store.db, seen["site"]) == STALE - RECHECK_PART
+        app.open_site(seen["site"])
+        assert screen("site")._recheck is work
+        said = screen("site").counts_text
+        want = f"Rechecking {STALE:,} beams (their stored results are out of date)…  {RECHECK_PART:,} done"
+        assert said == want, said
+        app.go("sites")  # and off again: it goes on by itself
+        stored_results.refresh_parts = seen["real"]
+        seen["hold"].set()
 
     @step
     def finished_in_the_background():
