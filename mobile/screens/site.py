@@ -133,7 +133,7 @@ class SiteScreen(Screen):
         self._popup: Popup | None = None
         self._rows: list[tuple[str, dict[str, Any], str]] = []
         self._loading = False  # stale results are being rechecked in the background: the list is not read yet
-        self._stale = 0  # how many were stale when the background recheck started (its message)
+        self._stale = 0  # how many were stale when this visit began (the message until the worker has a total)
         self._recheck: BackgroundRecheck | None = None  # the one this screen follows
         self._workers: list[BackgroundRecheck] = []  # every one started and perhaps still running (stopped on close)
         self._follow: Any = None  # the timer that follows the background recheck
