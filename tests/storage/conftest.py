@@ -21,16 +21,21 @@ SYNC_MODULES = {
 
 
 def pytest_generate_tests(metafunc):
-    """Add ``json_library`` to every test of the sync modules."""
-    if metafunc.module.__name__.rsplit(".", 1)[-1] in SYNC_MODULES and "json_library" not in metafunc.fixturenames:
-        metafunc.fixturenames.append("json_library")
+    """Run every test function of the sync modules with each library (``json_library`` is autouse, so listed)."""
+    if metafunc.module.__name__.rsplit(".", 1)[-1] in SYNC_MODULES:
         metafunc.parametrize("json_library", ["orjson", "stdlib"], indirect=True)
 
 
-@pytest.fixture
+@pytest.fixture(autouse=True)
 def json_library(request, monkeypatch):
-    """Which JSON library storage.fastjson uses for this run of the test."""
-    library = getattr(request, "param", "orjson")
+    """Which JSON library storage.fastjson uses for this run of the test (as installed outside the sync modules).
+
+    Autouse: a fixture only named in ``metafunc.fixturenames`` from ``pytest_generate_tests`` is given
+    its parameter but never set up (pytest 9), so the "stdlib" runs used orjson all the same.
+    """
+    library = getattr(request, "param", None)
+    if library is None:
+        return "orjson" if fastjson.ORJSON is not None else "stdlib"
     if library == "stdlib":
         monkeypatch.setattr(fastjson, "ORJSON", None)
     elif fastjson.ORJSON is None:
