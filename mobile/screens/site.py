@@ -137,6 +137,7 @@ class SiteScreen(Screen):
         self._recheck: BackgroundRecheck | None = None  # the one this screen follows
         self._workers: list[BackgroundRecheck] = []  # every one started and perhaps still running (stopped on close)
         self._follow: Any = None  # the timer that follows the background recheck
+        self._recheck_error = ""  # why this visit's background recheck failed: a line under the counts for the visit
 
     def on_size(self, *_: Any) -> None:
         """Landscape or portrait: the columns follow the screen's shape."""
@@ -150,6 +151,7 @@ class SiteScreen(Screen):
         self.visit_text = self.vm.visit_line()
         self.show_deficiencies()
         self._rows = []
+        self._recheck_error = ""
         stale = self.vm.stale_count()
         if stale < RECHECK_NOTICE_AT:
             self._load()
@@ -184,8 +186,21 @@ class SiteScreen(Screen):
             self._follow.cancel()
             self._follow = None
         self._recheck = None
-        if self._loading:
-            self._load()  # what the worker left stale (a failure, a beam saved meanwhile) is rechecked here
+        if not self._loading:
+            return
+        if work is not None and work.error and work.site_id == self.vm.site_id:
+            # the worker failed: say so and why, and let a frame show it before this screen rechecks (and pauses)
+            self._recheck_error = work.error
+            self.counts_text = self.vm.recheck_failed_line(work.error, self.vm.stale_count())
+            site_id = self.vm.site_id
+            Clock.schedule_once(lambda _dt: self._load_after_failure(site_id), RECHECK_FOLLOW_S)
+            return
+        self._load()  # what the worker left stale (a beam saved meanwhile) is rechecked here
+
+    def _load_after_failure(self, site_id: str) -> None:
+        """``_load`` once the failure was shown, unless the reviewer has since left or opened another recheck."""
+        if self._loading and self._recheck is None and self.vm.site_id == site_id:
+            self._load()
 
     def stop_recheck(self) -> None:
         """The app is closing: every background recheck stops after its part under way (what it stored is kept)."""
@@ -203,7 +218,7 @@ class SiteScreen(Screen):
         self.ids.level_filter.values = [ALL_LEVELS, *self.vm.levels(self._rows)]
         self.ids.status_filter.values = [ALL_STATUSES, *(status_label(s) for s in STATUS_WORDS)]
         groups = self._groups()
-        self.counts_text = self.vm.counts(self._rows, shown=self.vm.shown(groups))  # its height, before the layout
+        self.counts_text = self._counts_line(groups)  # its height, before the layout
         lay_out_now(self, self.manager.size)  # before the list gets its rows: they are placed once
         self.show_beams(groups)
         self.unraised_text = self.vm.unraised_warning(tap=True)
@@ -238,11 +253,16 @@ class SiteScreen(Screen):
         status = next((s for s in STATUS_WORDS if status_label(s) == self.ids.status_filter.text), "")
         return self.vm.groups(self.ids.search.text, level, status, rows=self._rows)
 
+    def _counts_line(self, groups: list[tuple[str, list[tuple[str, str, str]]]]) -> str:
+        """The counts over the list; on a visit whose background recheck failed, a line saying so and why."""
+        counts = self.vm.counts(self._rows, shown=self.vm.shown(groups))
+        return counts + ("\n" + self.vm.recheck_failed_note(self._recheck_error) if self._recheck_error else "")
+
     def show_beams(self, groups: list[tuple[str, list[tuple[str, str, str]]]] | None = None) -> None:
         """The beams that match the search and filters (``groups`` when already found), in the recycling list."""
         groups = self._groups() if groups is None else groups
         data = list_data(groups, {beam_id: st for beam_id, _, st in self._rows})
-        self.counts_text = self.vm.counts(self._rows, shown=self.vm.shown(groups))
+        self.counts_text = self._counts_line(groups)
         if not data:
             data = [heading_row("No beam matches.")]
         presize(self.ids.beam_list.layout_manager, data)

@@ -98,6 +98,19 @@ class SiteViewModel:
         line = f"Rechecking {count:,} beam{'s' if count != 1 else ''} (their stored results are out of date)…"
         return line + (f"  {done:,} done" if done else "")
 
+    @staticmethod
+    def recheck_failed_line(error: str, left: int) -> str:
+        """What the screen says when its background recheck failed, just before it rechecks what is left itself."""
+        return (
+            f"The background recheck stopped ({error}). Rechecking the {left:,} beam{'s' if left != 1 else ''} "
+            "it left here: the screen may pause."
+        )
+
+    @staticmethod
+    def recheck_failed_note(error: str) -> str:
+        """The line kept under the counts for the visit once the screen has rechecked what the worker left."""
+        return f"The background recheck stopped ({error}); this screen rechecked the rest, so the list is current."
+
     def groups(
         self,
         search: str = "",

@@ -553,5 +553,12 @@ def test_background_recheck_that_fails_says_why_and_leaves_the_rest_stale(tmp_pa
     _finish(work)
     assert work.error == "OperationalError: database is locked"
     assert results.stale_count(store.db, site_id) == 3
+    vm = SiteViewModel(store, site_id)  # what the site screen says, before and after it rechecks the rest itself
+    assert vm.recheck_failed_line(work.error, vm.stale_count()) == (
+        "The background recheck stopped (OperationalError: database is locked). "
+        "Rechecking the 3 beams it left here: the screen may pause."
+    )
+    assert vm.recheck_failed_line(work.error, 1).endswith("the 1 beam it left here: the screen may pause.")
+    assert vm.recheck_failed_note(work.error).endswith("this screen rechecked the rest, so the list is current.")
     monkeypatch.undo()
     assert results.refresh(store.db, site_id) == 3  # what the screen's own refresh then does

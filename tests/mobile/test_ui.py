@@ -155,9 +155,12 @@ def test_a_site_with_stale_results_is_rechecked_in_the_background_while_the_scre
     """1,200 stale results: a worker rechecks them while the screen draws how far it is, then lists them.
 
     Frames are drawn during the work, showing "500 done", "1,000 done", "1,200 done"; a reviewer who leaves
-    mid-recheck loses nothing and finds the site current when back.
+    mid-recheck loses nothing and finds the site current when back. A beam edited after the worker stored its
+    result is listed with its new result (DEFICIENT at a 20 m span). A worker that fails says why on screen,
+    then the screen rechecks the rest and keeps a line saying so.
 
-    Screenshots: test-artefacts/ui-rechecking/site-rechecking.png (a frame drawn during the recheck).
+    Screenshots: test-artefacts/ui-rechecking/site-rechecking.png (a frame drawn during the recheck),
+    site-recheck-failed.png (the list after a failed worker, with the line saying so).
     """
     shots = ROOT / "test-artefacts" / "ui-rechecking"
     out = run_app(tmp_path / "k.db", shots, "site-rechecking", tmp_path / "home")

@@ -1067,6 +1067,8 @@ elif FLOW == "site-rechecking":
         def flipped(*_):
             work = recheck_work()
             if work is None or not work.running():
+                if app.root.current == "site" and screen("site")._loading:
+                    seen["texts"].add(screen("site").ids.counts.text)  # a failed worker's line, drawn
                 return
             seen["flips"] += 1  # a frame drawn while the worker rechecks
             text = screen("site").ids.counts.text
@@ -1162,6 +1164,100 @@ elif FLOW == "site-rechecking":
         yield from shot("site-reopened")
         counts = screen("site").counts_text
         assert counts.startswith(f"{STALE:,} beams:"), counts
+
+    @step
+    def edit_while_it_runs():
+        # every result stale again; the worker is held after its first part while a beam it has already stored is
+        # edited (a sync's pull, or the reviewer's own save): that beam's stored result is then the worker's, from
+        # before the edit, so it must be rechecked again before the list shows it
+        import threading
+
+        app.go("sites")
+        app.store.db.execute("UPDATE beam_result SET input_hash = '' WHERE site_id = ?", [seen["site"]])
+        hold = seen["hold"] = threading.Event()
+        real = seen["real"]
+
+        def parts(db, site_id, part=None):
+            for k, step_done in enumerate(real(db, site_id, part)):
+                yield step_done
+                if k == 0:
+                    hold.wait(10)  # after its first part, until the edit below is saved (10 s at most)
+
+        stored_results.refresh_parts = parts
+        app.open_site(seen["site"])
+        seen["worker"] = recheck_work()
+        assert seen["worker"] is not None
+
+    @step
+    def save_an_edit_the_worker_has_passed():
+        work = seen["worker"]
+        if work.done < RECHECK_PART:
+            raise TimeoutError  # the first part is not stored yet: the runner tries again
+        done_ids = [
+            r[0]
+            for r in app.store.db.execute(
+                "SELECT beam_id FROM beam_result WHERE site_id = ? AND input_hash != '' ORDER BY beam_id LIMIT 1",
+                [seen["site"]],
+            )
+        ]
+        assert done_ids, "the worker's first part stored no result"
+        beam_id = seen["edited"] = done_ids[0]
+        before = dict((i, st) for i, _, st in stored_results.site_list(app.store.db, seen["site"]))[beam_id]
+        assert before == "ok", before  # the demo's RB-1: a 130x456 glulam roof beam that passes
+        # a 20 m span for the same glulam under the demo's snow: the moment demand grows with the span's square
+        # (wL²/8, a handbook formula), Mr falls only a little (through KZbg, O86 7.5.6.5), so it cannot pass
+        app.store.update_beam(beam_id, {"spans_mm": [20000]})
+        assert stored_results.stale_count(app.store.db, seen["site"]) == STALE - RECHECK_PART + 1
+        stored_results.refresh_parts = seen["real"]
+        seen["hold"].set()
+
+    @step
+    def the_list_shows_the_edit():
+        if recheck_work() is not None or screen("site")._loading:
+            raise TimeoutError  # still rechecking: the runner tries again
+        assert stored_results.stale_count(app.store.db, seen["site"]) == 0
+        status = {i: st for i, _, st in screen("site")._rows}[seen["edited"]]
+        assert status == "deficient", status
+
+    @step
+    def a_failed_recheck_says_why():
+        # the worker fails after its first part (a locked or damaged database): the screen says so and why, then
+        # rechecks what is left itself, and keeps a line saying it did (before, it only paused, unexplained)
+        import sqlite3
+        import threading
+
+        app.go("sites")
+        app.store.db.execute("UPDATE beam_result SET input_hash = '' WHERE site_id = ?", [seen["site"]])
+        real = seen["real"]
+
+        def parts(db, site_id, part=None):
+            for k, step_done in enumerate(real(db, site_id, part)):
+                yield step_done
+                if k == 0 and threading.current_thread().name == "bracewalk-recheck":  # the worker, not the screen
+                    deadline = time.monotonic() + 5  # until a frame has shown the first part (5 s at most)
+                    while not any(f"{RECHECK_PART:,} done" in t for t in seen["texts"]) and time.monotonic() < deadline:
+                        time.sleep(0.02)
+                    msg = "disk I/O error"
+                    raise sqlite3.OperationalError(msg)
+
+        seen["texts"].clear()
+        stored_results.refresh_parts = parts
+        app.open_site(seen["site"])
+
+    @step
+    def the_failure_is_shown_then_the_list():
+        if screen("site")._loading:
+            raise TimeoutError  # the worker or the screen's own recheck is under way: the runner tries again
+        stored_results.refresh_parts = seen["real"]
+        left = STALE - RECHECK_PART
+        said = f"The background recheck stopped (OperationalError: disk I/O error). Rechecking the {left:,} beams it"
+        assert any(t.startswith(said) for t in seen["texts"]), sorted(seen["texts"])
+        counts = screen("site").counts_text
+        assert counts.startswith(f"{STALE:,} beams:"), counts
+        note = "The background recheck stopped (OperationalError: disk I/O error); this screen rechecked the rest, so"
+        assert note in counts, counts
+        assert stored_results.stale_count(app.store.db, seen["site"]) == 0
+        yield from shot("site-recheck-failed")
 
 
 elif FLOW == "site-layout-once":
