@@ -39,3 +39,21 @@ def _suite_trusted_key(db, device_id, allow_revoked=False):
 _suite_trusted_key.__wrapped__ = _real_trusted_key
 _identity.device_key = _suite_device_key
 _identity.trusted_key = _suite_trusted_key
+
+
+# The README test (tests/test_readme_commands.py) runs the README's test command once more in a fresh copy of
+# the project. There the slow tests (the bench smoke run, the golden campaigns: about 4 minutes) are skipped:
+# the outer run has just run them on the same files, and CI's time is bounded (90 minutes).
+README_NESTED = "BRACEWALK_README_NESTED"
+
+
+def pytest_collection_modifyitems(config, items):  # noqa: ARG001 (pytest's hook signature)
+    """In the README test's nested run, skip the tests marked slow (run by the outer run)."""
+    if os.environ.get(README_NESTED) != "1":
+        return
+    import pytest
+
+    skip = pytest.mark.skip(reason="slow: run by the outer run of the suite (this is the README test's nested run)")
+    for item in items:
+        if item.get_closest_marker("slow") is not None:
+            item.add_marker(skip)

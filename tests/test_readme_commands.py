@@ -1,7 +1,8 @@
 """The README's two set-up commands, run literally in a fresh copy of the project (a fresh .venv).
 
 Slow (it builds a virtual environment and runs the whole suite once more), so it is marked slow;
-`.ci/run` runs the full suite, this test included. Inside the nested run it skips itself.
+`.ci/run` runs the full suite, this test included. Inside the nested run it skips itself, and so do the
+other slow tests (tests/conftest.py): the outer run has run them.
 """
 
 import os
@@ -61,3 +62,4 @@ def test_readme_commands_work_literally_in_a_fresh_venv(tmp_path):
     tests = subprocess.run(["bash", "-c", test_cmd], cwd=project, env=env, capture_output=True, text=True, timeout=3600)
     assert tests.returncode == 0, tests.stdout[-5000:] + tests.stderr[-3000:]
     assert re.search(r"\d+ passed", tests.stdout), tests.stdout[-2000:]
+    assert re.search(r"\d+ skipped", tests.stdout), tests.stdout[-2000:]  # the slow ones, run by the outer run
