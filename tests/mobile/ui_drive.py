@@ -686,6 +686,7 @@ elif FLOW == "hub":
     HUB_URL, HUB_CODE = os.environ["BRACEWALK_TEST_HUB_URL"], os.environ["BRACEWALK_TEST_HUB_CODE"]
     GEOM = os.environ.get("BRACEWALK_GEOMETRY", "default")
     seen_sync = {"at": None}
+    hub_seen: dict[str, list[str]] = {}  # what the sync screen said, step by step
     restarted = []  # the hub this flow starts again after cutting the network; stopped when the flow ends
 
     def _stop_restarted():
@@ -750,6 +751,8 @@ elif FLOW == "hub":
         assert s.ids.enroll.height > 0, _enrol_form(s)
         assert s.ids.enrol_again.height == 0, _enrol_form(s)
         yield from shot(f"{GEOM}-hub-1-not-enrolled")
+        said = hub_seen["summaries"] = []
+        s.bind(summary=lambda _w, text: said.append(text))  # the enrolment's line, before the sync replaces it
         s.ids.hub_url.text = HUB_URL
         s.ids.enrol_code.text = HUB_CODE
         s.ids.enroll.trigger_action(0)
@@ -758,8 +761,9 @@ elif FLOW == "hub":
     def enrolled_and_first_sync():
         summary = wait_for_background_sync("first sync after enrolment")
         s = screen("sync")
-        assert "Enrolled as Tablet 7" in s.summary or summary.startswith("Sent "), (s.summary, summary)
+        assert any(t.startswith("Enrolled as Tablet 7 for ") for t in hub_seen["summaries"]), hub_seen["summaries"]
         assert summary.startswith("Sent "), summary
+        assert f"as device {app.store.device_id}." in s.enrolled_text, s.enrolled_text
         assert "in step at" in s.hub_text, s.hub_text
         assert s.ids.enrol_code.text == ""  # the one-time code is spent
         # enrolled: the form is folded away (0 high, no touch) behind "Enrol again", which unfolds it
