@@ -1115,9 +1115,8 @@ elif FLOW == "site-rechecking":
     def back_to_sites():
         app.go("sites")
 
-    @step
-    def leave_while_rechecking():
-        # every result stale again; the reviewer taps back to the sites while the worker is on its first part
+    def all_stale_and_held_after_the_first_part():
+        """Every result of the site stale again; the next worker waits after its first part for ``seen["hold"]``."""
         import threading
 
         app.store.db.execute("UPDATE beam_result SET input_hash = '' WHERE site_id = ?", [seen["site"]])
@@ -1128,9 +1127,14 @@ elif FLOW == "site-rechecking":
             for k, step_done in enumerate(real(db, site_id, part)):
                 yield step_done
                 if k == 0:
-                    hold.wait(10)  # after its first part, until the reviewer is back on the site (10 s at most)
+                    hold.wait(10)  # after its first part, until the step that sets it (10 s at most)
 
         stored_results.refresh_parts = parts
+
+    @step
+    def leave_while_rechecking():
+        # every result stale again; the reviewer taps back to the sites while the worker is on its first part
+        all_stale_and_held_after_the_first_part()
         app.open_site(seen["site"])
         seen["worker"] = recheck_work()
         assert seen["worker"] is not None
@@ -1174,20 +1178,8 @@ elif FLOW == "site-rechecking":
         # every result stale again; the worker is held after its first part while a beam it has already stored is
         # edited (a sync's pull, or the reviewer's own save): that beam's stored result is then the worker's, from
         # before the edit, so it must be rechecked again before the list shows it
-        import threading
-
         app.go("sites")
-        app.store.db.execute("UPDATE beam_result SET input_hash = '' WHERE site_id = ?", [seen["site"]])
-        hold = seen["hold"] = threading.Event()
-        real = seen["real"]
-
-        def parts(db, site_id, part=None):
-            for k, step_done in enumerate(real(db, site_id, part)):
-                yield step_done
-                if k == 0:
-                    hold.wait(10)  # after its first part, until the edit below is saved (10 s at most)
-
-        stored_results.refresh_parts = parts
+        all_stale_and_held_after_the_first_part()
         app.open_site(seen["site"])
         seen["worker"] = recheck_work()
         assert seen["worker"] is not None
