@@ -966,12 +966,17 @@ elif FLOW == "portrait":
 
     @step
     def site_portrait():
+        assert app.root_window.height > app.root_window.width
+        assert screen("site").wide is False  # the columns follow the screen's shape: stacked in portrait
+        problems = layout_problems("site")
+        assert not problems, problems  # nothing cut, overlapping or off screen
         yield from shot("13-site-portrait")
         app.open_beam(demo_beam("RB-5"))
 
     @step
     def beam_portrait():
-        assert app.root_window.height > app.root_window.width
+        problems = layout_problems("beam")
+        assert not problems, problems
         yield from shot("14-beam-portrait")
 
 elif FLOW == "site-rows":
