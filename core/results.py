@@ -290,6 +290,20 @@ def _bearing_line(j: int, b: BearingCheck) -> CheckLine:
     )
 
 
+def check_trace(result: Recheck, key: str) -> list[FactorTrace]:
+    """The trace of the check a ``CheckLine.key`` names ("bending0", "shear", "bearing1", "deflection")."""
+    if key.startswith("bending") and key[len("bending") :].isdigit():
+        return list(result.bending[int(key[len("bending") :])].trace)
+    if key.startswith("bearing") and key[len("bearing") :].isdigit():
+        return list(result.bearing[int(key[len("bearing") :])].trace)
+    if key == "shear":
+        return list(result.shear.trace)
+    if key == "deflection":
+        return list(result.deflection.trace)
+    msg = f"check key {key!r}; allowed: bending<n>, shear, bearing<n>, deflection"
+    raise ValueError(msg)
+
+
 def check_lines(result: Recheck) -> list[CheckLine]:
     """Every check of a recheck, in order: bending per region, shear, bearing per support, deflection."""
     s, d = result.shear, result.deflection

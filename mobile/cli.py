@@ -136,6 +136,8 @@ def cmd_check(args: argparse.Namespace) -> int:
     from mobile.text import recheck_text
 
     beam = load_beam(args.beam)
+    if args.sheet:
+        write_sheet(beam, Path(args.sheet))
     if args.text:
         print(recheck_text(recheck(beam)))
         return EXIT_OK
@@ -146,6 +148,20 @@ def cmd_check(args: argparse.Namespace) -> int:
         return EXIT_FAILURE
     print(text)
     return EXIT_OK
+
+
+def write_sheet(beam: Beam, out: Path) -> None:
+    """Write the beam's recheck sheet PDF to ``out`` and say so on standard error (stdout stays the result)."""
+    from core.recheck import recheck
+    from reports.render import render_recheck_sheet
+
+    pdf = render_recheck_sheet(beam, recheck(beam))
+    try:
+        out.write_bytes(pdf)
+    except OSError as exc:
+        msg = f"cannot write the recheck sheet to {out}: {exc.strerror or exc}"
+        raise UserError(msg) from exc
+    print(f"recheck sheet: {out}", file=sys.stderr)
 
 
 def cmd_schema(_args: argparse.Namespace) -> int:
@@ -168,6 +184,11 @@ def build_parser() -> argparse.ArgumentParser:
     p = sub.add_parser("check", help="recheck one beam described in a JSON file (contract 1)")
     p.add_argument("beam", help="path to the beam JSON file, or - for standard input")
     p.add_argument("--text", action="store_true", help="print a readable summary instead of JSON")
+    p.add_argument(
+        "--sheet",
+        metavar="FILE.pdf",
+        help="also write the beam's recheck sheet: inputs, every check and every factor with its clause",
+    )
     p.set_defaults(func=cmd_check)
     p = sub.add_parser("schema", help="print the JSON Schema of the beam input")
     p.set_defaults(func=cmd_schema)

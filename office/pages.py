@@ -136,6 +136,16 @@ def _site_routes(router: APIRouter) -> None:
             return _not_found(request, user, f"No deficiency {deficiency_id}")
         return _page(request, "deficiency.html", user, site=registry.site(hub, found["item"].site_id), **found)
 
+    @router.get("/beam/{beam_id}/sheet.pdf")
+    def beam_sheet(beam_id: str, request: Request, user: User) -> Response:
+        found = registry.recheck_sheet(_hub(request), beam_id)
+        if isinstance(found, str):
+            return Response(found, status_code=404, media_type="text/plain")
+        name, data = found
+        return Response(
+            data, media_type="application/pdf", headers={"Content-Disposition": f'attachment; filename="{name}"'}
+        )
+
     @router.get("/photo/{sha256}")
     def photo(sha256: str, request: Request, user: User) -> Response:
         content = _hub(request).read_blob(sha256) if len(sha256) == 64 else None

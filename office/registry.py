@@ -321,6 +321,36 @@ def _checks(result: Any) -> list[dict[str, Any]]:
     ]
 
 
+def recheck_sheet(hub: HubStore, beam_id: str) -> tuple[str, bytes] | str:
+    """(file name, PDF) of a beam's recheck sheet, run again here as ``recheck_now`` runs it; or why not, in words."""
+    from pydantic import ValidationError
+
+    from core.models import Beam
+    from core.recheck import recheck
+    from reports.render import render_recheck_sheet
+
+    rows = _rows(hub, "beam", "WHERE id=?", [beam_id])
+    if not rows:
+        return f"no beam {beam_id}"
+    beam = rows[0][1]
+    site_rows = _rows(hub, "site", "WHERE id=?", [beam.get("site_id", "")])
+    site_data = site_rows[0][1] if site_rows else {}
+    data, loads_from = recheck_input(beam, site_data)
+    try:
+        model = Beam.model_validate(data)
+        result = recheck(model)
+    except ValidationError as exc:
+        fields = ", ".join(".".join(map(str, e["loc"])) for e in exc.errors()[:6])
+        return f"the beam record is incomplete or refused ({fields}): not rechecked"
+    except ValueError as exc:
+        return f"not rechecked: {exc}"
+    pdf = render_recheck_sheet(
+        model, result, site_data.get("name", ""), note=f"Rechecked on the office hub; {loads_from}."
+    )
+    safe = "".join(ch if ch.isalnum() or ch in "-_" else "-" for ch in model.mark)
+    return f"recheck-{safe}.pdf", pdf
+
+
 def recheck_now(beam: dict[str, Any], site_data: dict[str, Any]) -> dict[str, Any]:
     """The beam's recheck run again on the hub with ``core``.
 

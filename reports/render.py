@@ -27,9 +27,11 @@ from reportlab.platypus import (
     TableStyle,
 )
 
-from core.results import Recheck, check_lines
+from core.models import Beam
+from core.results import Recheck, check_lines, check_trace
 from reports import stamp
 from reports.content import Item, Notice, Photo, by_member, due_words, one_line, ordered
+from reports.inputs import input_rows
 from reports.photos import CELL_W_MM, photo_flowable, wide_box
 from reports.sketch import FONT, beam_sketch
 from reports.tablerows import memory_rows
@@ -777,10 +779,16 @@ def render_notice(n: Notice, stamp_hash: bool = False) -> bytes:
     return stamp.stamp(pdf) if stamp_hash else pdf
 
 
-def render_recheck_sheet(mark: str, beam_json: dict[str, Any], result: Recheck, site_name: str = "") -> bytes:
-    """Render a one-beam recheck sheet: inputs, every factor with clause and status, every check."""
+def render_recheck_sheet(beam: Beam, result: Recheck, site_name: str = "", note: str = "") -> bytes:
+    """A one-beam calculation sheet: inputs in words, every check, every factor with its clause, findings.
+
+    Each factor carries its table row and status (verified, confirmed, memory, formula). The checks are
+    the same ``check_lines`` the app, ``check --text`` and the notice print; the traces are each check's
+    own (``check_trace``), so every number on the sheet can be followed to a clause.
+    """
     st = _styles()
     buf = io.BytesIO()
+    mark = beam.mark
     doc = SimpleDocTemplate(
         buf,
         pagesize=LETTER,
@@ -788,16 +796,19 @@ def render_recheck_sheet(mark: str, beam_json: dict[str, Any], result: Recheck, 
         rightMargin=15 * mm,
         topMargin=15 * mm,
         bottomMargin=18 * mm,
-        title=f"Recheck {mark}",
+        title=f"Recheck sheet {mark}",
         invariant=1,
     )
+    status = result.status.value.upper().replace("_", " ")
     story: list[Any] = [
-        Paragraph(f"Recheck sheet: {esc(mark)} ({esc(result.status.value.replace('_', ' '))})", st["title"]),
-        Paragraph(esc(site_name), st["base"]),
-        Paragraph("Inputs", st["h2"]),
+        Paragraph(f"Recheck sheet: {esc(mark)}, {esc(status)}", st["title"]),
+        Paragraph(esc(site_name or "Beam rechecked from its record alone (no site)"), st["base"]),
     ]
-    rows = [[Paragraph(esc(k), st["bold"]), Paragraph(esc(v), st["small"])] for k, v in beam_json.items()]
-    story.append(_grid(rows, [40 * mm, 146 * mm]))
+    if note:
+        story.append(Paragraph(esc(note), st["small"]))
+    story.append(Paragraph("Inputs as recorded", st["h2"]))
+    rows = [[Paragraph(esc(k), st["bold"]), Paragraph(esc(v), st["small"])] for k, v in input_rows(beam)]
+    story.append(_grid(rows, [52 * mm, 134 * mm]))
     lines = check_lines(result)  # the same check lines as the app, the text output and the notice
     story.append(Paragraph("Checks", st["h2"]))
     rows = [[Paragraph(h, st["bold"]) for h in ("Check", "Demand", "Capacity", "Utilisation", "Clause")]]
@@ -805,42 +816,57 @@ def render_recheck_sheet(mark: str, beam_json: dict[str, Any], result: Recheck, 
         util = "not established" if c.utilisation is None else f"{c.utilisation:.3f}"
         rows.append([Paragraph(esc(x), st["small"]) for x in (c.name, c.demand, c.capacity, util, c.clause)])
     story.append(_grid(rows, [46 * mm, 30 * mm, 44 * mm, 22 * mm, 44 * mm], shade_first_col=False))
-    for c, r in zip(lines[: len(result.bending)], result.bending, strict=True):  # bending lines come first
-        story.append(Paragraph(f"{esc(c.name)}: {esc(r.outcome)}", st["h2"]))
-        story.append(
-            Paragraph(
-                f"{esc(c.factors)}; governing {esc(c.combination)}; compression edge: {esc(r.compression_edge)}",
-                st["base"],
-            )
-        )
-        head = [Paragraph(h, st["bold"]) for h in ("Factor", "Value", "Clause", "Source / table row", "Status")]
-        trows = [head] + [
+    outcomes = {f"bending{i}": r.outcome for i, r in enumerate(result.bending)}
+    for c in lines:
+        head = f"{c.name}: {outcomes[c.key]}" if c.key in outcomes else c.name
+        section: list[Any] = [Paragraph(esc(head[:1].upper() + head[1:]), st["h2"])]
+        basis = [c.factors] if c.factors else []
+        if c.combination:
+            basis.append(f"governing: {c.combination}")
+        if c.key in outcomes:
+            basis.append(f"compression edge: {result.bending[int(c.key[len('bending') :])].compression_edge}")
+        if basis:
+            section.append(Paragraph(esc("; ".join(basis)), st["base"]))
+        head_row = [Paragraph(h, st["bold"]) for h in ("Factor", "Value", "Clause", "Source / table row", "Status")]
+        trows = [head_row] + [
             [
                 Paragraph(esc(t.symbol), st["small"]),
-                Paragraph(esc(t.value) + " " + esc(t.unit), st["small"]),
+                Paragraph(esc(_trace_value(t.value)) + " " + esc(t.unit), st["small"]),
                 Paragraph(esc(t.clause), st["small"]),
                 Paragraph(esc(t.source), st["small"]),
                 Paragraph(esc(t.status), st["small"]),
             ]
-            for t in r.trace
+            for t in check_trace(result, c.key)
         ]
-        story.append(_grid(trows, [22 * mm, 24 * mm, 36 * mm, 84 * mm, 20 * mm], shade_first_col=False))
+        section.append(_grid(trows, [22 * mm, 24 * mm, 36 * mm, 84 * mm, 20 * mm], shade_first_col=False))
+        story.append(KeepTogether(section))  # a check's heading never sits alone at a page foot
     story.append(Paragraph("Findings", st["h2"]))
     for f in result.findings or []:
+        where = f", {f.region}" if f.region else ""
         story.append(
             Paragraph(
-                f"<b>{esc(f.priority.value)}</b> {esc(f.code)}: {esc(f.message)} Action: "
-                f"{esc(f.action)} ({esc(f.clause)})",
+                f"<b>{esc(priority_label(f.priority.value))}</b>{esc(where)}: {esc(f.message)} "
+                f"<b>Action:</b> {esc(f.action)} ({esc(f.clause)})",
                 st["base"],
             )
         )
+        story.append(Spacer(1, 3))
     if not result.findings:
         story.append(Paragraph("None.", st["base"]))
     story.append(Spacer(1, 6))
     story.append(Paragraph(esc(result.caution), st["small"]))
 
     class _Canvas(NumberedCanvas):
-        footer_left = f"recheck {mark}"
+        footer_left = f"recheck sheet {mark}"
 
     doc.build(story, canvasmaker=_Canvas)
     return buf.getvalue()
+
+
+def _trace_value(value: float | str | None) -> str:
+    """A trace value as the sheet prints it: 4 significant figures (whole above 1000, never an exponent); None: '-'."""
+    if value is None:
+        return "-"
+    if isinstance(value, float):
+        return f"{value:.0f}" if abs(value) >= 1000 else f"{value:.4g}"
+    return str(value)

@@ -54,6 +54,23 @@ def test_check_text_summary():
     assert "engineer of record" in proc.stdout
 
 
+def test_check_writes_the_recheck_sheet_and_keeps_its_json(tmp_path):
+    from pypdf import PdfReader
+
+    out = tmp_path / "R2-B4.pdf"
+    proc = run("check", str(EXAMPLE), "--sheet", str(out))
+    assert proc.returncode == 0, proc.stderr
+    assert json.loads(proc.stdout)["mark"] == "R2-B4"  # stdout is still contract-1 JSON
+    assert f"recheck sheet: {out}" in proc.stderr
+    text = "\n".join(p.extract_text() for p in PdfReader(out).pages)
+    assert "Recheck sheet: R2-B4, OK" in text
+    assert "engineer of record" in text
+    proc = run("check", str(EXAMPLE), "--sheet", str(tmp_path / "no-such-folder" / "x.pdf"))
+    assert proc.returncode == 2
+    assert "cannot write the recheck sheet" in proc.stderr
+    assert "Traceback" not in proc.stderr
+
+
 def test_schema_is_json_schema():
     proc = run("schema")
     assert proc.returncode == 0

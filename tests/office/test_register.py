@@ -22,7 +22,16 @@ def _jpeg() -> bytes:
 
 
 PHOTO = _jpeg()
-PAGES = ["/", "/site/x", "/deficiency/x", "/notices", "/devices", "/notice/x.pdf", "/photo/" + "a" * 64]
+PAGES = [
+    "/",
+    "/site/x",
+    "/deficiency/x",
+    "/notices",
+    "/devices",
+    "/notice/x.pdf",
+    "/photo/" + "a" * 64,
+    "/beam/x/sheet.pdf",
+]
 
 
 @pytest.fixture
@@ -54,7 +63,13 @@ def office(served, tmp_path):
 
 def test_every_page_redirects_to_login_without_a_session(office):
     _served, client, site, d, notice, _ = office
-    for page in [*PAGES, f"/site/{site.id}", f"/deficiency/{d.id}", f"/notice/{notice.id}.pdf"]:
+    for page in [
+        *PAGES,
+        f"/site/{site.id}",
+        f"/deficiency/{d.id}",
+        f"/notice/{notice.id}.pdf",
+        f"/beam/{d.beam_id}/sheet.pdf",
+    ]:
         r = client.get(page)
         assert r.status_code == 303, page
         assert r.headers["location"] == "/login", page
@@ -210,6 +225,40 @@ def test_deficiency_page_reruns_the_recheck_from_the_beam_record_and_the_site_ba
     rows = re.findall(r"<tr[^>]*>\s*<td>([^<]+)</td>\s*<td>[^<]*</td>\s*<td>[^<]*</td>\s*<td>([0-9.]+)", page)
     top = max(rows, key=lambda r: float(r[1]))
     assert f"Governing check</th><td>{top[0]}, utilisation {float(top[1]):.2f}" in page  # the largest one governs
+
+
+def test_deficiency_page_links_the_beams_recheck_sheet_run_again_here(office):
+    """The sheet's recheck is the page's: the same Mf (wL^2/8, handbook simple-span moment), from the same loads."""
+    import html
+    import io
+    import re
+
+    from pypdf import PdfReader
+
+    _served, client, site, d, _notice, tablet = office
+    _login(client)
+    tablet.update_site(d.site_id, {"design_basis": {"dead_kpa": 1.0, "live_kpa": 0.0, "snow_kpa": 2.0}})
+    tablet.update_beam(d.beam_id, {"tributary_m": 3.0})
+    assert sync(tablet).in_step
+    page = html.unescape(client.get(f"/deficiency/{d.id}").text)
+    assert f'href="/beam/{d.beam_id}/sheet.pdf"' in page
+    r = client.get(f"/beam/{d.beam_id}/sheet.pdf")
+    assert r.status_code == 200
+    assert r.headers["content-type"] == "application/pdf"
+    assert 'filename="recheck-R2-B4.pdf"' in r.headers["content-disposition"]
+    text = re.sub(r"\s+", " ", "\n".join(p.extract_text() for p in PdfReader(io.BytesIO(r.content)).pages))
+    assert "Recheck sheet: R2-B4" in text
+    assert site.name in text
+    assert "Rechecked on the office hub; line loads derived from the site's design basis" in text
+    # w = 1.25 x (1.0 x 3.0 + self-weight) + 1.5 x (2.0 x 3.0) kN/m (NBC 2020 Table 4.1.3.2-A case 2); 4.9 kN/m3
+    w = 1.25 * (1.0 * 3.0 + 4.9 * 0.130 * 0.456) + 1.5 * (2.0 * 3.0)
+    mf = f"Mf {w * 7.2**2 / 8:.1f} kN·m"
+    assert mf in text
+    assert mf in page
+    assert "engineer of record" in text
+    missing = client.get("/beam/no-such-beam/sheet.pdf")
+    assert missing.status_code == 404
+    assert b"%PDF" not in missing.content
 
 
 def test_deficiency_page_gives_no_governing_number_when_the_capacity_is_not_established(office):

@@ -16,7 +16,7 @@ from mobile.demo.run import load_demo, raise_all
 from mobile.issue import acknowledge, issue_notice_for_site, rows_for_items, verify_pdf
 from reports.content import Notice, item_for
 from reports.photos import prepare_photo
-from reports.render import render_notice, render_recheck_sheet
+from reports.render import render_notice
 from storage import Store
 from tests.core.beams import glulam
 
@@ -191,16 +191,6 @@ def test_hundred_items_with_photos_keep_each_item_whole():
         assert len(pages) == 1, (i, pages)  # an item (with its photo) never splits across pages
     images = sum(len(p.images) for p in reader.pages)
     assert images == 100
-
-
-def test_recheck_sheet_lists_every_factor_with_status():
-    beam = glulam()
-    r = recheck(beam)
-    pdf = render_recheck_sheet("T-1", beam.model_dump(mode="json"), r)
-    text = text_of(pdf)
-    for symbol in ("KD", "KZbg", "CB", "CK", "KL", "Mr", "Le", "memory", "7.5.6.4.4"):
-        assert symbol in text
-    save_pngs(pdf, "recheck-sheet")
 
 
 def test_issue_store_hash_and_verify(tmp_path):

@@ -1,0 +1,121 @@
+"""A beam record in words, one row per input, for the recheck sheet.
+
+Every input the recheck used is listed, including the defaults, so the sheet can be checked against
+the site. Where something was not seen or not recorded the row says so and names the unfavourable case
+the recheck took in its place (``core.findings``, ``core.clauses.bending``, ``core.recheck``).
+"""
+
+from __future__ import annotations
+
+from core.models import Beam, Bearing
+
+MATERIAL_WORDS = {"glulam": "glued-laminated timber (glulam)", "sawn": "sawn lumber"}
+SERVICE_WORDS = {"dry": "dry", "wet": "wet (KS for wet service)"}
+TREATMENT_WORDS = {"none": "none", "incised": "incised preservative treatment (KT)"}
+STAMP_WORDS = {
+    "up": "up, as marked",
+    "down": "down: installed upside down",
+    "not_visible": "not visible: the weaker of the layup's two bending strengths taken (CSA O86-19 Table 7.3 note)",
+}
+USE_WORDS = {
+    "floor": "floor",
+    "roof_plaster": "roof with a plaster or gypsum ceiling",
+    "roof_other": "roof with another ceiling",
+    "roof_no_ceiling": "roof without a ceiling",
+}
+NEGATIVE_LU_WORDS = {
+    "between_restraints": "between real bottom-edge restraints",
+    "zero_moment_point": "to the point of zero moment (an option: flagged on the recheck)",
+}
+DEAD_PATTERN_WORDS = {
+    "per_part": "0.9D on the parts that relieve, 1.25D elsewhere, and the uniform cases",
+    "uniform": "one dead-load factor on the whole beam (an option: flagged on the recheck)",
+}
+SYSTEM_WORDS = {
+    "single": "single member",
+    "shared": "load-sharing system",
+    "light_frame": "light-frame system",
+    "built_up": "built-up member",
+}
+RESTRAINT_WORDS = {"yes": "restrained", "no": "NOT restrained", "not_visible": "not visible (taken as missing)"}
+
+
+def _mm(value: float) -> str:
+    """A length in whole millimetres where it is whole ('7200 mm'), else to 0.1 mm."""
+    return f"{value:.0f} mm" if float(value).is_integer() else f"{value:.1f} mm"
+
+
+def _bearing_words(b: Bearing) -> str:
+    """'against lateral displacement: restrained; against rotation: NOT restrained; bearing length 140 mm'."""
+    lateral, rotation = (RESTRAINT_WORDS[x.value] for x in (b.lateral, b.rotation))
+    return f"against lateral displacement: {lateral}; against rotation: {rotation}; bearing length {_mm(b.length_mm)}"
+
+
+def _top_edge_words(beam: Beam) -> str:
+    e = beam.top_edge
+    if e.braced_by.value == "none":
+        return "not braced between the bearings"
+    spacing = f" at {_mm(e.spacing_mm)}" if e.spacing_mm is not None else " (spacing not recorded)"
+    if e.fastened is None:
+        fastened = "fastening not recorded: taken as not fastened"
+    else:
+        fastened = "fastened" if e.fastened else "not fastened"
+    return f"braced by {e.braced_by.value}{spacing}, {fastened}"
+
+
+def _bottom_edge_words(beam: Beam) -> str:
+    e = beam.bottom_edge
+    if e.braced_by.value == "none":
+        return "not braced between the bearings"
+    spacing = f" at {_mm(e.spacing_mm)}" if e.spacing_mm is not None else " (spacing not recorded)"
+    return f"braced by {e.braced_by.value}{spacing}"
+
+
+def input_rows(beam: Beam) -> list[tuple[str, str]]:
+    """(label, value in words) for every input of ``beam``, in the order a reviewer checks them on site."""
+    loads = beam.loads
+    rows = [
+        ("Mark", beam.mark),
+        ("Material", MATERIAL_WORDS[beam.material.value]),
+        ("Species and grade", f"{beam.species} {beam.grade}"),
+        ("Size as measured (b × d)", f"{_mm(beam.b_mm)} × {_mm(beam.d_mm)}"),
+        ("Tolerance against the specified size", _mm(beam.size_tolerance_mm)),
+        ("Spans", " + ".join(_mm(s) for s in beam.spans_mm)),
+        ("Overhangs (left, right)", f"{_mm(beam.overhang_left_mm)}, {_mm(beam.overhang_right_mm)}"),
+    ]
+    n = len(beam.bearings)
+    for j, b in enumerate(beam.bearings):
+        end = " (left end)" if j == 0 else " (right end)" if j == n - 1 else ""
+        rows.append((f"Support {j + 1}{end}", _bearing_words(b)))
+    rows += [
+        ("Top edge", _top_edge_words(beam)),
+        ("Bottom edge", _bottom_edge_words(beam)),
+        (
+            "Bridging spacing",
+            "none recorded" if beam.bridging_spacing_mm is None else _mm(beam.bridging_spacing_mm),
+        ),
+        (
+            "Line loads (specified)",
+            f"dead {loads.dead_kn_m:g}, live {loads.live_kn_m:g}, snow {loads.snow_kn_m:g} kN/m"
+            + ("; self-weight added" if beam.self_weight else "; self-weight not added"),
+        ),
+        ("Dead load where it relieves", DEAD_PATTERN_WORDS[beam.dead_load_pattern.value]),
+        (
+            "Use",
+            "not recorded: the strictest deflection limit taken" if beam.use is None else USE_WORDS[beam.use.value],
+        ),
+        ("Service condition", SERVICE_WORDS[beam.service.value]),
+        ("Treatment", TREATMENT_WORDS[beam.treatment.value]),
+        (
+            "Effective length (CSA O86-19 Table 7.4 row)",
+            "chosen from the geometry" if beam.le_case == "auto" else f"{beam.le_case}, as the reviewer chose",
+        ),
+        ("Lu where the bottom edge is in compression", NEGATIVE_LU_WORDS[beam.negative_lu.value]),
+        ("System", SYSTEM_WORDS[beam.system.value]),
+    ]
+    if beam.material.value == "glulam":
+        rows.append(("Top stamp", STAMP_WORDS[beam.top_stamp.value]))
+    if beam.specified is not None:
+        s = beam.specified
+        rows.append(("As specified", f"{s.species} {s.grade}, {_mm(s.b_mm)} × {_mm(s.d_mm)}"))
+    return rows

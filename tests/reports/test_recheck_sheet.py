@@ -1,0 +1,117 @@
+"""The recheck sheet: one beam's inputs in words, every check, every factor of every check with its clause."""
+
+import io
+import re
+
+from pypdf import PdfReader
+
+from core.recheck import recheck
+from core.results import check_lines, check_trace
+from reports.inputs import input_rows
+from reports.render import render_recheck_sheet
+from tests.core.beams import glulam, sawn
+from tests.reports.test_notice import save_pngs
+
+
+def text_of(pdf: bytes) -> str:
+    return "\n".join(p.extract_text() for p in PdfReader(io.BytesIO(pdf)).pages)
+
+
+def flat(text: str) -> str:
+    """The text with its line breaks and runs of spaces as one space (table cells wrap)."""
+    return re.sub(r"\s+", " ", text)
+
+
+def test_every_check_has_its_own_trace_on_the_sheet():
+    beam = glulam()
+    r = recheck(beam)
+    text = flat(text_of(render_recheck_sheet(beam, r, "Maple Street Hall")))
+    # the bending factors (CSA O86-19 7.5.6): KD, KZbg, CB, CK, KL, Mr; and the other checks' own factors
+    for symbol in ("KD", "KZbg", "CB", "CK", "KL", "Mr", "Le", "Ab", "KB", "ES", "L/180"):
+        assert symbol in text, symbol
+    for c in check_lines(r):  # a heading per check, each with a trace table
+        assert c.name[:1].upper() + c.name[1:] in text, c.name
+        assert check_trace(r, c.key), c.key
+    # handbook simple-span moment: Mf = w L^2 / 8, w = 1.25 (2.0 + self-weight) + 1.5 x 5.0 kN/m
+    # (NBC 2020 Table 4.1.3.2-A load case 2; glulam self-weight 4.9 kN/m3, from memory)
+    w = 1.25 * (2.0 + 4.9 * 0.130 * 0.456) + 1.5 * 5.0
+    assert f"Mf {w * 7.2**2 / 8:.1f} kN·m" in text
+    assert "Maple Street Hall" in text
+    assert "engineer of record" in text
+    for clause in ("7.5.6.4.4", "7.5.7.2", "7.5.9", "5.4.2"):  # bending, shear, bearing, deflection
+        assert f"CSA O86-19 {clause}" in text, clause
+    assert re.search(r"\b(memory|confirmed|verified)\b", text)
+
+
+def test_inputs_are_in_words_and_what_was_not_seen_says_the_case_taken():
+    """Unseen restraint taken as missing; the weaker layup face; an unrecorded fastening or use: the strict case."""
+    beam = glulam(
+        bearings=[
+            {"lateral": False, "rotation": True, "length_mm": 140},
+            {"lateral": True, "rotation": "not_visible", "length_mm": 140},
+        ],
+        top_edge={"braced_by": "purlins", "spacing_mm": 2400},
+        top_stamp="not_visible",
+        use=None,
+        spans_mm=[9000],
+    )
+    r = recheck(beam)
+    pdf = render_recheck_sheet(beam, r)
+    text = flat(text_of(pdf))
+    assert "Recheck sheet: T-1, NOT ESTABLISHED" in text
+    assert "against lateral displacement: NOT restrained" in text
+    assert "against rotation: not visible (taken as missing)" in text
+    assert "fastening not recorded: taken as not fastened" in text
+    assert "the weaker of the layup's two bending strengths taken" in text
+    assert "not recorded: the strictest deflection limit taken" in text
+    # the inputs and findings carry no raw field names or Python values (trace sources quote the recheck's lines)
+    inputs = text[text.index("Inputs as recorded") : text.index("Checks Check Demand")]
+    findings = text[text.index("Findings") :]
+    for raw in ("b_mm", "spans_mm", "True", "None", "{'", "not_visible", "before_loading", "_"):
+        assert raw not in inputs, raw
+        assert raw not in findings, raw
+    # findings with the priority in words and shape, the action and the clause (O86-19 7.5.6.3.1: d/b > 2.5)
+    assert "▲ IMMEDIATE: make safe now, support 1 (left end)" in text
+    assert "CSA O86-19 7.5.6.3.1" in text
+    assert "Action:" in text
+    save_pngs(pdf, "recheck-sheet")
+
+
+def test_every_input_field_has_a_row():
+    """A field added to the beam model without a row here would be rechecked but not shown: refused."""
+    from core.models import Beam
+
+    shown = {
+        label
+        for label, _ in input_rows(sawn(specified={"b_mm": 38, "d_mm": 286, "species": "S-P-F", "grade": "No.1/No.2"}))
+    }
+    covered = {
+        "mark": "Mark",
+        "material": "Material",
+        "species": "Species and grade",
+        "grade": "Species and grade",
+        "b_mm": "Size as measured (b × d)",
+        "d_mm": "Size as measured (b × d)",
+        "spans_mm": "Spans",
+        "bearings": "Support 1 (left end)",
+        "top_edge": "Top edge",
+        "loads": "Line loads (specified)",
+        "overhang_left_mm": "Overhangs (left, right)",
+        "overhang_right_mm": "Overhangs (left, right)",
+        "bottom_edge": "Bottom edge",
+        "le_case": "Effective length (CSA O86-19 Table 7.4 row)",
+        "service": "Service condition",
+        "treatment": "Treatment",
+        "top_stamp": "Top stamp",  # glulam only: sawn lumber has no layup
+        "self_weight": "Line loads (specified)",
+        "use": "Use",
+        "negative_lu": "Lu where the bottom edge is in compression",
+        "dead_load_pattern": "Dead load where it relieves",
+        "specified": "As specified",
+        "system": "System",
+        "bridging_spacing_mm": "Bridging spacing",
+        "size_tolerance_mm": "Tolerance against the specified size",
+    }
+    assert set(covered) == set(Beam.model_fields)
+    assert {v for k, v in covered.items() if k != "top_stamp"} <= shown
+    assert "Top stamp" in {label for label, _ in input_rows(glulam())}
