@@ -43,7 +43,7 @@ def test_the_table_lists_the_commands():
     commands = table_commands()
     assert len(commands) >= 18, commands
     assert "bracewalk" in commands
-    assert "bracewalk check BEAM.json [--text]" in commands
+    assert "bracewalk check BEAM.json [--text] [--sheet FILE.pdf]" in commands
 
 
 @pytest.mark.parametrize("command", table_commands())
