@@ -19,6 +19,7 @@ from jinja2 import Environment, FileSystemLoader, select_autoescape
 
 from office import registry
 from office.hubstore import HubStore
+from reports.render import SHORT_PRIORITY, priority_label
 
 COOKIE = "bw_session"
 TEMPLATES = Environment(
@@ -55,7 +56,12 @@ def _csrf(request: Request) -> str:
 
 def _page(request: Request, template: str, user: str | None, **context: Any) -> HTMLResponse:
     html = TEMPLATES.get_template(template).render(
-        user=user, csrf=_csrf(request) if user else "", fmt_ms=_fmt_ms, **context
+        user=user,
+        csrf=_csrf(request) if user else "",
+        fmt_ms=_fmt_ms,
+        priority_words=priority_label,  # the notice's and the app's words and shapes, never a raw code
+        short_priority=lambda p: SHORT_PRIORITY.get(p, p),
+        **context,
     )
     return HTMLResponse(html)
 

@@ -1,6 +1,7 @@
 """The office register pages: nothing without a login; sites, one item, notices with a hash check, devices."""
 
 import hashlib
+import re
 
 import httpx
 import pytest
@@ -100,9 +101,12 @@ def test_register_shows_sites_items_history_notices_and_devices(office):
     assert "overdue" in home.lower()
     page = client.get(f"/site/{site.id}").text
     assert d.number in page
-    assert "immediate" in page
+    assert "▲ IMMEDIATE" in page  # priorities in the notice's words and shapes, never a raw code
     assert "overdue" in page
+    assert "▲ IMMEDIATE" in home
+    assert "before_loading" not in re.sub(r"<style.*?</style>|<[^>]+>", "", home, flags=re.S)  # the words shown
     item = client.get(f"/deficiency/{d.id}").text
+    assert "▲ IMMEDIATE: make safe now" in item
     assert "blocking installed" in item
     assert "corrected" in item
     assert "R2-B4" in item
@@ -268,6 +272,7 @@ def test_deficiency_page_gives_no_governing_number_when_the_capacity_is_not_esta
     member whose capacity is unknown; the unrated bending region governs, with no number.
     """
     import html
+    import re
 
     from mobile.hub_client import sync
 
@@ -280,6 +285,9 @@ def test_deficiency_page_gives_no_governing_number_when_the_capacity_is_not_esta
     assert "not established" in page
     assert "Governing check</th><td>bending" in page
     assert "capacity not established or not permitted (taken as failing)" in page
+    findings = re.sub(r"<[^>]+>", "", page[page.index("Findings of this recheck") :])
+    assert "▲ IMMEDIATE: make safe now, support 1 (left end):" in findings  # words, not codes
+    assert "bearing_restraint_missing" not in findings
 
 
 def test_deficiency_page_says_when_the_beam_record_cannot_be_rechecked(office):
