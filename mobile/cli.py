@@ -137,7 +137,7 @@ def cmd_check(args: argparse.Namespace) -> int:
 
     beam = load_beam(args.beam)
     if args.sheet:
-        write_sheet(beam, Path(args.sheet))
+        write_sheet(beam, Path(args.sheet), args.beam)
     if args.text:
         print(recheck_text(recheck(beam)))
         return EXIT_OK
@@ -150,12 +150,26 @@ def cmd_check(args: argparse.Namespace) -> int:
     return EXIT_OK
 
 
-def write_sheet(beam: Beam, out: Path) -> None:
-    """Write the beam's recheck sheet PDF to ``out`` and say so on standard error (stdout stays the result)."""
+def write_sheet(beam: Beam, out: Path, source: str) -> None:
+    """Write the beam's recheck sheet PDF to ``out`` and say so on standard error (stdout stays the result).
+
+    The sheet says when and with which version it was made, and from which file (with the SHA-256 of the
+    beam as read, so a sheet can be matched to its input).
+    """
+    import datetime
+    import hashlib
+    from importlib.metadata import version
+
     from core.recheck import recheck
     from reports.render import render_recheck_sheet
 
-    pdf = render_recheck_sheet(beam, recheck(beam))
+    digest = hashlib.sha256(beam.model_dump_json().encode()).hexdigest()[:16]
+    name = "standard input" if source == "-" else Path(source).name
+    prepared = (
+        f"Rechecked {datetime.date.today().isoformat()} with bracewalk {version('bracewalk')} "
+        f"from {name} (beam SHA-256 {digest}…)."
+    )
+    pdf = render_recheck_sheet(beam, recheck(beam), note="Line loads as given in the beam file.", prepared=prepared)
     try:
         out.write_bytes(pdf)
     except OSError as exc:

@@ -323,6 +323,9 @@ def _checks(result: Any) -> list[dict[str, Any]]:
 
 def recheck_sheet(hub: HubStore, beam_id: str) -> tuple[str, bytes] | str:
     """(file name, PDF) of a beam's recheck sheet, run again here as ``recheck_now`` runs it; or why not, in words."""
+    import datetime
+    from importlib.metadata import version
+
     from pydantic import ValidationError
 
     from core.models import Beam
@@ -344,8 +347,9 @@ def recheck_sheet(hub: HubStore, beam_id: str) -> tuple[str, bytes] | str:
         return f"the beam record is incomplete or refused ({fields}): not rechecked"
     except ValueError as exc:
         return f"not rechecked: {exc}"
+    prepared = f"Rechecked {datetime.date.today().isoformat()} on the office hub with bracewalk {version('bracewalk')}."
     pdf = render_recheck_sheet(
-        model, result, site_data.get("name", ""), note=f"Rechecked on the office hub; {loads_from}."
+        model, result, site_data.get("name", ""), note=f"{loads_from[:1].upper()}{loads_from[1:]}.", prepared=prepared
     )
     safe = "".join(ch if ch.isalnum() or ch in "-_" else "-" for ch in model.mark)
     return f"recheck-{safe}.pdf", pdf

@@ -362,6 +362,11 @@ def _supports_named(location: str, names: list[str]) -> str:
     )
 
 
+def member_sketch(beam: Beam, result: Recheck) -> Sketch:
+    """The beam's sketch as the notice draws it (supports, bracing, hogging zones), titled by its mark."""
+    return replace(_sketch_with_regions(beam, result), title=beam.mark)
+
+
 def _sketch_with_regions(beam: Beam, result: Recheck | None) -> Sketch:
     sk = sketch_for(beam)
     if result is None:

@@ -78,8 +78,8 @@ def input_rows(beam: Beam) -> list[tuple[str, str]]:
         ("Mark", beam.mark),
         ("Material", MATERIAL_WORDS[beam.material.value]),
         ("Species and grade", f"{beam.species} {beam.grade}"),
-        ("Size as measured (b × d)", f"{_mm(beam.b_mm)} × {_mm(beam.d_mm)}"),
-        ("Tolerance against the specified size", _mm(beam.size_tolerance_mm)),
+        ("Size as measured (b × d)", f"{_mm(beam.b_mm)} × {_mm(beam.d_mm)}: the size the recheck uses"),
+        ("As specified", _specified_words(beam)),
         ("Spans", " + ".join(_mm(s) for s in beam.spans_mm)),
         ("Overhangs (left, right)", f"{_mm(beam.overhang_left_mm)}, {_mm(beam.overhang_right_mm)}"),
     ]
@@ -115,7 +115,15 @@ def input_rows(beam: Beam) -> list[tuple[str, str]]:
     ]
     if beam.material.value == "glulam":
         rows.append(("Top stamp", STAMP_WORDS[beam.top_stamp.value]))
-    if beam.specified is not None:
-        s = beam.specified
-        rows.append(("As specified", f"{s.species} {s.grade}, {_mm(s.b_mm)} × {_mm(s.d_mm)}"))
     return rows
+
+
+def _specified_words(beam: Beam) -> str:
+    """The specified member, compared with the measured one within the size tolerance; or 'not recorded'."""
+    s = beam.specified
+    if s is None:
+        return "not recorded: no comparison with the drawings"
+    return (
+        f"{s.species} {s.grade}, {_mm(s.b_mm)} × {_mm(s.d_mm)}; "
+        f"compared with the measured size within {_mm(beam.size_tolerance_mm)}"
+    )

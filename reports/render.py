@@ -30,7 +30,7 @@ from reportlab.platypus import (
 from core.models import Beam
 from core.results import Recheck, check_lines, check_trace
 from reports import stamp
-from reports.content import Item, Notice, Photo, by_member, due_words, one_line, ordered
+from reports.content import Item, Notice, Photo, by_member, due_words, member_sketch, one_line, ordered
 from reports.inputs import input_rows
 from reports.photos import CELL_W_MM, photo_flowable, wide_box
 from reports.sketch import FONT, beam_sketch
@@ -779,16 +779,19 @@ def render_notice(n: Notice, stamp_hash: bool = False) -> bytes:
     return stamp.stamp(pdf) if stamp_hash else pdf
 
 
-def render_recheck_sheet(beam: Beam, result: Recheck, site_name: str = "", note: str = "") -> bytes:
-    """A one-beam calculation sheet: inputs in words, every check, every factor with its clause, findings.
+def render_recheck_sheet(beam: Beam, result: Recheck, site_name: str = "", note: str = "", prepared: str = "") -> bytes:
+    """A one-beam calculation sheet: inputs in words, a sketch, every check, every factor with its clause.
 
     Each factor carries its table row and status (verified, confirmed, memory, formula). The checks are
     the same ``check_lines`` the app, ``check --text`` and the notice print; the traces are each check's
-    own (``check_trace``), so every number on the sheet can be followed to a clause.
+    own (``check_trace``), so every number on the sheet can be followed to a clause. ``note`` says where
+    the loads came from; ``prepared`` when, with what and from what the sheet was made (the bytes depend
+    only on the arguments).
     """
     st = _styles()
     buf = io.BytesIO()
     mark = beam.mark
+    width = 186 * mm  # Letter less 15 mm margins
     doc = SimpleDocTemplate(
         buf,
         pagesize=LETTER,
@@ -802,25 +805,27 @@ def render_recheck_sheet(beam: Beam, result: Recheck, site_name: str = "", note:
     status = result.status.value.upper().replace("_", " ")
     story: list[Any] = [
         Paragraph(f"Recheck sheet: {esc(mark)}, {esc(status)}", st["title"]),
-        Paragraph(esc(site_name or "Beam rechecked from its record alone (no site)"), st["base"]),
+        Paragraph(esc(site_name or "Rechecked from a beam file, not from a stored site"), st["base"]),
     ]
-    if note:
-        story.append(Paragraph(esc(note), st["small"]))
+    story += [Paragraph(esc(x), st["small"]) for x in (prepared, note) if x]
     story.append(Paragraph("Inputs as recorded", st["h2"]))
     rows = [[Paragraph(esc(k), st["bold"]), Paragraph(esc(v), st["small"])] for k, v in input_rows(beam)]
     story.append(_grid(rows, [52 * mm, 134 * mm]))
+    story.append(
+        KeepTogether([Spacer(1, 4), beam_sketch(member_sketch(beam, result), width_pt=width, height_pt=44 * mm)])
+    )
     lines = check_lines(result)  # the same check lines as the app, the text output and the notice
     story.append(Paragraph("Checks", st["h2"]))
     rows = [[Paragraph(h, st["bold"]) for h in ("Check", "Demand", "Capacity", "Utilisation", "Clause")]]
     for c in lines:
         util = "not established" if c.utilisation is None else f"{c.utilisation:.3f}"
         rows.append([Paragraph(esc(x), st["small"]) for x in (c.name, c.demand, c.capacity, util, c.clause)])
-    story.append(_grid(rows, [46 * mm, 30 * mm, 44 * mm, 22 * mm, 44 * mm], shade_first_col=False))
-    outcomes = {f"bending{i}": r.outcome for i, r in enumerate(result.bending)}
+    story.append(_grid(rows, [42 * mm, 26 * mm, 52 * mm, 26 * mm, 40 * mm], shade_first_col=False))
+    outcomes = {f"bending{i}": r.outcome.replace("_", " ") for i, r in enumerate(result.bending)}
     for c in lines:
         head = f"{c.name}: {outcomes[c.key]}" if c.key in outcomes else c.name
         section: list[Any] = [Paragraph(esc(head[:1].upper() + head[1:]), st["h2"])]
-        basis = [c.factors] if c.factors else []
+        basis = [f"rests on {c.factors}"] if c.factors else []
         if c.combination:
             basis.append(f"governing: {c.combination}")
         if c.key in outcomes:
@@ -838,15 +843,15 @@ def render_recheck_sheet(beam: Beam, result: Recheck, site_name: str = "", note:
             ]
             for t in check_trace(result, c.key)
         ]
-        section.append(_grid(trows, [22 * mm, 24 * mm, 36 * mm, 84 * mm, 20 * mm], shade_first_col=False))
+        section.append(_grid(trows, [32 * mm, 24 * mm, 34 * mm, 76 * mm, 20 * mm], shade_first_col=False))
         story.append(KeepTogether(section))  # a check's heading never sits alone at a page foot
     story.append(Paragraph("Findings", st["h2"]))
     for f in result.findings or []:
         where = f", {f.region}" if f.region else ""
         story.append(
             Paragraph(
-                f"<b>{esc(priority_label(f.priority.value))}</b>{esc(where)}: {esc(f.message)} "
-                f"<b>Action:</b> {esc(f.action)} ({esc(f.clause)})",
+                f"<b>{esc(SHORT_PRIORITY.get(f.priority.value, f.priority.value))}</b>{esc(where)}: "
+                f"{esc(f.message)} <b>Action:</b> {esc(f.action)} ({esc(f.clause)})",
                 st["base"],
             )
         )
@@ -854,13 +859,21 @@ def render_recheck_sheet(beam: Beam, result: Recheck, site_name: str = "", note:
     if not result.findings:
         story.append(Paragraph("None.", st["base"]))
     story.append(Spacer(1, 6))
-    story.append(Paragraph(esc(result.caution), st["small"]))
+    checked = [[Paragraph(h, st["bold"]) for h in ("Checked by", "Date", "Signature")], ["", "", ""]]
+    story.append(KeepTogether([Paragraph(esc(result.caution), st["small"]), Spacer(1, 4), _sign_off(checked)]))
 
     class _Canvas(NumberedCanvas):
         footer_left = f"recheck sheet {mark}"
 
     doc.build(story, canvasmaker=_Canvas)
     return buf.getvalue()
+
+
+def _sign_off(rows: list[list[Any]]) -> Table:
+    """Blank boxes for the reviewer who checks the sheet (common practice on a calculation record)."""
+    t = Table(rows, colWidths=[80 * mm, 40 * mm, 66 * mm], rowHeights=[None, 14 * mm])
+    t.setStyle(TableStyle([("GRID", (0, 0), (-1, -1), 0.5, colors.grey), ("VALIGN", (0, 0), (-1, -1), "TOP")]))
+    return t
 
 
 def _trace_value(value: float | str | None) -> str:

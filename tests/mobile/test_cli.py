@@ -64,6 +64,10 @@ def test_check_writes_the_recheck_sheet_and_keeps_its_json(tmp_path):
     assert f"recheck sheet: {out}" in proc.stderr
     text = "\n".join(p.extract_text() for p in PdfReader(out).pages)
     assert "Recheck sheet: R2-B4, OK" in text
+    assert "from beam_r2_b4.json (beam SHA-256" in text  # what it was made from, and with which version
+    assert "with bracewalk " in text
+    assert "Line loads as given in the beam file." in text
+    assert "Checked by" in text
     assert "engineer of record" in text
     proc = run("check", str(EXAMPLE), "--sheet", str(tmp_path / "no-such-folder" / "x.pdf"))
     assert proc.returncode == 2

@@ -71,7 +71,7 @@ def test_inputs_are_in_words_and_what_was_not_seen_says_the_case_taken():
         assert raw not in inputs, raw
         assert raw not in findings, raw
     # findings with the priority in words and shape, the action and the clause (O86-19 7.5.6.3.1: d/b > 2.5)
-    assert "▲ IMMEDIATE: make safe now, support 1 (left end)" in text
+    assert "▲ IMMEDIATE, support 1 (left end): T-1 at support 1" in text
     assert "CSA O86-19 7.5.6.3.1" in text
     assert "Action:" in text
     save_pngs(pdf, "recheck-sheet")
@@ -107,10 +107,10 @@ def test_every_input_field_has_a_row():
         "use": "Use",
         "negative_lu": "Lu where the bottom edge is in compression",
         "dead_load_pattern": "Dead load where it relieves",
-        "specified": "As specified",
+        "specified": "As specified",  # with the tolerance it is compared within
         "system": "System",
         "bridging_spacing_mm": "Bridging spacing",
-        "size_tolerance_mm": "Tolerance against the specified size",
+        "size_tolerance_mm": "As specified",
     }
     assert set(covered) == set(Beam.model_fields)
     assert {v for k, v in covered.items() if k != "top_stamp"} <= shown
