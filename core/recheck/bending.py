@@ -210,7 +210,13 @@ def _upper_bound(
     """
     restrained_edge = compression_edge(beam, model, region, assume_restrained=True)
     scratch: dict[str, Any] = dict(out)
-    kl = _stability_kl(beam, member, restrained_edge, fb, scratch, None)
+    # its Lu, Le, CB, CK and KL lines (and the table rows they rest on) are traced too, marked "(if restrained)",
+    # so the bound printed on the notice can be followed to its clauses and its rows are acknowledged
+    sub = None if trace is None else Lines(trace.rows)
+    kl = _stability_kl(beam, member, restrained_edge, fb, scratch, sub)
+    if trace is not None and sub is not None and trace.rows is None:
+        for t in sub.lines:
+            trace.add(f"{t.symbol} (if restrained)", t.value, t.clause, t.source, t.status.value, t.unit)
     if isinstance(kl, NotPermitted):
         note(trace, "Mr (if restrained)", None, kl.clause, f"not permitted even if restrained: {kl}", "formula")
         return

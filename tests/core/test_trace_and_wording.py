@@ -130,9 +130,10 @@ def test_trace_symbols_units_and_statuses(case):
         assert t.status in set(TraceStatus), t
         if t.symbol in ("Lu", "Le") and isinstance(t.value, int | float):
             assert t.unit == "mm", t  # lengths
-        if t.value is None:  # only the upper bound of a member not permitted even if restrained has no value
-            assert t.symbol == "Mr (if restrained)", t
-            assert "not permitted even if restrained" in t.source
+        if t.value is None:  # only the upper bound of a member not permitted even if restrained has no value:
+            # its Mr, and the KL line that says why (CB over 50, CSA O86-19 7.5.6.4.4)
+            assert t.symbol in ("Mr (if restrained)", "KL (if restrained)"), t
+            assert "not permitted" in t.source
         elif isinstance(t.value, float):
             assert math.isfinite(t.value), t
 
@@ -329,6 +330,36 @@ def test_restrained_upper_bound_is_named_as_an_upper_bound():
     assert upper[0].status is TraceStatus.formula
     assert upper[0].source.endswith("the real capacity is lower")
     assert r.bending[0].mr_if_restrained_knm == pytest.approx(upper[0].value, abs=0.05)
+
+
+def test_restrained_upper_bound_traces_its_stability_factors_and_they_follow_o86():
+    """The bound's Le, CB, CK and KL are traced ("(if restrained)") and satisfy the clauses they name.
+
+    CSA O86-19 7.5.6.4.3: CB = sqrt(Le d / b^2); 7.5.6.4.4 regime (b), 10 < CB <= CK:
+    KL = 1 - (1/3) (CB / CK)^4; 7.5.6.5.1: Mr = phi Fb S KX KL with phi = 0.9, KX = 1, S = b d^2 / 6
+    (the published formulas). Before, the bound printed on the notice ("at most 70.1 kN·m if restrained")
+    gave only its KL and Lu, and the effective-length table row it rests on was in no trace, so it was
+    never among the rows a reviewer acknowledges.
+    """
+    from core.recheck import recheck_with_rows
+
+    beam = glulam(
+        spans_mm=[9000], bearings=[dict(R, lateral=False), R], top_edge={"braced_by": "none"}, top_stamp="not_visible"
+    )
+    r = recheck(beam)
+    region = r.bending[0]
+    assert region.outcome == "not_established"
+    t = {x.symbol: x for x in region.trace}
+    le, cb, ck, kl = (t[f"{s} (if restrained)"].value for s in ("Le", "CB", "CK", "KL"))
+    assert "Table 7.4" in t["Le (if restrained)"].clause
+    assert cb == pytest.approx(math.sqrt(le * beam.d_mm / beam.b_mm**2), rel=1e-4)
+    assert 10 < cb <= ck
+    assert kl == pytest.approx(1 - (cb / ck) ** 4 / 3, abs=1e-4)
+    fb = t["Fb"].value
+    s_mm3 = beam.b_mm * beam.d_mm**2 / 6
+    assert region.mr_if_restrained_knm == pytest.approx(0.9 * fb * s_mm3 * kl / 1e6, rel=1e-3)
+    le_row = (t["Le (if restrained)"].clause, t["Le (if restrained)"].source, t["Le (if restrained)"].status)
+    assert le_row in recheck_with_rows(beam).rows_used  # the rows used by the bound are acknowledged with the rest
 
 
 def test_option_finding_uses_nbc_load_factor_notation():
