@@ -10,7 +10,7 @@ import json
 import secrets
 import time
 from dataclasses import dataclass
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import segno
 from argon2 import PasswordHasher
@@ -18,6 +18,10 @@ from argon2.exceptions import InvalidHashError, VerificationError
 
 from core.results import PRIORITY_ORDER
 from office.hubstore import HubStore
+
+if TYPE_CHECKING:
+    from core.models import Beam
+    from core.results import Recheck
 
 SESSION_MS = 12 * 3600 * 1000
 QR_ERROR = "m"  # QR error correction level M (about 15 % of the symbol recoverable)
@@ -326,10 +330,6 @@ def recheck_sheet(hub: HubStore, beam_id: str) -> tuple[str, bytes] | str:
     import datetime
     from importlib.metadata import version
 
-    from pydantic import ValidationError
-
-    from core.models import Beam
-    from core.recheck import recheck
     from reports.render import render_recheck_sheet
 
     rows = _rows(hub, "beam", "WHERE id=?", [beam_id])
@@ -338,15 +338,10 @@ def recheck_sheet(hub: HubStore, beam_id: str) -> tuple[str, bytes] | str:
     beam = rows[0][1]
     site_rows = _rows(hub, "site", "WHERE id=?", [beam.get("site_id", "")])
     site_data = site_rows[0][1] if site_rows else {}
-    data, loads_from = recheck_input(beam, site_data)
-    try:
-        model = Beam.model_validate(data)
-        result = recheck(model)
-    except ValidationError as exc:
-        fields = ", ".join(".".join(map(str, e["loc"])) for e in exc.errors()[:6])
-        return f"the beam record is incomplete or refused ({fields}): not rechecked"
-    except ValueError as exc:
-        return f"not rechecked: {exc}"
+    done = _rechecked(beam, site_data)
+    if isinstance(done, str):
+        return done
+    model, result, loads_from = done
     prepared = f"Rechecked {datetime.date.today().isoformat()} on the office hub with bracewalk {version('bracewalk')}."
     pdf = render_recheck_sheet(
         model, result, site_data.get("name", ""), note=f"{loads_from[:1].upper()}{loads_from[1:]}.", prepared=prepared
@@ -355,27 +350,36 @@ def recheck_sheet(hub: HubStore, beam_id: str) -> tuple[str, bytes] | str:
     return f"recheck-{safe}.pdf", pdf
 
 
+def _rechecked(beam: dict[str, Any], site_data: dict[str, Any]) -> tuple[Beam, Recheck, str] | str:
+    """(input, recheck, where its loads came from) of a beam record with its site's basis; or why not, in words."""
+    from pydantic import ValidationError
+
+    from core.models import Beam
+    from core.recheck import recheck
+
+    data, loads_from = recheck_input(beam, site_data)
+    try:
+        model = Beam.model_validate(data)
+        return model, recheck(model), loads_from
+    except ValidationError as exc:
+        fields = ", ".join(".".join(map(str, e["loc"])) for e in exc.errors()[:6])
+        return f"the beam record is incomplete or refused ({fields}): not rechecked"
+    except ValueError as exc:
+        return f"not rechecked: {exc}"
+
+
 def recheck_now(beam: dict[str, Any], site_data: dict[str, Any]) -> dict[str, Any]:
     """The beam's recheck run again on the hub with ``core``.
 
     Status, governing check, utilisation, every check with its trace lines, the findings; or ``error`` in
     words when the record cannot be rechecked.
     """
-    from pydantic import ValidationError
-
-    from core.models import Beam
-    from core.recheck import recheck
     from core.results import governing_check
 
-    data, loads_from = recheck_input(beam, site_data)
-    try:
-        result = recheck(Beam.model_validate(data))
-    except ValidationError as exc:
-        fields = ", ".join(".".join(map(str, e["loc"])) for e in exc.errors()[:6])
-        text = f"the beam record is incomplete or refused ({fields}): not rechecked"
-        return {"error": text, "loads_from": loads_from}
-    except ValueError as exc:
-        return {"error": f"not rechecked: {exc}", "loads_from": loads_from}
+    done = _rechecked(beam, site_data)
+    if isinstance(done, str):
+        return {"error": done, "loads_from": recheck_input(beam, site_data)[1]}
+    _model, result, loads_from = done
     checks = _checks(result)
     index, _ = governing_check(result.bending, result.shear, result.bearing, result.deflection)
     return {
