@@ -51,24 +51,22 @@ def _bearing_words(b: Bearing) -> str:
     return f"against lateral displacement: {lateral}; against rotation: {rotation}; bearing length {_mm(b.length_mm)}"
 
 
+def _braced_words(braced_by: str, spacing_mm: float | None) -> str:
+    """'braced by purlins at 2400 mm', 'braced by braces (spacing not recorded)', or 'not braced ...'."""
+    if braced_by == "none":
+        return "not braced between the bearings"
+    spacing = f" at {_mm(spacing_mm)}" if spacing_mm is not None else " (spacing not recorded)"
+    return f"braced by {braced_by}{spacing}"
+
+
 def _top_edge_words(beam: Beam) -> str:
     e = beam.top_edge
+    words = _braced_words(e.braced_by.value, e.spacing_mm)
     if e.braced_by.value == "none":
-        return "not braced between the bearings"
-    spacing = f" at {_mm(e.spacing_mm)}" if e.spacing_mm is not None else " (spacing not recorded)"
+        return words
     if e.fastened is None:
-        fastened = "fastening not recorded: taken as not fastened"
-    else:
-        fastened = "fastened" if e.fastened else "not fastened"
-    return f"braced by {e.braced_by.value}{spacing}, {fastened}"
-
-
-def _bottom_edge_words(beam: Beam) -> str:
-    e = beam.bottom_edge
-    if e.braced_by.value == "none":
-        return "not braced between the bearings"
-    spacing = f" at {_mm(e.spacing_mm)}" if e.spacing_mm is not None else " (spacing not recorded)"
-    return f"braced by {e.braced_by.value}{spacing}"
+        return f"{words}, fastening not recorded: taken as not fastened"
+    return f"{words}, {'fastened' if e.fastened else 'not fastened'}"
 
 
 def input_rows(beam: Beam) -> list[tuple[str, str]]:
@@ -89,7 +87,7 @@ def input_rows(beam: Beam) -> list[tuple[str, str]]:
         rows.append((f"Support {j + 1}{end}", _bearing_words(b)))
     rows += [
         ("Top edge", _top_edge_words(beam)),
-        ("Bottom edge", _bottom_edge_words(beam)),
+        ("Bottom edge", _braced_words(beam.bottom_edge.braced_by.value, beam.bottom_edge.spacing_mm)),
         (
             "Bridging spacing",
             "none recorded" if beam.bridging_spacing_mm is None else _mm(beam.bridging_spacing_mm),
