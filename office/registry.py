@@ -308,10 +308,9 @@ def _trace_lines(trace: Any) -> list[str]:
 
 def _checks(result: Any) -> list[dict[str, Any]]:
     """Every check of a recheck: name, demand, capacity, utilisation, clause and its trace lines."""
+    from core.results import check_trace
     from reports.content import checks_for
 
-    traces = [r.trace for r in result.bending] + [result.shear.trace]
-    traces += [b.trace for b in result.bearing] + [result.deflection.trace]
     return [
         {
             "name": c.name,
@@ -319,9 +318,9 @@ def _checks(result: Any) -> list[dict[str, Any]]:
             "capacity": c.capacity,
             "utilisation": c.utilisation,
             "clause": c.clause,
-            "trace": _trace_lines(trace),
+            "trace": _trace_lines(check_trace(result, c.key)),
         }
-        for c, trace in zip(checks_for(result), traces, strict=True)
+        for c in checks_for(result)
     ]
 
 

@@ -821,15 +821,16 @@ def render_recheck_sheet(beam: Beam, result: Recheck, site_name: str = "", note:
         util = "not established" if c.utilisation is None else f"{c.utilisation:.3f}"
         rows.append([Paragraph(esc(x), st["small"]) for x in (c.name, c.demand, c.capacity, util, c.clause)])
     story.append(_grid(rows, [42 * mm, 26 * mm, 52 * mm, 26 * mm, 40 * mm], shade_first_col=False))
-    outcomes = {f"bending{i}": r.outcome.replace("_", " ") for i, r in enumerate(result.bending)}
+    regions = {f"bending{i}": r for i, r in enumerate(result.bending)}  # by CheckLine.key
     for c in lines:
-        head = f"{c.name}: {outcomes[c.key]}" if c.key in outcomes else c.name
+        region = regions.get(c.key)
+        head = c.name if region is None else f"{c.name}: {region.outcome.replace('_', ' ')}"
         section: list[Any] = [Paragraph(esc(head[:1].upper() + head[1:]), st["h2"])]
         basis = [f"rests on {c.factors}"] if c.factors else []
         if c.combination:
             basis.append(f"governing: {c.combination}")
-        if c.key in outcomes:
-            basis.append(f"compression edge: {result.bending[int(c.key[len('bending') :])].compression_edge}")
+        if region is not None:
+            basis.append(f"compression edge: {region.compression_edge}")
         if basis:
             section.append(Paragraph(esc("; ".join(basis)), st["base"]))
         head_row = [Paragraph(h, st["bold"]) for h in ("Factor", "Value", "Clause", "Source / table row", "Status")]
@@ -859,8 +860,7 @@ def render_recheck_sheet(beam: Beam, result: Recheck, site_name: str = "", note:
     if not result.findings:
         story.append(Paragraph("None.", st["base"]))
     story.append(Spacer(1, 6))
-    checked = [[Paragraph(h, st["bold"]) for h in ("Checked by", "Date", "Signature")], ["", "", ""]]
-    story.append(KeepTogether([Paragraph(esc(result.caution), st["small"]), Spacer(1, 4), _sign_off(checked)]))
+    story.append(KeepTogether([Paragraph(esc(result.caution), st["small"]), Spacer(1, 4), _sign_off(st)]))
 
     class _Canvas(NumberedCanvas):
         footer_left = f"recheck sheet {mark}"
@@ -869,8 +869,9 @@ def render_recheck_sheet(beam: Beam, result: Recheck, site_name: str = "", note:
     return buf.getvalue()
 
 
-def _sign_off(rows: list[list[Any]]) -> Table:
+def _sign_off(st: dict[str, Any]) -> Table:
     """Blank boxes for the reviewer who checks the sheet (common practice on a calculation record)."""
+    rows = [[Paragraph(h, st["bold"]) for h in ("Checked by", "Date", "Signature")], ["", "", ""]]
     t = Table(rows, colWidths=[80 * mm, 40 * mm, 66 * mm], rowHeights=[None, 14 * mm])
     t.setStyle(TableStyle([("GRID", (0, 0), (-1, -1), 0.5, colors.grey), ("VALIGN", (0, 0), (-1, -1), "TOP")]))
     return t
