@@ -27,11 +27,13 @@ from reportlab.platypus import (
     TableStyle,
 )
 
+from core.casetable import case_table
 from core.models import Beam
 from core.results import Recheck, check_lines, check_trace
 from reports import stamp
 from reports.content import Item, Notice, Photo, by_member, due_words, member_sketch, one_line, ordered
 from reports.inputs import input_rows
+from reports.loadcases import case_section, reaction_section
 from reports.photos import CELL_W_MM, photo_flowable, wide_box
 from reports.sketch import FONT, beam_sketch
 from reports.tablerows import memory_rows
@@ -814,6 +816,7 @@ def render_recheck_sheet(beam: Beam, result: Recheck, site_name: str = "", note:
     story.append(
         KeepTogether([Spacer(1, 4), beam_sketch(member_sketch(beam, result), width_pt=width, height_pt=44 * mm)])
     )
+    story += _load_cases(beam, result, st)
     lines = check_lines(result)  # the same check lines as the app, the text output and the notice
     story.append(Paragraph("Checks", st["h2"]))
     rows = [[Paragraph(h, st["bold"]) for h in ("Check", "Demand", "Capacity", "Utilisation", "Clause")]]
@@ -867,6 +870,24 @@ def render_recheck_sheet(beam: Beam, result: Recheck, site_name: str = "", note:
 
     doc.build(story, canvasmaker=_Canvas)
     return buf.getvalue()
+
+
+def _load_cases(beam: Beam, result: Recheck, st: dict[str, ParagraphStyle]) -> list[Any]:
+    """The sheet's load cases tried and support reactions (``reports.loadcases``), as two tables."""
+    table = case_table(beam)
+    out: list[Any] = []
+    for n, ((sentence, rows), widths) in enumerate(
+        (
+            (case_section(table, result), [8, 38, 9, 26, 14, 14, 11, 24, 42]),
+            (reaction_section(table), [18, 18, 18, 18, 18, 48, 48]),
+        )
+    ):
+        cells = [[Paragraph(esc(x), st["bold" if i == 0 else "small"]) for x in row] for i, row in enumerate(rows)]
+        head = [Paragraph("Load cases and reactions", st["h2"])] if n == 0 else []
+        grid = _grid(cells, [w * mm for w in widths], shade_first_col=False, repeat=1)
+        # the heading and sentence stay with the table's first rows (a long table still splits, its header repeated)
+        out += [KeepTogether([*head, Paragraph(esc(sentence), st["small"]), Spacer(1, 2), grid]), Spacer(1, 4)]
+    return out
 
 
 def _sign_off(st: dict[str, Any]) -> Table:

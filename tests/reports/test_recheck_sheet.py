@@ -11,6 +11,7 @@ from reports.inputs import input_rows
 from reports.render import render_recheck_sheet
 from tests.core.beams import glulam, sawn
 from tests.reports.test_notice import save_pngs
+from tests.validation.test_pycba_analysis import _pycba
 
 
 def text_of(pdf: bytes) -> str:
@@ -65,7 +66,7 @@ def test_inputs_are_in_words_and_what_was_not_seen_says_the_case_taken():
     assert "the weaker of the layup's two bending strengths taken" in text
     assert "not recorded: the strictest deflection limit taken" in text
     # the inputs and findings carry no raw field names or Python values (trace sources quote the recheck's lines)
-    inputs = text[text.index("Inputs as recorded") : text.index("Checks Check Demand")]
+    inputs = text[text.index("Inputs as recorded") : text.index("Load cases and reactions")]
     findings = text[text.index("Findings") :]
     for raw in ("b_mm", "spans_mm", "True", "None", "{'", "not_visible", "before_loading", "_"):
         assert raw not in inputs, raw
@@ -75,6 +76,50 @@ def test_inputs_are_in_words_and_what_was_not_seen_says_the_case_taken():
     assert "CSA O86-19 7.5.6.3.1" in text
     assert "Action:" in text
     save_pngs(pdf, "recheck-sheet")
+
+
+def test_the_sheet_lists_the_load_cases_tried_and_the_reactions():
+    """A reviewer checking by hand sees every case the recheck chose among and what each support carries.
+
+    Simple span: R = wL/2 for each case (any beam handbook); the governing case of every check is marked.
+    """
+    beam = glulam(loads={"dead_kn_m": 2.0, "live_kn_m": 1.5, "snow_kn_m": 5.0})
+    r = recheck(beam)
+    pdf = render_recheck_sheet(beam, r)
+    text = flat(text_of(pdf))
+    section = text[text.index("Load cases and reactions") : text.index("Checks Check Demand")]
+    assert "all are listed" in section
+    dead = 2.0 + 4.9 * 0.130 * 0.456  # glulam self-weight 4.9 kN/m3 (from memory)
+    # specified reactions by load type, D L S, at support 1: wL/2 each
+    assert f"1 0.00 m {dead * 3.6:.2f} {1.5 * 3.6:.2f} {5.0 * 3.6:.2f}" in section
+    # 1.4D (NBC 2020 Table 4.1.3.2.-A case 1): R = 1.4 D L / 2, on both supports
+    assert f"{1.4 * dead * 3.6:.1f} / {1.4 * dead * 3.6:.1f}" in section
+    for check in ("governs bending, span 1 (positive moment)", "governs shear", "governs bearing, support 1"):
+        assert check in section, check
+    bearing_qf = r.bearing[0].qf_kn
+    assert f"{bearing_qf:.2f} (case" in section  # the largest factored reaction is the bearing check's Qf
+
+    continuous = glulam(
+        spans_mm=[5200, 7400, 4600],
+        overhang_right_mm=1800,
+        bearings=[{"lateral": True, "rotation": True, "length_mm": 140}] * 4,
+        loads={"dead_kn_m": 1.2, "live_kn_m": 2.4, "snow_kn_m": 3.1},
+    )
+    pdf = render_recheck_sheet(continuous, recheck(continuous))
+    text = flat(text_of(pdf))
+    found = re.search(r"(\d+) load cases tried: .*?; the (\d+) listed give an extreme", text)
+    assert found
+    assert int(found.group(2)) < int(found.group(1))
+    # uplift at the left end: span 2 alone carrying 1.25D + 1.5S + 0.5L, 0.9D elsewhere (NBC 2020 Table
+    # 4.1.3.2.-A case 3, 0.9D where dead load relieves), solved by pycba 1.0.2; the sheet's least reaction
+    # over every case is at most that
+    dead = 1.2 + 4.9 * 0.130 * 0.456
+    high, low = 1.25 * dead + 1.5 * 3.1 + 0.5 * 2.4, 0.9 * dead
+    lifted = float(_pycba([5.2, 7.4, 4.6], 0.0, 1.8, [low, high, low, low]).R[0])
+    least = float(re.search(r"Factored, least 1 0\.00 m \S+ \S+ \S+ \S+ \(case \d+\) (-?[\d.]+) \(case", text).group(1))
+    assert lifted < 0
+    assert least <= round(lifted, 2) + 0.005
+    save_pngs(pdf, "recheck-sheet-continuous")
 
 
 def test_every_input_field_has_a_row():

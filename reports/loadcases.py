@@ -1,0 +1,102 @@
+"""The recheck sheet's load cases and support reactions, as rows of text (content first, rendered by ``render``)."""
+
+from __future__ import annotations
+
+from core.casetable import CaseRow, CaseTable
+from core.results import Recheck, check_lines
+
+LIST_ALL_UP_TO = 30  # more cases than this (continuous beams: every pattern of parts): list those that matter
+
+CASE_HEAD = ("#", "Case", "KD", "Factored w, kN/m", "M sag", "M hog", "V", "Reactions, kN", "Gives")
+REACTION_HEAD = ("Support", "At", "D", "L", "S", "Factored, largest", "Factored, least")
+
+
+def governed(result: Recheck) -> dict[str, list[str]]:
+    """Each case label that governs a check, with the checks it governs (the names the checks table prints)."""
+    out: dict[str, list[str]] = {}
+    for c in check_lines(result):
+        if c.combination:
+            out.setdefault(c.combination, []).append(c.name)
+    return out
+
+
+def _num(x: float, places: int = 1) -> str:
+    """A figure as the sheet prints it; -0.0 prints as 0.0 (a rounding of a tiny negative is not a sign)."""
+    text = f"{x:.{places}f}"
+    return text[1:] if text.startswith("-") and float(text) == 0.0 else text
+
+
+def _loads(row: CaseRow, parts: list[str]) -> str:
+    """The factored line load on each part; one figure when every part carries the same."""
+    figures = [_num(w, 2) for w in row.w_factored_kn_m]
+    if len(set(figures)) == 1:
+        return figures[0] if len(parts) == 1 else f"{figures[0]} on every part"
+    return "; ".join(f"{p} {f}" for p, f in zip(parts, figures, strict=True))
+
+
+def case_section(table: CaseTable, result: Recheck) -> tuple[str, list[list[str]]]:
+    """The sentence above the load-case table and its rows (the header first).
+
+    Every case is listed up to ``LIST_ALL_UP_TO``; beyond that (several spans: every pattern of parts is
+    tried) the cases that give an extreme of a moment, the shear or a reaction, or govern a check.
+    """
+    governs = governed(result)
+    shown = [r for r in table.cases if len(table.cases) <= LIST_ALL_UP_TO or r.extremes or r.combination in governs]
+    count = len(table.cases)
+    which = (
+        "all are listed"
+        if len(shown) == count
+        else f"the {len(shown)} listed give an extreme of a moment, the shear or a reaction, or govern a check"
+    )
+    sentence = (
+        f"{count} load case{'s' if count != 1 else ''} tried: NBC 2020 Table 4.1.3.2.-A, with live and snow "
+        f"load on every pattern of parts and, where dead load relieves, 0.9D on the unloaded parts; {which}. "
+        f"Factored w includes the member's self-weight ({_num(table.self_weight_kn_m, 3)} kN/m specified). "
+        "M sag and M hog: the largest sagging and hogging moment anywhere, kN·m; V: the largest shear "
+        "anywhere, kN; reactions upward positive, at supports 1 to "
+        f"{len(table.supports)} from the left."
+    )
+    rows = [list(CASE_HEAD)]
+    for r in shown:
+        gives = r.extremes + [f"governs {name}" for name in governs.get(r.combination, [])]
+        rows.append(
+            [
+                str(r.number),
+                r.combination,
+                f"{r.kd:.2f}",
+                _loads(r, table.parts),
+                _num(r.m_sagging_knm),
+                _num(r.m_hogging_knm),
+                _num(r.v_max_kn),
+                " / ".join(_num(x) for x in r.reactions_kn),
+                "; ".join(gives),
+            ]
+        )
+    return sentence, rows
+
+
+def reaction_section(table: CaseTable) -> tuple[str, list[list[str]]]:
+    """The sentence above the reactions table and its rows (the header first)."""
+    sentence = (
+        "Reactions at each support, kN. D, L and S are specified (unfactored) loads: D on every part with "
+        "the self-weight; L and S on the pattern of parts that gives the largest reaction there. Factored: "
+        "the largest and least over every case tried, with the case number. A negative reaction is uplift: "
+        "the support must hold the beam down."
+    )
+    rows = [list(REACTION_HEAD)]
+    for s in table.supports:
+        rows.append(
+            [
+                str(s.support),
+                f"{s.x_m:.2f} m",
+                _num(s.dead_kn, 2),
+                _num(s.live_kn, 2),
+                _num(s.snow_kn, 2),
+                f"{_num(s.factored_max_kn, 2)} (case {s.factored_max_case})",
+                f"{_num(s.factored_min_kn, 2)} (case {s.factored_min_case})",
+            ]
+        )
+    return sentence, rows
+
+
+__all__ = ["CASE_HEAD", "LIST_ALL_UP_TO", "REACTION_HEAD", "case_section", "governed", "reaction_section"]
