@@ -206,6 +206,28 @@ def by_member(items: list[Item]) -> list[list[Item]]:
 ABBREVIATIONS = frozenset({"no", "nos", "e.g", "i.e", "approx", "incl", "min", "max", "vs", "ltd", "inc", "st", "fig"})
 
 
+_TYPESET = (
+    (re.compile(r"\bmm2\b"), "mm²"),
+    (re.compile(r"\bmm3\b"), "mm³"),
+    (re.compile(r"\bmm4\b"), "mm⁴"),
+    (re.compile(r"\bm3\b"), "m³"),  # kN/m3 too
+    (re.compile(r"\^2\b"), "²"),
+    (re.compile(r"\bsqrt\("), "√("),
+    (re.compile(r"(?<=\S) x (?=\S)"), " × "),  # "b x d", "1.92 x Lu": a product, not the letter
+)
+
+
+def typeset(text: str) -> str:
+    """Engineering notation as printed: mm2 -> mm², m3 -> m³, b^2 -> b², sqrt( -> √(, "b x d" -> "b × d".
+
+    The recheck writes its units and sources in plain ASCII (the JSON of contract 1 keeps them so);
+    a printed calculation sheet shows them as an engineer writes them.
+    """
+    for pattern, replacement in _TYPESET:
+        text = pattern.sub(replacement, text)
+    return text
+
+
 def one_line(text: str) -> str:
     """The first sentence of a text, whole (for the summary table): never cut inside a word or a bracket.
 

@@ -31,7 +31,7 @@ from core.casetable import case_table
 from core.models import Beam
 from core.results import Recheck, check_lines, check_trace
 from reports import stamp
-from reports.content import Item, Notice, Photo, by_member, due_words, member_sketch, one_line, ordered
+from reports.content import Item, Notice, Photo, by_member, due_words, member_sketch, one_line, ordered, typeset
 from reports.inputs import input_rows
 from reports.loadcases import case_section, reaction_section
 from reports.photos import CELL_W_MM, photo_flowable, wide_box
@@ -840,9 +840,9 @@ def render_recheck_sheet(beam: Beam, result: Recheck, site_name: str = "", note:
         trows = [head_row] + [
             [
                 Paragraph(esc(t.symbol), st["small"]),
-                Paragraph(esc(_trace_value(t.value)) + " " + esc(t.unit), st["small"]),
+                Paragraph(esc(_trace_value(t.value)) + " " + esc(typeset(t.unit)), st["small"]),
                 Paragraph(esc(t.clause), st["small"]),
-                Paragraph(esc(t.source), st["small"]),
+                Paragraph(esc(typeset(t.source)), st["small"]),
                 Paragraph(esc(t.status), st["small"]),
             ]
             for t in check_trace(result, c.key)

@@ -42,6 +42,12 @@ def test_every_check_has_its_own_trace_on_the_sheet():
     for clause in ("7.5.6.4.4", "7.5.7.2", "7.5.9", "5.4.2"):  # bending, shear, bearing, deflection
         assert f"CSA O86-19 {clause}" in text, clause
     assert re.search(r"\b(memory|confirmed|verified)\b", text)
+    # units and formulas as an engineer writes them (the recheck's JSON keeps ASCII: mm2, b^2, sqrt, x)
+    assert "√(Le d / b²)" in text  # CSA O86-19 7.5.6.4.3
+    assert "mm²" in text
+    assert "4.9 kN/m³ × b × d" in text
+    for ascii_form in ("mm2", "b^2", "sqrt(", " x "):
+        assert ascii_form not in text, ascii_form
 
 
 def test_inputs_are_in_words_and_what_was_not_seen_says_the_case_taken():
