@@ -28,8 +28,9 @@ from reportlab.platypus import (
 )
 
 from core.casetable import case_table
+from core.kinds import Outcome
 from core.models import Beam
-from core.results import Recheck, check_lines, check_trace
+from core.results import BendingRegion, Recheck, check_lines, check_trace
 from reports import stamp
 from reports.content import Item, Notice, Photo, by_member, due_words, member_sketch, one_line, ordered, typeset
 from reports.inputs import input_rows
@@ -820,14 +821,14 @@ def render_recheck_sheet(beam: Beam, result: Recheck, site_name: str = "", note:
     lines = check_lines(result)  # the same check lines as the app, the text output and the notice
     story.append(Paragraph("Checks", st["h2"]))
     rows = [[Paragraph(h, st["bold"]) for h in ("Check", "Demand", "Capacity", "Utilisation", "Clause")]]
-    for c in lines:
-        util = "not established" if c.utilisation is None else f"{c.utilisation:.3f}"
-        rows.append([Paragraph(esc(x), st["small"]) for x in (c.name, c.demand, c.capacity, util, c.clause)])
-    story.append(_grid(rows, [42 * mm, 26 * mm, 52 * mm, 26 * mm, 40 * mm], shade_first_col=False))
     regions = {f"bending{i}": r for i, r in enumerate(result.bending)}  # by CheckLine.key
     for c in lines:
+        util = _utilisation_words(c.utilisation, regions.get(c.key))
+        rows.append([Paragraph(esc(x), st["small"]) for x in (c.name, c.demand, c.capacity, util, c.clause)])
+    story.append(_grid(rows, [42 * mm, 26 * mm, 52 * mm, 26 * mm, 40 * mm], shade_first_col=False))
+    for c in lines:
         region = regions.get(c.key)
-        head = c.name if region is None else f"{c.name}: {region.outcome.replace('_', ' ')}"
+        head = c.name if region is None else f"{c.name}: {_outcome_words(region)}"
         section: list[Any] = [Paragraph(esc(head[:1].upper() + head[1:]), st["h2"])]
         basis = [f"rests on {c.factors}"] if c.factors else []
         if c.combination:
@@ -870,6 +871,37 @@ def render_recheck_sheet(beam: Beam, result: Recheck, site_name: str = "", note:
 
     doc.build(story, canvasmaker=_Canvas)
     return buf.getvalue()
+
+
+def _outcome_words(region: BendingRegion) -> str:
+    """A bending region's outcome in words; a capacity not established that fails even at its upper bound says so."""
+    words = region.outcome.replace("_", " ")
+    upper = region.utilisation_if_restrained
+    if region.outcome == Outcome.not_established and (upper is None or upper > 1.0):
+        return f"{words}, fails even if its bearings were restrained"
+    return words
+
+
+def _utilisation_words(utilisation: float | None, region: BendingRegion | None) -> str:
+    """The checks table's utilisation: the figure, or why there is none and what is known of it.
+
+    Where the capacity is not established (a bearing's restraint missing or not seen), the capacity if
+    restrained is an upper bound, so the utilisation it gives is a lower bound: the real one is at least that.
+    """
+    if utilisation is not None:
+        return f"{utilisation:.3f}"
+    if region is None:
+        return "not established"
+    if region.outcome == Outcome.not_permitted:
+        return "none: not permitted (slenderness)"
+    if region.outcome != Outcome.not_established:
+        return "none"
+    upper = region.utilisation_if_restrained
+    if upper is None:
+        return "not established; not permitted even if restrained"
+    if upper > 1.0:
+        return f"at least {upper:.3f}: fails even if restrained"
+    return f"not established; at least {upper:.3f}"
 
 
 def _load_cases(beam: Beam, result: Recheck, st: dict[str, ParagraphStyle]) -> list[Any]:

@@ -66,6 +66,20 @@ def test_inputs_are_in_words_and_what_was_not_seen_says_the_case_taken():
     pdf = render_recheck_sheet(beam, r)
     text = flat(text_of(pdf))
     assert "Recheck sheet: T-1, NOT ESTABLISHED" in text
+    # the capacity if restrained is an upper bound, so its utilisation is a lower bound of the real one
+    (region,) = r.bending
+    upper = region.utilisation_if_restrained
+    assert upper is not None
+    assert upper > 1.0  # 9 m: fails even at the bound
+    assert f"at least {upper:.3f}: fails even if restrained" in text
+    assert "not established, fails even if its bearings were restrained" in text
+    short = beam.model_copy(update={"spans_mm": [4000.0]})
+    (region,) = recheck(short).bending
+    assert region.utilisation_if_restrained is not None
+    assert region.utilisation_if_restrained <= 1.0  # 4 m: the bound passes, the real capacity is unknown
+    short_text = flat(text_of(render_recheck_sheet(short, recheck(short))))
+    assert f"not established; at least {region.utilisation_if_restrained:.3f}" in short_text
+    assert "fails even if" not in short_text
     assert "against lateral displacement: NOT restrained" in text
     assert "against rotation: not visible (taken as missing)" in text
     assert "fastening not recorded: taken as not fastened" in text
