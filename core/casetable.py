@@ -39,7 +39,8 @@ class CaseRow(Frozen):
     m_hogging_knm: float  # largest hogging (negative) moment anywhere, as a magnitude, kN·m; 0 when none
     v_max_kn: float  # largest |V| anywhere (at a part's end), kN
     reactions_kn: list[float]  # one per support, left to right, upward positive, kN
-    extremes: list[str] = []  # the envelope values this case gives first, in words ("largest sagging M", ...)
+    largest: list[str] = []  # the envelope maxima this case gives first: "M sag", "M hog", "V", "R1", "R2", ...
+    least: list[str] = []  # the envelope minima this case gives first: "R1", "R2", ... (uplift when negative)
 
 
 class SupportReactions(Frozen):
@@ -84,22 +85,25 @@ def extreme_moments_nmm(result: CaseResult, lengths: tuple[float, ...]) -> tuple
 
 
 def _with_extremes(rows: list[CaseRow]) -> list[CaseRow]:
-    """The rows, each naming the envelope values it is the first case in order to reach."""
-    named: dict[int, list[str]] = {}
+    """The rows, each naming the envelope values it is the first case in order to reach (``largest``, ``least``)."""
+    named: dict[tuple[int, bool], list[str]] = {}  # (row index, largest) -> symbols
 
-    def first(words: str, values: list[float], largest: bool, magnitude: bool = False) -> None:
+    def first(symbol: str, values: list[float], largest: bool, magnitude: bool = False) -> None:
         best = max(values) if largest else min(values)
         if magnitude and best < NONE_BELOW:
             return  # no sagging (or hogging) moment at all (round-off of a solve): nothing to name
-        named.setdefault(values.index(best), []).append(words)
+        named.setdefault((values.index(best), largest), []).append(symbol)
 
-    first("largest sagging M", [r.m_sagging_knm for r in rows], True, magnitude=True)
-    first("largest hogging M", [r.m_hogging_knm for r in rows], True, magnitude=True)
-    first("largest V", [r.v_max_kn for r in rows], True, magnitude=True)
+    first("M sag", [r.m_sagging_knm for r in rows], True, magnitude=True)
+    first("M hog", [r.m_hogging_knm for r in rows], True, magnitude=True)
+    first("V", [r.v_max_kn for r in rows], True, magnitude=True)
     for j in range(len(rows[0].reactions_kn)):
-        first(f"largest reaction at support {j + 1}", [r.reactions_kn[j] for r in rows], True)
-        first(f"least reaction at support {j + 1}", [r.reactions_kn[j] for r in rows], False)
-    return [r.model_copy(update={"extremes": named.get(i, [])}) for i, r in enumerate(rows)]
+        first(f"R{j + 1}", [r.reactions_kn[j] for r in rows], True)
+        first(f"R{j + 1}", [r.reactions_kn[j] for r in rows], False)
+    return [
+        r.model_copy(update={"largest": named.get((i, True), []), "least": named.get((i, False), [])})
+        for i, r in enumerate(rows)
+    ]
 
 
 def _specified_max(model: BeamModel, w_n_mm: float, support: int) -> float:
@@ -139,7 +143,7 @@ def case_table(beam: Beam) -> CaseTable:
     supports = []
     for j, x_mm in enumerate(model.support_x_mm):
         by_case = [(row.reactions_kn[j], row.number) for row in rows]
-        high = max(by_case, key=lambda t: t[0])  # the first case in order giving it (as ``extremes`` names)
+        high = max(by_case, key=lambda t: t[0])  # the first case in order giving it (as ``largest`` names)
         low = min(by_case, key=lambda t: t[0])
         supports.append(
             SupportReactions(

@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 import io
-from importlib import resources
 from typing import Any
 
 from reportlab import rl_config
@@ -12,7 +11,6 @@ from reportlab.lib.pagesizes import A4, LETTER
 from reportlab.lib.styles import ParagraphStyle
 from reportlab.lib.units import mm
 from reportlab.pdfbase import pdfmetrics
-from reportlab.pdfbase.ttfonts import TTFont
 from reportlab.pdfgen import canvas as rl_canvas
 from reportlab.platypus import (
     Flowable,
@@ -27,7 +25,7 @@ from reportlab.platypus import (
     TableStyle,
 )
 
-from core.casetable import case_table
+from core.casetable import CaseTable, case_table
 from core.kinds import Outcome
 from core.models import Beam
 from core.results import BendingRegion, Recheck, check_lines, check_trace
@@ -36,7 +34,7 @@ from reports.content import Item, Notice, Photo, by_member, due_words, member_sk
 from reports.inputs import input_rows
 from reports.loadcases import case_section, reaction_section
 from reports.photos import CELL_W_MM, photo_flowable, wide_box
-from reports.sketch import FONT, beam_sketch
+from reports.sketch import FONT, FONT_BOLD, beam_sketch, register_fonts
 from reports.tablerows import memory_rows
 from reports.textrun import markup
 
@@ -44,7 +42,6 @@ from reports.textrun import markup
 # the time of a notice with photos, and binary streams are a fifth smaller. Process-wide by design.
 rl_config.useA85 = 0
 
-FONT_BOLD = "BWSans-Bold"
 HASH_FONT = "Courier"  # a standard font: the hash digits stay literal bytes in the page (see reports.stamp)
 PRIORITY_WORDS = {
     "immediate": "IMMEDIATE: make safe now",
@@ -68,13 +65,7 @@ def priority_label(priority: str) -> str:
     return f"{PRIORITY_MARKERS.get(priority, '○')} {PRIORITY_WORDS.get(priority, priority)}"
 
 
-def _register_fonts() -> None:
-    if FONT in pdfmetrics.getRegisteredFontNames():
-        return
-    base = resources.files("reports").joinpath("fonts")
-    pdfmetrics.registerFont(TTFont(FONT, str(base.joinpath("DejaVuSans.ttf"))))
-    pdfmetrics.registerFont(TTFont(FONT_BOLD, str(base.joinpath("DejaVuSans-Bold.ttf"))))
-    pdfmetrics.registerFontFamily(FONT, normal=FONT, bold=FONT_BOLD, italic=FONT, boldItalic=FONT_BOLD)
+_register_fonts = register_fonts  # the sketch measures its labels in the same fonts
 
 
 def esc(text: object) -> str:
@@ -810,6 +801,9 @@ def render_recheck_sheet(beam: Beam, result: Recheck, site_name: str = "", note:
         Paragraph(f"Recheck sheet: {esc(mark)}, {esc(status)}", st["title"]),
         Paragraph(esc(site_name or "Rechecked from a beam file, not from a stored site"), st["base"]),
     ]
+    why = _status_reason(result)
+    if why:
+        story.append(Paragraph(esc(why), st["bold"]))
     story += [Paragraph(esc(x), st["small"]) for x in (prepared, note) if x]
     story.append(Paragraph("Inputs as recorded", st["h2"]))
     rows = [[Paragraph(esc(k), st["bold"]), Paragraph(esc(v), st["small"])] for k, v in input_rows(beam)]
@@ -817,7 +811,9 @@ def render_recheck_sheet(beam: Beam, result: Recheck, site_name: str = "", note:
     story.append(
         KeepTogether([Spacer(1, 4), beam_sketch(member_sketch(beam, result), width_pt=width, height_pt=44 * mm)])
     )
-    story += _load_cases(beam, result, st)
+    cases = case_table(beam)
+    story += _load_cases(cases, result, st)
+    case_number = {row.combination: row.number for row in cases.cases}
     lines = check_lines(result)  # the same check lines as the app, the text output and the notice
     story.append(Paragraph("Checks", st["h2"]))
     rows = [[Paragraph(h, st["bold"]) for h in ("Check", "Demand", "Capacity", "Utilisation", "Clause")]]
@@ -832,7 +828,8 @@ def render_recheck_sheet(beam: Beam, result: Recheck, site_name: str = "", note:
         section: list[Any] = [Paragraph(esc(head[:1].upper() + head[1:]), st["h2"])]
         basis = [f"rests on {c.factors}"] if c.factors else []
         if c.combination:
-            basis.append(f"governing: {c.combination}")
+            number = case_number.get(c.combination)
+            basis.append(f"governing: {c.combination}" + ("" if number is None else f" (load case {number})"))
         if region is not None:
             basis.append(f"compression edge: {region.compression_edge}")
         if basis:
@@ -873,6 +870,18 @@ def render_recheck_sheet(beam: Beam, result: Recheck, site_name: str = "", note:
     return buf.getvalue()
 
 
+def _status_reason(result: Recheck) -> str:
+    """Why the sheet's status is not OK, under its title: how many findings to act on and the most urgent."""
+    acting = [f for f in result.findings or [] if f.priority.value != "observation"]
+    if not acting:
+        return ""
+    first = acting[0]  # findings come most urgent first
+    count = f"{len(acting)} finding{'s' if len(acting) != 1 else ''} to act on"
+    return (
+        f"{count}; the most urgent: {SHORT_PRIORITY.get(first.priority.value, first.priority.value)}: {first.message}"
+    )
+
+
 def _outcome_words(region: BendingRegion) -> str:
     """A bending region's outcome in words; a capacity not established that fails even at its upper bound says so."""
     words = region.outcome.replace("_", " ")
@@ -904,21 +913,22 @@ def _utilisation_words(utilisation: float | None, region: BendingRegion | None) 
     return f"not established; at least {upper:.3f}"
 
 
-def _load_cases(beam: Beam, result: Recheck, st: dict[str, ParagraphStyle]) -> list[Any]:
+def _load_cases(table: CaseTable, result: Recheck, st: dict[str, ParagraphStyle]) -> list[Any]:
     """The sheet's load cases tried and support reactions (``reports.loadcases``), as two tables."""
-    table = case_table(beam)
     out: list[Any] = []
-    for n, ((sentence, rows), widths) in enumerate(
-        (
-            (case_section(table, result), [8, 38, 9, 26, 14, 14, 11, 24, 42]),
-            (reaction_section(table), [18, 18, 18, 18, 18, 48, 48]),
-        )
+    for (heading, style), (sentences, rows), widths in (
+        (("Load cases and reactions", "h2"), case_section(table, result), [8, 36, 9, 24, 14, 14, 11, 24, 46]),
+        (("Reactions at each support", "h3"), reaction_section(table), [18, 18, 18, 18, 18, 48, 48]),
     ):
-        cells = [[Paragraph(esc(x), st["bold" if i == 0 else "small"]) for x in row] for i, row in enumerate(rows)]
-        head = [Paragraph("Load cases and reactions", st["h2"])] if n == 0 else []
+        cells = [
+            [Paragraph(esc(x).replace("\n", "<br/>"), st["bold" if i == 0 else "small"]) for x in row]
+            for i, row in enumerate(rows)
+        ]
         grid = _grid(cells, [w * mm for w in widths], shade_first_col=False, repeat=1)
-        # the heading and sentence stay with the table's first rows (a long table still splits, its header repeated)
-        out += [KeepTogether([*head, Paragraph(esc(sentence), st["small"]), Spacer(1, 2), grid]), Spacer(1, 4)]
+        # the heading and text stay with the table's first rows (a long table still splits, its header repeated)
+        text = [Paragraph(esc(x), st["small"]) for x in sentences]
+        head = [Paragraph(heading, st[style]), *text, Spacer(1, 2), grid]
+        out += [KeepTogether(head), Spacer(1, 4)]
     return out
 
 

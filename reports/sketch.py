@@ -7,14 +7,29 @@ bearing is a solid triangle with "R"; an unrestrained one a hollow triangle with
 from __future__ import annotations
 
 from dataclasses import dataclass
+from importlib import resources
 
 from reportlab.graphics.shapes import Drawing, Line, Polygon, Rect, String
 from reportlab.lib import colors
+from reportlab.pdfbase import pdfmetrics
+from reportlab.pdfbase.pdfmetrics import stringWidth
+from reportlab.pdfbase.ttfonts import TTFont
 
 from reports.content import Sketch, ft_in
 
 FONT = "BWSans"
 FONT_BOLD = "BWSans-Bold"
+LABEL_GAP_PT = 4.0  # least room between two span labels side by side
+
+
+def register_fonts() -> None:
+    """Register the sheet's and the notice's fonts (DejaVu Sans, shipped in reports/fonts) once per process."""
+    if FONT in pdfmetrics.getRegisteredFontNames():
+        return
+    base = resources.files("reports").joinpath("fonts")
+    pdfmetrics.registerFont(TTFont(FONT, str(base.joinpath("DejaVuSans.ttf"))))
+    pdfmetrics.registerFont(TTFont(FONT_BOLD, str(base.joinpath("DejaVuSans-Bold.ttf"))))
+    pdfmetrics.registerFontFamily(FONT, normal=FONT, bold=FONT_BOLD, italic=FONT, boldItalic=FONT_BOLD)
 
 
 @dataclass(frozen=True)
@@ -34,6 +49,7 @@ class _Frame:
 
 def beam_sketch(sk: Sketch, width_pt: float = 460, height_pt: float = 120) -> Drawing:
     """A drawing that locates the member: title (mark, level, grid), supports by gridline, spans, legend."""
+    register_fonts()
     d = Drawing(width_pt, height_pt)
     total = sum(length for _, _, length in sk.elements) or 1.0
     margin = 40.0
@@ -105,7 +121,10 @@ def _spans(d: Drawing, sk: Sketch, f: _Frame) -> None:
     """Each span and overhang with its length in m and ft-in."""
     for kind, x0, length in sk.elements:
         mid = f.x_of(x0 + length / 2)
-        label = f"{'overhang' if kind == 'overhang' else 'span'} {length / 1000:.2f} m ({ft_in(length)})"
+        word, metres = ("overhang" if kind == "overhang" else "span"), f"{length / 1000:.2f} m"
+        room = length * f.scale - LABEL_GAP_PT  # a label wider than its element would run into its neighbour's
+        labels = (f"{word} {metres} ({ft_in(length)})", f"{word} {metres}", metres)
+        label = next((t for t in labels if stringWidth(t, FONT, f.fs) <= room), metres)
         d.add(Line(f.x_of(x0), f.y - 40, f.x_of(x0 + length), f.y - 40, strokeColor=colors.black, strokeWidth=0.5))
         d.add(String(mid, f.y - 50, label, fontName=FONT, fontSize=f.fs, textAnchor="middle"))
 

@@ -27,6 +27,7 @@ from mobile.screens.widgets import (
 )
 from mobile.viewmodels import BeamFormViewModel
 from mobile.viewmodels.beam import RESTRAINT_WORDS, words
+from mobile.viewmodels.common import default_export_dir
 
 TYPING_PAUSE_S = 0.35  # save this long after the last keystroke (and at once on Enter or leaving the field)
 
@@ -244,6 +245,27 @@ class BeamScreen(Screen):
         self.vm.archive()
         self.archive_text = ARCHIVE_PROMPT
         App.get_running_app().go("site")
+
+    def write_sheet(self) -> None:
+        """Write the beam's recheck sheet (PDF) to the export folder and say where, or why not."""
+        self.flush()
+        out_dir = default_export_dir()
+        try:
+            path = self.vm.write_sheet(out_dir)
+        except ValueError as exc:
+            info_popup("Recheck sheet", [str(exc)])
+            return
+        except OSError as exc:
+            info_popup("Recheck sheet", [f"cannot write into {out_dir}: {exc.strerror or exc}"])
+            return
+        info_popup(
+            "Recheck sheet written",
+            [
+                str(path),
+                "The inputs in words, the load cases and reactions, every check with each factor's clause and "
+                "table row, and the findings; for the engineer of record to check and sign.",
+            ],
+        )
 
     def leave(self) -> None:
         """Back to the site (pending typing saved first)."""

@@ -16,6 +16,7 @@ from mobile.screens.widgets import (
     big_button,
 )
 from mobile.viewmodels import NoticeViewModel, SiteViewModel
+from mobile.viewmodels.common import default_export_dir
 
 PREVIEW_DIR = Path(tempfile.gettempdir()) / "bracewalk-preview"  # page images of the notice being previewed
 
@@ -37,7 +38,7 @@ class NoticeScreen(Screen):
         self.page = 0
         self.page_source, self.page_text = "", "no preview yet"
         if not self.ids.export_dir.text:
-            self.ids.export_dir.text = str(Path.home() / "bracewalk-exports")
+            self.ids.export_dir.text = str(default_export_dir())
         warnings = (SiteViewModel(app.store, app.site_id).unraised_warning(), self.vm.contact_warning())
         self.warning_text = "\n".join(w for w in warnings if w)
         self.render()

@@ -14,8 +14,10 @@ from __future__ import annotations
 
 import copy
 import re
+import time
 from collections.abc import Callable
 from dataclasses import dataclass, field
+from importlib.metadata import version
 from pathlib import Path
 from typing import Any
 
@@ -31,8 +33,10 @@ from core.results import CheckKind, FactorTrace, Recheck, check_lines
 from mobile.units import LengthRefused, echo_length, read_length, split_spans
 from mobile.viewmodels.common import PRIORITY_LABELS, line_loads_kn_m, status_label
 from reports.content import support_names
+from reports.render import render_recheck_sheet
 from reports.tablerows import counts, rows_used
 from storage import StorageError, Store
+from storage.files import write_atomic
 
 LENGTH_FIELDS = {  # form field -> its plausible range (core.plausible)
     "b_mm": "b_mm",
@@ -514,6 +518,43 @@ class BeamFormViewModel:
             self.store.update_beam(self.beam_id, changes)
         self.errors.clear()
         self.refresh()
+
+    def loads_note(self) -> str:
+        """Where the checked line loads came from, in a sentence for the recheck sheet."""
+        rec = self.record()
+        width = rec.get("tributary_m")
+        if width is None:
+            return "Line loads as typed on the tablet (no tributary width recorded)."
+        basis = self.basis(rec)
+        name = rec.get("load_basis")
+        where = f"the site's design basis '{name}'" if name else "the site's design basis"
+        return (
+            f"Line loads derived from {where}: dead {basis.dead_kpa:g}, live {basis.live_kpa:g}, snow "
+            f"{basis.snow_kpa:g} kPa × tributary width {float(width):g} m (kN/m = kPa × m, common practice)."
+        )
+
+    def write_sheet(self, out_dir: Path, today: str | None = None) -> Path:
+        """Write this beam's recheck sheet (PDF) into ``out_dir``; its path.
+
+        The beam as saved is rechecked again first, so the sheet matches the record. Raises ValueError
+        with the reason in words when the beam cannot be rechecked yet (an entry missing), and OSError
+        when the folder cannot be written.
+        """
+        result = self.refresh()
+        if result is None:
+            msg = f"no recheck sheet yet: {self.recheck_error}"
+            raise ValueError(msg)
+        beam = self.store.beam(self.beam_id)
+        site = self.store.site(self.site_id)
+        made = today or time.strftime("%Y-%m-%d")
+        prepared = (
+            f"Rechecked {made} on this tablet (device {self.store.device_id[:8]}) with bracewalk "
+            f"{version('bracewalk')}, from the beam record as saved."
+        )
+        pdf = render_recheck_sheet(beam, result, site.name, note=self.loads_note(), prepared=prepared)
+        safe = "".join(ch if ch.isalnum() or ch in "-_" else "-" for ch in beam.mark)
+        out_dir.mkdir(parents=True, exist_ok=True)
+        return write_atomic(out_dir / f"recheck-{safe}-{time.strftime('%Y%m%d-%H%M%S')}.pdf", pdf)
 
     def location_text(self) -> str:
         """'Roof, grid E / 3-4, RB-5' for deficiencies and notices."""

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from pathlib import Path
+
 from pydantic import ValidationError
 
 from core.records import DesignBasis
@@ -17,6 +19,11 @@ STATUS_WORDS = {
 }
 PRIORITY_LABELS = {p: priority_label(p) for p in PRIORITY_WORDS}  # the notice's words and shapes
 STAGE_WORDS = {0: "open", 1: "corrected (contractor reports done)", 2: "verified by reviewer"}
+
+
+def default_export_dir() -> Path:
+    """Where the app writes the files a reviewer sends on (notices, recheck sheets) unless told otherwise."""
+    return Path.home() / "bracewalk-exports"
 
 
 def status_label(status: str) -> str:

@@ -107,5 +107,8 @@ def test_the_table_holds_every_governing_case_of_the_recheck_with_its_reactions(
     for s in table.supports:  # the case numbers named for the extremes hold them
         assert table.cases[s.factored_max_case - 1].reactions_kn[s.support - 1] == s.factored_max_kn
         assert table.cases[s.factored_min_case - 1].reactions_kn[s.support - 1] == s.factored_min_kn
-    (sag_row,) = [row for row in table.cases if "largest sagging M" in row.extremes]
+    (sag_row,) = [row for row in table.cases if "M sag" in row.largest]
     assert sag_row.m_sagging_knm == max(row.m_sagging_knm for row in table.cases)
+    for s in table.supports:
+        (low_row,) = [row for row in table.cases if f"R{s.support}" in row.least]
+        assert low_row.number == s.factored_min_case

@@ -98,3 +98,31 @@ def test_unrecorded_fastening_and_use_are_shown_as_not_recorded(form):
     assert fields["top_fastened"] == "not recorded"
     assert fields["use"] == "not recorded"
     assert any(f.code == "input_assumed" for f in form.refresh().findings)
+
+
+def test_the_beam_writes_its_recheck_sheet_from_the_record_as_saved(form, tmp_path):
+    """The sheet a reviewer takes from the tablet: the saved beam rechecked again, with where its loads came from."""
+    import io
+    import re
+
+    from pypdf import PdfReader
+
+    form.set_field("purlin_spacing_mm", "1.2 m")
+    path = form.write_sheet(tmp_path / "exports", today="2026-12-04")
+    assert path.parent == tmp_path / "exports"
+    assert re.fullmatch(r"recheck-RB-1-\d{8}-\d{6}\.pdf", path.name), path.name
+    text = re.sub(r"\s+", " ", "\n".join(p.extract_text() for p in PdfReader(io.BytesIO(path.read_bytes())).pages))
+    site = form.store.site(form.site_id)
+    assert f"Recheck sheet: RB-1, {form.result.status.value.upper().replace('_', ' ')}" in text
+    assert site.name in text
+    assert "Rechecked 2026-12-04 on this tablet" in text
+    assert form.loads_note() in text
+    assert "Load cases and reactions" in text
+    assert "braced by purlins at 1200 mm" in text  # the value just entered: the record as saved
+
+
+def test_no_recheck_sheet_for_a_beam_that_cannot_be_rechecked_yet(form, tmp_path):
+    form.store.update_beam(form.beam_id, {"spans_mm": None})
+    with pytest.raises(ValueError, match="no recheck sheet yet: still needs"):
+        form.write_sheet(tmp_path / "exports")
+    assert not (tmp_path / "exports").exists()

@@ -412,6 +412,18 @@ if FLOW == "main":
         assert app.root.current == "beam"
 
     @step
+    def recheck_sheet():
+        screen("beam").ids.sheet.trigger_action(0)  # the beam's recheck sheet, written to the export folder
+        popup = app.root_window.children[0]
+        assert popup.title == "Recheck sheet written", popup.title
+        folder = Path(os.environ["HOME"]) / "bracewalk-exports"
+        (written,) = folder.glob("recheck-RB-9-*.pdf")
+        assert any(str(written) in getattr(w, "text", "") for w in popup.walk()), "the popup names the file"
+        assert written.read_bytes().startswith(b"%PDF")
+        yield from shot("03f-recheck-sheet-written")
+        popup.dismiss()
+
+    @step
     def bearings_view():
         yield from shot("03-beam-new")
         screen("beam").ids.form_scroll.scroll_y = 0.42
