@@ -11,18 +11,24 @@ from pydantic import BaseModel, ConfigDict
 from core.kinds import FindingCode, MomentSign, Outcome, TraceStatus
 from core.models import Material
 
+# What the recheck covers, stated wherever its results are (a roof beam's uplift under wind, a point load
+# from equipment, a connection: none is rechecked, and a result must not be read as if it were)
+SCOPE = (
+    "The recheck covers gravity line loads only (dead, live and snow); wind, earthquake, point loads and "
+    "connections are not checked."
+)
 CAUTION = (
     "bracewalk is a recording and recheck aid for a qualified reviewer. Results are advisory and "
     "support, never replace, the judgement of the engineer of record, who decides repairs and "
-    "substitutions. Local codes and licensed practice govern. Table values marked 'memory' have not "
-    "been checked against the standard's text."
+    f"substitutions. Local codes and licensed practice govern. {SCOPE} Table values marked 'memory' have "
+    "not been checked against the standard's text."
 )
 
 
 # The version of what a recheck prints. Bump it with every change that may change a recheck's output (the
 # golden digests, tests/core/golden_versions.txt, refuse a rewrite under the same version): stored results
 # of another version are recomputed when a database is opened (storage.results).
-RESULTS_VERSION = 5
+RESULTS_VERSION = 6
 
 
 class Out(BaseModel):

@@ -20,6 +20,8 @@ CAUTIONS = (
     "The contractor is responsible for means, methods, sequencing, site safety and temporary bracing.",
     "Observations are limited to work visible and accessible on the visit date; work listed as not "
     "reviewed is outside this notice.",
+    "The recheck behind each item covers gravity line loads only (dead, live and snow); wind, earthquake, "
+    "point loads and connections are not checked by it.",
     "IMMEDIATE items: make the area safe now (keep loads off, shore or brace) and tell the contractor on "
     "site before this written notice arrives.",
 )

@@ -261,6 +261,9 @@ def test_deficiency_page_links_the_beams_recheck_sheet_run_again_here(office):
     assert mf in text
     assert mf in page
     assert "engineer of record" in text
+    # what the recheck covers, on the sheet and on every register page (gravity line loads only)
+    assert "wind, earthquake, point loads and connections are not checked" in text
+    assert "wind, earthquake, point loads and connections are not checked" in re.sub(r"\s+", " ", page)
     missing = client.get("/beam/no-such-beam/sheet.pdf")
     assert missing.status_code == 404
     assert b"%PDF" not in missing.content

@@ -136,6 +136,8 @@ def test_page_one_has_a_short_caution_and_the_full_text_stays():
         "and licensed practice govern." in pages[0]
     )
     assert "Local codes, the authority having jurisdiction and licensed practice govern." in pages[-1]
+    # what the recheck covers: gravity line loads only (a roof beam's wind uplift is not rechecked)
+    assert "wind, earthquake, point loads and connections are not checked" in " ".join(pages[-1].split())
 
 
 # 3. a multi-span beam names its inner support by its gridline (the demo's RB-6)
