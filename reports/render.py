@@ -887,7 +887,7 @@ def _outcome_words(region: BendingRegion) -> str:
     words = region.outcome.replace("_", " ")
     upper = region.utilisation_if_restrained
     if region.outcome == Outcome.not_established and (upper is None or upper > 1.0):
-        return f"{words}, fails even if its bearings were restrained"
+        return f"{words}, fails even if its bearings were restrained (on the inputs as recorded and taken)"
     return words
 
 
@@ -896,6 +896,8 @@ def _utilisation_words(utilisation: float | None, region: BendingRegion | None) 
 
     Where the capacity is not established (a bearing's restraint missing or not seen), the capacity if
     restrained is an upper bound, so the utilisation it gives is a lower bound: the real one is at least that.
+    Both rest on the inputs as recorded and on the unfavourable cases taken for what was not seen (the
+    Inputs section names them: unfastened purlins, the weaker layup face), so the words say so.
     """
     if utilisation is not None:
         return f"{utilisation:.3f}"
@@ -909,7 +911,7 @@ def _utilisation_words(utilisation: float | None, region: BendingRegion | None) 
     if upper is None:
         return "not established; not permitted even if restrained"
     if upper > 1.0:
-        return f"at least {upper:.3f}: fails even if restrained"
+        return f"at least {upper:.3f}: fails even if restrained, on the inputs as recorded and taken"
     return f"not established; at least {upper:.3f}"
 
 

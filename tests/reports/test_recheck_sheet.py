@@ -77,8 +77,9 @@ def test_inputs_are_in_words_and_what_was_not_seen_says_the_case_taken():
     upper = region.utilisation_if_restrained
     assert upper is not None
     assert upper > 1.0  # 9 m: fails even at the bound
-    assert f"at least {upper:.3f}: fails even if restrained" in text
-    assert "not established, fails even if its bearings were restrained" in text
+    # on the inputs as recorded and the unfavourable cases taken for what was not seen (named under Inputs)
+    assert f"at least {upper:.3f}: fails even if restrained, on the inputs as recorded and taken" in text
+    assert "not established, fails even if its bearings were restrained (on the inputs as recorded and taken)" in text
     short = beam.model_copy(update={"spans_mm": [4000.0]})
     (region,) = recheck(short).bending
     assert region.utilisation_if_restrained is not None
