@@ -9,7 +9,7 @@ the cases are the same objects the checks read (``load_cases``), reduced to numb
 
 from __future__ import annotations
 
-from pydantic import BaseModel, ConfigDict
+from pydantic import Field
 
 from core.analysis import BeamModel, CaseResult
 from core.member import member_properties
@@ -17,18 +17,13 @@ from core.models import Beam
 from core.recheck import beam_model
 from core.recheck.cases import live_patterns, load_cases
 from core.recheck.trace import KN_PER_N, KNM_PER_NMM, case_label
+from core.results import Out
 
 KN_M_PER_N_MM = 1.0  # unit conversion: a line load in N/mm is the same number in kN/m
 NONE_BELOW = 1e-6  # a moment or shear under this (kN·m, kN: 1 N·mm, 1 mN) is round-off, not an extreme to name
 
 
-class Frozen(BaseModel):
-    """Base for the case table: frozen."""
-
-    model_config = ConfigDict(frozen=True)
-
-
-class CaseRow(Frozen):
+class CaseRow(Out):
     """One load case tried: its factored line load on each part and the extremes it produces."""
 
     number: int  # 1, 2, ... in the order the recheck builds the cases
@@ -39,11 +34,12 @@ class CaseRow(Frozen):
     m_hogging_knm: float  # largest hogging (negative) moment anywhere, as a magnitude, kN·m; 0 when none
     v_max_kn: float  # largest |V| anywhere (at a part's end), kN
     reactions_kn: list[float]  # one per support, left to right, upward positive, kN
-    largest: list[str] = []  # the envelope maxima this case gives first: "M sag", "M hog", "V", "R1", "R2", ...
-    least: list[str] = []  # the envelope minima this case gives first: "R1", "R2", ... (uplift when negative)
+    # the envelope maxima this case gives first ("M sag", "M hog", "V", "R1", ...) and minima ("R1", ...: uplift if < 0)
+    largest: list[str] = Field(default_factory=list)
+    least: list[str] = Field(default_factory=list)
 
 
-class SupportReactions(Frozen):
+class SupportReactions(Out):
     """One support's reactions: specified by load type (for connection design) and factored extremes."""
 
     support: int  # 1-based, left to right
@@ -57,7 +53,7 @@ class SupportReactions(Frozen):
     factored_min_case: int
 
 
-class CaseTable(Frozen):
+class CaseTable(Out):
     """The cases a recheck tried and the reactions at each support."""
 
     parts: list[str]  # the parts (elements) named left to right: "overhang left", "span 1", ...
@@ -142,9 +138,9 @@ def case_table(beam: Beam) -> CaseTable:
     dead_reactions = model.case((dead,) * len(model.elements)).reactions_n
     supports = []
     for j, x_mm in enumerate(model.support_x_mm):
-        by_case = [(row.reactions_kn[j], row.number) for row in rows]
-        high = max(by_case, key=lambda t: t[0])  # the first case in order giving it (as ``largest`` names)
-        low = min(by_case, key=lambda t: t[0])
+        symbol = f"R{j + 1}"  # the first case in order reaching each extreme names it (``_with_extremes``)
+        high = next(row for row in rows if symbol in row.largest)
+        low = next(row for row in rows if symbol in row.least)
         supports.append(
             SupportReactions(
                 support=j + 1,
@@ -152,10 +148,10 @@ def case_table(beam: Beam) -> CaseTable:
                 dead_kn=dead_reactions[j] * KN_PER_N,
                 live_kn=_specified_max(model, beam.loads.live_kn_m, j) * KN_PER_N,
                 snow_kn=_specified_max(model, beam.loads.snow_kn_m, j) * KN_PER_N,
-                factored_max_kn=high[0],
-                factored_max_case=high[1],
-                factored_min_kn=low[0],
-                factored_min_case=low[1],
+                factored_max_kn=high.reactions_kn[j],
+                factored_max_case=high.number,
+                factored_min_kn=low.reactions_kn[j],
+                factored_min_case=low.number,
             )
         )
     return CaseTable(

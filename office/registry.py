@@ -275,12 +275,14 @@ def recheck_input(beam: dict[str, Any], site_data: dict[str, Any]) -> tuple[dict
     as it stands (kN/m = kPa x m, common practice), so a corrected basis is rechecked; loads typed directly
     on the tablet are used as recorded.
     """
+    from core.records import DesignBasis
+    from reports.inputs import loads_source
     from storage.results import beam_fields
 
     data = {k: v for k, v in beam.items() if k in beam_fields()}
     width = beam.get("tributary_m")
     if width is None:
-        return data, "line loads as typed on the tablet (no tributary width recorded)"
+        return data, loads_source(None, "", DesignBasis())
     name, basis = _basis(beam, site_data)
     loads = dict(data.get("loads") or {})
     loads.update(
@@ -289,12 +291,7 @@ def recheck_input(beam: dict[str, Any], site_data: dict[str, Any]) -> tuple[dict
         snow_kn_m=round(basis.snow_kpa * float(width), 3),
     )
     data["loads"] = loads
-    where = "the site's design basis" if name == "site" else f"the site's design basis '{name}'"
-    source = (
-        f"line loads derived from {where}: dead {basis.dead_kpa:g}, live {basis.live_kpa:g}, "
-        f"snow {basis.snow_kpa:g} kPa x tributary width {float(width):g} m"
-    )
-    return data, source
+    return data, loads_source(float(width), "" if name == "site" else name, basis)
 
 
 def _trace_lines(trace: Any) -> list[str]:
@@ -329,6 +326,7 @@ def recheck_sheet(hub: HubStore, beam_id: str) -> tuple[str, bytes] | str:
     import datetime
     from importlib.metadata import version
 
+    from reports.inputs import sheet_stem
     from reports.render import render_recheck_sheet
 
     rows = _rows(hub, "beam", "WHERE id=?", [beam_id])
@@ -345,8 +343,7 @@ def recheck_sheet(hub: HubStore, beam_id: str) -> tuple[str, bytes] | str:
     pdf = render_recheck_sheet(
         model, result, site_data.get("name", ""), note=f"{loads_from[:1].upper()}{loads_from[1:]}.", prepared=prepared
     )
-    safe = "".join(ch if ch.isalnum() or ch in "-_" else "-" for ch in model.mark)
-    return f"recheck-{safe}.pdf", pdf
+    return f"{sheet_stem(model.mark)}.pdf", pdf
 
 
 def _rechecked(beam: dict[str, Any], site_data: dict[str, Any]) -> tuple[Beam, Recheck, str] | str:

@@ -8,6 +8,7 @@ the recheck took in its place (``core.findings``, ``core.clauses.bending``, ``co
 from __future__ import annotations
 
 from core.models import Beam, Bearing
+from core.records import DesignBasis
 
 MATERIAL_WORDS = {"glulam": "glued-laminated timber (glulam)", "sawn": "sawn lumber"}
 SERVICE_WORDS = {"dry": "dry", "wet": "wet (KS for wet service)"}
@@ -125,3 +126,23 @@ def _specified_words(beam: Beam) -> str:
         f"{s.species} {s.grade}, {_mm(s.b_mm)} × {_mm(s.d_mm)}; "
         f"compared with the measured size within {_mm(beam.size_tolerance_mm)}"
     )
+
+
+def loads_source(tributary_m: float | None, basis_name: str, basis: DesignBasis) -> str:
+    """Where a beam's checked line loads came from, in words: derived from a design basis, or typed.
+
+    ``basis_name`` is the beam's named basis on the site ("" for the site's main one); with a tributary
+    width the line loads are the basis's area loads times the width (kN/m = kPa x m, common practice).
+    """
+    if tributary_m is None:
+        return "line loads as typed on the tablet (no tributary width recorded)"
+    where = f"the site's design basis '{basis_name}'" if basis_name else "the site's design basis"
+    return (
+        f"line loads derived from {where}: dead {basis.dead_kpa:g}, live {basis.live_kpa:g}, "
+        f"snow {basis.snow_kpa:g} kPa x tributary width {float(tributary_m):g} m"
+    )
+
+
+def sheet_stem(mark: str) -> str:
+    """A recheck sheet's file name without extension: 'recheck-' and the mark, safe in any file system."""
+    return "recheck-" + "".join(ch if ch.isalnum() or ch in "-_" else "-" for ch in mark)

@@ -65,12 +65,9 @@ def priority_label(priority: str) -> str:
     return f"{PRIORITY_MARKERS.get(priority, '○')} {PRIORITY_WORDS.get(priority, priority)}"
 
 
-_register_fonts = register_fonts  # the sketch measures its labels in the same fonts
-
-
 def esc(text: object) -> str:
     """Escape user text for a Paragraph: markup characters appear as typed, any script prints (textrun)."""
-    _register_fonts()
+    register_fonts()
     return markup(text, FONT)
 
 
@@ -91,7 +88,7 @@ def footer_room(page_width: float, hashed: bool) -> float:
         hash_w = pdfmetrics.stringWidth(stamp.placeholder_footer(), HASH_FONT, FOOTER_PT)
         end = page_width / 2 + 20 * mm - hash_w / 2
     else:
-        _register_fonts()
+        register_fonts()
         end = page_width - 18 * mm - pdfmetrics.stringWidth(WIDEST_PAGE_LABEL, FONT, FOOTER_PT)
     return end - 3 * mm - 18 * mm
 
@@ -220,7 +217,7 @@ class NumberedCanvas(rl_canvas.Canvas):
 
 
 def _styles() -> dict[str, ParagraphStyle]:
-    _register_fonts()
+    register_fonts()
     base = ParagraphStyle("base", fontName=FONT, fontSize=9, leading=11.5, wordWrap="CJK")
     return {
         "base": base,

@@ -33,6 +33,7 @@ from core.results import CheckKind, FactorTrace, Recheck, check_lines
 from mobile.units import LengthRefused, echo_length, read_length, split_spans
 from mobile.viewmodels.common import PRIORITY_LABELS, line_loads_kn_m, status_label
 from reports.content import support_names
+from reports.inputs import loads_source, sheet_stem
 from reports.render import render_recheck_sheet
 from reports.tablerows import counts, rows_used
 from storage import StorageError, Store
@@ -523,15 +524,8 @@ class BeamFormViewModel:
         """Where the checked line loads came from, in a sentence for the recheck sheet."""
         rec = self.record()
         width = rec.get("tributary_m")
-        if width is None:
-            return "Line loads as typed on the tablet (no tributary width recorded)."
-        basis = self.basis(rec)
-        name = rec.get("load_basis")
-        where = f"the site's design basis '{name}'" if name else "the site's design basis"
-        return (
-            f"Line loads derived from {where}: dead {basis.dead_kpa:g}, live {basis.live_kpa:g}, snow "
-            f"{basis.snow_kpa:g} kPa × tributary width {float(width):g} m (kN/m = kPa × m, common practice)."
-        )
+        source = loads_source(None if width is None else float(width), rec.get("load_basis") or "", self.basis(rec))
+        return f"{source[:1].upper()}{source[1:]}."
 
     def write_sheet(self, out_dir: Path, today: str | None = None) -> Path:
         """Write this beam's recheck sheet (PDF) into ``out_dir``; its path.
@@ -552,9 +546,8 @@ class BeamFormViewModel:
             f"{version('bracewalk')}, from the beam record as saved."
         )
         pdf = render_recheck_sheet(beam, result, site.name, note=self.loads_note(), prepared=prepared)
-        safe = "".join(ch if ch.isalnum() or ch in "-_" else "-" for ch in beam.mark)
         out_dir.mkdir(parents=True, exist_ok=True)
-        return write_atomic(out_dir / f"recheck-{safe}-{time.strftime('%Y%m%d-%H%M%S')}.pdf", pdf)
+        return write_atomic(out_dir / f"{sheet_stem(beam.mark)}-{time.strftime('%Y%m%d-%H%M%S')}.pdf", pdf)
 
     def location_text(self) -> str:
         """'Roof, grid E / 3-4, RB-5' for deficiencies and notices."""
