@@ -40,6 +40,11 @@ class Sketch:
     decking: bool
     support_labels: list[str] = field(default_factory=list)  # "D/2" per support, from the gridline
     title: str = ""  # "RB-5 · level Roof · grid D / 2-3"
+    # per support, the restraints not seen ("lateral displacement", "rotation about the long axis"), each taken
+    # as not restrained
+    not_seen: list[tuple[str, ...]] = field(default_factory=list)
+    # the purlins' or decking's fastening: True fastened, False seen not fastened, None not recorded (taken as not)
+    top_fastened: bool | None = None
 
 
 def ft_in(length_mm: float) -> str:
@@ -278,8 +283,17 @@ def sketch_for(beam: Beam) -> Sketch:
             if Restraint.not_visible in states
             else "restrained"
         )
+    not_seen = [
+        tuple(
+            word
+            for word, state in (("lateral displacement", b.lateral), ("rotation about the long axis", b.rotation))
+            if state is Restraint.not_visible
+        )
+        for b in beam.bearings
+    ]
     top: list[float] = []
-    if beam.top_edge.braced_by is TopBracing.purlins and beam.top_edge.fastened is True and beam.top_edge.spacing_mm:
+    # every purlin recorded is drawn, fastened or not (the sketch draws an unfastened one hollow and says so)
+    if beam.top_edge.braced_by is TopBracing.purlins and beam.top_edge.spacing_mm:
         for kind, x0, length in elements:
             if kind == "span":
                 n = int(length // beam.top_edge.spacing_mm)
@@ -296,7 +310,9 @@ def sketch_for(beam: Beam) -> Sketch:
         braces_top_x=top,
         braces_bottom_x=bottom,
         negative=[],
-        decking=beam.top_edge.braced_by is TopBracing.decking and beam.top_edge.fastened is True,
+        decking=beam.top_edge.braced_by is TopBracing.decking,
+        not_seen=not_seen,
+        top_fastened=beam.top_edge.fastened,
     )
 
 

@@ -1,7 +1,10 @@
 """Beam sketch (reportlab graphics): spans to scale, supports, braces, negative regions, restraint.
 
 Status is shown by shape and words as well as colour, so it reads in black and white: a restrained
-bearing is a solid triangle with "R"; an unrestrained one a hollow triangle with a cross and "NOT R".
+bearing is a solid triangle with "R"; an unrestrained one a hollow triangle with a cross and "NOT R";
+one whose restraint was not seen "R?", and the legend names the restraint not seen at each. A fastened
+purlin is a solid square, one not fastened or whose fastening was not recorded a hollow one (taken as
+not fastened); decking likewise a solid or a dashed line.
 """
 
 from __future__ import annotations
@@ -50,6 +53,9 @@ class _Frame:
 def beam_sketch(sk: Sketch, width_pt: float = 460, height_pt: float = 120) -> Drawing:
     """A drawing that locates the member: title (mark, level, grid), supports by gridline, spans, legend."""
     register_fonts()
+    legend = legend_lines(sk, width_pt, _Frame.fs)
+    extra = LEGEND_STEP_PT * (len(legend) - 2)  # the drawing grows by any legend line past two
+    height_pt += extra
     d = Drawing(width_pt, height_pt)
     total = sum(length for _, _, length in sk.elements) or 1.0
     margin = 40.0
@@ -62,7 +68,8 @@ def beam_sketch(sk: Sketch, width_pt: float = 460, height_pt: float = 120) -> Dr
         name = sk.support_labels[i] if i < len(sk.support_labels) else f"S{i + 1}"
         _support(d, f, f.x_of(sx), i, state, name if sk.support_labels else "")
     _spans(d, sk, f)
-    _legend(d, sk, f.fs)
+    for k, line in enumerate(reversed(legend)):
+        d.add(String(0, LEGEND_BASE_PT + LEGEND_STEP_PT * k, line, fontName=FONT, fontSize=f.fs))
     return d
 
 
@@ -82,14 +89,19 @@ def _member(d: Drawing, sk: Sketch, f: _Frame, total: float) -> None:
     d.add(Rect(f.x_of(0), f.y, total * f.scale, f.depth, fillColor=None, strokeColor=colors.black, strokeWidth=1.2))
     if sk.decking:
         top = f.y + f.depth + 3
-        d.add(Line(f.x_of(0), top, f.x_of(total), top, strokeColor=colors.black, strokeWidth=2))
+        dashes = None if sk.top_fastened is True else [6, 3]  # decking not fastened: dashed
+        d.add(Line(f.x_of(0), top, f.x_of(total), top, strokeColor=colors.black, strokeWidth=2, strokeDashArray=dashes))
 
 
 def _braces(d: Drawing, sk: Sketch, f: _Frame) -> None:
-    """Purlins (squares, marked P1, P2, ... when there are 12 or fewer) and bottom braces (triangles)."""
+    """Purlins (squares, marked P1, P2, ... when there are 12 or fewer) and bottom braces (triangles).
+
+    A purlin not fastened, or whose fastening was not recorded (taken as not fastened), is a hollow square.
+    """
     y, depth = f.y, f.depth
+    fill = colors.black if sk.top_fastened is True else colors.white
     for k, bx in enumerate(sk.braces_top_x, start=1):
-        d.add(Rect(f.x_of(bx) - 2.5, y + depth, 5, 5, fillColor=colors.black, strokeColor=colors.black))
+        d.add(Rect(f.x_of(bx) - 2.5, y + depth, 5, 5, fillColor=fill, strokeColor=colors.black, strokeWidth=1))
         if len(sk.braces_top_x) <= 12:
             d.add(String(f.x_of(bx), y + depth + 8, f"P{k}", fontName=FONT, fontSize=f.fs, textAnchor="middle"))
     for bx in sk.braces_bottom_x:
@@ -129,11 +141,64 @@ def _spans(d: Drawing, sk: Sketch, f: _Frame) -> None:
         d.add(String(mid, f.y - 50, label, fontName=FONT, fontSize=f.fs, textAnchor="middle"))
 
 
-def _legend(d: Drawing, sk: Sketch, fs: int) -> None:
-    """The symbols' legend, in words (reads in black and white)."""
-    legend = "▲ R restrained at bearing · △✕ NOT R not restrained · R? not seen (taken as not restrained)"
-    legend2 = "■ P purlin (top-edge brace) · grey: negative moment, bottom edge in compression"
+LEGEND_STEP_PT = 10.0  # from one legend line to the next
+LEGEND_BASE_PT = 2.0  # the last line's baseline: its descenders (1.9 pt at 8 pt) stay inside the drawing
+
+
+def legend_lines(sk: Sketch, width_pt: float, fs: int) -> list[str]:
+    """The symbols' legend in words (reads in black and white), wrapped to the drawing's width.
+
+    The bearings' symbols first, with the restraint not seen at each "R?" support; then the top edge
+    (purlins or decking as drawn, and how their fastening was taken) and the negative-moment shading.
+    """
+    bearings = ["▲ R restrained at bearing", "△✕ NOT R not restrained", _not_seen_words(sk)]
+    top = [_top_edge_words(sk), "grey: negative moment, bottom edge in compression"]
+    return _wrapped(bearings, width_pt, fs) + _wrapped([t for t in top if t], width_pt, fs)
+
+
+def _not_seen_words(sk: Sketch) -> str:
+    """'R? not seen, taken as not restrained: lateral displacement at S1; rotation at S1, S3' (each support named)."""
+    at: dict[str, list[str]] = {}
+    for i, (state, words) in enumerate(zip(sk.restrained, sk.not_seen, strict=False)):
+        if state == "not visible":
+            for word in words:
+                at.setdefault(word, []).append(f"S{i + 1}")
+    if not at:
+        return "R? not seen (taken as not restrained)"
+    which = "; ".join(f"{word} at {', '.join(names)}" for word, names in at.items())
+    return f"R? not seen, taken as not restrained: {which}"
+
+
+def _top_edge_words(sk: Sketch) -> str:
+    """How the top edge is drawn: purlins or decking, solid when fastened, hollow or dashed when taken as not."""
+    taken = {
+        True: "fastened (top-edge brace)",
+        False: "not fastened (not a brace)",
+        None: "fastening not recorded: taken as not fastened (not a brace)",
+    }[sk.top_fastened]
+    if sk.braces_top_x:
+        return f"{'■' if sk.top_fastened is True else '□'} P purlin, {taken}"
     if sk.decking:
-        legend2 += " · thick top line: decking fastened"
-    d.add(String(0, 11, legend, fontName=FONT, fontSize=fs))
-    d.add(String(0, 1, legend2, fontName=FONT, fontSize=fs))
+        return f"{'thick' if sk.top_fastened is True else 'dashed'} top line: decking, {taken}"
+    return ""
+
+
+def _wrapped(entries: list[str], width_pt: float, fs: int) -> list[str]:
+    """Entries joined by ' · ' into lines no wider than ``width_pt``.
+
+    A line breaks between entries; an entry wider than a line breaks between its words.
+    """
+    lines: list[str] = []
+    for entry in entries:
+        joined = f"{lines[-1]} · {entry}" if lines else entry
+        if lines and stringWidth(joined, FONT, fs) <= width_pt:
+            lines[-1] = joined
+            continue
+        lines.append("")
+        for word in entry.split(" "):
+            longer = f"{lines[-1]} {word}" if lines[-1] else word
+            if lines[-1] and stringWidth(longer, FONT, fs) > width_pt:
+                lines.append(word)
+            else:
+                lines[-1] = longer
+    return lines
