@@ -6,10 +6,11 @@ import re
 from collections.abc import Callable
 from dataclasses import dataclass, field, replace
 
+from core.kinds import FindingCode
 from core.models import Beam, BottomBracing, Restraint, TopBracing
 from core.records import Deficiency, Site, Visit
 from core.remedies import remedies
-from core.results import CheckLine, Recheck, check_lines
+from core.results import BearingCheck, CheckLine, Recheck, check_lines
 from reports.tablerows import RowUsed
 
 CAUTIONS = (
@@ -322,6 +323,30 @@ def _range(start: float, stop: float, step: float) -> list[float]:
         out.append(x)
         x += step
     return out
+
+
+def uplift_row(b: BearingCheck, result: Recheck, case_number: dict[str, int]) -> tuple[str, str, str, str, str]:
+    """The recheck sheet's row for a bearing's factored uplift: check, demand, capacity, utilisation, clause.
+
+    No hold-down is recorded on a beam, so none is taken and the row fails in words. The uplift comes from
+    gravity line loads alone (0.9D where dead load counteracts), so the row says a hold-down's real demand,
+    with wind and earthquake, is the engineer of record's to check. The clause is the uplift finding's.
+    """
+    combination = b.uplift_combination or ""
+    number = case_number.get(combination)
+    case = f"load case {number}" if number is not None else combination
+    clause = next(
+        (f.clause for f in result.findings or [] if f.code is FindingCode.uplift_at_support),
+        "",
+    )
+    return (
+        f"uplift, support {b.support}",
+        f"factored uplift {b.uplift_kn:.1f} kN" + (f" ({case})" if case else ""),
+        "hold-down not recorded: not checked. Gravity loads only (the recheck does not include wind or "
+        "earthquake): the engineer of record must check the hold-down.",
+        "needs a hold-down now: the dead load alone lifts it" if b.lifts_now else "needs a hold-down",
+        clause,
+    )
 
 
 def key_numbers(result: Recheck) -> list[tuple[str, str]]:

@@ -30,7 +30,18 @@ from core.kinds import Outcome
 from core.models import Beam
 from core.results import BendingRegion, Recheck, check_lines, check_trace
 from reports import stamp
-from reports.content import Item, Notice, Photo, by_member, due_words, member_sketch, one_line, ordered, typeset
+from reports.content import (
+    Item,
+    Notice,
+    Photo,
+    by_member,
+    due_words,
+    member_sketch,
+    one_line,
+    ordered,
+    typeset,
+    uplift_row,
+)
 from reports.inputs import input_rows
 from reports.loadcases import case_section, reaction_section
 from reports.photos import CELL_W_MM, photo_flowable, wide_box
@@ -812,13 +823,13 @@ def render_recheck_sheet(beam: Beam, result: Recheck, site_name: str = "", note:
     story += _load_cases(cases, result, st)
     case_number = {row.combination: row.number for row in cases.cases}
     lines = check_lines(result)  # the same check lines as the app, the text output and the notice
-    story.append(Paragraph("Checks", st["h2"]))
     rows = [[Paragraph(h, st["bold"]) for h in ("Check", "Demand", "Capacity", "Utilisation", "Clause")]]
+    words = ParagraphStyle("words", parent=st["small"], wordWrap=None)  # narrow cells break between words only
+    rows += [[Paragraph(esc(x), words) for x in row] for row in _check_rows(result, case_number)]
+    grid = _grid(rows, [42 * mm, 26 * mm, 52 * mm, 26 * mm, 40 * mm], shade_first_col=False, repeat=1)
+    # the heading and header row stay with the first checks (they sat alone at a page foot); a split repeats the header
+    story.append(KeepTogether([Paragraph("Checks", st["h2"]), grid]))
     regions = {f"bending{i}": r for i, r in enumerate(result.bending)}  # by CheckLine.key
-    for c in lines:
-        util = _utilisation_words(c.utilisation, regions.get(c.key))
-        rows.append([Paragraph(esc(x), st["small"]) for x in (c.name, c.demand, c.capacity, util, c.clause)])
-    story.append(_grid(rows, [42 * mm, 26 * mm, 52 * mm, 26 * mm, 40 * mm], shade_first_col=False))
     for c in lines:
         region = regions.get(c.key)
         head = c.name if region is None else f"{c.name}: {_outcome_words(region)}"
@@ -865,6 +876,24 @@ def render_recheck_sheet(beam: Beam, result: Recheck, site_name: str = "", note:
 
     doc.build(story, canvasmaker=_Canvas)
     return buf.getvalue()
+
+
+def _check_rows(result: Recheck, case_number: dict[str, int]) -> list[tuple[str, str, str, str, str]]:
+    """The sheet's checks table: every check line, and after a bearing that lifts, its uplift row.
+
+    The check lines are those the app and the notice print (``check_lines``); the uplift row is the sheet's
+    own (``content.uplift_row``), so a beam that fails only through uplift shows a failing row here.
+    """
+    regions = {f"bending{i}": r for i, r in enumerate(result.bending)}  # by CheckLine.key
+    bearings = {f"bearing{j}": b for j, b in enumerate(result.bearing)}
+    rows = []
+    for c in check_lines(result):
+        util = _utilisation_words(c.utilisation, regions.get(c.key))
+        rows.append((c.name, c.demand, c.capacity, util, c.clause))
+        bearing = bearings.get(c.key)
+        if bearing is not None and bearing.uplift_kn is not None:
+            rows.append(uplift_row(bearing, result, case_number))
+    return rows
 
 
 def _status_reason(result: Recheck) -> str:

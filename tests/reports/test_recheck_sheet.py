@@ -3,6 +3,7 @@
 import io
 import re
 
+import pytest
 from pypdf import PdfReader
 
 from core.recheck import recheck
@@ -191,3 +192,88 @@ def test_every_input_field_has_a_row():
     assert set(covered) == set(Beam.model_fields)
     assert {v for k, v in covered.items() if k != "top_stamp"} <= shown
     assert "Top stamp" in {label for label, _ in input_rows(glulam())}
+
+
+def _checks_table(text: str) -> str:
+    """The sheet's checks table, from its header to the first check's own section."""
+    start = text.index("Checks Check Demand Capacity Utilisation Clause")
+    return text[start : text.index("rests on", start)]
+
+
+def test_uplift_has_its_own_failing_row_in_the_checks_table():
+    """A beam deficient only through uplift showed no failing row: the uplift is a row of its own.
+
+    6.0 m span with a 2.8 m overhang, the bottom edge braced: every check passes, but with the overhang
+    carrying 1.25D + 1.5S and the span 0.9D (NBC 2020 Table 4.1.3.2.-A case 3, 0.9D where dead load
+    relieves) the left support lifts. By statics (moments about support 2), R1 = w_s L / 2 - w_o a^2 / (2 L);
+    the same from pycba. Dead load includes the glulam self-weight at 4.9 kN/m3 (common practice, from memory).
+    """
+    from core.kinds import FindingCode
+
+    beam = glulam(
+        spans_mm=[6000],
+        overhang_right_mm=2800,
+        bottom_edge={"braced_by": "braces", "spacing_mm": 1200},
+        loads={"dead_kn_m": 1.0, "live_kn_m": 0.0, "snow_kn_m": 4.0},
+    )
+    r = recheck(beam)
+    assert r.status.value == "deficient"
+    assert all(c.utilisation is not None and c.utilisation <= 1.0 for c in check_lines(r))  # no check fails
+    assert {f.code for f in r.findings if f.priority.value != "observation"} == {FindingCode.uplift_at_support}
+    dead = 1.0 + 4.9 * 0.130 * 0.456
+    w_span, w_overhang = 0.9 * dead, 1.25 * dead + 1.5 * 4.0
+    r1 = w_span * 6.0 / 2 - w_overhang * 2.8**2 / (2 * 6.0)
+    assert float(_pycba([6.0], 0.0, 2.8, [w_span, w_overhang]).R[0]) == pytest.approx(r1, rel=1e-6)
+    assert r1 < 0
+    pdf = render_recheck_sheet(beam, r)
+    table = _checks_table(flat(text_of(pdf)))
+    # right after its bearing's row, before the next support's
+    found = re.search(
+        r"bearing, support 1 Qf \S+ kN Qr \S+ kN \S+ CSA O86-19 7\.5\.9 \(memory\) "
+        r"uplift, support 1 factored uplift (\d+\.\d) kN \(load case (\d+)\) (.*?) bearing, support 2",
+        table,
+    )
+    assert found, table
+    assert found.group(1) == f"{-r1:.1f}"  # 1.5 kN
+    row = found.group(3)
+    assert "hold-down not recorded: not checked" in row
+    assert "Gravity loads only (the recheck does not include wind or earthquake)" in row
+    assert "the engineer of record must check the hold-down" in row
+    assert "needs a hold-down" in row
+    assert "now" not in row  # the dead load alone does not lift it: R1 under D alone is positive by statics
+    assert dead * 6.0 / 2 - dead * 2.8**2 / (2 * 6.0) > 0
+    assert "NBC 4.1.3.2" in row  # the uplift finding's clause
+    # the load case it names is the one that lifts support 1 the most, in the sheet's own case table
+    case = re.search(
+        rf"\b{found.group(2)} (1\.25D \+ 1\.5S \(1\.25D and L/S on overhang right; 0\.9D on span 1\))",
+        flat(text_of(pdf)),
+    )
+    assert case, found.group(2)
+    save_pngs(pdf, "recheck-sheet-uplift")
+    # a beam that does not lift has no such row
+    assert "uplift, support" not in _checks_table(flat(text_of(render_recheck_sheet(glulam(), recheck(glulam())))))
+
+
+def test_an_uplift_the_dead_load_alone_causes_says_a_hold_down_is_needed_now():
+    """Two spans, 7.2 m and 2.4 m: the short end span's support lifts under dead load alone.
+
+    Figures from pycba 1.0.2: the least reaction at support 3 is under 1.25D + 1.5S on span 1 and 0.9D on
+    span 2 (NBC 2020 Table 4.1.3.2.-A case 3); under the specified dead load alone it is already negative.
+    """
+    beam = glulam(
+        spans_mm=[7200, 2400],
+        bearings=[{"lateral": True, "rotation": True, "length_mm": 140}] * 3,
+        bottom_edge={"braced_by": "braces", "spacing_mm": 1200},
+        loads={"dead_kn_m": 1.0, "live_kn_m": 0.0, "snow_kn_m": 4.0},
+    )
+    dead = 1.0 + 4.9 * 0.130 * 0.456
+    assert float(_pycba([7.2, 2.4], 0.0, 0.0, [dead, dead]).R[2]) < 0  # lifts under D alone
+    lifted = float(_pycba([7.2, 2.4], 0.0, 0.0, [1.25 * dead + 1.5 * 4.0, 0.9 * dead]).R[2])
+    table = _checks_table(flat(text_of(render_recheck_sheet(beam, recheck(beam)))))
+    found = re.search(
+        r"uplift, support 3 factored uplift (\d+\.\d) kN .*? needs a hold-down now: the dead load alone lifts it", table
+    )
+    assert found, table
+    assert float(found.group(1)) == pytest.approx(-lifted, abs=0.05)
+    assert "uplift, support 1" not in table
+    assert "uplift, support 2" not in table
