@@ -231,6 +231,27 @@ def test_deficiency_page_reruns_the_recheck_from_the_beam_record_and_the_site_ba
     assert f"Governing check</th><td>{top[0]}, utilisation {float(top[1]):.2f}" in page  # the largest one governs
 
 
+def test_deficiency_page_traces_are_typeset_as_on_the_recheck_sheet(office):
+    """The page's trace cells print units and formulas as the sheet does (reports.content.typeset).
+
+    CSA O86-19 7.5.6.4.3 writes the slenderness ratio CB = sqrt(Le d / b^2) with a radical and a square, and
+    areas in mm² (SI as written in the standard); the page printed the recheck's ASCII forms (sqrt(, b^2, mm2, x).
+    """
+    import html
+
+    _served, client, _site, d, _notice, _tablet = office
+    _login(client)
+    page = client.get(f"/deficiency/{d.id}").text
+    traces = [html.unescape(t) for t in re.findall(r'<pre class="trace">(.*?)</pre>', page, re.S)]
+    assert len(traces) >= 4  # bending, shear, two bearings, deflection
+    text = "\n".join(traces)
+    assert "√(Le d / b²)" in text  # CB, CSA O86-19 7.5.6.4.3
+    assert "mm²" in text  # bearing area
+    assert "4.9 kN/m³ × b × d" in text  # glulam self-weight (common practice, from memory)
+    for ascii_form in ("mm2", "m3", "b^2", "sqrt(", " x "):
+        assert ascii_form not in text, ascii_form
+
+
 def test_deficiency_page_links_the_beams_recheck_sheet_run_again_here(office):
     """The sheet's recheck is the page's: the same Mf (wL^2/8, handbook simple-span moment), from the same loads."""
     import html

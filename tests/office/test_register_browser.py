@@ -77,6 +77,13 @@ def test_log_in_open_a_site_and_an_item_download_a_notice(office, browser):  # n
     browser.execute_script("arguments[0].scrollIntoView();", recheck)
     assert "Governing check" in recheck.text
     assert "bending, span 1 (positive moment)" in recheck.text
+    # the trace as the sheet prints it (CSA O86-19 7.5.6.4.3 writes CB with a radical and b squared)
+    checks = browser.find_element(By.ID, "recheck-checks")
+    browser.execute_script("arguments[0].scrollIntoView();", checks)
+    shown = checks.text  # what is on screen: the governing check's trace is open
+    assert "CB = √(Le d / b²)" in shown
+    assert "sqrt(" not in shown
+    assert "b^2" not in shown
     _shot(browser, "4b-item-recheck")
     # the same item once its beam lost a bearing restraint (CSA O86-19 7.5.6.3.1): no governing number
     from mobile.hub_client import sync
