@@ -113,10 +113,57 @@ def restraint_findings(beam: Beam) -> list[Finding]:
     return out
 
 
-def bending_findings(beam: Beam, bending: list[BendingRegion]) -> list[Finding]:
-    """Overstress, slenderness over the limit and unbraced compression edges, per region."""
+def fails_in_bending(r: BendingRegion) -> bool:
+    """True when a region fails in bending: over its resistance, not permitted, or failing even if restrained."""
+    if r.outcome is Outcome.not_permitted:
+        return True
+    if r.outcome is Outcome.not_established:
+        return r.utilisation_if_restrained is None or r.utilisation_if_restrained > 1.0
+    return r.outcome is Outcome.overstress
+
+
+FASTENING, STAMP = "fastening", "stamp"  # the keys of ``unseen_cases``
+
+
+def unseen_cases(beam: Beam, member: Member, r: BendingRegion) -> dict[str, str]:
+    """The unfavourable cases taken for what was not seen that a region's bending answer rests on, in words.
+
+    Keyed FASTENING and STAMP.
+    Purlin or decking fastening not recorded (taken as not fastened) matters only where the top edge is in
+    compression (positive moment); the TOP stamp of an unbalanced layup not seen (the weaker face taken
+    in tension) sets fb wherever the resistance is established or bounded (not for slenderness alone).
+    """
+    out = {}
+    if r.sign is MomentSign.positive and beam.top_edge.fastened_assumed:
+        out[FASTENING] = f"the {beam.top_edge.braced_by.value} taken as not fastened to the top edge"
+    if r.outcome is not Outcome.not_permitted and _stamp_assumed(beam, member):
+        out[STAMP] = "the weaker layup face taken in tension (TOP stamp not seen)"
+    return out
+
+
+def _stamp_assumed(beam: Beam, member: Member) -> bool:
+    """True when an unbalanced glulam layup's TOP stamp was not seen (the weaker face is taken in tension)."""
+    return beam.material is Material.glulam and not member.balanced and beam.top_stamp is TopStamp.not_visible
+
+
+def _rests_on(cases: dict[str, str]) -> str:
+    """The sentence a failing finding carries when its answer rests on cases taken for what was not seen."""
+    if not cases:
+        return ""
+    return (
+        f" This rests on cases taken for what was not seen: {' and '.join(cases.values())}; confirm "
+        f"{'them' if len(cases) > 1 else 'it'} before loading (findings below)."
+    )
+
+
+def bending_findings(beam: Beam, member: Member, bending: list[BendingRegion]) -> list[Finding]:
+    """Overstress, slenderness over the limit and unbraced compression edges, per region.
+
+    A failing region whose answer rests on an unfavourable case taken for what was not seen names it.
+    """
     out = []
     for r in bending:
+        rests = _rests_on(unseen_cases(beam, member, r)) if fails_in_bending(r) else ""
         if r.outcome is Outcome.not_permitted:
             out.append(
                 _finding(
@@ -125,7 +172,7 @@ def bending_findings(beam: Beam, bending: list[BendingRegion]) -> list[Finding]:
                     region=r.region,
                     message=(
                         f"{beam.mark}, {r.region}: slenderness CB = {r.cb:.1f} exceeds 50 with the "
-                        f"{r.compression_edge}; the standard does not permit this member as installed."
+                        f"{r.compression_edge}; the standard does not permit this member as installed.{rests}"
                     ),
                     action=(
                         "Make safe now: keep loads off and have lateral bracing added to the compression edge "
@@ -148,7 +195,7 @@ def bending_findings(beam: Beam, bending: list[BendingRegion]) -> list[Finding]:
                     region=r.region,
                     message=(
                         f"{beam.mark}, {r.region}: factored moment {r.mf_knm:.1f} kN·m exceeds the "
-                        f"resistance {r.mr_knm:.1f} kN·m (utilisation {r.utilisation:.2f}, {r.combination})."
+                        f"resistance {r.mr_knm:.1f} kN·m (utilisation {r.utilisation:.2f}, {r.combination}).{rests}"
                     ),
                     action=action,
                     clause=r.clause,
@@ -169,7 +216,7 @@ def bending_findings(beam: Beam, bending: list[BendingRegion]) -> list[Finding]:
                     region=r.region,
                     message=(
                         f"{beam.mark}, {r.region}: {bound}. The real capacity is lower still, because the bearing "
-                        "restraint is missing."
+                        f"restraint is missing.{rests}"
                     ),
                     action=(
                         "Make safe now: keep loads off this beam and tell the site superintendent today; refer to the "
@@ -204,20 +251,28 @@ def bending_findings(beam: Beam, bending: list[BendingRegion]) -> list[Finding]:
     return out
 
 
-def assumed_findings(beam: Beam) -> list[Finding]:
-    """Inputs that change the answer and were not recorded: the unfavourable case was taken (say so)."""
+RESTS_ON_IT = "Confirm before loading: the bending failure reported for this beam rests on this assumption. "
+
+
+def assumed_findings(beam: Beam, failure_rests_on_fastening: bool = False) -> list[Finding]:
+    """Inputs that change the answer and were not recorded: the unfavourable case was taken (say so).
+
+    failure_rests_on_fastening: a failing bending region rests on the purlins or decking taken as not
+    fastened, so confirming them is as urgent as loading (before loading, not an observation).
+    """
     out = []
     if beam.top_edge.fastened_assumed:
+        record = "Record whether the purlins or decking are fastened; the recheck may then improve."
         out.append(
             _finding(
                 code=FindingCode.input_assumed,
-                priority=Priority.observation,
+                priority=Priority.before_loading if failure_rests_on_fastening else Priority.observation,
                 region="top edge",
                 message=(
                     f"{beam.mark}: whether the {beam.top_edge.braced_by.value} are fastened to the top edge was not "
                     "recorded; the recheck assumed they are not (top edge unbraced between bearings)."
                 ),
-                action="Record whether the purlins or decking are fastened; the recheck may then improve.",
+                action=(RESTS_ON_IT + record) if failure_rests_on_fastening else record,
                 clause="CSA O86-19 7.5.6.4.1",
             )
         )
@@ -327,8 +382,12 @@ def _further_load(beam: Beam) -> str:
     return "any further load (roofing, flooring, stored material or snow)"
 
 
-def layup_findings(beam: Beam, member: Member) -> list[Finding]:
-    """Unbalanced glulam installed with the TOP stamp down, or orientation not confirmed."""
+def layup_findings(beam: Beam, member: Member, failure_rests_on_stamp: bool = False) -> list[Finding]:
+    """Unbalanced glulam installed with the TOP stamp down, or orientation not confirmed.
+
+    failure_rests_on_stamp: a failing bending region rests on the weaker face taken in tension, so
+    confirming the stamp comes before loading, not at the next review.
+    """
     if beam.material is not Material.glulam or member.balanced or beam.top_stamp is TopStamp.up:
         return []
     if beam.top_stamp is TopStamp.down:
@@ -344,15 +403,16 @@ def layup_findings(beam: Beam, member: Member) -> list[Finding]:
                 clause="CSA O86-19 Table 7.3 note",
             )
         ]
+    confirm = "Confirm the TOP stamp orientation (photo) at the next review."
     return [
         _finding(
             code=FindingCode.layup_inverted,
-            priority=Priority.before_next_review,
+            priority=Priority.before_loading if failure_rests_on_stamp else Priority.before_next_review,
             message=(
                 f"{beam.mark}: TOP stamp of the unbalanced layup {beam.grade} not seen or not recorded; the "
                 "recheck assumed the weaker face in tension."
             ),
-            action="Confirm the TOP stamp orientation (photo) at the next review.",
+            action=(RESTS_ON_IT + "Confirm the TOP stamp orientation (photo).") if failure_rests_on_stamp else confirm,
             clause="CSA O86-19 Table 7.3 note",
         )
     ]
@@ -481,16 +541,21 @@ def build_findings(
     bearing: list[BearingCheck],
     deflection: DeflectionCheck,
 ) -> list[Finding]:
-    """Every finding of a recheck, most urgent first."""
+    """Every finding of a recheck, most urgent first.
+
+    An unfavourable case taken for what was not seen that a bending failure rests on is ranked before
+    loading, and the failure names it (``unseen_cases``).
+    """
+    rests = {c for r in bending if fails_in_bending(r) for c in unseen_cases(beam, member, r)}
     found = (
         restraint_findings(beam)
-        + bending_findings(beam, bending)
+        + bending_findings(beam, member, bending)
         + top_edge_findings(beam)
-        + layup_findings(beam, member)
+        + layup_findings(beam, member, STAMP in rests)
         + check_findings(beam, shear, bearing, deflection)
         + uplift_findings(beam, bearing)
         + size_findings(beam)
-        + assumed_findings(beam)
+        + assumed_findings(beam, FASTENING in rests)
         + option_findings(beam)
     )
     return sorted(found, key=lambda f: PRIORITY_ORDER[f.priority])  # a StrEnum member finds its value's entry

@@ -182,3 +182,69 @@ def test_a_rated_member_is_governed_by_its_largest_utilisation_the_last_of_equal
     assert util == max(utils) == r.governing_utilisation
     assert r.bearing[0].utilisation == r.bearing[1].utilisation  # a symmetric simple span
     assert index == len(r.bending) + 2  # the right-hand bearing
+
+
+def _nine_metre(**over):
+    """A 9 m roof beam whose purlin fastening and TOP stamp were not seen (invented scenario)."""
+    data = {
+        "spans_mm": [9000],
+        "top_edge": {"braced_by": "purlins", "spacing_mm": 2400},  # fastened: not recorded
+        "top_stamp": "not_visible",
+    }
+    data.update(over)
+    return glulam(**data)
+
+
+def test_a_failure_that_rests_on_what_was_not_seen_names_it_and_ranks_it_before_loading():
+    """Where a bending failure rests on unfavourable cases taken for what was not seen, confirming them is as urgent.
+
+    Common practice: a finding that a member fails is only as good as its inputs, so inputs taken as the
+    unfavourable case (purlins not fastened, CSA O86-19 7.5.6.4; the weaker face of an unbalanced layup in
+    tension, CSA O86-19 Table 7.3 note) are confirmed before loading, not left to a later review.
+    """
+    for bearings in (None, [{"lateral": False, "rotation": True, "length_mm": 140}] * 2):
+        r = recheck(_nine_metre(**({} if bearings is None else {"bearings": bearings})))
+        failing = [f for f in r.findings if f.code is FindingCode.bending_overstress]
+        assert len(failing) == 1
+        assert failing[0].priority is Priority.immediate
+        assert "purlins taken as not fastened" in failing[0].message
+        assert "weaker layup face taken in tension (TOP stamp not seen)" in failing[0].message
+        for code in (FindingCode.input_assumed, FindingCode.layup_inverted):
+            (f,) = _findings(r, code)
+            assert f.priority is Priority.before_loading, code
+            assert f.action.startswith("Confirm before loading"), code
+        # most urgent first: the failure above the assumptions it rests on
+        assert r.findings.index(failing[0]) < r.findings.index(_findings(r, FindingCode.input_assumed)[0])
+
+
+def test_the_same_unknowns_on_a_beam_that_passes_stay_low():
+    """A 7.2 m beam with the same unknowns passes even taking them unfavourably: they stay as they were ranked."""
+    r = recheck(_nine_metre(spans_mm=[7200]))
+    assert all(f.code is not FindingCode.bending_overstress for f in r.findings)
+    (assumed,) = _findings(r, FindingCode.input_assumed)
+    (layup,) = _findings(r, FindingCode.layup_inverted)
+    assert assumed.priority is Priority.observation
+    assert layup.priority is Priority.before_next_review
+    assert "Confirm before loading" not in assumed.action + layup.action
+
+
+def test_a_negative_moment_failure_does_not_rest_on_top_edge_fastening():
+    """A hogging failure neither names the top edge's fastening nor raises it.
+
+    Over an interior support the bottom edge is in compression, so purlins on the top edge do not brace it
+    (common practice, CSA O86-19 7.5.6.4).
+    """
+    r = recheck(
+        _nine_metre(
+            spans_mm=[6000, 6000],
+            bearings=[{"lateral": True, "rotation": True, "length_mm": 140}] * 3,
+            top_stamp="up",
+            loads={"dead_kn_m": 6.0, "live_kn_m": 0.0, "snow_kn_m": 12.0},
+        )
+    )
+    signs = {b.region: b.sign.value for b in r.bending}
+    failing = [f for f in r.findings if f.code is FindingCode.bending_overstress]
+    assert [signs[f.region] for f in failing] == ["negative"]  # only the hogging region over support 2 fails
+    assert "not fastened" not in failing[0].message
+    (assumed,) = _findings(r, FindingCode.input_assumed)
+    assert assumed.priority is Priority.observation
