@@ -4,13 +4,13 @@ from __future__ import annotations
 
 from core.analysis import BeamModel
 from core.assembled import assembled
-from core.clauses.bearing import bearing_qr, sawn_bearing_kzcp
+from core.clauses.bearing import PHI_BEARING, bearing_qr, sawn_bearing_kzcp
 from core.clauses.factors import factored_strength
 from core.kinds import TraceStatus
 from core.member import Member
 from core.models import Beam, Bearing, Material
 from core.recheck.cases import LoadCase, carries_snow
-from core.recheck.trace import KN_PER_N, Lines, add_kd, case_label, lines_for
+from core.recheck.trace import KN_PER_N, Lines, add_kd, case_label, lines_for, strength_line
 from core.results import BearingCheck, RowUsed
 
 
@@ -28,12 +28,40 @@ def _kzcp_line(trace: Lines, beam: Beam, kzcp: float) -> None:
     )
 
 
-def _trace(trace: Lines, beam: Beam, bearing: Bearing, area: float, kzcp: float, clause: str, case: LoadCase) -> None:
-    """The lines of a bearing check's trace: Ab, KB, KZcp and KD."""
+def _trace(
+    trace: Lines,
+    beam: Beam,
+    member: Member,
+    bearing: Bearing,
+    area: float,
+    kzcp: float,
+    clause: str,
+    case: LoadCase,
+    qr: float,
+) -> None:
+    """The lines of a bearing check's trace: Ab, KB, KZcp, KD, fcp, Fcp and the Qr formula."""
     trace.add("Ab", area, "", f"b x bearing length {bearing.length_mm:g} mm", TraceStatus.input, "mm2")
     trace.add("KB", 1.0, clause, "end bearing / conservative", TraceStatus.memory)
     _kzcp_line(trace, beam, kzcp)
     add_kd(trace, case)
+    strength_line(trace, member, "fcp", member.fcp_mpa)
+    fcp = factored_strength(member.fcp_mpa, case.kd, member.kscp, member.kt)
+    trace.add(
+        "Fcp",
+        round(fcp, 3),
+        clause,
+        f"Fcp = fcp (KD KScp KT) = {member.fcp_mpa:g} x {case.kd:g} x {member.kscp:g} x {member.kt:g}",
+        TraceStatus.formula,
+        "MPa",
+    )
+    trace.add(
+        "Qr",
+        round(qr * KN_PER_N, 2),
+        clause,
+        f"Qr = phi Fcp Ab KB KZcp, phi = {PHI_BEARING:g}",
+        TraceStatus.formula,
+        "kN",
+    )
 
 
 def _one_bearing(
@@ -70,7 +98,7 @@ def _one_bearing(
     clause = "CSA O86-19 7.5.9 (memory)" if beam.material is Material.glulam else "CSA O86-19 6.5.6 (memory)"
     trace = lines_for(traces, rows)
     if trace is not None:
-        _trace(trace, beam, bearing, area, kzcp, clause, case)
+        _trace(trace, beam, member, bearing, area, kzcp, clause, case, qr)
     return assembled(
         BearingCheck,
         {

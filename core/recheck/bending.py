@@ -161,7 +161,7 @@ def bending_check(
         trace.add(
             "Mr",
             round(mr * KNM_PER_NMM, 2),
-            "CSA O86-19 6.5.3.1 (memory)" if sawn else "CSA O86-19 7.5.6.5.1",
+            _MR_CLAUSE_SAWN if sawn else "CSA O86-19 7.5.6.5.1",
             "phi Fb S KZb KL, phi = 0.9" if sawn else _GLULAM_MR,
             "formula",
             "kN·m",
@@ -169,6 +169,7 @@ def bending_check(
     return out
 
 
+_MR_CLAUSE_SAWN = "CSA O86-19 6.5.3.1 (memory)"  # the sawn Mr line's clause (reference o86.md section 2)
 _GLULAM_MR = "lesser of phi Fb S KX KZbg and phi Fb S KX KL, phi = 0.9, KX = 1"  # the glulam Mr line's source
 
 
@@ -228,9 +229,9 @@ def _upper_bound(
         trace,
         "Mr (if restrained)",
         round(mr * KNM_PER_NMM, 2),
-        "CSA O86-19 7.5.6.3.1, 7.5.6.4",
+        _MR_CLAUSE_SAWN if beam.material is Material.sawn else "CSA O86-19 7.5.6.5.1",
         f"upper bound: KL = {kl:.4f} with Lu = {scratch['lu_mm'] or 0:.0f} mm as if every bearing were restrained; "
-        "the real capacity is lower",
+        "the real capacity is lower (CSA O86-19 7.5.6.3.1 not met)",
         "formula",
         "kN·m",
     )

@@ -35,6 +35,7 @@ def limit_clause(row: dict[str, str]) -> str:
     return _LIMIT_CLAUSE.get(row["use"], USE_LIMIT_CLAUSE)
 
 
+LONG_TERM_CASE = "D (long-term, O86-19 5.4.3)"  # the long-term check's case, as the result names it
 Worst = tuple[float, float, float, str, str, dict[str, str]]  # utilisation, |delta|, limit, case, element, row
 
 
@@ -75,7 +76,7 @@ def _checks(use_row: dict[str, str], dead: float) -> list[tuple[str, dict[str, s
     total, long_term = _dead_load_rows(tables.generation(), EDITION)
     checks = [("L + S", use_row, 0.0, 1.0), ("D + L + S", total, dead, 1.0)]
     if long_term is not None:
-        checks.append(("D (long-term, O86-19 5.4.3)", long_term, dead, 0.0))
+        checks.append((LONG_TERM_CASE, long_term, dead, 0.0))
     return checks
 
 
@@ -89,9 +90,17 @@ def _dead_load_rows(generation: int, edition: str) -> tuple[dict[str, str], dict
 
 
 def _worst(
-    model: BeamModel, checks: list[tuple[str, dict[str, str], float, float]], variable: float, ei: float
+    model: BeamModel,
+    checks: list[tuple[str, dict[str, str], float, float]],
+    variable: float,
+    ei: float,
+    each: dict[str, Worst] | None = None,
 ) -> Worst | None:
-    """The largest deflection utilisation over every pattern, check and element."""
+    """The largest deflection utilisation over every pattern, check and element.
+
+    each: when given, it receives the largest of each check (by its label) too, and no element is skipped
+    (the skip only leaves out what cannot beat the largest so far, so the largest is the same either way).
+    """
     best: Worst | None = None
     spans = _spans(model)
     seen: set[tuple[str, tuple[float, ...]]] = set()
@@ -109,13 +118,17 @@ def _worst(
                 ratio = float(row["ratio"])
                 limits = limits_of[label] = [deflection_limit_mm(span, ratio) for span in spans]
             # an element whose deflection is surely under (1 - 1e-9) x the worst so far cannot replace it
-            below = None if best is None else [best[0] * limit * (1 - 1e-9) for limit in limits]
+            below = None if best is None or each is not None else [best[0] * limit * (1 - 1e-9) for limit in limits]
             for e, delta in enumerate(model.max_abs_deflections_mm(w, ei, below)):
                 if delta is None:
                     continue
                 util = delta / limits[e]
                 if best is None or util > best[0]:
                     best = (util, delta, limits[e], label, model.elements[e].name, row)
+                if each is not None:
+                    mine = each.get(label)
+                    if mine is None or util > mine[0]:
+                        each[label] = (util, delta, limits[e], label, model.elements[e].name, row)
     return best
 
 
@@ -136,15 +149,20 @@ def _strictest_limit(model: BeamModel, checks: list[tuple[str, dict[str, str], f
     return 0.0, 0.0, limit, "no load", element, row
 
 
-def _trace(trace: Lines, beam: Beam, es: float, row: dict[str, str], use_row: dict[str, str]) -> None:
+_OVERHANG_SPAN = "an overhang's limit divides twice its length (common practice)"
+
+
+def _trace(trace: Lines, beam: Beam, model: BeamModel, es: float, row: dict[str, str], use_row: dict[str, str]) -> None:
     """The lines of the deflection check's trace: ES, the limit, the use taken when not recorded, the edition."""
     long_term = long_term_deformation_rule(EDITION)
     trace.add("ES", es, "CSA O86-19 5.4.1", "E KSE KT (mean E)", TraceStatus.memory, "MPa")
+    overhang = any(el.kind is ElementKind.overhang for el in model.elements)
     trace.add(
         "limit",
         f"L/{row['ratio']}",
         limit_clause(row),
-        row["description"] if row["use"] in _LIMIT_CLAUSE else f"{row['description']}: {_USE_LIMIT_BASIS}",
+        (row["description"] if row["use"] in _LIMIT_CLAUSE else f"{row['description']}: {_USE_LIMIT_BASIS}")
+        + (f"; {_OVERHANG_SPAN}" if overhang else ""),
         TraceStatus(row["status"]),
     )
     if beam.use is None:
@@ -166,6 +184,32 @@ def _trace(trace: Lines, beam: Beam, es: float, row: dict[str, str], use_row: di
     )
 
 
+def _each_check_lines(
+    trace: Lines, checks: list[tuple[str, dict[str, str], float, float]], each: dict[str, Worst]
+) -> None:
+    """One line per deflection check (L + S, D + L + S, long-term D): its largest deflection and its limit.
+
+    The governing check is the largest utilisation of these, so a check that does not govern (the
+    long-term deformation of 5.4.3, say) still shows its value.
+    """
+    for label, row, _, _ in checks:
+        symbol = "deflection (D, long-term)" if label == LONG_TERM_CASE else f"deflection ({label})"
+        worst = each.get(label)
+        if worst is None:
+            trace.add(symbol, 0.0, limit_clause(row), "no load in this check", TraceStatus.formula, "mm")
+            continue
+        util, delta, limit, _, element, _ = worst
+        trace.add(
+            symbol,
+            round(delta, 2),
+            limit_clause(row),
+            f"largest over the load patterns, {element}: limit {limit:.1f} mm (L/{row['ratio']}), "
+            f"utilisation {util:.3f}",
+            TraceStatus.formula,
+            "mm",
+        )
+
+
 def deflection_check(
     beam: Beam, member: Member, model: BeamModel, *, traces: bool = True, rows: set[RowUsed] | None = None
 ) -> DeflectionCheck:
@@ -179,11 +223,14 @@ def deflection_check(
     dead = beam.loads.dead_kn_m + member.self_weight_n_mm
     use_row = _use_row(beam)
     checks = _checks(use_row, dead)
-    best = _worst(model, checks, beam.loads.live_kn_m + beam.loads.snow_kn_m, es * member.inertia_mm4)
-    util, delta, limit, label, element, row = best if best is not None else _strictest_limit(model, checks)
     trace = lines_for(traces, rows)
+    each: dict[str, Worst] | None = {} if trace is not None and trace.rows is None else None
+    best = _worst(model, checks, beam.loads.live_kn_m + beam.loads.snow_kn_m, es * member.inertia_mm4, each)
+    util, delta, limit, label, element, row = best if best is not None else _strictest_limit(model, checks)
     if trace is not None:
-        _trace(trace, beam, es, row, use_row)
+        _trace(trace, beam, model, es, row, use_row)
+        if each is not None:  # formula lines only: they name no table row
+            _each_check_lines(trace, checks, each)
     return assembled(
         DeflectionCheck,
         {

@@ -7,6 +7,7 @@ from core.assembled import assembled
 from core.clauses.factors import factored_strength
 from core.clauses.shear import (
     GLULAM_SIMPLE_SHEAR_MAX_VOLUME_M3,
+    PHI_SHEAR,
     glulam_volume_m3,
     glulam_vr,
     glulam_wr,
@@ -16,7 +17,7 @@ from core.kinds import TraceStatus
 from core.member import Member
 from core.models import Beam, Material
 from core.recheck.cases import LoadCase, carries_snow
-from core.recheck.trace import KN_PER_N, Lines, add_kd, case_label, lines_for
+from core.recheck.trace import KN_PER_N, Lines, add_kd, case_label, lines_for, strength_line
 from core.results import RowUsed, ShearCheck
 
 CV_SIMPLE_UDL = 3.69  # CSA O86-19 Table 7.5: simple span, uniform load
@@ -63,6 +64,34 @@ def _method_line(trace: Lines, beam: Beam, model: BeamModel, volume: float, volu
     )
 
 
+def _strength_trace(
+    trace: Lines, beam: Beam, member: Member, case: LoadCase, resist: float, volume: float, volume_method: bool
+) -> None:
+    """fv, Fv and the Vr (or Wr) formula lines of the shear check's governing case."""
+    fv = factored_strength(member.fv_mpa, case.kd, member.kh, member.ksv, member.kt)
+    _, clause = _method(beam, volume_method)
+    strength_line(trace, member, "fv", member.fv_mpa)
+    trace.add(
+        "Fv",
+        round(fv, 3),
+        clause,
+        f"Fv = fv (KD KH KSv KT) = {member.fv_mpa:g} x {case.kd:g} x {member.kh:g} x {member.ksv:g} x {member.kt:g}",
+        TraceStatus.formula,
+        "MPa",
+    )
+    area = f"A = b x d = {member.area_mm2:.0f} mm2"
+    if volume_method:
+        how = f"Wr = phi Fv 0.48 A CV Z^-0.18, phi = {PHI_SHEAR:g}, {area}, Z = {volume:.3f} m3"
+    elif beam.material is Material.glulam:
+        how = f"Vr = phi Fv 2A/3, phi = {PHI_SHEAR:g}, {area}"
+    else:
+        how = (
+            f"Vr = phi Fv (2An/3) KZv, phi = {PHI_SHEAR:g}, An = b x d = {member.area_mm2:.0f} mm2 (no notch "
+            f"recorded), KZv = {member.kzb or 1.0:g}"
+        )
+    trace.add("Wr" if volume_method else "Vr", round(resist * KN_PER_N, 2), clause, how, TraceStatus.formula, "kN")
+
+
 def shear_check(
     beam: Beam,
     member: Member,
@@ -91,6 +120,7 @@ def shear_check(
     if trace is not None:
         add_kd(trace, case)
         _method_line(trace, beam, model, volume, volume_method)
+        _strength_trace(trace, beam, member, case, resist, volume, volume_method)
     return assembled(
         ShearCheck,
         {

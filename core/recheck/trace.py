@@ -7,6 +7,7 @@ rows it names), and ``case_label``.
 from __future__ import annotations
 
 from core.kinds import TraceStatus
+from core.member import Member
 from core.recheck.cases import LoadCase
 from core.results import TABLE_STATUSES, FactorTrace, RowUsed
 
@@ -100,6 +101,16 @@ def note(
 def add_kd(trace: Lines, case: LoadCase) -> None:
     """The KD line of a check's trace (CSA O86-19 5.3.2), with how KD was chosen."""
     trace.add("KD", case.kd, "CSA O86-19 5.3.2", case.kd_note, TraceStatus.memory)
+
+
+def strength_line(trace: Lines, member: Member, symbol: str, value_mpa: float) -> None:
+    """A specified strength's trace line (fv, fcp), keyed to the grade row the member's trace names.
+
+    The same row as the member's "grade" line (the row every strength of the member comes from), so it adds
+    no table row of its own to what the recheck used.
+    """
+    grade = next(t for t in member.trace if t.symbol == "grade")
+    trace.add(symbol, value_mpa, grade.clause, grade.source, grade.status.value, "MPa")
 
 
 def case_label(case: LoadCase) -> str:

@@ -69,10 +69,13 @@ BEAMS = {
 # CSA O86-19 notation (from memory) and the plain-word entries the trace uses for inputs
 SYMBOLS = {
     "Ab", "CB", "CK", "CV", "ES", "Fb", "KB", "KD", "KH", "KL", "KS", "KT", "KZb", "KZbg", "KZcp", "KZv", "Le",
-    "Lu", "Mr", "Vr", "E05", "Wr", "Z", "fb", "fb_pos", "fb_neg", "edition", "grade", "limit", "option", "self-weight",
-    "use",
+    "Lu", "Mr", "Vr", "E05", "Wr", "Z", "fb", "fb_pos", "fb_neg", "fv", "Fv", "fcp", "Fcp", "Qr", "edition", "grade",
+    "limit", "option", "self-weight", "use", "deflection",
 }  # fmt: skip
-SYMBOL = re.compile(r"^(?P<symbol>[A-Za-z_-]+[0-9]*)( \((wet|positive moment|negative moment|if restrained)\))?$")
+SYMBOL = re.compile(
+    r"^(?P<symbol>[A-Za-z_-]+[0-9]*)"
+    r"( \((wet|positive moment|negative moment|if restrained|L \+ S|D \+ L \+ S|D, long-term)\))?$"
+)
 UNITS = {"", "mm", "mm2", "m3", "MPa", "kN", "kN/m", "kN·m"}  # SI, as the edges of the app print them
 # a citation: "CSA O86-19 7.5.6.4.4", "CSA O86-19 Table 7.3 note", "NBC Table 9.4.3.1", parts joined by / , ;
 PART = re.compile(
@@ -328,7 +331,9 @@ def test_restrained_upper_bound_is_named_as_an_upper_bound():
     upper = [t for t in r.bending[0].trace if t.symbol == "Mr (if restrained)"]
     assert len(upper) == 1
     assert upper[0].status is TraceStatus.formula
-    assert upper[0].source.endswith("the real capacity is lower")
+    assert "the real capacity is lower (CSA O86-19 7.5.6.3.1 not met)" in upper[0].source
+    # the resistance's own clause, as the restrained Mr line cites it (CSA O86-19 7.5.6.5.1; reference o86.md s. 1)
+    assert upper[0].clause == "CSA O86-19 7.5.6.5.1"
     assert r.bending[0].mr_if_restrained_knm == pytest.approx(upper[0].value, abs=0.05)
 
 
