@@ -222,11 +222,16 @@ _TYPESET = (
     (re.compile(r"\^2\b"), "²"),
     (re.compile(r"\bsqrt\("), "√("),
     (re.compile(r"(?<=\S) x (?=\S)"), " × "),  # "b x d", "1.92 x Lu": a product, not the letter
+    (re.compile(r"\bphi\b"), "φ"),  # the resistance factor
+    (re.compile(r" <= "), " ≤ "),
+    (re.compile(r" >= "), " ≥ "),
 )
 
 
 def typeset(text: str) -> str:
-    """Engineering notation as printed: mm2 -> mm², m3 -> m³, b^2 -> b², sqrt( -> √(, "b x d" -> "b × d".
+    """Engineering notation as printed: mm², m³, b², √(…), b × d, φ, ≤ and ≥ for the recheck's ASCII forms.
+
+    mm2 -> mm², m3 -> m³, b^2 -> b², sqrt( -> √(, "b x d" -> "b × d", phi -> φ, <= -> ≤, >= -> ≥.
 
     The recheck writes its units and sources in plain ASCII (the JSON of contract 1 keeps them so);
     a printed calculation sheet shows them as an engineer writes them.

@@ -845,8 +845,8 @@ def render_recheck_sheet(beam: Beam, result: Recheck, site_name: str = "", note:
         head_row = [Paragraph(h, st["bold"]) for h in ("Factor", "Value", "Clause", "Source / table row", "Status")]
         trows = [head_row] + [
             [
-                Paragraph(esc(t.symbol), st["small"]),
-                Paragraph(esc(_trace_value(t.value)) + " " + esc(typeset(t.unit)), st["small"]),
+                Paragraph(esc(t.symbol), words),
+                Paragraph(esc(_trace_value(t.value)) + " " + esc(typeset(t.unit)), words),
                 Paragraph(esc(t.clause), st["small"]),
                 Paragraph(esc(typeset(t.source)), st["small"]),
                 Paragraph(esc(t.status), st["small"]),

@@ -47,8 +47,9 @@ def test_every_check_has_its_own_trace_on_the_sheet():
     assert "√(Le d / b²)" in text  # CSA O86-19 7.5.6.4.3
     assert "mm²" in text
     assert "4.9 kN/m³ × b × d" in text
-    for ascii_form in ("mm2", "b^2", "sqrt(", " x "):
+    for ascii_form in ("mm2", "b^2", "sqrt(", " x ", "phi", " <= "):
         assert ascii_form not in text, ascii_form
+    assert "Vr = φ Fv 2A/3, φ = 0.9" in text  # CSA O86-19 7.5.7.2, as the shear trace writes it
 
 
 def test_inputs_are_in_words_and_what_was_not_seen_says_the_case_taken():
