@@ -308,21 +308,36 @@ def _trace_lines(trace: Any) -> list[str]:
 
 
 def _checks(result: Any) -> list[dict[str, Any]]:
-    """Every check of a recheck: name, demand, capacity, utilisation, clause and its trace lines."""
-    from core.results import check_trace
-    from reports.content import checks_for
+    """Every check of a recheck: name, demand, capacity, utilisation, clause and its trace lines.
 
-    return [
-        {
-            "name": c.name,
-            "demand": c.demand,
-            "capacity": c.capacity,
-            "utilisation": c.utilisation,
-            "clause": c.clause,
-            "trace": _trace_lines(check_trace(result, c.key)),
-        }
-        for c in checks_for(result)
-    ]
+    After a bearing that lifts, its uplift row as the recheck sheet prints it (``reports.content.uplift_row``:
+    no hold-down is recorded, so it is not checked and the row says so in words).
+    """
+    from core.results import check_trace
+    from reports.content import checks_for, uplift_row
+
+    bearings = {f"bearing{j}": b for j, b in enumerate(result.bearing)}
+    out: list[dict[str, Any]] = []
+    for c in checks_for(result):
+        out.append(
+            {
+                "name": c.name,
+                "demand": c.demand,
+                "capacity": c.capacity,
+                "utilisation": c.utilisation,
+                "words": "",
+                "clause": c.clause,
+                "trace": _trace_lines(check_trace(result, c.key)),
+            }
+        )
+        bearing = bearings.get(c.key)
+        if bearing is not None and bearing.uplift_kn is not None:
+            name, demand, capacity, words, clause = uplift_row(bearing, result, {})
+            out.append(
+                {"name": name, "demand": demand, "capacity": capacity, "utilisation": None, "words": words}
+                | {"clause": clause, "trace": []}
+            )
+    return out
 
 
 def recheck_sheet(hub: HubStore, beam_id: str) -> tuple[str, bytes] | str:

@@ -330,3 +330,34 @@ def test_deficiency_page_says_when_the_beam_record_cannot_be_rechecked(office):
     page = html.unescape(client.get(f"/deficiency/{d.id}").text)
     assert "the beam record is incomplete or refused (bearings" in page
     assert "not rechecked" in page
+
+
+def test_register_checks_give_a_lifting_bearing_its_uplift_row():
+    """A bearing that lifts gets the sheet's uplift row on the register page too (no hold-down recorded).
+
+    6 m span with a 2.8 m overhang: with 0.9D on the span and 1.25D + 1.5S on the overhang, statics gives
+    R1 = w_span L / 2 - w_overhang a^2 / (2 L) < 0 (any beam handbook), so support 1 must be held down.
+    """
+    from core.recheck import recheck
+    from office.registry import _checks
+    from tests.core.beams import glulam
+
+    beam = glulam(
+        spans_mm=[6000],
+        overhang_right_mm=2800,
+        loads={"dead_kn_m": 0.5, "live_kn_m": 0, "snow_kn_m": 9.0},
+        top_edge={"braced_by": "decking", "fastened": True},
+    )
+    result = recheck(beam)
+    dead = 0.5 + 4.9 * 0.130 * 0.456  # glulam self-weight 4.9 kN/m3 (from memory)
+    r1 = 0.9 * dead * 6.0 / 2 - (1.25 * dead + 1.5 * 9.0) * 2.8**2 / (2 * 6.0)
+    assert r1 < 0
+    rows = _checks(result)
+    names = [r["name"] for r in rows]
+    uplift = rows[names.index("bearing, support 1") + 1]
+    assert uplift["name"] == "uplift, support 1"
+    assert uplift["demand"].startswith(f"factored uplift {-r1:.1f} kN")
+    assert "hold-down not recorded: not checked" in uplift["capacity"]
+    assert uplift["words"] == "needs a hold-down"
+    assert uplift["utilisation"] is None
+    assert "uplift, support 2" not in names  # support 2 carries the overhang: it is pressed down
