@@ -334,8 +334,8 @@ def uplift_row(b: BearingCheck, result: Recheck, case_number: dict[str, int]) ->
     """The recheck sheet's row for a bearing's factored uplift: check, demand, capacity, utilisation, clause.
 
     No hold-down is recorded on a beam, so none is taken and the row fails in words. The uplift comes from
-    gravity line loads alone (0.9D where dead load counteracts), so the row says a hold-down's real demand,
-    with wind and earthquake, is the engineer of record's to check. The clause is the uplift finding's.
+    gravity line loads alone (0.9D where dead load counteracts), so the row says where it comes from and that
+    a hold-down's real demand, with wind and earthquake added, is the engineer of record's to check. The clause is the uplift finding's.
     """
     combination = b.uplift_combination or ""
     number = case_number.get(combination)
@@ -347,8 +347,9 @@ def uplift_row(b: BearingCheck, result: Recheck, case_number: dict[str, int]) ->
     return (
         f"uplift, support {b.support}",
         f"factored uplift {b.uplift_kn:.1f} kN" + (f" ({case})" if case else ""),
-        "hold-down not recorded: not checked. Gravity loads only (the recheck does not include wind or "
-        "earthquake): the engineer of record must check the hold-down.",
+        "hold-down not recorded: not checked. This uplift comes from gravity loads alone (live or snow load on "
+        "the parts that lift the support); wind and earthquake, not checked here, would add to it: the engineer of "
+        "record must check the hold-down.",
         "needs a hold-down now: the dead load alone lifts it" if b.lifts_now else "needs a hold-down",
         clause,
     )

@@ -238,7 +238,8 @@ def test_uplift_has_its_own_failing_row_in_the_checks_table():
     assert found.group(1) == f"{-r1:.1f}"  # 1.5 kN
     row = found.group(3)
     assert "hold-down not recorded: not checked" in row
-    assert "Gravity loads only (the recheck does not include wind or earthquake)" in row
+    assert "This uplift comes from gravity loads alone (live or snow load on the parts that lift" in row
+    assert "wind and earthquake, not checked here, would add to it" in row
     assert "the engineer of record must check the hold-down" in row
     assert "needs a hold-down" in row
     assert "now" not in row  # the dead load alone does not lift it: R1 under D alone is positive by statics
