@@ -152,7 +152,7 @@ def _rests_on(cases: dict[str, str]) -> str:
         return ""
     return (
         f" This rests on cases taken for what was not seen: {' and '.join(cases.values())}; confirm "
-        f"{'them' if len(cases) > 1 else 'it'} before loading (findings below)."
+        f"{'them all' if len(cases) > 1 else 'it'} and recheck before ordering a repair (findings below)."
     )
 
 
@@ -251,7 +251,10 @@ def bending_findings(beam: Beam, member: Member, bending: list[BendingRegion]) -
     return out
 
 
-RESTS_ON_IT = "Confirm before loading: the bending failure reported for this beam rests on this assumption. "
+RESTS_ON_IT = (
+    "Confirm before loading, with every other case the bending failure of this beam names: the failure was found "
+    "with them all taken unfavourably, so it may clear only when they are confirmed and the beam is rechecked. "
+)
 
 
 def assumed_findings(beam: Beam, failure_rests_on_fastening: bool = False) -> list[Finding]:
@@ -298,22 +301,33 @@ def uplift_findings(beam: Beam, bearing: list[BearingCheck]) -> list[Finding]:
     for b in bearing:
         if b.uplift_kn is None:
             continue
-        now = " The specified dead load alone already lifts it off this bearing." if b.lifts_now else ""
+        if b.lifts_now:
+            now = " The specified dead load alone already lifts it off this bearing."
+        elif b.uplift_specified_kn is not None:
+            now = (
+                f" Under specified loads (no load factor) it still lifts by {b.uplift_specified_kn:.1f} kN, so without "
+                "a hold-down the member lifts off this bearing in service."
+            )
+        else:
+            now = ""
+        hold = "hold the member down at this support (or shore the parts that lift it)"
+        if b.lifts_now:
+            action = f"Make safe now: prop or {hold} and tell the site superintendent today; "
+        elif b.uplift_snow:  # snow cannot be kept off (as for an overstress under snow: overstress_urgency)
+            action = f"Make safe now: snow can load this member at any time; {hold} before snow builds up and tell "
+            action += "the site superintendent today; "
+        else:
+            action = "Confirm a hold-down for the uplift before loading; "
         out.append(
             _finding(
                 code=FindingCode.uplift_at_support,
-                priority=Priority.immediate if b.lifts_now else Priority.before_loading,
+                priority=Priority.immediate if b.lifts_now or b.uplift_snow else Priority.before_loading,
                 region=f"support {b.support}",
                 message=(
                     f"{beam.mark} at support {b.support}: factored uplift {b.uplift_kn:.1f} kN "
                     f"({b.uplift_combination}); the bearing must hold the member down.{now}"
                 ),
-                action=(
-                    "Make safe now: prop or hold the member down and tell the site superintendent today; "
-                    "refer the hold-down to the engineer of record."
-                    if b.lifts_now
-                    else "Confirm a hold-down for the uplift before loading; refer to the engineer of record."
-                ),
+                action=action + "refer the hold-down to the engineer of record.",
                 clause="NBC 4.1.3.2 (0.9D where dead load counteracts)",
             )
         )
@@ -434,8 +448,12 @@ def check_findings(
                 code=FindingCode.shear_overstress,
                 priority=priority,
                 message=(
-                    f"{beam.mark}: factored shear {shear.vf_kn:.1f} kN exceeds the resistance {shear.vr_kn:.1f} kN "
-                    f"(utilisation {shear.utilisation:.2f}, {shear.combination})."
+                    f"{beam.mark}: total factored load {shear.vf_kn:.1f} kN exceeds the shear resistance Wr "
+                    f"{shear.vr_kn:.1f} kN of the volume method (utilisation {shear.utilisation:.2f}, "
+                    f"{shear.combination})."
+                    if shear.volume_method
+                    else f"{beam.mark}: factored shear {shear.vf_kn:.1f} kN exceeds the resistance "
+                    f"{shear.vr_kn:.1f} kN (utilisation {shear.utilisation:.2f}, {shear.combination})."
                 ),
                 action=action,
                 clause=shear.clause,

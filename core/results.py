@@ -129,6 +129,11 @@ class ShearCheck(Out):
     dead_load_only: bool = False  # the governing combination is dead load alone (1.4D, permanent KD)
     snow_in_combination: bool = False  # the governing combination includes snow (nobody on site can keep it off)
 
+    @property
+    def volume_method(self) -> bool:
+        """True when the glulam volume method (CSA O86-19 7.5.7.3(a)) set the total factored load W against Wr."""
+        return self.method.startswith("volume")
+
 
 class BearingCheck(Out):
     """Bearing (compression perpendicular to grain) at one support."""
@@ -144,6 +149,8 @@ class BearingCheck(Out):
     uplift_kn: float | None = None  # largest factored uplift (negative reaction), kN; None when none
     uplift_combination: str | None = None
     lifts_now: bool = False  # the specified dead load alone already lifts the member off this bearing
+    uplift_specified_kn: float | None = None  # largest uplift under specified D + L + S (L, S on the worst parts)
+    uplift_snow: bool = False  # the combination of the largest factored uplift includes snow
     dead_load_only: bool = False  # the governing combination is dead load alone (1.4D, permanent KD)
     snow_in_combination: bool = False  # the governing combination includes snow (nobody on site can keep it off)
 
@@ -265,6 +272,13 @@ def _bending_capacity(r: BendingRegion) -> str:
     return f"Mr {r.mr_knm:.1f} kN·m"
 
 
+def _kl_words(r: BendingRegion) -> str:
+    """KL of a region, or its restrained upper bound's KL where the capacity is not established."""
+    if r.kl is None and r.kl_if_restrained is not None:
+        return f"KL n/a (KL {r.kl_if_restrained:.3f} if restrained)"
+    return f"KL {_opt(r.kl, '.3f')}"
+
+
 def _bending_line(i: int, r: BendingRegion) -> CheckLine:
     lu = "Lu held continuously" if r.lu_mm is None else f"Lu {r.lu_mm:.0f} mm"
     size = f"KZbg {_opt(r.kzbg, '.3f')}" if r.kzbg is not None else f"KZb {_opt(r.kzb, '.2f')}"
@@ -276,7 +290,7 @@ def _bending_line(i: int, r: BendingRegion) -> CheckLine:
         capacity=_bending_capacity(r),
         utilisation=r.utilisation,
         clause=r.clause,
-        factors=f"{lu}, CB {_opt(r.cb, '.2f')}, KL {_opt(r.kl, '.3f')}, {size}",
+        factors=f"{lu}, CB {_opt(r.cb, '.2f')}, {_kl_words(r)}, {size}",
         combination=r.combination,
     )
 
@@ -319,8 +333,9 @@ def check_lines(result: Recheck) -> list[CheckLine]:
             kind=CheckKind.shear,
             key="shear",
             name="shear",
-            demand=f"Vf {s.vf_kn:.1f} kN",
-            capacity=f"Vr {s.vr_kn:.1f} kN",
+            # the volume method (CSA O86-19 7.5.7.3(a)) sets the total factored load W against Wr, not Vf vs Vr
+            demand=f"Wf {s.vf_kn:.1f} kN (total factored load)" if s.volume_method else f"Vf {s.vf_kn:.1f} kN",
+            capacity=f"Wr {s.vr_kn:.1f} kN" if s.volume_method else f"Vr {s.vr_kn:.1f} kN",
             utilisation=s.utilisation,
             clause=s.clause,
             factors=s.method,

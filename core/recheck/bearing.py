@@ -9,7 +9,7 @@ from core.clauses.factors import factored_strength
 from core.kinds import TraceStatus
 from core.member import Member
 from core.models import Beam, Bearing, Material
-from core.recheck.cases import LoadCase, carries_snow
+from core.recheck.cases import LoadCase, carries_snow, live_patterns
 from core.recheck.trace import KN_PER_N, Lines, add_kd, case_label, lines_for, strength_line
 from core.results import BearingCheck, RowUsed
 
@@ -71,6 +71,7 @@ def _one_bearing(
     kzcp: float,
     cases: list[LoadCase],
     lifts_now: bool,
+    specified_least: float,
     traces: bool,
     rows: set[RowUsed] | None,
 ) -> BearingCheck:
@@ -113,6 +114,8 @@ def _one_bearing(
             "uplift_kn": None if uplift is None else uplift * KN_PER_N,
             "uplift_combination": None if uplift is None else case_label(lowest[1]),
             "lifts_now": lifts_now,
+            "uplift_specified_kn": -specified_least * KN_PER_N if uplift is not None and specified_least < 0 else None,
+            "uplift_snow": uplift is not None and carries_snow(lowest[1], beam),
             "dead_load_only": case.combo.dead_load_only,
             "snow_in_combination": carries_snow(case, beam),
         },
@@ -135,4 +138,21 @@ def bearing_checks(
     kzcp = sawn_bearing_kzcp(beam.b_mm, beam.d_mm) if beam.material is Material.sawn else 1.0
     dead = beam.loads.dead_kn_m + member.self_weight_n_mm
     now = model.case((dead,) * len(model.elements)).reactions_n  # specified dead load as it stands
-    return [_one_bearing(beam, member, j, kzcp, cases, now[j] < 0, traces, rows) for j in range(len(beam.bearings))]
+    lifts = any(c.result.reactions_n[j] < 0 for c in cases for j in range(len(beam.bearings)))
+    least = _specified_least(model, dead, beam.loads.live_kn_m + beam.loads.snow_kn_m) if lifts else now
+    return [
+        _one_bearing(beam, member, j, kzcp, cases, now[j] < 0, least[j], traces, rows)
+        for j in range(len(beam.bearings))
+    ]
+
+
+def _specified_least(model: BeamModel, dead: float, variable: float) -> list[float]:
+    """Each support's least reaction under specified loads: D everywhere, L + S on every pattern of parts, N.
+
+    Only sought when a factored case lifts a support: a negative value is an uplift in service (no load factor).
+    """
+    out = list(model.case((dead,) * len(model.elements)).reactions_n)
+    for pattern in live_patterns(len(model.elements)):
+        reactions = model.case(tuple(dead + (variable if on else 0.0) for on in pattern)).reactions_n
+        out = [min(a, b) for a, b in zip(out, reactions, strict=True)]
+    return out

@@ -83,7 +83,7 @@ def _head_trace(
         "Fb",
         round(fb, 3),
         "CSA O86-19 6.5.3.1 (memory)" if sawn else "CSA O86-19 7.5.6.5.1",
-        "Fb = fb (KD KH KSb KT)",
+        f"Fb = fb (KD KH KSb KT) = {fb_spec:g} x {case.kd:g} x {member.kh:g} x {member.ksb:g} x {member.kt:g}",
         TraceStatus.formula,
         "MPa",
     )

@@ -199,11 +199,12 @@ def _each_check_lines(
             trace.add(symbol, 0.0, limit_clause(row), "no load in this check", TraceStatus.formula, "mm")
             continue
         util, delta, limit, _, element, _ = worst
+        span = f"2 x {limit * float(row['ratio']) / 2:.0f}" if element.startswith("overhang") else "L"
         trace.add(
             symbol,
             round(delta, 2),
             limit_clause(row),
-            f"largest over the load patterns, {element}: limit {limit:.1f} mm (L/{row['ratio']}), "
+            f"largest over the load patterns, {element}: limit {span}/{row['ratio']} = {limit:.1f} mm, "
             f"utilisation {util:.3f}",
             TraceStatus.formula,
             "mm",

@@ -103,3 +103,32 @@ def test_an_overhang_states_its_deflection_span():
     limit = _line(r.deflection.trace, "limit")
     assert "twice its length" in limit.source
     assert "twice" not in _line(recheck(glulam()).deflection.trace, "limit").source
+
+
+def test_the_volume_method_sets_the_total_load_against_wr_in_the_checks_table():
+    """CSA O86-19 7.5.7.3(a) compares the total factored load W with Wr, not a shear force with Vr.
+
+    A 12 m simple span carries W = w L and its end shear is W/2 (statics): the table must say W, not Vf.
+    """
+    from core.results import check_lines
+
+    r = recheck(glulam(b_mm=215, d_mm=1140, spans_mm=[12000]))
+    (line,) = [c for c in check_lines(r) if c.key == "shear"]
+    assert line.demand == f"Wf {r.shear.vf_kn:.1f} kN (total factored load)"
+    assert line.capacity.startswith("Wr ")
+    assert r.bearing[0].qf_kn == pytest.approx(r.shear.vf_kn / 2, rel=1e-6)  # each end carries W/2
+    (simple,) = [c for c in check_lines(recheck(glulam())) if c.key == "shear"]
+    assert simple.demand.startswith("Vf ")
+
+
+def test_bending_fb_line_shows_its_product():
+    """Fb = fb (KD KH KSb KT) (CSA O86-19 7.5.6.5.1): the line multiplies the printed factors."""
+    r = recheck(glulam())
+    t = r.bending[0].trace
+    fb = _line(t, "Fb")
+    factors = [float(x) for x in fb.source.split(" = ")[-1].split(" x ")]
+    product = 1.0
+    for f in factors:
+        product *= f
+    assert fb.value == pytest.approx(product, abs=1e-3)
+    assert factors[0] == 30.6  # D.Fir-L 24f-E fb positive, CSA O86-19 Table 7.3 (from memory)

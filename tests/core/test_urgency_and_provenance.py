@@ -13,6 +13,8 @@ from __future__ import annotations
 
 import re
 
+import pytest
+
 from core.kinds import FindingCode
 from core.recheck import recheck
 from core.results import Priority, governing_check
@@ -248,3 +250,39 @@ def test_a_negative_moment_failure_does_not_rest_on_top_edge_fastening():
     assert "not fastened" not in failing[0].message
     (assumed,) = _findings(r, FindingCode.input_assumed)
     assert assumed.priority is Priority.observation
+
+
+def _overhang(snow=9.0, live=0.0):
+    return glulam(
+        spans_mm=[6000],
+        overhang_right_mm=2800,
+        loads={"dead_kn_m": 0.5, "live_kn_m": live, "snow_kn_m": snow},
+        top_edge={"braced_by": "decking", "fastened": True},
+    )
+
+
+def test_an_uplift_under_snow_is_immediate_and_gives_its_specified_value():
+    """Snow on an overhang lifts the back span's end support; snow cannot be kept off (common practice).
+
+    Statics (any beam handbook), 6 m span with a 2.8 m overhang, uniform loads:
+    R1 = w_span L / 2 - w_overhang a^2 / (2 L). Specified: D on both, D + S on the overhang.
+    """
+    r = recheck(_overhang())
+    dead = 0.5 + 4.9 * 0.130 * 0.456  # glulam self-weight 4.9 kN/m3 (from memory)
+    specified = dead * 6.0 / 2 - (dead + 9.0) * 2.8**2 / (2 * 6.0)
+    assert specified < 0
+    b = r.bearing[0]
+    assert b.uplift_specified_kn == pytest.approx(-specified, rel=1e-6)
+    (f,) = _findings(r, FindingCode.uplift_at_support)
+    assert f.priority is Priority.immediate
+    assert f"still lifts by {-specified:.1f} kN" in f.message
+    assert f.action.startswith("Make safe now: snow can load this member at any time")
+
+
+def test_an_uplift_under_live_load_alone_stays_before_loading():
+    """Live load is the contractor's to control (common practice): a live-load uplift is confirmed before loading."""
+    r = recheck(_overhang(snow=0.0, live=9.0))
+    (f,) = _findings(r, FindingCode.uplift_at_support)
+    assert f.priority is Priority.before_loading
+    assert f.action.startswith("Confirm a hold-down for the uplift before loading")
+    assert r.bearing[0].uplift_snow is False
