@@ -335,7 +335,9 @@ def uplift_row(b: BearingCheck, result: Recheck, case_number: dict[str, int]) ->
 
     No hold-down is recorded on a beam, so none is taken and the row fails in words. The uplift comes from
     gravity line loads alone (0.9D where dead load counteracts), so the row says where it comes from and that
-    a hold-down's real demand, with wind and earthquake added, is the engineer of record's to check. The clause is the uplift finding's.
+    a hold-down's real demand, with wind and earthquake added, is the engineer of record's to check. The
+    specified uplift (no load factor) follows where there is one; snow in the lifting case, like dead load
+    alone, makes it "now" (nobody on site can keep snow off). The clause is the uplift finding's.
     """
     combination = b.uplift_combination or ""
     number = case_number.get(combination)
@@ -344,13 +346,20 @@ def uplift_row(b: BearingCheck, result: Recheck, case_number: dict[str, int]) ->
         (f.clause for f in result.findings or [] if f.code is FindingCode.uplift_at_support),
         "",
     )
+    specified = "" if b.uplift_specified_kn is None else f"; specified {b.uplift_specified_kn:.1f} kN"
+    if b.lifts_now:
+        words = "needs a hold-down now: the dead load alone lifts it"
+    elif b.uplift_snow:
+        words = "needs a hold-down now: snow can lift it at any time"
+    else:
+        words = "needs a hold-down"
     return (
         f"uplift, support {b.support}",
-        f"factored uplift {b.uplift_kn:.1f} kN" + (f" ({case})" if case else ""),
+        f"factored uplift {b.uplift_kn:.1f} kN" + (f" ({case})" if case else "") + specified,
         "hold-down not recorded: not checked. This uplift comes from gravity loads alone (live or snow load on "
         "the parts that lift the support); wind and earthquake, not checked here, would add to it: the engineer of "
         "record must check the hold-down.",
-        "needs a hold-down now: the dead load alone lifts it" if b.lifts_now else "needs a hold-down",
+        words,
         clause,
     )
 

@@ -241,9 +241,13 @@ def test_uplift_has_its_own_failing_row_in_the_checks_table():
     assert "This uplift comes from gravity loads alone (live or snow load on the parts that lift" in row
     assert "wind and earthquake, not checked here, would add to it" in row
     assert "the engineer of record must check the hold-down" in row
-    assert "needs a hold-down" in row
-    assert "now" not in row  # the dead load alone does not lift it: R1 under D alone is positive by statics
+    # snow lifts it and nobody on site can keep snow off (common practice): a hold-down is needed now
+    assert "needs a hold-down now: snow can lift it at any time" in row
+    assert "dead load alone" not in row  # the dead load alone does not lift it: R1 under D alone is positive
     assert dead * 6.0 / 2 - dead * 2.8**2 / (2 * 6.0) > 0
+    # under specified loads (D + S on the overhang, no factor) R1 stays positive by statics, so no specified uplift
+    assert dead * 6.0 / 2 - (dead + 4.0) * 2.8**2 / (2 * 6.0) > 0
+    assert "specified" not in row
     assert "NBC 4.1.3.2" in row  # the uplift finding's clause
     # the load case it names is the one that lifts support 1 the most, in the sheet's own case table
     case = re.search(
