@@ -295,16 +295,10 @@ def recheck_input(beam: dict[str, Any], site_data: dict[str, Any]) -> tuple[dict
 
 
 def _trace_lines(trace: Any) -> list[str]:
-    """Each factor of a check's trace in one line; units and sources typeset as the recheck sheet prints them."""
-    from reports.content import typeset
+    """Each factor of a check's trace in one line, as the tablet prints it (``reports.content.trace_line``)."""
+    from reports.content import trace_line
 
-    out = []
-    for t in trace:
-        value = f"{t.value:.4g}" if isinstance(t.value, float) else ("-" if t.value is None else str(t.value))
-        line = f"{t.symbol} = {value} {typeset(t.unit)}".rstrip() + f"   [{t.status.value}]"
-        source = typeset(t.source)
-        out.append(line + (f"   {t.clause}" if t.clause else "") + (f"   ({source})" if source else ""))
-    return out
+    return [trace_line(t) for t in trace]
 
 
 def _checks(result: Any) -> list[dict[str, Any]]:

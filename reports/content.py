@@ -10,7 +10,7 @@ from core.kinds import FindingCode
 from core.models import Beam, BottomBracing, Restraint, TopBracing
 from core.records import Deficiency, Site, Visit
 from core.remedies import remedies
-from core.results import BearingCheck, CheckLine, Recheck, check_lines
+from core.results import BearingCheck, CheckLine, FactorTrace, Recheck, check_lines
 from reports.tablerows import RowUsed
 
 CAUTIONS = (
@@ -226,6 +226,18 @@ _TYPESET = (
     (re.compile(r" <= "), " ≤ "),
     (re.compile(r" >= "), " ≥ "),
 )
+
+
+def trace_line(t: FactorTrace) -> str:
+    """One factor of a check's trace in one line, as the tablet and the office register print it.
+
+    'CB = 11.61   [confirmed]   CSA O86-19 7.5.6.4.3   (CB = √(Le d / b²))': the value (4 significant figures,
+    '-' when there is none), its unit, status, clause and source, units and formulas typeset (``typeset``).
+    """
+    value = "-" if t.value is None else f"{t.value:.4g}" if isinstance(t.value, float) else str(t.value)
+    line = f"{t.symbol} = {value} {typeset(t.unit)}".rstrip() + f"   [{t.status.value}]"
+    source = typeset(t.source)
+    return line + (f"   {t.clause}" if t.clause else "") + (f"   ({source})" if source else "")
 
 
 def typeset(text: str) -> str:

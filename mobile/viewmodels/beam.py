@@ -32,7 +32,7 @@ from core.remedies import remedies
 from core.results import CheckKind, FactorTrace, Recheck, check_lines
 from mobile.units import LengthRefused, echo_length, read_length, split_spans
 from mobile.viewmodels.common import PRIORITY_LABELS, line_loads_kn_m, status_label
-from reports.content import support_names
+from reports.content import support_names, trace_line
 from reports.inputs import loads_source, sheet_stem
 from reports.render import render_recheck_sheet
 from reports.tablerows import counts, rows_used
@@ -474,16 +474,7 @@ class BeamFormViewModel:
             check = r.deflection
             head = f"Deflection, {check.case} on {check.element}; {check.clause}"
         trace = list(check.trace)
-        out = [head]
-        for t in trace:
-            value = _fmt(t.value) if not isinstance(t.value, float) else f"{t.value:.4g}"
-            out.append(
-                f"{t.symbol} = {value} {t.unit}".rstrip()
-                + f"   [{t.status}]"
-                + (f"   {t.clause}" if t.clause else "")
-                + (f"   ({t.source})" if t.source else "")
-            )
-        return out
+        return [head, *(trace_line(t) for t in trace)]
 
     def table_rows_line(self) -> str:
         """'Table rows used: 18 table rows: 12 memory, 6 confirmed, 0 verified (tap)'; '' with no recheck."""

@@ -205,6 +205,12 @@ def test_trace_names_clause_row_and_status(demo):
     assert "[memory]" in text or "[confirmed]" in text or "[verified]" in text
     assert form.trace_lines("shear")
     assert form.trace_lines("deflection")
+    # as the recheck sheet and the register print it: CB = √(Le d / b²) (CSA O86-19 7.5.6.4.3), φ, mm²
+    assert "√(Le d / b²)" in text
+    shear = "\n".join(form.trace_lines("shear"))
+    assert "Vr = φ Fv 2A/3, φ = 0.9" in shear  # CSA O86-19 7.5.7.2
+    for ascii_form in ("sqrt(", "b^2", "mm2", "phi"):
+        assert ascii_form not in text + shear, ascii_form
 
 
 def test_photo_attached_to_beam(demo, tmp_path):
