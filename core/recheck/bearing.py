@@ -71,7 +71,6 @@ def _one_bearing(
     kzcp: float,
     cases: list[LoadCase],
     lifts_now: bool,
-    specified_least: float,
     traces: bool,
     rows: set[RowUsed] | None,
 ) -> BearingCheck:
@@ -114,7 +113,7 @@ def _one_bearing(
             "uplift_kn": None if uplift is None else uplift * KN_PER_N,
             "uplift_combination": None if uplift is None else case_label(lowest[1]),
             "lifts_now": lifts_now,
-            "uplift_specified_kn": -specified_least * KN_PER_N if uplift is not None and specified_least < 0 else None,
+            "uplift_specified_kn": None,  # set by bearing_checks where a support lifts in service too
             "uplift_snow": uplift is not None and carries_snow(lowest[1], beam),
             "dead_load_only": case.combo.dead_load_only,
             "snow_in_combination": carries_snow(case, beam),
@@ -138,11 +137,16 @@ def bearing_checks(
     kzcp = sawn_bearing_kzcp(beam.b_mm, beam.d_mm) if beam.material is Material.sawn else 1.0
     dead = beam.loads.dead_kn_m + member.self_weight_n_mm
     now = model.case((dead,) * len(model.elements)).reactions_n  # specified dead load as it stands
-    lifts = any(c.result.reactions_n[j] < 0 for c in cases for j in range(len(beam.bearings)))
-    least = _specified_least(model, dead, beam.loads.live_kn_m + beam.loads.snow_kn_m) if lifts else now
+    checks = [_one_bearing(beam, member, j, kzcp, cases, now[j] < 0, traces, rows) for j in range(len(beam.bearings))]
+    if all(c.uplift_kn is None for c in checks):
+        return checks
+    # a factored case lifts a support: does it lift in service too (specified loads, no load factor)?
+    least = _specified_least(model, dead, beam.loads.live_kn_m + beam.loads.snow_kn_m)
     return [
-        _one_bearing(beam, member, j, kzcp, cases, now[j] < 0, least[j], traces, rows)
-        for j in range(len(beam.bearings))
+        c.model_copy(update={"uplift_specified_kn": -least[j] * KN_PER_N})
+        if c.uplift_kn is not None and least[j] < 0
+        else c
+        for j, c in enumerate(checks)
     ]
 
 
