@@ -841,7 +841,7 @@ def render_recheck_sheet(beam: Beam, result: Recheck, site_name: str = "", note:
         if region is not None:
             basis.append(f"compression edge: {region.compression_edge}")
         if basis:
-            section.append(Paragraph(esc("; ".join(basis)), st["base"]))
+            section.append(Paragraph(esc(typeset("; ".join(basis))), st["base"]))
         head_row = [Paragraph(h, st["bold"]) for h in ("Factor", "Value", "Clause", "Source / table row", "Status")]
         trows = [head_row] + [
             [

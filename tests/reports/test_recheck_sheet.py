@@ -283,3 +283,18 @@ def test_an_uplift_the_dead_load_alone_causes_says_a_hold_down_is_needed_now():
     assert float(found.group(1)) == pytest.approx(-lifted, abs=0.05)
     assert "uplift, support 1" not in table
     assert "uplift, support 2" not in table
+
+
+def test_a_volume_method_sheet_says_w_against_wr_in_engineering_notation():
+    """CSA O86-19 7.5.7.3(a): a glulam of volume Z >= 2.0 m³ sets the total factored load W against Wr.
+
+    215 × 1140 over 12 m: Z = 0.215 × 1.140 × 12 = 2.94 m³ (arithmetic), so the volume method applies.
+    """
+    beam = glulam(b_mm=215, d_mm=1140, spans_mm=[12000])
+    r = recheck(beam)
+    text = flat(text_of(render_recheck_sheet(beam, r)))
+    assert f"Wf {r.shear.vf_kn:.1f} kN (total factored load)" in text
+    assert "rests on volume: Wr vs total factored load W (Z ≥ 2.0 m³)" in text
+    assert "Wr = φ Fv 0.48 A CV Z^-0.18" in text
+    for ascii_form in (">=", " m3", "phi"):
+        assert ascii_form not in text, ascii_form
