@@ -855,19 +855,22 @@ def render_recheck_sheet(beam: Beam, result: Recheck, site_name: str = "", note:
         ]
         section.append(_grid(trows, [32 * mm, 24 * mm, 34 * mm, 76 * mm, 20 * mm], shade_first_col=False))
         story.append(KeepTogether(section))  # a check's heading never sits alone at a page foot
-    story.append(Paragraph("Findings", st["h2"]))
-    for f in result.findings or []:
-        where = f", {f.region}" if f.region else ""
-        story.append(
+    found: list[list[Any]] = [
+        [
             Paragraph(
-                f"<b>{esc(SHORT_PRIORITY.get(f.priority.value, f.priority.value))}</b>{esc(where)}: "
+                f"<b>{esc(SHORT_PRIORITY.get(f.priority.value, f.priority.value))}</b>"
+                f"{esc(f', {f.region}' if f.region else '')}: "
                 f"{esc(f.message)} <b>Action:</b> {esc(f.action)} ({esc(f.clause)})",
                 st["base"],
-            )
-        )
-        story.append(Spacer(1, 3))
-    if not result.findings:
-        story.append(Paragraph("None.", st["base"]))
+            ),
+            Spacer(1, 3),
+        ]
+        for f in result.findings or []
+    ] or [[Paragraph("None.", st["base"])]]
+    # a finding is never split across a page (its action read apart from its message), and the heading stays
+    # with the first one
+    found[0].insert(0, Paragraph("Findings", st["h2"]))
+    story += [KeepTogether(one) for one in found]
     story.append(Spacer(1, 6))
     story.append(KeepTogether([Paragraph(esc(result.caution), st["small"]), Spacer(1, 4), _sign_off(st)]))
 

@@ -298,3 +298,29 @@ def test_a_volume_method_sheet_says_w_against_wr_in_engineering_notation():
     assert "Wr = φ Fv 0.48 A CV Z^-0.18" in text
     for ascii_form in (">=", " m3", "phi"):
         assert ascii_form not in text, ascii_form
+
+
+def test_no_finding_is_split_across_pages():
+    """A finding's message and its action are read together (common practice for a site instruction): one page each.
+
+    Short glulam roof beams with purlin fastening not recorded, with and without a bearing restraint missing:
+    with the sheet's length, their findings used to break mid-sentence onto the next page (found by rendering
+    every combination of span, TOP stamp, use, restraint and bracing).
+    """
+    beams = [
+        glulam(
+            spans_mm=[span],
+            top_edge={"braced_by": "purlins", "spacing_mm": 2400},
+            top_stamp=stamp,
+            bearings=[{"lateral": lateral, "rotation": True, "length_mm": 140}] * 2,
+        )
+        for span, stamp, lateral in ((6000, "up", False), (6000, "up", True), (7200, "not_visible", False))
+    ]
+    for beam in beams:
+        r = recheck(beam)
+        assert r.findings
+        pages = [flat(p.extract_text()) for p in PdfReader(io.BytesIO(render_recheck_sheet(beam, r))).pages]
+        for f in r.findings:
+            head, action = flat(f.message)[:60], flat(f.action)[-40:]
+            on = [i for i, text in enumerate(pages) if head in text and action in text]
+            assert on, (f.code, head)
