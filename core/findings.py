@@ -301,17 +301,15 @@ def uplift_findings(beam: Beam, bearing: list[BearingCheck]) -> list[Finding]:
     for b in bearing:
         if b.uplift_kn is None:
             continue
-        if b.lifts_now:
-            now = " The specified dead load alone already lifts it off this bearing."
-        elif b.uplift_specified_kn is not None:
-            now = (
-                f" Under specified loads (no load factor) it still lifts by {b.uplift_specified_kn:.1f} kN, so without "
-                "a hold-down the member lifts off this bearing in service."
-            )
-        else:
-            now = ""
+        now = (
+            f" Under specified loads (no load factor) it still lifts by {b.uplift_specified_kn:.1f} kN, so without "
+            "a hold-down the member lifts off this bearing in service."
+            if b.uplift_specified_kn is not None
+            else ""
+        )
         hold = "hold the member down at this support (or shore the parts that lift it)"
         if b.lifts_now:
+            now = " The specified dead load alone already lifts it off this bearing."
             action = f"Make safe now: prop or {hold} and tell the site superintendent today; "
         elif b.uplift_snow:  # snow cannot be kept off (as for an overstress under snow: overstress_urgency)
             action = f"Make safe now: snow can load this member at any time; {hold} before snow builds up and tell "

@@ -115,6 +115,10 @@ class BendingRegion(Out):
     utilisation_if_restrained: float | None = None
 
 
+# the method of a glulam shear check by volume (CSA O86-19 7.5.7.3(a)): the total factored load W against Wr
+VOLUME_METHOD = "volume: Wr vs total factored load W (Z >= 2.0 m3)"
+
+
 class ShearCheck(Out):
     """Shear check, governing combination."""
 
@@ -132,7 +136,7 @@ class ShearCheck(Out):
     @property
     def volume_method(self) -> bool:
         """True when the glulam volume method (CSA O86-19 7.5.7.3(a)) set the total factored load W against Wr."""
-        return self.method.startswith("volume")
+        return self.method == VOLUME_METHOD
 
 
 class BearingCheck(Out):

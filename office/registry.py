@@ -308,9 +308,9 @@ def _checks(result: Any) -> list[dict[str, Any]]:
     no hold-down is recorded, so it is not checked and the row says so in words).
     """
     from core.results import check_trace
-    from reports.content import checks_for, uplift_row
+    from reports.content import checks_for, lifting_bearings, uplift_row
 
-    bearings = {f"bearing{j}": b for j, b in enumerate(result.bearing)}
+    lifts = lifting_bearings(result)
     out: list[dict[str, Any]] = []
     for c in checks_for(result):
         out.append(
@@ -324,12 +324,18 @@ def _checks(result: Any) -> list[dict[str, Any]]:
                 "trace": _trace_lines(check_trace(result, c.key)),
             }
         )
-        bearing = bearings.get(c.key)
-        if bearing is not None and bearing.uplift_kn is not None:
-            name, demand, capacity, words, clause = uplift_row(bearing, result, {})
+        if c.key in lifts:
+            name, demand, capacity, words, clause = uplift_row(lifts[c.key], result, {})
             out.append(
-                {"name": name, "demand": demand, "capacity": capacity, "utilisation": None, "words": words}
-                | {"clause": clause, "trace": []}
+                {
+                    "name": name,
+                    "demand": demand,
+                    "capacity": capacity,
+                    "utilisation": None,
+                    "words": words,
+                    "clause": clause,
+                    "trace": [],
+                }
             )
     return out
 

@@ -342,6 +342,11 @@ def _range(start: float, stop: float, step: float) -> list[float]:
     return out
 
 
+def lifting_bearings(result: Recheck) -> dict[str, BearingCheck]:
+    """The bearings that lift, by their check line's key ("bearing0"): each gets an uplift row after its own."""
+    return {f"bearing{j}": b for j, b in enumerate(result.bearing) if b.uplift_kn is not None}
+
+
 def uplift_row(b: BearingCheck, result: Recheck, case_number: dict[str, int]) -> tuple[str, str, str, str, str]:
     """The recheck sheet's row for a bearing's factored uplift: check, demand, capacity, utilisation, clause.
 

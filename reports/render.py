@@ -36,6 +36,7 @@ from reports.content import (
     Photo,
     by_member,
     due_words,
+    lifting_bearings,
     member_sketch,
     one_line,
     ordered,
@@ -888,14 +889,13 @@ def _check_rows(result: Recheck, case_number: dict[str, int]) -> list[tuple[str,
     own (``content.uplift_row``), so a beam that fails only through uplift shows a failing row here.
     """
     regions = {f"bending{i}": r for i, r in enumerate(result.bending)}  # by CheckLine.key
-    bearings = {f"bearing{j}": b for j, b in enumerate(result.bearing)}
+    lifts = lifting_bearings(result)
     rows = []
     for c in check_lines(result):
         util = _utilisation_words(c.utilisation, regions.get(c.key))
         rows.append((c.name, c.demand, c.capacity, util, c.clause))
-        bearing = bearings.get(c.key)
-        if bearing is not None and bearing.uplift_kn is not None:
-            rows.append(uplift_row(bearing, result, case_number))
+        if c.key in lifts:
+            rows.append(uplift_row(lifts[c.key], result, case_number))
     return rows
 
 

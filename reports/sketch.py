@@ -14,6 +14,7 @@ from importlib import resources
 
 from reportlab.graphics.shapes import Drawing, Line, Polygon, Rect, String
 from reportlab.lib import colors
+from reportlab.lib.utils import simpleSplit
 from reportlab.pdfbase import pdfmetrics
 from reportlab.pdfbase.pdfmetrics import stringWidth
 from reportlab.pdfbase.ttfonts import TTFont
@@ -194,11 +195,5 @@ def _wrapped(entries: list[str], width_pt: float, fs: int) -> list[str]:
         if lines and stringWidth(joined, FONT, fs) <= width_pt:
             lines[-1] = joined
             continue
-        lines.append("")
-        for word in entry.split(" "):
-            longer = f"{lines[-1]} {word}" if lines[-1] else word
-            if lines[-1] and stringWidth(longer, FONT, fs) > width_pt:
-                lines.append(word)
-            else:
-                lines[-1] = longer
+        lines += simpleSplit(entry, FONT, fs, width_pt)
     return lines

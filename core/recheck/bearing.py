@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from collections.abc import Sequence
+
 from core.analysis import BeamModel
 from core.assembled import assembled
 from core.clauses.bearing import PHI_BEARING, bearing_qr, sawn_bearing_kzcp
@@ -141,7 +143,7 @@ def bearing_checks(
     if all(c.uplift_kn is None for c in checks):
         return checks
     # a factored case lifts a support: does it lift in service too (specified loads, no load factor)?
-    least = _specified_least(model, dead, beam.loads.live_kn_m + beam.loads.snow_kn_m)
+    least = _specified_least(model, dead, beam.loads.live_kn_m + beam.loads.snow_kn_m, now)
     return [
         c.model_copy(update={"uplift_specified_kn": -least[j] * KN_PER_N})
         if c.uplift_kn is not None and least[j] < 0
@@ -150,12 +152,13 @@ def bearing_checks(
     ]
 
 
-def _specified_least(model: BeamModel, dead: float, variable: float) -> list[float]:
+def _specified_least(model: BeamModel, dead: float, variable: float, dead_alone: Sequence[float]) -> list[float]:
     """Each support's least reaction under specified loads: D everywhere, L + S on every pattern of parts, N.
 
-    Only sought when a factored case lifts a support: a negative value is an uplift in service (no load factor).
+    dead_alone: the reactions under D alone. Only sought when a factored case lifts a support: a negative
+    value is an uplift in service (no load factor).
     """
-    out = list(model.case((dead,) * len(model.elements)).reactions_n)
+    out = list(dead_alone)
     for pattern in live_patterns(len(model.elements)):
         reactions = model.case(tuple(dead + (variable if on else 0.0) for on in pattern)).reactions_n
         out = [min(a, b) for a, b in zip(out, reactions, strict=True)]

@@ -185,7 +185,7 @@ def _trace(trace: Lines, beam: Beam, model: BeamModel, es: float, row: dict[str,
 
 
 def _each_check_lines(
-    trace: Lines, checks: list[tuple[str, dict[str, str], float, float]], each: dict[str, Worst]
+    trace: Lines, model: BeamModel, checks: list[tuple[str, dict[str, str], float, float]], each: dict[str, Worst]
 ) -> None:
     """One line per deflection check (L + S, D + L + S, long-term D): its largest deflection and its limit.
 
@@ -199,7 +199,8 @@ def _each_check_lines(
             trace.add(symbol, 0.0, limit_clause(row), "no load in this check", TraceStatus.formula, "mm")
             continue
         util, delta, limit, _, element, _ = worst
-        span = f"2 x {limit * float(row['ratio']) / 2:.0f}" if element.startswith("overhang") else "L"
+        el = next(e for e in model.elements if e.name == element)
+        span = f"2 x {el.length_mm:.0f}" if el.kind is ElementKind.overhang else "L"
         trace.add(
             symbol,
             round(delta, 2),
@@ -231,7 +232,7 @@ def deflection_check(
     if trace is not None:
         _trace(trace, beam, model, es, row, use_row)
         if each is not None:  # formula lines only: they name no table row
-            _each_check_lines(trace, checks, each)
+            _each_check_lines(trace, model, checks, each)
     return assembled(
         DeflectionCheck,
         {

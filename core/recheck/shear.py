@@ -18,7 +18,7 @@ from core.member import Member
 from core.models import Beam, Material
 from core.recheck.cases import LoadCase, carries_snow
 from core.recheck.trace import KN_PER_N, Lines, add_kd, case_label, lines_for, strength_line
-from core.results import RowUsed, ShearCheck
+from core.results import VOLUME_METHOD, RowUsed, ShearCheck
 
 CV_SIMPLE_UDL = 3.69  # CSA O86-19 Table 7.5: simple span, uniform load
 
@@ -38,7 +38,7 @@ def _resistance_and_demand(
 def _method(beam: Beam, volume_method: bool) -> tuple[str, str]:
     """(method, clause) of the shear check."""
     if volume_method:
-        return "volume: Wr vs total factored load W (Z >= 2.0 m3)", "CSA O86-19 7.5.7.3(a)"
+        return VOLUME_METHOD, "CSA O86-19 7.5.7.3(a)"
     if beam.material is Material.glulam:
         return "2A/3", "CSA O86-19 7.5.7.2"
     return "2An/3 KZv", "CSA O86-19 6.5.4.1 (memory)"

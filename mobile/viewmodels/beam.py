@@ -29,7 +29,7 @@ from core.plausible import PLAUSIBLE
 from core.recheck import recheck
 from core.records import Stage
 from core.remedies import remedies
-from core.results import CheckKind, FactorTrace, Recheck, check_lines
+from core.results import CheckKind, Recheck, check_lines
 from mobile.units import LengthRefused, echo_length, read_length, split_spans
 from mobile.viewmodels.common import PRIORITY_LABELS, line_loads_kn_m, status_label
 from reports.content import support_names, trace_line
@@ -460,7 +460,6 @@ class BeamFormViewModel:
             return []
         if key == REMEDIES_KEY:
             return ["Options for the engineer of record; each passes its check when rechecked:", *self.remedy_lines()]
-        trace: list[FactorTrace]
         if key.startswith("bending"):
             check: Any = r.bending[int(key[len("bending") :])]
             head = f"{check.region}, {check.sign} moment, {check.combination}; {check.clause}"
@@ -473,8 +472,7 @@ class BeamFormViewModel:
         else:
             check = r.deflection
             head = f"Deflection, {check.case} on {check.element}; {check.clause}"
-        trace = list(check.trace)
-        return [head, *(trace_line(t) for t in trace)]
+        return [head, *(trace_line(t) for t in check.trace)]
 
     def table_rows_line(self) -> str:
         """'Table rows used: 18 table rows: 12 memory, 6 confirmed, 0 verified (tap)'; '' with no recheck."""
