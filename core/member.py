@@ -200,7 +200,7 @@ def _member_properties(beam: Beam) -> Member:
     trace.append(
         FactorTrace(
             symbol="self-weight",
-            value=round(sw, 4),
+            value=sw,
             unit="kN/m",
             source=(f"densities: {gamma:g} kN/m3 x b x d" if beam.self_weight else "switched off by the reviewer"),
             status=TraceStatus(density["status"]) if beam.self_weight else TraceStatus.input,

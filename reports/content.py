@@ -234,10 +234,23 @@ def trace_line(t: FactorTrace) -> str:
     'CB = 11.61   [confirmed]   CSA O86-19 7.5.6.4.3   (CB = √(Le d / b²))': the value (4 significant figures,
     '-' when there is none), its unit, status, clause and source, units and formulas typeset (``typeset``).
     """
-    value = "-" if t.value is None else f"{t.value:.4g}" if isinstance(t.value, float) else str(t.value)
-    line = f"{t.symbol} = {value} {typeset(t.unit)}".rstrip() + f"   [{t.status.value}]"
+    line = f"{t.symbol} = {trace_value(t.value)} {typeset(t.unit)}".rstrip() + f"   [{t.status.value}]"
     source = typeset(t.source)
     return line + (f"   {t.clause}" if t.clause else "") + (f"   ({source})" if source else "")
+
+
+def trace_value(value: float | str | None) -> str:
+    """A trace value as every reader prints it: 4 significant figures, whole from 1000 up (never an exponent).
+
+    The recheck keeps its values unrounded, so this is their only rounding: the checks table, which rounds
+    the same values once too, never shows a neighbouring digit ('KZbg 1.074' beside a trace's '1.075' was
+    1.07446 rounded twice). None: '-'.
+    """
+    if value is None:
+        return "-"
+    if isinstance(value, float):
+        return f"{value:.0f}" if abs(value) >= 1000 else f"{value:.4g}"
+    return str(value)
 
 
 def typeset(text: str) -> str:

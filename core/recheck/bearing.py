@@ -50,7 +50,7 @@ def _trace(
     fcp = factored_strength(member.fcp_mpa, case.kd, member.kscp, member.kt)
     trace.add(
         "Fcp",
-        round(fcp, 3),
+        fcp,
         clause,
         f"Fcp = fcp (KD KScp KT) = {member.fcp_mpa:g} x {case.kd:g} x {member.kscp:g} x {member.kt:g}",
         TraceStatus.formula,
@@ -58,7 +58,7 @@ def _trace(
     )
     trace.add(
         "Qr",
-        round(qr * KN_PER_N, 2),
+        qr * KN_PER_N,
         clause,
         f"Qr = phi Fcp Ab KB KZcp, phi = {PHI_BEARING:g}",
         TraceStatus.formula,

@@ -81,7 +81,7 @@ def _head_trace(
     )
     trace.add(
         "Fb",
-        round(fb, 3),
+        fb,
         "CSA O86-19 6.5.3.1 (memory)" if sawn else "CSA O86-19 7.5.6.5.1",
         f"Fb = fb (KD KH KSb KT) = {fb_spec:g} x {case.kd:g} x {member.kh:g} x {member.ksb:g} x {member.kt:g}",
         TraceStatus.formula,
@@ -160,7 +160,7 @@ def bending_check(
     if trace is not None:  # without a trace nothing is formatted
         trace.add(
             "Mr",
-            round(mr * KNM_PER_NMM, 2),
+            mr * KNM_PER_NMM,
             _MR_CLAUSE_SAWN if sawn else "CSA O86-19 7.5.6.5.1",
             "phi Fb S KZb KL, phi = 0.9" if sawn else _GLULAM_MR,
             "formula",
@@ -187,7 +187,7 @@ def _kzbg(beam: Beam, region: Region, trace: Lines | None) -> float:
     if trace is not None:  # without a trace nothing is formatted
         trace.add(
             "KZbg",
-            round(kzbg, 4),
+            kzbg,
             "CSA O86-19 7.5.6.5.1",
             f"L = {length:.0f} mm between points of zero moment; cap 1.3",
             "confirmed",
@@ -228,7 +228,7 @@ def _upper_bound(
     note(
         trace,
         "Mr (if restrained)",
-        round(mr * KNM_PER_NMM, 2),
+        mr * KNM_PER_NMM,
         _MR_CLAUSE_SAWN if beam.material is Material.sawn else "CSA O86-19 7.5.6.5.1",
         f"upper bound: KL = {kl:.4f} with Lu = {scratch['lu_mm'] or 0:.0f} mm as if every bearing were restrained; "
         "the real capacity is lower (CSA O86-19 7.5.6.3.1 not met)",
@@ -312,7 +312,7 @@ def _kl_from_lu(
         note(trace, "KL", None, stability.clause, str(stability), "confirmed")
         return stability
     if trace is not None:
-        note(trace, "KL", round(stability.kl, 4), "CSA O86-19 7.5.6.4.4", f"regime {stability.regime}", "confirmed")
+        note(trace, "KL", stability.kl, "CSA O86-19 7.5.6.4.4", f"regime {stability.regime}", "confirmed")
     return stability.kl
 
 
@@ -323,14 +323,14 @@ def _slenderness_trace(
     note(
         trace,
         "Le",
-        round(le, 1),
+        le,
         "CSA O86-19 7.5.6.4.2 / Table 7.4",
         f"effective_length row {row['le_case']} ({row['description']}): {factor:g} x Lu; {why}",
         row["status"],
         "mm",
     )
-    note(trace, "CB", round(cb, 3), "CSA O86-19 7.5.6.4.3", "CB = sqrt(Le d / b^2)", "confirmed")
-    note(trace, "CK", round(ck, 3), "CSA O86-19 7.5.6.4.4", "CK = sqrt(0.97 E KSE KT / (Fb KX))", "confirmed")
+    note(trace, "CB", cb, "CSA O86-19 7.5.6.4.3", "CB = sqrt(Le d / b^2)", "confirmed")
+    note(trace, "CK", ck, "CSA O86-19 7.5.6.4.4", "CK = sqrt(0.97 E KSE KT / (Fb KX))", "confirmed")
 
 
 # the rank of a region's outcome in the search, worst highest: not established, not permitted, overstress, ok

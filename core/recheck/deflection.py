@@ -203,7 +203,7 @@ def _each_check_lines(
         span = f"2 x {el.length_mm:.0f}" if el.kind is ElementKind.overhang else "L"
         trace.add(
             symbol,
-            round(delta, 2),
+            delta,
             limit_clause(row),
             f"largest over the load patterns, {element}: limit {span}/{row['ratio']} = {limit:.1f} mm, "
             f"utilisation {util:.3f}",

@@ -56,7 +56,7 @@ def _method_line(trace: Lines, beam: Beam, model: BeamModel, volume: float, volu
     glulam = beam.material is Material.glulam
     trace.add(
         "Z",
-        round(volume, 3),
+        volume,
         "CSA O86-19 7.5.7" if glulam else "CSA O86-19 6.5.4 (memory)",
         "volume below 2.0 m3: simple method permitted" if glulam else "sawn lumber: Vr does not depend on the volume",
         TraceStatus.formula,
@@ -73,7 +73,7 @@ def _strength_trace(
     strength_line(trace, member, "fv", member.fv_mpa)
     trace.add(
         "Fv",
-        round(fv, 3),
+        fv,
         clause,
         f"Fv = fv (KD KH KSv KT) = {member.fv_mpa:g} x {case.kd:g} x {member.kh:g} x {member.ksv:g} x {member.kt:g}",
         TraceStatus.formula,
@@ -89,7 +89,7 @@ def _strength_trace(
             f"Vr = phi Fv (2An/3) KZv, phi = {PHI_SHEAR:g}, An = b x d = {member.area_mm2:.0f} mm2 (no notch "
             f"recorded), KZv = {member.kzb or 1.0:g}"
         )
-    trace.add("Wr" if volume_method else "Vr", round(resist * KN_PER_N, 2), clause, how, TraceStatus.formula, "kN")
+    trace.add("Wr" if volume_method else "Vr", resist * KN_PER_N, clause, how, TraceStatus.formula, "kN")
 
 
 def shear_check(
