@@ -305,7 +305,8 @@ def _checks(result: Any) -> list[dict[str, Any]]:
     """Every check of a recheck: name, demand, capacity, utilisation, clause and its trace lines.
 
     After a bearing that lifts, its uplift row as the recheck sheet prints it (``reports.content.uplift_row``:
-    no hold-down is recorded, so it is not checked and the row says so in words).
+    no hold-down is recorded, so it is not checked and the row says so in words); ``uplift`` marks those rows,
+    which are not among the checks ``governing_check`` counts.
     """
     from core.results import check_trace
     from reports.content import checks_for, lifting_bearings, uplift_row
@@ -322,6 +323,7 @@ def _checks(result: Any) -> list[dict[str, Any]]:
                 "words": "",
                 "clause": c.clause,
                 "trace": _trace_lines(check_trace(result, c.key)),
+                "uplift": False,
             }
         )
         if c.key in lifts:
@@ -335,6 +337,7 @@ def _checks(result: Any) -> list[dict[str, Any]]:
                     "words": words,
                     "clause": clause,
                     "trace": [],
+                    "uplift": True,
                 }
             )
     return out
@@ -397,11 +400,12 @@ def recheck_now(beam: dict[str, Any], site_data: dict[str, Any]) -> dict[str, An
     _model, result, loads_from = done
     checks = _checks(result)
     index, _ = governing_check(result.bending, result.shear, result.bearing, result.deflection)
+    rated = [c for c in checks if not c["uplift"]]  # the index counts the checks, not the uplift rows among them
     return {
         "error": "",
         "loads_from": loads_from,
         "status": result.status.value.replace("_", " "),
-        "governing": checks[index]["name"],
+        "governing": rated[index]["name"],
         "utilisation": result.governing_utilisation,
         "checks": checks,
         "findings": [

@@ -363,3 +363,8 @@ def test_register_checks_give_a_lifting_bearing_its_uplift_row():
     assert uplift["demand"].endswith(f"; specified {-specified:.1f} kN")
     assert uplift["utilisation"] is None
     assert "uplift, support 2" not in names  # support 2 carries the overhang: it is pressed down
+    # the uplift row is not a rated check: the governing check is counted among the checks alone (the page
+    # named "uplift, support 1" with support 2's bearing utilisation, the row after it, when it was not)
+    page = registry.recheck_now(beam.model_dump(mode="json"), {})
+    assert page["governing"] == "bearing, support 2"
+    assert page["utilisation"] == next(r["utilisation"] for r in rows if r["name"] == "bearing, support 2")
