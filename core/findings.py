@@ -43,14 +43,30 @@ def _finding(
     )
 
 
-def overstress_urgency(dead_load_only: bool, snow_in_combination: bool, action: str) -> tuple[Priority, str]:
-    """Priority and action of a strength overstress under its governing combination.
+def fails_under_dead_load(check: BendingRegion | ShearCheck | BearingCheck) -> bool:
+    """True when a check fails under its dead load alone (1.4D), whichever combination governs it."""
+    return check.dead_load_only or (check.dead_load_utilisation is not None and check.dead_load_utilisation > 1.0)
 
-    Dead load alone: immediate, with the propping instruction first (the member is overstressed as it
-    stands). A combination with snow: immediate, with the shoring instruction first (a contractor cannot
-    keep snow off). Otherwise before loading (the contractor controls the live load).
+
+def dead_load_words(check: BendingRegion | ShearCheck | BearingCheck) -> str:
+    """The sentence a failing check carries when the dead load alone fails it but another combination governs."""
+    if check.dead_load_only or not fails_under_dead_load(check):
+        return ""
+    return (
+        f" Under its dead load alone (1.4D) the utilisation is {check.dead_load_utilisation:.2f}: it is "
+        "overstressed as it stands, before any live or snow load."
+    )
+
+
+def overstress_urgency(dead_load_fails: bool, snow_in_combination: bool, action: str) -> tuple[Priority, str]:
+    """Priority and action of a strength overstress.
+
+    Failing under dead load alone (1.4D), governing or not: immediate, with the propping instruction first
+    (the member is overstressed as it stands). A governing combination with snow: immediate, with the
+    shoring instruction first (a contractor cannot keep snow off). Otherwise before loading (the
+    contractor controls the live load).
     """
-    if dead_load_only:
+    if dead_load_fails:
         return Priority.immediate, DEAD_MAKE_SAFE + action
     if snow_in_combination:
         return Priority.immediate, SNOW_MAKE_SAFE + action
@@ -183,7 +199,7 @@ def bending_findings(beam: Beam, member: Member, bending: list[BendingRegion]) -
             )
         elif r.outcome is Outcome.overstress and r.utilisation is not None and r.mr_knm is not None:
             priority, action = overstress_urgency(
-                r.dead_load_only,
+                fails_under_dead_load(r),
                 r.snow_in_combination,
                 "Do not load beyond its present load; refer to the engineer of record for a repair, "
                 "added bracing or a replacement member.",
@@ -195,7 +211,8 @@ def bending_findings(beam: Beam, member: Member, bending: list[BendingRegion]) -
                     region=r.region,
                     message=(
                         f"{beam.mark}, {r.region}: factored moment {r.mf_knm:.1f} kN·m exceeds the "
-                        f"resistance {r.mr_knm:.1f} kN·m (utilisation {r.utilisation:.2f}, {r.combination}).{rests}"
+                        f"resistance {r.mr_knm:.1f} kN·m (utilisation {r.utilisation:.2f}, {r.combination})."
+                        f"{dead_load_words(r)}{rests}"
                     ),
                     action=action,
                     clause=r.clause,
@@ -437,7 +454,7 @@ def check_findings(
     out = []
     if shear.utilisation > 1.0:
         priority, action = overstress_urgency(
-            shear.dead_load_only,
+            fails_under_dead_load(shear),
             shear.snow_in_combination,
             "Refer to the engineer of record before further loading.",
         )
@@ -448,10 +465,11 @@ def check_findings(
                 message=(
                     f"{beam.mark}: total factored load {shear.vf_kn:.1f} kN exceeds the shear resistance Wr "
                     f"{shear.vr_kn:.1f} kN of the volume method (utilisation {shear.utilisation:.2f}, "
-                    f"{shear.combination})."
+                    f"{shear.combination}).{dead_load_words(shear)}"
                     if shear.volume_method
                     else f"{beam.mark}: factored shear {shear.vf_kn:.1f} kN exceeds the resistance "
                     f"{shear.vr_kn:.1f} kN (utilisation {shear.utilisation:.2f}, {shear.combination})."
+                    f"{dead_load_words(shear)}"
                 ),
                 action=action,
                 clause=shear.clause,
@@ -460,7 +478,7 @@ def check_findings(
     for b in bearing:
         if b.utilisation > 1.0:
             priority, action = overstress_urgency(
-                b.dead_load_only,
+                fails_under_dead_load(b),
                 b.snow_in_combination,
                 "Lengthen the bearing or add a bearing plate as directed by the engineer of record.",
             )
@@ -472,6 +490,7 @@ def check_findings(
                     message=(
                         f"{beam.mark} at support {b.support}: factored reaction {b.qf_kn:.1f} kN exceeds the bearing "
                         f"resistance {b.qr_kn:.1f} kN over {b.length_mm:g} mm (utilisation {b.utilisation:.2f})."
+                        f"{dead_load_words(b)}"
                     ),
                     action=action,
                     clause=b.clause,

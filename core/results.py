@@ -28,7 +28,7 @@ CAUTION = (
 # The version of what a recheck prints. Bump it with every change that may change a recheck's output (the
 # golden digests, tests/core/golden_versions.txt, refuse a rewrite under the same version): stored results
 # of another version are recomputed when a database is opened (storage.results).
-RESULTS_VERSION = 8
+RESULTS_VERSION = 9
 
 
 class Out(BaseModel):
@@ -107,6 +107,9 @@ class BendingRegion(Out):
     compression_edge_unbraced: bool = False  # nothing braces the compression edge between its restraints
     dead_load_only: bool = False  # the governing combination is dead load alone (1.4D, permanent KD)
     snow_in_combination: bool = False  # the governing combination includes snow (nobody on site can keep it off)
+    # the utilisation under the dead load alone (1.4D, permanent KD) where it was found, governing or not:
+    # over 1.0 the member is overstressed as it stands, whatever combination governs
+    dead_load_utilisation: float | None = None
     trace: list[FactorTrace]
     # not established only: what the member would give if its bearings were restrained (an upper bound;
     # the real capacity is lower). None when even that is not permitted (CB > 50; said in the trace).
@@ -132,6 +135,9 @@ class ShearCheck(Out):
     trace: list[FactorTrace]
     dead_load_only: bool = False  # the governing combination is dead load alone (1.4D, permanent KD)
     snow_in_combination: bool = False  # the governing combination includes snow (nobody on site can keep it off)
+    # the utilisation under the dead load alone (1.4D, permanent KD) where it was found, governing or not:
+    # over 1.0 the member is overstressed as it stands, whatever combination governs
+    dead_load_utilisation: float | None = None
 
     @property
     def volume_method(self) -> bool:
@@ -157,6 +163,9 @@ class BearingCheck(Out):
     uplift_snow: bool = False  # the combination of the largest factored uplift includes snow
     dead_load_only: bool = False  # the governing combination is dead load alone (1.4D, permanent KD)
     snow_in_combination: bool = False  # the governing combination includes snow (nobody on site can keep it off)
+    # the utilisation under the dead load alone (1.4D, permanent KD) where it was found, governing or not:
+    # over 1.0 the member is overstressed as it stands, whatever combination governs
+    dead_load_utilisation: float | None = None
 
 
 class DeflectionCheck(Out):

@@ -81,6 +81,7 @@ def _one_bearing(
     best: tuple[float, float, float, LoadCase] | None = None
     lowest: tuple[float, LoadCase] | None = None
     qr_by_kd: dict[float, float] = {}
+    dead_util: float | None = None  # under 1.4D alone, governing or not
     for case in cases:
         qr = qr_by_kd.get(case.kd)
         if qr is None:
@@ -91,6 +92,8 @@ def _one_bearing(
         util = qf / qr
         if best is None or util > best[0]:
             best = (util, qr, qf, case)
+        if case.combo.dead_load_only and (dead_util is None or util > dead_util):
+            dead_util = util
         if lowest is None or reaction < lowest[0]:
             lowest = (reaction, case)
     assert best is not None
@@ -119,6 +122,7 @@ def _one_bearing(
             "uplift_snow": uplift is not None and carries_snow(lowest[1], beam),
             "dead_load_only": case.combo.dead_load_only,
             "snow_in_combination": carries_snow(case, beam),
+            "dead_load_utilisation": dead_util,
         },
     )
 

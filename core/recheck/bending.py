@@ -420,6 +420,7 @@ class _Search:
         self.keys: dict[tuple[Any, ...], _Key] = {}
         self.names: dict[tuple[Any, ...], str] = {}
         self.best: dict[str, tuple[tuple[int, float], list[Any], LoadCase, EdgeSupport, bool, _Entry]] = {}
+        self.dead: dict[str, float] = {}  # each region's utilisation under 1.4D alone, where it has one
 
     def _key(self, span: list[Any]) -> _Key:
         """Edge, not-established flag and (when it rests on sign and elements alone) the name of a region key.
@@ -464,6 +465,8 @@ class _Search:
             held = best.get(name)
             if held is None or rank > held[0]:
                 best[name] = (rank, span, case, edge, ne, entry)
+            if case.combo.dead_load_only and rank[0] in (_OK, _OVERSTRESS):
+                self.dead[name] = max(rank[1], self.dead.get(name, rank[1]))
 
 
 def _assembled_region(
@@ -503,6 +506,7 @@ def _assembled_region(
             "compression_edge_unbraced": numbers["compression_edge_unbraced"],
             "dead_load_only": numbers["dead_load_only"],
             "snow_in_combination": numbers["snow_in_combination"],
+            "dead_load_utilisation": numbers.get("dead_load_utilisation"),
             "trace": trace,
             "kl_if_restrained": numbers.get("kl_if_restrained"),
             "mr_if_restrained_knm": numbers.get("mr_if_restrained_knm"),
@@ -536,6 +540,7 @@ def bending_regions(
         # entry holds the restrained edge's KL, so its upper bound is found again for its own ends)
         known = None if trace is not None or ne else entry[3]
         numbers = bending_check(beam, member, model, region, case, edge, ne, trace, known)
+        numbers["dead_load_utilisation"] = search.dead.get(name)
         if rows is not None:
             rows.update(member.rows_used)  # the member's lines open every region's trace
         clause = "CSA O86-19 7.5.6.5.1, 7.5.6.4" if beam.material is Material.glulam else "CSA O86-19 6.5.3"

@@ -108,11 +108,14 @@ def shear_check(
     volume = glulam_volume_m3(beam.b_mm, beam.d_mm, model.total_length_mm)
     volume_method = beam.material is Material.glulam and volume >= GLULAM_SIMPLE_SHEAR_MAX_VOLUME_M3
     best: tuple[float, float, float, LoadCase] | None = None
+    dead_util: float | None = None  # under 1.4D alone, governing or not
     for case in cases:
         resist, demand = _resistance_and_demand(beam, member, model, case, volume, volume_method)
         util = demand / resist
         if best is None or util > best[0]:
             best = (util, resist, demand, case)
+        if case.combo.dead_load_only and (dead_util is None or util > dead_util):
+            dead_util = util
     assert best is not None
     util, resist, demand, case = best
     method, clause = _method(beam, volume_method)
@@ -134,5 +137,6 @@ def shear_check(
             "trace": [] if trace is None else trace.lines,
             "dead_load_only": case.combo.dead_load_only,
             "snow_in_combination": carries_snow(case, beam),
+            "dead_load_utilisation": dead_util,
         },
     )
