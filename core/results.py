@@ -28,7 +28,7 @@ CAUTION = (
 # The version of what a recheck prints. Bump it with every change that may change a recheck's output (the
 # golden digests, tests/core/golden_versions.txt, refuse a rewrite under the same version): stored results
 # of another version are recomputed when a database is opened (storage.results).
-RESULTS_VERSION = 9
+RESULTS_VERSION = 10
 
 
 class Out(BaseModel):
@@ -67,17 +67,21 @@ class FactorTrace(Out):
     clause: str = ""
     source: str = ""
     status: TraceStatus = TraceStatus.formula
+    # the rule this line rests on, in words the same for every beam, where its source also tells this beam's
+    # numbers or record ("d/b = 2.64 <= 6.5 (...)"): the row a reviewer acknowledges is the rule, once
+    row: str = ""
 
 
-# a table row (or tabulated rule) a recheck used, as its trace line names it: (clause, source, status); the
-# statuses that mark such a line: verified, confirmed or memory (formula and input lines rest on no table)
+# a table row (or tabulated rule) a recheck used, as its trace line names it: (clause, row or else source,
+# status); the statuses that mark such a line: verified, confirmed or memory (formula and input lines rest on
+# no table)
 RowUsed = tuple[str, str, TraceStatus]
 TABLE_STATUSES = frozenset((TraceStatus.verified, TraceStatus.confirmed, TraceStatus.memory))
 
 
 def trace_rows(trace: Iterable[FactorTrace]) -> set[RowUsed]:
-    """The table rows named by trace lines: (clause, source, status) of each line verified, confirmed or memory."""
-    return {(t.clause, t.source, t.status) for t in trace if t.status in TABLE_STATUSES}
+    """The table rows named by trace lines: (clause, row or source, status) of each verified, confirmed, memory line."""
+    return {(t.clause, t.row or t.source, t.status) for t in trace if t.status in TABLE_STATUSES}
 
 
 class BendingRegion(Out):

@@ -27,6 +27,7 @@ def _kzcp_line(trace: Lines, beam: Beam, kzcp: float) -> None:
         "CSA O86-19 6.5.6.2.3 (memory)",
         f"r = b/d = {beam.b_mm / beam.d_mm:.3f}: 1.0 + 0.15 (r - 1), at least 1.0, at most 1.15",
         TraceStatus.memory,
+        row="KZcp = 1.0 + 0.15 (r - 1) with r = b/d, at least 1.0, at most 1.15",
     )
 
 

@@ -24,7 +24,7 @@ from core.clauses.stability import (
 )
 from core.edges import EdgeSupport, compression_edge, unrestrained_elements
 from core.effective_length import chosen_row
-from core.kinds import ElementKind, MomentSign, Outcome, TraceStatus
+from core.kinds import Edge, ElementKind, MomentSign, Outcome, TraceStatus
 from core.member import Member
 from core.models import Beam, Material, NegativeLu
 from core.recheck.cases import LoadCase, carries_snow
@@ -78,6 +78,7 @@ def _head_trace(
         f"{beam.species} {beam.grade}" + ("" if sawn else f", top stamp {beam.top_stamp.value}"),
         member.grade_status,
         "MPa",
+        row="" if sawn else FACE_RULE,
     )
     trace.add(
         "Fb",
@@ -87,10 +88,11 @@ def _head_trace(
         TraceStatus.formula,
         "MPa",
     )
+    rule = LU_RULE_TOP if edge.edge is Edge.top else LU_RULE_BOTTOM
     if edge.continuous:
-        trace.add("Lu", "held continuously", "", edge.description, edge.status)
+        trace.add("Lu", "held continuously", "", edge.description, edge.status, row=rule)
     else:
-        trace.add("Lu", round(edge.lu_mm), "", edge.description, edge.status, "mm")
+        trace.add("Lu", round(edge.lu_mm), "", edge.description, edge.status, "mm", row=rule)
     if edge.option:
         trace.add("option", edge.option, "", "chosen by the reviewer", TraceStatus.input)
 
@@ -169,6 +171,24 @@ def bending_check(
     return out
 
 
+# the rules the Lu lines rest on (reference o86.md: the definition of Lu, Q3 and section 13), one row each
+LU_RULE_TOP = (
+    "Lu of a top edge in compression: the spacing of purlins or joists fastened to it, held continuously by "
+    "fastened decking, else the distance between restrained bearings"
+)
+LU_RULE_BOTTOM = (
+    "Lu of a bottom edge in compression: the distance between real restraints of that edge (bracing, restrained "
+    "bearings); a point of zero moment is not a brace"
+)
+LU_RULE_SAWN = (
+    "Lu of sawn lumber past its d/b tier: the spacing of the points that restrain rotation (bridging, blocking, "
+    "restrained bearings), never zero"
+)
+# the rule the glulam fb line rests on (the grade's values are the grade row's), one row for every grade
+FACE_RULE = (
+    "fb of the face in tension: fb_pos where that face is the layup's marked bottom (TOP stamp up and sagging, "
+    "or TOP stamp down and hogging), fb_neg otherwise; TOP stamp not seen: the lesser of the two"
+)
 _MR_CLAUSE_SAWN = "CSA O86-19 6.5.3.1 (memory)"  # the sawn Mr line's clause (reference o86.md section 2)
 _GLULAM_MR = "lesser of phi Fb S KX KZbg and phi Fb S KX KL, phi = 0.9, KX = 1"  # the glulam Mr line's source
 
@@ -217,7 +237,7 @@ def _upper_bound(
     kl = _stability_kl(beam, member, restrained_edge, fb, scratch, sub)
     if trace is not None and sub is not None and trace.rows is None:
         for t in sub.lines:
-            trace.add(f"{t.symbol} (if restrained)", t.value, t.clause, t.source, t.status.value, t.unit)
+            trace.add(f"{t.symbol} (if restrained)", t.value, t.clause, t.source, t.status.value, t.unit, t.row)
     if isinstance(kl, NotPermitted):
         note(trace, "Mr (if restrained)", None, kl.clause, f"not permitted even if restrained: {kl}", "formula")
         return
@@ -249,10 +269,12 @@ def _stability_kl(
         return _sawn_kl(beam, member, edge, fb, out, trace)
     if glulam_db_waives_stability(beam.d_mm, beam.b_mm):
         if trace is not None:  # without a trace nothing is formatted
-            trace.add("KL", 1.0, "CSA O86-19 7.5.6.3.2", f"d/b = {beam.d_mm / beam.b_mm:.2f} <= 2.5", "memory")
+            db = f"d/b = {beam.d_mm / beam.b_mm:.2f} <= 2.5"
+            trace.add("KL", 1.0, "CSA O86-19 7.5.6.3.2", db, "memory", row="KL = 1 where d/b <= 2.5")
         return 1.0
     if edge.continuous:
-        note(trace, "KL", 1.0, "CSA O86-19 7.5.6.3", edge.description, "memory")
+        row = "KL = 1 where the compression edge is held continuously"
+        note(trace, "KL", 1.0, "CSA O86-19 7.5.6.3", edge.description, "memory", row=row)
         return 1.0
     return _kl_from_lu(beam, member, edge, fb, member.e_mpa, edge.lu_mm, out, trace)
 
@@ -269,7 +291,8 @@ def _sawn_kl(
     db = beam.d_mm / beam.b_mm
     limit, need = lumber_db_limit(edge.purlins_in_line, edge.held_directly, edge.bridging, edge.both_edges)
     if db <= limit:
-        note(trace, "KL", 1.0, "CSA O86-19 6.5.3.2.1", f"d/b = {db:.2f} <= {limit:g} ({need})", "memory")
+        row = f"KL = 1 where d/b <= {limit:g} ({need})"
+        note(trace, "KL", 1.0, "CSA O86-19 6.5.3.2.1", f"d/b = {db:.2f} <= {limit:g} ({need})", "memory", row=row)
         return 1.0
     e = member.e05_mpa
     note(
@@ -279,12 +302,13 @@ def _sawn_kl(
         "CSA O86-19 6.5.3.2",
         f"d/b = {db:.2f} > {limit:g}: glulam KL method with E05 (conservative choice)",
         "memory",
+        row=f"past d/b {limit:g} ({need}): the glulam KL method with E05 (conservative choice)",
     )
     # reference o86.md section 13: past its tier, Lu is the spacing of the points that restrain
     # rotation as well as displacement (bridging, blocking, bearings), never zero for a held edge.
     lu = edge.lu_rotation_mm
     out["lu_mm"] = lu
-    note(trace, "Lu", round(lu), "CSA O86-19 6.5.3.2 (memory)", edge.rotation_how, "memory", "mm")
+    note(trace, "Lu", round(lu), "CSA O86-19 6.5.3.2 (memory)", edge.rotation_how, "memory", "mm", row=LU_RULE_SAWN)
     return _kl_from_lu(beam, member, edge, fb, e, lu, out, trace)
 
 

@@ -23,18 +23,19 @@ def line(
     clause: str = "",
     source: str = "",
     status: str = TraceStatus.formula,
+    row: str = "",
 ) -> FactorTrace:
-    """One FactorTrace (status: a TraceStatus value).
+    """One FactorTrace (status: a TraceStatus value; row: the rule it rests on, where not its source).
 
     Trace lines are frozen, so equal lines are built once and shared (most repeat from beam to beam).
     """
-    key = (symbol, type(value), value, unit, clause, source, status)
+    key = (symbol, type(value), value, unit, clause, source, status, row)
     hit = _LINES.get(key)
     if hit is None:
         if len(_LINES) >= _LINES_MAX:
             _LINES.clear()
         hit = _LINES[key] = FactorTrace(
-            symbol=symbol, value=value, unit=unit, clause=clause, source=source, status=TraceStatus(status)
+            symbol=symbol, value=value, unit=unit, clause=clause, source=source, status=TraceStatus(status), row=row
         )
     return hit
 
@@ -57,16 +58,25 @@ class Lines:
         self.rows = rows
 
     def add(
-        self, symbol: str, value: float | str | None, clause: str, source: str, status: str, unit: str = ""
+        self,
+        symbol: str,
+        value: float | str | None,
+        clause: str,
+        source: str,
+        status: str,
+        unit: str = "",
+        row: str = "",
     ) -> None:
-        """One line (status: a TraceStatus value); as a row, only when its status is a table's."""
+        """One line (status: a TraceStatus value); as a row (``row`` or else its source), only for a table's status."""
         rows = self.rows
         if rows is None:
-            self.lines.append(line(symbol=symbol, value=value, unit=unit, clause=clause, source=source, status=status))
+            self.lines.append(
+                line(symbol=symbol, value=value, unit=unit, clause=clause, source=source, status=status, row=row)
+            )
             return
         table = _TABLE_STATUS.get(status)
         if table is not None:
-            rows.add((clause, source, table))
+            rows.add((clause, row or source, table))
 
 
 # the statuses of a table row (core.results.TABLE_STATUSES), by value
@@ -92,15 +102,23 @@ def note(
     source: str,
     status: str,
     unit: str = "",
+    row: str = "",
 ) -> None:
     """Write one trace line when a trace or its rows are being kept (status: a TraceStatus value)."""
     if trace is not None:
-        trace.add(symbol, value, clause, source, status, unit)
+        trace.add(symbol, value, clause, source, status, unit, row)
 
 
 def add_kd(trace: Lines, case: LoadCase) -> None:
     """The KD line of a check's trace (CSA O86-19 5.3.2), with how KD was chosen."""
-    trace.add("KD", case.kd, "CSA O86-19 5.3.2", case.kd_note, TraceStatus.memory)
+    trace.add("KD", case.kd, "CSA O86-19 5.3.2", case.kd_note, TraceStatus.memory, row=KD_RULE)
+
+
+# the rule every KD line rests on (CSA O86-19 5.3.2, Table 5.1; reference o86.md section 3.1), one row for all
+KD_RULE = (
+    "KD by load duration: 0.65 for dead load alone (1.4D); standard term 1.0, or 1 - 0.5 log(PL/PS) >= 0.65 "
+    "where the specified long-term load PL exceeds the standard-term load PS"
+)
 
 
 def strength_line(trace: Lines, member: Member, symbol: str, value_mpa: float) -> None:

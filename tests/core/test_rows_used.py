@@ -119,3 +119,29 @@ def test_rows_without_a_trace_fast_golden_subset():
 def test_rows_without_a_trace_every_golden_beam():
     # every kind, option and restraint case of the 5,000 golden beams
     assert _differing(golden.beams(golden.COUNT)) == []
+
+
+def test_a_memory_row_is_a_rule_not_a_beams_record():
+    """A reviewer acknowledges each rule from memory once, not once per beam.
+
+    Common practice: what is acknowledged is the rule's source; the reviewer's own measurements are not table
+    values. Found by a review of the demo notice: "top edge braced by fastened purlins at 1200 mm", "bearings 3900 mm
+    apart", "d/b = 2.64 <= 6.5" and one KD line per load level were 45 rows to acknowledge for one site (27 now),
+    and the notice printed the reviewer's measurements as "MEMORY: not checked against the standard's text".
+    """
+    beams = golden.beams(400)
+    per_beam = re.compile(r"\d+ mm apart|d/b = \d|PL = \d|r = b/d = \d|at \d+ mm|\d+ mm between|purlins at")
+    memory = set()
+    for beam in beams:
+        result = recheck(beam)
+        for row in rows_used(result):
+            if row[2] is TraceStatus.memory:
+                assert not per_beam.search(row[1]), row
+                memory.add(row)
+        # the trace line itself still tells this beam's numbers (the sheet prints its source beside its rule)
+        lu = [t for r in result.bending for t in r.trace if t.symbol == "Lu" and isinstance(t.value, int)]
+        assert all(re.search(r"\d", t.source) or "between bearings" in t.source for t in lu), lu
+    kd = {row for row in memory if row[0] == "CSA O86-19 5.3.2"}
+    assert len(kd) == 1  # one KD rule for every load level
+    lu_rules = {row[1] for row in memory if row[1].startswith("Lu of ")}
+    assert len(lu_rules) <= 3  # top edge, bottom edge, sawn lumber past its tier

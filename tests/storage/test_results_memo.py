@@ -254,7 +254,8 @@ def _traced_summary(beam):
     checks.append(("deflection", result.deflection.trace))
     index, _ = governing_check(result.bending, result.shear, result.bearing, result.deflection)
     statuses = ("verified", "confirmed", "memory")
-    rows = {(t.clause, t.source, t.status) for _, trace in checks for t in trace if t.status in statuses}
+    # a line's row is the rule it rests on where it names one (``FactorTrace.row``), else its source
+    rows = {(t.clause, t.row or t.source, t.status) for _, trace in checks for t in trace if t.status in statuses}
     findings = tuple((f.code, f.priority.value, f.region or "") for f in result.findings)
     util = None if result.governing_utilisation is None else round(float(result.governing_utilisation), 6)
     return result.status.value, checks[index][0], util, findings, tuple(sorted(rows))
