@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import math
 import re
 from collections.abc import Callable
 from dataclasses import dataclass, field, replace
@@ -290,6 +291,32 @@ def _abbreviation_dot(text: str, k: int) -> bool:
     return word in ABBREVIATIONS or text[k + 2 : k + 3].isdigit()
 
 
+AT_MM = 0.5  # a purlin this close to a bearing or to the member's end is at it (float error, not a real offset)
+
+
+def purlin_x(elements: list[tuple[str, float, float]], spacing_mm: float) -> list[float]:
+    """Where purlins at ``spacing_mm`` (mm) bear on the member: mm from its left end, left to right.
+
+    ``elements`` are the sketch's (kind, x0 mm, length mm), overhangs and spans in order. The purlins run
+    at the recorded spacing along the whole member, overhangs included (common practice: one row at one
+    spacing), laid out from the first bearing as the sketch always laid them out: the first purlin one
+    spacing from it, then each way to the member's ends, across every later bearing without starting
+    again (a span shorter than the spacing carries whatever falls on it). One falling on a bearing or on
+    an end of the member is not drawn, as before: the bearing or the end is drawn there.
+    """
+    spans = [(x0, length) for kind, x0, length in elements if kind == "span"]
+    if not spans:
+        return []
+    bearings = [x0 for x0, _ in spans] + [spans[-1][0] + spans[-1][1]]
+    origin, end = bearings[0], max(x0 + length for _, x0, length in elements)
+    before, after = math.ceil(origin / spacing_mm), math.ceil((end - origin) / spacing_mm)
+    return [
+        x
+        for x in (origin + k * spacing_mm for k in range(-before, after + 1))
+        if AT_MM < x < end - AT_MM and all(abs(x - b) > AT_MM for b in bearings)
+    ]
+
+
 def sketch_for(beam: Beam) -> Sketch:
     """Geometry for the beam sketch: spans, supports, restraint, braces and negative regions."""
     elements = []
@@ -323,13 +350,10 @@ def sketch_for(beam: Beam) -> Sketch:
         for b in beam.bearings
     ]
     top: list[float] = []
-    # every purlin recorded is drawn, fastened or not (the sketch draws an unfastened one hollow and says so)
+    # every purlin recorded is drawn, fastened or not (the sketch draws an unfastened one hollow and says so),
+    # over the overhangs and short spans too
     if beam.top_edge.braced_by is TopBracing.purlins and beam.top_edge.spacing_mm:
-        for kind, x0, length in elements:
-            if kind == "span":
-                n = int(length // beam.top_edge.spacing_mm)
-                step = beam.top_edge.spacing_mm
-                top += [x0 + step * k for k in range(1, n + 1) if step * k < length]
+        top = purlin_x(elements, beam.top_edge.spacing_mm)
     bottom: list[float] = []
     if beam.bottom_edge.braced_by is BottomBracing.braces and beam.bottom_edge.spacing_mm:
         total = x + beam.overhang_right_mm if beam.overhang_right_mm else x

@@ -40,6 +40,7 @@ from reports.content import (
     member_sketch,
     one_line,
     ordered,
+    trace_value,
     typeset,
     uplift_row,
 )
@@ -847,7 +848,7 @@ def render_recheck_sheet(beam: Beam, result: Recheck, site_name: str = "", note:
         trows = [head_row] + [
             [
                 Paragraph(esc(t.symbol), words),
-                Paragraph(esc(_trace_value(t.value)) + " " + esc(typeset(t.unit)), words),
+                Paragraph(esc(trace_value(t.value)) + " " + esc(typeset(t.unit)), words),
                 Paragraph(esc(t.clause), st["small"]),
                 Paragraph(esc(typeset(t.source)), st["small"]),
                 Paragraph(esc(t.status), st["small"]),
@@ -871,9 +872,10 @@ def render_recheck_sheet(beam: Beam, result: Recheck, site_name: str = "", note:
     # a finding is never split across a page (its action read apart from its message), and the heading stays
     # with the first one
     found[0].insert(0, Paragraph("Findings", st["h2"]))
+    # the closing caution and the signature boxes stay with the last finding (or the "None." under the heading):
+    # a signature alone on a page can be parted from what it signs (common practice for a sealed document)
+    found[-1] += [Spacer(1, 6), Paragraph(esc(result.caution), st["small"]), Spacer(1, 4), _sign_off(st)]
     story += [KeepTogether(one) for one in found]
-    story.append(Spacer(1, 6))
-    story.append(KeepTogether([Paragraph(esc(result.caution), st["small"]), Spacer(1, 4), _sign_off(st)]))
 
     class _Canvas(NumberedCanvas):
         footer_left = f"recheck sheet {mark}"
@@ -969,12 +971,3 @@ def _sign_off(st: dict[str, Any]) -> Table:
     t = Table(rows, colWidths=[80 * mm, 40 * mm, 66 * mm], rowHeights=[None, 14 * mm])
     t.setStyle(TableStyle([("GRID", (0, 0), (-1, -1), 0.5, colors.grey), ("VALIGN", (0, 0), (-1, -1), "TOP")]))
     return t
-
-
-def _trace_value(value: float | str | None) -> str:
-    """A trace value as the sheet prints it: 4 significant figures (whole above 1000, never an exponent); None: '-'."""
-    if value is None:
-        return "-"
-    if isinstance(value, float):
-        return f"{value:.0f}" if abs(value) >= 1000 else f"{value:.4g}"
-    return str(value)

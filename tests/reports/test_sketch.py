@@ -18,7 +18,7 @@ from reportlab.lib import colors
 from reportlab.pdfbase.pdfmetrics import getAscentDescent, stringWidth
 
 from core.recheck import recheck
-from reports.content import sketch_for
+from reports.content import member_sketch, purlin_x, sketch_for
 from reports.render import render_recheck_sheet
 from reports.sketch import beam_sketch, register_fonts
 from tests.core.beams import glulam
@@ -164,3 +164,76 @@ def test_decking_is_drawn_dashed_unless_recorded_as_fastened(fastened, dashed):
     legend = _legend(drawing)
     assert ("dashed top line: decking" in legend) is dashed
     assert ("thick top line: decking, fastened" in legend) is not dashed
+
+
+def _label_centres(pdf: bytes) -> dict[str, float]:
+    """The sketch's short labels on page 1 ('P2', 'S1 R') and the x of each one's centre, in the drawing (pt).
+
+    pypdf gives where each label starts; reportlab's width of it in the sketch's font adds half (centred labels).
+    """
+    register_fonts()
+    out: dict[str, float] = {}
+
+    def visit(text, _cm, tm, *_font_and_size):
+        label = text.strip()
+        if re.fullmatch(r"P\d+|S\d+ (R|NOT R|R\?)", label):
+            out[label] = tm[4] + stringWidth(label, "BWSans", 8) / 2
+
+    PdfReader(io.BytesIO(pdf)).pages[0].extract_text(visitor_text=visit)
+    return out
+
+
+ROW = {"braced_by": "purlins", "spacing_mm": 2400, "fastened": True}
+
+
+@pytest.mark.parametrize(
+    ("over", "expected_mm"),
+    [
+        # 7.2 m span and a 2.8 m cantilever: the row goes on past S2 onto the overhang (9600 mm from S1)
+        ({"overhang_right_mm": 2800}, [2400, 4800, 9600]),
+        # a 3 m overhang on the left: one spacing back from S1 (600 mm from the tip) as well as along the span
+        ({"overhang_left_mm": 3000}, [-2400, 2400, 4800]),
+        # a 1.8 m second span, shorter than the spacing: the row crosses S2 and a purlin lands at 7200 mm
+        ({"spans_mm": [6000, 1800], "bearings": [HELD] * 3}, [2400, 4800, 7200]),
+    ],
+)
+def test_every_purlin_on_the_member_is_drawn_on_the_sheet(over, expected_mm):
+    """Every purlin that bears on the member is drawn, on an overhang and on a span shorter than the spacing.
+
+    Purlins at a recorded spacing bear on the whole member, overhangs too (common practice: one row at one
+    spacing), here laid out from S1 as the sketch always was (the first one spacing from it). The sheet drew
+    them inside each span only, each span's row started again at its left bearing: a cantilever and a span
+    shorter than the spacing showed none. Read back from the PDF: each purlin label's centre, measured from
+    S1's label on the scale S1 to S2 sets (the first span's recorded length).
+    """
+    beam = glulam(top_edge=ROW, **over)
+    r = recheck(beam)
+    pdf = render_recheck_sheet(beam, r)
+    at = _label_centres(pdf)
+    scale = beam.spans_mm[0] / (at["S2 R"] - at["S1 R"])  # mm per pt
+    purlins = sorted((k for k in at if k.startswith("P")), key=lambda k: int(k[1:]))
+    assert [(at[k] - at["S1 R"]) * scale for k in purlins] == pytest.approx(expected_mm, abs=25)  # 1 pt
+    save_pngs(pdf, f"sketch-purlins-{'-'.join(map(str, expected_mm))}")
+    drawing = beam_sketch(member_sketch(beam, r), width_pt=186 / 25.4 * 72, height_pt=125)
+    assert _overprints(drawing) == []
+
+
+@pytest.mark.parametrize(
+    ("elements", "spacing_mm", "expected_mm"),
+    [
+        # a purlin that would fall exactly on the tip of an overhang, or on a bearing, is not drawn there
+        ([("span", 0.0, 7200.0), ("overhang", 7200.0, 2400.0)], 2400, [2400, 4800]),
+        ([("span", 0.0, 7200.0), ("overhang", 7200.0, 2401.0)], 2400, [2400, 4800, 9600]),
+        ([("overhang", 0.0, 2400.0), ("span", 2400.0, 4800.0)], 2400, [4800]),
+        ([("overhang", 0.0, 2401.0), ("span", 2401.0, 4800.0)], 2400, [1, 4801]),
+        # 16 in on centre (406.4 mm, 1 in = 25.4 mm exactly): the sixth lands on the bearing 8 ft (2438.4 mm) from S1
+        (
+            [("span", 0.0, 2438.4), ("span", 2438.4, 1000.0)],
+            406.4,
+            [406.4, 812.8, 1219.2, 1625.6, 2032.0, 2844.8, 3251.2],
+        ),
+    ],
+)
+def test_purlins_on_a_bearing_or_at_the_tip_are_not_drawn(elements, spacing_mm, expected_mm):
+    """The ends of the row: on a bearing or an end of the member, nothing; a millimetre inside it, a purlin."""
+    assert purlin_x(elements, spacing_mm) == pytest.approx(expected_mm)
