@@ -285,7 +285,7 @@ def _bending_capacity(r: BendingRegion) -> str:
         return "not permitted as installed (CSA O86-19 slenderness limit)"
     if r.mr_knm is None:
         bound = "" if r.mr_if_restrained_knm is None else f"; at most {r.mr_if_restrained_knm:.1f} kN·m if restrained"
-        return "not established (bearing restraint missing)" + bound
+        return "not established (a bearing restraint missing or not seen)" + bound
     return f"Mr {r.mr_knm:.1f} kN·m"
 
 

@@ -305,7 +305,7 @@ def test_check_line_of_a_region_not_established_gives_the_upper_bound():
     r = recheck(glulam(bearings=[dict(R, rotation=False)] * 2))
     line = check_lines(r)[0]
     assert line.utilisation is None
-    assert line.capacity.startswith("not established (bearing restraint missing)")
+    assert line.capacity.startswith("not established (a bearing restraint missing or not seen)")
     assert f"at most {r.bending[0].mr_if_restrained_knm:.1f} kN·m if restrained" in line.capacity
 
 

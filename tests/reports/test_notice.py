@@ -114,7 +114,7 @@ def test_header_items_cautions_and_page_numbers():
 def test_not_established_recheck_numbers_printed():
     item, r = _item()
     text = " ".join(text_of(render_notice(_notice([item]))).split())  # cells wrap at any width
-    assert "not established (bearing restraint missing)" in text
+    assert "not established (a bearing restraint missing or not seen)" in text
     assert "not established, taken as failing" in text  # unseen restraint taken as the unfavourable case
     assert f"Mf {r.bending[0].mf_knm:.1f}" in text
 
