@@ -21,6 +21,7 @@ from mobile.screens.widgets import (
     UtilBar,
     big_button,
     choose_file,
+    done_look,
     info_popup,
     restraint_colour,
     status_colour,
@@ -40,7 +41,8 @@ class BeamScreen(Screen):
     """Log / edit a beam with the live recheck beside the form."""
 
     title = StringProperty("")
-    immediate_text = StringProperty("")
+    immediate_text = StringProperty("")  # every IMMEDIATE finding with its action (the banner unfolded)
+    immediate_short = StringProperty("")  # the banner folded: priority, count, what about
     photo_text = StringProperty("Photos: 0")
     refresh_ms = NumericProperty(0.0)
     archive_text = StringProperty(ARCHIVE_PROMPT)
@@ -64,8 +66,18 @@ class BeamScreen(Screen):
         self.raised_text = ""
         self.archive_text = ARCHIVE_PROMPT
         self.ids.form_scroll.scroll_y = 1  # another beam: start at the top of its form
+        self.ids.panel_scroll.scroll_y = 1  # and of its recheck, the status first (not the last beam's findings)
+        self.ids.immediate.folded = True
         self.load_form()
         self.render()
+        self.ids.caution.folded = bool(self.immediate_text)
+
+    def _show_immediate(self, text: str) -> None:
+        """The IMMEDIATE banner's text; the caution folds when a banner appears and unfolds when it goes."""
+        if bool(text) != bool(self.immediate_text):
+            self.ids.caution.folded = bool(text)
+        self.immediate_text = text
+        self.immediate_short = self.vm.immediate_summary() if text else ""
 
     def load_form(self) -> None:
         """Put every stored value (or kept draft) into its widget."""
@@ -103,7 +115,11 @@ class BeamScreen(Screen):
         self.title = "  ·  ".join(str(x) for x in (rec.get("mark"), rec.get("level"), grid) if x)
 
     def build_bearings(self, values: dict[str, str]) -> None:
-        """Per support: bearing length, then lateral and rotation each chosen directly (three large buttons)."""
+        """Per support: bearing length, then lateral and rotation each chosen directly (three large buttons).
+
+        Each pair of restraint rows is named on a line above its buttons, so the three share the column's
+        whole width: beside a 42 mm label they were too narrow for a word ('No restrai / nt').
+        """
         shape = (
             sorted((k, v) for k, v in values.items() if k.startswith("bearing")),
             sorted((k, v) for k, v in self.vm.errors.items() if k.startswith("bearing")),
@@ -129,8 +145,8 @@ class BeamScreen(Screen):
             self.length_inputs[i] = length
             box.add_widget(row)
             for key in ("lateral", "rotation"):
+                box.add_widget(Factory.Wrapped(text=f"S{i} {key} restraint"))
                 row = BoxLayout(size_hint_y=None, height="15mm", spacing=dp(6))
-                row.add_widget(Factory.FieldLabel(text=f"S{i} {key}"))
                 chosen = values.get(f"bearing{i}.{key}", "")
                 for state in ("yes", "no", "not_visible"):
                     on = state == chosen
@@ -282,7 +298,7 @@ class BeamScreen(Screen):
         t0 = time.perf_counter()
         if self.vm.result is None and not self.vm.recheck_error:
             self.vm.refresh()
-        self.immediate_text = "\n".join("▲ IMMEDIATE: " + x for x in self.vm.immediate_findings())
+        self._show_immediate("\n".join("▲ IMMEDIATE: " + x for x in self.vm.immediate_findings()))
         lines, findings = self.vm.panel_lines(), self.vm.findings()
         raised = tuple(self.vm.raised_number(i) for i, _ in findings)
         shape = (
@@ -317,7 +333,8 @@ class BeamScreen(Screen):
         panel.add_widget(self._status)
         self._rows: list[tuple[Button, UtilBar | None]] = []
         for _text, util, key in lines[1:]:
-            row = BoxLayout(orientation="vertical", size_hint_y=None, height="21mm" if util is not None else "15mm")
+            row = BoxLayout(orientation="vertical", size_hint_y=None)
+            row.bind(minimum_height=row.setter("height"))  # the line as tall as its text, then its bar
             line = Button(
                 font_size="16sp",
                 color=app.theme_fg,
@@ -325,8 +342,13 @@ class BeamScreen(Screen):
                 background_color=(0, 0, 0, 0),
                 halign="left",
                 valign="middle",
+                size_hint_y=None,
+                height=mm(15),
             )
-            line.bind(size=lambda w, s: setattr(w, "text_size", s))
+            line.bind(
+                width=lambda w, v: setattr(w, "text_size", (v - dp(8), None)),
+                texture_size=lambda w, ts: setattr(w, "height", max(mm(15), ts[1] + dp(10))),
+            )
             if key:
                 line.bind(on_release=lambda b, k=key: info_popup(b.text, self.vm.trace_lines(k)))
             row.add_widget(line)
@@ -340,6 +362,7 @@ class BeamScreen(Screen):
             lambda *_: info_popup("Table rows this recheck used", self.vm.table_row_lines()),
             font_size="16sp",
             halign="left",
+            grow=True,
         )
         panel.add_widget(self._rows_button)
         self._finding_labels: list[Label] = []
@@ -353,20 +376,13 @@ class BeamScreen(Screen):
             self._finding_labels.append(label)
             number = self.vm.raised_number(index)
             button = big_button(
-                f"Finding {index + 1} raised as {number}" if number else f"Raise deficiency from finding {index + 1}",
+                f"✔ Finding {index + 1} raised as {number}" if number else f"Raise deficiency from finding {index + 1}",
                 lambda _b, i=index: self.raise_finding(i),
                 halign="center",
+                grow=True,
             )
-            button.disabled = bool(number)  # never raised twice
+            if number:
+                done_look(button)  # never raised twice; its number readable
             panel.add_widget(button)
         if getattr(self, "raised_text", ""):
-            panel.add_widget(
-                Label(
-                    text=self.raised_text,
-                    font_size="18sp",
-                    bold=True,
-                    color=app.theme_fg,
-                    size_hint_y=None,
-                    height=dp(40),
-                )
-            )
+            panel.add_widget(Factory.Wrapped(text=self.raised_text, font_size="18sp", bold=True, halign="center"))

@@ -25,8 +25,13 @@ KEYPAD_KEYS = ("7", "8", "9", ";", "4", "5", "6", "C", "1", "2", "3", "'", "0", 
 
 
 def big_button(text: str, on_release: Any, **kw: Any) -> Button:
-    """A 15 mm button in the theme's colours (for rows built in Python)."""
+    """A 15 mm button in the theme's colours (for rows built in Python).
+
+    ``grow=True``: at least 15 mm, taller when its text needs more lines (a button alone in a vertical list,
+    never in a fixed-height row).
+    """
     app = App.get_running_app()
+    grow = kw.pop("grow", False)
     b = Button(
         text=text,
         font_size=kw.pop("font_size", "19sp"),
@@ -40,8 +45,24 @@ def big_button(text: str, on_release: Any, **kw: Any) -> Button:
         **kw,
     )
     b.bind(size=lambda w, s: setattr(w, "text_size", (s[0] - dp(16), None)))
+    if grow:
+        least = b.height
+        b.bind(texture_size=lambda w, ts: setattr(w, "height", max(least, ts[1] + dp(12))))
     b.bind(on_release=on_release)
     return b
+
+
+def done_look(button: Button) -> None:
+    """Show a button as done (disabled) and still readable in sunlight: the theme's text on its input colour.
+
+    Kivy draws a disabled button on a grey image with its text at 30 % alpha (light grey on grey, the
+    raised-finding buttons' deficiency numbers unreadable outdoors); its words say it is done ('✔ ... raised').
+    """
+    app = App.get_running_app()
+    button.disabled = True
+    button.background_disabled_normal = ""
+    button.background_color = app.theme_input
+    button.disabled_color = app.theme_fg
 
 
 def info_popup(title: str, lines: list[str]) -> Popup:
@@ -99,6 +120,21 @@ def choose_file(title: str, on_choice: Any, filters: list[str] | None = None) ->
     show(Path.home())
     popup.open()
     return popup
+
+
+class FoldBand(Button):
+    """A band shown short (folded) or whole; a tap switches, so the whole text is always one tap away.
+
+    Empty ``full`` hides it (0 high, transparent, disabled). The kv rule (widgets.kv) sizes it to its text.
+    """
+
+    short = StringProperty("")
+    full = StringProperty("")
+    folded = BooleanProperty(True)
+
+    def on_release(self) -> None:
+        """A tap: the whole text, or back to the short form."""
+        self.folded = not self.folded
 
 
 class TextField(BoxLayout):

@@ -15,6 +15,7 @@ from __future__ import annotations
 import copy
 import re
 import time
+from collections import Counter
 from collections.abc import Callable
 from dataclasses import dataclass, field
 from importlib.metadata import version
@@ -418,6 +419,26 @@ class BeamFormViewModel:
             return []
         return [f"{f.message} ACTION: {f.action}" for f in r.findings if f.priority.value == "immediate"]
 
+    def immediate_summary(self) -> str:
+        """The IMMEDIATE banner folded: priority, count and what the findings are about ('' when none).
+
+        One finding is named with where it is ('... 1 finding: bending overstress, span 1.'); several by kind,
+        with how many of each ('3 findings: bearing restraint missing (2), bending overstress.'), so the
+        folded banner stays a line or two. Built from the findings' priority, code and region, never their wording.
+        """
+        r = self.result or self.refresh()
+        found = [] if r is None else [f for f in r.findings if f.priority.value == "immediate"]
+        if not found:
+            return ""
+        head = PRIORITY_LABELS["immediate"]
+        if len(found) == 1:
+            (f,) = found
+            where = f", {f.region}" if f.region else ""
+            return f"{head} · 1 finding: {f.code.value.replace('_', ' ')}{where}. Tap to read it in full."
+        kinds = Counter(f.code for f in found)  # in the order first found
+        about = ", ".join(code.value.replace("_", " ") + (f" ({n})" if n > 1 else "") for code, n in kinds.items())
+        return f"{head} · {len(found)} findings: {about}. Tap to read them in full."
+
     def findings(self) -> list[tuple[int, str]]:
         """[(index, 'priority: message  ->  action')] for every finding."""
         r = self.result or self.refresh()
@@ -440,6 +461,8 @@ class BeamFormViewModel:
             text = f"{c.name}: {c.demand} vs {c.capacity}"
             if c.kind is CheckKind.bending:  # KL and CB beside Mr (the rest is in the trace, on tap)
                 text += f"  ({c.factors})"
+            elif c.combination:  # the loads it is checked under ("specified D + L + S": a roof's deflection)
+                text += f"  ({c.combination})"
             lines.append((text, c.utilisation, c.key))
         if r.status.value != "ok":  # computed on tap (trace_lines): each option costs several rechecks
             lines.append(("Options for the engineer of record (tap; never a design)", None, REMEDIES_KEY))

@@ -1,5 +1,7 @@
 """View models without Kivy: entering values updates the recheck, bad input stays at the field."""
 
+import re
+
 import pytest
 
 from mobile.demo.run import load_demo
@@ -126,3 +128,15 @@ def test_no_recheck_sheet_for_a_beam_that_cannot_be_rechecked_yet(form, tmp_path
     with pytest.raises(ValueError, match="no recheck sheet yet: still needs"):
         form.write_sheet(tmp_path / "exports")
     assert not (tmp_path / "exports").exists()
+
+
+def test_panel_lines_name_the_loads_each_check_is_made_under(form):
+    """Deflection is checked under specified loads, strength under factored ones.
+
+    NBC 4.1.3.2 (factored, ULS) and 4.1.3.5 (specified, SLS), from memory: the panel says which, as the
+    recheck sheet and the command line do; it said "46.4 mm vs limit 46.7 mm (L/180)" with no load named.
+    """
+    lines = {key: text for text, _u, key in form.panel_lines() if key}
+    assert re.search(r"\(specified (D \+ )?L \+ S\)$", lines["deflection"]), lines["deflection"]
+    for key in ["shear", *(k for k in lines if k.startswith("bearing"))]:
+        assert re.search(r"\((1\.4D|1\.25D \+ 1\.5[LS])[^()]*(\([^()]*\))?\)$", lines[key]), lines[key]

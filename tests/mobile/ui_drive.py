@@ -5,7 +5,11 @@ BRACEWALK_TEST_HUB_URL with the code in BRACEWALK_TEST_HUB_CODE, log a change, i
 "layout" (every screen held
 against the layout rules at the geometry the test set with KIVY_DPI / KIVY_METRICS_DENSITY and the
 window size), "type-then-kill" (type a note, wait for the autosave, then SIGKILL this process),
-"relaunch" (print what the note field shows).
+"relaunch" (print what the note field shows), "notice-layout" (the notice screen at the geometry: its
+problems printed as NOTICE-PROBLEM lines), "beam-geometry" (a passing, a deficient and a
+not-established beam held to ``beam_problems`` at the geometry: test_ui_beam.py), "defsite-geometry"
+(the sites screen, the demo site and its deficiency with the longest required action, every text whole, at
+the geometry: test_ui_defsite.py).
 Prints UI-OK (or UI-FAIL at <step>) and flushes, then stops the app.
 """
 
@@ -81,10 +85,26 @@ def _panel_problem(w):
 
     if not isinstance(w, ScrollView) or w.opacity == 0:
         return None
-    shown = _shown(w)
-    if shown is None or shown[3] - shown[1] < mm(15) - 1:
+    if _in_scroll_view(w):  # a list in a page that scrolls: its own height (the page brings it into view)
+        height = w.height
+    else:
+        shown = _shown(w)
+        height = 0 if shown is None else shown[3] - shown[1]
+    if height < mm(15) - 1:
         return f"panel {w.__class__.__name__} in {w.parent.__class__.__name__} has no height"
     return None
+
+
+def _in_scroll_view(w):
+    """Whether a ScrollView holds ``w`` (somewhere above it)."""
+    from kivy.uix.scrollview import ScrollView
+
+    node = w.parent
+    while node is not None and node is not node.parent:
+        if isinstance(node, ScrollView):
+            return True
+        node = node.parent
+    return False
 
 
 def _leaf_problems(w, what):
@@ -258,6 +278,147 @@ def deficiency_list_problems(box, immediate):
     if below and box.height <= view[3] - view[1]:
         found.append("site: IMMEDIATE items below the fold and the list does not scroll")
     return found
+
+
+def text_needs(w):
+    """(width, height) in px that a label's text takes at its wrap width with no height limit.
+
+    A label whose ``text_size`` fixes its height is drawn clipped to that height and reports that height as
+    its ``texture_size``; the text it cut is found only by laying the text out again without the limit.
+    """
+    from kivy.core.text import Label as CoreLabel
+    from kivy.core.text.markup import MarkupLabel
+
+    options = {**w._label.options, "text": w.text, "text_size": (w.text_size[0], None)}  # options keep the first text
+    return (MarkupLabel if w.markup else CoreLabel)(**options).render()
+
+
+def _drawn(w):
+    """Whether w is drawn at all (in view or scrolled out of it): nothing above it transparent, some height."""
+    node = w
+    while node is not None and node is not node.parent and node is not app.root_window:
+        if node.opacity == 0:
+            return False
+        node = node.parent
+    return w.height > 1 and w.width > 1
+
+
+def cut_text_problems(root):
+    """Labels drawn (in view or scrolled out of it) whose text needs more height than their box.
+
+    ``texture_size`` cannot show it when ``text_size`` fixes the height (see text_needs).
+    """
+    from kivy.uix.label import Label
+
+    found = []
+    for w in root.walk(restrict=True):
+        if not isinstance(w, Label) or not w.text.strip() or w.shorten or w.text_size[1] is None:
+            continue
+        if not _drawn(w):
+            continue
+        needs = text_needs(w)[1]
+        if needs > w.height + 2:
+            found.append(f"text {w.text[:40]!r} needs {needs:.0f} px, its box is {w.height:.0f} px high")
+    return found
+
+
+def mid_word_break(w):
+    """The lines of a wrapped label when one of its words is split across two lines ('No restrai / nt'), else ''."""
+    w.texture_update()
+    lines = ["".join(word.text for word in line.words) for line in w._label._cached_lines]
+    if [t for line in lines for t in line.split()] == w.text.split():
+        return ""
+    return " / ".join(line.strip() for line in lines)
+
+
+def _luminance(rgb):
+    """WCAG 2 relative luminance of an 8-bit sRGB colour."""
+    lin = [c / 255 / 12.92 if c <= 10 else ((c / 255 + 0.055) / 1.055) ** 2.4 for c in rgb]
+    return 0.2126 * lin[0] + 0.7152 * lin[1] + 0.0722 * lin[2]
+
+
+def drawn_contrast(png, w):
+    """WCAG contrast ratio of a widget as drawn in a screenshot (png).
+
+    Its commonest colour (the background) against the colour farthest from it in luminance (the text's strokes).
+    """
+    from PIL import Image
+
+    x0, y0, x1, y1 = _shown(w)
+    with Image.open(png) as img:
+        rgb = img.convert("RGB")
+        top = rgb.height
+        box = rgb.crop((int(x0) + 6, int(top - y1) + 6, int(x1) - 6, int(top - y0) - 6))
+        colours = box.getcolors(box.width * box.height)
+    background = max(colours)[1]
+    lb = _luminance(background)
+    lt = max((abs(_luminance(c) - lb), _luminance(c)) for _, c in colours)[1]
+    return (max(lb, lt) + 0.05) / (min(lb, lt) + 0.05)
+
+
+def _caution_bands(s):
+    return [w for w in s.walk(restrict=True) if "judgement of the engineer of record" in getattr(w, "text", "")]
+
+
+def _banner_problems(s, mm):
+    """The IMMEDIATE banner in view, whole, saying IMMEDIATE, and (folded) at most 25 mm tall."""
+    banner, found = s.ids.immediate, []
+    if not s.immediate_text:
+        return found
+    if "▲ IMMEDIATE" not in banner.text or _shown(banner) != _window_rect(banner):
+        found.append(f"the IMMEDIATE banner not whole in view or not saying IMMEDIATE: {banner.text[:60]!r}")
+    if getattr(banner, "folded", True) and banner.height > 25 * mm:
+        found.append(f"the IMMEDIATE banner {banner.height / mm:.0f} mm tall (folded: at most 25 mm)")
+    return found
+
+
+def _column_problems(s, mm):
+    """Portrait: the form stacked, at least 60 % of the window wide; form and panel at least 50 mm in view."""
+    win_w, win_h = app.root_window.size
+    form, panel, found = s.ids.form_scroll, s.ids.panel.parent, []
+    if win_h > win_w and form.width < 0.6 * win_w:
+        found.append(f"portrait: the form is {form.width / win_w:.0%} of the window wide (< 60 %)")
+    if s.immediate_text and not getattr(s.ids.immediate, "folded", True):
+        return found  # the reviewer unfolded the banner to read it all: the columns give way until it is folded
+    for what, view in (("form", form), ("recheck panel", panel)):
+        r = _shown(view)
+        if r is None or r[3] - r[1] < 50 * mm:
+            found.append(f"{what} has {0 if r is None else (r[3] - r[1]) / mm:.0f} mm of height in view (< 50 mm)")
+    return found
+
+
+def beam_problems(s, dpi):
+    """The beam screen held to the session-32 review's findings at the real ``dpi`` (empty when none).
+
+    No text cut by its box; restraint buttons wrap between words; Mark and Gridline at least 30 mm wide;
+    the columns (``_column_problems``) and the IMMEDIATE banner (``_banner_problems``); the caution on
+    screen, whole.
+    """
+    mm = dpi / 25.4  # px per mm at the tablet's real dpi
+    found = cut_text_problems(s) + _column_problems(s, mm) + _banner_problems(s, mm)
+    for (i, key, _state), b in s.restraint_buttons.items():
+        if broken := mid_word_break(b):
+            found.append(f"S{i} {key} button {b.text!r} breaks a word: {broken}")
+    for name in ("mark", "gridline"):
+        box = s.fields[name].ids.input
+        if box.width < 30 * mm:
+            found.append(f"{name} input {box.width / mm:.0f} mm wide (< 30 mm)")
+    if not any(_shown(w) == _window_rect(w) for w in _caution_bands(s)):
+        found.append("the caution is not on screen whole")
+    return found
+
+
+def beam_measures(s, dpi):
+    """Sizes in mm at the real dpi, printed for the record (before / after figures)."""
+    mm = dpi / 25.4
+    form, panel = _shown(s.ids.form_scroll), _shown(s.ids.panel.parent)
+    return (
+        f"form {s.ids.form_scroll.width / mm:.0f} mm wide, {(form[3] - form[1]) / mm if form else 0:.0f} mm in view; "
+        f"panel {(panel[3] - panel[1]) / mm if panel else 0:.0f} mm in view; "
+        f"banner {s.ids.immediate.height / mm:.0f} mm; "
+        f"caution {max((w.height for w in _caution_bands(s)), default=0) / mm:.0f} mm; "
+        f"mark {s.fields['mark'].ids.input.width / mm:.0f} mm"
+    )
 
 
 if FLOW == "main":
@@ -970,6 +1131,307 @@ elif FLOW == "layout":
         print(f"WINDOW {app.root_window.size}", flush=True)
         assert not seen, "\n".join(seen[:25]) + (f"\n... {len(seen)} in all" if len(seen) > 25 else "")
 
+elif FLOW == "beam-geometry":
+    # The beam screen at a tablet's real dpi and density (test_ui_beam.py sets KIVY_DPI, KIVY_METRICS_DENSITY and
+    # the window): a beam that passes (RB-1), a deficient one with its IMMEDIATE banner (RB-3), one whose bending
+    # capacity is not established (RB-5); each opened after the one before was scrolled to the end of its panel.
+    GEOM = os.environ.get("BRACEWALK_GEOMETRY", "default")
+    DPI = float(os.environ["KIVY_DPI"])
+    seen = []
+
+    def beam_look(name):
+        yield from shot(f"{GEOM}-{name}")
+        s = screen("beam")
+        seen.extend(f"{name}: {p}" for p in layout_problems("beam") + beam_problems(s, DPI))
+        print(f"MEASURE {name}: {beam_measures(s, DPI)}", flush=True)
+
+    def opened_at_the_top(mark):
+        """The panel of the beam just opened starts at its top, its status card whole in view."""
+        s = screen("beam")
+        assert s.vm.record()["mark"] == mark, s.vm.record()["mark"]
+        panel = s.ids.panel.parent
+        if panel.scroll_y < 0.999 or _shown(s._status) != _window_rect(s._status):
+            seen.append(f"{mark}: the panel opened at scroll_y {panel.scroll_y:.2f}, the status card not whole in view")
+
+    def leave_at_the_end():
+        """Scroll the panel to the end of this beam's findings and go back to the site (its list)."""
+        s = screen("beam")
+        s.ids.panel.parent.scroll_y = 0
+        s.ids.back.trigger_action(0)
+
+    @step
+    def first_frame():
+        if gc.get_freeze_count() == 0:
+            raise TimeoutError  # no frame drawn yet: the runner retries
+        app.open_site(next(s.id for s in app.store.sites() if "Cedar" in s.name))
+
+    @step
+    def open_passing():
+        app.open_beam(demo_beam("RB-1"))
+
+    @step
+    def passing():
+        s = screen("beam")
+        assert s.vm.status() == "ok", s.vm.status()
+        assert not s.immediate_text, s.immediate_text
+        yield from beam_look("1-rb1-pass")
+        s.ids.form_scroll.scroll_to(s.ids.bearings, animate=False)
+
+    @step
+    def passing_bearings():
+        yield from beam_look("1b-rb1-bearings")
+        leave_at_the_end()
+
+    @step
+    def open_deficient():
+        app.open_beam(demo_beam("RB-3"))
+
+    @step
+    def deficient():
+        s = screen("beam")
+        assert s.vm.status() == "deficient", s.vm.status()
+        assert s.immediate_text.startswith("▲ IMMEDIATE"), s.immediate_text
+        opened_at_the_top("RB-3")
+        yield from beam_look("2-rb3-deficient")
+        banner = s.ids.immediate
+        if not hasattr(banner, "folded"):
+            seen.append("RB-3: the IMMEDIATE banner cannot be folded or unfolded")
+            return
+        banner.trigger_action(0)  # a tap: every IMMEDIATE finding with its action
+        yield from beam_look("2b-rb3-banner-whole")
+        whole = s.vm.immediate_findings()[0]
+        if whole not in banner.text.replace("\n", " "):
+            seen.append(f"RB-3: the unfolded banner does not hold the finding: {banner.text[:80]!r}")
+        banner.trigger_action(0)
+        s.ids.caution.trigger_action(0)  # the caution, folded beside the banner, read whole
+        yield from beam_look("2c-rb3-caution-whole")
+        if s.ids.caution.text != app.caution:
+            seen.append(f"RB-3: the caution unfolded reads {s.ids.caution.text[:60]!r}")
+        s.ids.caution.trigger_action(0)
+
+    @step
+    def to_not_established():
+        leave_at_the_end()
+
+    @step
+    def open_not_established():
+        app.open_beam(demo_beam("RB-5"))
+
+    @step
+    def not_established():
+        s = screen("beam")
+        assert s.vm.status() == "not_established", s.vm.status()
+        opened_at_the_top("RB-5")
+        yield from beam_look("3-rb5-not-established")
+        s.ids.panel.parent.scroll_y = 0
+
+    @step
+    def raised_readable():
+        yield from beam_look("3b-rb5-raised")
+        s = screen("beam")
+        raised = [w for w in s.ids.panel.children if "raised as D-" in getattr(w, "text", "") and w.disabled]
+        assert raised, "RB-5 shows no raised finding"
+        for w in raised:
+            if _shown(w) is None:
+                seen.append(f"RB-5: {w.text!r} not in view at the end of the panel")
+                continue
+            ratio = drawn_contrast(OUT / f"{GEOM}-3b-rb5-raised.png", w)
+            print(f"MEASURE raised button contrast {ratio:.1f}:1", flush=True)
+            if ratio < 7:
+                seen.append(f"RB-5: {w.text!r} drawn at a contrast of {ratio:.1f}:1 (< 7:1)")
+        print(f"WINDOW {app.root_window.size}", flush=True)
+        assert not seen, "\n".join(seen[:30]) + (f"\n... {len(seen)} in all" if len(seen) > 30 else "")
+
+elif FLOW == "notice-layout":
+    # the notice screen at a tablet geometry of the session-32 review (its real KIVY_DPI and density): nothing
+    # overlaps, spills or breaks a word; the items and the table rows each show 3 rows whole; the page shown is
+    # 60 mm tall at the real dpi and opens full width. Every problem is collected, then all are reported.
+    from kivy.metrics import Metrics
+
+    GEOM = os.environ.get("BRACEWALK_GEOMETRY", "default")
+    PX_PER_MM = Metrics.dpi / 25.4  # KIVY_DPI: the screen's real dpi
+    found = []
+
+    def notice_problems(where):
+        """The layout rules on the screen and on what is open over it, words broken, the page overlapped."""
+        from kivy.uix.label import Label
+
+        roots = [screen("notice")] + [w for w in app.root_window.children if w is not app.root]
+        problems = [p for root in roots for p in widget_problems(root) + cut_text_problems(root)]
+        page = screen("notice").ids.get("page")
+        page_rect = _shown(page) if page is not None else None
+        for root in roots:
+            for w in root.walk(restrict=True):
+                if not isinstance(w, Label) or not w.text.strip() or _shown(w) is None:
+                    continue
+                what = f"{type(w).__name__} {w.text[:32]!r}"
+                if broken := mid_word_break(w):
+                    problems.append(f"{what} breaks a word: {broken}")
+                r = _shown(w)
+                across = page_rect and min(r[2], page_rect[2]) - max(r[0], page_rect[0]) > 2
+                if across and min(r[3], page_rect[3]) - max(r[1], page_rect[1]) > 2:
+                    problems.append(f"{what} overlaps the page preview")
+        return [f"{where}: {p}" for p in problems]
+
+    def look_through(name):
+        """Screenshots and the rules at the page's top, middle and bottom (the whole page when it scrolls)."""
+        page = screen("notice").ids.get("page_scroll")
+        for y in (1, 0.5, 0) if page is not None else (1,):
+            if page is not None:
+                page.scroll_y = y
+                page.update_from_scroll()
+            yield from shot(f"{GEOM}-{name}-{int(y * 100)}")
+            found.extend(notice_problems(f"{name} at scroll {y}"))
+
+    def bring(widget):
+        """Scroll the page so ``widget`` is in view (when the page scrolls)."""
+        page = screen("notice").ids.get("page_scroll")
+        if page is not None:
+            page.scroll_to(widget, padding=0, animate=False)
+            page.update_from_scroll()
+
+    def whole_rows(box):
+        """Rows of a list drawn whole on screen (inside every scrolled window around them), each with its text."""
+        whole = 0
+        for w in box.children:
+            shown, full = _shown(w), _window_rect(w)
+            if shown is not None and w.text and all(abs(a - b) <= 1 for a, b in zip(shown, full, strict=True)):
+                whole += 1
+        return whole
+
+    def page_mm(image):
+        """The height (mm, at the real dpi) of the page drawn by ``image`` that is on screen."""
+        shown = _shown(image)
+        if shown is None or not image.texture:
+            return 0.0
+        y = image.to_window(image.center_x, image.center_y)[1]
+        h = image.norm_image_size[1]
+        return max(0.0, min(shown[3], y + h / 2) - max(shown[1], y - h / 2)) / PX_PER_MM
+
+    @step
+    def first_frame():
+        if gc.get_freeze_count() == 0:
+            raise TimeoutError  # no frame drawn yet: the runner retries
+        app.site_id = next(s.id for s in app.store.sites() if "Cedar" in s.name)
+        app.go("notice")  # straight from the sites list: the test needs no other screen
+
+    @step
+    def fresh():
+        yield from look_through("n1-fresh")
+
+    @step
+    def items_shown():
+        s = screen("notice")
+        bring(s.ids.get("item_scroll", s.ids.item_list))
+        yield from shot(f"{GEOM}-n2-items")
+        n = whole_rows(s.ids.item_list)
+        print(f"ITEM-ROWS {n} of {len(s.ids.item_list.children)}", flush=True)
+        if n < 3:
+            found.append(f"the items list shows {n} rows whole (3 wanted)")
+
+    @step
+    def memory_rows_shown():
+        s = screen("notice")
+        bring(s.ids.get("rows_scroll", s.ids.rows_list))
+        yield from shot(f"{GEOM}-n3-memory-rows")
+        n = whole_rows(s.ids.rows_list)
+        print(f"MEMORY-ROWS {n} of {len(s.ids.rows_list.children)}", flush=True)
+        if n < 3:
+            found.append(f"the table rows list shows {n} rows whole (3 wanted)")
+        s.ids.preview.trigger_action(0)
+
+    @step
+    def preview_shown():
+        s = screen("notice")
+        assert s.pages, "no page rendered"
+        bring(s.ids.page)
+        yield from shot(f"{GEOM}-n4-preview")
+        height = page_mm(s.ids.page)
+        print(f"PREVIEW-MM {height:.1f}", flush=True)
+        if height < 60:
+            found.append(f"the page preview is {height:.1f} mm tall on screen (60 wanted)")
+        found.extend(notice_problems("preview"))
+        if "enlarge" not in s.ids:
+            found.append("no action opens the page full size")
+            return
+        s.ids.enlarge.trigger_action(0)
+
+    @step
+    def full_size():
+        from kivy.uix.modalview import ModalView
+
+        views = [w for w in app.root_window.children if isinstance(w, ModalView)]
+        if not views:
+            found.append("'Read full size' opened nothing")
+            return
+        yield from shot(f"{GEOM}-n5-full-size")
+        full = views[0].children[0]
+        image = full.ids.full_page
+        width = image.norm_image_size[0] / PX_PER_MM
+        print(f"FULL-WIDTH-MM {width:.1f} PAGE-TEXT {full.ids.full_label.text!r}", flush=True)
+        if width < 120:  # a Letter or A4 page (216, 210 mm) at 55 % of its size or more: its 9 pt text readable
+            found.append(f"the page opened full size is {width:.1f} mm wide (120 wanted)")
+        found.extend(notice_problems("full size"))
+        full.ids.full_next.trigger_action(0)
+        if "page 2 of" not in full.ids.full_label.text:
+            found.append(f"the full-size page did not turn: {full.ids.full_label.text!r}")
+        full.ids.full_close.trigger_action(0)
+
+    @step
+    def tap_the_page():
+        from kivy.uix.modalview import ModalView
+
+        s = screen("notice")
+        if any(isinstance(w, ModalView) for w in app.root_window.children):
+            found.append("Close left the full-size page open")
+        if not hasattr(s.ids.page, "trigger_action"):
+            found.append("a tap on the page does nothing")
+            return
+        s.ids.page.trigger_action(0)  # a tap on the page opens it too
+        yield from shot(f"{GEOM}-n6-page-tapped")
+        views = [w for w in app.root_window.children if isinstance(w, ModalView)]
+        if not views:
+            found.append("a tap on the page opened nothing")
+            return
+        views[0].dismiss()
+
+    @step
+    def refused_then_issued():
+        s = screen("notice")
+        s.ids.issued_by.text = "Priya Okonkwo-Lind, P.Eng."
+        s.ids.issue.trigger_action(0)
+        assert "acknowledge the" in s.message, s.message
+        yield from shot(f"{GEOM}-n7-refused")
+        found.extend(notice_problems("refused"))
+        s.ids.acknowledge.trigger_action(0)
+        assert "acknowledged by Priya" in s.ack_text, s.ack_text
+        s.ids.issue.trigger_action(0)
+        assert "Issued" in s.message, s.message
+
+    @step
+    def issued():
+        yield from look_through("n8-issued")
+        message = screen("notice").ids.message  # the page is at its bottom: the message is still in view
+        if _shown(message) != _window_rect(message):
+            found.append("the 'Issued' message is not wholly on screen")
+        print(f"WINDOW {app.root_window.size}", flush=True)
+        s = screen("notice")
+        s.ids.acknowledge.trigger_action(0)  # the open items' memory rows, for the close-out
+        s.ids.closeout.trigger_action(0)
+        assert "Issued close-out" in s.message, s.message
+
+    @step
+    def closeout_issued():
+        s = screen("notice")
+        bring(s.ids.page_label)  # its longest line: 'ISSUED close-out, page 1 of N'
+        yield from shot(f"{GEOM}-n9-closeout")
+        if "close-out" not in s.page_text:
+            found.append(f"the close-out's pages are not shown: {s.page_text!r}")
+        found.extend(notice_problems("close-out"))
+        for problem in found:
+            print(f"NOTICE-PROBLEM {problem}", flush=True)
+        assert not found, f"{len(found)} problems on the notice screen (NOTICE-PROBLEM lines)"
+
 elif FLOW == "portrait":
 
     @step
@@ -1384,6 +1846,224 @@ elif FLOW == "shot-current":
         grey = corner_grey(OUT / "shot-current.png")
         print(f"SHOT-GREY {grey}", flush=True)
         assert grey < 60, f"the screenshot shows the sun theme (grey {grey}), the frame before the change"
+
+elif FLOW == "defsite-geometry":
+    # The site list, the sites screen and a deficiency at a tablet's real dpi and density (test_ui_defsite.py sets
+    # KIVY_DPI, KIVY_METRICS_DENSITY and the window): every text whole (labels, pickers, fields and their hints),
+    # nothing overlapping, the beam list at least BRACEWALK_MIN_ROWS whole rows, and the deficiency with the
+    # longest required action shown whole in its fields (the session-32 review read "Make safe now: snov").
+    import itertools
+
+    GEOM = os.environ.get("BRACEWALK_GEOMETRY", "default")
+    DPI = float(os.environ["KIVY_DPI"])
+    MIN_ROWS = int(os.environ["BRACEWALK_MIN_ROWS"])
+    seen = []
+
+    def shown_lines(w):
+        """The lines a label draws, as laid out (an ellipsis or dropped lines show here, not in the text)."""
+        w.texture_update()
+        return ["".join(word.text for word in line.words) for line in w._label._cached_lines]
+
+    def label_cut(w):
+        """A label (or button, picker) whose lines leave out part of its text, or are larger than its box."""
+        what = f"{type(w).__name__} {w.text[:40]!r}"
+        lines = shown_lines(w)
+        found = []
+        if "".join("".join(lines).split()) != "".join(w.text.split()):
+            found.append(f"{what} shows only {' / '.join(line.strip() for line in lines)[:90]!r}")
+        tw, th = w.texture_size
+        if tw > w.width + 2 or th > w.height + 2:
+            found.append(f"{what}: its text {tw:.0f}x{th:.0f} px spills out of its {w.width:.0f}x{w.height:.0f} px box")
+        return found
+
+    def field_cut(w):
+        """A text field whose text (its hint when empty) is wider than the field or on more lines than it shows."""
+        text = w.text or w.hint_text
+        if not text.strip():
+            return []
+        lines = w._lines if w.text else w._hint_text_lines
+        left, top, right, bottom = w.padding
+        widest = max(w._get_text_width(line, w.tab_width, w._label_cached) for line in lines)
+        tall = len(lines) * (w.line_height + w.line_spacing) + top + bottom
+        what = f"{w.__class__.__name__} {'text' if w.text else 'hint'} {text[:40]!r}"
+        found = []
+        if widest > w.width - left - right + 1:
+            found.append(f"{what}: {widest:.0f} px wide in a field {w.width - left - right:.0f} px wide inside")
+        if tall > w.height + 1:
+            found.append(f"{what}: {len(lines)} lines need {tall:.0f} px, the field is {w.height:.0f} px high")
+        broken = [f"{a.strip()} / {b.strip()}" for a, b in itertools.pairwise(lines) if not a[-1:].isspace()]
+        if broken:  # a line that wraps ends at a space: not '(utilisation 1.' / '66'
+            found.append(f"{what}: a word broken across lines: {broken[0]!r}")
+        return found
+
+    def whole_text_problems(root):
+        """Every shown label, button, picker and text field under ``root``: its text whole (label_cut, field_cut)."""
+        from kivy.uix.label import Label
+        from kivy.uix.textinput import TextInput
+
+        found = []
+        for w in root.walk(restrict=True):
+            if not isinstance(w, Label | TextInput) or _shown(w) is None:
+                continue
+            if isinstance(w, TextInput):
+                found += field_cut(w)
+            elif w.text.strip() and not w.markup:
+                found += label_cut(w)
+        return found
+
+    def open_popup_content():
+        from kivy.uix.modalview import ModalView
+
+        (view,) = [w for w in app.root_window.children if isinstance(w, ModalView)]
+        return view, view.content
+
+    def whole_beam_rows():
+        """Beam rows wholly inside the list's window (the RecycleView's rectangle), each with its text."""
+        rv = screen("site").ids.beam_list
+        view = _window_rect(rv)
+        rows = []
+        for w in rv.layout_manager.children:
+            r = _window_rect(w)
+            if getattr(w, "beam_id", "") and r[1] >= view[1] - 1 and r[3] <= view[3] + 1 and w.text:
+                rows.append(w.text)
+        return rows
+
+    def counts_problems(label):
+        """A status's count and words broken across two lines of the counts ('■ 1 NOT' / 'PERMITTED')."""
+        lines = [" ".join(line.split()) for line in shown_lines(label)]
+        first = label.text.split("\n")[0]
+        parts = [" ".join(p.split()) for p in first.split(":", 1)[-1].split("·")]
+        split = [p for p in parts if not any(p in x for x in lines)]
+        return [f"counts: {p!r} split across lines: {' / '.join(lines)}" for p in split]
+
+    def check(name, problems):
+        seen.extend(f"{GEOM} {name}: {p}" for p in problems)
+
+    def pane_of(w):
+        """The ScrollView that holds ``w`` (its pane)."""
+        from kivy.uix.scrollview import ScrollView
+
+        node = w.parent
+        while not isinstance(node, ScrollView):
+            node = node.parent
+        return node
+
+    @step
+    def first_frame():
+        if gc.get_freeze_count() == 0:
+            raise TimeoutError  # no frame drawn yet: the runner retries
+        assert app.root.current == "sites", app.root.current
+
+    @step
+    def sites_top():
+        yield from shot(f"{GEOM}-1-sites")
+        check("sites", layout_problems("sites") + whole_text_problems(screen("sites")))
+        form = screen("sites").ids.new_name.parent.parent.parent  # the form's ScrollView
+        form.scroll_y = 0  # the lower fields: contractor contact, notice copies, load bases and their hints
+
+    @step
+    def sites_form_end():
+        yield from shot(f"{GEOM}-1b-sites-form-end")
+        check("sites form end", layout_problems("sites") + whole_text_problems(screen("sites")))
+        app.open_site(next(s.id for s in app.store.sites() if "Cedar" in s.name))
+
+    @step
+    def site():
+        yield from shot(f"{GEOM}-2-site")
+        s = screen("site")
+        site = app.store.site(app.site_id)
+        problems = layout_problems("site") + whole_text_problems(s) + counts_problems(s.ids.counts)
+        if site.name not in s.ids.title.text or site.address not in s.ids.title.text:
+            problems.append(f"the title {s.ids.title.text!r} without the site's name and address")
+        rows = whole_beam_rows()
+        if len(rows) < MIN_ROWS:
+            problems.append(f"{len(rows)} beam rows wholly in view, want at least {MIN_ROWS}")
+        check("site", problems)
+        mm = DPI / 25.4
+        print(f"MEASURE site: {len(rows)} whole beam rows; list {s.ids.beam_list.height / mm:.0f} mm high", flush=True)
+        if s.wide:
+            view = _shown(s.ids.deficiency_scroll)
+            print(f"MEASURE site: open deficiencies {(view[3] - view[1]) / mm:.0f} mm in view", flush=True)
+            immediate = [d for d in app.store.deficiencies(app.site_id, open_only=True) if d.priority == "immediate"]
+            check("site", deficiency_list_problems(s.ids.deficiency_list, immediate))
+        else:
+            s.ids.fold.trigger_action(0)
+
+    @step
+    def folded_deficiencies():
+        s = screen("site")
+        if s.wide:
+            return
+        yield from shot(f"{GEOM}-2b-site-deficiencies")
+        _view, form = open_popup_content()
+        check("site fold", popup_problems() + whole_text_problems(form))
+        s.fold.ids.cancel.trigger_action(0)
+
+    @step
+    def raise_by_hand_form():
+        s = screen("site")
+        s.open_hand()
+        longest = max(app.store.deficiencies(app.site_id, open_only=True), key=lambda d: len(d.action))
+        ids = s.hand_form.ids
+        ids.hand_location.text, ids.hand_description.text = longest.location, longest.description
+        ids.hand_action.text = longest.action
+        yield from shot(f"{GEOM}-2c-site-raise-by-hand")
+        _view, form = open_popup_content()
+        check("raise by hand", popup_problems() + whole_text_problems(form))
+        for k in ("hand_location", "hand_description", "hand_action"):
+            ids[k].text = ""
+        s._close()
+
+    @step
+    def open_longest_deficiency():
+        longest = max(app.store.deficiencies(app.site_id, open_only=True), key=lambda d: len(d.action))
+        assert len(longest.action) > 200, longest.action  # the demo's long required action, the review's case
+        app.open_deficiency(longest.id)
+
+    @step
+    def deficiency():
+        s = screen("deficiency")
+        yield from shot(f"{GEOM}-3-deficiency")
+        d = app.store.deficiency(app.deficiency_id)
+        problems = layout_problems("deficiency") + whole_text_problems(s)
+        for name in ("location", "description", "action", "reference"):
+            w, stored = s.ids[name], getattr(d, name)
+            if w.text != stored:
+                problems.append(f"{name}: the field holds {w.text[:40]!r}, the record {stored[:40]!r}")
+            problems += [f"{name}: {p}" for p in field_cut(w)]
+            pane = pane_of(w)
+            if w.height > pane.height + 1:
+                problems.append(f"{name}: {w.height:.0f} px high in a pane {pane.height:.0f} px high: never seen whole")
+        check("deficiency", problems)
+        for name in ("location", "description", "action", "reference", "priority", "due"):
+            w = s.ids[name]
+            pane_of(w).scroll_to(w, animate=False)
+            yield 2
+            if _shown(w) != _window_rect(w):
+                check("deficiency", [f"{name} scrolled to is not whole in view: {_shown(w)} of {_window_rect(w)}"])
+            check("deficiency form", whole_text_problems(s))
+        yield from shot(f"{GEOM}-3b-deficiency-form-end")
+        pane_of(s.ids.note).scroll_y = 0
+
+    @step
+    def deficiency_status_end():
+        s = screen("deficiency")
+        yield from shot(f"{GEOM}-3c-deficiency-status-end")
+        check("deficiency status end", layout_problems("deficiency") + whole_text_problems(s))
+        # Enter in a wrapping field leaves it and saves it, as in a one-line field (no line break typed into it)
+        w = s.ids.reference
+        w.focus = True
+        w.text += " (seen on site)"
+        w.keyboard_on_key_down(app.root_window, (13, "enter"), "\r", [])
+        stored = app.store.deficiency(app.deficiency_id).reference
+        if w.focus or "\n" in w.text or not stored.endswith("(seen on site)"):
+            check("deficiency", [f"Enter in Reference: focus {w.focus}, text {w.text!r}, stored {stored!r}"])
+
+    @step
+    def verdict():
+        print(f"WINDOW {app.root_window.size}", flush=True)
+        found = list(dict.fromkeys(seen))  # a text cut at every scroll position of its pane is said once
+        assert not found, "\n".join(found[:30]) + (f"\n... {len(found)} in all" if len(found) > 30 else "")
 
 elif FLOW == "type-then-kill":
 
