@@ -65,6 +65,17 @@ class NoticeViewModel:
         """'MEMORY (not checked ...)  ·  CSA O86-19 Table 7.3: glulam_grades row ...' per row used."""
         return [f"{r.status_words}  ·  {r.label}" for r in self.table_rows()]
 
+    def items_heading(self) -> str:
+        """Step 1's heading: how many open items there are and how many are chosen."""
+        total = len(self.store.deficiencies(self.site_id, open_only=True))
+        return f"1. Choose the items: {len(self.chosen)} of {total} chosen (tap one to include or leave it out)"
+
+    def rows_heading(self) -> str:
+        """Step 2's heading: how many table rows the chosen items rest on, and how many were entered from memory."""
+        rows = self.table_rows()
+        memory = len(memory_rows(rows))
+        return f"2. Table rows these items rest on: {len(rows)}, {memory} of them entered from memory"
+
     def contact_warning(self) -> str:
         """A line for the issuer when the notice would give the contractor no phone or email for the reviewer."""
         profile = self.store.reviewer_profile()
