@@ -1,14 +1,18 @@
 """The site screen (site.kv): beams found by mark / level / status with counts, open deficiencies, the visit.
 
-The beam list takes most of the height: search, filters and "+ Log a beam" share one row, a level's
-heading is a thin band, and the caution band is short (a tap shows it whole). In landscape the visit,
-the unraised warning and the open deficiencies (most urgent first) have the right-hand column; in
-portrait they sit under the list, the deficiencies folded behind a button with their count (and the
-IMMEDIATE count), opened over the screen. The visit and raise-by-hand forms open over the screen too.
+The beam list takes most of the height: a level's heading is a thin band, and the caution band is short
+(a tap shows it whole). In landscape only the back button, the search and filters and the counts are
+above the list; the title (wrapped whole), the site's buttons, the visit, the unraised warning, the open
+deficiencies (most urgent first) with "+ Log a beam" and "Raise a deficiency by hand…" have the right-hand
+column. In portrait the site's buttons, the title and the search and filters (with "+ Log a beam") are
+above the list, the visit and the deficiencies under it, folded behind a button with their count (and
+the IMMEDIATE count), opened over the screen. ``SiteScreen.arrange`` moves the pieces between the two.
+The visit and raise-by-hand forms open over the screen too.
 """
 
 from __future__ import annotations
 
+from types import SimpleNamespace
 from typing import Any
 
 from kivy.app import App
@@ -32,7 +36,7 @@ from mobile.viewmodels.site import CAUTION_SHORT, PINNED, RECHECK_NOTICE_AT, Bac
 
 ALL_LEVELS, ALL_STATUSES = "all levels", "all statuses"
 RECHECK_FOLLOW_S = 0.2  # how often the screen shows the background recheck's progress
-HEADING_MM = 8  # a level's heading in the beam list: a thin band, not a target (site.kv BeamHeading)
+HEADING_MM = 7  # a level's heading in the beam list: a thin band, not a target (site.kv BeamHeading)
 
 
 class BeamRow(Button):
@@ -88,6 +92,20 @@ def lay_out_now(screen: Screen, size: Any) -> None:
             widget.update_from_scroll()  # sizes its content (the list's layout) from its own size
 
 
+def place(box: Any, widgets: list[Any]) -> None:
+    """Make ``widgets`` the children of ``box``, in this order (top to bottom, left to right).
+
+    Each is taken from wherever it is; what ``box`` held before and is not listed is taken out of it.
+    """
+    for w in list(box.children):
+        if w not in widgets:
+            box.remove_widget(w)
+    for w in widgets:
+        if w.parent is not None:
+            w.parent.remove_widget(w)
+        box.add_widget(w)
+
+
 def presize(layout: Any, data: list[dict[str, Any]]) -> None:
     """Give the recycling list's layout the height it will find for the rows of ``data``, before they are set.
 
@@ -138,10 +156,44 @@ class SiteScreen(Screen):
         self._workers: list[BackgroundRecheck] = []  # every one started and perhaps still running (stopped on close)
         self._follow: Any = None  # the timer that follows the background recheck
         self._recheck_error = ""  # why this visit's background recheck failed: a line under the counts for the visit
+        # the widgets themselves, not the weak proxies ``ids`` holds: a piece that one shape leaves out (the
+        # fold button in landscape, the deficiency list in portrait) has no parent to keep it alive meanwhile
+        self.pieces: dict[str, Any] = {name: w.__self__ for name, w in self.ids.items()}
+        self.arrange(self.wide)
 
     def on_size(self, *_: Any) -> None:
         """Landscape or portrait: the columns follow the screen's shape."""
         self.wide = self.width >= self.height
+
+    def on_wide(self, _screen: Any, wide: bool) -> None:
+        """The screen turned: its pieces go where that shape has room for them."""
+        if hasattr(self, "pieces"):  # not before the kv rule has built them (on_kv_post arranges them then)
+            self.arrange(wide)
+
+    def arrange(self, wide: bool) -> None:
+        """Put the screen's pieces in their landscape (``wide``) or portrait places (site.kv says which is which).
+
+        Landscape: the beams' column holds only the back button, the search and filters, the counts and the
+        list; everything else is in the right-hand column. Portrait: the site's buttons (the back and visit
+        buttons among them) and the title over the search and filters, the list, then the visit line with
+        the folded deficiencies and the caution; the deficiency list and its row of buttons are left out.
+        """
+        w = SimpleNamespace(**self.pieces)
+        bar = [w.search, w.level_filter, w.status_filter]
+        if wide:
+            place(w.page, [w.columns])
+            place(w.list_bar, [w.back, *bar])
+            place(w.site_buttons, [w.edit_site, w.notice, w.sync])
+            place(w.visit_row, [w.visit_line, w.visit])
+            place(w.work_row, [w.new_beam, w.hand])
+            side = [w.title, w.site_buttons, w.visit_row, w.notes, w.deficiency_heading]
+            place(w.side, [*side, w.deficiency_scroll, w.work_row, w.caution])
+        else:
+            place(w.site_buttons, [w.back, w.edit_site, w.notice, w.sync, w.visit])
+            place(w.page, [w.site_buttons, w.title, w.columns])
+            place(w.list_bar, [*bar, w.new_beam])
+            place(w.visit_row, [w.visit_line, w.fold])
+            place(w.side, [w.visit_row, w.notes, w.caution])
 
     def on_pre_enter(self, *args: Any) -> None:
         """Refresh from storage; when many results are stale, say so on screen before rechecking them."""

@@ -5,6 +5,7 @@ from __future__ import annotations
 from typing import Any
 
 from kivy.app import App
+from kivy.metrics import dp, mm
 from kivy.properties import StringProperty
 from kivy.uix.screenmanager import Screen
 
@@ -14,6 +15,7 @@ from mobile.screens.widgets import (
 from mobile.viewmodels import SitesViewModel
 from mobile.viewmodels.beam import CHOICE_WORDS
 
+SITE_ROW_MM = 22  # a site's button at least: its name, address and sync state on two to four lines
 FORM_FIELDS = (
     "name",
     "address",
@@ -46,7 +48,10 @@ class SitesScreen(Screen):
         box = self.ids.site_list
         box.clear_widgets()
         for site_id, text in self.vm.rows():
-            box.add_widget(big_button(text, lambda _b, sid=site_id: app.open_site(sid), height="22mm"))
+            button = big_button(text, lambda _b, sid=site_id: app.open_site(sid), height=mm(SITE_ROW_MM))
+            # as tall as its lines: a long name and address are never cut by the row
+            button.bind(texture_size=lambda b, ts: setattr(b, "height", max(mm(SITE_ROW_MM), ts[1] + dp(12))))
+            box.add_widget(button)
 
     def edit_site(self, site_id: str) -> None:
         """Put an existing site and its design basis into the form, to change them."""

@@ -32,6 +32,7 @@ RECHECK_NOTICE_AT = 500  # stale beams (~0.1-0.2 s of rechecking) from which the
 RECHECK_PART = 500  # beams the background recheck stores per transaction (its progress steps; where a stop lands)
 UNRAISED_NAMED = 30  # beams the unraised-findings warning names before "and N more" (its count comes first)
 UNRAISED_BAND_NAMED = 4  # on the site screen's band (three lines at most in the landscape column); a tap shows all
+KEEP = "\u00a0"  # a no-break space: the words it joins wrap as one (a status's count and words)
 PINNED = "▲ IMMEDIATE open: pinned"  # beams with an open IMMEDIATE deficiency, shown first (also under their level)
 # The site screen's caution band, short so the beam list keeps the height (its tap shows core.results.CAUTION
 # whole); it still says what the full caution says of the results and of who governs.
@@ -151,12 +152,18 @@ class SiteViewModel:
     def counts(rows: list[tuple[str, dict[str, Any], str]], shown: int | None = None) -> str:
         """'1,200 beams:  ● 800 OK  ·  ▲ 390 DEFICIENT  ·  ✖ 10 NOT ESTABLISHED' (every status that occurs).
 
+        Each status's shape, count and words are held together by no-break spaces (``KEEP``), so a line that
+        wraps breaks between statuses, never inside one ('■ 1 NOT' / 'PERMITTED' on a tablet in landscape).
         ``shown``: how many beams the search and filters leave in the list; said when it is not every beam.
         """
         tally: dict[str, int] = {}
         for _, _, st in rows:
             tally[st] = tally.get(st, 0) + 1
-        parts = [f"{STATUS_WORDS[st][1]} {tally[st]:,} {STATUS_WORDS[st][0]}" for st in STATUS_WORDS if st in tally]
+        parts = [
+            f"{STATUS_WORDS[st][1]} {tally[st]:,} {STATUS_WORDS[st][0]}".replace(" ", KEEP)
+            for st in STATUS_WORDS
+            if st in tally
+        ]
         if not rows:
             return "No beams logged yet."
         line = f"{len(rows):,} beams:  " + "  ·  ".join(parts)
@@ -226,7 +233,8 @@ class SiteViewModel:
         urgent = sum(len(rows) for label, rows in groups if label.startswith(f"{PRIORITY_LABELS['immediate']} ("))
         if not total:
             return "Open deficiencies: none…"
-        return f"Open deficiencies ({total:,})" + (f"\n{SHORT_PRIORITY['immediate']}: {urgent:,}…" if urgent else "…")
+        # the ellipsis after the words that open the list: after the IMMEDIATE count it read as a number cut short
+        return f"Open deficiencies ({total:,})…" + (f"\n{SHORT_PRIORITY['immediate']}: {urgent:,}" if urgent else "")
 
     def open_deficiencies(self) -> list[str]:
         """One line per open deficiency, most urgent first."""

@@ -57,7 +57,8 @@ def test_the_unraised_warning_counts_the_beams_first_and_names_a_bounded_few(sto
 
 def test_counts_use_thousands_separators_and_say_how_many_a_search_shows():
     rows = [(f"b{i}", {"mark": f"B-{i}"}, "ok" if i % 4 else "deficient") for i in range(10_000)]
-    assert SiteViewModel.counts(rows) == "10,000 beams:  ● 7,500 OK  ·  ▲ 2,500 DEFICIENT"
+    # each status's shape, count and words joined by no-break spaces: a wrapped line never splits one
+    assert SiteViewModel.counts(rows) == "10,000 beams:  ●\u00a07,500\u00a0OK  ·  ▲\u00a02,500\u00a0DEFICIENT"
     assert SiteViewModel.counts(rows, shown=10_000) == SiteViewModel.counts(rows)
     assert SiteViewModel.counts(rows, shown=111).endswith("\n111 shown (search or filter)")
     assert SiteViewModel.counts([], shown=0) == "No beams logged yet."
@@ -89,7 +90,8 @@ def test_the_folded_deficiencies_button_counts_them_and_the_immediate_ones(tmp_p
     urgent = sum(d.priority == "immediate" for d in open_now)
     assert urgent > 0
     label = vm.fold_label(vm.deficiency_groups())
-    assert label == f"Open deficiencies ({len(open_now)})\n▲ IMMEDIATE: {urgent}…"
+    # the ellipsis on the words that open the list, not after the IMMEDIATE count (read as a number cut short)
+    assert label == f"Open deficiencies ({len(open_now)})…\n▲ IMMEDIATE: {urgent}"
     calm = [(lbl, rows) for lbl, rows in vm.deficiency_groups() if not lbl.startswith("▲")]
     assert vm.fold_label(calm) == f"Open deficiencies ({sum(len(r) for _, r in calm)})…"  # no IMMEDIATE line
 
