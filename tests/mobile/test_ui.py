@@ -67,6 +67,36 @@ def run_app(db, shots, flow, home, timeout=150, size=(1280, 800), dpi=None, dens
     return out
 
 
+# The session-32 review's tablets at their real dpi and density (the geometry test below runs 149 dpi at density
+# 1.0, which hid what the review found): (width, height) px, KIVY_DPI, KIVY_METRICS_DENSITY
+REVIEW_GEOMETRIES = {
+    "g1-1280x800-149dpi-d1.5": ((1280, 800), 149, 1.5),
+    "g2-2560x1600-300dpi-d3": ((2560, 1600), 300, 3.0),
+    "g3-portrait-800x1280-149dpi-d1.5": ((800, 1280), 149, 1.5),
+}
+
+
+def run_at_review_geometry(tmp_path, geometry, flow, shots, extra_env=None):
+    """Run a driver flow at one of ``REVIEW_GEOMETRIES``; screenshots in test-artefacts/<shots>; its output.
+
+    Fails unless the window really had the geometry's size.
+    """
+    size, dpi, density = REVIEW_GEOMETRIES[geometry]
+    out = run_app(
+        tmp_path / "app.db",
+        ROOT / "test-artefacts" / shots,
+        flow,
+        tmp_path / "home",
+        size=size,
+        dpi=dpi,
+        density=density,
+        geometry=geometry,
+        extra_env=extra_env,
+    )
+    assert f"WINDOW ({size[0]}, {size[1]})" in out, out[-2000:]
+    return out
+
+
 def test_app_end_to_end_under_xvfb(tmp_path):
     shots = ROOT / "test-artefacts" / "ui"
     shutil.rmtree(shots, ignore_errors=True)

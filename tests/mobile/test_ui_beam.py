@@ -13,29 +13,11 @@ Screenshots: test-artefacts/ui-beam/<geometry>-*.png (look at them).
 
 import pytest
 
-from tests.mobile.test_ui import ROOT, pytestmark, run_app  # noqa: F401 (pytestmark: the ui marker, xvfb-run)
-
-# (width, height) px, the tablet's real dpi, and the density Kivy runs it at (the review's g1, g2, g3)
-BEAM_GEOMETRIES = {
-    "g1-1280x800-149dpi-d1.5": ((1280, 800), 149, 1.5),
-    "g2-2560x1600-300dpi-d3": ((2560, 1600), 300, 3.0),
-    "g3-portrait-800x1280-149dpi-d1.5": ((800, 1280), 149, 1.5),
-}
+from tests.mobile.test_ui import REVIEW_GEOMETRIES, pytestmark, run_at_review_geometry  # noqa: F401 (the ui marker)
 
 
-@pytest.mark.parametrize("geometry", list(BEAM_GEOMETRIES))
+@pytest.mark.parametrize("geometry", list(REVIEW_GEOMETRIES))
 def test_the_beam_screen_holds_at_the_review_geometries(tmp_path, geometry):
     """Passing, deficient with its IMMEDIATE banner, not established: nothing cut, crowded or unreadable."""
-    size, dpi, density = BEAM_GEOMETRIES[geometry]
-    out = run_app(
-        tmp_path / "b.db",
-        ROOT / "test-artefacts" / "ui-beam",
-        "beam-geometry",
-        tmp_path / "home",
-        size=size,
-        dpi=dpi,
-        density=density,
-        geometry=geometry,
-    )
+    out = run_at_review_geometry(tmp_path, geometry, "beam-geometry", "ui-beam")
     assert "UI-OK" in out, out[-5000:]
-    assert f"WINDOW ({size[0]}, {size[1]})" in out, out[-2000:]  # the window really had that size

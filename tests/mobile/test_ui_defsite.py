@@ -16,31 +16,16 @@ Screenshots: test-artefacts/ui-defsite/<geometry>-*.png (look at them).
 
 import pytest
 
-from tests.mobile.test_ui import ROOT, pytestmark, run_app  # noqa: F401 (pytestmark: the ui marker, xvfb-run)
+from tests.mobile.test_ui import REVIEW_GEOMETRIES, pytestmark, run_at_review_geometry  # noqa: F401 (the ui marker)
 
-# (width, height) px, the tablet's real dpi, the density Kivy runs it at (the review's g1, g2, g3), and the whole
-# beam rows the demo site must show: its list has three headings (the pinned IMMEDIATE beams, Canopy, L2)
-DEFSITE_GEOMETRIES = {
-    "g1-1280x800-149dpi-d1.5": ((1280, 800), 149, 1.5, 5),
-    "g2-2560x1600-300dpi-d3": ((2560, 1600), 300, 3.0, 5),
-    "g3-portrait-800x1280-149dpi-d1.5": ((800, 1280), 149, 1.5, 6),
-}
+# the whole beam rows the demo site must show at each geometry: its list has three headings (the pinned
+# IMMEDIATE beams, Canopy, L2)
+MIN_ROWS = {"g1-1280x800-149dpi-d1.5": 5, "g2-2560x1600-300dpi-d3": 5, "g3-portrait-800x1280-149dpi-d1.5": 6}
 
 
-@pytest.mark.parametrize("geometry", list(DEFSITE_GEOMETRIES))
+@pytest.mark.parametrize("geometry", list(REVIEW_GEOMETRIES))
 def test_sites_site_and_deficiency_show_their_text_whole(tmp_path, geometry):
     """Every text whole (labels, pickers, fields and hints), no overlap, the deficiency's fields whole, beam rows."""
-    size, dpi, density, min_rows = DEFSITE_GEOMETRIES[geometry]
-    out = run_app(
-        tmp_path / "d.db",
-        ROOT / "test-artefacts" / "ui-defsite",
-        "defsite-geometry",
-        tmp_path / "home",
-        size=size,
-        dpi=dpi,
-        density=density,
-        geometry=geometry,
-        extra_env={"BRACEWALK_MIN_ROWS": str(min_rows)},
-    )
+    env = {"BRACEWALK_MIN_ROWS": str(MIN_ROWS[geometry])}
+    out = run_at_review_geometry(tmp_path, geometry, "defsite-geometry", "ui-defsite", extra_env=env)
     assert "UI-OK" in out, out[-5000:]
-    assert f"WINDOW ({size[0]}, {size[1]})" in out, out[-2000:]  # the window really had that size
