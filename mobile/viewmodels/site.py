@@ -369,4 +369,19 @@ class BackgroundRecheck:
             finally:
                 worker.close()
         except (OSError, ValueError, sqlite3.Error) as exc:  # the screen's own refresh rechecks what is left
-            self.error = f"{type(exc).__name__}: {exc}"
+            self.error = failure_words(exc)
+
+
+def failure_words(exc: OSError | ValueError | sqlite3.Error) -> str:
+    """Why a background recheck stopped, in a reviewer's words with the system's own message after them.
+
+    The site screen showed the exception's class ('OperationalError: database is locked'), which tells a
+    reviewer nothing about what to do.
+    """
+    if isinstance(exc, sqlite3.Error):
+        what = "the tablet's database was busy" if "locked" in str(exc) else "the tablet's database could not be read"
+    elif isinstance(exc, OSError):
+        what = "the tablet's storage could not be read or written"
+    else:
+        what = "a stored record could not be read"
+    return f"{what}: {exc}"

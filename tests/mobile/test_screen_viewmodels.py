@@ -557,11 +557,11 @@ def test_background_recheck_that_fails_says_why_and_leaves_the_rest_stale(tmp_pa
     monkeypatch.setattr(results, "refresh_parts", locked)
     work = BackgroundRecheck(str(store.path), site_id).start()
     _finish(work)
-    assert work.error == "OperationalError: database is locked"
+    assert work.error == "the tablet's database was busy: database is locked"  # words, not a class name
     assert results.stale_count(store.db, site_id) == 3
     vm = SiteViewModel(store, site_id)  # what the site screen says, before and after it rechecks the rest itself
     assert vm.recheck_failed_line(work.error, vm.stale_count()) == (
-        "The background recheck stopped (OperationalError: database is locked). "
+        "The background recheck stopped (the tablet's database was busy: database is locked). "
         "Rechecking the 3 beams it left here: the screen may pause."
     )
     assert vm.recheck_failed_line(work.error, 1).endswith("the 1 beam it left here: the screen may pause.")

@@ -1725,11 +1725,17 @@ elif FLOW == "site-rechecking":
             raise TimeoutError  # the worker or the screen's own recheck is under way: the runner tries again
         stored_results.refresh_parts = seen["real"]
         left = STALE - RECHECK_PART
-        said = f"The background recheck stopped (OperationalError: disk I/O error). Rechecking the {left:,} beams it"
+        said = (
+            "The background recheck stopped (the tablet's database could not be read: disk I/O error). "
+            f"Rechecking the {left:,} beams it"
+        )
         assert any(t.startswith(said) for t in seen["texts"]), sorted(seen["texts"])
         counts = screen("site").counts_text
         assert counts.startswith(f"{STALE:,} beams:"), counts
-        note = "The background recheck stopped (OperationalError: disk I/O error); this screen rechecked the rest, so"
+        note = (
+            "The background recheck stopped (the tablet's database could not be read: disk I/O error); this screen "
+            "rechecked the rest, so"
+        )
         assert note in counts, counts
         assert stored_results.stale_count(app.store.db, seen["site"]) == 0
         yield from shot("site-recheck-failed")
