@@ -22,8 +22,9 @@ from core.results import (
 FINDING_CODES = tuple(code.value for code in FindingCode)  # kept for callers that list the codes
 
 DEAD_MAKE_SAFE = (
-    "Make safe now: the member is overstressed under the dead load as it stands; have it propped and tell the "
-    "site superintendent today. "
+    "Make safe now: the member is overstressed under its design dead load alone, taken as in place (how much of it "
+    "is on the member now was not recorded); have it propped, place no more finishes, roofing or other permanent "
+    "load on it, and tell the site superintendent today. "
 )
 # Snow is a load nobody on site can keep off a member (common practice: an overstress under a snow
 # combination is made safe by shoring, not by an instruction not to load).
@@ -53,8 +54,8 @@ def dead_load_words(check: BendingRegion | ShearCheck | BearingCheck) -> str:
     if check.dead_load_only or not fails_under_dead_load(check):
         return ""
     return (
-        f" Under its dead load alone (1.4D) the utilisation is {check.dead_load_utilisation:.2f}: it is "
-        "overstressed as it stands, before any live or snow load."
+        f" Under its design dead load alone (1.4D) the utilisation is {check.dead_load_utilisation:.2f}, before any "
+        "live or snow load (that dead load is taken as in place: how much of it is on the member was not recorded)."
     )
 
 

@@ -202,7 +202,11 @@ def _member_properties(beam: Beam) -> Member:
             symbol="self-weight",
             value=sw,
             unit="kN/m",
-            source=(f"densities: {gamma:g} kN/m3 x b x d" if beam.self_weight else "switched off by the reviewer"),
+            source=(
+                f"densities row {beam.material.value} {beam.species}: {gamma:g} kN/m3 x b x d"
+                if beam.self_weight
+                else "switched off by the reviewer"
+            ),
             status=TraceStatus(density["status"]) if beam.self_weight else TraceStatus.input,
         )
     )

@@ -930,8 +930,8 @@ def _utilisation_words(utilisation: float | None, region: BendingRegion | None) 
     Both rest on the inputs as recorded and on the unfavourable cases taken for what was not seen (the
     Inputs section names them: unfastened purlins, the weaker layup face), so the words say so.
     """
-    if utilisation is not None:
-        return f"{utilisation:.3f}"
+    if utilisation is not None:  # a failing check is marked in words as on the notice, not by its figure alone
+        return f"{utilisation:.3f} FAILS" if utilisation > 1.0 else f"{utilisation:.3f}"
     if region is None:
         return "not established"
     if region.outcome == Outcome.not_permitted:

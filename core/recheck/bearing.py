@@ -44,7 +44,8 @@ def _trace(
 ) -> None:
     """The lines of a bearing check's trace: Ab, KB, KZcp, KD, fcp, Fcp and the Qr formula."""
     trace.add("Ab", area, "", f"b x bearing length {bearing.length_mm:g} mm", TraceStatus.input, "mm2")
-    trace.add("KB", 1.0, clause, "end bearing / conservative", TraceStatus.memory)
+    kb_rule = "KB = 1.0 at an end bearing: no length factor taken (conservative)"
+    trace.add("KB", 1.0, clause, kb_rule, TraceStatus.memory)
     _kzcp_line(trace, beam, kzcp)
     add_kd(trace, case)
     strength_line(trace, member, "fcp", member.fcp_mpa)
@@ -82,7 +83,7 @@ def _one_bearing(
     best: tuple[float, float, float, LoadCase] | None = None
     lowest: tuple[float, LoadCase] | None = None
     qr_by_kd: dict[float, float] = {}
-    dead_util: float | None = None  # under 1.4D alone, governing or not
+    dead: tuple[float, float, float, LoadCase] | None = None  # under 1.4D alone, governing or not
     for case in cases:
         qr = qr_by_kd.get(case.kd)
         if qr is None:
@@ -93,8 +94,8 @@ def _one_bearing(
         util = qf / qr
         if best is None or util > best[0]:
             best = (util, qr, qf, case)
-        if case.combo.dead_load_only and (dead_util is None or util > dead_util):
-            dead_util = util
+        if case.combo.dead_load_only and (dead is None or util > dead[0]):
+            dead = (util, qr, qf, case)
         if lowest is None or reaction < lowest[0]:
             lowest = (reaction, case)
     assert best is not None
@@ -105,6 +106,10 @@ def _one_bearing(
     trace = lines_for(traces, rows)
     if trace is not None:
         _trace(trace, beam, member, bearing, area, kzcp, clause, case, qr)
+        if dead is not None and dead[0] > 1.0 and not case.combo.dead_load_only:
+            du, dr, dd, dc = dead
+            how = f"Qf {dd * KN_PER_N:.4g} kN vs Qr {dr * KN_PER_N:.4g} kN with KD {dc.kd:g}"
+            trace.add("dead load alone (1.4D)", du, clause, how, TraceStatus.formula)
     return assembled(
         BearingCheck,
         {
@@ -123,7 +128,7 @@ def _one_bearing(
             "uplift_snow": uplift is not None and carries_snow(lowest[1], beam),
             "dead_load_only": case.combo.dead_load_only,
             "snow_in_combination": carries_snow(case, beam),
-            "dead_load_utilisation": dead_util,
+            "dead_load_utilisation": None if dead is None else dead[0],
         },
     )
 

@@ -78,7 +78,6 @@ def _head_trace(
         f"{beam.species} {beam.grade}" + ("" if sawn else f", top stamp {beam.top_stamp.value}"),
         member.grade_status,
         "MPa",
-        row="" if sawn else FACE_RULE,
     )
     trace.add(
         "Fb",
@@ -183,11 +182,6 @@ LU_RULE_BOTTOM = (
 LU_RULE_SAWN = (
     "Lu of sawn lumber past its d/b tier: the spacing of the points that restrain rotation (bridging, blocking, "
     "restrained bearings), never zero"
-)
-# the rule the glulam fb line rests on (the grade's values are the grade row's), one row for every grade
-FACE_RULE = (
-    "fb of the face in tension: fb_pos where that face is the layup's marked bottom (TOP stamp up and sagging, "
-    "or TOP stamp down and hogging), fb_neg otherwise; TOP stamp not seen: the lesser of the two"
 )
 _MR_CLAUSE_SAWN = "CSA O86-19 6.5.3.1 (memory)"  # the sawn Mr line's clause (reference o86.md section 2)
 _GLULAM_MR = "lesser of phi Fb S KX KZbg and phi Fb S KX KL, phi = 0.9, KX = 1"  # the glulam Mr line's source
@@ -445,6 +439,7 @@ class _Search:
         self.names: dict[tuple[Any, ...], str] = {}
         self.best: dict[str, tuple[tuple[int, float], list[Any], LoadCase, EdgeSupport, bool, _Entry]] = {}
         self.dead: dict[str, float] = {}  # each region's utilisation under 1.4D alone, where it has one
+        self.dead_at: dict[str, tuple[list[Any], LoadCase, EdgeSupport, _Entry]] = {}  # and where it was found
 
     def _key(self, span: list[Any]) -> _Key:
         """Edge, not-established flag and (when it rests on sign and elements alone) the name of a region key.
@@ -489,8 +484,9 @@ class _Search:
             held = best.get(name)
             if held is None or rank > held[0]:
                 best[name] = (rank, span, case, edge, ne, entry)
-            if case.combo.dead_load_only and rank[0] in (_OK, _OVERSTRESS):
-                self.dead[name] = max(rank[1], self.dead.get(name, rank[1]))
+            if case.combo.dead_load_only and rank[0] in (_OK, _OVERSTRESS) and rank[1] >= self.dead.get(name, 0.0):
+                self.dead[name] = rank[1]
+                self.dead_at[name] = (span, case, edge, entry)
 
 
 def _assembled_region(
@@ -539,6 +535,32 @@ def _assembled_region(
     )
 
 
+def _dead_load_line(
+    beam: Beam,
+    member: Member,
+    model: BeamModel,
+    trace: Lines,
+    clause: str,
+    at: tuple[list[Any], LoadCase, EdgeSupport, _Entry],
+) -> None:
+    """The trace line of a region that fails under 1.4D alone where another case governs: what makes it urgent.
+
+    The numbers of ``bending_check`` under the dead-load case (KD for permanent load), from what the search
+    found for the region's key there.
+    """
+    span, case, edge, entry = at
+    d = bending_check(beam, member, model, _region(span), case, edge, False, None, entry[3])
+    size = f", KZbg {d['kzbg']:.3f}" if d["kzbg"] is not None else ""
+    trace.add(
+        "dead load alone (1.4D)",
+        d["utilisation"],
+        clause,
+        f"Mf {d['mf_knm']:.4g} kN·m vs Mr {d['mr_knm']:.4g} kN·m with KD {d['kd']:g}: Fb {d['fb_mpa']:.4g} MPa, "
+        f"KL {d['kl']:.3f}{size}",
+        TraceStatus.formula,
+    )
+
+
 def bending_regions(
     beam: Beam,
     member: Member,
@@ -564,10 +586,12 @@ def bending_regions(
         # entry holds the restrained edge's KL, so its upper bound is found again for its own ends)
         known = None if trace is not None or ne else entry[3]
         numbers = bending_check(beam, member, model, region, case, edge, ne, trace, known)
-        numbers["dead_load_utilisation"] = search.dead.get(name)
+        dead = numbers["dead_load_utilisation"] = search.dead.get(name)
         if rows is not None:
             rows.update(member.rows_used)  # the member's lines open every region's trace
         clause = "CSA O86-19 7.5.6.5.1, 7.5.6.4" if beam.material is Material.glulam else "CSA O86-19 6.5.3"
+        if trace is not None and dead is not None and dead > 1.0 and not case.combo.dead_load_only:
+            _dead_load_line(beam, member, model, trace, clause, search.dead_at[name])
         trace_out = list(member.trace) + trace.lines if traces and trace is not None else []
         out.append(_assembled_region(name, region, case, clause, edge, trace_out, numbers))
     return out

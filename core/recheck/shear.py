@@ -108,14 +108,14 @@ def shear_check(
     volume = glulam_volume_m3(beam.b_mm, beam.d_mm, model.total_length_mm)
     volume_method = beam.material is Material.glulam and volume >= GLULAM_SIMPLE_SHEAR_MAX_VOLUME_M3
     best: tuple[float, float, float, LoadCase] | None = None
-    dead_util: float | None = None  # under 1.4D alone, governing or not
+    dead: tuple[float, float, float, LoadCase] | None = None  # under 1.4D alone, governing or not
     for case in cases:
         resist, demand = _resistance_and_demand(beam, member, model, case, volume, volume_method)
         util = demand / resist
         if best is None or util > best[0]:
             best = (util, resist, demand, case)
-        if case.combo.dead_load_only and (dead_util is None or util > dead_util):
-            dead_util = util
+        if case.combo.dead_load_only and (dead is None or util > dead[0]):
+            dead = (util, resist, demand, case)
     assert best is not None
     util, resist, demand, case = best
     method, clause = _method(beam, volume_method)
@@ -124,6 +124,11 @@ def shear_check(
         add_kd(trace, case)
         _method_line(trace, beam, model, volume, volume_method)
         _strength_trace(trace, beam, member, case, resist, volume, volume_method)
+        if dead is not None and dead[0] > 1.0 and not case.combo.dead_load_only:
+            du, dr, dd, dc = dead
+            f, r = ("Wf", "Wr") if volume_method else ("Vf", "Vr")
+            how = f"{f} {dd * KN_PER_N:.4g} kN vs {r} {dr * KN_PER_N:.4g} kN with KD {dc.kd:g}"
+            trace.add("dead load alone (1.4D)", du, clause, how, TraceStatus.formula)
     return assembled(
         ShearCheck,
         {
@@ -137,6 +142,6 @@ def shear_check(
             "trace": [] if trace is None else trace.lines,
             "dead_load_only": case.combo.dead_load_only,
             "snow_in_combination": carries_snow(case, beam),
-            "dead_load_utilisation": dead_util,
+            "dead_load_utilisation": None if dead is None else dead[0],
         },
     )

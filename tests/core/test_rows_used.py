@@ -126,7 +126,7 @@ def test_a_memory_row_is_a_rule_not_a_beams_record():
 
     Common practice: what is acknowledged is the rule's source; the reviewer's own measurements are not table
     values. Found by a review of the demo notice: "top edge braced by fastened purlins at 1200 mm", "bearings 3900 mm
-    apart", "d/b = 2.64 <= 6.5" and one KD line per load level were 45 rows to acknowledge for one site (27 now),
+    apart", "d/b = 2.64 <= 6.5" and one KD line per load level were 45 rows to acknowledge for one site (31 now),
     and the notice printed the reviewer's measurements as "MEMORY: not checked against the standard's text".
     """
     beams = golden.beams(400)

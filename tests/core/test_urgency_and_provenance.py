@@ -90,7 +90,7 @@ def test_overstress_under_dead_load_alone_is_immediate_and_says_prop_it():
     assert r.shear.utilisation > 1.0
     (shear,) = _findings(r, FindingCode.shear_overstress)
     assert shear.priority is Priority.immediate
-    assert shear.action.startswith("Make safe now: the member is overstressed under the dead load as it stands")
+    assert shear.action.startswith("Make safe now: the member is overstressed under its design dead load alone")
     bearing = _findings(r, FindingCode.bearing_overstress)
     assert bearing
     assert all(f.priority is Priority.immediate and f.action.startswith("Make safe now: the member") for f in bearing)
@@ -125,8 +125,13 @@ def test_a_member_that_fails_under_its_dead_load_alone_is_immediate_whatever_gov
     assert region.dead_load_utilisation > 1.0
     (finding,) = _findings(r, FindingCode.bending_overstress)
     assert finding.priority is Priority.immediate
-    assert finding.action.startswith("Make safe now: the member is overstressed under the dead load as it stands")
-    assert f"Under its dead load alone (1.4D) the utilisation is {alone.utilisation:.2f}" in finding.message
+    assert finding.action.startswith("Make safe now: the member is overstressed under its design dead load alone")
+    assert f"Under its design dead load alone (1.4D) the utilisation is {alone.utilisation:.2f}" in finding.message
+    # what makes it urgent can be followed: the 1.4D case's own numbers (KD 0.65 for permanent load, O86-19
+    # Table 5.1, from memory) in the governing trace, as the same joist's own 1.4D recheck gives them
+    (line,) = [t for t in region.trace if t.symbol == "dead load alone (1.4D)"]
+    assert line.value == pytest.approx(alone.utilisation, rel=1e-9)
+    assert line.source.startswith(f"Mf {alone.mf_knm:.4g} kN·m vs Mr {alone.mr_knm:.4g} kN·m with KD 0.65")
 
 
 def test_a_member_that_holds_its_dead_load_and_fails_under_live_load_stays_before_loading():
@@ -139,6 +144,7 @@ def test_a_member_that_holds_its_dead_load_and_fails_under_live_load_stays_befor
     (finding,) = _findings(r, FindingCode.bending_overstress)
     assert finding.priority is Priority.before_loading
     assert "dead load alone" not in finding.message
+    assert not [t for t in region.trace if t.symbol.startswith("dead load alone")]
 
 
 def test_a_bearing_that_fails_under_its_dead_load_alone_is_immediate():
@@ -157,8 +163,12 @@ def test_a_bearing_that_fails_under_its_dead_load_alone_is_immediate():
     assert len(found) == 2
     for f in found:
         assert f.priority is Priority.immediate
-        assert f.action.startswith("Make safe now: the member is overstressed under the dead load as it stands")
-        assert "Under its dead load alone (1.4D)" in f.message
+        assert f.action.startswith("Make safe now: the member is overstressed under its design dead load alone")
+        assert "Under its design dead load alone (1.4D)" in f.message
+    for b in r.bearing:
+        (line,) = [t for t in b.trace if t.symbol == "dead load alone (1.4D)"]
+        assert line.value == pytest.approx(b.dead_load_utilisation, rel=1e-9)
+        assert line.source.endswith("with KD 0.65")
 
 
 def test_loose_decking_on_a_floor_joist_speaks_of_floor_loads_and_the_lumber_clause():

@@ -390,3 +390,25 @@ def test_the_signature_block_never_sits_alone_on_the_last_page():
         if not rest or end not in last:
             orphaned.append((beam.material, beam.spans_mm, beam.overhang_right_mm, len(r.findings or []), rest[:60]))
     assert orphaned == []
+
+
+def test_a_failing_check_is_marked_fails_in_the_checks_table():
+    """A utilisation over 1.0 fails (CSA O86-19: the factored effect may not exceed the factored resistance).
+
+    The sheet printed '3.543' for the joist whose notice item read '3.54 FAILS'; a figure alone is easy to misread.
+    """
+    beam = sawn(
+        spans_mm=[3900],
+        top_edge={"braced_by": "decking", "fastened": False},
+        loads={"dead_kn_m": 0.6, "live_kn_m": 0.96, "snow_kn_m": 0.0},
+    )
+    r = recheck(beam)
+    text = flat(text_of(render_recheck_sheet(beam, r, "Test site")))
+    failing = [c for c in check_lines(r) if c.utilisation is not None and c.utilisation > 1.0]
+    passing = [c for c in check_lines(r) if c.utilisation is not None and c.utilisation <= 1.0]
+    assert failing
+    assert passing
+    for c in failing:
+        assert f"{c.utilisation:.3f} FAILS" in text
+    for c in passing:
+        assert f"{c.utilisation:.3f} FAILS" not in text
