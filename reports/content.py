@@ -24,8 +24,8 @@ CAUTIONS = (
     "reviewed is outside this notice.",
     "The recheck behind each item covers gravity line loads only (dead, live and snow); wind, earthquake, "
     "point loads and connections are not checked by it.",
-    "IMMEDIATE items: make the area safe now (keep loads off, shore or brace) and tell the contractor on "
-    "site before this written notice arrives.",
+    "IMMEDIATE items: make the area safe now (keep loads off, shore or brace); do not wait for this written "
+    "notice: the reviewer also tells the site superintendent in person or by phone.",
 )
 
 

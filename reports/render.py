@@ -396,8 +396,8 @@ COUNT_WORDS = {
 
 def _immediate_box(count: int, st: dict[str, ParagraphStyle]) -> Table:
     return _boxed(
-        f"<b>▲ {count} IMMEDIATE item(s):</b> make the area safe now (keep loads off, shore or brace) "
-        "and tell the contractor on site before this notice arrives.",
+        f"<b>▲ {count} IMMEDIATE item(s):</b> make the area safe now (keep loads off, shore or brace); do not "
+        "wait for this notice: the reviewer also tells the site superintendent in person or by phone.",
         st,
     )
 

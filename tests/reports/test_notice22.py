@@ -254,3 +254,15 @@ def test_failing_member_has_no_passes_line():
     item = _beam_item(b_mm=80, d_mm=304)  # a small section over 7.2 m: bending fails
     assert any(c.utilisation is None or c.utilisation > 1.0 for c in item.checks)
     assert "Passes as installed" not in " ".join(_pages(render_notice(_notice([item]))))
+
+
+def test_the_immediate_box_speaks_to_the_contractor_who_reads_it():
+    """Common practice: an immediate hazard is reported in person at once, never left to a notice in the mail.
+
+    The box told the notice's own reader to "tell the contractor on site before this notice arrives".
+    """
+    pages = _pages(render_notice(_notice(_twenty_on_five()[:3])))
+    first = pages[0]
+    assert "make the area safe now (keep loads off, shore or brace); do not wait for this notice" in first
+    assert "the reviewer also tells the site superintendent in person or by phone" in first
+    assert "tell the contractor on site" not in " ".join(pages)
