@@ -12,7 +12,7 @@ from core.kinds import TraceStatus
 from core.member import Member
 from core.models import Beam, Bearing, Material
 from core.recheck.cases import LoadCase, carries_snow, live_patterns
-from core.recheck.trace import KN_PER_N, Lines, add_kd, case_label, lines_for, strength_line
+from core.recheck.trace import KN_PER_N, Lines, add_kd, case_label, dead_load_line, lines_for, strength_line
 from core.results import BearingCheck, RowUsed
 
 
@@ -106,10 +106,10 @@ def _one_bearing(
     trace = lines_for(traces, rows)
     if trace is not None:
         _trace(trace, beam, member, bearing, area, kzcp, clause, case, qr)
-        if dead is not None and dead[0] > 1.0 and not case.combo.dead_load_only:
+        if dead is not None:
             du, dr, dd, dc = dead
-            how = f"Qf {dd * KN_PER_N:.4g} kN vs Qr {dr * KN_PER_N:.4g} kN with KD {dc.kd:g}"
-            trace.add("dead load alone (1.4D)", du, clause, how, TraceStatus.formula)
+            how = lambda: f"Qf {dd * KN_PER_N:.4g} kN vs Qr {dr * KN_PER_N:.4g} kN with KD {dc.kd:g}"  # noqa: E731
+            dead_load_line(trace, case, du, clause, how)
     return assembled(
         BearingCheck,
         {

@@ -7,6 +7,7 @@ trace is built only for the governing case of each region.
 
 from __future__ import annotations
 
+from functools import partial
 from typing import Any, NamedTuple
 
 from core.analysis import BeamModel, Region
@@ -28,7 +29,7 @@ from core.kinds import Edge, ElementKind, MomentSign, Outcome, TraceStatus
 from core.member import Member
 from core.models import Beam, Material, NegativeLu
 from core.recheck.cases import LoadCase, carries_snow
-from core.recheck.trace import KNM_PER_NMM, Lines, add_kd, case_label, lines_for, note
+from core.recheck.trace import KNM_PER_NMM, Lines, add_kd, case_label, dead_load_line, lines_for, note
 from core.results import BendingRegion, FactorTrace, RowUsed
 
 
@@ -438,8 +439,8 @@ class _Search:
         self.keys: dict[tuple[Any, ...], _Key] = {}
         self.names: dict[tuple[Any, ...], str] = {}
         self.best: dict[str, tuple[tuple[int, float], list[Any], LoadCase, EdgeSupport, bool, _Entry]] = {}
-        self.dead: dict[str, float] = {}  # each region's utilisation under 1.4D alone, where it has one
-        self.dead_at: dict[str, tuple[list[Any], LoadCase, EdgeSupport, _Entry]] = {}  # and where it was found
+        # each region's utilisation under 1.4D alone, where it has one, and where it was found
+        self.dead: dict[str, tuple[float, list[Any], LoadCase, EdgeSupport, _Entry]] = {}
 
     def _key(self, span: list[Any]) -> _Key:
         """Edge, not-established flag and (when it rests on sign and elements alone) the name of a region key.
@@ -484,9 +485,10 @@ class _Search:
             held = best.get(name)
             if held is None or rank > held[0]:
                 best[name] = (rank, span, case, edge, ne, entry)
-            if case.combo.dead_load_only and rank[0] in (_OK, _OVERSTRESS) and rank[1] >= self.dead.get(name, 0.0):
-                self.dead[name] = rank[1]
-                self.dead_at[name] = (span, case, edge, entry)
+            if case.combo.dead_load_only and rank[0] in (_OK, _OVERSTRESS):
+                held_dead = self.dead.get(name)
+                if held_dead is None or rank[1] >= held_dead[0]:
+                    self.dead[name] = (rank[1], span, case, edge, entry)
 
 
 def _assembled_region(
@@ -535,29 +537,20 @@ def _assembled_region(
     )
 
 
-def _dead_load_line(
-    beam: Beam,
-    member: Member,
-    model: BeamModel,
-    trace: Lines,
-    clause: str,
-    at: tuple[list[Any], LoadCase, EdgeSupport, _Entry],
-) -> None:
-    """The trace line of a region that fails under 1.4D alone where another case governs: what makes it urgent.
+def _dead_load_numbers(
+    beam: Beam, member: Member, model: BeamModel, at: tuple[float, list[Any], LoadCase, EdgeSupport, _Entry]
+) -> str:
+    """A region's numbers under 1.4D alone, in words.
 
-    The numbers of ``bending_check`` under the dead-load case (KD for permanent load), from what the search
-    found for the region's key there.
+    ``bending_check`` under the dead-load case (KD for permanent load), from what the search found for the
+    region's key there.
     """
-    span, case, edge, entry = at
+    _, span, case, edge, entry = at
     d = bending_check(beam, member, model, _region(span), case, edge, False, None, entry[3])
     size = f", KZbg {d['kzbg']:.3f}" if d["kzbg"] is not None else ""
-    trace.add(
-        "dead load alone (1.4D)",
-        d["utilisation"],
-        clause,
+    return (
         f"Mf {d['mf_knm']:.4g} kN·m vs Mr {d['mr_knm']:.4g} kN·m with KD {d['kd']:g}: Fb {d['fb_mpa']:.4g} MPa, "
-        f"KL {d['kl']:.3f}{size}",
-        TraceStatus.formula,
+        f"KL {d['kl']:.3f}{size}"
     )
 
 
@@ -586,12 +579,13 @@ def bending_regions(
         # entry holds the restrained edge's KL, so its upper bound is found again for its own ends)
         known = None if trace is not None or ne else entry[3]
         numbers = bending_check(beam, member, model, region, case, edge, ne, trace, known)
-        dead = numbers["dead_load_utilisation"] = search.dead.get(name)
+        dead = search.dead.get(name)
+        numbers["dead_load_utilisation"] = None if dead is None else dead[0]
         if rows is not None:
             rows.update(member.rows_used)  # the member's lines open every region's trace
         clause = "CSA O86-19 7.5.6.5.1, 7.5.6.4" if beam.material is Material.glulam else "CSA O86-19 6.5.3"
-        if trace is not None and dead is not None and dead > 1.0 and not case.combo.dead_load_only:
-            _dead_load_line(beam, member, model, trace, clause, search.dead_at[name])
+        if trace is not None and dead is not None:
+            dead_load_line(trace, case, dead[0], clause, partial(_dead_load_numbers, beam, member, model, dead))
         trace_out = list(member.trace) + trace.lines if traces and trace is not None else []
         out.append(_assembled_region(name, region, case, clause, edge, trace_out, numbers))
     return out

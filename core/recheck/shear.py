@@ -17,7 +17,7 @@ from core.kinds import TraceStatus
 from core.member import Member
 from core.models import Beam, Material
 from core.recheck.cases import LoadCase, carries_snow
-from core.recheck.trace import KN_PER_N, Lines, add_kd, case_label, lines_for, strength_line
+from core.recheck.trace import KN_PER_N, Lines, add_kd, case_label, dead_load_line, lines_for, strength_line
 from core.results import VOLUME_METHOD, RowUsed, ShearCheck
 
 CV_SIMPLE_UDL = 3.69  # CSA O86-19 Table 7.5: simple span, uniform load
@@ -124,11 +124,11 @@ def shear_check(
         add_kd(trace, case)
         _method_line(trace, beam, model, volume, volume_method)
         _strength_trace(trace, beam, member, case, resist, volume, volume_method)
-        if dead is not None and dead[0] > 1.0 and not case.combo.dead_load_only:
+        if dead is not None:
             du, dr, dd, dc = dead
             f, r = ("Wf", "Wr") if volume_method else ("Vf", "Vr")
-            how = f"{f} {dd * KN_PER_N:.4g} kN vs {r} {dr * KN_PER_N:.4g} kN with KD {dc.kd:g}"
-            trace.add("dead load alone (1.4D)", du, clause, how, TraceStatus.formula)
+            how = lambda: f"{f} {dd * KN_PER_N:.4g} kN vs {r} {dr * KN_PER_N:.4g} kN with KD {dc.kd:g}"  # noqa: E731
+            dead_load_line(trace, case, du, clause, how)
     return assembled(
         ShearCheck,
         {

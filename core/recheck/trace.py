@@ -6,6 +6,8 @@ rows it names), and ``case_label``.
 
 from __future__ import annotations
 
+from collections.abc import Callable
+
 from core.kinds import TraceStatus
 from core.member import Member
 from core.recheck.cases import LoadCase
@@ -119,6 +121,19 @@ KD_RULE = (
     "KD by load duration: 0.65 for dead load alone (1.4D); standard term 1.0, or 1 - 0.5 log(PL/PS) >= 0.65 "
     "where the specified long-term load PL exceeds the standard-term load PS"
 )
+
+
+def dead_load_line(
+    trace: Lines, governing: LoadCase, utilisation: float | None, clause: str, how: Callable[[], str]
+) -> None:
+    """The line of a check that fails under 1.4D alone while another case governs it: what makes it urgent.
+
+    ``utilisation``: the check's under 1.4D (None where it has none); ``how``: that case's numbers in words,
+    formatted only when the line is written. ``core.findings.dead_load_words`` says the same in the finding.
+    """
+    if utilisation is None or utilisation <= 1.0 or governing.combo.dead_load_only:
+        return
+    trace.add("dead load alone (1.4D)", utilisation, clause, how(), TraceStatus.formula)
 
 
 def strength_line(trace: Lines, member: Member, symbol: str, value_mpa: float) -> None:

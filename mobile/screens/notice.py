@@ -116,7 +116,7 @@ class NoticeScreen(Screen):
         candidates = self.vm.candidates()
         for did, line, chosen in candidates:
             mark = "☑ " if chosen else "☐ "
-            box.add_widget(_grows(big_button(mark + line, lambda _b, d=did: self.toggle(d), font_size="16sp")))
+            box.add_widget(big_button(mark + line, lambda _b, d=did: self.toggle(d), font_size="16sp", grow=True))
         if not candidates:
             box.add_widget(_line("No open item on this site."))
         self.items_heading = self.vm.items_heading()
@@ -124,7 +124,9 @@ class NoticeScreen(Screen):
         issued = self.ids.issued
         issued.clear_widgets()
         for nid, line in self.vm.issued():
-            issued.add_widget(_grows(big_button("Export  " + line, lambda _b, n=nid: self.export(n), font_size="15sp")))
+            issued.add_widget(
+                big_button("Export  " + line, lambda _b, n=nid: self.export(n), font_size="15sp", grow=True)
+            )
 
     def render_rows(self) -> None:
         """The table rows the chosen items rest on, each with its status; where the acknowledgement stands."""
@@ -213,12 +215,6 @@ class NoticeScreen(Screen):
             self.message = f"Not exported: {exc}"
             return
         self.message = self.vm.message
-
-
-def _grows(button: Any) -> Any:
-    """The button at least 15 mm tall, taller when its text wraps onto more lines than that holds."""
-    button.bind(texture_size=lambda w, ts: setattr(w, "height", max(mm(15), ts[1] + dp(16))))
-    return button
 
 
 def _line(text: str) -> Label:

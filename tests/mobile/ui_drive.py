@@ -322,10 +322,15 @@ def cut_text_problems(root):
     return found
 
 
+def drawn_lines(w):
+    """The lines a label draws, as laid out (an ellipsis or dropped lines show here, not in its text)."""
+    w.texture_update()
+    return ["".join(word.text for word in line.words) for line in w._label._cached_lines]
+
+
 def mid_word_break(w):
     """The lines of a wrapped label when one of its words is split across two lines ('No restrai / nt'), else ''."""
-    w.texture_update()
-    lines = ["".join(word.text for word in line.words) for line in w._label._cached_lines]
+    lines = drawn_lines(w)
     if [t for line in lines for t in line.split()] == w.text.split():
         return ""
     return " / ".join(line.strip() for line in lines)
@@ -1865,15 +1870,10 @@ elif FLOW == "defsite-geometry":
     MIN_ROWS = int(os.environ["BRACEWALK_MIN_ROWS"])
     seen = []
 
-    def shown_lines(w):
-        """The lines a label draws, as laid out (an ellipsis or dropped lines show here, not in the text)."""
-        w.texture_update()
-        return ["".join(word.text for word in line.words) for line in w._label._cached_lines]
-
     def label_cut(w):
         """A label (or button, picker) whose lines leave out part of its text, or are larger than its box."""
         what = f"{type(w).__name__} {w.text[:40]!r}"
-        lines = shown_lines(w)
+        lines = drawn_lines(w)
         found = []
         if "".join("".join(lines).split()) != "".join(w.text.split()):
             found.append(f"{what} shows only {' / '.join(line.strip() for line in lines)[:90]!r}")
@@ -1936,7 +1936,7 @@ elif FLOW == "defsite-geometry":
 
     def counts_problems(label):
         """A status's count and words broken across two lines of the counts ('■ 1 NOT' / 'PERMITTED')."""
-        lines = [" ".join(line.split()) for line in shown_lines(label)]
+        lines = [" ".join(line.split()) for line in drawn_lines(label)]
         first = label.text.split("\n")[0]
         parts = [" ".join(p.split()) for p in first.split(":", 1)[-1].split("·")]
         split = [p for p in parts if not any(p in x for x in lines)]
