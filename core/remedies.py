@@ -16,9 +16,9 @@ from typing import Any
 
 from core import tables
 from core.kinds import FindingCode, MomentSign, Outcome
-from core.models import Beam, Material
+from core.models import Beam, Material, TopBracing
 from core.recheck import recheck
-from core.results import Out, Recheck
+from core.results import CheckLine, Out, Recheck, check_lines
 
 SPACING_STEP_MM = 50.0
 BEARING_STEP_MM = 10.0
@@ -228,6 +228,35 @@ def _restraint_remedy(beam: Beam, data: dict[str, Any], result: Recheck) -> tupl
     ]
 
 
+def _fastening(beam: Beam) -> Change:
+    """Purlins or decking logged on the top edge but not fastened: the change that fastens them ({} if none)."""
+    top = beam.top_edge
+    if top.braced_by is TopBracing.none or top.fastened is not False:
+        return {}
+    return {"top_edge.fastened": True}
+
+
+def _fasten_remedy(beam: Beam, data: dict[str, Any], base: Change, result: Recheck) -> list[Remedy]:
+    """Fasten the logged purlins or decking: the positive-moment bending utilisation it gives, passing or not.
+
+    Listed even when it does not pass by itself, since fastening is required anyway (its own finding): the
+    reader learns whether it is enough.
+    """
+    fasten = _fastening(beam)
+    positive = [r for r in result.bending if r.sign is MomentSign.positive]
+    if not fasten or not positive or all(r.outcome is Outcome.ok for r in positive):
+        return []
+    change = dict(base, **fasten)
+    util = _try(data, change, _bending(MomentSign.positive))
+    if util is None:
+        return []
+    what = beam.top_edge.braced_by.value
+    message = f"fasten the {what} to the top edge as detailed: {_result_words('bending (positive moment)', base, util)}"
+    if not _passes(util):
+        message += " (over 1.00 by itself: it passes only together with a bending option)"
+    return [Remedy(solves="compression_edge_unbraced", change=change, utilisation_after=util, message=message)]
+
+
 def _brace_remedy(beam: Beam, data: dict[str, Any], base: Change, sign: MomentSign) -> list[Remedy]:
     solves = f"bending ({sign} moment)"
 
@@ -271,6 +300,8 @@ def remedies(beam: Beam, result: Recheck | None = None) -> list[Remedy]:
         if not regions or all(r.outcome is Outcome.ok for r in regions) or _passes(_try(data, base, _bending(sign))):
             continue
         solves = f"bending ({sign} moment)"
+        if sign is MomentSign.positive:
+            out += _fasten_remedy(beam, data, base, result)
         out += _brace_remedy(beam, data, base, sign)
         out += _size_remedy(beam, data, base, solves, _bending(sign))
         out += _load_remedies(beam, data, base, solves, _bending(sign))
@@ -284,3 +315,67 @@ def remedies(beam: Beam, result: Recheck | None = None) -> list[Remedy]:
         out += _size_remedy(beam, data, {}, "deflection_exceeds_limit", _deflection)
         out += _load_remedies(beam, data, {}, "deflection_exceeds_limit", _deflection)
     return out
+
+
+class Corrected(Out):
+    """A member rechecked with one kind of restraint item corrected: what the contractor's action leaves."""
+
+    code: str  # the finding code the action answers
+    change: dict[str, Any]  # contract-1 field path -> value, as a remedy's
+    failing: list[CheckLine]  # the checks that still fail or stay not established
+    message: str  # in words for the contractor: enough alone, or what still fails
+
+
+TOP_EDGE = "top edge"  # the region of the unfastened top-edge finding (core.findings.top_edge_findings)
+
+
+def _restraint_change(beam: Beam, code: str, region: str) -> tuple[Change, str]:
+    """The change that corrects a restraint item of this code, and the action in words ({} and '' if none)."""
+    if code == FindingCode.compression_edge_unbraced and region == TOP_EDGE:
+        fasten = _fastening(beam)
+        return fasten, (f"the {beam.top_edge.braced_by.value} fastened to the top edge" if fasten else "")
+    if code == FindingCode.bearing_restraint_missing:
+        change: Change = {}
+        for j, b in enumerate(beam.bearings):
+            if not b.restrained:
+                change.update({f"bearings.{j}.lateral": True, f"bearings.{j}.rotation": True})
+        return change, (
+            "every bearing of this member restrained against lateral displacement and rotation" if change else ""
+        )
+    return {}, ""
+
+
+def once_corrected(beam: Beam, code: str, region: str) -> Corrected | None:
+    """The member rechecked with the item's restraint corrected (fastened top edge, restrained bearings).
+
+    Answers the contractor's question "is doing this enough?" for the items whose action is a restraint
+    the recheck can model: ``compression_edge_unbraced`` in region "top edge" (the purlins or decking
+    fastened) and ``bearing_restraint_missing`` (every bearing of the member restrained, as its items
+    ask). None for any other item (a bottom-edge brace is directed by the engineer of record; a size or
+    a layup is not a restraint) or when the corrected beam cannot be rechecked.
+    """
+    change, done = _restraint_change(beam, code, region)
+    if not change:
+        return None
+    try:
+        fixed = Beam.model_validate(apply_change(beam.model_dump(mode="json"), change))
+    except ValueError:
+        return None
+    lines = check_lines(recheck(fixed))
+    failing = [c for c in lines if c.utilisation is None or c.utilisation > 1.0]
+    if not failing:
+        top = max(lines, key=lambda c: c.utilisation or 0.0)
+        message = (
+            f"With {done}, every check of {beam.mark} is within capacity (highest utilisation "
+            f"{top.utilisation or 0.0:.2f}, {top.name}); any other item on this member still stands."
+        )
+    else:
+        still = "; ".join(
+            f"{c.name} not established" if c.utilisation is None else f"{c.name} utilisation {c.utilisation:.2f}"
+            for c in failing
+        )
+        message = (
+            f"With {done}, {beam.mark} still fails: {still}. This action alone does not make the member safe "
+            "to load; its other items stay open until they are corrected."
+        )
+    return Corrected(code=code, change=change, failing=failing, message=message)

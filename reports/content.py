@@ -10,8 +10,8 @@ from dataclasses import dataclass, field, replace
 from core.kinds import FindingCode
 from core.models import Beam, BottomBracing, Restraint, TopBracing
 from core.records import Deficiency, Site, Visit
-from core.remedies import remedies
-from core.results import BearingCheck, CheckLine, FactorTrace, Recheck, check_lines
+from core.remedies import once_corrected, remedies
+from core.results import PRIORITY_ORDER, BearingCheck, CheckLine, FactorTrace, Recheck, check_lines
 from reports.tablerows import RowUsed
 
 CAUTIONS = (
@@ -149,6 +149,7 @@ class Item:
     options: list[str] = field(default_factory=list)  # remedies: options for the engineer of record
     status: str = "open"
     member_photos: list[bytes | Photo] = field(default_factory=list)  # photos of the beam (shown once)
+    after: str = ""  # a restraint item: the member rechecked with it corrected (core.remedies.once_corrected)
 
 
 @dataclass(frozen=True)
@@ -200,8 +201,12 @@ class Notice:
 
 
 def ordered(items: list[Item]) -> list[Item]:
-    """Items as the summary lists them: IMMEDIATE first, then by item number."""
-    return sorted(items, key=lambda i: (i.priority != "immediate", i.number))
+    """Items as the summary lists them: most urgent first, then by item number.
+
+    Urgency is IMMEDIATE, before loading, before the next review, observation; a priority this version
+    does not know comes last.
+    """
+    return sorted(items, key=lambda i: (PRIORITY_ORDER.get(i.priority, len(PRIORITY_ORDER)), i.number))
 
 
 def by_member(items: list[Item]) -> list[list[Item]]:
@@ -464,6 +469,8 @@ def item_for(
     options = []
     if beam is not None and result is not None and result.status.value != "ok":
         options = [r.message for r in remedies(beam, result)]
+    # the app writes an item's location as "..., <region of the finding>": "..., top edge"
+    corrected = once_corrected(beam, deficiency.code, location.rsplit(",", 1)[-1].strip()) if beam else None
     return Item(
         member=deficiency.beam_id or "",
         member_title=member_title or (beam.mark if beam is not None else ""),
@@ -471,6 +478,7 @@ def item_for(
         options=options,
         status=status,
         member_photos=member_photos or [],
+        after=corrected.message if corrected is not None else "",
         number=deficiency.number,
         location=location,
         observed=observed,

@@ -528,10 +528,40 @@ def _continued(table: Table, what: str, st: dict[str, ParagraphStyle], verb: str
     return table
 
 
+def _item_rows(item: Item, st: dict[str, ParagraphStyle]) -> list[list[Any]]:
+    """An item's table: location, finding, reference, action (and what it leaves), priority, due, response."""
+    p = st["base"]
+    rows = [("Location", item.location)]
+    if not item.member and item.observed.strip() != item.finding.strip():
+        # a member's block already describes what was observed; an item not on a beam whose observation
+        # is its finding (build_notice passes the description) prints it once, as the finding
+        rows.append(("Observed", item.observed))
+    rows += [
+        ("Finding", item.finding),
+        ("Reference", item.reference),
+        ("Required action", item.action),
+    ]
+    if item.after:
+        rows.append(("After this action", item.after))
+    grid_rows = _rows(rows, st)
+    grid_rows.append([Paragraph("Priority", st["bold"]), Paragraph(esc(priority_label(item.priority)), st["bold"])])
+    grid_rows.append([Paragraph("Due", st["bold"]), Paragraph(esc(due_words(item.priority, item.due)), p)])
+    grid_rows.append(
+        [
+            Paragraph("Response", st["bold"]),
+            Paragraph(
+                "Action taken: ______________________________________________<br/><br/>"
+                "Date: ______________  Name: ______________________________",
+                p,
+            ),
+        ]
+    )
+    return grid_rows
+
+
 def _member_block(group: list[Item], st: dict[str, ParagraphStyle], refs: PageRefs) -> list[Any]:
     """One beam: its description, sketch, photos and recheck once, then each of its items."""
     first = group[0]
-    p = st["base"]
     out: list[Any] = [Spacer(1, 6)]
     head: list[Any] = []
     if first.member:
@@ -547,29 +577,7 @@ def _member_block(group: list[Item], st: dict[str, ParagraphStyle], refs: PageRe
         if first.checks:
             out.append(_engineering(first, st, [i.number for i in group]))
     for item in group:
-        rows = [("Location", item.location)]
-        if not item.member and item.observed.strip() != item.finding.strip():
-            # a member's block already describes what was observed; an item not on a beam whose observation
-            # is its finding (build_notice passes the description) prints it once, as the finding
-            rows.append(("Observed", item.observed))
-        rows += [
-            ("Finding", item.finding),
-            ("Reference", item.reference),
-            ("Required action", item.action),
-        ]
-        grid_rows = _rows(rows, st)
-        grid_rows.append([Paragraph("Priority", st["bold"]), Paragraph(esc(priority_label(item.priority)), st["bold"])])
-        grid_rows.append([Paragraph("Due", st["bold"]), Paragraph(esc(due_words(item.priority, item.due)), p)])
-        grid_rows.append(
-            [
-                Paragraph("Response", st["bold"]),
-                Paragraph(
-                    "Action taken: ______________________________________________<br/><br/>"
-                    "Date: ______________  Name: ______________________________",
-                    p,
-                ),
-            ]
-        )
+        grid_rows = _item_rows(item, st)
         parts: list[Any] = [
             Spacer(1, 4),
             _ItemHeading(f"Item {esc(item.number)}", st["h3"], refs, item_key(item)),

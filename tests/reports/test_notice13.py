@@ -57,9 +57,11 @@ def test_summary_lists_every_item_in_order_with_its_due():
     pages = _pages(render_notice(_notice(items)))
     summary = "\n".join(pages[: next(i for i, t in enumerate(pages) if "Items by member" in t)])
     found = re.findall(r"D-AB12-(\d{3})", summary)
-    immediate = sorted(int(i.number[-3:]) for i in items if i.priority == "immediate")
-    rest = sorted(int(i.number[-3:]) for i in items if i.priority != "immediate")
-    assert [int(x) for x in found] == immediate + rest  # every item once: IMMEDIATE first, then by number
+    # every item once, most urgent first, then by number within each priority (a contractor works through
+    # a deficiency list by urgency: common practice)
+    urgency = ["immediate", "before_loading", "before_next_review", "observation"]
+    expected = [n for p in urgency for n in sorted(int(i.number[-3:]) for i in items if i.priority == p)]
+    assert [int(x) for x in found] == expected
     flat = " ".join(summary.split())
     for i in items:
         row = flat[flat.index(i.number) :][:400]
