@@ -53,9 +53,14 @@ def _bearing_words(b: Bearing) -> str:
 
 
 def _braced_words(braced_by: str, spacing_mm: float | None) -> str:
-    """'braced by purlins at 2400 mm', 'braced by braces (spacing not recorded)', or 'not braced ...'."""
+    """How an edge is braced, in words: 'braced by purlins at 2400 mm', 'braced by decking (continuous)', ...
+
+    Also 'braced by braces (spacing not recorded)' and 'not braced between the bearings'.
+    """
     if braced_by == "none":
         return "not braced between the bearings"
+    if braced_by == "decking":
+        return "braced by decking (continuous)"  # decking has no spacing: it holds the edge along its length
     spacing = f" at {_mm(spacing_mm)}" if spacing_mm is not None else " (spacing not recorded)"
     return f"braced by {braced_by}{spacing}"
 

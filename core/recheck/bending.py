@@ -88,11 +88,11 @@ def _head_trace(
         TraceStatus.formula,
         "MPa",
     )
-    rule = LU_RULE_TOP if edge.edge is Edge.top else LU_RULE_BOTTOM
-    if edge.continuous:
-        trace.add("Lu", "held continuously", "", edge.description, edge.status, row=rule)
-    else:
-        trace.add("Lu", round(edge.lu_mm), "", edge.description, edge.status, "mm", row=rule)
+    # sawn lumber needs no Lu within its d/b tier (KL = 1) and writes its own past it (LU_RULE_SAWN): one Lu line
+    if not sawn:
+        rule = LU_RULE_TOP if edge.edge is Edge.top else LU_RULE_BOTTOM
+        lu: float | str = "held continuously" if edge.continuous else round(edge.lu_mm)
+        trace.add("Lu", lu, "", edge.description, edge.status, "" if edge.continuous else "mm", row=rule)
     if edge.option:
         trace.add("option", edge.option, "", "chosen by the reviewer", TraceStatus.input)
 

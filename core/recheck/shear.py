@@ -53,15 +53,10 @@ def _method_line(trace: Lines, beam: Beam, model: BeamModel, volume: float, volu
         )
         trace.add("CV", CV_SIMPLE_UDL, "CSA O86-19 Table 7.5", source, cv_status)
         return
-    glulam = beam.material is Material.glulam
-    trace.add(
-        "Z",
-        volume,
-        "CSA O86-19 7.5.7" if glulam else "CSA O86-19 6.5.4 (memory)",
-        "volume below 2.0 m3: simple method permitted" if glulam else "sawn lumber: Vr does not depend on the volume",
-        TraceStatus.formula,
-        "m3",
-    )
+    if beam.material is not Material.glulam:
+        return  # sawn lumber: Vr does not depend on the volume, so no Z line
+    simple = "volume below 2.0 m3: simple method permitted"
+    trace.add("Z", volume, "CSA O86-19 7.5.7", simple, TraceStatus.formula, "m3")
 
 
 def _strength_trace(

@@ -184,9 +184,25 @@ def test_unrecorded_fastening_treats_the_top_edge_as_unbraced():
     assert braced.bending[0].lu_mm == pytest.approx(2400)
 
 
+def test_sawn_past_its_tier_prints_one_lu_the_spacing_of_rotation_restraints():
+    # reference o86.md section 13: past its d/b tier, sawn lumber takes the glulam KL method with Lu the
+    # spacing of the points that restrain rotation (here the bearings, 3900 mm apart: nothing between);
+    # the sheet printed a second "Lu 3900 mm" line for the top edge before
+    from core.recheck.bending import LU_RULE_SAWN
+
+    beam = sawn(spans_mm=[3900], top_edge={"braced_by": "decking", "fastened": False})
+    (lu,) = [t for t in recheck(beam).bending[0].trace if t.symbol == "Lu"]
+    assert lu.value == 3900
+    assert lu.row == LU_RULE_SAWN
+
+
 def test_sawn_fb_trace_cites_the_sawn_clause_and_decked_lu_is_named():
     region = recheck(sawn()).bending[0]
     fb = next(t for t in region.trace if t.symbol == "Fb")
     assert fb.clause.startswith("CSA O86-19 6.5.3")
-    lu = next(t for t in region.trace if t.symbol == "Lu")
-    assert lu.value == "held continuously"
+    # within its d/b tier a sawn member needs no Lu (O86-19 6.5.3.2.1: KL = 1): the KL line names the decking
+    # that holds the edge, and no Lu line is printed that the check does not use (one appeared twice on a sheet)
+    assert [t for t in region.trace if t.symbol == "Lu"] == []
+    (kl,) = [t for t in region.trace if t.symbol == "KL"]
+    assert kl.value == 1.0
+    assert "held by decking" in kl.source

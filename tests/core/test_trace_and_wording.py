@@ -396,10 +396,10 @@ def test_uplift_that_lifts_now_says_the_dead_load_alone_lifts_it():
 def test_sawn_shear_trace_cites_the_lumber_clause_not_the_glulam_one():
     # reference o86.md section 5: lumber shear Vr = phi Fv (2An/3) KZv is O86-19 6.5.4 (memory);
     # 7.5.7 (the volume Z and its 2.0 m3 threshold) is the glulam clause
+    # (lumber Vr does not depend on the volume, so its trace has no Z line at all)
     r = recheck(sawn())
-    (z,) = [t for t in r.shear.trace if t.symbol == "Z"]
-    assert z.clause == "CSA O86-19 6.5.4 (memory)"
-    assert "7.5.7" not in z.clause
+    assert [t for t in r.shear.trace if t.symbol == "Z"] == []
+    assert all("7.5.7" not in t.clause for t in r.shear.trace)
     assert r.shear.clause.startswith("CSA O86-19 6.5.4")
     (z_glulam,) = [t for t in recheck(glulam()).shear.trace if t.symbol == "Z"]
     assert z_glulam.clause == "CSA O86-19 7.5.7"
