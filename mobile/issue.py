@@ -9,7 +9,7 @@ from pathlib import Path
 
 from core.kinds import TraceStatus
 from core.recheck import recheck
-from core.records import Deficiency, IssuedNotice, MemoryAcknowledgement, Stage
+from core.records import Deficiency, IssuedNotice, MemoryAcknowledgement, Stage, Visit
 from core.results import Recheck
 from reports import stamp
 from reports.content import Carried, Mark, Notice, Photo, header_from, item_for
@@ -63,6 +63,21 @@ def member_title(record: dict[str, object]) -> str:
     level = str(record.get("level") or "").strip() or "level not recorded"
     grid = str(record.get("gridline") or "").strip()
     return f"{record.get('mark')} · {level} · " + (f"grid {grid}" if grid else "gridline not recorded")
+
+
+def logged_words(record: dict[str, object], visits: list[Visit]) -> str:
+    """When a beam was logged, for the notice: 'on the visit of 2026-11-24 08:30 (latest visit 2026-11-30 09:15)'.
+
+    From the ``visit_id`` the app stores with a new beam; '' when none is recorded or the visit is not on this
+    tablet (the notice then says nothing rather than guess).
+    """
+    by_id = {v.id: v for v in visits}
+    visit = by_id.get(str(record.get("visit_id") or ""))
+    if visit is None:
+        return ""
+    latest = visits[-1]
+    later = f" (this notice follows the visit of {latest.started_at})" if latest.id != visit.id else ""
+    return f"on the visit of {visit.started_at}{later}"
 
 
 def photo_caption_bits(record: dict[str, object]) -> list[str]:
@@ -129,7 +144,7 @@ def build_notice(
     for d in open_items:
         beam = result = None
         observed = d.description
-        title = grid = ""
+        title = grid = logged = ""
         if d.beam_id:
             record = store.beam_record(d.beam_id)
             beam = store.beam(d.beam_id)
@@ -138,6 +153,7 @@ def build_notice(
             observed = observed_text(record)
             title = member_title(record)
             grid = str(record.get("gridline") or "")
+            logged = logged_words(record, visits)
         photos = photos_by_def.get(d.id, [])
         member_photos = photos_by_beam.get(d.beam_id, []) if d.beam_id else []
         items.append(
@@ -151,6 +167,7 @@ def build_notice(
                 member_photos=member_photos,
                 status=_status_words(d.stage, d.cycle),
                 gridline=grid,
+                logged=logged,
             )
         )
         if d.id in earlier:

@@ -150,6 +150,7 @@ class Item:
     status: str = "open"
     member_photos: list[bytes | Photo] = field(default_factory=list)  # photos of the beam (shown once)
     after: str = ""  # a restraint item: the member rechecked with it corrected (core.remedies.once_corrected)
+    logged: str = ""  # when the member was logged: "on the visit of 2026-11-24 08:30" ("" when not recorded)
 
 
 @dataclass(frozen=True)
@@ -457,6 +458,7 @@ def item_for(
     member_photos: list[bytes | Photo] | None = None,
     status: str = "open",
     gridline: str = "",
+    logged: str = "",
 ) -> Item:
     """Build a notice item from a deficiency and (when it concerns a beam) its recheck."""
     sketch = None
@@ -479,6 +481,7 @@ def item_for(
         status=status,
         member_photos=member_photos or [],
         after=corrected.message if corrected is not None else "",
+        logged=logged,
         number=deficiency.number,
         location=location,
         observed=observed,

@@ -567,7 +567,8 @@ def _member_block(group: list[Item], st: dict[str, ParagraphStyle], refs: PageRe
     if first.member:
         numbers = ", ".join(i.number for i in group)
         head.append(Paragraph(f"Member {esc(first.member_title or first.location)}: {esc(numbers)}", st["h2"]))
-        head.append(_grid(_rows([("As built", first.observed)], st), [30 * mm, 144 * mm]))
+        about = [("As built", first.observed)] + ([("Logged", first.logged)] if first.logged else [])
+        head.append(_grid(_rows(about, st), [30 * mm, 144 * mm]))
         if first.sketch is not None:
             head.append(beam_sketch(first.sketch, width_pt=WIDTH, height_pt=44 * mm))
         photos = first.member_photos

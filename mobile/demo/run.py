@@ -49,8 +49,7 @@ def load_demo(store: Store) -> str:
     floor = dict(data["floor_basis"], use="floor")
     site = store.create_site(**data["site"], demo=True, load_bases={"floor": floor})
     bases = {"roof": site.design_basis, **site.load_bases}  # as stored: the app's beam form reads the same
-    for v in data["visits"]:
-        store.start_visit(site.id, **{k: v[k] for k in v if k != "key"})
+    visit_ids = {v["key"]: store.start_visit(site.id, **{k: v[k] for k in v if k != "key"}).id for v in data["visits"]}
     for entry in data["beams"]:
         loads = line_loads_kn_m(bases[entry["basis"]], entry["tributary_m"])
         beam = Beam.model_validate(dict(entry["beam"], loads=loads))
@@ -63,7 +62,7 @@ def load_demo(store: Store) -> str:
                 "tributary_m": entry["tributary_m"],
                 "load_basis": None if entry["basis"] == "roof" else entry["basis"],  # the site's own basis is None
                 "notes": entry["why"],
-                "visit": entry["visit"],
+                "visit_id": visit_ids[entry["visit"]],  # the visit it was logged on, as the app records it
             },
         )
         if entry["beam"]["mark"] in ("RB-5", "RB-8"):

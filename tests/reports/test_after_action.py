@@ -75,3 +75,31 @@ def test_an_edited_location_that_does_not_name_the_top_edge_gets_no_line():
     beam = sawn(**JOIST)
     d = _deficiency(3, "compression_edge_unbraced", "before_loading", "L2 joist FJ-9 near the stair", "Fasten it.")
     assert item_for(d, beam, recheck(beam), "as built FJ-9").after == ""
+
+
+def test_a_member_says_on_which_visit_it_was_logged(tmp_path):
+    # the demo's floor joist was logged on the first visit (2026-11-24); the notice follows the second: a
+    # contractor reading a notice dated 2026-11-30 learns how long the condition has stood (common practice: a
+    # field report states when each observation was made)
+    from tests.reports.test_notice22 import _demo_notice
+
+    notice = _demo_notice(tmp_path)
+    by_title = {i.member_title.split(" · ")[0]: i for i in notice.items if i.member}
+    assert (
+        by_title["FJ-1"].logged
+        == "on the visit of 2026-11-24 08:30 (this notice follows the visit of 2026-11-30 09:15)"
+    )
+    assert by_title["RB-3"].logged == "on the visit of 2026-11-30 09:15"
+    text = _flat(render_notice(notice))
+    member = text[text.index("Member FJ-1") :]
+    assert member.index("Logged on the visit of 2026-11-24 08:30") < member.index("Item D-")
+
+
+def test_a_beam_with_no_recorded_visit_gets_no_logged_line():
+    from core.records import Visit
+    from mobile.issue import logged_words
+
+    visits = [Visit(id="v1", site_id="s", started_at="2026-11-24 08:30", reviewer="P. O.")]
+    assert logged_words({"mark": "B-1"}, visits) == ""
+    assert logged_words({"mark": "B-1", "visit_id": "elsewhere"}, visits) == ""  # a visit not on this tablet
+    assert logged_words({"mark": "B-1", "visit_id": "v1"}, visits) == "on the visit of 2026-11-24 08:30"
