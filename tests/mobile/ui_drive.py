@@ -2005,6 +2005,36 @@ elif FLOW == "defsite-geometry":
         check("site fold", popup_problems() + whole_text_problems(form))
         s.fold.ids.cancel.trigger_action(0)
 
+    def uncaptioned(ids, names, png):
+        """Fields with no name above them, or a name in view drawn under 4.5:1 contrast in the screenshot ``png``.
+
+        A hint alone goes once the field holds text; 4.5:1 is WCAG 2 AA for text. Kivy lists children last first.
+        """
+        out = []
+        for name in names:
+            w = ids[name]
+            siblings = w.parent.children
+            above = siblings[siblings.index(w) + 1] if siblings.index(w) + 1 < len(siblings) else None
+            if not (type(above).__name__ == "FieldCaption" and above.text.strip()):
+                out.append(f"{name}: no name above the field")
+            elif _shown(above) is not None and (ratio := drawn_contrast(png, above)) < 4.5:  # those in view
+                out.append(f"{name}: its name {above.text!r} drawn at {ratio:.1f}:1 contrast")
+        return out
+
+    @step
+    def visit_form_named():
+        s = screen("site")
+        s.ids.visit.trigger_action(0)
+        ids = s.visit_form.ids
+        ids.visit_reviewer.text = "Priya Okonkwo-Lind, P.Eng."
+        yield from shot(f"{GEOM}-2d-site-visit-form")
+        _view, form = open_popup_content()
+        names = ("visit_reviewer", "visit_weather", "visit_scope", "visit_not_scope")
+        named = uncaptioned(ids, names, OUT / f"{GEOM}-2d-site-visit-form.png")
+        check("visit form", popup_problems() + whole_text_problems(form) + named)
+        ids.visit_reviewer.text = ""
+        s._close()
+
     @step
     def raise_by_hand_form():
         s = screen("site")
@@ -2015,7 +2045,9 @@ elif FLOW == "defsite-geometry":
         ids.hand_action.text = longest.action
         yield from shot(f"{GEOM}-2c-site-raise-by-hand")
         _view, form = open_popup_content()
-        check("raise by hand", popup_problems() + whole_text_problems(form))
+        fields = ("hand_location", "hand_description", "hand_action", "hand_priority")
+        named = uncaptioned(ids, fields, OUT / f"{GEOM}-2c-site-raise-by-hand.png")
+        check("raise by hand", popup_problems() + whole_text_problems(form) + named)
         for k in ("hand_location", "hand_description", "hand_action"):
             ids[k].text = ""
         s._close()
