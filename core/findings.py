@@ -110,13 +110,20 @@ def restraint_findings(beam: Beam) -> list[Finding]:
                 "before any further loading; ask the engineer of record if none is detailed."
             )
         else:
+            # not seen is taken as missing (the unfavourable case, reference ARCHITECTURE), so as urgent as missing
             what = " and ".join(words[k] for k in unseen)
             message = (
-                f"{beam.mark} at {where}: restraint against {what} could not be seen. The bending "
-                "capacity is not established until it is confirmed."
+                f"{beam.mark} at {where}: restraint against {what} could not be seen, so it is taken as missing "
+                f"(the unfavourable case). d/b = {beam.d_mm / beam.b_mm:.1f} > 2.5, so the standard requires it; "
+                "the beam's bending capacity is not established until it is confirmed."
             )
-            priority = Priority.before_loading
-            action = "Expose or confirm the bearing restraint (photo or site review) before loading."
+            priority = Priority.immediate
+            action = (
+                "Make safe now: until the restraint is confirmed, keep loads off this beam and tell the site "
+                "superintendent today. Expose the bearing or send a photo so the reviewer can confirm it; if it is "
+                "not there, install the restraint shown on the drawings (blocking, side plates or strap) before "
+                "any further loading."
+            )
         out.append(
             _finding(
                 code=FindingCode.bearing_restraint_missing,

@@ -276,7 +276,17 @@ def test_unseen_restraint_names_both_restraints_the_standard_requires():
     r = recheck(glulam(bearings=[dict(R, lateral="not_visible", rotation="not_visible"), R]))
     (found,) = [f for f in r.findings if f.code is FindingCode.bearing_restraint_missing]
     assert "restraint against lateral displacement and rotation (rolling over) could not be seen" in found.message
-    assert found.priority is Priority.before_loading
+    # what was not seen is taken as absent (common practice; the project's modelling rule), and a missing
+    # bearing restraint leaves the capacity unknown under loads already on: as urgent as one seen missing
+    assert "taken as missing (the unfavourable case)" in found.message
+    assert found.priority is Priority.immediate
+    assert found.action.startswith("Make safe now")
+    (seen_missing,) = [
+        f
+        for f in recheck(glulam(bearings=[dict(R, lateral=False, rotation=False), R])).findings
+        if f.code is FindingCode.bearing_restraint_missing
+    ]
+    assert seen_missing.priority is found.priority
 
 
 def test_shear_method_by_volume_o86_7_5_7():
