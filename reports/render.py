@@ -681,7 +681,13 @@ def _signature(n: Notice, st: dict[str, ParagraphStyle]) -> KeepTogether:
     else:
         sig = Paragraph("(no signature image set up)", st["small"])
     lines = Paragraph(
-        "<br/>".join(esc(x) for x in (n.reviewer, licence, n.firm, _contact(n), f"Date: {n.issued_on}") if x), p
+        # phone and e-mail on lines of their own: the narrow column broke the address mid-word ("tamarack.exampl / e")
+        "<br/>".join(
+            esc(x)
+            for x in (n.reviewer, licence, n.firm, n.reviewer_phone, n.reviewer_email, f"Date: {n.issued_on}")
+            if x
+        ),
+        p,
     )
     cols: list[Any] = [[Paragraph("Reviewer", st["bold"]), sig, lines]]
     widths = [24 * mm, 66 * mm, 84 * mm]

@@ -266,3 +266,13 @@ def test_the_immediate_box_speaks_to_the_contractor_who_reads_it():
     assert "make the area safe now (keep loads off, shore or brace); do not wait for this notice" in first
     assert "the reviewer also tells the site superintendent in person or by phone" in first
     assert "tell the contractor on site" not in " ".join(pages)
+
+
+def test_the_signature_block_keeps_the_email_address_whole(tmp_path):
+    # an address broken mid-word ("tamarack.exampl / e") cannot be copied or read back over the phone; the
+    # phone and the address each take their own line in the block (common practice: contact details whole)
+    notice = _demo_notice(tmp_path)
+    last = PdfReader(io.BytesIO(render_notice(notice))).pages[-1].extract_text()
+    signed = last[last.index("Signed") :]
+    assert notice.reviewer_email in signed.splitlines(), signed
+    assert notice.reviewer_phone in signed.splitlines(), signed
