@@ -207,12 +207,15 @@ def rows_for_items(store: Store, site_id: str, only: list[str] | None = None) ->
     return sorted(found, key=lambda r: (r.status is not TraceStatus.memory, r.clause, r.source))
 
 
-def acknowledge(store: Store, rows: list[RowUsed], by: str) -> MemoryAcknowledgement | None:
-    """The reviewer ``by`` acknowledges the memory rows among ``rows`` now (None when there are none)."""
+def acknowledge(store: Store, rows: list[RowUsed], by: str, at: str | None = None) -> MemoryAcknowledgement | None:
+    """The reviewer ``by`` acknowledges the memory rows among ``rows`` now, or ``at`` (None when there are none).
+
+    ``at`` (UTC, ISO 8601 with Z) is for the demo, whose notice has a fixed issue date.
+    """
     memory = memory_rows(rows)
     if not memory:
         return None
-    return MemoryAcknowledgement(rows=memory, by=by.strip(), at=utc_stamp(store.wall_ms()))
+    return MemoryAcknowledgement(rows=memory, by=by.strip(), at=at or utc_stamp(store.wall_ms()))
 
 
 def acknowledged(notice: Notice, acknowledgement: MemoryAcknowledgement | None) -> Notice:

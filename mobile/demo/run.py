@@ -121,7 +121,8 @@ def run_demo(out: Path, serve: bool = False) -> int:
     rows = raise_all(store, site_id)
     reviewer = "Priya Okonkwo-Lind, P.Eng."
     # the demo's reviewer acknowledges the table rows entered from memory (printed on the notice with the time)
-    ack = acknowledge(store, rows_for_items(store, site_id), reviewer)
+    # at a fixed time on the demo's issue day (09:45 Pacific, after the 09:15 visit), so it never follows the issue
+    ack = acknowledge(store, rows_for_items(store, site_id), reviewer, at="2026-11-30T17:45:00Z")
     notice, pdf_path = issue_notice_for_site(
         store, site_id, out / "notice.pdf", issued_by=reviewer, issued_on="2026-11-30", acknowledgement=ack
     )

@@ -61,6 +61,14 @@ def test_demo_command_writes_db_pdf_bundle(tmp_path):
     assert (out / "cedar-hollow.db").exists()
     assert "RB-5" in proc.stdout
     assert "not_established" in proc.stdout
+    # the memory rows are acknowledged before the notice is issued (its fixed date 2026-11-30), not days after
+    import re
+
+    from pypdf import PdfReader
+
+    text = " ".join(" ".join(p.extract_text() for p in PdfReader(out / "notice.pdf").pages).split())
+    (at,) = re.findall(r"Memory rows acknowledged by .*? at (\d{4}-\d\d-\d\dT[\d:]+Z)", text)
+    assert at.startswith("2026-11-30T"), at
 
 
 def test_sync_cli_round_trip_same_digest(tmp_path):
