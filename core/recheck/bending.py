@@ -184,6 +184,8 @@ LU_RULE_SAWN = (
     "Lu of sawn lumber past its d/b tier: the spacing of the points that restrain rotation (bridging, blocking, "
     "restrained bearings), never zero"
 )
+KZBG_RULE = "KZbg = (130/b)^0.1 (610/d)^0.1 (9100/L)^0.1, at most 1.3, L between points of zero moment"
+CB_LIMIT_RULE = "CB above 50: not permitted (no KL, the member is not accepted)"
 _MR_CLAUSE_SAWN = "CSA O86-19 6.5.3.1 (memory)"  # the sawn Mr line's clause (reference o86.md section 2)
 _GLULAM_MR = "lesser of phi Fb S KX KZbg and phi Fb S KX KL, phi = 0.9, KX = 1"  # the glulam Mr line's source
 
@@ -206,6 +208,7 @@ def _kzbg(beam: Beam, region: Region, trace: Lines | None) -> float:
             "CSA O86-19 7.5.6.5.1",
             f"L = {length:.0f} mm between points of zero moment; cap 1.3",
             "confirmed",
+            row=KZBG_RULE,
         )
     return kzbg
 
@@ -328,7 +331,7 @@ def _kl_from_lu(
         _slenderness_trace(trace, row, why, factor, le, cb, ck)
     stability = lateral_stability_kl(cb, ck, e, member.kse, member.kt, fb)
     if isinstance(stability, NotPermitted):
-        note(trace, "KL", None, stability.clause, str(stability), "confirmed")
+        note(trace, "KL", None, stability.clause, str(stability), "confirmed", row=CB_LIMIT_RULE)
         return stability
     if trace is not None:
         note(trace, "KL", stability.kl, "CSA O86-19 7.5.6.4.4", f"regime {stability.regime}", "confirmed")
@@ -347,6 +350,7 @@ def _slenderness_trace(
         f"effective_length row {row['le_case']} ({row['description']}): {factor:g} x Lu; {why}",
         row["status"],
         "mm",
+        row=f"effective_length row {row['le_case']} ({row['description']}): {factor:g} x Lu",  # why it was chosen
     )
     note(trace, "CB", cb, "CSA O86-19 7.5.6.4.3", "CB = sqrt(Le d / b^2)", "confirmed")
     note(trace, "CK", ck, "CSA O86-19 7.5.6.4.4", "CK = sqrt(0.97 E KSE KT / (Fb KX))", "confirmed")

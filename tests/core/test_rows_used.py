@@ -138,6 +138,9 @@ def test_a_memory_row_is_a_rule_not_a_beams_record():
             if row[2] is TraceStatus.memory:
                 assert not per_beam.search(row[1]), row
                 memory.add(row)
+            # a confirmed row is a rule too: the notice's appendix listed "L = 6000 mm between points of zero
+            # moment" (KZbg, CSA O86-19 7.5.6.5.1) once per length, and "CB = 57.3 exceeds 50" per beam
+            assert not re.search(r"L = \d+ mm|CB = \d", row[1]), row
         # the trace line itself still tells this beam's numbers (the sheet prints its source beside its rule)
         lu = [t for r in result.bending for t in r.trace if t.symbol == "Lu" and isinstance(t.value, int)]
         assert all(re.search(r"\d", t.source) or "between bearings" in t.source for t in lu), lu
