@@ -29,6 +29,7 @@ from mobile.screens.widgets import (
 from mobile.viewmodels import BeamFormViewModel
 from mobile.viewmodels.beam import RESTRAINT_WORDS, words
 from mobile.viewmodels.common import default_export_dir
+from mobile.viewmodels.site import KEEP
 
 TYPING_PAUSE_S = 0.35  # save this long after the last keystroke (and at once on Enter or leaving the field)
 
@@ -109,10 +110,11 @@ class BeamScreen(Screen):
         self.render()
 
     def show_title(self) -> None:
-        """'RB-5  ·  Roof  ·  grid E / 3-4'."""
+        """'RB-5  ·  Roof  ·  grid E / 3-4', each part kept whole when the title wraps (no-break spaces inside)."""
         rec = self.vm.record()
         grid = f"grid {rec['gridline']}" if rec.get("gridline") else ""
-        self.title = "  ·  ".join(str(x) for x in (rec.get("mark"), rec.get("level"), grid) if x)
+        parts = (str(x).replace(" ", KEEP) for x in (rec.get("mark"), rec.get("level"), grid) if x)
+        self.title = "  ·  ".join(parts)
 
     def build_bearings(self, values: dict[str, str]) -> None:
         """Per support: bearing length, then lateral and rotation each chosen directly (three large buttons).

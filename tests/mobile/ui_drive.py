@@ -410,6 +410,11 @@ def beam_problems(s, dpi):
             found.append(f"{name} input {box.width / mm:.0f} mm wide (< 30 mm)")
     if not any(_shown(w) == _window_rect(w) for w in _caution_bands(s)):
         found.append("the caution is not on screen whole")
+    title = s.ids.title  # mark, level and grid whole: portrait cut the middle out ("RB-3 · Ro...grid C / 2-3")
+    shown = " ".join(line.strip() for line in drawn_lines(title))
+    if shown.split() != title.text.split() or title.texture_size[1] > title.height + 2:
+        tall = f"{title.texture_size[1]:.0f} px in {title.height:.0f}"
+        found.append(f"the title {title.text!r} shows as {shown!r} ({tall})")
     return found
 
 
