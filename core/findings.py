@@ -23,8 +23,8 @@ FINDING_CODES = tuple(code.value for code in FindingCode)  # kept for callers th
 
 DEAD_MAKE_SAFE = (
     "Make safe now: the member is overstressed under its design dead load alone, taken as in place (how much of it "
-    "is on the member now was not recorded); have it propped, place no more finishes, roofing or other permanent "
-    "load on it, and tell the site superintendent today. "
+    "is on the member now was not recorded); have it propped, place no more {permanent} on it, and tell the site "
+    "superintendent today. "
 )
 # Snow is a load nobody on site can keep off a member (common practice: an overstress under a snow
 # combination is made safe by shoring, not by an instruction not to load).
@@ -59,7 +59,30 @@ def dead_load_words(check: BendingRegion | ShearCheck | BearingCheck) -> str:
     )
 
 
-def overstress_urgency(dead_load_fails: bool, snow_in_combination: bool, action: str) -> tuple[Priority, str]:
+def _permanent_load(beam: Beam) -> str:
+    """The permanent load still to come on a member, in words, by what it supports."""
+    if beam.use is Use.floor:
+        return "finishes, partitions, stored material or other permanent load"
+    return "finishes, roofing or other permanent load"
+
+
+def keep_off(beam: Beam) -> str:
+    """How an IMMEDIATE item on this member opens: keep loads off, or (a member under snow) shore it.
+
+    Snow cannot be kept off a member (as for an overstress under snow: ``overstress_urgency``), so "keep
+    loads off" is not a way to make safe a member whose loads include snow.
+    """
+    if beam.loads.snow_kn_m > 0:
+        return (
+            "Make safe now: snow can load this member at any time and cannot be kept off it reliably; have it "
+            "shored or propped now, keep every other load off it"
+        )
+    return "Make safe now: keep loads off this beam"
+
+
+def overstress_urgency(
+    beam: Beam, dead_load_fails: bool, snow_in_combination: bool, action: str
+) -> tuple[Priority, str]:
     """Priority and action of a strength overstress.
 
     Failing under dead load alone (1.4D), governing or not: immediate, with the propping instruction first
@@ -68,7 +91,7 @@ def overstress_urgency(dead_load_fails: bool, snow_in_combination: bool, action:
     contractor controls the live load).
     """
     if dead_load_fails:
-        return Priority.immediate, DEAD_MAKE_SAFE + action
+        return Priority.immediate, DEAD_MAKE_SAFE.format(permanent=_permanent_load(beam)) + action
     if snow_in_combination:
         return Priority.immediate, SNOW_MAKE_SAFE + action
     return Priority.before_loading, action
@@ -105,7 +128,7 @@ def restraint_findings(beam: Beam) -> list[Finding]:
             )
             priority = Priority.immediate
             action = (
-                "Make safe now: keep loads off this beam and tell the site superintendent today. "
+                f"{keep_off(beam)} and tell the site superintendent today. "
                 "Install the bearing restraint shown on the drawings (blocking, side plates or strap) "
                 "before any further loading; ask the engineer of record if none is detailed."
             )
@@ -119,10 +142,9 @@ def restraint_findings(beam: Beam) -> list[Finding]:
             )
             priority = Priority.immediate
             action = (
-                "Make safe now: until the restraint is confirmed, keep loads off this beam and tell the site "
-                "superintendent today. Expose the bearing or send a photo so the reviewer can confirm it; if it is "
-                "not there, install the restraint shown on the drawings (blocking, side plates or strap) before "
-                "any further loading."
+                f"{keep_off(beam)} until the restraint is confirmed, and tell the site superintendent today. "
+                "Expose the bearing or send a photo so the reviewer can confirm it; if it is not there, install the "
+                "restraint shown on the drawings (blocking, side plates or strap) before any further loading."
             )
         out.append(
             _finding(
@@ -199,14 +221,15 @@ def bending_findings(beam: Beam, member: Member, bending: list[BendingRegion]) -
                         f"{r.compression_edge}; the standard does not permit this member as installed.{rests}"
                     ),
                     action=(
-                        "Make safe now: keep loads off and have lateral bracing added to the compression edge "
-                        "as directed by the engineer of record."
+                        f"{keep_off(beam)}, and have lateral bracing added to the compression edge as directed by "
+                        "the engineer of record."
                     ),
                     clause="CSA O86-19 7.5.6.4.4",
                 )
             )
         elif r.outcome is Outcome.overstress and r.utilisation is not None and r.mr_knm is not None:
             priority, action = overstress_urgency(
+                beam,
                 fails_under_dead_load(r),
                 r.snow_in_combination,
                 "Do not load beyond its present load; refer to the engineer of record for a repair, "
@@ -244,8 +267,8 @@ def bending_findings(beam: Beam, member: Member, bending: list[BendingRegion]) -
                         f"restraint is missing.{rests}"
                     ),
                     action=(
-                        "Make safe now: keep loads off this beam and tell the site superintendent today; refer to the "
-                        "engineer of record for bearing restraint and a repair or replacement member."
+                        f"{keep_off(beam)} and tell the site superintendent today; refer to the engineer of record "
+                        "for bearing restraint and a repair or replacement member."
                     ),
                     clause=r.clause,
                 )
@@ -462,6 +485,7 @@ def check_findings(
     out = []
     if shear.utilisation > 1.0:
         priority, action = overstress_urgency(
+            beam,
             fails_under_dead_load(shear),
             shear.snow_in_combination,
             "Refer to the engineer of record before further loading.",
@@ -486,6 +510,7 @@ def check_findings(
     for b in bearing:
         if b.utilisation > 1.0:
             priority, action = overstress_urgency(
+                beam,
                 fails_under_dead_load(b),
                 b.snow_in_combination,
                 "Lengthen the bearing or add a bearing plate as directed by the engineer of record.",

@@ -365,3 +365,40 @@ def test_an_uplift_under_live_load_alone_stays_before_loading():
     assert f.priority is Priority.before_loading
     assert f.action.startswith("Confirm a hold-down for the uplift before loading")
     assert r.bearing[0].uplift_snow is False
+
+
+@pytest.mark.parametrize(
+    ("case", "over"),
+    [
+        ("restraint missing", {"bearings": [{"lateral": True, "rotation": False, "length_mm": 140}] * 2}),
+        ("restraint not seen", {"bearings": [{"lateral": True, "rotation": "not_visible", "length_mm": 140}] * 2}),
+        ("not permitted", {"b_mm": 80, "d_mm": 912, "spans_mm": [12000], "top_edge": {"braced_by": "none"}}),
+    ],
+)
+def test_an_immediate_item_on_a_roof_under_snow_says_shore_it_not_keep_loads_off(case, over):
+    """Snow cannot be kept off a roof (common practice): every IMMEDIATE action on a member carrying snow shores it.
+
+    Found by a read of the demo notice as the site superintendent, written on a day of light snow: the restraint
+    and slenderness items said "keep loads off" while the overstress items beside them said snow cannot be kept
+    off. The same member without snow keeps "keep loads off this beam" (the contractor controls the load).
+    """
+    snow = recheck(glulam(**over))
+    none = recheck(glulam(**over, loads={"dead_kn_m": 2.0, "live_kn_m": 3.0, "snow_kn_m": 0.0}))
+    for result, shored in ((snow, True), (none, False)):
+        immediate = [f for f in result.findings if f.priority is Priority.immediate]
+        assert immediate, (case, [f.code for f in result.findings])
+        for f in immediate:
+            assert f.action.startswith("Make safe now"), f.action
+            assert ("snow can load this member at any time" in f.action) is shored, f.action
+            assert ("have it shored or propped now" in f.action) is shored, f.action
+            assert ("keep loads off this beam" in f.action) is not shored, f.action
+
+
+def test_a_floor_member_failing_under_dead_load_is_not_told_about_roofing():
+    """A floor joist's permanent load to come is finishes and partitions, not roofing (common practice)."""
+    r = recheck(sawn(spans_mm=[3900], top_edge={"braced_by": "decking", "fastened": False},
+                     loads={"dead_kn_m": 0.6, "live_kn_m": 0.96, "snow_kn_m": 0.0}))  # fmt: skip
+    (f,) = _findings(r, FindingCode.bending_overstress)
+    assert f.priority is Priority.immediate  # 1.4D alone fails it (the demo's FJ-1)
+    assert "place no more finishes, partitions, stored material or other permanent load on it" in f.action
+    assert "roofing" not in f.action

@@ -410,6 +410,13 @@ def beam_problems(s, dpi):
             found.append(f"{name} input {box.width / mm:.0f} mm wide (< 30 mm)")
     if not any(_shown(w) == _window_rect(w) for w in _caution_bands(s)):
         found.append("the caution is not on screen whole")
+    from kivy.uix.spinner import Spinner
+
+    for w in s.walk(restrict=True):  # a picker's chosen value wider than the picker is drawn past its edges
+        if isinstance(w, Spinner) and w.text.strip() and _drawn(w):
+            w.texture_update()
+            if w.texture_size[0] > w.width + 2:
+                found.append(f"picker {w.text!r}: {w.texture_size[0]:.0f} px of text in {w.width:.0f} px")
     title = s.ids.title  # mark, level and grid whole: portrait cut the middle out ("RB-3 · Ro...grid C / 2-3")
     shown = " ".join(line.strip() for line in drawn_lines(title))
     if shown.split() != title.text.split() or title.texture_size[1] > title.height + 2:
