@@ -100,6 +100,10 @@ def treatment_factors(beam: Beam) -> tuple[float, float, FactorTrace]:
     )
 
 
+# the Table 6.13 columns in the words of the table's heads (the smaller dimension of the section)
+_KZB_COLUMN_WORDS = {"kzb_small_38_64": "38-64 mm", "kzb_mid_89_102": "89-102 mm", "kzb_large_114_up": ">= 114 mm"}
+
+
 def size_factor_kzb(b_mm: float, d_mm: float) -> tuple[float, FactorTrace]:
     """CSA O86-19 Table 6.13 (memory): KZb (= KZv) for sawn lumber from the measured section."""
     small, large = min(b_mm, d_mm), max(b_mm, d_mm)
@@ -113,7 +117,10 @@ def size_factor_kzb(b_mm: float, d_mm: float) -> tuple[float, FactorTrace]:
                 symbol="KZb",
                 value=value,
                 clause="CSA O86-19 Table 6.13",
-                source=f"kzb: larger dim <= {row['larger_dim_max_mm']} mm, {column}",
+                source=(
+                    f"kzb row larger dimension <= {row['larger_dim_max_mm']} mm, thickness "
+                    f"{_KZB_COLUMN_WORDS[column]}: KZb {value:g}"
+                ),
                 status=TraceStatus(row["status"]),
             )
     msg = f"d_mm = {large:g} is outside the KZb table"
@@ -189,7 +196,7 @@ def _member_properties(beam: Beam) -> Member:
                 symbol="KH",
                 value=kh,
                 clause="CSA O86-19 Table 6.12",
-                source=f"system case {beam.system.value}",
+                source=f"system case {beam.system.value}: KH {kh:g}",
                 status=TraceStatus.memory,
             )
         )

@@ -16,6 +16,7 @@ from core.clauses.bending import glulam_bending_strength_for_face, glulam_mr, sa
 from core.clauses.factors import factored_bending_strength_fb
 from core.clauses.outcomes import NotPermitted
 from core.clauses.stability import (
+    KLRegime,
     critical_slenderness_ck,
     effective_length_le,
     glulam_db_waives_stability,
@@ -27,7 +28,7 @@ from core.edges import EdgeSupport, compression_edge, unrestrained_elements
 from core.effective_length import chosen_row
 from core.kinds import Edge, ElementKind, MomentSign, Outcome, TraceStatus
 from core.member import Member
-from core.models import Beam, Material, NegativeLu
+from core.models import Beam, Material, NegativeLu, TopStamp
 from core.recheck.cases import LoadCase, carries_snow
 from core.recheck.trace import KNM_PER_NMM, Lines, add_kd, case_label, dead_load_line, lines_for, note
 from core.results import BendingRegion, FactorTrace, RowUsed
@@ -76,9 +77,12 @@ def _head_trace(
         f"{face} ({region.sign} moment)",
         fb_spec,
         "CSA O86-19 Table 7.3 note" if not sawn else "CSA O86-19 Table 6.4",
-        f"{beam.species} {beam.grade}" + ("" if sawn else f", top stamp {beam.top_stamp.value}"),
+        f"{beam.species} {beam.grade}" + ("" if sawn else f", installed with its TOP stamp {_STAMP[beam.top_stamp]}"),
         member.grade_status,
         "MPa",
+        # sawn fb is read from the grade row itself: keyed to it, as fv and fcp are (strength_line), so the notice
+        # lists that row once; glulam's face rule (Table 7.3 note, by the TOP stamp) is a row of its own
+        row=next(t.source for t in member.trace if t.symbol == "grade") if sawn else "",
     )
     trace.add(
         "Fb",
@@ -184,6 +188,13 @@ LU_RULE_SAWN = (
     "Lu of sawn lumber past its d/b tier: the spacing of the points that restrain rotation (bridging, blocking, "
     "restrained bearings), never zero"
 )
+_STAMP = {TopStamp.up: "up", TopStamp.down: "down", TopStamp.not_visible: "not seen"}  # the fb line's words
+# the KL formula of each regime of CSA O86-19 7.5.6.4.4 (core.clauses.stability): the row the appendix lists
+_KL_RULES = {
+    KLRegime.short: f"regime {KLRegime.short}: KL = 1",
+    KLRegime.intermediate: f"regime {KLRegime.intermediate}: KL = 1 - (CB/CK)^4 / 3",
+    KLRegime.long: f"regime {KLRegime.long}: KL = 0.65 E KSE KT / (CB^2 Fb KX)",
+}
 KZBG_RULE = "KZbg = (130/b)^0.1 (610/d)^0.1 (9100/L)^0.1, at most 1.3, L between points of zero moment"
 CB_LIMIT_RULE = "CB above 50: not permitted (no KL, the member is not accepted)"
 _MR_CLAUSE_SAWN = "CSA O86-19 6.5.3.1 (memory)"  # the sawn Mr line's clause (reference o86.md section 2)
@@ -334,7 +345,8 @@ def _kl_from_lu(
         note(trace, "KL", None, stability.clause, str(stability), "confirmed", row=CB_LIMIT_RULE)
         return stability
     if trace is not None:
-        note(trace, "KL", stability.kl, "CSA O86-19 7.5.6.4.4", f"regime {stability.regime}", "confirmed")
+        regime = f"regime {stability.regime}"
+        note(trace, "KL", stability.kl, "CSA O86-19 7.5.6.4.4", regime, "confirmed", row=_KL_RULES[stability.regime])
     return stability.kl
 
 

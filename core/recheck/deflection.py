@@ -157,6 +157,7 @@ def _trace(trace: Lines, beam: Beam, model: BeamModel, es: float, row: dict[str,
     long_term = long_term_deformation_rule(EDITION)
     trace.add("ES", es, "CSA O86-19 5.4.1", "E KSE KT (mean E)", TraceStatus.memory, "MPa")
     overhang = any(el.kind is ElementKind.overhang for el in model.elements)
+    limit = f"{row['description']}: L/{row['ratio']}"  # the row with its ratio, as the notice's appendix lists it
     trace.add(
         "limit",
         f"L/{row['ratio']}",
@@ -164,6 +165,7 @@ def _trace(trace: Lines, beam: Beam, model: BeamModel, es: float, row: dict[str,
         (row["description"] if row["use"] in _LIMIT_CLAUSE else f"{row['description']}: {_USE_LIMIT_BASIS}")
         + (f"; {_OVERHANG_SPAN}" if overhang else ""),
         TraceStatus(row["status"]),
+        row=limit if row["use"] in _LIMIT_CLAUSE else f"{limit}; {_USE_LIMIT_BASIS}",
     )
     if beam.use is None:
         trace.add(

@@ -225,12 +225,23 @@ def test_rows_name_their_material_and_grade():
     kt = {t.source for r in (glu, lumber) for t in _rows(r) if t.symbol == "KT"}
     assert kt == {"treatment_factors: glulam, none, dry; KT(E) 1", "treatment_factors: sawn, none, dry; KT(E) 1"}
     stamp = {t.source for t in _rows(glu) if t.symbol.endswith(" moment)")}
-    assert stamp == {"D.Fir-L 24f-E, top stamp up"}
+    assert stamp == {"D.Fir-L 24f-E, installed with its TOP stamp up"}  # what was seen, not an instruction
+    # sawn fb comes from the grade row itself (O86-19 Table 6.4 gives fb, fv, fcp and E in one row): the notice
+    # lists that row once, not a second "Table 6.4: S-P-F No.1/No.2" row beside it
+    from core.results import rows_used
+
+    grade = next(t for r in lumber.bending for t in r.trace if t.symbol == "grade")
+    fb = next(t for r in lumber.bending for t in r.trace if t.symbol.startswith("fb ("))
+    assert fb.row == grade.source
+    assert [row for row in rows_used(lumber) if row[0] == "CSA O86-19 Table 6.4"] == [
+        ("CSA O86-19 Table 6.4", grade.source, grade.status)
+    ]
 
 
 def test_no_project_internal_references_or_empty_fields_reach_a_notice():
     """What the engineer signs cites the standard, not this project's notes; a row never ends in an empty field."""
-    internal = re.compile(r"o86\.md|reference Q\d|memory rows never|confirmed_by\s*($|,)")
+    # "reference 10 E1/E2" (a section of the project's notes) reached the demo notice from a data row
+    internal = re.compile(r"o86\.md|reference Q\d|reference \d+|memory rows never|confirmed_by\s*($|,)")
     for beam in golden.beams(golden.FAST_COUNT):
         text = recheck(beam).model_dump_json()
         assert not internal.search(text), internal.search(text)
