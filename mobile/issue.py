@@ -139,6 +139,7 @@ def build_notice(
         elif p.get("beam_id"):
             photos_by_beam.setdefault(p["beam_id"], []).append(ref)
     earlier = {i for n in store.notices(site_id) for i in n.deficiency_ids}
+    logged_on: set[str] = set()  # the visits the items' members were logged on
     items, carried = [], []
     checked: list[Recheck] = []
     for d in open_items:
@@ -154,6 +155,7 @@ def build_notice(
             title = member_title(record)
             grid = str(record.get("gridline") or "")
             logged = logged_words(record, visits)
+            logged_on.add(str(record.get("visit_id") or ""))
         photos = photos_by_def.get(d.id, [])
         member_photos = photos_by_beam.get(d.beam_id, []) if d.beam_id else []
         items.append(
@@ -177,7 +179,19 @@ def build_notice(
     )
     if site.contractor_contact:
         header["addressed_to"] = f"{site.contractor} (attention: {site.contractor_contact})"
-    notice = Notice(**header, items=items, carried=carried, change_note=change_note, table_rows=rows_used(checked))  # type: ignore[arg-type]
+    before = [
+        f"{v.started_at} (scope reviewed then: {v.scope_reviewed or 'not recorded'})"
+        for v in visits[:-1]
+        if v.id in logged_on
+    ]
+    notice = Notice(
+        **header,  # type: ignore[arg-type]
+        items=items,
+        carried=carried,
+        change_note=change_note,
+        table_rows=rows_used(checked),
+        earlier_visits=before,
+    )
     return signed_by(store, notice), [d.id for d in open_items]
 
 

@@ -199,6 +199,8 @@ class Notice:
     closeout: list[tuple[str, str, str]] = field(default_factory=list)  # (number, outcome, evidence)
     table_rows: list[RowUsed] = field(default_factory=list)  # the table rows the rechecks used, with status
     memory_acknowledgement: str = ""  # "acknowledged by NAME at UTC" of the memory rows, before issue
+    # earlier visits whose members carry items here: "2026-11-24 08:30 (scope reviewed then: Level 2 floor ...)"
+    earlier_visits: list[str] = field(default_factory=list)
 
 
 def ordered(items: list[Item]) -> list[Item]:

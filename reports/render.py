@@ -359,6 +359,9 @@ def _first_page(n: Notice, st: dict[str, ParagraphStyle], refs: PageRefs) -> lis
         story.append(Paragraph(f"<b>What changed in rev {n.revision}:</b> {esc(n.change_note)}", p))
     story.append(Paragraph(f"<b>Scope reviewed:</b> {esc(n.scope_reviewed or 'not recorded')}", p))
     story.append(Paragraph(f"<b>Not reviewed:</b> {esc(n.scope_not_reviewed or 'not recorded')}", p))
+    if n.earlier_visits:  # items on members logged before this visit: when and in what scope they were seen
+        seen = "; ".join(esc(v) for v in n.earlier_visits)
+        story.append(Paragraph(f"<b>Earlier visits:</b> some items are on members logged on {seen}", p))
     story.append(
         Paragraph(
             "<b>What to do:</b> complete each item by its due date or milestone, write the action taken, the date "
