@@ -28,10 +28,12 @@ DEAD_MAKE_SAFE = (
 )
 # Snow is a load nobody on site can keep off a member (common practice: an overstress under a snow
 # combination is made safe by shoring, not by an instruction not to load).
+SNOW_RISK = "snow can load this member at any time and cannot be kept off it reliably"
 SNOW_MAKE_SAFE = (
-    "Make safe now: snow can load this member at any time and cannot be kept off it reliably; have it shored "
-    "or propped before snow builds up and tell the site superintendent today. "
+    f"Make safe now: {SNOW_RISK}; have it shored or propped before snow builds up and tell the site superintendent "
+    "today. "
 )
+TOP_EDGE_REGION = "top edge"  # the region of the top-edge findings (core.remedies.once_corrected reads it)
 
 
 def _finding(
@@ -73,10 +75,7 @@ def keep_off(beam: Beam) -> str:
     loads off" is not a way to make safe a member whose loads include snow.
     """
     if beam.loads.snow_kn_m > 0:
-        return (
-            "Make safe now: snow can load this member at any time and cannot be kept off it reliably; have it "
-            "shored or propped now, keep every other load off it"
-        )
+        return f"Make safe now: {SNOW_RISK}; have it shored or propped now, keep every other load off it"
     return "Make safe now: keep loads off this beam"
 
 
@@ -318,7 +317,7 @@ def assumed_findings(beam: Beam, failure_rests_on_fastening: bool = False) -> li
             _finding(
                 code=FindingCode.input_assumed,
                 priority=Priority.before_loading if failure_rests_on_fastening else Priority.observation,
-                region="top edge",
+                region=TOP_EDGE_REGION,
                 message=(
                     f"{beam.mark}: whether the {beam.top_edge.braced_by.value} are fastened to the top edge was not "
                     "recorded; the recheck assumed they are not (top edge unbraced between bearings)."
@@ -415,14 +414,14 @@ def option_findings(beam: Beam) -> list[Finding]:
 def top_edge_findings(beam: Beam) -> list[Finding]:
     """Purlins or decking logged but not yet fastened: the top edge is treated as unbraced."""
     top = beam.top_edge
-    if top.braced_by is TopBracing.none or top.fastened is not False:
+    if not top.left_unfastened:
         return []
     what = "the purlins are" if top.braced_by is TopBracing.purlins else "the decking is"
     return [
         _finding(
             code=FindingCode.compression_edge_unbraced,
             priority=Priority.before_loading,
-            region="top edge",
+            region=TOP_EDGE_REGION,
             message=(
                 f"{beam.mark}: {what} not fastened to the top edge, so the compression edge is not braced; the "
                 "recheck treats the top edge as unbraced between supports."

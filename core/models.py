@@ -188,6 +188,11 @@ class TopEdge(Record):
     fastened: bool | None = None  # None: not recorded; the recheck assumes not fastened and says so
 
     @property
+    def left_unfastened(self) -> bool:
+        """True when purlins or decking were logged as not fastened (the top edge is then unbraced)."""
+        return self.braced_by is not TopBracing.none and self.fastened is False
+
+    @property
     def fastened_assumed(self) -> bool:
         """True when fastening was not recorded for purlins or decking (the unfavourable case is taken)."""
         return self.braced_by is not TopBracing.none and self.fastened is None

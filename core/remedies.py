@@ -15,8 +15,9 @@ from collections.abc import Callable
 from typing import Any
 
 from core import tables
+from core.findings import TOP_EDGE_REGION
 from core.kinds import FindingCode, MomentSign, Outcome
-from core.models import Beam, Material, TopBracing
+from core.models import Beam, Material
 from core.recheck import recheck
 from core.results import CheckLine, Out, Recheck, check_lines
 
@@ -62,13 +63,19 @@ def _copy(value: Any) -> Any:
 Check = Callable[[Recheck], float | None]  # utilisation of the check (None: not established / absent)
 
 
-def _try(data: dict[str, Any], change: dict[str, Any], check: Check) -> float | None:
-    """The check's utilisation after the change, or None when the changed beam is refused or not established."""
+def _rechecked(data: dict[str, Any], change: dict[str, Any]) -> Recheck | None:
+    """The recheck of the input with the change applied, or None when the changed beam is refused."""
     try:
         beam = Beam.model_validate(apply_change(data, change))
     except ValueError:
         return None
-    return check(recheck(beam))
+    return recheck(beam)
+
+
+def _try(data: dict[str, Any], change: dict[str, Any], check: Check) -> float | None:
+    """The check's utilisation after the change, or None when the changed beam is refused or not established."""
+    result = _rechecked(data, change)
+    return None if result is None else check(result)
 
 
 def _passes(util: float | None) -> bool:
@@ -111,6 +118,7 @@ _CHECK_WORDS = {
     "bearing_restraint_missing": "bending",
 }
 RESTRAINED_TOO = "and only with the bearing(s) restrained against lateral displacement and rotation as well"
+NOT_ALONE = " (over 1.00 by itself: it passes only together with a bending option)"  # a required restraint's option
 
 
 def _result_words(solves: str, base: Change, util: float) -> str:
@@ -213,27 +221,30 @@ def _load_remedies(beam: Beam, data: dict[str, Any], base: Change, solves: str, 
 def _restraint_remedy(beam: Beam, data: dict[str, Any], result: Recheck) -> tuple[Change, list[Remedy]]:
     if not any(r.outcome is Outcome.not_established for r in result.bending):
         return {}, []
-    base: Change = {}
-    for j, b in enumerate(beam.bearings):
-        if not b.restrained:
-            base.update({f"bearings.{j}.lateral": True, f"bearings.{j}.rotation": True})
+    base = _restraining(beam)
     util = _try(data, base, _bending(None))
     if util is None:
         return base, []
     message = f"restrain the bearing(s) against lateral displacement and rotation; bending utilisation then {util:.3f}"
     if not _passes(util):
-        message += " (over 1.00 by itself: it passes only together with a bending option)"
+        message += NOT_ALONE
     return base, [
         Remedy(solves="bearing_restraint_missing", change=dict(base), utilisation_after=util, message=message)
     ]
 
 
+def _restraining(beam: Beam) -> Change:
+    """The change that restrains every bearing not seen restrained ({} if all are)."""
+    change: Change = {}
+    for j, b in enumerate(beam.bearings):
+        if not b.restrained:
+            change.update({f"bearings.{j}.lateral": True, f"bearings.{j}.rotation": True})
+    return change
+
+
 def _fastening(beam: Beam) -> Change:
     """Purlins or decking logged on the top edge but not fastened: the change that fastens them ({} if none)."""
-    top = beam.top_edge
-    if top.braced_by is TopBracing.none or top.fastened is not False:
-        return {}
-    return {"top_edge.fastened": True}
+    return {"top_edge.fastened": True} if beam.top_edge.left_unfastened else {}
 
 
 def _fasten_remedy(beam: Beam, data: dict[str, Any], base: Change, result: Recheck) -> list[Remedy]:
@@ -253,7 +264,7 @@ def _fasten_remedy(beam: Beam, data: dict[str, Any], base: Change, result: Reche
     what = beam.top_edge.braced_by.value
     message = f"fasten the {what} to the top edge as detailed: {_result_words('bending (positive moment)', base, util)}"
     if not _passes(util):
-        message += " (over 1.00 by itself: it passes only together with a bending option)"
+        message += NOT_ALONE
     return [Remedy(solves="compression_edge_unbraced", change=change, utilisation_after=util, message=message)]
 
 
@@ -326,19 +337,13 @@ class Corrected(Out):
     message: str  # in words for the contractor: enough alone, or what still fails
 
 
-TOP_EDGE = "top edge"  # the region of the unfastened top-edge finding (core.findings.top_edge_findings)
-
-
 def _restraint_change(beam: Beam, code: str, region: str) -> tuple[Change, str]:
     """The change that corrects a restraint item of this code, and the action in words ({} and '' if none)."""
-    if code == FindingCode.compression_edge_unbraced and region == TOP_EDGE:
+    if code == FindingCode.compression_edge_unbraced and region == TOP_EDGE_REGION:
         fasten = _fastening(beam)
         return fasten, (f"the {beam.top_edge.braced_by.value} fastened to the top edge" if fasten else "")
     if code == FindingCode.bearing_restraint_missing:
-        change: Change = {}
-        for j, b in enumerate(beam.bearings):
-            if not b.restrained:
-                change.update({f"bearings.{j}.lateral": True, f"bearings.{j}.rotation": True})
+        change = _restraining(beam)
         return change, (
             "every bearing of this member restrained against lateral displacement and rotation" if change else ""
         )
@@ -357,11 +362,10 @@ def once_corrected(beam: Beam, code: str, region: str) -> Corrected | None:
     change, done = _restraint_change(beam, code, region)
     if not change:
         return None
-    try:
-        fixed = Beam.model_validate(apply_change(beam.model_dump(mode="json"), change))
-    except ValueError:
+    fixed = _rechecked(beam.model_dump(mode="json"), change)
+    if fixed is None:
         return None
-    lines = check_lines(recheck(fixed))
+    lines = check_lines(fixed)
     failing = [c for c in lines if c.utilisation is None or c.utilisation > 1.0]
     if not failing:
         top = max(lines, key=lambda c: c.utilisation or 0.0)

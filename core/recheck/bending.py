@@ -30,7 +30,7 @@ from core.kinds import Edge, ElementKind, MomentSign, Outcome, TraceStatus
 from core.member import Member
 from core.models import Beam, Material, NegativeLu, TopStamp
 from core.recheck.cases import LoadCase, carries_snow
-from core.recheck.trace import KNM_PER_NMM, Lines, add_kd, case_label, dead_load_line, lines_for, note
+from core.recheck.trace import KNM_PER_NMM, Lines, add_kd, case_label, dead_load_line, grade_line, lines_for, note
 from core.results import BendingRegion, FactorTrace, RowUsed
 
 
@@ -82,7 +82,7 @@ def _head_trace(
         "MPa",
         # sawn fb is read from the grade row itself: keyed to it, as fv and fcp are (strength_line), so the notice
         # lists that row once; glulam's face rule (Table 7.3 note, by the TOP stamp) is a row of its own
-        row=next(t.source for t in member.trace if t.symbol == "grade") if sawn else "",
+        row=grade_line(member).source if sawn else "",
     )
     trace.add(
         "Fb",

@@ -142,8 +142,13 @@ def strength_line(trace: Lines, member: Member, symbol: str, value_mpa: float) -
     The same row as the member's "grade" line (the row every strength of the member comes from), so it adds
     no table row of its own to what the recheck used.
     """
-    grade = next(t for t in member.trace if t.symbol == "grade")
+    grade = grade_line(member)
     trace.add(symbol, value_mpa, grade.clause, grade.source, grade.status.value, "MPa")
+
+
+def grade_line(member: Member) -> FactorTrace:
+    """The member's "grade" trace line: the table row every specified strength of the member comes from."""
+    return next(t for t in member.trace if t.symbol == "grade")
 
 
 def case_label(case: LoadCase) -> str:
