@@ -110,17 +110,41 @@ def cmd_hub_enroll(args: argparse.Namespace) -> int:
     return EXIT_OK
 
 
+def _shell_user() -> str:
+    """Who ran a hub command, for its audit entry ('command line (USER)')."""
+    import getpass
+
+    try:
+        return f"command line ({getpass.getuser()})"
+    except (KeyError, OSError):
+        return "command line"
+
+
 def cmd_hub_revoke(args: argparse.Namespace) -> int:
     """Refuse a device from now on."""
     hub = _hub(args.db)
     try:
-        dev = hub.revoke(args.device)
+        dev = hub.revoke(args.device, by=_shell_user())
     except KeyError as exc:
         msg = f"no enrolled device {args.device}"
         raise UserError(msg) from exc
     finally:
         hub.close()
     print(f"revoked {dev.name} ({dev.person}, {dev.role}); what it sent before stays in the log")
+    return EXIT_OK
+
+
+def cmd_hub_reinstate(args: argparse.Namespace) -> int:
+    """Accept a revoked device again (a revocation made in error)."""
+    hub = _hub(args.db)
+    try:
+        dev = hub.reinstate(args.device, by=_shell_user())
+    except KeyError as exc:
+        msg = f"no enrolled device {args.device}"
+        raise UserError(msg) from exc
+    finally:
+        hub.close()
+    print(f"reinstated {dev.name} ({dev.person}, {dev.role}); what it saved while revoked is accepted at its next sync")
     return EXIT_OK
 
 
@@ -261,6 +285,10 @@ def register(sub: Any) -> None:
     p.add_argument("--db")
     p.add_argument("device", help="device id")
     p.set_defaults(func=cmd_hub_revoke)
+    p = hub.add_parser("reinstate", help="accept a revoked device again (a revocation made in error)")
+    p.add_argument("--db")
+    p.add_argument("device", help="device id")
+    p.set_defaults(func=cmd_hub_reinstate)
     p = hub.add_parser("cert", help="make a self-signed TLS certificate and key for the hub")
     p.add_argument("--out", required=True, help="folder for hub.crt and hub.key")
     p.add_argument("--name", action="append", default=[], help="host name or IP the tablets use (repeatable)")

@@ -121,7 +121,8 @@ class PullAnswer(Strict):
 
 def create_app(hub: HubStore) -> FastAPI:
     """The ASGI app serving ``hub``."""
-    app = FastAPI(title="bracewalk office hub", version="1", docs_url=None, redoc_url=None)
+    # no schema or docs served: the protocol is written down in the project's contract, not browsed
+    app = FastAPI(title="bracewalk office hub", version="1", docs_url=None, redoc_url=None, openapi_url=None)
     app.state.hub = hub
 
     @app.exception_handler(HubRefused)

@@ -67,6 +67,10 @@ HUB_MIGRATIONS: dict[int, list[str]] = {
         "CREATE TABLE IF NOT EXISTS hub_user (name TEXT PRIMARY KEY, password_hash TEXT NOT NULL, created_ms INTEGER)",
         "CREATE TABLE IF NOT EXISTS hub_session (token_sha256 TEXT PRIMARY KEY, name TEXT NOT NULL, expires_ms INT)",
     ],
+    3: [  # failed office log-ins, by name, for the register's lock-out (office/registry.py LOGIN_FAILURES)
+        "CREATE TABLE IF NOT EXISTS hub_login_failure (name TEXT NOT NULL, at_ms INTEGER NOT NULL)",
+        "CREATE INDEX IF NOT EXISTS hub_login_failure_name ON hub_login_failure(name, at_ms)",
+    ],
 }
 
 
@@ -275,16 +279,39 @@ class HubStore:
             rows = self.db.execute("SELECT * FROM hub_device ORDER BY name").fetchall()
         return [Device(*r) for r in rows]
 
-    def revoke(self, device_id: str) -> Device:
-        """Refuse a device from now on; what it sent before stays, and the revocation is in the audit log."""
+    def revoke(self, device_id: str, by: str = "") -> Device:
+        """Refuse a device from now on; what it sent before stays, and the revocation is in the audit log.
+
+        ``by``: the office user who revoked it (empty from the command line, which names the shell user).
+        """
         self.device(device_id)
         with self.tx():
             self.db.execute(
                 "UPDATE hub_device SET revoked_ms=? WHERE device_id=? AND revoked_ms IS NULL",
                 [self.clock_ms(), device_id],
             )
-            self._audit(device_id, "revoked", "device revoked")
+            self._audit(device_id, "revoked", _by("device revoked", by))
         return self.device(device_id)
+
+    def reinstate(self, device_id: str, by: str = "") -> Device:
+        """Accept a revoked device again (a revocation made in error); its key and identity are unchanged.
+
+        The changes it wrote meanwhile, refused while it was revoked, are accepted when it next syncs (they stay
+        on the tablet until then). Recorded in the audit log with ``by``, the office user.
+        """
+        self.device(device_id)
+        with self.tx():
+            self.db.execute("UPDATE hub_device SET revoked_ms=NULL WHERE device_id=?", [device_id])
+            self._audit(device_id, "reinstated", _by("device reinstated", by))
+        return self.device(device_id)
+
+    def audit(self, device_id: str) -> list[tuple[int, str, str]]:
+        """A device's audit entries (at_ms, event, detail), oldest first."""
+        with self.lock:
+            rows = self.db.execute(
+                "SELECT at_ms, event, detail FROM hub_audit WHERE device_id=? ORDER BY id", [device_id]
+            ).fetchall()
+        return [(int(r[0]), str(r[1]), str(r[2])) for r in rows]
 
     def active_device(self, device_id: str) -> Device:
         """An enrolled, not revoked device, or HubRefused(401/403)."""
@@ -542,6 +569,11 @@ def _default_pg_blobs(url: str) -> Path:
     base = Path(os.environ.get("BRACEWALK_HOME", Path.home() / ".bracewalk"))
     where = url.rsplit("@", 1)[-1]  # host, port and database name; never the password
     return base / "hub-blobs" / hashlib.sha256(where.encode()).hexdigest()[:16]
+
+
+def _by(what: str, user: str) -> str:
+    """An audit detail naming the office user who did it, when one did."""
+    return f"{what} by office user {user}" if user else what
 
 
 def _code_hash(code: str) -> str:

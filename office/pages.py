@@ -1,7 +1,11 @@
 """The office register: server-rendered pages (Jinja2, no JavaScript) behind an office login.
 
-Without a live session every page redirects to ``/login`` and shows no data. Forms that change
-something (revoke) carry a token tied to the session, and the cookie is HttpOnly and SameSite=Strict.
+Without a live session every page redirects to ``/login`` (with the page asked for, to return to it)
+and shows no data. Forms that change something (revoke, reinstate, enrol, log out) carry a token tied to
+the session, and the cookie is HttpOnly and SameSite=Strict. Revoking or reinstating a device asks first,
+on a page naming the device, and the audit log records which office user did it. A name that fails to log
+in LOGIN_FAILURES times within LOGIN_WINDOW_MS is refused for the rest of that window. Every page answers
+with a content security policy that allows no script and no framing, and is not cached.
 """
 
 from __future__ import annotations
@@ -11,17 +15,27 @@ import hmac
 import time
 from pathlib import Path
 from typing import Annotated, Any
-from urllib.parse import parse_qs
+from urllib.parse import parse_qs, quote
 
 from fastapi import APIRouter, Depends, FastAPI, Request, Response
-from fastapi.responses import HTMLResponse, RedirectResponse
+from fastapi.responses import HTMLResponse, JSONResponse, RedirectResponse
 from jinja2 import Environment, FileSystemLoader, select_autoescape
+from starlette.exceptions import HTTPException as StarletteHTTPException
 
 from office import registry
 from office.hubstore import HubStore
 from reports.render import SHORT_PRIORITY, priority_label
 
 COOKIE = "bw_session"
+MAX_FORM_FIELDS = 10  # the largest register form has four
+PAGE_HEADERS = {
+    # server-rendered pages with inline styles and data-URI images only: no script runs, nothing frames them
+    "Content-Security-Policy": "default-src 'none'; img-src 'self' data:; style-src 'unsafe-inline'; "
+    "form-action 'self'; frame-ancestors 'none'; base-uri 'none'",
+    "X-Content-Type-Options": "nosniff",
+    "Referrer-Policy": "same-origin",
+    "Cache-Control": "no-store",  # a shared office machine's back button shows no page after log out
+}
 TEMPLATES = Environment(
     loader=FileSystemLoader(Path(__file__).parent / "templates"), autoescape=select_autoescape(["html"])
 )
@@ -29,6 +43,10 @@ TEMPLATES = Environment(
 
 class LoginRequired(Exception):
     """No live office session: answer with a redirect to the login page."""
+
+
+class FormRefused(Exception):
+    """A form the register cannot read (more fields than any of its forms has)."""
 
 
 def _hub(request: Request) -> HubStore:
@@ -72,7 +90,26 @@ def _fmt_ms(ms: int | None) -> str:
 
 async def _form(request: Request) -> dict[str, str]:
     body = (await request.body()).decode("utf-8", "replace")
-    return {k: v[0] for k, v in parse_qs(body, max_num_fields=10).items()}
+    try:
+        fields = parse_qs(body, max_num_fields=MAX_FORM_FIELDS)
+    except ValueError as exc:
+        raise FormRefused(str(exc)) from exc
+    return {k: v[0] for k, v in fields.items()}
+
+
+def _token_ok(request: Request, form: dict[str, str]) -> bool:
+    """Whether the form carries this session's token (forms posted from another site do not)."""
+    return hmac.compare_digest(form.get("csrf", ""), _csrf(request))
+
+
+def _expired() -> Response:
+    return Response("form expired; open the page again", status_code=403)
+
+
+def _local_path(target: str) -> str:
+    """``target`` if it is a path on this hub ('/site/x'), else '/': a login never sends anyone elsewhere."""
+    ok = target.startswith("/") and not target.startswith(("//", "/\\")) and "\\" not in target
+    return target if ok and all(c.isprintable() and c != " " for c in target) else "/"
 
 
 def install(app: FastAPI) -> None:
@@ -80,14 +117,52 @@ def install(app: FastAPI) -> None:
 
     @app.exception_handler(LoginRequired)
     async def to_login(request: Request, exc: LoginRequired) -> Response:
-        return RedirectResponse("/login", status_code=303)
+        path = request.url.path + (f"?{request.url.query}" if request.url.query else "")
+        where = "/login" if path == "/" or request.method != "GET" else f"/login?next={quote(path, safe='')}"
+        return RedirectResponse(where, status_code=303)
+
+    @app.exception_handler(FormRefused)
+    async def bad_form(request: Request, exc: FormRefused) -> Response:
+        page = _page(
+            request,
+            "missing.html",
+            None,
+            heading="Form not accepted",
+            what="The form sent was not one "
+            "of this register's forms (too many fields). Open the page again and use its form.",
+        )
+        page.status_code = 400
+        return page
+
+    @app.exception_handler(StarletteHTTPException)
+    async def http_error(request: Request, exc: StarletteHTTPException) -> Response:
+        if request.url.path.startswith("/v1/"):  # the tablets' protocol answers in JSON
+            return JSONResponse({"detail": exc.detail}, status_code=exc.status_code, headers=exc.headers)
+        what = (
+            "There is no page at this address."
+            if exc.status_code == 404
+            else "This address is for a form's button, not a page to open. Use the menu above."
+            if exc.status_code == 405
+            else str(exc.detail)
+        )
+        heading = "Not found" if exc.status_code == 404 else "Not a page"
+        page = _page(request, "missing.html", None, heading=heading, what=what)
+        page.status_code = exc.status_code
+        return page
+
+    @app.middleware("http")
+    async def page_headers(request: Request, call_next: Any) -> Response:
+        response: Response = await call_next(request)
+        if not request.url.path.startswith("/v1/"):
+            response.headers.update(PAGE_HEADERS)
+        return response
 
     app.include_router(_router())
 
 
 def _router() -> APIRouter:
     router = APIRouter(tags=["register"], include_in_schema=False)
-    for add in (_session_routes, _site_routes, _notice_routes, _device_routes):
+    for add in (_session_routes, _site_routes, _notice_routes, _device_routes, _device_action_routes):
         add(router)
     return router
 
@@ -96,23 +171,35 @@ def _session_routes(router: APIRouter) -> None:
     """Log in and out."""
 
     @router.get("/login")
-    def login_form(request: Request) -> HTMLResponse:
-        return _page(request, "login.html", None, error="")
+    def login_form(request: Request, next: str = "/") -> HTMLResponse:
+        return _page(request, "login.html", None, error="", next=_local_path(next))
 
     @router.post("/login")
     async def login(request: Request) -> Response:
         form = await _form(request)
-        token = registry.login(_hub(request), form.get("name", ""), form.get("password", ""))
+        target = _local_path(form.get("next", "/"))
+        try:
+            token = registry.login(_hub(request), form.get("name", ""), form.get("password", ""))
+        except registry.LoginLocked as exc:
+            page = _page(request, "login.html", None, error=str(exc), next=target)
+            page.status_code = 429
+            return page
         if token is None:
-            page = _page(request, "login.html", None, error="Name or password not recognised.")
+            page = _page(request, "login.html", None, error="Name or password not recognised.", next=target)
             page.status_code = 401
             return page
-        response = RedirectResponse("/", status_code=303)
+        response = RedirectResponse(target, status_code=303)
         response.set_cookie(COOKIE, token, httponly=True, samesite="strict", secure=request.url.scheme == "https")
         return response
 
+    @router.get("/logout")
+    def logout_page(request: Request, user: User) -> Response:
+        return RedirectResponse("/", status_code=303)  # log out is the menu's button (a form with the token)
+
     @router.post("/logout")
-    def logout(request: Request, user: User) -> Response:
+    async def logout(request: Request, user: User) -> Response:
+        if not _token_ok(request, await _form(request)):
+            return _expired()
         registry.logout(_hub(request), request.cookies.get(COOKIE, ""))
         response = RedirectResponse("/login", status_code=303)
         response.delete_cookie(COOKIE)
@@ -132,7 +219,15 @@ def _site_routes(router: APIRouter) -> None:
         record = registry.site(hub, site_id)
         if record is None:
             return _not_found(request, user, f"No site {site_id}")
-        return _page(request, "site.html", user, site=record, items=registry.items(hub, site_id))
+        return _page(
+            request,
+            "site.html",
+            user,
+            site=record,
+            items=registry.items(hub, site_id),
+            closed=registry.items(hub, site_id, open_only=False, closed_only=True),
+            notices=registry.notices(hub, site_id),
+        )
 
     @router.get("/deficiency/{deficiency_id}")
     def deficiency(deficiency_id: str, request: Request, user: User) -> HTMLResponse:
@@ -154,7 +249,7 @@ def _site_routes(router: APIRouter) -> None:
 
     @router.get("/photo/{sha256}")
     def photo(sha256: str, request: Request, user: User) -> Response:
-        content = _hub(request).read_blob(sha256) if len(sha256) == 64 else None
+        content = _hub(request).read_blob(sha256) if registry.SHA_RE.match(sha256) else None
         if content is None:
             return Response("photo not yet received", status_code=404)
         return Response(content, media_type="image/jpeg")
@@ -188,8 +283,8 @@ def _device_routes(router: APIRouter) -> None:
     @router.post("/devices/enroll")
     async def enroll(request: Request, user: User) -> Response:
         form = await _form(request)
-        if not hmac.compare_digest(form.get("csrf", ""), _csrf(request)):
-            return Response("form expired; open the devices page again", status_code=403)
+        if not _token_ok(request, form):
+            return _expired()
         name, person, role = form.get("name", "").strip(), form.get("person", "").strip(), form.get("role", "")
         try:
             code = _hub(request).new_code(name, person, role)
@@ -200,23 +295,52 @@ def _device_routes(router: APIRouter) -> None:
         new = {"name": name, "person": person, "role": role, "code": code, "qr": registry.enrolment_qr_data_uri(code)}
         return _devices_page(request, user, new_code=new)
 
-    @router.post("/devices/{device_id}/revoke")
-    async def revoke(device_id: str, request: Request, user: User) -> Response:
-        form = await _form(request)
-        if not hmac.compare_digest(form.get("csrf", ""), _csrf(request)):
-            return Response("form expired; open the devices page again", status_code=403)
+
+def _device_action_routes(router: APIRouter) -> None:
+    """Revoke and reinstate a device: a page that asks first, then the form's post."""
+
+    @router.get("/devices/{device_id}/{action}")
+    def confirm(device_id: str, action: str, request: Request, user: User) -> HTMLResponse:
+        """Ask before revoking or reinstating, naming the device and what follows."""
+        if action not in DEVICE_ACTIONS:
+            return _not_found(request, user, "There is no page at this address.")
+        try:
+            device = _hub(request).device(device_id)
+        except KeyError:
+            return _not_found(request, user, f"No device {device_id}")
+        pending = registry.device_quarantine_count(_hub(request), device_id)
+        return _page(request, "device_confirm.html", user, action=action, d=device, held=pending)
+
+    @router.post("/devices/{device_id}/{action}")
+    async def device_action(device_id: str, action: str, request: Request, user: User) -> Response:
+        if action not in DEVICE_ACTIONS:
+            return _not_found(request, user, "There is no page at this address.")
+        if not _token_ok(request, await _form(request)):
+            return _expired()
         hub = _hub(request)
         try:
-            hub.revoke(device_id)
+            hub.revoke(device_id, by=user) if action == "revoke" else hub.reinstate(device_id, by=user)
         except KeyError:
             return _not_found(request, user, f"No device {device_id}")
         return RedirectResponse("/devices", status_code=303)
 
 
+DEVICE_ACTIONS = ("revoke", "reinstate")
+
+
 def _devices_page(request: Request, user: str, **extra: Any) -> HTMLResponse:
     hub = _hub(request)
     context = {"new_code": None, "enrol_error": ""} | extra
-    return _page(request, "devices.html", user, devices=hub.devices(), quarantine=hub.quarantine(), **context)
+    address = f"{request.url.scheme}://{request.url.netloc}"  # as this browser reached the hub
+    return _page(
+        request,
+        "devices.html",
+        user,
+        devices=hub.devices(),
+        quarantine=registry.held(hub),
+        hub_address=address,
+        **context,
+    )
 
 
 def _priorities() -> list[str]:
@@ -226,6 +350,6 @@ def _priorities() -> list[str]:
 
 
 def _not_found(request: Request, user: str, what: str) -> HTMLResponse:
-    page = _page(request, "missing.html", user, what=what)
+    page = _page(request, "missing.html", user, heading="Not found", what=what)
     page.status_code = 404
     return page

@@ -128,6 +128,11 @@ PG_MIGRATIONS: dict[int, list[str]] = {
         "(id TEXT PRIMARY KEY, site_id TEXT, data TEXT NOT NULL, content_hash TEXT)",
         "CREATE INDEX IF NOT EXISTS table_row_site ON table_row(site_id)",
     ],
+    # 5: failed office log-ins, by name, for the register's lock-out (office/registry.py LOGIN_FAILURES)
+    5: [
+        "CREATE TABLE IF NOT EXISTS hub_login_failure (name TEXT NOT NULL, at_ms BIGINT NOT NULL)",
+        "CREATE INDEX IF NOT EXISTS hub_login_failure_name ON hub_login_failure(name, at_ms)",
+    ],
 }
 
 _REPLACE = re.compile(r"^\s*INSERT OR REPLACE INTO (\w+)\s*(\(([^)]*)\))?\s*VALUES", re.IGNORECASE | re.DOTALL)

@@ -7,6 +7,7 @@ from __future__ import annotations
 
 import hashlib
 import json
+import re
 import secrets
 import time
 from dataclasses import dataclass
@@ -24,6 +25,9 @@ if TYPE_CHECKING:
     from core.results import Recheck
 
 SESSION_MS = 12 * 3600 * 1000
+LOGIN_FAILURES = 5  # failed log-ins of one name within LOGIN_WINDOW_MS before the name is refused
+LOGIN_WINDOW_MS = 15 * 60 * 1000
+SHA_RE = re.compile(r"^[0-9a-f]{64}$")
 QR_ERROR = "m"  # QR error correction level M (about 15 % of the symbol recoverable)
 QR_SCALE, QR_BORDER = 8, 4  # 8 px a module; the quiet zone of 4 modules the QR standard asks for
 STAGES = ("open", "corrected", "verified")
@@ -44,21 +48,52 @@ def add_user(hub: HubStore, name: str, password: str) -> None:
         )
 
 
+class LoginLocked(Exception):
+    """Too many failed log-ins of one name lately: refused without checking the password."""
+
+
 def login(hub: HubStore, name: str, password: str) -> str | None:
-    """A new session token if the password is right, else None."""
+    """A new session token if the password is right, else None; LoginLocked after too many failures.
+
+    A name that failed LOGIN_FAILURES times within LOGIN_WINDOW_MS is refused until the oldest of those
+    failures leaves the window, whatever password is typed (names that do not exist count the same way, so
+    the answer does not say which names do). A right password clears the name's failures.
+    """
+    now = hub.clock_ms()
     with hub.lock:
+        recent = [
+            int(r[0])
+            for r in hub.db.execute(
+                "SELECT at_ms FROM hub_login_failure WHERE name=? AND at_ms>? ORDER BY at_ms",
+                [name, now - LOGIN_WINDOW_MS],
+            ).fetchall()
+        ]
         row = hub.db.execute("SELECT password_hash FROM hub_user WHERE name=?", [name]).fetchone()
+    if len(recent) >= LOGIN_FAILURES:
+        wait = -(-(recent[-LOGIN_FAILURES] + LOGIN_WINDOW_MS - now) // 60_000)
+        msg = f"Too many failed log-ins for this name: try again in {wait} min, or ask another office user to help."
+        raise LoginLocked(msg)
     if row is None:
         _hasher.hash(password)  # the same work whether or not the user exists
+        _failed(hub, name, now)
         return None
     try:
         _hasher.verify(row[0], password)
     except (VerificationError, InvalidHashError):
+        _failed(hub, name, now)
         return None
     token = secrets.token_urlsafe(32)
     with hub.tx():
-        hub.db.execute("INSERT INTO hub_session VALUES (?, ?, ?)", [_sha(token), name, hub.clock_ms() + SESSION_MS])
+        hub.db.execute("INSERT INTO hub_session VALUES (?, ?, ?)", [_sha(token), name, now + SESSION_MS])
+        hub.db.execute("DELETE FROM hub_login_failure WHERE name=?", [name])
     return token
+
+
+def _failed(hub: HubStore, name: str, now: int) -> None:
+    """Count a failed log-in (failures older than the window are dropped as they go)."""
+    with hub.tx():
+        hub.db.execute("DELETE FROM hub_login_failure WHERE at_ms<=?", [now - LOGIN_WINDOW_MS])
+        hub.db.execute("INSERT INTO hub_login_failure VALUES (?, ?)", [name[:200], now])
 
 
 def session_user(hub: HubStore, token: str) -> str | None:
@@ -101,6 +136,13 @@ class Item:
     beam_id: str | None
 
     @property
+    def due_words(self) -> str:
+        """The due date; 'now' for an item to make safe at once, which has none; '-' otherwise."""
+        if self.due:
+            return self.due
+        return "now" if self.priority == next(iter(PRIORITY_ORDER)) else "-"
+
+    @property
     def age_days(self) -> int:
         """Whole days since it was raised."""
         return max(0, int((time.time() * 1000 - self.raised_ms) // 86_400_000))
@@ -120,8 +162,8 @@ def _raised(hub: HubStore) -> dict[str, int]:
         return {str(r[0]): int(r[1]) >> 16 for r in rows.fetchall()}
 
 
-def items(hub: HubStore, site_id: str | None = None, open_only: bool = True) -> list[Item]:
-    """Deficiencies, overdue first, then by priority, then oldest first."""
+def items(hub: HubStore, site_id: str | None = None, open_only: bool = True, closed_only: bool = False) -> list[Item]:
+    """Deficiencies, overdue first, then by priority, then oldest first (``closed_only``: the verified ones)."""
     raised = _raised(hub)
     today = time.strftime("%Y-%m-%d", time.gmtime(hub.clock_ms() / 1000))
     where, params = ("WHERE site_id=?", [site_id]) if site_id else ("", [])
@@ -130,7 +172,7 @@ def items(hub: HubStore, site_id: str | None = None, open_only: bool = True) -> 
         if "number" not in d:
             continue
         stage = STAGES[int(d.get("stage", 0))]
-        if open_only and stage == "verified":
+        if (open_only and stage == "verified") or (closed_only and stage != "verified"):
             continue
         due = str(d.get("due") or "")
         out.append(
@@ -155,7 +197,7 @@ def items(hub: HubStore, site_id: str | None = None, open_only: bool = True) -> 
 
 
 def sites(hub: HubStore) -> list[dict[str, Any]]:
-    """Every site with its open deficiencies counted by priority; sites with overdue items first."""
+    """Every site with its open deficiencies counted by priority; sites with IMMEDIATE items first, then overdue."""
     open_items = items(hub)
     out = []
     for sid, s in _rows(hub, "site"):
@@ -171,7 +213,8 @@ def sites(hub: HubStore) -> list[dict[str, Any]]:
                 "oldest_days": max((i.age_days for i in mine), default=0),
             }
         )
-    return sorted(out, key=lambda s: (-s["overdue"], -s["open"], s["name"]))
+    first = next(iter(PRIORITY_ORDER))  # the most urgent priority (make safe now): a site holding any comes first
+    return sorted(out, key=lambda s: (-s["by_priority"][first], -s["overdue"], -s["open"], s["name"]))
 
 
 def site(hub: HubStore, site_id: str) -> dict[str, Any] | None:
@@ -202,29 +245,136 @@ def deficiency(hub: HubStore, deficiency_id: str) -> dict[str, Any] | None:
     ]
     for p in photos:
         p["present"] = hub.has_blob(p["sha256"])
+    devices = {d.device_id: d for d in hub.devices()}
     return {
         "item": item,
-        "history": [dict(e, stage_name=STAGES[int(e["stage"])]) for e in history],
+        "history": [
+            dict(e, stage_name=STAGES[int(e["stage"])], **_recorded_on(devices, e), at_words=_at_words(e.get("at")))
+            for e in history
+        ],
+        "held": [q for q in held(hub) if q["record_id"] == deficiency_id],
         "photos": photos,
         "beam": beam[0][1] if beam else None,
         "recheck": recheck_now(beam[0][1], site_rows[0][1] if site_rows else {}) if beam else None,
-        "notices": carried,
+        "notices": sorted(carried, key=lambda n: (str(n.get("issued_at", "")), n.get("revision", 0)), reverse=True),
     }
 
 
-def notices(hub: HubStore) -> list[dict[str, Any]]:
-    """Issued notices, each with whether the hub holds its PDF and whether the bytes match the recorded SHA-256."""
+def _at_words(stamp: object) -> str:
+    """A stored UTC time as the register's other times print it ('2026-12-05 01:31 UTC')."""
+    from storage.stamps import parse_stamp
+
+    when = parse_stamp(str(stamp or ""))
+    return when.strftime("%Y-%m-%d %H:%M UTC") if when else str(stamp or "")
+
+
+def _recorded_on(devices: dict[str, Any], event: dict[str, Any]) -> dict[str, str]:
+    """Which enrolled device signed a status move, beside the name and role typed on it.
+
+    The actor and role are what the tablet's user typed; the device, its person and its enrolled role are
+    what the hub knows from enrolment (the move is signed by that device's key). ``role_differs`` says when
+    the typed role is the reviewer's but the device is not enrolled as one.
+    """
+    device = devices.get(str(event.get("origin", "")))
+    if device is None:
+        return {"device": "a device not enrolled here", "role_differs": ""}
+    claimed = str(event.get("role", ""))
+    differs = claimed == "reviewer" and device.role != "reviewer"
+    return {
+        "device": f"{device.name} ({device.person}, enrolled as {device.role})",
+        "role_differs": f"typed as reviewer; the device is enrolled as {device.role}" if differs else "",
+    }
+
+
+def held(hub: HubStore) -> list[dict[str, Any]]:
+    """Changes the hub refused and holds in quarantine, in words a person reads.
+
+    Each: ``device`` (name and person of the device that wrote it), ``pushed_by`` (of the one that sent it),
+    ``what`` (the change: a status move to 'verified' of D-003, an edit of beam RB-2's fields ...),
+    ``site_id``/``site`` and ``link`` when the record is known here, ``why`` (the rule, without its code),
+    ``record_id``, ``at_ms``.
+    """
+    from office import rules
+
+    devices = {d.device_id: d for d in hub.devices()}
+    sites = dict(_rows(hub, "site"))
     out = []
-    for nid, n in _rows(hub, "issued_notice"):
+    for q in hub.quarantine():
+        op = json.loads(q["op"])
+        entity, record_id, kind = str(op["entity"]), str(op["record_id"]), str(op["kind"])
+        payload = op.get("payload")
+        payload = json.loads(payload) if isinstance(payload, str) else payload  # an op row keeps its payload as text
+        payload = payload if isinstance(payload, dict) else {}
+        table = "deficiency" if kind == "status" else entity
+        found = _rows(hub, table, "WHERE id=?", [record_id]) if table in _PROJECTION_TABLES else []
+        record = found[0][1] if found else {}
+        name = str(record.get("number") or record.get("mark") or record.get("name") or f"{entity} {record_id[-8:]}")
+        if kind == "status":
+            stage = payload.get("stage")
+            to = STAGES[stage] if isinstance(stage, int) and 0 <= stage < len(STAGES) else f"stage {stage}"
+            what = f"status of {name} moved to {to}"
+        elif kind == "insert":
+            what = f"new {entity.replace('_', ' ')} {name}"
+        else:
+            what = f"edit of {entity.replace('_', ' ')} {name}: {', '.join(sorted(payload)) or 'no field'}"
+        site_id = str(record.get("site_id") or payload.get("site_id") or "")
+        out.append(
+            {
+                "device": _device_words(devices, q["origin"]),
+                "pushed_by": _device_words(devices, q["pushed_by"]),
+                "what": what,
+                "site_id": site_id,
+                "site": str(sites.get(site_id, {}).get("name", "")),
+                "link": f"/deficiency/{record_id}" if table == "deficiency" and record else "",
+                "why": rules.describe(str(q["reason"])),
+                "record_id": record_id,
+                "origin": q["origin"],
+                "seq": q["seq"],
+                "at_ms": q["at_ms"],
+            }
+        )
+    return out
+
+
+_PROJECTION_TABLES = ("site", "visit", "beam", "deficiency", "measurement", "photo", "issued_notice", "table_row")
+
+
+def device_quarantine_count(hub: HubStore, device_id: str) -> int:
+    """How many changes written by this device the hub holds in quarantine."""
+    return sum(q["origin"] == device_id for q in hub.quarantine())
+
+
+def _device_words(devices: dict[str, Any], device_id: str) -> str:
+    d = devices.get(device_id)
+    return f"{d.name} ({d.person})" if d else f"device {device_id[:8]}… (not enrolled here)"
+
+
+def notices(hub: HubStore, site_id: str | None = None) -> list[dict[str, Any]]:
+    """Issued notices, newest first, each with its site and whether the hub's PDF matches its record.
+
+    ``check``: whether the hub holds the PDF and its bytes match the SHA-256 recorded when it was issued.
+    ``footer``: the 16 hex digits the paper prints in every page footer (``reports.stamp``), read back from
+    the PDF and checked against its bytes; what a person holding the paper compares.
+    """
+    from reports.stamp import embedded_hash, short_form
+
+    names = {sid: str(s.get("name", sid)) for sid, s in _rows(hub, "site")}
+    where, params = ("WHERE site_id=?", [site_id]) if site_id else ("", [])
+    out = []
+    for nid, n in _rows(hub, "issued_notice", where, params):
         content = hub.read_blob(n["pdf_sha256"])
+        footer = ""
         if content is None:
             check = "PDF not yet received"
         elif hashlib.sha256(content).hexdigest() == n["pdf_sha256"]:
             check = "matches its recorded SHA-256"
+            stamped = embedded_hash(content)
+            footer = short_form(stamped) if stamped else ""
         else:
             check = "DOES NOT match its recorded SHA-256"
-        out.append(dict(n, id=nid, check=check, present=content is not None))
-    return sorted(out, key=lambda n: (n["number"], n.get("revision", 0)))
+        site_name = names.get(str(n.get("site_id", "")), "")
+        out.append(dict(n, id=nid, check=check, present=content is not None, footer=footer, site_name=site_name))
+    return sorted(out, key=lambda n: (str(n.get("issued_at", "")), n["number"], n.get("revision", 0)), reverse=True)
 
 
 def notice_pdf(hub: HubStore, notice_id: str) -> tuple[str, bytes] | None:

@@ -45,6 +45,25 @@ def test_enroll_sync_digest_revoke_through_the_command_line(served, tmp_path, ca
     code, _, err = _run(capsys, "sync", "hub", "--db", str(tablet))
     assert code == 1
     assert "revoked" in err
+    # a revocation made in error: what the tablet saved while revoked reaches the hub once it is reinstated
+    store = Store(tablet)
+    store.create_site(name="Saved while revoked", address="3 Birch Rd")
+    store.close()
+    code, out, _ = _run(capsys, "hub", "reinstate", "--db", hub_db, device)
+    assert code == 0
+    assert "reinstated Tablet 3" in out
+    code, _, err = _run(capsys, "sync", "hub", "--db", str(tablet))
+    assert code == 0, err
+    _, hub_digest, _ = _run(capsys, "hub", "digest", "--db", hub_db)
+    _, tablet_digest, _ = _run(capsys, "sync", "digest", "--db", str(tablet))
+    assert hub_digest.strip() == tablet_digest.strip()
+    from office.hubstore import HubStore
+
+    hub = HubStore(hub_db)
+    events = [(e, d) for _, e, d in hub.audit(device)]
+    hub.close()
+    assert [e for e, _ in events][-3:-1] == ["revoked", "reinstated"]
+    assert all("by office user command line" in d for e, d in events if e in ("revoked", "reinstated"))
 
 
 def test_sync_hub_exits_1_with_the_reason_when_unreachable_or_not_enrolled(tmp_path, capsys):

@@ -2,6 +2,7 @@
 
 import hashlib
 import re
+from urllib.parse import quote
 
 import httpx
 import pytest
@@ -73,7 +74,8 @@ def test_every_page_redirects_to_login_without_a_session(office):
     ]:
         r = client.get(page)
         assert r.status_code == 303, page
-        assert r.headers["location"] == "/login", page
+        # to the login, which returns to the page asked for once logged in
+        assert r.headers["location"] in ("/login", f"/login?next={quote(page, safe='')}"), page
         assert d.description.encode() not in r.content
         assert b"%PDF" not in r.content
     client.cookies.set("bw_session", "forged-token")
@@ -148,6 +150,8 @@ def test_revoke_from_the_devices_page_needs_the_form_token(office):
     import re
 
     token = re.search(r'name="csrf" value="([0-9a-f]+)"', client.get("/devices").text).group(1)
+    assert f'href="/devices/{tablet.device_id}/revoke"' in client.get("/devices").text  # a page that asks first
+    assert served.hub.device(tablet.device_id).revoked_ms is None
     assert client.post(f"/devices/{tablet.device_id}/revoke", data={"csrf": token}).status_code == 303
     assert served.hub.device(tablet.device_id).revoked_ms is not None
     assert "revoked" in client.get("/devices").text
