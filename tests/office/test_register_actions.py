@@ -1,9 +1,10 @@
-"""The register as an office uses it: revoke and reinstate asked first and audited, held changes in words,
-who signed a status move, notices by site with the hash the paper prints, log-in limits and safe errors.
+"""The register as an office uses it: asked-first device actions, held changes, signers, notices, log-in limits.
 
-These check what the register promises its users (common practice for an office web register: confirm an
-action that cannot be taken back, say who did it, keep a log-in from being guessed at, answer a wrong address
-with a page, not a stack trace); none of them is an engineering figure.
+Revoke and reinstate asked first and audited, held changes in words, who signed a status move, notices by
+site with the hash the paper prints, log-in limits and safe errors. These check what the register promises
+its users (common practice for an office web register: confirm an action that cannot be taken back, say who
+did it, keep a log-in from being guessed at, answer a wrong address with a page, not a stack trace); none of
+them is an engineering figure.
 """
 
 import re
@@ -28,8 +29,8 @@ def _text(page: str) -> str:
     return re.sub(r"\s+", " ", re.sub(r"<style.*?</style>|<[^>]+>", " ", page, flags=re.S))
 
 
-def test_revoke_asks_first_names_the_office_user_and_a_revocation_in_error_can_be_undone(office):
-    served, client, site, _d, _notice, tablet = office
+def test_revoke_asks_first_names_the_office_user_and_a_revocation_in_error_can_be_undone(office):  # noqa: F811
+    served, client, _site, _d, _notice, tablet = office
     _login(client)
     ask = client.get(f"/devices/{tablet.device_id}/revoke")
     assert ask.status_code == 200
@@ -58,8 +59,8 @@ def test_revoke_asks_first_names_the_office_user_and_a_revocation_in_error_can_b
     ]
 
 
-def test_a_held_change_reads_in_words_on_the_devices_page_and_on_its_item(office, tmp_path):
-    served, client, site, d, _notice, tablet = office
+def test_a_held_change_reads_in_words_on_the_devices_page_and_on_its_item(office, tmp_path):  # noqa: F811
+    served, client, site, d, _notice, _tablet = office
     tech = served.tablet(tmp_path / "tech.db", "Tablet 7", "S. Tech", "technician")
     assert sync(tech).in_step  # it holds the item now
     tech.move_status(d.id, "verified", "S. Tech", "reviewer", note="looks fine")  # not a reviewer's device
@@ -77,7 +78,7 @@ def test_a_held_change_reads_in_words_on_the_devices_page_and_on_its_item(office
     assert "None verified yet." in _text(client.get(f"/site/{site.id}").text)
 
 
-def test_item_history_names_the_device_that_signed_each_status_move(office):
+def test_item_history_names_the_device_that_signed_each_status_move(office):  # noqa: F811
     _served, client, _site, d, _notice, _tablet = office
     _login(client)
     item = _text(client.get(f"/deficiency/{d.id}").text)
@@ -87,7 +88,7 @@ def test_item_history_names_the_device_that_signed_each_status_move(office):
     assert re.search(r"\d{4}-\d\d-\d\d \d\d:\d\d UTC corrected", item)  # one time format on the page
 
 
-def test_notices_list_their_site_newest_first_with_the_hash_the_paper_prints(office):
+def test_notices_list_their_site_newest_first_with_the_hash_the_paper_prints(office):  # noqa: F811
     served, client, site, d, notice, _tablet = office
     _login(client)
     pdf = client.get(f"/notice/{notice.id}.pdf").content
@@ -102,7 +103,7 @@ def test_notices_list_their_site_newest_first_with_the_hash_the_paper_prints(off
     assert [n["issued_at"] for n in listed] == sorted((n["issued_at"] for n in listed), reverse=True)
 
 
-def test_an_immediate_item_is_due_now_and_its_site_comes_first(office):
+def test_an_immediate_item_is_due_now_and_its_site_comes_first(office):  # noqa: F811
     served, client, _site, _d, _notice, tablet = office
     late = tablet.create_site(name="Aaron Yard", address="1 A St")  # sorts first by name
     beam = tablet.save_beam(late.id, glulam(mark="AY-1"))
@@ -123,7 +124,7 @@ def test_an_immediate_item_is_due_now_and_its_site_comes_first(office):
     assert names.index("Birch Lane") < names.index("Aaron Yard"), names
 
 
-def test_login_returns_to_the_page_asked_for_and_never_elsewhere(office):
+def test_login_returns_to_the_page_asked_for_and_never_elsewhere(office):  # noqa: F811
     _served, client, site, *_ = office
     r = client.get(f"/site/{site.id}")
     assert r.headers["location"] == f"/login?next=%2Fsite%2F{site.id}"
@@ -135,7 +136,7 @@ def test_login_returns_to_the_page_asked_for_and_never_elsewhere(office):
         assert r.headers["location"] == "/", elsewhere
 
 
-def test_a_name_that_keeps_failing_is_refused_for_a_while_even_with_the_right_password(office):
+def test_a_name_that_keeps_failing_is_refused_for_a_while_even_with_the_right_password(office):  # noqa: F811
     served, client, *_ = office
     now = [served.hub.clock_ms()]
     served.hub.clock_ms = lambda: now[0]
@@ -149,8 +150,8 @@ def test_a_name_that_keeps_failing_is_refused_for_a_while_even_with_the_right_pa
     assert client.post("/login", data={"name": "office", "password": "correct horse battery"}).status_code == 303
 
 
-def test_log_out_needs_the_page_token(office):
-    served, client, *_ = office
+def test_log_out_needs_the_page_token(office):  # noqa: F811
+    _served, client, *_ = office
     _login(client)
     assert client.post("/logout", data={"csrf": "guess"}).status_code == 403
     assert client.get("/").status_code == 200  # still logged in
@@ -159,7 +160,7 @@ def test_log_out_needs_the_page_token(office):
     assert client.get("/").status_code == 303
 
 
-def test_wrong_addresses_and_odd_forms_answer_with_a_page_and_every_page_forbids_script_and_framing(office):
+def test_wrong_addresses_and_odd_forms_answer_with_a_page_and_every_page_forbids_script_and_framing(office):  # noqa: F811
     served, client, *_ = office
     _login(client)
     missing = client.get("/no/such/page")
