@@ -300,9 +300,7 @@ def export_bundles(
     out = Path(out)
     if not out.parent.is_dir():
         raise FileNotFoundError(2, "the folder does not exist", str(out.parent))
-    cursor: dict[str, int] = {}
-    if peer:
-        cursor = dict(store.db.execute("SELECT origin, seq FROM peer_cursor WHERE peer=?", [peer]).fetchall())
+    cursor = store.acknowledged(peer) if peer else {}  # what the peer acknowledged, never what was only written
     vector = dict(store.db.execute("SELECT origin, seq FROM seen").fetchall())
     if not include_demo:
         vector.pop(identity.DEMO_ORIGIN, None)
@@ -320,10 +318,14 @@ def export_bundles(
                 "VALUES (?, ?, ?, 'exported', '', ?, 0)",
                 [_now(), str(path), sha, count],
             )
-        if peer:
+        if peer:  # written for the peer, not acknowledged: the cursor stays (sync.md 3.7), the next export resends
             for manifest in manifests:
                 for origin, (_, last) in manifest["ranges"].items():
-                    store.db.execute("INSERT OR REPLACE INTO peer_cursor VALUES (?, ?, ?)", [peer, origin, last])
+                    store.db.execute(
+                        "INSERT INTO peer_written VALUES (?, ?, ?) ON CONFLICT (peer, origin) "
+                        "DO UPDATE SET seq = max(seq, excluded.seq)",
+                        [peer, origin, last],
+                    )
     tell(1.0, f"wrote {done:,} changes in {len(manifests)} file{'s' if len(manifests) > 1 else ''}")
     return manifests
 

@@ -160,6 +160,17 @@ MIGRATIONS: dict[int, list[str]] = {
             UPDATE beam_result SET input_hash = '', site_id = NEW.site_id
                 WHERE beam_id = NEW.id AND (input_hash != '' OR site_id IS NOT NEW.site_id); END""",
     ],
+    # 7: exporting never moves a peer's cursor (sync.md 3.7): cursors move on acknowledgement only (the hub's
+    # answer, or the vector of a bundle coming back from that peer); what an export wrote is kept apart, for
+    # the Sync screen's words. Cursors an export moved before this are marks of what was written, not
+    # acknowledgements: they move across, and the next export sends again what no peer acknowledged (a file
+    # that never arrived is then not lost)
+    7: [
+        "CREATE TABLE IF NOT EXISTS peer_written (peer TEXT NOT NULL, origin TEXT NOT NULL, seq INTEGER NOT NULL, "
+        "PRIMARY KEY (peer, origin)) WITHOUT ROWID",
+        "INSERT OR REPLACE INTO peer_written SELECT peer, origin, seq FROM peer_cursor WHERE peer <> 'hub'",
+        "DELETE FROM peer_cursor WHERE peer <> 'hub'",
+    ],
 }
 
 

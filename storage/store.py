@@ -33,6 +33,7 @@ from storage.stamps import utc_stamp
 
 BEAM_FIELDS = tuple(Beam.model_fields)
 DEMO_FIRM_KEY = "bracewalk-demo-firm-key-not-for-production"  # DEMO ONLY: the demo database, never a firm's
+OFFICE_PEER = "office"  # the Sync screen's bundle files go to the office: a label, not a device (Store.acknowledged)
 SITES_NAMED = 10  # sites named in the message when a name matches none or several
 
 
@@ -189,12 +190,12 @@ class Store:
         with transaction(self.db):
             self.resume_seq(int(mark["seq"]))
             self._set_meta("hlc", str(max(int(self._meta()["hlc"]), int(mark.get("hlc", 0)))))
-            for peer, seq in dict(mark.get("peers", {})).items():
-                row = self.db.execute(
-                    "SELECT seq FROM peer_cursor WHERE peer=? AND origin=?", [peer, self.device_id]
-                ).fetchone()
-                if row is None or row[0] < int(seq):
-                    self.db.execute("INSERT OR REPLACE INTO peer_cursor VALUES (?, ?, ?)", [peer, self.device_id, seq])
+            for peer, seq in dict(mark.get("peers", {})).items():  # written for them, not acknowledged
+                self.db.execute(
+                    "INSERT INTO peer_written VALUES (?, ?, ?) ON CONFLICT (peer, origin) "
+                    "DO UPDATE SET seq = max(seq, excluded.seq)",
+                    [peer, self.device_id, int(seq)],
+                )
 
     def resume_seq(self, seq: int) -> None:
         """Continue this device's op counter past ``seq`` (inside the caller's transaction).
@@ -753,12 +754,32 @@ class Store:
         return None
 
     # -- sync bookkeeping ---------------------------------------------------------------------
-    def pending_sync_count(self, peer: str = "office", site_id: str | None = None) -> int:
-        """Ops of this device not yet sent to ``peer`` (only those about one site when ``site_id`` is given)."""
+    def acknowledged(self, peer: str) -> dict[str, int]:
+        """Per origin, the seq up to which ``peer`` is known to hold every op (sync.md 3.3 peer cursors).
+
+        Known from an acknowledgement only: the hub's answer, or the vector of a bundle from that peer. The
+        office label (``OFFICE_PEER``, the Sync screen's bundle files) is not a device, so nothing answers for
+        it: an op counts as with the office once any peer acknowledged it (the hub, or a device whose bundle
+        came back holding it; it then no longer rests on this tablet alone, and that device relays it on).
+        """
+        if peer != OFFICE_PEER:
+            return dict(self.db.execute("SELECT origin, seq FROM peer_cursor WHERE peer=?", [peer]).fetchall())
+        return dict(self.db.execute("SELECT origin, max(seq) FROM peer_cursor GROUP BY origin").fetchall())
+
+    def unwritten_count(self, peer: str = OFFICE_PEER) -> int:
+        """Own ops neither acknowledged by ``peer`` nor written into a bundle file for it yet."""
         row = self.db.execute(
-            "SELECT seq FROM peer_cursor WHERE peer=? AND origin=?", [peer, self.device_id]
+            "SELECT seq FROM peer_written WHERE peer=? AND origin=?", [peer, self.device_id]
         ).fetchone()
-        sent = row[0] if row else 0
+        done = max(self.acknowledged(peer).get(self.device_id, 0), row[0] if row else 0)
+        return max(0, int(self._meta()["seq"]) - done)
+
+    def pending_sync_count(self, peer: str = OFFICE_PEER, site_id: str | None = None) -> int:
+        """Own ops ``peer`` has not acknowledged (only those about one site when ``site_id`` is given).
+
+        A bundle file written but not yet acknowledged counts: the file may never arrive.
+        """
+        sent = self.acknowledged(peer).get(self.device_id, 0)
         if site_id is None:
             return int(self._meta()["seq"]) - sent
         ids = " UNION ".join(f"SELECT id FROM {t} WHERE site_id = :site" for t in PROJECTIONS)

@@ -20,6 +20,7 @@ from storage.hubsync import HUB_PEER, pull_quarantine_words, rejection_words, re
 from storage.hubsync import last_sync as last_hub_sync
 from storage.identity import enrolment
 from storage.stamps import local_time, utc_stamp
+from storage.store import OFFICE_PEER
 
 SKEW_WARN_MS = 2 * 60 * 1000  # sync.md 3.3: warn when the tablet's clock is this far from the hub's
 
@@ -29,14 +30,26 @@ class SyncViewModel:
     """The sync screen. Export and import open their own Store, so they can run in a worker thread."""
 
     store: Store
-    peer: str = "office"
+    peer: str = OFFICE_PEER
 
     def status(self) -> str:
-        """'12 changes not yet sent to the office · last sync ...' ."""
+        """'12 changes not yet sent to the office · last sync ...' .
+
+        A change written into a file is not yet with the office: until a peer acknowledges it (the hub's
+        answer, or a bundle coming back holding it) it is counted apart, and the next file carries it again.
+        """
+        unwritten = self.store.unwritten_count(self.peer)
         pending = self.store.pending_sync_count(self.peer)
-        return (
-            f"{pending} changes not yet sent to the {self.peer}" if pending else "Everything sent"
-        ) + f"  ·  last sync: {_when(self.store.last_sync())}  ·  {len(self.store.conflicts())} conflicts to review"
+        if unwritten:
+            words = f"{unwritten} changes not yet sent to the {self.peer}"
+        elif pending:
+            words = (
+                f"{pending} changes written to a file, not yet confirmed received (the next file carries them again)"
+            )
+        else:
+            words = "Everything sent and confirmed received"
+        conflicts = len(self.store.conflicts())
+        return words + f"  ·  last sync: {_when(self.store.last_sync())}  ·  {conflicts} conflicts to review"
 
     def export(self, folder: Path, progress: Progress | None = None) -> str:
         """Write a bundle of the changes the peer has not seen into folder; return a summary."""

@@ -325,3 +325,53 @@ def test_stamp_near_the_end_of_the_range_cannot_stop_local_saves(tmp_path):
     assert "years ahead" in report.reason
     b.create_site(name="Still saving")
     del site
+
+
+# -- 5. a bundle file that never arrived ---------------------------------------------------------
+def test_a_lost_bundle_file_is_sent_again_and_the_screen_says_so(tmp_path):
+    """A file lost on the way (a USB stick left on site) leaves its changes to go in the next file.
+
+    sync.md 3.7: exporting never advances cursors; they move on acknowledgement only.
+    """
+    from mobile.viewmodels.sync import SyncViewModel
+
+    tablet, office = Store(tmp_path / "tablet.db"), Store(tmp_path / "office.db")
+    vm = SyncViewModel(tablet)  # the Sync screen's peer, "office"
+    site = tablet.create_site(name="Lost file")
+    beam = tablet.save_beam(site.id, glulam())
+    assert vm.status().startswith("2 changes not yet sent to the office")
+    vm.export(tmp_path / "stick1")
+    assert vm.status().startswith("2 changes written to a file, not yet confirmed received")
+    for f in (tmp_path / "stick1").iterdir():
+        f.unlink()  # the stick is lost
+    tablet.update_beam(beam, {"b_mm": 175})
+    vm.export(tmp_path / "stick2")
+    (sent,) = sorted((tmp_path / "stick2").iterdir())
+    report = import_bundle(office, sent)
+    assert (report.outcome, report.ops_new) == ("applied", 3)  # the lost file's changes came again
+    export_bundle(office, tmp_path / "back.zip", peer=tablet.device_id)
+    assert import_bundle(tablet, tmp_path / "back.zip").outcome == "applied"  # the office holds them: acknowledged
+    assert office.digest() == tablet.digest()
+    assert vm.status().startswith("Everything sent and confirmed received")
+    assert tablet.pending_sync_count() == 0
+
+
+def test_cursors_an_old_export_moved_are_not_taken_as_acknowledged(tmp_path):
+    """A database from before migration 7 whose export had moved the office cursor resends those changes."""
+    import sqlite3
+
+    tablet = Store(tmp_path / "tablet.db")
+    tablet.create_site(name="Old cursor")
+    me = tablet.device_id
+    tablet.close()
+    con = sqlite3.connect(tmp_path / "tablet.db")
+    con.execute("DROP TABLE peer_written")
+    con.execute("INSERT INTO peer_cursor VALUES ('office', ?, 1)", [me])  # as an old export left it
+    con.execute("INSERT INTO peer_cursor VALUES ('hub', ?, 1)", [me])  # the hub's answer: an acknowledgement
+    con.execute("PRAGMA user_version = 6")
+    con.commit()
+    con.close()
+    tablet = Store(tmp_path / "tablet.db")
+    assert tablet.db.execute("SELECT seq FROM peer_written WHERE peer='office'").fetchone()[0] == 1
+    assert tablet.db.execute("SELECT peer FROM peer_cursor").fetchall() == [("hub",)]
+    assert tablet.pending_sync_count() == 0  # the hub acknowledged it
