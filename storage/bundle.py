@@ -105,7 +105,17 @@ def _silent(fraction: float, what: str) -> None:
 
 
 class BundleRefused(Exception):
-    """A bundle that failed verification; nothing was written."""
+    """A bundle that failed verification; nothing was written.
+
+    ``diverged``: (origin, seq) when the sender's own op differs from the one held here under the same
+    number (the sender was restored from a backup and saved again): the import lowers what it records of
+    the sender's holding of its own ops, so the next bundle for it carries the held op and the sender sees
+    its restore (``_lower_cursor``).
+    """
+
+    def __init__(self, msg: str, diverged: tuple[str, int] | None = None):
+        super().__init__(msg)
+        self.diverged = diverged
 
 
 @dataclass
@@ -307,7 +317,11 @@ def export_bundles(
     total = int(store.db.execute("SELECT count(*) FROM op").fetchone()[0]) or 1
     parts = _parts(store, cursor, part_ops, _keep_all if include_demo else _not_demo)
     manifests, written = _write_parts(
-        store, out, parts, vector, lambda done, name: tell(min(0.95, done / total), f"writing {name}")
+        store,
+        out,
+        parts,
+        (vector, _tips(store, vector)),
+        lambda done, name: tell(min(0.95, done / total), f"writing {name}"),
     )
     done = sum(count for _, _, count in written)
     store.record_sent(peer)
@@ -334,14 +348,19 @@ _Job = tuple[Future[tuple[dict[str, Any], str]], Path, _Part]
 
 
 def _write_parts(
-    store: Store, out: Path, parts: Any, vector: dict[str, int], tell: Callable[[int, str], None]
+    store: Store,
+    out: Path,
+    parts: Any,
+    have: tuple[dict[str, int], dict[str, str]],
+    tell: Callable[[int, str], None],
 ) -> tuple[list[dict[str, Any]], list[tuple[Path, str, int]]]:
     """Write each part to its file; the manifests and (file, SHA-256, op count) of each, in order.
 
     Each part is written (compressed, fsynced, hashed: all release the GIL) by a worker thread while
     the next part is read; a part is handed over only once the one before it is written, so at most
     two parts are held and a failed write stops the export before the next file is begun.
-    ``tell(ops_done, file_name)`` reports progress.
+    ``tell(ops_done, file_name)`` reports progress. ``have``: the vector and its tips (``_tips``), read here
+    (the worker thread reads no database).
     """
     key = identity.device_key(store.db)
     manifests: list[dict[str, Any]] = []
@@ -364,7 +383,7 @@ def _write_parts(
             tell(done, path.name)
             demo_only = set(part.ranges) == {identity.DEMO_ORIGIN}  # asked for: opens in any demo database
             signer = identity.demo_key() if demo_only else key
-            pending = (pool.submit(_write_part, store, path, part, vector, signer), path, part)
+            pending = (pool.submit(_write_part, store, path, part, have, signer), path, part)
             done += len(part.lines)
         if pending is not None:
             finish(pending)
@@ -391,8 +410,11 @@ def _lines(items: list[str]) -> bytes:
     return ("\n".join(items) + ("\n" if items else "")).encode()
 
 
-def _write_part(store: Store, out: Path, part: _Part, vector: dict[str, int], key: Any) -> tuple[dict[str, Any], str]:
+def _write_part(
+    store: Store, out: Path, part: _Part, have: tuple[dict[str, int], dict[str, str]], key: Any
+) -> tuple[dict[str, Any], str]:
     """Write one bundle file (fsynced, atomically); its manifest and the file's SHA-256."""
+    vector, tips = have
     body = _lines(part.lines)
     sigs = _lines(part.sigs)
     blobs: list[dict[str, Any]] = [{"sha256": s, "size": store.blob_path(s).stat().st_size} for s in sorted(part.shas)]
@@ -407,6 +429,7 @@ def _write_part(store: Store, out: Path, part: _Part, vector: dict[str, int], ke
         "ops_sha256": hashlib.sha256(body).hexdigest(),
         "blobs": blobs,
         "vector": vector,
+        "tips": tips,
         "sigs_sha256": hashlib.sha256(sigs).hexdigest(),
     }
     mbytes = canonical(manifest).encode()
@@ -534,6 +557,10 @@ def _check_vectors(manifest: dict[str, Any]) -> None:
     for origin_id, seq in manifest["vector"].items():
         ok = _is_int(seq, 0, SEQ_MAX) and len(origin_id) <= MAX_ID_CHARS
         _refuse_unless(ok, f"manifest vector entry {str(origin_id)[:12]} out of range")
+    tips = manifest.get("tips", {})
+    ok = isinstance(tips, dict) and set(tips) <= set(manifest["vector"])
+    ok = ok and all(isinstance(t, str) and bool(SHA256.match(t)) for t in tips.values())
+    _refuse_unless(ok, "manifest tips must give a SHA-256 for origins of the vector")
 
 
 def _check_blob_list(manifest: dict[str, Any]) -> None:
@@ -589,7 +616,7 @@ def _signed_manifest(store: Store, z: zipfile.ZipFile, by_name: dict[str, zipfil
     except (ValueError, RecursionError) as exc:
         msg = f"manifest is not JSON: {str(exc)[:80]}"
         raise BundleRefused(msg) from exc
-    keys_ok = isinstance(manifest, dict) and set(manifest) == MANIFEST_KEYS
+    keys_ok = isinstance(manifest, dict) and set(manifest) in (MANIFEST_KEYS, MANIFEST_KEYS | {"tips"})
     _refuse_unless(keys_ok, "manifest keys differ from the format")
     origin = manifest["origin"]
     origin_ok = isinstance(origin, str) and bool(DEVICE_ID.match(origin))
@@ -817,13 +844,49 @@ def _check_integrity(store: Store, ops: list[Op], stored: list[tuple[Any, ...]],
 
 
 def _refuse_different(op: Op, sender: str) -> None:
+    own = op.origin == sender
     hint = (
         " (the sending device was restored from a backup: import a bundle from here on it, then send again)"
-        if op.origin == sender
+        if own
         else ""
     )
     msg = f"integrity: op {op.origin}:{op.seq} already held with different content{hint}"
-    raise BundleRefused(msg)
+    raise BundleRefused(msg, diverged=(op.origin, op.seq) if own else None)
+
+
+def op_digest(origin: str, seq: int, stored: tuple[Any, ...]) -> str:
+    """SHA-256 of one op as stored (its ``stored()`` tuple with origin and seq): equal ops, equal digests."""
+    return hashlib.sha256(canonical([origin, seq, *stored]).encode()).hexdigest()
+
+
+def _held_digest(store: Store, origin: str, seq: int) -> str | None:
+    row = store.db.execute(
+        "SELECT hlc, entity, record_id, kind, payload, base FROM op WHERE origin=? AND seq=?", [origin, seq]
+    ).fetchone()
+    return None if row is None else op_digest(origin, seq, tuple(row))
+
+
+def _tips(store: Store, vector: dict[str, int]) -> dict[str, str]:
+    """Per origin of the vector, the digest of the op held at its seq (``op_digest``).
+
+    A receiver holding a different op under that number sees that the two devices hold different
+    histories: one of them was restored from a backup and reused the number.
+    """
+    out = {}
+    for origin, seq in vector.items():
+        digest = _held_digest(store, origin, seq) if seq > 0 else None
+        if digest is not None:
+            out[origin] = digest
+    return out
+
+
+def _lower_cursor(store: Store, peer: str, origin: str, seq: int) -> None:
+    """Record that ``peer`` holds ``origin``'s ops only up to ``seq`` (never raising it)."""
+    store.db.execute(
+        "INSERT INTO peer_cursor VALUES (?, ?, ?) "
+        "ON CONFLICT (peer, origin) DO UPDATE SET seq = min(seq, excluded.seq)",
+        [peer, origin, max(0, seq)],
+    )
 
 
 def _check_ranges(store: Store, manifest: dict[str, Any], ops: list[Op], rebase_from: int | None) -> None:
@@ -882,7 +945,7 @@ def _import_bundle(store: Store, path: Path | str, progress: Progress | None) ->
     try:
         v = verify_bundle(store, data)
     except BundleRefused as exc:
-        _log(store, path, hashlib.sha256(data).hexdigest(), "refused", str(exc), 0, 0)
+        _log(store, path, hashlib.sha256(data).hexdigest(), "refused", str(exc), 0, 0, exc.diverged)
         return ImportReport("refused", reason=str(exc))
     tell(0.2, f"verified {len(v.ops):,} changes and {len(v.blobs)} files")
     if v.manifest["schema_version"] > SCHEMA_VERSION:
@@ -1011,11 +1074,21 @@ def _keep_received_signatures(store: Store, ops: list[Op], sigs: list[str], expo
 
 
 def _sender_cursor(store: Store, manifest: dict[str, Any]) -> None:
-    """What the sender holds (its vector) need not be sent back to it (inside the last batch)."""
+    """What the sender holds (its vector) need not be sent back to it (inside the last batch).
+
+    Trusted only where the two histories agree: when the sender's op at its vector's seq (``tips``) is not
+    the op held here under that number, one of the two devices was restored from a backup and reused the
+    number; the sender is then taken to hold none of that origin's ops, so the next bundle for it carries
+    them and the difference is found (the restored device renumbers its saves, or the import says why not).
+    """
     peer = manifest["origin"]
+    tips = manifest.get("tips", {})
     for origin, seq in manifest["vector"].items():
         top = store.held_seq(origin)  # a peer has not seen more of an origin than exists here
-        store.db.execute("INSERT OR REPLACE INTO peer_cursor VALUES (?, ?, ?)", [peer, origin, min(seq, top)])
+        held = min(seq, top)
+        if origin in tips and held == seq and _held_digest(store, origin, seq) != tips[origin]:
+            held = 0
+        store.db.execute("INSERT OR REPLACE INTO peer_cursor VALUES (?, ?, ?)", [peer, origin, held])
 
 
 def _clock_warning(store: Store, ops: list[Op]) -> str:
@@ -1032,8 +1105,20 @@ def _clock_warning(store: Store, ops: list[Op]) -> str:
     )
 
 
-def _log(store: Store, path: str | Path, sha: str, outcome: str, reason: str, ops: int, applied: int) -> None:
+def _log(
+    store: Store,
+    path: str | Path,
+    sha: str,
+    outcome: str,
+    reason: str,
+    ops: int,
+    applied: int,
+    diverged: tuple[str, int] | None = None,
+) -> None:
+    """Log an import attempt; a sender found restored (``diverged``) is taken to hold its own ops below it."""
     with transaction(store.db):
+        if diverged is not None:
+            _lower_cursor(store, diverged[0], diverged[0], diverged[1] - 1)
         store.db.execute(
             "INSERT INTO bundle_log (at, file, bundle_sha256, outcome, reason, ops, applied) "
             "VALUES (?, ?, ?, ?, ?, ?, ?)",

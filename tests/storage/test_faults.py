@@ -375,3 +375,34 @@ def test_cursors_an_old_export_moved_are_not_taken_as_acknowledged(tmp_path):
     assert tablet.db.execute("SELECT seq FROM peer_written WHERE peer='office'").fetchone()[0] == 1
     assert tablet.db.execute("SELECT peer FROM peer_cursor").fetchall() == [("hub",)]
     assert tablet.pending_sync_count() == 0  # the hub acknowledged it
+
+
+# -- 6. a restored tablet without its sent mark, both sides sending only what the other lacks ----------
+def test_restored_tablet_without_its_mark_converges_with_peer_cursors(tmp_path):
+    """A restore that reused seq numbers comes to light (sync.md 3.2, invariant I9).
+
+    It must not leave two devices each believing the other holds its op 3 while they hold different ones
+    (every import 'applied, 0 new', the two never agreeing).
+    """
+    office, tablet = Store(tmp_path / "office.db"), Store(tmp_path / "tablet.db")
+    site = tablet.create_site(name="Two devices")
+    beam = tablet.save_beam(site.id, glulam())
+    _sync(tablet, office, tmp_path / "0.zip", peer=office.device_id)
+    _backup(tablet, tmp_path / "backup.db")
+    tablet.update_beam(beam, {"b_mm": 175})  # lost by the restore; the office has it
+    _sync(tablet, office, tmp_path / "1.zip", peer=office.device_id)
+    _sync(office, tablet, tmp_path / "ack.zip", peer=tablet.device_id)  # the office acknowledges it
+    tablet = _restore(tablet, tmp_path / "backup.db", keep_mark=False)
+    tablet.update_beam(beam, {"d_mm": 532})  # the same seq as the lost save, other content
+    outcomes = []
+    for n in range(3):
+        for src, dst in ((office, tablet), (tablet, office)):
+            path = tmp_path / f"x{n}{src is office}.zip"
+            export_bundle(src, path, peer=dst.device_id)
+            report = import_bundle(dst, path)
+            outcomes.append((report.outcome, report.reason[:60]))
+    assert (tablet.beam(beam).b_mm, tablet.beam(beam).d_mm) == (175, 532), outcomes
+    assert (office.beam(beam).b_mm, office.beam(beam).d_mm) == (175, 532), outcomes
+    assert office.digest() == tablet.digest()
+    # what it took, in words: the tablet's send was refused once, saying why, then it renumbered and sent again
+    assert outcomes[-2:] == [("applied", ""), ("applied", "")], outcomes
