@@ -71,6 +71,7 @@ class DeviceKey(Strict):
     name: str
     public_key: str
     revoked_ms: int | None
+    role: str = ""  # reviewer, technician or office: a tablet judges a bundle's status moves by it
 
 
 class DeviceList(Strict):
@@ -230,7 +231,9 @@ def _hub_router() -> APIRouter:
         """The enrolled devices' public keys: a tablet verifies file bundles and pulled ops by them."""
         return DeviceList(
             devices=[
-                DeviceKey(device_id=d.device_id, name=d.name, public_key=d.public_key, revoked_ms=d.revoked_ms)
+                DeviceKey(
+                    device_id=d.device_id, name=d.name, public_key=d.public_key, revoked_ms=d.revoked_ms, role=d.role
+                )
                 for d in _hub(request).devices()
             ]
         )

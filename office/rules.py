@@ -10,9 +10,8 @@ from dataclasses import dataclass
 
 from storage.clock import MAX_DRIFT_MS
 from storage.oplog import Op, content_hash
-from storage.validate import RecordInvalid, check_op_record
+from storage.validate import STAGE_VERIFIED, RecordInvalid, check_op_record, reviewer_only
 
-STAGE_VERIFIED = 2
 STATUS_FIELDS = ("cycle", "stage")
 
 
@@ -50,10 +49,8 @@ def status_only_by_status_ops(op: Op, ctx: Context) -> str | None:
 
 
 def only_reviewer_verifies(op: Op, ctx: Context) -> str | None:
-    """Only a device enrolled with the reviewer role may set a deficiency verified."""
-    if op.kind == "status" and int(op.payload.get("stage", -1)) == STAGE_VERIFIED and ctx.origin_role != "reviewer":
-        return f"not_reviewer: only a reviewer verifies a deficiency; this device is enrolled as {ctx.origin_role}"
-    return None
+    """Only a device enrolled with the reviewer role may set a deficiency verified (the tablets' rule too)."""
+    return reviewer_only(op, ctx.origin_role)
 
 
 def status_forward_only(op: Op, ctx: Context) -> str | None:

@@ -49,7 +49,7 @@ from storage.oplog import (
 )
 from storage.stamps import utc_stamp
 from storage.store import Store
-from storage.validate import RecordInvalid, check_op_record
+from storage.validate import RecordInvalid, check_op_record, reviewer_only
 
 FORMAT = "bracewalk-bundle"
 FORMAT_VERSION = 2  # 2: Ed25519 signatures (manifest.sig, ops.sig) replace the firm-key MAC
@@ -496,6 +496,7 @@ class _Verified:
     sigs: list[str] = field(default_factory=list)  # each op's origin signature, kept for relaying
     stored: list[tuple[Any, ...]] = field(default_factory=list)  # each op's ``stored()``, encoded once
     finite: bool = False  # every op line was read by orjson: no NaN or infinity (``fastjson.LineReader``)
+    aside: dict[int, str] = field(default_factory=dict)  # index of an op the hub's rules refuse -> why (``_set_aside``)
 
 
 def _read_bounded(z: zipfile.ZipFile, info: zipfile.ZipInfo, limit: int) -> bytes:
@@ -793,7 +794,29 @@ def verify_bundle(store: Store, data: bytes) -> _Verified:
     _check_op_content(store, ops, stored)
     rebase_from = _check_integrity(store, ops, stored, manifest["origin"])
     _check_ranges(store, manifest, ops, rebase_from)
-    return _Verified(manifest, ops, blobs, hashlib.sha256(data).hexdigest(), rebase_from, sigs, stored, finite)
+    aside = _set_aside(store, ops)
+    return _Verified(manifest, ops, blobs, hashlib.sha256(data).hexdigest(), rebase_from, sigs, stored, finite, aside)
+
+
+def _set_aside(store: Store, ops: list[Op]) -> dict[int, str]:
+    """The ops the office hub's rules refuse, by index, with why: set aside, not applied (the rest are).
+
+    A status move to 'verified' from a device the hub lists as not a reviewer (``validate.reviewer_only``):
+    the hub refuses it, so applying it here would make a sign-off no reviewer gave and leave this tablet
+    disagreeing with the office. Like a pulled op that fails its checks, it is kept in ``pull_quarantine``
+    and shown in words on the Sync screen. This device's own ops coming back are not judged again.
+    """
+    roles: dict[str, str | None] = {}
+    out: dict[int, str] = {}
+    for n, op in enumerate(ops):
+        if op.kind != OpKind.STATUS or op.origin == store.device_id:
+            continue
+        if op.origin not in roles:
+            roles[op.origin] = identity.listed_role(store.db, op.origin)
+        why = reviewer_only(op, roles[op.origin])
+        if why:
+            out[n] = why
+    return out
 
 
 def _held_ops(store: Store, ops: list[Op]) -> dict[tuple[str, int], tuple[Any, ...]]:
@@ -959,7 +982,7 @@ def _import_bundle(store: Store, path: Path | str, progress: Progress | None) ->
         reason = f"written by schema {v.manifest['schema_version']}; this app knows {SCHEMA_VERSION}: held"
         _log(store, path, v.sha, "held", reason, len(v.ops), 0)
         return ImportReport("held", ops_total=len(v.ops), reason=reason)
-    warning = _clock_warning(store, v.ops)
+    warning = "; ".join(w for w in (_clock_warning(store, v.ops), _aside_warning(v)) if w)
     needed = sum(len(c) for sha, c in v.blobs.items() if not store.blob_path(sha).exists())
     store.blob_dir.mkdir(parents=True, exist_ok=True)
     free = shutil.disk_usage(store.blob_dir).free
@@ -1039,16 +1062,30 @@ def _merge_batch(store: Store, v: _Verified, start: int, tell: Progress, batch: 
     new = 0
     chunk = v.ops[start : start + BATCH_OPS]
     batch.prefetch(chunk)
+    aside = []
     for n, op in enumerate(chunk, start=start):
         if n % PROGRESS_EVERY == 0:
             tell(0.2 + 0.8 * n / max(total, 1), f"merging change {n:,} of {total:,}")
+        if n in v.aside:
+            aside.append((op.origin, op.seq, canonical(op.row()), v.sigs[n] if v.sigs else "", v.aside[n]))
+            continue
         if insert_op(store.db, op, batch, v.stored[n]):
             apply_op(store.db, op, batch=batch)
             newest = max(newest, op.hlc)
             new += 1
     batch.flush()
+    if aside:
+        now = store.wall_ms()
+        store.db.conn.executemany(
+            "INSERT OR REPLACE INTO pull_quarantine VALUES (?, ?, ?, ?, ?, ?)", [(*a, now) for a in aside]
+        )
     if v.sigs:
-        _keep_received_signatures(store, chunk, v.sigs[start : start + BATCH_OPS], v.manifest["origin"])
+        kept = [
+            (op, sig)
+            for k, (op, sig) in enumerate(zip(chunk, v.sigs[start : start + BATCH_OPS], strict=True))
+            if start + k not in v.aside
+        ]
+        _keep_received_signatures(store, [op for op, _ in kept], [sig for _, sig in kept], v.manifest["origin"])
     if newest:
         store.observe_hlc(newest)  # the clock passes every stamp received (once a batch, not per op)
     return new
@@ -1089,6 +1126,14 @@ def _sender_cursor(store: Store, manifest: dict[str, Any]) -> None:
         if origin in tips and held == seq and _held_digest(store, origin, seq) != tips[origin]:
             held = 0
         store.db.execute("INSERT OR REPLACE INTO peer_cursor VALUES (?, ?, ?)", [peer, origin, held])
+
+
+def _aside_warning(v: _Verified) -> str:
+    """The ops set aside by the hub's rules, in words ('' if none)."""
+    if not v.aside:
+        return ""
+    why = sorted({reason.split(": ", 1)[-1] for reason in v.aside.values()})
+    return f"{len(v.aside)} changes set aside, not applied ({'; '.join(why)}): listed on the Sync screen"
 
 
 def _clock_warning(store: Store, ops: list[Op]) -> str:

@@ -171,6 +171,11 @@ MIGRATIONS: dict[int, list[str]] = {
         "INSERT OR REPLACE INTO peer_written SELECT peer, origin, seq FROM peer_cursor WHERE peer <> 'hub'",
         "DELETE FROM peer_cursor WHERE peer <> 'hub'",
     ],
+    # 8: the role the office hub enrolled each listed device for, so a bundle's status move is judged by the
+    # hub's rule (storage.validate.reviewer_only) on a tablet too
+    8: [
+        "CREATE TABLE IF NOT EXISTS trusted_role (device_id TEXT PRIMARY KEY, role TEXT NOT NULL) WITHOUT ROWID",
+    ],
 }
 
 

@@ -25,7 +25,7 @@ from storage.oplog import Op, canonical
 # How far a signed request's time may be from the hub's clock (milliseconds).
 REQUEST_WINDOW_MS = 10 * 60 * 1000
 
-IDENTITY_TABLES = tuple(MIGRATIONS[5])  # created by the migration; kept idempotent for hub databases
+IDENTITY_TABLES = (*MIGRATIONS[5], *MIGRATIONS[8])  # created by the migrations; kept idempotent for hub databases
 # DEMO ONLY: the marked key that signs the built-in demo's bundles. Its private half is in the source, so
 # only a demo database (firm key DEMO_FIRM_KEY) trusts it; a real database never does.
 DEMO_KEY_SEED = hashlib.sha256(b"bracewalk demo device key - DEMO ONLY, never a firm's").digest()
@@ -240,20 +240,32 @@ class TrustedDevice:
 
 
 def trust_devices(db: sqlite_utils.Database, devices: list[dict[str, Any]], at_ms: int) -> int:
-    """Replace the known devices with the hub's list (device_id, public_key, name, revoked_ms); how many.
+    """Replace the known devices with the hub's list (device_id, public_key, name, revoked_ms, role); how many.
 
     Keys are checked before anything is written: a list with an unreadable key changes nothing.
     """
     ensure_tables(db)
     rows = []
+    roles = []
     for d in devices:
         load_public(str(d["public_key"]))
         revoked = d.get("revoked_ms")
         rows.append([str(d["device_id"]), str(d["public_key"]), str(d.get("name", "")), revoked, at_ms])
+        if d.get("role"):  # a hub from before 2026-12-05 lists no roles: none is known then
+            roles.append([str(d["device_id"]), str(d["role"])])
     with transaction(db):
         db.execute("DELETE FROM trusted_device")
         db.conn.executemany("INSERT INTO trusted_device VALUES (?, ?, ?, ?, ?)", rows)
+        db.execute("DELETE FROM trusted_role")
+        db.conn.executemany("INSERT INTO trusted_role VALUES (?, ?)", roles)
     return len(rows)
+
+
+def listed_role(db: sqlite_utils.Database, device_id: str) -> str | None:
+    """The role the office enrolled a listed device for ('reviewer', 'technician', 'office'); None if not known."""
+    ensure_tables(db)
+    row = db.execute("SELECT role FROM trusted_role WHERE device_id=?", [device_id]).fetchone()
+    return str(row[0]) if row else None
 
 
 def trusted_devices(db: sqlite_utils.Database) -> list[TrustedDevice]:

@@ -235,6 +235,23 @@ def _check_photo(op: Op, p: dict[str, Any]) -> None:
         raise RecordInvalid(msg) from exc
 
 
+STAGE_VERIFIED = 2  # a deficiency's stages: 0 open, 1 corrected, 2 verified
+
+
+def reviewer_only(op: Op, role: str | None) -> str | None:
+    """Why a status move is refused: only a device enrolled as a reviewer verifies a deficiency; else None.
+
+    ``role``: the role the office hub enrolled the op's origin device for; None when it is not known (a hub
+    that lists no roles, a demo database), and nothing is refused then. The hub holds the same rule
+    (office/rules.py), so a tablet and the hub agree on what such a move does.
+    """
+    if role is None or role == "reviewer" or op.kind != "status":
+        return None
+    if int(op.payload.get("stage", -1)) == STAGE_VERIFIED:
+        return f"not_reviewer: only a reviewer verifies a deficiency; this device is enrolled as {role}"
+    return None
+
+
 def check_op_record(op: Op, payload_text: str | None = None) -> None:
     """Raise RecordInvalid (naming record and field) unless the op's content is what a local save writes.
 
