@@ -17,6 +17,8 @@ from core.results import (
     Priority,
     ShearCheck,
     Status,
+    beyond_text,
+    utilisation_text,
 )
 
 FINDING_CODES = tuple(code.value for code in FindingCode)  # kept for callers that list the codes
@@ -56,7 +58,8 @@ def dead_load_words(check: BendingRegion | ShearCheck | BearingCheck) -> str:
     if check.dead_load_only or not fails_under_dead_load(check):
         return ""
     return (
-        f" Under its design dead load alone (1.4D) the utilisation is {check.dead_load_utilisation:.2f}, before any "
+        " Under its design dead load alone (1.4D) the utilisation is "
+        f"{utilisation_text(check.dead_load_utilisation)}, before any "
         "live or snow load (that dead load is taken as in place: how much of it is on the member was not recorded)."
     )
 
@@ -241,7 +244,8 @@ def bending_findings(beam: Beam, member: Member, bending: list[BendingRegion]) -
                     region=r.region,
                     message=(
                         f"{beam.mark}, {r.region}: factored moment {r.mf_knm:.1f} kN·m exceeds the "
-                        f"resistance {r.mr_knm:.1f} kN·m (utilisation {r.utilisation:.2f}, {r.combination})."
+                        f"resistance {r.mr_knm:.1f} kN·m "
+                        f"(utilisation {utilisation_text(r.utilisation)}, {r.combination})."
                         f"{dead_load_words(r)}{rests}"
                     ),
                     action=action,
@@ -252,7 +256,8 @@ def bending_findings(beam: Beam, member: Member, bending: list[BendingRegion]) -
         if r.outcome is Outcome.not_established and (upper is None or upper > 1.0):
             bound = (
                 f"even if its bearings were restrained the resistance would be only {r.mr_if_restrained_knm:.1f} kN·m "
-                f"against a factored moment of {r.mf_knm:.1f} kN·m (utilisation {upper:.2f}, {r.combination})"
+                f"against a factored moment of {r.mf_knm:.1f} kN·m "
+                f"(utilisation {utilisation_text(upper)}, {r.combination})"
                 if r.mr_if_restrained_knm is not None
                 else "even if its bearings were restrained the slenderness would exceed the limit"
             )
@@ -495,11 +500,11 @@ def check_findings(
                 priority=priority,
                 message=(
                     f"{beam.mark}: total factored load {shear.vf_kn:.1f} kN exceeds the shear resistance Wr "
-                    f"{shear.vr_kn:.1f} kN of the volume method (utilisation {shear.utilisation:.2f}, "
+                    f"{shear.vr_kn:.1f} kN of the volume method (utilisation {utilisation_text(shear.utilisation)}, "
                     f"{shear.combination}).{dead_load_words(shear)}"
                     if shear.volume_method
                     else f"{beam.mark}: factored shear {shear.vf_kn:.1f} kN exceeds the resistance "
-                    f"{shear.vr_kn:.1f} kN (utilisation {shear.utilisation:.2f}, {shear.combination})."
+                    f"{shear.vr_kn:.1f} kN (utilisation {utilisation_text(shear.utilisation)}, {shear.combination})."
                     f"{dead_load_words(shear)}"
                 ),
                 action=action,
@@ -521,7 +526,8 @@ def check_findings(
                     region=f"support {b.support}",
                     message=(
                         f"{beam.mark} at support {b.support}: factored reaction {b.qf_kn:.1f} kN exceeds the bearing "
-                        f"resistance {b.qr_kn:.1f} kN over {b.length_mm:g} mm (utilisation {b.utilisation:.2f})."
+                        f"resistance {b.qr_kn:.1f} kN over {b.length_mm:g} mm "
+                        f"(utilisation {utilisation_text(b.utilisation)})."
                         f"{dead_load_words(b)}"
                     ),
                     action=action,
@@ -529,6 +535,7 @@ def check_findings(
                 )
             )
     if deflection.utilisation > 1.0:
+        shown = beyond_text(deflection.delta_mm, deflection.limit_mm, "mm")
         out.append(
             _finding(
                 code=FindingCode.deflection_exceeds_limit,
@@ -536,7 +543,7 @@ def check_findings(
                 region=deflection.element,
                 message=(
                     f"{beam.mark}, {deflection.element}: deflection under {deflection.case} "
-                    f"{deflection.delta_mm:.1f} mm exceeds the limit {deflection.limit_mm:.1f} mm "
+                    f"{shown[0]} exceeds the limit {shown[1]} "
                     f"(L/{deflection.limit_ratio:g})."
                 ),
                 action="Refer to the engineer of record (serviceability).",

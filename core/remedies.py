@@ -19,7 +19,7 @@ from core.findings import TOP_EDGE_REGION
 from core.kinds import FindingCode, MomentSign, Outcome
 from core.models import Beam, Material
 from core.recheck import recheck
-from core.results import CheckLine, Out, Recheck, check_lines
+from core.results import CheckLine, Out, Recheck, check_lines, utilisation_text
 
 SPACING_STEP_MM = 50.0
 BEARING_STEP_MM = 10.0
@@ -371,11 +371,13 @@ def once_corrected(beam: Beam, code: str, region: str) -> Corrected | None:
         top = max(lines, key=lambda c: c.utilisation or 0.0)
         message = (
             f"With {done}, every check of {beam.mark} is within capacity (highest utilisation "
-            f"{top.utilisation or 0.0:.2f}, {top.name}); any other item on this member still stands."
+            f"{utilisation_text(top.utilisation or 0.0)}, {top.name}); any other item on this member still stands."
         )
     else:
         still = "; ".join(
-            f"{c.name} not established" if c.utilisation is None else f"{c.name} utilisation {c.utilisation:.2f}"
+            f"{c.name} not established"
+            if c.utilisation is None
+            else f"{c.name} utilisation {utilisation_text(c.utilisation)}"
             for c in failing
         )
         message = (

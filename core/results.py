@@ -28,7 +28,31 @@ CAUTION = (
 # The version of what a recheck prints. Bump it with every change that may change a recheck's output (the
 # golden digests, tests/core/golden_versions.txt, refuse a rewrite under the same version): stored results
 # of another version are recomputed when a database is opened (storage.results).
-RESULTS_VERSION = 17
+RESULTS_VERSION = 18
+
+
+def utilisation_text(u: float | None) -> str:
+    """A utilisation to two decimals, or to as many more as it takes to show its side of 1.00 (dimensionless).
+
+    1.0012 prints '1.001', not '1.00' beside the word FAILS; 0.9996 prints '1.00', which passes (at most 1.00).
+    None (no utilisation: not established) prints '-'.
+    """
+    if u is None:
+        return "-"
+    for places in (2, 3, 4, 5, 6):
+        text = f"{u:.{places}f}"
+        if (u > 1.0) == (float(text) > 1.0):
+            return text
+    return repr(u)
+
+
+def beyond_text(value: float, limit: float, unit: str) -> tuple[str, str]:
+    """A value past its limit and the limit, to one decimal, or more where one would print them equal."""
+    for places in (1, 2, 3):
+        a, b = f"{value:.{places}f}", f"{limit:.{places}f}"
+        if a != b:
+            return f"{a} {unit}", f"{b} {unit}"
+    return f"{value!r} {unit}", f"{limit!r} {unit}"
 
 
 class Out(BaseModel):

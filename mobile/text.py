@@ -2,12 +2,12 @@
 
 from __future__ import annotations
 
-from core.results import CheckLine, Recheck, check_lines
+from core.results import CheckLine, Recheck, check_lines, utilisation_text
 
 
 def line_text(c: CheckLine) -> str:
     """One check as a line of text: 'name: demand vs capacity, utilisation 0.86 (factors; combination)'."""
-    util = "not established" if c.utilisation is None else f"{c.utilisation:.2f}"
+    util = "not established" if c.utilisation is None else utilisation_text(c.utilisation)
     detail = "; ".join(x for x in (c.factors, c.combination) if x)
     return f"{c.name}: {c.demand} vs {c.capacity}, utilisation {util}" + (f" ({detail})" if detail else "")
 

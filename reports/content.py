@@ -11,7 +11,15 @@ from core.kinds import FindingCode
 from core.models import Beam, BottomBracing, Restraint, TopBracing
 from core.records import Deficiency, Site, Visit
 from core.remedies import once_corrected, remedies
-from core.results import PRIORITY_ORDER, BearingCheck, CheckLine, FactorTrace, Recheck, check_lines
+from core.results import (
+    PRIORITY_ORDER,
+    BearingCheck,
+    CheckLine,
+    FactorTrace,
+    Recheck,
+    check_lines,
+    utilisation_text,
+)
 from reports.tablerows import RowUsed
 
 CAUTIONS = (
@@ -22,6 +30,8 @@ CAUTIONS = (
     "The contractor is responsible for means, methods, sequencing, site safety and temporary bracing.",
     "Observations are limited to work visible and accessible on the visit date; work listed as not "
     "reviewed is outside this notice.",
+    "What the reviewer could not see or did not record (a bearing's restraint, a grade stamp, the fastening of "
+    "purlins or decking) is taken as the unfavourable case in the recheck; each item and sheet says where.",
     "The recheck behind each item covers gravity line loads only (dead, live and snow); wind, earthquake, "
     "point loads and connections are not checked by it.",
     "IMMEDIATE items: make the area safe now (keep loads off, shore or brace); do not wait for this written "
@@ -430,7 +440,7 @@ def key_numbers(result: Recheck) -> list[tuple[str, str]]:
     """The recheck numbers an item prints: the status, then each check line (name, demand vs capacity)."""
     out = [("status", result.status.value.replace("_", " "))]
     for c in check_lines(result):
-        util = "-" if c.utilisation is None else f"{c.utilisation:.2f}"
+        util = "-" if c.utilisation is None else utilisation_text(c.utilisation)
         out.append((c.name, f"{c.demand} vs {c.capacity}, utilisation {util}"))
     return out
 

@@ -28,7 +28,7 @@ from reportlab.platypus import (
 from core.casetable import CaseTable, case_table
 from core.kinds import Outcome
 from core.models import Beam
-from core.results import BendingRegion, Recheck, check_lines, check_trace
+from core.results import BendingRegion, Recheck, check_lines, check_trace, utilisation_text
 from reports import stamp
 from reports.content import (
     Item,
@@ -608,7 +608,8 @@ def passes_as_installed(item: Item, numbers: list[str]) -> str:
     which = "Item " + numbers[0] if len(numbers) == 1 else "Items " + ", ".join(numbers)
     return (
         "<b>Passes as installed, still a deficiency:</b> every check above is within capacity for the member as it "
-        f"is installed; the highest utilisation is {top.utilisation:.2f}, for {esc(top.name)}. {esc(which)} below "
+        f"is installed; the highest utilisation is {utilisation_text(top.utilisation)}, for {esc(top.name)}. "
+        f"{esc(which)} below "
         "still records a condition that passing the check does not clear (it departs from the drawings, the "
         "specification or good practice): the engineer of record accepts it, or it is corrected."
     )
@@ -626,7 +627,7 @@ def _engineering(item: Item, st: dict[str, ParagraphStyle], numbers: list[str] |
             util, style = "not established, taken as failing", bold
         else:
             fails = c.utilisation > 1.0
-            util, style = f"{c.utilisation:.2f}" + (" FAILS" if fails else " ok"), (bold if fails else s)
+            util, style = utilisation_text(c.utilisation) + (" FAILS" if fails else " ok"), (bold if fails else s)
         rows.append(
             [
                 Paragraph(esc(c.name), s),

@@ -12,7 +12,7 @@ from typing import Any
 from core.models import Beam
 from core.recheck import recheck
 from core.records import ReviewerProfile
-from core.results import Recheck
+from core.results import Recheck, utilisation_text
 from mobile.viewmodels.common import line_loads_kn_m
 from storage import Store
 from storage.bundle import export_bundle
@@ -130,7 +130,7 @@ def run_demo(out: Path, serve: bool = False) -> int:
     export_bundle(store, bundle, include_demo=True)  # asked for: the demo's own bundle
     print(f"{'mark':<6} {'status':<16} {'util':>6}  findings")
     for record, result in rows:
-        util = "-" if result.governing_utilisation is None else f"{result.governing_utilisation:.2f}"
+        util = "-" if result.governing_utilisation is None else utilisation_text(result.governing_utilisation)
         codes = ", ".join(f"{f.code} ({f.priority.value})" for f in result.findings) or "-"
         print(f"{record['mark']:<6} {result.status.value:<16} {util:>6}  {codes}")
     print()

@@ -17,7 +17,7 @@ from kivy.uix.label import Label
 from kivy.uix.popup import Popup
 from kivy.uix.scrollview import ScrollView
 
-from core.results import Status
+from core.results import Status, utilisation_text
 from mobile.units import parse_length_mm
 
 # ';' (next span) sits in the top row, far from OK; no ',' (the decimal point is '.'); C clears
@@ -297,7 +297,7 @@ class UtilBar(BoxLayout):
 
     def show(self, util: float) -> None:
         """Set the value: bar length min(util, 1) (at least a tenth, to hold the number)."""
-        self.bar.text = f"{util:.2f}" + ("  OVER" if util > 1 else "")
+        self.bar.text = utilisation_text(util) + ("  OVER" if util > 1 else "")
         self.bar.size_hint_x = max(min(util, 1.0), 0.1)
         self.rest.size_hint_x = max(1.0 - max(util, 0.1), 0.0)
         self.fill.rgba = (0.95, 0.35, 0.25, 1) if util > 1 else (0.6, 0.82, 0.6, 1)

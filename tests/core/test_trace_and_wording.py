@@ -519,3 +519,18 @@ def test_deflection_check_builds_its_trace_unless_told_not_to():
     member = member_properties(beam)
     assert {t.symbol for t in deflection_check(beam, member, model).trace} >= {"ES", "limit", "edition"}
     assert deflection_check(beam, member, model, traces=False).trace == []
+
+
+def test_a_utilisation_just_over_one_prints_on_its_side_of_one():
+    """A check fails above 1.00 (utilisation = demand / capacity; common practice): the printed figure must
+    not read 1.00 beside FAILS, nor the value and its limit read equal in a deflection finding."""
+    from core.results import beyond_text, utilisation_text
+
+    assert utilisation_text(0.87) == "0.87"
+    assert utilisation_text(1.0012) == "1.001"
+    assert utilisation_text(1.00004) == "1.00004"
+    assert utilisation_text(0.9996) == "1.00"  # at most 1.00 passes: printed as 1.00, on its side
+    assert utilisation_text(1.0) == "1.00"
+    assert utilisation_text(None) == "-"
+    assert beyond_text(37.54, 37.5, "mm") == ("37.54 mm", "37.50 mm")
+    assert beyond_text(41.0, 37.5, "mm") == ("41.0 mm", "37.5 mm")
