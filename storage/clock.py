@@ -35,12 +35,15 @@ def hlc_tick(last: int, wall_ms: int) -> int:
 
 
 def hlc_receive(last: int, remote: int, wall_ms: int) -> int:
-    """HLC after receiving a remote stamp: past everything seen, so the device's next edit wins.
+    """HLC after receiving a remote stamp: past every stamp seen, up to MAX_DRIFT_MS ahead of the wall clock.
 
-    A stamp far ahead of the wall clock is not capped (a cap would let every received stamp beat the
-    device's own later edits); the import flags it instead (``far_ahead_ms``).
+    A stamp further ahead (written on a device whose clock is fast) is accepted and flagged by the import
+    (``far_ahead_ms``) but not followed (sync.md 3.3): this device's own stamps stay near its wall clock, so
+    the hub does not hold its work back as 'clock ahead'. Its own edit of a field that carries such a stamp
+    still takes effect: the save stamps that one change past the field's stamp (``Store._save_in_tx``).
     """
-    return hlc_tick(max(last, remote), wall_ms)
+    cap = (wall_ms + MAX_DRIFT_MS) << 16
+    return hlc_tick(max(last, min(remote, cap)), wall_ms)
 
 
 def far_ahead_ms(remote: int, wall_ms: int) -> int:

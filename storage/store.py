@@ -275,8 +275,8 @@ class Store:
             # the device's own edit always takes effect here: past every stamp of the fields it changes
             top = max((s[0] for s in (self.stamp(entity, record_id, f) for f in fields) if s), default=-1)
             if top >= hlc:
-                hlc = top + 1
-                self._set_meta("hlc", str(hlc))
+                hlc = top + 1  # this change only: the clock follows it no further than a received stamp
+                self._set_meta("hlc", str(hlc_receive(int(self._meta()["hlc"]), hlc, self._wall())))
         op = Op(
             origin=origin,
             seq=seq,

@@ -522,8 +522,10 @@ def test_deflection_check_builds_its_trace_unless_told_not_to():
 
 
 def test_a_utilisation_just_over_one_prints_on_its_side_of_one():
-    """A check fails above 1.00 (utilisation = demand / capacity; common practice): the printed figure must
-    not read 1.00 beside FAILS, nor the value and its limit read equal in a deflection finding."""
+    """A check fails above 1.00 (utilisation = demand / capacity; common practice): printed on its side of 1.00.
+
+    The printed figure must not read 1.00 beside FAILS, nor a value and its limit read equal in a finding.
+    """
     from core.results import beyond_text, utilisation_text
 
     assert utilisation_text(0.87) == "0.87"

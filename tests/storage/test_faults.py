@@ -12,6 +12,7 @@ import pytest
 
 from storage import Store
 from storage.bundle import BundleRefused, export_bundle, import_bundle, verify_bundle
+from storage.oplog import all_ops
 from tests.core.beams import glulam
 from tests.storage.signing import signed_bundle
 
@@ -406,3 +407,32 @@ def test_restored_tablet_without_its_mark_converges_with_peer_cursors(tmp_path):
     assert office.digest() == tablet.digest()
     # what it took, in words: the tablet's send was refused once, saying why, then it renumbered and sent again
     assert outcomes[-2:] == [("applied", ""), ("applied", "")], outcomes
+
+
+# -- 7. a colleague's fast clock does not spread ----------------------------------------------------
+def test_a_fast_colleagues_stamps_do_not_carry_this_tablets_clock_ahead(tmp_path):
+    """sync.md 3.3: accept far-ahead ops, but do not move the local clock past now + max drift because of them.
+
+    Before, the correct tablet's own later saves were stamped a day ahead too, and the hub held its work back
+    as 'clock ahead' (more than MAX_DRIFT_MS past the hub's clock) until real time caught up.
+    """
+    from storage.clock import MAX_DRIFT_MS
+
+    day = 24 * HOUR
+    fast = Store(tmp_path / "fast.db", wall_clock_ms=lambda: NOW + day)
+    good = Store(tmp_path / "good.db", wall_clock_ms=lambda: NOW)
+    site = fast.create_site(name="Fast clock")  # stamped a day ahead
+    beam = fast.save_beam(site.id, glulam())
+    report = _sync(fast, good, tmp_path / "f.zip")
+    assert "ahead of this tablet's clock" in report.warning  # accepted and flagged
+    own = good.save_beam(site.id, glulam(mark="G-1"))  # other work: stamped by the good tablet's own clock
+    (op,) = [o for o in all_ops(good.db) if o.record_id == own]
+    assert (op.hlc >> 16) <= NOW + MAX_DRIFT_MS
+    good.update_beam(beam, {"b_mm": 175})  # an edit of the fast tablet's record still takes effect
+    assert good.beam(beam).b_mm == 175
+    later = good.save_beam(site.id, glulam(mark="G-2"))  # and the clock did not follow that edit either
+    (op,) = [o for o in all_ops(good.db) if o.record_id == later]
+    assert (op.hlc >> 16) <= NOW + MAX_DRIFT_MS
+    _sync(good, fast, tmp_path / "g.zip")
+    assert fast.beam(beam).b_mm == 175  # the edit wins on the fast tablet too
+    assert fast.digest() == good.digest()
