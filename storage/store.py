@@ -7,6 +7,7 @@ import json
 import os
 import secrets
 import time
+from dataclasses import replace
 from pathlib import Path
 from typing import Any
 
@@ -28,7 +29,17 @@ from storage.clock import hlc_receive, hlc_tick, uuid7
 from storage.db import PROJECTIONS, SCHEMA_VERSION, SET_ENTITIES, connect, transaction
 from storage.files import write_atomic
 from storage.identity import DEMO_ORIGIN
-from storage.oplog import IntegrityError, Op, OpKind, all_ops, apply_op, canonical, insert_op, read_stamp
+from storage.oplog import (
+    OP_KEYS,
+    IntegrityError,
+    Op,
+    OpKind,
+    all_ops,
+    apply_op,
+    canonical,
+    insert_op,
+    read_stamp,
+)
 from storage.stamps import utc_stamp
 
 BEAM_FIELDS = tuple(Beam.model_fields)
@@ -206,15 +217,21 @@ class Store:
             self._set_meta("seq", str(seq))
             self._set_meta("restored_at_seq", str(seq))
 
-    def renumber_own_ops(self, first: int, past: int) -> None:
-        """Move this device's ops from seq ``first`` on to just past ``past`` (inside the caller's transaction).
+    def renumber_own_ops(self, first: int, past: int, newest_hlc: int) -> None:
+        """Move this device's ops from seq ``first`` on to just past ``past``, with fresh stamps (inside a transaction).
 
         A device restored from a backup that saved before hearing back from its peers reused seqs it
         had already sent with other content. Those new ops (never sent: a peer would have refused
-        them) keep their content and stamps and take fresh seqs, so both lines of work survive.
+        them) keep their content and take fresh seqs, so both lines of work survive. They also take
+        fresh stamps, past ``newest_hlc`` (the newest stamp among the ops coming back) and every stamp
+        this device has seen: the restored clock may have given a new save the very stamp of a lost
+        one, and then which value a replica keeps would depend on arrival order. Nobody holds the old
+        stamps, since the ops were never sent. Their signatures were made for the old seq and stamp:
+        dropped, and made again when they are next sent.
         """
         shift = past - first + 1
         me = self.device_id
+        self.db.execute("DELETE FROM op_sig WHERE origin=? AND seq>=?", [me, first])
         sql = "SELECT seq FROM op WHERE origin=? AND seq>=? ORDER BY seq DESC"
         moved = self.db.execute(sql, [me, first]).fetchall()
         for (seq,) in moved:
@@ -228,6 +245,37 @@ class Store:
         self.db.execute("INSERT OR REPLACE INTO seen VALUES (?, ?)", [me, first - 1])
         self._set_meta("seq", str(max(int(self._meta()["seq"]) + shift, past)))
         self._set_meta("restored_at_seq", str(first - 1))
+        self.observe_hlc(newest_hlc)
+        self._restamp_own_ops(first + shift)
+
+    def _restamp_own_ops(self, first: int) -> None:
+        """Give this device's ops from seq ``first`` on fresh stamps, in seq order, and merge them again with them.
+
+        Each new stamp is past every stamp held, so each op now sets every field it names, as a replay
+        of the log gives (a status event carries its op's stamp: written again). A later op's base that
+        named an earlier one's old stamp names its new one, and a recorded conflict that one of them
+        lost, it now wins.
+        """
+        me = self.device_id
+        rows = self.db.execute(
+            f"SELECT {', '.join(OP_KEYS)} FROM op WHERE origin=? AND seq>=? ORDER BY seq", [me, first]
+        )
+        renewed: dict[int, int] = {}  # old stamp -> new stamp, of this device's moved ops
+        for row in rows.fetchall():
+            held = Op.from_row(dict(zip(OP_KEYS, row, strict=True)))
+            renewed[held.hlc] = self._next_hlc()
+            base = {f: [renewed[b[0]], me] if b[1] == me and b[0] in renewed else b for f, b in held.base.items()}
+            op = replace(held, hlc=renewed[held.hlc], base=base)
+            self.db.execute("UPDATE op SET hlc=?, base=? WHERE origin=? AND seq=?", [op.hlc, op.base_text, me, op.seq])
+            if op.kind == OpKind.STATUS:
+                self.db.execute("DELETE FROM deficiency_event WHERE id=?", [f"{me}:{op.seq}"])
+            apply_op(self.db, op, record_conflicts=False)
+        self.db.execute(
+            "UPDATE conflict SET winner_origin=loser_origin, winner_seq=loser_seq, winner_value=loser_value, "
+            "loser_origin=winner_origin, loser_seq=winner_seq, loser_value=winner_value "
+            "WHERE loser_origin=:me AND loser_seq>=:first AND NOT (winner_origin=:me AND winner_seq>=:first)",
+            {"me": me, "first": first},
+        )
 
     def held_seq(self, origin: str) -> int:
         """The highest seq of ``origin`` in this database's log (0 if none)."""
