@@ -95,8 +95,15 @@ def _relayable(store: Store, ops: list[Op], own: tuple[str, ...]) -> list[Op]:
 
 
 def record_push_answer(store: Store, answer: dict[str, Any], pushed: list[tuple[Op, str]], now_ms: int) -> None:
-    """Move the hub cursor to what the hub holds and keep its refusals for the Sync screen."""
+    """Move the hub cursor to what the hub holds and keep its refusals for the Sync screen.
+
+    This device's own ops in the push have left it (the hub holds each, merged or refused): the sent
+    mark says so, as an export's does, so a restore from a backup never reuses their seqs.
+    """
     _ensure(store)
+    own = [op.seq for op, _ in pushed if op.origin == store.device_id]
+    if own:
+        store.record_sent(HUB_PEER, max(own))
     with transaction(store.db):
         for origin, seq in answer["seen"].items():
             store.db.execute("INSERT OR REPLACE INTO peer_cursor VALUES (?, ?, ?)", [HUB_PEER, origin, int(seq)])
@@ -137,6 +144,11 @@ def apply_page(store: Store, page: dict[str, Any], now_ms: int = 0) -> int:
     reason, never applied; the rest of the page is. An op written by a newer record schema than this
     app knows stops the page there: the ops before it are applied and the cursor stays before it, so
     it and everything after it arrive once the app is updated (``first_newer_schema``).
+
+    This device's own ops coming back as the hub holds them, with other content than held here, mean
+    it was restored from a backup and saved before hearing back: as a bundle import does, the hub's
+    copies (the ones that were sent) are kept under their seqs and the saves made since the restore
+    move past them with fresh stamps (``Store.renumber_own_ops``), to be sent at the next push.
     """
     _ensure(store)
     ops = [Op.from_row(o["op"]) for o in page["ops"]]
@@ -152,10 +164,19 @@ def apply_page(store: Store, page: dict[str, Any], now_ms: int = 0) -> int:
     signed = [(op, str(o["sig"])) for op, o in zip(ops, page["ops"], strict=True)]
     good, bad = _verified(store, signed)
     try:
-        return _apply_checked(store, good, bad, page, now_ms)
+        with transaction(store.db):
+            own = [op.seq for op, _ in good if op.origin == store.device_id]
+            if own:
+                _renumber_restored(store, [op for op, _ in good], max(*own, int(page["seen"].get(store.device_id, 0))))
+            new = _merge_verified(store, good)
+            if own:
+                store.resume_seq(max(own))  # its own ops came back: its counter goes past them
+            _set_aside(store, bad, now_ms)
+            _move_cursors(store, page)
     except IntegrityError as exc:
         msg = f"a change from the office contradicts a record held here, nothing applied: {exc}"
         raise PageRefused(msg) from exc
+    return new
 
 
 def _verified(store: Store, signed: list[tuple[Op, str]]) -> tuple[list[tuple[Op, str]], list[tuple[Op, str, str]]]:
@@ -180,37 +201,54 @@ def _verified(store: Store, signed: list[tuple[Op, str]]) -> tuple[list[tuple[Op
     return good, bad
 
 
-def _apply_checked(
-    store: Store, good: list[tuple[Op, str]], bad: list[tuple[Op, str, str]], page: dict[str, Any], now_ms: int
-) -> int:
+def _renumber_restored(store: Store, ops: list[Op], past: int) -> None:
+    """Move this device's saves made since a restore past ``past`` if the page's own ops differ from those held.
+
+    ``past``: the last of its own ops the page brings back, or of the hub's unbroken run of them if later
+    (``Store.renumber_own_ops``; inside the caller's transaction, before the page is merged).
+    """
+    first = store.first_rewritten_seq(ops)
+    if first is not None:
+        store.renumber_own_ops(first, past, max(op.hlc for op in ops))
+
+
+def _merge_verified(store: Store, good: list[tuple[Op, str]]) -> int:
+    """Merge checked ops and keep their signatures, inside the caller's transaction; the number of new ops."""
+    batch = ProjectionBatch(store.db)
+    batch.prefetch([op for op, _ in good])
+    newest = 0
     new = 0
-    with transaction(store.db):
-        batch = ProjectionBatch(store.db)
-        batch.prefetch([op for op, _ in good])
-        newest = 0
-        for op, _ in good:
-            if insert_op(store.db, op, batch):
-                apply_op(store.db, op, batch=batch)
-                newest = max(newest, op.hlc)
-                new += 1
-        batch.flush()
-        if new:
-            store.observe_hlc(newest)
-        store.db.conn.executemany(
-            "INSERT OR IGNORE INTO op_sig VALUES (?, ?, ?)", [(op.origin, op.seq, sig) for op, sig in good]
-        )
-        store.db.conn.executemany(
-            "INSERT OR REPLACE INTO pull_quarantine VALUES (?, ?, ?, ?, ?, ?)",
-            [(op.origin, op.seq, canonical(op.row()), sig, why, now_ms) for op, sig, why in bad],
-        )
-        store.db.execute("INSERT OR REPLACE INTO device_key VALUES ('hub_cursor', ?)", [str(int(page["next_cursor"]))])
-        for origin, seq in page["seen"].items():  # what the hub holds need not be sent back to it
-            store.db.execute(
-                "INSERT INTO peer_cursor VALUES (?, ?, ?) ON CONFLICT (peer, origin) DO UPDATE SET seq = "
-                "max(seq, excluded.seq)",
-                [HUB_PEER, origin, int(seq)],
-            )
+    for op, _ in good:
+        if insert_op(store.db, op, batch):
+            apply_op(store.db, op, batch=batch)
+            newest = max(newest, op.hlc)
+            new += 1
+    batch.flush()
+    if new:
+        store.observe_hlc(newest)
+    store.db.conn.executemany(
+        "INSERT OR IGNORE INTO op_sig VALUES (?, ?, ?)", [(op.origin, op.seq, sig) for op, sig in good]
+    )
     return new
+
+
+def _set_aside(store: Store, bad: list[tuple[Op, str, str]], now_ms: int) -> None:
+    """Keep pulled ops that did not check out in ``pull_quarantine``, with the reason."""
+    store.db.conn.executemany(
+        "INSERT OR REPLACE INTO pull_quarantine VALUES (?, ?, ?, ?, ?, ?)",
+        [(op.origin, op.seq, canonical(op.row()), sig, why, now_ms) for op, sig, why in bad],
+    )
+
+
+def _move_cursors(store: Store, page: dict[str, Any]) -> None:
+    """The page is done: the next pull starts after it, and what the hub holds need not be pushed to it."""
+    store.db.execute("INSERT OR REPLACE INTO device_key VALUES ('hub_cursor', ?)", [str(int(page["next_cursor"]))])
+    for origin, seq in page["seen"].items():
+        store.db.execute(
+            "INSERT INTO peer_cursor VALUES (?, ?, ?) ON CONFLICT (peer, origin) DO UPDATE SET seq = "
+            "max(seq, excluded.seq)",
+            [HUB_PEER, origin, int(seq)],
+        )
 
 
 def pull_quarantine(store: Store) -> list[dict[str, Any]]:

@@ -37,6 +37,7 @@ from storage.oplog import (
     all_ops,
     apply_op,
     canonical,
+    differs_from_held,
     insert_op,
     read_stamp,
 )
@@ -164,19 +165,23 @@ class Store:
         """
         return None if self.path == ":memory:" else Path(self.path).with_name(Path(self.path).name + ".sent")
 
-    def record_sent(self, peer: str | None) -> None:
-        """Note (fsynced, atomically) that every own op up to the current seq has left this device."""
+    def record_sent(self, peer: str | None, seq: int | None = None) -> None:
+        """Note (fsynced, atomically) that this device's own ops up to ``seq`` have left it.
+
+        ``seq``: the highest own seq sent (default: the current counter, as an export sends every own op).
+        """
         path = self.sent_mark_path
         if path is None:
             return
         mark = self._read_mark()
         meta = self._meta()
+        sent = int(meta["seq"]) if seq is None else seq
         peers = dict(mark.get("peers", {}))
         if peer:
-            peers[peer] = int(meta["seq"])
+            peers[peer] = max(sent, int(peers.get(peer, 0)))
         mark = {
             "device_id": self.device_id,
-            "seq": max(int(meta["seq"]), int(mark.get("seq", 0))),
+            "seq": max(sent, int(mark.get("seq", 0))),
             "hlc": max(int(meta["hlc"]), int(mark.get("hlc", 0))),
             "peers": peers,
         }
@@ -226,12 +231,14 @@ class Store:
         fresh stamps, past ``newest_hlc`` (the newest stamp among the ops coming back) and every stamp
         this device has seen: the restored clock may have given a new save the very stamp of a lost
         one, and then which value a replica keeps would depend on arrival order. Nobody holds the old
-        stamps, since the ops were never sent. Their signatures were made for the old seq and stamp:
-        dropped, and made again when they are next sent.
+        stamps, since the ops were never sent. Their signatures and any refusal the hub gave them were
+        made for the old seq: dropped, and made again when they are next sent.
         """
         shift = past - first + 1
         me = self.device_id
-        self.db.execute("DELETE FROM op_sig WHERE origin=? AND seq>=?", [me, first])
+        for table in ("op_sig", "hub_rejection"):
+            if self.db[table].exists():
+                self.db.execute(f"DELETE FROM {table} WHERE origin=? AND seq>=?", [me, first])
         sql = "SELECT seq FROM op WHERE origin=? AND seq>=? ORDER BY seq DESC"
         moved = self.db.execute(sql, [me, first]).fetchall()
         for (seq,) in moved:
@@ -276,6 +283,15 @@ class Store:
             "WHERE loser_origin=:me AND loser_seq>=:first AND NOT (winner_origin=:me AND winner_seq>=:first)",
             {"me": me, "first": first},
         )
+
+    def first_rewritten_seq(self, ops: list[Op]) -> int | None:
+        """The first seq at which this device's own ops, as they come back from a peer, differ from those held here.
+
+        None when they agree. A difference means this device was restored from a backup and saved again
+        before hearing back: its new saves reused seqs that left it before with other content.
+        """
+        mine = (op for op in ops if op.origin == self.device_id)
+        return min((op.seq for op in mine if differs_from_held(self.db, op)), default=None)
 
     def held_seq(self, origin: str) -> int:
         """The highest seq of ``origin`` in this database's log (0 if none)."""
