@@ -170,7 +170,7 @@ def apply_page(store: Store, page: dict[str, Any], now_ms: int = 0) -> int:
                 _renumber_restored(store, [op for op, _ in good], max(*own, int(page["seen"].get(store.device_id, 0))))
             new = _merge_verified(store, good)
             if own:
-                store.resume_seq(max(own))  # its own ops came back: its counter goes past them
+                store.resume_seq(max(own))  # its own ops came back: its counters go past them and their numbers
             _set_aside(store, bad, now_ms)
             _move_cursors(store, page)
     except IntegrityError as exc:

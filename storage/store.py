@@ -5,6 +5,7 @@ from __future__ import annotations
 import hashlib
 import json
 import os
+import re
 import secrets
 import time
 from dataclasses import replace
@@ -46,6 +47,12 @@ from storage.stamps import utc_stamp
 BEAM_FIELDS = tuple(Beam.model_fields)
 DEMO_FIRM_KEY = "bracewalk-demo-firm-key-not-for-production"  # DEMO ONLY: the demo database, never a firm's
 SITES_NAMED = 10  # sites named in the message when a name matches none or several
+# The numbers a device gives (counter name -> the projection holding them, a LIKE and a full pattern of this
+# device's numbers, {code} its code): deficiencies 'D-<code>-<n>', notices '<project>-FR-<code>-<n>'
+NUMBERED = {
+    "deficiency": ("deficiency", "D-{code}-%", r"D-{code}-(\d+)"),
+    "notice": ("issued_notice", "%-FR-{code}-%", r".+-FR-{code}-(\d+)"),
+}
 
 
 def projection_digest(db: Any, leave_out_origin: str | None = None) -> str:
@@ -166,9 +173,10 @@ class Store:
         return None if self.path == ":memory:" else Path(self.path).with_name(Path(self.path).name + ".sent")
 
     def record_sent(self, peer: str | None, seq: int | None = None) -> None:
-        """Note (fsynced, atomically) that this device's own ops up to ``seq`` have left it.
+        """Note (fsynced, atomically) that this device's own ops up to ``seq`` have left it, and its numbers so far.
 
         ``seq``: the highest own seq sent (default: the current counter, as an export sends every own op).
+        The deficiency and notice counters go in the mark too, so a restore never hands out a number again.
         """
         path = self.sent_mark_path
         if path is None:
@@ -179,11 +187,14 @@ class Store:
         peers = dict(mark.get("peers", {}))
         if peer:
             peers[peer] = max(sent, int(peers.get(peer, 0)))
+        counters = {name: int(meta[f"counter_{name}"]) for name in NUMBERED}
+        held = dict(mark.get("counters", {}))
         mark = {
             "device_id": self.device_id,
             "seq": max(sent, int(mark.get("seq", 0))),
             "hlc": max(int(meta["hlc"]), int(mark.get("hlc", 0))),
             "peers": peers,
+            "counters": {name: max(n, int(held.get(name, 0))) for name, n in counters.items()},
         }
         write_atomic(path, json.dumps(mark).encode())
 
@@ -205,6 +216,9 @@ class Store:
         with transaction(self.db):
             self.resume_seq(int(mark["seq"]))
             self._set_meta("hlc", str(max(int(self._meta()["hlc"]), int(mark.get("hlc", 0)))))
+            for name, n in dict(mark.get("counters", {})).items():
+                if name in NUMBERED and int(n) > int(self._meta()[f"counter_{name}"]):
+                    self._set_meta(f"counter_{name}", str(int(n)))
             for peer, seq in dict(mark.get("peers", {})).items():
                 row = self.db.execute(
                     "SELECT seq FROM peer_cursor WHERE peer=? AND origin=?", [peer, self.device_id]
@@ -213,14 +227,19 @@ class Store:
                     self.db.execute("INSERT OR REPLACE INTO peer_cursor VALUES (?, ?, ?)", [peer, self.device_id, seq])
 
     def resume_seq(self, seq: int) -> None:
-        """Continue this device's op counter past ``seq`` (inside the caller's transaction).
+        """Continue this device's op counter past ``seq`` and its numbers past those held (inside a transaction).
 
-        Used when the device's own ops come back beyond its counter: it was restored from a backup,
-        and a new op must never reuse a seq already sent.
+        Used when the device's own ops come back: beyond its counter, it was restored from a backup, and a
+        new op must never reuse a seq already sent; and a deficiency or notice number it gave before the
+        restore is held again, so it is not given twice.
         """
         if seq > int(self._meta()["seq"]):
             self._set_meta("seq", str(seq))
             self._set_meta("restored_at_seq", str(seq))
+        for name in NUMBERED:
+            held = self._highest_held_number(name)
+            if held > int(self._meta()[f"counter_{name}"]):
+                self._set_meta(f"counter_{name}", str(held))
 
     def renumber_own_ops(self, first: int, past: int, newest_hlc: int) -> None:
         """Move this device's ops from seq ``first`` on to just past ``past``, with fresh stamps (inside a transaction).
@@ -371,9 +390,29 @@ class Store:
         return bool(row and row[0])
 
     def _counter(self, name: str) -> int:
-        value = int(self._meta()[f"counter_{name}"]) + 1
+        """Allocate the next number of ``name`` (a key of ``NUMBERED``), inside the caller's transaction."""
+        value = self._next_number(name)
         self._set_meta(f"counter_{name}", str(value))
         return value
+
+    def _next_number(self, name: str) -> int:
+        """The next number of ``name``: past the counter and past every number of this device's prefix held."""
+        return max(int(self._meta()[f"counter_{name}"]), self._highest_held_number(name)) + 1
+
+    def _highest_held_number(self, name: str) -> int:
+        """The highest number of ``name`` with this device's code held in the projections (0 if none).
+
+        A restored device gets its earlier numbers back with its own records; they are never given again.
+        """
+        table, like, form = NUMBERED[name]
+        code = self.device_code
+        pattern = re.compile(form.format(code=re.escape(code)))
+        rows = self.db.execute(
+            f"SELECT json_extract(data, '$.number') FROM {table} WHERE json_extract(data, '$.number') LIKE ?",
+            [like.format(code=code)],
+        )
+        numbers = (pattern.fullmatch(str(number)) for (number,) in rows.fetchall())
+        return max((int(m.group(1)) for m in numbers if m), default=0)
 
     # -- reading -----------------------------------------------------------------------------
     def _get(self, table: str, record_id: str) -> dict[str, Any] | None:
@@ -745,7 +784,7 @@ class Store:
     # -- notices --------------------------------------------------------------------------------
     def next_notice_number(self, site: Site) -> str:
         """A notice number unique across devices offline: <project>-FR-<device code>-<n>."""
-        n = int(self._meta()["counter_notice"]) + 1
+        n = self._next_number("notice")
         return f"{site.project_number or 'P'}-FR-{self.device_code}-{n:03d}"
 
     def issue_notice(

@@ -85,6 +85,13 @@ def test_restored_tablet_that_hears_back_first_saves_under_a_new_seq(served, tmp
     _in_step(served, tablet)
 
 
+def test_restored_tablet_numbers_past_what_comes_back_from_the_hub(served, tmp_path):
+    tablet, site, beam, d1 = _tablet_with_lost_work(served, tmp_path, keep_mark=False)
+    assert sync(tablet).in_step
+    d2 = tablet.raise_deficiency(site.id, beam, "y", "immediate", "Grid C", "second", "r", "a")
+    assert (d1.number, d2.number) == (f"D-{tablet.device_code}-001", f"D-{tablet.device_code}-002")
+
+
 def test_restored_saves_some_of_which_the_hub_took_converge(served, tmp_path):
     """More saves after the restore than were lost: the hub refuses those under its held seqs and takes the rest.
 

@@ -2,14 +2,16 @@
 
 The restored tablet's saves made before it hears back reuse seqs its lost work was sent under; the
 import renumbers them. These tests check what else must hold: a renumbered save takes a fresh stamp
-(its old one may be the very stamp of a lost save: then the winner depended on arrival order), and the
-projection stays what a replay of the log gives.
+(its old one may be the very stamp of a lost save: then the winner depended on arrival order), the
+projection stays what a replay of the log gives, and no deficiency or notice number is given twice.
 """
 
 import json
 import shutil
 import time
 from pathlib import Path
+
+import pytest
 
 from storage import Store, identity
 from storage.bundle import export_bundle, import_bundle
@@ -160,3 +162,51 @@ def test_a_renumbered_status_move_keeps_its_event_in_step_with_the_log(tmp_path)
     assert office.deficiency(d.id).stage.name == tablet.deficiency(d.id).stage.name == "corrected"
     assert office.beam(beam).b_mm == 175
     _in_step(office, tablet)
+
+
+@pytest.mark.parametrize("keep_mark", [True, False], ids=["mark_kept", "mark_lost"])
+def test_restored_tablet_never_reuses_a_deficiency_or_notice_number(tmp_path, keep_mark):
+    """Its numbers come back with its records (import), and with the mark when it survived."""
+    office, tablet = Store(tmp_path / "office.db"), _tablet(tmp_path / "tablet.db")
+    site = tablet.create_site(name="Numbers", project_number="P-7")
+    beam = tablet.save_beam(site.id, glulam())
+    _sync(tablet, office, tmp_path / "0.zip", peer=office.device_id)
+    _backup(tablet, tmp_path / "backup.db")
+    d1 = tablet.raise_deficiency(site.id, beam, "x", "immediate", "Grid B", "first", "r", "a")
+    n1 = tablet.next_notice_number(tablet.site(site.id))
+    tablet.issue_notice(site.id, n1, b"%PDF-1 first", [d1.id], "A. Rev", "2026-12-01T10:00:00Z")
+    _sync(tablet, office, tmp_path / "1.zip", peer=office.device_id)
+    tablet = _restore(tablet, tmp_path / "backup.db", keep_mark=keep_mark)
+    _sync(office, tablet, tmp_path / "2.zip")  # it hears back from the office
+    d2 = tablet.raise_deficiency(site.id, beam, "y", "immediate", "Grid C", "second", "r", "a")
+    n2 = tablet.next_notice_number(tablet.site(site.id))
+    assert (d1.number, n1) == (f"D-{tablet.device_code}-001", f"P-7-FR-{tablet.device_code}-001")
+    assert (d2.number, n2) == (f"D-{tablet.device_code}-002", f"P-7-FR-{tablet.device_code}-002")
+
+
+def test_a_tablet_restored_with_its_mark_numbers_on_before_hearing_back(tmp_path):
+    """The mark carries the numbers given so far: the first deficiency after the restore takes the next one."""
+    office, tablet = Store(tmp_path / "office.db"), _tablet(tmp_path / "tablet.db")
+    site = tablet.create_site(name="Numbers", project_number="P-7")
+    beam = tablet.save_beam(site.id, glulam())
+    _backup(tablet, tmp_path / "backup.db")
+    d1 = tablet.raise_deficiency(site.id, beam, "x", "immediate", "Grid B", "first", "r", "a")
+    tablet.issue_notice(site.id, tablet.next_notice_number(site), b"%PDF-1 first", [d1.id], "A. Rev", "2026-12-01")
+    _sync(tablet, office, tmp_path / "1.zip", peer=office.device_id)  # the mark records what left
+    tablet = _restore(tablet, tmp_path / "backup.db", keep_mark=True)
+    d2 = tablet.raise_deficiency(site.id, beam, "y", "immediate", "Grid C", "second", "r", "a")
+    assert d2.number == f"D-{tablet.device_code}-002"
+    assert tablet.next_notice_number(site) == f"P-7-FR-{tablet.device_code}-002"
+
+
+def test_a_number_held_here_is_never_given_again(tmp_path):
+    """Allocation itself goes past every number of this device's code held, whatever the counter says."""
+    tablet = _tablet(tmp_path / "tablet.db")
+    site = tablet.create_site(name="Numbers", project_number="P-7")
+    beam = tablet.save_beam(site.id, glulam())
+    tablet.raise_deficiency(site.id, beam, "x", "immediate", "Grid B", "first", "r", "a")
+    tablet.issue_notice(site.id, tablet.next_notice_number(site), b"%PDF-1 first", [], "A. Rev", "2026-12-01")
+    tablet.db.execute("UPDATE meta SET value='0' WHERE key IN ('counter_deficiency', 'counter_notice')")
+    d = tablet.raise_deficiency(site.id, beam, "y", "immediate", "Grid C", "second", "r", "a")
+    assert d.number == f"D-{tablet.device_code}-002"
+    assert tablet.next_notice_number(site) == f"P-7-FR-{tablet.device_code}-002"
