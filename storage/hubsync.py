@@ -10,11 +10,20 @@ from __future__ import annotations
 import hashlib
 import json
 from dataclasses import dataclass
+from enum import StrEnum
 from typing import Any
 
 from storage import identity
 from storage.db import SCHEMA_VERSION, transaction
-from storage.identity import DEMO_ORIGIN, Enrolment, SignatureError, ensure_tables, op_signatures, save_enrolment
+from storage.identity import (
+    DEMO_ORIGIN,
+    Enrolment,
+    SignatureError,
+    UnknownDevice,
+    ensure_tables,
+    op_signatures,
+    save_enrolment,
+)
 from storage.oplog import OP_KEYS, IntegrityError, Op, ProjectionBatch, apply_op, canonical, insert_op
 from storage.store import Store
 from storage.validate import RecordInvalid, check_op_record
@@ -25,7 +34,18 @@ HUB_TABLES = (
     "at_ms INTEGER NOT NULL, PRIMARY KEY (origin, seq))",
     "CREATE TABLE IF NOT EXISTS hub_sync_log (id INTEGER PRIMARY KEY AUTOINCREMENT, at_ms INTEGER NOT NULL, "
     "outcome TEXT NOT NULL, detail TEXT NOT NULL)",
+    # why each op in pull_quarantine was set aside (a SetAside value); none for ops set aside before it was kept
+    "CREATE TABLE IF NOT EXISTS pull_quarantine_cause (origin TEXT NOT NULL, seq INTEGER NOT NULL, "
+    "cause TEXT NOT NULL, PRIMARY KEY (origin, seq))",
 )
+
+
+class SetAside(StrEnum):
+    """Why a pulled op was set aside in ``pull_quarantine`` instead of applied."""
+
+    UNLISTED_DEVICE = "unlisted_device"  # no key for its device in the hub's list as fetched: tried again at a sync
+    SIGNATURE = "signature"  # its signature does not verify by its device's key (or no key will ever be had)
+    RECORD = "record"  # its record fails the checks of a local save
 
 
 class PageRefused(ValueError):
@@ -179,23 +199,77 @@ def apply_page(store: Store, page: dict[str, Any], now_ms: int = 0) -> int:
     return new
 
 
-def _verified(store: Store, signed: list[tuple[Op, str]]) -> tuple[list[tuple[Op, str]], list[tuple[Op, str, str]]]:
+def unlisted_origins(store: Store, page: dict[str, Any]) -> set[str]:
+    """Devices with ops in a pulled page that the hub's device list, as this tablet last fetched it, did not name.
+
+    Such a device was enrolled after the list was fetched (during this sync, say): fetch it again
+    before applying the page. The demo's origin is never listed (only a demo database trusts it).
+    """
+    out: set[str] = set()
+    for origin in {str(o["op"]["origin"]) for o in page["ops"]} - {DEMO_ORIGIN}:
+        try:
+            identity.trusted_key(store.db, origin, allow_revoked=True)
+        except UnknownDevice:
+            out.add(origin)
+    return out
+
+
+def retry_set_aside(store: Store) -> list[Op]:
+    """Apply the pulled ops set aside because the hub's list did not name their device, if they now check out.
+
+    Call once the device list has been fetched again. Each such op (and any set aside before the cause
+    was kept) that now verifies by its origin's key and passes the record checks is applied and leaves
+    the quarantine; one that still does not stays, with its reason now. Returns the ops applied.
+    """
+    _ensure(store)
+    rows = store.db.execute(
+        "SELECT q.op, q.sig FROM pull_quarantine q LEFT JOIN pull_quarantine_cause c "
+        "ON c.origin = q.origin AND c.seq = q.seq WHERE c.cause IS NULL OR c.cause = ? ORDER BY q.origin, q.seq",
+        [SetAside.UNLISTED_DEVICE.value],
+    ).fetchall()
+    if not rows:
+        return []
+    good, bad = _verified(store, [(Op.from_row(json.loads(text)), str(sig)) for text, sig in rows])
+    try:
+        with transaction(store.db):
+            _merge_verified(store, good)
+            for op, _, why, cause in bad:
+                store.db.execute(
+                    "UPDATE pull_quarantine SET reason=? WHERE origin=? AND seq=?", [why, op.origin, op.seq]
+                )
+                store.db.execute(
+                    "INSERT OR REPLACE INTO pull_quarantine_cause VALUES (?, ?, ?)", [op.origin, op.seq, cause.value]
+                )
+    except IntegrityError as exc:
+        msg = f"a change from the office set aside earlier contradicts a record held here, nothing applied: {exc}"
+        raise PageRefused(msg) from exc
+    return [op for op, _ in good]
+
+
+_Bad = tuple[Op, str, str, SetAside]  # an op set aside, its signature, the reason in words, and why as data
+
+
+def _verified(store: Store, signed: list[tuple[Op, str]]) -> tuple[list[tuple[Op, str]], list[_Bad]]:
     """Split pulled ops into those that verify by their origin's key with a valid record, and those (why) not."""
     keys: dict[str, Any] = {}
     good: list[tuple[Op, str]] = []
-    bad: list[tuple[Op, str, str]] = []
+    bad: list[_Bad] = []
     for op, sig in signed:
         try:
             if op.origin not in keys:
                 keys[op.origin] = identity.trusted_key(store.db, op.origin, allow_revoked=True)
             identity.verify_op(keys[op.origin], op, sig)
+        except UnknownDevice as exc:
+            cause = SetAside.SIGNATURE if op.origin == DEMO_ORIGIN else SetAside.UNLISTED_DEVICE
+            bad.append((op, sig, str(exc), cause))
+            continue
         except SignatureError as exc:
-            bad.append((op, sig, str(exc)))
+            bad.append((op, sig, str(exc), SetAside.SIGNATURE))
             continue
         try:
             check_op_record(op)  # the hub checks too; a tablet trusts no single point for what it applies
         except RecordInvalid as exc:
-            bad.append((op, sig, f"its record fails the checks of a local save: {exc}"))
+            bad.append((op, sig, f"its record fails the checks of a local save: {exc}", SetAside.RECORD))
             continue
         good.append((op, sig))
     return good, bad
@@ -213,7 +287,10 @@ def _renumber_restored(store: Store, ops: list[Op], past: int) -> None:
 
 
 def _merge_verified(store: Store, good: list[tuple[Op, str]]) -> int:
-    """Merge checked ops and keep their signatures, inside the caller's transaction; the number of new ops."""
+    """Merge checked ops and keep their signatures, inside the caller's transaction; the number of new ops.
+
+    An op merged here leaves the quarantine if it was set aside before (pulled again, or retried).
+    """
     batch = ProjectionBatch(store.db)
     batch.prefetch([op for op, _ in good])
     newest = 0
@@ -226,17 +303,24 @@ def _merge_verified(store: Store, good: list[tuple[Op, str]]) -> int:
     batch.flush()
     if new:
         store.observe_hlc(newest)
+    keys = [(op.origin, op.seq) for op, _ in good]
     store.db.conn.executemany(
-        "INSERT OR IGNORE INTO op_sig VALUES (?, ?, ?)", [(op.origin, op.seq, sig) for op, sig in good]
+        "INSERT OR IGNORE INTO op_sig VALUES (?, ?, ?)", [(*k, sig) for k, (_, sig) in zip(keys, good, strict=True)]
     )
+    store.db.conn.executemany("DELETE FROM pull_quarantine WHERE origin=? AND seq=?", keys)
+    store.db.conn.executemany("DELETE FROM pull_quarantine_cause WHERE origin=? AND seq=?", keys)
     return new
 
 
-def _set_aside(store: Store, bad: list[tuple[Op, str, str]], now_ms: int) -> None:
-    """Keep pulled ops that did not check out in ``pull_quarantine``, with the reason."""
+def _set_aside(store: Store, bad: list[_Bad], now_ms: int) -> None:
+    """Keep pulled ops that did not check out in ``pull_quarantine``, with the reason and its cause."""
     store.db.conn.executemany(
         "INSERT OR REPLACE INTO pull_quarantine VALUES (?, ?, ?, ?, ?, ?)",
-        [(op.origin, op.seq, canonical(op.row()), sig, why, now_ms) for op, sig, why in bad],
+        [(op.origin, op.seq, canonical(op.row()), sig, why, now_ms) for op, sig, why, _ in bad],
+    )
+    store.db.conn.executemany(
+        "INSERT OR REPLACE INTO pull_quarantine_cause VALUES (?, ?, ?)",
+        [(op.origin, op.seq, cause.value) for op, _, _, cause in bad],
     )
 
 
