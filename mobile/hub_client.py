@@ -30,6 +30,8 @@ from storage.hubsync import (
     log_sync,
     outgoing,
     record_push_answer,
+    retry_set_aside,
+    unlisted_origins,
 )
 from storage.identity import Enrolment, b64, device_key, enrolment, public_text, sign_request, trust_devices
 
@@ -195,25 +197,49 @@ def _sync(
     if "hub_seq" in hello and int(hello["hub_seq"]) < hub_cursor(store):
         _forget_hub_cursors(store)  # the hub was restored from a backup older than this tablet's last sync
     learn_devices(store, auth, clock())
+    _retry_set_aside(store, auth, result)
     if int(hello.get("schema_max", SCHEMA_VERSION)) < SCHEMA_VERSION:
         # an older hub would not know this app's fields: keep every change here until the office updates it
         result.hub_schema_older = int(hello["schema_max"])
     else:
         _push(store, auth, result, tell, clock, include_demo)
+    _pull(store, auth, result, tell, clock)
+    tell(1.0, "in step with the office")
+
+
+def _pull(store: Store, auth: Enrolment, result: SyncResult, tell: Progress, clock: Callable[[], int]) -> None:
+    """Apply pages until the hub has no more (or holds changes of a newer app), fetching their blobs.
+
+    A page with ops of a device the device list did not name (enrolled since it was fetched, during
+    this sync) has the list fetched once more before it is applied, so they are not set aside.
+    """
     more = True
+    relisted = False
     while more:
         cursor = hub_cursor(store)
         tell(0.5, f"receiving changes after {cursor}")
         page = json.loads(request(auth.hub_url, "GET", f"/v1/pull?cursor={cursor}&limit={PULL_LIMIT}", auth=auth))
+        if not relisted and unlisted_origins(store, page):
+            learn_devices(store, auth, clock())
+            relisted = True
         try:
             result.pulled_new += apply_page(store, page, clock())
         except PageRefused as exc:
             raise HubError(str(exc), 409) from exc
         newer = first_newer_schema(page)
-        _fetch_blobs(store, auth, page["ops"][:newer])
+        _fetch_blobs(store, auth, [item["op"]["payload"] for item in page["ops"][:newer]])
         result.newer_waiting = newer is not None
         more = bool(page["more"]) and not result.newer_waiting
-    tell(1.0, "in step with the office")
+
+
+def _retry_set_aside(store: Store, auth: Enrolment, result: SyncResult) -> None:
+    """Apply pulled ops set aside because their device was not listed, now that the list was fetched again."""
+    try:
+        applied = retry_set_aside(store)
+    except PageRefused as exc:
+        raise HubError(str(exc), 409) from exc
+    result.pulled_new += len(applied)
+    _fetch_blobs(store, auth, [op.payload for op in applied])
 
 
 def _push(
@@ -264,10 +290,11 @@ def _send_blobs(store: Store, auth: Enrolment, ops: list[Any]) -> int:
     return len(missing)
 
 
-def _fetch_blobs(store: Store, auth: Enrolment, ops: list[dict[str, Any]]) -> None:
-    for item in ops:
+def _fetch_blobs(store: Store, auth: Enrolment, payloads: list[dict[str, Any]]) -> None:
+    """Fetch the blobs (photos, notices, evidence) these ops' payloads name that this tablet lacks."""
+    for payload in payloads:
         for k in BLOB_KEYS:
-            sha = item["op"]["payload"].get(k)
+            sha = payload.get(k)
             if sha and not store.blob_path(sha).exists():
                 try:
                     data = request(auth.hub_url, "GET", f"/v1/blobs/{sha}", auth=auth)

@@ -1048,9 +1048,7 @@ def _first_batch(store: Store, v: _Verified) -> None:
     """Renumber a restored device's unsent saves and index the blobs (inside the first batch)."""
     if v.rebase_from is not None:
         top = max(op.seq for op in v.ops if op.origin == store.device_id)
-        # the saves that move keep their content but not their seq: signed again when next sent
-        store.db.execute("DELETE FROM op_sig WHERE origin=? AND seq>=?", [store.device_id, v.rebase_from])
-        store.renumber_own_ops(v.rebase_from, top)
+        store.renumber_own_ops(v.rebase_from, top, max(op.hlc for op in v.ops))
     for sha, content in v.blobs.items():
         store.index_blob(sha, len(content), "application/octet-stream")
 

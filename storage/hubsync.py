@@ -10,22 +10,41 @@ from __future__ import annotations
 import hashlib
 import json
 from dataclasses import dataclass
+from enum import StrEnum
 from typing import Any
 
 from storage import identity
 from storage.db import SCHEMA_VERSION, transaction
-from storage.identity import DEMO_ORIGIN, Enrolment, SignatureError, ensure_tables, op_signatures, save_enrolment
+from storage.identity import (
+    DEMO_ORIGIN,
+    Enrolment,
+    SignatureError,
+    UnknownDevice,
+    ensure_tables,
+    op_signatures,
+    save_enrolment,
+)
 from storage.oplog import OP_KEYS, IntegrityError, Op, ProjectionBatch, apply_op, canonical, insert_op
-from storage.store import Store
+from storage.store import HUB_PEER, Store
 from storage.validate import RecordInvalid, check_op_record
 
-HUB_PEER = "hub"
 HUB_TABLES = (
     "CREATE TABLE IF NOT EXISTS hub_rejection (origin TEXT NOT NULL, seq INTEGER NOT NULL, reason TEXT NOT NULL, "
     "at_ms INTEGER NOT NULL, PRIMARY KEY (origin, seq))",
     "CREATE TABLE IF NOT EXISTS hub_sync_log (id INTEGER PRIMARY KEY AUTOINCREMENT, at_ms INTEGER NOT NULL, "
     "outcome TEXT NOT NULL, detail TEXT NOT NULL)",
+    # why each op in pull_quarantine was set aside (a SetAside value); none for ops set aside before it was kept
+    "CREATE TABLE IF NOT EXISTS pull_quarantine_cause (origin TEXT NOT NULL, seq INTEGER NOT NULL, "
+    "cause TEXT NOT NULL, PRIMARY KEY (origin, seq))",
 )
+
+
+class SetAside(StrEnum):
+    """Why a pulled op was set aside in ``pull_quarantine`` instead of applied."""
+
+    UNLISTED_DEVICE = "unlisted_device"  # no key for its device in the hub's list as fetched: tried again at a sync
+    SIGNATURE = "signature"  # its signature does not verify by its device's key (or no key will ever be had)
+    RECORD = "record"  # its record fails the checks of a local save
 
 
 class PageRefused(ValueError):
@@ -95,8 +114,15 @@ def _relayable(store: Store, ops: list[Op], own: tuple[str, ...]) -> list[Op]:
 
 
 def record_push_answer(store: Store, answer: dict[str, Any], pushed: list[tuple[Op, str]], now_ms: int) -> None:
-    """Move the hub cursor to what the hub holds and keep its refusals for the Sync screen."""
+    """Move the hub cursor to what the hub holds and keep its refusals for the Sync screen.
+
+    This device's own ops in the push have left it (the hub holds each, merged or refused): the sent
+    mark says so, as an export's does, so a restore from a backup never reuses their seqs.
+    """
     _ensure(store)
+    own = [op.seq for op, _ in pushed if op.origin == store.device_id]
+    if own:
+        store.record_sent(HUB_PEER, max(own))
     with transaction(store.db):
         for origin, seq in answer["seen"].items():
             store.db.execute("INSERT OR REPLACE INTO peer_cursor VALUES (?, ?, ?)", [HUB_PEER, origin, int(seq)])
@@ -137,6 +163,11 @@ def apply_page(store: Store, page: dict[str, Any], now_ms: int = 0) -> int:
     reason, never applied; the rest of the page is. An op written by a newer record schema than this
     app knows stops the page there: the ops before it are applied and the cursor stays before it, so
     it and everything after it arrive once the app is updated (``first_newer_schema``).
+
+    This device's own ops coming back as the hub holds them, with other content than held here, mean
+    it was restored from a backup and saved before hearing back: as a bundle import does, the hub's
+    copies (the ones that were sent) are kept under their seqs and the saves made since the restore
+    move past them with fresh stamps (``Store.renumber_own_ops``), to be sent at the next push.
     """
     _ensure(store)
     ops = [Op.from_row(o["op"]) for o in page["ops"]]
@@ -152,65 +183,155 @@ def apply_page(store: Store, page: dict[str, Any], now_ms: int = 0) -> int:
     signed = [(op, str(o["sig"])) for op, o in zip(ops, page["ops"], strict=True)]
     good, bad = _verified(store, signed)
     try:
-        return _apply_checked(store, good, bad, page, now_ms)
+        with transaction(store.db):
+            own = [op.seq for op, _ in good if op.origin == store.device_id]
+            if own:
+                _renumber_restored(store, [op for op, _ in good], max(*own, int(page["seen"].get(store.device_id, 0))))
+            new = _merge_verified(store, good)
+            if own:
+                store.resume_seq(max(own))  # its own ops came back: its counters go past them and their numbers
+            _set_aside(store, bad, now_ms)
+            _move_cursors(store, page)
     except IntegrityError as exc:
         msg = f"a change from the office contradicts a record held here, nothing applied: {exc}"
         raise PageRefused(msg) from exc
+    return new
 
 
-def _verified(store: Store, signed: list[tuple[Op, str]]) -> tuple[list[tuple[Op, str]], list[tuple[Op, str, str]]]:
+def unlisted_origins(store: Store, page: dict[str, Any]) -> set[str]:
+    """Devices with ops in a pulled page that the hub's device list, as this tablet last fetched it, did not name.
+
+    Such a device was enrolled after the list was fetched (during this sync, say): fetch it again
+    before applying the page. The demo's origin is never listed (only a demo database trusts it).
+    """
+    out: set[str] = set()
+    for origin in {str(o["op"]["origin"]) for o in page["ops"]} - {DEMO_ORIGIN}:
+        try:
+            identity.trusted_key(store.db, origin, allow_revoked=True)
+        except UnknownDevice:
+            out.add(origin)
+    return out
+
+
+def retry_set_aside(store: Store) -> list[Op]:
+    """Apply the pulled ops set aside because the hub's list did not name their device, if they now check out.
+
+    Call once the device list has been fetched again. Each such op (and any set aside before the cause
+    was kept) that now verifies by its origin's key and passes the record checks is applied and leaves
+    the quarantine; one that still does not stays, with its reason now. Returns the ops applied.
+    """
+    _ensure(store)
+    rows = store.db.execute(
+        "SELECT q.op, q.sig FROM pull_quarantine q LEFT JOIN pull_quarantine_cause c "
+        "ON c.origin = q.origin AND c.seq = q.seq WHERE c.cause IS NULL OR c.cause = ? ORDER BY q.origin, q.seq",
+        [SetAside.UNLISTED_DEVICE.value],
+    ).fetchall()
+    if not rows:
+        return []
+    good, bad = _verified(store, [(Op.from_row(json.loads(text)), str(sig)) for text, sig in rows])
+    try:
+        with transaction(store.db):
+            _merge_verified(store, good)
+            for op, _, why, cause in bad:
+                store.db.execute(
+                    "UPDATE pull_quarantine SET reason=? WHERE origin=? AND seq=?", [why, op.origin, op.seq]
+                )
+                store.db.execute(
+                    "INSERT OR REPLACE INTO pull_quarantine_cause VALUES (?, ?, ?)", [op.origin, op.seq, cause.value]
+                )
+    except IntegrityError as exc:
+        msg = f"a change from the office set aside earlier contradicts a record held here, nothing applied: {exc}"
+        raise PageRefused(msg) from exc
+    return [op for op, _ in good]
+
+
+_Bad = tuple[Op, str, str, SetAside]  # an op set aside, its signature, the reason in words, and why as data
+
+
+def _verified(store: Store, signed: list[tuple[Op, str]]) -> tuple[list[tuple[Op, str]], list[_Bad]]:
     """Split pulled ops into those that verify by their origin's key with a valid record, and those (why) not."""
     keys: dict[str, Any] = {}
     good: list[tuple[Op, str]] = []
-    bad: list[tuple[Op, str, str]] = []
+    bad: list[_Bad] = []
     for op, sig in signed:
         try:
             if op.origin not in keys:
                 keys[op.origin] = identity.trusted_key(store.db, op.origin, allow_revoked=True)
             identity.verify_op(keys[op.origin], op, sig)
+        except UnknownDevice as exc:
+            cause = SetAside.SIGNATURE if op.origin == DEMO_ORIGIN else SetAside.UNLISTED_DEVICE
+            bad.append((op, sig, str(exc), cause))
+            continue
         except SignatureError as exc:
-            bad.append((op, sig, str(exc)))
+            bad.append((op, sig, str(exc), SetAside.SIGNATURE))
             continue
         try:
             check_op_record(op)  # the hub checks too; a tablet trusts no single point for what it applies
         except RecordInvalid as exc:
-            bad.append((op, sig, f"its record fails the checks of a local save: {exc}"))
+            bad.append((op, sig, f"its record fails the checks of a local save: {exc}", SetAside.RECORD))
             continue
         good.append((op, sig))
     return good, bad
 
 
-def _apply_checked(
-    store: Store, good: list[tuple[Op, str]], bad: list[tuple[Op, str, str]], page: dict[str, Any], now_ms: int
-) -> int:
+def _renumber_restored(store: Store, ops: list[Op], past: int) -> None:
+    """Move this device's saves made since a restore past ``past`` if the page's own ops differ from those held.
+
+    ``past``: the last of its own ops the page brings back, or of the hub's unbroken run of them if later
+    (``Store.renumber_own_ops``; inside the caller's transaction, before the page is merged).
+    """
+    first = store.first_rewritten_seq(ops)
+    if first is not None:
+        store.renumber_own_ops(first, past, max(op.hlc for op in ops))
+
+
+def _merge_verified(store: Store, good: list[tuple[Op, str]]) -> int:
+    """Merge checked ops and keep their signatures, inside the caller's transaction; the number of new ops.
+
+    An op merged here leaves the quarantine if it was set aside before (pulled again, or retried).
+    """
+    batch = ProjectionBatch(store.db)
+    batch.prefetch([op for op, _ in good])
+    newest = 0
     new = 0
-    with transaction(store.db):
-        batch = ProjectionBatch(store.db)
-        batch.prefetch([op for op, _ in good])
-        newest = 0
-        for op, _ in good:
-            if insert_op(store.db, op, batch):
-                apply_op(store.db, op, batch=batch)
-                newest = max(newest, op.hlc)
-                new += 1
-        batch.flush()
-        if new:
-            store.observe_hlc(newest)
-        store.db.conn.executemany(
-            "INSERT OR IGNORE INTO op_sig VALUES (?, ?, ?)", [(op.origin, op.seq, sig) for op, sig in good]
-        )
-        store.db.conn.executemany(
-            "INSERT OR REPLACE INTO pull_quarantine VALUES (?, ?, ?, ?, ?, ?)",
-            [(op.origin, op.seq, canonical(op.row()), sig, why, now_ms) for op, sig, why in bad],
-        )
-        store.db.execute("INSERT OR REPLACE INTO device_key VALUES ('hub_cursor', ?)", [str(int(page["next_cursor"]))])
-        for origin, seq in page["seen"].items():  # what the hub holds need not be sent back to it
-            store.db.execute(
-                "INSERT INTO peer_cursor VALUES (?, ?, ?) ON CONFLICT (peer, origin) DO UPDATE SET seq = "
-                "max(seq, excluded.seq)",
-                [HUB_PEER, origin, int(seq)],
-            )
+    for op, _ in good:
+        if insert_op(store.db, op, batch):
+            apply_op(store.db, op, batch=batch)
+            newest = max(newest, op.hlc)
+            new += 1
+    batch.flush()
+    if new:
+        store.observe_hlc(newest)
+    keys = [(op.origin, op.seq) for op, _ in good]
+    store.db.conn.executemany(
+        "INSERT OR IGNORE INTO op_sig VALUES (?, ?, ?)", [(*k, sig) for k, (_, sig) in zip(keys, good, strict=True)]
+    )
+    store.db.conn.executemany("DELETE FROM pull_quarantine WHERE origin=? AND seq=?", keys)
+    store.db.conn.executemany("DELETE FROM pull_quarantine_cause WHERE origin=? AND seq=?", keys)
     return new
+
+
+def _set_aside(store: Store, bad: list[_Bad], now_ms: int) -> None:
+    """Keep pulled ops that did not check out in ``pull_quarantine``, with the reason and its cause."""
+    store.db.conn.executemany(
+        "INSERT OR REPLACE INTO pull_quarantine VALUES (?, ?, ?, ?, ?, ?)",
+        [(op.origin, op.seq, canonical(op.row()), sig, why, now_ms) for op, sig, why, _ in bad],
+    )
+    store.db.conn.executemany(
+        "INSERT OR REPLACE INTO pull_quarantine_cause VALUES (?, ?, ?)",
+        [(op.origin, op.seq, cause.value) for op, _, _, cause in bad],
+    )
+
+
+def _move_cursors(store: Store, page: dict[str, Any]) -> None:
+    """The page is done: the next pull starts after it, and what the hub holds need not be pushed to it."""
+    store.db.execute("INSERT OR REPLACE INTO device_key VALUES ('hub_cursor', ?)", [str(int(page["next_cursor"]))])
+    for origin, seq in page["seen"].items():
+        store.db.execute(
+            "INSERT INTO peer_cursor VALUES (?, ?, ?) ON CONFLICT (peer, origin) DO UPDATE SET seq = "
+            "max(seq, excluded.seq)",
+            [HUB_PEER, origin, int(seq)],
+        )
 
 
 def pull_quarantine(store: Store) -> list[dict[str, Any]]:

@@ -281,6 +281,12 @@ def _held_op(db: sqlite_utils.Database, origin: str, seq: int) -> tuple[Any, ...
     return tuple(row) if row is not None else None
 
 
+def differs_from_held(db: sqlite_utils.Database, op: Op) -> bool:
+    """Whether the log holds op ``origin:seq`` with other content than ``op`` (False when not held, or the same)."""
+    held = _held_op(db, op.origin, op.seq)
+    return held is not None and held != op.stored()
+
+
 def _op_seq_at(db: sqlite_utils.Database, origin: str, hlc: int, entity: str, record_id: str) -> int | None:
     """The least seq of a stored op of ``origin`` stamped ``hlc`` on this record (the op that set a field)."""
     sql = "SELECT min(seq) FROM op WHERE origin=? AND hlc=? AND entity=? AND record_id=?"
@@ -738,6 +744,7 @@ __all__ = [
     "all_ops",
     "apply_op",
     "canonical",
+    "differs_from_held",
     "insert_op",
     "read_stamp",
     "touches",

@@ -5,8 +5,10 @@ from __future__ import annotations
 import hashlib
 import json
 import os
+import re
 import secrets
 import time
+from dataclasses import replace
 from pathlib import Path
 from typing import Any
 
@@ -28,13 +30,31 @@ from storage.clock import hlc_receive, hlc_tick, uuid7
 from storage.db import PROJECTIONS, SCHEMA_VERSION, SET_ENTITIES, connect, transaction
 from storage.files import write_atomic
 from storage.identity import DEMO_ORIGIN
-from storage.oplog import IntegrityError, Op, OpKind, all_ops, apply_op, canonical, insert_op, read_stamp
+from storage.oplog import (
+    OP_KEYS,
+    IntegrityError,
+    Op,
+    OpKind,
+    all_ops,
+    apply_op,
+    canonical,
+    differs_from_held,
+    insert_op,
+    read_stamp,
+)
 from storage.stamps import utc_stamp
 
 BEAM_FIELDS = tuple(Beam.model_fields)
 DEMO_FIRM_KEY = "bracewalk-demo-firm-key-not-for-production"  # DEMO ONLY: the demo database, never a firm's
+HUB_PEER = "hub"  # the office hub, as a peer of this device's cursors (storage/hubsync.py)
 OFFICE_PEER = "office"  # the Sync screen's bundle files go to the office: a label, not a device (Store.acknowledged)
 SITES_NAMED = 10  # sites named in the message when a name matches none or several
+# The numbers a device gives (counter name -> the projection holding them, a LIKE and a full pattern of this
+# device's numbers, {code} its code): deficiencies 'D-<code>-<n>', notices '<project>-FR-<code>-<n>'
+NUMBERED = {
+    "deficiency": ("deficiency", "D-{code}-%", r"D-{code}-(\d+)"),
+    "notice": ("issued_notice", "%-FR-{code}-%", r".+-FR-{code}-(\d+)"),
+}
 
 
 def projection_digest(db: Any, leave_out_origin: str | None = None) -> str:
@@ -154,21 +174,29 @@ class Store:
         """
         return None if self.path == ":memory:" else Path(self.path).with_name(Path(self.path).name + ".sent")
 
-    def record_sent(self, peer: str | None) -> None:
-        """Note (fsynced, atomically) that every own op up to the current seq has left this device."""
+    def record_sent(self, peer: str | None, seq: int | None = None) -> None:
+        """Note (fsynced, atomically) that this device's own ops up to ``seq`` have left it, and its numbers so far.
+
+        ``seq``: the highest own seq sent (default: the current counter, as an export sends every own op).
+        The deficiency and notice counters go in the mark too, so a restore never hands out a number again.
+        """
         path = self.sent_mark_path
         if path is None:
             return
         mark = self._read_mark()
         meta = self._meta()
+        sent = int(meta["seq"]) if seq is None else seq
         peers = dict(mark.get("peers", {}))
         if peer:
-            peers[peer] = int(meta["seq"])
+            peers[peer] = max(sent, int(peers.get(peer, 0)))
+        counters = {name: int(meta[f"counter_{name}"]) for name in NUMBERED}
+        held = dict(mark.get("counters", {}))
         mark = {
             "device_id": self.device_id,
-            "seq": max(int(meta["seq"]), int(mark.get("seq", 0))),
+            "seq": max(sent, int(mark.get("seq", 0))),
             "hlc": max(int(meta["hlc"]), int(mark.get("hlc", 0))),
             "peers": peers,
+            "counters": {name: max(n, int(held.get(name, 0))) for name, n in counters.items()},
         }
         write_atomic(path, json.dumps(mark).encode())
 
@@ -190,32 +218,50 @@ class Store:
         with transaction(self.db):
             self.resume_seq(int(mark["seq"]))
             self._set_meta("hlc", str(max(int(self._meta()["hlc"]), int(mark.get("hlc", 0)))))
-            for peer, seq in dict(mark.get("peers", {})).items():  # written for them, not acknowledged
+            for name, n in dict(mark.get("counters", {})).items():
+                if name in NUMBERED and int(n) > int(self._meta()[f"counter_{name}"]):
+                    self._set_meta(f"counter_{name}", str(int(n)))
+            for peer, seq in dict(mark.get("peers", {})).items():
+                # the hub's answer acknowledged what it took; a bundle file was only written for its peer
+                table = "peer_cursor" if peer == HUB_PEER else "peer_written"
                 self.db.execute(
-                    "INSERT INTO peer_written VALUES (?, ?, ?) ON CONFLICT (peer, origin) "
+                    f"INSERT INTO {table} VALUES (?, ?, ?) ON CONFLICT (peer, origin) "
                     "DO UPDATE SET seq = max(seq, excluded.seq)",
                     [peer, self.device_id, int(seq)],
                 )
 
     def resume_seq(self, seq: int) -> None:
-        """Continue this device's op counter past ``seq`` (inside the caller's transaction).
+        """Continue this device's op counter past ``seq`` and its numbers past those held (inside a transaction).
 
-        Used when the device's own ops come back beyond its counter: it was restored from a backup,
-        and a new op must never reuse a seq already sent.
+        Used when the device's own ops come back: beyond its counter, it was restored from a backup, and a
+        new op must never reuse a seq already sent; and a deficiency or notice number it gave before the
+        restore is held again, so it is not given twice.
         """
         if seq > int(self._meta()["seq"]):
             self._set_meta("seq", str(seq))
             self._set_meta("restored_at_seq", str(seq))
+        for name in NUMBERED:
+            held = self._highest_held_number(name)
+            if held > int(self._meta()[f"counter_{name}"]):
+                self._set_meta(f"counter_{name}", str(held))
 
-    def renumber_own_ops(self, first: int, past: int) -> None:
-        """Move this device's ops from seq ``first`` on to just past ``past`` (inside the caller's transaction).
+    def renumber_own_ops(self, first: int, past: int, newest_hlc: int) -> None:
+        """Move this device's ops from seq ``first`` on to just past ``past``, with fresh stamps (inside a transaction).
 
         A device restored from a backup that saved before hearing back from its peers reused seqs it
         had already sent with other content. Those new ops (never sent: a peer would have refused
-        them) keep their content and stamps and take fresh seqs, so both lines of work survive.
+        them) keep their content and take fresh seqs, so both lines of work survive. They also take
+        fresh stamps, past ``newest_hlc`` (the newest stamp among the ops coming back) and every stamp
+        this device has seen: the restored clock may have given a new save the very stamp of a lost
+        one, and then which value a replica keeps would depend on arrival order. Nobody holds the old
+        stamps, since the ops were never sent. Their signatures and any refusal the hub gave them were
+        made for the old seq: dropped, and made again when they are next sent.
         """
         shift = past - first + 1
         me = self.device_id
+        for table in ("op_sig", "hub_rejection"):
+            if self.db[table].exists():
+                self.db.execute(f"DELETE FROM {table} WHERE origin=? AND seq>=?", [me, first])
         sql = "SELECT seq FROM op WHERE origin=? AND seq>=? ORDER BY seq DESC"
         moved = self.db.execute(sql, [me, first]).fetchall()
         for (seq,) in moved:
@@ -229,6 +275,46 @@ class Store:
         self.db.execute("INSERT OR REPLACE INTO seen VALUES (?, ?)", [me, first - 1])
         self._set_meta("seq", str(max(int(self._meta()["seq"]) + shift, past)))
         self._set_meta("restored_at_seq", str(first - 1))
+        self.observe_hlc(newest_hlc)
+        self._restamp_own_ops(first + shift)
+
+    def _restamp_own_ops(self, first: int) -> None:
+        """Give this device's ops from seq ``first`` on fresh stamps, in seq order, and merge them again with them.
+
+        Each new stamp is past every stamp held, so each op now sets every field it names, as a replay
+        of the log gives (a status event carries its op's stamp: written again). A later op's base that
+        named an earlier one's old stamp names its new one, and a recorded conflict that one of them
+        lost, it now wins.
+        """
+        me = self.device_id
+        rows = self.db.execute(
+            f"SELECT {', '.join(OP_KEYS)} FROM op WHERE origin=? AND seq>=? ORDER BY seq", [me, first]
+        )
+        renewed: dict[int, int] = {}  # old stamp -> new stamp, of this device's moved ops
+        for row in rows.fetchall():
+            held = Op.from_row(dict(zip(OP_KEYS, row, strict=True)))
+            renewed[held.hlc] = self._next_hlc()
+            base = {f: [renewed[b[0]], me] if b[1] == me and b[0] in renewed else b for f, b in held.base.items()}
+            op = replace(held, hlc=renewed[held.hlc], base=base)
+            self.db.execute("UPDATE op SET hlc=?, base=? WHERE origin=? AND seq=?", [op.hlc, op.base_text, me, op.seq])
+            if op.kind == OpKind.STATUS:
+                self.db.execute("DELETE FROM deficiency_event WHERE id=?", [f"{me}:{op.seq}"])
+            apply_op(self.db, op, record_conflicts=False)
+        self.db.execute(
+            "UPDATE conflict SET winner_origin=loser_origin, winner_seq=loser_seq, winner_value=loser_value, "
+            "loser_origin=winner_origin, loser_seq=winner_seq, loser_value=winner_value "
+            "WHERE loser_origin=:me AND loser_seq>=:first AND NOT (winner_origin=:me AND winner_seq>=:first)",
+            {"me": me, "first": first},
+        )
+
+    def first_rewritten_seq(self, ops: list[Op]) -> int | None:
+        """The first seq at which this device's own ops, as they come back from a peer, differ from those held here.
+
+        None when they agree. A difference means this device was restored from a backup and saved again
+        before hearing back: its new saves reused seqs that left it before with other content.
+        """
+        mine = (op for op in ops if op.origin == self.device_id)
+        return min((op.seq for op in mine if differs_from_held(self.db, op)), default=None)
 
     def held_seq(self, origin: str) -> int:
         """The highest seq of ``origin`` in this database's log (0 if none)."""
@@ -308,9 +394,29 @@ class Store:
         return bool(row and row[0])
 
     def _counter(self, name: str) -> int:
-        value = int(self._meta()[f"counter_{name}"]) + 1
+        """Allocate the next number of ``name`` (a key of ``NUMBERED``), inside the caller's transaction."""
+        value = self._next_number(name)
         self._set_meta(f"counter_{name}", str(value))
         return value
+
+    def _next_number(self, name: str) -> int:
+        """The next number of ``name``: past the counter and past every number of this device's prefix held."""
+        return max(int(self._meta()[f"counter_{name}"]), self._highest_held_number(name)) + 1
+
+    def _highest_held_number(self, name: str) -> int:
+        """The highest number of ``name`` with this device's code held in the projections (0 if none).
+
+        A restored device gets its earlier numbers back with its own records; they are never given again.
+        """
+        table, like, form = NUMBERED[name]
+        code = self.device_code
+        pattern = re.compile(form.format(code=re.escape(code)))
+        rows = self.db.execute(
+            f"SELECT json_extract(data, '$.number') FROM {table} WHERE json_extract(data, '$.number') LIKE ?",
+            [like.format(code=code)],
+        )
+        numbers = (pattern.fullmatch(str(number)) for (number,) in rows.fetchall())
+        return max((int(m.group(1)) for m in numbers if m), default=0)
 
     # -- reading -----------------------------------------------------------------------------
     def _get(self, table: str, record_id: str) -> dict[str, Any] | None:
@@ -682,7 +788,7 @@ class Store:
     # -- notices --------------------------------------------------------------------------------
     def next_notice_number(self, site: Site) -> str:
         """A notice number unique across devices offline: <project>-FR-<device code>-<n>."""
-        n = int(self._meta()["counter_notice"]) + 1
+        n = self._next_number("notice")
         return f"{site.project_number or 'P'}-FR-{self.device_code}-{n:03d}"
 
     def issue_notice(

@@ -8,7 +8,7 @@ import hashlib
 import pytest
 
 from storage import Store, identity
-from storage.hubsync import apply_page, hub_cursor, pull_quarantine, pull_quarantine_words
+from storage.hubsync import SetAside, apply_page, hub_cursor, pull_quarantine, pull_quarantine_words, retry_set_aside
 from storage.oplog import all_ops, canonical
 from tests.core.beams import glulam
 from tests.storage.signing import introduce
@@ -92,3 +92,45 @@ def test_ops_of_a_since_revoked_device_still_verify(tmp_path, colleague):
     introduce(t, revoked=(colleague,))
     assert apply_page(t, _page(_signed(colleague)), now_ms=5) == 2
     assert pull_quarantine(t) == []
+
+
+def test_ops_of_an_unlisted_device_are_applied_once_the_list_names_it(tmp_path, colleague):
+    """Set aside while the hub's list did not name their device (enrolled since): retried after a new list."""
+    t = Store(tmp_path / "t.db")
+    apply_page(t, _page(_signed(colleague)), now_ms=5)
+    assert [q["seq"] for q in pull_quarantine(t)] == [1, 2]
+    assert retry_set_aside(t) == []  # still not listed: they stay
+    assert [q["seq"] for q in pull_quarantine(t)] == [1, 2]
+    introduce(t, colleague)
+    assert [op.seq for op in retry_set_aside(t)] == [1, 2]
+    assert pull_quarantine(t) == []
+    assert t.digest() == colleague.digest()
+    assert t.db.execute("SELECT count(*) FROM op_sig WHERE origin=?", [colleague.device_id]).fetchone()[0] == 2
+
+
+def test_a_bad_signature_is_not_retried(tmp_path, colleague):
+    t = Store(tmp_path / "t.db")
+    introduce(t, colleague)
+    items = _signed(colleague)
+    items[1] = (items[1][0], identity.sign_op(identity.new_private_key(), items[1][0]))
+    apply_page(t, _page(items), now_ms=5)
+    assert retry_set_aside(t) == []
+    assert [(q["seq"], q["at_ms"]) for q in pull_quarantine(t)] == [(2, 5)]
+
+
+def test_ops_set_aside_before_their_cause_was_kept_are_tried_again(tmp_path, colleague):
+    """A database from before the cause was kept: its set-aside ops are tried once more, and keep their cause then."""
+    t = Store(tmp_path / "t.db")
+    introduce(t, colleague)
+    items = _signed(colleague)
+    items[1] = (items[1][0], identity.sign_op(identity.new_private_key(), items[1][0]))
+    apply_page(t, _page(items, cursor=0), now_ms=5)
+    t.db.execute("DELETE FROM pull_quarantine_cause")
+    assert retry_set_aside(t) == []  # the signature still does not verify
+    assert t.db.execute("SELECT cause FROM pull_quarantine_cause").fetchall() == [(SetAside.SIGNATURE.value,)]
+    t2 = Store(tmp_path / "t2.db")
+    apply_page(t2, _page(_signed(colleague)), now_ms=5)  # unlisted
+    t2.db.execute("DELETE FROM pull_quarantine_cause")
+    introduce(t2, colleague)
+    assert [op.seq for op in retry_set_aside(t2)] == [1, 2]
+    assert pull_quarantine(t2) == []
