@@ -33,6 +33,7 @@ from storage.clock import far_ahead_ms
 from storage.db import SCHEMA_VERSION, transaction
 from storage.fastjson import LineReader
 from storage.gcpause import gc_paused
+from storage.hubsync import SetAside, office_rule, set_aside
 from storage.identity import SignatureError
 from storage.oplog import (
     MAX_ID_CHARS,
@@ -49,7 +50,7 @@ from storage.oplog import (
 )
 from storage.stamps import utc_stamp
 from storage.store import Store
-from storage.validate import RecordInvalid, check_op_record, reviewer_only
+from storage.validate import RecordInvalid, check_op_record
 
 FORMAT = "bracewalk-bundle"
 FORMAT_VERSION = 2  # 2: Ed25519 signatures (manifest.sig, ops.sig) replace the firm-key MAC
@@ -496,7 +497,7 @@ class _Verified:
     sigs: list[str] = field(default_factory=list)  # each op's origin signature, kept for relaying
     stored: list[tuple[Any, ...]] = field(default_factory=list)  # each op's ``stored()``, encoded once
     finite: bool = False  # every op line was read by orjson: no NaN or infinity (``fastjson.LineReader``)
-    aside: dict[int, str] = field(default_factory=dict)  # index of an op the hub's rules refuse -> why (``_set_aside``)
+    aside: dict[int, str] = field(default_factory=dict)  # op index -> why the office rules refuse it
 
 
 def _read_bounded(z: zipfile.ZipFile, info: zipfile.ZipInfo, limit: int) -> bytes:
@@ -794,11 +795,11 @@ def verify_bundle(store: Store, data: bytes) -> _Verified:
     _check_op_content(store, ops, stored)
     rebase_from = _check_integrity(store, ops, stored, manifest["origin"])
     _check_ranges(store, manifest, ops, rebase_from)
-    aside = _set_aside(store, ops)
+    aside = _refused_by_rules(store, ops)
     return _Verified(manifest, ops, blobs, hashlib.sha256(data).hexdigest(), rebase_from, sigs, stored, finite, aside)
 
 
-def _set_aside(store: Store, ops: list[Op]) -> dict[int, str]:
+def _refused_by_rules(store: Store, ops: list[Op]) -> dict[int, str]:
     """The ops the office hub's rules refuse, by index, with why: set aside, not applied (the rest are).
 
     A status move to 'verified' from a device the hub lists as not a reviewer (``validate.reviewer_only``):
@@ -806,14 +807,9 @@ def _set_aside(store: Store, ops: list[Op]) -> dict[int, str]:
     disagreeing with the office. Like a pulled op that fails its checks, it is kept in ``pull_quarantine``
     and shown in words on the Sync screen. This device's own ops coming back are not judged again.
     """
-    roles: dict[str, str | None] = {}
     out: dict[int, str] = {}
     for n, op in enumerate(ops):
-        if op.kind != OpKind.STATUS or op.origin == store.device_id:
-            continue
-        if op.origin not in roles:
-            roles[op.origin] = identity.listed_role(store.db, op.origin)
-        why = reviewer_only(op, roles[op.origin])
+        why = office_rule(store, op) if op.kind == OpKind.STATUS else None
         if why:
             out[n] = why
     return out
@@ -1065,7 +1061,7 @@ def _merge_batch(store: Store, v: _Verified, start: int, tell: Progress, batch: 
         if n % PROGRESS_EVERY == 0:
             tell(0.2 + 0.8 * n / max(total, 1), f"merging change {n:,} of {total:,}")
         if n in v.aside:
-            aside.append((op.origin, op.seq, canonical(op.row()), v.sigs[n] if v.sigs else "", v.aside[n]))
+            aside.append((op, v.sigs[n] if v.sigs else "", v.aside[n], SetAside.OFFICE_RULE))
             continue
         if insert_op(store.db, op, batch, v.stored[n]):
             apply_op(store.db, op, batch=batch)
@@ -1073,10 +1069,7 @@ def _merge_batch(store: Store, v: _Verified, start: int, tell: Progress, batch: 
             new += 1
     batch.flush()
     if aside:
-        now = store.wall_ms()
-        store.db.conn.executemany(
-            "INSERT OR REPLACE INTO pull_quarantine VALUES (?, ?, ?, ?, ?, ?)", [(*a, now) for a in aside]
-        )
+        set_aside(store, aside, store.wall_ms())
     if v.sigs:
         kept = [
             (op, sig)

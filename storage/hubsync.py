@@ -26,7 +26,7 @@ from storage.identity import (
 )
 from storage.oplog import OP_KEYS, IntegrityError, Op, ProjectionBatch, apply_op, canonical, insert_op
 from storage.store import HUB_PEER, Store
-from storage.validate import RecordInvalid, check_op_record
+from storage.validate import RecordInvalid, check_op_record, reviewer_only
 
 HUB_TABLES = (
     "CREATE TABLE IF NOT EXISTS hub_rejection (origin TEXT NOT NULL, seq INTEGER NOT NULL, reason TEXT NOT NULL, "
@@ -45,6 +45,7 @@ class SetAside(StrEnum):
     UNLISTED_DEVICE = "unlisted_device"  # no key for its device in the hub's list as fetched: tried again at a sync
     SIGNATURE = "signature"  # its signature does not verify by its device's key (or no key will ever be had)
     RECORD = "record"  # its record fails the checks of a local save
+    OFFICE_RULE = "office_rule"  # the office's rules refuse it (a sign-off from a device not enrolled as a reviewer)
 
 
 class PageRefused(ValueError):
@@ -190,7 +191,7 @@ def apply_page(store: Store, page: dict[str, Any], now_ms: int = 0) -> int:
             new = _merge_verified(store, good)
             if own:
                 store.resume_seq(max(own))  # its own ops came back: its counters go past them and their numbers
-            _set_aside(store, bad, now_ms)
+            set_aside(store, bad, now_ms)
             _move_cursors(store, page)
     except IntegrityError as exc:
         msg = f"a change from the office contradicts a record held here, nothing applied: {exc}"
@@ -270,6 +271,10 @@ def _verified(store: Store, signed: list[tuple[Op, str]]) -> tuple[list[tuple[Op
         except RecordInvalid as exc:
             bad.append((op, sig, f"its record fails the checks of a local save: {exc}", SetAside.RECORD))
             continue
+        refused = office_rule(store, op)
+        if refused:
+            bad.append((op, sig, refused, SetAside.OFFICE_RULE))
+            continue
         good.append((op, sig))
     return good, bad
 
@@ -311,8 +316,23 @@ def _merge_verified(store: Store, good: list[tuple[Op, str]]) -> int:
     return new
 
 
-def _set_aside(store: Store, bad: list[_Bad], now_ms: int) -> None:
-    """Keep pulled ops that did not check out in ``pull_quarantine``, with the reason and its cause."""
+def office_rule(store: Store, op: Op) -> str | None:
+    """Why the office's rules refuse ``op`` as the hub lists its device (``validate.reviewer_only``); None if not.
+
+    This device's own ops are not judged again here (its own saves follow its own enrolment).
+    """
+    if op.kind != "status" or op.origin == store.device_id:
+        return None
+    return reviewer_only(op, identity.listed_role(store.db, op.origin))
+
+
+def set_aside(store: Store, bad: list[_Bad], now_ms: int) -> None:
+    """Keep ops that did not check out in ``pull_quarantine``, with the reason and its cause (inside a transaction).
+
+    Pulled ops, and ops of a bundle file the office's rules refuse (``storage.bundle``): the Sync screen lists
+    them in words; only those set aside for an unlisted device are tried again (``retry_set_aside``).
+    """
+    _ensure(store)
     store.db.conn.executemany(
         "INSERT OR REPLACE INTO pull_quarantine VALUES (?, ?, ?, ?, ?, ?)",
         [(op.origin, op.seq, canonical(op.row()), sig, why, now_ms) for op, sig, why, _ in bad],

@@ -291,9 +291,13 @@ class Store:
             f"SELECT {', '.join(OP_KEYS)} FROM op WHERE origin=? AND seq>=? ORDER BY seq", [me, first]
         )
         renewed: dict[int, int] = {}  # old stamp -> new stamp, of this device's moved ops
+        # past every stamp held, even one further ahead than the clock follows (``clock.hlc_receive``): these
+        # stamps are for the moved ops only, the clock itself goes no further than a received stamp would take it
+        floor = int(self.db.execute("SELECT coalesce(max(hlc), 0) FROM op").fetchone()[0])
         for row in rows.fetchall():
             held = Op.from_row(dict(zip(OP_KEYS, row, strict=True)))
-            renewed[held.hlc] = self._next_hlc()
+            floor = max(self._next_hlc(), floor + 1)
+            renewed[held.hlc] = floor
             base = {f: [renewed[b[0]], me] if b[1] == me and b[0] in renewed else b for f, b in held.base.items()}
             op = replace(held, hlc=renewed[held.hlc], base=base)
             self.db.execute("UPDATE op SET hlc=?, base=? WHERE origin=? AND seq=?", [op.hlc, op.base_text, me, op.seq])
