@@ -1,0 +1,120 @@
+"""A firm's table row records stay whole, and a database holding them always opens (review s34).
+
+Two devices record the same row, one "verified", the other a correction; a reviewer resolving the
+merge's conflict by keeping the other side's ``column`` used to save that one field alone, leaving a
+column without its value, and ``Store()`` then raised on both devices once the edit synced. Each test
+below failed before the fix.
+"""
+
+import json
+import zipfile
+
+import pytest
+
+from core import tables
+from core.overrides import record_id
+from storage import Store, firm_tables
+from storage.bundle import export_bundle, import_bundle
+from storage.db import SCHEMA_VERSION
+from storage.oplog import Op, OpKind
+from storage.validate import RecordInvalid, check_op_record
+from tests.storage.signing import signed_bundle
+
+NOW = 1_900_000_000_000
+TABLE, ROW = "glulam_grades", "D.Fir-L/24f-E"
+RID = record_id(TABLE, ROW)
+
+
+@pytest.fixture(autouse=True)
+def published_tables():
+    """Every test leaves the process on the published tables (the firm records are process-wide)."""
+    yield
+    tables.use_firm_records([])
+
+
+def _correct(store, by="B. Rev", value="15.3"):
+    return firm_tables.record(store, TABLE, ROW, by, "O86-19", 112, "fb_pos_mpa", value, "errata 2")
+
+
+# -- 3. the op checks refuse a table_row field of the wrong type, at import and pull ------------------
+WHOLE = {
+    "table": TABLE,
+    "row": ROW,
+    "by": "B. Rev",
+    "edition": "O86-19",
+    "page": 112,
+    "at": "2030-03-17T17:46:40Z",
+    "column": "fb_pos_mpa",
+    "value": "15.3",
+    "source": "errata 2",
+}
+
+
+def _op(payload, rid=RID):
+    """A table_row edit as another device would send it."""
+    return Op(
+        origin="0190aaaa-0000-7000-8000-00000000b001",
+        seq=1,
+        hlc=1 << 40,
+        entity="table_row",
+        record_id=rid,
+        kind=OpKind.SET,
+        payload=payload,
+        base={},
+        schema_version=SCHEMA_VERSION,
+        wall_ms=NOW,
+    )
+
+
+@pytest.mark.parametrize(
+    ("payload", "rid", "match"),
+    [
+        ({"value": "abc"}, RID, r"field 'value'.*a corrected table value is a number"),
+        ({"value": 15.3}, RID, r"field 'value'.*string"),
+        ({"value": "-1"}, RID, r"field 'value'.*positive finite number"),
+        ({"value": "nan"}, RID, r"field 'value'.*positive finite number"),
+        ({"table": "no_such_table"}, RID, r"field 'table'.*allowed: glulam_grades"),
+        ({"page": "p. 112"}, RID, r"field 'page'"),
+        ({"column": 7}, RID, r"field 'column'"),
+        ({"site_id": "s-1"}, RID, r"field 'site_id'.*not a field of table_row"),
+        ({**WHOLE, "value": None}, RID, r"column and value: give both"),
+        ({**WHOLE, "column": "grade"}, RID, r"a key or provenance column is not corrected"),
+        (WHOLE, record_id(TABLE, "D.Fir-L/20f-E"), r"field 'row'.*not the row of its record id"),
+    ],
+    ids=["text", "number", "negative", "nan", "table", "page", "column", "site_id", "half", "key", "other-id"],
+)
+def test_a_table_row_op_no_app_writes_is_refused(payload, rid, match):
+    # Checks item 3: check_op_record (used by bundle import, hub pull and the hub) refuses each field of the
+    # wrong type or value, and a whole record that the model refuses or that sits under another row's id.
+    with pytest.raises(RecordInvalid, match=match):
+        check_op_record(_op(payload, rid))
+
+
+@pytest.mark.parametrize("payload", [WHOLE, {**WHOLE, "column": None, "value": None, "source": ""}, {"column": None}])
+def test_table_row_ops_an_app_writes_pass(payload):
+    # Checks item 3 lets through what apps write: a whole correction or verification, and an older app's
+    # edit of one field (refusing it would refuse its whole bundle for good; it is set aside where used).
+    check_op_record(_op(payload))
+
+
+def test_a_bundle_with_a_table_value_that_is_not_a_number_is_refused_whole(tmp_path):
+    # Checks item 3 at import: a bundle signed by an enrolled device whose table_row op says value "abc" is
+    # refused whole, naming the record and the field, and nothing of it is applied.
+    a, b = Store(tmp_path / "a.db"), Store(tmp_path / "b.db")
+    a.create_site(name="Yard")
+    _correct(a)
+    export_bundle(a, tmp_path / "a.zip")
+    z = zipfile.ZipFile(tmp_path / "a.zip")
+    ops = [json.loads(line) for line in z.read("ops.jsonl").decode().splitlines()]
+    for op in ops:
+        if op["entity"] == "table_row":
+            op["payload"]["value"] = "abc"
+    (tmp_path / "a.zip").write_bytes(signed_bundle(a, json.loads(z.read("manifest.json")), ops, {}))
+    before = b.projections()
+    report = import_bundle(b, tmp_path / "a.zip")
+    assert report.outcome == "refused", report
+    assert f"invalid record: table_row {RID} field 'value'" in report.reason
+    assert "a corrected table value is a number" in report.reason
+    assert b.projections() == before
+    b.close()
+    Store(tmp_path / "b.db").close()
