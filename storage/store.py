@@ -24,6 +24,7 @@ from core.records import (
     Visit,
 )
 from core.results import PRIORITY_ORDER
+from storage import firm_tables
 from storage.clock import hlc_receive, hlc_tick, uuid7
 from storage.db import PROJECTIONS, SCHEMA_VERSION, SET_ENTITIES, connect, transaction
 from storage.files import write_atomic
@@ -90,9 +91,9 @@ class Store:
         self.device_id = meta["device_id"]
         self.device_code = meta["device_code"]
         self._resume_from_mark()
-        from storage import firm_tables, results
+        from storage import results
 
-        firm_tables.apply(self.db)  # table lookups honour this firm's verified and corrected rows
+        firm_tables.apply(self.db)  # lookups honour the firm's valid table records; invalid ones are set aside
         results.stale_after_new_results_version(self.db)  # an app whose recheck prints something else
 
     # -- bookkeeping -------------------------------------------------------------------------
@@ -790,6 +791,10 @@ class Store:
             self.save(c["entity"], c["record_id"], {c["field"]: json.loads(c["loser_value"])})
         with transaction(self.db):
             self.db.execute("UPDATE conflict SET resolved_by=? WHERE id=?", [actor, conflict_id])
+
+    def table_records_set_aside(self) -> list[firm_tables.SetAside]:
+        """The firm's table row records that are not whole and valid: not applied (the published row is used)."""
+        return firm_tables.set_aside(self.db)
 
     def digest(self, *, include_demo: bool = True) -> str:
         """SHA-256 over the synced content (projections), excluding device identity and bookkeeping.

@@ -192,8 +192,12 @@ class SyncViewModel:
         return rejection_words(self.store)
 
     def set_aside(self) -> list[str]:
-        """Changes pulled from the office that this tablet did not apply (signature not verified), in words."""
-        return pull_quarantine_words(self.store)
+        """What this tablet holds but does not apply, in words.
+
+        Changes pulled from the office whose signature or record did not verify, and the firm's table row
+        records that are not whole, valid records (the published row is used until they are fixed).
+        """
+        return pull_quarantine_words(self.store) + [a.words for a in self.store.table_records_set_aside()]
 
     def conflicts(self) -> list[tuple[int, str]]:
         """[(conflict id, 'beam RB-2 · spans_mm: kept [7200] (device A) · other [7000] (device B)')]."""

@@ -13,16 +13,23 @@ import pytest
 
 from core import tables
 from core.overrides import record_id
-from storage import Store, firm_tables
+from core.recheck import recheck
+from mobile.cli import main
+from mobile.viewmodels.beam import BeamFormViewModel
+from mobile.viewmodels.notice import NoticeViewModel
+from mobile.viewmodels.sync import SyncViewModel
+from storage import Store, firm_tables, results
 from storage.bundle import export_bundle, import_bundle
 from storage.db import SCHEMA_VERSION
 from storage.oplog import Op, OpKind
 from storage.validate import RecordInvalid, check_op_record
+from tests.core.beams import glulam
 from tests.storage.signing import signed_bundle
 
 NOW = 1_900_000_000_000
 TABLE, ROW = "glulam_grades", "D.Fir-L/24f-E"
 RID = record_id(TABLE, ROW)
+NOT_USED = "its correction (or verification) is not used until it is fixed: rechecks use the row as published"
 
 
 @pytest.fixture(autouse=True)
@@ -32,8 +39,84 @@ def published_tables():
     tables.use_firm_records([])
 
 
+def _sync(src, dst, path):
+    export_bundle(src, path)
+    report = import_bundle(dst, path)
+    assert report.outcome == "applied", report
+
+
 def _correct(store, by="B. Rev", value="15.3"):
     return firm_tables.record(store, TABLE, ROW, by, "O86-19", 112, "fb_pos_mpa", value, "errata 2")
+
+
+def _decked():
+    """A glulam beam under fastened decking (KL = 1): Mr, so the utilisation, follows fb alone."""
+    return glulam(top_edge={"braced_by": "decking", "fastened": True})
+
+
+# -- 1. a stored record that is not whole never stops the store; it is set aside and said so ---------
+def _broken(path):
+    """A database with a correction, then an older app's edit of its column alone (what resolve saved before)."""
+    store = Store(path)
+    _correct(store)
+    store.save("table_row", RID, {"column": None})
+    return store
+
+
+def test_a_record_that_is_not_whole_is_set_aside_named_everywhere_rows_are_listed(tmp_path, capsys):
+    # Checks item 1: Store() opens; the record is not applied (the recheck uses the published fb) and the
+    # row and the reason are named by the store, `tables list`, the beam and notice screens' row lists and
+    # the sync screen; it also travels to another device, which opens and says the same.
+    published = recheck(_decked()).bending[0].utilisation
+    _broken(tmp_path / "a.db").close()
+    store = Store(tmp_path / "a.db")
+    (aside,) = store.table_records_set_aside()
+    assert (aside.table, aside.row) == (TABLE, ROW)
+    assert "column and value: give both for a correction, or neither" in aside.reason
+    assert aside.words.startswith(f"{TABLE} row {ROW}: the firm's record of this row is not valid (column and value")
+    assert NOT_USED in aside.words
+    assert recheck(_decked()).bending[0].utilisation == published  # the correction (half the fb) is not used
+    site = store.create_site(name="Yard")
+    bid = store.save_beam(site.id, _decked())
+    assert results.fresh(store.db, site.id)[bid].utilisation == pytest.approx(published)
+    store.raise_deficiency(site.id, bid, "bending_overstress", "immediate", "Roof", "d", "ref", "act")
+    assert BeamFormViewModel(store, site.id, bid).table_row_lines()[0] == f"[NOT USED]  {aside.words}"
+    assert NoticeViewModel(store, site.id).table_row_lines()[0] == f"NOT USED  ·  {aside.words}"
+    assert SyncViewModel(store).set_aside() == [aside.words]
+    listed = {(t, label): (status, note) for t, label, status, note in firm_tables.listing(store.db)}
+    assert listed[(TABLE, ROW)] == ("memory", aside.words)  # the row as published, and why the record is not used
+    store.close()
+    assert main(["tables", "list", "--db", str(tmp_path / "a.db")]) == 0
+    assert f"warning: {aside.words}" in capsys.readouterr().err
+    # the edit reaches another device (its op is a valid edit of one field); that database opens as well
+    a, b = Store(tmp_path / "a.db"), Store(tmp_path / "b.db")
+    _sync(a, b, tmp_path / "ab.zip")
+    b.close()
+    assert SyncViewModel(Store(tmp_path / "b.db")).set_aside() == [aside.words]
+
+
+@pytest.mark.parametrize(
+    ("edit", "reason"),
+    [
+        ({"value": None}, "column and value: give both"),
+        ({"column": "no_such_column"}, "column 'no_such_column' is not a column of table 'glulam_grades'"),
+        ({"row": "D.Fir-L/20f-E"}, "names table 'glulam_grades' row 'D.Fir-L/20f-E', not the row of its id"),
+        ({"source": " "}, "source: a corrected value names where it comes from"),
+    ],
+    ids=["value-alone", "unknown-column", "other-row", "no-source"],
+)
+def test_each_kind_of_broken_record_is_set_aside_with_its_reason(tmp_path, edit, reason):
+    # Checks item 1 per reason: a merged record the model refuses, or one naming a column or row the
+    # published table lacks (which the lookups would raise on), is set aside with that reason; Store() opens.
+    store = Store(tmp_path / "a.db")
+    _correct(store)
+    store.save("table_row", RID, edit)
+    store.close()
+    store = Store(tmp_path / "a.db")
+    (aside,) = store.table_records_set_aside()
+    assert reason in aside.reason
+    assert firm_tables.records(store.db) == []
+    assert tables.find(TABLE, species="D.Fir-L", grade="24f-E") == firm_tables.published_row(TABLE, ROW)
 
 
 # -- 3. the op checks refuse a table_row field of the wrong type, at import and pull ------------------
