@@ -27,6 +27,7 @@ from tests.core.beams import glulam
 from tests.storage.signing import signed_bundle
 
 NOW = 1_900_000_000_000
+MINUTE = 60_000
 TABLE, ROW = "glulam_grades", "D.Fir-L/24f-E"
 RID = record_id(TABLE, ROW)
 NOT_USED = "its correction (or verification) is not used until it is fixed: rechecks use the row as published"
@@ -45,6 +46,10 @@ def _sync(src, dst, path):
     assert report.outcome == "applied", report
 
 
+def _verify(store, by="A. Rev"):
+    return firm_tables.record(store, TABLE, ROW, by, "O86-19", 112)
+
+
 def _correct(store, by="B. Rev", value="15.3"):
     return firm_tables.record(store, TABLE, ROW, by, "O86-19", 112, "fb_pos_mpa", value, "errata 2")
 
@@ -52,6 +57,33 @@ def _correct(store, by="B. Rev", value="15.3"):
 def _decked():
     """A glulam beam under fastened decking (KL = 1): Mr, so the utilisation, follows fb alone."""
     return glulam(top_edge={"braced_by": "decking", "fastened": True})
+
+
+# -- the reviewer's case, end to end (item 2 through sync) -----------------------------------------
+@pytest.mark.parametrize("later", ["verification", "correction"])
+def test_keeping_the_other_side_of_a_table_row_keeps_it_whole_and_both_databases_open(tmp_path, later):
+    # Checks: keeping the losing `column` of a table_row conflict takes that side's whole record, so the
+    # record stays valid, the edit syncs, and Store() opens on both devices with that record applied.
+    # `later`: whose record is stamped later, so wins the merge (the other is kept by the reviewer).
+    clock = {"verification": NOW, "correction": NOW}
+    clock[later] += MINUTE
+    a = Store(tmp_path / "a.db", wall_clock_ms=lambda: clock["verification"])
+    b = Store(tmp_path / "b.db", wall_clock_ms=lambda: clock["correction"])
+    mine = {"verification": _verify(a), "correction": _correct(b)}
+    _sync(a, b, tmp_path / "ab.zip")
+    _sync(b, a, tmp_path / "ba.zip")
+    c = next(c for c in a.conflicts() if c["field"] == "column")
+    a.resolve_conflict(c["id"], "loser", "reviewer")
+    assert a.conflicts() == []  # the record's other conflicts with that edit are resolved with it
+    _sync(a, b, tmp_path / "fix.zip")
+    kept = mine["correction" if later == "verification" else "verification"]
+    paths = [a.path, b.path]
+    a.close()
+    b.close()
+    for path in paths:
+        store = Store(path)  # the app opens its database
+        assert firm_tables.read(store.db) == ([kept], [])
+        store.close()
 
 
 # -- 1. a stored record that is not whole never stops the store; it is set aside and said so ---------
@@ -117,6 +149,35 @@ def test_each_kind_of_broken_record_is_set_aside_with_its_reason(tmp_path, edit,
     assert reason in aside.reason
     assert firm_tables.records(store.db) == []
     assert tables.find(TABLE, species="D.Fir-L", grade="24f-E") == firm_tables.published_row(TABLE, ROW)
+
+
+# -- 2. resolving keeps the record whole, or is refused before anything is saved -----------------
+def test_using_the_other_side_is_refused_when_it_would_not_make_a_whole_record(tmp_path):
+    # Checks item 2's refusal: the other side's edit is an older app's edit of `column` alone; using it over
+    # this device's correction would leave a value without its column, so it is refused naming the row and
+    # why, nothing is saved, and the sync screen says so on the conflict's line; keeping as is still works.
+    a = Store(tmp_path / "a.db", wall_clock_ms=lambda: NOW)
+    b = Store(tmp_path / "b.db", wall_clock_ms=lambda: NOW + MINUTE)
+    _correct(a)
+    _sync(a, b, tmp_path / "1.zip")
+    a.save("table_row", RID, {"column": None})  # as resolve_conflict saved it before the fix
+    _correct(b, by="C. Rev", value="20.0")  # later: it wins the merge
+    _sync(a, b, tmp_path / "2.zip")
+    (c,) = b.conflicts()
+    assert c["field"] == "column"
+    before = (b.projections(), b.db.execute("SELECT count(*) FROM op").fetchone()[0])
+    with pytest.raises(ValueError, match=rf"table row record {RID}: the other side's record cannot be used \(column"):
+        b.resolve_conflict(c["id"], "loser", "reviewer")
+    assert (b.projections(), b.db.execute("SELECT count(*) FROM op").fetchone()[0]) == before
+    assert b.conflicts() == [c]
+    vm = SyncViewModel(b)
+    assert vm.resolve(c["id"], "loser", "reviewer").startswith(f"table row record {RID}: the other side's")
+    ((_, line),) = vm.conflicts()
+    assert line.startswith(f'table_row {RID} · column: kept "fb_pos_mpa"')
+    assert "NOT DONE: table row record" in line
+    assert vm.resolve(c["id"], "winner", "reviewer") == ""
+    assert b.conflicts() == []
+    assert firm_tables.read(b.db)[0][0].value == "20.0"
 
 
 # -- 3. the op checks refuse a table_row field of the wrong type, at import and pull ------------------
