@@ -10,9 +10,9 @@ firm's record onto another row. Pure: the storage layer reads the records and ha
 from __future__ import annotations
 
 import math
-from typing import Literal
+from typing import Annotated, Literal
 
-from pydantic import BaseModel, ConfigDict, Field, field_validator, model_validator
+from pydantic import AfterValidator, BaseModel, ConfigDict, Field, model_validator
 
 # the columns that name a row of each table (the rest are its values and provenance)
 KEYS: dict[str, tuple[str, ...]] = {
@@ -32,43 +32,48 @@ PROVENANCE_COLUMNS = ("status", "confirmed_by")
 EDITIONS = ("O86-19",)
 
 
+def _known_table(v: str) -> str:
+    """A table of ``KEYS`` (ValueError naming the value and the tables allowed)."""
+    if v not in KEYS:
+        msg = f"table {v!r}; allowed: {', '.join(KEYS)}"
+        raise ValueError(msg)
+    return v
+
+
+def _corrected_value(v: str | None) -> str | None:
+    """A corrected table value: the text of a positive finite number (ValueError naming the value)."""
+    if v is None:
+        return v
+    try:
+        number = float(v)
+    except ValueError as exc:
+        msg = f"value {v!r}: a corrected table value is a number"
+        raise ValueError(msg) from exc
+    if not math.isfinite(number) or number <= 0:
+        msg = f"value {v!r}: a corrected table value is a positive finite number"
+        raise ValueError(msg)
+    return v
+
+
+# the rules travel with the field types, so a check of one field alone (an imported op) applies them too
+TableName = Annotated[str, AfterValidator(_known_table)]
+CorrectedValue = Annotated[str | None, AfterValidator(_corrected_value)]
+
+
 class TableRecord(BaseModel):
     """A firm's verification of one table row, optionally with one corrected value and its source."""
 
     model_config = ConfigDict(extra="forbid", frozen=True)
 
-    table: str
+    table: TableName
     row: str  # the row's key values joined by "/", e.g. "D.Fir-L/24f-E"
     by: str = Field(min_length=1, max_length=200)
     edition: Literal["O86-19"]
     page: int = Field(ge=1, le=2000)
     at: str = Field(min_length=1, max_length=40)  # UTC, ISO 8601
     column: str | None = None  # the corrected value's column (None: verified as printed)
-    value: str | None = None
+    value: CorrectedValue = None
     source: str = ""  # where the corrected value comes from (required with a correction)
-
-    @field_validator("table")
-    @classmethod
-    def _known_table(cls, v: str) -> str:
-        if v not in KEYS:
-            msg = f"table {v!r}; allowed: {', '.join(KEYS)}"
-            raise ValueError(msg)
-        return v
-
-    @field_validator("value")
-    @classmethod
-    def _finite_number(cls, v: str | None) -> str | None:
-        if v is None:
-            return v
-        try:
-            number = float(v)
-        except ValueError as exc:
-            msg = f"value {v!r}: a corrected table value is a number"
-            raise ValueError(msg) from exc
-        if not math.isfinite(number) or number <= 0:
-            msg = f"value {v!r}: a corrected table value is a positive finite number"
-            raise ValueError(msg)
-        return v
 
     @model_validator(mode="after")
     def _correction_complete(self) -> TableRecord:

@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import csv
 from dataclasses import dataclass, field
+from functools import cache
 from importlib import resources
 
 from core import overrides
@@ -62,12 +63,22 @@ def _table(now: _Generation, name: str) -> Table:
 
 
 def _read(name: str) -> Table:
-    """The table ``core/data/<name>.csv`` as the firm's records in use make it (the files are read-only)."""
+    """The table ``core/data/<name>.csv`` as the firm's records in use make it."""
+    table = published(name)
+    rows = tuple(overrides.overlay(name, dict(r)) for r in table.rows)  # a firm's records, if any
+    return Table(name=name, header=table.header, rows=rows)
+
+
+@cache
+def published(name: str) -> Table:
+    """The table ``core/data/<name>.csv`` as published, without a firm's records (the files are read-only).
+
+    Its rows are shared: a caller that changes one copies it first.
+    """
     text = resources.files("core").joinpath("data", f"{name}.csv").read_text(encoding="utf-8")
     header = tuple(line[1:].strip() for line in text.splitlines() if line.startswith("#"))
     body = [line for line in text.splitlines() if line and not line.startswith("#")]
-    rows = tuple(overrides.overlay(name, dict(r)) for r in csv.DictReader(body))  # a firm's records, if any
-    return Table(name=name, header=header, rows=rows)
+    return Table(name=name, header=header, rows=tuple(csv.DictReader(body)))
 
 
 def use_firm_records(records: list[overrides.TableRecord]) -> None:

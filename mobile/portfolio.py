@@ -123,13 +123,19 @@ def cmd_recheck(args: argparse.Namespace) -> int:
 
 
 def cmd_tables_list(args: argparse.Namespace) -> int:
-    """Print every table row with its status for this firm (and who verified or corrected it)."""
+    """Print every table row with its status for this firm (and who verified or corrected it).
+
+    A firm record that is not a whole, valid record is not applied: its row prints as published, with why in
+    place of the provenance, and a warning for each such record goes to stderr.
+    """
     from mobile.commands import _open_store
     from storage import firm_tables
 
     store = _open_store(args.db)
     for table, label, status, note in firm_tables.listing(store.db):
         print(f"{table}\t{label}\t{status}" + (f"\t{note}" if note else ""))
+    for aside in firm_tables.set_aside(store.db):  # also those naming no published row, which the list leaves out
+        print(f"warning: {aside.words}", file=sys.stderr)
     return EXIT_OK
 
 

@@ -26,6 +26,7 @@ from core.records import (
     Visit,
 )
 from core.results import PRIORITY_ORDER
+from storage import firm_tables
 from storage.clock import hlc_receive, hlc_tick, uuid7
 from storage.db import PROJECTIONS, SCHEMA_VERSION, SET_ENTITIES, connect, transaction
 from storage.files import write_atomic
@@ -79,6 +80,10 @@ class LifecycleError(ValueError):
     """A status move the deficiency lifecycle does not allow."""
 
 
+class ConflictNotResolved(ValueError):
+    """A conflict resolution refused before anything was saved: it would leave a record no model accepts."""
+
+
 class Store:
     """A bracewalk database on one device."""
 
@@ -111,9 +116,9 @@ class Store:
         self.device_id = meta["device_id"]
         self.device_code = meta["device_code"]
         self._resume_from_mark()
-        from storage import firm_tables, results
+        from storage import results
 
-        firm_tables.apply(self.db)  # table lookups honour this firm's verified and corrected rows
+        firm_tables.apply(self.db)  # lookups honour the firm's valid table records; invalid ones are set aside
         results.stale_after_new_results_version(self.db)  # an app whose recheck prints something else
 
     # -- bookkeeping -------------------------------------------------------------------------
@@ -909,7 +914,17 @@ class Store:
         return [dict(zip(cols, r, strict=True)) for r in cur.fetchall()]
 
     def resolve_conflict(self, conflict_id: int, keep: str, actor: str) -> None:
-        """Resolve a conflict: keep 'winner' as is, or re-save the 'loser' value as a new edit."""
+        """Resolve a conflict: keep 'winner' as is, or re-save the 'loser' value as a new edit.
+
+        A firm's record about a table row (``table_row``) is one person's statement, valid only whole: a
+        correction names its column, value and source together, with who checked the row against which
+        edition and page. A conflict on any of its fields is therefore resolved for the whole statement:
+        'loser' saves every field the other side's edit wrote (not the one field alone, which could leave a
+        column without its value, or name one person for another's correction), and either choice resolves
+        the record's other conflicts with that same edit too. If the other side's edit does not make a whole,
+        valid record (an edit of one field, written by an older app), 'loser' raises ``ConflictNotResolved``
+        naming the row and why, before anything is saved; the record and its conflicts stay as they were.
+        """
         c = next((c for c in self.conflicts(False) if c["id"] == conflict_id), None)
         if c is None:
             msg = f"no conflict {conflict_id}"
@@ -917,10 +932,49 @@ class Store:
         if keep not in ("winner", "loser"):
             msg = "keep must be 'winner' or 'loser'"
             raise ValueError(msg)
-        if keep == "loser":
-            self.save(c["entity"], c["record_id"], {c["field"]: json.loads(c["loser_value"])})
         with transaction(self.db):
-            self.db.execute("UPDATE conflict SET resolved_by=? WHERE id=?", [actor, conflict_id])
+            if c["entity"] == "table_row":
+                fields, resolved = self._table_row_side(c, whole=keep == "loser")
+            else:
+                fields, resolved = {c["field"]: json.loads(c["loser_value"])}, [conflict_id]
+            if keep == "loser":
+                self._save_in_tx(c["entity"], c["record_id"], fields, "set", None)
+            for cid in resolved:
+                self.db.execute("UPDATE conflict SET resolved_by=? WHERE id=?", [actor, cid])
+        if c["entity"] == "table_row":
+            firm_tables.apply(self.db)  # the lookups honour the record kept
+
+    def _table_row_side(self, c: dict[str, Any], whole: bool) -> tuple[dict[str, Any], list[int]]:
+        """The fields the losing edit of a table row record wrote, and the ids of that edit's open conflicts.
+
+        ``whole``: raise ``ConflictNotResolved`` unless those fields over the current record make a whole,
+        valid record (the fields are to be saved).
+        """
+        rid, loser = c["record_id"], (c["loser_origin"], c["loser_seq"])
+        row = self.db.execute("SELECT payload FROM op WHERE origin=? AND seq=?", list(loser)).fetchone()
+        fields = json.loads(row[0]) if row is not None else {}
+        if whole:
+            why = (
+                "the other side's edit is not in this database's log"
+                if row is None
+                else firm_tables.why_not_whole(rid, {**(self._get("table_row", rid) or {}), **fields})
+            )
+            if why:
+                msg = (
+                    f"table row record {rid}: the other side's record cannot be used ({why}); nothing was saved. "
+                    f"To use it, {firm_tables.RECORD_AGAIN}"
+                )
+                raise ConflictNotResolved(msg)
+        same = [
+            int(x["id"])
+            for x in self.conflicts()
+            if x["entity"] == "table_row" and x["record_id"] == rid and (x["loser_origin"], x["loser_seq"]) == loser
+        ]
+        return fields, sorted({int(c["id"]), *same})
+
+    def table_records_set_aside(self) -> list[firm_tables.SetAside]:
+        """The firm's table row records that are not whole and valid: not applied (the published row is used)."""
+        return firm_tables.set_aside(self.db)
 
     def digest(self, *, include_demo: bool = True) -> str:
         """SHA-256 over the synced content (projections), excluding device identity and bookkeeping.
@@ -946,7 +1000,7 @@ class Store:
         self.db.conn.close()
 
 
-__all__ = ["BEAM_FIELDS", "SET_ENTITIES", "IntegrityError", "LifecycleError", "Store"]
+__all__ = ["BEAM_FIELDS", "SET_ENTITIES", "ConflictNotResolved", "IntegrityError", "LifecycleError", "Store"]
 
 
 def _site_choices(matches: list[Site], sites: list[Site]) -> str:

@@ -15,7 +15,7 @@ from typing import Annotated, Any
 from pydantic import BaseModel, TypeAdapter, ValidationError
 
 from core.models import Beam, bearings_with_stand_ins
-from core.overrides import TableRecord
+from core.overrides import TableRecord, record_id
 from core.records import Deficiency, IssuedNotice, PhotoRecord, Site, Stage, StatusEvent, Visit
 from core.results import PRIORITY_ORDER
 from storage.clock import HLC_MAX
@@ -120,6 +120,9 @@ def _check_set_field(op: Op, field: str, value: Any, long: bool) -> None:
     """One field of an edit: ids as ids, model fields by the model, nothing a local edit cannot set."""
     if long:
         _check_size(op, field, value)
+    if op.entity == "table_row" and field not in TableRecord.model_fields:  # a firm's record holds its model's alone
+        msg = f"{_where(op, field)}: not a field of table_row"
+        raise RecordInvalid(msg)
     if field == "site_id" or field in ALWAYS_TEXT_ID:
         _check_id(op, field, value, optional=field != "site_id")
         return
@@ -158,9 +161,31 @@ def _is_stamp(stamp: Any) -> bool:
     )
 
 
+def _check_table_row(op: Op) -> None:
+    """A table row record whole in one edit (as ``firm_tables.record`` writes it) passes the model whole, under its id.
+
+    An edit of part of a record (written by an older app resolving a conflict) is checked field by field only:
+    refusing it would refuse its whole bundle for good; the record it leaves is checked whole where it is used
+    (``firm_tables.read``), and set aside there if it is not valid.
+    """
+    if not set(TableRecord.model_fields) <= set(op.payload):
+        return
+    try:
+        record = TableRecord.model_validate(op.payload)
+    except ValidationError as exc:
+        field = ".".join(str(p) for p in exc.errors()[0]["loc"]) or "(record)"
+        msg = f"{_where(op, field)}: {_first_error(exc)}"
+        raise RecordInvalid(msg) from exc
+    if record_id(record.table, record.row) != op.record_id:
+        msg = f"{_where(op, 'row')}: names table {record.table!r} row {record.row!r}, not the row of its record id"
+        raise RecordInvalid(msg)
+
+
 def _check_set(op: Op, long: bool) -> None:
     for field, value in op.payload.items():
         _check_set_field(op, field, value, long)
+    if op.entity == "table_row":
+        _check_table_row(op)
     for field, stamp in op.base.items():
         if not _is_stamp(stamp):
             msg = f"{_where(op, field)}: base stamp {str(stamp)[:60]} is not [hlc, origin]"

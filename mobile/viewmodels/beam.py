@@ -503,11 +503,15 @@ class BeamFormViewModel:
         return "" if r is None else f"Table rows used: {counts(rows_used([r]))} (tap for each row)"
 
     def table_row_lines(self) -> list[str]:
-        """Each table row the recheck used with its status: confirmed / verified by the firm / memory."""
+        """Each table row the recheck used with its status: confirmed / verified by the firm / memory.
+
+        First, each firm record about a table row that is not applied (not a whole, valid record), and why.
+        """
         r = self.result or self.refresh()
         if r is None:
             return []
         return [
+            *(f"[NOT USED]  {a.words}" for a in self.store.table_records_set_aside()),
             "Every table row this recheck rests on; rows entered from memory must be acknowledged before a "
             "notice is issued (or verified by the firm: bracewalk tables verify):",
             *(f"[{row.status_words}]  {row.label}" for row in rows_used([r])),

@@ -62,8 +62,12 @@ class NoticeViewModel:
         return rows_for_items(self.store, self.site_id, sorted(self.chosen))
 
     def table_row_lines(self) -> list[str]:
-        """'MEMORY (not checked ...)  ·  CSA O86-19 Table 7.3: glulam_grades row ...' per row used."""
-        return [f"{r.status_words}  ·  {r.label}" for r in self.table_rows()]
+        """'MEMORY (not checked ...)  ·  CSA O86-19 Table 7.3: glulam_grades row ...' per row used.
+
+        First, each firm record about a table row that is not applied (not a whole, valid record), and why.
+        """
+        aside = [f"NOT USED  ·  {a.words}" for a in self.store.table_records_set_aside()]
+        return aside + [f"{r.status_words}  ·  {r.label}" for r in self.table_rows()]
 
     def items_heading(self) -> str:
         """Step 1's heading: how many open items there are and how many are chosen."""

@@ -20,7 +20,7 @@ from storage.hubsync import HUB_PEER, pull_quarantine_words, rejection_words, re
 from storage.hubsync import last_sync as last_hub_sync
 from storage.identity import enrolment
 from storage.stamps import local_time, utc_stamp
-from storage.store import OFFICE_PEER
+from storage.store import OFFICE_PEER, ConflictNotResolved
 
 SKEW_WARN_MS = 2 * 60 * 1000  # sync.md 3.3: warn when the tablet's clock is this far from the hub's
 
@@ -31,6 +31,7 @@ class SyncViewModel:
 
     store: Store
     peer: str = OFFICE_PEER
+    refused: dict[int, str] = field(default_factory=dict)  # conflict id -> why resolving it was refused
 
     def status(self) -> str:
         """'12 changes not yet sent to the office · last sync ...' .
@@ -205,8 +206,12 @@ class SyncViewModel:
         return rejection_words(self.store)
 
     def set_aside(self) -> list[str]:
-        """Changes pulled from the office that this tablet did not apply (signature not verified), in words."""
-        return pull_quarantine_words(self.store)
+        """What this tablet holds but does not apply, in words.
+
+        Changes pulled from the office whose signature or record did not verify, and the firm's table row
+        records that are not whole, valid records (the published row is used until they are fixed).
+        """
+        return pull_quarantine_words(self.store) + [a.words for a in self.store.table_records_set_aside()]
 
     def conflicts(self) -> list[tuple[int, str]]:
         """[(conflict id, 'beam RB-2 · spans_mm: kept [7200] (device A) · other [7000] (device B)')]."""
@@ -217,16 +222,29 @@ class SyncViewModel:
                     int(c["id"]),
                     f"{c['entity']} {self._name(c['entity'], c['record_id'])} · {c['field']}: "
                     f"kept {_short(c['winner_value'])} (device {str(c['winner_origin'])[-4:].upper()})  ·  "
-                    f"other {_short(c['loser_value'])} (device {str(c['loser_origin'])[-4:].upper()})",
+                    f"other {_short(c['loser_value'])} (device {str(c['loser_origin'])[-4:].upper()})"
+                    + (f"  ·  NOT DONE: {self.refused[c['id']]}" if c["id"] in self.refused else ""),
                 )
             )
         return out
 
-    def resolve(self, conflict_id: int, keep: str, actor: str) -> None:
-        """Keep the value in force ('winner') or put the other one back ('loser', saved as a new edit)."""
-        self.store.resolve_conflict(conflict_id, keep, actor)
+    def resolve(self, conflict_id: int, keep: str, actor: str) -> str:
+        """Keep the value in force ('winner') or put the other one back ('loser', saved as a new edit).
+
+        Returns '' when done, or why it was refused (nothing saved; ``Store.resolve_conflict``), which the
+        conflict's line then says too.
+        """
+        try:
+            self.store.resolve_conflict(conflict_id, keep, actor)
+        except ConflictNotResolved as exc:
+            self.refused[conflict_id] = str(exc)  # shown on the conflict's line (``conflicts``)
+            return str(exc)
+        self.refused.pop(conflict_id, None)
+        return ""
 
     def _name(self, entity: str, record_id: str) -> str:
+        if entity == "table_row":
+            return record_id  # 'glulam_grades:D.Fir-L/24f-E': the table and the row
         if entity == "beam":
             try:
                 return str(self.store.beam_record(record_id).get("mark", record_id[-6:]))
