@@ -32,6 +32,9 @@ from mobile.viewmodels.common import default_export_dir
 from mobile.viewmodels.site import KEEP
 
 TYPING_PAUSE_S = 0.35  # save this long after the last keystroke (and at once on Enter or leaving the field)
+# the opened IMMEDIATE banner's view at most this share of the screen's height (the rest scrolls in it): at the
+# review's geometries the form and the recheck keep at least 25 mm each beside or under it
+BANNER_OPEN_SHARE = 0.4
 
 
 ARCHIVE_PROMPT = "Archive this beam (logged by mistake)…"
