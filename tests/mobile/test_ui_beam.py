@@ -7,9 +7,10 @@ a new beam opened on the previous one's panel scroll, restraint buttons breaking
 raised-finding numbers light grey on grey. The session-34 review found the IMMEDIATE banner opened with several
 findings pushing the top bar and its first finding off the window. The flow (ui_drive.py "beam-geometry") opens
 RB-1 (passes), RB-3 (deficient, IMMEDIATE; then with five IMMEDIATE findings, the banner opened: the top bar and
-its first finding in view, at most half the window high, its last line reached by scrolling) and RB-5 (not
-established), each after scrolling the one before to the end of its panel, and holds every view to
-``layout_problems`` and ``beam_problems``.
+its first finding in view, at most half the window high, its last line reached by scrolling), RB-5 (not
+established) and the sawn joist FJ-1 (its lengths typed in inches, six digits as shown: "234.95 mm" was drawn
+"5 mm" in landscape), each after scrolling the one before to the end of its panel, and holds every view to
+``layout_problems`` and ``beam_problems`` (every typed value drawn whole).
 
 Screenshots: test-artefacts/ui-beam/<geometry>-*.png (look at them).
 """

@@ -18,6 +18,7 @@ import inspect
 import os
 import signal
 import sys
+from itertools import pairwise
 from pathlib import Path
 
 from kivy.clock import Clock
@@ -361,6 +362,40 @@ def drawn_contrast(png, w):
     return (max(lb, lt) + 0.05) / (min(lb, lt) + 0.05)
 
 
+def field_cut(w):
+    """A text field whose text (its hint when empty) is wider than the field or on more lines than it shows."""
+    text = w.text or w.hint_text
+    if not text.strip():
+        return []
+    lines = w._lines if w.text else w._hint_text_lines
+    left, top, right, bottom = w.padding
+    widest = max(w._get_text_width(line, w.tab_width, w._label_cached) for line in lines)
+    tall = len(lines) * (w.line_height + w.line_spacing) + top + bottom
+    what = f"{w.__class__.__name__} {'text' if w.text else 'hint'} {text[:40]!r}"
+    found = []
+    if widest > w.width - left - right + 1:
+        found.append(f"{what}: {widest:.0f} px wide in a field {w.width - left - right:.0f} px wide inside")
+    if tall > w.height + 1:
+        found.append(f"{what}: {len(lines)} lines need {tall:.0f} px, the field is {w.height:.0f} px high")
+    broken = [f"{a.strip()} / {b.strip()}" for a, b in pairwise(lines) if not a[-1:].isspace()]
+    if broken:  # a line that wraps ends at a space: not '(utilisation 1.' / '66'
+        found.append(f"{what}: a word broken across lines: {broken[0]!r}")
+    return found
+
+
+def typed_value_problems(root, free_text=()):
+    """Text fields under ``root`` holding a value that does not draw whole (in view or scrolled out of it).
+
+    The form shows a stored length with its unit and up to six digits ("234.95 mm", "388.938 mm"); a field
+    narrower than that showed only its end ("5 mm" for 234.95 mm, "38.1 r" for 38.1 mm: session-34 review).
+    ``free_text``: fields of free text (a note) left out: one line of a sentence scrolls sideways as typed.
+    """
+    from kivy.uix.textinput import TextInput
+
+    fields = [w for w in root.walk(restrict=True) if isinstance(w, TextInput) and w not in free_text]
+    return [p for w in fields if w.text and _drawn(w) for p in field_cut(w)]
+
+
 def _caution_bands(s):
     return [w for w in s.walk(restrict=True) if "judgement of the engineer of record" in getattr(w, "text", "")]
 
@@ -452,6 +487,7 @@ def beam_problems(s, dpi):
     """
     mm = dpi / 25.4  # px per mm at the tablet's real dpi
     found = cut_text_problems(s) + _column_problems(s, mm) + _banner_problems(s, mm) + _top_problems(s)
+    found += typed_value_problems(s, free_text=(s.fields["notes"].ids.input,))
     for (i, key, _state), b in s.restraint_buttons.items():
         if broken := mid_word_break(b):
             found.append(f"S{i} {key} button {b.text!r} breaks a word: {broken}")
@@ -1343,6 +1379,48 @@ elif FLOW == "beam-geometry":
             print(f"MEASURE raised button contrast {ratio:.1f}:1", flush=True)
             if ratio < 7:
                 seen.append(f"RB-5: {w.text!r} drawn at a contrast of {ratio:.1f}:1 (< 7:1)")
+        leave_at_the_end()
+
+    @step
+    def open_sawn():
+        app.open_beam(demo_beam("FJ-1"))
+
+    @step
+    def sawn_lengths_typed():
+        # the session-34 review's joist typed in inches: 1 1/2" x 9 1/4" showed "38.1 r" and "5 mm" in landscape;
+        # each length field gets a value of six digits as the form shows it ("234.95 mm", "388.938 mm")
+        s = screen("beam")
+        assert s.vm.record()["material"] == "sawn", s.vm.record()["material"]
+        typed = {
+            "b_mm": ('1 1/2"', "38.1 mm"),
+            "d_mm": ('9 1/4"', "234.95 mm"),
+            "spans": ("14' 6 5/16\"", "4427.54 mm"),
+            "overhang_left_mm": ("1' 3 5/16\"", "388.938 mm"),
+            "bottom_spacing_mm": ('23 7/16"', "595.312 mm"),
+        }
+        for name, (text, shown) in typed.items():
+            type_into(name, text)
+            got = field(name).text
+            if s.vm.errors.get(name) or got != shown:
+                seen.append(f"FJ-1 {name}: {text!r} shows {got!r} ({s.vm.errors.get(name, 'no message')})")
+        w = s.length_inputs[1]
+        w.focus = True
+        w.text = '3 1/16"'  # 77.7875 mm
+        w.focus = False
+        s.ids.form_scroll.scroll_to(s.fields["d_mm"], animate=False)  # width and depth in view
+
+    @step
+    def sawn_size_fields():
+        s = screen("beam")
+        yield from beam_look("4-fj1-size-fields")
+        s.ids.form_scroll.scroll_to(s.fields["overhang_left_mm"], animate=False)
+
+    @step
+    def sawn_span_fields():
+        yield from beam_look("4b-fj1-span-fields")
+
+    @step
+    def verdict():
         print(f"WINDOW {app.root_window.size}", flush=True)
         assert not seen, "\n".join(seen[:30]) + (f"\n... {len(seen)} in all" if len(seen) > 30 else "")
 
@@ -1962,8 +2040,6 @@ elif FLOW == "defsite-geometry":
     # KIVY_DPI, KIVY_METRICS_DENSITY and the window): every text whole (labels, pickers, fields and their hints),
     # nothing overlapping, the beam list at least BRACEWALK_MIN_ROWS whole rows, and the deficiency with the
     # longest required action shown whole in its fields (the session-32 review read "Make safe now: snov").
-    import itertools
-
     GEOM = os.environ.get("BRACEWALK_GEOMETRY", "default")
     DPI = float(os.environ["KIVY_DPI"])
     MIN_ROWS = int(os.environ["BRACEWALK_MIN_ROWS"])
@@ -1979,26 +2055,6 @@ elif FLOW == "defsite-geometry":
         tw, th = w.texture_size
         if tw > w.width + 2 or th > w.height + 2:
             found.append(f"{what}: its text {tw:.0f}x{th:.0f} px spills out of its {w.width:.0f}x{w.height:.0f} px box")
-        return found
-
-    def field_cut(w):
-        """A text field whose text (its hint when empty) is wider than the field or on more lines than it shows."""
-        text = w.text or w.hint_text
-        if not text.strip():
-            return []
-        lines = w._lines if w.text else w._hint_text_lines
-        left, top, right, bottom = w.padding
-        widest = max(w._get_text_width(line, w.tab_width, w._label_cached) for line in lines)
-        tall = len(lines) * (w.line_height + w.line_spacing) + top + bottom
-        what = f"{w.__class__.__name__} {'text' if w.text else 'hint'} {text[:40]!r}"
-        found = []
-        if widest > w.width - left - right + 1:
-            found.append(f"{what}: {widest:.0f} px wide in a field {w.width - left - right:.0f} px wide inside")
-        if tall > w.height + 1:
-            found.append(f"{what}: {len(lines)} lines need {tall:.0f} px, the field is {w.height:.0f} px high")
-        broken = [f"{a.strip()} / {b.strip()}" for a, b in itertools.pairwise(lines) if not a[-1:].isspace()]
-        if broken:  # a line that wraps ends at a space: not '(utilisation 1.' / '66'
-            found.append(f"{what}: a word broken across lines: {broken[0]!r}")
         return found
 
     def whole_text_problems(root):
