@@ -31,7 +31,7 @@ from core.recheck import recheck
 from core.records import Stage
 from core.remedies import remedies
 from core.results import CheckKind, Recheck, check_lines
-from mobile.units import LengthRefused, echo_length, read_length, split_spans
+from mobile.units import LengthRefused, echo_length, feet_inches, read_length, split_spans
 from mobile.viewmodels.common import PRIORITY_LABELS, line_loads_kn_m, status_label
 from reports.content import support_names, trace_line
 from reports.inputs import loads_source, sheet_stem
@@ -210,8 +210,9 @@ class BeamFormViewModel:
             return ""
         if width is None:
             return "line loads typed directly" if name == "tributary_m" else "typed directly"
-        if name == "tributary_m":
-            return "line loads below are derived from this width x the site's design basis"
+        if name == "tributary_m":  # what the width was read as, in both unit systems ('16' is 16 m = 52' 5 15/16")
+            shown = f"= {width:g} m = {feet_inches(width * 1000)}"
+            return f"{shown}; the line loads below are derived from this width x the site's design basis"
         kpa = getattr(self.basis(rec), name.replace("_kn_m", "_kpa"))
         where = rec.get("load_basis") or "site"
         return f"derived: {width:g} m x {kpa:g} kPa ({where}) = {loads.get(name, 0):g} kN/m"
@@ -281,7 +282,7 @@ class BeamFormViewModel:
     def _tributary_entry(self, text: str, rec: dict[str, Any]) -> dict[str, Any]:
         if not text:
             return {"tributary_m": None}  # cleared: the line loads stay as they are
-        width = _number("tributary_m", text, "tributary_m")
+        width = read_length("tributary_m", text) / 1000  # mm, m or feet-inches; a bare number in m
         return {"tributary_m": width, "loads": line_loads_kn_m(self.basis(rec), width)}
 
     def _basis_entry(self, text: str, rec: dict[str, Any]) -> dict[str, Any]:

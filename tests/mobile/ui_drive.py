@@ -1418,6 +1418,33 @@ elif FLOW == "beam-geometry":
     @step
     def sawn_span_fields():
         yield from beam_look("4b-fj1-span-fields")
+        # the joists are at 16" on centre: their tributary width typed on the field's keypad, which offers ' and "
+        # (refused before as "tributary_m = '16\"': enter a number"); then a bare 400, which is no width in m
+        s = screen("beam")
+        popup = s.fields["tributary_m"].open_keypad()
+        for key in ("C", "1", "6", '"'):
+            next(b for b in popup.content.children[1].children if b.text == key).trigger_action(0)
+        popup.dismiss()  # a tap outside enters it
+        width = s.vm.record().get("tributary_m")
+        if s.vm.errors.get("tributary_m") or width is None or abs(width - 0.4064) > 1e-9:
+            seen.append(f'FJ-1 tributary width 16": stored {width!r}, message {s.vm.errors.get("tributary_m")!r}')
+        if not s.fields["tributary_m"].echo.startswith("= 0.4064 m = 1' 4\""):
+            seen.append(f'FJ-1 tributary width 16": echoed {s.fields["tributary_m"].echo!r}')
+        type_into("tributary_m", "400")
+
+    @step
+    def sawn_tributary_refused():
+        s = screen("beam")
+        tf = s.fields["tributary_m"]
+        s.ids.form_scroll.scroll_to(tf.ids.suggest, animate=False)  # the question laid out: its button in view
+        yield from beam_look("4c-fj1-tributary-asked")
+        if "tributary_m" in tf.error or not tf.error.startswith("tributary width:"):
+            seen.append(f"FJ-1 tributary width 400: the message {tf.error!r} is not in the field's words")
+        if not tf.error.endswith("Did you mean 400 mm?") or _shown(tf.ids.suggest) != _window_rect(tf.ids.suggest):
+            seen.append(f"FJ-1 tributary width 400: no question, or its button not in view: {tf.error!r}")
+        tf.ids.suggest.trigger_action(0)  # "Use 400 mm"
+        if abs((s.vm.record().get("tributary_m") or 0) - 0.4) > 1e-9:
+            seen.append(f"FJ-1 tributary width: 'Use 400 mm' stored {s.vm.record().get('tributary_m')!r}")
 
     @step
     def verdict():
