@@ -400,6 +400,19 @@ def _caution_bands(s):
     return [w for w in s.walk(restrict=True) if "judgement of the engineer of record" in getattr(w, "text", "")]
 
 
+UNSEEN = "not seen or not recorded is taken as the unfavourable case"  # what the caution band must also say
+
+
+def caution_problems(s):
+    """The caution band whole on the window, saying that what was not seen or not recorded is taken as unfavourable."""
+    bands = [w for w in _caution_bands(s) if _shown(w) == _window_rect(w)]
+    if not bands:
+        return ["the caution is not on screen whole"]
+    if not any(UNSEEN in " ".join(w.text.split()) for w in bands):
+        return [f"the caution does not say what was {UNSEEN}: {bands[0].text[:80]!r}"]
+    return []
+
+
 BANNER_OPEN_MAX = 0.5  # the opened IMMEDIATE banner takes at most this share of the window's height
 
 
@@ -495,8 +508,7 @@ def beam_problems(s, dpi):
         box = s.fields[name].ids.input
         if box.width < 30 * mm:
             found.append(f"{name} input {box.width / mm:.0f} mm wide (< 30 mm)")
-    if not any(_shown(w) == _window_rect(w) for w in _caution_bands(s)):
-        found.append("the caution is not on screen whole")
+    found += caution_problems(s)
     from kivy.uix.spinner import Spinner
 
     for w in s.walk(restrict=True):  # a picker's chosen value wider than the picker is drawn past its edges
@@ -2145,7 +2157,9 @@ elif FLOW == "defsite-geometry":
     @step
     def sites_top():
         yield from shot(f"{GEOM}-1-sites")
-        check("sites", layout_problems("sites") + whole_text_problems(screen("sites")))
+        check(
+            "sites", layout_problems("sites") + whole_text_problems(screen("sites")) + caution_problems(screen("sites"))
+        )
         form = screen("sites").ids.new_name.parent.parent.parent  # the form's ScrollView
         form.scroll_y = 0  # the lower fields: contractor contact, notice copies, load bases and their hints
 
@@ -2160,7 +2174,9 @@ elif FLOW == "defsite-geometry":
         yield from shot(f"{GEOM}-2-site")
         s = screen("site")
         site = app.store.site(app.site_id)
-        problems = layout_problems("site") + whole_text_problems(s) + counts_problems(s.ids.counts)
+        problems = (
+            layout_problems("site") + whole_text_problems(s) + counts_problems(s.ids.counts) + caution_problems(s)
+        )
         if site.name not in s.ids.title.text or site.address not in s.ids.title.text:
             problems.append(f"the title {s.ids.title.text!r} without the site's name and address")
         rows = whole_beam_rows()
@@ -2245,7 +2261,7 @@ elif FLOW == "defsite-geometry":
         s = screen("deficiency")
         yield from shot(f"{GEOM}-3-deficiency")
         d = app.store.deficiency(app.deficiency_id)
-        problems = layout_problems("deficiency") + whole_text_problems(s)
+        problems = layout_problems("deficiency") + whole_text_problems(s) + caution_problems(s)
         for name in ("location", "description", "action", "reference"):
             w, stored = s.ids[name], getattr(d, name)
             if w.text != stored:
