@@ -18,11 +18,12 @@ import time
 from collections import Counter
 from collections.abc import Callable
 from dataclasses import dataclass, field
+from functools import cache
 from importlib.metadata import version
 from pathlib import Path
 from typing import Any
 
-from pydantic import ValidationError
+from pydantic import TypeAdapter, ValidationError
 
 from core import tables
 from core.models import Beam, Material, bearings_with_stand_ins, grades_allowed, species_allowed
@@ -348,7 +349,7 @@ class BeamFormViewModel:
         if changes:
             if not self._save(name, changes):
                 return False
-            self._undo.append({k: rec.get(k) for k in changes})
+            self._undo.append({k: _before(rec, k) for k in changes})
         self.refresh()
         return True
 
@@ -528,7 +529,7 @@ class BeamFormViewModel:
         rec = self.record()
         changes = {k: copy.deepcopy(other[k]) for k in COPIED if k in other and other[k] != rec.get(k)}
         if changes:
-            self._undo.append({k: rec.get(k) for k in changes})
+            self._undo.append({k: _before(rec, k) for k in changes})
             self.store.update_beam(self.beam_id, changes)
         self.errors.clear()
         self.refresh()
@@ -632,6 +633,26 @@ def trade_message(exc: ValidationError) -> str:
         where = ".".join(map(str, e["loc"]))
         out.append(msg if (not where or where in msg) else f"{where}: {msg}")
     return "; ".join(out) + ("" if out and out[-1].endswith(".") else ".")
+
+
+@cache
+def _model_defaults() -> dict[str, Any]:
+    """The beam model's defaults as stored (JSON values), for the fields that have one."""
+    out: dict[str, Any] = {}
+    for name, info in Beam.model_fields.items():
+        if not info.is_required():
+            annotation: Any = info.annotation
+            out[name] = TypeAdapter(annotation).dump_python(info.get_default(call_default_factory=True), mode="json")
+    return out
+
+
+def _before(rec: dict[str, Any], key: str) -> Any:
+    """A field's value before a change, for undo: a model field the record never stored puts back its default.
+
+    A new beam stores none of them; putting back nothing (None) left a record no recheck reads ('top_stamp:
+    Input should be ...') after undoing the first pick of the TOP stamp or the service condition.
+    """
+    return rec[key] if key in rec else _model_defaults().get(key)
 
 
 def _with_stand_ins(rec: dict[str, Any]) -> dict[str, Any]:

@@ -8,6 +8,7 @@ reviewer's explicit action.
 import pytest
 
 from core.kinds import FindingCode
+from core.models import Beam
 from core.results import Status
 from mobile.demo.run import load_demo
 from mobile.viewmodels import BeamFormViewModel, SiteViewModel
@@ -70,3 +71,17 @@ def test_copy_from_is_the_explicit_way_to_take_them(site):
     rec = store.beam_record(new)
     assert rec["top_stamp"] == "up"
     assert rec["use"] == "roof_no_ceiling"
+
+
+@pytest.mark.parametrize(("name", "text"), [("top_stamp", "up"), ("service", "wet")])
+def test_undoing_the_first_pick_on_a_new_beam_puts_back_the_default(site, name, text):
+    """A field the new beam never stored goes back to the model's default, not to nothing (which no recheck reads)."""
+    store, site_id = site
+    form = BeamFormViewModel(store, site_id, SiteViewModel(store, site_id).new_beam())
+    for entry, typed in ENTRIES.items():
+        assert form.set_field(entry, typed), (entry, form.errors)
+    assert name not in store.beam_record(form.beam_id)
+    assert form.set_field(name, text)
+    assert form.undo()
+    assert store.beam_record(form.beam_id)[name] == Beam.model_fields[name].get_default()
+    assert form.refresh() is not None, form.recheck_error
