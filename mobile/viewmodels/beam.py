@@ -3,8 +3,8 @@
 Names used by the screen (widget ids) and by ``set_field``:
 text: mark, level, gridline, notes, b_mm, d_mm, spans, overhang_left_mm, overhang_right_mm,
 purlin_spacing_mm, bottom_spacing_mm, tributary_m, dead_kn_m, live_kn_m, snow_kn_m, specified_size,
-bearingN.length_mm; pickers: material, species, grade, top_braced_by, top_fastened, bottom_braced_by,
-service, use, top_stamp, bearingN.lateral, bearingN.rotation.
+bearingN.length_mm; pickers: material, species, grade, system (sawn members), top_braced_by, top_fastened,
+bottom_braced_by, service, use, top_stamp, bearingN.lateral, bearingN.rotation.
 
 A value that is refused is kept as a draft in the beam record (so a killed app loses nothing typed)
 and shown back with its message; the last valid value stays in force for the recheck.
@@ -26,7 +26,7 @@ from typing import Any
 from pydantic import TypeAdapter, ValidationError
 
 from core import tables
-from core.models import Beam, Material, bearings_with_stand_ins, grades_allowed, species_allowed
+from core.models import Beam, Material, SystemCase, bearings_with_stand_ins, grades_allowed, species_allowed
 from core.plausible import PLAUSIBLE
 from core.recheck import recheck
 from core.records import Stage
@@ -53,9 +53,13 @@ LOAD_FIELDS = ("dead_kn_m", "live_kn_m", "snow_kn_m")
 TEXT_ONLY = ("level", "gridline", "notes")
 REMEDIES_KEY = "remedies"
 NOT_RECORDED = "not recorded"  # core takes the unfavourable case and says so in a finding
+# a sawn member's system not recorded: core's default, a single member (KH 1.0, the lowest of O86-19 Table 6.12),
+# stored as "single" with ``system_recorded`` false (core's model has no "not recorded" system)
+SYSTEM_NOT_RECORDED = "not recorded (taken as single member)"
 _YES_NO: dict[Any, str] = {True: "yes", False: "no"}
 PICKERS: dict[str, tuple[str, ...]] = {
     "material": ("glulam", "sawn"),
+    "system": (SYSTEM_NOT_RECORDED, *(case.value for case in SystemCase)),
     "top_braced_by": ("none", "purlins", "decking"),
     "top_fastened": ("yes", "no", NOT_RECORDED),
     "bottom_braced_by": ("none", "braces"),
@@ -84,6 +88,10 @@ CHOICE_WORDS = {
     "no": "No",
     "glulam": "Glulam",
     "sawn": "Sawn lumber",
+    "single": "Single member",  # the systems of core.models.SystemCase (KH, O86-19 Table 6.12)
+    "shared": "Load-sharing system",
+    "light_frame": "Sheathed light-frame system",
+    "built_up": "Built-up member",
 }
 # copied by "copy from": member, bracing and loads; never the span, the bearings or the mark
 COPIED = (
@@ -101,6 +109,8 @@ COPIED = (
     "tributary_m",
     "load_basis",
     "specified",
+    "system",
+    "system_recorded",
 )
 _SIZE = re.compile(r"^\s*(.+?)\s*[x×*]\s*(.+?)\s*$", re.IGNORECASE)
 
@@ -145,6 +155,7 @@ class BeamFormViewModel:
             "material": _fmt(rec.get("material")),
             "species": _fmt(rec.get("species")),
             "grade": _fmt(rec.get("grade")),
+            "system": system_shown(rec),
             "b_mm": _mm(rec.get("b_mm")),
             "d_mm": _mm(rec.get("d_mm")),
             "spans": "; ".join(_mm(s) for s in rec.get("spans_mm", [])),
@@ -273,6 +284,7 @@ class BeamFormViewModel:
             "tributary_m": self._tributary_entry,
             "load_basis": self._basis_entry,
             "material": _material_entry,
+            "system": _system_entry,
             "species": _species_entry,
             "top_braced_by": _top_braced_entry,
             "top_fastened": _top_fastened_entry,
@@ -746,11 +758,35 @@ def _material_entry(text: str, rec: dict[str, Any]) -> dict[str, Any]:
     material = Material(text)
     species = rec.get("species") if rec.get("species") in species_allowed(material) else species_allowed(material)[0]
     grades = grades_allowed(material, str(species))
-    return {
+    changes = {
         "material": text,
         "species": species,
         "grade": rec.get("grade") if rec.get("grade") in grades else grades[0],
     }
+    if material is Material.glulam and system_shown(rec) != SYSTEM_NOT_RECORDED:  # glulam takes KH 1.0 only
+        changes.update(system=SystemCase.single.value, system_recorded=False)
+    return changes
+
+
+def system_shown(rec: dict[str, Any]) -> str:
+    """A beam's system as its picker holds it: the stored case once recorded, else SYSTEM_NOT_RECORDED.
+
+    A record saved whole (the demo, ``bracewalk check`` input) holds core's default "single" with no
+    ``system_recorded``: not recorded. Another case stored there was given, so it is shown.
+    """
+    system = rec.get("system")
+    recorded = rec.get("system_recorded") is True or system not in (None, SystemCase.single.value)
+    return str(system) if recorded else SYSTEM_NOT_RECORDED
+
+
+def _system_entry(text: str, rec: dict[str, Any]) -> dict[str, Any]:
+    del rec  # the system changes only itself
+    if text not in PICKERS["system"]:
+        msg = f"system {text!r}; allowed: {', '.join(PICKERS['system'])}"
+        raise ValueError(msg)
+    if text == SYSTEM_NOT_RECORDED:
+        return {"system": SystemCase.single.value, "system_recorded": False}
+    return {"system": text, "system_recorded": True}
 
 
 def _species_entry(text: str, rec: dict[str, Any]) -> dict[str, Any]:

@@ -9,8 +9,11 @@ findings pushing the top bar and its first finding off the window. The flow (ui_
 RB-1 (passes), RB-3 (deficient, IMMEDIATE; then with five IMMEDIATE findings, the banner opened: the top bar and
 its first finding in view, at most half the window high, its last line reached by scrolling), RB-5 (not
 established) and the sawn joist FJ-1 (its lengths typed in inches, six digits as shown: "234.95 mm" was drawn
-"5 mm" in landscape), each after scrolling the one before to the end of its panel, and holds every view to
-``layout_problems`` and ``beam_problems`` (every typed value drawn whole).
+"5 mm" in landscape; its tributary width 16" on the keypad, then a bare 400 and its question; its system picker,
+"not recorded (taken as single member)", each choice whole, load-sharing picked and shown again when the beam is
+opened again), each after scrolling the one before to the end of its panel, and holds every view to
+``layout_problems`` and ``beam_problems`` (every typed value drawn whole, the caution saying that what was not
+seen or not recorded is taken as the unfavourable case).
 
 Screenshots: test-artefacts/ui-beam/<geometry>-*.png (look at them).
 """

@@ -396,6 +396,11 @@ def typed_value_problems(root, free_text=()):
     return [p for w in fields if w.text and _drawn(w) for p in field_cut(w)]
 
 
+def _in_tree(root, w):
+    """Whether ``w`` is among ``root``'s widgets (a widget taken out of a form keeps its size, not its parent)."""
+    return any(x is w for x in root.walk(restrict=True))
+
+
 def _caution_bands(s):
     return [w for w in s.walk(restrict=True) if "judgement of the engineer of record" in getattr(w, "text", "")]
 
@@ -413,6 +418,7 @@ def caution_problems(s):
     return []
 
 
+SYSTEM_DEFAULT = "not recorded (taken as single member)"  # a sawn member's system picker before a choice
 BANNER_OPEN_MAX = 0.5  # the opened IMMEDIATE banner takes at most this share of the window's height
 
 
@@ -1290,6 +1296,8 @@ elif FLOW == "beam-geometry":
         s = screen("beam")
         assert s.vm.status() == "ok", s.vm.status()
         assert not s.immediate_text, s.immediate_text
+        if "system" in s.fields and _in_tree(s, s.fields["system"]):
+            seen.append("RB-1 (glulam, KH 1.0 only) shows the sawn members' system picker")
         yield from beam_look("1-rb1-pass")
         s.ids.form_scroll.scroll_to(s.ids.bearings, animate=False)
 
@@ -1457,6 +1465,56 @@ elif FLOW == "beam-geometry":
         tf.ids.suggest.trigger_action(0)  # "Use 400 mm"
         if abs((s.vm.record().get("tributary_m") or 0) - 0.4) > 1e-9:
             seen.append(f"FJ-1 tributary width: 'Use 400 mm' stored {s.vm.record().get('tributary_m')!r}")
+        # a sawn member's system (KH: single member, load-sharing, sheathed light-frame); not recorded, the recheck
+        # takes a single member, and the form says so
+        pf = s.fields.get("system")
+        if pf is None or not _in_tree(s, pf):
+            seen.append("FJ-1: no picker for the system (single member, load-sharing, light-frame) on a sawn member")
+            return
+        if pf.ids.input.text != SYSTEM_DEFAULT:
+            seen.append(f"FJ-1: the system picker shows {pf.ids.input.text!r}, not {SYSTEM_DEFAULT!r}")
+        s.ids.form_scroll.scroll_to(pf, animate=False)
+        pf.ids.input.is_open = True  # its choices, each whole
+
+    @step
+    def sawn_system_choices():
+        s = screen("beam")
+        if "system" not in s.fields:
+            return
+        spinner = s.fields["system"].ids.input
+        yield from beam_look("4d-fj1-system-choices")
+        options = [w for w in spinner._dropdown.container.children if getattr(w, "text", "")]
+        for w in options:
+            w.texture_update()
+            tw, th = w.texture_size
+            if tw > w.width + 2 or th > w.height + 2 or w.height < DPI / 25.4 * 15 - 1:
+                seen.append(
+                    f"FJ-1 system choice {w.text!r}: text {tw:.0f}x{th:.0f} px in {w.width:.0f}x{w.height:.0f} px"
+                )
+        spinner.is_open = False
+        spinner.text = "Load-sharing system"  # picked: saved at once
+        rec = s.vm.record()
+        if (rec.get("system"), rec.get("system_recorded")) != ("shared", True):
+            seen.append(f"FJ-1: load-sharing picked, stored {rec.get('system')!r} {rec.get('system_recorded')!r}")
+        s.ids.back.trigger_action(0)
+
+    @step
+    def reopen_sawn():
+        app.open_beam(demo_beam("FJ-1"))
+
+    @step
+    def sawn_system_kept():
+        s = screen("beam")
+        if "system" not in s.fields:
+            return
+        pf = s.fields["system"]
+        if pf.ids.input.text != "Load-sharing system":
+            seen.append(f"FJ-1 opened again: the system picker shows {pf.ids.input.text!r}")
+        s.ids.form_scroll.scroll_to(pf, animate=False)
+
+    @step
+    def sawn_system_kept_shot():
+        yield from beam_look("4e-fj1-system-load-sharing")
 
     @step
     def verdict():
