@@ -30,7 +30,6 @@ from kivy.lang import Builder  # noqa: E402
 from kivy.properties import ListProperty, StringProperty  # noqa: E402
 from kivy.uix.screenmanager import NoTransition, ScreenManager  # noqa: E402
 
-from core.results import CAUTION  # noqa: E402
 from mobile.screens.beam import BeamScreen  # noqa: E402
 from mobile.screens.deficiency import DeficiencyScreen  # noqa: E402
 from mobile.screens.notice import NoticeScreen  # noqa: E402
@@ -39,6 +38,7 @@ from mobile.screens.reviewer import ReviewerScreen  # noqa: E402
 from mobile.screens.site import SiteScreen  # noqa: E402
 from mobile.screens.sites import SitesScreen  # noqa: E402
 from mobile.screens.sync import SyncScreen  # noqa: E402
+from mobile.viewmodels.common import APP_CAUTION  # noqa: E402
 from mobile.viewmodels.sync import AutoSync, BackgroundSync, SyncViewModel  # noqa: E402
 from storage import Store  # noqa: E402
 
@@ -88,7 +88,7 @@ class BracewalkApp(App):
     theme_input = ListProperty(list(THEMES["sun"]["input"]))
     theme_alert = ListProperty(list(THEMES["sun"]["alert"]))
     theme_band = ListProperty(list(THEMES["sun"]["band"]))
-    caution = StringProperty(CAUTION)
+    caution = StringProperty(APP_CAUTION)
     previous_screen = StringProperty("sites")
 
     def __init__(self, db: str | None = None, **kwargs: Any):

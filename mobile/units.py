@@ -3,9 +3,10 @@
 One parser serves the beam form and the CLI's JSON input. A decimal comma is a decimal point
 (``3,9 m``); spans are separated by ``;`` (never by ``,``). Feet-inches accepts ``23' 7 1/2"``,
 ``23'-7 1/2"``, ``7-1/2"``, ``7½"`` and ``23 ft 7.5 in``. A number typed without a unit is read
-in the field's unit (mm for lengths). Every value is then held against its plausible range
-(core.plausible); one outside it is refused with what was understood, what is allowed and, when
-the same number in metres would fit, the question "did you mean ... m?".
+in the field's unit: the unit of its plausible range (core.plausible), mm for lengths, m for the
+tributary width. Every value is then held against that range; one outside it is refused with what
+was understood, what is allowed and, when the same number in the other unit would fit, the question
+"did you mean ... m?" (in a metre field, "did you mean ... mm?").
 """
 
 from __future__ import annotations
@@ -26,12 +27,20 @@ _FT_IN = re.compile(
     r'\s*"?$'
 )
 FIELD_WORDS = {
+    "tributary_m": "tributary width",
     "span_mm": "span",
     "b_mm": "width b",
     "d_mm": "depth d",
     "spacing_mm": "spacing",
     "overhang_mm": "overhang",
     "bearing_length_mm": "bearing length",
+}
+
+
+MM_PER = {"mm": 1.0, "m": 1000.0}  # the units a number typed bare is read in (a plausible range's unit)
+_SPELLINGS = {
+    "mm": "mm (3600), m (3.6 m) or feet-inches (11' 9 3/4\", 11 ft 9.75 in)",
+    "m": "m (3.6), mm (3600 mm) or feet-inches (11' 9 3/4\", 11 ft 9.75 in)",
 }
 
 
@@ -52,19 +61,23 @@ def _normalise(text: str) -> str:
     return s.replace("''", '"')
 
 
-def parse_length(text: str) -> tuple[float, bool]:
+def parse_length(text: str, bare_unit: str = "mm") -> tuple[float, bool]:
     r"""Parse a length to (mm, unit_typed); ValueError says what is allowed.
 
-    ``'3600'`` -> (3600, False); ``'3.6 m'`` -> (3600, True); ``'11\' 9 3/4"'`` -> (3599.2, True).
+    A number without a unit is read in ``bare_unit`` ("mm" or "m"). ``'3600'`` -> (3600, False);
+    ``'3.6 m'`` -> (3600, True); ``'11\' 9 3/4"'`` -> (3599.2, True); ``'3.6'`` in "m" -> (3600, False).
     """
+    if bare_unit not in MM_PER:
+        msg = f"bare_unit = {bare_unit!r}; allowed: {', '.join(MM_PER)}"
+        raise ValueError(msg)
     s = _normalise(text)
     if not s:
         msg = "empty: enter a length in mm, m or feet-inches (11' 9 3/4\")"
         raise LengthRefused(msg)
     m = _METRIC.fullmatch(s)
     if m:
-        value = float(m.group("v"))
-        return value * {"m": 1000.0, "cm": 10.0, "mm": 1.0, None: 1.0}[m.group("u")], m.group("u") is not None
+        value, unit = float(m.group("v")), m.group("u")
+        return value * {"m": 1000.0, "cm": 10.0, "mm": 1.0, None: MM_PER[bare_unit]}[unit], unit is not None
     if "'" in s or '"' in s:
         f = _FT_IN.fullmatch(s)
         if f and (f.group("ft") or f.group("inch") or f.group("frac") or f.group("frac_only")):
@@ -77,7 +90,7 @@ def parse_length(text: str) -> tuple[float, bool]:
                     raise LengthRefused(msg)
                 inches += Fraction(num, den)
             return float(inches) * MM_PER_INCH, True
-    msg = f"{text!r} is not a length: enter mm (3600), m (3.6 m) or feet-inches (11' 9 3/4\", 11 ft 9.75 in)"
+    msg = f"{text!r} is not a length: enter {_SPELLINGS[bare_unit]}"
     raise LengthRefused(msg)
 
 
@@ -90,24 +103,41 @@ def _m(mm: float) -> str:
     return f"{mm / 1000:g} m" if mm >= 1000 else f"{mm:g} mm"
 
 
+def _shown(mm: float, unit: str) -> str:
+    """A length in mm as its field shows it: in m for a metre field, else in mm or m ('_m')."""
+    return f"{mm / 1000:g} m" if unit == "m" else _m(mm)
+
+
+def _range_mm(kind: str, high_mm: float | None) -> tuple[Range, float, float]:
+    """The plausible range of ``kind`` and its bounds in mm (the upper one at most ``high_mm``)."""
+    r: Range = PLAUSIBLE[kind]
+    scale = MM_PER[r.unit]
+    high = r.high * scale if high_mm is None else min(r.high * scale, high_mm)
+    return r, r.low * scale, high
+
+
 def allowed_text(kind: str, high_mm: float | None = None) -> str:
-    """'300 mm to 40 m (common practice)'."""
-    r = PLAUSIBLE[kind]
-    high = r.high if high_mm is None else min(r.high, high_mm)
-    return f"{_m(r.low)} to {_m(high)} ({r.source})"
+    """'300 mm to 40 m (common practice)'; a metre field's in m ('0.1 m to 20 m (common practice)')."""
+    r, low, high = _range_mm(kind, high_mm)
+    return f"{_shown(low, r.unit)} to {_shown(high, r.unit)} ({r.source})"
 
 
 def check_length(kind: str, mm: float, high_mm: float | None = None, unit_typed: bool = True, typed: str = "") -> float:
-    """Hold a length in mm against its plausible range; LengthRefused names what was understood and allowed."""
-    r: Range = PLAUSIBLE[kind]
-    high = r.high if high_mm is None else min(r.high, high_mm)
-    if r.low <= mm <= high:
+    """Hold a length in mm against its plausible range; LengthRefused names what was understood and allowed.
+
+    A number typed without a unit (``unit_typed`` False) that fits when read in the other unit (m in a mm
+    field, mm in a metre field) is offered in that unit as the ``suggestion``.
+    """
+    r, low, high = _range_mm(kind, high_mm)
+    if low <= mm <= high:
         return mm
     word = FIELD_WORDS.get(kind, kind)
-    understood = f"{mm:g} mm" + ("" if unit_typed else " (no unit typed)")
+    understood = (f"{mm / 1000:g} m" if r.unit == "m" else f"{mm:g} mm") + ("" if unit_typed else " (no unit typed)")
     suggestion = ""
-    if not unit_typed and r.low <= mm * 1000 <= high:
-        suggestion = f"{mm:g} m"
+    number = mm / MM_PER[r.unit]  # the number as typed, when typed bare
+    other_unit, other_mm = ("mm", number) if r.unit == "m" else ("m", number * 1000)
+    if not unit_typed and low <= other_mm <= high:
+        suggestion = f"{number:g} {other_unit}"
         ask = f" Did you mean {suggestion}?"
     else:
         ask = ""
@@ -117,8 +147,16 @@ def check_length(kind: str, mm: float, high_mm: float | None = None, unit_typed:
 
 
 def read_length(kind: str, text: str, high_mm: float | None = None) -> float:
-    """Parse and check one typed length (the beam form's entry point)."""
-    mm, unit_typed = parse_length(text)
+    """Parse and check one typed length in mm (the beam form's entry point); a bare number in the range's unit.
+
+    LengthRefused names the field in words ('tributary width: ...').
+    """
+    unit = PLAUSIBLE[kind].unit
+    try:
+        mm, unit_typed = parse_length(text, unit)
+    except LengthRefused as exc:
+        msg = f"{FIELD_WORDS.get(kind, kind)}: {exc}"
+        raise LengthRefused(msg) from None
     return check_length(kind, mm, high_mm, unit_typed, text.strip())
 
 

@@ -32,6 +32,9 @@ from mobile.viewmodels.common import default_export_dir
 from mobile.viewmodels.site import KEEP
 
 TYPING_PAUSE_S = 0.35  # save this long after the last keystroke (and at once on Enter or leaving the field)
+# the opened IMMEDIATE banner's view at most this share of the screen's height (the rest scrolls in it): at the
+# review's geometries the form and the recheck keep at least 25 mm each beside or under it
+BANNER_OPEN_SHARE = 0.4
 
 
 ARCHIVE_PROMPT = "Archive this beam (logged by mistake)…"
@@ -93,10 +96,22 @@ class BeamScreen(Screen):
             w.ids.input.text = self.shown(name, values)
             self._show_messages(name, w)
             w.loading = False
+        self.place_system(values.get("material") == "sawn")
         self.build_bearings(values)
         self._copy_choices = self.vm.copy_choices()
         self.ids.copy_from.values = [t for _, t in self._copy_choices]
         self.photo_text = f"Photos: {self.vm.photo_count()}"
+
+    def place_system(self, sawn: bool) -> None:
+        """The system picker on the form, under the grade, for a sawn member only (glulam takes KH 1.0 alone).
+
+        Taken out of the form rather than hidden, so nothing of it lies over its neighbours; ``fields`` keeps it.
+        """
+        picker, form = self.fields["system"], self.ids.form
+        if sawn and picker.parent is None:
+            form.add_widget(picker, index=form.children.index(self.fields["grade"]))
+        elif not sawn and picker.parent is not None:
+            form.remove_widget(picker)
 
     def copy_picked(self, text: str) -> None:
         """'copy from RB-1' picked: copy member, bracing and loads (never span or bearings), then reset."""

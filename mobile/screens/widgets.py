@@ -20,6 +20,10 @@ from kivy.uix.scrollview import ScrollView
 from core.results import Status, utilisation_text
 from mobile.units import parse_length_mm
 
+# a text field's value is at least this wide (mm) beside its name, else the name goes above it: a length as the
+# form shows it ("388.938 mm", six digits and the unit) takes 36 mm in the fields' 22sp type at density 1.5 and
+# 149 dpi (and at 3 and 300 dpi), plus the field's padding
+INPUT_MIN_MM = 42
 # ';' (next span) sits in the top row, far from OK; no ',' (the decimal point is '.'); C clears
 KEYPAD_KEYS = ("7", "8", "9", ";", "4", "5", "6", "C", "1", "2", "3", "'", "0", ".", "/", '"', "␣", "m", "mm", "⌫")
 
@@ -148,6 +152,7 @@ class TextField(BoxLayout):
     suggestion = StringProperty("")  # a value to offer when the entry was refused ('3.9 m')
     quick = BooleanProperty(False)
     keypad = BooleanProperty(False)
+    stacked = BooleanProperty(False)  # its name above the field (set by the kv rule from the width)
     quick_values = ListProperty([])
     screen: Any = None
     loading = False

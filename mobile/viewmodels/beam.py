@@ -3,8 +3,8 @@
 Names used by the screen (widget ids) and by ``set_field``:
 text: mark, level, gridline, notes, b_mm, d_mm, spans, overhang_left_mm, overhang_right_mm,
 purlin_spacing_mm, bottom_spacing_mm, tributary_m, dead_kn_m, live_kn_m, snow_kn_m, specified_size,
-bearingN.length_mm; pickers: material, species, grade, top_braced_by, top_fastened, bottom_braced_by,
-service, use, top_stamp, bearingN.lateral, bearingN.rotation.
+bearingN.length_mm; pickers: material, species, grade, system (sawn members), top_braced_by, top_fastened,
+bottom_braced_by, service, use, top_stamp, bearingN.lateral, bearingN.rotation.
 
 A value that is refused is kept as a draft in the beam record (so a killed app loses nothing typed)
 and shown back with its message; the last valid value stays in force for the recheck.
@@ -18,20 +18,21 @@ import time
 from collections import Counter
 from collections.abc import Callable
 from dataclasses import dataclass, field
+from functools import cache
 from importlib.metadata import version
 from pathlib import Path
 from typing import Any
 
-from pydantic import ValidationError
+from pydantic import TypeAdapter, ValidationError
 
 from core import tables
-from core.models import Beam, Material, bearings_with_stand_ins, grades_allowed, species_allowed
+from core.models import Beam, Material, SystemCase, bearings_with_stand_ins, grades_allowed, species_allowed
 from core.plausible import PLAUSIBLE
 from core.recheck import recheck
 from core.records import Stage
 from core.remedies import remedies
 from core.results import CheckKind, Recheck, check_lines
-from mobile.units import LengthRefused, echo_length, read_length, split_spans
+from mobile.units import LengthRefused, echo_length, feet_inches, read_length, split_spans
 from mobile.viewmodels.common import PRIORITY_LABELS, line_loads_kn_m, status_label
 from reports.content import support_names, trace_line
 from reports.inputs import loads_source, sheet_stem
@@ -52,9 +53,13 @@ LOAD_FIELDS = ("dead_kn_m", "live_kn_m", "snow_kn_m")
 TEXT_ONLY = ("level", "gridline", "notes")
 REMEDIES_KEY = "remedies"
 NOT_RECORDED = "not recorded"  # core takes the unfavourable case and says so in a finding
+# a sawn member's system not recorded: core's default, a single member (KH 1.0, the lowest of O86-19 Table 6.12),
+# stored as "single" with ``system_recorded`` false (core's model has no "not recorded" system)
+SYSTEM_NOT_RECORDED = "not recorded (taken as single member)"
 _YES_NO: dict[Any, str] = {True: "yes", False: "no"}
 PICKERS: dict[str, tuple[str, ...]] = {
     "material": ("glulam", "sawn"),
+    "system": (SYSTEM_NOT_RECORDED, *(case.value for case in SystemCase)),
     "top_braced_by": ("none", "purlins", "decking"),
     "top_fastened": ("yes", "no", NOT_RECORDED),
     "bottom_braced_by": ("none", "braces"),
@@ -83,6 +88,10 @@ CHOICE_WORDS = {
     "no": "No",
     "glulam": "Glulam",
     "sawn": "Sawn lumber",
+    "single": "Single member",  # the systems of core.models.SystemCase (KH, O86-19 Table 6.12)
+    "shared": "Load-sharing system",
+    "light_frame": "Sheathed light-frame system",
+    "built_up": "Built-up member",
 }
 # copied by "copy from": member, bracing and loads; never the span, the bearings or the mark
 COPIED = (
@@ -100,6 +109,8 @@ COPIED = (
     "tributary_m",
     "load_basis",
     "specified",
+    "system",
+    "system_recorded",
 )
 _SIZE = re.compile(r"^\s*(.+?)\s*[x×*]\s*(.+?)\s*$", re.IGNORECASE)
 
@@ -144,6 +155,7 @@ class BeamFormViewModel:
             "material": _fmt(rec.get("material")),
             "species": _fmt(rec.get("species")),
             "grade": _fmt(rec.get("grade")),
+            "system": system_shown(rec),
             "b_mm": _mm(rec.get("b_mm")),
             "d_mm": _mm(rec.get("d_mm")),
             "spans": "; ".join(_mm(s) for s in rec.get("spans_mm", [])),
@@ -210,8 +222,9 @@ class BeamFormViewModel:
             return ""
         if width is None:
             return "line loads typed directly" if name == "tributary_m" else "typed directly"
-        if name == "tributary_m":
-            return "line loads below are derived from this width x the site's design basis"
+        if name == "tributary_m":  # what the width was read as, in both unit systems ('16' is 16 m = 52' 5 15/16")
+            shown = f"= {width:g} m = {feet_inches(width * 1000)}"
+            return f"{shown}; the line loads below are derived from this width x the site's design basis"
         kpa = getattr(self.basis(rec), name.replace("_kn_m", "_kpa"))
         where = rec.get("load_basis") or "site"
         return f"derived: {width:g} m x {kpa:g} kPa ({where}) = {loads.get(name, 0):g} kN/m"
@@ -271,6 +284,7 @@ class BeamFormViewModel:
             "tributary_m": self._tributary_entry,
             "load_basis": self._basis_entry,
             "material": _material_entry,
+            "system": _system_entry,
             "species": _species_entry,
             "top_braced_by": _top_braced_entry,
             "top_fastened": _top_fastened_entry,
@@ -281,7 +295,7 @@ class BeamFormViewModel:
     def _tributary_entry(self, text: str, rec: dict[str, Any]) -> dict[str, Any]:
         if not text:
             return {"tributary_m": None}  # cleared: the line loads stay as they are
-        width = _number("tributary_m", text, "tributary_m")
+        width = read_length("tributary_m", text) / 1000  # mm, m or feet-inches; a bare number in m
         return {"tributary_m": width, "loads": line_loads_kn_m(self.basis(rec), width)}
 
     def _basis_entry(self, text: str, rec: dict[str, Any]) -> dict[str, Any]:
@@ -347,7 +361,7 @@ class BeamFormViewModel:
         if changes:
             if not self._save(name, changes):
                 return False
-            self._undo.append({k: rec.get(k) for k in changes})
+            self._undo.append({k: _before(rec, k) for k in changes})
         self.refresh()
         return True
 
@@ -531,7 +545,7 @@ class BeamFormViewModel:
         rec = self.record()
         changes = {k: copy.deepcopy(other[k]) for k in COPIED if k in other and other[k] != rec.get(k)}
         if changes:
-            self._undo.append({k: rec.get(k) for k in changes})
+            self._undo.append({k: _before(rec, k) for k in changes})
             self.store.update_beam(self.beam_id, changes)
         self.errors.clear()
         self.refresh()
@@ -637,6 +651,26 @@ def trade_message(exc: ValidationError) -> str:
     return "; ".join(out) + ("" if out and out[-1].endswith(".") else ".")
 
 
+@cache
+def _model_defaults() -> dict[str, Any]:
+    """The beam model's defaults as stored (JSON values), for the fields that have one."""
+    out: dict[str, Any] = {}
+    for name, info in Beam.model_fields.items():
+        if not info.is_required():
+            annotation: Any = info.annotation
+            out[name] = TypeAdapter(annotation).dump_python(info.get_default(call_default_factory=True), mode="json")
+    return out
+
+
+def _before(rec: dict[str, Any], key: str) -> Any:
+    """A field's value before a change, for undo: a model field the record never stored puts back its default.
+
+    A new beam stores none of them; putting back nothing (None) left a record no recheck reads ('top_stamp:
+    Input should be ...') after undoing the first pick of the TOP stamp or the service condition.
+    """
+    return rec[key] if key in rec else _model_defaults().get(key)
+
+
 def _with_stand_ins(rec: dict[str, Any]) -> dict[str, Any]:
     """The record with valid stand-ins for entries not yet made (for validating the entries that were)."""
     out = dict(rec)
@@ -728,11 +762,35 @@ def _material_entry(text: str, rec: dict[str, Any]) -> dict[str, Any]:
     material = Material(text)
     species = rec.get("species") if rec.get("species") in species_allowed(material) else species_allowed(material)[0]
     grades = grades_allowed(material, str(species))
-    return {
+    changes = {
         "material": text,
         "species": species,
         "grade": rec.get("grade") if rec.get("grade") in grades else grades[0],
     }
+    if material is Material.glulam and system_shown(rec) != SYSTEM_NOT_RECORDED:  # glulam takes KH 1.0 only
+        changes.update(system=SystemCase.single.value, system_recorded=False)
+    return changes
+
+
+def system_shown(rec: dict[str, Any]) -> str:
+    """A beam's system as its picker holds it: the stored case once recorded, else SYSTEM_NOT_RECORDED.
+
+    A record saved whole (the demo, ``bracewalk check`` input) holds core's default "single" with no
+    ``system_recorded``: not recorded. Another case stored there was given, so it is shown.
+    """
+    system = rec.get("system")
+    recorded = rec.get("system_recorded") is True or system not in (None, SystemCase.single.value)
+    return str(system) if recorded else SYSTEM_NOT_RECORDED
+
+
+def _system_entry(text: str, rec: dict[str, Any]) -> dict[str, Any]:
+    del rec  # the system changes only itself
+    if text not in PICKERS["system"]:
+        msg = f"system {text!r}; allowed: {', '.join(PICKERS['system'])}"
+        raise ValueError(msg)
+    if text == SYSTEM_NOT_RECORDED:
+        return {"system": SystemCase.single.value, "system_recorded": False}
+    return {"system": text, "system_recorded": True}
 
 
 def _species_entry(text: str, rec: dict[str, Any]) -> dict[str, Any]:

@@ -7,6 +7,7 @@ from pathlib import Path
 from pydantic import ValidationError
 
 from core.records import DesignBasis
+from core.results import CAUTION
 from reports.render import PRIORITY_WORDS, priority_label
 from storage.stamps import local_time as local_time  # re-exported: the screens show times through it
 
@@ -18,6 +19,11 @@ STATUS_WORDS = {
     "unchecked": ("NOT YET CHECKED", "○"),
 }
 PRIORITY_LABELS = {p: priority_label(p) for p in PRIORITY_WORDS}  # the notice's words and shapes
+# what the recheck does with an input nobody saw or recorded (a restraint not visible is taken as missing, an
+# unrecorded use as the strictest deflection limit, a TOP stamp not visible as the weaker face in tension, a sawn
+# member's system as a single member), said on every screen's caution band
+UNSEEN_TAKEN_UNFAVOURABLE = "What was not seen or not recorded is taken as the unfavourable case."
+APP_CAUTION = f"{CAUTION} {UNSEEN_TAKEN_UNFAVOURABLE}"  # the app's caution band: core's caution whole, then that
 STAGE_WORDS = {0: "open", 1: "corrected (contractor reports done)", 2: "verified by reviewer"}
 
 

@@ -13,7 +13,13 @@ from typing import Any
 from core.recheck import recheck
 from core.records import Stage
 from core.results import PRIORITY_ORDER
-from mobile.viewmodels.common import PRIORITY_LABELS, STAGE_WORDS, STATUS_WORDS, status_label
+from mobile.viewmodels.common import (
+    PRIORITY_LABELS,
+    STAGE_WORDS,
+    STATUS_WORDS,
+    UNSEEN_TAKEN_UNFAVOURABLE,
+    status_label,
+)
 from reports.render import SHORT_PRIORITY
 from storage import Store, results
 from storage.clock import uuid7
@@ -38,7 +44,7 @@ PINNED = "▲ IMMEDIATE open: pinned"  # beams with an open IMMEDIATE deficiency
 # whole); it still says what the full caution says of the results and of who governs.
 CAUTION_SHORT = (
     "Results support, never replace, the judgement of the engineer of record. Local codes and licensed practice "
-    "govern. Tap here for the full caution."
+    f"govern. {UNSEEN_TAKEN_UNFAVOURABLE} Tap here for the full caution."
 )
 
 

@@ -11,6 +11,7 @@ import pytest
 from core.results import CAUTION
 from mobile.demo.run import load_demo, raise_all
 from mobile.viewmodels import SiteViewModel
+from mobile.viewmodels.common import APP_CAUTION
 from mobile.viewmodels.site import (
     CAUTION_SHORT,
     LEVEL_NOT_RECORDED,
@@ -109,6 +110,14 @@ def test_the_short_caution_still_says_what_governs():
         assert phrase in CAUTION_SHORT
     assert "full caution" in CAUTION_SHORT  # says a tap shows the rest
     assert len(CAUTION_SHORT) < len(CAUTION) / 2
+
+
+def test_the_app_caution_keeps_cores_caution_and_says_what_was_not_seen_is_unfavourable():
+    """Both bands say that what was not seen or not recorded is taken as the unfavourable case (session-34 review)."""
+    said = "What was not seen or not recorded is taken as the unfavourable case."
+    assert APP_CAUTION.startswith(CAUTION)  # every sentence of core's caution, unchanged
+    assert said in APP_CAUTION
+    assert said in CAUTION_SHORT
 
 
 def test_levels_are_listed_in_natural_order():

@@ -1,12 +1,19 @@
-"""The beam screen at the session-32 review's tablet geometries, at their real dpi and density.
+"""The beam screen at the session-32 and session-34 reviews' tablet geometries, at their real dpi and density.
 
 The geometry test in test_ui.py runs the 149 dpi tablet at density 1.0, which hid what the review found at
 density 1.5: the bending line of a not-established beam cut by its row, a portrait banner flipping the form
 and the panel side by side (Mark 16 mm wide), a landscape banner leaving the form one field of height,
 a new beam opened on the previous one's panel scroll, restraint buttons breaking words ('No restrai / nt'),
-raised-finding numbers light grey on grey. The flow (ui_drive.py "beam-geometry") opens RB-1 (passes),
-RB-3 (deficient, IMMEDIATE) and RB-5 (not established), each after scrolling the one before to the end of
-its panel, and holds every view to ``layout_problems`` and ``beam_problems``.
+raised-finding numbers light grey on grey. The session-34 review found the IMMEDIATE banner opened with several
+findings pushing the top bar and its first finding off the window. The flow (ui_drive.py "beam-geometry") opens
+RB-1 (passes), RB-3 (deficient, IMMEDIATE; then with five IMMEDIATE findings, the banner opened: the top bar and
+its first finding in view, at most half the window high, its last line reached by scrolling), RB-5 (not
+established) and the sawn joist FJ-1 (its lengths typed in inches, six digits as shown: "234.95 mm" was drawn
+"5 mm" in landscape; its tributary width 16" on the keypad, then a bare 400 and its question; its system picker,
+"not recorded (taken as single member)", each choice whole, load-sharing picked and shown again when the beam is
+opened again), each after scrolling the one before to the end of its panel, and holds every view to
+``layout_problems`` and ``beam_problems`` (every typed value drawn whole, the caution saying that what was not
+seen or not recorded is taken as the unfavourable case).
 
 Screenshots: test-artefacts/ui-beam/<geometry>-*.png (look at them).
 """

@@ -130,6 +130,58 @@ def test_form_feet_inches_echoed_with_unit(form):
     assert form.echo("spans") == "= 7200.9 mm = 23' 7 1/2\""
 
 
+@pytest.mark.parametrize(
+    ("text", "mm"),
+    [
+        ('16"', 16 * INCH),  # joists at 16 in on centre: their tributary width
+        ("1' 4\"", 16 * INCH),
+        ("2.4", 2400.0),  # a bare number is read in the field's unit, m
+        ("2,4", 2400.0),
+        ("2400 mm", 2400.0),
+        ("16", 16_000.0),  # 16 m is inside 0.1 m to 20 m (core.plausible): taken, and echoed in feet-inches
+    ],
+)
+def test_the_tributary_width_takes_every_spelling_of_a_length_in_metres(text, mm):
+    assert read_length("tributary_m", text) == pytest.approx(mm)
+
+
+@pytest.mark.parametrize(
+    ("text", "suggestion", "said"),
+    [
+        ("400", "400 mm", "tributary width: 400 read as 400 m (no unit typed); allowed 0.1 m to 20 m"),
+        ("0.05", "", "tributary width: 0.05 read as 0.05 m (no unit typed); allowed 0.1 m to 20 m"),
+        ("50 mm", "", "tributary width: 50 mm read as 0.05 m; allowed 0.1 m to 20 m"),
+        ("70'", "", "tributary width: 70' read as 21.336 m; allowed 0.1 m to 20 m"),
+    ],
+)
+def test_an_implausible_tributary_width_is_refused_in_words_with_a_question(text, suggestion, said):
+    with pytest.raises(LengthRefused) as err:
+        read_length("tributary_m", text)
+    assert str(err.value).startswith(said)
+    assert err.value.suggestion == suggestion
+    assert ("Did you mean 400 mm?" in str(err.value)) == bool(suggestion)
+
+
+def test_a_tributary_width_that_is_not_a_length_is_refused_in_the_fields_words():
+    with pytest.raises(LengthRefused, match=r"^tributary width: '16x' is not a length: enter m \(3\.6\), mm"):
+        read_length("tributary_m", "16x")
+
+
+def test_form_reads_the_tributary_width_in_feet_inches_and_echoes_it(form):
+    assert form.set_field("tributary_m", "16")  # a bare 16 is 16 m: inside the range, so taken, and said so
+    assert form.echo("tributary_m").startswith("= 16 m = 52' 5 15/16\";")  # 16000 / 25.4 = 629.92 in
+    assert form.set_field("tributary_m", '16"'), form.errors
+    assert form.record()["tributary_m"] == pytest.approx(0.4064)
+    assert form.form()["tributary_m"] == "0.4064"
+    assert form.echo("tributary_m").startswith("= 0.4064 m = 1' 4\";")
+    assert not form.set_field("tributary_m", "400")
+    assert form.record()["tributary_m"] == pytest.approx(0.4064)  # the value in force
+    assert "tributary_m" not in form.errors["tributary_m"]  # the field's words, not its internal name
+    assert form.errors["tributary_m"].endswith("Did you mean 400 mm?")
+    assert form.set_field("tributary_m", form.suggestions["tributary_m"])
+    assert form.record()["tributary_m"] == pytest.approx(0.4)
+
+
 def _check(tmp_path, **changes):
     beam = json.loads((ROOT / "examples" / "beam_r2_b4.json").read_text())
     beam.update(changes)
