@@ -34,6 +34,12 @@ FIELD_WORDS = {
     "spacing_mm": "spacing",
     "overhang_mm": "overhang",
     "bearing_length_mm": "bearing length",
+    "dead_kn_m": "dead load",
+    "live_kn_m": "live load",
+    "snow_kn_m": "snow load",
+    "dead_kpa": "dead load",
+    "live_kpa": "live load",
+    "snow_kpa": "snow load",
 }
 
 

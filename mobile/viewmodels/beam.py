@@ -32,7 +32,7 @@ from core.recheck import recheck
 from core.records import Stage
 from core.remedies import remedies
 from core.results import CheckKind, Recheck, check_lines
-from mobile.units import LengthRefused, echo_length, feet_inches, read_length, split_spans
+from mobile.units import FIELD_WORDS, LengthRefused, echo_length, feet_inches, read_length, split_spans
 from mobile.viewmodels.common import PRIORITY_LABELS, line_loads_kn_m, status_label
 from reports.content import support_names, trace_line
 from reports.inputs import loads_source, sheet_stem
@@ -710,14 +710,15 @@ def missing_entries(rec: dict[str, Any]) -> list[str]:
 
 def _number(name: str, text: str, kind: str) -> float:
     """A typed number (decimal comma allowed) held against its plausible range (core.plausible)."""
+    word = FIELD_WORDS.get(name, name)
+    r = PLAUSIBLE[kind]
     try:
         value = float(text.strip().replace(",", ".") or "0")
     except ValueError:
-        msg = f"{name} = {text!r}: enter a number"
+        msg = f"{word}: {text!r} is not a number; enter it in {r.unit}"
         raise ValueError(msg) from None
-    r = PLAUSIBLE[kind]
     if not r.low <= value <= r.high:
-        msg = f"{name} = {value:g} {r.unit}: allowed {r.low:g} to {r.high:g} {r.unit} ({r.source})"
+        msg = f"{word} {value:g} {r.unit}: allowed {r.low:g} to {r.high:g} {r.unit} ({r.source})"
         raise ValueError(msg)
     return value
 

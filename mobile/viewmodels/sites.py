@@ -8,6 +8,7 @@ from typing import Any
 from pydantic import ValidationError
 
 from core.records import DesignBasis, Site
+from mobile.units import FIELD_WORDS
 from mobile.viewmodels.common import validation_message
 from storage import Store
 
@@ -54,7 +55,7 @@ class SitesViewModel:
             try:
                 basis[name] = float(text)
             except ValueError:
-                self.errors[name] = f"{name} = {text!r}: enter a number of kPa (0 to 50)"
+                self.errors[name] = f"{FIELD_WORDS.get(name, name)}: {text!r} is not a number; enter kPa (0 to 50)"
         try:
             design = DesignBasis.model_validate(basis)
         except ValidationError as exc:

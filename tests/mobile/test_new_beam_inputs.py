@@ -155,3 +155,17 @@ def test_copy_from_takes_the_system_and_undoing_a_first_pick_keeps_the_beam_rech
     assert fresh.record()["system"] == "single"  # core's default, not nothing
     assert fresh.refresh() is not None, fresh.recheck_error
     assert fresh.form()["system"] == SYSTEM_NOT_RECORDED
+
+
+def test_a_load_that_is_not_a_number_is_refused_in_the_fields_words(site, tmp_path):
+    """The reviewer reads 'dead load', never the stored field's name (dead_kn_m), on the beam and the site form."""
+    from mobile.viewmodels import SitesViewModel
+
+    store, site_id = site
+    form = BeamFormViewModel(store, site_id, SiteViewModel(store, site_id).new_beam())
+    assert not form.set_field("dead_kn_m", "heavy")
+    assert form.errors["dead_kn_m"] == "dead load: 'heavy' is not a number; enter it in kN/m"
+    sites = SitesViewModel(Store(tmp_path / "s.db"))
+    assert sites.create({"name": "Hall", "snow_kpa": "deep"}) is None
+    assert sites.errors["snow_kpa"].startswith("snow load: 'deep' is not a number")
+    assert "_kpa" not in sites.errors["snow_kpa"]
