@@ -120,30 +120,32 @@ def _shell_user() -> str:
         return "command line"
 
 
-def cmd_hub_revoke(args: argparse.Namespace) -> int:
-    """Refuse a device from now on."""
+def _device_action(args: argparse.Namespace, action: str) -> Any:
+    """Revoke or reinstate the device ``args.device`` at the hub ``args.db``, audited as the shell user."""
     hub = _hub(args.db)
     try:
-        dev = hub.revoke(args.device, by=_shell_user())
+        return (
+            hub.revoke(args.device, by=_shell_user())
+            if action == "revoke"
+            else hub.reinstate(args.device, by=_shell_user())
+        )
     except KeyError as exc:
         msg = f"no enrolled device {args.device}"
         raise UserError(msg) from exc
     finally:
         hub.close()
+
+
+def cmd_hub_revoke(args: argparse.Namespace) -> int:
+    """Refuse a device from now on."""
+    dev = _device_action(args, "revoke")
     print(f"revoked {dev.name} ({dev.person}, {dev.role}); what it sent before stays in the log")
     return EXIT_OK
 
 
 def cmd_hub_reinstate(args: argparse.Namespace) -> int:
     """Accept a revoked device again (a revocation made in error)."""
-    hub = _hub(args.db)
-    try:
-        dev = hub.reinstate(args.device, by=_shell_user())
-    except KeyError as exc:
-        msg = f"no enrolled device {args.device}"
-        raise UserError(msg) from exc
-    finally:
-        hub.close()
+    dev = _device_action(args, "reinstate")
     print(f"reinstated {dev.name} ({dev.person}, {dev.role}); what it saved while revoked is accepted at its next sync")
     return EXIT_OK
 

@@ -7,31 +7,15 @@ renumbers those saves past them (nothing lost), to be sent at the next push.
 """
 
 import json
-import shutil
 from pathlib import Path
 
 import pytest
 
 from mobile.hub_client import sync
-from storage import Store
 from storage.hubsync import rejections
 from tests.core.beams import glulam
-
-
-def _backup(store, to):
-    store.db.execute("PRAGMA wal_checkpoint(TRUNCATE)")
-    shutil.copyfile(store.path, to)
-
-
-def _restore(store, frm, keep_mark):
-    path = store.path
-    store.close()
-    for suffix in ("-wal", "-shm"):
-        Path(path + suffix).unlink(missing_ok=True)
-    shutil.copyfile(frm, path)
-    if not keep_mark:
-        Path(path + ".sent").unlink(missing_ok=True)
-    return Store(path)
+from tests.storage.devices import backup as _backup
+from tests.storage.devices import restore as _restore
 
 
 def _tablet_with_lost_work(served, tmp_path, keep_mark):

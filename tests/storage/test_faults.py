@@ -5,7 +5,6 @@ Each test reproduces one failure reported by a tester (it failed before the fix)
 
 import io
 import json
-import shutil
 import zipfile
 
 import pytest
@@ -14,17 +13,13 @@ from storage import Store
 from storage.bundle import BundleRefused, export_bundle, import_bundle, verify_bundle
 from storage.oplog import all_ops
 from tests.core.beams import glulam
+from tests.storage.devices import backup as _backup
+from tests.storage.devices import restore as _restore
+from tests.storage.devices import sync_file as _sync
 from tests.storage.signing import signed_bundle
 
 NOW = 1_900_000_000_000
 HOUR = 3_600_000
-
-
-def _sync(src, dst, path, peer=None):
-    export_bundle(src, path, peer=peer)
-    report = import_bundle(dst, path)
-    assert report.outcome == "applied", report
-    return report
 
 
 # -- 1. clocks ---------------------------------------------------------------------------------
@@ -93,23 +88,6 @@ def test_out_of_range_stamp_refused_not_crash(tmp_path, hlc):
 
 
 # -- 2. a tablet restored from a backup --------------------------------------------------------
-def _backup(store, to):
-    store.db.execute("PRAGMA wal_checkpoint(TRUNCATE)")
-    shutil.copyfile(store.path, to)
-
-
-def _restore(store, frm, keep_mark=True):
-    path = store.path
-    store.close()
-    for suffix in ("-wal", "-shm"):
-        shutil.rmtree(path + suffix, ignore_errors=True)
-    shutil.copyfile(frm, path)
-    if not keep_mark:
-        (tmp := __import__("pathlib").Path(path + ".sent")).unlink(missing_ok=True)
-        del tmp
-    return Store(path)
-
-
 @pytest.mark.parametrize("order", ["import_first", "save_first", "save_first_no_mark"])
 def test_restored_tablet_loses_nothing(tmp_path, order):
     office, tablet = Store(tmp_path / "office.db"), Store(tmp_path / "tablet.db")
@@ -328,7 +306,7 @@ def test_stamp_near_the_end_of_the_range_cannot_stop_local_saves(tmp_path):
     del site
 
 
-# -- 5. a bundle file that never arrived ---------------------------------------------------------
+# -- 7. a bundle file that never arrived ---------------------------------------------------------
 def test_a_lost_bundle_file_is_sent_again_and_the_screen_says_so(tmp_path):
     """A file lost on the way (a USB stick left on site) leaves its changes to go in the next file.
 
@@ -409,7 +387,7 @@ def test_restored_tablet_without_its_mark_converges_with_peer_cursors(tmp_path):
     assert outcomes[-2:] == [("applied", ""), ("applied", "")], outcomes
 
 
-# -- 7. a colleague's fast clock does not spread ----------------------------------------------------
+# -- 9. a colleague's fast clock does not spread ----------------------------------------------------
 def test_a_fast_colleagues_stamps_do_not_carry_this_tablets_clock_ahead(tmp_path):
     """sync.md 3.3: accept far-ahead ops, but do not move the local clock past now + max drift because of them.
 

@@ -7,41 +7,18 @@ projection stays what a replay of the log gives, and no deficiency or notice num
 """
 
 import json
-import shutil
 import time
-from pathlib import Path
 
 import pytest
 
 from storage import Store, identity
 from storage.bundle import export_bundle, import_bundle
 from tests.core.beams import glulam
+from tests.storage.devices import backup as _backup
+from tests.storage.devices import restore as _restore
+from tests.storage.devices import sync_file as _sync
 
 HOUR = 3_600_000
-
-
-def _sync(src, dst, path, peer=None):
-    export_bundle(src, path, peer=peer)
-    report = import_bundle(dst, path)
-    assert report.outcome == "applied", report
-    return report
-
-
-def _backup(store, to):
-    store.db.execute("PRAGMA wal_checkpoint(TRUNCATE)")
-    shutil.copyfile(store.path, to)
-
-
-def _restore(store, frm, keep_mark):
-    """The database copied back over the tablet's; ``keep_mark``: the ``.sent`` mark beside it survived."""
-    path = store.path
-    store.close()
-    for suffix in ("-wal", "-shm"):
-        Path(path + suffix).unlink(missing_ok=True)
-    shutil.copyfile(frm, path)
-    if not keep_mark:
-        Path(path + ".sent").unlink(missing_ok=True)
-    return Store(path)
 
 
 def _tablet(path):
