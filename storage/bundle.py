@@ -808,8 +808,9 @@ def _refused_by_rules(store: Store, ops: list[Op]) -> dict[int, str]:
     and shown in words on the Sync screen. This device's own ops coming back are not judged again.
     """
     out: dict[int, str] = {}
+    roles: dict[str, str | None] = {}
     for n, op in enumerate(ops):
-        why = office_rule(store, op) if op.kind == OpKind.STATUS else None
+        why = office_rule(store, op, roles) if op.kind == OpKind.STATUS else None
         if why:
             out[n] = why
     return out
@@ -1071,12 +1072,11 @@ def _merge_batch(store: Store, v: _Verified, start: int, tell: Progress, batch: 
     if aside:
         set_aside(store, aside, store.wall_ms())
     if v.sigs:
-        kept = [
-            (op, sig)
-            for k, (op, sig) in enumerate(zip(chunk, v.sigs[start : start + BATCH_OPS], strict=True))
-            if start + k not in v.aside
-        ]
-        _keep_received_signatures(store, [op for op, _ in kept], [sig for _, sig in kept], v.manifest["origin"])
+        ops, sigs = chunk, v.sigs[start : start + BATCH_OPS]
+        if aside:  # a set-aside op's signature is kept with it in the quarantine, not as a held op's
+            kept = [(op, sig) for k, (op, sig) in enumerate(zip(ops, sigs, strict=True)) if start + k not in v.aside]
+            ops, sigs = [op for op, _ in kept], [sig for _, sig in kept]
+        _keep_received_signatures(store, ops, sigs, v.manifest["origin"])
     if newest:
         store.observe_hlc(newest)  # the clock passes every stamp received (once a batch, not per op)
     return new

@@ -252,6 +252,7 @@ _Bad = tuple[Op, str, str, SetAside]  # an op set aside, its signature, the reas
 def _verified(store: Store, signed: list[tuple[Op, str]]) -> tuple[list[tuple[Op, str]], list[_Bad]]:
     """Split pulled ops into those that verify by their origin's key with a valid record, and those (why) not."""
     keys: dict[str, Any] = {}
+    roles: dict[str, str | None] = {}
     good: list[tuple[Op, str]] = []
     bad: list[_Bad] = []
     for op, sig in signed:
@@ -271,7 +272,7 @@ def _verified(store: Store, signed: list[tuple[Op, str]]) -> tuple[list[tuple[Op
         except RecordInvalid as exc:
             bad.append((op, sig, f"its record fails the checks of a local save: {exc}", SetAside.RECORD))
             continue
-        refused = office_rule(store, op)
+        refused = office_rule(store, op, roles)
         if refused:
             bad.append((op, sig, refused, SetAside.OFFICE_RULE))
             continue
@@ -316,14 +317,18 @@ def _merge_verified(store: Store, good: list[tuple[Op, str]]) -> int:
     return new
 
 
-def office_rule(store: Store, op: Op) -> str | None:
+def office_rule(store: Store, op: Op, roles: dict[str, str | None] | None = None) -> str | None:
     """Why the office's rules refuse ``op`` as the hub lists its device (``validate.reviewer_only``); None if not.
 
-    This device's own ops are not judged again here (its own saves follow its own enrolment).
+    This device's own ops are not judged again here (its own saves follow its own enrolment). ``roles``: the
+    roles read so far, by device (a caller judging many ops reads each device's once).
     """
     if op.kind != "status" or op.origin == store.device_id:
         return None
-    return reviewer_only(op, identity.listed_role(store.db, op.origin))
+    known = {} if roles is None else roles
+    if op.origin not in known:
+        known[op.origin] = identity.listed_role(store.db, op.origin)
+    return reviewer_only(op, known[op.origin])
 
 
 def set_aside(store: Store, bad: list[_Bad], now_ms: int) -> None:
