@@ -19,6 +19,7 @@ from argon2.exceptions import InvalidHashError, VerificationError
 
 from core.results import PRIORITY_ORDER
 from office.hubstore import HubStore
+from storage.db import PROJECTIONS
 
 if TYPE_CHECKING:
     from core.models import Beam
@@ -306,7 +307,7 @@ def held(hub: HubStore) -> list[dict[str, Any]]:
         payload = json.loads(payload) if isinstance(payload, str) else payload  # an op row keeps its payload as text
         payload = payload if isinstance(payload, dict) else {}
         table = "deficiency" if kind == "status" else entity
-        found = _rows(hub, table, "WHERE id=?", [record_id]) if table in _PROJECTION_TABLES else []
+        found = _rows(hub, table, "WHERE id=?", [record_id]) if table in PROJECTIONS else []
         record = found[0][1] if found else {}
         name = str(record.get("number") or record.get("mark") or record.get("name") or f"{entity} {record_id[-8:]}")
         if kind == "status":
@@ -334,9 +335,6 @@ def held(hub: HubStore) -> list[dict[str, Any]]:
             }
         )
     return out
-
-
-_PROJECTION_TABLES = ("site", "visit", "beam", "deficiency", "measurement", "photo", "issued_notice", "table_row")
 
 
 def device_quarantine_count(hub: HubStore, device_id: str) -> int:

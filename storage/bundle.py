@@ -336,11 +336,7 @@ def export_bundles(
         if peer:  # written for the peer, not acknowledged: the cursor stays (sync.md 3.7), the next export resends
             for manifest in manifests:
                 for origin, (_, last) in manifest["ranges"].items():
-                    store.db.execute(
-                        "INSERT INTO peer_written VALUES (?, ?, ?) ON CONFLICT (peer, origin) "
-                        "DO UPDATE SET seq = max(seq, excluded.seq)",
-                        [peer, origin, last],
-                    )
+                    store.raise_mark("peer_written", peer, origin, last)
     tell(1.0, f"wrote {done:,} changes in {len(manifests)} file{'s' if len(manifests) > 1 else ''}")
     return manifests
 

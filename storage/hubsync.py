@@ -352,11 +352,7 @@ def _move_cursors(store: Store, page: dict[str, Any]) -> None:
     """The page is done: the next pull starts after it, and what the hub holds need not be pushed to it."""
     store.db.execute("INSERT OR REPLACE INTO device_key VALUES ('hub_cursor', ?)", [str(int(page["next_cursor"]))])
     for origin, seq in page["seen"].items():
-        store.db.execute(
-            "INSERT INTO peer_cursor VALUES (?, ?, ?) ON CONFLICT (peer, origin) DO UPDATE SET seq = "
-            "max(seq, excluded.seq)",
-            [HUB_PEER, origin, int(seq)],
-        )
+        store.raise_mark("peer_cursor", HUB_PEER, origin, int(seq))
 
 
 def pull_quarantine(store: Store) -> list[dict[str, Any]]:

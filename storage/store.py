@@ -228,12 +228,7 @@ class Store:
                     self._set_meta(f"counter_{name}", str(int(n)))
             for peer, seq in dict(mark.get("peers", {})).items():
                 # the hub's answer acknowledged what it took; a bundle file was only written for its peer
-                table = "peer_cursor" if peer == HUB_PEER else "peer_written"
-                self.db.execute(
-                    f"INSERT INTO {table} VALUES (?, ?, ?) ON CONFLICT (peer, origin) "
-                    "DO UPDATE SET seq = max(seq, excluded.seq)",
-                    [peer, self.device_id, int(seq)],
-                )
+                self.raise_mark("peer_cursor" if peer == HUB_PEER else "peer_written", peer, self.device_id, int(seq))
 
     def resume_seq(self, seq: int) -> None:
         """Continue this device's op counter past ``seq`` and its numbers past those held (inside a transaction).
@@ -869,6 +864,14 @@ class Store:
         return None
 
     # -- sync bookkeeping ---------------------------------------------------------------------
+    def raise_mark(self, table: str, peer: str, origin: str, seq: int) -> None:
+        """Move ``peer``'s mark for ``origin`` in ``table`` (peer_cursor or peer_written) up to ``seq``, never down."""
+        self.db.execute(
+            f"INSERT INTO {table} VALUES (?, ?, ?) "
+            "ON CONFLICT (peer, origin) DO UPDATE SET seq = max(seq, excluded.seq)",
+            [peer, origin, seq],
+        )
+
     def acknowledged(self, peer: str) -> dict[str, int]:
         """Per origin, the seq up to which ``peer`` is known to hold every op (sync.md 3.3 peer cursors).
 
