@@ -8,7 +8,7 @@ from core import tables
 from core.clauses.bending import section_modulus_s
 from core.clauses.factors import system_factor_kh
 from core.kinds import TraceStatus
-from core.models import Beam, Material, Service, Treatment
+from core.models import Beam, Material, Service, SystemCase, Treatment
 from core.results import FactorTrace, RowUsed, trace_rows
 
 GLULAM_E05_RATIO = 0.87
@@ -189,14 +189,18 @@ def _member_properties(beam: Beam) -> Member:
         fb_pos = fb_neg = float(row["fb_mpa"])
         balanced = True
         e, e05 = float(row["e_mpa"]), float(row["e05_mpa"])
-        kh = system_factor_kh(beam.system.value)
+        kh = system_factor_kh((beam.system or SystemCase.single).value)
         kzb, kzb_trace = size_factor_kzb(beam.b_mm, beam.d_mm)
         trace.append(
             FactorTrace(
                 symbol="KH",
                 value=kh,
                 clause="CSA O86-19 Table 6.12",
-                source=f"system case {beam.system.value}: KH {kh:g}",
+                source=(
+                    f"system case {beam.system.value}: KH {kh:g}"
+                    if beam.system is not None
+                    else f"system not recorded: taken as a single member (the unfavourable case), KH {kh:g}"
+                ),
                 status=TraceStatus.memory,
             )
         )

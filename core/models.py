@@ -308,7 +308,9 @@ class Beam(Record):
     negative_lu: NegativeLu = NegativeLu.between_restraints
     dead_load_pattern: DeadLoadPattern = DeadLoadPattern.per_part
     specified: Specified | None = None
-    system: SystemCase = SystemCase.single
+    # None: not recorded; taken as a single member (KH 1.0, the least factor of Table 6.12: the unfavourable
+    # case) and said so
+    system: SystemCase | None = None
     bridging_spacing_mm: PositiveMm | None = None
     size_tolerance_mm: float = Field(default=2.0, ge=0, le=25, allow_inf_nan=False)
 
@@ -379,8 +381,8 @@ class Beam(Record):
             if self.d_mm > 400:
                 msg = f"d_mm = {self.d_mm:g} for sawn lumber; allowed: 0 < d_mm <= 400"
                 raise ValueError(msg)
-        if self.material is Material.glulam and self.system is not SystemCase.single:
-            msg = "system: glulam beams take KH = 1.0; allowed for glulam: 'single'"
+        if self.material is Material.glulam and self.system not in (None, SystemCase.single):
+            msg = "system: glulam beams take KH = 1.0; allowed for glulam: 'single' or not recorded (null)"
             raise ValueError(msg)
         if self.material is Material.glulam and self.treatment is Treatment.incised:
             msg = "treatment = 'incised' applies to sawn lumber; allowed for glulam: 'none'"

@@ -425,9 +425,9 @@ def recheck_input(beam: dict[str, Any], site_data: dict[str, Any]) -> tuple[dict
     """
     from core.records import DesignBasis
     from reports.inputs import loads_source
-    from storage.results import beam_fields
+    from storage.results import beam_input
 
-    data = {k: v for k, v in beam.items() if k in beam_fields()}
+    data = beam_input(beam)
     width = beam.get("tributary_m")
     if width is None:
         return data, loads_source(None, "", DesignBasis())

@@ -115,11 +115,20 @@ def input_rows(beam: Beam) -> list[tuple[str, str]]:
             "chosen from the geometry" if beam.le_case == "auto" else f"{beam.le_case}, as the reviewer chose",
         ),
         ("Lu where the bottom edge is in compression", NEGATIVE_LU_WORDS[beam.negative_lu.value]),
-        ("System", SYSTEM_WORDS[beam.system.value]),
+        ("System", _system_words(beam)),
     ]
     if beam.material.value == "glulam":
         rows.append(("Top stamp", STAMP_WORDS[beam.top_stamp.value]))
     return rows
+
+
+def _system_words(beam: Beam) -> str:
+    """The load-sharing system (sawn lumber's KH), or what was taken where it was not recorded."""
+    if beam.system is not None:
+        return SYSTEM_WORDS[beam.system.value]
+    if beam.material.value == "glulam":
+        return "not recorded: glulam takes no system factor (KH 1.0)"
+    return "not recorded: taken as a single member (KH 1.0, the unfavourable case)"
 
 
 def _specified_words(beam: Beam) -> str:

@@ -60,6 +60,36 @@ def beam_fields() -> tuple[str, ...]:
     return tuple(Beam.model_fields)
 
 
+SYSTEM_RECORDED = "system_recorded"  # the record's flag beside ``system``: whether the reviewer recorded it
+
+
+def recorded_system(data: dict[str, Any]) -> Any:
+    """A record's load-sharing system (sawn lumber's KH) where it was recorded, else None: not recorded.
+
+    Storage keeps a system not recorded as "single" with ``system_recorded`` false, a record every version
+    of the model reads; core takes None as a single member and says so. A record saved before the flag
+    holds "single" without it: not recorded either (the tablet had no way to record one). Any other
+    case stored there was given.
+    """
+    system = data.get("system")
+    if data.get(SYSTEM_RECORDED) is True or system not in (None, "single"):
+        return system
+    return None
+
+
+def beam_input(data: dict[str, Any]) -> dict[str, Any]:
+    """A stored record's contract-1 fields as core's ``Beam`` reads them (the system as recorded)."""
+    fields = set(beam_fields())
+    out = {k: v for k, v in data.items() if k in fields}
+    out["system"] = recorded_system(data)
+    return out
+
+
+def stored_system(system: Any) -> dict[str, Any]:
+    """The record's fields for a model's ``system`` (None: not recorded), as ``recorded_system`` reads them back."""
+    return {"system": "single" if system is None else system, SYSTEM_RECORDED: system is not None}
+
+
 Triples = tuple[tuple[str, str, str], ...]
 FINDING_KEYS = ("code", "priority", "region")
 ROW_KEYS = ("clause", "source", "status")
@@ -72,12 +102,17 @@ def _stored_beam() -> type[Any]:
     The same fields, validators and instances' values as ``Beam.model_validate`` of the record's beam
     fields (a subclass changes only ``extra``), without decoding the text into a dict first.
     """
-    from pydantic import ConfigDict
+    from pydantic import ConfigDict, model_validator
 
     from core.models import Beam
 
     class StoredBeam(Beam):
         model_config = ConfigDict(frozen=True, extra="ignore")
+
+        @model_validator(mode="before")
+        @classmethod
+        def _system_as_recorded(cls, data: Any) -> Any:
+            return dict(data, system=recorded_system(data)) if isinstance(data, dict) else data
 
     return StoredBeam
 

@@ -43,9 +43,9 @@ from storage.oplog import (
     insert_op,
     read_stamp,
 )
+from storage.results import beam_input, stored_system
 from storage.stamps import utc_stamp
 
-BEAM_FIELDS = tuple(Beam.model_fields)
 DEMO_FIRM_KEY = "bracewalk-demo-firm-key-not-for-production"  # DEMO ONLY: the demo database, never a firm's
 HUB_PEER = "hub"  # the office hub, as a peer of this device's cursors (storage/hubsync.py)
 OFFICE_PEER = "office"  # the Sync screen's bundle files go to the office: a label, not a device (Store.acknowledged)
@@ -487,6 +487,7 @@ class Store:
         """Log (or re-save) a beam: contract-1 fields plus location fields (level, gridline, notes...)."""
         beam_id = beam_id or uuid7()
         fields = beam.model_dump(mode="json")
+        fields.update(stored_system(fields["system"]))
         fields.update(location or {})
         fields["site_id"] = site_id
         self.save("beam", beam_id, fields)
@@ -507,7 +508,7 @@ class Store:
     def beam(self, beam_id: str) -> Beam:
         """A logged beam as the core model (raises ValueError if its stored fields are incomplete)."""
         data = self.beam_record(beam_id)
-        return Beam.model_validate({k: v for k, v in data.items() if k in BEAM_FIELDS})
+        return Beam.model_validate(beam_input(data))
 
     def beams(self, site_id: str) -> list[tuple[str, dict[str, Any]]]:
         """A site's beams (id, record) ordered by level, gridline and mark; archived ones left out."""
@@ -1003,7 +1004,7 @@ class Store:
         self.db.conn.close()
 
 
-__all__ = ["BEAM_FIELDS", "SET_ENTITIES", "ConflictNotResolved", "IntegrityError", "LifecycleError", "Store"]
+__all__ = ["SET_ENTITIES", "ConflictNotResolved", "IntegrityError", "LifecycleError", "Store"]
 
 
 def _site_choices(matches: list[Site], sites: list[Site]) -> str:

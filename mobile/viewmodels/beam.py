@@ -40,6 +40,7 @@ from reports.render import render_recheck_sheet
 from reports.tablerows import counts, rows_used
 from storage import StorageError, Store
 from storage.files import write_atomic
+from storage.results import beam_input, recorded_system, stored_system
 
 LENGTH_FIELDS = {  # form field -> its plausible range (core.plausible)
     "b_mm": "b_mm",
@@ -329,7 +330,7 @@ class BeamFormViewModel:
             candidate = dict(rec, **changes)
             # an incomplete beam is checked with stand-ins for what is not yet entered, so that the
             # entries made so far are held to every rule that involves them (sawn b, grade, spacing)
-            Beam.model_validate({k: v for k, v in _with_stand_ins(candidate).items() if k in Beam.model_fields})
+            Beam.model_validate(beam_input(_with_stand_ins(candidate)))
         except ValidationError as exc:
             self.errors[name] = trade_message(exc)
             self.suggestions.pop(name, None)
@@ -659,6 +660,7 @@ def _model_defaults() -> dict[str, Any]:
         if not info.is_required():
             annotation: Any = info.annotation
             out[name] = TypeAdapter(annotation).dump_python(info.get_default(call_default_factory=True), mode="json")
+    out.update(stored_system(out["system"]))  # the system not recorded, as storage keeps it
     return out
 
 
@@ -769,19 +771,18 @@ def _material_entry(text: str, rec: dict[str, Any]) -> dict[str, Any]:
         "grade": rec.get("grade") if rec.get("grade") in grades else grades[0],
     }
     if material is Material.glulam and system_shown(rec) != SYSTEM_NOT_RECORDED:  # glulam takes KH 1.0 only
-        changes.update(system=SystemCase.single.value, system_recorded=False)
+        changes.update(stored_system(None))
     return changes
 
 
 def system_shown(rec: dict[str, Any]) -> str:
     """A beam's system as its picker holds it: the stored case once recorded, else SYSTEM_NOT_RECORDED.
 
-    A record saved whole (the demo, ``bracewalk check`` input) holds core's default "single" with no
-    ``system_recorded``: not recorded. Another case stored there was given, so it is shown.
+    As the recheck reads it (``storage.results.recorded_system``): "single" stored without
+    ``system_recorded`` true was not recorded.
     """
-    system = rec.get("system")
-    recorded = rec.get("system_recorded") is True or system not in (None, SystemCase.single.value)
-    return str(system) if recorded else SYSTEM_NOT_RECORDED
+    system = recorded_system(rec)
+    return SYSTEM_NOT_RECORDED if system is None else str(system)
 
 
 def _system_entry(text: str, rec: dict[str, Any]) -> dict[str, Any]:
@@ -789,9 +790,7 @@ def _system_entry(text: str, rec: dict[str, Any]) -> dict[str, Any]:
     if text not in PICKERS["system"]:
         msg = f"system {text!r}; allowed: {', '.join(PICKERS['system'])}"
         raise ValueError(msg)
-    if text == SYSTEM_NOT_RECORDED:
-        return {"system": SystemCase.single.value, "system_recorded": False}
-    return {"system": text, "system_recorded": True}
+    return stored_system(None if text == SYSTEM_NOT_RECORDED else text)
 
 
 def _species_entry(text: str, rec: dict[str, Any]) -> dict[str, Any]:

@@ -115,7 +115,9 @@ def _options(rng: random.Random, sawn: bool) -> dict[str, Any]:
     if sawn:
         if rng.random() < 0.2:
             out["treatment"] = "incised"
-        out["system"] = rng.choice(("single", "single", "shared", "light_frame", "built_up"))
+        system = rng.choice(("single", None, "shared", "light_frame", "built_up"))  # None: not recorded
+        if system is not None:
+            out["system"] = system
     else:
         out["top_stamp"] = rng.choice(("up", "up", "down", "not_visible"))
     return out
