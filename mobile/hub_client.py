@@ -13,7 +13,7 @@ import time
 import urllib.error
 import urllib.request
 from collections.abc import Callable
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from typing import Any
 
 from storage import Store
@@ -106,7 +106,7 @@ def request(
     """One HTTP call; raises HubError with the hub's reason on a refusal or a network failure."""
     headers = {"Content-Type": "application/json"} | (extra or {})
     if auth is not None:
-        headers |= sign_request(auth.key, auth.device_id, method, path, body)
+        headers |= sign_request(auth.key, auth.device_id, method, path, body, auth.clock_offset_ms)
     req = urllib.request.Request(
         url.rstrip("/") + path, data=body if method != "GET" else None, method=method, headers=headers
     )
@@ -143,8 +143,18 @@ def enroll(store: Store, url: str, code: str, ca_pem: str = "") -> dict[str, Any
     adopt_enrolment(store, url.rstrip("/"), answer["device_id"], key, answer["bundle_key"], ca_pem)
     auth = enrolment(store.db)
     if auth is not None:
-        learn_devices(store, auth, int(time.time() * 1000))
+        hello = json.loads(request(auth.hub_url, "GET", "/v1/hub", ca_pem=auth.ca_pem))
+        learn_devices(store, _timed_by_hub(auth, hello), int(time.time() * 1000))
     return answer
+
+
+def _timed_by_hub(auth: Enrolment, hello: dict[str, Any]) -> Enrolment:
+    """The enrolment with its requests timed by the hub's clock, as its hello gave it.
+
+    The hub refuses a request more than 10 minutes from its own clock (replays); a tablet whose clock
+    was set by hand on site was refused every sync, with the two times in milliseconds as the reason.
+    """
+    return replace(auth, clock_offset_ms=int(hello["server_time_ms"]) - int(time.time() * 1000))
 
 
 def learn_devices(store: Store, auth: Enrolment, now_ms: int) -> int:
@@ -194,6 +204,7 @@ def _sync(
     tell(0.0, "contacting the office")
     hello = json.loads(request(auth.hub_url, "GET", "/v1/hub", ca_pem=auth.ca_pem))
     result.skew_ms = int(hello["server_time_ms"]) - clock()
+    auth = _timed_by_hub(auth, hello)
     if "hub_seq" in hello and int(hello["hub_seq"]) < hub_cursor(store):
         _forget_hub_cursors(store)  # the hub was restored from a backup older than this tablet's last sync
     learn_devices(store, auth, clock())

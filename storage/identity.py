@@ -108,9 +108,16 @@ def request_message(method: str, path: str, timestamp_ms: int, body: bytes) -> b
     return f"bracewalk-request/1\n{method.upper()}\n{path}\n{timestamp_ms}\n{hashlib.sha256(body).hexdigest()}".encode()
 
 
-def sign_request(key: Ed25519PrivateKey, device_id: str, method: str, path: str, body: bytes) -> dict[str, str]:
-    """Headers that authenticate one request by a device."""
-    now = int(time.time() * 1000)
+def sign_request(
+    key: Ed25519PrivateKey, device_id: str, method: str, path: str, body: bytes, offset_ms: int = 0
+) -> dict[str, str]:
+    """Headers that authenticate one request by a device.
+
+    ``offset_ms``: the hub's clock minus this device's, as the session's hello measured it; the request is
+    timed by the hub's clock, so a tablet whose clock is off (set by hand on site, a flat clock battery)
+    still syncs, while a replayed request still falls outside the hub's window.
+    """
+    now = int(time.time() * 1000) + offset_ms
     sig = b64(key.sign(request_message(method, path, now, body)))
     return {"X-Bracewalk-Device": device_id, "X-Bracewalk-Time": str(now), "X-Bracewalk-Signature": sig}
 
@@ -137,6 +144,7 @@ class Enrolment:
     device_id: str
     key: Ed25519PrivateKey
     ca_pem: str = ""  # the office's own certificate, trusted for this hub only (self-signed TLS)
+    clock_offset_ms: int = 0  # the hub's clock minus this tablet's, learnt from the hub's hello: requests' time
 
 
 def ensure_tables(db: sqlite_utils.Database) -> None:

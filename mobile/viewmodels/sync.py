@@ -25,6 +25,16 @@ from storage.store import OFFICE_PEER, ConflictNotResolved
 SKEW_WARN_MS = 2 * 60 * 1000  # sync.md 3.3: warn when the tablet's clock is this far from the hub's
 
 
+def clock_words(skew_ms: int) -> str:
+    """The tablet's clock against the office's, with what to do (skew: the office's clock minus the tablet's)."""
+    minutes = round(abs(skew_ms) / 60000)
+    way = "behind" if skew_ms > 0 else "ahead of"
+    return (
+        f"this tablet's clock is {minutes} min {way} the office clock: set its date and time "
+        "(its changes are stamped by it, and the latest stamp wins a field both sides changed)"
+    )
+
+
 @dataclass
 class SyncViewModel:
     """The sync screen. Export and import open their own Store, so they can run in a worker thread."""
@@ -194,7 +204,7 @@ class SyncViewModel:
             worker.close()
         text = f"Sent {result.pushed} changes, received {result.pulled_new}"
         if abs(result.skew_ms) > SKEW_WARN_MS:
-            text += f"; this tablet's clock is {abs(result.skew_ms) // 60000} min off the office clock"
+            text += f"; {clock_words(result.skew_ms)}"
         if result.rejected:
             text += f"; the office held back {len(result.rejected)}: see below"
         if result.version_words:
