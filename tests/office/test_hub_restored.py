@@ -268,3 +268,29 @@ def test_a_device_enrolled_after_the_backup_does_not_stop_its_colleagues(request
     finally:
         again.stop()
         restored.close()
+
+
+def test_an_answer_from_another_history_within_one_sync_moves_nothing(served, tmp_path, monkeypatch):
+    """The hub is restored between the hello and the push answer: that answer is refused, nothing moves.
+
+    It belongs to a history the tablet's cursors do not follow, so the change still counts as waiting.
+    """
+    a = served.tablet(tmp_path / "a.db", "Tablet A", "A. Rev", "reviewer")
+    site = a.create_site(name="Mid-sync restore")
+    assert sync(a).in_step
+    a.save_beam(site.id, glulam(mark="A-9"))
+    real = hub_client.request
+
+    def restored_meanwhile(url, method, path, *args, **kwargs):
+        data = real(url, method, path, *args, **kwargs)
+        if path == "/v1/push":
+            return json.dumps(dict(json.loads(data), epoch="0" * 32)).encode()
+        return data
+
+    monkeypatch.setattr(hub_client, "request", restored_meanwhile)
+    with pytest.raises(HubError, match="restored from a backup during this sync"):
+        sync(a)
+    assert SyncViewModel(a).waiting() == "1 change waiting for the office"
+    monkeypatch.setattr(hub_client, "request", real)
+    assert sync(a).in_step
+    assert SyncViewModel(a).waiting() == "nothing waiting for the office"
