@@ -19,15 +19,17 @@ from typing import Any
 from storage import Store
 from storage.bundle import Progress
 from storage.clock import uuid7
-from storage.db import SCHEMA_VERSION, transaction
+from storage.db import SCHEMA_VERSION
 from storage.hubsync import (
-    HUB_PEER,
     PageRefused,
     adopt_enrolment,
+    adopt_holdings,
     apply_page,
     first_newer_schema,
     hub_cursor,
     log_sync,
+    lost_holdings,
+    meet_hub,
     outgoing,
     record_push_answer,
     retry_set_aside,
@@ -205,24 +207,47 @@ def _sync(
     hello = json.loads(request(auth.hub_url, "GET", "/v1/hub", ca_pem=auth.ca_pem))
     result.skew_ms = int(hello["server_time_ms"]) - clock()
     auth = _timed_by_hub(auth, hello)
-    if "hub_seq" in hello and int(hello["hub_seq"]) < hub_cursor(store):
-        _forget_hub_cursors(store)  # the hub was restored from a backup older than this tablet's last sync
+    epoch = hello.get("epoch")  # None from a hub made before epochs: its hub_seq and holdings are the only signs
+    if meet_hub(store, epoch, int(hello["hub_seq"]) if "hub_seq" in hello else None):
+        _adopt_holdings(store, auth, epoch)  # the hub was restored: push what it lacks, pull from the start
     learn_devices(store, auth, clock())
     _retry_set_aside(store, auth, result)
-    if int(hello.get("schema_max", SCHEMA_VERSION)) < SCHEMA_VERSION:
-        # an older hub would not know this app's fields: keep every change here until the office updates it
-        result.hub_schema_older = int(hello["schema_max"])
-    else:
-        _push(store, auth, result, tell, clock, include_demo)
-    _pull(store, auth, result, tell, clock)
+    for _ in range(2):  # a second round only when the hub turned out to lack what it had acknowledged
+        if int(hello.get("schema_max", SCHEMA_VERSION)) < SCHEMA_VERSION:
+            # an older hub would not know this app's fields: keep every change here until the office updates it
+            result.hub_schema_older = int(hello["schema_max"])
+        else:
+            _push(store, auth, result, tell, clock, include_demo, epoch)
+        if not _pull(store, auth, result, tell, clock, epoch):
+            break
     tell(1.0, "in step with the office")
 
 
-def _pull(store: Store, auth: Enrolment, result: SyncResult, tell: Progress, clock: Callable[[], int]) -> None:
+def _same_history(answer: dict[str, Any], epoch: str | None) -> None:
+    """Refuse an answer from another hub history than the hello's (the hub was restored during this sync)."""
+    if epoch is not None and answer.get("epoch", epoch) != epoch:
+        msg = "the office hub was restored from a backup during this sync; nothing more was recorded: sync again"
+        raise HubError(msg, 409)
+
+
+def _adopt_holdings(store: Store, auth: Enrolment, epoch: str | None) -> None:
+    """Ask the hub what it holds per origin (a pull of one op from the start) and push from there."""
+    page = json.loads(request(auth.hub_url, "GET", "/v1/pull?cursor=0&limit=1", auth=auth))
+    _same_history(page, epoch)
+    adopt_holdings(store, page["seen"])
+
+
+def _pull(
+    store: Store, auth: Enrolment, result: SyncResult, tell: Progress, clock: Callable[[], int], epoch: str | None
+) -> bool:
     """Apply pages until the hub has no more (or holds changes of a newer app), fetching their blobs.
 
     A page with ops of a device the device list did not name (enrolled since it was fetched, during
     this sync) has the list fetched once more before it is applied, so they are not set aside.
+
+    A page whose hub holds fewer ops of some origin than it acknowledged (``lost_holdings``: restored
+    without a new epoch) is not applied: the cursors go to what it holds and to the start, and True
+    is returned so the caller pushes the lost ops again and pulls once more.
     """
     more = True
     relisted = False
@@ -230,6 +255,10 @@ def _pull(store: Store, auth: Enrolment, result: SyncResult, tell: Progress, clo
         cursor = hub_cursor(store)
         tell(0.5, f"receiving changes after {cursor}")
         page = json.loads(request(auth.hub_url, "GET", f"/v1/pull?cursor={cursor}&limit={PULL_LIMIT}", auth=auth))
+        _same_history(page, epoch)
+        if lost_holdings(store, page["seen"]):
+            adopt_holdings(store, page["seen"])
+            return True
         if not relisted and unlisted_origins(store, page):
             learn_devices(store, auth, clock())
             relisted = True
@@ -241,6 +270,7 @@ def _pull(store: Store, auth: Enrolment, result: SyncResult, tell: Progress, clo
         _fetch_blobs(store, auth, [item["op"]["payload"] for item in page["ops"][:newer]])
         result.newer_waiting = newer is not None
         more = bool(page["more"]) and not result.newer_waiting
+    return False
 
 
 def _retry_set_aside(store: Store, auth: Enrolment, result: SyncResult) -> None:
@@ -254,9 +284,19 @@ def _retry_set_aside(store: Store, auth: Enrolment, result: SyncResult) -> None:
 
 
 def _push(
-    store: Store, auth: Enrolment, result: SyncResult, tell: Progress, clock: Callable[[], int], include_demo: bool
+    store: Store,
+    auth: Enrolment,
+    result: SyncResult,
+    tell: Progress,
+    clock: Callable[[], int],
+    include_demo: bool,
+    epoch: str | None,
 ) -> None:
-    """Send every change the hub lacks, in batches, recording what it took and what it refused."""
+    """Send every change the hub lacks, in batches, recording what it took and what it refused.
+
+    An answer showing the hub lost ops it had acknowledged moves the cursors down to what it holds
+    (``record_push_answer``): the next batches carry the lost ops again.
+    """
     seen: set[tuple[str, int]] = set()
     while True:
         out = outgoing(store, auth, PUSH_BATCH, frozenset(seen), include_demo)
@@ -270,17 +310,11 @@ def _push(
             {"bundle_id": uuid7(), "ops": [{"op": _op_json(op), "sig": sig} for op, sig in batch]}
         ).encode()
         answer = json.loads(request(auth.hub_url, "POST", "/v1/push", body, auth))
+        _same_history(answer, epoch)
         record_push_answer(store, answer, batch, clock())
         result.pushed += len(batch)
-        result.rejected.extend(answer["rejected"])
+        result.rejected.extend(r for r in answer["rejected"] if r not in result.rejected)
         seen.update((op.origin, op.seq) for op, _ in batch)
-
-
-def _forget_hub_cursors(store: Store) -> None:
-    """Push again whatever the hub lacks and pull from the start (the hub merges both idempotently)."""
-    with transaction(store.db):
-        store.db.execute("DELETE FROM peer_cursor WHERE peer=?", [HUB_PEER])
-        store.db.execute("INSERT OR REPLACE INTO device_key VALUES ('hub_cursor', '0')")
 
 
 def _op_json(op: Any) -> dict[str, Any]:

@@ -42,6 +42,7 @@ class HubHello(Strict):
     schema_max: int
     max_body_bytes: int
     hub_seq: int  # the last hub_seq handed out: a tablet whose cursor is beyond it meets a restored hub
+    epoch: str  # the identity of the hub's history (a restore gives a new one): a tablet's cursors belong to one
 
 
 class EnrollRequest(Strict):
@@ -108,6 +109,7 @@ class PushAnswerModel(Strict):
     rejected: list[dict[str, Any]]
     hub_seq_after: int
     seen: dict[str, int]
+    epoch: str = ""  # the hub's history this answer belongs to (HubHello.epoch)
 
 
 class PullAnswer(Strict):
@@ -118,6 +120,7 @@ class PullAnswer(Strict):
     more: bool
     ops_sha256: str
     seen: dict[str, int]  # per origin, the highest seq up to which the hub holds every op
+    epoch: str = ""  # the hub's history this page belongs to (HubHello.epoch)
 
 
 def create_app(hub: HubStore) -> FastAPI:
@@ -204,6 +207,7 @@ def _hub_router() -> APIRouter:
             schema_max=SCHEMA_VERSION,
             max_body_bytes=MAX_BODY_BYTES,
             hub_seq=hub.hub_seq(),
+            epoch=hub.epoch,
         )
 
     @router.post("/enroll")

@@ -10,8 +10,11 @@ A backup is a folder:
 
 Restore goes into an empty target only (a new SQLite path, or an empty PostgreSQL database) and
 never over a live hub. The restored hub keeps its hub id, devices and keys, so tablets sync on
-without enrolling again; a tablet that synced after the backup was taken notices the hub is behind
-its cursor, pushes again what the hub lacks and pulls from the start (mobile/hub_client.py).
+without enrolling again, but it gets a new epoch (``HubStore.begin_new_epoch``): its history from
+the backup on is not the one the tablets' cursors followed. Each tablet sees the new epoch at its
+next sync, whatever order they sync in, pushes again whatever the hub does not hold and pulls from
+the start (mobile/hub_client.py). A hub copied back by hand keeps its epoch: run the restore
+through here.
 """
 
 from __future__ import annotations
@@ -64,7 +67,7 @@ def restore(backup_dir: Path, db: str, blob_dir: Path | None = None) -> HubStore
             msg = "the target database already holds a hub: restore only into an empty database"
             raise FileExistsError(msg)
         _pg_tool("pg_restore", "--no-owner", "--clean", "--if-exists", "--dbname", conninfo(db), str(dump))
-        return HubStore(db)
+        return _new_history(HubStore(db), backup_dir)
     source = backup_dir / "hub.db"
     if not source.exists():
         msg = f"{source} is missing: that is not a backup of an SQLite hub"
@@ -77,7 +80,17 @@ def restore(backup_dir: Path, db: str, blob_dir: Path | None = None) -> HubStore
     shutil.copyfile(source, target)
     if (backup_dir / "blobs").exists():
         shutil.copytree(backup_dir / "blobs", blob_dir or target.parent / (target.stem + "-blobs"))
-    return HubStore(target, blob_dir=blob_dir)
+    return _new_history(HubStore(target, blob_dir=blob_dir), backup_dir)
+
+
+def _new_history(hub: HubStore, backup_dir: Path) -> HubStore:
+    """A restored hub starts a new epoch, so every tablet forgets its hub cursors at its next sync.
+
+    What the lost hub acknowledged after the backup is gone, and the hub_seq numbers past the backup's last
+    one will name other ops than the lost hub gave them.
+    """
+    hub.begin_new_epoch(f"restored from the backup {backup_dir.name}")
+    return hub
 
 
 def _pg_tool(tool: str, *args: str) -> None:

@@ -18,7 +18,7 @@ import threading
 import time
 from collections.abc import Callable, Iterator
 from contextlib import contextmanager
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Any
 
@@ -106,6 +106,7 @@ class PushAnswer:
     rejected: list[dict[str, Any]] = field(default_factory=list)
     hub_seq_after: int = 0
     seen: dict[str, int] = field(default_factory=dict)
+    epoch: str = ""  # the hub's history when it answered (set at answer time, never stored with the answer)
 
 
 def _now_ms() -> int:
@@ -147,6 +148,8 @@ class HubStore:
             if self._meta("hub_id") is None:
                 self._set_meta("hub_id", uuid7())
                 self._set_meta("bundle_key", secrets.token_hex(32))
+            if self._meta("epoch") is None:  # a hub made before epochs gets its first one here
+                self._set_meta("epoch", _new_epoch())
 
     # -- schema and bookkeeping ----------------------------------------------------------------
     def _migrate(self) -> None:
@@ -184,6 +187,24 @@ class HubStore:
     def hub_id(self) -> str:
         """The id of this hub."""
         return str(self._meta("hub_id"))
+
+    @property
+    def epoch(self) -> str:
+        """The identity of this hub's history of ops and hub_seq numbers, random; a restore replaces it.
+
+        A tablet keeps the epoch its cursors belong to: when the hub answers with another one, what the
+        hub acknowledged or numbered before may be gone, so the tablet forgets its hub cursors (sync.md 3.3).
+        """
+        with self.lock:
+            return str(self._meta("epoch"))
+
+    def begin_new_epoch(self, why: str) -> str:
+        """Give this hub a new random epoch (after a restore from a backup); recorded in the audit log."""
+        with self.tx():
+            epoch = _new_epoch()
+            self._set_meta("epoch", epoch)
+            self._audit(None, "epoch", f"new history {epoch[:8]}: {why}")
+        return epoch
 
     @property
     def bundle_key(self) -> str:
@@ -390,7 +411,7 @@ class HubStore:
             if done is not None:
                 if (done[0], done[1]) != (device_id, body_sha256):
                     raise HubRefused(409, f"bundle {bundle_id} was already pushed with other content")
-                return PushAnswer(**json.loads(done[2]))
+                return replace(PushAnswer(**json.loads(done[2])), epoch=self.epoch)
             newer = next((op for op, _ in ops if op.schema_version > SCHEMA_VERSION), None)
             if newer is not None:  # its fields may be ones this hub does not know: held on the tablet, not judged
                 raise HubRefused(
@@ -399,7 +420,7 @@ class HubStore:
                     f"{newer.schema_version}; this hub knows {SCHEMA_VERSION}): update the office hub; nothing changed",
                 )
             keys = self._verify_signatures(ops)
-            return self._merge(device_id, bundle_id, body_sha256, ops, keys)
+            return replace(self._merge(device_id, bundle_id, body_sha256, ops, keys), epoch=self.epoch)
 
     def _verify_signatures(self, ops: list[tuple[Op, str]]) -> dict[str, Device]:
         origins: dict[str, Device] = {}
@@ -475,7 +496,13 @@ class HubStore:
             answer.seen = dict(self.db.execute("SELECT origin, seq FROM seen").fetchall())
             self.db.execute(
                 "INSERT INTO hub_push VALUES (?, ?, ?, ?, ?)",
-                [bundle_id, device_id, body_sha256, json.dumps(answer.__dict__), self.clock_ms()],
+                [
+                    bundle_id,
+                    device_id,
+                    body_sha256,
+                    json.dumps({k: v for k, v in answer.__dict__.items() if k != "epoch"}),
+                    self.clock_ms(),
+                ],
             )
             self.db.execute("UPDATE hub_device SET last_sync_ms=? WHERE device_id=?", [self.clock_ms(), device_id])
             self._audit(device_id, "push", f"{bundle_id}: {len(ops)} ops, {len(answer.rejected)} quarantined")
@@ -511,6 +538,7 @@ class HubStore:
             ).fetchall()
             seen = dict(self.db.execute("SELECT origin, seq FROM seen").fetchall())
             top = int(self.db.execute("SELECT coalesce(max(hub_seq), 0) FROM hub_log").fetchone()[0])
+            epoch = self.epoch
         ops = []
         for r in rows:
             op = dict(zip(OP_KEYS, r[2:], strict=True))
@@ -524,6 +552,7 @@ class HubStore:
             "more": next_cursor < top,
             "ops_sha256": hashlib.sha256(body).hexdigest(),
             "seen": seen,
+            "epoch": epoch,
         }
 
     def snapshot(self) -> dict[str, Any]:
@@ -569,6 +598,10 @@ def _default_pg_blobs(url: str) -> Path:
     base = Path(os.environ.get("BRACEWALK_HOME", Path.home() / ".bracewalk"))
     where = url.rsplit("@", 1)[-1]  # host, port and database name; never the password
     return base / "hub-blobs" / hashlib.sha256(where.encode()).hexdigest()[:16]
+
+
+def _new_epoch() -> str:
+    return secrets.token_hex(16)
 
 
 def _by(what: str, user: str) -> str:

@@ -99,11 +99,21 @@ def outgoing(
 
 
 def _relayable(store: Store, ops: list[Op], own: tuple[str, ...]) -> list[Op]:
-    """Own ops, and colleagues' ops up to the first whose signature does not verify (per origin: no holes)."""
+    """Own ops, and colleagues' ops up to the first whose signature does not verify (per origin: no holes).
+
+    A colleague the hub's device list (as last fetched) does not name is left out whole: the hub refuses
+    a push holding an op of a device it never enrolled, so one such op would hold back everything else
+    (a hub restored from a backup older than that device's enrolment). Its ops wait here until the office
+    enrols it again.
+    """
+    listed = {str(r[0]) for r in store.db.execute("SELECT device_id FROM trusted_device").fetchall()}
     out: list[Op] = []
     stopped: set[str] = set()
     for op in ops:
         if op.origin in stopped:
+            continue
+        if op.origin not in own and listed and op.origin not in listed:
+            stopped.add(op.origin)
             continue
         if op.origin not in own:
             row = store.db.execute("SELECT sig FROM op_sig WHERE origin=? AND seq=?", [op.origin, op.seq]).fetchone()
@@ -114,17 +124,24 @@ def _relayable(store: Store, ops: list[Op], own: tuple[str, ...]) -> list[Op]:
     return out
 
 
-def record_push_answer(store: Store, answer: dict[str, Any], pushed: list[tuple[Op, str]], now_ms: int) -> None:
+def record_push_answer(store: Store, answer: dict[str, Any], pushed: list[tuple[Op, str]], now_ms: int) -> bool:
     """Move the hub cursor to what the hub holds and keep its refusals for the Sync screen.
 
     This device's own ops in the push have left it (the hub holds each, merged or refused): the sent
     mark says so, as an export's does, so a restore from a backup never reuses their seqs.
+
+    An answer holding fewer ops of an origin than the hub acknowledged before (``lost_holdings``) means
+    the hub was restored: the push cursors drop to what it holds, so the rest of this push carries the
+    lost ops again, and the pull starts from the beginning. Returns True then.
     """
     _ensure(store)
     own = [op.seq for op, _ in pushed if op.origin == store.device_id]
     if own:
         store.record_sent(HUB_PEER, max(own))
+    lost = bool(lost_holdings(store, answer["seen"]))
     with transaction(store.db):
+        if lost:
+            _forget(store, answer["seen"])
         for origin, seq in answer["seen"].items():
             store.db.execute("INSERT OR REPLACE INTO peer_cursor VALUES (?, ?, ?)", [HUB_PEER, origin, int(seq)])
         for op, _ in pushed:
@@ -134,6 +151,63 @@ def record_push_answer(store: Store, answer: dict[str, Any], pushed: list[tuple[
                 "INSERT OR REPLACE INTO hub_rejection VALUES (?, ?, ?, ?)",
                 [r["origin"], int(r["seq"]), r["reason"], now_ms],
             )
+    return lost
+
+
+def hub_epoch(store: Store) -> str | None:
+    """The hub history (``HubStore.epoch``) this tablet's hub cursors belong to; None before it met one."""
+    _ensure(store)
+    row = store.db.execute("SELECT value FROM device_key WHERE key='hub_epoch'").fetchone()
+    return str(row[0]) if row else None
+
+
+def meet_hub(store: Store, epoch: str | None, hub_seq: int | None) -> bool:
+    """Check the hub's hello against this tablet's cursors; forget them if they belong to another history.
+
+    ``epoch``: the hub's history as its hello names it (None from a hub made before epochs); another one
+    than the cursors belong to means the hub was restored from a backup (or is another hub): what it
+    acknowledged, and the hub_seq numbers this tablet pulled up to, may name nothing or other ops now.
+    ``hub_seq``: the hub's last hub_seq; below the pull cursor, the hub is behind this tablet (a hub
+    without epochs gives only this sign). Either way the push cursors and the pull cursor are forgotten
+    and the epoch kept, in one transaction; True then (the caller asks the hub what it holds,
+    ``adopt_holdings``). The first epoch a tablet meets is kept without forgetting anything.
+    """
+    held = hub_epoch(store)
+    changed = epoch is not None and held is not None and epoch != held
+    behind = hub_seq is not None and hub_seq < hub_cursor(store)
+    with transaction(store.db):
+        if changed or behind:
+            _forget(store, {})
+        if epoch is not None:
+            store.db.execute("INSERT OR REPLACE INTO device_key VALUES ('hub_epoch', ?)", [epoch])
+    return changed or behind
+
+
+def lost_holdings(store: Store, seen: dict[str, Any]) -> list[str]:
+    """Origins of which the hub reports holding fewer ops (``seen``) than it acknowledged to this tablet.
+
+    A hub never loses an op it acknowledged unless it was restored from a backup (by hand, say, so that
+    its epoch did not change) or failed over to a copy that had not received them.
+    """
+    acked = store.acknowledged(HUB_PEER)
+    return sorted(o for o, seq in acked.items() if int(seq) > int(seen.get(o, 0)))
+
+
+def adopt_holdings(store: Store, seen: dict[str, Any]) -> None:
+    """Take what the hub reports holding (per origin, the unbroken run of seqs) as the push cursors.
+
+    After the cursors were forgotten (``meet_hub``): the next push carries only what the hub lacks.
+    """
+    with transaction(store.db):
+        _forget(store, seen)
+
+
+def _forget(store: Store, seen: dict[str, Any]) -> None:
+    """Push cursors to ``seen`` exactly (down as well as up), the pull cursor to 0 (inside a transaction)."""
+    store.db.execute("DELETE FROM peer_cursor WHERE peer=?", [HUB_PEER])
+    for origin, seq in seen.items():
+        store.db.execute("INSERT INTO peer_cursor VALUES (?, ?, ?)", [HUB_PEER, str(origin), int(seq)])
+    store.db.execute("INSERT OR REPLACE INTO device_key VALUES ('hub_cursor', '0')")
 
 
 def adopt_enrolment(store: Store, hub_url: str, device_id: str, key: Any, bundle_key: str, ca_pem: str = "") -> None:
