@@ -109,6 +109,20 @@ MILESTONES = {
 }
 
 
+def same_member_words(item: Item, group: list[Item], label: Callable[[str], str]) -> str:
+    """The other items on ``item``'s member, each with its priority (``label``); '' when it is alone.
+
+    A member's items are closed one by one: the superintendent who closes the less urgent one must not
+    take the urgent one as closed with it (a member overstressed now, and the unbraced edge that causes
+    it, are two items of different priorities).
+    """
+    others = [o for o in group if o is not item]
+    if not item.member or not others:
+        return ""
+    listed = "; ".join(f"{o.number} ({label(o.priority)})" for o in others)
+    return f"{listed}. Each item is closed on its own: closing this one does not close another."
+
+
 def due_words(priority: str, due: str) -> str:
     """What the item is due by: the date or milestone the reviewer set, else the milestone of its priority."""
     return due.strip() or MILESTONES.get(priority, "before the next review")

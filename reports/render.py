@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import io
+import re
 from typing import Any
 
 from reportlab import rl_config
@@ -40,6 +41,7 @@ from reports.content import (
     member_sketch,
     one_line,
     ordered,
+    same_member_words,
     trace_value,
     typeset,
     uplift_row,
@@ -187,6 +189,14 @@ class _ItemHeading(Paragraph):
         super().draw()
 
 
+def pdf_date(day: str) -> str:
+    """A PDF date (ISO 32000 7.9.4) for the day 'YYYY-MM-DD', at midnight UTC: 'D:20261130000000+00'00''."""
+    if not re.fullmatch(r"\d{4}-\d{2}-\d{2}", day):
+        msg = f"issued_on {day!r}: expected a date YYYY-MM-DD"
+        raise ValueError(msg)
+    return f"D:{day.replace('-', '')}000000+00'00'"
+
+
 class NumberedCanvas(rl_canvas.Canvas):
     """Canvas that prints 'page X of Y', the notice number and the hash short form on every page."""
 
@@ -195,10 +205,14 @@ class NumberedCanvas(rl_canvas.Canvas):
     draft = False
     page_refs: PageRefs | None = None  # the summary's page numbers, written as forms when saving
 
+    issued_on = ""  # "YYYY-MM-DD": the document's creation date (invariant output otherwise dates it 2000-01-01)
+
     def __init__(self, *args: Any, **kwargs: Any):
         kwargs.setdefault("invariant", 1)
         super().__init__(*args, **kwargs)
         self._pages: list[dict[str, Any]] = []
+        if self.issued_on:
+            self.setDateFormatter(lambda *_: pdf_date(self.issued_on))
 
     def showPage(self) -> None:
         """Hold each page until the total is known."""
@@ -531,8 +545,11 @@ def _continued(table: Table, what: str, st: dict[str, ParagraphStyle], verb: str
     return table
 
 
-def _item_rows(item: Item, st: dict[str, ParagraphStyle]) -> list[list[Any]]:
-    """An item's table: location, finding, reference, action (and what it leaves), priority, due, response."""
+def _item_rows(item: Item, st: dict[str, ParagraphStyle], group: list[Item] | None = None) -> list[list[Any]]:
+    """An item's table: location, finding, reference, action, the member's other items, priority, due, response.
+
+    ``group``: the items of the member ``item`` is on (``by_member``), named in its "Same member" row.
+    """
     p = st["base"]
     rows = [("Location", item.location)]
     if not item.member and item.observed.strip() != item.finding.strip():
@@ -546,6 +563,9 @@ def _item_rows(item: Item, st: dict[str, ParagraphStyle]) -> list[list[Any]]:
     ]
     if item.after:
         rows.append(("After this action", item.after))
+    also = same_member_words(item, group or [], priority_label)
+    if also:
+        rows.append(("Same member", also))
     grid_rows = _rows(rows, st)
     grid_rows.append([Paragraph("Priority", st["bold"]), Paragraph(esc(priority_label(item.priority)), st["bold"])])
     grid_rows.append([Paragraph("Due", st["bold"]), Paragraph(esc(due_words(item.priority, item.due)), p)])
@@ -581,7 +601,7 @@ def _member_block(group: list[Item], st: dict[str, ParagraphStyle], refs: PageRe
         if first.checks:
             out.append(_engineering(first, st, [i.number for i in group]))
     for item in group:
-        grid_rows = _item_rows(item, st)
+        grid_rows = _item_rows(item, st, group)
         parts: list[Any] = [
             Spacer(1, 4),
             _ItemHeading(f"Item {esc(item.number)}", st["h3"], refs, item_key(item)),
@@ -683,7 +703,8 @@ def _signature(n: Notice, st: dict[str, ParagraphStyle]) -> KeepTogether:
         scale = min(60 * mm / w, 18 * mm / h)
         sig: Any = Image(io.BytesIO(n.signature_png), width=w * scale, height=h * scale, hAlign="LEFT")
     else:
-        sig = Paragraph("(no signature image set up)", st["small"])
+        # no scanned signature: a line to sign by hand (a setup message has no place on a signed document)
+        sig = Paragraph("<br/><br/>Signature: ________________________", st["base"])
     lines = Paragraph(
         # phone and e-mail on lines of their own: the narrow column broke the address mid-word ("tamarack.exampl / e")
         "<br/>".join(
@@ -796,6 +817,7 @@ def render_notice(n: Notice, stamp_hash: bool = False) -> bytes:
         footer_right = stamp.placeholder_footer() if stamp_hash else ""
         draft = n.draft
         page_refs = refs
+        issued_on = n.issued_on[:10]
 
     doc.build(story, canvasmaker=_Canvas)
     pdf = buf.getvalue()

@@ -1,0 +1,48 @@
+"""What a contractor acts on and an engineer signs: the items of one member name each other; the paper is signable.
+
+Found by reading the demo notice as the site superintendent, the engineer of record and a building
+official would (common practice for a field review notice: each item is closed on its own, a signed
+document carries no software setup text, and its date is the date it was issued).
+"""
+
+import dataclasses
+import io
+
+from pypdf import PdfReader
+
+from reports.render import pdf_date, render_notice
+from tests.reports.test_notice import _item, _notice, text_of
+
+
+def _flat(pdf):
+    return " ".join(text_of(pdf).split())
+
+
+def test_the_items_of_one_member_name_each_other_with_their_priorities():
+    """An IMMEDIATE overstress and a 'before loading' item on the same beam: closing one must not read as both."""
+    urgent, _ = _item(n=8)
+    later = dataclasses.replace(urgent, number="D-AB12-009", priority="before_loading")
+    alone, _ = _item(n=5, beam_id="b2")
+    alone = dataclasses.replace(alone, member="b2")
+    text = _flat(render_notice(_notice([urgent, later, alone])))
+    assert "Same member D-AB12-009 (● Before loading or concealment). Each item is closed on its own" in text
+    assert "Same member D-AB12-008 (▲ IMMEDIATE: make safe now). Each item is closed on its own" in text
+    assert text.count("Same member") == 2  # the item alone on its member names nothing
+
+
+def test_a_notice_without_a_scanned_signature_has_a_line_to_sign_and_no_setup_text():
+    item, _ = _item()
+    text = _flat(render_notice(_notice([item])))
+    assert "Signature: ____" in text
+    assert "no signature image" not in text
+    assert "set up" not in text
+
+
+def test_the_pdf_is_dated_the_day_it_was_issued_and_stays_byte_for_byte_the_same():
+    item, _ = _item()
+    notice = _notice([item], issued_on="2026-11-30")
+    pdf = render_notice(notice)
+    info = PdfReader(io.BytesIO(pdf)).metadata
+    assert info["/CreationDate"] == info["/ModDate"] == "D:20261130000000+00'00'"  # ISO 32000-1 7.9.4 form
+    assert render_notice(notice) == pdf  # invariant output: the same notice gives the same bytes
+    assert pdf_date("2027-01-05") == "D:20270105000000+00'00'"
