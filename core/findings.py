@@ -32,8 +32,8 @@ DEAD_MAKE_SAFE = (
 # combination is made safe by shoring, not by an instruction not to load).
 SNOW_RISK = "snow can load this member at any time and cannot be kept off it reliably"
 SNOW_MAKE_SAFE = (
-    f"Make safe now: {SNOW_RISK}; have it shored or propped before snow builds up and tell the site superintendent "
-    "today. "
+    f"Make safe now: {SNOW_RISK}; have it shored or propped today, whatever the forecast, and tell the site "
+    "superintendent today. "
 )
 TOP_EDGE_REGION = "top edge"  # the region of the top-edge findings (core.remedies.once_corrected reads it)
 
@@ -364,8 +364,8 @@ def uplift_findings(beam: Beam, bearing: list[BearingCheck]) -> list[Finding]:
             now = " The specified dead load alone already lifts it off this bearing."
             action = f"Make safe now: prop or {hold} and tell the site superintendent today; "
         elif b.uplift_snow:  # snow cannot be kept off (as for an overstress under snow: overstress_urgency)
-            action = f"Make safe now: snow can load this member at any time; {hold} before snow builds up and tell "
-            action += "the site superintendent today; "
+            action = f"Make safe now: snow can load this member at any time; {hold} today, whatever the forecast, "
+            action += "and tell the site superintendent today; "
         else:
             action = "Confirm a hold-down for the uplift before loading; "
         out.append(

@@ -733,7 +733,9 @@ def _table_rows(n: Notice, st: dict[str, ParagraphStyle]) -> list[Any]:
         Paragraph("Table rows the rechecks used", st["h2"]),
         Paragraph(
             f"{len(n.table_rows)} rows; {memory} MEMORY: entered from memory, not yet checked against the standard's "
-            "text; confirmed: agrees with an independent source; verified: checked against the text.",
+            "text; confirmed: agrees with an independent source; verified: checked against the text. A clause marked "
+            "(memory) in a check's Clause column is a clause or formula entered from memory; the values a check reads "
+            "from a table are the rows below, each with its own status.",
             st["base"],
         ),
     ]

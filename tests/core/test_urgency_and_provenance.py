@@ -39,7 +39,8 @@ def test_roof_overstress_under_snow_is_immediate_and_says_shore_it():
     (finding,) = _findings(r, FindingCode.bending_overstress)
     assert finding.priority is Priority.immediate
     assert finding.action.startswith("Make safe now: snow can load this member at any time")
-    assert "shored or propped before snow builds up" in finding.action
+    # a date, not a weather event: "before snow builds up" read as leave to wait for a snowfall (a notice review)
+    assert "shored or propped today, whatever the forecast" in finding.action
     assert finding.action.endswith("added bracing or a replacement member.")  # the engineer-of-record part kept
 
 
