@@ -284,7 +284,25 @@ def _brace_remedy(beam: Beam, data: dict[str, Any], base: Change, sign: MomentSi
     edge = "top edge (fastened purlins or blocking)" if top else "bottom edge (knee braces or blocking)"
     spacing = change["top_edge.spacing_mm" if top else "bottom_edge.spacing_mm"]
     message = f"brace the {edge} at {spacing:g} mm or closer: {_result_words(solves, base, util)}"
+    message += _even_layout(max(beam.spans_mm), spacing, make, data, _bending(sign))
     return [Remedy(solves=solves, change=change, utilisation_after=util, message=message)]
+
+
+def _even_layout(span_mm: float, spacing_mm: float, make: Callable[[float], Change], data: Change, check: Check) -> str:
+    """The braces of a spacing limit laid out as a site would: evenly over the span, the fewest that keep within it.
+
+    The largest passing spacing is a limit (its utilisation at about 1.00), not a layout: on a 7000 mm span,
+    "at 6850 mm or closer" is built as one brace at mid-span (common practice: braces at even spacing).
+    Each space is ``floor(span / n)`` mm (never wider than the limit); '' when the limit is itself even.
+    """
+    spaces = math.ceil(span_mm / spacing_mm - 1e-9)
+    even = math.floor(span_mm / spaces)
+    if spaces < 2 or even >= spacing_mm:
+        return ""
+    util = _try(data, make(even), check)
+    if util is None:
+        return ""
+    return f"; laid out evenly over the {span_mm:g} mm span: {spaces} spaces of {even:g} mm, utilisation {util:.3f}"
 
 
 def _bearing_remedy(beam: Beam, data: dict[str, Any], result: Recheck, j: int) -> list[Remedy]:

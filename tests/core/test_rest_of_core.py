@@ -471,6 +471,20 @@ def test_positive_moment_brace_remedy_is_the_largest_fastened_purlin_spacing_tha
     assert positive(change) <= 1.0
     assert positive(dict(change, **{"top_edge.spacing_mm": change["top_edge.spacing_mm"] + 50})) > 1.0
 
+    # the limit laid out as a site builds it (common practice: braces at even spacing, the fewest that keep
+    # within the limit): n = ceil(L / s) spaces of floor(L / n) mm, with that layout's own recheck
+    limit, span = change["top_edge.spacing_mm"], 7200
+    spaces = math.ceil(span / limit)
+    even = math.floor(span / spaces)
+    assert spaces >= 2
+    assert even < limit
+    assert span / (spaces - 1) > limit
+    util = positive(dict(change, **{"top_edge.spacing_mm": even}))
+    assert util <= positive(change)
+    assert found[0].message.endswith(
+        f"; laid out evenly over the 7200 mm span: {spaces} spaces of {even} mm, utilisation {util:.3f}"
+    )
+
 
 # -- limit states: a resistance equal to the demand passes ---------------------------------------------------
 @pytest.mark.parametrize(
