@@ -2188,6 +2188,7 @@ elif FLOW == "defsite-geometry":
     GEOM = os.environ.get("BRACEWALK_GEOMETRY", "default")
     DPI = float(os.environ["KIVY_DPI"])
     MIN_ROWS = int(os.environ["BRACEWALK_MIN_ROWS"])
+    MIN_DEFICIENCY_ROWS = 4  # landscape: the open deficiencies beside the beams
     seen = []
 
     def label_cut(w):
@@ -2296,6 +2297,13 @@ elif FLOW == "defsite-geometry":
             print(f"MEASURE site: open deficiencies {(view[3] - view[1]) / mm:.0f} mm in view", flush=True)
             immediate = [d for d in app.store.deficiencies(app.site_id, open_only=True) if d.priority == "immediate"]
             check("site", deficiency_list_problems(s.ids.deficiency_list, immediate))
+            # several open deficiencies in view at once, each whole (about one and a third showed at 1280x800)
+            whole = [
+                b for b in s.ids.deficiency_list.children if b.text.startswith("D-") and _shown(b) == _window_rect(b)
+            ]
+            print(f"MEASURE site: {len(whole)} whole open-deficiency rows in view", flush=True)
+            if len(whole) < MIN_DEFICIENCY_ROWS:
+                check("site", [f"{len(whole)} open-deficiency rows wholly in view, want {MIN_DEFICIENCY_ROWS}"])
         else:
             s.ids.fold.trigger_action(0)
 
