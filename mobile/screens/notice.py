@@ -18,8 +18,8 @@ from kivy.uix.modalview import ModalView
 from kivy.uix.screenmanager import Screen
 from kivy.uix.widget import Widget
 
-from mobile.screens.deficiency import WrappingInput
 from mobile.screens.widgets import (
+    WrappingInput,
     big_button,
 )
 from mobile.viewmodels import NoticeViewModel, SiteViewModel

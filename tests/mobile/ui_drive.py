@@ -32,6 +32,14 @@ app = BracewalkApp(DB)
 steps = []
 state = {"i": 0, "frame_waits": 0}
 KILL_NOTE = "bearing plate at S2 bent; photo 14"
+# a field note of 2,000 characters (the field review's long note): sentences a reviewer writes, cut at a word
+_NOTE_SENTENCES = (
+    "Bearing plate at S2 bent about 6 mm at its outer edge; hanger nails at S1 short (38 mm seen, 64 mm "
+    "specified on S-201 rev 2). Purlin clip missing at grid 4, purlins there sit loose on the top edge. "
+    "Checked from the scissor lift with the site super present, photos 14 to 22. Top stamp not visible: "
+    "the member is painted. Moisture reading 17 % at midspan, 19 % near S2 where the roof drain leaks. "
+)
+LONG_NOTE = (_NOTE_SENTENCES * 6)[:1988].rsplit(" ", 1)[0] + " end of note."
 
 
 FRAMES_BEFORE_SHOT = 2  # the frame that draws this step's changes, then one more for what they set off
@@ -528,7 +536,7 @@ def beam_problems(s, dpi):
     """
     mm = dpi / 25.4  # px per mm at the tablet's real dpi
     found = cut_text_problems(s) + _column_problems(s, mm) + _banner_problems(s, mm) + _top_problems(s)
-    found += typed_value_problems(s, free_text=(s.fields["notes"].ids.input,))
+    found += typed_value_problems(s)  # the note too: a long note is read whole, not one line scrolled sideways
     for (i, key, _state), b in s.restraint_buttons.items():
         if broken := mid_word_break(b):
             found.append(f"S{i} {key} button {b.text!r} breaks a word: {broken}")
@@ -1538,6 +1546,33 @@ elif FLOW == "beam-geometry":
     @step
     def sawn_system_kept_shot():
         yield from beam_look("4e-fj1-system-load-sharing")
+
+    @step
+    def two_spans_and_a_long_note():
+        # the field review's entries: a two-span beam typed in feet-inches ("4427.54 mm; 3744.91 mm" shown) and a
+        # note of 2,000 characters; each drawn whole (typed_value_problems holds the note too since then)
+        type_into("spans", "14' 6 5/16\"; 12' 3 7/16\"")
+        if field("spans").text != "4427.54 mm; 3744.91 mm":
+            seen.append(f"FJ-1 two spans show {field('spans').text!r} ({screen('beam').vm.errors.get('spans')})")
+        type_into("notes", LONG_NOTE)
+        if field("notes").text != LONG_NOTE:
+            seen.append(f"FJ-1 note of {len(LONG_NOTE)} characters shows {len(field('notes').text)}")
+
+    @step
+    def to_the_spans():  # once the note has grown the form (scrolled in the same tick, the form moved after)
+        screen("beam").ids.form_scroll.scroll_to(screen("beam").fields["spans"], animate=False)
+
+    @step
+    def two_spans_shown():
+        yield from beam_look("4f-fj1-two-spans")
+        s = screen("beam")
+        s.ids.form_scroll.scroll_to(s.fields["notes"], animate=False)
+
+    @step
+    def long_note_shown():
+        yield from beam_look("4g-fj1-long-note")
+        note = field("notes")
+        print(f"MEASURE long note: {len(note.text)} characters on {len(note._lines)} lines", flush=True)
 
     @step
     def verdict():
