@@ -1573,6 +1573,22 @@ elif FLOW == "beam-geometry":
         yield from beam_look("4g-fj1-long-note")
         note = field("notes")
         print(f"MEASURE long note: {len(note.text)} characters on {len(note._lines)} lines", flush=True)
+        screen("beam").fields["spans"].open_keypad()
+
+    @step
+    def keypad_keys():
+        # the keypad's keys as drawn (mm at the real dpi) and whether a key's label is cut: printed to be read
+        from kivy.uix.button import Button
+
+        s = screen("beam")
+        yield from shot(f"{GEOM}-4h-fj1-keypad")
+        popup = s.fields["spans"].keypad_popup
+        keys = [b for b in popup.content.children[1].children if isinstance(b, Button)]
+        heights = sorted({round(b.height / (DPI / 25.4), 1) for b in keys})
+        widths = sorted({round(b.width / (DPI / 25.4), 1) for b in keys})
+        cut = [b.text for b in keys if b.texture_size[0] > b.width or b.texture_size[1] > b.height]
+        print(f"MEASURE keypad: {len(keys)} keys, {heights} mm high, {widths} mm wide; labels cut: {cut}", flush=True)
+        popup.dismiss()
 
     @step
     def verdict():
