@@ -13,9 +13,6 @@ from kivy.uix.screenmanager import Screen
 
 from core.results import PRIORITY_ORDER
 from mobile.screens.widgets import (
-    WrappingInput as WrappingInput,  # re-exported: its home was here
-)
-from mobile.screens.widgets import (
     big_button,
     choose_file,
 )
