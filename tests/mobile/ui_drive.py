@@ -1414,7 +1414,30 @@ elif FLOW == "beam-geometry":
         assert s.vm.status() == "not_established", s.vm.status()
         opened_at_the_top("RB-5")
         yield from beam_look("3-rb5-not-established")
-        s.ids.panel.parent.scroll_y = 0
+        options = [w for w in s.ids.panel.walk(restrict=True) if getattr(w, "text", "").startswith("Options for")]
+        if not options:
+            seen.append("RB-5: no 'Options for the engineer of record' line")
+            return
+        options[0].trigger_action(0)
+
+    @step
+    def options_in_words():
+        # the options popup names what each option answers in words: a stored finding code read
+        # "bearing_restraint_missing: restrain the bearing(s)..." (field review)
+        from kivy.uix.modalview import ModalView
+
+        from core.kinds import FindingCode
+
+        yield from shot(f"{GEOM}-3a-rb5-options")
+        views = [w for w in app.root_window.children if isinstance(w, ModalView)]
+        if views:
+            text = " ".join(getattr(w, "text", "") for w in views[0].walk(restrict=True))
+            codes = [c.value for c in FindingCode if c.value in text]
+            if codes:
+                seen.append(f"RB-5 options popup shows stored codes {codes}")
+            seen.extend(f"RB-5 options popup: {p}" for p in popup_problems() + cut_text_problems(views[0]))
+            views[0].dismiss()
+        screen("beam").ids.panel.parent.scroll_y = 0
 
     @step
     def raised_readable():
