@@ -10,7 +10,6 @@ from kivy.factory import Factory
 from kivy.properties import BooleanProperty, ListProperty, StringProperty
 from kivy.uix.popup import Popup
 from kivy.uix.screenmanager import Screen
-from kivy.uix.textinput import TextInput
 
 from core.results import PRIORITY_ORDER
 from mobile.screens.widgets import (
@@ -19,34 +18,6 @@ from mobile.screens.widgets import (
 )
 from mobile.viewmodels import DeficiencyViewModel
 from mobile.viewmodels.common import PRIORITY_LABELS
-
-ENTER_KEYS = (13, 271)  # Enter and the keypad's Enter
-
-
-class WrappingInput(TextInput):
-    """A text field that wraps its text (or its hint) over as many lines as it needs and grows to show it all.
-
-    Its kv rule is in deficiency.kv. For the words that go to the contractor (where, what was found, what to do):
-    a one-line field showed about 20 characters of them. The text stays one paragraph, as in a one-line field:
-    Enter leaves the field (which saves it) and a pasted line break becomes a space. Lines break at spaces
-    only: Kivy's text field also breaks after '.', ',' and ':', which split 'utilisation 1.66' into '1.' and '66'
-    and a clause number '7.5.6.5.1' across two lines.
-    """
-
-    _tokenize_delimiters = " \r\t"  # TextInput's word boundaries for wrapping (its own: " .,:;!?\r\t")
-
-    def keyboard_on_key_down(self, window: Any, keycode: tuple[int, str], text: str, modifiers: list[str]) -> bool:
-        """Enter validates and leaves the field, as in a one-line field; every other key as usual."""
-        if keycode[0] in ENTER_KEYS:
-            self.dispatch("on_text_validate")
-            if self.text_validate_unfocus:
-                self.focus = False
-            return True
-        return bool(super().keyboard_on_key_down(window, keycode, text, modifiers))
-
-    def insert_text(self, substring: str, from_undo: bool = False) -> None:
-        """Insert typed or pasted text, a line break in it as a space."""
-        super().insert_text(substring.replace("\r\n", " ").replace("\n", " "), from_undo=from_undo)
 
 
 class DeficiencyScreen(Screen):

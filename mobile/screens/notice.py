@@ -19,6 +19,7 @@ from kivy.uix.screenmanager import Screen
 from kivy.uix.widget import Widget
 
 from mobile.screens.widgets import (
+    WrappingInput,
     big_button,
 )
 from mobile.viewmodels import NoticeViewModel, SiteViewModel
@@ -42,6 +43,15 @@ def window_height(heights: list[float], spacing: float, rows: int, peek: float, 
     if len(heights) > rows:
         height += spacing + min(peek, heights[rows])
     return max(least, min(height, most))
+
+
+class PathInput(WrappingInput):
+    """A folder's path shown whole: wrapped over as many lines as it needs, between its parts ('/') too.
+
+    A path has few spaces, so one line showed only its end ("cewalk-exports") in the column's width.
+    """
+
+    _tokenize_delimiters = " /\\\r\t"  # WrappingInput's, and the path separators
 
 
 class PagePreview(ButtonBehavior, Image):
@@ -68,6 +78,7 @@ class NoticeScreen(Screen):
     page_source = StringProperty("")
     warning_text = StringProperty("")  # beams not yet raised, a signer without phone or email
     ack_text = StringProperty("")
+    issued_state = StringProperty("")  # 'Issued P-FR-AB12-001 rev 0 · 9 items' while the same items are chosen
     items_heading = StringProperty("")
     rows_heading = StringProperty("")
     items_height = NumericProperty(0)  # the lists' windows (px): their first rows whole (``fit_lists``)
@@ -104,6 +115,8 @@ class NoticeScreen(Screen):
         self.message = ""
         if not self.ids.export_dir.text:
             self.ids.export_dir.text = str(default_export_dir())
+        if not self.ids.issued_by.text.strip():  # the signer, or who issued last: typed once, not on every notice
+            self.ids.issued_by.text = self.vm.issuer()
         warnings = (SiteViewModel(app.store, app.site_id).unraised_warning(), self.vm.contact_warning())
         self.warning_text = "\n".join(w for w in warnings if w)
         self.render()
@@ -120,6 +133,7 @@ class NoticeScreen(Screen):
         if not candidates:
             box.add_widget(_line("No open item on this site."))
         self.items_heading = self.vm.items_heading()
+        self.issued_state = self.vm.issued_state() if self.vm.issued_again() else ""
         self.render_rows()
         issued = self.ids.issued
         issued.clear_widgets()
@@ -188,11 +202,10 @@ class NoticeScreen(Screen):
         out_dir = Path(App.get_running_app().store.path).parent / "notices"
         path = self.vm.issue(self.ids.issued_by.text, out_dir)
         self.message = self.vm.message
-        if path is not None:
+        if path is not None:  # the view model keeps what it issued: the same items are not issued twice
             self.pages = self.vm.preview_pages(PREVIEW_DIR, path.read_bytes())
             self.page, self.page_kind = 0, "ISSUED page"
             self.show_page()
-            self.vm = NoticeViewModel(App.get_running_app().store, App.get_running_app().site_id)
         self.render()
 
     def issue_closeout(self) -> None:
@@ -204,13 +217,12 @@ class NoticeScreen(Screen):
             self.pages = self.vm.preview_pages(PREVIEW_DIR, path.read_bytes())
             self.page, self.page_kind = 0, "ISSUED close-out, page"
             self.show_page()
-            self.vm = NoticeViewModel(App.get_running_app().store, App.get_running_app().site_id)
         self.render()
 
     def export(self, notice_id: str) -> None:
         """Copy an issued notice's PDF into the export folder (to share)."""
         try:
-            self.vm.export(notice_id, Path(self.ids.export_dir.text).expanduser())
+            self.vm.export(notice_id, Path(self.ids.export_dir.text.strip()).expanduser())
         except (OSError, ValueError) as exc:
             self.message = f"Not exported: {exc}"
             return

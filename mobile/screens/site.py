@@ -173,25 +173,31 @@ class SiteScreen(Screen):
     def arrange(self, wide: bool) -> None:
         """Put the screen's pieces in their landscape (``wide``) or portrait places (site.kv says which is which).
 
-        Landscape: the beams' column holds only the back button, the search and filters, the counts and the
-        list; everything else is in the right-hand column. Portrait: the site's buttons (the back and visit
-        buttons among them) and the title over the search and filters, the list, then the visit line with
-        the folded deficiencies and the caution; the deficiency list and its row of buttons are left out.
+        Landscape: the beams' column holds the search and filters with "+ Log a beam", the counts, the visit
+        line and the list; the right-hand column the title, the site's buttons (the back and visit buttons
+        among them, as in portrait), the open deficiencies under their heading and "Raise by hand…" (four
+        whole rows in view: one and a third showed at 1280x800 under a row of buttons of their own), and
+        the caution. Portrait:
+        the site's buttons (the back and visit buttons among them) and the title over the search and filters,
+        the list, then the visit line with the folded deficiencies and the caution; the deficiency list and
+        its heading's row are left out.
         """
         w = SimpleNamespace(**self.pieces)
         bar = [w.search, w.level_filter, w.status_filter]
+        w.visit_line.size_hint = (1, None) if wide else (0.58, 1)  # its own lines over the list, or beside a button
         if wide:
             place(w.page, [w.columns])
-            place(w.list_bar, [w.back, *bar])
-            place(w.site_buttons, [w.edit_site, w.notice, w.sync])
-            place(w.visit_row, [w.visit_line, w.visit])
-            place(w.work_row, [w.new_beam, w.hand])
-            side = [w.title, w.site_buttons, w.visit_row, w.notes, w.deficiency_heading]
-            place(w.side, [*side, w.deficiency_scroll, w.work_row, w.caution])
+            place(w.list_bar, [*bar, w.new_beam])
+            place(w.beams_side, [w.list_bar, w.counts, w.visit_line, w.beam_list])
+            place(w.site_buttons, [w.back, w.edit_site, w.notice, w.sync, w.visit])
+            place(w.deficiency_bar, [w.deficiency_heading, w.hand])
+            side = [w.title, w.site_buttons, w.notes, w.deficiency_bar]
+            place(w.side, [*side, w.deficiency_scroll, w.caution])
         else:
             place(w.site_buttons, [w.back, w.edit_site, w.notice, w.sync, w.visit])
             place(w.page, [w.site_buttons, w.title, w.columns])
             place(w.list_bar, [*bar, w.new_beam])
+            place(w.beams_side, [w.list_bar, w.counts, w.beam_list])
             place(w.visit_row, [w.visit_line, w.fold])
             place(w.side, [w.visit_row, w.notes, w.caution])
 
@@ -332,7 +338,7 @@ class SiteScreen(Screen):
         if not groups:
             dbox.add_widget(Label(text="None open.", color=app.theme_fg, size_hint_y=None, height=dp(40)))
         for label, rows in groups:
-            dbox.add_widget(Factory.Heading(text=label, font_size="18sp", height="9mm", shorten=True))
+            dbox.add_widget(_group_heading(label))
             for did, line in rows:
                 dbox.add_widget(big_button(line, lambda _b, d=did: self._open_deficiency(d), font_size="16sp"))
 
@@ -418,3 +424,20 @@ class SiteScreen(Screen):
             ids[k].text = ""
         self._close()
         self.on_pre_enter()
+
+
+GROUP_HEADING_MM = 6.0  # a priority's heading in the open-deficiency list: one line of 18sp type, not a target
+
+
+def _group_heading(text: str) -> Label:
+    """A priority's heading in the open-deficiency list ('▲ IMMEDIATE: make safe now (5)'), one line high.
+
+    Its own height (the shared heading is at least 11 mm): four whole rows under it fit at 1280x800.
+    """
+    app = App.get_running_app()
+    label = Label(
+        text=text, font_size="18sp", bold=True, color=app.theme_fg, size_hint_y=None, height=mm(GROUP_HEADING_MM)
+    )
+    label.shorten, label.halign, label.valign = True, "left", "middle"
+    label.bind(size=lambda w, size: setattr(w, "text_size", size))
+    return label

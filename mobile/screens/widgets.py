@@ -9,13 +9,14 @@ from typing import Any
 from kivy.app import App
 from kivy.clock import Clock
 from kivy.metrics import dp
-from kivy.properties import BooleanProperty, ListProperty, StringProperty
+from kivy.properties import BooleanProperty, ListProperty, NumericProperty, StringProperty
 from kivy.uix.boxlayout import BoxLayout
 from kivy.uix.button import Button
 from kivy.uix.gridlayout import GridLayout
 from kivy.uix.label import Label
 from kivy.uix.popup import Popup
 from kivy.uix.scrollview import ScrollView
+from kivy.uix.textinput import TextInput
 
 from core.results import Status, utilisation_text
 from mobile.units import parse_length_mm
@@ -24,6 +25,7 @@ from mobile.units import parse_length_mm
 # form shows it ("388.938 mm", six digits and the unit) takes 36 mm in the fields' 22sp type at density 1.5 and
 # 149 dpi (and at 3 and 300 dpi), plus the field's padding
 INPUT_MIN_MM = 42
+SPANS_MIN_MM = 80  # two spans as shown, "4427.54 mm; 3744.91 mm", in the same type (75 mm at 149 dpi)
 # ';' (next span) sits in the top row, far from OK; no ',' (the decimal point is '.'); C clears
 KEYPAD_KEYS = ("7", "8", "9", ";", "4", "5", "6", "C", "1", "2", "3", "'", "0", ".", "/", '"', "␣", "m", "mm", "⌫")
 
@@ -152,6 +154,7 @@ class TextField(BoxLayout):
     suggestion = StringProperty("")  # a value to offer when the entry was refused ('3.9 m')
     quick = BooleanProperty(False)
     keypad = BooleanProperty(False)
+    least_mm = NumericProperty(INPUT_MIN_MM)  # the narrowest the value may be beside its name, else it goes under
     stacked = BooleanProperty(False)  # its name above the field (set by the kv rule from the width)
     quick_values = ListProperty([])
     screen: Any = None
@@ -236,6 +239,43 @@ class TextField(BoxLayout):
         self.keypad_popup, self.keypad_shown = popup, shown
         popup.open()
         return popup
+
+
+ENTER_KEYS = (13, 271)  # Enter and the keypad's Enter
+
+
+class WrappingInput(TextInput):
+    """A text field that wraps its text (or its hint) over as many lines as it needs and grows to show it all.
+
+    Its kv rule is in widgets.kv. For the words that go to the contractor (where, what was found, what to do):
+    a one-line field showed about 20 characters of them. The text stays one paragraph, as in a one-line field:
+    Enter leaves the field (which saves it) and a pasted line break becomes a space. Lines break at spaces
+    only: Kivy's text field also breaks after '.', ',' and ':', which split 'utilisation 1.66' into '1.' and '66'
+    and a clause number '7.5.6.5.1' across two lines.
+    """
+
+    _tokenize_delimiters = " \r\t"  # TextInput's word boundaries for wrapping (its own: " .,:;!?\r\t")
+
+    def keyboard_on_key_down(self, window: Any, keycode: tuple[int, str], text: str, modifiers: list[str]) -> bool:
+        """Enter validates and leaves the field, as in a one-line field; every other key as usual."""
+        if keycode[0] in ENTER_KEYS:
+            self.dispatch("on_text_validate")
+            if self.text_validate_unfocus:
+                self.focus = False
+            return True
+        return bool(super().keyboard_on_key_down(window, keycode, text, modifiers))
+
+    def insert_text(self, substring: str, from_undo: bool = False) -> None:
+        """Insert typed or pasted text, a line break in it as a space."""
+        super().insert_text(substring.replace("\r\n", " ").replace("\n", " "), from_undo=from_undo)
+
+
+class NoteField(TextField):
+    """A text field of free text (a beam's notes): its name above it, its text wrapped whole (``WrappingInput``).
+
+    Its kv rule (widgets.kv) replaces TextField's: no keypad or standard sizes. A one-line field showed a long
+    note's last words only, scrolled sideways (a 2,000-character note drew 32,000 px in a 323 px field).
+    """
 
 
 class PickField(BoxLayout):

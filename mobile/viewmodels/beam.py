@@ -489,7 +489,7 @@ class BeamFormViewModel:
         if r is None or r.status.value == "ok":
             return []
         found = remedies(self.store.beam(self.beam_id), r)
-        return [f"{x.solves}: {x.message}" for x in found] or ["none found by changing one input"]
+        return [f"{words(x.solves)}: {x.message}" for x in found] or ["none found by changing one input"]
 
     def trace_lines(self, key: str) -> list[str]:
         """Where a panel value came from: every factor with clause, table row and verified / memory."""

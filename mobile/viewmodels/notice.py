@@ -39,10 +39,44 @@ class NoticeViewModel:
     message: str = ""
     acknowledgement: MemoryAcknowledgement | None = None  # the reviewer's, of the memory rows the items use
     _printed: dict[str, str] = field(default_factory=dict, repr=False)  # notice id -> the footer's short hash
+    # what this screen issued since it was opened, and where its PDF was written: a second tap on Issue with
+    # the same items chosen is refused (a double tap issued the same items twice under two numbers)
+    just_issued: tuple[IssuedNotice, Path] | None = None
 
     def __post_init__(self) -> None:
         """Every open item is chosen to begin with."""
         self.chosen = {d.id for d in self.store.deficiencies(self.site_id, open_only=True)}
+
+    def issuer(self) -> str:
+        """Who issues, to fill the 'issued by' field: the device's signer, else this site's latest issuer.
+
+        The signer is the reviewer profile set up under Signer (printed on every notice); without one, whoever
+        issued this site's latest notice; else the person this device is set up for, when set up as a reviewer.
+        '' when none of these is recorded.
+        """
+        profile = self.store.reviewer_profile()
+        if profile is not None:
+            return profile.name
+        notices = self.store.notices(self.site_id)
+        if notices:
+            return notices[-1].issued_by
+        name, role = self.store.device_user()
+        return name if role == "reviewer" else ""
+
+    def issued_state(self) -> str:
+        """'Issued P-FR-AB12-001 rev 0 · 9 items' for what this screen just issued ('' when nothing)."""
+        if self.just_issued is None:
+            return ""
+        issued, _path = self.just_issued
+        kind = "close-out " if issued.change_note == CLOSEOUT_NOTE else ""
+        return f"Issued {kind}{issued.number} rev {issued.revision} · {_items(len(issued.deficiency_ids))}"
+
+    def issued_again(self) -> bool:
+        """Whether Issue would issue again the notice this screen just issued: the same items chosen."""
+        if self.just_issued is None:
+            return False
+        issued, _path = self.just_issued
+        return issued.change_note != CLOSEOUT_NOTE and set(issued.deficiency_ids) == self.chosen
 
     def candidates(self) -> list[tuple[str, str, bool]]:
         """[(deficiency id, line, chosen)] for every open item, most urgent first."""
@@ -146,6 +180,12 @@ class NoticeViewModel:
         if not self.chosen:
             self.message = "Choose at least one item to issue"
             return None
+        if self.just_issued is not None and self.issued_again():
+            self.message = (
+                f"Not issued again: {self.just_issued[0].number} was just issued with these items. "
+                "Change the items chosen to issue another notice."
+            )
+            return None
         if not issued_by.strip():
             self.message = "Enter the reviewer issuing the notice"
             return None
@@ -165,8 +205,7 @@ class NoticeViewModel:
         except (StorageError, OSError) as exc:  # nothing was issued: the number is not spent
             self.message = f"Not issued: {exc}"
             return None
-        self.message = f"Issued {issued.number} rev {issued.revision} ({len(issued.deficiency_ids)} items)"
-        return path
+        return self._issued(issued, path, "Notice")
 
     def closeout_ready(self) -> str:
         """'' when a close-out can be issued, else why not (no notice issued yet)."""
@@ -180,6 +219,9 @@ class NoticeViewModel:
         The memory rows of the open items must be acknowledged as for any notice (same step).
         """
         why = self.closeout_ready()
+        if self.just_issued is not None and self.just_issued[0].change_note == CLOSEOUT_NOTE:
+            number = self.just_issued[0].number
+            why = f"Not issued again: close-out {number} was just issued. Open the screen again to issue another."
         if why:
             self.message = why
             return None
@@ -197,7 +239,14 @@ class NoticeViewModel:
         except (StorageError, OSError) as exc:
             self.message = f"Not issued: {exc}"
             return None
-        self.message = f"Issued close-out {issued.number} ({len(issued.deficiency_ids)} items)"
+        return self._issued(issued, path, "Close-out")
+
+    def _issued(self, issued: IssuedNotice, path: Path, kind: str) -> Path:
+        """Record what was just issued and say it: number, how many items, where its PDF was written."""
+        self.just_issued = (issued, path)
+        self.acknowledgement = None  # the next notice's memory rows are acknowledged afresh
+        count = _items(len(issued.deficiency_ids))
+        self.message = f"{kind} {issued.number} rev {issued.revision} issued, {count}. PDF written to {path}"
         return path
 
     def issued(self) -> list[tuple[str, str]]:
@@ -241,3 +290,8 @@ class NoticeViewModel:
         path.write_bytes(pdf)
         self.message = f"Exported {path}"
         return path
+
+
+def _items(n: int) -> str:
+    """'1 item', '9 items'."""
+    return f"{n} item" if n == 1 else f"{n} items"

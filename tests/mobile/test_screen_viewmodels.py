@@ -576,3 +576,66 @@ def test_background_recheck_that_fails_says_why_and_leaves_the_rest_stale(tmp_pa
     assert vm.recheck_failed_note(work.error).endswith("this screen rechecked the rest, so the list is current.")
     monkeypatch.undo()
     assert results.refresh(store.db, site_id) == 3  # what the screen's own refresh then does
+
+
+def test_notice_issued_by_is_filled_from_the_signer_then_the_last_issuer_then_the_device_user(demo):
+    """The reviewer's name is recorded once (Signer, or the device set-up): the notice screen fills it in."""
+    from core.records import ReviewerProfile
+
+    store, site_id = demo
+    assert NoticeViewModel(store, site_id).issuer() == ""  # nothing recorded: nothing guessed
+    store.set_device_user("Dana Whitlock", "contractor")
+    assert NoticeViewModel(store, site_id).issuer() == ""  # a contractor's device does not sign notices
+    store.set_device_user("Dana Whitlock", "reviewer")
+    assert NoticeViewModel(store, site_id).issuer() == "Dana Whitlock"
+    store.set_reviewer_profile(ReviewerProfile(name="P. Okonkwo-Lind", phone="604-555-0147"))
+    assert NoticeViewModel(store, site_id).issuer() == "P. Okonkwo-Lind"
+
+
+def test_notice_issued_by_falls_back_on_the_sites_last_issuer(demo, tmp_path):
+    store, site_id = demo
+    raise_all(store, site_id)
+    vm = NoticeViewModel(store, site_id)
+    assert vm.acknowledge("R. Castellanos")
+    assert vm.issue("R. Castellanos", tmp_path / "issued") is not None
+    assert NoticeViewModel(store, site_id).issuer() == "R. Castellanos"
+
+
+def test_an_issued_notice_says_its_number_items_and_file_and_a_second_tap_issues_nothing(demo, tmp_path):
+    """After Issue: the number, the item count and where the PDF was written; the same items are not issued twice."""
+    store, site_id = demo
+    raise_all(store, site_id)
+    vm = NoticeViewModel(store, site_id)
+    count = len(vm.chosen)
+    assert vm.acknowledge("P. Okonkwo-Lind")
+    path = vm.issue("P. Okonkwo-Lind", tmp_path / "issued")
+    (notice,) = store.notices(site_id)
+    assert path is not None
+    assert path.is_file()
+    assert notice.number in vm.message
+    assert f"{count} items" in vm.message
+    assert str(path) in vm.message
+    assert vm.issued_state() == f"Issued {notice.number} rev 0 · {count} items"
+    assert vm.issued_again()
+    assert vm.acknowledge("P. Okonkwo-Lind")
+    assert vm.issue("P. Okonkwo-Lind", tmp_path / "issued") is None  # a double tap
+    assert len(store.notices(site_id)) == 1
+    assert "Not issued again" in vm.message
+    vm.toggle(next(iter(vm.chosen)))  # a different choice is another notice
+    assert not vm.issued_again()
+    assert vm.acknowledge("P. Okonkwo-Lind")
+    assert vm.issue("P. Okonkwo-Lind", tmp_path / "issued") is not None
+    assert len(store.notices(site_id)) == 2
+
+
+def test_a_closeout_is_not_issued_twice_by_a_double_tap(demo, tmp_path):
+    store, site_id = demo
+    raise_all(store, site_id)
+    vm = NoticeViewModel(store, site_id)
+    assert vm.acknowledge("P. Okonkwo-Lind")
+    assert vm.issue("P. Okonkwo-Lind", tmp_path / "issued") is not None
+    assert vm.acknowledge("P. Okonkwo-Lind")
+    assert vm.issue_closeout("P. Okonkwo-Lind", tmp_path / "issued") is not None
+    assert "Close-out" in vm.message
+    assert vm.issue_closeout("P. Okonkwo-Lind", tmp_path / "issued") is None
+    assert len(store.notices(site_id)) == 2

@@ -140,3 +140,18 @@ def test_panel_lines_name_the_loads_each_check_is_made_under(form):
     assert re.search(r"\(specified (D \+ )?L \+ S\)$", lines["deflection"]), lines["deflection"]
     for key in ["shear", *(k for k in lines if k.startswith("bearing"))]:
         assert re.search(r"\((1\.4D|1\.25D \+ 1\.5[LS])[^()]*(\([^()]*\))?\)$", lines[key]), lines[key]
+
+
+def test_options_for_the_engineer_of_record_name_what_they_solve_in_words(form):
+    """The options popup names the finding each option answers in words, never its stored code.
+
+    A notice and its options go to people, not programs (common practice: no internal identifiers on screen).
+    """
+    from core.kinds import FindingCode
+
+    assert form.set_field("bearing2.rotation", "no")  # a bearing restraint missing: not established
+    lines = form.remedy_lines()
+    assert lines
+    assert lines[0].startswith("bearing restraint missing: restrain the bearing(s)"), lines[0]
+    codes = [c.value for c in FindingCode]
+    assert not [line for line in lines if any(code in line for code in codes)], lines

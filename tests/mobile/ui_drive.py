@@ -32,6 +32,14 @@ app = BracewalkApp(DB)
 steps = []
 state = {"i": 0, "frame_waits": 0}
 KILL_NOTE = "bearing plate at S2 bent; photo 14"
+# a field note of 2,000 characters (the field review's long note): sentences a reviewer writes, cut at a word
+_NOTE_SENTENCES = (
+    "Bearing plate at S2 bent about 6 mm at its outer edge; hanger nails at S1 short (38 mm seen, 64 mm "
+    "specified on S-201 rev 2). Purlin clip missing at grid 4, purlins there sit loose on the top edge. "
+    "Checked from the scissor lift with the site super present, photos 14 to 22. Top stamp not visible: "
+    "the member is painted. Moisture reading 17 % at midspan, 19 % near S2 where the roof drain leaks. "
+)
+LONG_NOTE = (_NOTE_SENTENCES * 6)[:1988].rsplit(" ", 1)[0] + " end of note."
 
 
 FRAMES_BEFORE_SHOT = 2  # the frame that draws this step's changes, then one more for what they set off
@@ -330,11 +338,25 @@ def drawn_lines(w):
 
 
 def mid_word_break(w):
-    """The lines of a wrapped label when one of its words is split across two lines ('No restrai / nt'), else ''."""
+    """The lines of a wrapped label when one of its words is split across two lines ('No restrai / nt'), else ''.
+
+    A file path (a word with a '/') has no space to break at: it may break anywhere, as a file manager shows it.
+    """
     lines = drawn_lines(w)
-    if [t for line in lines for t in line.split()] == w.text.split():
+    drawn = [t for line in lines for t in line.split()]
+    if drawn == w.text.split():
         return ""
-    return " / ".join(line.strip() for line in lines)
+    pieces = iter(drawn)
+    for word in w.text.split():
+        got = next(pieces, "")
+        while "/" in word and got != word and word.startswith(got):
+            more = next(pieces, "")
+            if not more:
+                break
+            got += more
+        if got != word:
+            return " / ".join(line.strip() for line in lines)
+    return ""
 
 
 def _luminance(rgb):
@@ -362,8 +384,11 @@ def drawn_contrast(png, w):
     return (max(lb, lt) + 0.05) / (min(lb, lt) + 0.05)
 
 
-def field_cut(w):
-    """A text field whose text (its hint when empty) is wider than the field or on more lines than it shows."""
+def field_cut(w, path=False):
+    """A text field whose text (its hint when empty) is wider than the field or on more lines than it shows.
+
+    ``path``: the text is a file path, which may break beside a '/' as well as at a space.
+    """
     text = w.text or w.hint_text
     if not text.strip():
         return []
@@ -377,7 +402,12 @@ def field_cut(w):
         found.append(f"{what}: {widest:.0f} px wide in a field {w.width - left - right:.0f} px wide inside")
     if tall > w.height + 1:
         found.append(f"{what}: {len(lines)} lines need {tall:.0f} px, the field is {w.height:.0f} px high")
-    broken = [f"{a.strip()} / {b.strip()}" for a, b in pairwise(lines) if not a[-1:].isspace()]
+    at = ("/", "\\") if path else ()  # a path also breaks beside its separators
+    broken = [
+        f"{a.strip()} / {b.strip()}"
+        for a, b in pairwise(lines)
+        if not (a[-1:].isspace() or a[-1:] in at or b[:1] in at)
+    ]
     if broken:  # a line that wraps ends at a space: not '(utilisation 1.' / '66'
         found.append(f"{what}: a word broken across lines: {broken[0]!r}")
     return found
@@ -506,7 +536,7 @@ def beam_problems(s, dpi):
     """
     mm = dpi / 25.4  # px per mm at the tablet's real dpi
     found = cut_text_problems(s) + _column_problems(s, mm) + _banner_problems(s, mm) + _top_problems(s)
-    found += typed_value_problems(s, free_text=(s.fields["notes"].ids.input,))
+    found += typed_value_problems(s)  # the note too: a long note is read whole, not one line scrolled sideways
     for (i, key, _state), b in s.restraint_buttons.items():
         if broken := mid_word_break(b):
             found.append(f"S{i} {key} button {b.text!r} breaks a word: {broken}")
@@ -867,7 +897,7 @@ if FLOW == "main":
         yield from shot("08b-notice-acknowledged")  # the frame after the tap
         s = screen("notice")
         s.ids.issue.trigger_action(0)
-        assert "Issued" in s.message, s.message
+        assert " issued, " in s.message, s.message
         (notice,) = app.store.notices(app.site_id)
         assert notice.memory_acknowledgement.by == "Priya Okonkwo-Lind, P.Eng."
         assert "SHA-256 " in s.ids.issued.children[-1].text
@@ -886,7 +916,7 @@ if FLOW == "main":
         s = screen("notice")
         s.ids.acknowledge.trigger_action(0)  # the open items' memory rows, acknowledged again for this document
         s.ids.closeout.trigger_action(0)
-        assert "Issued close-out" in s.message, s.message
+        assert s.message.startswith("Close-out "), s.message
         assert any(n.change_note == "close-out notice" for n in app.store.notices(app.site_id))
 
     @step
@@ -1384,7 +1414,30 @@ elif FLOW == "beam-geometry":
         assert s.vm.status() == "not_established", s.vm.status()
         opened_at_the_top("RB-5")
         yield from beam_look("3-rb5-not-established")
-        s.ids.panel.parent.scroll_y = 0
+        options = [w for w in s.ids.panel.walk(restrict=True) if getattr(w, "text", "").startswith("Options for")]
+        if not options:
+            seen.append("RB-5: no 'Options for the engineer of record' line")
+            return
+        options[0].trigger_action(0)
+
+    @step
+    def options_in_words():
+        # the options popup names what each option answers in words: a stored finding code read
+        # "bearing_restraint_missing: restrain the bearing(s)..." (field review)
+        from kivy.uix.modalview import ModalView
+
+        from core.kinds import FindingCode
+
+        yield from shot(f"{GEOM}-3a-rb5-options")
+        views = [w for w in app.root_window.children if isinstance(w, ModalView)]
+        if views:
+            text = " ".join(getattr(w, "text", "") for w in views[0].walk(restrict=True))
+            codes = [c.value for c in FindingCode if c.value in text]
+            if codes:
+                seen.append(f"RB-5 options popup shows stored codes {codes}")
+            seen.extend(f"RB-5 options popup: {p}" for p in popup_problems() + cut_text_problems(views[0]))
+            views[0].dismiss()
+        screen("beam").ids.panel.parent.scroll_y = 0
 
     @step
     def raised_readable():
@@ -1518,6 +1571,49 @@ elif FLOW == "beam-geometry":
         yield from beam_look("4e-fj1-system-load-sharing")
 
     @step
+    def two_spans_and_a_long_note():
+        # the field review's entries: a two-span beam typed in feet-inches ("4427.54 mm; 3744.91 mm" shown) and a
+        # note of 2,000 characters; each drawn whole (typed_value_problems holds the note too since then)
+        type_into("spans", "14' 6 5/16\"; 12' 3 7/16\"")
+        if field("spans").text != "4427.54 mm; 3744.91 mm":
+            seen.append(f"FJ-1 two spans show {field('spans').text!r} ({screen('beam').vm.errors.get('spans')})")
+        type_into("notes", LONG_NOTE)
+        if field("notes").text != LONG_NOTE:
+            seen.append(f"FJ-1 note of {len(LONG_NOTE)} characters shows {len(field('notes').text)}")
+
+    @step
+    def to_the_spans():  # once the note has grown the form (scrolled in the same tick, the form moved after)
+        screen("beam").ids.form_scroll.scroll_to(screen("beam").fields["spans"], animate=False)
+
+    @step
+    def two_spans_shown():
+        yield from beam_look("4f-fj1-two-spans")
+        s = screen("beam")
+        s.ids.form_scroll.scroll_to(s.fields["notes"], animate=False)
+
+    @step
+    def long_note_shown():
+        yield from beam_look("4g-fj1-long-note")
+        note = field("notes")
+        print(f"MEASURE long note: {len(note.text)} characters on {len(note._lines)} lines", flush=True)
+        screen("beam").fields["spans"].open_keypad()
+
+    @step
+    def keypad_keys():
+        # the keypad's keys as drawn (mm at the real dpi) and whether a key's label is cut: printed to be read
+        from kivy.uix.button import Button
+
+        s = screen("beam")
+        yield from shot(f"{GEOM}-4h-fj1-keypad")
+        popup = s.fields["spans"].keypad_popup
+        keys = [b for b in popup.content.children[1].children if isinstance(b, Button)]
+        heights = sorted({round(b.height / (DPI / 25.4), 1) for b in keys})
+        widths = sorted({round(b.width / (DPI / 25.4), 1) for b in keys})
+        cut = [b.text for b in keys if b.texture_size[0] > b.width or b.texture_size[1] > b.height]
+        print(f"MEASURE keypad: {len(keys)} keys, {heights} mm high, {widths} mm wide; labels cut: {cut}", flush=True)
+        popup.dismiss()
+
+    @step
     def verdict():
         print(f"WINDOW {app.root_window.size}", flush=True)
         assert not seen, "\n".join(seen[:30]) + (f"\n... {len(seen)} in all" if len(seen) > 30 else "")
@@ -1538,6 +1634,8 @@ elif FLOW == "notice-layout":
 
         roots = [screen("notice")] + [w for w in app.root_window.children if w is not app.root]
         problems = [p for root in roots for p in widget_problems(root) + cut_text_problems(root)]
+        ids = screen("notice").ids  # the typed fields draw their whole text: the export folder and the issuer
+        problems += [p for w in (ids.export_dir, ids.issued_by) if _drawn(w) for p in field_cut(w, w is ids.export_dir)]
         page = screen("notice").ids.get("page")
         page_rect = _shown(page) if page is not None else None
         for root in roots:
@@ -1592,7 +1690,11 @@ elif FLOW == "notice-layout":
     def first_frame():
         if gc.get_freeze_count() == 0:
             raise TimeoutError  # no frame drawn yet: the runner retries
+        from core.records import ReviewerProfile
+
         app.site_id = next(s.id for s in app.store.sites() if "Cedar" in s.name)
+        # the device's signer, without phone or email (the screen warns of it): 'issued by' is filled with the name
+        app.store.set_reviewer_profile(ReviewerProfile(name="Priya Okonkwo-Lind, P.Eng."))
         app.go("notice")  # straight from the sites list: the test needs no other screen
 
     @step
@@ -1678,7 +1780,9 @@ elif FLOW == "notice-layout":
     @step
     def refused_then_issued():
         s = screen("notice")
-        s.ids.issued_by.text = "Priya Okonkwo-Lind, P.Eng."
+        if s.ids.issued_by.text != "Priya Okonkwo-Lind, P.Eng.":
+            found.append(f"'issued by' not filled with the device's signer: {s.ids.issued_by.text!r}")
+            s.ids.issued_by.text = "Priya Okonkwo-Lind, P.Eng."
         s.ids.issue.trigger_action(0)
         assert "acknowledge the" in s.message, s.message
         yield from shot(f"{GEOM}-n7-refused")
@@ -1686,7 +1790,7 @@ elif FLOW == "notice-layout":
         s.ids.acknowledge.trigger_action(0)
         assert "acknowledged by Priya" in s.ack_text, s.ack_text
         s.ids.issue.trigger_action(0)
-        assert "Issued" in s.message, s.message
+        assert len(app.store.notices(app.site_id)) == 1, s.message
 
     @step
     def issued():
@@ -1694,11 +1798,28 @@ elif FLOW == "notice-layout":
         message = screen("notice").ids.message  # the page is at its bottom: the message is still in view
         if _shown(message) != _window_rect(message):
             found.append("the 'Issued' message is not wholly on screen")
+        s = screen("notice")
+        (notice,) = app.store.notices(app.site_id)
+        count = f"{len(notice.deficiency_ids)} items"
+        written = next((Path(app.store.path).parent / "notices").glob("notice-*.pdf"))
+        for what in (notice.number, count, str(written)):  # which notice, how many items, where its PDF is
+            if what not in s.message:
+                found.append(f"the 'Issued' message does not say {what!r}: {s.message!r}")
+        if notice.number not in s.ids.issue.text or count not in s.ids.issue.text:
+            found.append(f"the Issue button does not show what was issued: {s.ids.issue.text!r}")
+        s.ids.acknowledge.trigger_action(0)
+        s.vm.issue(s.ids.issued_by.text, Path(app.store.path).parent / "notices")  # a second tap on Issue
+        s.message = s.vm.message
+        if len(app.store.notices(app.site_id)) != 1:
+            found.append("a second tap on Issue issued the same items again")
+        bring(s.ids.issue)
+        yield from shot(f"{GEOM}-n8b-issued-again")
+        found.extend(notice_problems("a second tap on Issue"))
         print(f"WINDOW {app.root_window.size}", flush=True)
         s = screen("notice")
         s.ids.acknowledge.trigger_action(0)  # the open items' memory rows, for the close-out
         s.ids.closeout.trigger_action(0)
-        assert "Issued close-out" in s.message, s.message
+        assert any(n.change_note == "close-out notice" for n in app.store.notices(app.site_id)), s.message
 
     @step
     def closeout_issued():
@@ -2141,6 +2262,7 @@ elif FLOW == "defsite-geometry":
     GEOM = os.environ.get("BRACEWALK_GEOMETRY", "default")
     DPI = float(os.environ["KIVY_DPI"])
     MIN_ROWS = int(os.environ["BRACEWALK_MIN_ROWS"])
+    MIN_DEFICIENCY_ROWS = 4  # landscape: the open deficiencies beside the beams
     seen = []
 
     def label_cut(w):
@@ -2249,6 +2371,13 @@ elif FLOW == "defsite-geometry":
             print(f"MEASURE site: open deficiencies {(view[3] - view[1]) / mm:.0f} mm in view", flush=True)
             immediate = [d for d in app.store.deficiencies(app.site_id, open_only=True) if d.priority == "immediate"]
             check("site", deficiency_list_problems(s.ids.deficiency_list, immediate))
+            # several open deficiencies in view at once, each whole (about one and a third showed at 1280x800)
+            whole = [
+                b for b in s.ids.deficiency_list.children if b.text.startswith("D-") and _shown(b) == _window_rect(b)
+            ]
+            print(f"MEASURE site: {len(whole)} whole open-deficiency rows in view", flush=True)
+            if len(whole) < MIN_DEFICIENCY_ROWS:
+                check("site", [f"{len(whole)} open-deficiency rows wholly in view, want {MIN_DEFICIENCY_ROWS}"])
         else:
             s.ids.fold.trigger_action(0)
 
