@@ -719,8 +719,20 @@ def _workers(processes: int) -> Iterator[Any]:
     import multiprocessing
 
     ctx = multiprocessing.get_context("fork" if sys.platform.startswith("linux") else "spawn")
-    with ctx.Pool(processes) as pool:
+    with ctx.Pool(processes, initializer=_worker_signals) as pool:
         yield pool
+
+
+def _worker_signals() -> None:
+    """A worker ends on SIGTERM, whatever handler the parent had (the pool's end terminates its workers).
+
+    A forked worker inherits the parent's handlers: in a process that has opened a window, SDL's handler
+    turns SIGTERM into a quit event, so ``Pool.terminate`` waited for ever on a worker blocked on the task
+    queue's lock (a portfolio recheck run after the app's screens, in the test process, hung there).
+    """
+    import signal
+
+    signal.signal(signal.SIGTERM, signal.SIG_DFL)
 
 
 def _rows_of(part: Part) -> list[tuple[Any, ...]]:

@@ -254,3 +254,33 @@ def test_refresh_in_parts_stores_each_part_before_going_on_and_a_stop_keeps_them
     assert list(results.refresh_parts(store.db, site.id, part=3)) == []  # nothing stale: nothing to yield
     with pytest.raises(ValueError, match="part must be at least 1"):
         next(results.refresh_parts(store.db, site.id, part=0))
+
+
+POOL_UNDER_A_C_HANDLER = """
+import ctypes, signal
+ctypes.CDLL(None).signal(signal.SIGTERM, ctypes.CFUNCTYPE(None, ctypes.c_int)(lambda s: None))
+from storage.results import _workers
+for _ in range(200):
+    with _workers(2) as pool:
+        pool.map(abs, range(10))
+print("ended")
+"""
+
+
+def test_the_portfolio_pool_ends_in_a_process_that_catches_sigterm():
+    """A worker pool ends although the parent catches SIGTERM in C, as a process with an SDL window does.
+
+    ``Pool.terminate`` ends workers still waiting on the task queue with SIGTERM; they inherited SDL's
+    handler, which only posts a quit event, so the end of a portfolio recheck run in such a process
+    waited for ever (it hung the test process once the tablet screens had run). Python's documentation
+    on ``multiprocessing.Pool.terminate``: stops the worker processes immediately.
+    """
+    import subprocess
+    import sys
+    from pathlib import Path
+
+    root = Path(__file__).resolve().parents[2]
+    done = subprocess.run(
+        [sys.executable, "-c", POOL_UNDER_A_C_HANDLER], cwd=root, capture_output=True, text=True, timeout=120
+    )
+    assert done.stdout.strip() == "ended", done.stderr[-800:]
