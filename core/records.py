@@ -41,6 +41,8 @@ class Site(Record):
     firm: str = ""
     design_basis: DesignBasis = DesignBasis()
     contractor_contact: str = ""  # the person the notice is addressed to at the contractor
+    # who the notice's items refer to for repairs ("J. Tran, P.Eng., Coastline Engineering"); named on the notice
+    engineer_of_record: str = ""
     distribution: list[str] = Field(default_factory=list)  # the notice's copies ("Owner", "Architect", ...)
     load_bases: dict[str, DesignBasis] = Field(default_factory=dict)  # further bases by name (floor, canopy)
     demo: bool = False  # the built-in demo site: shown as such, left out of bundles unless asked

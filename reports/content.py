@@ -212,6 +212,7 @@ class Notice:
     cautions: tuple[str, ...] = CAUTIONS
     draft: bool = False  # a preview: marked on every page as not issued
     owner: str = ""
+    engineer_of_record: str = ""  # the items' "refer to the engineer of record": who that is
     reviewer_designation: str = ""  # "P.Eng." / "Building Official"
     reviewer_licence: str = ""
     reviewer_phone: str = ""
@@ -563,6 +564,7 @@ def header_from(
         "firm": site.firm,
         "addressed_to": site.contractor,
         "owner": site.owner,
+        "engineer_of_record": site.engineer_of_record,
         "distribution": distribution,
         "weather": visit.weather if visit else "",
         "scope_reviewed": visit.scope_reviewed if visit else "",

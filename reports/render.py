@@ -339,6 +339,8 @@ def _first_page(n: Notice, st: dict[str, ParagraphStyle], refs: PageRefs) -> lis
     if immediate:
         story += [_immediate_box(len(immediate), st), Spacer(1, 4)]
     to = [("Owner", n.owner or "not recorded"), ("Contractor", n.addressed_to or "not recorded")]
+    # the items refer repairs to the engineer of record: the site is told who that is
+    to.append(("Engineer of record", n.engineer_of_record or "not recorded: the owner names who it is"))
     to.append(("Copies", ", ".join(n.distribution) or "none"))
     licence = ", ".join(
         x for x in (n.reviewer_designation, f"licence {n.reviewer_licence}" if n.reviewer_licence else "") if x

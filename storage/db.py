@@ -10,7 +10,8 @@ from pathlib import Path
 import sqlite_utils
 
 SCHEMA_VERSION = 3  # 2: record fields added after 0.6.0 (re-review, photo marks, memory acknowledgement);
-# 3: a beam's system may be null, not recorded (storage still writes "single" with system_recorded false)
+# 3: a beam's system may be null, not recorded (storage still writes "single" with system_recorded false); a site's
+# engineer of record
 BUSY_TIMEOUT_S = 10.0  # a save waits this long for a sync's batch (each takes well under a second)
 
 

@@ -24,6 +24,7 @@ FORM_FIELDS = (
     "owner",
     "contractor",
     "contractor_contact",
+    "engineer_of_record",
     "distribution",
     "firm",
     "dead_kpa",

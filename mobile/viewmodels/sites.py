@@ -20,6 +20,7 @@ SITE_TEXT_FIELDS = (
     "owner",
     "contractor",
     "contractor_contact",
+    "engineer_of_record",
     "firm",
 )
 BASIS_FIELDS = ("dead_kpa", "live_kpa", "snow_kpa")

@@ -439,6 +439,7 @@ def test_site_form_owner_contractor_distribution_bases_and_edit(tmp_path):
         "owner": "Willow Yard Trust",
         "contractor": "Ashgrove Framing Inc.",
         "contractor_contact": "M. Ferreira",
+        "engineer_of_record": "R. Lindqvist, P.Eng., Fenwick Structures",
         "distribution": "Owner; Architect; File",
         "dead_kpa": "1,0",
         "snow_kpa": "2.4",
@@ -454,6 +455,7 @@ def test_site_form_owner_contractor_distribution_bases_and_edit(tmp_path):
     notice, _ = build_notice(store, site.id, "N-1")
     assert notice.addressed_to == "Ashgrove Framing Inc. (attention: M. Ferreira)"
     assert notice.distribution == ["Owner", "Architect", "File"]
+    assert notice.engineer_of_record == "R. Lindqvist, P.Eng., Fenwick Structures"  # who the items refer to
     assert not vm.create(dict(form, load_bases="floor 1.5"))
     assert "dead/live/snow" in vm.errors["load_bases"]
     edited = vm.update(site.id, dict(vm.form_of(site.id), snow_kpa="3.1", contractor_contact="J. Osei"))

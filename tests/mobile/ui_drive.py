@@ -965,6 +965,7 @@ if FLOW == "main":
         s.ids.new_address.text = "7 Quarry Lane"
         s.ids.new_contractor.text = "Ashgrove Framing Inc."
         s.ids.new_contractor_contact.text = "M. Ferreira"
+        s.ids.new_engineer_of_record.text = "R. Lindqvist, P.Eng."
         s.ids.new_dead_kpa.text = "1.0"
         s.ids.new_snow_kpa.text = "heavy"  # refused at the field: not a number
         s.ids.create_site.trigger_action(0)
@@ -976,6 +977,7 @@ if FLOW == "main":
         assert app.root.current == "site"
         assert "Willow Yard" in screen("site").title
         assert app.store.site(app.site_id).contractor_contact == "M. Ferreira"
+        assert app.store.site(app.site_id).engineer_of_record == "R. Lindqvist, P.Eng."
 
     @step
     def archive_by_mistake():

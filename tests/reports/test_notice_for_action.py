@@ -46,3 +46,12 @@ def test_the_pdf_is_dated_the_day_it_was_issued_and_stays_byte_for_byte_the_same
     assert info["/CreationDate"] == info["/ModDate"] == "D:20261130000000+00'00'"  # ISO 32000-1 7.9.4 form
     assert render_notice(notice) == pdf  # invariant output: the same notice gives the same bytes
     assert pdf_date("2027-01-05") == "D:20270105000000+00'00'"
+
+
+def test_the_engineer_of_record_the_items_refer_to_is_named_or_said_to_be_unrecorded():
+    """Items say "refer to the engineer of record": the site must be told who that is (common practice)."""
+    item, _ = _item()
+    named = _flat(render_notice(_notice([item], engineer_of_record="Jun Tarrow, P.Eng., Kestrel Bay Structural")))
+    assert "Engineer of record Jun Tarrow, P.Eng., Kestrel Bay Structural" in named
+    unnamed = _flat(render_notice(_notice([item])))
+    assert "Engineer of record not recorded: the owner names who it is" in unnamed
