@@ -10,13 +10,18 @@ with a content security policy that allows no script and no framing, and is not 
 
 from __future__ import annotations
 
+import base64
 import hashlib
 import hmac
+import json
+import secrets
 import time
 from pathlib import Path
 from typing import Annotated, Any
 from urllib.parse import parse_qs, quote
 
+from cryptography.exceptions import InvalidTag
+from cryptography.hazmat.primitives.ciphers.aead import AESGCM
 from fastapi import APIRouter, Depends, FastAPI, Request, Response
 from fastapi.responses import HTMLResponse, JSONResponse, RedirectResponse
 from jinja2 import Environment, FileSystemLoader, select_autoescape
@@ -25,8 +30,10 @@ from starlette.exceptions import HTTPException as StarletteHTTPException
 from office import registry
 from office.hubstore import HubStore
 from reports.render import SHORT_PRIORITY, priority_label
+from reports.words import status_label
 
 COOKIE = "bw_session"
+NEW_CODE_COOKIE, NEW_CODE_SECONDS = "bw_new_code", 300  # a code just made, sealed, on its way to the page showing it
 MAX_FORM_FIELDS = 10  # the largest register form has four
 PAGE_HEADERS = {
     # server-rendered pages with inline styles and data-URI images only: no script runs, nothing frames them
@@ -79,6 +86,7 @@ def _page(request: Request, template: str, user: str | None, **context: Any) -> 
         fmt_ms=_fmt_ms,
         priority_words=priority_label,  # the notice's and the app's words and shapes, never a raw code
         short_priority=lambda p: SHORT_PRIORITY.get(p, p),
+        status_words=status_label,  # the tablet's shape and word for a recheck status ('● OK')
         **context,
     )
     return HTMLResponse(html)
@@ -162,7 +170,7 @@ def install(app: FastAPI) -> None:
 
 def _router() -> APIRouter:
     router = APIRouter(tags=["register"], include_in_schema=False)
-    for add in (_session_routes, _site_routes, _notice_routes, _device_routes, _device_action_routes):
+    for add in (_session_routes, _site_routes, _notice_routes, _device_routes, _code_routes, _device_action_routes):
         add(router)
     return router
 
@@ -219,12 +227,14 @@ def _site_routes(router: APIRouter) -> None:
         record = registry.site(hub, site_id)
         if record is None:
             return _not_found(request, user, f"No site {site_id}")
+        open_items = registry.items(hub, site_id)
         return _page(
             request,
             "site.html",
             user,
             site=record,
-            items=registry.items(hub, site_id),
+            items=open_items,
+            beams=registry.site_beams(hub, site_id, open_items),
             closed=registry.items(hub, site_id, open_only=False, closed_only=True),
             notices=registry.notices(hub, site_id),
         )
@@ -282,18 +292,45 @@ def _device_routes(router: APIRouter) -> None:
 
     @router.post("/devices/enroll")
     async def enroll(request: Request, user: User) -> Response:
+        """Make a code, then send the browser to the page that shows it (post, redirect, get).
+
+        The code travels to that page sealed in a short-lived cookie only this session can open; the page
+        shows it once and drops the cookie, so a refresh or the back button never makes another code.
+        """
         form = await _form(request)
         if not _token_ok(request, form):
             return _expired()
         name, person, role = form.get("name", "").strip(), form.get("person", "").strip(), form.get("role", "")
         try:
-            code = _hub(request).new_code(name, person, role)
+            code = registry.make_code(_hub(request), name, person, role, by=user)
         except ValueError as exc:
             page = _devices_page(request, user, enrol_error=f"No code made: {exc}")
             page.status_code = 422
             return page
-        new = {"name": name, "person": person, "role": role, "code": code, "qr": registry.enrolment_qr_data_uri(code)}
-        return _devices_page(request, user, new_code=new)
+        response = RedirectResponse("/devices/code", status_code=303)
+        sealed = _seal(request, json.dumps({"name": name, "person": person, "role": role, "code": code}))
+        response.set_cookie(
+            NEW_CODE_COOKIE,
+            sealed,
+            max_age=NEW_CODE_SECONDS,
+            path="/devices/code",
+            httponly=True,
+            samesite="strict",
+            secure=request.url.scheme == "https",
+        )
+        return response
+
+    @router.get("/devices/code")
+    def new_code(request: Request, user: User) -> HTMLResponse:
+        """The code just made, shown once; opened again (a refresh), the page says so and shows no code."""
+        shown = _unseal(request, request.cookies.get(NEW_CODE_COOKIE, ""))
+        new = json.loads(shown) if shown else None
+        if new and registry.is_outstanding(_hub(request), new["code"]):
+            page = _devices_page(request, user, new_code=new | {"qr": registry.enrolment_qr_data_uri(new["code"])})
+        else:
+            page = _devices_page(request, user, code_gone=True)
+        page.delete_cookie(NEW_CODE_COOKIE, path="/devices/code", httponly=True, samesite="strict")
+        return page
 
 
 def _device_action_routes(router: APIRouter) -> None:
@@ -328,15 +365,58 @@ def _device_action_routes(router: APIRouter) -> None:
 DEVICE_ACTIONS = ("revoke", "reinstate")
 
 
+def _code_routes(router: APIRouter) -> None:
+    """Withdraw an enrolment code not yet used: a page that asks first, then the form's post."""
+
+    @router.get("/devices/codes/{code_id}/withdraw")
+    def confirm_withdraw(code_id: str, request: Request, user: User) -> HTMLResponse:
+        found = registry.outstanding_code(_hub(request), code_id)
+        if found is None:
+            return _not_found(request, user, "No such enrolment code outstanding: used, expired or withdrawn.")
+        return _page(request, "code_confirm.html", user, c=found)
+
+    @router.post("/devices/codes/{code_id}/withdraw")
+    async def withdraw(code_id: str, request: Request, user: User) -> Response:
+        if not _token_ok(request, await _form(request)):
+            return _expired()
+        try:
+            registry.withdraw_code(_hub(request), code_id, by=user)
+        except KeyError:
+            return _not_found(request, user, "No such enrolment code outstanding: used, expired or withdrawn.")
+        return RedirectResponse("/devices#codes", status_code=303)
+
+
+def _seal_key(request: Request) -> bytes:
+    """A key for this session's new-code cookie: the hub's secret and the session token (HMAC-SHA256)."""
+    session = request.cookies.get(COOKIE, "").encode()
+    return hmac.new(_hub(request).bundle_key.encode(), b"new enrolment code\0" + session, hashlib.sha256).digest()
+
+
+def _seal(request: Request, text: str) -> str:
+    """``text`` encrypted and authenticated (AES-GCM) for this session alone, as cookie-safe base64."""
+    nonce = secrets.token_bytes(12)
+    return base64.urlsafe_b64encode(nonce + AESGCM(_seal_key(request)).encrypt(nonce, text.encode(), None)).decode()
+
+
+def _unseal(request: Request, sealed: str) -> str | None:
+    """What ``_seal`` sealed, or None for a cookie of another session, altered, or not there."""
+    try:
+        raw = base64.urlsafe_b64decode(sealed.encode())
+        return AESGCM(_seal_key(request)).decrypt(raw[:12], raw[12:], None).decode()
+    except (ValueError, InvalidTag):
+        return None
+
+
 def _devices_page(request: Request, user: str, **extra: Any) -> HTMLResponse:
     hub = _hub(request)
-    context = {"new_code": None, "enrol_error": ""} | extra
+    context = {"new_code": None, "enrol_error": "", "code_gone": False} | extra
     address = f"{request.url.scheme}://{request.url.netloc}"  # as this browser reached the hub
     return _page(
         request,
         "devices.html",
         user,
         devices=hub.devices(),
+        codes=registry.outstanding_codes(hub),
         quarantine=registry.held(hub),
         hub_address=address,
         **context,

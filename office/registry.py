@@ -18,7 +18,8 @@ from argon2 import PasswordHasher
 from argon2.exceptions import InvalidHashError, VerificationError
 
 from core.results import PRIORITY_ORDER
-from office.hubstore import HubStore
+from office.hubstore import CODE_LIFETIME_MS, HubStore
+from reports.words import STAGE_WORDS, stage_label
 from storage.db import PROJECTIONS
 
 if TYPE_CHECKING:
@@ -144,6 +145,11 @@ class Item:
         return "now" if self.priority == next(iter(PRIORITY_ORDER)) else "-"
 
     @property
+    def stage_words(self) -> str:
+        """The stage in the tablet's words, as a cell reads ('Corrected (contractor reports done)')."""
+        return stage_label(self.stage)
+
+    @property
     def age_days(self) -> int:
         """Whole days since it was raised."""
         return max(0, int((time.time() * 1000 - self.raised_ms) // 86_400_000))
@@ -224,6 +230,46 @@ def site(hub: HubStore, site_id: str) -> dict[str, Any] | None:
     return dict(found[0][1], id=site_id) if found else None
 
 
+def site_beams(hub: HubStore, site_id: str, open_items: list[Item]) -> list[dict[str, Any]]:
+    """A site's beams, by level, gridline and mark, each with its open deficiencies; archived beams left out.
+
+    One read of the site's beam records (indexed by site); ``open_items`` are the site's open deficiencies the
+    page already holds, so a 300-beam site costs no query a beam. Each: ``id``, ``mark``, ``where`` (level and
+    gridline), ``member`` ('glulam D.Fir-L 24f-E'), ``size`` ('130 × 456 mm'), ``spans`` ('7200 + 6000 mm'),
+    ``open`` (its open deficiencies). The recheck status is not among them: the hub keeps no recheck results
+    (each device computes its own, ``storage.results``); the beam's recheck sheet runs it again here.
+    """
+    by_beam: dict[str, list[Item]] = {}
+    for i in open_items:
+        if i.beam_id:
+            by_beam.setdefault(i.beam_id, []).append(i)
+    out = []
+    for bid, b in _rows(hub, "beam", "WHERE site_id=?", [site_id]):
+        if b.get("archived"):
+            continue
+        spans = b.get("spans_mm") or []
+        size = f"{_mm(b.get('b_mm'))} × {_mm(b.get('d_mm'))} mm" if b.get("b_mm") and b.get("d_mm") else "not recorded"
+        out.append(
+            {
+                "id": bid,
+                "mark": str(b.get("mark") or "(no mark)"),
+                "level": str(b.get("level") or ""),
+                "gridline": str(b.get("gridline") or ""),
+                "member": " ".join(str(b[k]) for k in ("material", "species", "grade") if b.get(k)) or "not recorded",
+                "size": size,
+                "spans": " + ".join(_mm(s) for s in spans) + " mm" if spans else "not recorded",
+                "open": by_beam.get(bid, []),
+            }
+        )
+    return sorted(out, key=lambda r: (r["level"], r["gridline"], r["mark"]))
+
+
+def _mm(value: object) -> str:
+    """A length in mm as recorded, without a trailing '.0' ('130', '6.5')."""
+    number = float(str(value))
+    return str(int(number)) if number == int(number) else f"{number:.1f}"
+
+
 def deficiency(hub: HubStore, deficiency_id: str) -> dict[str, Any] | None:
     """One deficiency with its history, photos, beam record and the notices that carry it."""
     found = [i for i in items(hub, open_only=False) if i.id == deficiency_id]
@@ -250,7 +296,7 @@ def deficiency(hub: HubStore, deficiency_id: str) -> dict[str, Any] | None:
     return {
         "item": item,
         "history": [
-            dict(e, stage_name=STAGES[int(e["stage"])], **_recorded_on(devices, e), at_words=_at_words(e.get("at")))
+            dict(e, stage_name=stage_label(e["stage"]), **_recorded_on(devices, e), at_words=_at_words(e.get("at")))
             for e in history
         ],
         "held": [q for q in held(hub) if q["record_id"] == deficiency_id],
@@ -312,7 +358,7 @@ def held(hub: HubStore) -> list[dict[str, Any]]:
         name = str(record.get("number") or record.get("mark") or record.get("name") or f"{entity} {record_id[-8:]}")
         if kind == "status":
             stage = payload.get("stage")
-            to = STAGES[stage] if isinstance(stage, int) and 0 <= stage < len(STAGES) else f"stage {stage}"
+            to = STAGE_WORDS[stage] if isinstance(stage, int) and stage in STAGE_WORDS else f"stage {stage}"
             what = f"status of {name} moved to {to}"
         elif kind == "insert":
             what = f"new {entity.replace('_', ' ')} {name}"
@@ -386,6 +432,111 @@ def notice_pdf(hub: HubStore, notice_id: str) -> tuple[str, bytes] | None:
 
 
 # -- enrolment codes for a tablet to scan ----------------------------------------------------------
+CODE_MADE, CODE_WITHDRAWN = "code made by", "code withdrawn"  # hub_audit events, subject 'code <id>'
+CODE_ID_RE = re.compile(r"^[0-9a-f]{16}$")
+
+
+@dataclass(frozen=True)
+class OutstandingCode:
+    """An enrolment code made and not yet used, withdrawn or expired; the code itself is not kept (only its SHA-256)."""
+
+    id: str  # the first 16 hex digits of the code's SHA-256: names it in the register's addresses
+    name: str
+    person: str
+    role: str
+    made_by: str  # the office user, or '' for a code made on the hub's command line
+    created_ms: int
+    expires_ms: int
+
+
+def _code_subject(code_id: str) -> str:
+    return f"code {code_id}"
+
+
+def make_code(hub: HubStore, name: str, person: str, role: str, by: str) -> str:
+    """A new one-time enrolment code (``HubStore.new_code``), with the office user who made it in the audit log."""
+    code = hub.new_code(name, person, role)
+    code_id = hashlib.sha256(code.strip().upper().encode()).hexdigest()[:16]
+    with hub.tx():
+        hub.db.execute(
+            "INSERT INTO hub_audit (at_ms, device_id, event, detail) VALUES (?, ?, ?, ?)",
+            [hub.clock_ms(), _code_subject(code_id), CODE_MADE, by],
+        )
+    return code
+
+
+def outstanding_codes(hub: HubStore) -> list[OutstandingCode]:
+    """Codes a tablet may still use (not used, not withdrawn, within their 24 hours), oldest first."""
+    now = hub.clock_ms()
+    with hub.lock:
+        rows = hub.db.execute(
+            "SELECT code_sha256, name, person, role, created_ms FROM hub_code WHERE used_by IS NULL AND created_ms>? "
+            "ORDER BY created_ms, name",
+            [now - CODE_LIFETIME_MS],
+        ).fetchall()
+        makers = hub.db.execute(
+            "SELECT device_id, detail FROM hub_audit WHERE event=? AND at_ms>? ORDER BY id",
+            [CODE_MADE, now - CODE_LIFETIME_MS],
+        ).fetchall()
+    made_by = {str(subject): str(user) for subject, user in makers}
+    return [
+        OutstandingCode(
+            id=str(sha)[:16],
+            name=str(name),
+            person=str(person),
+            role=str(role),
+            made_by=made_by.get(_code_subject(str(sha)[:16]), ""),
+            created_ms=int(created),
+            expires_ms=int(created) + CODE_LIFETIME_MS,
+        )
+        for sha, name, person, role, created in rows
+    ]
+
+
+def outstanding_code(hub: HubStore, code_id: str) -> OutstandingCode | None:
+    """One outstanding code by its id (the first 16 hex digits of its SHA-256), or None."""
+    return next((c for c in outstanding_codes(hub) if c.id == code_id), None) if CODE_ID_RE.match(code_id) else None
+
+
+def withdraw_code(hub: HubStore, code_id: str, by: str) -> OutstandingCode:
+    """Withdraw an outstanding code: no tablet can enrol with it; the audit log names the office user.
+
+    KeyError when no outstanding code has that id (used, expired, withdrawn already, or never made).
+    """
+    found = outstanding_code(hub, code_id)
+    if found is None:
+        msg = f"no outstanding enrolment code {code_id}"
+        raise KeyError(msg)
+    with hub.tx():
+        gone = hub.db.execute(
+            "DELETE FROM hub_code WHERE code_sha256 LIKE ? AND used_by IS NULL", [f"{code_id}%"]
+        ).rowcount
+        if gone != 1:  # used (or withdrawn) since it was listed: nothing withdrawn
+            msg = f"no outstanding enrolment code {code_id}"
+            raise KeyError(msg)
+        detail = f"enrolment code for {found.name} ({found.person}, {found.role}) withdrawn by office user {by}"
+        hub.db.execute(
+            "INSERT INTO hub_audit (at_ms, device_id, event, detail) VALUES (?, ?, ?, ?)",
+            [hub.clock_ms(), _code_subject(code_id), CODE_WITHDRAWN, detail],
+        )
+    return found
+
+
+def code_audit(hub: HubStore, code_id: str) -> list[tuple[str, str]]:
+    """A code's audit entries (event, detail), oldest first: who made it and who withdrew it."""
+    with hub.lock:
+        rows = hub.db.execute(
+            "SELECT event, detail FROM hub_audit WHERE device_id=? ORDER BY id", [_code_subject(code_id)]
+        ).fetchall()
+    return [(str(e), str(d)) for e, d in rows]
+
+
+def is_outstanding(hub: HubStore, code: str) -> bool:
+    """Whether ``code`` (as shown once) may still enrol a tablet."""
+    code_id = hashlib.sha256(code.strip().upper().encode()).hexdigest()[:16]
+    return outstanding_code(hub, code_id) is not None
+
+
 def enrolment_qr(code: str) -> segno.QRCode:
     """The QR symbol of a one-time enrolment code (the code alone, error correction M, never Micro QR)."""
     if not code.strip():
@@ -552,7 +703,7 @@ def recheck_now(beam: dict[str, Any], site_data: dict[str, Any]) -> dict[str, An
     return {
         "error": "",
         "loads_from": loads_from,
-        "status": result.status.value.replace("_", " "),
+        "status": result.status.value,
         "governing": rated[index]["name"],
         "utilisation": result.governing_utilisation,
         "checks": checks,

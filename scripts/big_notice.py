@@ -14,6 +14,9 @@ from __future__ import annotations
 
 import io
 import sys
+import time
+from collections.abc import Callable
+from datetime import datetime
 from pathlib import Path
 from typing import Any
 
@@ -74,6 +77,12 @@ KINDS: list[tuple[dict[str, Any], float]] = [  # (changes to GLULAM, tributary w
         1.8,
     ),
 ]
+
+
+def _issue_day_clock() -> Callable[[], int]:
+    """A wall clock (ms) from 08:00 Pacific on the notice's day (2026-12-01), at the real rate."""
+    origin_ms, began = int(datetime.fromisoformat("2026-12-01T16:00:00Z").timestamp() * 1000), time.monotonic()
+    return lambda: origin_ms + int((time.monotonic() - began) * 1000)
 
 
 def photo(i: int, size: tuple[int, int]) -> bytes:
@@ -160,7 +169,7 @@ def raise_with_photos(store: Store, site_id: str, beam_id: str, where: str, find
 
 def build(db: Path, target: int, out: Path) -> None:
     """Log the site with ``target`` deficiencies from beam findings, three observations, and issue the notice."""
-    store = Store(db)
+    store = Store(db, wall_clock_ms=_issue_day_clock())  # items raised on the notice's day, never after it
     site = new_site(store)
     count = k = 0
     while count < target:

@@ -44,7 +44,7 @@ from storage.oplog import (
     read_stamp,
 )
 from storage.results import beam_input, stored_system
-from storage.stamps import utc_stamp
+from storage.stamps import parse_stamp, utc_stamp
 
 DEMO_FIRM_KEY = "bracewalk-demo-firm-key-not-for-production"  # DEMO ONLY: the demo database, never a firm's
 HUB_PEER = "hub"  # the office hub, as a peer of this device's cursors (storage/hubsync.py)
@@ -796,6 +796,35 @@ class Store:
         n = self._next_number("notice")
         return f"{site.project_number or 'P'}-FR-{self.device_code}-{n:03d}"
 
+    def _check_issue_date(self, issued_at: str, deficiency_ids: list[str]) -> None:
+        """Refuse a notice dated before the day (this device's local date) any item it carries was raised.
+
+        ``issued_at``: a date ('2026-11-30', this device's local date, as the app writes it) or a stored UTC
+        time; an item was raised when its first change was written (its earliest op's wall clock). Only items
+        raised on this device are compared, by this device's own wall clock: a colleague's clock set a day
+        ahead would otherwise block an IMMEDIATE notice today (stamps are the devices' own, sync.md 3.3).
+        """
+        when = parse_stamp(issued_at)
+        issued = time.strftime("%Y-%m-%d", time.localtime(when.timestamp())) if when else issued_at.strip()[:10]
+        if not re.fullmatch(r"\d{4}-\d\d-\d\d", issued):
+            msg = f"issued_at {issued_at!r}: not a date (YYYY-MM-DD) or a UTC time"
+            raise ValueError(msg)
+        for did in deficiency_ids:
+            row = self.db.execute(
+                "SELECT min(wall_ms) FROM op WHERE entity='deficiency' AND record_id=? AND origin=?",
+                [did, self.device_id],
+            ).fetchone()
+            if row is None or row[0] is None:
+                continue  # raised on another device, or not held here: no clock of this device to compare with
+            raised = time.strftime("%Y-%m-%d", time.localtime(int(row[0]) / 1000))
+            if issued < raised:
+                number = (self._get("deficiency", did) or {}).get("number", did)
+                msg = (
+                    f"issued_at {issued}: before {number} was raised ({raised}); a notice lists deficiencies "
+                    f"already raised, so date it {raised} or later"
+                )
+                raise ValueError(msg)
+
     def issue_notice(
         self,
         site_id: str,
@@ -812,7 +841,10 @@ class Store:
         """Store an issued notice: the PDF blob first (fsynced), then the immutable record.
 
         ``memory_acknowledgement``: who acknowledged the table rows entered from memory, and when (issue 16).
+        A notice lists deficiencies already raised (common practice): ``issued_at`` dated before the day any of
+        its items was raised is refused (ValueError), nothing stored.
         """
+        self._check_issue_date(issued_at, deficiency_ids)
         sha = self.put_blob(pdf, "application/pdf")
         nid = uuid7()
         notice = IssuedNotice(

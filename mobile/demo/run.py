@@ -5,6 +5,8 @@ from __future__ import annotations
 import io
 import json
 import time
+from collections.abc import Callable
+from datetime import datetime
 from importlib import resources
 from pathlib import Path
 from typing import Any
@@ -22,6 +24,15 @@ CAUTION = (
     "Results support, and never replace, the judgement of the engineer of record; local codes and "
     "licensed practice govern."
 )
+
+
+DEMO_RAISED_AT = "2026-11-30T17:25:00Z"  # 09:25 Pacific: after the 09:15 visit's 09:20 photos, before the 09:45 ack
+
+
+def demo_clock() -> Callable[[], int]:
+    """A wall clock (ms) that starts at DEMO_RAISED_AT and runs at the real rate: the demo's records keep its day."""
+    origin_ms, began = int(datetime.fromisoformat(DEMO_RAISED_AT).timestamp() * 1000), time.monotonic()
+    return lambda: origin_ms + int((time.monotonic() - began) * 1000)
 
 
 def demo_data() -> dict[str, Any]:
@@ -115,7 +126,9 @@ def run_demo(out: Path, serve: bool = False) -> int:
     db_path = out / "cedar-hollow.db"
     for suffix in ("", "-wal", "-shm"):
         Path(str(db_path) + suffix).unlink(missing_ok=True)
-    store = Store(db_path, firm_key=DEMO_FIRM_KEY)  # the demo's marked key, so its bundle opens anywhere in a demo
+    # the demo's marked key, so its bundle opens anywhere in a demo; its clock on the demo's visit day, so the
+    # items are raised that morning, before the notice that lists them is issued (dated 2026-11-30)
+    store = Store(db_path, firm_key=DEMO_FIRM_KEY, wall_clock_ms=demo_clock())
     site_id = load_demo(store)
     set_demo_reviewer(store)
     rows = raise_all(store, site_id)

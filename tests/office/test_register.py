@@ -110,7 +110,7 @@ def test_register_shows_sites_items_history_notices_and_devices(office):
     item = client.get(f"/deficiency/{d.id}").text
     assert "▲ IMMEDIATE: make safe now" in item
     assert "blocking installed" in item
-    assert "corrected" in item
+    assert "Corrected (contractor reports done)" in item  # the tablet's words for the stage (reports.words)
     assert "R2-B4" in item
     assert notice.number in item
     assert "/photo/" in item
@@ -187,7 +187,9 @@ def test_devices_page_makes_a_one_time_code_with_its_qr_to_scan(office, tmp_path
     bad = client.post("/devices/enroll", data=form | {"csrf": token, "role": "boss"})
     assert bad.status_code == 422
     assert "No code made: role 'boss'" in html.unescape(bad.text)
-    page = client.post("/devices/enroll", data=form | {"csrf": token})
+    made = client.post("/devices/enroll", data=form | {"csrf": token})
+    assert (made.status_code, made.headers["location"]) == (303, "/devices/code")  # post, redirect, get
+    page = client.get("/devices/code")  # the browser follows with the sealed cookie it was given
     assert page.status_code == 200
     code = re.search(r'id="enrol-code">([0-9A-F-]+)<', page.text).group(1)
     src = html.unescape(re.search(r'id="enrol-qr"[^>]*src="([^"]+)"', page.text).group(1))

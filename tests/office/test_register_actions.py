@@ -68,13 +68,13 @@ def test_a_held_change_reads_in_words_on_the_devices_page_and_on_its_item(office
     assert result.rejected
     _login(client)
     page = _text(client.get("/devices").text)
-    assert f"status of {d.number} moved to verified" in page
+    assert f"status of {d.number} moved to verified by reviewer" in page  # the tablet's words (reports.words)
     assert "Tablet 7 (S. Tech)" in page
     assert "only a reviewer verifies a deficiency" in page
     assert "not_reviewer" not in page  # the rule's code stays internal
     item = _text(client.get(f"/deficiency/{d.id}").text)
     assert "Changes to this item held at the office (1)" in item
-    assert "Status corrected" in item  # the held move is not part of the record
+    assert "Status Corrected (contractor reports done)" in item  # the held move is not part of the record
     assert "None verified yet." in _text(client.get(f"/site/{site.id}").text)
 
 
@@ -85,7 +85,7 @@ def test_item_history_names_the_device_that_signed_each_status_move(office):  # 
     # the fixture's tablet recorded "corrected" by "Site super (contractor)": typed, and signed by Tablet 3
     assert "Site super (contractor)" in item
     assert "Tablet 3 (R. Eng, enrolled as reviewer)" in item
-    assert re.search(r"\d{4}-\d\d-\d\d \d\d:\d\d UTC corrected", item)  # one time format on the page
+    assert re.search(r"\d{4}-\d\d-\d\d \d\d:\d\d UTC Corrected \(contractor", item)  # one time format on the page
 
 
 def test_notices_list_their_site_newest_first_with_the_hash_the_paper_prints(office):  # noqa: F811

@@ -72,6 +72,12 @@ def test_log_in_open_a_site_and_an_item_download_a_notice(office, browser):  # n
     browser.find_element(By.LINK_TEXT, "Maple Street Hall").click()
     assert _wait_for(browser, d.number)
     _shot(browser, "3-site")
+    beams = browser.find_element(By.ID, "beams")
+    browser.execute_script("arguments[0].scrollIntoView();", beams)
+    assert "R2-B4" in beams.text
+    assert f"{d.number} ▲ IMMEDIATE" in beams.text
+    assert "Corrected (contractor reports done)" in browser.find_element(By.ID, "open-items").text
+    _shot(browser, "3b-site-beams")
     browser.find_element(By.LINK_TEXT, d.number).click()
     assert _wait_for(browser, "blocking installed")
     _shot(browser, "4-item")
@@ -123,6 +129,22 @@ def test_log_in_open_a_site_and_an_item_download_a_notice(office, browser):  # n
     browser.execute_script("arguments[0].scrollIntoView();", qr)
     assert browser.execute_script("return arguments[0].complete && arguments[0].naturalWidth", qr) > 0  # drawn
     _shot(browser, "7-enrol-qr")
+    assert browser.current_url.endswith("/devices/code")  # a page got, not a form posted
+    code = browser.find_element(By.ID, "enrol-code").text
+    browser.refresh()  # no second code, and this one is not shown again
+    assert _wait_for(browser, "shown once")
+    assert not browser.find_elements(By.ID, "enrol-code")
+    assert code not in browser.page_source
+    listed = browser.find_element(By.ID, "outstanding-codes")
+    assert "Tablet 8" in listed.text
+    assert "J. Tech" in listed.text
+    browser.execute_script("arguments[0].scrollIntoView();", listed)
+    _shot(browser, "7b-codes-outstanding")
+    browser.find_element(By.LINK_TEXT, "Withdraw…").click()
+    assert _wait_for(browser, "Withdraw the enrolment code for Tablet 8?")
+    _shot(browser, "7c-code-withdraw-asks")
+    browser.find_element(By.ID, "confirm-withdraw").click()
+    assert _wait_for(browser, "Enrolment codes not yet used (0)")
 
 
 def _check_rows(driver):

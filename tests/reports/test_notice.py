@@ -12,7 +12,7 @@ from pypdf import PdfReader
 
 from core import recheck
 from core.records import Deficiency
-from mobile.demo.run import load_demo, raise_all
+from mobile.demo.run import demo_clock, load_demo, raise_all
 from mobile.issue import acknowledge, issue_notice_for_site, rows_for_items, verify_pdf
 from reports.content import Notice, item_for
 from reports.photos import prepare_photo
@@ -194,7 +194,7 @@ def test_hundred_items_with_photos_keep_each_item_whole():
 
 
 def test_issue_store_hash_and_verify(tmp_path):
-    store = Store(tmp_path / "d.db")
+    store = Store(tmp_path / "d.db", wall_clock_ms=demo_clock())  # on the demo's day, as the demo runs
     site_id = load_demo(store)
     raise_all(store, site_id)
     ack = acknowledge(store, rows_for_items(store, site_id), "P. O.")  # the demo beams rest on memory rows

@@ -112,11 +112,11 @@ def test_twenty_items_on_five_beams_each_block_once():
 
 
 def _profiled_store(tmp_path):
-    from mobile.demo.run import load_demo, raise_all
+    from mobile.demo.run import demo_clock, load_demo, raise_all
     from mobile.viewmodels.reviewer import ReviewerViewModel
     from storage import Store
 
-    store = Store(tmp_path / "d.db")
+    store = Store(tmp_path / "d.db", wall_clock_ms=demo_clock())  # on the demo's day, as the demo runs
     site_id = load_demo(store)
     raise_all(store, site_id)
     vm = ReviewerViewModel(store)
@@ -248,12 +248,12 @@ def test_sketch_locates_the_member():
 
 
 def test_photo_markup_leaves_the_original_unchanged(tmp_path):
-    from mobile.demo.run import load_demo, raise_all
+    from mobile.demo.run import demo_clock, load_demo, raise_all
     from mobile.issue import build_notice
     from storage import Store
     from tests.reports.test_notice import _big_photo
 
-    store = Store(tmp_path / "d.db")
+    store = Store(tmp_path / "d.db", wall_clock_ms=demo_clock())  # on the demo's day, as the demo runs
     site_id = load_demo(store)
     raise_all(store, site_id)
     d = store.deficiencies(site_id, open_only=True)[0]

@@ -275,7 +275,7 @@ def _fixture_bundle(tmp: Path) -> tuple[bytes, dict[str, Any], Any]:
     d = src.raise_deficiency(site.id, beam, "x", "immediate", "Grid B", "Short bearing", "O86", "Fix")
     src.move_status(d.id, "corrected", "c", "contractor")
     src.add_photo(site.id, b"photo" * 40, deficiency_id=d.id)
-    src.issue_notice(site.id, "P9-FR-1", b"%PDF-1.4 campaign", [d.id], "R", "2026-01-01")
+    src.issue_notice(site.id, "P9-FR-1", b"%PDF-1.4 campaign", [d.id], "R", time.strftime("%Y-%m-%d"))
     export_bundle(src, tmp / "b.zip")
     listed, key = listing(src), identity.device_key(src.db)
     src.close()

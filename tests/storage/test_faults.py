@@ -5,6 +5,7 @@ Each test reproduces one failure reported by a tester (it failed before the fix)
 
 import io
 import json
+import time
 import zipfile
 
 import pytest
@@ -177,7 +178,7 @@ def test_bad_record_refused_whole_naming_the_field(tmp_path, field, edit):
     a.update_beam(beam, {"b_mm": 175})
     d = a.raise_deficiency(site.id, beam, "x", "immediate", "L", "d", "r", "a")
     a.move_status(d.id, "corrected", "c", "contractor")
-    a.issue_notice(site.id, "P-FR-1", b"%PDF-1.4 test", [d.id], "R", "2026-01-01")
+    a.issue_notice(site.id, "P-FR-1", b"%PDF-1.4 test", [d.id], "R", time.strftime("%Y-%m-%d"))
     export_bundle(a, tmp_path / "a.zip")
     _forge(a, tmp_path / "a.zip", edit)
     before = b.projections()

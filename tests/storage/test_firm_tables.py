@@ -7,6 +7,7 @@ from core.recheck import recheck
 from mobile.cli import main
 from storage import Store, firm_tables, results
 from storage.bundle import export_bundle, import_bundle
+from storage.stamps import utc_stamp
 from tests.core.beams import glulam
 
 KEY = "test-firm-key"
@@ -74,7 +75,7 @@ def test_a_correction_changes_the_results_and_impact_lists_beams_and_notices(tmp
     other = store.save_beam(site.id, glulam(mark="J-1", grade="20f-E"), {"level": "Roof"})
     before = recheck(_decked()).bending[0].utilisation
     d = store.raise_deficiency(site.id, bid, "bending_overstress", "immediate", "Roof RB-1", "x", "ref", "act")
-    store.issue_notice(site.id, "P-7-FR-1", b"%PDF-1.4 stand-in", [d.id], "R. Osei", "2026-01-01T00:00:00Z")
+    store.issue_notice(site.id, "P-7-FR-1", b"%PDF-1.4 stand-in", [d.id], "R. Osei", utc_stamp())
     assert main(["recheck", "--db", str(db), "--quiet"]) == 0
     capsys.readouterr()
     store.close()

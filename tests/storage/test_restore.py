@@ -13,6 +13,7 @@ import pytest
 
 from storage import Store, identity
 from storage.bundle import export_bundle, import_bundle
+from storage.stamps import utc_stamp
 from tests.core.beams import glulam
 from tests.storage.devices import backup as _backup
 from tests.storage.devices import restore as _restore
@@ -151,7 +152,7 @@ def test_restored_tablet_never_reuses_a_deficiency_or_notice_number(tmp_path, ke
     _backup(tablet, tmp_path / "backup.db")
     d1 = tablet.raise_deficiency(site.id, beam, "x", "immediate", "Grid B", "first", "r", "a")
     n1 = tablet.next_notice_number(tablet.site(site.id))
-    tablet.issue_notice(site.id, n1, b"%PDF-1 first", [d1.id], "A. Rev", "2026-12-01T10:00:00Z")
+    tablet.issue_notice(site.id, n1, b"%PDF-1 first", [d1.id], "A. Rev", utc_stamp())
     _sync(tablet, office, tmp_path / "1.zip", peer=office.device_id)
     tablet = _restore(tablet, tmp_path / "backup.db", keep_mark=keep_mark)
     _sync(office, tablet, tmp_path / "2.zip")  # it hears back from the office
@@ -168,7 +169,9 @@ def test_a_tablet_restored_with_its_mark_numbers_on_before_hearing_back(tmp_path
     beam = tablet.save_beam(site.id, glulam())
     _backup(tablet, tmp_path / "backup.db")
     d1 = tablet.raise_deficiency(site.id, beam, "x", "immediate", "Grid B", "first", "r", "a")
-    tablet.issue_notice(site.id, tablet.next_notice_number(site), b"%PDF-1 first", [d1.id], "A. Rev", "2026-12-01")
+    tablet.issue_notice(
+        site.id, tablet.next_notice_number(site), b"%PDF-1 first", [d1.id], "A. Rev", time.strftime("%Y-%m-%d")
+    )
     _sync(tablet, office, tmp_path / "1.zip", peer=office.device_id)  # the mark records what left
     tablet = _restore(tablet, tmp_path / "backup.db", keep_mark=True)
     d2 = tablet.raise_deficiency(site.id, beam, "y", "immediate", "Grid C", "second", "r", "a")
