@@ -7,8 +7,9 @@ from dataclasses import dataclass
 from core import tables
 from core.clauses.bending import section_modulus_s
 from core.clauses.factors import system_factor_kh
+from core.columns import column_words, value_words
 from core.kinds import TraceStatus
-from core.models import Beam, Material, Service, SystemCase, Treatment
+from core.models import SYSTEM_WORDS, Beam, Material, Service, SystemCase, Treatment
 from core.results import FactorTrace, RowUsed, trace_rows
 
 GLULAM_E05_RATIO = 0.87
@@ -48,6 +49,15 @@ def _grade_row(beam: Beam) -> tuple[dict[str, str], str]:
     return tables.find("sawn_grades", species=beam.species, grade=beam.grade), "sawn_grades"
 
 
+# the service factor tables' size rules and the treatment names, in words
+_SIZE_RULE_WORDS = {
+    "any": "any size",
+    "le_89": "smaller dimension 89 mm or less",
+    "gt_89": "smaller dimension over 89 mm",
+}
+_TREATMENT_WORDS = {"none": "untreated", "incised": "incised"}
+
+
 def service_factors(beam: Beam) -> tuple[dict[str, float], FactorTrace]:
     """KSb, KSv, KScp, KSE for the service condition (1.0 dry; wet per O86-19 Tables 6.10 / 7.2)."""
     if beam.service is Service.dry:
@@ -65,12 +75,12 @@ def service_factors(beam: Beam) -> tuple[dict[str, float], FactorTrace]:
         rule, table = ("le_89" if min(beam.b_mm, beam.d_mm) <= 89 else "gt_89"), "Table 6.10"
     row = tables.find("service_factors", material=beam.material.value, smaller_dim_rule=rule)
     values = {k: float(row[k]) for k in ("ksb", "ksv", "kscp", "kse")}
-    text = ", ".join(f"{k.upper()} {v:g}" for k, v in values.items())
+    text = ", ".join(f"{column_words(k)} {v:g}" for k, v in values.items())
     return values, FactorTrace(
         symbol="KS (wet)",
         value=values["ksb"],
         clause=f"CSA O86-19 {table}",
-        source=f"service_factors: {beam.material.value} {rule}: {text}",
+        source=f"row {beam.material.value}, wet service, {_SIZE_RULE_WORDS[rule]}: {text}",
         status=TraceStatus(row["status"]),
     )
 
@@ -92,8 +102,8 @@ def treatment_factors(beam: Beam) -> tuple[float, float, FactorTrace]:
             value=kt,
             clause="CSA O86-19 6.4.3 / Table 6.11",
             source=(
-                f"treatment_factors: {beam.material.value}, {beam.treatment.value}, {beam.service.value}; "
-                f"KT(E) {kt_e:g}"
+                f"row {beam.material.value}, {_TREATMENT_WORDS[beam.treatment.value]}, {beam.service.value} service: "
+                f"KT {kt:g}, KT(E) {kt_e:g}"
             ),
             status=TraceStatus(row["status"]),
         ),
@@ -118,7 +128,7 @@ def size_factor_kzb(b_mm: float, d_mm: float) -> tuple[float, FactorTrace]:
                 value=value,
                 clause="CSA O86-19 Table 6.13",
                 source=(
-                    f"kzb row larger dimension <= {row['larger_dim_max_mm']} mm, thickness "
+                    f"row larger dimension up to {row['larger_dim_max_mm']} mm, thickness "
                     f"{_KZB_COLUMN_WORDS[column]}: KZb {value:g}"
                 ),
                 status=TraceStatus(row["status"]),
@@ -156,6 +166,26 @@ def member_properties(beam: Beam) -> Member:
     return hit
 
 
+# the columns of a grade row that name it or say where it comes from (the rest are its values)
+_GRADE_NAMING = ("species", "grade", "balanced", "status", "confirmed_by")
+
+
+def _grade_words(row: dict[str, str]) -> str:
+    """A grade row as the standard prints it, for the trace and the notice's list of rows used.
+
+    'row D.Fir-L 24f-E, unbalanced layup: fb (positive moment) 30.6 MPa, fb (negative moment) 23.0 MPa, fv 2.0 MPa,
+    fcp 7.0 MPa, E 12800 MPa', then where a confirmed row was confirmed, or the firm's own record of the row.
+    """
+    layup = {"yes": ", balanced layup", "no": ", unbalanced layup"}.get(row.get("balanced", ""), "")
+    values = ", ".join(value_words(k, v) for k, v in row.items() if k not in _GRADE_NAMING and v != "")
+    words = f"row {row['species']} {row['grade']}{layup}: {values}"
+    provenance = row.get("confirmed_by", "")
+    if not provenance:
+        return words
+    # a firm's record (core.overrides.note) says itself what it is: "verified by ...", "fv corrected to ..."
+    return f"{words}; " + (f"confirmed by {provenance}" if row["status"] == "confirmed" else provenance)
+
+
 def _member_properties(beam: Beam) -> Member:
     row, table = _grade_row(beam)
     trace = [
@@ -163,7 +193,7 @@ def _member_properties(beam: Beam) -> Member:
             symbol="grade",
             value=f"{beam.species} {beam.grade}",
             clause="CSA O86-19 Table 7.3" if table == "glulam_grades" else "CSA O86-19 Table 6.4",
-            source=f"{table} row " + ", ".join(f"{k} {v}" for k, v in row.items() if k != "status" and v != ""),
+            source=_grade_words(row),
             status=TraceStatus(row["status"]),
         )
     ]
@@ -197,7 +227,7 @@ def _member_properties(beam: Beam) -> Member:
                 value=kh,
                 clause="CSA O86-19 Table 6.12",
                 source=(
-                    f"system case {beam.system.value}: KH {kh:g}"
+                    f"system recorded: {SYSTEM_WORDS[beam.system.value]}, KH {kh:g}"
                     if beam.system is not None
                     else f"system not recorded: taken as a single member (the unfavourable case), KH {kh:g}"
                 ),
@@ -214,7 +244,7 @@ def _member_properties(beam: Beam) -> Member:
             value=sw,
             unit="kN/m",
             source=(
-                f"densities row {beam.material.value} {beam.species}: {gamma:g} kN/m3 x b x d"
+                f"unit weight of {beam.material.value} {beam.species}: {gamma:g} kN/m3 x b x d (common practice)"
                 if beam.self_weight
                 else "switched off by the reviewer"
             ),

@@ -137,6 +137,15 @@ class SystemCase(StrEnum):
     built_up = "built_up"
 
 
+# the systems in words, for the trace, the sheet and the notice (CSA O86-19 Table 6.12's cases, from memory)
+SYSTEM_WORDS = {
+    "single": "single member",
+    "shared": "load-sharing system",
+    "light_frame": "light-frame system",
+    "built_up": "built-up member",
+}
+
+
 def _restraint(value: Any) -> Any:
     if value is True:
         return Restraint.yes

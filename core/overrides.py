@@ -14,6 +14,8 @@ from typing import Annotated, Literal
 
 from pydantic import AfterValidator, BaseModel, ConfigDict, Field, model_validator
 
+from core.columns import COLUMN_WORDS, column_words
+
 # the columns that name a row of each table (the rest are its values and provenance)
 KEYS: dict[str, tuple[str, ...]] = {
     "glulam_grades": ("species", "grade"),
@@ -102,9 +104,15 @@ def record_id(table: str, label: str) -> str:
 
 
 def note(record: TableRecord) -> str:
-    """Provenance text for a row the firm verified or corrected."""
-    what = "verified" if record.column is None else f"{record.column} corrected to {record.value} ({record.source})"
-    return f"{what} by {record.by} against CSA {record.edition} p. {record.page}, {record.at}"
+    """Provenance text for a row the firm verified or corrected ('fv corrected to 1.8 MPa (...), verified by ...')."""
+    unit = COLUMN_WORDS.get(record.column or "", ("", ""))[1]
+    unit = f" {unit}" if unit else ""
+    what = (
+        ""
+        if record.column is None
+        else f"{column_words(record.column)} corrected to {record.value}{unit} ({record.source}), "
+    )
+    return f"{what}verified by {record.by} against CSA {record.edition} p. {record.page}, {record.at}"
 
 
 _IN_USE: dict[tuple[str, str], TableRecord] = {}

@@ -7,7 +7,7 @@ the recheck took in its place (``core.findings``, ``core.clauses.bending``, ``co
 
 from __future__ import annotations
 
-from core.models import Beam, Bearing
+from core.models import SYSTEM_WORDS, Beam, Bearing
 from core.records import DesignBasis
 
 MATERIAL_WORDS = {"glulam": "glued-laminated timber (glulam)", "sawn": "sawn lumber"}
@@ -31,12 +31,6 @@ NEGATIVE_LU_WORDS = {
 DEAD_PATTERN_WORDS = {
     "per_part": "0.9D on the parts that relieve, 1.25D elsewhere, and the uniform cases",
     "uniform": "one dead-load factor on the whole beam (an option: flagged on the recheck)",
-}
-SYSTEM_WORDS = {
-    "single": "single member",
-    "shared": "load-sharing system",
-    "light_frame": "light-frame system",
-    "built_up": "built-up member",
 }
 RESTRAINT_WORDS = {"yes": "restrained", "no": "NOT restrained", "not_visible": "not visible (taken as missing)"}
 

@@ -359,10 +359,10 @@ def _slenderness_trace(
         "Le",
         le,
         "CSA O86-19 7.5.6.4.2 / Table 7.4",
-        f"effective_length row {row['le_case']} ({row['description']}): {factor:g} x Lu; {why}",
+        f"row {row['description']!r}: Le = {factor:g} Lu; {why}",
         row["status"],
         "mm",
-        row=f"effective_length row {row['le_case']} ({row['description']}): {factor:g} x Lu",  # why it was chosen
+        row=f"row {row['description']!r}: Le = {factor:g} Lu",  # the row alone, without why it was chosen
     )
     note(trace, "CB", cb, "CSA O86-19 7.5.6.4.3", "CB = sqrt(Le d / b^2)", "confirmed")
     note(trace, "CK", ck, "CSA O86-19 7.5.6.4.4", "CK = sqrt(0.97 E KSE KT / (Fb KX))", "confirmed")

@@ -420,7 +420,7 @@ def test_a_firm_correction_reaches_the_recheck_and_the_trace():
     assert after.shear.vr_kn / before.shear.vr_kn == pytest.approx(1.8 / 2.0, rel=1e-9)
     grade = next(t for t in after.bending[0].trace if t.symbol == "grade")
     assert grade.status.value == "verified"
-    assert "fv_mpa corrected to 1.8 (firm's copy) by A. Reviewer against CSA O86-19 p. 120" in grade.source
+    assert "fv corrected to 1.8 MPa (firm's copy), verified by A. Reviewer against CSA O86-19 p. 120" in grade.source
     other = next(t for t in verified.bending[0].trace if t.symbol == "grade")
     assert other.status.value == "verified"
     assert "verified by A. Reviewer" in other.source

@@ -70,10 +70,9 @@ def test_rows_are_what_a_notice_lists():
 def test_the_grade_row_carries_the_data_files_status():
     want = _csv_status("glulam_grades", species="D.Fir-L", grade="24f-E")
     rows = recheck_with_rows(glulam()).rows_used
-    grade = [r for r in rows if r[0] == "CSA O86-19 Table 7.3" and r[1].startswith("glulam_grades row ")]
+    grade = [r for r in rows if r[0] == "CSA O86-19 Table 7.3" and r[1].startswith("row ")]
     assert len(grade) == 1
-    assert "species D.Fir-L" in grade[0][1]
-    assert "grade 24f-E" in grade[0][1]
+    assert grade[0][1].startswith("row D.Fir-L 24f-E, ")
     assert grade[0][2] == TraceStatus(want)
 
 
@@ -88,10 +87,11 @@ def test_a_firm_corrected_row_is_used_as_corrected_and_verified():
     finally:
         tables.use_firm_records([])
     assert after.rows_used == rows_used(traced)
-    grade = [r for r in after.rows_used if r[1].startswith("glulam_grades row ")]
+    grade = [r for r in after.rows_used if r[0] == "CSA O86-19 Table 7.3" and r[1].startswith("row ")]
     assert len(grade) == 1
     assert grade[0][2] is TraceStatus.verified
-    assert "fv_mpa corrected to 1.8 (firm's copy) by A. Reviewer against CSA O86-19 p. 120" in grade[0][1]
+    assert "fv 1.8 MPa" in grade[0][1]  # the row's value as corrected
+    assert "fv corrected to 1.8 MPa (firm's copy), verified by A. Reviewer against CSA O86-19 p. 120" in grade[0][1]
     assert grade[0] not in before  # the row as printed had another source and status
     assert recheck_with_rows(glulam()).rows_used == before  # records cleared: the printed row again
 

@@ -146,7 +146,7 @@ def test_every_trace_entry_names_where_it_came_from(case):
     for t in _traces(r):
         assert t.source.strip(), t
         assert _capitals_ok(t.source), t.source
-        if re.match(r"^\w+ row |^(service_factors|treatment_factors|densities|kzb):", t.source):
+        if re.match(r"^row |^unit weight of ", t.source):
             # a value read from a table carries the table row's status, never "formula"
             assert t.status in (TraceStatus.verified, TraceStatus.confirmed, TraceStatus.memory), t
 
@@ -244,12 +244,12 @@ def test_effective_length_row_says_why_it_applies():
     simple = recheck(glulam(top_edge={"braced_by": "none"}))
     two = recheck(glulam(spans_mm=[6000, 6000], bearings=[R] * 3, top_edge={"braced_by": "none"}))
     (le_simple,) = [t.source for t in simple.bending[0].trace if t.symbol == "Le"]
-    assert le_simple.startswith("effective_length row simple_udl (")
+    assert le_simple.startswith("row 'Simple span; uniformly distributed load': Le = 1.92 Lu; ")
     assert le_simple.endswith("simple span, uniform load, no intermediate support")
     le_two = [t.source for b in two.bending for t in b.trace if t.symbol == "Le" and b.sign.value == "positive"]
     assert le_two
     for source in le_two:
-        assert source.startswith("effective_length row any (")
+        assert source.startswith("row 'Any loading (conservative catch-all)': Le = 1.92 Lu; ")
         assert source.endswith(
             "; region of a continuous beam: conservative catch-all (a row not yet confirmed is never chosen by default)"
         )

@@ -224,7 +224,10 @@ def test_one_wording_never_stands_for_two_statuses():
 def test_rows_name_their_material_and_grade():
     glu, lumber = recheck(glulam()), recheck(sawn())
     kt = {t.source for r in (glu, lumber) for t in _rows(r) if t.symbol == "KT"}
-    assert kt == {"treatment_factors: glulam, none, dry; KT(E) 1", "treatment_factors: sawn, none, dry; KT(E) 1"}
+    assert kt == {
+        "row glulam, untreated, dry service: KT 1, KT(E) 1",
+        "row sawn, untreated, dry service: KT 1, KT(E) 1",
+    }
     stamp = {t.source for t in _rows(glu) if t.symbol.endswith(" moment)")}
     assert stamp == {"D.Fir-L 24f-E, installed with its TOP stamp up"}  # what was seen, not an instruction
     # sawn fb comes from the grade row itself (O86-19 Table 6.4 gives fb, fv, fcp and E in one row): the notice

@@ -18,10 +18,11 @@ from core.records import MemoryAcknowledgement
 from mobile.cli import main
 from mobile.issue import MemoryRowsNotAcknowledged, acknowledge, issue_notice_for_site, rows_for_items
 from storage import Store
+from storage.stamps import local_time
 from tests.core.beams import glulam
 
-DFIR_ROW = "glulam_grades row species D.Fir-L, grade 24f-E"  # memory per reference o86.md section 12
-SPRUCE_ROW = "glulam_grades row species Spruce-Pine, grade 20f-EX"  # confirmed by C, reference section 12
+DFIR_ROW = "row D.Fir-L 24f-E, unbalanced layup"  # memory per reference o86.md section 12
+SPRUCE_ROW = "row Spruce-Pine 20f-EX, balanced layup"  # confirmed by C, reference section 12
 
 
 def _site(tmp_path, **beam):
@@ -84,9 +85,10 @@ def test_acknowledged_notice_records_who_and_when(tmp_path):
     assert any(DFIR_ROW in r for r in again.memory_acknowledgement.rows)
     text = _text(path.read_bytes())
     assert "Table rows the rechecks used" in text
-    assert f"acknowledged by R. Ames at {again.memory_acknowledgement.at}" in text
+    # shown in this device's local time with its zone, as the photos' times are; stored in UTC
+    assert f"acknowledged by R. Ames at {local_time(again.memory_acknowledgement.at)}" in text
     assert "MEMORY: entered from memory" in text
-    assert "D.Fir-L, grade 24f-E" in text
+    assert "D.Fir-L 24f-E" in text
 
 
 def test_a_row_the_firm_verified_is_no_longer_memory(tmp_path):
@@ -96,11 +98,11 @@ def test_a_row_the_firm_verified_is_no_longer_memory(tmp_path):
     firm_tables.record(store, "glulam_grades", "D.Fir-L/24f-E", "K. Osei", "O86-19", 54)
     try:
         rows = rows_for_items(store, site_id)
-        dfir = [r for r in rows if "species D.Fir-L, grade 24f-E" in r.source]
+        dfir = [r for r in rows if r.source.startswith("row D.Fir-L 24f-E,")]
         assert len(dfir) == 1
         assert dfir[0].status == "verified"
         assert dfir[0].status_words == "verified by the firm"
-        assert not any("D.Fir-L, grade 24f-E" in m for m in acknowledge(store, rows, "K. Osei").rows)
+        assert not any("row D.Fir-L 24f-E," in m for m in acknowledge(store, rows, "K. Osei").rows)
     finally:
         firm_tables.tables.use_firm_records([])  # later tests read the published rows
 
@@ -113,7 +115,7 @@ def test_cli_refuses_listing_the_rows_then_issues_with_the_flag(tmp_path, capsys
     err = capsys.readouterr().err
     assert code == 2
     assert "--acknowledge-memory-rows" in err
-    assert "D.Fir-L, grade 24f-E" in err
+    assert "D.Fir-L 24f-E" in err
     assert not (tmp_path / "n.pdf").exists()
     code = main(
         ["report", "--db", db, "--site", "Larch Yard", "--out", out, "--by", "R. Ames", "--acknowledge-memory-rows"]

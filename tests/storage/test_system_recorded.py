@@ -56,7 +56,7 @@ def test_a_recorded_system_is_printed_as_recorded(store, system, words):
     assert beam.system is SystemCase(system)
     assert _system_row(beam) == words
     got = results.fresh(store.db, site.id)[beam_id]
-    assert any(f"system case {system}: KH" in r["source"] for r in got.rows_used)
+    assert any(f"system recorded: {words}, KH" in r["source"] for r in got.rows_used)
     assert not any("not recorded" in r["source"] for r in got.rows_used)
 
 
