@@ -243,7 +243,7 @@ def acknowledged(notice: Notice, acknowledgement: MemoryAcknowledgement | None) 
     if missing:
         raise MemoryRowsNotAcknowledged(missing)
     return dataclasses.replace(
-        notice, memory_acknowledgement=f"acknowledged by {acknowledgement.by} at {acknowledgement.at}"
+        notice, memory_acknowledgement=f"acknowledged by {acknowledgement.by} at {local_time(acknowledgement.at)}"
     )
 
 

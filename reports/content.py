@@ -123,6 +123,33 @@ def same_member_words(item: Item, group: list[Item], label: Callable[[str], str]
     return f"{listed}. Each item is closed on its own: closing this one does not close another."
 
 
+BLANK = "_" * 46  # a line to write on, in the response box
+
+
+def response_lines(priority: str) -> list[str]:
+    """The item's response box, line by line: what the contractor writes back, by hand, before the re-review.
+
+    An IMMEDIATE item first asks how the area was made safe, by whom and when, and when the reviewer was told
+    (common practice: a make-safe directive is confirmed back to the person who gave it, the same day); every
+    item then asks for the action taken, on lines enough to say it, with the date and a name.
+    """
+    lines = []
+    if priority == "immediate":
+        lines += [
+            f"Made safe (shored, propped or unloaded): {BLANK[:30]}",
+            f"by (name): {BLANK[:24]}  on (date and time): {BLANK[:16]}",
+            f"Reviewer told (date and time, by whom): {BLANK[:31]}",
+        ]
+    if priority == "observation":
+        return lines
+    lines += [
+        f"Action taken: {BLANK}",
+        f"{BLANK}{BLANK[:14]}",
+        f"Date: {BLANK[:14]}  Name: {BLANK[:30]}",
+    ]
+    return lines
+
+
 def due_words(priority: str, due: str) -> str:
     """What the item is due by: the date or milestone the reviewer set, else the milestone of its priority."""
     return due.strip() or MILESTONES.get(priority, "before the next review")

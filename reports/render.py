@@ -41,6 +41,7 @@ from reports.content import (
     member_sketch,
     one_line,
     ordered,
+    response_lines,
     same_member_words,
     trace_value,
     typeset,
@@ -571,16 +572,9 @@ def _item_rows(item: Item, st: dict[str, ParagraphStyle], group: list[Item] | No
     grid_rows = _rows(rows, st)
     grid_rows.append([Paragraph("Priority", st["bold"]), Paragraph(esc(priority_label(item.priority)), st["bold"])])
     grid_rows.append([Paragraph("Due", st["bold"]), Paragraph(esc(due_words(item.priority, item.due)), p)])
-    grid_rows.append(
-        [
-            Paragraph("Response", st["bold"]),
-            Paragraph(
-                "Action taken: ______________________________________________<br/><br/>"
-                "Date: ______________  Name: ______________________________",
-                p,
-            ),
-        ]
-    )
+    response = response_lines(item.priority)
+    if response:
+        grid_rows.append([Paragraph("Response", st["bold"]), Paragraph("<br/><br/>".join(map(esc, response)), p)])
     return grid_rows
 
 

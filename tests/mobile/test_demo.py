@@ -8,6 +8,7 @@ from pathlib import Path
 from core import recheck
 from mobile.demo.run import load_demo
 from storage import Store
+from storage.stamps import local_time
 from storage.store import DEMO_FIRM_KEY
 
 ROOT = Path(__file__).resolve().parents[2]
@@ -67,8 +68,9 @@ def test_demo_command_writes_db_pdf_bundle(tmp_path):
     from pypdf import PdfReader
 
     text = " ".join(" ".join(p.extract_text() for p in PdfReader(out / "notice.pdf").pages).split())
-    (at,) = re.findall(r"Memory rows acknowledged by .*? at (\d{4}-\d\d-\d\dT[\d:]+Z)", text)
-    assert at.startswith("2026-11-30T"), at
+    # in this device's local time with its zone, as the photos' times are (storage.stamps.local_time)
+    (at,) = re.findall(r"Memory rows acknowledged by .*? at (\d{4}-\d\d-\d\d \d\d:\d\d \S+)\.", text)
+    assert at == local_time("2026-11-30T17:45:00Z"), at
 
 
 def test_sync_cli_round_trip_same_digest(tmp_path):

@@ -55,3 +55,38 @@ def test_the_engineer_of_record_the_items_refer_to_is_named_or_said_to_be_unreco
     assert "Engineer of record Jun Tarrow, P.Eng., Kestrel Bay Structural" in named
     unnamed = _flat(render_notice(_notice([item])))
     assert "Engineer of record not recorded: the owner names who it is" in unnamed
+
+
+def _response(text, number):
+    """The text of item ``number``'s response box, from 'Response' to the next item or section."""
+    start = text.index(f"Item {number}")
+    box = text.index("Response", start)
+    ends = [i for i in (text.find("Item D-", box), text.find("Table rows", box)) if i > 0]
+    return text[box : min(ends) if ends else len(text)]
+
+
+def test_an_immediate_item_asks_who_made_it_safe_when_and_when_the_reviewer_was_told():
+    """Common practice: a make-safe directive is confirmed back to whoever gave it, with who did it and when."""
+    urgent, _ = _item(n=8)
+    later = dataclasses.replace(urgent, number="D-AB12-009", priority="before_loading", member="b9")
+    text = _flat(render_notice(_notice([urgent, later])))
+    box = _response(text, "D-AB12-008")
+    assert "Made safe (shored, propped or unloaded): ____" in box
+    assert "by (name): ____" in box
+    assert "on (date and time): ____" in box
+    assert "Reviewer told (date and time, by whom): ____" in box
+    assert "Action taken: ____" in box
+    later_box = _response(text, "D-AB12-009")
+    assert "Action taken: ____" in later_box
+    assert "Made safe" not in later_box  # nothing to shore on an item due before loading
+
+
+def test_the_action_taken_has_room_to_be_written_in():
+    """One line for "action taken" held a word or two in handwriting; the box gives two lines, then date and name."""
+    item, _ = _item(n=5)
+    box = _response(_flat(render_notice(_notice([dataclasses.replace(item, priority="before_loading")]))), item.number)
+    after = box.split("Action taken:", 1)[1]
+    lines = [part for part in after.split("Date:")[0].split() if set(part) == {"_"}]
+    assert len(lines) == 2
+    assert all(len(line) >= 40 for line in lines)
+    assert "Name: ____" in after
