@@ -13,6 +13,7 @@ from core.records import Deficiency, IssuedNotice, MemoryAcknowledgement, Stage,
 from core.results import Recheck
 from reports import stamp
 from reports.content import Carried, Mark, Notice, Photo, header_from, item_for
+from reports.inputs import record_loads_source
 from reports.render import render_notice
 from reports.tablerows import RowUsed, memory_rows, rows_used
 from storage import Store, results
@@ -145,7 +146,7 @@ def build_notice(
     for d in open_items:
         beam = result = None
         observed = d.description
-        title = grid = logged = ""
+        title = grid = logged = loads_from = ""
         if d.beam_id:
             record = store.beam_record(d.beam_id)
             beam = store.beam(d.beam_id)
@@ -155,6 +156,7 @@ def build_notice(
             title = member_title(record)
             grid = str(record.get("gridline") or "")
             logged = logged_words(record, visits)
+            loads_from = record_loads_source(record, site)
             logged_on.add(str(record.get("visit_id") or ""))
         photos = photos_by_def.get(d.id, [])
         member_photos = photos_by_beam.get(d.beam_id, []) if d.beam_id else []
@@ -170,6 +172,7 @@ def build_notice(
                 status=_status_words(d.stage, d.cycle),
                 gridline=grid,
                 logged=logged,
+                loads_from=loads_from,
             )
         )
         if d.id in earlier:

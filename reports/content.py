@@ -20,6 +20,7 @@ from core.results import (
     check_lines,
     utilisation_text,
 )
+from reports.inputs import loads_checked_words
 from reports.tablerows import RowUsed
 
 CAUTIONS = (
@@ -202,6 +203,7 @@ class Item:
     member_photos: list[bytes | Photo] = field(default_factory=list)  # photos of the beam (shown once)
     after: str = ""  # a restraint item: the member rechecked with it corrected (core.remedies.once_corrected)
     logged: str = ""  # when the member was logged: "on the visit of 2026-11-24 08:30" ("" when not recorded)
+    loads: str = ""  # the loads and bearing lengths it was rechecked with (reports.inputs.loads_checked_words)
 
 
 @dataclass(frozen=True)
@@ -513,8 +515,12 @@ def item_for(
     status: str = "open",
     gridline: str = "",
     logged: str = "",
+    loads_from: str = "",
 ) -> Item:
-    """Build a notice item from a deficiency and (when it concerns a beam) its recheck."""
+    """Build a notice item from a deficiency and (when it concerns a beam) its recheck.
+
+    ``loads_from``: where the beam's line loads came from (``reports.inputs.record_loads_source``).
+    """
     sketch = None
     location = deficiency.location
     if beam is not None:
@@ -536,6 +542,7 @@ def item_for(
         member_photos=member_photos or [],
         after=corrected.message if corrected is not None else "",
         logged=logged,
+        loads=loads_checked_words(beam, loads_from) if beam is not None else "",
         number=deficiency.number,
         location=location,
         observed=observed,

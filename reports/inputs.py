@@ -7,8 +7,11 @@ the recheck took in its place (``core.findings``, ``core.clauses.bending``, ``co
 
 from __future__ import annotations
 
+from collections.abc import Mapping
+from typing import Any
+
 from core.models import SYSTEM_WORDS, Beam, Bearing
-from core.records import DesignBasis
+from core.records import DesignBasis, Site
 
 MATERIAL_WORDS = {"glulam": "glued-laminated timber (glulam)", "sawn": "sawn lumber"}
 SERVICE_WORDS = {"dry": "dry", "wet": "wet (KS for wet service)"}
@@ -149,6 +152,36 @@ def loads_source(tributary_m: float | None, basis_name: str, basis: DesignBasis)
         f"line loads derived from {where}: dead {basis.dead_kpa:g}, live {basis.live_kpa:g}, "
         f"snow {basis.snow_kpa:g} kPa x tributary width {float(tributary_m):g} m"
     )
+
+
+def record_loads_source(record: Mapping[str, Any], site: Site) -> str:
+    """Where a stored beam's line loads came from (``loads_source``), read from its record and its site.
+
+    The record names its basis by ``load_basis`` (a name on the site; none: the site's main basis) and keeps its
+    ``tributary_m`` when the tablet derived the line loads from that basis.
+    """
+    width = record.get("tributary_m")
+    name = str(record.get("load_basis") or "")
+    basis = site.load_bases.get(name, site.design_basis) if name else site.design_basis
+    return loads_source(None if width is None else float(width), name, basis)
+
+
+def loads_checked_words(beam: Beam, source: str = "") -> str:
+    """The specified loads and bearing lengths a member was rechecked with, and where its loads came from.
+
+    'dead 2.88, live 0, snow 4.68 kN/m specified, self-weight added (line loads derived from ...); bearing
+    lengths 140 mm and 140 mm'. On a notice, so the engineer of record can see the inputs behind each number.
+    """
+    loads = beam.loads
+    words = (
+        f"dead {loads.dead_kn_m:g}, live {loads.live_kn_m:g}, snow {loads.snow_kn_m:g} kN/m specified, "
+        + ("self-weight added" if beam.self_weight else "self-weight not added")
+        + (f" ({source})" if source else "")
+    )
+    lengths = [_mm(b.length_mm) for b in beam.bearings]
+    if len(lengths) == 1:
+        return f"{words}; bearing length {lengths[0]}"
+    return f"{words}; bearing lengths {', '.join(lengths[:-1])} and {lengths[-1]}"
 
 
 def sheet_stem(mark: str) -> str:

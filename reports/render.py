@@ -587,6 +587,7 @@ def _member_block(group: list[Item], st: dict[str, ParagraphStyle], refs: PageRe
         numbers = ", ".join(i.number for i in group)
         head.append(Paragraph(f"Member {esc(first.member_title or first.location)}: {esc(numbers)}", st["h2"]))
         about = [("As built", first.observed)] + ([("Logged", first.logged)] if first.logged else [])
+        about += [("Loads checked", first.loads)] if first.loads else []
         head.append(_grid(_rows(about, st), [30 * mm, 144 * mm]))
         if first.sketch is not None:
             head.append(beam_sketch(first.sketch, width_pt=WIDTH, height_pt=44 * mm))

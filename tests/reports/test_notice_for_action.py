@@ -90,3 +90,34 @@ def test_the_action_taken_has_room_to_be_written_in():
     assert len(lines) == 2
     assert all(len(line) >= 40 for line in lines)
     assert "Name: ____" in after
+
+
+def test_each_member_names_the_loads_and_bearing_lengths_it_was_rechecked_with(tmp_path):
+    """A member names the loads and bearing lengths behind its numbers, and where the loads came from.
+
+    Common practice: a field review states the loads it checked against, so the engineer of record can check
+    a recheck's inputs before its numbers; line loads from a design basis are kPa x tributary width = kN/m.
+    """
+    from core.records import DesignBasis
+    from mobile.issue import acknowledge, issue_notice_for_site, rows_for_items
+    from storage import Store
+    from tests.core.beams import glulam
+
+    store = Store(tmp_path / "m.db")
+    roof = DesignBasis(dead_kpa=1.2, live_kpa=0.0, snow_kpa=1.95)
+    site = store.create_site(name="Larch Yard", design_basis=roof, load_bases={"canopy": DesignBasis(dead_kpa=0.8)})
+    width = 2.4
+    loads = {"dead_kn_m": 1.2 * width, "live_kn_m": 0.0, "snow_kn_m": 1.95 * width}  # kPa x m = kN/m
+    derived = store.save_beam(site.id, glulam(mark="RB-1", loads=loads), {"level": "Roof", "tributary_m": width})
+    typed = store.save_beam(site.id, glulam(mark="CB-1", d_mm=304), {"level": "Canopy", "load_basis": "canopy"})
+    for bid, where in ((derived, "Roof, RB-1"), (typed, "Canopy, CB-1")):
+        store.raise_deficiency(site.id, bid, "undersize", "before_loading", where, "Undersize", "S-1", "Replace")
+    ack = acknowledge(store, rows_for_items(store, site.id), "R. Ames")
+    _, path = issue_notice_for_site(store, site.id, tmp_path / "n.pdf", "R. Ames", acknowledgement=ack)
+    text = _flat(path.read_bytes())
+    assert (
+        "Loads checked dead 2.88, live 0, snow 4.68 kN/m specified, self-weight added (line loads derived from the "
+        "site's design basis: dead 1.2, live 0, snow 1.95 kPa x tributary width 2.4 m); bearing lengths 140 mm and "
+        "140 mm" in text
+    )
+    assert "(line loads as typed on the tablet (no tributary width recorded)); bearing lengths" in text
