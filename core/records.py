@@ -27,6 +27,14 @@ class DesignBasis(Record):
     use: Use = Use.roof_no_ceiling
     drawings: str = ""
 
+    def line_loads_kn_m(self, tributary_m: float) -> dict[str, float]:
+        """Specified line loads, kN/m = these area loads, kPa x a tributary width, m (common practice), to 0.001."""
+        return {
+            "dead_kn_m": round(self.dead_kpa * tributary_m, 3),
+            "live_kn_m": round(self.live_kpa * tributary_m, 3),
+            "snow_kn_m": round(self.snow_kpa * tributary_m, 3),
+        }
+
 
 class Site(Record):
     """A project site under review."""

@@ -556,41 +556,23 @@ def enrolment_qr_data_uri(code: str) -> str:
 
 
 # -- the recheck, re-run on the hub from the records --------------------------------------------------
-def _basis(beam: dict[str, Any], site_data: dict[str, Any]) -> tuple[str, Any]:
-    """The design basis a beam's loads come from: its named basis on the site, else the site's main one."""
-    from core.records import DesignBasis
-
-    name = beam.get("load_basis") or ""
-    bases = site_data.get("load_bases") or {}
-    if name and name in bases:
-        return name, DesignBasis.model_validate(bases[name])
-    return "site", DesignBasis.model_validate(site_data.get("design_basis") or {})
-
-
 def recheck_input(beam: dict[str, Any], site_data: dict[str, Any]) -> tuple[dict[str, Any], str]:
     """The contract-1 input re-built from the beam record and the site's design basis, and where its loads came from.
 
     With a tributary width on record the specified line loads are derived again from the site's design basis
     as it stands (kN/m = kPa x m, common practice), so a corrected basis is rechecked; loads typed directly
-    on the tablet are used as recorded.
+    on the tablet are used as recorded. The tablet derives them the same way (``storage.results.derived_loads``).
     """
-    from core.records import DesignBasis
     from reports.inputs import loads_source
-    from storage.results import beam_input
+    from storage.results import basis_of, beam_input, site_bases
 
-    data = beam_input(beam)
+    bases = site_bases(site_data)
+    data = beam_input(beam, site_data)
     width = beam.get("tributary_m")
     if width is None:
-        return data, loads_source(None, "", DesignBasis())
-    name, basis = _basis(beam, site_data)
-    loads = dict(data.get("loads") or {})
-    loads.update(
-        dead_kn_m=round(basis.dead_kpa * float(width), 3),
-        live_kn_m=round(basis.live_kpa * float(width), 3),
-        snow_kn_m=round(basis.snow_kpa * float(width), 3),
-    )
-    data["loads"] = loads
-    return data, loads_source(float(width), "" if name == "site" else name, basis)
+        return data, loads_source(None, "", bases[0])
+    name, basis = basis_of(beam, bases)
+    return data, loads_source(float(width), name, basis)
 
 
 def _trace_lines(trace: Any) -> list[str]:

@@ -162,7 +162,9 @@ def record_loads_source(record: Mapping[str, Any], site: Site) -> str:
     """
     width = record.get("tributary_m")
     name = str(record.get("load_basis") or "")
-    basis = site.load_bases.get(name, site.design_basis) if name else site.design_basis
+    if name not in site.load_bases:  # a basis no longer on the site: its main one, as the recheck takes it
+        name = ""
+    basis = site.load_bases[name] if name else site.design_basis
     return loads_source(None if width is None else float(width), name, basis)
 
 

@@ -15,7 +15,7 @@ import hashlib
 import json
 import sys
 from collections import deque
-from collections.abc import Callable, Iterable, Iterator
+from collections.abc import Callable, Iterable, Iterator, Mapping
 from contextlib import contextmanager
 from dataclasses import dataclass, field
 from functools import lru_cache
@@ -23,6 +23,7 @@ from json.encoder import encode_basestring_ascii as _ascii
 from typing import Any
 
 from core import tables
+from core.records import DesignBasis
 from storage.db import transaction
 from storage.gcpause import gc_paused
 
@@ -77,12 +78,58 @@ def recorded_system(data: dict[str, Any]) -> Any:
     return None
 
 
-def beam_input(data: dict[str, Any]) -> dict[str, Any]:
-    """A stored record's contract-1 fields as core's ``Beam`` reads them (the system as recorded)."""
+def beam_input(data: dict[str, Any], site: Mapping[str, Any] | None = None) -> dict[str, Any]:
+    """A stored record's contract-1 fields as core's ``Beam`` reads them (the system as recorded).
+
+    ``site`` (the site's record, or its ``design_basis`` and ``load_bases``): a beam whose record keeps a
+    tributary width has its line loads derived again from the site's basis as it stands (``derived_loads``).
+    """
     fields = set(beam_fields())
     out = {k: v for k, v in data.items() if k in fields}
     out["system"] = recorded_system(data)
-    return out
+    return out if site is None else derived_loads(out, data, site_bases(site))
+
+
+Bases = tuple[DesignBasis, dict[str, DesignBasis]]  # a site's main design basis and its named ones
+
+
+def site_bases(site: Mapping[str, Any]) -> Bases:
+    """A site record's design bases: its main one and its named ones (``Site.design_basis``, ``load_bases``)."""
+    named = site.get("load_bases") or {}
+    return DesignBasis.model_validate(site.get("design_basis") or {}), {
+        name: DesignBasis.model_validate(b) for name, b in named.items()
+    }
+
+
+@lru_cache(maxsize=256)
+def _bases_of(text: str) -> Bases | None:
+    """``site_bases`` of a site's bases as ``_site_bases`` writes them (JSON [design_basis, load_bases]); '' None."""
+    if not text:
+        return None
+    main, named = json.loads(text)
+    return site_bases({"design_basis": main, "load_bases": named})
+
+
+def basis_of(record: Mapping[str, Any], bases: Bases) -> tuple[str, DesignBasis]:
+    """The basis a beam's loads come from: its named one (``load_bases``), else the site's main one ('')."""
+    name = str(record.get("load_basis") or "")
+    main, named = bases
+    return (name, named[name]) if name in named else ("", main)
+
+
+def derived_loads(fields: dict[str, Any], record: Mapping[str, Any], bases: Bases) -> dict[str, Any]:
+    """``fields`` with the line loads derived from the site's basis as it stands, where ``record`` keeps a width.
+
+    The tablet derives a beam's line loads (kPa x tributary width = kN/m, common practice) when its width or
+    basis is entered; a site's basis corrected later (a higher snow load) must reach every such beam on every
+    device, the office's too: so the recheck derives them again from the synced site and record, never from
+    the copy of the loads the record kept. Loads typed directly (no width recorded) are used as recorded.
+    """
+    width = record.get("tributary_m")
+    if width is None:
+        return fields
+    _, basis = basis_of(record, bases)
+    return dict(fields, loads=dict(fields.get("loads") or {}, **basis.line_loads_kn_m(float(width))))
 
 
 def stored_system(system: Any) -> dict[str, Any]:
@@ -102,7 +149,7 @@ def _stored_beam() -> type[Any]:
     The same fields, validators and instances' values as ``Beam.model_validate`` of the record's beam
     fields (a subclass changes only ``extra``), without decoding the text into a dict first.
     """
-    from pydantic import ConfigDict, model_validator
+    from pydantic import ConfigDict, ValidationInfo, model_validator
 
     from core.models import Beam
 
@@ -111,8 +158,13 @@ def _stored_beam() -> type[Any]:
 
         @model_validator(mode="before")
         @classmethod
-        def _system_as_recorded(cls, data: Any) -> Any:
-            return dict(data, system=recorded_system(data)) if isinstance(data, dict) else data
+        def _as_recorded(cls, data: Any, info: ValidationInfo) -> Any:
+            """The system as recorded; with the site's bases in the context, the line loads derived from them."""
+            if not isinstance(data, dict):
+                return data
+            out = dict(data, system=recorded_system(data))
+            bases = info.context.get("bases") if info.context else None
+            return out if bases is None else derived_loads(out, data, bases)
 
     return StoredBeam
 
@@ -140,17 +192,19 @@ def _memo_idle() -> bool:
     return lookups >= MEMO_PROBE and hits < MEMO_MIN_HIT_SHARE * lookups
 
 
-def _summary(record_text: str) -> Summ:
+def _summary(record_text: str, bases: str = "") -> Summ:
     """Recheck one stored beam record: (status, governing check, utilisation, findings, table rows used).
 
     Findings as (code, priority, region), table rows as (clause, source, status); an incomplete record
     gives ``UNCHECKED_SUMMARY``. Memoised per process (``_memo_key``, at most ``MEMO_MAX`` designs):
     beams that differ only in their mark and the record's keys outside contract 1 (location, notes)
     share one recheck, as the repeated members of a building do; a run whose first lookups find almost
-    nothing stops consulting it (``_memo_idle``).
+    nothing stops consulting it (``_memo_idle``). ``bases``: the site's bases as ``_site_bases`` writes them, from
+    which a beam that keeps a tributary width takes its line loads (``derived_loads``).
     """
+    site = _bases_of(bases)
     try:
-        beam = _stored_beam().model_validate_json(record_text)
+        beam = _stored_beam().model_validate_json(record_text, context=None if site is None else {"bases": site})
     except ValueError:  # a ValidationError: the record is incomplete or refused
         return UNCHECKED_SUMMARY
     if MEMO_MAX <= 0 or _memo_idle():
@@ -393,7 +447,8 @@ def _text(value: Any) -> str:
     return "" if value is None else str(value)
 
 
-Job = tuple[str, str, str, str, str]  # beam id, site id, input hash, record text, its list fields' JSON
+# beam id, site id, input hash, record text, its list fields' JSON, its site's bases (``_site_bases``)
+Job = tuple[str, str, str, str, str, str]
 # the fields a result keeps besides the recheck's, as one JSON array read by SQLite from the record
 # (json_extract with several paths): [mark, level, gridline, archived], null where absent
 _LIST_FIELDS_SQL = "json_extract(b.data, '$.mark', '$.level', '$.gridline', '$.archived')"
@@ -406,7 +461,7 @@ def _evaluate(job: Job) -> tuple[list[str], bool, tuple[str, str, float | None, 
     (SQLite copies each value's text), read without decoding the whole record.
     """
     mark, level, gridline, archived = json.loads(job[4])
-    summary = UNCHECKED_SUMMARY if archived else _summary(job[3])
+    summary = UNCHECKED_SUMMARY if archived else _summary(job[3], job[5])
     return [_text(mark), _text(level), _text(gridline)], bool(archived), summary
 
 
@@ -459,7 +514,7 @@ def jobs(db: Any, site_id: str | None = None, only_stale: bool = True) -> Iterat
     for bid, sid, text, listed in db.execute(sql, [site_id] if site_id else []).fetchall():
         if sid not in bases:
             bases[sid] = _site_bases(db, sid)
-        yield bid, sid or "", input_hash(text, bases[sid], stamp), text, listed
+        yield bid, sid or "", input_hash(text, bases[sid], stamp), text, listed, bases[sid]
 
 
 def _every_beam_sql(site_id: str | None, after: bool = False, paged: bool = False) -> str:
@@ -744,7 +799,7 @@ def _rows_of(part: Part) -> list[tuple[Any, ...]]:
     stamp, bases, raw = part
     with gc_paused():
         return [
-            row_of((bid, sid or "", input_hash(text, bases[sid], stamp), text, listed))
+            row_of((bid, sid or "", input_hash(text, bases[sid], stamp), text, listed, bases[sid]))
             for bid, sid, text, listed in raw
         ]
 

@@ -506,9 +506,13 @@ class Store:
         return data
 
     def beam(self, beam_id: str) -> Beam:
-        """A logged beam as the core model (raises ValueError if its stored fields are incomplete)."""
+        """A logged beam as the core model (raises ValueError if its stored fields are incomplete).
+
+        Line loads derived from a tributary width follow the site's design basis as it stands (``derived_loads``).
+        """
         data = self.beam_record(beam_id)
-        return Beam.model_validate(beam_input(data))
+        site = self._get("site", str(data.get("site_id") or "")) if data.get("site_id") else None
+        return Beam.model_validate(beam_input(data, site))
 
     def beams(self, site_id: str) -> list[tuple[str, dict[str, Any]]]:
         """A site's beams (id, record) ordered by level, gridline and mark; archived ones left out."""

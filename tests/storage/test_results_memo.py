@@ -140,7 +140,7 @@ def sites(draw):
 @given(texts=sites())
 def test_rows_with_the_memo_equal_rows_without(texts):
     """Varied beams (tests.core.test_properties.beams), repeated under other marks: memo on and off agree."""
-    jobs = [(f"b{n}", "s", "h", t, json.dumps([f"M-{n}", None, None, None])) for n, t in enumerate(texts)]
+    jobs = [(f"b{n}", "s", "h", t, json.dumps([f"M-{n}", None, None, None]), "") for n, t in enumerate(texts)]
     saved = results.MEMO_MAX, dict(results._MEMO)
     try:
         results.MEMO_MAX = 0
