@@ -18,7 +18,15 @@ from argon2 import PasswordHasher
 from argon2.exceptions import InvalidHashError, VerificationError
 
 from core.results import PRIORITY_ORDER
-from office.hubstore import CODE_LIFETIME_MS, HubStore
+from office.hubstore import (
+    CODE_LIFETIME_MS,
+    CODE_MADE,
+    CODE_WITHDRAWN,
+    HubStore,
+    code_id_of,
+    code_subject,
+    withdrawn_detail,
+)
 from reports.words import STAGE_WORDS, stage_label
 from storage.db import PROJECTIONS
 
@@ -432,7 +440,6 @@ def notice_pdf(hub: HubStore, notice_id: str) -> tuple[str, bytes] | None:
 
 
 # -- enrolment codes for a tablet to scan ----------------------------------------------------------
-CODE_MADE, CODE_WITHDRAWN = "code made by", "code withdrawn"  # hub_audit events, subject 'code <id>'
 CODE_ID_RE = re.compile(r"^[0-9a-f]{16}$")
 
 
@@ -449,18 +456,13 @@ class OutstandingCode:
     expires_ms: int
 
 
-def _code_subject(code_id: str) -> str:
-    return f"code {code_id}"
-
-
 def make_code(hub: HubStore, name: str, person: str, role: str, by: str) -> str:
     """A new one-time enrolment code (``HubStore.new_code``), with the office user who made it in the audit log."""
     code = hub.new_code(name, person, role)
-    code_id = hashlib.sha256(code.strip().upper().encode()).hexdigest()[:16]
     with hub.tx():
         hub.db.execute(
             "INSERT INTO hub_audit (at_ms, device_id, event, detail) VALUES (?, ?, ?, ?)",
-            [hub.clock_ms(), _code_subject(code_id), CODE_MADE, by],
+            [hub.clock_ms(), code_subject(code_id_of(code)), CODE_MADE, by],
         )
     return code
 
@@ -485,7 +487,7 @@ def outstanding_codes(hub: HubStore) -> list[OutstandingCode]:
             name=str(name),
             person=str(person),
             role=str(role),
-            made_by=made_by.get(_code_subject(str(sha)[:16]), ""),
+            made_by=made_by.get(code_subject(str(sha)[:16]), ""),
             created_ms=int(created),
             expires_ms=int(created) + CODE_LIFETIME_MS,
         )
@@ -514,10 +516,10 @@ def withdraw_code(hub: HubStore, code_id: str, by: str) -> OutstandingCode:
         if gone != 1:  # used (or withdrawn) since it was listed: nothing withdrawn
             msg = f"no outstanding enrolment code {code_id}"
             raise KeyError(msg)
-        detail = f"enrolment code for {found.name} ({found.person}, {found.role}) withdrawn by office user {by}"
+        detail = withdrawn_detail(found.name, found.person, found.role, by)
         hub.db.execute(
             "INSERT INTO hub_audit (at_ms, device_id, event, detail) VALUES (?, ?, ?, ?)",
-            [hub.clock_ms(), _code_subject(code_id), CODE_WITHDRAWN, detail],
+            [hub.clock_ms(), code_subject(code_id), CODE_WITHDRAWN, detail],
         )
     return found
 
@@ -526,15 +528,14 @@ def code_audit(hub: HubStore, code_id: str) -> list[tuple[str, str]]:
     """A code's audit entries (event, detail), oldest first: who made it and who withdrew it."""
     with hub.lock:
         rows = hub.db.execute(
-            "SELECT event, detail FROM hub_audit WHERE device_id=? ORDER BY id", [_code_subject(code_id)]
+            "SELECT event, detail FROM hub_audit WHERE device_id=? ORDER BY id", [code_subject(code_id)]
         ).fetchall()
     return [(str(e), str(d)) for e, d in rows]
 
 
 def is_outstanding(hub: HubStore, code: str) -> bool:
     """Whether ``code`` (as shown once) may still enrol a tablet."""
-    code_id = hashlib.sha256(code.strip().upper().encode()).hexdigest()[:16]
-    return outstanding_code(hub, code_id) is not None
+    return outstanding_code(hub, code_id_of(code)) is not None
 
 
 def enrolment_qr(code: str) -> segno.QRCode:

@@ -1,0 +1,71 @@
+"""The register's words for what a person acts on: a refused enrolment code, a site's parties, sizes, notice dates.
+
+What an office register owes its users (common practice, not an engineering figure): a refusal says what happened,
+so the person at the tablet asks for a new code rather than re-typing it, and says nothing about any other code; a
+site page names who the items refer repairs to (the engineer of record) or says "not recorded"; a size reads as it
+was recorded (130 × 456 mm, not 130.0 × 456.0 mm; a real half millimetre kept); a notice dated before an item it
+carries was raised by the same tablet's clock (which that tablet refuses to issue:
+``storage.store.Store._check_issue_date``) is flagged, never dropped, since the hub keeps what devices sign.
+"""
+
+import calendar
+import hashlib
+from pathlib import Path
+
+import pytest
+
+from mobile.hub_client import HubError, enroll
+from office import registry
+from storage import Store
+from tests.office.test_register import _login, office  # noqa: F401  (the same synced office, as a fixture)
+
+DAY_MS = 24 * 3600 * 1000
+OFFICE = Path(registry.__file__).parent
+
+
+def _ms(y: int, mo: int, d: int, h: int = 0, mi: int = 0) -> int:
+    return calendar.timegm((y, mo, d, h, mi, 0)) * 1000
+
+
+def _code_id(code: str) -> str:
+    """How the register names a code it does not show: the first 16 hex digits of its SHA-256 (DEVELOPERS.md)."""
+    return hashlib.sha256(code.strip().upper().encode()).hexdigest()[:16]
+
+
+# -- an enrolment code withdrawn or expired ---------------------------------------------------------
+def test_a_withdrawn_code_is_refused_saying_when_and_by_whom_and_nothing_of_other_codes(served, tmp_path):
+    hub = served.hub
+    now = [_ms(2026, 12, 5, 9, 12)]
+    hub.clock_ms = lambda: now[0]
+    withdrawn = registry.make_code(hub, "Tablet 5", "J. Tech", "technician", by="office")
+    other = registry.make_code(hub, "Tablet 6", "K. Line", "reviewer", by="clerk")  # another code, left alone
+    registry.withdraw_code(hub, _code_id(withdrawn), by="office")
+    now[0] += 3 * 60_000  # the tablet tries three minutes later
+    with pytest.raises(HubError) as refused:
+        enroll(Store(tmp_path / "t5.db"), served.url, withdrawn)
+    assert refused.value.reason == (  # the tablet's client opens with "the office hub refused: "
+        "the office hub refused: this enrolment code was withdrawn at the office on 2026-12-05 09:12 UTC "
+        "by office user office: it cannot be used; ask the office for a new code"
+    )
+    assert refused.value.status == 403
+    assert not hub.devices()  # nothing enrolled
+    typo = other[:-1] + ("0" if other[-1] != "0" else "1")  # a code never made: unknown, however close to another
+    with pytest.raises(HubError) as typed_wrong:
+        enroll(Store(tmp_path / "t7.db"), served.url, typo)
+    assert typed_wrong.value.reason == "the office hub refused: unknown enrolment code"
+    assert enroll(Store(tmp_path / "t6.db"), served.url, other)["name"] == "Tablet 6"  # the other code still works
+
+
+def test_an_expired_code_is_refused_saying_when_it_expired(served, tmp_path):
+    hub = served.hub
+    now = [_ms(2026, 12, 4, 8, 30)]
+    hub.clock_ms = lambda: now[0]
+    code = registry.make_code(hub, "Tablet 5", "J. Tech", "technician", by="office")
+    now[0] += DAY_MS + 60_000  # a day and a minute later
+    with pytest.raises(HubError) as refused:
+        enroll(Store(tmp_path / "t5.db"), served.url, code)
+    assert refused.value.reason == (
+        "the office hub refused: this enrolment code expired on 2026-12-05 08:30 UTC (codes last 24 hours): "
+        "ask the office for a new code"
+    )
+    assert not hub.devices()
