@@ -10,14 +10,16 @@ carries was raised by the same tablet's clock (which that tablet refuses to issu
 
 import calendar
 import hashlib
+import re
 from pathlib import Path
 
 import pytest
 
-from mobile.hub_client import HubError, enroll
+from mobile.hub_client import HubError, enroll, sync
 from office import registry
 from storage import Store
 from tests.office.test_register import _login, office  # noqa: F401  (the same synced office, as a fixture)
+from tests.office.test_register_codes_beams import _text
 
 DAY_MS = 24 * 3600 * 1000
 OFFICE = Path(registry.__file__).parent
@@ -69,3 +71,29 @@ def test_an_expired_code_is_refused_saying_when_it_expired(served, tmp_path):
         "ask the office for a new code"
     )
     assert not hub.devices()
+
+
+# -- the site's parties -------------------------------------------------------------------------------
+def test_the_site_page_names_the_engineer_of_record_beside_owner_and_contractor(office):  # noqa: F811
+    _served, client, site, _d, _notice, tablet = office
+    _login(client)
+    parties = re.search(r'<table id="site-parties".*?</table>', client.get(f"/site/{site.id}").text, flags=re.S)
+    assert parties is not None
+    assert " ".join(_text(parties.group(0)).split()) == (
+        "Owner not recorded Contractor not recorded Engineer of record not recorded"
+    )
+    tablet.update_site(
+        site.id,
+        {
+            "owner": "City of Riverton",
+            "contractor": "Brookside Builders",
+            "contractor_contact": "M. Osei",
+            "engineer_of_record": "J. Tran, P.Eng., Coastline Engineering",
+        },
+    )
+    assert sync(tablet).in_step
+    shown = _text(re.search(r'<table id="site-parties".*?</table>', client.get(f"/site/{site.id}").text, re.S)[0])
+    assert " ".join(shown.split()) == (
+        "Owner City of Riverton Contractor Brookside Builders (attention M. Osei) "
+        "Engineer of record J. Tran, P.Eng., Coastline Engineering"
+    )
