@@ -255,8 +255,6 @@ def site_beams(hub: HubStore, site_id: str, open_items: list[Item]) -> list[dict
     for bid, b in _rows(hub, "beam", "WHERE site_id=?", [site_id]):
         if b.get("archived"):
             continue
-        spans = b.get("spans_mm") or []
-        size = f"{_mm(b.get('b_mm'))} × {_mm(b.get('d_mm'))} mm" if b.get("b_mm") and b.get("d_mm") else "not recorded"
         out.append(
             {
                 "id": bid,
@@ -264,18 +262,29 @@ def site_beams(hub: HubStore, site_id: str, open_items: list[Item]) -> list[dict
                 "level": str(b.get("level") or ""),
                 "gridline": str(b.get("gridline") or ""),
                 "member": " ".join(str(b[k]) for k in ("material", "species", "grade") if b.get(k)) or "not recorded",
-                "size": size,
-                "spans": " + ".join(_mm(s) for s in spans) + " mm" if spans else "not recorded",
+                **beam_measures(b),
                 "open": by_beam.get(bid, []),
             }
         )
     return sorted(out, key=lambda r: (r["level"], r["gridline"], r["mark"]))
 
 
-def _mm(value: object) -> str:
-    """A length in mm as recorded, without a trailing '.0' ('130', '6.5')."""
+def mm_words(value: object) -> str:
+    """A length in mm as recorded: a whole number without '.0' ('130'), a fraction as typed ('494.5').
+
+    The one way the register prints a recorded size or span (the site's beam list and a deficiency's page).
+    """
     number = float(str(value))
-    return str(int(number)) if number == int(number) else f"{number:.1f}"
+    return str(int(number)) if number.is_integer() else repr(number)
+
+
+def beam_measures(beam: dict[str, Any]) -> dict[str, str]:
+    """A beam record's ``size`` ('130 × 494.5 mm') and ``spans`` ('7200 + 6000 mm'), or 'not recorded'."""
+    width, depth, spans = beam.get("b_mm"), beam.get("d_mm"), beam.get("spans_mm") or []
+    return {
+        "size": f"{mm_words(width)} × {mm_words(depth)} mm" if width and depth else "not recorded",
+        "spans": " + ".join(mm_words(s) for s in spans) + " mm" if spans else "not recorded",
+    }
 
 
 def deficiency(hub: HubStore, deficiency_id: str) -> dict[str, Any] | None:
@@ -310,6 +319,7 @@ def deficiency(hub: HubStore, deficiency_id: str) -> dict[str, Any] | None:
         "held": [q for q in held(hub) if q["record_id"] == deficiency_id],
         "photos": photos,
         "beam": beam[0][1] if beam else None,
+        "measures": beam_measures(beam[0][1]) if beam else None,
         "recheck": recheck_now(beam[0][1], site_rows[0][1] if site_rows else {}) if beam else None,
         "notices": sorted(carried, key=lambda n: (str(n.get("issued_at", "")), n.get("revision", 0)), reverse=True),
     }

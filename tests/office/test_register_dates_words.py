@@ -18,6 +18,7 @@ import pytest
 from mobile.hub_client import HubError, enroll, sync
 from office import registry
 from storage import Store
+from tests.core.beams import glulam
 from tests.office.test_register import _login, office  # noqa: F401  (the same synced office, as a fixture)
 from tests.office.test_register_codes_beams import _text
 
@@ -97,3 +98,31 @@ def test_the_site_page_names_the_engineer_of_record_beside_owner_and_contractor(
         "Owner City of Riverton Contractor Brookside Builders (attention M. Osei) "
         "Engineer of record J. Tran, P.Eng., Coastline Engineering"
     )
+
+
+# -- sizes as recorded ---------------------------------------------------------------------------------
+@pytest.mark.parametrize(
+    ("recorded", "shown"),
+    [(130, "130"), (130.0, "130"), (494.5, "494.5"), (494.25, "494.25"), (38.0, "38"), ("235.0", "235")],
+)
+def test_a_recorded_length_prints_whole_without_point_zero_and_a_fraction_as_recorded(recorded, shown):
+    assert registry.mm_words(recorded) == shown
+
+
+def test_the_item_page_and_the_beam_list_print_one_size_the_same_way(office):  # noqa: F811
+    _served, client, site, d, _notice, tablet = office
+    _login(client)
+    item = _text(client.get(f"/deficiency/{d.id}").text)
+    assert "glulam D.Fir-L 24f-E, 130 × 456 mm" in item  # the fixture's beam: whole millimetres
+    assert "Spans 7200 mm" in item
+    assert "130.0 × 456.0" not in item
+    deep = tablet.save_beam(site.id, glulam(mark="R2-B9", d_mm=494.5, spans_mm=[6000.5]))
+    half = tablet.raise_deficiency(
+        site.id, deep, "bearing_restraint_missing", "observation", "Grid E / 2", "Check", "CSA O86-19", "Check"
+    )
+    assert sync(tablet).in_step
+    item = _text(client.get(f"/deficiency/{half.id}").text)
+    assert "glulam D.Fir-L 24f-E, 130 × 494.5 mm" in item
+    assert "Spans 6000.5 mm" in item
+    beams = _text(re.search(r'<table id="beams">.*?</table>', client.get(f"/site/{site.id}").text, re.S)[0])
+    assert "R2-B9 - - glulam D.Fir-L 24f-E 130 × 494.5 mm 6000.5 mm" in beams
