@@ -17,6 +17,7 @@ import segno
 from argon2 import PasswordHasher
 from argon2.exceptions import InvalidHashError, VerificationError
 
+from core.records import Stage
 from core.results import PRIORITY_ORDER
 from office.hubstore import (
     CODE_LIFETIME_MS,
@@ -40,7 +41,7 @@ LOGIN_WINDOW_MS = 15 * 60 * 1000
 SHA_RE = re.compile(r"^[0-9a-f]{64}$")
 QR_ERROR = "m"  # QR error correction level M (about 15 % of the symbol recoverable)
 QR_SCALE, QR_BORDER = 8, 4  # 8 px a module; the quiet zone of 4 modules the QR standard asks for
-STAGES = ("open", "corrected", "verified")
+STAGES = tuple(s.name for s in sorted(Stage))  # by stage number, as stored: open, corrected, verified
 _hasher = PasswordHasher()
 
 

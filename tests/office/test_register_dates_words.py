@@ -8,6 +8,7 @@ carries was raised by the same tablet's clock (which that tablet refuses to issu
 ``storage.store.Store._check_issue_date``) is flagged, never dropped, since the hub keeps what devices sign.
 """
 
+import ast
 import calendar
 import hashlib
 import re
@@ -15,6 +16,7 @@ from pathlib import Path
 
 import pytest
 
+from core.records import Stage
 from mobile.hub_client import HubError, enroll, sync
 from office import registry
 from storage import Store
@@ -126,3 +128,15 @@ def test_the_item_page_and_the_beam_list_print_one_size_the_same_way(office):  #
     assert "Spans 6000.5 mm" in item
     beams = _text(re.search(r'<table id="beams">.*?</table>', client.get(f"/site/{site.id}").text, re.S)[0])
     assert "R2-B9 - - glulam D.Fir-L 24f-E 130 × 494.5 mm 6000.5 mm" in beams
+
+
+# -- the register's stages ------------------------------------------------------------------------------
+def test_the_register_takes_its_stages_from_the_record_model():
+    by_number = tuple(s.name for s in sorted(Stage, key=lambda s: s.value))
+    assert by_number == registry.STAGES
+    names = {s.name for s in Stage}
+    for source in sorted(OFFICE.glob("*.py")):  # no second list of the stage names in the office package
+        for node in ast.walk(ast.parse(source.read_text(encoding="utf-8"))):
+            if isinstance(node, ast.Tuple | ast.List | ast.Set):
+                texts = {e.value for e in node.elts if isinstance(e, ast.Constant) and isinstance(e.value, str)}
+                assert not names <= texts, f"{source.name}:{node.lineno} lists the stage names again"
