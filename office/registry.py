@@ -305,9 +305,9 @@ def deficiency(hub: HubStore, deficiency_id: str) -> dict[str, Any] | None:
     ]
     beam = _rows(hub, "beam", "WHERE id=?", [item.beam_id]) if item.beam_id else []
     site_rows = _rows(hub, "site", "WHERE id=?", [item.site_id])
-    carried = [
-        dict(n, id=nid) for nid, n in _rows(hub, "issued_notice") if deficiency_id in n.get("deficiency_ids", [])
-    ]
+    carrying = [(nid, n) for nid, n in _rows(hub, "issued_notice") if deficiency_id in n.get("deficiency_ids", [])]
+    flagged = date_flags(hub, carrying)
+    carried = [dict(n, id=nid, date_flags=flagged.get(nid, [])) for nid, n in carrying]
     for p in photos:
         p["present"] = hub.has_blob(p["sha256"])
     devices = {d.device_id: d for d in hub.devices()}
@@ -412,19 +412,112 @@ def _device_words(devices: dict[str, Any], device_id: str) -> str:
     return f"{d.name} ({d.person})" if d else f"device {device_id[:8]}… (not enrolled here)"
 
 
+# -- a notice dated before its items ----------------------------------------------------------------
+DAY_MS = 86_400_000
+EARLIEST_ZONE_MS = -12 * 3_600_000  # UTC-12: the earliest calendar date anywhere at a given moment
+DATE_RE = re.compile(r"^\d{4}-\d\d-\d\d$")
+
+
+def dated_before(issued_at: str, written_ms: int) -> bool | None:
+    """Whether a notice dated ``issued_at`` is dated before ``written_ms`` in whatever time zone its tablet was.
+
+    The tablet's rule (``storage.store.Store._check_issue_date``, repeated here: the hub cannot call it) refuses
+    a notice dated before the local day its own clock first wrote an item. The hub does not know the tablet's
+    zone, so it answers True only when the notice is earlier in every zone (UTC-12 to UTC+14): a date is before
+    the earliest date anywhere at ``written_ms``; a stored UTC time is a whole day or more before it (then no
+    zone puts the two on one day). None when ``issued_at`` is neither a date nor a stored UTC time.
+    """
+    from storage.stamps import parse_stamp
+
+    when = parse_stamp(issued_at)
+    if when is not None:
+        return written_ms - int(when.timestamp() * 1000) >= DAY_MS
+    day = issued_at.strip()
+    if not DATE_RE.match(day):
+        return None
+    return day < time.strftime("%Y-%m-%d", time.gmtime((written_ms + EARLIEST_ZONE_MS) / 1000))
+
+
+@dataclass(frozen=True)
+class DateFlag:
+    """A notice dated before an item it carries was first written by the device that issued the notice."""
+
+    issued_at: str  # as recorded on the notice
+    number: str  # the item's number
+    written_ms: int  # that device's wall clock when it first wrote the item
+    raised_there: bool  # the device raised the item (else it first changed it)
+    readable: bool = True  # False: the notice's date is neither a date nor a UTC time
+
+    @property
+    def words(self) -> str:
+        """The flag as an office engineer reads it."""
+        if not self.readable:
+            return f"dated {self.issued_at!r}, which is not a date: ask the reviewer"
+        did = "was raised" if self.raised_there else "was first changed on the tablet that issued the notice"
+        when = time.strftime("%Y-%m-%d %H:%M UTC", time.gmtime(self.written_ms / 1000))
+        return f"dated {self.issued_at}, before its item {self.number} {did} on {when} by its clock: ask the reviewer"
+
+
+def date_flags(hub: HubStore, found: list[tuple[str, dict[str, Any]]]) -> dict[str, list[DateFlag]]:
+    """Notices (id, record) dated before an item they carry was first written by the issuing device, by id.
+
+    The hub takes every signed op a device pushes and refuses none of these (that would strand the tablet's
+    records); the register flags them instead. As the tablet decides when it issues: an item is compared by the
+    issuing device's own earliest op on it (its wall clock) among the ops it wrote before the notice (lower seq);
+    an item that device had not written is not compared. The item was raised there when that op is the item's
+    first op of all (lowest HLC).
+    """
+    if not found:
+        return {}
+    wanted = {str(did) for _, n in found for did in n.get("deficiency_ids", [])}
+    with hub.lock:
+        issued_by = {
+            str(r[0]): (str(r[1]), int(r[2]))
+            for r in hub.db.execute(
+                "SELECT record_id, origin, seq FROM op WHERE entity='issued_notice' AND kind='insert'"
+            ).fetchall()
+        }
+        rows = hub.db.execute("SELECT record_id, origin, seq, wall_ms, hlc FROM op WHERE entity='deficiency'")
+        ops: dict[tuple[str, str], list[tuple[int, int, int]]] = {}  # (item, origin): (seq, wall_ms, hlc) ...
+        for did, origin, seq, wall, hlc in rows.fetchall():
+            if str(did) in wanted:
+                ops.setdefault((str(did), str(origin)), []).append((int(seq), int(wall), int(hlc)))
+    first_hlc: dict[str, int] = {}  # each item's first op of all: the one that raised it
+    for (did, _), written in ops.items():
+        first_hlc[did] = min([first_hlc.get(did, written[0][2]), *(h for *_, h in written)])
+    flags: dict[str, list[DateFlag]] = {}
+    for nid, n in found:
+        issued = str(n.get("issued_at", ""))
+        if dated_before(issued, 0) is None:
+            flags[nid] = [DateFlag(issued, "", 0, raised_there=False, readable=False)]
+            continue
+        origin, seq = issued_by.get(nid, ("", 0))
+        for did in n.get("deficiency_ids", []):
+            earlier = [(wall, hlc) for s, wall, hlc in ops.get((str(did), origin), []) if s < seq]
+            if earlier and dated_before(issued, min(earlier)[0]):
+                item = _rows(hub, "deficiency", "WHERE id=?", [did])
+                number = str(item[0][1].get("number", did)) if item else str(did)
+                raised = first_hlc[did] in {hlc for _, hlc in earlier}
+                flags.setdefault(nid, []).append(DateFlag(issued, number, min(earlier)[0], raised))
+    return flags
+
+
 def notices(hub: HubStore, site_id: str | None = None) -> list[dict[str, Any]]:
     """Issued notices, newest first, each with its site and whether the hub's PDF matches its record.
 
     ``check``: whether the hub holds the PDF and its bytes match the SHA-256 recorded when it was issued.
     ``footer``: the 16 hex digits the paper prints in every page footer (``reports.stamp``), read back from
     the PDF and checked against its bytes; what a person holding the paper compares.
+    ``date_flags``: ``DateFlag``s, when it is dated before an item it carries was written (``date_flags``).
     """
     from reports.stamp import embedded_hash, short_form
 
     names = {sid: str(s.get("name", sid)) for sid, s in _rows(hub, "site")}
     where, params = ("WHERE site_id=?", [site_id]) if site_id else ("", [])
+    found = _rows(hub, "issued_notice", where, params)
+    flagged = date_flags(hub, found)
     out = []
-    for nid, n in _rows(hub, "issued_notice", where, params):
+    for nid, n in found:
         content = hub.read_blob(n["pdf_sha256"])
         footer = ""
         if content is None:
@@ -436,7 +529,17 @@ def notices(hub: HubStore, site_id: str | None = None) -> list[dict[str, Any]]:
         else:
             check = "DOES NOT match its recorded SHA-256"
         site_name = names.get(str(n.get("site_id", "")), "")
-        out.append(dict(n, id=nid, check=check, present=content is not None, footer=footer, site_name=site_name))
+        out.append(
+            dict(
+                n,
+                id=nid,
+                check=check,
+                present=content is not None,
+                footer=footer,
+                site_name=site_name,
+                date_flags=flagged.get(nid, []),
+            )
+        )
     return sorted(out, key=lambda n: (str(n.get("issued_at", "")), n["number"], n.get("revision", 0)), reverse=True)
 
 

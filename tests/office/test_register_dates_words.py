@@ -140,3 +140,85 @@ def test_the_register_takes_its_stages_from_the_record_model():
             if isinstance(node, ast.Tuple | ast.List | ast.Set):
                 texts = {e.value for e in node.elts if isinstance(e, ast.Constant) and isinstance(e.value, str)}
                 assert not names <= texts, f"{source.name}:{node.lineno} lists the stage names again"
+
+
+# -- a notice dated before its items ------------------------------------------------------------------
+RAISED_MS = _ms(2026, 11, 30, 14, 5)  # the tablet's clock when it raised the item
+PDF = b"%PDF-1.4 a notice as a tablet wrote it\n"
+
+
+def _tablet(served, path, name, clock):
+    store = Store(path, wall_clock_ms=lambda: clock[0])
+    enroll(store, served.url, served.hub.new_code(name, "R. Eng", "reviewer"))
+    return store
+
+
+def _issue_unchecked(monkeypatch, store, site_id, number, ids, issued_at):
+    """Issue as a tampered or buggy tablet would: its date check skipped, the op signed like any other."""
+    with monkeypatch.context() as m:
+        m.setattr(Store, "_check_issue_date", lambda *_: None)
+        return store.issue_notice(site_id, number, PDF, ids, "R. Eng", issued_at)
+
+
+def _flags(page: str) -> list[str]:
+    return [" ".join(_text(f).split()) for f in re.findall(r'class="date-flag">(.*?)</(?:tr|p)>', page, flags=re.S)]
+
+
+def test_a_notice_dated_before_its_item_was_raised_on_that_tablet_is_flagged_not_dropped(served, tmp_path, monkeypatch):
+    clock = [RAISED_MS]
+    tablet = _tablet(served, tmp_path / "a.db", "Tablet A", clock)
+    site = tablet.create_site(name="Birch Road School", address="4 Birch Rd")
+    d = tablet.raise_deficiency(
+        site.id, None, "observation", "before_loading", "Grid B / 3", "Notch at the bearing", "O86", "Repair"
+    )
+    with pytest.raises(ValueError, match="issued_at 2026-11-28: before"):  # the tablet's own rule refuses it
+        tablet.issue_notice(site.id, "N-001", PDF, [d.id], "R. Eng", "2026-11-28")
+    clock[0] += 2 * DAY_MS
+    fine = tablet.issue_notice(site.id, "N-001", PDF, [d.id], "R. Eng", "2026-12-01")  # after the item: not flagged
+    back = _issue_unchecked(monkeypatch, tablet, site.id, "N-002", [d.id], "2026-11-28")
+    assert sync(tablet).in_step  # the hub takes the op: nothing stranded
+    # another tablet that never wrote the item: its notice is not compared (the tablet's rule is per device)
+    other = _tablet(served, tmp_path / "b.db", "Tablet B", [RAISED_MS + 3 * DAY_MS])
+    assert sync(other).in_step
+    theirs = _issue_unchecked(monkeypatch, other, site.id, "N-003", [d.id], "2026-11-27")
+    other.move_status(d.id, "corrected", "Site super", "contractor")  # written after its notice: still not compared
+    assert sync(other).in_step
+
+    listed = {n["number"]: n for n in registry.notices(served.hub)}
+    assert {n: [f.words for f in listed[n]["date_flags"]] for n in listed} == {
+        "N-001": [],
+        "N-002": [
+            f"dated 2026-11-28, before its item {d.number} was raised on 2026-11-30 14:05 UTC by its clock: "
+            "ask the reviewer"
+        ],
+        "N-003": [],
+    }
+    assert {fine.id, back.id, theirs.id} == {n["id"] for n in listed.values()}  # all kept
+
+    registry.add_user(served.hub, "office", "correct horse battery")
+    import httpx
+
+    with httpx.Client(base_url=served.url, follow_redirects=False, timeout=20) as client:
+        _login(client)
+        words = f"⚠ Check the date of N-002: {listed['N-002']['date_flags'][0].words}"
+        for page in ("/notices", f"/site/{site.id}", f"/deficiency/{d.id}"):
+            assert _flags(client.get(page).text) == [words], page
+
+
+@pytest.mark.parametrize(
+    ("issued_at", "written_ms", "before"),
+    [
+        # a date: before only when earlier than the earliest date anywhere (UTC-12) at the moment written
+        ("2026-11-29", _ms(2026, 11, 30, 11, 59), False),  # still 2026-11-29 (23:59) at UTC-12
+        ("2026-11-29", _ms(2026, 11, 30, 12, 0), True),  # 2026-11-30 00:00 at UTC-12: 11-30 everywhere
+        ("2026-11-29", _ms(2026, 12, 1, 11, 59), True),
+        ("2026-11-30", _ms(2026, 11, 30, 23, 59), False),
+        # a stored UTC time: before only a whole day or more earlier (no zone puts both on one day)
+        ("2026-11-29T14:05:00Z", _ms(2026, 11, 30, 14, 5), True),
+        ("2026-11-29T14:06:00Z", _ms(2026, 11, 30, 14, 5), False),
+        ("2026-11-30T14:05:00Z", _ms(2026, 11, 30, 14, 5), False),
+        ("28/11/2026", _ms(2026, 11, 30), None),  # not a date the tablet writes: flagged as unreadable
+    ],
+)
+def test_a_notice_date_is_before_its_item_only_when_it_is_in_every_time_zone(issued_at, written_ms, before):
+    assert registry.dated_before(issued_at, written_ms) is before
