@@ -33,6 +33,8 @@ from storage.store import projection_digest
 
 ROLES = ("reviewer", "technician", "office")
 CODE_LIFETIME_MS = 24 * 3600 * 1000
+CODE_MADE, CODE_WITHDRAWN = "code made by", "code withdrawn"  # hub_audit events, subject ``code_subject``
+WITHDRAWN_BY = " withdrawn by office user "  # in a CODE_WITHDRAWN row's detail, before the user's name
 MAX_PULL_LIMIT = 5000
 
 HUB_MIGRATIONS: dict[int, list[str]] = {
@@ -269,12 +271,14 @@ class HubStore:
                 "SELECT name, person, role, created_ms, used_by FROM hub_code WHERE code_sha256=?", [_code_hash(code)]
             ).fetchone()
             if row is None:
-                raise HubRefused(403, "unknown enrolment code")
+                raise HubRefused(403, self._withdrawn_words(code) or "unknown enrolment code")
             name, person, role, created, used_by = row
             if used_by is not None:
                 raise HubRefused(403, "this enrolment code has already been used")
             if self.clock_ms() - created > CODE_LIFETIME_MS:
-                raise HubRefused(403, "this enrolment code has expired (codes last 24 hours)")
+                expired = _utc_words(int(created) + CODE_LIFETIME_MS)
+                msg = f"this enrolment code expired on {expired} (codes last 24 hours): ask the office for a new code"
+                raise HubRefused(403, msg)
             if self.db.execute("SELECT 1 FROM hub_device WHERE device_id=?", [device_id]).fetchone():
                 raise HubRefused(409, f"device {device_id} is already enrolled")
             self.db.execute(
@@ -284,6 +288,25 @@ class HubStore:
             self.db.execute("UPDATE hub_code SET used_by=? WHERE code_sha256=?", [device_id, _code_hash(code)])
             self._audit(device_id, "enrolled", f"{name} ({person}, {role})")
         return self.device(device_id)
+
+    def _withdrawn_words(self, code: str) -> str:
+        """Why ``code`` cannot enrol when it was withdrawn at the office (when, by whom), else ''.
+
+        Read from the audit row of this very code (its subject is the code's own hash), so the answer says
+        nothing about any other code; a code never made reads as unknown.
+        """
+        row = self.db.execute(
+            "SELECT at_ms, detail FROM hub_audit WHERE device_id=? AND event=? ORDER BY id DESC LIMIT 1",
+            [code_subject(code_id_of(code)), CODE_WITHDRAWN],
+        ).fetchone()
+        if row is None:
+            return ""
+        by = str(row[1]).rpartition(WITHDRAWN_BY)[2] if WITHDRAWN_BY in str(row[1]) else ""
+        who = f" by office user {by}" if by else ""
+        return (
+            f"this enrolment code was withdrawn at the office on {_utc_words(int(row[0]))}{who}: it cannot be "
+            "used; ask the office for a new code"
+        )
 
     def device(self, device_id: str) -> Device:
         """One enrolled device (KeyError if unknown)."""
@@ -611,3 +634,23 @@ def _by(what: str, user: str) -> str:
 
 def _code_hash(code: str) -> str:
     return hashlib.sha256(code.strip().upper().encode()).hexdigest()
+
+
+def code_id_of(code: str) -> str:
+    """How the register names a code without showing it: the first 16 hex digits of its SHA-256."""
+    return _code_hash(code)[:16]
+
+
+def code_subject(code_id: str) -> str:
+    """The ``hub_audit.device_id`` of a code's audit rows (made by, withdrawn): 'code <id>'."""
+    return f"code {code_id}"
+
+
+def withdrawn_detail(name: str, person: str, role: str, by: str) -> str:
+    """A CODE_WITHDRAWN audit row's detail; ``HubStore.enroll`` reads the office user back after WITHDRAWN_BY."""
+    return f"enrolment code for {name} ({person}, {role}){WITHDRAWN_BY}{by}"
+
+
+def _utc_words(ms: int) -> str:
+    """A time as the register prints it ('2026-12-05 09:12 UTC')."""
+    return time.strftime("%Y-%m-%d %H:%M UTC", time.gmtime(ms / 1000))

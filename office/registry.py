@@ -17,8 +17,17 @@ import segno
 from argon2 import PasswordHasher
 from argon2.exceptions import InvalidHashError, VerificationError
 
+from core.records import Stage
 from core.results import PRIORITY_ORDER
-from office.hubstore import CODE_LIFETIME_MS, HubStore
+from office.hubstore import (
+    CODE_LIFETIME_MS,
+    CODE_MADE,
+    CODE_WITHDRAWN,
+    HubStore,
+    code_id_of,
+    code_subject,
+    withdrawn_detail,
+)
 from reports.words import STAGE_WORDS, stage_label
 from storage.db import PROJECTIONS
 
@@ -32,7 +41,7 @@ LOGIN_WINDOW_MS = 15 * 60 * 1000
 SHA_RE = re.compile(r"^[0-9a-f]{64}$")
 QR_ERROR = "m"  # QR error correction level M (about 15 % of the symbol recoverable)
 QR_SCALE, QR_BORDER = 8, 4  # 8 px a module; the quiet zone of 4 modules the QR standard asks for
-STAGES = ("open", "corrected", "verified")
+STAGES = tuple(s.name for s in sorted(Stage))  # by stage number, as stored: open, corrected, verified
 _hasher = PasswordHasher()
 
 
@@ -247,8 +256,6 @@ def site_beams(hub: HubStore, site_id: str, open_items: list[Item]) -> list[dict
     for bid, b in _rows(hub, "beam", "WHERE site_id=?", [site_id]):
         if b.get("archived"):
             continue
-        spans = b.get("spans_mm") or []
-        size = f"{_mm(b.get('b_mm'))} × {_mm(b.get('d_mm'))} mm" if b.get("b_mm") and b.get("d_mm") else "not recorded"
         out.append(
             {
                 "id": bid,
@@ -256,18 +263,29 @@ def site_beams(hub: HubStore, site_id: str, open_items: list[Item]) -> list[dict
                 "level": str(b.get("level") or ""),
                 "gridline": str(b.get("gridline") or ""),
                 "member": " ".join(str(b[k]) for k in ("material", "species", "grade") if b.get(k)) or "not recorded",
-                "size": size,
-                "spans": " + ".join(_mm(s) for s in spans) + " mm" if spans else "not recorded",
+                **beam_measures(b),
                 "open": by_beam.get(bid, []),
             }
         )
     return sorted(out, key=lambda r: (r["level"], r["gridline"], r["mark"]))
 
 
-def _mm(value: object) -> str:
-    """A length in mm as recorded, without a trailing '.0' ('130', '6.5')."""
+def mm_words(value: object) -> str:
+    """A length in mm as recorded: a whole number without '.0' ('130'), a fraction as typed ('494.5').
+
+    The one way the register prints a recorded size or span (the site's beam list and a deficiency's page).
+    """
     number = float(str(value))
-    return str(int(number)) if number == int(number) else f"{number:.1f}"
+    return str(int(number)) if number.is_integer() else repr(number)
+
+
+def beam_measures(beam: dict[str, Any]) -> dict[str, str]:
+    """A beam record's ``size`` ('130 × 494.5 mm') and ``spans`` ('7200 + 6000 mm'), or 'not recorded'."""
+    width, depth, spans = beam.get("b_mm"), beam.get("d_mm"), beam.get("spans_mm") or []
+    return {
+        "size": f"{mm_words(width)} × {mm_words(depth)} mm" if width and depth else "not recorded",
+        "spans": " + ".join(mm_words(s) for s in spans) + " mm" if spans else "not recorded",
+    }
 
 
 def deficiency(hub: HubStore, deficiency_id: str) -> dict[str, Any] | None:
@@ -287,9 +305,9 @@ def deficiency(hub: HubStore, deficiency_id: str) -> dict[str, Any] | None:
     ]
     beam = _rows(hub, "beam", "WHERE id=?", [item.beam_id]) if item.beam_id else []
     site_rows = _rows(hub, "site", "WHERE id=?", [item.site_id])
-    carried = [
-        dict(n, id=nid) for nid, n in _rows(hub, "issued_notice") if deficiency_id in n.get("deficiency_ids", [])
-    ]
+    carrying = [(nid, n) for nid, n in _rows(hub, "issued_notice") if deficiency_id in n.get("deficiency_ids", [])]
+    flagged = date_flags(hub, carrying)
+    carried = [dict(n, id=nid, date_flags=flagged.get(nid, [])) for nid, n in carrying]
     for p in photos:
         p["present"] = hub.has_blob(p["sha256"])
     devices = {d.device_id: d for d in hub.devices()}
@@ -302,6 +320,7 @@ def deficiency(hub: HubStore, deficiency_id: str) -> dict[str, Any] | None:
         "held": [q for q in held(hub) if q["record_id"] == deficiency_id],
         "photos": photos,
         "beam": beam[0][1] if beam else None,
+        "measures": beam_measures(beam[0][1]) if beam else None,
         "recheck": recheck_now(beam[0][1], site_rows[0][1] if site_rows else {}) if beam else None,
         "notices": sorted(carried, key=lambda n: (str(n.get("issued_at", "")), n.get("revision", 0)), reverse=True),
     }
@@ -393,19 +412,112 @@ def _device_words(devices: dict[str, Any], device_id: str) -> str:
     return f"{d.name} ({d.person})" if d else f"device {device_id[:8]}… (not enrolled here)"
 
 
+# -- a notice dated before its items ----------------------------------------------------------------
+DAY_MS = 86_400_000
+EARLIEST_ZONE_MS = -12 * 3_600_000  # UTC-12: the earliest calendar date anywhere at a given moment
+DATE_RE = re.compile(r"^\d{4}-\d\d-\d\d$")
+
+
+def dated_before(issued_at: str, written_ms: int) -> bool | None:
+    """Whether a notice dated ``issued_at`` is dated before ``written_ms`` in whatever time zone its tablet was.
+
+    The tablet's rule (``storage.store.Store._check_issue_date``, repeated here: the hub cannot call it) refuses
+    a notice dated before the local day its own clock first wrote an item. The hub does not know the tablet's
+    zone, so it answers True only when the notice is earlier in every zone (UTC-12 to UTC+14): a date is before
+    the earliest date anywhere at ``written_ms``; a stored UTC time is a whole day or more before it (then no
+    zone puts the two on one day). None when ``issued_at`` is neither a date nor a stored UTC time.
+    """
+    from storage.stamps import parse_stamp
+
+    when = parse_stamp(issued_at)
+    if when is not None:
+        return written_ms - int(when.timestamp() * 1000) >= DAY_MS
+    day = issued_at.strip()
+    if not DATE_RE.match(day):
+        return None
+    return day < time.strftime("%Y-%m-%d", time.gmtime((written_ms + EARLIEST_ZONE_MS) / 1000))
+
+
+@dataclass(frozen=True)
+class DateFlag:
+    """A notice dated before an item it carries was first written by the device that issued the notice."""
+
+    issued_at: str  # as recorded on the notice
+    number: str  # the item's number
+    written_ms: int  # that device's wall clock when it first wrote the item
+    raised_there: bool  # the device raised the item (else it first changed it)
+    readable: bool = True  # False: the notice's date is neither a date nor a UTC time
+
+    @property
+    def words(self) -> str:
+        """The flag as an office engineer reads it."""
+        if not self.readable:
+            return f"dated {self.issued_at!r}, which is not a date: ask the reviewer"
+        did = "was raised" if self.raised_there else "was first changed on the tablet that issued the notice"
+        when = time.strftime("%Y-%m-%d %H:%M UTC", time.gmtime(self.written_ms / 1000))
+        return f"dated {self.issued_at}, before its item {self.number} {did} on {when} by its clock: ask the reviewer"
+
+
+def date_flags(hub: HubStore, found: list[tuple[str, dict[str, Any]]]) -> dict[str, list[DateFlag]]:
+    """Notices (id, record) dated before an item they carry was first written by the issuing device, by id.
+
+    The hub takes every signed op a device pushes and refuses none of these (that would strand the tablet's
+    records); the register flags them instead. As the tablet decides when it issues: an item is compared by the
+    issuing device's own earliest op on it (its wall clock) among the ops it wrote before the notice (lower seq);
+    an item that device had not written is not compared. The item was raised there when that op is the item's
+    first op of all (lowest HLC).
+    """
+    if not found:
+        return {}
+    wanted = {str(did) for _, n in found for did in n.get("deficiency_ids", [])}
+    with hub.lock:
+        issued_by = {
+            str(r[0]): (str(r[1]), int(r[2]))
+            for r in hub.db.execute(
+                "SELECT record_id, origin, seq FROM op WHERE entity='issued_notice' AND kind='insert'"
+            ).fetchall()
+        }
+        rows = hub.db.execute("SELECT record_id, origin, seq, wall_ms, hlc FROM op WHERE entity='deficiency'")
+        ops: dict[tuple[str, str], list[tuple[int, int, int]]] = {}  # (item, origin): (seq, wall_ms, hlc) ...
+        for did, origin, seq, wall, hlc in rows.fetchall():
+            if str(did) in wanted:
+                ops.setdefault((str(did), str(origin)), []).append((int(seq), int(wall), int(hlc)))
+    first_hlc: dict[str, int] = {}  # each item's first op of all: the one that raised it
+    for (did, _), written in ops.items():
+        first_hlc[did] = min([first_hlc.get(did, written[0][2]), *(h for *_, h in written)])
+    flags: dict[str, list[DateFlag]] = {}
+    for nid, n in found:
+        issued = str(n.get("issued_at", ""))
+        if dated_before(issued, 0) is None:
+            flags[nid] = [DateFlag(issued, "", 0, raised_there=False, readable=False)]
+            continue
+        origin, seq = issued_by.get(nid, ("", 0))
+        for did in n.get("deficiency_ids", []):
+            earlier = [(wall, hlc) for s, wall, hlc in ops.get((str(did), origin), []) if s < seq]
+            if earlier and dated_before(issued, min(earlier)[0]):
+                item = _rows(hub, "deficiency", "WHERE id=?", [did])
+                number = str(item[0][1].get("number", did)) if item else str(did)
+                raised = first_hlc[did] in {hlc for _, hlc in earlier}
+                flags.setdefault(nid, []).append(DateFlag(issued, number, min(earlier)[0], raised))
+    return flags
+
+
 def notices(hub: HubStore, site_id: str | None = None) -> list[dict[str, Any]]:
     """Issued notices, newest first, each with its site and whether the hub's PDF matches its record.
 
     ``check``: whether the hub holds the PDF and its bytes match the SHA-256 recorded when it was issued.
     ``footer``: the 16 hex digits the paper prints in every page footer (``reports.stamp``), read back from
     the PDF and checked against its bytes; what a person holding the paper compares.
+    ``date_flags``: ``DateFlag``s, when it is dated before an item it carries was written (``date_flags``).
     """
     from reports.stamp import embedded_hash, short_form
 
     names = {sid: str(s.get("name", sid)) for sid, s in _rows(hub, "site")}
     where, params = ("WHERE site_id=?", [site_id]) if site_id else ("", [])
+    found = _rows(hub, "issued_notice", where, params)
+    flagged = date_flags(hub, found)
     out = []
-    for nid, n in _rows(hub, "issued_notice", where, params):
+    for nid, n in found:
         content = hub.read_blob(n["pdf_sha256"])
         footer = ""
         if content is None:
@@ -417,7 +529,17 @@ def notices(hub: HubStore, site_id: str | None = None) -> list[dict[str, Any]]:
         else:
             check = "DOES NOT match its recorded SHA-256"
         site_name = names.get(str(n.get("site_id", "")), "")
-        out.append(dict(n, id=nid, check=check, present=content is not None, footer=footer, site_name=site_name))
+        out.append(
+            dict(
+                n,
+                id=nid,
+                check=check,
+                present=content is not None,
+                footer=footer,
+                site_name=site_name,
+                date_flags=flagged.get(nid, []),
+            )
+        )
     return sorted(out, key=lambda n: (str(n.get("issued_at", "")), n["number"], n.get("revision", 0)), reverse=True)
 
 
@@ -432,7 +554,6 @@ def notice_pdf(hub: HubStore, notice_id: str) -> tuple[str, bytes] | None:
 
 
 # -- enrolment codes for a tablet to scan ----------------------------------------------------------
-CODE_MADE, CODE_WITHDRAWN = "code made by", "code withdrawn"  # hub_audit events, subject 'code <id>'
 CODE_ID_RE = re.compile(r"^[0-9a-f]{16}$")
 
 
@@ -449,18 +570,13 @@ class OutstandingCode:
     expires_ms: int
 
 
-def _code_subject(code_id: str) -> str:
-    return f"code {code_id}"
-
-
 def make_code(hub: HubStore, name: str, person: str, role: str, by: str) -> str:
     """A new one-time enrolment code (``HubStore.new_code``), with the office user who made it in the audit log."""
     code = hub.new_code(name, person, role)
-    code_id = hashlib.sha256(code.strip().upper().encode()).hexdigest()[:16]
     with hub.tx():
         hub.db.execute(
             "INSERT INTO hub_audit (at_ms, device_id, event, detail) VALUES (?, ?, ?, ?)",
-            [hub.clock_ms(), _code_subject(code_id), CODE_MADE, by],
+            [hub.clock_ms(), code_subject(code_id_of(code)), CODE_MADE, by],
         )
     return code
 
@@ -485,7 +601,7 @@ def outstanding_codes(hub: HubStore) -> list[OutstandingCode]:
             name=str(name),
             person=str(person),
             role=str(role),
-            made_by=made_by.get(_code_subject(str(sha)[:16]), ""),
+            made_by=made_by.get(code_subject(str(sha)[:16]), ""),
             created_ms=int(created),
             expires_ms=int(created) + CODE_LIFETIME_MS,
         )
@@ -514,10 +630,10 @@ def withdraw_code(hub: HubStore, code_id: str, by: str) -> OutstandingCode:
         if gone != 1:  # used (or withdrawn) since it was listed: nothing withdrawn
             msg = f"no outstanding enrolment code {code_id}"
             raise KeyError(msg)
-        detail = f"enrolment code for {found.name} ({found.person}, {found.role}) withdrawn by office user {by}"
+        detail = withdrawn_detail(found.name, found.person, found.role, by)
         hub.db.execute(
             "INSERT INTO hub_audit (at_ms, device_id, event, detail) VALUES (?, ?, ?, ?)",
-            [hub.clock_ms(), _code_subject(code_id), CODE_WITHDRAWN, detail],
+            [hub.clock_ms(), code_subject(code_id), CODE_WITHDRAWN, detail],
         )
     return found
 
@@ -526,15 +642,14 @@ def code_audit(hub: HubStore, code_id: str) -> list[tuple[str, str]]:
     """A code's audit entries (event, detail), oldest first: who made it and who withdrew it."""
     with hub.lock:
         rows = hub.db.execute(
-            "SELECT event, detail FROM hub_audit WHERE device_id=? ORDER BY id", [_code_subject(code_id)]
+            "SELECT event, detail FROM hub_audit WHERE device_id=? ORDER BY id", [code_subject(code_id)]
         ).fetchall()
     return [(str(e), str(d)) for e, d in rows]
 
 
 def is_outstanding(hub: HubStore, code: str) -> bool:
     """Whether ``code`` (as shown once) may still enrol a tablet."""
-    code_id = hashlib.sha256(code.strip().upper().encode()).hexdigest()[:16]
-    return outstanding_code(hub, code_id) is not None
+    return outstanding_code(hub, code_id_of(code)) is not None
 
 
 def enrolment_qr(code: str) -> segno.QRCode:

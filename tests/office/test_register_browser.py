@@ -253,3 +253,52 @@ def test_a_support_that_lifts_shows_its_uplift_row_with_no_hold_down_taken(offic
     governing = browser.find_element(By.XPATH, "//table[@id='recheck']//tr[th='Governing check']/td").text
     assert governing == f"{top}, utilisation {rated[top]:.2f}"
     assert [cells[0] for cells, css, _ in rows if css == "governing"] == [top]
+
+
+@pytest.mark.parametrize("hub", ["sqlite"], indirect=True)  # the pages are the same on both backends
+def test_the_site_names_its_engineer_of_record_and_a_back_dated_notice_is_flagged(office, browser, monkeypatch):  # noqa: F811
+    """The site's parties beside its address, and a notice dated before its item was raised flagged in words.
+
+    The notice is written as a tablet whose date check was skipped would write it (the hub keeps what devices
+    sign; the register flags it). Its item was raised today, so a notice dated 2026-11-28 is before it anywhere.
+    """
+    from selenium.webdriver.common.by import By
+
+    from mobile.hub_client import sync
+    from storage import Store
+
+    served_hub, _, site, d, _notice, tablet = office
+    tablet.update_site(
+        site.id,
+        {"owner": "City of Riverton", "contractor": "Brookside Builders", "contractor_contact": "M. Osei"},
+    )
+    with monkeypatch.context() as m:
+        m.setattr(Store, "_check_issue_date", lambda *_: None)
+        tablet.issue_notice(site.id, "N-BACK", b"%PDF-1.4 back-dated\n", [d.id], "R. Eng", "2026-11-28")
+    assert sync(tablet).in_step
+    browser.get(served_hub.url + f"/site/{site.id}")
+    browser.find_element(By.NAME, "name").send_keys("office")
+    browser.find_element(By.NAME, "password").send_keys("correct horse battery")
+    browser.find_element(By.ID, "login").click()
+    assert _wait_for(browser, "Engineer of record")
+    parties = browser.find_element(By.ID, "site-parties").text
+    assert "Owner City of Riverton" in parties
+    assert "Contractor Brookside Builders (attention M. Osei)" in parties
+    assert "Engineer of record not recorded" in parties
+    _shot(browser, "9-site-parties")
+    flag = browser.find_element(By.CSS_SELECTOR, "#site-notices tr.date-flag")
+    browser.execute_script("arguments[0].scrollIntoView({block: 'center'});", flag)
+    assert flag.text.startswith(f"⚠ Check the date of N-BACK: dated 2026-11-28, before its item {d.number} was raised")
+    assert flag.text.endswith("UTC by its clock: ask the reviewer")
+    _shot(browser, "9b-site-notice-flag")
+    browser.find_element(By.LINK_TEXT, "Notices").click()
+    assert _wait_for(browser, "Check the date of N-BACK")
+    assert len(browser.find_elements(By.CSS_SELECTOR, "tr.date-flag")) == 1  # the notice issued in time is not
+    _shot(browser, "9c-notices-flag")
+    browser.get(served_hub.url + f"/deficiency/{d.id}")
+    assert _wait_for(browser, "Check the date of N-BACK")
+    member = browser.find_element(By.XPATH, "//tr[th='Member']/td").text
+    assert member == "glulam D.Fir-L 24f-E, 130 × 456 mm"
+    flag = browser.find_element(By.CSS_SELECTOR, "p.date-flag")
+    browser.execute_script("arguments[0].scrollIntoView({block: 'center'});", flag)
+    _shot(browser, "9d-item-notice-flag")
