@@ -804,9 +804,11 @@ class Store:
         """Refuse a notice dated before the day (this device's local date) any item it carries was raised.
 
         ``issued_at``: a date ('2026-11-30', this device's local date, as the app writes it) or a stored UTC
-        time; an item was raised when its first change was written (its earliest op's wall clock). Only items
-        raised on this device are compared, by this device's own wall clock: a colleague's clock set a day
-        ahead would otherwise block an IMMEDIATE notice today (stamps are the devices' own, sync.md 3.3).
+        time; an item counts from the first change this device wrote to it (its earliest op of this origin, by
+        this device's wall clock): the raising for an item raised here, else this device's first status change
+        or edit of it. A colleague's ops are never compared: their clock set a day ahead would otherwise block
+        an IMMEDIATE notice today (stamps are the devices' own, sync.md 3.3). The office register flags a
+        notice that breaks the same rule (``office.registry.date_flags``).
         """
         when = parse_stamp(issued_at)
         issued = time.strftime("%Y-%m-%d", time.localtime(when.timestamp())) if when else issued_at.strip()[:10]
