@@ -194,8 +194,25 @@ def build_notice(
         change_note=change_note,
         table_rows=rows_used(checked),
         earlier_visits=before,
+        no_finding=_no_finding(store, site_id, visit, {d.beam_id for d in store.deficiencies(site_id, open_only=True)}),
     )
     return signed_by(store, notice), [d.id for d in open_items]
+
+
+def _no_finding(store: Store, site_id: str, visit: Visit | None, with_items: set[str | None]) -> list[str]:
+    """Marks of the members logged on ``visit`` whose recheck is ok and that carry no open item.
+
+    Every member of the site when no visit is recorded; in the site list's order (level, gridline, mark).
+    """
+    fresh = results.fresh(store.db, site_id)
+    return [
+        str(rec.get("mark") or bid)
+        for bid, rec in store.beams(site_id)
+        if (visit is None or rec.get("visit_id") == visit.id)
+        and bid not in with_items
+        and bid in fresh
+        and fresh[bid].status == "ok"
+    ]
 
 
 class MemoryRowsNotAcknowledged(ValueError):

@@ -255,6 +255,19 @@ class Notice:
     memory_acknowledgement: str = ""  # "acknowledged by NAME at UTC" of the memory rows, before issue
     # earlier visits whose members carry items here: "2026-11-24 08:30 (scope reviewed then: Level 2 floor ...)"
     earlier_visits: list[str] = field(default_factory=list)
+    # members logged on this visit whose recheck raised no finding and that carry no open item, by mark
+    no_finding: list[str] = field(default_factory=list)
+
+
+NO_FINDING_SHOWN = 60  # marks printed in the scope; beyond them, how many more
+
+
+def no_finding_words(marks: list[str]) -> str:
+    """'RB-2, RP-1 (2 members)': the members rechecked with no finding, the first NO_FINDING_SHOWN by mark."""
+    shown = ", ".join(marks[:NO_FINDING_SHOWN])
+    more = len(marks) - NO_FINDING_SHOWN
+    count = f"{len(marks)} member" + ("s" if len(marks) != 1 else "")
+    return f"{shown}, and {more} more ({count}; the office register lists them)" if more > 0 else f"{shown} ({count})"
 
 
 def ordered(items: list[Item]) -> list[Item]:

@@ -39,6 +39,7 @@ from reports.content import (
     due_words,
     lifting_bearings,
     member_sketch,
+    no_finding_words,
     one_line,
     ordered,
     response_lines,
@@ -376,6 +377,14 @@ def _first_page(n: Notice, st: dict[str, ParagraphStyle], refs: PageRefs) -> lis
         story.append(Paragraph(f"<b>What changed in rev {n.revision}:</b> {esc(n.change_note)}", p))
     story.append(Paragraph(f"<b>Scope reviewed:</b> {esc(n.scope_reviewed or 'not recorded')}", p))
     story.append(Paragraph(f"<b>Not reviewed:</b> {esc(n.scope_not_reviewed or 'not recorded')}", p))
+    if n.no_finding:  # what was looked at and passed: an official sees the whole scope, not only what failed
+        story.append(
+            Paragraph(
+                "<b>Rechecked with no finding on this visit</b> (on the inputs as recorded, within the limits in the "
+                f"cautions): {esc(no_finding_words(n.no_finding))}",
+                p,
+            )
+        )
     if n.earlier_visits:  # items on members logged before this visit: when and in what scope they were seen
         seen = "; ".join(esc(v) for v in n.earlier_visits)
         story.append(Paragraph(f"<b>Earlier visits:</b> some items are on members logged on {seen}", p))

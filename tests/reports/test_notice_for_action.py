@@ -121,3 +121,49 @@ def test_each_member_names_the_loads_and_bearing_lengths_it_was_rechecked_with(t
         "140 mm" in text
     )
     assert "(line loads as typed on the tablet (no tributary width recorded)); bearing lengths" in text
+
+
+def test_the_scope_names_the_members_rechecked_on_this_visit_with_no_finding(tmp_path):
+    """The scope lists this visit's members with no finding and no open item.
+
+    A building official reads what was reviewed and passed as well as what failed (common practice: a field
+    review report states the members it looked at).
+    """
+    from mobile.issue import acknowledge, issue_notice_for_site, rows_for_items
+    from reports.content import no_finding_words
+    from storage import Store
+    from tests.core.beams import glulam
+
+    store = Store(tmp_path / "m.db")
+    site = store.create_site(name="Larch Yard")
+    earlier = store.start_visit(site.id, "R. Ames", "2026-11-24 08:30")
+    today = store.start_visit(site.id, "R. Ames", "2026-11-30 09:15")
+    store.save_beam(site.id, glulam(mark="RB-1"), {"visit_id": today.id, "level": "Roof"})  # passes
+    store.save_beam(site.id, glulam(mark="RB-0"), {"visit_id": earlier.id, "level": "Roof"})  # passes, seen before
+    flagged = store.save_beam(site.id, glulam(mark="RB-2"), {"visit_id": today.id, "level": "Roof"})  # passes
+    store.raise_deficiency(site.id, flagged, "substitution", "before_next_review", "Roof, RB-2", "Sub", "S-1", "Fix")
+    # 1.25D + 1.5S on a 130 x 456 glulam over 7.2 m with 12 kN/m snow: overstressed (the recheck says so below)
+    failing = store.save_beam(
+        site.id, glulam(mark="RB-3", loads={"dead_kn_m": 3.0, "snow_kn_m": 12.0}), {"visit_id": today.id}
+    )
+    assert results_status(store, site.id, failing) != "ok"
+    _, path = issue_notice_for_site(
+        store,
+        site.id,
+        tmp_path / "n.pdf",
+        "R. Ames",
+        acknowledgement=acknowledge(store, rows_for_items(store, site.id), "R. Ames"),
+    )
+    text = _flat(path.read_bytes())
+    assert (
+        "Rechecked with no finding on this visit (on the inputs as recorded, within the limits in the cautions): "
+        "RB-1 (1 member)" in text
+    )
+    marks = [f"J-{n}" for n in range(1, 66)]
+    assert no_finding_words(marks).endswith("J-60, and 5 more (65 members; the office register lists them)")
+
+
+def results_status(store, site_id, beam_id):
+    from storage import results
+
+    return results.fresh(store.db, site_id)[beam_id].status
