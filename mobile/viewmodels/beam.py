@@ -34,6 +34,7 @@ from core.remedies import remedies
 from core.results import CheckKind, Recheck, check_lines
 from mobile.units import FIELD_WORDS, LengthRefused, echo_length, feet_inches, read_length, split_spans
 from mobile.viewmodels.common import PRIORITY_LABELS, line_loads_kn_m, status_label
+from mobile.viewmodels.site import KEEP
 from reports.content import support_names, trace_line
 from reports.inputs import loads_source, sheet_stem
 from reports.render import render_recheck_sheet
@@ -195,7 +196,10 @@ class BeamFormViewModel:
         return site.load_bases.get(name, site.design_basis) if name else site.design_basis
 
     def echo(self, name: str) -> str:
-        """What a stored length field was understood as, in mm and feet-inches ('= 7200 mm = 23' 7 7/16"')."""
+        """What a stored length field was understood as, in mm and feet-inches ('= 7200 mm = 23' 7 7/16"').
+
+        Several spans are joined by ';  ', each held together by no-break spaces (``KEEP``).
+        """
         rec = self.record()
         top, bottom = rec.get("top_edge") or {}, rec.get("bottom_edge") or {}
         values: list[Any]
@@ -214,6 +218,8 @@ class BeamFormViewModel:
         else:
             return ""
         shown = [echo_length(v) for v in values if isinstance(v, int | float) and v]
+        if len(shown) > 1:  # several spans: each held whole, so a line breaks between spans ("15' / 9"" misread)
+            shown = [one.replace(" ", KEEP) for one in shown]
         return ("= " + ";  ".join(shown)) if shown else ""
 
     def _load_echo(self, name: str, rec: dict[str, Any]) -> str:
