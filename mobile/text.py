@@ -1,8 +1,10 @@
-"""Readable one-screen summary of a recheck (``bracewalk check --text``)."""
+"""Readable one-screen summary of a recheck (``bracewalk check --text``): statuses and findings in words."""
 
 from __future__ import annotations
 
 from core.results import CheckLine, Recheck, check_lines, utilisation_text
+from mobile.viewmodels.common import finding_words, status_label
+from reports.render import priority_label
 
 
 def line_text(c: CheckLine) -> str:
@@ -13,11 +15,16 @@ def line_text(c: CheckLine) -> str:
 
 
 def recheck_text(r: Recheck) -> str:
-    """Format a recheck as plain text for a terminal."""
-    lines = [f"{r.mark}: {r.status.value.upper().replace('_', ' ')}"]
+    """Format a recheck as plain text for a terminal.
+
+    The status by shape and word ('RB-3: ▲ DEFICIENT'); each finding under its priority in the notice's words
+    and what it is about ('▲ IMMEDIATE: make safe now · bending overstress'), then its message and action.
+    """
+    lines = [f"{r.mark}: {status_label(r.status.value)}"]
     lines += [f"  {line_text(c)}" for c in check_lines(r)]
     for f in r.findings:
-        lines.append(f"  [{f.priority.value.upper()}] {f.code}: {f.message}")
+        lines.append(f"  {priority_label(f.priority.value)} · {finding_words(f.code)}")
+        lines.append(f"      {f.message}")
         lines.append(f"      action: {f.action} ({f.clause})")
     lines.append("")
     lines.append(r.caution)

@@ -15,7 +15,8 @@ from core.models import Beam
 from core.recheck import recheck
 from core.records import ReviewerProfile
 from core.results import Recheck, utilisation_text
-from mobile.viewmodels.common import line_loads_kn_m
+from mobile.viewmodels.common import STATUS_WORDS, finding_words, line_loads_kn_m, status_label
+from reports.render import SHORT_PRIORITY
 from storage import Store
 from storage.bundle import export_bundle
 from storage.store import DEMO_FIRM_KEY
@@ -117,6 +118,23 @@ def raise_all(store: Store, site_id: str) -> list[tuple[dict[str, Any], Recheck]
     return rows
 
 
+STATUS_WIDTH = max(len(status_label(s)) for s in STATUS_WORDS)  # "✖ NOT ESTABLISHED"
+
+
+def demo_table(rows: list[tuple[dict[str, Any], Recheck]]) -> list[str]:
+    """The demo's table in words: mark, status by shape and word, governing utilisation, each finding and priority.
+
+    'RB-3   ▲ DEFICIENT         1.66  bending overstress (▲ IMMEDIATE)'; the columns line up whatever the status.
+    """
+    out = [f"{'mark':<6} {'status':<{STATUS_WIDTH}} {'util':>6}  findings"]
+    for record, result in rows:
+        util = "-" if result.governing_utilisation is None else utilisation_text(result.governing_utilisation)
+        found = [f"{finding_words(f.code)} ({SHORT_PRIORITY[f.priority.value]})" for f in result.findings]
+        status = status_label(result.status.value)
+        out.append(f"{record['mark']:<6} {status:<{STATUS_WIDTH}} {util:>6}  {', '.join(found) or '-'}")
+    return out
+
+
 def run_demo(out: Path, serve: bool = False) -> int:
     """``bracewalk demo --out DIR``: the whole job on the demo site; print a table and the paths."""
     from mobile.issue import acknowledge, issue_notice_for_site, rows_for_items
@@ -141,11 +159,7 @@ def run_demo(out: Path, serve: bool = False) -> int:
     )
     bundle = out / "cedar-hollow.bwsync"
     export_bundle(store, bundle, include_demo=True)  # asked for: the demo's own bundle
-    print(f"{'mark':<6} {'status':<16} {'util':>6}  findings")
-    for record, result in rows:
-        util = "-" if result.governing_utilisation is None else utilisation_text(result.governing_utilisation)
-        codes = ", ".join(f"{f.code} ({f.priority.value})" for f in result.findings) or "-"
-        print(f"{record['mark']:<6} {result.status.value:<16} {util:>6}  {codes}")
+    print("\n".join(demo_table(rows)))
     print()
     print(
         f"deficiencies raised: {len(store.deficiencies(site_id))}; notice {notice.number} "

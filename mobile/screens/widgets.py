@@ -3,12 +3,13 @@
 from __future__ import annotations
 
 import fnmatch
+import re
 from pathlib import Path
 from typing import Any
 
 from kivy.app import App
 from kivy.clock import Clock
-from kivy.metrics import dp
+from kivy.metrics import dp, mm
 from kivy.properties import BooleanProperty, ListProperty, NumericProperty, StringProperty
 from kivy.uix.boxlayout import BoxLayout
 from kivy.uix.button import Button
@@ -26,8 +27,11 @@ from mobile.units import parse_length_mm
 # 149 dpi (and at 3 and 300 dpi), plus the field's padding
 INPUT_MIN_MM = 42
 SPANS_MIN_MM = 80  # two spans as shown, "4427.54 mm; 3744.91 mm", in the same type (75 mm at 149 dpi)
-# ';' (next span) sits in the top row, far from OK; no ',' (the decimal point is '.'); C clears
+# ';' (next span) sits in the top row, far from OK; no ',' (the decimal point is '.'); C clears. Four columns
+# when the window is taller than wide; five in landscape, where five rows of keys left each 13.2 mm high
 KEYPAD_KEYS = ("7", "8", "9", ";", "4", "5", "6", "C", "1", "2", "3", "'", "0", ".", "/", '"', "␣", "m", "mm", "⌫")
+KEYPAD_KEYS_WIDE = ("7", "8", "9", ";", "C", "4", "5", "6", "'", "⌫", "1", "2", "3", '"', "m", "0", ".", "/", "␣", "mm")
+KEEP = "\u00a0"  # a no-break space: the keypad's entry breaks its lines between spans only ("7200 mm;" whole)
 
 
 def big_button(text: str, on_release: Any, **kw: Any) -> Button:
@@ -156,6 +160,7 @@ class TextField(BoxLayout):
     keypad = BooleanProperty(False)
     least_mm = NumericProperty(INPUT_MIN_MM)  # the narrowest the value may be beside its name, else it goes under
     stacked = BooleanProperty(False)  # its name above the field (set by the kv rule from the width)
+    wraps = BooleanProperty(False)  # the value wraps between spans and the field grows to show it (the spans)
     quick_values = ListProperty([])
     screen: Any = None
     loading = False
@@ -200,36 +205,48 @@ class TextField(BoxLayout):
         """Large on-screen keypad for gloved hands (mm, m, feet-inches).
 
         It opens with the field's text and a clear key; OK enters it; dismissing it any other way
-        (Cancel keeps the field as it was, a tap outside keeps what was typed and enters it).
+        (Cancel keeps the field as it was, a tap outside keeps what was typed and enters it). The entry above
+        the keys wraps between spans ("7200 mm; 7200 mm;" over "6000 mm; 4800 mm"), never inside one. Every key
+        is at least 15 mm both ways: five columns in landscape, four in portrait.
         """
-        grid = GridLayout(cols=4, spacing=dp(6), padding=dp(6))
-        shown = Label(text=self.ids.input.text, font_size="28sp", size_hint_y=None, height="15mm")
+        from kivy.core.window import Window
+
+        wide = Window.width > Window.height
+        grid = GridLayout(cols=5 if wide else 4, spacing=dp(6), padding=dp(6))
+        shown = Label(font_size="28sp", size_hint_y=None, height="15mm", halign="center", valign="middle")
+        shown.bind(width=lambda w, width: setattr(w, "text_size", (width, None)))
+        shown.bind(texture_size=lambda w, ts: setattr(w, "height", max(mm(15), ts[1] + dp(8))))
         body = BoxLayout(orientation="vertical", spacing=dp(6))
         body.add_widget(shown)
         body.add_widget(grid)
-        popup = Popup(title=self.label, content=body, size_hint=(0.6, 0.92), title_size="20sp")
-        state = {"done": False}
+        popup = Popup(title=self.label, content=body, size_hint=(0.7 if wide else 0.6, 0.96), title_size="20sp")
+        state = {"done": False, "text": self.ids.input.text}
+
+        def show(text: str) -> None:
+            state["text"] = text
+            shown.text = re.sub(r"(;) *", r"\1 ", text).replace(" ", KEEP).replace(";" + KEEP, "; ")
 
         def enter(*_: Any) -> None:
             if not state["done"]:
                 state["done"] = True
-                if shown.text != self.ids.input.text:
-                    self.ids.input.text = shown.text
+                if state["text"] != self.ids.input.text:
+                    self.ids.input.text = state["text"]
                 self.commit()
 
         def press(key: str) -> None:
             if key == "C":
-                shown.text = ""
+                show("")
             elif key == "⌫":
-                shown.text = shown.text[:-1]
+                show(state["text"][:-1])
             else:
-                shown.text += " " if key == "␣" else key
+                show(state["text"] + (" " if key == "␣" else key))
 
         def cancel(*_: Any) -> None:
             state["done"] = True
             popup.dismiss()
 
-        for key in KEYPAD_KEYS:
+        show(state["text"])
+        for key in KEYPAD_KEYS_WIDE if wide else KEYPAD_KEYS:
             grid.add_widget(Button(text=key, font_size="26sp", on_release=lambda _b, k=key: press(k)))
         row = BoxLayout(size_hint_y=None, height="15mm", spacing=dp(12))
         row.add_widget(big_button("Cancel", cancel, halign="center", size_hint_x=0.4))
@@ -268,6 +285,25 @@ class WrappingInput(TextInput):
     def insert_text(self, substring: str, from_undo: bool = False) -> None:
         """Insert typed or pasted text, a line break in it as a space."""
         super().insert_text(substring.replace("\r\n", " ").replace("\n", " "), from_undo=from_undo)
+
+
+class LengthInput(WrappingInput):
+    """A beam form field's value (its kv rule is in widgets.kv): one line, or, for the spans, wrapped between spans.
+
+    ``multiline`` is the field's ``wraps``: the spans field grows a line at a time and breaks a line only after
+    a ';' ("7200 mm; 7200 mm;" over "6000 mm; 4800 mm"), never between a number and its unit. One line, four
+    spans ran 695 px of text into a field 470 px wide (1280x800 at 149 dpi, density 1.5), showing their end only.
+    """
+
+    _SPAN = re.compile(r"[^;\n]*;[ \t]*|[^;\n]+|\n")  # a span with its ';' and the spaces after it; a line break
+
+    def _tokenize(self, text: str | None) -> Any:
+        """The pieces a line may break between: whole spans (TextInput's own also break after '.', ',', ' ')."""
+        if text is None:
+            return
+        yield from (m.group() for m in self._SPAN.finditer(text))
+        if not text:
+            yield ""
 
 
 class NoteField(TextField):

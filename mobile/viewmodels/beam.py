@@ -33,7 +33,8 @@ from core.records import Stage
 from core.remedies import remedies
 from core.results import CheckKind, Recheck, check_lines
 from mobile.units import FIELD_WORDS, LengthRefused, echo_length, feet_inches, read_length, split_spans
-from mobile.viewmodels.common import PRIORITY_LABELS, line_loads_kn_m, status_label
+from mobile.viewmodels.common import PRIORITY_LABELS, finding_words, line_loads_kn_m, status_label
+from mobile.viewmodels.site import KEEP
 from reports.content import support_names, trace_line
 from reports.inputs import loads_source, sheet_stem
 from reports.render import render_recheck_sheet
@@ -195,7 +196,10 @@ class BeamFormViewModel:
         return site.load_bases.get(name, site.design_basis) if name else site.design_basis
 
     def echo(self, name: str) -> str:
-        """What a stored length field was understood as, in mm and feet-inches ('= 7200 mm = 23' 7 7/16"')."""
+        """What a stored length field was understood as, in mm and feet-inches ('= 7200 mm = 23' 7 7/16"').
+
+        Several spans are joined by ';  ', each held together by no-break spaces (``KEEP``).
+        """
         rec = self.record()
         top, bottom = rec.get("top_edge") or {}, rec.get("bottom_edge") or {}
         values: list[Any]
@@ -214,6 +218,8 @@ class BeamFormViewModel:
         else:
             return ""
         shown = [echo_length(v) for v in values if isinstance(v, int | float) and v]
+        if len(shown) > 1:  # several spans: each held whole, so a line breaks between spans ("15' / 9"" misread)
+            shown = [one.replace(" ", KEEP) for one in shown]
         return ("= " + ";  ".join(shown)) if shown else ""
 
     def _load_echo(self, name: str, rec: dict[str, Any]) -> str:
@@ -439,7 +445,8 @@ class BeamFormViewModel:
 
         One finding is named with where it is ('... 1 finding: bending overstress, span 1.'); several by kind,
         with how many of each ('3 findings: bearing restraint missing (2), bending overstress.'), so the
-        folded banner stays a line or two. Built from the findings' priority, code and region, never their wording.
+        folded banner stays a line or two. Built from the findings' priority, their code in words (``finding_words``)
+        and region, never their wording or the code itself.
         """
         r = self.result or self.refresh()
         found = [] if r is None else [f for f in r.findings if f.priority.value == "immediate"]
@@ -449,9 +456,9 @@ class BeamFormViewModel:
         if len(found) == 1:
             (f,) = found
             where = f", {f.region}" if f.region else ""
-            return f"{head} · 1 finding: {f.code.value.replace('_', ' ')}{where}. Tap to read it in full."
+            return f"{head} · 1 finding: {finding_words(f.code)}{where}. Tap to read it in full."
         kinds = Counter(f.code for f in found)  # in the order first found
-        about = ", ".join(code.value.replace("_", " ") + (f" ({n})" if n > 1 else "") for code, n in kinds.items())
+        about = ", ".join(finding_words(code) + (f" ({n})" if n > 1 else "") for code, n in kinds.items())
         return f"{head} · {len(found)} findings: {about}. Tap to read them in full."
 
     def findings(self) -> list[tuple[int, str]]:

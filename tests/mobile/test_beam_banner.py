@@ -7,8 +7,10 @@ its height (session-32 review: the whole banner took 270 px of an 800 px landsca
 
 import pytest
 
+from core.kinds import FindingCode
 from mobile.demo.run import load_demo
 from mobile.viewmodels import BeamFormViewModel
+from mobile.viewmodels.common import FINDING_WORDS, finding_words
 from storage import Store
 
 
@@ -34,6 +36,8 @@ def _form(demo, mark):
             "▲ IMMEDIATE: make safe now · 1 finding: bearing restraint missing, support 2 (right end). "
             "Tap to read it in full.",
         ),
+        # CB 57 > 50: in words, not the code with its '_' made spaces ("slenderness exceeds limit")
+        ("RB-4", "▲ IMMEDIATE: make safe now · 1 finding: slenderness over the limit, span 1. Tap to read it in full."),
     ],
 )
 def test_the_folded_banner_names_the_priority_the_count_and_the_finding(demo, mark, folded):
@@ -52,3 +56,11 @@ def test_several_immediate_findings_are_counted_and_grouped_by_kind(demo):
         "▲ IMMEDIATE: make safe now · 3 findings: bearing restraint missing (2), bending overstress. "
         "Tap to read them in full."
     )
+
+
+def test_every_finding_code_has_words_and_an_unknown_code_is_refused_by_name():
+    assert set(FINDING_WORDS) == set(FindingCode)  # a code core adds fails here, not as raw text on a screen
+    assert finding_words("layup_inverted") == "layup upside down"
+    assert all("_" not in words for words in FINDING_WORDS.values())
+    with pytest.raises(ValueError, match="finding code 'rot_at_bearing' has no words"):
+        finding_words("rot_at_bearing")

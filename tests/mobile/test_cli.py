@@ -50,8 +50,26 @@ def test_check_missing_file_exit_2():
 def test_check_text_summary():
     proc = run("check", str(EXAMPLE), "--text")
     assert proc.returncode == 0
-    assert "R2-B4: OK" in proc.stdout
+    assert "R2-B4: ● OK" in proc.stdout
     assert "engineer of record" in proc.stdout
+
+
+def test_check_text_says_status_priority_and_finding_in_words_not_codes(tmp_path):
+    """The demo's RB-5 (a rotation restraint missing at a bearing) as a reviewer reads it: no stored codes."""
+    from mobile.demo.run import load_demo
+    from storage import Store
+
+    store = Store(tmp_path / "d.db")
+    site_id = load_demo(store)
+    beam_id = next(i for i, r in store.beams(site_id) if r["mark"] == "RB-5")
+    beam = tmp_path / "rb5.json"
+    beam.write_text(store.beam(beam_id).model_dump_json())
+    proc = run("check", str(beam), "--text")
+    assert proc.returncode == 0, proc.stderr
+    assert proc.stdout.startswith("RB-5: ✖ NOT ESTABLISHED\n")
+    assert "  ▲ IMMEDIATE: make safe now · bearing restraint missing\n" in proc.stdout
+    for code in ("NOT_ESTABLISHED", "not_established", "bearing_restraint_missing", "[IMMEDIATE]"):
+        assert code not in proc.stdout
 
 
 def test_check_writes_the_recheck_sheet_and_keeps_its_json(tmp_path):

@@ -6,7 +6,7 @@ import sys
 from pathlib import Path
 
 from core import recheck
-from mobile.demo.run import load_demo
+from mobile.demo.run import demo_table, load_demo
 from storage import Store
 from storage.stamps import local_time
 from storage.store import DEMO_FIRM_KEY
@@ -47,6 +47,22 @@ def test_demo_statuses_and_findings(tmp_path):
         assert got[mark] == (status, codes), f"{mark}: {why}"
 
 
+def test_demo_table_is_in_words_with_its_columns_lined_up(tmp_path):
+    """The table `bracewalk demo` prints: statuses by shape and word, findings and priorities in words, no codes."""
+    store = Store(tmp_path / "demo.db")
+    site_id = load_demo(store)
+    rows = [(record, recheck(store.beam(beam_id))) for beam_id, record in store.beams(site_id)]
+    head, *lines = demo_table(rows)
+    by_mark = {line.split()[0]: line for line in lines}
+    assert by_mark["RB-4"].startswith("RB-4   ■ NOT PERMITTED        -  slenderness over the limit (▲ IMMEDIATE)")
+    assert "RB-5   ✖ NOT ESTABLISHED      -  bearing restraint missing (▲ IMMEDIATE)" in lines
+    assert by_mark["FJ-1"].endswith("bending overstress (▲ IMMEDIATE), compression edge unbraced (● before loading)")
+    assert "_" not in "\n".join(lines)  # no stored code ("not_permitted", "bending_overstress") and no "(immediate)"
+    assert "(immediate)" not in "\n".join(lines)
+    util_end = head.index("util") + len("util")  # the utilisation column ends under its heading on every row
+    assert all(line[util_end - 1] in "0123456789-" and line[util_end : util_end + 2] == "  " for line in lines)
+
+
 def test_demo_command_writes_db_pdf_bundle(tmp_path):
     out = tmp_path / "demo-out"
     proc = subprocess.run(
@@ -61,7 +77,8 @@ def test_demo_command_writes_db_pdf_bundle(tmp_path):
     assert (out / "cedar-hollow.bwsync").exists()
     assert (out / "cedar-hollow.db").exists()
     assert "RB-5" in proc.stdout
-    assert "not_established" in proc.stdout
+    assert "✖ NOT ESTABLISHED" in proc.stdout
+    assert "not_established" not in proc.stdout
     # the memory rows are acknowledged before the notice is issued (its fixed date 2026-11-30), not days after
     import re
 

@@ -11,9 +11,10 @@ its first finding in view, at most half the window high, its last line reached b
 established) and the sawn joist FJ-1 (its lengths typed in inches, six digits as shown: "234.95 mm" was drawn
 "5 mm" in landscape; its tributary width 16" on the keypad, then a bare 400 and its question; its system picker,
 "not recorded (taken as single member)", each choice whole, load-sharing picked and shown again when the beam is
-opened again), each after scrolling the one before to the end of its panel, and holds every view to
-``layout_problems`` and ``beam_problems`` (every typed value drawn whole, the caution saying that what was not
-seen or not recorded is taken as the unfavourable case).
+opened again; then two spans, a long note and four spans, each drawn whole, and the keypad over the four spans:
+every key at least 15 mm both ways, no label cut, the entry whole), each after scrolling the one before to the end
+of its panel, and holds every view to ``layout_problems`` and ``beam_problems`` (every typed value drawn whole, the
+caution saying that what was not seen or not recorded is taken as the unfavourable case).
 
 Screenshots: test-artefacts/ui-beam/<geometry>-*.png (look at them).
 """

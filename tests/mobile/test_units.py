@@ -130,6 +130,17 @@ def test_form_feet_inches_echoed_with_unit(form):
     assert form.echo("spans") == "= 7200.9 mm = 23' 7 1/2\""
 
 
+def test_several_spans_echoed_each_held_whole(form):
+    # 7200 mm = 283.46 in = 23' 7 7/16"; 6000 mm = 236.22 in = 19' 8 1/4"; 4800 mm = 188.98 in = 15' 9" (1/16" steps)
+    assert form.set_field("spans", "7200; 7200; 6000; 4800")
+    echo = form.echo("spans")
+    assert echo.replace("\u00a0", " ") == (
+        "= 7200 mm = 23' 7 7/16\";  7200 mm = 23' 7 7/16\";  6000 mm = 19' 8 1/4\";  4800 mm = 15' 9\""
+    )
+    # a line of the echo breaks only between spans: '15\'' over '9"' read as 15 feet
+    assert [" " in one for one in echo.removeprefix("= ").split(";  ")] == [False] * 4
+
+
 @pytest.mark.parametrize(
     ("text", "mm"),
     [

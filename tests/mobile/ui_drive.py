@@ -40,6 +40,8 @@ _NOTE_SENTENCES = (
     "the member is painted. Moisture reading 17 % at midspan, 19 % near S2 where the roof drain leaks. "
 )
 LONG_NOTE = (_NOTE_SENTENCES * 6)[:1988].rsplit(" ", 1)[0] + " end of note."
+FOUR_SPANS = ("7200; 7200; 6000; 4800", "7200 mm; 7200 mm; 6000 mm; 4800 mm")  # typed, then as the form shows it
+KEYPAD_KEY_COUNT = 20  # digits, ; ' " . / space, m, mm, clear and back (widgets.KEYPAD_KEYS)
 
 
 FRAMES_BEFORE_SHOT = 2  # the frame that draws this step's changes, then one more for what they set off
@@ -1598,21 +1600,53 @@ elif FLOW == "beam-geometry":
         yield from beam_look("4g-fj1-long-note")
         note = field("notes")
         print(f"MEASURE long note: {len(note.text)} characters on {len(note._lines)} lines", flush=True)
+        # four spans (a continuous purlin over five supports), typed as bare mm: shown "7200 mm; ...; 4800 mm",
+        # which ran past the field's right edge at every review geometry (two spans were drawn whole)
+        type_into("spans", FOUR_SPANS[0])
+        if field("spans").text != FOUR_SPANS[1]:
+            seen.append(f"FJ-1 four spans show {field('spans').text!r} ({screen('beam').vm.errors.get('spans')})")
+
+    @step
+    def to_the_four_spans():
+        screen("beam").ids.form_scroll.scroll_to(screen("beam").fields["spans"], animate=False)
+
+    @step
+    def four_spans_shown():
+        yield from beam_look("4h-fj1-four-spans")
+        echo = screen("beam").fields["spans"].ids.echo  # each span's mm and feet-inches on one line
+        lines = [line.strip() for line in drawn_lines(echo)]
+        if any(not line.endswith(";") for line in lines[:-1]):
+            seen.append(f"FJ-1 four spans: the echo breaks inside a span: {' / '.join(lines)!r}")
         screen("beam").fields["spans"].open_keypad()
 
     @step
     def keypad_keys():
-        # the keypad's keys as drawn (mm at the real dpi) and whether a key's label is cut: printed to be read
+        # the keypad over the four spans: every key at least 15 mm both ways at the real dpi (the app's own rule
+        # for its targets; 13.2 mm high in landscape before), no label cut, the entry shown whole above the keys
         from kivy.uix.button import Button
+        from kivy.uix.gridlayout import GridLayout
 
         s = screen("beam")
-        yield from shot(f"{GEOM}-4h-fj1-keypad")
+        yield from shot(f"{GEOM}-4i-fj1-keypad")
         popup = s.fields["spans"].keypad_popup
-        keys = [b for b in popup.content.children[1].children if isinstance(b, Button)]
-        heights = sorted({round(b.height / (DPI / 25.4), 1) for b in keys})
-        widths = sorted({round(b.width / (DPI / 25.4), 1) for b in keys})
+        grid = next(w for w in popup.content.walk(restrict=True) if isinstance(w, GridLayout))
+        keys = [b for b in grid.children if isinstance(b, Button)]
+        mm = DPI / 25.4
+        heights = sorted({round(b.height / mm, 1) for b in keys})
+        widths = sorted({round(b.width / mm, 1) for b in keys})
         cut = [b.text for b in keys if b.texture_size[0] > b.width or b.texture_size[1] > b.height]
         print(f"MEASURE keypad: {len(keys)} keys, {heights} mm high, {widths} mm wide; labels cut: {cut}", flush=True)
+        if len(keys) != KEYPAD_KEY_COUNT:
+            seen.append(f"keypad: {len(keys)} keys found, not {KEYPAD_KEY_COUNT}")
+        small = [b.text for b in keys if b.height < 15 * mm - 1 or b.width < 15 * mm - 1]
+        if small:
+            seen.append(f"keypad keys under 15 mm ({heights} mm high, {widths} mm wide): {small}")
+        if cut:
+            seen.append(f"keypad labels cut: {cut}")
+        seen.extend(f"keypad: {p}" for p in popup_problems() + cut_text_problems(popup.content))
+        entry = s.fields["spans"].keypad_shown
+        if entry.text.replace("\u00a0", " ") != FOUR_SPANS[1] or mid_word_break(entry):  # no-break inside a span
+            seen.append(f"keypad: the entry {entry.text!r} shows as {drawn_lines(entry)!r}")
         popup.dismiss()
 
     @step
