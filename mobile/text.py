@@ -3,8 +3,7 @@
 from __future__ import annotations
 
 from core.results import CheckLine, Recheck, check_lines, utilisation_text
-from mobile.viewmodels.common import finding_words, status_label
-from reports.render import priority_label
+from reports.words import finding_words, priority_label, status_label
 
 
 def line_text(c: CheckLine) -> str:

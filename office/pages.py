@@ -29,8 +29,7 @@ from starlette.exceptions import HTTPException as StarletteHTTPException
 
 from office import registry
 from office.hubstore import HubStore
-from reports.render import SHORT_PRIORITY, priority_label
-from reports.words import status_label
+from reports.words import SHORT_PRIORITY, priority_label, status_label
 
 COOKIE = "bw_session"
 NEW_CODE_COOKIE, NEW_CODE_SECONDS = "bw_new_code", 300  # a code just made, sealed, on its way to the page showing it

@@ -54,32 +54,15 @@ from reports.photos import CELL_W_MM, photo_flowable, wide_box
 from reports.sketch import FONT, FONT_BOLD, beam_sketch, register_fonts
 from reports.tablerows import memory_rows
 from reports.textrun import markup
+from reports.words import PRIORITY_MARKERS, PRIORITY_WORDS, SHORT_PRIORITY, priority_label
+
+__all__ = ["PRIORITY_MARKERS", "PRIORITY_WORDS", "SHORT_PRIORITY", "priority_label"]  # kept importable from here
 
 # Binary (Flate/DCT) streams instead of ASCII85: reportlab's pure-Python ASCII85 encoder was most of
 # the time of a notice with photos, and binary streams are a fifth smaller. Process-wide by design.
 rl_config.useA85 = 0
 
 HASH_FONT = "Courier"  # a standard font: the hash digits stay literal bytes in the page (see reports.stamp)
-PRIORITY_WORDS = {
-    "immediate": "IMMEDIATE: make safe now",
-    "before_loading": "Before loading or concealment",
-    "before_next_review": "Before next review",
-    "observation": "Observation",
-}
-PRIORITY_MARKERS = {"immediate": "▲", "before_loading": "●", "before_next_review": "○", "observation": "○"}
-
-
-SHORT_PRIORITY = {
-    "immediate": "▲ IMMEDIATE",
-    "before_loading": "● before loading",
-    "before_next_review": "○ next review",
-    "observation": "○ observation",
-}
-
-
-def priority_label(priority: str) -> str:
-    """Priority by shape and words ('▲ IMMEDIATE: make safe now'), the same on the notice and in the app."""
-    return f"{PRIORITY_MARKERS.get(priority, '○')} {PRIORITY_WORDS.get(priority, priority)}"
 
 
 def esc(text: object) -> str:

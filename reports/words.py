@@ -7,7 +7,39 @@ register prints them alone in a table cell, first letter capital (``stage_label`
 
 from __future__ import annotations
 
+from core.kinds import FindingCode
 from core.records import Stage
+
+PRIORITY_WORDS = {
+    "immediate": "IMMEDIATE: make safe now",
+    "before_loading": "Before loading or concealment",
+    "before_next_review": "Before next review",
+    "observation": "Observation",
+}
+PRIORITY_MARKERS = {"immediate": "▲", "before_loading": "●", "before_next_review": "○", "observation": "○"}
+SHORT_PRIORITY = {
+    "immediate": "▲ IMMEDIATE",
+    "before_loading": "● before loading",
+    "before_next_review": "○ next review",
+    "observation": "○ observation",
+}
+# what a finding is about, in a reviewer's words (the folded IMMEDIATE banner, `check --text`, the demo's table);
+# core's codes are stored and never reworded, and were shown with '_' made spaces ("slenderness exceeds limit")
+FINDING_WORDS: dict[FindingCode, str] = {
+    FindingCode.bearing_restraint_missing: "bearing restraint missing",
+    FindingCode.slenderness_exceeds_limit: "slenderness over the limit",
+    FindingCode.bending_overstress: "bending overstress",
+    FindingCode.shear_overstress: "shear overstress",
+    FindingCode.bearing_overstress: "bearing overstress",
+    FindingCode.deflection_exceeds_limit: "deflection over the limit",
+    FindingCode.undersize: "smaller than specified",
+    FindingCode.substitution: "size or grade other than specified",
+    FindingCode.compression_edge_unbraced: "compression edge unbraced",
+    FindingCode.layup_inverted: "layup upside down",
+    FindingCode.uplift_at_support: "uplift at a support",
+    FindingCode.input_assumed: "not recorded, taken as unfavourable",
+    FindingCode.modelling_option: "reviewer's modelling option",
+}
 
 STATUS_WORDS = {
     "ok": ("OK", "●"),
@@ -30,6 +62,20 @@ def status_label(status: str) -> str:
         raise ValueError(msg)
     word, shape = STATUS_WORDS[status]
     return f"{shape} {word}"
+
+
+def priority_label(priority: str) -> str:
+    """Priority by shape and words ('▲ IMMEDIATE: make safe now'), the same on the notice and in the app."""
+    return f"{PRIORITY_MARKERS.get(priority, '○')} {PRIORITY_WORDS.get(priority, priority)}"
+
+
+def finding_words(code: FindingCode | str) -> str:
+    """What a finding is about, in words ('slenderness over the limit'), from its code; never the code itself."""
+    try:
+        return FINDING_WORDS[FindingCode(code)]
+    except (KeyError, ValueError):
+        msg = f"finding code {code!r} has no words; known: {', '.join(c.value for c in FINDING_WORDS)}"
+        raise ValueError(msg) from None
 
 
 def stage_label(stage: int | str) -> str:

@@ -16,7 +16,7 @@ from core.recheck import recheck
 from core.records import ReviewerProfile
 from core.results import Recheck, utilisation_text
 from mobile.viewmodels.common import STATUS_WORDS, finding_words, line_loads_kn_m, status_label
-from reports.render import SHORT_PRIORITY
+from reports.words import SHORT_PRIORITY
 from storage import Store
 from storage.bundle import export_bundle
 from storage.store import DEMO_FIRM_KEY

@@ -20,7 +20,7 @@ from mobile.viewmodels.common import (
     UNSEEN_TAKEN_UNFAVOURABLE,
     status_label,
 )
-from reports.render import SHORT_PRIORITY
+from reports.words import SHORT_PRIORITY
 from storage import Store, results
 from storage.clock import uuid7
 from storage.gcpause import gc_paused
