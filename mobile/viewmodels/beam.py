@@ -175,7 +175,7 @@ class BeamFormViewModel:
             "top_stamp": _fmt(rec.get("top_stamp", "not_visible")),
             "specified_size": f"{spec['b_mm']:g} x {spec['d_mm']:g}" if isinstance(spec, dict) else "",
         }
-        loads = rec.get("loads") or {}
+        loads = self.loads_checked(rec)
         out.update({k: _fmt(loads.get(k)) for k in LOAD_FIELDS})
         for i, b in enumerate(rec.get("bearings", []), start=1):
             out[f"bearing{i}.lateral"] = _fmt(b.get("lateral"))
@@ -188,6 +188,16 @@ class BeamFormViewModel:
     def is_picker(name: str) -> bool:
         """A field chosen from a list (a refused choice is not kept as a draft)."""
         return name in PICKERS or name in ("species", "grade", "load_basis") or name.endswith((".lateral", ".rotation"))
+
+    def loads_checked(self, rec: dict[str, Any]) -> dict[str, Any]:
+        """The line loads the recheck uses: with a tributary width, derived from the site's basis as it stands.
+
+        The record keeps the loads derived when the width was entered; a basis corrected since (a higher snow
+        load) is what the recheck takes (``storage.results.derived_loads``), so the form shows the same.
+        """
+        loads = dict(rec.get("loads") or {})
+        width = rec.get("tributary_m")
+        return loads if width is None or not loads else dict(loads, **self.basis(rec).line_loads_kn_m(float(width)))
 
     def basis(self, rec: dict[str, Any]) -> Any:
         """The design basis the beam's loads come from: the site's, or the named one chosen for this beam."""
@@ -224,7 +234,7 @@ class BeamFormViewModel:
 
     def _load_echo(self, name: str, rec: dict[str, Any]) -> str:
         """Where the checked line loads come from: derived from the tributary width, or typed directly."""
-        width, loads = rec.get("tributary_m"), rec.get("loads")
+        width, loads = rec.get("tributary_m"), self.loads_checked(rec)
         if not loads:
             return ""
         if width is None:

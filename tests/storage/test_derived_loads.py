@@ -73,3 +73,16 @@ def test_a_named_basis_is_followed_and_one_no_longer_on_the_site_falls_back_to_t
     assert store.beam(derived).loads.snow_kn_m == 0.0
     store.update_site(site_id, {"load_bases": {}})
     assert store.beam(derived).loads.snow_kn_m == pytest.approx(2.6 * WIDTH_M)
+
+
+def test_the_beam_form_shows_and_rechecks_the_loads_the_recheck_uses(logged):
+    from mobile.viewmodels.beam import BeamFormViewModel
+
+    store, site_id, derived, _ = logged
+    store.update_site(site_id, {"design_basis": CORRECTED})
+    vm = BeamFormViewModel(store, site_id, derived)
+    assert vm.form()["snow_kn_m"] == "9.6"  # 4.0 kPa x 2.4 m, not the 6.24 kept in the record
+    assert vm.echo("snow_kn_m") == "derived: 2.4 m x 4 kPa (site) = 9.6 kN/m"
+    result = vm.refresh()
+    assert result is not None
+    assert result.governing_utilisation == pytest.approx(recheck(store.beam(derived)).governing_utilisation)
