@@ -25,6 +25,23 @@ from storage.store import OFFICE_PEER, ConflictNotResolved
 SKEW_WARN_MS = 2 * 60 * 1000  # sync.md 3.3: warn when the tablet's clock is this far from the hub's
 
 
+def relay_words(count: int) -> str:
+    """Colleagues' changes this tablet holds but cannot pass on to the office yet, in words.
+
+    The hub takes a colleague's change only from a tablet it lists, signed by that tablet (``hubsync._relayable``):
+    one from a tablet the office has not enrolled (again, after a restore) waits here, kept, until it has.
+    """
+    if count == 1:
+        return (
+            "1 change from another tablet waits on this one: the office takes it only from a tablet it lists, signed "
+            "by that tablet, so it is kept here and sent once the office lists it"
+        )
+    return (
+        f"{count} changes from other tablets wait on this one: the office takes them only from tablets it lists, "
+        "signed by the tablet that made each, so they are kept here and sent once the office lists them"
+    )
+
+
 def clock_words(skew_ms: int) -> str:
     """The tablet's clock against the office's, with what to do (skew: the office's clock minus the tablet's)."""
     minutes = round(abs(skew_ms) / 60000)
@@ -207,6 +224,8 @@ class SyncViewModel:
             text += f"; {clock_words(result.skew_ms)}"
         if result.rejected:
             text += f"; the office held back {len(result.rejected)}: see below"
+        if result.unsigned_relays:
+            text += f"; {relay_words(result.unsigned_relays)}"
         if result.version_words:
             text += f"; {result.version_words}"
         return text

@@ -258,6 +258,9 @@ def test_a_device_enrolled_after_the_backup_does_not_stop_its_colleagues(request
             _point_at(t, again.url)
         assert sync(b).in_step  # before: refused whole ("comes from a device never enrolled"), nothing sent
         assert _ops(restored.db) >= {o for o in _ops(b.db) if o[0] == b.device_id}
+        assert len([o for o in _ops(b.db) if o[0] == c.device_id]) == 1  # C's one save
+        said = SyncViewModel(b).sync_now()  # the Sync screen says C's change waits on B, and why
+        assert "1 change from another tablet waits on this one: the office takes it only from a tablet it lists" in said
         assert c.device_id not in {o[0] for o in _ops(restored.db)}
         hub_client.enroll(c, again.url, restored.new_code("Tablet C", "C. Rev", "reviewer"))
         for t in (c, a, b, a):
