@@ -27,6 +27,7 @@ import sqlite_utils
 from office import rules
 from storage.clock import uuid7
 from storage.db import PROJECTIONS, SCHEMA_VERSION, connect, transaction
+from storage.files import write_atomic
 from storage.identity import SignatureError, load_public, verify_op
 from storage.oplog import OP_KEYS, Op, ProjectionBatch, all_ops, apply_op, canonical, insert_op
 from storage.store import projection_digest
@@ -152,6 +153,72 @@ class HubStore:
                 self._set_meta("bundle_key", secrets.token_hex(32))
             if self._meta("epoch") is None:  # a hub made before epochs gets its first one here
                 self._set_meta("epoch", _new_epoch())
+            self._handed_out = 0  # the highest hub_seq this process saw handed out (``_check_history``)
+            self._check_history()
+        self._write_mark()
+
+    # -- an older copy of the database (copied back by hand, a lagging replica promoted) ---------
+    @property
+    def mark_path(self) -> Path:
+        """A small file outside the database: this hub's id, epoch and the highest hub_seq it handed out.
+
+        Beside an SQLite hub's file; for PostgreSQL in this machine's hub folder, named for the server and
+        database. A database copied back from a backup by hand does not bring it back, so the copy is seen
+        when the hub opens it (``_check_history``), as a tablet sees its own restore by its sent mark.
+        """
+        if self.backend == "sqlite":
+            return Path(self.path).with_name(Path(self.path).name + ".mark")
+        return _default_pg_blobs(self.path).with_suffix(".mark")
+
+    def _read_mark(self) -> dict[str, Any]:
+        try:
+            mark = json.loads(self.mark_path.read_text(encoding="utf-8"))
+        except (OSError, ValueError):
+            return {}  # no mark (a new hub, another machine) or a damaged one: only the early warning is lost
+        return mark if isinstance(mark, dict) and mark.get("hub_id") == self._meta("hub_id") else {}
+
+    def _write_mark(self) -> None:
+        """Note this hub's epoch and the highest hub_seq it handed out (after the commit that handed it out)."""
+        with self.lock:
+            mark = self._read_mark()
+            epoch = str(self._meta("epoch"))
+            held = int(mark.get("hub_seq", 0)) if mark.get("epoch") == epoch else 0
+            top = max(held, self._handed_out, self._top())
+            body = {"hub_id": self._meta("hub_id"), "epoch": epoch, "hub_seq": top}
+        try:
+            self.mark_path.parent.mkdir(parents=True, exist_ok=True)
+            write_atomic(self.mark_path, json.dumps(body).encode())
+        except OSError:
+            pass  # a read-only folder loses only the early warning; the tablets' holdings check still holds
+
+    def _top(self) -> int:
+        return int(self.db.execute("SELECT coalesce(max(hub_seq), 0) FROM hub_log").fetchone()[0])
+
+    def _check_history(self) -> None:
+        """Begin a new epoch when the database holds fewer hub_seqs than this hub handed out in this epoch.
+
+        Inside a write transaction. The mark (or this process) says hub_seq N was handed out, and with it the
+        acknowledgement of the ops pushed then; a database whose log stops below N under the same epoch is an
+        older copy: copied back from a backup by hand (not with ``bracewalk hub restore``, which begins a new
+        epoch itself) or a replica promoted before it had caught up. Its acknowledgements and hub_seq numbers
+        past that point are gone, so it is given a new history, as a restore is: each tablet forgets its hub
+        cursors, pushes what the hub lacks and pulls from the start (sync.md 3.3). Recorded in the audit log.
+        """
+        top = self._top()
+        mark = self._read_mark()
+        same_epoch = mark.get("epoch") == self._meta("epoch")
+        gave = max(self._handed_out, int(mark.get("hub_seq", 0)) if same_epoch else 0)
+        if top < gave:
+            epoch = _new_epoch()
+            self._set_meta("epoch", epoch)
+            self._audit(
+                None,
+                "epoch",
+                f"new history {epoch[:8]}: the database holds hub_seq up to {top}, but this hub had handed out "
+                f"{gave}: it is an older copy (copied back by hand, or a replica behind); tablets send again what "
+                "it lacks",
+            )
+        self._handed_out = top
 
     # -- schema and bookkeeping ----------------------------------------------------------------
     def _migrate(self) -> None:
@@ -496,6 +563,7 @@ class HubStore:
                 if (done[0], done[1]) != (device_id, body_sha256):
                     raise HubRefused(409, f"bundle {bundle_id} was already pushed with other content")
                 return PushAnswer(**json.loads(done[2]))
+            self._check_history()  # a database swapped under the running hub is caught before it numbers anything
             batch = ProjectionBatch(self.db)
             batch.prefetch([op for op, _ in ops])  # the rows, stamps and held ops the merge reads, up front
             for op, sig in ops:
@@ -529,6 +597,8 @@ class HubStore:
             )
             self.db.execute("UPDATE hub_device SET last_sync_ms=? WHERE device_id=?", [self.clock_ms(), device_id])
             self._audit(device_id, "push", f"{bundle_id}: {len(ops)} ops, {len(answer.rejected)} quarantined")
+        self._handed_out = max(self._handed_out, answer.hub_seq_after)  # committed: never a rolled-back number
+        self._write_mark()  # after the commit, before the answer leaves: what it acknowledges is in the mark
         return answer
 
     def _quarantine(self, op: Op, sig: str, reason: str, device_id: str) -> None:
