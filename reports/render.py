@@ -322,7 +322,7 @@ def _first_page(n: Notice, st: dict[str, ParagraphStyle], refs: PageRefs) -> lis
         story += [_boxed(note, st), Spacer(1, 4)]
     immediate = [i for i in n.items if i.priority == "immediate"]
     if immediate:
-        story += [_immediate_box(len(immediate), st), Spacer(1, 4)]
+        story += [_immediate_box(immediate, st), Spacer(1, 4)]
     to = [("Owner", n.owner or "not recorded"), ("Contractor", n.addressed_to or "not recorded")]
     # the items refer repairs to the engineer of record: the site is told who that is
     to.append(("Engineer of record", n.engineer_of_record or "not recorded: the owner names who it is"))
@@ -406,10 +406,22 @@ COUNT_WORDS = {
 }
 
 
-def _immediate_box(count: int, st: dict[str, ParagraphStyle]) -> Table:
+IMMEDIATE_LISTED = 12  # IMMEDIATE items named in page 1's box; more are counted (the summary lists them first)
+
+
+def _immediate_box(immediate: list[Item], st: dict[str, ParagraphStyle]) -> Table:
+    """Page 1's box: what to do now, and every IMMEDIATE item by number and place (up to IMMEDIATE_LISTED).
+
+    The summary below may run onto page 2 and a superintendent acts on page 1: each member to make safe is
+    named here, whatever the summary's length.
+    """
+    named = "<br/>".join(f"<b>{esc(i.number)}</b>: {esc(i.location)}" for i in ordered(immediate)[:IMMEDIATE_LISTED])
+    more = len(immediate) - IMMEDIATE_LISTED
+    if more > 0:
+        named += f"<br/>and {more} more, listed first in the summary of items"
     return _boxed(
-        f"<b>▲ {count} IMMEDIATE item(s):</b> make the area safe now (keep loads off, shore or brace); do not "
-        "wait for this notice: the reviewer also tells the site superintendent in person or by phone.",
+        f"<b>▲ {len(immediate)} IMMEDIATE item(s):</b> make the area safe now (keep loads off, shore or brace); do "
+        "not wait for this notice: the reviewer also tells the site superintendent in person or by phone.<br/>" + named,
         st,
     )
 

@@ -32,7 +32,9 @@ def _pages(pdf: bytes) -> list[str]:
 
 
 def _summary_text(pages: list[str]) -> str:
-    return " ".join(pages[: next(i for i, t in enumerate(pages) if "Items by member" in t)])
+    """The summary of items alone: from its heading (page 1's IMMEDIATE box above it names items too)."""
+    text = " ".join(pages[: next(i for i, t in enumerate(pages) if "Items by member" in t)])
+    return text[text.index("Summary of items") :]
 
 
 def _beam_item(number="D-AB12-001", finding=LONG, location="Roof, grid C / 2-3, RB-9, span 1", **beam):

@@ -167,3 +167,30 @@ def results_status(store, site_id, beam_id):
     from storage import results
 
     return results.fresh(store.db, site_id)[beam_id].status
+
+
+def test_page_one_names_every_immediate_item_even_when_the_summary_runs_on():
+    """The superintendent acts on page 1 (common practice: an urgent directive is whole where it is first read).
+
+    Five IMMEDIATE items and a long summary: page 1 showed four of them and the fifth on page 2.
+    """
+    from reports.render import IMMEDIATE_LISTED
+
+    base, _ = _item()
+    urgent = [
+        dataclasses.replace(
+            base, number=f"D-AB12-{n:03d}", location=f"Roof, grid {n} / 1-2, RB-{n}", priority="immediate"
+        )
+        for n in range(1, IMMEDIATE_LISTED + 4)
+    ]
+    first = " ".join(text_of_pages(render_notice(_notice(urgent)))[0].split())
+    for item in urgent[:IMMEDIATE_LISTED]:
+        assert f"{item.number}: {item.location}" in first
+    assert "and 3 more, listed first in the summary of items" in first
+    few = " ".join(text_of_pages(render_notice(_notice(urgent[:5])))[0].split())
+    assert all(f"{i.number}: {i.location}" in few for i in urgent[:5])
+    assert "more, listed first" not in few
+
+
+def text_of_pages(pdf):
+    return [p.extract_text() for p in PdfReader(io.BytesIO(pdf)).pages]
