@@ -223,8 +223,8 @@ def bending_findings(beam: Beam, member: Member, bending: list[BendingRegion]) -
                         f"{r.compression_edge}; the standard does not permit this member as installed.{rests}"
                     ),
                     action=(
-                        f"{keep_off(beam)}, and have lateral bracing added to the compression edge as directed by "
-                        "the engineer of record."
+                        f"{keep_off(beam)} and tell the site superintendent today; have lateral bracing added to "
+                        "the compression edge as directed by the engineer of record."
                     ),
                     clause="CSA O86-19 7.5.6.4.4",
                 )

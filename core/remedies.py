@@ -284,25 +284,39 @@ def _brace_remedy(beam: Beam, data: dict[str, Any], base: Change, sign: MomentSi
     edge = "top edge (fastened purlins or blocking)" if top else "bottom edge (knee braces or blocking)"
     spacing = change["top_edge.spacing_mm" if top else "bottom_edge.spacing_mm"]
     message = f"brace the {edge} at {spacing:g} mm or closer: {_result_words(solves, base, util)}"
-    message += _even_layout(max(beam.spans_mm), spacing, make, data, _bending(sign))
+    message += _even_layout(beam.spans_mm, spacing, make, data, _bending(sign))
     return [Remedy(solves=solves, change=change, utilisation_after=util, message=message)]
 
 
-def _even_layout(span_mm: float, spacing_mm: float, make: Callable[[float], Change], data: Change, check: Check) -> str:
-    """The braces of a spacing limit laid out as a site would: evenly over the span, the fewest that keep within it.
+def _even_layout(
+    spans_mm: list[float], spacing_mm: float, make: Callable[[float], Change], data: Change, check: Check
+) -> str:
+    """The braces of a spacing limit laid out as a site would: evenly in each span, the fewest that keep within it.
 
     The largest passing spacing is a limit (its utilisation at about 1.00), not a layout: on a 7000 mm span,
-    "at 6850 mm or closer" is built as one brace at mid-span (common practice: braces at even spacing).
-    Each space is ``floor(span / n)`` mm (never wider than the limit); '' when the limit is itself even.
+    "at 6850 mm or closer" is built as one brace at mid-span (common practice: braces at even spacing). The
+    limit holds along the whole edge, so each span is laid out alike; the words name every span's layout
+    (a brace near one support of a two-span beam leaves the other span's length unbraced). Each space is
+    ``floor(span / n)`` mm (never wider than the limit); the recheck takes the widest of them. '' when every
+    span is within the limit without an added brace, or the widest space is the limit itself.
     """
-    spaces = math.ceil(span_mm / spacing_mm - 1e-9)
-    even = math.floor(span_mm / spaces)
-    if spaces < 2 or even >= spacing_mm:
+    layout = [(span, math.ceil(span / spacing_mm - 1e-9)) for span in spans_mm]
+    widest = max(math.floor(span / n) for span, n in layout)
+    if all(n < 2 for _, n in layout) or widest >= spacing_mm:
         return ""
-    util = _try(data, make(even), check)
+    util = _try(data, make(widest), check)
     if util is None:
         return ""
-    return f"; laid out evenly over the {span_mm:g} mm span: {spaces} spaces of {even:g} mm, utilisation {util:.3f}"
+    each = [f"{n} spaces of {math.floor(span / n):g} mm" if n > 1 else "no brace needed" for span, n in layout]
+    if len(spans_mm) == 1:
+        where = f"over the {spans_mm[0]:g} mm span: {each[0]}"
+    elif len(set(spans_mm)) == 1:
+        where = f"in each span ({len(spans_mm)} spans of {spans_mm[0]:g} mm): {each[0]}"
+    else:
+        where = "span by span: " + "; ".join(
+            f"span {k} ({span:g} mm) {e}" for k, (span, e) in enumerate(zip(spans_mm, each, strict=True), start=1)
+        )
+    return f"; laid out evenly {where}, utilisation {util:.3f}"
 
 
 def _bearing_remedy(beam: Beam, data: dict[str, Any], result: Recheck, j: int) -> list[Remedy]:

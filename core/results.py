@@ -28,7 +28,7 @@ CAUTION = (
 # The version of what a recheck prints. Bump it with every change that may change a recheck's output (the
 # golden digests, tests/core/golden_versions.txt, refuse a rewrite under the same version): stored results
 # of another version are recomputed when a database is opened (storage.results).
-RESULTS_VERSION = 22
+RESULTS_VERSION = 23
 
 
 def utilisation_text(u: float | None) -> str:

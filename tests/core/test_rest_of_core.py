@@ -486,6 +486,36 @@ def test_positive_moment_brace_remedy_is_the_largest_fastened_purlin_spacing_tha
     )
 
 
+def test_a_bracing_layout_names_every_span_of_a_continuous_beam():
+    """The brace limit holds along the whole edge, so the layout names each span.
+
+    Two 7000 mm spans with the bottom edge in compression over the middle support (a roof beam under snow): a
+    brace near one support leaves the other span's length unbraced. n = ceil(L / s) spaces of floor(L / n) mm
+    in every span (common practice: braces at even spacing).
+    """
+    restrained = {"lateral": True, "rotation": True, "length_mm": 140}
+    beam = Beam.model_validate(
+        {
+            "mark": "RB-6", "material": "glulam", "species": "D.Fir-L", "grade": "24f-E", "b_mm": 130, "d_mm": 532,
+            "spans_mm": [7000, 7000], "bearings": [restrained, dict(restrained, length_mm=280), restrained],
+            "top_edge": {"braced_by": "purlins", "spacing_mm": 1200, "fastened": True}, "top_stamp": "up",
+            "use": "roof_no_ceiling", "loads": {"dead_kn_m": 3.6, "live_kn_m": 0.0, "snow_kn_m": 7.8},
+        }
+    )  # fmt: skip
+    assert beam.spans_mm == [7000, 7000]
+    bottom = [r for r in remedies(beam) if "bottom_edge.spacing_mm" in r.change]
+    assert len(bottom) == 1
+    limit = bottom[0].change["bottom_edge.spacing_mm"]
+    spaces = math.ceil(7000 / limit)
+    even = math.floor(7000 / spaces)
+    full = beam.model_dump(mode="json")
+    after = recheck(Beam.model_validate(apply_change(full, dict(bottom[0].change, **{"bottom_edge.spacing_mm": even}))))
+    util = max(b.utilisation for b in after.bending if b.sign is MomentSign.negative)
+    assert bottom[0].message.endswith(
+        f"; laid out evenly in each span (2 spans of 7000 mm): {spaces} spaces of {even} mm, utilisation {util:.3f}"
+    )
+
+
 # -- limit states: a resistance equal to the demand passes ---------------------------------------------------
 @pytest.mark.parametrize(
     ("util", "flagged"),
