@@ -148,6 +148,8 @@ def loads_source(tributary_m: float | None, basis_name: str, basis: DesignBasis)
     if tributary_m is None:
         return "line loads as typed on the tablet (no tributary width recorded)"
     where = f"the site's design basis '{basis_name}'" if basis_name else "the site's design basis"
+    if basis.drawings.strip():  # where the area loads are written: the engineer of record checks them there
+        where += f" ({basis.drawings.strip()})"
     return (
         f"line loads derived from {where}: dead {basis.dead_kpa:g}, live {basis.live_kpa:g}, "
         f"snow {basis.snow_kpa:g} kPa x tributary width {float(tributary_m):g} m"
@@ -171,14 +173,20 @@ def record_loads_source(record: Mapping[str, Any], site: Site) -> str:
 def loads_checked_words(beam: Beam, source: str = "") -> str:
     """The specified loads and bearing lengths a member was rechecked with, and where its loads came from.
 
-    'dead 2.88, live 0, snow 4.68 kN/m specified, self-weight added (line loads derived from ...); bearing
+    'dead 2.88 + self-weight 0.29, live 0, snow 4.68 kN/m specified (line loads derived from ...); bearing
     lengths 140 mm and 140 mm'. On a notice, so the engineer of record can see the inputs behind each number.
+    The self-weight is the recheck's own (``core.member``: unit weight x b x d).
     """
+    from core.member import member_properties
+
     loads = beam.loads
-    words = (
-        f"dead {loads.dead_kn_m:g}, live {loads.live_kn_m:g}, snow {loads.snow_kn_m:g} kN/m specified, "
-        + ("self-weight added" if beam.self_weight else "self-weight not added")
-        + (f" ({source})" if source else "")
+    weight = (
+        f" + self-weight {member_properties(beam).self_weight_n_mm:.2f}"
+        if beam.self_weight
+        else " (self-weight not added)"
+    )
+    words = f"dead {loads.dead_kn_m:g}{weight}, live {loads.live_kn_m:g}, snow {loads.snow_kn_m:g} kN/m specified" + (
+        f" ({source})" if source else ""
     )
     lengths = [_mm(b.length_mm) for b in beam.bearings]
     if len(lengths) == 1:

@@ -116,7 +116,8 @@ def test_each_member_names_the_loads_and_bearing_lengths_it_was_rechecked_with(t
     _, path = issue_notice_for_site(store, site.id, tmp_path / "n.pdf", "R. Ames", acknowledgement=ack)
     text = _flat(path.read_bytes())
     assert (
-        "Loads checked dead 2.88, live 0, snow 4.68 kN/m specified, self-weight added (line loads derived from the "
+        # self-weight: 4.9 kN/m3 (the data file's glulam D.Fir-L unit weight) x 0.130 x 0.456 m = 0.29 kN/m
+        "Loads checked dead 2.88 + self-weight 0.29, live 0, snow 4.68 kN/m specified (line loads derived from the "
         "site's design basis: dead 1.2, live 0, snow 1.95 kPa x tributary width 2.4 m); bearing lengths 140 mm and "
         "140 mm" in text
     )
