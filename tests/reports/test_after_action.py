@@ -87,20 +87,22 @@ def test_a_member_says_on_which_visit_it_was_logged(tmp_path):
     by_title = {i.member_title.split(" · ")[0]: i for i in notice.items if i.member}
     assert (
         by_title["FJ-1"].logged
-        == "on the visit of 2026-11-24 08:30 (this notice follows the visit of 2026-11-30 09:15)"
+        == "on the visit of 2026-11-24 08:30 PST (this notice follows the visit of 2026-11-30 09:15 PST)"
     )
-    assert by_title["RB-3"].logged == "on the visit of 2026-11-30 09:15"
+    assert by_title["RB-3"].logged == "on the visit of 2026-11-30 09:15 PST"
     # the header names the earlier visit and its scope beside this visit's (the floor was not in this one's)
-    assert notice.earlier_visits == ["2026-11-24 08:30 (scope reviewed then: Level 2 floor framing, grids A-D / 1-4)"]
+    assert notice.earlier_visits == [
+        "2026-11-24 08:30 PST (scope reviewed then: Level 2 floor framing, grids A-D / 1-4)"
+    ]
     text = _flat(render_notice(notice))
     head = text[: text.index("Summary of items")]
     assert "Scope reviewed: Roof framing grids A-F / 1-6" in head
     assert (
-        "Earlier visits: some items are on members logged on 2026-11-24 08:30 (scope reviewed then: Level 2 floor "
+        "Earlier visits: some items are on members logged on 2026-11-24 08:30 PST (scope reviewed then: Level 2 floor "
         "framing, grids A-D / 1-4)" in head
     )
     member = text[text.index("Member FJ-1") :]
-    assert member.index("Logged on the visit of 2026-11-24 08:30") < member.index("Item D-")
+    assert member.index("Logged on the visit of 2026-11-24 08:30 PST") < member.index("Item D-")
 
 
 def test_a_beam_with_no_recorded_visit_gets_no_logged_line():
