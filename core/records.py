@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from enum import IntEnum, StrEnum
 from typing import Literal
 
@@ -34,6 +35,11 @@ class DesignBasis(Record):
             "live_kn_m": round(self.live_kpa * tributary_m, 3),
             "snow_kn_m": round(self.snow_kpa * tributary_m, 3),
         }
+
+
+def chosen_basis(main: DesignBasis, named: Mapping[str, DesignBasis], name: str | None) -> tuple[str, DesignBasis]:
+    """The basis a beam's loads come from: its named one while the site has it, else the site's main one ('')."""
+    return (name, named[name]) if name and name in named else ("", main)
 
 
 class Site(Record):

@@ -192,6 +192,7 @@ class HubStore:
             pass  # a read-only folder loses only the early warning; the tablets' holdings check still holds
 
     def _top(self) -> int:
+        """The highest hub_seq in the log (0 when it is empty)."""
         return int(self.db.execute("SELECT coalesce(max(hub_seq), 0) FROM hub_log").fetchone()[0])
 
     def _check_history(self) -> None:
@@ -288,7 +289,7 @@ class HubStore:
     def hub_seq(self) -> int:
         """The last hub_seq handed out (0 when the log is empty)."""
         with self.lock:
-            return int(self.db.execute("SELECT coalesce(max(hub_seq), 0) FROM hub_log").fetchone()[0])
+            return self._top()
 
     def digest(self) -> str:
         """The same digest a tablet holding the same records gives (``bracewalk sync digest``)."""
@@ -583,7 +584,7 @@ class HubStore:
                     self.db.execute("DELETE FROM hub_quarantine WHERE origin=? AND seq=?", [op.origin, op.seq])
                 answer.accepted[op.origin] = max(answer.accepted.get(op.origin, 0), op.seq)
             batch.flush()
-            answer.hub_seq_after = int(self.db.execute("SELECT coalesce(max(hub_seq), 0) FROM hub_log").fetchone()[0])
+            answer.hub_seq_after = self._top()
             answer.seen = dict(self.db.execute("SELECT origin, seq FROM seen").fetchall())
             self.db.execute(
                 "INSERT INTO hub_push VALUES (?, ?, ?, ?, ?)",
@@ -630,7 +631,7 @@ class HubStore:
                 [cursor, limit],
             ).fetchall()
             seen = dict(self.db.execute("SELECT origin, seq FROM seen").fetchall())
-            top = int(self.db.execute("SELECT coalesce(max(hub_seq), 0) FROM hub_log").fetchone()[0])
+            top = self._top()
             epoch = self.epoch
         ops = []
         for r in rows:
@@ -652,7 +653,7 @@ class HubStore:
         """Projection rows, field stamps and the hub_seq they correspond to (bootstraps a new tablet)."""
         with self.lock, transaction(self.db):
             return {
-                "hub_seq": int(self.db.execute("SELECT coalesce(max(hub_seq), 0) FROM hub_log").fetchone()[0]),
+                "hub_seq": self._top(),
                 "schema_version": SCHEMA_VERSION,
                 "projections": {
                     t: [

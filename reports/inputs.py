@@ -11,7 +11,7 @@ from collections.abc import Mapping
 from typing import Any
 
 from core.models import SYSTEM_WORDS, Beam, Bearing
-from core.records import DesignBasis, Site
+from core.records import DesignBasis, Site, chosen_basis
 
 MATERIAL_WORDS = {"glulam": "glued-laminated timber (glulam)", "sawn": "sawn lumber"}
 SERVICE_WORDS = {"dry": "dry", "wet": "wet (KS for wet service)"}
@@ -163,10 +163,8 @@ def record_loads_source(record: Mapping[str, Any], site: Site) -> str:
     ``tributary_m`` when the tablet derived the line loads from that basis.
     """
     width = record.get("tributary_m")
-    name = str(record.get("load_basis") or "")
-    if name not in site.load_bases:  # a basis no longer on the site: its main one, as the recheck takes it
-        name = ""
-    basis = site.load_bases[name] if name else site.design_basis
+    # a basis no longer on the site: its main one, as the recheck takes it
+    name, basis = chosen_basis(site.design_basis, site.load_bases, str(record.get("load_basis") or ""))
     return loads_source(None if width is None else float(width), name, basis)
 
 

@@ -54,9 +54,7 @@ from reports.photos import CELL_W_MM, photo_flowable, wide_box
 from reports.sketch import FONT, FONT_BOLD, beam_sketch, register_fonts
 from reports.tablerows import memory_rows
 from reports.textrun import markup
-from reports.words import PRIORITY_MARKERS, PRIORITY_WORDS, SHORT_PRIORITY, priority_label
-
-__all__ = ["PRIORITY_MARKERS", "PRIORITY_WORDS", "SHORT_PRIORITY", "priority_label"]  # kept importable from here
+from reports.words import SHORT_PRIORITY, priority_label
 
 # Binary (Flate/DCT) streams instead of ASCII85: reportlab's pure-Python ASCII85 encoder was most of
 # the time of a notice with photos, and binary streams are a fifth smaller. Process-wide by design.

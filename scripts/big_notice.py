@@ -26,7 +26,6 @@ from core.models import Beam
 from core.recheck import recheck
 from core.records import ReviewerProfile
 from mobile.issue import acknowledge, issue_notice_for_site, rows_for_items
-from mobile.viewmodels.common import line_loads_kn_m
 from storage import Store
 
 LEVELS = ["Level 2", "Level 3", "Level 4", "Roof", "Mezzanine"]
@@ -137,7 +136,7 @@ def log_beam(store: Store, site: Any, k: int) -> tuple[str, Beam, str]:
     grid = f"{line} / {g}-{g + 1}" + (f"-{g + 2}" if len(data["spans_mm"]) == 2 else "")
     mark = {"Roof": "RB", "Mezzanine": "MB"}.get(level, "FB" if data["material"] == "glulam" else "FJ") + f"-{k + 1}"
     basis = "floor" if data["use"] == "floor" else "roof"
-    loads = line_loads_kn_m({"roof": site.design_basis, **site.load_bases}[basis], trib)
+    loads = {"roof": site.design_basis, **site.load_bases}[basis].line_loads_kn_m(trib)
     beam = Beam.model_validate(dict(data, mark=mark, loads=loads))
     notes = "Seen from the scissor lift only;\nthe far bearing is behind the duct. Contrôle à refaire. 梁端未確認"
     beam_id = store.save_beam(

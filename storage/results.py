@@ -23,7 +23,7 @@ from json.encoder import encode_basestring_ascii as _ascii
 from typing import Any
 
 from core import tables
-from core.records import DesignBasis
+from core.records import DesignBasis, chosen_basis
 from storage.db import transaction
 from storage.gcpause import gc_paused
 
@@ -112,9 +112,8 @@ def _bases_of(text: str) -> Bases | None:
 
 def basis_of(record: Mapping[str, Any], bases: Bases) -> tuple[str, DesignBasis]:
     """The basis a beam's loads come from: its named one (``load_bases``), else the site's main one ('')."""
-    name = str(record.get("load_basis") or "")
     main, named = bases
-    return (name, named[name]) if name in named else ("", main)
+    return chosen_basis(main, named, str(record.get("load_basis") or ""))
 
 
 def derived_loads(fields: dict[str, Any], record: Mapping[str, Any], bases: Bases) -> dict[str, Any]:

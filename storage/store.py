@@ -511,8 +511,7 @@ class Store:
         Line loads derived from a tributary width follow the site's design basis as it stands (``derived_loads``).
         """
         data = self.beam_record(beam_id)
-        site = self._get("site", str(data.get("site_id") or "")) if data.get("site_id") else None
-        return Beam.model_validate(beam_input(data, site))
+        return Beam.model_validate(beam_input(data, self._get("site", str(data.get("site_id") or ""))))
 
     def beams(self, site_id: str) -> list[tuple[str, dict[str, Any]]]:
         """A site's beams (id, record) ordered by level, gridline and mark; archived ones left out."""

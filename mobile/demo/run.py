@@ -15,7 +15,7 @@ from core.models import Beam
 from core.recheck import recheck
 from core.records import ReviewerProfile
 from core.results import Recheck, utilisation_text
-from mobile.viewmodels.common import STATUS_WORDS, finding_words, line_loads_kn_m, status_label
+from mobile.viewmodels.common import STATUS_WORDS, finding_words, status_label
 from reports.words import SHORT_PRIORITY
 from storage import Store
 from storage.bundle import export_bundle
@@ -63,7 +63,7 @@ def load_demo(store: Store) -> str:
     bases = {"roof": site.design_basis, **site.load_bases}  # as stored: the app's beam form reads the same
     visit_ids = {v["key"]: store.start_visit(site.id, **{k: v[k] for k in v if k != "key"}).id for v in data["visits"]}
     for entry in data["beams"]:
-        loads = line_loads_kn_m(bases[entry["basis"]], entry["tributary_m"])
+        loads = bases[entry["basis"]].line_loads_kn_m(entry["tributary_m"])
         beam = Beam.model_validate(dict(entry["beam"], loads=loads))
         beam_id = store.save_beam(
             site.id,

@@ -29,11 +29,11 @@ from core import tables
 from core.models import Beam, Material, SystemCase, bearings_with_stand_ins, grades_allowed, species_allowed
 from core.plausible import PLAUSIBLE
 from core.recheck import recheck
-from core.records import Stage
+from core.records import Stage, chosen_basis
 from core.remedies import remedies
 from core.results import CheckKind, Recheck, check_lines
 from mobile.units import FIELD_WORDS, LengthRefused, echo_length, feet_inches, read_length, split_spans
-from mobile.viewmodels.common import PRIORITY_LABELS, finding_words, line_loads_kn_m, status_label
+from mobile.viewmodels.common import PRIORITY_LABELS, finding_words, status_label
 from mobile.viewmodels.site import KEEP
 from reports.content import support_names, trace_line
 from reports.inputs import loads_source, sheet_stem
@@ -41,7 +41,7 @@ from reports.render import render_recheck_sheet
 from reports.tablerows import counts, rows_used
 from storage import StorageError, Store
 from storage.files import write_atomic
-from storage.results import beam_input, recorded_system, stored_system
+from storage.results import beam_input, derived_loads, recorded_system, stored_system
 
 LENGTH_FIELDS = {  # form field -> its plausible range (core.plausible)
     "b_mm": "b_mm",
@@ -196,14 +196,15 @@ class BeamFormViewModel:
         load) is what the recheck takes (``storage.results.derived_loads``), so the form shows the same.
         """
         loads = dict(rec.get("loads") or {})
-        width = rec.get("tributary_m")
-        return loads if width is None or not loads else dict(loads, **self.basis(rec).line_loads_kn_m(float(width)))
+        if not loads:
+            return loads
+        site = self.store.site(self.site_id)
+        return dict(derived_loads({"loads": loads}, rec, (site.design_basis, site.load_bases))["loads"])
 
     def basis(self, rec: dict[str, Any]) -> Any:
         """The design basis the beam's loads come from: the site's, or the named one chosen for this beam."""
         site = self.store.site(self.site_id)
-        name = rec.get("load_basis")
-        return site.load_bases.get(name, site.design_basis) if name else site.design_basis
+        return chosen_basis(site.design_basis, site.load_bases, rec.get("load_basis"))[1]
 
     def echo(self, name: str) -> str:
         """What a stored length field was understood as, in mm and feet-inches ('= 7200 mm = 23' 7 7/16"').
@@ -313,7 +314,7 @@ class BeamFormViewModel:
         if not text:
             return {"tributary_m": None}  # cleared: the line loads stay as they are
         width = read_length("tributary_m", text) / 1000  # mm, m or feet-inches; a bare number in m
-        return {"tributary_m": width, "loads": line_loads_kn_m(self.basis(rec), width)}
+        return {"tributary_m": width, "loads": self.basis(rec).line_loads_kn_m(width)}
 
     def _basis_entry(self, text: str, rec: dict[str, Any]) -> dict[str, Any]:
         if text not in self.options("load_basis"):
@@ -321,7 +322,7 @@ class BeamFormViewModel:
             raise ValueError(msg)
         changes: dict[str, Any] = {"load_basis": None if text == MAIN_BASIS else text}
         if rec.get("tributary_m") is not None:  # derived loads follow the basis at once
-            changes["loads"] = line_loads_kn_m(self.basis(dict(rec, **changes)), rec["tributary_m"])
+            changes["loads"] = self.basis(dict(rec, **changes)).line_loads_kn_m(rec["tributary_m"])
         return changes
 
     def set_field(self, name: str, text: str) -> bool:

@@ -6,7 +6,6 @@ from pathlib import Path
 
 from pydantic import ValidationError
 
-from core.records import DesignBasis
 from core.results import CAUTION
 from reports.words import FINDING_WORDS as FINDING_WORDS
 from reports.words import PRIORITY_WORDS, priority_label
@@ -32,8 +31,3 @@ def default_export_dir() -> Path:
 def validation_message(exc: ValidationError) -> str:
     """One line per pydantic error: 'field.path: message'."""
     return "; ".join(f"{'.'.join(map(str, e['loc'])) or 'value'}: {e['msg']}" for e in exc.errors())
-
-
-def line_loads_kn_m(basis: DesignBasis, tributary_m: float) -> dict[str, float]:
-    """Specified line loads, kN/m = design-basis area loads, kPa x tributary width, m (common practice)."""
-    return basis.line_loads_kn_m(tributary_m)  # the one derivation, as every recheck makes it again

@@ -149,7 +149,6 @@ def test_sync_cli_round_trip_same_digest(tmp_path):
 def test_demo_loads_are_the_ones_the_beam_form_derives(tmp_path):
     """The demo and the app share one line-load function and the same stored basis per beam."""
     from mobile.viewmodels.beam import BeamFormViewModel
-    from mobile.viewmodels.common import line_loads_kn_m
 
     store = Store(tmp_path / "demo.db")
     site_id = load_demo(store)
@@ -157,7 +156,7 @@ def test_demo_loads_are_the_ones_the_beam_form_derives(tmp_path):
     for beam_id, record in store.beams(site_id):
         vm = BeamFormViewModel(store, site_id, beam_id)
         stored = store.beam(beam_id).loads
-        form = line_loads_kn_m(vm.basis(vm.record()), record["tributary_m"])
+        form = vm.basis(vm.record()).line_loads_kn_m(record["tributary_m"])
         assert form == {"dead_kn_m": stored.dead_kn_m, "live_kn_m": stored.live_kn_m, "snow_kn_m": stored.snow_kn_m}
         by_mark[record["mark"]] = stored
     # line load = area load x tributary width (common practice), values from mobile/demo/site.json written out:
