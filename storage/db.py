@@ -6,6 +6,7 @@ import sqlite3
 from collections.abc import Iterator
 from contextlib import contextmanager
 from pathlib import Path
+from typing import NamedTuple
 
 import sqlite_utils
 
@@ -45,7 +46,16 @@ SET_ENTITIES = ("site", "visit", "beam", "deficiency", "table_row")  # table_row
 INSERT_ENTITIES = ("measurement", "photo", "issued_notice")
 PROJECTIONS = (*SET_ENTITIES, *INSERT_ENTITIES, "deficiency_event")
 
-MIGRATIONS: dict[int, list[str]] = {
+
+class AddColumn(NamedTuple):
+    """``ALTER TABLE table ADD COLUMN column declared``, skipped when the column is there (ALTER is not idempotent)."""
+
+    table: str
+    column: str
+    declared: str
+
+
+MIGRATIONS: dict[int, list[str | AddColumn]] = {
     1: [
         "CREATE TABLE IF NOT EXISTS meta (key TEXT PRIMARY KEY, value TEXT NOT NULL)",
         """CREATE TABLE IF NOT EXISTS op (
@@ -178,6 +188,18 @@ MIGRATIONS: dict[int, list[str]] = {
     8: [
         "CREATE TABLE IF NOT EXISTS trusted_role (device_id TEXT PRIMARY KEY, role TEXT NOT NULL) WITHOUT ROWID",
     ],
+    # 9: the table rows a stored result used are kept once per distinct set (storage/results.py): the beams of a
+    # portfolio share a handful of sets (6 on 100k bench beams), and each result held its own copy, ~2.3 KB of
+    # text (a 100k-beam portfolio recheck wrote ~230 MB of it). A result now names its set (rows_id; NULL: no
+    # rows, as a new beam's placeholder row has); rows_used stays '[]' (the triggers write it; dropping the
+    # column would mean rebuilding the table)
+    9: [
+        "CREATE TABLE IF NOT EXISTS rows_set (id INTEGER PRIMARY KEY, rows TEXT NOT NULL UNIQUE)",
+        AddColumn("beam_result", "rows_id", "INTEGER"),
+        "INSERT OR IGNORE INTO rows_set (rows) SELECT DISTINCT rows_used FROM beam_result WHERE rows_used <> '[]'",
+        "UPDATE beam_result SET rows_id = (SELECT s.id FROM rows_set s WHERE s.rows = beam_result.rows_used), "
+        "rows_used = '[]' WHERE rows_used <> '[]'",
+    ],
 }
 
 
@@ -209,9 +231,19 @@ def migrate(db: sqlite_utils.Database) -> int:
             continue
         with transaction(db):
             for statement in MIGRATIONS[number]:
-                db.execute(statement)
+                apply_statement(db, statement)
             db.execute(f"PRAGMA user_version = {number}")
     return max(current, max(MIGRATIONS))
+
+
+def apply_statement(db: sqlite_utils.Database, statement: str | AddColumn) -> None:
+    """One statement of a migration."""
+    if isinstance(statement, str):
+        db.execute(statement)
+        return
+    held = {row[1] for row in db.execute(f"PRAGMA table_info({statement.table})").fetchall()}
+    if statement.column not in held:
+        db.execute(f"ALTER TABLE {statement.table} ADD COLUMN {statement.column} {statement.declared}")
 
 
 @contextmanager

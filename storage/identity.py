@@ -19,7 +19,7 @@ from cryptography.exceptions import InvalidSignature
 from cryptography.hazmat.primitives import serialization
 from cryptography.hazmat.primitives.asymmetric.ed25519 import Ed25519PrivateKey, Ed25519PublicKey
 
-from storage.db import MIGRATIONS, transaction
+from storage.db import MIGRATIONS, apply_statement, transaction
 from storage.oplog import Op, canonical
 
 # How far a signed request's time may be from the hub's clock (milliseconds).
@@ -150,7 +150,7 @@ class Enrolment:
 def ensure_tables(db: sqlite_utils.Database) -> None:
     """Create the identity tables on a device database (idempotent)."""
     for statement in IDENTITY_TABLES:
-        db.execute(statement)
+        apply_statement(db, statement)
 
 
 def _get(db: sqlite_utils.Database, name: str) -> str | None:

@@ -310,20 +310,42 @@ def _row(r: tuple[Any, ...]) -> StoredResult:
         governing=r[4],
         utilisation=r[5],
         findings=tuple(json.loads(r[6])),
-        rows_used=tuple(json.loads(r[7])),
+        rows_used=tuple(json.loads(_set_text(r))),
     )
 
 
-COLUMNS = "beam_id, site_id, input_hash, status, governing, utilisation, findings, rows_used"
+def _set_text(r: tuple[Any, ...]) -> str:
+    """A stored result's table rows' text (column 7 of ``_STORED_SQL``); a result naming a missing set is an error."""
+    if r[7] is None:
+        msg = f"stored result of beam {r[0]} names a set of table rows that is not in rows_set"
+        raise ValueError(msg)
+    return str(r[7])
+
+
+COLUMNS = "beam_id, site_id, input_hash, status, governing, utilisation, findings"  # then the table rows
+_LISTED = "mark, level, gridline, archived"  # a result's list fields, after its table rows
+# a stored result's columns as ``as_row`` gives them: its table rows' text read from their set (migration 9:
+# ``rows_set``, one row per distinct set; a result names its set by ``rows_id``, NULL for no rows)
+_STORED_COLUMNS = ", ".join(f"r.{c}" for c in COLUMNS.split(", ")) + (
+    ", CASE WHEN r.rows_id IS NULL THEN '[]' ELSE s.rows END"
+)
+_STORED_FROM = " FROM beam_result r LEFT JOIN rows_set s ON s.id = r.rows_id"
+_STORED_SQL = f"SELECT {_STORED_COLUMNS}{_STORED_FROM}"
 
 
 def stored(db: Any, site_id: str | None = None, needing_action: bool = False) -> dict[str, StoredResult]:
     """The stored results (of one site, or all), whatever their age; ``needing_action``: not ok, not unchecked."""
-    where = (["site_id=?"] if site_id else []) + [f"status != '{PENDING}'"]
+    where = (["r.site_id=?"] if site_id else []) + [f"r.status != '{PENDING}'"]
     if needing_action:
-        where.append(f"status NOT IN ('ok', '{UNCHECKED}')")
-    sql = f"SELECT {COLUMNS} FROM beam_result" + (" WHERE " + " AND ".join(where) if where else "")
+        where.append(f"r.status NOT IN ('ok', '{UNCHECKED}')")
+    sql = _STORED_SQL + " WHERE " + " AND ".join(where)
     return {r[0]: _row(r) for r in db.execute(sql, [site_id] if site_id else []).fetchall()}
+
+
+def stored_rows(db: Any) -> dict[str, tuple[Any, ...]]:
+    """Every ``beam_result`` row as ``as_row`` gives it (its table rows' text read from their set), by beam id."""
+    listed = ", ".join(f"r.{c}" for c in _LISTED.split(", "))
+    return {r[0]: tuple(r) for r in db.execute(f"SELECT {_STORED_COLUMNS}, {listed}{_STORED_FROM}").fetchall()}
 
 
 def site_list(db: Any, site_id: str) -> list[tuple[str, dict[str, Any], str]]:
@@ -356,11 +378,14 @@ def needing_action(db: Any, site_id: str) -> list[tuple[str, str, list[dict[str,
     return [(bid, mark, json.loads(found)) for bid, mark, found in db.execute(sql, [site_id]).fetchall()]
 
 
-_ROW_COLUMNS = (*COLUMNS.split(", "), "mark", "level", "gridline", "archived")
+# the columns written, in ``as_row``'s order but for the table rows: the id of their set (``rows_set``) instead
+# of their text; rows_used itself always holds '[]' (migration 9)
+_ROW_COLUMNS = (*COLUMNS.split(", "), "rows_id", *_LISTED.split(", "))
 # an upsert, not INSERT OR REPLACE: a row that exists is updated in place, so the indexes on columns
 # that did not change (site, list fields) are left alone (about 2.5x cheaper on a rerun)
 ROW_SQL = (
-    f"INSERT INTO beam_result ({', '.join(_ROW_COLUMNS)}) VALUES ({', '.join('?' * len(_ROW_COLUMNS))}) "
+    f"INSERT INTO beam_result (rows_used, {', '.join(_ROW_COLUMNS)}) "
+    f"VALUES ('[]', {', '.join('?' * len(_ROW_COLUMNS))}) "
     "ON CONFLICT(beam_id) DO UPDATE SET " + ", ".join(f"{c} = excluded.{c}" for c in _ROW_COLUMNS[1:])
 )
 
@@ -376,12 +401,15 @@ def _findings_json(items: Triples) -> str:
     return _json_of(FINDING_KEYS, items)
 
 
+@lru_cache(maxsize=1024)
 def _rows_json(items: Triples) -> str:
     """``_json_of(ROW_KEYS, items)``, each row's object encoded once per distinct row.
 
-    A beam's rows differ as a set (their sources carry its own numbers), but most single rows recur
-    from beam to beam (the grade row, the service and treatment factors, the clause notes). The text is
-    the one ``json.dumps`` writes: ``encode_basestring_ascii`` is its encoder for a str (ensure_ascii).
+    Most single rows recur from beam to beam (the grade row, the service and treatment factors, the clause
+    notes), and so do whole sets: the beams of a portfolio share a handful (6 on 100k bench beams). One
+    text object per distinct set: a part's rows sent back from a worker then carry each set once (pickle
+    writes an object it has written before as a reference), and ``write_rows`` hashes each object once.
+    The text is the one ``json.dumps`` writes: ``encode_basestring_ascii`` is its encoder for a str.
     """
     return "[" + ", ".join(map(_row_text, items)) + "]"
 
@@ -423,7 +451,31 @@ def write_rows(db: Any, rows: list[tuple[Any, ...]]) -> None:
     stand inside this transaction (``BEGIN IMMEDIATE`` holds the write lock): a beam saved after its record
     was read keeps its stale mark instead of getting the old recheck under the old key.
     """
-    db.conn.executemany(ROW_SQL, _still_current(db, rows))
+    current = _still_current(db, rows)
+    ids = _set_ids(db, {r[7]: None for r in current})
+    db.conn.executemany(ROW_SQL, [(*r[:7], ids[r[7]], *r[8:]) for r in current])
+
+
+def _set_ids(db: Any, texts: Iterable[str]) -> dict[str, int | None]:
+    """The ``rows_set`` id of each table rows' text, adding the sets not held yet (inside the caller's transaction).
+
+    Read inside the writing transaction, never kept across transactions: ``prune_sets`` may remove a set no
+    result names between two of them. No rows ('[]') is NULL, as a new beam's placeholder row has it.
+    """
+    ids: dict[str, int | None] = {}
+    for text in texts:
+        if text == "[]":
+            ids[text] = None
+            continue
+        found = db.conn.execute("SELECT id FROM rows_set WHERE rows = ?", [text]).fetchone()
+        ids[text] = found[0] if found else db.conn.execute("INSERT INTO rows_set (rows) VALUES (?)", [text]).lastrowid
+    return ids
+
+
+def prune_sets(db: Any) -> int:
+    """Remove the sets of table rows no stored result names (inside the caller's transaction); how many went."""
+    sql = "DELETE FROM rows_set WHERE id NOT IN (SELECT rows_id FROM beam_result WHERE rows_id IS NOT NULL)"
+    return int(db.conn.execute(sql).rowcount)
 
 
 def _still_current(db: Any, rows: list[tuple[Any, ...]]) -> list[tuple[Any, ...]]:
@@ -715,6 +767,8 @@ def recheck_all(
             if on_progress:
                 on_progress(run.rechecked, total)
         _write_batch(db, pending)
+        with transaction(db):
+            prune_sets(db)  # the sets the results named before this run and no longer do
     return run
 
 

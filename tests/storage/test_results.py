@@ -1,5 +1,7 @@
 """Stored recheck results: kept with the record, refreshed when what they depend on changes; the portfolio recheck."""
 
+import json
+
 import pytest
 
 from core.recheck import recheck
@@ -135,6 +137,9 @@ def test_site_list_reads_the_list_fields_stored_beside_each_result(store):
     assert [r[1]["mark"] for r in results.site_list(store.db, site.id)] == ["X-9", "RB-3", "RB-0", "RB-1"]
 
 
+OLD_ROWS = json.dumps([{"clause": "CSA O86-19 Table 7.3", "source": "row D.Fir-L 24f-E (stored)", "status": "memory"}])
+
+
 def test_a_database_from_before_the_list_fields_is_migrated_and_lists_its_beams(tmp_path, monkeypatch):
     from storage import db as db_module
 
@@ -144,11 +149,23 @@ def test_a_database_from_before_the_list_fields_is_migrated_and_lists_its_beams(
         m.setattr(db_module, "MIGRATIONS", old_migrations)
         old = Store(path)
         site, ids = _site(old)
-        results.fresh(old.db, site.id)  # the old site open (a stored result per beam, no list fields)
+        # the old site open: a stored result per beam as the app of schema 3 wrote it (no list fields, its
+        # table rows' text in each row)
+        for bid in ids:
+            old.db.execute(
+                "INSERT INTO beam_result (beam_id, site_id, input_hash, status, governing, utilisation, findings, "
+                "rows_used) VALUES (?, ?, 'old-key', 'ok', 'shear', 0.5, '[]', ?)",
+                [bid, site.id, OLD_ROWS if bid != ids[2] else "[]"],
+            )
         assert old.db.execute("PRAGMA user_version").fetchone()[0] == 3
         old.close()
     store = Store(path)  # migrations 4 (list fields) and 5 (device identity) run
     assert store.db.execute("PRAGMA user_version").fetchone()[0] == max(db_module.MIGRATIONS)
+    # migration 9: the rows' text kept once, in rows_set, and read back as it was
+    assert store.db.execute("SELECT rows FROM rows_set").fetchall() == [(OLD_ROWS,)]
+    assert {r[0] for r in store.db.execute("SELECT rows_used FROM beam_result")} == {"[]"}
+    kept = results.stored(store.db, site.id)
+    assert [kept[b].rows_used for b in ids] == [tuple(json.loads(OLD_ROWS))] * 2 + [()]
     assert len(list(results.jobs(store.db, site.id))) == 3  # every result recomputed once to fill the fields
     results.refresh(store.db, site.id)
     assert [(r[0], r[1]["mark"], r[1]["level"]) for r in results.site_list(store.db, site.id)] == [

@@ -199,12 +199,12 @@ def test_portfolio_of_one_site_stores_what_the_site_refresh_stores(tmp_path, pro
     expect = {j[0]: results.as_row(results.compute(j)) for j in results.jobs(store.db, None, only_stale=False)}
     store.db.execute("DELETE FROM beam_result")
     run = results.recheck_all(store.db, yard.id, processes=processes, chunk=2)
-    got = {r[0]: tuple(r) for r in store.db.execute(f"SELECT {', '.join(results._ROW_COLUMNS)} FROM beam_result")}
+    got = results.stored_rows(store.db)
     assert run.rechecked == 6 == len(got)
     assert got == {k: v for k, v in expect.items() if v[1] == yard.id}
     assert [a.beam_id for _, a in run.moved] == sorted(got)  # in id order, as before
     results.recheck_all(store.db, processes=processes, chunk=5)
-    got = {r[0]: tuple(r) for r in store.db.execute(f"SELECT {', '.join(results._ROW_COLUMNS)} FROM beam_result")}
+    got = results.stored_rows(store.db)
     assert got == expect
     assert gone not in got
 
