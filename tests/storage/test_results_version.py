@@ -4,6 +4,8 @@ An app update whose recheck prints something else (core.results.RESULTS_VERSION)
 showing statuses from the old recheck: the results are marked stale once when the database is opened.
 """
 
+import pytest
+
 from core.recheck import recheck
 from core.results import RESULTS_VERSION
 from storage import Store, results
@@ -120,6 +122,36 @@ def test_the_portfolio_keeps_the_stale_mark_of_a_beam_saved_meanwhile(tmp_path, 
     results.recheck_all(store.db, processes=1)
     assert _key_of(store, ids[0])[0] == ""
     assert all(_key_of(store, b)[0] for b in ids[1:])
+
+
+@pytest.mark.parametrize("same_connection", [True, False])
+def test_the_portfolio_keeps_the_stale_mark_of_a_beam_saved_between_its_batches(tmp_path, same_connection):
+    """A save between two batches of the portfolio keeps its beam's stale mark, whichever connection made it.
+
+    Through the run's own connection (another thread sharing it) or another one: the later batch holds the
+    beam's recheck from its record as it was before the save, which must not overwrite the mark. The portfolio
+    stores its rows without reading the records again while nothing else has written (``results.Untouched``);
+    this is what ends that.
+    """
+    path = tmp_path / "between.db"
+    store = Store(path)
+    site = store.create_site(name="Yard")
+    ids = sorted(store.save_beam(site.id, glulam(mark=f"B-{i}"), {"level": "Roof"}) for i in range(4))
+    results.fresh(store.db, site.id)
+    saved = []
+
+    def save_once(done, _total):
+        if done and not saved:  # the first batch is stored; the second part was sent to a worker with it
+            writer = store if same_connection else Store(path)
+            writer.save_beam(site.id, glulam(mark="B-3", d_mm=494), {"level": "Roof"}, beam_id=ids[-1])
+            if writer is not store:
+                writer.close()
+            saved.append(done)
+
+    results.recheck_all(store.db, processes=2, chunk=2, commit_rows=1, on_progress=save_once)
+    assert saved == [2]
+    assert _key_of(store, ids[-1])[0] == ""  # stale: rechecked from the record as it was before the save
+    assert all(_key_of(store, b)[0] for b in ids[:-1])
 
 
 def test_a_beam_moved_to_another_site_is_listed_there_at_once(tmp_path):
