@@ -10,7 +10,7 @@ from collections.abc import Callable
 
 from core.kinds import TraceStatus
 from core.member import Member
-from core.recheck.cases import LoadCase
+from core.recheck.cases import LoadCase, case_kd_note
 from core.results import TABLE_STATUSES, FactorTrace, RowUsed
 
 KN_PER_N = 1e-3  # unit conversion: multiply a force in N by this to get kN
@@ -113,7 +113,7 @@ def note(
 
 def add_kd(trace: Lines, case: LoadCase) -> None:
     """The KD line of a check's trace (CSA O86-19 5.3.2), with how KD was chosen."""
-    trace.add("KD", case.kd, "CSA O86-19 5.3.2", case.kd_note, TraceStatus.memory, row=KD_RULE)
+    trace.add("KD", case.kd, "CSA O86-19 5.3.2", case_kd_note(case), TraceStatus.memory, row=KD_RULE)
 
 
 # the rule every KD line rests on (CSA O86-19 5.3.2, Table 5.1; reference o86.md section 3.1), one row for all
