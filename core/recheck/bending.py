@@ -24,7 +24,7 @@ from core.clauses.stability import (
     lumber_db_limit,
     slenderness_cb,
 )
-from core.edges import EdgeSupport, compression_edge, unrestrained_elements
+from core.edges import EdgeSupport, compression_edge, rotation_how, unrestrained_elements
 from core.effective_length import chosen_row
 from core.kinds import Edge, ElementKind, MomentSign, Outcome, TraceStatus
 from core.member import Member
@@ -317,7 +317,9 @@ def _sawn_kl(
     # rotation as well as displacement (bridging, blocking, bearings), never zero for a held edge.
     lu = edge.lu_rotation_mm
     out["lu_mm"] = lu
-    note(trace, "Lu", round(lu), "CSA O86-19 6.5.3.2 (memory)", edge.rotation_how, "memory", "mm", row=LU_RULE_SAWN)
+    if trace is not None:
+        how = rotation_how(beam, edge)
+        trace.add("Lu", round(lu), "CSA O86-19 6.5.3.2 (memory)", how, "memory", "mm", row=LU_RULE_SAWN)
     return _kl_from_lu(beam, member, edge, fb, e, lu, out, trace)
 
 
