@@ -17,6 +17,7 @@ from pydantic import BaseModel
 
 _M = TypeVar("_M", bound=BaseModel)
 _SET: Final = object.__setattr__  # Final: compiled, read once, not looked up in the module per call
+_NEW: Final = object.__new__  # what ``cls.__new__`` finds on a result model (none defines its own), without the lookup
 # each model class's field names, the set every instance starts from (a copy of a set is cheaper than a new one)
 _FIELDS: dict[type[BaseModel], set[str]] = {}
 
@@ -30,7 +31,7 @@ def assembled(cls: type[_M], values: dict[str, Any]) -> _M:
     fields = _FIELDS.get(cls)
     if fields is None:
         fields = _FIELDS[cls] = set(cls.model_fields)
-    model = cls.__new__(cls)
+    model = _NEW(cls)
     _SET(model, "__dict__", values)
     _SET(model, "__pydantic_fields_set__", fields.copy())  # its own set, as validation gives each model
     _SET(model, "__pydantic_extra__", None)
