@@ -224,12 +224,8 @@ class BeamModel:
                 acc[i] += w * row[i]
         # each reaction: 0.0 + the end shear of the element on its left + v0 of the element on its right
         reactions = tuple((0.0 + acc[i]) + acc[j] for i, j in self._reaction_terms)
-        return CaseResult(
-            w_n_mm=tuple(w_n_mm),
-            v0_n=tuple(acc[:n_el]),
-            m0_nmm=tuple(acc[n_el : 2 * n_el]),
-            reactions_n=reactions,
-        )
+        # positional, in field order (w_n_mm, v0_n, m0_nmm, reactions_n): keywords cost more on a named tuple
+        return CaseResult(tuple(w_n_mm), tuple(acc[:n_el]), tuple(acc[n_el : 2 * n_el]), reactions)
 
     def _nodal_displacements(self, w_n_mm: tuple[float, ...]) -> list[float]:
         """Nodal (v, theta) of every node times EI, by superposition of the unit cases (in case order)."""

@@ -11,12 +11,15 @@ and the golden digests hold the output byte for byte.
 
 from __future__ import annotations
 
-from typing import Any, TypeVar
+from typing import Any, Final, TypeVar
 
 from pydantic import BaseModel
 
 _M = TypeVar("_M", bound=BaseModel)
-_SET = object.__setattr__
+_SET: Final = object.__setattr__  # Final: compiled, read once, not looked up in the module per call
+_NEW: Final = object.__new__  # what ``cls.__new__`` finds on a result model (none defines its own), without the lookup
+# each model class's field names, the set every instance starts from (a copy of a set is cheaper than a new one)
+_FIELDS: dict[type[BaseModel], set[str]] = {}
 
 
 def assembled(cls: type[_M], values: dict[str, Any]) -> _M:
@@ -25,9 +28,12 @@ def assembled(cls: type[_M], values: dict[str, Any]) -> _M:
     What validation stores: the values as the fields' ``__dict__``, every field counted as set, no extra
     and no private attributes (the result models declare neither).
     """
-    model = cls.__new__(cls)
+    fields = _FIELDS.get(cls)
+    if fields is None:
+        fields = _FIELDS[cls] = set(cls.model_fields)
+    model = _NEW(cls)
     _SET(model, "__dict__", values)
-    _SET(model, "__pydantic_fields_set__", set(values))
+    _SET(model, "__pydantic_fields_set__", fields.copy())  # its own set, as validation gives each model
     _SET(model, "__pydantic_extra__", None)
     _SET(model, "__pydantic_private__", None)
     return model

@@ -45,14 +45,18 @@ def chosen_row(le_case: str, kind: RegionKind) -> tuple[dict[str, str], str]:
 
     le_case: ``auto`` or a row name chosen by the reviewer. The default never picks a memory row:
     the span of a simple span under uniform load takes ``simple_udl``, every other region ``any``.
-    Found once per (tables generation, le_case, kind) (few keys: a row name and three flags).
+    Found once per (tables generation, le_case, kind) (few keys: a row name and three flags). The cache is
+    keyed by the kind's three flags, not the kind: a dataclass's hash and equality run interpreted even compiled.
     """
-    return _chosen_row(tables.generation(), le_case, kind)
+    return _chosen_row(tables.generation(), le_case, kind.simple_span, kind.cantilever, kind.braced_between)
 
 
 @lru_cache(maxsize=1024)
-def _chosen_row(generation: int, le_case: str, kind: RegionKind) -> tuple[dict[str, str], str]:
+def _chosen_row(
+    generation: int, le_case: str, simple_span: bool, cantilever: bool, braced_between: bool
+) -> tuple[dict[str, str], str]:
     del generation  # the cache key only: a firm's correction gives a new generation
+    kind = RegionKind(simple_span, cantilever, braced_between)
     if le_case != AUTO:
         row = tables.find("effective_length", le_case=le_case)
         reason = row_fits(row, kind)

@@ -204,14 +204,22 @@ def _rests_on(cases: dict[str, str]) -> str:
     )
 
 
-def bending_findings(beam: Beam, member: Member, bending: list[BendingRegion]) -> list[Finding]:
+def failing_unseen(beam: Beam, member: Member, bending: list[BendingRegion]) -> list[dict[str, str] | None]:
+    """Per region: the unseen cases its bending failure rests on (``unseen_cases``), or None where it does not fail."""
+    return [unseen_cases(beam, member, r) if fails_in_bending(r) else None for r in bending]
+
+
+def bending_findings(
+    beam: Beam, member: Member, bending: list[BendingRegion], unseen: list[dict[str, str] | None] | None = None
+) -> list[Finding]:
     """Overstress, slenderness over the limit and unbraced compression edges, per region.
 
     A failing region whose answer rests on an unfavourable case taken for what was not seen names it.
+    unseen: ``failing_unseen`` of the regions, where the caller found it already (found here otherwise).
     """
     out = []
-    for r in bending:
-        rests = _rests_on(unseen_cases(beam, member, r)) if fails_in_bending(r) else ""
+    for r, cases in zip(bending, failing_unseen(beam, member, bending) if unseen is None else unseen, strict=True):
+        rests = "" if cases is None else _rests_on(cases)
         if r.outcome is Outcome.not_permitted:
             out.append(
                 _finding(
@@ -620,10 +628,11 @@ def build_findings(
     An unfavourable case taken for what was not seen that a bending failure rests on is ranked before
     loading, and the failure names it (``unseen_cases``).
     """
-    rests = {c for r in bending if fails_in_bending(r) for c in unseen_cases(beam, member, r)}
+    unseen = failing_unseen(beam, member, bending)  # found once: for the ranks below and the failures' words
+    rests = {c for cases in unseen if cases is not None for c in cases}
     found = (
         restraint_findings(beam)
-        + bending_findings(beam, member, bending)
+        + bending_findings(beam, member, bending, unseen)
         + top_edge_findings(beam)
         + layup_findings(beam, member, STAMP in rests)
         + check_findings(beam, shear, bearing, deflection)

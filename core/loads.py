@@ -58,20 +58,31 @@ def _gravity_combinations(counteracting_dead: bool) -> tuple[Combination, ...]:
     return tuple(out)
 
 
-def combination_kd(combo: Combination, dead_n_mm: float, live_n_mm: float, snow_n_mm: float) -> tuple[float, str]:
-    """CSA O86-19 5.3.2 (memory): KD for a combination, with a note of how it was chosen.
+def combination_kd(combo: Combination, dead_n_mm: float, live_n_mm: float, snow_n_mm: float) -> float:
+    """CSA O86-19 5.3.2 (memory): KD for a combination (``kd_note`` says how it was chosen).
 
     dead_n_mm: specified dead load including self-weight, N/mm; live, snow: specified, N/mm.
     1.4D takes the permanent KD 0.65; other gravity combinations are standard term, with
     KD = 1 - 0.5 log10(PL/PS) >= 0.65 where PL > PS (PS = principal + 0.5 companion, specified).
     """
     if combo.dead_load_only:
-        return KD_PERMANENT, "permanent load (1.4D): KD = 0.65, O86-19 Table 5.1"
-    ps = combo.ps_l * live_n_mm + combo.ps_s * snow_n_mm
-    kd = load_duration_kd_standard(dead_n_mm, ps)
+        return KD_PERMANENT
+    return load_duration_kd_standard(dead_n_mm, _standard_term(combo, live_n_mm, snow_n_mm))
+
+
+def kd_note(combo: Combination, kd: float, dead_n_mm: float, live_n_mm: float, snow_n_mm: float) -> str:
+    """How ``combination_kd`` chose KD, in words: written only where a trace is kept (the search formats none)."""
+    if combo.dead_load_only:
+        return "permanent load (1.4D): KD = 0.65, O86-19 Table 5.1"
+    ps = _standard_term(combo, live_n_mm, snow_n_mm)
     if kd == 1.0:
-        return kd, f"standard term, PL = {dead_n_mm:.2f} <= PS = {ps:.2f} kN/m: KD = 1.0, O86-19 5.3.2.2"
-    return kd, f"standard term, PL = {dead_n_mm:.2f} > PS = {ps:.2f} kN/m: KD = 1 - 0.5 log(PL/PS), O86-19 5.3.2.3"
+        return f"standard term, PL = {dead_n_mm:.2f} <= PS = {ps:.2f} kN/m: KD = 1.0, O86-19 5.3.2.2"
+    return f"standard term, PL = {dead_n_mm:.2f} > PS = {ps:.2f} kN/m: KD = 1 - 0.5 log(PL/PS), O86-19 5.3.2.3"
+
+
+def _standard_term(combo: Combination, live_n_mm: float, snow_n_mm: float) -> float:
+    """PS of a standard-term combination: the specified live and snow counted as standard-term load, N/mm."""
+    return combo.ps_l * live_n_mm + combo.ps_s * snow_n_mm
 
 
 def applicable(combo: Combination, live_n_mm: float, snow_n_mm: float) -> bool:

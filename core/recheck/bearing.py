@@ -25,7 +25,7 @@ def _kzcp_line(trace: Lines, beam: Beam, kzcp: float) -> None:
         "KZcp",
         kzcp,
         "CSA O86-19 6.5.6.2.3 (memory)",
-        f"r = b/d = {beam.b_mm / beam.d_mm:.3f}: 1.0 + 0.15 (r - 1), at least 1.0, at most 1.15",
+        f"r = b/d = {beam.b_mm / beam.d_mm:.3f}: 1.0 + 0.15 (r - 1), at least 1.0, at most 1.15" if trace.kept else "",
         TraceStatus.memory,
         row="KZcp = 1.0 + 0.15 (r - 1) with r = b/d, at least 1.0, at most 1.15",
     )
@@ -42,13 +42,19 @@ def _trace(
     case: LoadCase,
     qr: float,
 ) -> None:
-    """The lines of a bearing check's trace: Ab, KB, KZcp, KD, fcp, Fcp and the Qr formula."""
-    trace.add("Ab", area, "", f"b x bearing length {bearing.length_mm:g} mm", TraceStatus.input, "mm2")
+    """The lines of a bearing check's trace: Ab, KB, KZcp, KD, fcp, Fcp and the Qr formula.
+
+    Ab (an input), Fcp and Qr (formulas) name no table row: written only when the lines are kept.
+    """
+    if trace.kept:
+        trace.add("Ab", area, "", f"b x bearing length {bearing.length_mm:g} mm", TraceStatus.input, "mm2")
     kb_rule = "KB = 1.0 at an end bearing: no length factor taken (conservative)"
     trace.add("KB", 1.0, clause, kb_rule, TraceStatus.memory)
     _kzcp_line(trace, beam, kzcp)
     add_kd(trace, case)
     strength_line(trace, member, "fcp", member.fcp_mpa)
+    if not trace.kept:
+        return
     fcp = factored_strength(member.fcp_mpa, case.kd, member.kscp, member.kt)
     trace.add(
         "Fcp",

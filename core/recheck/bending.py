@@ -24,13 +24,23 @@ from core.clauses.stability import (
     lumber_db_limit,
     slenderness_cb,
 )
-from core.edges import EdgeSupport, compression_edge, unrestrained_elements
+from core.edges import EdgeSupport, compression_edge, rotation_how, unrestrained_elements
 from core.effective_length import chosen_row
 from core.kinds import Edge, ElementKind, MomentSign, Outcome, TraceStatus
 from core.member import Member
 from core.models import Beam, Material, NegativeLu, TopStamp
 from core.recheck.cases import LoadCase, carries_snow
-from core.recheck.trace import KNM_PER_NMM, Lines, add_kd, case_label, dead_load_line, grade_line, lines_for, note
+from core.recheck.trace import (
+    KNM_PER_NMM,
+    Lines,
+    add_kd,
+    case_label,
+    dead_load_line,
+    grade_line,
+    kept,
+    lines_for,
+    note,
+)
 from core.results import BendingRegion, FactorTrace, RowUsed
 
 
@@ -84,14 +94,15 @@ def _head_trace(
         # lists that row once; glulam's face rule (Table 7.3 note, by the TOP stamp) is a row of its own
         row=grade_line(member).source if sawn else "",
     )
-    trace.add(
-        "Fb",
-        fb,
-        "CSA O86-19 6.5.3.1 (memory)" if sawn else "CSA O86-19 7.5.6.5.1",
-        f"Fb = fb (KD KH KSb KT) = {fb_spec:g} x {case.kd:g} x {member.kh:g} x {member.ksb:g} x {member.kt:g}",
-        TraceStatus.formula,
-        "MPa",
-    )
+    if trace.kept:  # a formula line: it names no table row
+        trace.add(
+            "Fb",
+            fb,
+            "CSA O86-19 6.5.3.1 (memory)" if sawn else "CSA O86-19 7.5.6.5.1",
+            f"Fb = fb (KD KH KSb KT) = {fb_spec:g} x {case.kd:g} x {member.kh:g} x {member.ksb:g} x {member.kt:g}",
+            TraceStatus.formula,
+            "MPa",
+        )
     # sawn lumber needs no Lu within its d/b tier (KL = 1) and writes its own past it (LU_RULE_SAWN): one Lu line
     if not sawn:
         rule = LU_RULE_TOP if edge.edge is Edge.top else LU_RULE_BOTTOM
@@ -217,7 +228,7 @@ def _kzbg(beam: Beam, region: Region, trace: Lines | None) -> float:
             "KZbg",
             kzbg,
             "CSA O86-19 7.5.6.5.1",
-            f"L = {length:.0f} mm between points of zero moment; cap 1.3",
+            f"L = {length:.0f} mm between points of zero moment; cap 1.3" if trace.kept else "",
             "confirmed",
             row=KZBG_RULE,
         )
@@ -278,7 +289,7 @@ def _stability_kl(
         return _sawn_kl(beam, member, edge, fb, out, trace)
     if glulam_db_waives_stability(beam.d_mm, beam.b_mm):
         if trace is not None:  # without a trace nothing is formatted
-            db = f"d/b = {beam.d_mm / beam.b_mm:.2f} <= 2.5"
+            db = f"d/b = {beam.d_mm / beam.b_mm:.2f} <= 2.5" if trace.kept else ""
             trace.add("KL", 1.0, "CSA O86-19 7.5.6.3.2", db, "memory", row="KL = 1 where d/b <= 2.5")
         return 1.0
     if edge.continuous:
@@ -301,7 +312,8 @@ def _sawn_kl(
     limit, need = lumber_db_limit(edge.purlins_in_line, edge.held_directly, edge.bridging, edge.both_edges)
     if db <= limit:
         row = f"KL = 1 where d/b <= {limit:g} ({need})"
-        note(trace, "KL", 1.0, "CSA O86-19 6.5.3.2.1", f"d/b = {db:.2f} <= {limit:g} ({need})", "memory", row=row)
+        how = f"d/b = {db:.2f} <= {limit:g} ({need})" if kept(trace) else ""
+        note(trace, "KL", 1.0, "CSA O86-19 6.5.3.2.1", how, "memory", row=row)
         return 1.0
     e = member.e05_mpa
     note(
@@ -309,7 +321,7 @@ def _sawn_kl(
         "E05",
         e,
         "CSA O86-19 6.5.3.2",
-        f"d/b = {db:.2f} > {limit:g}: glulam KL method with E05 (conservative choice)",
+        f"d/b = {db:.2f} > {limit:g}: glulam KL method with E05 (conservative choice)" if kept(trace) else "",
         "memory",
         row=f"past d/b {limit:g} ({need}): the glulam KL method with E05 (conservative choice)",
     )
@@ -317,7 +329,9 @@ def _sawn_kl(
     # rotation as well as displacement (bridging, blocking, bearings), never zero for a held edge.
     lu = edge.lu_rotation_mm
     out["lu_mm"] = lu
-    note(trace, "Lu", round(lu), "CSA O86-19 6.5.3.2 (memory)", edge.rotation_how, "memory", "mm", row=LU_RULE_SAWN)
+    if trace is not None:
+        how = rotation_how(beam, edge) if trace.kept else ""
+        trace.add("Lu", round(lu), "CSA O86-19 6.5.3.2 (memory)", how, "memory", "mm", row=LU_RULE_SAWN)
     return _kl_from_lu(beam, member, edge, fb, e, lu, out, trace)
 
 
@@ -345,7 +359,7 @@ def _kl_from_lu(
         note(trace, "KL", None, stability.clause, str(stability), "confirmed", row=CB_LIMIT_RULE)
         return stability
     if trace is not None:
-        regime = f"regime {stability.regime}"
+        regime = f"regime {stability.regime}" if trace.kept else ""
         note(trace, "KL", stability.kl, "CSA O86-19 7.5.6.4.4", regime, "confirmed", row=_KL_RULES[stability.regime])
     return stability.kl
 
@@ -359,7 +373,7 @@ def _slenderness_trace(
         "Le",
         le,
         "CSA O86-19 7.5.6.4.2 / Table 7.4",
-        f"row {row['description']!r}: Le = {factor:g} Lu; {why}",
+        f"row {row['description']!r}: Le = {factor:g} Lu; {why}" if trace.kept else "",
         row["status"],
         "mm",
         row=f"row {row['description']!r}: Le = {factor:g} Lu",  # the row alone, without why it was chosen

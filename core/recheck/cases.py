@@ -11,7 +11,7 @@ from itertools import product
 from typing import NamedTuple
 
 from core.analysis import BeamModel, CaseResult
-from core.loads import Combination, applicable, combination_kd, gravity_combinations
+from core.loads import Combination, applicable, combination_kd, gravity_combinations, kd_note
 from core.member import Member
 from core.models import Beam, DeadLoadPattern
 
@@ -24,7 +24,7 @@ class LoadCase(NamedTuple):
 
     combo: Combination
     kd: float
-    kd_note: str
+    specified_n_mm: tuple[float, float, float]  # D (with self-weight), L and S, specified: what the KD note reads
     pattern: str  # the elements carrying live/snow ("" for dead load only, "all spans" when every one does)
     result: CaseResult
     total_factored_n: float
@@ -52,8 +52,18 @@ def _pattern_name(model: BeamModel, pattern: tuple[bool, ...]) -> str:
     return "all spans" if all(pattern) else _names(model, pattern, True)
 
 
+def case_kd_note(case: LoadCase) -> str:
+    """How a case's KD was chosen, in words (``core.loads.kd_note``), for its trace."""
+    dead, live, snow = case.specified_n_mm
+    return kd_note(case.combo, case.kd, dead, live, snow)
+
+
 def _total(w: tuple[float, ...], model: BeamModel) -> float:
-    return sum(wi * li for wi, li in zip(w, model.lengths, strict=True))
+    """The total factored load of a case, N: sum(w * length) from 0.0 in element order (the sum's own floats)."""
+    total = 0.0
+    for wi, li in zip(w, model.lengths, strict=True):
+        total += wi * li
+    return total
 
 
 def carries_snow(case: LoadCase, beam: Beam) -> bool:
@@ -75,11 +85,12 @@ def load_cases(beam: Beam, member: Member, model: BeamModel) -> list[LoadCase]:
     n_el = len(model.elements)
     split = n_el > 1 and beam.dead_load_pattern is DeadLoadPattern.per_part
     high_d, low = SPLIT_HIGH_D * dead, SPLIT_LOW_D * dead  # a split pattern's 1.25D and 0.9D parts
+    specified = (dead, live, snow)
     cases = []
     for combo in gravity_combinations(counteracting_dead=n_el > 1):
         if not applicable(combo, live, snow):
             continue
-        kd, note = combination_kd(combo, dead, live, snow)
+        kd = combination_kd(combo, dead, live, snow)
         variable = combo.alpha_l * live + combo.alpha_s * snow
         patterns = [(True,) * n_el] if combo.dead_load_only or variable == 0 else live_patterns(n_el)
         base = combo.alpha_d * dead
@@ -87,28 +98,11 @@ def load_cases(beam: Beam, member: Member, model: BeamModel) -> list[LoadCase]:
         for pattern in patterns:
             w = tuple(loaded if on else unloaded for on in pattern)
             name = "" if combo.dead_load_only else _pattern_name(model, pattern)
-            cases.append(
-                LoadCase(
-                    combo=combo,
-                    kd=kd,
-                    kd_note=note,
-                    pattern=name,
-                    result=model.case(w),
-                    total_factored_n=_total(w, model),
-                )
-            )
+            # positional, in field order: a named tuple's keyword arguments cost more than its fields
+            cases.append(LoadCase(combo, kd, specified, name, model.case(w), _total(w, model)))
             if split and combo.alpha_d == SPLIT_HIGH_D and not all(pattern):
                 high = high_d + variable
                 w = tuple(high if on else low for on in pattern)
-                cases.append(
-                    LoadCase(
-                        combo=combo,
-                        kd=kd,
-                        kd_note=note,
-                        pattern=name,
-                        relieving=_names(model, pattern, False),
-                        result=model.case(w),
-                        total_factored_n=_total(w, model),
-                    )
-                )
+                relieving = _names(model, pattern, False)
+                cases.append(LoadCase(combo, kd, specified, name, model.case(w), _total(w, model), relieving))
     return cases

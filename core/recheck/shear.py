@@ -62,10 +62,12 @@ def _method_line(trace: Lines, beam: Beam, model: BeamModel, volume: float, volu
 def _strength_trace(
     trace: Lines, beam: Beam, member: Member, case: LoadCase, resist: float, volume: float, volume_method: bool
 ) -> None:
-    """fv, Fv and the Vr (or Wr) formula lines of the shear check's governing case."""
+    """fv, Fv and the Vr (or Wr) formula lines of the shear check's governing case (formulas: only when kept)."""
+    strength_line(trace, member, "fv", member.fv_mpa)
+    if not trace.kept:
+        return
     fv = factored_strength(member.fv_mpa, case.kd, member.kh, member.ksv, member.kt)
     _, clause = _method(beam, volume_method)
-    strength_line(trace, member, "fv", member.fv_mpa)
     trace.add(
         "Fv",
         fv,

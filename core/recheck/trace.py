@@ -10,7 +10,7 @@ from collections.abc import Callable
 
 from core.kinds import TraceStatus
 from core.member import Member
-from core.recheck.cases import LoadCase
+from core.recheck.cases import LoadCase, case_kd_note
 from core.results import TABLE_STATUSES, FactorTrace, RowUsed
 
 KN_PER_N = 1e-3  # unit conversion: multiply a force in N by this to get kN
@@ -80,9 +80,24 @@ class Lines:
         if table is not None:
             rows.add((clause, row or source, table))
 
+    @property
+    def kept(self) -> bool:
+        """Whether the lines themselves are kept (a traced recheck), not only the table rows they name.
+
+        Where only rows are kept, a line gives its ``row``, or else its source, and only under a table's status:
+        the source of a formula or input line, or of a line keyed to its ``row``, is then never read, so it is
+        formatted only when ``kept`` (the rows come out the same: ``tests/core/test_rows_used.py``).
+        """
+        return self.rows is None
+
 
 # the statuses of a table row (core.results.TABLE_STATUSES), by value
 _TABLE_STATUS: dict[str, TraceStatus] = {s.value: s for s in TABLE_STATUSES}
+
+
+def kept(trace: Lines | None) -> bool:
+    """Whether a check's trace lines are kept (``Lines.kept``): False with no trace, or only its rows, kept."""
+    return trace is not None and trace.rows is None
 
 
 def lines_for(traces: bool, rows: set[RowUsed] | None) -> Lines | None:
@@ -112,8 +127,9 @@ def note(
 
 
 def add_kd(trace: Lines, case: LoadCase) -> None:
-    """The KD line of a check's trace (CSA O86-19 5.3.2), with how KD was chosen."""
-    trace.add("KD", case.kd, "CSA O86-19 5.3.2", case.kd_note, TraceStatus.memory, row=KD_RULE)
+    """The KD line of a check's trace (CSA O86-19 5.3.2), with how KD was chosen (its row: KD_RULE)."""
+    how = case_kd_note(case) if trace.kept else ""
+    trace.add("KD", case.kd, "CSA O86-19 5.3.2", how, TraceStatus.memory, row=KD_RULE)
 
 
 # the rule every KD line rests on (CSA O86-19 5.3.2, Table 5.1; reference o86.md section 3.1), one row for all
@@ -131,8 +147,8 @@ def dead_load_line(
     ``utilisation``: the check's under 1.4D (None where it has none); ``how``: that case's numbers in words,
     formatted only when the line is written. ``core.findings.dead_load_words`` says the same in the finding.
     """
-    if utilisation is None or utilisation <= 1.0 or governing.combo.dead_load_only:
-        return
+    if not trace.kept or utilisation is None or utilisation <= 1.0 or governing.combo.dead_load_only:
+        return  # a formula line: it names no table row
     trace.add("dead load alone (1.4D)", utilisation, clause, how(), TraceStatus.formula)
 
 
