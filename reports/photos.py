@@ -12,7 +12,9 @@ from PIL import Image, ImageOps
 from reportlab.lib import colors
 from reportlab.lib.units import mm
 from reportlab.lib.utils import ImageReader
-from reportlab.platypus import Flowable, Paragraph
+from reportlab.platypus import Flowable
+
+from reports.textrun import Paragraph
 
 MAX_EDGE_PX = 900
 JPEG_QUALITY = 72
@@ -51,8 +53,8 @@ def prepare_photo(content: bytes, max_edge_px: int = MAX_EDGE_PX) -> tuple[bytes
         if scale < 1.0:
             # JPEG only: decode at the smallest DCT scale that still covers the target size (much faster).
             img.draft("RGB", (int(img.width * scale) + 1, int(img.height * scale) + 1))
-        upright = ImageOps.exif_transpose(img)
-        rgb = upright.convert("RGB")
+        upright = ImageOps.exif_transpose(img)  # a copy (turned or not): ``thumbnail`` below may change it
+        rgb = upright if upright.mode == "RGB" else upright.convert("RGB")  # convert() would copy it once more
         rgb.thumbnail((max_edge_px, max_edge_px))
         out = io.BytesIO()
         rgb.save(out, "JPEG", quality=JPEG_QUALITY, optimize=True)

@@ -19,7 +19,6 @@ from reportlab.platypus import (
     Image,
     KeepTogether,
     PageBreak,
-    Paragraph,
     SimpleDocTemplate,
     Spacer,
     Table,
@@ -53,7 +52,7 @@ from reports.loadcases import case_section, reaction_section
 from reports.photos import CELL_W_MM, photo_flowable, wide_box
 from reports.sketch import FONT, FONT_BOLD, beam_sketch, register_fonts
 from reports.tablerows import memory_rows
-from reports.textrun import markup
+from reports.textrun import Paragraph, markup
 from reports.words import SHORT_PRIORITY, priority_label
 
 # Binary (Flate/DCT) streams instead of ASCII85: reportlab's pure-Python ASCII85 encoder was most of

@@ -15,14 +15,17 @@ visibly as [U+XXXX]; a character no font has is shown the same way, never droppe
 from __future__ import annotations
 
 import base64
+import re
 import unicodedata
-from functools import cache
+from functools import cache, lru_cache
 from pathlib import Path
 from typing import Any
 from xml.sax.saxutils import escape
 
+from reportlab.lib.styles import ParagraphStyle
 from reportlab.pdfbase import pdfmetrics
 from reportlab.pdfbase.ttfonts import TTFont
+from reportlab.platypus import Paragraph as _Paragraph
 
 FONT_DIRS = (
     Path("/usr/share/fonts/truetype/noto"),
@@ -146,8 +149,25 @@ def shape_rtl(line: str) -> str:
     return str(get_display(arabic_reshaper.reshape(line)))
 
 
+@cache
+def _covers_ascii(main_font: str) -> bool:
+    """Whether the main font draws every printable ASCII character (then such a line is one run in it)."""
+    return all(code in _main_cover(main_font) for code in range(0x20, 0x7F))
+
+
+def _plain(line: str) -> bool:
+    """A line of printable ASCII alone: no control to show, no right-to-left letter, nothing dropped."""
+    return line.isascii() and line.isprintable()
+
+
 def _line_markup(line: str, main_font: str) -> str:
-    """One line: runs of characters in one font; emoji as inline images; unknown characters shown."""
+    """One line: runs of characters in one font; emoji as inline images; unknown characters shown.
+
+    A line of printable ASCII (most of a notice) is one run in the main font when it draws them all: escaped
+    as it is, without looking up each character (what the loop below gives for it).
+    """
+    if _plain(line) and _covers_ascii(main_font):
+        return escape(line)
     out: list[str] = []
     run: list[str] = []
     run_font = main_font
@@ -175,9 +195,50 @@ def _line_markup(line: str, main_font: str) -> str:
     return "".join(out)
 
 
+def _shown(ch: str) -> str:
+    return visible(ord(ch)) if _needs_showing(ch) else ch
+
+
 def markup(text: object, main_font: str) -> str:
     """Escaped Paragraph markup for ``text``: runs in fonts that have them, emoji as images, controls shown."""
     lines = str(text).replace("\r\n", "\n").replace("\t", " ").split("\n")
     # controls are made visible before shaping, so an override cannot reorder a line
-    shown = ("".join(visible(ord(c)) if _needs_showing(c) else c for c in line) for line in lines)
+    shown = (line if _plain(line) else "".join(_shown(c) for c in line) for line in lines)
     return "<br/>".join(_line_markup(line, main_font) for line in shown)
+
+
+# scripts written without spaces between words (Thai, Lao, Myanmar, Khmer, Chinese, Japanese; Korean and the
+# CJK punctuation and full-width forms with them): a line of such text may break between any two characters
+_UNSPACED = re.compile(
+    "[\u0e00-\u0eff\u1000-\u109f\u1780-\u17ff\u3000-\u30ff\u3400-\u4dbf\u4e00-\u9fff"
+    "\uac00-\ud7af\uf900-\ufaff\uff00-\uffef\U00020000-\U0003134f]"
+)
+
+
+def unspaced(text: str) -> bool:
+    """True when ``text`` holds a character of a script written without spaces between words."""
+    return _UNSPACED.search(text) is not None
+
+
+class Paragraph(_Paragraph):
+    """reportlab's Paragraph, which breaks lines anywhere (``wordWrap="CJK"``) only where its text needs it.
+
+    The notice's styles break anywhere, so a Chinese, Japanese or Thai note wraps; reportlab's line breaker
+    for that measures every character on its own, about a fifth of a notice's time. Text with no character of
+    such a script is broken between words instead (a word longer than the line is still split:
+    ``ParagraphStyle.splitLongWords``), with the same style otherwise.
+    """
+
+    def __init__(self, text: str, style: ParagraphStyle | None = None, *args: Any, **kwargs: Any) -> None:
+        if style is not None and style.wordWrap == "CJK" and not unspaced(text):
+            style = _between_words(style)
+        super().__init__(text, style, *args, **kwargs)
+
+
+@lru_cache(maxsize=256)
+def _between_words(style: ParagraphStyle) -> ParagraphStyle:
+    """``style`` breaking lines between words (one per style: a notice makes thousands of paragraphs).
+
+    No space shrinkage: reportlab otherwise lets a line of words overrun its width by up to 5 % of its spaces.
+    """
+    return ParagraphStyle(f"{style.name} (words)", parent=style, wordWrap=None, spaceShrinkage=0)
