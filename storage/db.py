@@ -246,6 +246,14 @@ def apply_statement(db: sqlite_utils.Database, statement: str | AddColumn) -> No
         db.execute(f"ALTER TABLE {statement.table} ADD COLUMN {statement.column} {statement.declared}")
 
 
+def data_version(db: sqlite_utils.Database) -> int | None:
+    """SQLite's ``PRAGMA data_version`` (it changes when another connection commits); None elsewhere."""
+    conn = getattr(db, "conn", None)
+    if not isinstance(conn, sqlite3.Connection):
+        return None
+    return int(conn.execute("PRAGMA data_version").fetchone()[0])
+
+
 @contextmanager
 def transaction(db: sqlite_utils.Database) -> Iterator[sqlite_utils.Database]:
     """One write transaction (BEGIN IMMEDIATE ... COMMIT); rolled back on any exception."""

@@ -18,7 +18,7 @@ from typing import Any
 import sqlite_utils
 
 from storage.clock import HLC_MAX
-from storage.db import INSERT_ENTITIES, SCHEMA_VERSION, SET_ENTITIES
+from storage.db import INSERT_ENTITIES, SCHEMA_VERSION, SET_ENTITIES, data_version
 from storage.fastjson import canonical, dumps_parsed, loads, loads_finite
 from storage.stamps import utc_stamp
 
@@ -250,14 +250,6 @@ def _write_many(db: sqlite_utils.Database, sql: str, rows: Sequence[Sequence[Any
         db.execute(sql, list(row))
 
 
-def _data_version(db: sqlite_utils.Database) -> int | None:
-    """SQLite's ``PRAGMA data_version`` (it changes when another connection commits); None elsewhere."""
-    conn = getattr(db, "conn", None)
-    if not isinstance(conn, sqlite3.Connection):
-        return None
-    return int(conn.execute("PRAGMA data_version").fetchone()[0])
-
-
 def _padded_chunks(items: Sequence[Any]) -> Iterable[tuple[list[Any], list[Any]]]:
     """``(chunk, padded)``: ``items`` at most IN_CHUNK at a time, each chunk also padded to a power of two.
 
@@ -344,7 +336,7 @@ class ProjectionBatch:
         self.new_ops: list[tuple[Any, ...]] = []  # op rows inserted by the batch, written at flush()
         # (origin, hlc, entity, record_id) -> least seq of new_ops; built from new_ops when a conflict first asks
         self.new_at: dict[tuple[str, int, str, str], int] | None = None
-        self.version = _data_version(db)  # SQLite's data_version when the batch began (renew() compares)
+        self.version = data_version(db)  # SQLite's data_version when the batch began (renew() compares)
 
     def renew(self) -> None:
         """Carry the batch into the caller's next transaction of the same merge (call right after it began).
@@ -358,7 +350,7 @@ class ProjectionBatch:
         if self.dirty or self.dirty_stamps or self.new_ops:
             msg = "ProjectionBatch.renew: flush() the batch and commit before the next transaction"
             raise RuntimeError(msg)
-        version = _data_version(self.db)
+        version = data_version(self.db)
         if version is None or version != self.version or len(self.rows) + len(self.stamps) > KEEP_MAX:
             self.rows.clear()
             self.stored_site.clear()
